@@ -1,0 +1,42 @@
+/* pixpost — the forward model y = A x + b + e and its simulation.
+ *
+ * A is convolution with a PSF normalised to sum 1. With periodic boundaries
+ * it is circular convolution on the frame; with pad boundaries it is linear
+ * convolution with the scene taken as zero outside the frame, cropped to
+ * the frame (the same as scipy.signal.convolve2d(..., mode='same',
+ * boundary='fill')).
+ */
+#ifndef PIXPOST_MODEL_H
+#define PIXPOST_MODEL_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include "pixpost/fft.h"
+#include "pixpost/image.h"
+#include "pixpost/noise.h"
+#include "pixpost/rng.h"
+
+typedef enum pp_boundary { PP_BOUNDARY_PAD = 0, PP_BOUNDARY_PERIODIC = 1 } pp_boundary;
+
+pp_status pp_boundary_parse(const char *s, pp_boundary *out);
+const char *pp_boundary_name(pp_boundary b);
+
+/* The transfer function: the PSF zero-padded to height x width with its
+ * centre pixel moved to (0,0), transformed by f (r2c). otf has
+ * height*(width/2+1) entries. The PSF must fit in the grid. */
+pp_status pp_psf_transfer(const pp_image *psf, const pp_fft *f, pp_complex *otf);
+
+/* out = A x with the given boundary; *out is a new image of x's size. */
+pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b,
+                        pp_image **out);
+
+/* Adds noise in place: y holds the noiseless A x in photons for
+ * poisson/camera (the result is in ADU) or in camera units for gaussian. */
+pp_status pp_model_add_noise(pp_image *y, const pp_noise_spec *noise, pp_rng *rng);
+
+/* simulate: blur then add noise with stream 0 of seed. */
+pp_status pp_model_simulate(const pp_image *truth, const pp_image *psf,
+                            pp_boundary b, const pp_noise_spec *noise,
+                            uint64_t seed, pp_image **out);
+
+#endif

@@ -1,0 +1,36 @@
+/* pixpost — noise models.
+ *
+ * Specs:
+ *   none                            (simulate only)
+ *   gaussian                        y = Ax + e, e ~ N(0, 1/lambda), lambda sampled
+ *   gaussian:sigma=S                the same with lambda fixed at 1/S^2
+ *   poisson:gain=G,offset=O         ADU = O + G * Poisson(photons)
+ *   camera:gain=G,offset=O,read=R   ADU = O + G * (Poisson(photons) + N(0, R^2))
+ *                                   (read noise R in electrons)
+ */
+#ifndef PIXPOST_NOISE_H
+#define PIXPOST_NOISE_H
+
+#include <stddef.h>
+#include "pixpost/status.h"
+
+typedef enum pp_noise_kind {
+    PP_NOISE_NONE,
+    PP_NOISE_GAUSSIAN,
+    PP_NOISE_POISSON,
+    PP_NOISE_CAMERA
+} pp_noise_kind;
+
+typedef struct pp_noise_spec {
+    pp_noise_kind kind;
+    double sigma;   /* gaussian: fixed sd when sigma_set */
+    int sigma_set;
+    double gain;    /* ADU per photo-electron (default 1) */
+    double offset;  /* ADU (default 0) */
+    double read;    /* electrons rms (camera) */
+} pp_noise_spec;
+
+pp_status pp_noise_parse(const char *text, pp_noise_spec *out);
+void pp_noise_format(const pp_noise_spec *s, char *buf, size_t len);
+
+#endif

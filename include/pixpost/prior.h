@@ -1,0 +1,39 @@
+/* pixpost — Gaussian Markov random field priors, diagonal in Fourier space.
+ *
+ * Prior precision delta * Q with periodic eigenvalues (Rue & Held 2005):
+ *   gmrf1                 q(k) = 4 - 2cos(2 pi k1/H) - 2cos(2 pi k2/W)  (rank N-1)
+ *   gmrf2                 q(k)^2                                          (rank N-1)
+ *   matern:range=R,nu=V   (kappa^2 + q(k))^(nu+1), kappa = sqrt(8 nu)/R
+ *                         (Lindgren, Rue & Lindstrom, JRSS-B 2011)
+ * Keys for every prior: delta=D fixes delta instead of sampling it; matern
+ * also takes mean=M, a known prior mean. Without mean=M the zero frequency
+ * carries no prior weight (the mean level is left to the data), so an
+ * offset or background is never shrunk towards zero.
+ */
+#ifndef PIXPOST_PRIOR_H
+#define PIXPOST_PRIOR_H
+
+#include <stddef.h>
+#include "pixpost/status.h"
+
+typedef enum pp_prior_kind { PP_PRIOR_GMRF1, PP_PRIOR_GMRF2, PP_PRIOR_MATERN } pp_prior_kind;
+
+typedef struct pp_prior_spec {
+    pp_prior_kind kind;
+    double range, nu;   /* matern */
+    double mean;        /* known prior mean when mean_set */
+    int mean_set;
+    double delta;       /* fixed prior precision when delta_set */
+    int delta_set;
+} pp_prior_spec;
+
+pp_status pp_prior_parse(const char *text, pp_prior_spec *out);
+void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len);
+
+/* Eigenvalues of Q on the H x (W/2+1) half spectrum, row-major. Entry
+ * (0,0) is 0 when the mean is free. *rank receives the number of non-zero
+ * eigenvalues over the FULL spectrum (N-1 or N). */
+pp_status pp_prior_eigen(const pp_prior_spec *s, size_t height, size_t width,
+                         double *q, double *rank);
+
+#endif

@@ -1,0 +1,48 @@
+/* pixpost — point-spread functions.
+ *
+ * Specs (lengths of airy in micrometres, gaussian in pixels):
+ *   gaussian:sigma=S
+ *   airy:na=NA,wavelength=L,pixel=P     in-focus Airy pattern (2 J1(v)/v)^2,
+ *                                       v = 2 pi NA r / L, averaged over each
+ *                                       pixel's area by supersampling
+ *   file:PATH                           a measured bead image: its border
+ *                                       median is subtracted, negatives
+ *                                       clipped, centred on its centroid
+ * Every kernel is odd-sized (2R+1 square), centred at (R, R), finite,
+ * non-negative and normalised to sum 1.
+ */
+#ifndef PIXPOST_PSF_H
+#define PIXPOST_PSF_H
+
+#include <stddef.h>
+#include "pixpost/image.h"
+
+typedef enum pp_psf_kind { PP_PSF_GAUSSIAN, PP_PSF_AIRY, PP_PSF_FILE } pp_psf_kind;
+
+typedef struct pp_psf_spec {
+    pp_psf_kind kind;
+    double sigma;                  /* gaussian, pixels */
+    double na, wavelength, pixel;  /* airy: numerical aperture, um, um */
+    char path[4096];               /* file */
+} pp_psf_spec;
+
+pp_status pp_psf_parse(const char *text, pp_psf_spec *out);
+
+/* Writes a canonical spec string (for summary.json) into buf. */
+void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len);
+
+/* Makes the kernel. size = 0 chooses the size from the model (gaussian:
+ * radius ceil(4 sigma); airy: radius of the 5th dark ring), otherwise size
+ * must be odd. A file PSF keeps its own support when size = 0. */
+pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out);
+
+/* Checks a kernel for use on a frame: finite, non-negative, non-zero sum,
+ * odd square, not larger than the frame (height x width). Normalises to
+ * sum 1 in place. */
+pp_status pp_psf_check(pp_image *psf, size_t height, size_t width);
+
+/* Bessel function of the first kind, order 1 (rational approximations of
+ * the Cephes library's j1, accurate to ~1e-15 absolute). */
+double pp_bessel_j1(double x);
+
+#endif
