@@ -12,6 +12,9 @@
 #define PP_PRINTF(a, b)
 #endif
 
+/* pi (M_PI is not in strict C11). */
+#define PP_PI 3.14159265358979323846
+
 /* Sets the thread's error message (printf-style) and returns s, so a
  * failure reads: return pp_fail(PP_ERR_IO, "%s: cannot open: %s", ...). */
 pp_status pp_fail(pp_status s, const char *fmt, ...) PP_PRINTF(2, 3);
