@@ -1,0 +1,168 @@
+/* pixpost command line — shared declarations of the front end (src/cli only).
+ *
+ * The only part of pixpost that talks to the terminal. Each command is a
+ * function int cli_cmd_<name>(int argc, char **argv) where argv[0] is the
+ * command name ("sample") and the options follow, like a small main(); it
+ * returns the process exit status (DESIGN.md section 6):
+ *   0 success, 1 bad usage or bad input (one line on stderr), 2 a batch in
+ *   which some frames failed, 3 convergence warnings with --strict.
+ *
+ * Option parsing is table driven (args.c): a command lists its options in
+ * cli_opt tables, cli_parse() collects the raw strings (refusing unknown,
+ * repeated and value-less options), then typed getters convert them with
+ * messages that name the option and the accepted form. Cost: linear scans of
+ * a few dozen options; nothing here is on a hot path.
+ */
+#ifndef PIXPOST_CLI_H
+#define PIXPOST_CLI_H
+
+#include <stddef.h>
+#include <stdint.h>
+#include <stdio.h>
+#include "pixpost/pixpost.h"
+
+#if defined(__GNUC__)
+#define CLI_PRINTF(a, b) __attribute__((format(printf, a, b)))
+#else
+#define CLI_PRINTF(a, b)
+#endif
+
+/* Exit statuses (DESIGN.md section 6). */
+enum { CLI_EXIT_OK = 0, CLI_EXIT_USAGE = 1, CLI_EXIT_BATCH = 2, CLI_EXIT_STRICT = 3 };
+
+/* cli_parse() result when --help / -h was given (the caller prints help). */
+#define CLI_HELP (-1)
+
+/* One option of a command. Tables end with an entry whose name is NULL. */
+typedef struct cli_opt {
+    const char *name;  /* long name without "--", e.g. "iters" */
+    char short_name;   /* e.g. 'o' for -o, or 0 */
+    int takes_value;   /* 0: a flag */
+    const char *form;  /* accepted form for help and messages, e.g. "N", "A,B" */
+    const char *help;  /* one sentence, including the default */
+} cli_opt;
+
+#define CLI_MAX_OPTS 64
+#define CLI_MAX_POS 8
+
+/* What cli_parse() collected. Strings point into argv (not copied). */
+typedef struct cli_args {
+    const char *command;                /* for messages: "sample" */
+    const cli_opt *opt[CLI_MAX_OPTS];   /* every known option, in table order */
+    const char *value[CLI_MAX_OPTS];    /* NULL when not given; "" for a given flag */
+    size_t nopts;
+    const char *pos[CLI_MAX_POS];       /* positional arguments */
+    size_t npos;
+} cli_args;
+
+/* Parses argv[1..argc-1] against the NULL-terminated list of tables (so a
+ * command can reuse another's options, e.g. batch = batch table + sample
+ * table). Accepts --name value, --name=value, -o value, -ovalue and flags;
+ * "--" ends the options. Returns 0, CLI_HELP, or CLI_EXIT_USAGE after
+ * printing one line naming the offending option. */
+int cli_parse(cli_args *a, const char *command, const cli_opt *const *tables, int argc,
+              char **argv);
+
+/* 1 if the option was given. name must be in the tables (else abort: a
+ * programming error, caught by any test that runs the command). */
+int cli_given(const cli_args *a, const char *name);
+/* The raw value (NULL when not given). */
+const char *cli_str(const cli_args *a, const char *name);
+
+/* Typed getters. Each leaves *out unchanged when the option was not given
+ * and returns 0, or CLI_EXIT_USAGE after printing a message such as
+ *   pixpost: --iters: '-5' is not accepted (expected --iters N, a whole number >= 1)
+ * Unsigned integers refuse signs, spaces, non-digits and overflow. */
+int cli_get_ulong(const cli_args *a, const char *name, unsigned long min, unsigned long max,
+                  unsigned long *out);
+int cli_get_u64(const cli_args *a, const char *name, uint64_t *out);
+int cli_get_size(const cli_args *a, const char *name, size_t min, size_t *out);
+/* A finite double; lo/hi are bounds, open (lo < v < hi) when open != 0. */
+int cli_get_double(const cli_args *a, const char *name, double lo, double hi, int open,
+                   double *out);
+/* "A,B": two finite doubles, each >= min. */
+int cli_get_pair(const cli_args *a, const char *name, double min, double out[2]);
+/* "K/N" with 1 <= K <= N: shard K of N (1-based: 1/4 is the first of four). */
+int cli_get_shard(const cli_args *a, const char *name, unsigned *k, unsigned *n);
+/* Refuses the two options together; returns 0 or CLI_EXIT_USAGE. */
+int cli_conflict(const cli_args *a, const char *name1, const char *name2);
+/* Requires the option; returns 0 or CLI_EXIT_USAGE ("--psf is required"). */
+int cli_require(const cli_args *a, const char *name);
+/* Requires exactly n positional arguments, named by what (e.g. "FRAME"). */
+int cli_positionals(const cli_args *a, size_t n, const char *what);
+
+/* Prints "pixpost: " + the formatted text as one line on stderr and returns
+ * CLI_EXIT_USAGE. */
+int cli_error(const char *fmt, ...) CLI_PRINTF(1, 2);
+/* The same for an option: "pixpost: --name: <text>". */
+int cli_opt_error(const char *name, const char *fmt, ...) CLI_PRINTF(2, 3);
+/* Prints the library's message for a failed status as one line
+ * ("pixpost: <message>") and returns cli_exit_code(st). */
+int cli_fail(pp_status st);
+/* Maps a library status to an exit status (PP_OK -> 0, any failure -> 1). */
+int cli_exit_code(pp_status st);
+
+/* Prints the options of the tables, one block per option:
+ *   --name FORM  help    (default text from defaults(), when it gives one)
+ * defaults may be NULL; it writes the default of `name` into buf or leaves
+ * buf empty. */
+typedef void (*cli_default_fn)(const char *name, char *buf, size_t len, void *ctx);
+void cli_print_options(FILE *fp, const cli_opt *const *tables, cli_default_fn defaults,
+                       void *ctx);
+
+/* 1 if path ends in ext (case-sensitive, ext includes the dot). */
+int cli_has_ext(const char *path, const char *ext);
+/* Refuses an output path that names the same existing file as the input
+ * (inputs are never modified). Returns 0 or CLI_EXIT_USAGE. */
+int cli_check_not_same(const char *out, const char *in);
+/* Checks that the folder that will hold path exists. */
+int cli_check_parent_dir(const char *path);
+
+/* ---- sample options (sample_opts.c), reused by batch ---------------- */
+
+typedef enum cli_progress { CLI_PROGRESS_AUTO, CLI_PROGRESS_BAR, CLI_PROGRESS_PLAIN,
+                            CLI_PROGRESS_NONE } cli_progress;
+
+typedef struct cli_sample_opts {
+    pp_sampler_config cfg;   /* from pp_sampler_defaults, then the options */
+    const char *frame;       /* FRAME (sample) or NULL (batch sets its own) */
+    const char *outdir;      /* -o, required */
+    const char *psf_text;    /* --psf as given (required) */
+    const char *noise_text;  /* --noise as given, or noise_buf (the default) */
+    const char *prior_text;  /* --prior as given, or prior_buf (the default) */
+    char noise_buf[128];     /* the defaults' canonical text; the pointers above */
+    char prior_buf[128];     /* may point here, so do not copy the struct */
+    pp_psf_spec psf;         /* parsed --psf */
+    pp_read_options read;    /* --channel, --max-pixels */
+    const char *wisdom;      /* --wisdom FILE or NULL */
+    int quiet;               /* --quiet */
+    cli_progress progress;   /* --progress (AUTO: bar on a terminal, else plain) */
+    int strict;              /* --strict */
+} cli_sample_opts;
+
+/* The sample options table (NULL-terminated). */
+const cli_opt *cli_sample_table(void);
+/* Writes the default of a sample option (a cli_default_fn; ctx unused). */
+void cli_sample_default(const char *name, char *buf, size_t len, void *ctx);
+/* Fills o from options already collected by cli_parse() with the sample
+ * table among its tables; does not touch positionals (o->frame = NULL).
+ * Returns 0 or CLI_EXIT_USAGE (message printed). */
+int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o);
+/* The whole of `pixpost sample`'s parsing: FRAME plus the options. Returns
+ * 0, CLI_HELP (help printed to stdout) or CLI_EXIT_USAGE. */
+int cli_sample_opts_parse(int argc, char **argv, cli_sample_opts *o);
+void cli_sample_help(FILE *fp);
+
+/* ---- commands ------------------------------------------------------- */
+
+int cli_cmd_simulate(int argc, char **argv);
+int cli_cmd_sample(int argc, char **argv); /* cmd_sample.c (the lead) */
+int cli_cmd_batch(int argc, char **argv);  /* cmd_batch.c */
+int cli_cmd_psf(int argc, char **argv);
+int cli_cmd_demo(int argc, char **argv);
+
+void cli_simulate_help(FILE *fp);
+void cli_psf_help(FILE *fp);
+void cli_demo_help(FILE *fp);
+
+#endif

@@ -1,0 +1,249 @@
+/* pixpost command line — the options of `pixpost sample`, parsed into a
+ * cli_sample_opts (a pp_sampler_config plus what the command itself needs).
+ *
+ * batch reuses cli_sample_table() and cli_sample_opts_from_args() and adds
+ * its own table on top. Defaults come from pp_sampler_defaults() so the help
+ * text can never disagree with the library. Cost: negligible.
+ */
+#include <limits.h>
+#include <string.h>
+#include <unistd.h>
+#include "cli.h"
+
+static const cli_opt sample_table[] = {
+    {"output", 'o', 1, "OUTDIR",
+     "Folder for mean/sd/lo/hi .tif, mean/sd .png, summary.json, trace.csv, report.html; "
+     "created if missing. Required.",},
+    {"psf", 0, 1, "SPEC",
+     "Point-spread function: gaussian:sigma=S (pixels), airy:na=NA,wavelength=L,pixel=P "
+     "(micrometres) or file:PATH (a bead image). Required."},
+    {"noise", 0, 1, "SPEC",
+     "Noise model: gaussian (precision sampled), gaussian:sigma=S (fixed, camera units), "
+     "poisson:gain=G,offset=O or camera:gain=G,offset=O,read=R (read noise in electrons)."},
+    {"prior", 0, 1, "SPEC",
+     "Prior: gmrf1, gmrf2 or matern:range=R,nu=V; any of them also takes delta=D to fix the "
+     "prior precision."},
+    {"sampler", 0, 1, "auto|gibbs|mtc|pcn|gpcn",
+     "MCMC method; auto picks one that fits the noise model (gibbs/mtc need gaussian noise)."},
+    {"chains", 0, 1, "N", "Independent chains run in parallel (whole number >= 1)."},
+    {"iters", 0, 1, "N", "Iterations per chain after burn-in (whole number >= 1)."},
+    {"burn", 0, 1, "N", "Burn-in iterations per chain, discarded (whole number >= 0)."},
+    {"thin", 0, 1, "N", "Keep every N-th iteration (1 <= N <= --iters)."},
+    {"seed", 0, 1, "N",
+     "Random seed (whole number 0 to 2^64-1); the same seed gives the same result whatever "
+     "the thread count."},
+    {"boundary", 0, 1, "pad|periodic",
+     "pad treats pixels beyond the frame as unobserved; periodic wraps the frame around."},
+    {"threads", 0, 1, "N", "Worker threads (0 = OpenMP's default, usually one per core)."},
+    {"level", 0, 1, "L", "Central credible level of lo.tif/hi.tif, 0 < L < 1."},
+    {"hyper-lambda", 0, 1, "A,B",
+     "Gamma(shape A, rate B) hyperprior of the noise precision; A, B >= 0."},
+    {"hyper-delta", 0, 1, "A,B",
+     "Gamma(shape A, rate B) hyperprior of the prior precision; A, B >= 0."},
+    {"channel", 0, 1, "r|g|b|luma",
+     "Channel to take from a colour image (colour input is refused without it)."},
+    {"max-pixels", 0, 1, "N", "Refuse frames with more than N pixels (whole number >= 1)."},
+    {"wisdom", 0, 1, "FILE",
+     "FFTW wisdom file: loaded if present, saved after planning; plans are then measured "
+     "(slower to make, faster to run)."},
+    {"quiet", 0, 0, "", "Print nothing but errors (no progress, no summary)."},
+    {"progress", 0, 1, "bar|plain|none", "How progress is shown on stderr."},
+    {"strict", 0, 0, "",
+     "Exit with status 3 when convergence warnings were raised (R-hat, ESS, acceptance)."},
+    {NULL, 0, 0, NULL, NULL},
+};
+
+const cli_opt *cli_sample_table(void) { return sample_table; }
+
+void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
+{
+    (void)ctx;
+    pp_sampler_config d;
+    pp_sampler_defaults(&d);
+    buf[0] = '\0';
+    if (strcmp(name, "noise") == 0)
+        pp_noise_format(&d.noise, buf, len);
+    else if (strcmp(name, "prior") == 0)
+        pp_prior_format(&d.prior, buf, len);
+    else if (strcmp(name, "sampler") == 0)
+        snprintf(buf, len, "%s", pp_sampler_kind_name(d.kind));
+    else if (strcmp(name, "chains") == 0)
+        snprintf(buf, len, "%u", d.chains);
+    else if (strcmp(name, "iters") == 0)
+        snprintf(buf, len, "%lu", d.iters);
+    else if (strcmp(name, "burn") == 0)
+        snprintf(buf, len, "%lu", d.burn);
+    else if (strcmp(name, "thin") == 0)
+        snprintf(buf, len, "%lu", d.thin);
+    else if (strcmp(name, "seed") == 0)
+        snprintf(buf, len, "%llu", (unsigned long long)d.seed);
+    else if (strcmp(name, "boundary") == 0)
+        snprintf(buf, len, "%s", pp_boundary_name(d.boundary));
+    else if (strcmp(name, "threads") == 0)
+        snprintf(buf, len, "%d", d.threads);
+    else if (strcmp(name, "level") == 0)
+        snprintf(buf, len, "%g", d.level);
+    else if (strcmp(name, "hyper-lambda") == 0)
+        snprintf(buf, len, "%g,%g", d.hyper_lambda[0], d.hyper_lambda[1]);
+    else if (strcmp(name, "hyper-delta") == 0)
+        snprintf(buf, len, "%g,%g", d.hyper_delta[0], d.hyper_delta[1]);
+    else if (strcmp(name, "channel") == 0)
+        snprintf(buf, len, "none (grayscale only)");
+    else if (strcmp(name, "max-pixels") == 0)
+        snprintf(buf, len, "%zu", (size_t)PP_DEFAULT_MAX_PIXELS);
+    else if (strcmp(name, "wisdom") == 0)
+        snprintf(buf, len, "none (estimated plans, no file)");
+    else if (strcmp(name, "progress") == 0)
+        snprintf(buf, len, "bar on a terminal, plain otherwise");
+    else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0)
+        snprintf(buf, len, "off");
+}
+
+/* Runs a library parser on an option's value; prints its message on failure. */
+static int lib_check(pp_status st) { return st == PP_OK ? 0 : cli_fail(st); }
+
+static int parse_specs(const cli_args *a, cli_sample_opts *o)
+{
+    int rc;
+    if ((rc = cli_require(a, "psf")) != 0)
+        return rc;
+    o->psf_text = cli_str(a, "psf");
+    if ((rc = lib_check(pp_psf_parse(o->psf_text, &o->psf))) != 0)
+        return rc;
+    if (cli_given(a, "noise")) {
+        o->noise_text = cli_str(a, "noise");
+        if ((rc = lib_check(pp_noise_parse(o->noise_text, &o->cfg.noise))) != 0)
+            return rc;
+        if (o->cfg.noise.kind == PP_NOISE_NONE)
+            return cli_opt_error("noise", "'none' is for simulate only (expected gaussian, "
+                                          "gaussian:sigma=S, poisson:... or camera:...)");
+    }
+    if (cli_given(a, "prior")) {
+        o->prior_text = cli_str(a, "prior");
+        if ((rc = lib_check(pp_prior_parse(o->prior_text, &o->cfg.prior))) != 0)
+            return rc;
+    }
+    if (cli_given(a, "sampler") &&
+        (rc = lib_check(pp_sampler_kind_parse(cli_str(a, "sampler"), &o->cfg.kind))) != 0)
+        return rc;
+    if (cli_given(a, "boundary") &&
+        (rc = lib_check(pp_boundary_parse(cli_str(a, "boundary"), &o->cfg.boundary))) != 0)
+        return rc;
+    if (cli_given(a, "channel") &&
+        (rc = lib_check(pp_channel_parse(cli_str(a, "channel"), &o->read.channel))) != 0)
+        return rc;
+    return 0;
+}
+
+static int parse_counts(const cli_args *a, cli_sample_opts *o)
+{
+    pp_sampler_config *c = &o->cfg;
+    unsigned long chains = c->chains, threads = (unsigned long)c->threads;
+    int rc = 0;
+    rc = rc ? rc : cli_get_ulong(a, "chains", 1, 4096, &chains);
+    rc = rc ? rc : cli_get_ulong(a, "iters", 1, ULONG_MAX, &c->iters);
+    rc = rc ? rc : cli_get_ulong(a, "burn", 0, ULONG_MAX, &c->burn);
+    rc = rc ? rc : cli_get_ulong(a, "thin", 1, ULONG_MAX, &c->thin);
+    rc = rc ? rc : cli_get_u64(a, "seed", &c->seed);
+    rc = rc ? rc : cli_get_ulong(a, "threads", 0, 4096, &threads);
+    rc = rc ? rc : cli_get_size(a, "max-pixels", 1, &o->read.max_pixels);
+    if (rc)
+        return rc;
+    c->chains = (unsigned)chains;
+    c->threads = (int)threads;
+    if (c->thin > c->iters)
+        return cli_opt_error("thin", "%lu is larger than --iters %lu (no draw would be kept; "
+                                     "expected 1 <= N <= --iters)",
+                             c->thin, c->iters);
+    return 0;
+}
+
+static int parse_reals(const cli_args *a, cli_sample_opts *o)
+{
+    int rc = cli_get_double(a, "level", 0.0, 1.0, 1, &o->cfg.level);
+    rc = rc ? rc : cli_get_pair(a, "hyper-lambda", 0.0, o->cfg.hyper_lambda);
+    rc = rc ? rc : cli_get_pair(a, "hyper-delta", 0.0, o->cfg.hyper_delta);
+    return rc;
+}
+
+static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
+{
+    o->quiet = cli_given(a, "quiet");
+    o->strict = cli_given(a, "strict");
+    o->wisdom = cli_str(a, "wisdom");
+    if (o->wisdom) {
+        if (!o->wisdom[0])
+            return cli_opt_error("wisdom", "empty file name (expected --wisdom FILE)");
+        o->cfg.fft_effort = PP_FFT_MEASURE;
+    }
+    const char *p = cli_str(a, "progress");
+    o->progress = o->quiet ? CLI_PROGRESS_NONE : CLI_PROGRESS_AUTO;
+    if (!p)
+        return 0;
+    if (strcmp(p, "bar") == 0)
+        o->progress = CLI_PROGRESS_BAR;
+    else if (strcmp(p, "plain") == 0)
+        o->progress = CLI_PROGRESS_PLAIN;
+    else if (strcmp(p, "none") == 0)
+        o->progress = CLI_PROGRESS_NONE;
+    else
+        return cli_opt_error("progress", "'%s' is not accepted (expected --progress "
+                                         "bar|plain|none)",
+                             p);
+    if (o->quiet && o->progress != CLI_PROGRESS_NONE)
+        return cli_error("--quiet and --progress %s cannot be used together", p);
+    return 0;
+}
+
+int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o)
+{
+    memset(o, 0, sizeof *o);
+    pp_sampler_defaults(&o->cfg);
+    pp_read_options_defaults(&o->read);
+    pp_noise_format(&o->cfg.noise, o->noise_buf, sizeof o->noise_buf);
+    pp_prior_format(&o->cfg.prior, o->prior_buf, sizeof o->prior_buf);
+    o->noise_text = o->noise_buf;
+    o->prior_text = o->prior_buf;
+    int rc = cli_require(a, "output");
+    if (rc)
+        return rc;
+    o->outdir = cli_str(a, "output");
+    if (!o->outdir[0])
+        return cli_opt_error("output", "empty folder name (expected -o OUTDIR)");
+    if ((rc = parse_specs(a, o)) != 0 || (rc = parse_counts(a, o)) != 0 ||
+        (rc = parse_reals(a, o)) != 0 || (rc = parse_output_flags(a, o)) != 0)
+        return rc;
+    if (o->progress == CLI_PROGRESS_AUTO)
+        o->progress = isatty(STDERR_FILENO) ? CLI_PROGRESS_BAR : CLI_PROGRESS_PLAIN;
+    return 0;
+}
+
+void cli_sample_help(FILE *fp)
+{
+    const cli_opt *tables[] = {sample_table, NULL};
+    fputs("Usage: pixpost sample FRAME --psf SPEC -o OUTDIR [options]\n\n"
+          "Draws MCMC samples from the posterior of the sharp image behind FRAME (a grayscale\n"
+          "PNG or TIFF in camera units) and writes the posterior mean, sd, credible bounds,\n"
+          "traces and diagnostics into OUTDIR.\n\nOptions:\n",
+          fp);
+    cli_print_options(fp, tables, cli_sample_default, NULL);
+    fputs("\nExit status: 0 success; 1 bad usage or input; 3 convergence warnings with "
+          "--strict.\n",
+          fp);
+}
+
+int cli_sample_opts_parse(int argc, char **argv, cli_sample_opts *o)
+{
+    const cli_opt *tables[] = {sample_table, NULL};
+    cli_args a;
+    int rc = cli_parse(&a, "sample", tables, argc, argv);
+    if (rc == CLI_HELP) {
+        cli_sample_help(stdout);
+        return CLI_HELP;
+    }
+    if (rc || (rc = cli_positionals(&a, 1, "FRAME")) != 0 ||
+        (rc = cli_sample_opts_from_args(&a, o)) != 0)
+        return rc;
+    o->frame = a.pos[0];
+    return 0;
+}
