@@ -37,3 +37,105 @@ pp_status pp_atomic_reserve(const char *path, char *tmp);
 pp_status pp_atomic_rename(const char *tmp, const char *path);
 
 #endif
+
+/* ---- Half-spectrum helpers (src/spectral.c) -------------------------------
+ * A real H x W grid has an H x (W/2+1) half spectrum in FFTW's layout. A sum
+ * over the full spectrum equals a half-spectrum sum with weight 1 in column 0
+ * and (W even) column W/2, and weight 2 elsewhere. */
+#include "pixpost/fft.h"
+#include "pixpost/rng.h"
+static inline double pp_half_weight(size_t col, size_t width)
+{
+    return (col == 0 || (width % 2 == 0 && col == width / 2)) ? 1.0 : 2.0;
+}
+/* Fills out (H x (W/2+1)) with the DFT (FFTW's unnormalised convention) of
+ * an H x W field of independent N(0,1) values, drawn directly: complex
+ * entries with real and imaginary parts of variance N/2, Hermitian pairs in
+ * the self-conjugate columns, real entries of variance N where k = -k. */
+void pp_half_noise(pp_rng *rng, size_t height, size_t width, pp_complex *out);
+
+/* ---- Streaming moments (src/stats.c) ----------------------------------- */
+/* Welford running mean and sum of squared deviations of n-vectors. */
+typedef struct pp_moments {
+    size_t len;
+    unsigned long long count;
+    double *mean;
+    double *m2;
+} pp_moments;
+pp_status pp_moments_init(pp_moments *m, size_t len);
+void pp_moments_free(pp_moments *m);
+/* Adds one vector x[0..len) (stride 1). */
+void pp_moments_add(pp_moments *m, const double *x);
+/* Adds a rows x cols block of a grid whose rows are `stride` apart. */
+void pp_moments_add_block(pp_moments *m, const double *x, size_t rows, size_t cols,
+                          size_t stride);
+/* acc += other (Chan, Golub & LeVeque's pairwise update). */
+void pp_moments_merge(pp_moments *acc, const pp_moments *other);
+/* Standard normal quantile by Newton steps on erfc (|error| < 1e-14). */
+double pp_norm_quantile(double p);
+
+/* ---- Sampler internals (src/sampler.c, src/sampler_*.c) ---------------- */
+#include "pixpost/sampler.h"
+
+#define PP_MAX_PROBES 9
+#define PP_MAX_WARNINGS 32
+
+/* One chain's state and scratch; owned by the sampler. */
+typedef struct pp_chain {
+    pp_rng rng;
+    double lambda, delta;
+    pp_complex *cbuf;  /* half spectrum: noise, then the conditional mean */
+    pp_complex *cbuf2; /* half spectrum: x-hat (kept draws) or A x-hat (pad) */
+    double *rbuf;      /* grid: c2r output */
+    double *yaug;      /* pad: observed frame plus latent padding pixels */
+    pp_complex *yhat;  /* this chain's data spectrum (pad) or the shared one */
+    pp_moments mom;    /* frame-sized moments of the conditional mean */
+    double condvar_sum; /* sum over kept draws of the conditional variance */
+    double *trace;     /* kept x ncols rows inside the sampler's trace */
+    size_t kept;
+} pp_chain;
+
+struct pp_sampler {
+    pp_sampler_config cfg;
+    size_t height, width;       /* frame */
+    size_t gh, gw, gwh, gn, gm; /* grid rows, cols, half cols, pixels, half size */
+    pp_fft *fft;
+    pp_complex *otf;  /* transfer function, gm */
+    double *otf2;     /* |otf|^2, gm */
+    double *q;        /* prior eigenvalues, gm */
+    double rank;      /* rank of Q over the full spectrum */
+    double mean_dc;   /* prior mean spectrum at (0,0): M * gn, 0 if free */
+    double *ygrid;    /* frame embedded in the grid (padding = frame mean) */
+    pp_complex *yhat; /* r2c(ygrid) */
+    double lambda0, delta0; /* rough scale estimates for dispersed starts */
+    size_t nprobe;
+    size_t probe_r[PP_MAX_PROBES], probe_c[PP_MAX_PROBES];
+    pp_complex *tw_row; /* nprobe x gh twiddles e^{+2 pi i k1 r / gh} */
+    pp_complex *tw_col; /* nprobe x gwh twiddles e^{+2 pi i k2 c / gw}, weighted */
+    pp_chain *chain;
+    pp_trace trace;
+    char *names[3 + PP_MAX_PROBES];
+    double *trace_values;
+    pp_image *mean, *sd, *lo, *hi;
+    char bound_method[160];
+    char *warnings[PP_MAX_WARNINGS];
+    size_t nwarnings;
+    double seconds;
+    unsigned long long progress_done;
+    int ran;
+};
+
+/* Columns of a trace row. */
+enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
+
+/* Adds a warning sentence (printf-style) to the sampler. */
+void pp_sampler_warn(pp_sampler *s, const char *fmt, ...) PP_PRINTF(2, 3);
+/* Progress and stop handling for a chain: call once per iteration. Returns
+ * non-zero when the caller asked to stop. */
+int pp_sampler_tick(pp_sampler *s);
+/* Probe values of the field whose half spectrum is xh, written to out. */
+void pp_sampler_probes(const pp_sampler *s, const pp_complex *xh, double *out);
+
+/* The Gibbs chain (src/sampler_gibbs.c): runs burn + iters iterations of
+ * chain c, filling its moments and trace rows. */
+pp_status pp_gibbs_run_chain(pp_sampler *s, pp_chain *c);

@@ -1,0 +1,30 @@
+/* pixpost — writing a run's outputs into a folder.
+ *
+ * pp_output_write() writes, each atomically (temporary name, then rename):
+ *   mean.tif sd.tif lo.tif hi.tif   32-bit float, input units, frame size
+ *   mean.png sd.png                 16-bit, linear scale in summary.json
+ *   summary.json                    settings, hyperparameter posteriors,
+ *                                   bound method, timings, warnings
+ *   trace.csv                       chain,iter,lambda,delta,loglik,p_<r>_<c>...
+ * The folder must exist. Nothing in it other than these names is touched.
+ */
+#ifndef PIXPOST_OUTPUT_H
+#define PIXPOST_OUTPUT_H
+
+#include "pixpost/sampler.h"
+
+/* What the caller knows about the run that the sampler does not. Every
+ * string may be NULL. */
+typedef struct pp_run_info {
+    const char *input_path;
+    const char *psf_spec;   /* as given by the user */
+    const char *noise_spec;
+    const char *prior_spec;
+    const char *command_line;
+    double seconds_total;   /* wall time of the whole command so far */
+} pp_run_info;
+
+pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
+                          const pp_run_info *info);
+
+#endif

@@ -1,0 +1,204 @@
+/* pixpost — a run's outputs: images, summary.json, trace.csv. Every file is
+ * written to a temporary name in the folder and renamed into place.
+ * Cost: one pass over each image, one sort of each hyperparameter trace. */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include "internal.h"
+#include "pixpost/io.h"
+#include "pixpost/output.h"
+#include "pixpost/psf.h"
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* Linear-interpolation quantile of sorted v (numpy's default, "type 7"). */
+static double quantile_sorted(const double *v, size_t n, double p)
+{
+    double h = (double)(n - 1) * p;
+    size_t lo = (size_t)floor(h);
+    size_t hi = lo + 1 < n ? lo + 1 : lo;
+    return v[lo] + (h - (double)lo) * (v[hi] - v[lo]);
+}
+
+static void json_string(FILE *f, const char *s)
+{
+    fputc('"', f);
+    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
+        if (*p == '"' || *p == '\\')
+            fprintf(f, "\\%c", *p);
+        else if (*p < 0x20)
+            fprintf(f, "\\u%04x", *p);
+        else
+            fputc(*p, f);
+    }
+    fputc('"', f);
+}
+
+static void json_number(FILE *f, double v)
+{
+    if (isfinite(v))
+        fprintf(f, "%.10g", v);
+    else
+        fputs("null", f);
+}
+
+/* Pooled posterior summary of one trace column. */
+static pp_status json_hyper(FILE *f, const char *name, const pp_trace *t, size_t col, int fixed)
+{
+    size_t n = (size_t)t->chains * t->kept;
+    double *v = malloc(n * sizeof *v);
+    if (!v)
+        return pp_fail(PP_ERR_NOMEM, "out of memory");
+    double sum = 0, ss = 0;
+    for (size_t i = 0; i < n; i++) {
+        v[i] = t->values[i * t->ncols + col];
+        sum += v[i];
+    }
+    double mean = sum / (double)n;
+    for (size_t i = 0; i < n; i++)
+        ss += (v[i] - mean) * (v[i] - mean);
+    qsort(v, n, sizeof *v, cmp_double);
+    fprintf(f, "    \"%s\": {\"mean\": ", name);
+    json_number(f, mean);
+    fputs(", \"sd\": ", f);
+    json_number(f, n > 1 ? sqrt(ss / (double)(n - 1)) : 0.0);
+    fputs(", \"q05\": ", f);
+    json_number(f, quantile_sorted(v, n, 0.05));
+    fputs(", \"q95\": ", f);
+    json_number(f, quantile_sorted(v, n, 0.95));
+    fprintf(f, ", \"fixed\": %s}", fixed ? "true" : "false");
+    free(v);
+    return PP_OK;
+}
+
+typedef struct png_scales {
+    double mean_offset, mean_scale, sd_offset, sd_scale;
+} png_scales;
+
+static pp_status write_summary(const char *path, const pp_sampler *s, const pp_image *frame,
+                               const pp_run_info *info, const png_scales *ps)
+{
+    const pp_sampler_config *c = &s->cfg;
+    char tmp[PP_PATH_MAX], noise[256], prior[256];
+    FILE *f;
+    pp_status st = pp_atomic_open(path, tmp, &f);
+    if (st != PP_OK)
+        return st;
+    pp_noise_format(&c->noise, noise, sizeof noise);
+    pp_prior_format(&c->prior, prior, sizeof prior);
+    fprintf(f, "{\n  \"version\": \"%s\",\n  \"command\": ", PIXPOST_VERSION);
+    json_string(f, info ? info->command_line : NULL);
+    fputs(",\n  \"input\": ", f);
+    json_string(f, info ? info->input_path : NULL);
+    fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu},\n", frame->width,
+            frame->height);
+    fprintf(f, "  \"grid\": {\"width\": %zu, \"height\": %zu},\n", s->gw, s->gh);
+    fprintf(f, "  \"sampler\": \"%s\",\n  \"chains\": %u,\n  \"burn\": %lu,\n"
+               "  \"iters\": %lu,\n  \"thin\": %lu,\n  \"seed\": %llu,\n"
+               "  \"kept_per_chain\": %zu,\n  \"boundary\": \"%s\",\n",
+            pp_sampler_kind_name(c->kind), c->chains, c->burn, c->iters, c->thin,
+            (unsigned long long)c->seed, s->trace.kept, pp_boundary_name(c->boundary));
+    fputs("  \"psf\": ", f);
+    json_string(f, info ? info->psf_spec : NULL);
+    fputs(",\n  \"noise\": ", f);
+    json_string(f, noise);
+    fputs(",\n  \"prior\": ", f);
+    json_string(f, prior);
+    fprintf(f, ",\n  \"hyperprior\": {\"lambda\": [%.10g, %.10g], \"delta\": [%.10g, %.10g], "
+               "\"form\": \"Gamma(shape, rate)\"},\n",
+            c->hyper_lambda[0], c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1]);
+    fputs("  \"hyper\": {\n", f);
+    st = json_hyper(f, "lambda", &s->trace, PP_COL_LAMBDA, c->noise.sigma_set);
+    fputs(",\n", f);
+    if (st == PP_OK)
+        st = json_hyper(f, "delta", &s->trace, PP_COL_DELTA, c->prior.delta_set);
+    fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
+    json_string(f, s->bound_method);
+    unsigned long long iters = (unsigned long long)c->chains * (c->burn + c->iters);
+    fputs("},\n  \"timing\": {\"seconds_total\": ", f);
+    json_number(f, info ? info->seconds_total : s->seconds);
+    fputs(", \"seconds_sampling\": ", f);
+    json_number(f, s->seconds);
+    fputs(", \"seconds_per_iteration\": ", f);
+    json_number(f, s->seconds / (double)iters * (double)c->chains);
+    fprintf(f, "},\n  \"png_scale\": {\"formula\": \"value = offset + stored * scale\", "
+               "\"mean\": {\"offset\": %.10g, \"scale\": %.10g}, "
+               "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}},\n",
+            ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
+    fputs("  \"warnings\": [", f);
+    for (size_t i = 0; i < s->nwarnings; i++) {
+        fputs(i ? ", " : "", f);
+        json_string(f, s->warnings[i]);
+    }
+    fputs("]\n}\n", f);
+    if (st != PP_OK) {
+        pp_atomic_abort(tmp, f);
+        return st;
+    }
+    return pp_atomic_commit(path, tmp, f);
+}
+
+static pp_status write_trace(const char *path, const pp_sampler *s)
+{
+    const pp_trace *t = &s->trace;
+    char tmp[PP_PATH_MAX];
+    FILE *f;
+    pp_status st = pp_atomic_open(path, tmp, &f);
+    if (st != PP_OK)
+        return st;
+    fputs("chain,iter", f);
+    for (size_t j = 0; j < t->ncols; j++)
+        fprintf(f, ",%s", t->names[j]);
+    fputc('\n', f);
+    for (unsigned c = 0; c < t->chains; c++)
+        for (size_t i = 0; i < t->kept; i++) {
+            const double *row = t->values + ((size_t)c * t->kept + i) * t->ncols;
+            fprintf(f, "%u,%lu", c + 1, (unsigned long)((i + 1) * s->cfg.thin));
+            for (size_t j = 0; j < t->ncols; j++)
+                fprintf(f, ",%.10g", row[j]);
+            fputc('\n', f);
+        }
+    return pp_atomic_commit(path, tmp, f);
+}
+
+static pp_status join(char *buf, const char *dir, const char *name)
+{
+    int n = snprintf(buf, PP_PATH_MAX, "%s/%s", dir, name);
+    if (n < 0 || n >= PP_PATH_MAX)
+        return pp_fail(PP_ERR_ARG, "%s: output folder path too long", dir);
+    return PP_OK;
+}
+
+pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
+                          const pp_run_info *info)
+{
+    if (!s->ran)
+        return pp_fail(PP_ERR_ARG, "pp_output_write: the sampler has not run");
+    const char *names[4] = {"mean.tif", "sd.tif", "lo.tif", "hi.tif"};
+    const pp_image *imgs[4] = {s->mean, s->sd, s->lo, s->hi};
+    char path[PP_PATH_MAX];
+    pp_status st = PP_OK;
+    for (int i = 0; i < 4 && st == PP_OK; i++)
+        if ((st = join(path, dir, names[i])) == PP_OK)
+            st = pp_tiff_write_f32(path, imgs[i]);
+    png_scales ps;
+    pp_png_auto_scale(s->mean, &ps.mean_offset, &ps.mean_scale);
+    double lo, hi;
+    pp_image_range(s->sd, &lo, &hi);
+    ps.sd_offset = 0;
+    ps.sd_scale = hi > 0 ? hi / 65535.0 : 1.0;
+    if (st == PP_OK && (st = join(path, dir, "mean.png")) == PP_OK)
+        st = pp_png_write16(path, s->mean, ps.mean_offset, ps.mean_scale);
+    if (st == PP_OK && (st = join(path, dir, "sd.png")) == PP_OK)
+        st = pp_png_write16(path, s->sd, ps.sd_offset, ps.sd_scale);
+    if (st == PP_OK && (st = join(path, dir, "trace.csv")) == PP_OK)
+        st = write_trace(path, s);
+    if (st == PP_OK && (st = join(path, dir, "summary.json")) == PP_OK)
+        st = write_summary(path, s, frame, info, &ps);
+    return st;
+}

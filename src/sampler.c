@@ -1,0 +1,509 @@
+/* pixpost — the sampler handle: validation, planning, chains in parallel,
+ * pooled estimates. The per-iteration kernels live in sampler_<kind>.c.
+ *
+ * Planning (pp_sampler_create) does all allocation, the FFT plans, the
+ * transfer function, the prior eigenvalues, the data spectrum and rough
+ * scale estimates for dispersed chain starts. pp_sampler_run allocates
+ * nothing. Chains run in parallel over OpenMP threads, each on its own
+ * Philox stream and buffers; results are pooled in chain order, so they do
+ * not depend on the number of threads.
+ */
+#include <math.h>
+#include <omp.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include "internal.h"
+#include "pixpost/psf.h"
+
+/* ---- names and defaults ---------------------------------------------- */
+
+static const char *const kind_names[] = {"auto", "gibbs", "mtc", "pcn", "gpcn"};
+
+pp_status pp_sampler_kind_parse(const char *text, pp_sampler_kind *out)
+{
+    for (int k = 0; k < 5; k++)
+        if (strcmp(text, kind_names[k]) == 0) {
+            *out = (pp_sampler_kind)k;
+            return PP_OK;
+        }
+    return pp_fail(PP_ERR_ARG, "--sampler '%s': unknown sampler (accepted: gibbs, mtc, pcn, gpcn)",
+                   text);
+}
+
+const char *pp_sampler_kind_name(pp_sampler_kind k)
+{
+    return (unsigned)k < 5 ? kind_names[k] : "unknown";
+}
+
+void pp_sampler_defaults(pp_sampler_config *cfg)
+{
+    memset(cfg, 0, sizeof *cfg);
+    cfg->kind = PP_SAMPLER_AUTO;
+    cfg->chains = 4;
+    cfg->burn = 200;
+    cfg->iters = 1000;
+    cfg->thin = 1;
+    cfg->seed = 1;
+    cfg->boundary = PP_BOUNDARY_PAD;
+    cfg->level = 0.95;
+    cfg->noise.kind = PP_NOISE_GAUSSIAN;
+    cfg->noise.gain = 1.0;
+    cfg->prior.kind = PP_PRIOR_GMRF1;
+    cfg->hyper_lambda[0] = cfg->hyper_delta[0] = 1.0;
+    cfg->hyper_lambda[1] = cfg->hyper_delta[1] = 1e-4;
+    cfg->fft_effort = PP_FFT_ESTIMATE;
+}
+
+/* ---- validation ------------------------------------------------------- */
+
+static pp_status check_config(pp_sampler_config *cfg)
+{
+    if (cfg->kind == PP_SAMPLER_AUTO)
+        cfg->kind = cfg->noise.kind == PP_NOISE_GAUSSIAN ? PP_SAMPLER_GIBBS : PP_SAMPLER_GPCN;
+    if (cfg->noise.kind != PP_NOISE_GAUSSIAN)
+        return pp_fail(PP_ERR_ARG, "--noise: this version samples the gaussian noise model "
+                                   "only (photon-counting models are not available yet)");
+    if (cfg->kind != PP_SAMPLER_GIBBS)
+        return pp_fail(PP_ERR_ARG, "--sampler %s: not available in this version (use gibbs)",
+                       pp_sampler_kind_name(cfg->kind));
+    if (cfg->chains < 1 || cfg->chains > 1024)
+        return pp_fail(PP_ERR_ARG, "--chains %u: must be between 1 and 1024", cfg->chains);
+    if (cfg->iters < 1)
+        return pp_fail(PP_ERR_ARG, "--iters: must be at least 1");
+    if (cfg->thin < 1 || cfg->thin > cfg->iters)
+        return pp_fail(PP_ERR_ARG, "--thin %lu: must be between 1 and --iters (%lu)", cfg->thin,
+                       cfg->iters);
+    if (!(cfg->level > 0 && cfg->level < 1))
+        return pp_fail(PP_ERR_ARG, "--level %g: must be strictly between 0 and 1", cfg->level);
+    for (int i = 0; i < 2; i++)
+        if (!(cfg->hyper_lambda[i] >= 0 && cfg->hyper_delta[i] >= 0 &&
+              isfinite(cfg->hyper_lambda[i]) && isfinite(cfg->hyper_delta[i])))
+            return pp_fail(PP_ERR_ARG, "--hyper-lambda/--hyper-delta: shape and rate must be "
+                                       "finite and >= 0");
+    return PP_OK;
+}
+
+/* ---- planning --------------------------------------------------------- */
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* Noise sd from the median absolute deviation of horizontal differences
+ * (a robust estimate; common practice for smooth, blurred frames). */
+static double robust_noise_sd(const pp_image *y)
+{
+    size_t n = y->height * (y->width - 1);
+    if (y->width < 2 || n < 2)
+        return 0;
+    double *d = malloc(n * sizeof *d);
+    if (!d)
+        return 0;
+    size_t k = 0;
+    for (size_t r = 0; r < y->height; r++)
+        for (size_t c = 0; c + 1 < y->width; c++)
+            d[k++] = y->data[r * y->width + c + 1] - y->data[r * y->width + c];
+    qsort(d, n, sizeof *d, cmp_double);
+    double med = d[n / 2];
+    for (size_t i = 0; i < n; i++)
+        d[i] = fabs(d[i] - med);
+    qsort(d, n, sizeof *d, cmp_double);
+    double mad = d[n / 2];
+    free(d);
+    return 1.4826 * mad / sqrt(2.0);
+}
+
+/* Rough lambda and delta for the chains' dispersed starts. */
+static void rough_scales(pp_sampler *s, const pp_image *frame)
+{
+    double lo, hi;
+    pp_image_range(frame, &lo, &hi);
+    double sd = robust_noise_sd(frame);
+    if (!(sd > 0))
+        sd = 1e-3 * (hi - lo) + 1e-12;
+    s->lambda0 = s->cfg.noise.sigma_set ? 1.0 / (s->cfg.noise.sigma * s->cfg.noise.sigma)
+                                        : 1.0 / (sd * sd);
+    /* y'Qy minus its expected noise part tr(Q)/lambda, floored. */
+    double qy = 0, trq = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            double w = pp_half_weight(k2, s->gw);
+            pp_complex y = s->yhat[i];
+            qy += w * s->q[i] * (creal(y) * creal(y) + cimag(y) * cimag(y));
+            trq += w * s->q[i];
+        }
+    qy /= (double)s->gn;
+    double signal = qy - trq / s->lambda0;
+    if (signal < 0.1 * qy)
+        signal = 0.1 * qy;
+    s->delta0 = s->cfg.prior.delta_set ? s->cfg.prior.delta
+                                       : (signal > 0 ? s->rank / signal : 1.0);
+}
+
+static pp_status plan_grid(pp_sampler *s, const pp_image *psf)
+{
+    size_t r = psf->width / 2;
+    s->gh = s->height;
+    s->gw = s->width;
+    if (s->cfg.boundary == PP_BOUNDARY_PAD && r > 0) {
+        s->gh = pp_fft_good_size(s->height + 2 * r);
+        s->gw = pp_fft_good_size(s->width + 2 * r);
+    }
+    s->gwh = s->gw / 2 + 1;
+    s->gn = s->gh * s->gw;
+    s->gm = s->gh * s->gwh;
+    size_t bytes;
+    if (!pp_mul_ok(s->gn, 64, &bytes))
+        return pp_fail(PP_ERR_LIMIT, "frame %zux%zu is too large", s->width, s->height);
+    return pp_fft_create(s->gh, s->gw, s->cfg.fft_effort, &s->fft);
+}
+
+static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image *psf)
+{
+    s->otf = pp_fft_alloc_complex(s->gm);
+    s->otf2 = malloc(s->gm * sizeof(double));
+    s->q = malloc(s->gm * sizeof(double));
+    s->ygrid = pp_fft_alloc_real(s->gn);
+    s->yhat = pp_fft_alloc_complex(s->gm);
+    if (!s->otf || !s->otf2 || !s->q || !s->ygrid || !s->yhat)
+        return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
+    pp_status st = pp_psf_transfer(psf, s->fft, s->otf);
+    if (st != PP_OK)
+        return st;
+    for (size_t i = 0; i < s->gm; i++)
+        s->otf2[i] = creal(s->otf[i]) * creal(s->otf[i]) + cimag(s->otf[i]) * cimag(s->otf[i]);
+    if ((st = pp_prior_eigen(&s->cfg.prior, s->gh, s->gw, s->q, &s->rank)) != PP_OK)
+        return st;
+    s->mean_dc = s->cfg.prior.mean_set ? s->cfg.prior.mean * (double)s->gn : 0.0;
+    /* Embed the frame at the grid's origin; padding starts at the frame mean. */
+    double sum = 0;
+    for (size_t i = 0; i < s->height * s->width; i++)
+        sum += frame->data[i];
+    double fill = sum / (double)(s->height * s->width);
+    for (size_t r = 0; r < s->gh; r++)
+        for (size_t c = 0; c < s->gw; c++)
+            s->ygrid[r * s->gw + c] =
+                (r < s->height && c < s->width) ? frame->data[r * s->width + c] : fill;
+    pp_fft_forward(s->fft, s->ygrid, s->yhat);
+    return PP_OK;
+}
+
+/* A fixed 3 x 3 spread of probe pixels at the quarter points of the frame,
+ * with their twiddle tables for direct half-spectrum evaluation. */
+static pp_status plan_probes(pp_sampler *s)
+{
+    s->nprobe = 0;
+    for (int a = 1; a <= 3; a++)
+        for (int b = 1; b <= 3; b++) {
+            s->probe_r[s->nprobe] = (size_t)a * (s->height - 1) / 4;
+            s->probe_c[s->nprobe] = (size_t)b * (s->width - 1) / 4;
+            s->nprobe++;
+        }
+    s->tw_row = malloc(s->nprobe * s->gh * sizeof(pp_complex));
+    s->tw_col = malloc(s->nprobe * s->gwh * sizeof(pp_complex));
+    if (!s->tw_row || !s->tw_col)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for probe tables");
+    for (size_t p = 0; p < s->nprobe; p++) {
+        for (size_t k = 0; k < s->gh; k++) {
+            double th = 2 * PP_PI * (double)((k * s->probe_r[p]) % s->gh) / (double)s->gh;
+            s->tw_row[p * s->gh + k] = cos(th) + I * sin(th);
+        }
+        for (size_t k = 0; k < s->gwh; k++) {
+            double th = 2 * PP_PI * (double)((k * s->probe_c[p]) % s->gw) / (double)s->gw;
+            s->tw_col[p * s->gwh + k] =
+                pp_half_weight(k, s->gw) / (double)s->gn * (cos(th) + I * sin(th));
+        }
+    }
+    return PP_OK;
+}
+
+void pp_sampler_probes(const pp_sampler *s, const pp_complex *xh, double *out)
+{
+    for (size_t p = 0; p < s->nprobe; p++) {
+        const pp_complex *tc = s->tw_col + p * s->gwh, *tr = s->tw_row + p * s->gh;
+        double acc = 0;
+        for (size_t k1 = 0; k1 < s->gh; k1++) {
+            const pp_complex *row = xh + k1 * s->gwh;
+            double re = 0, im = 0;
+            for (size_t k2 = 0; k2 < s->gwh; k2++) {
+                re += creal(row[k2]) * creal(tc[k2]) - cimag(row[k2]) * cimag(tc[k2]);
+                im += creal(row[k2]) * cimag(tc[k2]) + cimag(row[k2]) * creal(tc[k2]);
+            }
+            acc += re * creal(tr[k1]) - im * cimag(tr[k1]);
+        }
+        out[p] = acc;
+    }
+}
+
+static pp_status plan_trace(pp_sampler *s)
+{
+    size_t ncols = PP_COL_PROBE0 + s->nprobe;
+    size_t kept = s->cfg.iters / s->cfg.thin, rows, n;
+    if (!pp_mul_ok(kept, s->cfg.chains, &rows) || !pp_mul_ok(rows, ncols, &n) ||
+        !pp_mul_ok(n, sizeof(double), &n))
+        return pp_fail(PP_ERR_LIMIT, "--iters/--chains: the trace would not fit in memory");
+    s->trace_values = calloc(rows * ncols, sizeof(double));
+    if (!s->trace_values)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the traces (%zu rows)", rows);
+    static const char *const fixed[] = {"lambda", "delta", "loglik"};
+    for (size_t i = 0; i < ncols; i++) {
+        char buf[64];
+        if (i < PP_COL_PROBE0)
+            snprintf(buf, sizeof buf, "%s", fixed[i]);
+        else
+            snprintf(buf, sizeof buf, "p_%zu_%zu", s->probe_r[i - PP_COL_PROBE0],
+                     s->probe_c[i - PP_COL_PROBE0]);
+        s->names[i] = strdup(buf);
+        if (!s->names[i])
+            return pp_fail(PP_ERR_NOMEM, "out of memory");
+    }
+    s->trace = (pp_trace){s->cfg.chains, kept, ncols, (const char *const *)s->names,
+                          s->trace_values};
+    return PP_OK;
+}
+
+static pp_status plan_chains(pp_sampler *s)
+{
+    int pad = s->cfg.boundary == PP_BOUNDARY_PAD;
+    s->chain = calloc(s->cfg.chains, sizeof *s->chain);
+    if (!s->chain)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for %u chains", s->cfg.chains);
+    for (unsigned k = 0; k < s->cfg.chains; k++) {
+        pp_chain *c = &s->chain[k];
+        c->cbuf = pp_fft_alloc_complex(s->gm);
+        c->cbuf2 = pp_fft_alloc_complex(s->gm);
+        c->rbuf = pp_fft_alloc_real(s->gn);
+        c->yhat = pad ? pp_fft_alloc_complex(s->gm) : s->yhat;
+        c->yaug = pad ? pp_fft_alloc_real(s->gn) : NULL;
+        if (!c->cbuf || !c->cbuf2 || !c->rbuf || !c->yhat || (pad && !c->yaug))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
+        pp_status st = pp_moments_init(&c->mom, s->height * s->width);
+        if (st != PP_OK)
+            return st;
+        c->trace = s->trace_values + (size_t)k * s->trace.kept * s->trace.ncols;
+    }
+    return PP_OK;
+}
+
+pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
+                            const pp_image *psf, pp_sampler **out)
+{
+    *out = NULL;
+    pp_sampler *s = calloc(1, sizeof *s);
+    if (!s)
+        return pp_fail(PP_ERR_NOMEM, "out of memory");
+    s->cfg = *cfg;
+    s->height = frame->height;
+    s->width = frame->width;
+    pp_status st = check_config(&s->cfg);
+    if (st == PP_OK) {
+        size_t bad = 0;
+        for (size_t i = 0; i < s->height * s->width; i++)
+            bad += !isfinite(frame->data[i]);
+        if (bad)
+            st = pp_fail(PP_ERR_NUMERIC, "the frame has %zu NaN or infinite pixels", bad);
+    }
+    pp_image *kernel = NULL;
+    if (st == PP_OK && (st = pp_image_clone(psf, &kernel)) == PP_OK)
+        st = pp_psf_check(kernel, s->height, s->width);
+    if (st == PP_OK)
+        st = plan_grid(s, kernel);
+    if (st == PP_OK)
+        st = plan_data(s, frame, kernel);
+    pp_image_free(kernel);
+    if (st == PP_OK)
+        st = plan_probes(s);
+    if (st == PP_OK)
+        st = plan_trace(s);
+    if (st == PP_OK)
+        st = plan_chains(s);
+    if (st == PP_OK) {
+        st = pp_image_create(s->width, s->height, &s->mean);
+        if (st == PP_OK)
+            st = pp_image_create(s->width, s->height, &s->sd);
+        if (st == PP_OK)
+            st = pp_image_create(s->width, s->height, &s->lo);
+        if (st == PP_OK)
+            st = pp_image_create(s->width, s->height, &s->hi);
+    }
+    if (st != PP_OK) {
+        pp_sampler_free(s);
+        return st;
+    }
+    rough_scales(s, frame);
+    *out = s;
+    return PP_OK;
+}
+
+/* ---- running ---------------------------------------------------------- */
+
+void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
+{
+    if (s->nwarnings == PP_MAX_WARNINGS)
+        return;
+    char buf[512];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    va_end(ap);
+    s->warnings[s->nwarnings] = strdup(buf);
+    if (s->warnings[s->nwarnings])
+        s->nwarnings++;
+}
+
+int pp_sampler_tick(pp_sampler *s)
+{
+    unsigned long long done;
+#pragma omp atomic capture
+    done = ++s->progress_done;
+    if (s->cfg.progress) {
+        unsigned long long total =
+            (unsigned long long)s->cfg.chains * (s->cfg.burn + s->cfg.iters);
+        unsigned long long step = total / 200 + 1;
+        if (done % step == 0 || done == total) {
+#pragma omp critical(pp_progress)
+            s->cfg.progress(s->cfg.progress_ctx, done, total);
+        }
+    }
+    return s->cfg.stop && *s->cfg.stop;
+}
+
+/* Dispersed start: the rough scales times a log-normal factor (sd 1). */
+static void start_chain(pp_sampler *s, unsigned k)
+{
+    pp_chain *c = &s->chain[k];
+    pp_rng_seed(&c->rng, s->cfg.seed, 1000 + (uint64_t)k);
+    c->lambda = s->lambda0 * (s->cfg.noise.sigma_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
+    c->delta = s->delta0 * (s->cfg.prior.delta_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
+    c->kept = 0;
+    c->condvar_sum = 0;
+    c->mom.count = 0;
+    memset(c->mom.mean, 0, c->mom.len * sizeof(double));
+    memset(c->mom.m2, 0, c->mom.len * sizeof(double));
+    if (c->yaug) {
+        memcpy(c->yaug, s->ygrid, s->gn * sizeof(double));
+        memcpy(c->yhat, s->yhat, s->gm * sizeof(pp_complex));
+    }
+}
+
+static pp_status pool_estimates(pp_sampler *s)
+{
+    pp_moments *acc = &s->chain[0].mom;
+    double condvar = 0;
+    unsigned long long kept = 0;
+    for (unsigned k = 0; k < s->cfg.chains; k++) {
+        if (k > 0)
+            pp_moments_merge(acc, &s->chain[k].mom);
+        condvar += s->chain[k].condvar_sum;
+        kept += s->chain[k].kept;
+    }
+    condvar /= (double)kept;
+    double z = pp_norm_quantile(0.5 + 0.5 * s->cfg.level);
+    size_t n = s->height * s->width, bad = 0;
+    for (size_t i = 0; i < n; i++) {
+        double var = condvar + (kept > 1 ? acc->m2[i] / (double)(kept - 1) : 0.0);
+        double m = acc->mean[i], sd = sqrt(var);
+        s->mean->data[i] = m;
+        s->sd->data[i] = sd;
+        s->lo->data[i] = m - z * sd;
+        s->hi->data[i] = m + z * sd;
+        bad += !isfinite(m) || !isfinite(sd);
+    }
+    if (bad)
+        return pp_fail(PP_ERR_NUMERIC, "%zu pixels of the estimates are not finite", bad);
+    snprintf(s->bound_method, sizeof s->bound_method,
+             "gaussian: Rao-Blackwellised mean +/- %.6g x sd (law of total variance)", z);
+    return PP_OK;
+}
+
+pp_status pp_sampler_run(pp_sampler *s)
+{
+    if (s->ran)
+        return pp_fail(PP_ERR_ARG, "pp_sampler_run: a sampler runs once; create a new one");
+    s->ran = 1;
+    unsigned nc = s->cfg.chains;
+    int nt = s->cfg.threads > 0 ? s->cfg.threads : omp_get_max_threads();
+    if (nt > (int)nc)
+        nt = (int)nc;
+    pp_status *st = calloc(nc, sizeof *st);
+    char(*msg)[1024] = calloc(nc, sizeof *msg);
+    if (!st || !msg) {
+        free(st);
+        free(msg);
+        return pp_fail(PP_ERR_NOMEM, "out of memory");
+    }
+    double t0 = omp_get_wtime();
+#pragma omp parallel for num_threads(nt) schedule(dynamic, 1)
+    for (unsigned k = 0; k < nc; k++) {
+        start_chain(s, k);
+        st[k] = pp_gibbs_run_chain(s, &s->chain[k]);
+        if (st[k] != PP_OK)
+            snprintf(msg[k], sizeof msg[k], "%s", pp_error_message());
+    }
+    s->seconds = omp_get_wtime() - t0;
+    pp_status res = PP_OK;
+    for (unsigned k = 0; k < nc && res == PP_OK; k++)
+        if (st[k] != PP_OK)
+            res = pp_fail(st[k], "chain %u: %s", k + 1, msg[k]);
+    free(st);
+    free(msg);
+    if (res == PP_OK)
+        res = pool_estimates(s);
+    return res;
+}
+
+/* ---- results and cleanup ---------------------------------------------- */
+
+const pp_sampler_config *pp_sampler_config_used(const pp_sampler *s) { return &s->cfg; }
+const pp_image *pp_sampler_mean(const pp_sampler *s) { return s->mean; }
+const pp_image *pp_sampler_sd(const pp_sampler *s) { return s->sd; }
+const pp_image *pp_sampler_lo(const pp_sampler *s) { return s->lo; }
+const pp_image *pp_sampler_hi(const pp_sampler *s) { return s->hi; }
+const pp_trace *pp_sampler_trace(const pp_sampler *s) { return &s->trace; }
+const char *pp_sampler_bound_method(const pp_sampler *s) { return s->bound_method; }
+double pp_sampler_seconds(const pp_sampler *s) { return s->seconds; }
+size_t pp_sampler_warning_count(const pp_sampler *s) { return s->nwarnings; }
+const char *pp_sampler_warning(const pp_sampler *s, size_t i)
+{
+    return i < s->nwarnings ? s->warnings[i] : NULL;
+}
+
+void pp_sampler_free(pp_sampler *s)
+{
+    if (!s)
+        return;
+    for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
+        pp_chain *c = &s->chain[k];
+        pp_fft_free_buffer(c->cbuf);
+        pp_fft_free_buffer(c->cbuf2);
+        pp_fft_free_buffer(c->rbuf);
+        if (c->yhat != s->yhat)
+            pp_fft_free_buffer(c->yhat);
+        pp_fft_free_buffer(c->yaug);
+        pp_moments_free(&c->mom);
+    }
+    free(s->chain);
+    pp_fft_free_buffer(s->otf);
+    free(s->otf2);
+    free(s->q);
+    pp_fft_free_buffer(s->ygrid);
+    pp_fft_free_buffer(s->yhat);
+    free(s->tw_row);
+    free(s->tw_col);
+    free(s->trace_values);
+    for (size_t i = 0; i < 3 + PP_MAX_PROBES; i++)
+        free(s->names[i]);
+    for (size_t i = 0; i < s->nwarnings; i++)
+        free(s->warnings[i]);
+    pp_image_free(s->mean);
+    pp_image_free(s->sd);
+    pp_image_free(s->lo);
+    pp_image_free(s->hi);
+    pp_fft_free(s->fft);
+    free(s);
+}

@@ -1,0 +1,27 @@
+/* pixpost — the DFT of real white noise, drawn straight into the half
+ * spectrum (DESIGN.md section 2). Cost: H*(W+2) normals and one pass. */
+#include <math.h>
+#include "internal.h"
+
+void pp_half_noise(pp_rng *rng, size_t height, size_t width, pp_complex *out)
+{
+    size_t wh = width / 2 + 1;
+    double n = (double)height * (double)width;
+    double s = sqrt(n / 2.0);
+    double *d = (double *)out;
+    pp_rng_normals(rng, d, 2 * height * wh);
+    for (size_t i = 0; i < 2 * height * wh; i++)
+        d[i] *= s;
+    /* Columns 0 and (W even) W/2 hold k with -k in the same column: row k1
+     * pairs with row H-k1 as complex conjugates; k1 = 0 and (H even) H/2
+     * are their own mirror and real, with variance N. */
+    size_t ncol = (width % 2 == 0 && wh > 1) ? 2 : 1;
+    for (size_t c = 0; c < ncol; c++) {
+        size_t col = c == 0 ? 0 : width / 2;
+        for (size_t k1 = 1; k1 < height - k1; k1++)
+            out[(height - k1) * wh + col] = conj(out[k1 * wh + col]);
+        out[col] = creal(out[col]) * sqrt(2.0);
+        if (height % 2 == 0)
+            out[(height / 2) * wh + col] = creal(out[(height / 2) * wh + col]) * sqrt(2.0);
+    }
+}

@@ -1,0 +1,79 @@
+/* pixpost — streaming per-pixel moments (Welford 1962; pairwise merge of
+ * Chan, Golub & LeVeque 1979) and the normal quantile. Cost: one pass over
+ * the vector per added draw, two divisions hoisted out of the loop. */
+#include <math.h>
+#include <stdlib.h>
+#include "internal.h"
+
+pp_status pp_moments_init(pp_moments *m, size_t len)
+{
+    m->len = len;
+    m->count = 0;
+    m->mean = calloc(len, sizeof(double));
+    m->m2 = calloc(len, sizeof(double));
+    if (!m->mean || !m->m2) {
+        pp_moments_free(m);
+        return pp_fail(PP_ERR_NOMEM, "out of memory for per-pixel moments");
+    }
+    return PP_OK;
+}
+
+void pp_moments_free(pp_moments *m)
+{
+    free(m->mean);
+    free(m->m2);
+    m->mean = m->m2 = NULL;
+}
+
+void pp_moments_add_block(pp_moments *m, const double *x, size_t rows, size_t cols,
+                          size_t stride)
+{
+    m->count++;
+    double inv = 1.0 / (double)m->count;
+    for (size_t r = 0; r < rows; r++) {
+        const double *xr = x + r * stride;
+        double *mean = m->mean + r * cols, *m2 = m->m2 + r * cols;
+        for (size_t c = 0; c < cols; c++) {
+            double d = xr[c] - mean[c];
+            mean[c] += d * inv;
+            m2[c] += d * (xr[c] - mean[c]);
+        }
+    }
+}
+
+void pp_moments_add(pp_moments *m, const double *x) { pp_moments_add_block(m, x, 1, m->len, 0); }
+
+void pp_moments_merge(pp_moments *acc, const pp_moments *o)
+{
+    if (o->count == 0)
+        return;
+    double na = (double)acc->count, nb = (double)o->count, n = na + nb;
+    for (size_t i = 0; i < acc->len; i++) {
+        double d = o->mean[i] - acc->mean[i];
+        acc->mean[i] += d * nb / n;
+        acc->m2[i] += o->m2[i] + d * d * na * nb / n;
+    }
+    acc->count += o->count;
+}
+
+double pp_norm_quantile(double p)
+{
+    if (!(p > 0 && p < 1))
+        return p == 0 ? -INFINITY : p == 1 ? INFINITY : NAN;
+    /* Start from a logistic approximation, then Newton on
+     * Phi(z) = erfc(-z/sqrt 2)/2, whose derivative is the normal density. */
+    double z = log(p / (1 - p)) * 0.6266570686577501; /* sqrt(pi/8) */
+    for (int it = 0; it < 60; it++) {
+        double cdf = 0.5 * erfc(-z / sqrt(2.0));
+        double pdf = exp(-0.5 * z * z) / sqrt(2.0 * PP_PI);
+        double step = (cdf - p) / pdf;
+        if (step > 1)
+            step = 1;
+        if (step < -1)
+            step = -1;
+        z -= step;
+        if (fabs(step) < 1e-15 * (1 + fabs(z)))
+            break;
+    }
+    return z;
+}
