@@ -6,10 +6,26 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 #include "internal.h"
 
 int mkstemp(char *template); /* POSIX; declared here for strict C11 */
+
+/* mkstemp creates files with mode 0600; give outputs the usual 0666 less
+ * the umask, like fopen would. (Reading the umask means setting it back.) */
+static int temp_file(char *tmp)
+{
+    int fd = mkstemp(tmp);
+    if (fd >= 0) {
+        mode_t m = umask(022);
+        umask(m);
+        if (fchmod(fd, 0666 & ~m) != 0) {
+            /* keep 0600: the file is still correct, only less shared */
+        }
+    }
+    return fd;
+}
 
 static pp_status make_template(const char *path, char *tmp)
 {
@@ -27,7 +43,7 @@ pp_status pp_atomic_reserve(const char *path, char *tmp)
     pp_status st = make_template(path, tmp);
     if (st != PP_OK)
         return st;
-    int fd = mkstemp(tmp);
+    int fd = temp_file(tmp);
     if (fd < 0)
         return pp_fail(PP_ERR_IO, "%s: cannot create a file in its folder: %s", path,
                        strerror(errno));
@@ -41,7 +57,7 @@ pp_status pp_atomic_open(const char *path, char *tmp, FILE **fp)
     pp_status st = make_template(path, tmp);
     if (st != PP_OK)
         return st;
-    int fd = mkstemp(tmp);
+    int fd = temp_file(tmp);
     if (fd < 0)
         return pp_fail(PP_ERR_IO, "%s: cannot create a file in its folder: %s", path,
                        strerror(errno));
