@@ -1,0 +1,488 @@
+/* pixpost — point-spread functions: spec parsing, the Gaussian and Airy
+ * models, measured bead images, kernel checks and the Bessel function J1.
+ *
+ * Cost: a Gaussian kernel is one exp per pixel; an Airy kernel is s*s
+ * evaluations of J1 per pixel (s = supersampling, 8 for usual settings, see
+ * airy_supersampling()); a file PSF is one read plus a sort of its border
+ * (median) and two passes. Kernels are small (radius tens of pixels), so
+ * none of this matters next to sampling.
+ *
+ * Discretisation (documented choices):
+ *  - gaussian: exp(-r^2 / (2 sigma^2)) SAMPLED at pixel centres (not
+ *    integrated over the pixel), so its discrete second moment per axis is
+ *    sigma^2 up to the aliasing term ~ 4 pi^2 sigma^2 exp(-2 pi^2 sigma^2)
+ *    (Poisson summation; below 1e-6 relative for sigma >= 1) and the
+ *    truncation at radius ceil(4 sigma) (mass outside ~ 3e-4, which lowers
+ *    the moment by < 0.5 %). A pixel-integrated kernel would have sigma^2 +
+ *    1/12 instead; sampling keeps "sigma" meaning what the spec says.
+ *  - airy: (2 J1(v)/v)^2, v = 2 pi NA r / lambda, AVERAGED over each pixel
+ *    by an s x s midpoint rule (see airy_supersampling()).
+ */
+#include "pixpost/psf.h"
+#include "internal.h"
+#include "pixpost/io.h"
+#include "pixpost/spec.h"
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#define WHAT "--psf"
+#define ACCEPTED_MODELS "gaussian:sigma=S, airy:na=NA,wavelength=L,pixel=P, file:PATH"
+/* Largest kernel radius made from a model, in pixels (a 4097-pixel square,
+ * far beyond any real frame); a bigger request is almost surely a unit
+ * mistake (nm for um, um for pixels). */
+#define MAX_RADIUS 2048
+/* The 5th zero of J1 (Abramowitz & Stegun table 9.5) bounds the Airy
+ * kernel chosen by default. The energy inside the n-th dark ring is
+ * 1 - J0(z_n)^2 (Rayleigh's encircled-energy formula, since J1(z_n) = 0):
+ * 96.1 % for the 5th (computed with scipy.special.j0), a little more in
+ * the square; the remaining far tail is dropped and the kernel is
+ * renormalised. A larger explicit size keeps more of it. */
+static const double j1_zero5 = 16.470630050877633;
+
+/* ---------------------------------------------------------------- J1 ---- */
+
+/* Rational approximations of J1 from the Cephes Mathematical Library
+ * (S. L. Moshier, j1.c): |x| <= 5 uses x (x^2 - z1^2)(x^2 - z2^2) R(x^2)/S(x^2)
+ * with z1, z2 the first two zeros; |x| > 5 uses the Hankel form
+ * sqrt(2/(pi x)) (P cos(xn) - (5/x) Q sin(xn)), xn = x - 3 pi/4, with P, Q
+ * rational in (5/x)^2. Measured against scipy.special.j1 on 0..50 in
+ * tests/ref_model.py (max abs error reported there). */
+static const double RP[4] = {-8.99971225705559398224E8, 4.52228297998194034323E11,
+                             -7.27494245221818276015E13, 3.68295732863852883286E15};
+static const double RQ[8] = {6.20836478118054335476E2,  2.56987256757748830383E5,
+                             8.35146791431949253037E7,  2.21511595479792499675E10,
+                             4.74914122079991414898E12, 7.84369607876235854894E14,
+                             8.95222336184627338078E16, 5.32278620332680085395E18};
+static const double PP[7] = {7.62125616208173112003E-4, 7.31397056940917570436E-2,
+                             1.12719608129684925192E0,  5.11207951146807644818E0,
+                             8.42404590141772420927E0,  5.21451598682361504063E0,
+                             1.00000000000000000254E0};
+static const double PQ[7] = {5.71323128072548699714E-4, 6.88455908754495404082E-2,
+                             1.10514232634061696926E0,  5.07386386128601488557E0,
+                             8.39985554327604159757E0,  5.20982848682361821619E0,
+                             9.99999999999999997461E-1};
+static const double QP[8] = {5.10862594750176621635E-2, 4.98213872951233449420E0,
+                             7.58238284132545283818E1,  3.66779609360150777800E2,
+                             7.10856304998926107277E2,  5.97489612400613639965E2,
+                             2.11688757100572135698E2,  2.52070205858023719784E1};
+static const double QQ[7] = {7.42373277035675149943E1, 1.05644886038262816351E3,
+                             4.98641058337653607651E3, 9.56231892404756170795E3,
+                             7.99704160447350683650E3, 2.82619278517639096600E3,
+                             3.36093607810698293419E2};
+
+/* c[0] x^n + ... + c[n] (Horner). */
+static double poly(double x, const double *c, int n)
+{
+    double s = c[0];
+    for (int i = 1; i <= n; i++)
+        s = s * x + c[i];
+    return s;
+}
+
+/* x^n + c[0] x^(n-1) + ... + c[n-1] (leading coefficient 1). */
+static double poly1(double x, const double *c, int n)
+{
+    double s = x + c[0];
+    for (int i = 1; i < n; i++)
+        s = s * x + c[i];
+    return s;
+}
+
+double pp_bessel_j1(double x)
+{
+    if (x < 0)
+        return -pp_bessel_j1(-x);
+    if (x <= 5.0) {
+        const double z1 = 1.46819706421238932572E1, z2 = 4.92184563216946036703E1;
+        double z = x * x;
+        double w = poly(z, RP, 3) / poly1(z, RQ, 8);
+        return w * x * (z - z1) * (z - z2);
+    }
+    double w = 5.0 / x, z = w * w;
+    double p = poly(z, PP, 6) / poly(z, PQ, 6);
+    double q = poly(z, QP, 7) / poly1(z, QQ, 7);
+    double xn = x - 2.356194490192344928846982537459627163; /* 3 pi / 4 */
+    p = p * cos(xn) - w * q * sin(xn);
+    return p * 0.79788456080286535587989211986876373695 / sqrt(x); /* sqrt(2/pi) */
+}
+
+/* ------------------------------------------------------------- specs ---- */
+
+static pp_status need_number(pp_spec *sp, const char *key, const char *form, double *v)
+{
+    pp_status st;
+    if (!pp_spec_number(sp, key, WHAT, v, NULL, &st))
+        return pp_fail(PP_ERR_ARG, WHAT " %s: missing %s= (expected %s)", sp->name, key, form);
+    return st;
+}
+
+static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
+{
+    pp_status st = need_number(sp, "sigma", "gaussian:sigma=S, S in pixels", &out->sigma);
+    if (st != PP_OK)
+        return st;
+    if ((st = pp_spec_check_used(sp, WHAT, "sigma")) != PP_OK)
+        return st;
+    if (!(out->sigma > 0))
+        return pp_fail(PP_ERR_ARG, WHAT " gaussian: sigma=%g must be > 0 (pixels)", out->sigma);
+    return PP_OK;
+}
+
+static pp_status check_airy(const pp_psf_spec *s)
+{
+    if (!(s->na > 0 && s->na <= 1.7))
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: na=%g must be in (0, 1.7] (dry objectives reach ~0.95, "
+                            "oil immersion ~1.4-1.5)",
+                       s->na);
+    if (!(s->wavelength > 0))
+        return pp_fail(PP_ERR_ARG, WHAT " airy: wavelength=%g must be > 0 (micrometres)",
+                       s->wavelength);
+    if (s->wavelength >= 100)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: wavelength=%g is in micrometres; that looks like "
+                            "nanometres (e.g. 520 nm is wavelength=0.52)",
+                       s->wavelength);
+    if (!(s->pixel > 0))
+        return pp_fail(PP_ERR_ARG, WHAT " airy: pixel=%g must be > 0 (micrometres)", s->pixel);
+    return PP_OK;
+}
+
+static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
+{
+    static const char form[] = "airy:na=NA,wavelength=L,pixel=P, L and P in micrometres";
+    pp_status st = need_number(sp, "na", form, &out->na);
+    if (st == PP_OK)
+        st = need_number(sp, "wavelength", form, &out->wavelength);
+    if (st == PP_OK)
+        st = need_number(sp, "pixel", form, &out->pixel);
+    if (st == PP_OK)
+        st = pp_spec_check_used(sp, WHAT, "na, wavelength, pixel");
+    return st == PP_OK ? check_airy(out) : st;
+}
+
+/* Dispatches on the model name of an already split spec. */
+static pp_status parse_kind(pp_spec *sp, const char *text, int is_file, pp_psf_spec *out)
+{
+    if (is_file) {
+        out->kind = PP_PSF_FILE;
+        if (strlen(sp->value[0]) >= sizeof out->path)
+            return pp_fail(PP_ERR_ARG, WHAT " file: the path is too long");
+        strcpy(out->path, sp->value[0]);
+        return PP_OK;
+    }
+    if (strcmp(sp->name, "gaussian") == 0) {
+        out->kind = PP_PSF_GAUSSIAN;
+        return parse_gaussian(sp, out);
+    }
+    if (strcmp(sp->name, "airy") == 0) {
+        out->kind = PP_PSF_AIRY;
+        return parse_airy(sp, out);
+    }
+    if (strcmp(sp->name, "file") == 0)
+        return pp_fail(PP_ERR_ARG, WHAT " '%s': missing the path (expected file:PATH)", text);
+    return pp_fail(PP_ERR_ARG, WHAT " '%s': unknown PSF model '%s' (accepted: %s)", text, sp->name,
+                   ACCEPTED_MODELS);
+}
+
+/* text may be NULL (refused). On failure *out is zeroed but for the kind. */
+pp_status pp_psf_parse(const char *text, pp_psf_spec *out)
+{
+    memset(out, 0, sizeof *out);
+    int is_file = text && strncmp(text, "file:", 5) == 0;
+    pp_spec *sp = malloc(sizeof *sp); /* ~66 KiB: too big for a thread stack */
+    if (!sp)
+        return pp_fail(PP_ERR_NOMEM, "out of memory parsing " WHAT);
+    pp_status st = pp_spec_split(text, WHAT, is_file, sp);
+    if (st == PP_OK)
+        st = parse_kind(sp, text, is_file, out);
+    free(sp);
+    return st;
+}
+
+/* Shortest %g form that reads back as the same double. */
+static void fmt_number(char *buf, size_t len, double v)
+{
+    snprintf(buf, len, "%.15g", v);
+    if (strtod(buf, NULL) != v)
+        snprintf(buf, len, "%.17g", v);
+}
+
+void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len)
+{
+    char a[32], b[32], c[32];
+    if (!buf || len == 0)
+        return;
+    switch (s->kind) {
+    case PP_PSF_GAUSSIAN:
+        fmt_number(a, sizeof a, s->sigma);
+        snprintf(buf, len, "gaussian:sigma=%s", a);
+        break;
+    case PP_PSF_AIRY:
+        fmt_number(a, sizeof a, s->na);
+        fmt_number(b, sizeof b, s->wavelength);
+        fmt_number(c, sizeof c, s->pixel);
+        snprintf(buf, len, "airy:na=%s,wavelength=%s,pixel=%s", a, b, c);
+        break;
+    default:
+        snprintf(buf, len, "file:%s", s->path);
+        break;
+    }
+}
+
+/* ------------------------------------------------------------ models ---- */
+
+/* Radius from an explicit size (must be odd) or the model's default. */
+static pp_status pick_radius(size_t size, double model_radius, size_t *radius)
+{
+    if (size != 0) {
+        if (size % 2 == 0)
+            return pp_fail(PP_ERR_ARG, "PSF size %zu must be odd (2R+1)", size);
+        if (size > 2 * MAX_RADIUS + 1)
+            return pp_fail(PP_ERR_LIMIT, "PSF size %zu is above the limit of %d", size,
+                           2 * MAX_RADIUS + 1);
+        *radius = (size - 1) / 2;
+        return PP_OK;
+    }
+    double r = ceil(model_radius - 1e-9); /* a radius of exactly 4.0 stays 4 */
+    if (!(r <= MAX_RADIUS))
+        return pp_fail(PP_ERR_LIMIT,
+                       "PSF radius %.0f pixels is above the limit of %d; check the units "
+                       "(gaussian sigma is in pixels, airy lengths in micrometres)",
+                       r, MAX_RADIUS);
+    *radius = r < 1 ? 1 : (size_t)r;
+    return PP_OK;
+}
+
+static void normalise(pp_image *k)
+{
+    size_t n = k->width * k->height;
+    double sum = 0;
+    for (size_t i = 0; i < n; i++)
+        sum += k->data[i];
+    for (size_t i = 0; i < n; i++)
+        k->data[i] /= sum;
+}
+
+static pp_status make_gaussian(double sigma, size_t size, pp_image **out)
+{
+    size_t r;
+    pp_status st = pick_radius(size, 4.0 * sigma, &r);
+    if (st != PP_OK || (st = pp_image_create(2 * r + 1, 2 * r + 1, out)) != PP_OK)
+        return st;
+    pp_image *k = *out;
+    for (size_t i = 0; i < k->height; i++)
+        for (size_t j = 0; j < k->width; j++) {
+            double dy = (double)i - (double)r, dx = (double)j - (double)r;
+            k->data[i * k->width + j] = exp(-(dx * dx + dy * dy) / (2 * sigma * sigma));
+        }
+    normalise(k);
+    return PP_OK;
+}
+
+/* Sub-pixels per side for the Airy pixel average. An s-point midpoint rule
+ * over a pixel of side p multiplies a spatial frequency f by
+ * sin(pi f p) / (s sin(pi f p / s)) instead of the exact box average's
+ * sinc(f p); their ratio is about 1 + (pi f p / s)^2 / 6. The Airy intensity
+ * has no frequency above 2 NA / lambda (the incoherent cut-off), so keeping
+ * the sub-pixel spacing p/s <= lambda / (32 NA) bounds the error at the
+ * cut-off by (pi/16)^2/6 = 0.6 % and far less for the low frequencies that
+ * carry the energy. For na=1.4, lambda=0.52, pixel=0.065 that gives s = 8
+ * (tests/test_psf.c measures 8 vs 64 sub-pixels). */
+static int airy_supersampling(const pp_psf_spec *s)
+{
+    double need = ceil(s->pixel * 32.0 * s->na / s->wavelength);
+    if (need < 8)
+        return 8;
+    return need > 64 ? 64 : (int)need;
+}
+
+/* (2 J1(v)/v)^2, equal to 1 at v = 0. */
+static double airy_intensity(double v)
+{
+    if (v < 1e-6)
+        return 1.0 - v * v / 4.0; /* series: (1 - v^2/8)^2 */
+    double a = 2.0 * pp_bessel_j1(v) / v;
+    return a * a;
+}
+
+/* Mean of the Airy intensity over pixel (dy, dx) with s x s sub-pixels;
+ * k = 2 pi NA pixel / lambda converts pixel units to v. */
+static double airy_pixel(double dy, double dx, double k, int s)
+{
+    double sum = 0;
+    for (int a = 0; a < s; a++) {
+        double y = dy + ((a + 0.5) / s - 0.5);
+        for (int b = 0; b < s; b++) {
+            double x = dx + ((b + 0.5) / s - 0.5);
+            sum += airy_intensity(k * sqrt(x * x + y * y));
+        }
+    }
+    return sum / ((double)s * s);
+}
+
+static pp_status make_airy(const pp_psf_spec *spec, size_t size, int s, pp_image **out)
+{
+    pp_status st = check_airy(spec);
+    if (st != PP_OK)
+        return st;
+    double k = 2.0 * PP_PI * spec->na * spec->pixel / spec->wavelength;
+    size_t r;
+    if ((st = pick_radius(size, j1_zero5 / k, &r)) != PP_OK ||
+        (st = pp_image_create(2 * r + 1, 2 * r + 1, out)) != PP_OK)
+        return st;
+    pp_image *img = *out;
+    for (size_t i = 0; i < img->height; i++)
+        for (size_t j = 0; j < img->width; j++)
+            img->data[i * img->width + j] =
+                airy_pixel((double)i - (double)r, (double)j - (double)r, k, s);
+    normalise(img);
+    return PP_OK;
+}
+
+/* -------------------------------------------------------- bead files ---- */
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* Median of the outermost ring of pixels (the bead's background). */
+static pp_status border_median(const pp_image *img, double *med)
+{
+    size_t w = img->width, h = img->height;
+    size_t n = (h == 1 || w == 1) ? w * h : 2 * w + 2 * h - 4, m = 0;
+    double *v = malloc(n * sizeof *v);
+    if (!v)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for a PSF border");
+    for (size_t i = 0; i < h; i++)
+        for (size_t j = 0; j < w; j++)
+            if (i == 0 || j == 0 || i == h - 1 || j == w - 1)
+                v[m++] = img->data[i * w + j];
+    qsort(v, m, sizeof *v, cmp_double);
+    *med = m % 2 ? v[m / 2] : 0.5 * (v[m / 2 - 1] + v[m / 2]);
+    free(v);
+    return PP_OK;
+}
+
+/* Background-subtracts and clips in place; returns the centroid pixel. */
+static pp_status bead_clean(pp_image *img, const char *path, size_t *ci, size_t *cj)
+{
+    size_t w = img->width, h = img->height;
+    for (size_t i = 0; i < w * h; i++)
+        if (!isfinite(img->data[i]))
+            return pp_fail(PP_ERR_FORMAT, "%s: the PSF image has NaN/Inf pixels", path);
+    double med = 0, sum = 0, sy = 0, sx = 0;
+    pp_status st = border_median(img, &med);
+    if (st != PP_OK)
+        return st;
+    for (size_t i = 0; i < h; i++)
+        for (size_t j = 0; j < w; j++) {
+            double *p = &img->data[i * w + j];
+            *p = *p > med ? *p - med : 0.0;
+            sum += *p;
+            sy += *p * (double)i;
+            sx += *p * (double)j;
+        }
+    if (!(sum > 0))
+        return pp_fail(PP_ERR_FORMAT,
+                       "%s: no pixel of the PSF image is above its border median; is it a "
+                       "bead image?",
+                       path);
+    *ci = (size_t)floor(sy / sum + 0.5);
+    *cj = (size_t)floor(sx / sum + 0.5);
+    return PP_OK;
+}
+
+static size_t max4(size_t a, size_t b, size_t c, size_t d)
+{
+    size_t m = a > b ? a : b;
+    m = m > c ? m : c;
+    return m > d ? m : d;
+}
+
+/* Copies the (2r+1)^2 window of img centred on (ci, cj), zero outside. */
+static pp_status bead_window(const pp_image *img, size_t ci, size_t cj, size_t r, pp_image **out)
+{
+    pp_status st = pp_image_create(2 * r + 1, 2 * r + 1, out);
+    if (st != PP_OK)
+        return st;
+    pp_image *k = *out;
+    for (size_t a = 0; a < k->height; a++) {
+        long i = (long)ci + (long)a - (long)r;
+        for (size_t b = 0; b < k->width; b++) {
+            long j = (long)cj + (long)b - (long)r;
+            if (i >= 0 && j >= 0 && i < (long)img->height && j < (long)img->width)
+                k->data[a * k->width + b] = img->data[(size_t)i * img->width + (size_t)j];
+        }
+    }
+    normalise(k);
+    return PP_OK;
+}
+
+static pp_status make_file(const char *path, size_t size, pp_image **out)
+{
+    pp_image *img = NULL;
+    size_t ci = 0, cj = 0, r = 0;
+    pp_status st = pp_image_read(path, NULL, &img, NULL);
+    if (st != PP_OK)
+        return st;
+    st = bead_clean(img, path, &ci, &cj);
+    if (st == PP_OK && size == 0) {
+        r = max4(ci, img->height - 1 - ci, cj, img->width - 1 - cj);
+        if (r > MAX_RADIUS)
+            st = pp_fail(PP_ERR_LIMIT, "%s: the PSF image is larger than the limit of %d", path,
+                         2 * MAX_RADIUS + 1);
+    } else if (st == PP_OK) {
+        st = pick_radius(size, 0, &r);
+    }
+    if (st == PP_OK)
+        st = bead_window(img, ci, cj, r, out);
+    pp_image_free(img);
+    return st;
+}
+
+pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
+{
+    *out = NULL;
+    switch (s->kind) {
+    case PP_PSF_GAUSSIAN:
+        if (!(s->sigma > 0))
+            return pp_fail(PP_ERR_ARG, WHAT " gaussian: sigma=%g must be > 0", s->sigma);
+        return make_gaussian(s->sigma, size, out);
+    case PP_PSF_AIRY:
+        return make_airy(s, size, airy_supersampling(s), out);
+    case PP_PSF_FILE:
+        return make_file(s->path, size, out);
+    }
+    return pp_fail(PP_ERR_ARG, WHAT ": unknown PSF kind %d", (int)s->kind);
+}
+
+pp_status pp_psf_check(pp_image *psf, size_t height, size_t width)
+{
+    size_t w = psf->width, h = psf->height;
+    if (w != h || w % 2 == 0)
+        return pp_fail(PP_ERR_ARG, "the PSF is %zux%zu; it must be an odd square (2R+1)", w, h);
+    if (w > height || w > width)
+        return pp_fail(PP_ERR_LIMIT, "the PSF (%zux%zu) is larger than the %zux%zu frame", w, h,
+                       width, height);
+    double sum = 0;
+    for (size_t i = 0; i < w * h; i++) {
+        double v = psf->data[i];
+        if (!isfinite(v))
+            return pp_fail(PP_ERR_NUMERIC, "the PSF has a NaN/Inf value at (%zu, %zu)", i / w,
+                           i % w);
+        if (v < 0)
+            return pp_fail(PP_ERR_ARG, "the PSF has a negative value %g at (%zu, %zu)", v, i / w,
+                           i % w);
+        sum += v;
+    }
+    if (!(sum > 0) || !isfinite(sum))
+        return pp_fail(PP_ERR_NUMERIC, "the PSF sums to %g; it needs a positive finite sum", sum);
+    normalise(psf);
+    return PP_OK;
+}

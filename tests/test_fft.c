@@ -1,0 +1,184 @@
+/* Unit tests of src/fft.c: the forward transform against a direct DFT sum,
+ * the round-trip scaling c2r(r2c(x)) = H*W*x, that forward leaves its input
+ * alone, good sizes, wisdom files, refusals, and planning from several
+ * threads at once. */
+#include "pixpost/fft.h"
+#include "testutil.h"
+#include <complex.h>
+#include <math.h>
+#include <pthread.h>
+#include <stdio.h>
+#include <string.h>
+
+#define TWO_PI 6.283185307179586476925
+
+/* A fixed pseudo-random sequence in [-1, 1) (64-bit LCG, Knuth's MMIX). */
+static double lcg(unsigned long long *s)
+{
+    *s = *s * 6364136223846793005ULL + 1442695040888963407ULL;
+    return (double)(*s >> 11) / 4503599627370496.0 - 1.0;
+}
+
+/* max |r2c(x) - direct DFT| over the half spectrum, and the round trip. */
+static void check_grid(size_t h, size_t w, int effort)
+{
+    pp_fft *f = NULL;
+    CHECK(pp_fft_create(h, w, effort, &f) == PP_OK, "create %zux%zu", h, w);
+    if (!f)
+        return;
+    size_t hw = pp_fft_half_width(f);
+    CHECK(hw == w / 2 + 1 && pp_fft_height(f) == h && pp_fft_width(f) == w, "sizes");
+    double *x = pp_fft_alloc_real(h * w), *copy = pp_fft_alloc_real(h * w);
+    double *back = pp_fft_alloc_real(h * w);
+    pp_complex *X = pp_fft_alloc_complex(h * hw);
+    unsigned long long seed = 42 + h * 1000 + w;
+    for (size_t i = 0; i < h * w; i++)
+        copy[i] = x[i] = lcg(&seed);
+    pp_fft_forward(f, x, X);
+    CHECK(memcmp(x, copy, h * w * sizeof *x) == 0, "forward left its input unchanged %zux%zu", h,
+          w);
+    double err = 0;
+    for (size_t k1 = 0; k1 < h; k1++)
+        for (size_t k2 = 0; k2 < hw; k2++) {
+            double complex s = 0; /* X(k) = sum x(n) exp(-2 pi i (k1 n1/H + k2 n2/W)) */
+            for (size_t n1 = 0; n1 < h; n1++)
+                for (size_t n2 = 0; n2 < w; n2++)
+                    s += x[n1 * w + n2] *
+                         cexp(-I * TWO_PI * ((double)(k1 * n1) / h + (double)(k2 * n2) / w));
+            double e = cabs(s - X[k1 * hw + k2]);
+            err = e > err ? e : err;
+        }
+    CHECK(err < 1e-10, "r2c equals the direct DFT on %zux%zu (max err %g)", h, w, err);
+    pp_fft_inverse(f, X, back);
+    double rt = 0;
+    for (size_t i = 0; i < h * w; i++) {
+        double e = fabs(back[i] / (double)(h * w) - x[i]);
+        rt = e > rt ? e : rt;
+    }
+    CHECK(rt < 1e-13, "c2r(r2c(x)) = H*W*x on %zux%zu (max err %g)", h, w, rt);
+    pp_fft_free_buffer(x);
+    pp_fft_free_buffer(copy);
+    pp_fft_free_buffer(back);
+    pp_fft_free_buffer(X);
+    pp_fft_free(f);
+}
+
+static int smooth7(size_t n)
+{
+    size_t p[] = {2, 3, 5, 7};
+    for (int i = 0; i < 4; i++)
+        while (n % p[i] == 0)
+            n /= p[i];
+    return n == 1;
+}
+
+static void check_good_size(void)
+{
+    /* Hand-factored values: 11->12, 13->14 (2*7), 17->18, 97->98 (2*7^2),
+     * 101->105 (3*5*7), 127->128, 1021->1024 (1022 = 2*7*73, 1023 =
+     * 3*11*31), 1000 stays. */
+    size_t in[] = {0, 1, 2, 11, 13, 17, 97, 101, 127, 1000, 1021};
+    size_t want[] = {1, 1, 2, 12, 14, 18, 98, 105, 128, 1000, 1024};
+    for (size_t i = 0; i < sizeof in / sizeof in[0]; i++)
+        CHECK(pp_fft_good_size(in[i]) == want[i], "good_size(%zu) = %zu, want %zu", in[i],
+              pp_fft_good_size(in[i]), want[i]);
+    int bad = 0;
+    for (size_t n = 1; n <= 3000; n++) {
+        size_t g = pp_fft_good_size(n);
+        if (g < n || !smooth7(g))
+            bad++;
+        for (size_t m = n; m < g; m++)
+            bad += smooth7(m);
+    }
+    CHECK(bad == 0, "good_size is the smallest 7-smooth n' >= n for n = 1..3000 (%d bad)", bad);
+}
+
+static void check_wisdom(void)
+{
+    const char *dir = pp_test_tmpdir();
+    char path[4200], missing[4200], junk[4200];
+    snprintf(path, sizeof path, "%s/wisdom.txt", dir);
+    snprintf(missing, sizeof missing, "%s/none.txt", dir);
+    snprintf(junk, sizeof junk, "%s/junk.txt", dir);
+    CHECK(pp_fft_wisdom_load(missing) == PP_OK, "a missing wisdom file is not an error");
+    CHECK(pp_fft_wisdom_save(path) == PP_OK, "wisdom saved: %s", pp_error_message());
+    CHECK(pp_fft_wisdom_load(path) == PP_OK, "saved wisdom loads back: %s", pp_error_message());
+    FILE *fp = fopen(junk, "w");
+    if (fp) {
+        fputs("this is not wisdom\n", fp);
+        fclose(fp);
+    }
+    CHECK(pp_fft_wisdom_load(junk) == PP_ERR_FORMAT && strstr(pp_error_message(), junk),
+          "a junk wisdom file is refused naming it: %s", pp_error_message());
+    char nodir[4200];
+    snprintf(nodir, sizeof nodir, "%s/no/such/dir/w.txt", dir);
+    CHECK(pp_fft_wisdom_save(nodir) == PP_ERR_IO, "saving into a missing folder fails");
+}
+
+struct job {
+    size_t base;
+    int fails;
+};
+
+/* Each thread plans, executes and frees grids of its own sizes. */
+static void *plan_worker(void *arg)
+{
+    struct job *job = arg;
+    size_t base = job->base;
+    int fails = 0;
+    for (size_t k = 0; k < 20; k++) {
+        size_t h = base + k % 5, w = base + 2 + k % 7;
+        pp_fft *f = NULL;
+        if (pp_fft_create(h, w, PP_FFT_ESTIMATE, &f) != PP_OK) {
+            fails++;
+            continue;
+        }
+        double *x = pp_fft_alloc_real(h * w);
+        pp_complex *X = pp_fft_alloc_complex(h * pp_fft_half_width(f));
+        for (size_t i = 0; i < h * w; i++)
+            x[i] = 1.0;
+        pp_fft_forward(f, x, X);
+        if (cabs(X[0] - (double)(h * w)) > 1e-9)
+            fails++;
+        pp_fft_free_buffer(x);
+        pp_fft_free_buffer(X);
+        pp_fft_free(f);
+    }
+    job->fails = fails;
+    return NULL;
+}
+
+static void check_threads(void)
+{
+    pthread_t t[4];
+    struct job arg[4] = {{5, 0}, {9, 0}, {12, 0}, {16, 0}};
+    for (int i = 0; i < 4; i++)
+        pthread_create(&t[i], NULL, plan_worker, &arg[i]);
+    int fails = 0;
+    for (int i = 0; i < 4; i++) {
+        pthread_join(t[i], NULL);
+        fails += arg[i].fails;
+    }
+    CHECK(fails == 0, "4 threads planning and executing at once: %d failures", fails);
+}
+
+int main(void)
+{
+    check_grid(6, 10, PP_FFT_ESTIMATE);
+    check_grid(7, 9, PP_FFT_ESTIMATE); /* odd sides: no Nyquist column */
+    check_grid(1, 8, PP_FFT_ESTIMATE);
+    check_grid(5, 1, PP_FFT_ESTIMATE);
+    check_grid(12, 14, PP_FFT_MEASURE);
+    check_good_size();
+    check_wisdom();
+    check_threads();
+    pp_fft *f = (pp_fft *)1;
+    CHECK(pp_fft_create(0, 8, PP_FFT_ESTIMATE, &f) == PP_ERR_ARG && f == NULL,
+          "a zero side is refused");
+    CHECK(pp_fft_create(8, 8, 7, &f) == PP_ERR_ARG, "an unknown effort is refused");
+    CHECK(pp_fft_create((size_t)1 << 40, 8, PP_FFT_ESTIMATE, &f) == PP_ERR_LIMIT,
+          "a grid beyond int sizes is refused");
+    pp_fft_free(NULL);
+    CHECK(pp_fft_alloc_real(0) == NULL, "a zero-length buffer is NULL");
+    return pp_test_done();
+}
