@@ -4,6 +4,7 @@
  * allocation); the getters convert them and print one-line errors that name
  * the option and its accepted form. Cost: O(argc * options), negligible.
  */
+#include "cli.h"
 #include <ctype.h>
 #include <errno.h>
 #include <limits.h>
@@ -12,7 +13,6 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
-#include "cli.h"
 
 static void vline(const char *prefix, const char *fmt, va_list ap)
 {
@@ -44,7 +44,10 @@ int cli_opt_error(const char *name, const char *fmt, ...)
     return CLI_EXIT_USAGE;
 }
 
-int cli_exit_code(pp_status st) { return st == PP_OK ? CLI_EXIT_OK : CLI_EXIT_USAGE; }
+int cli_exit_code(pp_status st)
+{
+    return st == PP_OK ? CLI_EXIT_OK : CLI_EXIT_USAGE;
+}
 
 int cli_fail(pp_status st)
 {
@@ -95,7 +98,10 @@ static int load_tables(cli_args *a, const char *command, const cli_opt *const *t
     return 0;
 }
 
-static int is_help(const char *s) { return strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0; }
+static int is_help(const char *s)
+{
+    return strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0;
+}
 
 /* Stores value for option i, refusing a repeat. shown is how the user wrote it. */
 static int store(cli_args *a, int i, const char *value)
@@ -108,8 +114,7 @@ static int store(cli_args *a, int i, const char *value)
 }
 
 /* Takes the value of option i from "=value" (inline) or the next argument. */
-static int take_value(cli_args *a, int i, const char *inline_value, int argc, char **argv,
-                      int *k)
+static int take_value(cli_args *a, int i, const char *inline_value, int argc, char **argv, int *k)
 {
     const cli_opt *o = a->opt[i];
     if (!o->takes_value) {
@@ -159,8 +164,7 @@ static int add_positional(cli_args *a, const char *s)
     return 0;
 }
 
-int cli_parse(cli_args *a, const char *command, const cli_opt *const *tables, int argc,
-              char **argv)
+int cli_parse(cli_args *a, const char *command, const cli_opt *const *tables, int argc, char **argv)
 {
     int rc = load_tables(a, command, tables);
     if (rc)
@@ -183,9 +187,15 @@ int cli_parse(cli_args *a, const char *command, const cli_opt *const *tables, in
     return rc;
 }
 
-int cli_given(const cli_args *a, const char *name) { return a->value[index_of(a, name)] != NULL; }
+int cli_given(const cli_args *a, const char *name)
+{
+    return a->value[index_of(a, name)] != NULL;
+}
 
-const char *cli_str(const cli_args *a, const char *name) { return a->value[index_of(a, name)]; }
+const char *cli_str(const cli_args *a, const char *name)
+{
+    return a->value[index_of(a, name)];
+}
 
 static int bad_value(const cli_args *a, const char *name, const char *v, const char *why,
                      const char *expect)
@@ -287,8 +297,7 @@ static int parse_double(const char *s, const char *stop, double *out)
     return 0;
 }
 
-int cli_get_double(const cli_args *a, const char *name, double lo, double hi, int open,
-                   double *out)
+int cli_get_double(const cli_args *a, const char *name, double lo, double hi, int open, double *out)
 {
     const char *v = cli_str(a, name);
     if (!v)
@@ -361,8 +370,8 @@ int cli_require(const cli_args *a, const char *name)
     if (o->short_name)
         return cli_error("%s: -%c %s is required (see 'pixpost %s --help')", a->command,
                          o->short_name, o->form, a->command);
-    return cli_error("%s: --%s %s is required (see 'pixpost %s --help')", a->command, name,
-                     o->form, a->command);
+    return cli_error("%s: --%s %s is required (see 'pixpost %s --help')", a->command, name, o->form,
+                     a->command);
 }
 
 int cli_positionals(const cli_args *a, size_t n, const char *what)
@@ -398,8 +407,7 @@ static void print_wrapped(FILE *fp, const char *text, int indent, int cols)
     }
 }
 
-void cli_print_options(FILE *fp, const cli_opt *const *tables, cli_default_fn defaults,
-                       void *ctx)
+void cli_print_options(FILE *fp, const cli_opt *const *tables, cli_default_fn defaults, void *ctx)
 {
     for (size_t t = 0; tables[t]; t++)
         for (const cli_opt *o = tables[t]; o->name; o++) {

@@ -16,10 +16,10 @@
 #ifndef PIXPOST_CLI_H
 #define PIXPOST_CLI_H
 
+#include "pixpost/pixpost.h"
 #include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
-#include "pixpost/pixpost.h"
 
 #if defined(__GNUC__)
 #define CLI_PRINTF(a, b) __attribute__((format(printf, a, b)))
@@ -35,11 +35,11 @@ enum { CLI_EXIT_OK = 0, CLI_EXIT_USAGE = 1, CLI_EXIT_BATCH = 2, CLI_EXIT_STRICT 
 
 /* One option of a command. Tables end with an entry whose name is NULL. */
 typedef struct cli_opt {
-    const char *name;  /* long name without "--", e.g. "iters" */
-    char short_name;   /* e.g. 'o' for -o, or 0 */
-    int takes_value;   /* 0: a flag */
-    const char *form;  /* accepted form for help and messages, e.g. "N", "A,B" */
-    const char *help;  /* one sentence, including the default */
+    const char *name; /* long name without "--", e.g. "iters" */
+    char short_name;  /* e.g. 'o' for -o, or 0 */
+    int takes_value;  /* 0: a flag */
+    const char *form; /* accepted form for help and messages, e.g. "N", "A,B" */
+    const char *help; /* one sentence, including the default */
 } cli_opt;
 
 #define CLI_MAX_OPTS 64
@@ -47,11 +47,11 @@ typedef struct cli_opt {
 
 /* What cli_parse() collected. Strings point into argv (not copied). */
 typedef struct cli_args {
-    const char *command;                /* for messages: "sample" */
-    const cli_opt *opt[CLI_MAX_OPTS];   /* every known option, in table order */
-    const char *value[CLI_MAX_OPTS];    /* NULL when not given; "" for a given flag */
+    const char *command;              /* for messages: "sample" */
+    const cli_opt *opt[CLI_MAX_OPTS]; /* every known option, in table order */
+    const char *value[CLI_MAX_OPTS];  /* NULL when not given; "" for a given flag */
     size_t nopts;
-    const char *pos[CLI_MAX_POS];       /* positional arguments */
+    const char *pos[CLI_MAX_POS]; /* positional arguments */
     size_t npos;
 } cli_args;
 
@@ -107,8 +107,7 @@ int cli_exit_code(pp_status st);
  * defaults may be NULL; it writes the default of `name` into buf or leaves
  * buf empty. */
 typedef void (*cli_default_fn)(const char *name, char *buf, size_t len, void *ctx);
-void cli_print_options(FILE *fp, const cli_opt *const *tables, cli_default_fn defaults,
-                       void *ctx);
+void cli_print_options(FILE *fp, const cli_opt *const *tables, cli_default_fn defaults, void *ctx);
 
 /* 1 if path ends in ext (case-sensitive, ext includes the dot). */
 int cli_has_ext(const char *path, const char *ext);
@@ -120,24 +119,28 @@ int cli_check_parent_dir(const char *path);
 
 /* ---- sample options (sample_opts.c), reused by batch ---------------- */
 
-typedef enum cli_progress { CLI_PROGRESS_AUTO, CLI_PROGRESS_BAR, CLI_PROGRESS_PLAIN,
-                            CLI_PROGRESS_NONE } cli_progress;
+typedef enum cli_progress {
+    CLI_PROGRESS_AUTO,
+    CLI_PROGRESS_BAR,
+    CLI_PROGRESS_PLAIN,
+    CLI_PROGRESS_NONE
+} cli_progress;
 
 typedef struct cli_sample_opts {
-    pp_sampler_config cfg;   /* from pp_sampler_defaults, then the options */
-    const char *frame;       /* FRAME (sample) or NULL (batch sets its own) */
-    const char *outdir;      /* -o, required */
-    const char *psf_text;    /* --psf as given (required) */
-    const char *noise_text;  /* --noise as given, or noise_buf (the default) */
-    const char *prior_text;  /* --prior as given, or prior_buf (the default) */
-    char noise_buf[128];     /* the defaults' canonical text; the pointers above */
-    char prior_buf[128];     /* may point here, so do not copy the struct */
-    pp_psf_spec psf;         /* parsed --psf */
-    pp_read_options read;    /* --channel, --max-pixels */
-    const char *wisdom;      /* --wisdom FILE or NULL */
-    int quiet;               /* --quiet */
-    cli_progress progress;   /* --progress (AUTO: bar on a terminal, else plain) */
-    int strict;              /* --strict */
+    pp_sampler_config cfg;  /* from pp_sampler_defaults, then the options */
+    const char *frame;      /* FRAME (sample) or NULL (batch sets its own) */
+    const char *outdir;     /* -o, required */
+    const char *psf_text;   /* --psf as given (required) */
+    const char *noise_text; /* --noise as given, or noise_buf (the default) */
+    const char *prior_text; /* --prior as given, or prior_buf (the default) */
+    char noise_buf[128];    /* the defaults' canonical text; the pointers above */
+    char prior_buf[128];    /* may point here, so do not copy the struct */
+    pp_psf_spec psf;        /* parsed --psf */
+    pp_read_options read;   /* --channel, --max-pixels */
+    const char *wisdom;     /* --wisdom FILE or NULL */
+    int quiet;              /* --quiet */
+    cli_progress progress;  /* --progress (AUTO: bar on a terminal, else plain) */
+    int strict;             /* --strict */
 } cli_sample_opts;
 
 /* The sample options table (NULL-terminated). */

@@ -9,13 +9,13 @@
  * reproduces it). To show posteriors instead, build a `sample` vector in
  * run_frame() and call cli_cmd_sample. Cost: one simulate per frame.
  */
+#include "cli.h"
 #include <errno.h>
 #include <limits.h>
 #include <math.h>
 #include <string.h>
 #include <sys/stat.h>
 #include <unistd.h>
-#include "cli.h"
 
 #ifndef PIXPOST_SOURCE_DIR
 #define PIXPOST_SOURCE_DIR "."
@@ -37,7 +37,8 @@ static const demo_frame demo_frames[] = {
 #define DEMO_NFRAMES (sizeof demo_frames / sizeof demo_frames[0])
 
 static const cli_opt demo_table[] = {
-    {"output", 'o', 1, "OUTDIR", "Folder for the demo's outputs (created). Default: ./pixpost-demo."},
+    {"output", 'o', 1, "OUTDIR",
+     "Folder for the demo's outputs (created). Default: ./pixpost-demo."},
     {"images", 0, 1, "DIR",
      "Folder with the bundled frames. Default: ../share/pixpost/images next to the "
      "executable, else the source tree's images/."},
@@ -143,15 +144,15 @@ static int run_frame(const char *images, const char *outdir, const demo_frame *f
     snprintf(truth, sizeof truth, "%s/scene_truth.tif", images);
     snprintf(bundled, sizeof bundled, "%s/%s", images, f->file);
     snprintf(made, sizeof made, "%s/resimulated_%s", outdir, f->file);
-    const char *vec[] = {"simulate", truth, "--psf", f->psf, "--noise", f->noise,
-                         "--seed", f->seed, "--boundary", "pad", "-o", made, "--quiet", NULL};
+    const char *vec[] = {"simulate", truth,        "--psf", f->psf, "--noise", f->noise,  "--seed",
+                         f->seed,    "--boundary", "pad",   "-o",   made,      "--quiet", NULL};
     int rc = run_vector(cli_cmd_simulate, vec);
     double rel = 0.0, maxabs = 0.0;
     if (rc || (rc = compare(made, bundled, &rel, &maxabs)) != 0)
         return rc;
     printf("  %-18s psf %s, noise %s, seed %s\n", f->file, f->psf, f->noise, f->seed);
-    printf("  %-18s re-simulated: relative difference %.3g, largest |difference| %.3g\n", "",
-           rel, maxabs);
+    printf("  %-18s re-simulated: relative difference %.3g, largest |difference| %.3g\n", "", rel,
+           maxabs);
     if (rel > 1e-6)
         return cli_error("demo: %s: this build does not reproduce the bundled frame (relative "
                          "difference %.3g); regenerate it with tools/make_demo_scene.py",

@@ -4,8 +4,8 @@
  * pp_psf_check normalises it to sum 1) so it can be inspected or compared
  * with a measured bead. Cost: one kernel evaluation (airy supersamples).
  */
-#include <string.h>
 #include "cli.h"
+#include <string.h>
 
 static const cli_opt psf_table[] = {
     {"output", 'o', 1, "OUT", "Output kernel, a 32-bit float TIFF (.tif or .tiff). Required."},
@@ -37,12 +37,13 @@ static int parse(int argc, char **argv, const char **spec, size_t *size, const c
     int rc = cli_parse(&a, "psf", tables, argc, argv);
     if (rc == CLI_HELP)
         cli_psf_help(stdout);
-    if (rc || (rc = cli_positionals(&a, 1, "SPEC")) != 0 ||
-        (rc = cli_require(&a, "output")) != 0 || (rc = cli_get_size(&a, "size", 1, size)) != 0)
+    if (rc || (rc = cli_positionals(&a, 1, "SPEC")) != 0 || (rc = cli_require(&a, "output")) != 0 ||
+        (rc = cli_get_size(&a, "size", 1, size)) != 0)
         return rc;
     if (cli_given(&a, "size") && *size % 2 == 0)
-        return cli_opt_error("size", "'%s' is even (expected --size N, an odd number such as "
-                                     "%zu or %zu)",
+        return cli_opt_error("size",
+                             "'%s' is even (expected --size N, an odd number such as "
+                             "%zu or %zu)",
                              cli_str(&a, "size"), *size - 1, *size + 1);
     *spec = a.pos[0];
     *out = cli_str(&a, "output");

@@ -5,9 +5,9 @@
  * 32-bit float TIFF (.tif/.tiff) or a 16-bit PNG (.png). The output name is
  * checked before anything is computed. Cost: one FFT blur of the frame.
  */
+#include "cli.h"
 #include <math.h>
 #include <string.h>
-#include "cli.h"
 
 static const cli_opt simulate_table[] = {
     {"output", 'o', 1, "OUT",
@@ -53,7 +53,10 @@ typedef struct sim_opts {
     int quiet;
 } sim_opts;
 
-static int lib(pp_status st) { return st == PP_OK ? 0 : cli_fail(st); }
+static int lib(pp_status st)
+{
+    return st == PP_OK ? 0 : cli_fail(st);
+}
 
 static int check_out_name(const sim_opts *o)
 {
@@ -73,9 +76,8 @@ static int parse(int argc, char **argv, sim_opts *o)
     int rc = cli_parse(&a, "simulate", tables, argc, argv);
     if (rc == CLI_HELP)
         cli_simulate_help(stdout);
-    if (rc || (rc = cli_positionals(&a, 1, "TRUTH")) != 0 ||
-        (rc = cli_require(&a, "psf")) != 0 || (rc = cli_require(&a, "noise")) != 0 ||
-        (rc = cli_require(&a, "output")) != 0)
+    if (rc || (rc = cli_positionals(&a, 1, "TRUTH")) != 0 || (rc = cli_require(&a, "psf")) != 0 ||
+        (rc = cli_require(&a, "noise")) != 0 || (rc = cli_require(&a, "output")) != 0)
         return rc;
     memset(o, 0, sizeof *o);
     pp_read_options_defaults(&o->read);
@@ -110,8 +112,9 @@ static pp_status write_out(const sim_opts *o, const pp_image *y)
     pp_image_range(y, &lo, &hi);
     if (lo < 0.0 || hi > 65535.0) {
         pp_png_auto_scale(y, &offset, &scale);
-        fprintf(stderr, "pixpost: note: %s: values span [%g, %g], outside 0..65535; stored "
-                        "as value = %.17g + stored * %.17g\n",
+        fprintf(stderr,
+                "pixpost: note: %s: values span [%g, %g], outside 0..65535; stored "
+                "as value = %.17g + stored * %.17g\n",
                 o->out, lo, hi, offset, scale);
     }
     return pp_png_write16(o->out, y, offset, scale);

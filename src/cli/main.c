@@ -5,9 +5,9 @@
  * --version`. Each command gets (argc - 1, argv + 1), so its argv[0] is its
  * own name. Exit statuses are listed in cli.h. Cost: nothing measurable.
  */
+#include "cli.h"
 #include <stdio.h>
 #include <string.h>
-#include "cli.h"
 
 typedef struct command {
     const char *name;

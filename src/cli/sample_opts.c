@@ -5,15 +5,20 @@
  * its own table on top. Defaults come from pp_sampler_defaults() so the help
  * text can never disagree with the library. Cost: negligible.
  */
+#include "cli.h"
 #include <limits.h>
 #include <string.h>
 #include <unistd.h>
-#include "cli.h"
 
 static const cli_opt sample_table[] = {
-    {"output", 'o', 1, "OUTDIR",
-     "Folder for mean/sd/lo/hi .tif, mean/sd .png, summary.json, trace.csv, report.html; "
-     "created if missing. Required.",},
+    {
+        "output",
+        'o',
+        1,
+        "OUTDIR",
+        "Folder for mean/sd/lo/hi .tif, mean/sd .png, summary.json, trace.csv, report.html; "
+        "created if missing. Required.",
+    },
     {"psf", 0, 1, "SPEC",
      "Point-spread function: gaussian:sigma=S (pixels), airy:na=NA,wavelength=L,pixel=P "
      "(micrometres) or file:PATH (a bead image). Required."},
@@ -53,7 +58,10 @@ static const cli_opt sample_table[] = {
     {NULL, 0, 0, NULL, NULL},
 };
 
-const cli_opt *cli_sample_table(void) { return sample_table; }
+const cli_opt *cli_sample_table(void)
+{
+    return sample_table;
+}
 
 void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
 {
@@ -100,7 +108,10 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
 }
 
 /* Runs a library parser on an option's value; prints its message on failure. */
-static int lib_check(pp_status st) { return st == PP_OK ? 0 : cli_fail(st); }
+static int lib_check(pp_status st)
+{
+    return st == PP_OK ? 0 : cli_fail(st);
+}
 
 static int parse_specs(const cli_args *a, cli_sample_opts *o)
 {
@@ -152,8 +163,9 @@ static int parse_counts(const cli_args *a, cli_sample_opts *o)
     c->chains = (unsigned)chains;
     c->threads = (int)threads;
     if (c->thin > c->iters)
-        return cli_opt_error("thin", "%lu is larger than --iters %lu (no draw would be kept; "
-                                     "expected 1 <= N <= --iters)",
+        return cli_opt_error("thin",
+                             "%lu is larger than --iters %lu (no draw would be kept; "
+                             "expected 1 <= N <= --iters)",
                              c->thin, c->iters);
     return 0;
 }
@@ -187,8 +199,9 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
     else if (strcmp(p, "none") == 0)
         o->progress = CLI_PROGRESS_NONE;
     else
-        return cli_opt_error("progress", "'%s' is not accepted (expected --progress "
-                                         "bar|plain|none)",
+        return cli_opt_error("progress",
+                             "'%s' is not accepted (expected --progress "
+                             "bar|plain|none)",
                              p);
     if (o->quiet && o->progress != CLI_PROGRESS_NONE)
         return cli_error("--quiet and --progress %s cannot be used together", p);
