@@ -39,9 +39,14 @@ uint64_t pp_rng_u64(pp_rng *r);
 double pp_rng_uniform(pp_rng *r);                      /* (0, 1) */
 double pp_rng_normal(pp_rng *r);                       /* N(0, 1) */
 void pp_rng_normals(pp_rng *r, double *out, size_t n); /* n draws of N(0,1) */
-/* Gamma with shape a > 0 and RATE b > 0 (mean a/b). */
+/* Normals come in Box–Muller pairs; an unused second half is kept as the
+ * "spare" and returned first by the next normal call, so the normal sequence
+ * of a state does not depend on how it is split between the two calls. */
+/* Gamma with shape a > 0 and RATE b > 0 (mean a/b); NaN if either is not
+ * finite and > 0. */
 double pp_rng_gamma(pp_rng *r, double shape, double rate);
-/* Poisson with mean mu >= 0 (returns a double holding an integer). */
+/* Poisson with mean mu >= 0 (returns a double holding an integer); NaN if
+ * mu is negative, NaN or above 2^50 (draws must stay exact integers). */
 double pp_rng_poisson(pp_rng *r, double mu);
 
 /* A 64-bit hash (splitmix64 finaliser) to derive seeds, e.g. from a path. */
