@@ -78,15 +78,15 @@ void pp_noise_format(const pp_noise_spec *s, char *buf, size_t len)
         break;
     case PP_NOISE_GAUSSIAN:
         if (s->sigma_set)
-            snprintf(buf, len, "gaussian:sigma=%.17g", s->sigma);
+            snprintf(buf, len, "gaussian:sigma=%.15g", s->sigma);
         else
             snprintf(buf, len, "gaussian");
         break;
     case PP_NOISE_POISSON:
-        snprintf(buf, len, "poisson:gain=%.17g,offset=%.17g", s->gain, s->offset);
+        snprintf(buf, len, "poisson:gain=%.15g,offset=%.15g", s->gain, s->offset);
         break;
     case PP_NOISE_CAMERA:
-        snprintf(buf, len, "camera:gain=%.17g,offset=%.17g,read=%.17g", s->gain, s->offset,
+        snprintf(buf, len, "camera:gain=%.15g,offset=%.15g,read=%.15g", s->gain, s->offset,
                  s->read);
         break;
     }

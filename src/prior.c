@@ -69,10 +69,10 @@ void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len)
 {
     char extra[96] = "";
     if (s->kind == PP_PRIOR_MATERN && s->mean_set)
-        snprintf(extra, sizeof extra, ",mean=%.17g", s->mean);
+        snprintf(extra, sizeof extra, ",mean=%.15g", s->mean);
     if (s->delta_set) {
         size_t used = strlen(extra);
-        snprintf(extra + used, sizeof extra - used, "%sdelta=%.17g",
+        snprintf(extra + used, sizeof extra - used, "%sdelta=%.15g",
                  s->kind == PP_PRIOR_MATERN ? "," : "", s->delta);
     }
     switch (s->kind) {
@@ -82,7 +82,7 @@ void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len)
                  extra[0] ? ":" : "", extra);
         break;
     case PP_PRIOR_MATERN:
-        snprintf(buf, len, "matern:range=%.17g,nu=%.17g%s", s->range, s->nu, extra);
+        snprintf(buf, len, "matern:range=%.15g,nu=%.15g%s", s->range, s->nu, extra);
         break;
     }
 }

@@ -139,7 +139,7 @@ typedef struct cli_sample_opts {
     pp_read_options read;   /* --channel, --max-pixels */
     const char *wisdom;     /* --wisdom FILE or NULL */
     int quiet;              /* --quiet */
-    cli_progress progress;  /* --progress (AUTO: bar on a terminal, else plain) */
+    cli_progress progress;  /* --progress (AUTO: bar on a terminal, else none) */
     int strict;             /* --strict */
 } cli_sample_opts;
 

@@ -227,7 +227,7 @@ int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o)
         (rc = parse_reals(a, o)) != 0 || (rc = parse_output_flags(a, o)) != 0)
         return rc;
     if (o->progress == CLI_PROGRESS_AUTO)
-        o->progress = isatty(STDERR_FILENO) ? CLI_PROGRESS_BAR : CLI_PROGRESS_PLAIN;
+        o->progress = isatty(STDERR_FILENO) ? CLI_PROGRESS_BAR : CLI_PROGRESS_NONE;
     return 0;
 }
 
