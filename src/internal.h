@@ -93,10 +93,37 @@ typedef struct pp_chain {
     double condvar_sum; /* sum over kept draws of the conditional variance */
     double *trace;     /* kept x ncols rows inside the sampler's trace */
     size_t kept;
+    void *kstate;      /* the kernel's own per-chain state (kernel->prepare) */
 } pp_chain;
+
+struct pp_sampler;
+/* A sampling kernel: one per sampler kind, in src/sampler_<kind>.c, listed
+ * in sampler.c's kernel table. sampler.c plans the grid, transfer function,
+ * prior eigenvalues, data spectrum, probes, traces and the chains' common
+ * buffers; the kernel adds what it needs and runs one chain at a time.
+ *   prepare   optional; after planning: allocate kernel state (s->kshared,
+ *             each c->kstate). Runs once, single-threaded.
+ *   run_chain runs burn + iters iterations of chain c (called in parallel
+ *             for different chains; must touch only c and read s).
+ *             It fills c->mom (moments of what it records per kept draw),
+ *             c->condvar_sum (0 if it has no conditional variance), its
+ *             trace rows and c->kept.
+ *   finish    optional; after pooling the moments into mean/sd and the
+ *             default Gaussian bounds: override lo/hi and bound_method.
+ *   release   optional; frees what prepare allocated (also after a failed
+ *             prepare; pointers may be NULL). */
+typedef struct pp_kernel {
+    const char *name;
+    pp_status (*prepare)(struct pp_sampler *s);
+    pp_status (*run_chain)(struct pp_sampler *s, pp_chain *c);
+    pp_status (*finish)(struct pp_sampler *s);
+    void (*release)(struct pp_sampler *s);
+} pp_kernel;
 
 struct pp_sampler {
     pp_sampler_config cfg;
+    const pp_kernel *kernel;
+    void *kshared;              /* the kernel's shared state */
     size_t height, width;       /* frame */
     size_t gh, gw, gwh, gn, gm; /* grid rows, cols, half cols, pixels, half size */
     pp_fft *fft;
@@ -136,6 +163,5 @@ int pp_sampler_tick(pp_sampler *s);
 /* Probe values of the field whose half spectrum is xh, written to out. */
 void pp_sampler_probes(const pp_sampler *s, const pp_complex *xh, double *out);
 
-/* The Gibbs chain (src/sampler_gibbs.c): runs burn + iters iterations of
- * chain c, filling its moments and trace rows. */
-pp_status pp_gibbs_run_chain(pp_sampler *s, pp_chain *c);
+/* The kernels (src/sampler_<kind>.c). */
+extern const pp_kernel pp_kernel_gibbs;

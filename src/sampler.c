@@ -58,6 +58,17 @@ void pp_sampler_defaults(pp_sampler_config *cfg)
 
 /* ---- validation ------------------------------------------------------- */
 
+/* The kernel of each sampler kind (NULL: not in this version). */
+static const pp_kernel *kernel_for(pp_sampler_kind k)
+{
+    switch (k) {
+    case PP_SAMPLER_GIBBS:
+        return &pp_kernel_gibbs;
+    default:
+        return NULL;
+    }
+}
+
 static pp_status check_config(pp_sampler_config *cfg)
 {
     if (cfg->kind == PP_SAMPLER_AUTO)
@@ -65,7 +76,7 @@ static pp_status check_config(pp_sampler_config *cfg)
     if (cfg->noise.kind != PP_NOISE_GAUSSIAN)
         return pp_fail(PP_ERR_ARG, "--noise: this version samples the gaussian noise model "
                                    "only (photon-counting models are not available yet)");
-    if (cfg->kind != PP_SAMPLER_GIBBS)
+    if (!kernel_for(cfg->kind))
         return pp_fail(PP_ERR_ARG, "--sampler %s: not available in this version (use gibbs)",
                        pp_sampler_kind_name(cfg->kind));
     if (cfg->chains < 1 || cfg->chains > 1024)
@@ -323,6 +334,11 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
     if (st == PP_OK)
         st = plan_chains(s);
     if (st == PP_OK) {
+        s->kernel = kernel_for(s->cfg.kind);
+        if (s->kernel->prepare)
+            st = s->kernel->prepare(s);
+    }
+    if (st == PP_OK) {
         st = pp_image_create(s->width, s->height, &s->mean);
         if (st == PP_OK)
             st = pp_image_create(s->width, s->height, &s->sd);
@@ -416,8 +432,9 @@ static pp_status pool_estimates(pp_sampler *s)
     }
     if (bad)
         return pp_fail(PP_ERR_NUMERIC, "%zu pixels of the estimates are not finite", bad);
-    snprintf(s->bound_method, sizeof s->bound_method,
-             "gaussian: Rao-Blackwellised mean +/- %.6g x sd (law of total variance)", z);
+    snprintf(s->bound_method, sizeof s->bound_method, "gaussian: mean +/- %.6g x sd%s", z,
+             condvar > 0 ? " (Rao-Blackwellised mean, variance by the law of total variance)"
+                         : "");
     return PP_OK;
 }
 
@@ -441,7 +458,7 @@ pp_status pp_sampler_run(pp_sampler *s)
 #pragma omp parallel for num_threads(nt) schedule(dynamic, 1)
     for (unsigned k = 0; k < nc; k++) {
         start_chain(s, k);
-        st[k] = pp_gibbs_run_chain(s, &s->chain[k]);
+        st[k] = s->kernel->run_chain(s, &s->chain[k]);
         if (st[k] != PP_OK)
             snprintf(msg[k], sizeof msg[k], "%s", pp_error_message());
     }
@@ -454,6 +471,8 @@ pp_status pp_sampler_run(pp_sampler *s)
     free(msg);
     if (res == PP_OK)
         res = pool_estimates(s);
+    if (res == PP_OK && s->kernel->finish)
+        res = s->kernel->finish(s);
     return res;
 }
 
@@ -477,6 +496,8 @@ void pp_sampler_free(pp_sampler *s)
 {
     if (!s)
         return;
+    if (s->kernel && s->kernel->release)
+        s->kernel->release(s);
     for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
         pp_chain *c = &s->chain[k];
         pp_fft_free_buffer(c->cbuf);

@@ -125,7 +125,7 @@ static void record(const pp_sampler *s, pp_chain *c, const fused_sums *f, double
     c->kept++;
 }
 
-pp_status pp_gibbs_run_chain(pp_sampler *s, pp_chain *c)
+static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
 {
     const pp_sampler_config *cfg = &s->cfg;
     const int pad = cfg->boundary == PP_BOUNDARY_PAD;
@@ -175,3 +175,5 @@ pp_status pp_gibbs_run_chain(pp_sampler *s, pp_chain *c)
     }
     return PP_OK;
 }
+
+const pp_kernel pp_kernel_gibbs = {"gibbs", NULL, gibbs_run_chain, NULL, NULL};
