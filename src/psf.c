@@ -29,7 +29,9 @@
 #include <string.h>
 
 #define WHAT "--psf"
-#define ACCEPTED_MODELS "gaussian:sigma=S, airy:na=NA,wavelength=L,pixel=P, file:PATH"
+#define ACCEPTED_MODELS                                                                  \
+    "gaussian:sigma=S (or sigma=auto[,lo=A,hi=B]), airy:na=NA,wavelength=L,pixel=P (or "   \
+    "na=auto[,lo=A,hi=B]), file:PATH"
 /* Largest kernel radius made from a model, in pixels (a 4097-pixel square,
  * far beyond any real frame); a bigger request is almost surely a unit
  * mistake (nm for um, um for pixels). */
@@ -119,12 +121,38 @@ static pp_status need_number(pp_spec *sp, const char *key, const char *form, dou
     return st;
 }
 
+/* sigma=auto / na=auto: optional lo=, hi= bounds of the width's uniform
+ * prior (defaults dlo, dhi); the starting width is their midpoint. */
+static pp_status parse_width_range(pp_spec *sp, double dlo, double dhi, const char *unit,
+                                   pp_psf_spec *out, double *width)
+{
+    pp_status st;
+    out->width_auto = 1;
+    out->width_lo = dlo;
+    out->width_hi = dhi;
+    if (pp_spec_number(sp, "lo", WHAT, &out->width_lo, NULL, &st), st != PP_OK)
+        return st;
+    if (pp_spec_number(sp, "hi", WHAT, &out->width_hi, NULL, &st), st != PP_OK)
+        return st;
+    if (!(out->width_lo > 0 && out->width_hi > out->width_lo && isfinite(out->width_hi)))
+        return pp_fail(PP_ERR_ARG, WHAT " %s: lo=%g, hi=%g must satisfy 0 < lo < hi (%s)",
+                       sp->name, out->width_lo, out->width_hi, unit);
+    *width = 0.5 * (out->width_lo + out->width_hi);
+    return PP_OK;
+}
+
 static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
 {
-    pp_status st = need_number(sp, "sigma", "gaussian:sigma=S, S in pixels", &out->sigma);
+    static const char form[] = "gaussian:sigma=S or gaussian:sigma=auto[,lo=A,hi=B], in pixels";
+    int is_auto = 0;
+    pp_status st;
+    if (!pp_spec_number(sp, "sigma", WHAT, &out->sigma, &is_auto, &st))
+        return pp_fail(PP_ERR_ARG, WHAT " %s: missing sigma= (expected %s)", sp->name, form);
+    if (st == PP_OK && is_auto)
+        st = parse_width_range(sp, 0.5, 4.0, "pixels", out, &out->sigma);
     if (st != PP_OK)
         return st;
-    if ((st = pp_spec_check_used(sp, WHAT, "sigma")) != PP_OK)
+    if ((st = pp_spec_check_used(sp, WHAT, is_auto ? "sigma, lo, hi" : "sigma")) != PP_OK)
         return st;
     if (!(out->sigma > 0))
         return pp_fail(PP_ERR_ARG, WHAT " gaussian: sigma=%g must be > 0 (pixels)", out->sigma);
@@ -153,14 +181,24 @@ static pp_status check_airy(const pp_psf_spec *s)
 
 static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
 {
-    static const char form[] = "airy:na=NA,wavelength=L,pixel=P, L and P in micrometres";
-    pp_status st = need_number(sp, "na", form, &out->na);
+    static const char form[] = "airy:na=NA,wavelength=L,pixel=P (or na=auto[,lo=A,hi=B]), "
+                               "L and P in micrometres";
+    int is_auto = 0;
+    pp_status st = PP_OK;
+    if (!pp_spec_number(sp, "na", WHAT, &out->na, &is_auto, &st))
+        return pp_fail(PP_ERR_ARG, WHAT " %s: missing na= (expected %s)", sp->name, form);
+    if (st == PP_OK && is_auto)
+        st = parse_width_range(sp, 0.4, 1.5, "numerical aperture", out, &out->na);
     if (st == PP_OK)
         st = need_number(sp, "wavelength", form, &out->wavelength);
     if (st == PP_OK)
         st = need_number(sp, "pixel", form, &out->pixel);
     if (st == PP_OK)
-        st = pp_spec_check_used(sp, WHAT, "na, wavelength, pixel");
+        st = pp_spec_check_used(sp, WHAT,
+                                is_auto ? "na, lo, hi, wavelength, pixel" : "na, wavelength, pixel");
+    if (st == PP_OK && is_auto && out->width_hi > 1.7)
+        st = pp_fail(PP_ERR_ARG, WHAT " airy: hi=%g must be <= 1.7 (numerical aperture)",
+                     out->width_hi);
     return st == PP_OK ? check_airy(out) : st;
 }
 
@@ -219,13 +257,26 @@ void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len)
     switch (s->kind) {
     case PP_PSF_GAUSSIAN:
         fmt_number(a, sizeof a, s->sigma);
-        snprintf(buf, len, "gaussian:sigma=%s", a);
+        if (s->width_auto) {
+            fmt_number(b, sizeof b, s->width_lo);
+            fmt_number(c, sizeof c, s->width_hi);
+            snprintf(buf, len, "gaussian:sigma=auto,lo=%s,hi=%s", b, c);
+        } else {
+            snprintf(buf, len, "gaussian:sigma=%s", a);
+        }
         break;
     case PP_PSF_AIRY:
         fmt_number(a, sizeof a, s->na);
         fmt_number(b, sizeof b, s->wavelength);
         fmt_number(c, sizeof c, s->pixel);
-        snprintf(buf, len, "airy:na=%s,wavelength=%s,pixel=%s", a, b, c);
+        if (s->width_auto) {
+            char d[32], e[32];
+            fmt_number(d, sizeof d, s->width_lo);
+            fmt_number(e, sizeof e, s->width_hi);
+            snprintf(buf, len, "airy:na=auto,lo=%s,hi=%s,wavelength=%s,pixel=%s", d, e, b, c);
+        } else {
+            snprintf(buf, len, "airy:na=%s,wavelength=%s,pixel=%s", a, b, c);
+        }
         break;
     default:
         snprintf(buf, len, "file:%s", s->path);
@@ -267,19 +318,26 @@ static void normalise(pp_image *k)
         k->data[i] /= sum;
 }
 
-static pp_status make_gaussian(double sigma, size_t size, pp_image **out)
+static void fill_gaussian(double sigma, pp_image *k)
 {
-    size_t r;
-    pp_status st = pick_radius(size, 4.0 * sigma, &r);
-    if (st != PP_OK || (st = pp_image_create(2 * r + 1, 2 * r + 1, out)) != PP_OK)
-        return st;
-    pp_image *k = *out;
+    size_t r = k->width / 2;
     for (size_t i = 0; i < k->height; i++)
         for (size_t j = 0; j < k->width; j++) {
             double dy = (double)i - (double)r, dx = (double)j - (double)r;
             k->data[i * k->width + j] = exp(-(dx * dx + dy * dy) / (2 * sigma * sigma));
         }
     normalise(k);
+}
+
+/* An uncertain width sizes the kernel for the widest PSF of its range. */
+static pp_status make_gaussian(const pp_psf_spec *spec, size_t size, pp_image **out)
+{
+    size_t r;
+    double widest = spec->width_auto ? spec->width_hi : spec->sigma;
+    pp_status st = pick_radius(size, 4.0 * widest, &r);
+    if (st != PP_OK || (st = pp_image_create(2 * r + 1, 2 * r + 1, out)) != PP_OK)
+        return st;
+    fill_gaussian(spec->sigma, *out);
     return PP_OK;
 }
 
@@ -324,22 +382,44 @@ static double airy_pixel(double dy, double dx, double k, int s)
     return sum / ((double)s * s);
 }
 
-static pp_status make_airy(const pp_psf_spec *spec, size_t size, int s, pp_image **out)
+static void fill_airy(const pp_psf_spec *spec, pp_image *img)
 {
-    pp_status st = check_airy(spec);
-    if (st != PP_OK)
-        return st;
     double k = 2.0 * PP_PI * spec->na * spec->pixel / spec->wavelength;
-    size_t r;
-    if ((st = pick_radius(size, j1_zero5 / k, &r)) != PP_OK ||
-        (st = pp_image_create(2 * r + 1, 2 * r + 1, out)) != PP_OK)
-        return st;
-    pp_image *img = *out;
+    int s = airy_supersampling(spec);
+    size_t r = img->width / 2;
     for (size_t i = 0; i < img->height; i++)
         for (size_t j = 0; j < img->width; j++)
             img->data[i * img->width + j] =
                 airy_pixel((double)i - (double)r, (double)j - (double)r, k, s);
     normalise(img);
+}
+
+static pp_status make_airy(const pp_psf_spec *spec, size_t size, pp_image **out)
+{
+    pp_status st = check_airy(spec);
+    if (st != PP_OK)
+        return st;
+    double na = spec->width_auto ? spec->width_lo : spec->na; /* widest: smallest NA */
+    double k = 2.0 * PP_PI * na * spec->pixel / spec->wavelength;
+    size_t r;
+    if ((st = pick_radius(size, j1_zero5 / k, &r)) != PP_OK ||
+        (st = pp_image_create(2 * r + 1, 2 * r + 1, out)) != PP_OK)
+        return st;
+    fill_airy(spec, *out);
+    return PP_OK;
+}
+
+pp_status pp_psf_fill(const pp_psf_spec *s, pp_image *k)
+{
+    if (k->width != k->height || k->width % 2 == 0)
+        return pp_fail(PP_ERR_ARG, "pp_psf_fill: the kernel must be an odd square");
+    if (s->kind == PP_PSF_GAUSSIAN && s->sigma > 0)
+        fill_gaussian(s->sigma, k);
+    else if (s->kind == PP_PSF_AIRY && check_airy(s) == PP_OK)
+        fill_airy(s, k);
+    else
+        return pp_fail(PP_ERR_ARG, WHAT ": only gaussian and airy models can be refilled "
+                                   "at a new width (sigma/na > 0)");
     return PP_OK;
 }
 
@@ -453,9 +533,9 @@ pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
     case PP_PSF_GAUSSIAN:
         if (!(s->sigma > 0))
             return pp_fail(PP_ERR_ARG, WHAT " gaussian: sigma=%g must be > 0", s->sigma);
-        return make_gaussian(s->sigma, size, out);
+        return make_gaussian(s, size, out);
     case PP_PSF_AIRY:
-        return make_airy(s, size, airy_supersampling(s), out);
+        return make_airy(s, size, out);
     case PP_PSF_FILE:
         return make_file(s->path, size, out);
     }

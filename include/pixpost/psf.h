@@ -10,6 +10,13 @@
  *                                       clipped, centred on its centroid
  * Every kernel is odd-sized (2R+1 square), centred at (R, R), finite,
  * non-negative and normalised to sum 1.
+ *
+ * An uncertain width: gaussian:sigma=auto[,lo=A,hi=B] (default bounds 0.5
+ * and 4 pixels) and airy:na=auto[,lo=A,hi=B],wavelength=L,pixel=P (default
+ * 0.4 and 1.5) give the width a uniform prior on [lo, hi]; the sampler
+ * draws it (pp_sampler_config.psf). The parsed spec then holds the
+ * midpoint as its sigma/na (the starting width), and pp_psf_make with
+ * size 0 sizes the kernel for the widest PSF in the range.
  */
 #ifndef PIXPOST_PSF_H
 #define PIXPOST_PSF_H
@@ -24,6 +31,8 @@ typedef struct pp_psf_spec {
     double sigma;                  /* gaussian, pixels */
     double na, wavelength, pixel;  /* airy: numerical aperture, um, um */
     char path[4096];               /* file */
+    int width_auto;                /* sigma=auto / na=auto: width is sampled */
+    double width_lo, width_hi;     /* its uniform prior (pixels / NA) */
 } pp_psf_spec;
 
 pp_status pp_psf_parse(const char *text, pp_psf_spec *out);
@@ -35,6 +44,11 @@ void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len);
  * radius ceil(4 sigma); airy: radius of the 5th dark ring), otherwise size
  * must be odd. A file PSF keeps its own support when size = 0. */
 pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out);
+
+/* Refills an existing odd square kernel k with the gaussian or airy model
+ * of s at k's size (normalised to sum 1); allocates nothing, so a sampler
+ * can call it per proposed width. PP_ERR_ARG for a file spec. */
+pp_status pp_psf_fill(const pp_psf_spec *s, pp_image *k);
 
 /* Checks a kernel for use on a frame: finite, non-negative, non-zero sum,
  * odd square, not larger than the frame (height x width). Normalises to
