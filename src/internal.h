@@ -89,11 +89,15 @@ typedef struct pp_chain {
     double *rbuf;      /* grid: c2r output */
     double *yaug;      /* pad: observed frame plus latent padding pixels */
     pp_complex *yhat;  /* this chain's data spectrum (pad) or the shared one */
-    pp_moments mom;    /* frame-sized moments of the conditional mean */
+    pp_moments half[2]; /* frame-sized moments of the recorded field over the first
+                         * and second half of the kept draws (split-R-hat maps);
+                         * add to them with pp_chain_add_draw only */
     double condvar_sum; /* sum over kept draws of the conditional variance */
     double *trace;     /* kept x ncols rows inside the sampler's trace */
     size_t kept;
     void *kstate;      /* the kernel's own per-chain state (kernel->prepare) */
+    double acceptance; /* pcn/gpcn: field-move acceptance rate after burn-in (else 0) */
+    double step;       /* pcn/gpcn: the step beta fixed after burn-in (else 0) */
 } pp_chain;
 
 struct pp_sampler;
@@ -105,7 +109,8 @@ struct pp_sampler;
  *             each c->kstate). Runs once, single-threaded.
  *   run_chain runs burn + iters iterations of chain c (called in parallel
  *             for different chains; must touch only c and read s).
- *             It fills c->mom (moments of what it records per kept draw),
+ *             It records per kept draw the field it estimates with
+ *             pp_chain_add_draw (the draw, or its conditional mean),
  *             c->condvar_sum (0 if it has no conditional variance), its
  *             trace rows and c->kept.
  *   finish    optional; after pooling the moments into mean/sd and the
@@ -141,10 +146,12 @@ struct pp_sampler {
     pp_complex *tw_col; /* nprobe x gwh twiddles e^{+2 pi i k2 c / gw}, weighted */
     pp_chain *chain;
     pp_trace trace;
+    pp_moments pooled;  /* all halves of all chains, pooled in chain order */
     char *names[3 + PP_MAX_PROBES];
     double *trace_values;
     pp_image *mean, *sd, *lo, *hi;
-    char bound_method[160];
+    char bound_method[256];
+    char likelihood[256]; /* pcn/gpcn: the likelihood used, for summary.json ("" else) */
     char *warnings[PP_MAX_WARNINGS];
     size_t nwarnings;
     double seconds;
@@ -154,6 +161,11 @@ struct pp_sampler {
 
 /* Columns of a trace row. */
 enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
+
+/* Adds the frame block of a grid-sized field (rows s->gw apart) to the
+ * moments of the half of chain c that draw number c->kept falls in. Call
+ * once per kept draw, before c->kept is incremented. */
+void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
 
 /* Adds a warning sentence (printf-style) to the sampler. */
 void pp_sampler_warn(pp_sampler *s, const char *fmt, ...) PP_PRINTF(2, 3);
@@ -165,3 +177,5 @@ void pp_sampler_probes(const pp_sampler *s, const pp_complex *xh, double *out);
 
 /* The kernels (src/sampler_<kind>.c). */
 extern const pp_kernel pp_kernel_gibbs;
+extern const pp_kernel pp_kernel_pcn;
+extern const pp_kernel pp_kernel_gpcn;

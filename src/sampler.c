@@ -284,6 +284,9 @@ static pp_status plan_chains(pp_sampler *s)
     s->chain = calloc(s->cfg.chains, sizeof *s->chain);
     if (!s->chain)
         return pp_fail(PP_ERR_NOMEM, "out of memory for %u chains", s->cfg.chains);
+    pp_status st0 = pp_moments_init(&s->pooled, s->height * s->width);
+    if (st0 != PP_OK)
+        return st0;
     for (unsigned k = 0; k < s->cfg.chains; k++) {
         pp_chain *c = &s->chain[k];
         c->cbuf = pp_fft_alloc_complex(s->gm);
@@ -293,9 +296,11 @@ static pp_status plan_chains(pp_sampler *s)
         c->yaug = pad ? pp_fft_alloc_real(s->gn) : NULL;
         if (!c->cbuf || !c->cbuf2 || !c->rbuf || !c->yhat || (pad && !c->yaug))
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
-        pp_status st = pp_moments_init(&c->mom, s->height * s->width);
-        if (st != PP_OK)
-            return st;
+        for (int h = 0; h < 2; h++) {
+            pp_status st = pp_moments_init(&c->half[h], s->height * s->width);
+            if (st != PP_OK)
+                return st;
+        }
         c->trace = s->trace_values + (size_t)k * s->trace.kept * s->trace.ncols;
     }
     return PP_OK;
@@ -358,6 +363,12 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
 
 /* ---- running ---------------------------------------------------------- */
 
+void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
+{
+    int h = c->kept >= s->trace.kept / 2;
+    pp_moments_add_block(&c->half[h], grid, s->height, s->width, s->gw);
+}
+
 void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
 {
     if (s->nwarnings == PP_MAX_WARNINGS)
@@ -398,9 +409,11 @@ static void start_chain(pp_sampler *s, unsigned k)
     c->delta = s->delta0 * (s->cfg.prior.delta_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
     c->kept = 0;
     c->condvar_sum = 0;
-    c->mom.count = 0;
-    memset(c->mom.mean, 0, c->mom.len * sizeof(double));
-    memset(c->mom.m2, 0, c->mom.len * sizeof(double));
+    for (int h = 0; h < 2; h++) {
+        c->half[h].count = 0;
+        memset(c->half[h].mean, 0, c->half[h].len * sizeof(double));
+        memset(c->half[h].m2, 0, c->half[h].len * sizeof(double));
+    }
     if (c->yaug) {
         memcpy(c->yaug, s->ygrid, s->gn * sizeof(double));
         memcpy(c->yhat, s->yhat, s->gm * sizeof(pp_complex));
@@ -409,12 +422,12 @@ static void start_chain(pp_sampler *s, unsigned k)
 
 static pp_status pool_estimates(pp_sampler *s)
 {
-    pp_moments *acc = &s->chain[0].mom;
+    pp_moments *acc = &s->pooled;
     double condvar = 0;
     unsigned long long kept = 0;
     for (unsigned k = 0; k < s->cfg.chains; k++) {
-        if (k > 0)
-            pp_moments_merge(acc, &s->chain[k].mom);
+        for (int h = 0; h < 2; h++)
+            pp_moments_merge(acc, &s->chain[k].half[h]);
         condvar += s->chain[k].condvar_sum;
         kept += s->chain[k].kept;
     }
@@ -506,9 +519,11 @@ void pp_sampler_free(pp_sampler *s)
         if (c->yhat != s->yhat)
             pp_fft_free_buffer(c->yhat);
         pp_fft_free_buffer(c->yaug);
-        pp_moments_free(&c->mom);
+        pp_moments_free(&c->half[0]);
+        pp_moments_free(&c->half[1]);
     }
     free(s->chain);
+    pp_moments_free(&s->pooled);
     pp_fft_free_buffer(s->otf);
     free(s->otf2);
     free(s->q);

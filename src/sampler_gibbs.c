@@ -114,7 +114,7 @@ static void record(const pp_sampler *s, pp_chain *c, const fused_sums *f, double
 {
     /* c2r of mu/N gives mu on the grid; keep the frame block. */
     pp_fft_inverse(s->fft, c->cbuf, c->rbuf);
-    pp_moments_add_block(&c->mom, c->rbuf, s->height, s->width, s->gw);
+    pp_chain_add_draw(s, c, c->rbuf);
     c->condvar_sum += f->cvar;
     double *row = c->trace + c->kept * s->trace.ncols;
     row[PP_COL_LAMBDA] = c->lambda;
