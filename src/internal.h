@@ -96,6 +96,11 @@ typedef struct pp_chain {
     double *trace;     /* kept x ncols rows inside the sampler's trace */
     size_t kept;
     void *kstate;      /* the kernel's own per-chain state (kernel->prepare) */
+    const pp_complex *otf; /* transfer function this chain uses now (s->otf, or
+                            * its width state's when the PSF width is sampled) */
+    const double *otf2;    /* |otf|^2 */
+    double width;          /* current PSF width (sigma or NA; 0 if fixed) */
+    struct pp_width *wstate; /* PSF width sampling (src/psfwidth.c), else NULL */
     double acceptance; /* pcn/gpcn: field-move acceptance rate after burn-in (else 0) */
     double step;       /* pcn/gpcn: the step beta fixed after burn-in (else 0) */
 } pp_chain;
@@ -147,11 +152,15 @@ struct pp_sampler {
     pp_chain *chain;
     pp_trace trace;
     pp_moments pooled;  /* all halves of all chains, pooled in chain order */
-    char *names[3 + PP_MAX_PROBES];
+    char *names[4 + PP_MAX_PROBES]; /* 3 scalars, psf_width, probes */
     double *trace_values;
     pp_image *mean, *sd, *lo, *hi;
     char bound_method[256];
     char likelihood[256]; /* pcn/gpcn: the likelihood used, for summary.json ("" else) */
+    size_t psf_size;      /* side of the kernel (for rebuilding it at a new width) */
+    size_t col_probe0;    /* trace column of the first probe */
+    long col_width;       /* trace column "psf_width", -1 when the width is fixed */
+    const char *pad_scheme; /* mtc with --boundary pad: the scheme used (static text) */
     char *warnings[PP_MAX_WARNINGS];
     size_t nwarnings;
     double seconds;
@@ -175,7 +184,54 @@ int pp_sampler_tick(pp_sampler *s);
 /* Probe values of the field whose half spectrum is xh, written to out. */
 void pp_sampler_probes(const pp_sampler *s, const pp_complex *xh, double *out);
 
+/* ---- Pieces of the Gibbs kernel shared with mtc (src/sampler_gibbs.c) -- */
+/* Full-spectrum sums of one conditional draw (already divided by N). */
+typedef struct pp_fused_sums {
+    double resid; /* ||A x - y||^2 against the chain's data spectrum */
+    double quad;  /* (x - m)' Q (x - m) */
+    double cvar;  /* conditional variance of one pixel */
+} pp_fused_sums;
+/* x | lambda, delta, y with the chain's otf: cbuf holds white noise (half
+ * spectrum) on entry and mu/N on exit; cbuf2 receives x-hat (want_ax = 0)
+ * or A x-hat. One pass, no transform. */
+pp_fused_sums pp_gibbs_fused_pass(const pp_sampler *s, const pp_chain *c, int want_ax);
+/* Stores a kept draw: one c2r of mu (moments), the conditional variance,
+ * the trace row (lambda, delta, loglik, width; probes from cbuf2 = x-hat
+ * unless probes_done). Increments c->kept. */
+void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const pp_fused_sums *f, double loglik,
+                     int probes_done);
+
+/* Log marginal density log p(y | lambda, delta) of the periodic model with
+ * the transfer function |A|^2 = otf2, over the frequencies where q > 0
+ * (src/sampler_mtc.c; s must be an mtc sampler with periodic boundaries). */
+double pp_mtc_log_marginal(const pp_sampler *s, const double *otf2, double lam, double del);
+
+/* ---- PSF width sampling (src/psfwidth.c) --------------------------------
+ * Per-chain state: a kernel and grid to rebuild the PSF, two transfer
+ * functions (current, proposal), the proposal scale (adapted in burn-in). */
+typedef struct pp_width pp_width;
+pp_status pp_width_create(const pp_sampler *s, pp_width **out);
+void pp_width_free(pp_width *w);
+/* Starts chain c at width `value` (builds its transfer function; sets
+ * c->otf, c->otf2, c->width). Allocates nothing. */
+void pp_width_start(const pp_sampler *s, pp_chain *c, double value);
+/* Log density (up to a constant) of the width whose transfer function is
+ * otf/otf2, for chain c; ctx is the caller's. */
+typedef double (*pp_width_logp)(const pp_sampler *s, const pp_chain *c, const pp_complex *otf,
+                                const double *otf2, void *ctx);
+/* One random-walk Metropolis step on the width (uniform prior on the
+ * spec's range): *logp holds the current value's log density on entry and
+ * the new state's on exit. adapt_n > 0 (burn-in only) adapts the step
+ * (Robbins-Monro towards acceptance 0.44) with gain adapt_n^-0.6. Cost:
+ * one kernel rebuild and one r2c per proposal inside the range. Returns 1
+ * if accepted. */
+int pp_width_step(const pp_sampler *s, pp_chain *c, pp_width_logp f, void *ctx, double *logp,
+                  unsigned long adapt_n);
+/* Acceptance rate of the width steps after burn-in (0 if none). */
+double pp_width_acceptance(const pp_width *w);
+
 /* The kernels (src/sampler_<kind>.c). */
 extern const pp_kernel pp_kernel_gibbs;
+extern const pp_kernel pp_kernel_mtc;
 extern const pp_kernel pp_kernel_pcn;
 extern const pp_kernel pp_kernel_gpcn;

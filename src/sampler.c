@@ -64,9 +64,28 @@ static const pp_kernel *kernel_for(pp_sampler_kind k)
     switch (k) {
     case PP_SAMPLER_GIBBS:
         return &pp_kernel_gibbs;
+    case PP_SAMPLER_MTC:
+        return &pp_kernel_mtc;
     default:
         return NULL;
     }
+}
+
+/* An uncertain PSF width (sigma=auto / na=auto) needs gibbs or mtc and a
+ * model the sampler can rebuild. */
+static pp_status check_width(const pp_sampler_config *cfg)
+{
+    const pp_psf_spec *p = &cfg->psf;
+    if (!p->width_auto)
+        return PP_OK;
+    if (cfg->kind != PP_SAMPLER_GIBBS && cfg->kind != PP_SAMPLER_MTC)
+        return pp_fail(PP_ERR_ARG, "--psf ...=auto: the PSF width is sampled by gibbs and mtc "
+                                   "only (not %s)",
+                       pp_sampler_kind_name(cfg->kind));
+    if (p->kind == PP_PSF_FILE || !(p->width_lo > 0 && p->width_hi > p->width_lo))
+        return pp_fail(PP_ERR_ARG, "--psf ...=auto: needs a gaussian or airy model with "
+                                   "0 < lo < hi");
+    return PP_OK;
 }
 
 static pp_status check_config(pp_sampler_config *cfg)
@@ -93,7 +112,7 @@ static pp_status check_config(pp_sampler_config *cfg)
               isfinite(cfg->hyper_lambda[i]) && isfinite(cfg->hyper_delta[i])))
             return pp_fail(PP_ERR_ARG, "--hyper-lambda/--hyper-delta: shape and rate must be "
                                        "finite and >= 0");
-    return PP_OK;
+    return check_width(cfg);
 }
 
 /* ---- planning --------------------------------------------------------- */
@@ -253,7 +272,10 @@ void pp_sampler_probes(const pp_sampler *s, const pp_complex *xh, double *out)
 
 static pp_status plan_trace(pp_sampler *s)
 {
-    size_t ncols = PP_COL_PROBE0 + s->nprobe;
+    /* A sampled PSF width gets the column after loglik; probes follow. */
+    s->col_width = s->cfg.psf.width_auto ? PP_COL_PROBE0 : -1;
+    s->col_probe0 = PP_COL_PROBE0 + (s->cfg.psf.width_auto ? 1 : 0);
+    size_t ncols = s->col_probe0 + s->nprobe;
     size_t kept = s->cfg.iters / s->cfg.thin, rows, n;
     if (!pp_mul_ok(kept, s->cfg.chains, &rows) || !pp_mul_ok(rows, ncols, &n) ||
         !pp_mul_ok(n, sizeof(double), &n))
@@ -266,9 +288,11 @@ static pp_status plan_trace(pp_sampler *s)
         char buf[64];
         if (i < PP_COL_PROBE0)
             snprintf(buf, sizeof buf, "%s", fixed[i]);
+        else if ((long)i == s->col_width)
+            snprintf(buf, sizeof buf, "psf_width");
         else
-            snprintf(buf, sizeof buf, "p_%zu_%zu", s->probe_r[i - PP_COL_PROBE0],
-                     s->probe_c[i - PP_COL_PROBE0]);
+            snprintf(buf, sizeof buf, "p_%zu_%zu", s->probe_r[i - s->col_probe0],
+                     s->probe_c[i - s->col_probe0]);
         s->names[i] = strdup(buf);
         if (!s->names[i])
             return pp_fail(PP_ERR_NOMEM, "out of memory");
@@ -302,6 +326,13 @@ static pp_status plan_chains(pp_sampler *s)
                 return st;
         }
         c->trace = s->trace_values + (size_t)k * s->trace.kept * s->trace.ncols;
+        c->otf = s->otf;
+        c->otf2 = s->otf2;
+        if (s->cfg.psf.width_auto) {
+            pp_status st = pp_width_create(s, &c->wstate);
+            if (st != PP_OK)
+                return st;
+        }
     }
     return PP_OK;
 }
@@ -327,6 +358,8 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
     pp_image *kernel = NULL;
     if (st == PP_OK && (st = pp_image_clone(psf, &kernel)) == PP_OK)
         st = pp_psf_check(kernel, s->height, s->width);
+    if (st == PP_OK)
+        s->psf_size = kernel->width;
     if (st == PP_OK)
         st = plan_grid(s, kernel);
     if (st == PP_OK)
@@ -417,6 +450,13 @@ static void start_chain(pp_sampler *s, unsigned k)
     if (c->yaug) {
         memcpy(c->yaug, s->ygrid, s->gn * sizeof(double));
         memcpy(c->yhat, s->yhat, s->gm * sizeof(pp_complex));
+    }
+    if (c->wstate) {
+        /* Sampled PSF width: chains start spread evenly over the middle
+         * half of the prior range (dispersed, away from the edges). */
+        const pp_psf_spec *p = &s->cfg.psf;
+        double f = 0.25 + 0.5 * ((double)k + 0.5) / (double)s->cfg.chains;
+        pp_width_start(s, c, p->width_lo + f * (p->width_hi - p->width_lo));
     }
 }
 
@@ -519,6 +559,7 @@ void pp_sampler_free(pp_sampler *s)
         if (c->yhat != s->yhat)
             pp_fft_free_buffer(c->yhat);
         pp_fft_free_buffer(c->yaug);
+        pp_width_free(c->wstate);
         pp_moments_free(&c->half[0]);
         pp_moments_free(&c->half[1]);
     }
@@ -532,7 +573,7 @@ void pp_sampler_free(pp_sampler *s)
     free(s->tw_row);
     free(s->tw_col);
     free(s->trace_values);
-    for (size_t i = 0; i < 3 + PP_MAX_PROBES; i++)
+    for (size_t i = 0; i < 4 + PP_MAX_PROBES; i++)
         free(s->names[i]);
     for (size_t i = 0; i < s->nwarnings; i++)
         free(s->warnings[i]);

@@ -27,25 +27,27 @@
  *             update) + a kept draw's one c2r (of mu), one pass of moments
  *             and 9 probe sums (~9 complex multiply-adds per entry).
  *   pad:      + one c2r (A x) and one r2c (augmented data), one grid pass.
+ * Uncertain PSF width (sigma=auto / na=auto, src/psfwidth.c): after step 1
+ * a random-walk Metropolis step on the width given x and lambda, on
+ * -lambda/2 ||A_w x - y||^2 (one half-spectrum pass using x-hat); each
+ * proposal costs a kernel rebuild and one r2c. Pad then always keeps x-hat
+ * and forms A x-hat with the accepted width.
  * Memory per chain: 2 half spectra (16N bytes), one real grid (8N), frame
  * moments (16 bytes/pixel); pad adds a real grid and a half spectrum (16N).
  */
 #include <math.h>
 #include "internal.h"
 
-/* Results of the fused pass (full-spectrum sums, already divided by N). */
-typedef struct fused_sums {
-    double resid; /* ||A x - y||^2 (periodic only) */
-    double quad;  /* (x - m)' Q (x - m) */
-    double cvar;  /* conditional variance of one pixel */
-} fused_sums;
+typedef pp_fused_sums fused_sums;
 
-/* Step 1 plus the sums: cbuf holds the noise on entry and mu/N on exit;
- * cbuf2 receives x-hat (want_ax = 0) or A x-hat (want_ax = 1). */
-static fused_sums fused_pass(const pp_sampler *s, const pp_chain *c, int want_ax)
+/* Step 1 plus the sums (internal.h): cbuf holds the noise on entry and
+ * mu/N on exit; cbuf2 receives x-hat (want_ax = 0) or A x-hat. Uses the
+ * chain's transfer function c->otf (it changes when the width is sampled). */
+fused_sums pp_gibbs_fused_pass(const pp_sampler *s, const pp_chain *c, int want_ax)
 {
     const double lam = c->lambda, del = c->delta, invn = 1.0 / (double)s->gn;
-    const pp_complex *yh = c->yhat;
+    const pp_complex *yh = c->yhat, *otf = c->otf;
+    const double *otf2 = c->otf2;
     pp_complex *cb = c->cbuf, *cb2 = c->cbuf2;
     double ss = 0, qf = 0, cv = 0;
     for (size_t k1 = 0; k1 < s->gh; k1++) {
@@ -53,13 +55,13 @@ static fused_sums fused_pass(const pp_sampler *s, const pp_chain *c, int want_ax
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             double qq = s->q[i];
-            double p = lam * s->otf2[i] + del * qq;
-            pp_complex num = lam * conj(s->otf[i]) * yh[i];
+            double p = lam * otf2[i] + del * qq;
+            pp_complex num = lam * conj(otf[i]) * yh[i];
             double m = i == 0 ? s->mean_dc : 0.0;
             num += del * qq * m;
             pp_complex mu = num / p;
             pp_complex xh = mu + cb[i] / sqrt(p);
-            pp_complex ax = s->otf[i] * xh;
+            pp_complex ax = otf[i] * xh;
             pp_complex r = ax - yh[i];
             pp_complex dx = xh - m;
             double e_r = creal(r) * creal(r) + cimag(r) * cimag(r);
@@ -109,8 +111,8 @@ static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss
 
 /* Stores a kept draw: moments of mu, the conditional variance and the trace
  * row (whose probe columns pad mode has already filled from x-hat). */
-static void record(const pp_sampler *s, pp_chain *c, const fused_sums *f, double loglik,
-                   int probes_done)
+void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const fused_sums *f, double loglik,
+                     int probes_done)
 {
     /* c2r of mu/N gives mu on the grid; keep the frame block. */
     pp_fft_inverse(s->fft, c->cbuf, c->rbuf);
@@ -120,15 +122,64 @@ static void record(const pp_sampler *s, pp_chain *c, const fused_sums *f, double
     row[PP_COL_LAMBDA] = c->lambda;
     row[PP_COL_DELTA] = c->delta;
     row[PP_COL_LOGLIK] = loglik;
+    if (s->col_width >= 0)
+        row[s->col_width] = c->width;
     if (!probes_done)
-        pp_sampler_probes(s, c->cbuf2, row + PP_COL_PROBE0);
+        pp_sampler_probes(s, c->cbuf2, row + s->col_probe0);
     c->kept++;
+}
+
+/* Log-likelihood of the width whose transfer function is otf, given the
+ * draw x (x-hat in cbuf2) and lambda: -lambda/2 ||A_w x - y||^2 as a
+ * half-spectrum sum against the chain's (possibly augmented) data. */
+static double cond_logp(const pp_sampler *s, const pp_chain *c, const pp_complex *otf,
+                        const double *otf2, void *ctx)
+{
+    (void)otf2;
+    (void)ctx;
+    double ss = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            pp_complex r = otf[i] * c->cbuf2[i] - c->yhat[i];
+            ss += pp_half_weight(k2, s->gw) * (creal(r) * creal(r) + cimag(r) * cimag(r));
+        }
+    return -0.5 * c->lambda * ss / (double)s->gn;
+}
+
+/* The width step of one iteration t (x-hat in cbuf2): updates f->resid to
+ * the accepted width's residual. */
+static void width_move(const pp_sampler *s, pp_chain *c, fused_sums *f, unsigned long t)
+{
+    double lp = -0.5 * c->lambda * f->resid;
+    unsigned long adapt = t < s->cfg.burn ? t + 1 : 0;
+    if (pp_width_step(s, c, cond_logp, NULL, &lp, adapt))
+        f->resid = -2.0 * lp / c->lambda;
+}
+
+/* Pad: probes of a kept draw (x-hat in cbuf2), then A x on the grid and the
+ * padding redrawn; returns the observed and total residual sums. */
+static void pad_step(const pp_sampler *s, pp_chain *c, int keep, int have_xhat, double *ss_obs,
+                     double *ss)
+{
+    if (keep) {
+        double *row = c->trace + c->kept * s->trace.ncols;
+        pp_sampler_probes(s, c->cbuf2, row + s->col_probe0);
+    }
+    /* A x-hat goes to the c2r's input after the probes (the c2r destroys it). */
+    if (have_xhat)
+        for (size_t i = 0; i < s->gm; i++)
+            c->cbuf2[i] *= c->otf[i];
+    pp_fft_inverse(s->fft, c->cbuf2, c->rbuf);
+    double ss_pad;
+    augment(s, c, ss_obs, &ss_pad);
+    *ss = *ss_obs + ss_pad;
 }
 
 static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
 {
     const pp_sampler_config *cfg = &s->cfg;
-    const int pad = cfg->boundary == PP_BOUNDARY_PAD;
+    const int pad = cfg->boundary == PP_BOUNDARY_PAD, width = c->wstate != NULL;
     const int fix_l = cfg->noise.sigma_set, fix_d = cfg->prior.delta_set;
     const double shape_l = cfg->hyper_lambda[0] + 0.5 * (double)s->gn;
     const double shape_d = cfg->hyper_delta[0] + 0.5 * s->rank;
@@ -136,23 +187,14 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
     const unsigned long total = cfg->burn + cfg->iters;
     for (unsigned long t = 0; t < total; t++) {
         int keep = t >= cfg->burn && (t - cfg->burn + 1) % cfg->thin == 0;
+        int want_xhat = keep || width;
         pp_half_noise(&c->rng, s->gh, s->gw, c->cbuf);
-        fused_sums f = fused_pass(s, c, pad && !keep);
+        fused_sums f = pp_gibbs_fused_pass(s, c, pad && !want_xhat);
+        if (width)
+            width_move(s, c, &f, t);
         double ss = f.resid, ss_obs = f.resid;
-        if (pad) {
-            if (keep) {
-                /* x-hat is in cbuf2 for the probes; A x-hat goes to the
-                 * c2r's input after them (the c2r destroys it). */
-                double *row = c->trace + c->kept * s->trace.ncols;
-                pp_sampler_probes(s, c->cbuf2, row + PP_COL_PROBE0);
-                for (size_t i = 0; i < s->gm; i++)
-                    c->cbuf2[i] *= s->otf[i];
-            }
-            pp_fft_inverse(s->fft, c->cbuf2, c->rbuf);
-            double ss_pad;
-            augment(s, c, &ss_obs, &ss_pad);
-            ss = ss_obs + ss_pad;
-        }
+        if (pad)
+            pad_step(s, c, keep, want_xhat, &ss_obs, &ss);
         if (!fix_l)
             c->lambda = pp_rng_gamma(&c->rng, shape_l, cfg->hyper_lambda[1] + 0.5 * ss);
         if (!fix_d)
@@ -168,7 +210,7 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
         if (keep) {
             double n = pad ? nobs : (double)s->gn;
             double ll = 0.5 * n * log(c->lambda / (2 * PP_PI)) - 0.5 * c->lambda * ss_obs;
-            record(s, c, &f, ll, pad);
+            pp_gibbs_record(s, c, &f, ll, pad);
         }
         if (pp_sampler_tick(s))
             return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");

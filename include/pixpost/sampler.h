@@ -22,6 +22,7 @@
 #include "pixpost/model.h"
 #include "pixpost/noise.h"
 #include "pixpost/prior.h"
+#include "pixpost/psf.h"
 
 typedef enum pp_sampler_kind {
     PP_SAMPLER_AUTO = 0, /* chosen from the noise model */
@@ -54,6 +55,11 @@ typedef struct pp_sampler_config {
     double hyper_lambda[2]; /* Gamma shape, rate for lambda (default 1, 1e-4) */
     double hyper_delta[2];  /* Gamma shape, rate for delta (default 1, 1e-4) */
     int fft_effort;         /* PP_FFT_ESTIMATE or PP_FFT_MEASURE */
+    /* The PSF model behind the kernel given to pp_sampler_create; read only
+     * when psf.width_auto is set (sigma=auto / na=auto): then gibbs and mtc
+     * sample the width on [psf.width_lo, psf.width_hi] (uniform prior),
+     * rebuilding the kernel at the given kernel's size for each proposal. */
+    pp_psf_spec psf;
     pp_progress_fn progress;
     void *progress_ctx;
     const volatile sig_atomic_t *stop; /* non-zero: stop soon, PP_ERR_INTERRUPTED */

@@ -156,6 +156,48 @@ int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o);
 int cli_sample_opts_parse(int argc, char **argv, cli_sample_opts *o);
 void cli_sample_help(FILE *fp);
 
+/* ---- one frame into a folder (run_frame.c), used by sample and batch - */
+
+#include <signal.h>
+#include <time.h>
+
+/* What cli_run_frame() needs besides the sample options, and what it gives
+ * back. The caller fills the inputs; the outputs are set by the call. */
+typedef struct cli_frame_run {
+    const char *frame;        /* input file */
+    unsigned page;            /* TIFF page, 0-based (0 for PNG) */
+    const char *outdir;       /* created if missing */
+    uint64_t seed;            /* replaces o->cfg.seed */
+    int threads;              /* replaces o->cfg.threads */
+    const char *command_line; /* recorded in summary.json; may be NULL */
+    cli_progress progress;    /* AUTO: bar on a terminal, else none */
+    const volatile sig_atomic_t *stop; /* may be NULL */
+    int announce_pages;       /* print "N pages; using page P" (sample) */
+    int install_signals;      /* SIGINT/SIGTERM set the stop flag while sampling */
+    struct timespec t0;       /* CLOCK_MONOTONIC start, for timings */
+    /* outputs */
+    pp_sampler *sampler; /* after a run (even a failed write); caller frees */
+    pp_read_info info;
+    int interrupted;     /* stopped by the stop flag: nothing was written */
+    char message[1024];  /* the failure, one sentence naming the file */
+} cli_frame_run;
+
+/* Samples r->frame into r->outdir (DESIGN.md section 6 outputs). Returns 0,
+ * or CLI_EXIT_USAGE with r->message set (nothing printed). o is not
+ * modified. */
+int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r);
+/* mkdir -p; 0 or CLI_EXIT_USAGE with the reason in msg. */
+int cli_make_dirs(const char *path, char *msg, size_t len);
+/* The SIGINT/SIGTERM stop flag (holds the signal number once one came). */
+const volatile sig_atomic_t *cli_stop_flag(void);
+/* Installs the handler for SIGINT and SIGTERM; restart: SA_RESTART. */
+void cli_stop_install(int restart);
+void cli_stop_uninstall(void);
+/* Seconds since t0 (CLOCK_MONOTONIC). */
+double cli_since(const struct timespec *t0);
+/* "yes" when built with MPI support (-DPIXPOST_MPI), else "no". */
+const char *cli_mpi_support(void);
+
 /* ---- commands ------------------------------------------------------- */
 
 int cli_cmd_simulate(int argc, char **argv);

@@ -1,10 +1,460 @@
-/* pixpost command line — `pixpost batch` (placeholder until the batch issue
- * lands: refuses politely so the command table is complete). */
-#include "cli.h"
+/* pixpost command line — `pixpost batch`: sample every frame of a folder,
+ * fault-isolated (each frame in its own worker process), resumable (a
+ * ".done" marker written last in each frame folder), sharded for job
+ * arrays (--shard K/N, manifests joined by --merge) and, in an MPI build
+ * under mpirun, spread over ranks by a dispatcher on rank 0.
+ *
+ * Reproducibility contract: a frame's seed is pp_hash_string(--seed, its
+ * relative path [+ "#p<page>"]), its thread count does not change results,
+ * and the command recorded in its summary.json leaves out the options that
+ * only steer the run (--jobs, --shard, --resume, --threads, --quiet,
+ * --progress). So a frame's outputs are byte-identical (timings aside)
+ * whatever the order, jobs, shards, ranks or interruptions.
+ *
+ * Cost: listing (one readdir per folder) and one manifest rewrite per
+ * finished frame; the frames themselves cost what `pixpost sample` costs.
+ */
+#include "batch.h"
+#include <dirent.h>
+#include <errno.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+static const cli_opt batch_table[] = {
+    {"jobs", 0, 1, "N",
+     "Frames sampled at the same time, each in its own process. Default: min(frames to do, "
+     "cores); each frame then gets max(1, cores / jobs) threads, where cores is --threads "
+     "if given (the total for the whole batch) or the number of online CPUs."},
+    {"shard", 0, 1, "K/N",
+     "Do only the K-th of N slices: frame i of the sorted list (pages counted, from 0) goes "
+     "to shard (i mod N) + 1. Writes index.shard-K-of-N.csv/json instead of index.csv/json."},
+    {"resume", 0, 0, "",
+     "Skip frames whose folder holds a completion marker made with the same settings and "
+     "input; redo the others (leftover temporary files are removed)."},
+    {"recursive", 0, 0, "", "Also take frames from subfolders (outputs keep the tree)."},
+    {"pattern", 0, 1, "GLOB",
+     "Only frames whose file name matches GLOB (fnmatch; matched against the path relative "
+     "to INDIR when GLOB contains '/'). Only .png, .tif and .tiff names are ever taken."},
+    {"merge", 0, 1, "OUTDIR",
+     "Join OUTDIR/index.shard-K-of-N.csv for K = 1..N into OUTDIR/index.csv and index.json, "
+     "then exit (no other option is needed)."},
+    {NULL, 0, 0, NULL, NULL},
+};
+
+static void batch_help(FILE *fp)
+{
+    const cli_opt *tables[] = {batch_table, cli_sample_table(), NULL};
+    fputs("Usage: pixpost batch INDIR -o OUTDIR --psf SPEC [sample options] [--jobs N]\n"
+          "                     [--shard K/N] [--resume] [--recursive] [--pattern GLOB]\n"
+          "       pixpost batch --merge OUTDIR\n"
+          "       mpirun -n R pixpost batch ...   (MPI builds: rank 0 hands frames out)\n\n"
+          "Samples every PNG/TIFF frame of INDIR (sorted by path; a multi-page TIFF gives one\n"
+          "frame per page, named <stem>_p<page> with pages counted from 1) into\n"
+          "OUTDIR/<relative stem>/, exactly as 'pixpost sample' writes it, then writes the\n"
+          "completion marker .done last. Each frame's seed is a hash of --seed and its\n"
+          "relative path, so results do not depend on order, jobs, shards or ranks.\n"
+          "OUTDIR/index.csv and index.json list every frame (path, page, output, status\n"
+          "done/failed/skipped/pending, seconds, lambda and delta means, worst R-hat, lowest\n"
+          "ESS, message) and are rewritten atomically as frames finish. A frame that cannot\n"
+          "be read or crashes is recorded as failed and the others go on. --threads is the\n"
+          "total thread budget of the batch. SIGINT/SIGTERM: running frames stop without\n"
+          "writing, the manifest is updated, and the command to resume is printed.\n"
+          "OUTDIR may not be inside INDIR; nothing is ever written into INDIR.\n\nOptions:\n",
+          fp);
+    cli_print_options(fp, tables, cli_sample_default, NULL);
+    fprintf(fp,
+            "\nMPI support in this build: %s.\n"
+            "Exit status: 0 all frames done or skipped; 1 bad usage or input; 2 some frames "
+            "failed;\n128+signal when stopped by SIGINT/SIGTERM (rerun with --resume).\n",
+            cli_mpi_support());
+}
+
+/* The options that steer the run but not its results, left out of the
+ * recorded command line. */
+static int steering_option(const char *arg, int *with_value)
+{
+    static const char *const valued[] = {"--jobs", "--shard", "--threads", "--progress"};
+    *with_value = 0;
+    if (strcmp(arg, "--resume") == 0 || strcmp(arg, "--quiet") == 0)
+        return 1;
+    for (size_t k = 0; k < sizeof valued / sizeof *valued; k++) {
+        size_t n = strlen(valued[k]);
+        if (strncmp(arg, valued[k], n) == 0 && (arg[n] == '\0' || arg[n] == '=')) {
+            *with_value = arg[n] == '\0';
+            return 1;
+        }
+    }
+    return 0;
+}
+
+static void recorded_command(int argc, char **argv, char *buf, size_t len)
+{
+    size_t used = (size_t)snprintf(buf, len, "pixpost");
+    for (int i = 0; i < argc && used < len; i++) {
+        int with_value;
+        if (i > 0 && steering_option(argv[i], &with_value)) {
+            i += with_value;
+            continue;
+        }
+        used += (size_t)snprintf(buf + used, len - used, " %s", argv[i]);
+    }
+}
+
+/* What decides a frame's result, as text (hashed into each .done marker):
+ * the version, the resolved configuration, and every sample option given
+ * (table order, so canonical) except those that only steer the run. */
+static void settings_text(const cli_args *a, const cli_sample_opts *o, char *buf, size_t len)
+{
+    static const char *const steering[] = {"output", "quiet", "progress", "threads", "strict"};
+    const pp_sampler_config *c = &o->cfg;
+    char noise[256], prior[256];
+    pp_noise_format(&c->noise, noise, sizeof noise);
+    pp_prior_format(&c->prior, prior, sizeof prior);
+    size_t used = (size_t)snprintf(
+        buf, len,
+        "pixpost %s\npsf %s\nnoise %s\nprior %s\nsampler %s\nchains %u\nburn %lu\n"
+        "iters %lu\nthin %lu\nseed %llu\nboundary %s\nlevel %.17g\nhl %.17g %.17g\n"
+        "hd %.17g %.17g\nchannel %d\nmax_pixels %zu\nfft %d\n",
+        PP_VERSION_STRING, o->psf_text, noise, prior, pp_sampler_kind_name(c->kind), c->chains,
+        c->burn, c->iters, c->thin, (unsigned long long)c->seed, pp_boundary_name(c->boundary),
+        c->level, c->hyper_lambda[0], c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1],
+        (int)o->read.channel, o->read.max_pixels, c->fft_effort);
+    for (const cli_opt *t = cli_sample_table(); t->name && used < len; t++) {
+        int skip = !cli_given(a, t->name);
+        for (size_t k = 0; k < sizeof steering / sizeof *steering; k++)
+            skip |= strcmp(t->name, steering[k]) == 0;
+        if (!skip)
+            used +=
+                (size_t)snprintf(buf + used, len - used, "--%s=%s\n", t->name, cli_str(a, t->name));
+    }
+}
+
+static int online_cores(void)
+{
+    long n = sysconf(_SC_NPROCESSORS_ONLN);
+    return n > 0 ? (int)n : 1;
+}
+
+/* ---- the run's state, updated as frames finish ---- */
+
+typedef struct batch_state {
+    batch_ctx *c;
+    const char *base;  /* manifest name without extension */
+    const char *shard; /* "K/N" or NULL */
+    batch_row *rows;   /* one per selected frame */
+    size_t *sel;       /* selected frame indices, sorted */
+    size_t nsel, finished, ntodo;
+    int quiet;
+} batch_state;
+
+static size_t row_of(const batch_state *s, size_t idx)
+{
+    size_t lo = 0, hi = s->nsel;
+    while (hi - lo > 1) {
+        size_t mid = (lo + hi) / 2;
+        if (s->sel[mid] <= idx)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    return lo;
+}
+
+static void on_done(void *ctx, size_t idx, const batch_row *row)
+{
+    batch_state *s = ctx;
+    s->rows[row_of(s, idx)] = *row;
+    if (row->status == BATCH_PENDING)
+        return; /* interrupted: it stays as it was */
+    s->finished++;
+    batch_write_manifest(s->c->outdir, s->base, s->rows, s->nsel, s->c->indir, s->shard);
+    if (!s->quiet && row->status == BATCH_DONE)
+        fprintf(stderr, "pixpost: [%zu/%zu] %s: done in %.1f s\n", s->finished, s->ntodo,
+                row->output, row->seconds);
+    else if (!s->quiet)
+        fprintf(stderr, "pixpost: [%zu/%zu] %s: FAILED: %s\n", s->finished, s->ntodo, row->output,
+                row->message);
+}
+
+/* Removes leftover temporaries of this run's manifest files in OUTDIR. */
+static void clean_manifest_temps(const char *outdir, const char *base)
+{
+    DIR *d = opendir(outdir);
+    if (!d)
+        return;
+    char pre[2][256];
+    snprintf(pre[0], sizeof pre[0], ".%s.csv.tmp.", base);
+    snprintf(pre[1], sizeof pre[1], ".%s.json.tmp.", base);
+    struct dirent *e;
+    while ((e = readdir(d)) != NULL)
+        for (int k = 0; k < 2; k++)
+            if (strncmp(e->d_name, pre[k], strlen(pre[k])) == 0) {
+                char path[BATCH_PATH * 2];
+                snprintf(path, sizeof path, "%s/%s", outdir, e->d_name);
+                remove(path);
+            }
+    closedir(d);
+}
+
+/* Selects this shard's frames; with --resume marks complete ones skipped.
+ * Fills s->rows/sel and the to-do list (malloc'ed). */
+static int plan(batch_state *s, unsigned k, unsigned n, int resume, size_t **todo)
+{
+    batch_ctx *c = s->c;
+    s->rows = calloc(c->nframes ? c->nframes : 1, sizeof *s->rows);
+    s->sel = calloc(c->nframes ? c->nframes : 1, sizeof *s->sel);
+    *todo = calloc(c->nframes ? c->nframes : 1, sizeof **todo);
+    if (!s->rows || !s->sel || !*todo)
+        return cli_error("batch: out of memory (%zu frames)", c->nframes);
+    for (size_t i = 0; i < c->nframes; i++) {
+        if (i % n != k - 1)
+            continue;
+        batch_row *r = &s->rows[s->nsel];
+        s->sel[s->nsel++] = i;
+        batch_row_init(r, &c->frames[i]);
+        if (resume && !c->frames[i].clash[0] && batch_is_complete(c, &c->frames[i])) {
+            char dir[BATCH_PATH * 2];
+            snprintf(dir, sizeof dir, "%s/%s", c->outdir, c->frames[i].stem);
+            r->status = BATCH_SKIPPED;
+            batch_read_summary(dir, r);
+        } else {
+            (*todo)[s->ntodo++] = i;
+        }
+    }
+    return 0;
+}
+
+static int verdict(const batch_state *s, int argc, char **argv)
+{
+    size_t count[4] = {0, 0, 0, 0};
+    for (size_t i = 0; i < s->nsel; i++)
+        count[s->rows[i].status & 3]++;
+    int sig = (int)*cli_stop_flag();
+    if (!s->quiet || sig)
+        fprintf(stderr,
+                "pixpost: batch %s%s%s: %zu done, %zu skipped, %zu failed, %zu not done; "
+                "manifest %s/%s.csv\n",
+                s->c->outdir, s->shard ? " shard " : "", s->shard ? s->shard : "",
+                count[BATCH_DONE], count[BATCH_SKIPPED], count[BATCH_FAILED], count[BATCH_PENDING],
+                s->c->outdir, s->base);
+    if (sig || count[BATCH_PENDING]) {
+        char cmd[8192];
+        size_t used = (size_t)snprintf(cmd, sizeof cmd, "pixpost");
+        for (int i = 0; i < argc && used < sizeof cmd; i++)
+            if (strcmp(argv[i], "--resume") != 0)
+                used += (size_t)snprintf(cmd + used, sizeof cmd - used, " %s", argv[i]);
+        fprintf(stderr, "pixpost: stopped before the end; finish with:\n  %s --resume\n", cmd);
+        return sig ? 128 + sig : CLI_EXIT_USAGE;
+    }
+    return count[BATCH_FAILED] ? CLI_EXIT_BATCH : CLI_EXIT_OK;
+}
+
+/* ---- setup ---- */
+
+typedef struct batch_run_opts {
+    unsigned long jobs;
+    unsigned shard_k, shard_n;
+    int resume, recursive, jobs_given;
+    const char *pattern;
+} batch_run_opts;
+
+static int parse_run_opts(const cli_args *a, batch_run_opts *r)
+{
+    memset(r, 0, sizeof *r);
+    r->shard_k = r->shard_n = 1;
+    int rc = cli_get_ulong(a, "jobs", 1, 4096, &r->jobs);
+    rc = rc ? rc : cli_get_shard(a, "shard", &r->shard_k, &r->shard_n);
+    r->jobs_given = cli_given(a, "jobs");
+    r->resume = cli_given(a, "resume");
+    r->recursive = cli_given(a, "recursive");
+    r->pattern = cli_str(a, "pattern");
+    if (!rc && r->pattern && !r->pattern[0])
+        rc = cli_opt_error("pattern", "empty pattern (expected --pattern GLOB, e.g. '*.tif')");
+    return rc;
+}
+
+static int choose_jobs(const batch_run_opts *ro, cli_sample_opts *o, size_t ntodo,
+                       int *threads_per_frame)
+{
+    int cores = o->cfg.threads > 0 ? o->cfg.threads : online_cores();
+    size_t jobs = ro->jobs_given ? ro->jobs : (ntodo < (size_t)cores ? ntodo : (size_t)cores);
+    if (jobs < 1)
+        jobs = 1;
+    *threads_per_frame = cores / (int)jobs > 1 ? cores / (int)jobs : 1;
+    return (int)jobs;
+}
+
+/* Threads of one frame on an MPI worker rank. */
+static int mpi_threads(const cli_sample_opts *o)
+{
+    if (o->cfg.threads > 0)
+        return o->cfg.threads;
+    const char *ls = getenv("OMPI_COMM_WORLD_LOCAL_SIZE");
+    int local = ls ? atoi(ls) : 1, cores = online_cores();
+    return local > 0 && cores / local > 1 ? cores / local : 1;
+}
+
+static int merge(const char *outdir);
+
+static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **argv)
+{
+    int rank = 0, size = 1, rc = 0;
+    int mpi = batch_mpi_active(&rank, &size);
+    if (mpi && size > 1 && rank > 0) {
+        c->threads_per_frame = mpi_threads(c->opts);
+        batch_mpi_worker(c);
+        return 0;
+    }
+    char base[64], shard[32];
+    int sharded = ro->shard_n > 1;
+    snprintf(base, sizeof base, sharded ? "index.shard-%u-of-%u" : "index", ro->shard_k,
+             ro->shard_n);
+    snprintf(shard, sizeof shard, "%u/%u", ro->shard_k, ro->shard_n);
+    batch_state s = {c, base, sharded ? shard : NULL, NULL, NULL, 0, 0, 0, c->opts->quiet};
+    size_t *todo = NULL;
+    if ((rc = plan(&s, ro->shard_k, ro->shard_n, ro->resume, &todo)) == 0) {
+        clean_manifest_temps(c->outdir, base);
+        int jobs = choose_jobs(ro, c->opts, s.ntodo, &c->threads_per_frame);
+        rc = batch_write_manifest(c->outdir, base, s.rows, s.nsel, c->indir, s.shard);
+        if (!rc && !c->opts->quiet)
+            fprintf(stderr, "pixpost: batch of %zu frames (%zu to do) with %s%d %s x %d threads\n",
+                    s.nsel, s.ntodo, mpi && size > 1 ? "MPI, " : "",
+                    mpi && size > 1 ? size - 1 : jobs, mpi && size > 1 ? "worker ranks" : "jobs",
+                    mpi && size > 1 ? mpi_threads(c->opts) : c->threads_per_frame);
+        cli_stop_install(0);
+        if (!rc && mpi && size > 1)
+            batch_mpi_manager(c, todo, s.ntodo, on_done, &s, size);
+        else if (!rc)
+            batch_run_local(c, todo, s.ntodo, jobs, on_done, &s);
+        if (!rc)
+            rc = batch_write_manifest(c->outdir, base, s.rows, s.nsel, c->indir, s.shard);
+        if (!rc)
+            rc = verdict(&s, argc, argv);
+        cli_stop_uninstall();
+    }
+    free(todo);
+    free(s.rows);
+    free(s.sel);
+    return rc;
+}
+
+static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const batch_run_opts *ro,
+                   int argc, char **argv)
+{
+    int rc = cli_positionals(a, 1, "INDIR");
+    rc = rc ? rc : cli_sample_opts_from_args(a, o);
+    rc = rc ? rc : batch_check_outdir(a->pos[0], o->outdir);
+    if (rc)
+        return rc;
+    memset(c, 0, sizeof *c);
+    c->opts = o;
+    c->indir = a->pos[0];
+    c->outdir = o->outdir;
+    recorded_command(argc, argv, c->command_line, sizeof c->command_line);
+    settings_text(a, o, c->settings, sizeof c->settings);
+    if ((rc = batch_list(c->indir, ro->recursive, ro->pattern, o->cfg.seed, &c->frames,
+                         &c->nframes)) != 0)
+        return rc;
+    if (c->nframes == 0)
+        return cli_error("%s: no PNG or TIFF frames found%s%s%s", c->indir,
+                         ro->pattern ? " matching " : "", ro->pattern ? ro->pattern : "",
+                         ro->recursive ? "" : " (add --recursive for subfolders)");
+    char msg[BATCH_MSG];
+    if (cli_make_dirs(c->outdir, msg, sizeof msg) != 0)
+        return cli_error("%s", msg);
+    return 0;
+}
 
 int cli_cmd_batch(int argc, char **argv)
 {
-    (void)argc;
-    (void)argv;
-    return cli_error("batch: not available in this build yet");
+    const cli_opt *tables[] = {batch_table, cli_sample_table(), NULL};
+    cli_args a;
+    int rc = cli_parse(&a, "batch", tables, argc, argv);
+    if (rc == CLI_HELP) {
+        batch_help(stdout);
+        return CLI_EXIT_OK;
+    }
+    if (rc)
+        return rc;
+    if (cli_given(&a, "merge")) {
+        if (a.npos > 0)
+            return cli_error("batch: --merge takes only OUTDIR (unexpected '%s')", a.pos[0]);
+        return merge(cli_str(&a, "merge"));
+    }
+    batch_run_opts ro;
+    cli_sample_opts o;
+    batch_ctx c;
+    memset(&c, 0, sizeof c);
+    if ((rc = parse_run_opts(&a, &ro)) != 0)
+        return rc;
+    rc = prepare(&a, &o, &c, &ro, argc, argv);
+    if (!rc)
+        rc = run_batch(&c, &ro, argc, argv);
+    free(c.frames);
+    batch_mpi_finish();
+    return rc;
+}
+
+/* ---- --merge ---- */
+
+static int cmp_row(const void *a, const void *b)
+{
+    const batch_row *x = a, *y = b;
+    int d = strcmp(x->path, y->path);
+    return d ? d : (x->page > y->page) - (x->page < y->page);
+}
+
+/* The N of the first index.shard-K-of-N.csv in outdir, or 0. */
+static unsigned find_shard_count(const char *outdir)
+{
+    DIR *d = opendir(outdir);
+    unsigned k, n = 0;
+    if (!d)
+        return 0;
+    struct dirent *e;
+    while (n == 0 && (e = readdir(d)) != NULL) {
+        char tail[8];
+        if (sscanf(e->d_name, "index.shard-%u-of-%u.cs%1s", &k, &n, tail) != 3 ||
+            strcmp(tail, "v") != 0)
+            n = 0;
+    }
+    closedir(d);
+    return n;
+}
+
+static int merge(const char *outdir)
+{
+    unsigned n = find_shard_count(outdir);
+    if (n == 0)
+        return cli_error("%s: no shard manifests (index.shard-K-of-N.csv) to merge", outdir);
+    batch_row *rows = NULL;
+    size_t nrows = 0;
+    int rc = 0;
+    for (unsigned k = 1; k <= n && !rc; k++) {
+        char path[BATCH_PATH];
+        snprintf(path, sizeof path, "%s/index.shard-%u-of-%u.csv", outdir, k, n);
+        if (access(path, R_OK) != 0)
+            rc = cli_error("%s: missing (run shard %u/%u first, then merge again)", path, k, n);
+        else
+            rc = batch_read_csv(path, &rows, &nrows);
+    }
+    size_t count[4] = {0, 0, 0, 0};
+    if (!rc) {
+        qsort(rows, nrows, sizeof *rows, cmp_row);
+        for (size_t i = 0; i < nrows; i++)
+            count[rows[i].status & 3]++;
+        rc = batch_write_manifest(outdir, "index", rows, nrows, NULL, NULL);
+    }
+    if (!rc)
+        fprintf(stderr,
+                "pixpost: merged %u shard manifests into %s/index.csv: %zu frames (%zu "
+                "done, %zu skipped, %zu failed, %zu not done)\n",
+                n, outdir, nrows, count[BATCH_DONE], count[BATCH_SKIPPED], count[BATCH_FAILED],
+                count[BATCH_PENDING]);
+    free(rows);
+    if (rc)
+        return rc;
+    return count[BATCH_FAILED] || count[BATCH_PENDING] ? CLI_EXIT_BATCH : CLI_EXIT_OK;
 }

@@ -57,7 +57,7 @@ int main(int argc, char **argv)
         return CLI_EXIT_OK;
     }
     if (strcmp(name, "--version") == 0) {
-        printf("pixpost %s (GPL-3.0-or-later)\n", PP_VERSION_STRING);
+        printf("pixpost %s (GPL-3.0-or-later)\nMPI: %s\n", PP_VERSION_STRING, cli_mpi_support());
         return CLI_EXIT_OK;
     }
     for (const command *c = commands; c->name; c++)

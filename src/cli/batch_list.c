@@ -1,0 +1,253 @@
+/* pixpost command line — the frame list of `pixpost batch`: every PNG/TIFF
+ * name in INDIR (subfolders with --recursive; hidden names skipped; symlinks
+ * followed, at most 64 folders deep), narrowed by --pattern (fnmatch on the
+ * file name, or on the relative path when the pattern holds a '/'), sorted
+ * bytewise by relative path so every process, shard and rank sees the same
+ * list. A multi-page TIFF becomes one frame per page, output "<stem>_p<k>"
+ * with k counted from 1. Two frames with the same output folder (a.png and
+ * a.tif) are both marked as clashing rather than silently overwriting.
+ * Cost: one readdir per folder and one TIFF directory count per TIFF file.
+ */
+#include "batch.h"
+#include <dirent.h>
+#include <errno.h>
+#include <fnmatch.h>
+#include <limits.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+#include <sys/stat.h>
+
+char *realpath(const char *path, char *resolved); /* POSIX (XSI), hidden by strict modes */
+
+typedef struct name_list {
+    char (*v)[BATCH_PATH];
+    size_t n, cap;
+} name_list;
+
+static int frame_ext(const char *name)
+{
+    size_t n = strlen(name);
+    const char *exts[] = {".png", ".tif", ".tiff"};
+    for (int i = 0; i < 3; i++) {
+        size_t e = strlen(exts[i]);
+        if (n > e && strcasecmp(name + n - e, exts[i]) == 0)
+            return 1;
+    }
+    return 0;
+}
+
+static int wanted(const char *rel, const char *name, const char *pattern)
+{
+    if (!frame_ext(name))
+        return 0;
+    if (!pattern)
+        return 1;
+    return fnmatch(pattern, strchr(pattern, '/') ? rel : name, 0) == 0;
+}
+
+static int push(name_list *l, const char *rel)
+{
+    if (l->n == l->cap) {
+        size_t cap = l->cap ? 2 * l->cap : 64;
+        void *p = realloc(l->v, cap * sizeof *l->v);
+        if (!p)
+            return cli_error("batch: out of memory listing the input folder");
+        l->v = p;
+        l->cap = cap;
+    }
+    snprintf(l->v[l->n++], BATCH_PATH, "%s", rel);
+    return 0;
+}
+
+static int walk(const char *root, const char *sub, int recursive, const char *pattern, name_list *l,
+                int depth)
+{
+    char dir[BATCH_PATH * 2];
+    snprintf(dir, sizeof dir, "%s%s%s", root, sub[0] ? "/" : "", sub);
+    DIR *d = opendir(dir);
+    if (!d)
+        return cli_error("%s: cannot read the folder: %s", dir, strerror(errno));
+    int rc = 0;
+    struct dirent *e;
+    while (!rc && (e = readdir(d)) != NULL) {
+        if (e->d_name[0] == '.')
+            continue;
+        char rel[BATCH_PATH], full[BATCH_PATH * 3];
+        if (snprintf(rel, sizeof rel, "%s%s%s", sub, sub[0] ? "/" : "", e->d_name) >=
+            (int)sizeof rel) {
+            rc = cli_error("%s/%s: path too long", dir, e->d_name);
+            break;
+        }
+        snprintf(full, sizeof full, "%s/%s", root, rel);
+        struct stat sb;
+        if (stat(full, &sb) != 0)
+            continue; /* a dangling link: not a frame */
+        if (S_ISDIR(sb.st_mode) && recursive && depth < 64)
+            rc = walk(root, rel, recursive, pattern, l, depth + 1);
+        else if (S_ISREG(sb.st_mode) && wanted(rel, e->d_name, pattern))
+            rc = push(l, rel);
+    }
+    closedir(d);
+    return rc;
+}
+
+static int cmp_name(const void *a, const void *b)
+{
+    return strcmp(a, b);
+}
+
+static int is_tiff_name(const char *rel)
+{
+    size_t n = strlen(rel);
+    return (n > 4 && strcasecmp(rel + n - 4, ".tif") == 0) ||
+           (n > 5 && strcasecmp(rel + n - 5, ".tiff") == 0);
+}
+
+/* Pages of a TIFF (1 when it is not a readable TIFF: the worker reports). */
+static unsigned count_pages(const char *indir, const char *rel)
+{
+    char full[BATCH_PATH * 2];
+    snprintf(full, sizeof full, "%s/%s", indir, rel);
+    unsigned pages = 1;
+    if (is_tiff_name(rel) && pp_tiff_count_pages(full, &pages) != PP_OK)
+        pages = 1;
+    return pages ? pages : 1;
+}
+
+static void fill_frame(batch_frame *f, const char *rel, unsigned page, unsigned pages,
+                       uint64_t seed)
+{
+    memset(f, 0, sizeof *f);
+    snprintf(f->rel, sizeof f->rel, "%s", rel);
+    f->page = page;
+    f->pages = pages;
+    char key[BATCH_PATH + 32], stem[BATCH_PATH];
+    snprintf(stem, sizeof stem, "%s", rel);
+    char *dot = strrchr(stem, '.'), *slash = strrchr(stem, '/');
+    if (dot && (!slash || dot > slash))
+        *dot = '\0';
+    if (pages > 1) {
+        snprintf(key, sizeof key, "%s#p%u", rel, page + 1);
+        snprintf(f->stem, sizeof f->stem, "%.*s_p%u", BATCH_PATH - 16, stem, page + 1);
+    } else {
+        snprintf(key, sizeof key, "%s", rel);
+        snprintf(f->stem, sizeof f->stem, "%s", stem);
+    }
+    f->seed = pp_hash_string(seed, key);
+}
+
+static int cmp_stem(const void *a, const void *b)
+{
+    const batch_frame *const *x = a, *const *y = b;
+    return strcmp((*x)->stem, (*y)->stem);
+}
+
+/* Marks frames whose output folders coincide. */
+static int mark_clashes(batch_frame *f, size_t n)
+{
+    batch_frame **by = malloc((n ? n : 1) * sizeof *by);
+    if (!by)
+        return cli_error("batch: out of memory");
+    for (size_t i = 0; i < n; i++)
+        by[i] = &f[i];
+    qsort(by, n, sizeof *by, cmp_stem);
+    for (size_t i = 0; i + 1 < n; i++)
+        if (strcmp(by[i]->stem, by[i + 1]->stem) == 0) {
+            snprintf(by[i]->clash, BATCH_MSG,
+                     "%.300s: its output folder %.300s/ is also the output of %.300s; rename one "
+                     "of them",
+                     by[i]->rel, by[i]->stem, by[i + 1]->rel);
+            snprintf(by[i + 1]->clash, BATCH_MSG,
+                     "%.300s: its output folder %.300s/ is also the output of %.300s; rename one "
+                     "of them",
+                     by[i + 1]->rel, by[i + 1]->stem, by[i]->rel);
+        }
+    free(by);
+    return 0;
+}
+
+static int expand_pages(const char *indir, const name_list *l, uint64_t seed, batch_frame **out,
+                        size_t *n)
+{
+    unsigned *pages = malloc((l->n ? l->n : 1) * sizeof *pages);
+    if (!pages)
+        return cli_error("batch: out of memory");
+    size_t total = 0;
+    for (size_t i = 0; i < l->n; i++)
+        total += (pages[i] = count_pages(indir, l->v[i]));
+    batch_frame *f = calloc(total ? total : 1, sizeof *f);
+    if (!f) {
+        free(pages);
+        return cli_error("batch: out of memory (%zu frames)", total);
+    }
+    size_t k = 0;
+    for (size_t i = 0; i < l->n; i++)
+        for (unsigned p = 0; p < pages[i]; p++)
+            fill_frame(&f[k++], l->v[i], p, pages[i], seed);
+    free(pages);
+    *out = f;
+    *n = total;
+    return mark_clashes(f, total);
+}
+
+int batch_list(const char *indir, int recursive, const char *pattern, uint64_t seed,
+               batch_frame **out, size_t *n)
+{
+    *out = NULL;
+    *n = 0;
+    name_list l = {NULL, 0, 0};
+    int rc = walk(indir, "", recursive, pattern, &l, 0);
+    if (!rc) {
+        qsort(l.v, l.n, sizeof *l.v, cmp_name);
+        rc = expand_pages(indir, &l, seed, out, n);
+    }
+    free(l.v);
+    return rc;
+}
+
+/* realpath of path, or of its deepest existing ancestor plus the rest. */
+static int resolve(const char *path, char *out)
+{
+    char buf[PATH_MAX], tail[PATH_MAX] = "";
+    snprintf(buf, sizeof buf, "%s", path);
+    for (;;) {
+        char r[PATH_MAX];
+        if (realpath(buf, r)) {
+            snprintf(out, PATH_MAX, "%s%s", r, tail);
+            return 0;
+        }
+        char *slash = strrchr(buf, '/');
+        char t2[PATH_MAX];
+        if (snprintf(t2, sizeof t2, "/%s%s", slash ? slash + 1 : buf, tail) >= (int)sizeof t2)
+            return -1;
+        memcpy(tail, t2, sizeof tail);
+        if (!slash) {
+            snprintf(buf, sizeof buf, ".");
+        } else if (slash == buf) {
+            buf[1] = '\0';
+        } else {
+            *slash = '\0';
+        }
+    }
+}
+
+int batch_check_outdir(const char *indir, const char *outdir)
+{
+    char in[PATH_MAX], out[PATH_MAX];
+    struct stat sb;
+    if (stat(indir, &sb) != 0 || !S_ISDIR(sb.st_mode))
+        return cli_error("%s: not a folder (batch takes a folder of frames; use 'pixpost "
+                         "sample' for one file)",
+                         indir);
+    if (!realpath(indir, in))
+        return cli_error("%s: cannot resolve the folder: %s", indir, strerror(errno));
+    if (resolve(outdir, out) != 0)
+        return cli_error("%s: path too long", outdir);
+    size_t n = strlen(in);
+    if (strcmp(in, "/") == 0 || (strncmp(out, in, n) == 0 && (out[n] == '\0' || out[n] == '/')))
+        return cli_error("%s: the output folder is inside the input folder %s (batch never "
+                         "writes into INDIR; choose an -o outside it)",
+                         outdir, indir);
+    return 0;
+}

@@ -1,0 +1,213 @@
+/* pixpost command line — sample one frame into a folder: read the frame (a
+ * chosen page), make the PSF, create and run the sampler (with an optional
+ * progress display and a stop flag), write the outputs with pp_output_write.
+ * Used by `pixpost sample` (one frame) and by `pixpost batch` (each frame, in
+ * a worker process). Errors are returned as one sentence in r->message, not
+ * printed, so batch can record them in its manifest.
+ *
+ * The stop flag set by cli_stop_install()'s SIGINT/SIGTERM handler is the one
+ * writable static of the front end: a signal handler can only talk through a
+ * volatile sig_atomic_t. Cost: that of the sampler; the rest is one read of
+ * the frame and a handful of small files written.
+ */
+#include "cli.h"
+#include "pixpost/output.h"
+#include <errno.h>
+#include <signal.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <time.h>
+#include <unistd.h>
+
+static volatile sig_atomic_t stop_flag;
+
+static void on_signal(int sig)
+{
+    stop_flag = sig;
+}
+
+const volatile sig_atomic_t *cli_stop_flag(void)
+{
+    return &stop_flag;
+}
+
+void cli_stop_install(int restart)
+{
+    struct sigaction sa;
+    memset(&sa, 0, sizeof sa);
+    sa.sa_handler = on_signal;
+    sigemptyset(&sa.sa_mask);
+    sa.sa_flags = restart ? SA_RESTART : 0;
+    sigaction(SIGINT, &sa, NULL);
+    sigaction(SIGTERM, &sa, NULL);
+}
+
+void cli_stop_uninstall(void)
+{
+    signal(SIGINT, SIG_DFL);
+    signal(SIGTERM, SIG_DFL);
+}
+
+double cli_since(const struct timespec *t0)
+{
+    struct timespec t;
+    clock_gettime(CLOCK_MONOTONIC, &t);
+    return (double)(t.tv_sec - t0->tv_sec) + 1e-9 * (double)(t.tv_nsec - t0->tv_nsec);
+}
+
+typedef struct progress_state {
+    cli_progress mode;
+    struct timespec t0;
+    int last_decile;
+} progress_state;
+
+static void show_progress(void *ctx, unsigned long long done, unsigned long long total)
+{
+    progress_state *p = ctx;
+    double el = cli_since(&p->t0), frac = (double)done / (double)total;
+    double left = frac > 0 ? el * (1 - frac) / frac : 0;
+    if (p->mode == CLI_PROGRESS_BAR) {
+        int w = 30, fill = (int)(frac * w);
+        fprintf(stderr, "\rsampling [%.*s%*s] %5.1f%%  %.0f it/s  %.0f s left ", fill,
+                "##############################", w - fill, "", 100 * frac,
+                el > 0 ? (double)done / el : 0.0, left);
+        if (done == total)
+            fputc('\n', stderr);
+    } else if (p->mode == CLI_PROGRESS_PLAIN) {
+        int dec = (int)(frac * 10);
+        if (dec > p->last_decile) {
+            p->last_decile = dec;
+            fprintf(stderr,
+                    "sampling: %d%% (%llu of %llu iterations, %.1f s elapsed, %.1f s left)\n",
+                    dec * 10, done, total, el, left);
+        }
+    }
+}
+
+/* Records a failure: the message into r, returns CLI_EXIT_USAGE. */
+static int fail_msg(cli_frame_run *r, const char *fmt, ...) CLI_PRINTF(2, 3);
+static int fail_msg(cli_frame_run *r, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(r->message, sizeof r->message, fmt, ap);
+    va_end(ap);
+    return CLI_EXIT_USAGE;
+}
+
+static int fail_lib(cli_frame_run *r, pp_status st)
+{
+    const char *m = pp_error_message();
+    return fail_msg(r, "%s", m && m[0] ? m : pp_status_name(st));
+}
+
+int cli_make_dirs(const char *path, char *msg, size_t len)
+{
+    char buf[4096];
+    if (snprintf(buf, sizeof buf, "%s", path) >= (int)sizeof buf) {
+        snprintf(msg, len, "%s: path too long", path);
+        return CLI_EXIT_USAGE;
+    }
+    for (char *p = buf + 1;; p++) {
+        if (*p == '/' || *p == '\0') {
+            char c = *p;
+            *p = '\0';
+            if (mkdir(buf, 0777) != 0 && errno != EEXIST) {
+                snprintf(msg, len, "%s: cannot create the output folder: %s", buf, strerror(errno));
+                return CLI_EXIT_USAGE;
+            }
+            *p = c;
+            if (!c)
+                break;
+        }
+    }
+    struct stat sb;
+    if (stat(path, &sb) != 0 || !S_ISDIR(sb.st_mode)) {
+        snprintf(msg, len, "%s: not a folder (the output of sample is a folder)", path);
+        return CLI_EXIT_USAGE;
+    }
+    return 0;
+}
+
+static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **frame)
+{
+    pp_read_options ro = o->read;
+    ro.page = r->page;
+    pp_status st = pp_image_read(r->frame, &ro, frame, &r->info);
+    if (st != PP_OK)
+        return fail_lib(r, st);
+    if (r->info.pages > 1 && r->announce_pages)
+        fprintf(stderr, "pixpost: %s: %u pages; using page %u\n", r->frame, r->info.pages, r->page);
+    if (r->info.nonfinite)
+        return fail_msg(r, "%s: %zu pixels are NaN or infinite; mask or repair them first",
+                        r->frame, r->info.nonfinite);
+    return 0;
+}
+
+static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
+                        const pp_image *psf, progress_state *ps)
+{
+    pp_sampler_config cfg = o->cfg;
+    cfg.seed = r->seed;
+    cfg.threads = r->threads;
+    ps->mode = r->progress;
+    ps->t0 = r->t0;
+    ps->last_decile = 0;
+    if (o->quiet || ps->mode == CLI_PROGRESS_AUTO)
+        ps->mode = o->quiet || !isatty(2) ? CLI_PROGRESS_NONE : CLI_PROGRESS_BAR;
+    cfg.progress = ps->mode == CLI_PROGRESS_NONE ? NULL : show_progress;
+    cfg.progress_ctx = ps;
+    cfg.stop = r->stop;
+    pp_status st = pp_sampler_create(&cfg, frame, psf, &r->sampler);
+    return st == PP_OK ? 0 : fail_lib(r, st);
+}
+
+static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame)
+{
+    int rc = cli_make_dirs(r->outdir, r->message, sizeof r->message);
+    if (rc)
+        return rc;
+    if (r->install_signals)
+        cli_stop_install(1);
+    pp_status st = pp_sampler_run(r->sampler);
+    if (r->install_signals)
+        cli_stop_uninstall();
+    if (st == PP_ERR_INTERRUPTED) {
+        r->interrupted = 1;
+        return fail_msg(r, "%s: interrupted; no outputs were written", r->frame);
+    }
+    if (st != PP_OK)
+        return fail_lib(r, st);
+    pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,
+                      o->prior_text, r->command_line, cli_since(&r->t0)};
+    if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
+        return fail_lib(r, st);
+    if (o->wisdom && (st = pp_fft_wisdom_save(o->wisdom)) != PP_OK)
+        return fail_lib(r, st);
+    return 0;
+}
+
+int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
+{
+    pp_image *frame = NULL, *psf = NULL;
+    pp_status st;
+    r->sampler = NULL;
+    r->message[0] = '\0';
+    r->interrupted = 0;
+    memset(&r->info, 0, sizeof r->info);
+    progress_state ps;
+    int rc = read_frame(o, r, &frame);
+    if (!rc && (st = pp_psf_make(&o->psf, 0, &psf)) != PP_OK)
+        rc = fail_lib(r, st);
+    if (!rc && o->wisdom && (st = pp_fft_wisdom_load(o->wisdom)) != PP_OK)
+        rc = fail_lib(r, st);
+    if (!rc)
+        rc = make_sampler(o, r, frame, psf, &ps);
+    if (!rc)
+        rc = sample_and_write(o, r, frame);
+    pp_image_free(psf);
+    pp_image_free(frame);
+    return rc;
+}
