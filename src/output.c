@@ -103,6 +103,11 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
                "  \"kept_per_chain\": %zu,\n  \"boundary\": \"%s\",\n",
             pp_sampler_kind_name(c->kind), c->chains, c->burn, c->iters, c->thin,
             (unsigned long long)c->seed, s->trace.kept, pp_boundary_name(c->boundary));
+    if (c->kind == PP_SAMPLER_MTC && c->boundary == PP_BOUNDARY_PAD) {
+        fputs("  \"pad_scheme\": ", f); /* how mtc handled the padding */
+        json_string(f, s->pad_scheme);
+        fputs(",\n", f);
+    }
     fputs("  \"psf\": ", f);
     json_string(f, info ? info->psf_spec : NULL);
     fputs(",\n  \"noise\": ", f);
@@ -117,6 +122,10 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     fputs(",\n", f);
     if (st == PP_OK)
         st = json_hyper(f, "delta", &s->trace, PP_COL_DELTA, c->prior.delta_set);
+    if (st == PP_OK && s->col_width >= 0) { /* sampled PSF width (sigma or NA) */
+        fputs(",\n", f);
+        st = json_hyper(f, "psf_width", &s->trace, (size_t)s->col_width, 0);
+    }
     fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
     json_string(f, s->bound_method);
     unsigned long long iters = (unsigned long long)c->chains * (c->burn + c->iters);

@@ -66,6 +66,10 @@ static const pp_kernel *kernel_for(pp_sampler_kind k)
         return &pp_kernel_gibbs;
     case PP_SAMPLER_MTC:
         return &pp_kernel_mtc;
+    case PP_SAMPLER_PCN:
+        return &pp_kernel_pcn;
+    case PP_SAMPLER_GPCN:
+        return &pp_kernel_gpcn;
     default:
         return NULL;
     }
@@ -92,9 +96,11 @@ static pp_status check_config(pp_sampler_config *cfg)
 {
     if (cfg->kind == PP_SAMPLER_AUTO)
         cfg->kind = cfg->noise.kind == PP_NOISE_GAUSSIAN ? PP_SAMPLER_GIBBS : PP_SAMPLER_GPCN;
-    if (cfg->noise.kind != PP_NOISE_GAUSSIAN)
-        return pp_fail(PP_ERR_ARG, "--noise: this version samples the gaussian noise model "
-                                   "only (photon-counting models are not available yet)");
+    if (cfg->noise.kind != PP_NOISE_GAUSSIAN && cfg->kind != PP_SAMPLER_PCN &&
+        cfg->kind != PP_SAMPLER_GPCN)
+        return pp_fail(PP_ERR_ARG, "--sampler %s: needs gaussian noise; the photon-counting "
+                                   "models (poisson, camera) use --sampler pcn or gpcn",
+                       pp_sampler_kind_name(cfg->kind));
     if (!kernel_for(cfg->kind))
         return pp_fail(PP_ERR_ARG, "--sampler %s: not available in this version (use gibbs)",
                        pp_sampler_kind_name(cfg->kind));

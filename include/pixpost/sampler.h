@@ -35,6 +35,15 @@ typedef enum pp_sampler_kind {
 pp_status pp_sampler_kind_parse(const char *s, pp_sampler_kind *out);
 const char *pp_sampler_kind_name(pp_sampler_kind k);
 
+/* How intensities are kept positive (pcn/gpcn): LOG samples z with the GMRF
+ * prior and sets x = exp(z); NONE samples x itself. AUTO: LOG for the
+ * photon models (poisson, camera), NONE for gaussian. gibbs/mtc use NONE. */
+typedef enum pp_positivity {
+    PP_POSITIVITY_AUTO = 0,
+    PP_POSITIVITY_NONE,
+    PP_POSITIVITY_LOG
+} pp_positivity;
+
 /* Called now and then from inside pp_sampler_run (from one thread at a
  * time): done and total count iterations over all chains. */
 typedef void (*pp_progress_fn)(void *ctx, unsigned long long done,
@@ -55,6 +64,8 @@ typedef struct pp_sampler_config {
     double hyper_lambda[2]; /* Gamma shape, rate for lambda (default 1, 1e-4) */
     double hyper_delta[2];  /* Gamma shape, rate for delta (default 1, 1e-4) */
     int fft_effort;         /* PP_FFT_ESTIMATE or PP_FFT_MEASURE */
+    pp_positivity positivity; /* pcn/gpcn (default AUTO) */
+    double background;      /* known background, photons/pixel, photon models (default 0) */
     /* The PSF model behind the kernel given to pp_sampler_create; read only
      * when psf.width_auto is set (sigma=auto / na=auto): then gibbs and mtc
      * sample the width on [psf.width_lo, psf.width_hi] (uniform prior),

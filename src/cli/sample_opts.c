@@ -28,6 +28,11 @@ static const cli_opt sample_table[] = {
     {"prior", 0, 1, "SPEC",
      "Prior: gmrf1, gmrf2 or matern:range=R,nu=V; any of them also takes delta=D to fix the "
      "prior precision."},
+    {"positivity", 0, 1, "log|none",
+     "pcn/gpcn: log samples the log intensity z (x = exp(z) > 0; default for poisson/camera), "
+     "none samples x itself (default for gaussian). With log, the prior and mean=M apply to z."},
+    {"background", 0, 1, "B",
+     "Known background in photons per pixel added to A x (poisson/camera only; B >= 0)."},
     {"sampler", 0, 1, "auto|gibbs|mtc|pcn|gpcn",
      "MCMC method; auto picks one that fits the noise model (gibbs/mtc need gaussian noise)."},
     {"chains", 0, 1, "N", "Independent chains run in parallel (whole number >= 1)."},
@@ -73,6 +78,10 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
         pp_noise_format(&d.noise, buf, len);
     else if (strcmp(name, "prior") == 0)
         pp_prior_format(&d.prior, buf, len);
+    else if (strcmp(name, "positivity") == 0)
+        snprintf(buf, len, "log for poisson/camera, none for gaussian");
+    else if (strcmp(name, "background") == 0)
+        snprintf(buf, len, "%g", d.background);
     else if (strcmp(name, "sampler") == 0)
         snprintf(buf, len, "%s", pp_sampler_kind_name(d.kind));
     else if (strcmp(name, "chains") == 0)
@@ -134,6 +143,21 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
         if ((rc = lib_check(pp_prior_parse(o->prior_text, &o->cfg.prior))) != 0)
             return rc;
     }
+    if (!cli_given(a, "prior") && o->cfg.noise.kind != PP_NOISE_GAUSSIAN) {
+        /* photon models: a proper Matern field by default (pCN needs one) */
+        if ((rc = lib_check(pp_prior_parse("matern", &o->cfg.prior))) != 0)
+            return rc;
+        pp_prior_format(&o->cfg.prior, o->prior_buf, sizeof o->prior_buf);
+    }
+    if (cli_given(a, "positivity")) {
+        const char *p = cli_str(a, "positivity");
+        if (strcmp(p, "log") == 0)
+            o->cfg.positivity = PP_POSITIVITY_LOG;
+        else if (strcmp(p, "none") == 0)
+            o->cfg.positivity = PP_POSITIVITY_NONE;
+        else
+            return cli_opt_error("positivity", "'%s' is not accepted (expected log or none)", p);
+    }
     if (cli_given(a, "sampler") &&
         (rc = lib_check(pp_sampler_kind_parse(cli_str(a, "sampler"), &o->cfg.kind))) != 0)
         return rc;
@@ -175,6 +199,10 @@ static int parse_reals(const cli_args *a, cli_sample_opts *o)
     int rc = cli_get_double(a, "level", 0.0, 1.0, 1, &o->cfg.level);
     rc = rc ? rc : cli_get_pair(a, "hyper-lambda", 0.0, o->cfg.hyper_lambda);
     rc = rc ? rc : cli_get_pair(a, "hyper-delta", 0.0, o->cfg.hyper_delta);
+    rc = rc ? rc : cli_get_double(a, "background", 0.0, 1e300, 0, &o->cfg.background);
+    if (!rc && cli_given(a, "background") && o->cfg.noise.kind == PP_NOISE_GAUSSIAN)
+        return cli_opt_error("background", "applies to the photon models only (use --noise "
+                                           "poisson:... or camera:...)");
     return rc;
 }
 

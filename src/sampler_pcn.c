@@ -1,0 +1,667 @@
+/* pixpost — preconditioned Crank-Nicolson samplers for non-Gaussian
+ * likelihoods and positive intensities: pcn and gpcn.
+ *
+ * Model (DESIGN.md sections 1-2): z = m + u on the grid, u ~ N(0, (delta Q)^-1)
+ * (Fourier-diagonal GMRF; when q(0) = 0, i.e. an intrinsic prior or a matern
+ * prior without mean=M, the zero frequency of u is held at 0 and the level m
+ * has a flat prior and is sampled; with mean=M, m = M is fixed). The
+ * intensity is x = exp(z) (positivity log) or x = z (positivity none).
+ * Data: photons n = (y - offset)/gain with mean mu = A x + b (poisson), or the
+ * shifted-Poisson approximation of the Poisson-Gaussian camera model,
+ * n + R^2 ~ Poisson(A x + b + R^2) (Snyder, Hammoud & White, JOSA A 10, 1993:
+ * it matches the first two moments; with R = 0 it is exactly poisson);
+ * gaussian: y ~ N(A x, 1/lambda). Phi(z) is the negative log-likelihood summed
+ * over the OBSERVED pixels only (pad: the frame block of the grid).
+ *
+ * Moves per iteration:
+ *   1. field: pcn  u' = sqrt(1-beta^2) u + beta xi,  xi ~ N(0, (delta Q)^-1),
+ *      accepted with min(1, exp(Phi(z) - Phi(z'))) (Cotter, Roberts, Stuart &
+ *      White, Statist. Sci. 28, 2013);
+ *      gpcn  u' = a + sqrt(1-beta^2)(u - a) + beta xi,  xi ~ N(0, P^-1) with
+ *      P(k) = delta q(k) + I_F |A(k)|^2, reversible w.r.t. N(a, P^-1), so the
+ *      exact acceptance is pi(z') N(u; a, P^-1) / (pi(z) N(u'; a, P^-1))
+ *      (Law, J. Comput. Appl. Math. 2014; Rudolf & Sprungk, Found. Comput.
+ *      Math. 2018). I_F is the mean Fisher information of one pixel's
+ *      likelihood w.r.t. the sampled field at the data level x0 = mean photons
+ *      - b: for log intensity x0^2/(x0 + b + R^2) (d mu/dz = x, Var n = mu),
+ *      for x itself 1/(x0 + b + R^2), for gaussian lambda. It is exact for a
+ *      flat scene; a varying scene lowers the acceptance, not the exactness.
+ *      The centre a is the running mean of u during burn-in, then fixed.
+ *   2. delta (when free): log random walk in the non-centred
+ *      parameterisation u = delta^-1/2 Q^-1/2 w (w fixed, u rescaled).
+ *   3. m (when free): random walk, flat prior (z shifted, x rescaled).
+ *   4. lambda (gaussian, sigma free): exact Gamma draw given ||Ax - y||^2.
+ * beta and the steps of 2-3 adapt during burn-in only (Robbins-Monro on their
+ * logarithms towards acceptance 0.25 for the field, 0.44 for the scalars),
+ * then stay fixed; the kept chain is an exact, time-homogeneous MCMC.
+ *
+ * Bounds: per pixel and chain, stochastic-approximation (Robbins-Monro)
+ * estimates of the two tail quantiles of z, q += g (p - 1{z <= q}) with
+ * g = sd_t / (phi(z_p) t) (phi(z_p) the normal density at the quantile: the
+ * optimal gain for a Gaussian marginal), started from the Gaussian guess
+ * after 10 kept draws; averaged over chains and mapped through exp (log
+ * mode). Memory: 2 quantiles + 2 moments of z = 32 bytes per pixel per chain.
+ *
+ * Transforms per iteration (r2c/c2r on the grid):
+ *   log:  field move 3 (c2r u' -> z', r2c exp(z'), c2r A x'), delta move 2
+ *         (z' = m + s(z - m) needs no transform; r2c, c2r for A x'), m move 0
+ *         (A x' = e^dm A x). Kept draws 0 extra. Total 3, or 5 with delta free.
+ *   none: field move 1 (c2r A u'; A x is linear in u), delta and m moves 0,
+ *         +1 c2r per kept draw for z. Total 1.
+ * Passes: about 6 over the half spectrum and 4 over the grid per iteration.
+ * Memory per chain: 4 half spectra and 6 grids (about 7 x 8 bytes x grid
+ * pixels), plus 48 bytes per frame pixel (moments and quantiles).
+ */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include "internal.h"
+
+#define T_FIELD 0.25 /* target acceptance of the field move (common practice) */
+#define T_SCALAR 0.44 /* target of the 1-D random walks (Roberts & Rosenthal 2001) */
+#define Q_WARM 10    /* kept draws before the quantile recursion starts */
+
+/* Shared, read-only during the run. */
+typedef struct pcn_shared {
+    int gpcn, logx, gauss, free_dc;
+    double *data;    /* grid: photons (+R^2, clamped at 0) or y (gaussian) */
+    double shift;    /* b + R^2 added to A x (photon models) */
+    double lgam;     /* -sum lgamma(n + 1) over observed pixels (photon) */
+    double fisher;   /* I_F for photon models */
+    double *zstart;  /* grid: the start field */
+    double x0;       /* data level: mean photons - b - R^2 (log/none photon models) */
+    double m0, mdisp, delta0, a0; /* level, its dispersion, delta, A's gain at k=0 */
+    double plo, phi_z; /* lower tail probability, normal density at its quantile */
+} pcn_shared;
+
+/* One chain's state. */
+typedef struct pcn_chain {
+    pp_complex *u, *up, *ctr; /* current and proposed u, gpcn centre a */
+    double *z, *zp, *x, *xp, *ax, *axp;
+    double *qlo, *qhi;
+    pp_moments zm;
+    double m, beta, dstep, mstep, phi, ss;
+    unsigned long acc;
+} pcn_chain;
+
+/* ---- likelihood ------------------------------------------------------- */
+
+/* Phi = negative log-likelihood of the mean image ax (grid) over the frame
+ * block; *ss receives ||ax - y||^2 (gaussian). INFINITY when not defined. */
+static double phi_of(const pp_sampler *s, const pcn_shared *sh, const double *ax, double scale,
+                     double add, double lambda, double *ss)
+{
+    double acc = 0;
+    for (size_t r = 0; r < s->height; r++) {
+        const double *a = ax + r * s->gw, *d = sh->data + r * s->gw;
+        for (size_t c = 0; c < s->width; c++) {
+            double mu = scale * a[c] + add;
+            if (sh->gauss) {
+                double e = mu - d[c];
+                acc += e * e;
+                continue;
+            }
+            mu += sh->shift;
+            if (!(mu > 0)) {
+                if (!sh->logx)
+                    return INFINITY;
+                mu = 1e-300; /* FFT rounding of a positive A x */
+            }
+            acc += mu - (d[c] > 0 ? d[c] * log(mu) : 0.0);
+        }
+    }
+    if (sh->gauss) {
+        *ss = acc;
+        acc *= 0.5 * lambda;
+    }
+    return isfinite(acc) ? acc : INFINITY;
+}
+
+static double loglik_of(const pp_sampler *s, const pcn_shared *sh, const pp_chain *c,
+                        const pcn_chain *k)
+{
+    double nobs = (double)s->height * (double)s->width;
+    if (sh->gauss)
+        return 0.5 * nobs * log(c->lambda / (2 * PP_PI)) - k->phi;
+    return sh->lgam - k->phi;
+}
+
+/* ---- fields ----------------------------------------------------------- */
+
+/* A x on the grid from x (grid): one r2c, one c2r. */
+static void blur_grid(const pp_sampler *s, pp_chain *c, const double *x, double *ax)
+{
+    double invn = 1.0 / (double)s->gn;
+    pp_fft_forward(s->fft, x, c->cbuf2);
+    for (size_t i = 0; i < s->gm; i++)
+        c->cbuf2[i] *= s->otf[i] * invn;
+    pp_fft_inverse(s->fft, c->cbuf2, ax);
+}
+
+/* z = m + c2r(u)/N on the grid (one c2r; u is not modified). */
+static void z_of(const pp_sampler *s, pp_chain *c, const pp_complex *u, double m, double *z)
+{
+    double invn = 1.0 / (double)s->gn;
+    for (size_t i = 0; i < s->gm; i++)
+        c->cbuf[i] = u[i] * invn;
+    pp_fft_inverse(s->fft, c->cbuf, z);
+    for (size_t i = 0; i < s->gn; i++)
+        z[i] += m;
+}
+
+/* From u and m: z, x (log), A x. Transforms: 3 (log) or 1 (none; z is left
+ * stale and made by z_of when a draw is kept). */
+static void field_of(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, const pp_complex *u,
+                     double m, double *z, double *x, double *ax)
+{
+    if (sh->logx) {
+        z_of(s, c, u, m, z);
+        for (size_t i = 0; i < s->gn; i++)
+            x[i] = exp(z[i]);
+        blur_grid(s, c, x, ax);
+        return;
+    }
+    double invn = 1.0 / (double)s->gn;
+    for (size_t i = 0; i < s->gm; i++)
+        c->cbuf[i] = u[i] * s->otf[i] * invn;
+    pp_fft_inverse(s->fft, c->cbuf, ax);
+    for (size_t i = 0; i < s->gn; i++)
+        ax[i] += m * sh->a0;
+}
+
+static void swap_d(double **a, double **b)
+{
+    double *t = *a;
+    *a = *b;
+    *b = t;
+}
+
+static void swap_c(pp_complex **a, pp_complex **b)
+{
+    pp_complex *t = *a;
+    *a = *b;
+    *b = t;
+}
+
+/* ---- moves ------------------------------------------------------------ */
+
+static double fisher_of(const pcn_shared *sh, const pp_chain *c)
+{
+    return sh->gauss ? c->lambda : sh->fisher;
+}
+
+/* Robbins-Monro on a log step: gain (t+1)^-0.6 (common practice). */
+static double adapt(double step, double alpha, double target, unsigned long t, double cap)
+{
+    double v = step * exp(pow((double)t + 1.0, -0.6) * (alpha - target));
+    return v > cap ? cap : (v < 1e-8 ? 1e-8 : v);
+}
+
+/* Field move; returns the acceptance probability, *accepted the outcome. */
+static double field_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k,
+                         int *accepted)
+{
+    const double b = k->beta, rho = sqrt(fmax(0.0, 1.0 - b * b)), del = c->delta;
+    const double fi = fisher_of(sh, c), invn = 1.0 / (double)s->gn;
+    pp_half_noise(&c->rng, s->gh, s->gw, c->cbuf);
+    double g_cur = 0, g_new = 0; /* log prior - log N(.; a, P^-1), times 2N */
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            if (i == 0 && sh->free_dc) {
+                k->up[0] = 0;
+                continue;
+            }
+            double pq = del * s->q[i];
+            if (!sh->gpcn) {
+                k->up[i] = rho * k->u[i] + b * c->cbuf[i] / sqrt(pq);
+                continue;
+            }
+            double p = pq + fi * s->otf2[i], w = pp_half_weight(k2, s->gw);
+            pp_complex a = k->ctr[i], un = a + rho * (k->u[i] - a) + b * c->cbuf[i] / sqrt(p);
+            pp_complex dc = k->u[i] - a, dn = un - a;
+            g_cur += w * (p * (creal(dc) * creal(dc) + cimag(dc) * cimag(dc)) -
+                          pq * (creal(k->u[i]) * creal(k->u[i]) + cimag(k->u[i]) * cimag(k->u[i])));
+            g_new += w * (p * (creal(dn) * creal(dn) + cimag(dn) * cimag(dn)) -
+                          pq * (creal(un) * creal(un) + cimag(un) * cimag(un)));
+            k->up[i] = un;
+        }
+    field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
+    double ssn = 0, phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
+    double loga = k->phi - phin + 0.5 * invn * (g_new - g_cur);
+    double alpha = loga >= 0 ? 1.0 : exp(loga);
+    *accepted = 0;
+    if (!isfinite(phin))
+        return 0.0;
+    if (pp_rng_uniform(&c->rng) < alpha) {
+        *accepted = 1;
+        swap_c(&k->u, &k->up);
+        swap_d(&k->z, &k->zp);
+        swap_d(&k->x, &k->xp);
+        swap_d(&k->ax, &k->axp);
+        k->phi = phin;
+        k->ss = ssn;
+    }
+    return alpha;
+}
+
+/* delta move (non-centred); returns the acceptance probability. */
+static double delta_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
+{
+    const pp_sampler_config *cfg = &s->cfg;
+    double dn = c->delta * exp(k->dstep * pp_rng_normal(&c->rng));
+    double sc = sqrt(c->delta / dn), ssn = 0, phin;
+    if (sh->logx) {
+        for (size_t i = 0; i < s->gn; i++) {
+            k->zp[i] = k->m + sc * (k->z[i] - k->m);
+            k->xp[i] = exp(k->zp[i]);
+        }
+        blur_grid(s, c, k->xp, k->axp);
+        phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
+    } else {
+        /* A x' = m a0 + sc (A x - m a0), evaluated inside phi_of */
+        phin = phi_of(s, sh, k->ax, sc, (1.0 - sc) * k->m * sh->a0, c->lambda, &ssn);
+    }
+    double loga = k->phi - phin + cfg->hyper_delta[0] * log(dn / c->delta) -
+                  cfg->hyper_delta[1] * (dn - c->delta);
+    double alpha = loga >= 0 ? 1.0 : exp(loga);
+    if (!isfinite(phin) || !(pp_rng_uniform(&c->rng) < alpha))
+        return isfinite(phin) ? alpha : 0.0;
+    c->delta = dn;
+    for (size_t i = 0; i < s->gm; i++)
+        k->u[i] *= sc;
+    if (sh->logx) {
+        swap_d(&k->z, &k->zp);
+        swap_d(&k->x, &k->xp);
+        swap_d(&k->ax, &k->axp);
+    } else {
+        for (size_t i = 0; i < s->gn; i++)
+            k->ax[i] = sc * k->ax[i] + (1.0 - sc) * k->m * sh->a0;
+    }
+    k->phi = phin;
+    k->ss = ssn;
+    return alpha;
+}
+
+/* level move (flat prior); returns the acceptance probability. */
+static double level_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
+{
+    double dm = k->mstep * pp_rng_normal(&c->rng), ssn = 0;
+    double sc = sh->logx ? exp(dm) : 1.0, add = sh->logx ? 0.0 : dm * sh->a0;
+    double phin = phi_of(s, sh, k->ax, sc, add, c->lambda, &ssn);
+    double loga = k->phi - phin, alpha = loga >= 0 ? 1.0 : exp(loga);
+    if (!isfinite(phin) || !(pp_rng_uniform(&c->rng) < alpha))
+        return isfinite(phin) ? alpha : 0.0;
+    k->m += dm;
+    for (size_t i = 0; i < s->gn; i++) {
+        k->ax[i] = sc * k->ax[i] + add;
+        if (sh->logx) {
+            k->z[i] += dm;
+            k->x[i] *= sc;
+        }
+    }
+    k->phi = phin;
+    k->ss = ssn;
+    return alpha;
+}
+
+/* gpcn, burn-in only: moves the centre a towards the Gauss-Newton point of
+ * the current state, u - (delta Q u + grad Phi) / P, with weight w. grad Phi
+ * = x * A'r (log) or A'r (none), r the likelihood residual on the observed
+ * pixels. Transforms: 3 (log) or 1 (none). For a Gaussian likelihood the
+ * point is the exact posterior mean from any state. */
+static void newton_centre(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k,
+                          double w)
+{
+    const double invn = 1.0 / (double)s->gn, del = c->delta, fi = fisher_of(sh, c);
+    double *r = c->rbuf;
+    memset(r, 0, s->gn * sizeof(double));
+    for (size_t row = 0; row < s->height; row++)
+        for (size_t col = 0; col < s->width; col++) {
+            size_t i = row * s->gw + col;
+            if (sh->gauss) {
+                r[i] = c->lambda * (k->ax[i] - sh->data[i]);
+                continue;
+            }
+            double mu = fmax(k->ax[i] + sh->shift, 1e-300);
+            r[i] = 1.0 - sh->data[i] / mu;
+        }
+    pp_fft_forward(s->fft, r, c->cbuf2);
+    for (size_t i = 0; i < s->gm; i++)
+        c->cbuf2[i] *= conj(s->otf[i]);
+    if (sh->logx) {
+        for (size_t i = 0; i < s->gm; i++)
+            c->cbuf2[i] *= invn;
+        pp_fft_inverse(s->fft, c->cbuf2, r);
+        for (size_t i = 0; i < s->gn; i++)
+            r[i] *= k->x[i];
+        pp_fft_forward(s->fft, r, c->cbuf2);
+    }
+    for (size_t i = sh->free_dc ? 1 : 0; i < s->gm; i++) {
+        double p = del * s->q[i] + fi * s->otf2[i];
+        pp_complex a = k->u[i] - (del * s->q[i] * k->u[i] + c->cbuf2[i]) / p;
+        k->ctr[i] += w * (a - k->ctr[i]);
+    }
+}
+
+/* ---- recording -------------------------------------------------------- */
+
+/* Moments of x, quantile recursion on z, probes and the trace row. */
+static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
+{
+    if (!sh->logx)
+        z_of(s, c, k->u, k->m, k->z); /* x = z */
+    const double *x = sh->logx ? k->x : k->z;
+    pp_chain_add_draw(s, c, x);
+    pp_moments_add_block(&k->zm, k->z, s->height, s->width, s->gw);
+    double t = (double)k->zm.count, zq = pp_norm_quantile(1.0 - sh->plo);
+    for (size_t r = 0; r < s->height; r++)
+        for (size_t col = 0; col < s->width; col++) {
+            size_t i = r * s->width + col;
+            double zv = k->z[r * s->gw + col];
+            double sd = t > 1 ? sqrt(k->zm.m2[i] / (t - 1)) : 0.0, mu = k->zm.mean[i];
+            if (t <= Q_WARM) {
+                k->qlo[i] = mu - zq * sd;
+                k->qhi[i] = mu + zq * sd;
+                continue;
+            }
+            double g = sd / (sh->phi_z * t);
+            k->qlo[i] += g * (sh->plo - (zv <= k->qlo[i]));
+            k->qhi[i] += g * (1.0 - sh->plo - (zv <= k->qhi[i]));
+        }
+    double *row = c->trace + c->kept * s->trace.ncols;
+    row[PP_COL_LAMBDA] = sh->gauss ? c->lambda : NAN;
+    row[PP_COL_DELTA] = c->delta;
+    row[PP_COL_LOGLIK] = loglik_of(s, sh, c, k);
+    for (size_t p = 0; p < s->nprobe; p++)
+        row[s->col_probe0 + p] = x[s->probe_r[p] * s->gw + s->probe_c[p]];
+    c->kept++;
+}
+
+/* ---- chain ------------------------------------------------------------ */
+
+static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
+{
+    k->m = sh->m0;
+    if (sh->free_dc)
+        k->m += sh->mdisp * pp_rng_normal(&c->rng);
+    c->delta = s->cfg.prior.delta_set ? s->cfg.prior.delta
+                                      : sh->delta0 * exp(0.5 * pp_rng_normal(&c->rng));
+    for (size_t i = 0; i < s->gn; i++)
+        c->rbuf[i] = sh->zstart[i] - k->m;
+    pp_fft_forward(s->fft, c->rbuf, k->u);
+    if (sh->free_dc)
+        k->u[0] = 0;
+    memcpy(k->ctr, k->u, s->gm * sizeof(pp_complex));
+    field_of(s, sh, c, k->u, k->m, k->z, k->x, k->ax);
+    k->phi = phi_of(s, sh, k->ax, 1.0, 0.0, c->lambda, &k->ss);
+    if (sh->gpcn)
+        newton_centre(s, sh, c, k, 1.0);
+    k->beta = sh->gpcn ? 0.5 : 0.1;
+    k->dstep = 0.1;
+    k->mstep = 0.02 * (sh->mdisp > 0 ? sh->mdisp / 0.1 : 1.0);
+    k->acc = 0;
+    k->zm.count = 0;
+    memset(k->zm.mean, 0, k->zm.len * sizeof(double));
+    memset(k->zm.m2, 0, k->zm.len * sizeof(double));
+}
+
+static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
+{
+    const pp_sampler_config *cfg = &s->cfg;
+    const pcn_shared *sh = s->kshared;
+    pcn_chain *k = c->kstate;
+    const int fix_d = cfg->prior.delta_set, fix_l = !sh->gauss || cfg->noise.sigma_set;
+    const double nobs = (double)s->height * (double)s->width;
+    start(s, sh, c, k);
+    if (!isfinite(k->phi))
+        return pp_fail(PP_ERR_NUMERIC, "the start image has no finite likelihood");
+    const unsigned long total = cfg->burn + cfg->iters;
+    for (unsigned long t = 0; t < total; t++) {
+        int burn = t < cfg->burn;
+        int accepted;
+        double a = field_move(s, sh, c, k, &accepted);
+        if (burn) {
+            k->beta = adapt(k->beta, a, T_FIELD, t, 1.0);
+        } else {
+            k->acc += (unsigned long)accepted;
+        }
+        if (!fix_d) {
+            double ad = delta_move(s, sh, c, k);
+            if (burn)
+                k->dstep = adapt(k->dstep, ad, T_SCALAR, t, 5.0);
+        }
+        if (sh->free_dc) {
+            double am = level_move(s, sh, c, k);
+            if (burn)
+                k->mstep = adapt(k->mstep, am, T_SCALAR, t, 1e300);
+        }
+        if (!fix_l) {
+            c->lambda = pp_rng_gamma(&c->rng, cfg->hyper_lambda[0] + 0.5 * nobs,
+                                     cfg->hyper_lambda[1] + 0.5 * k->ss);
+            k->phi = 0.5 * c->lambda * k->ss;
+        }
+        if (burn && sh->gpcn) /* centre: mean of the last <= 50 Newton points */
+            newton_centre(s, sh, c, k, 1.0 / (double)(t + 2 < 50 ? t + 2 : 50));
+        if (!(isfinite(c->delta) && c->delta > 0 && isfinite(k->m) && isfinite(k->phi)))
+            return pp_fail(PP_ERR_NUMERIC,
+                           "the state left the floating-point range at iteration %lu "
+                           "(delta=%g, level=%g); fix delta=D or rescale the frame",
+                           t + 1, c->delta, k->m);
+        if (!burn && (t - cfg->burn + 1) % cfg->thin == 0)
+            record(s, sh, c, k);
+        if (pp_sampler_tick(s))
+            return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");
+    }
+    c->acceptance = (double)k->acc / (double)cfg->iters;
+    c->step = k->beta;
+    c->condvar_sum = 0;
+    return PP_OK;
+}
+
+/* ---- planning --------------------------------------------------------- */
+
+static pp_status fail_nomem(void)
+{
+    return pp_fail(PP_ERR_NOMEM, "out of memory for the pCN chains");
+}
+
+/* Data on the grid and the constants of the likelihood. */
+static pp_status plan_likelihood(pp_sampler *s, pcn_shared *sh)
+{
+    const pp_noise_spec *nz = &s->cfg.noise;
+    double r2 = nz->kind == PP_NOISE_CAMERA ? nz->read * nz->read : 0.0, b = s->cfg.background;
+    if (!(b >= 0 && isfinite(b)))
+        return pp_fail(PP_ERR_ARG, "--background %g: must be finite and >= 0 (photons/pixel)", b);
+    sh->data = pp_fft_alloc_real(s->gn);
+    if (!sh->data)
+        return fail_nomem();
+    double sum = 0, lg = 0;
+    for (size_t i = 0; i < s->gn; i++) {
+        double v = s->ygrid[i];
+        if (!sh->gauss)
+            v = fmax(0.0, (v - nz->offset) / nz->gain + r2);
+        sh->data[i] = v;
+    }
+    for (size_t r = 0; r < s->height; r++)
+        for (size_t c = 0; c < s->width; c++) {
+            double v = sh->data[r * s->gw + c];
+            sum += v;
+            lg -= sh->gauss ? 0.0 : lgamma(v + 1.0);
+        }
+    double nobs = (double)s->height * (double)s->width;
+    sh->shift = b + r2;
+    sh->lgam = lg;
+    double x0 = fmax(sum / nobs - sh->shift, 1e-3 * (sum / nobs) + 1e-9);
+    sh->x0 = x0;
+    sh->fisher = sh->logx ? x0 * x0 / (x0 + sh->shift) : 1.0 / (x0 + sh->shift);
+    if (sh->gauss)
+        snprintf(s->likelihood, sizeof s->likelihood, "gaussian: y ~ N(A x, 1/lambda)");
+    else if (nz->kind == PP_NOISE_POISSON)
+        snprintf(s->likelihood, sizeof s->likelihood,
+                 "poisson: (y - %g)/%g ~ Poisson(A x + %g) (exact)", nz->offset, nz->gain, b);
+    else
+        snprintf(s->likelihood, sizeof s->likelihood,
+                 "camera, shifted-Poisson approximation (Snyder, Hammoud & White, JOSA A 1993): "
+                 "(y - %g)/%g + %g ~ Poisson(A x + %g + %g); read=0 is exactly poisson",
+                 nz->offset, nz->gain, r2, b, r2);
+    return PP_OK;
+}
+
+/* Start field: the data blurred once by A (noise suppressed), as photons
+ * minus background floored (log) or as is (none); level and delta guesses. */
+static pp_status plan_start(pp_sampler *s, pcn_shared *sh)
+{
+    sh->zstart = pp_fft_alloc_real(s->gn);
+    pp_complex *buf = pp_fft_alloc_complex(s->gm);
+    if (!sh->zstart || !buf) {
+        pp_fft_free_buffer(buf);
+        return fail_nomem();
+    }
+    double invn = 1.0 / (double)s->gn, sum = 0, sum2 = 0;
+    pp_fft_forward(s->fft, sh->data, buf);
+    for (size_t i = 0; i < s->gm; i++)
+        buf[i] *= s->otf[i] * invn;
+    pp_fft_inverse(s->fft, buf, sh->zstart);
+    double floor = fmax(0.05 * sh->x0, 1e-6);
+    for (size_t i = 0; i < s->gn; i++) {
+        double v = sh->zstart[i];
+        if (sh->logx)
+            v = log(fmax(v - sh->shift, floor));
+        sh->zstart[i] = v;
+        sum += v;
+        sum2 += v * v;
+    }
+    double mean = sum * invn, var = fmax(sum2 * invn - mean * mean, 1e-12);
+    const pp_prior_spec *pr = &s->cfg.prior;
+    sh->m0 = sh->free_dc ? mean : pr->mean;
+    sh->mdisp = sh->free_dc ? (sh->logx ? 0.1 : 0.1 * sqrt(var)) : 0.0;
+    /* delta guess: rank / (u' Q u) of the start field */
+    for (size_t i = 0; i < s->gn; i++)
+        s->chain[0].rbuf[i] = sh->zstart[i] - sh->m0;
+    pp_fft_forward(s->fft, s->chain[0].rbuf, buf);
+    double quad = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            if (i == 0 && sh->free_dc)
+                continue;
+            quad += pp_half_weight(k2, s->gw) * s->q[i] *
+                    (creal(buf[i]) * creal(buf[i]) + cimag(buf[i]) * cimag(buf[i]));
+        }
+    quad *= invn;
+    sh->delta0 = quad > 0 ? s->rank / quad : 1.0;
+    sh->a0 = creal(s->otf[0]);
+    pp_fft_free_buffer(buf);
+    return PP_OK;
+}
+
+static pp_status plan_chain_state(pp_sampler *s, pp_chain *c)
+{
+    pcn_chain *k = calloc(1, sizeof *k);
+    if (!k)
+        return fail_nomem();
+    c->kstate = k;
+    k->u = pp_fft_alloc_complex(s->gm);
+    k->up = pp_fft_alloc_complex(s->gm);
+    k->ctr = pp_fft_alloc_complex(s->gm);
+    double **g[] = {&k->z, &k->zp, &k->x, &k->xp, &k->ax, &k->axp};
+    for (int i = 0; i < 6; i++)
+        *g[i] = pp_fft_alloc_real(s->gn);
+    size_t n = s->height * s->width;
+    k->qlo = malloc(n * sizeof(double));
+    k->qhi = malloc(n * sizeof(double));
+    if (!k->u || !k->up || !k->ctr || !k->z || !k->zp || !k->x || !k->xp || !k->ax || !k->axp ||
+        !k->qlo || !k->qhi)
+        return fail_nomem();
+    return pp_moments_init(&k->zm, n);
+}
+
+static pp_status prepare_common(pp_sampler *s, int gpcn)
+{
+    pp_sampler_config *cfg = &s->cfg;
+    if (cfg->psf.width_auto)
+        return pp_fail(PP_ERR_ARG, "--psf ...=auto: sampling the PSF width is available with "
+                                   "--sampler gibbs or mtc only (give pcn/gpcn a fixed width)");
+    if (cfg->positivity == PP_POSITIVITY_AUTO)
+        cfg->positivity =
+            cfg->noise.kind == PP_NOISE_GAUSSIAN ? PP_POSITIVITY_NONE : PP_POSITIVITY_LOG;
+    pcn_shared *sh = calloc(1, sizeof *sh);
+    if (!sh)
+        return fail_nomem();
+    s->kshared = sh;
+    sh->gpcn = gpcn;
+    sh->logx = cfg->positivity == PP_POSITIVITY_LOG;
+    sh->gauss = cfg->noise.kind == PP_NOISE_GAUSSIAN;
+    sh->free_dc = s->q[0] == 0.0;
+    sh->plo = 0.5 * (1.0 - cfg->level);
+    double zq = pp_norm_quantile(1.0 - sh->plo);
+    sh->phi_z = exp(-0.5 * zq * zq) / sqrt(2 * PP_PI);
+    pp_status st = plan_likelihood(s, sh);
+    if (st == PP_OK)
+        st = plan_start(s, sh);
+    for (unsigned i = 0; st == PP_OK && i < cfg->chains; i++)
+        st = plan_chain_state(s, &s->chain[i]);
+    return st;
+}
+
+static pp_status prepare_pcn(pp_sampler *s)
+{
+    return prepare_common(s, 0);
+}
+
+static pp_status prepare_gpcn(pp_sampler *s)
+{
+    return prepare_common(s, 1);
+}
+
+/* Pooled bounds: the chains' quantile estimates averaged, mapped to x. */
+static pp_status pcn_finish(pp_sampler *s)
+{
+    const pcn_shared *sh = s->kshared;
+    size_t n = s->height * s->width;
+    double kc = (double)s->cfg.chains;
+    for (size_t i = 0; i < n; i++) {
+        double lo = 0, hi = 0;
+        for (unsigned j = 0; j < s->cfg.chains; j++) {
+            const pcn_chain *k = s->chain[j].kstate;
+            lo += k->qlo[i] / kc;
+            hi += k->qhi[i] / kc;
+        }
+        s->lo->data[i] = sh->logx ? exp(lo) : lo;
+        s->hi->data[i] = sh->logx ? exp(hi) : hi;
+    }
+    snprintf(s->bound_method, sizeof s->bound_method,
+             "streaming quantiles: per pixel and chain, Robbins-Monro recursion q += g (p - "
+             "1{z <= q}), g = sd/(phi(z_p) t), on %s, started from the Gaussian guess after %d "
+             "kept draws, averaged over chains%s; 32 bytes per pixel per chain",
+             sh->logx ? "z = log x" : "x", Q_WARM, sh->logx ? " and mapped through exp" : "");
+    return PP_OK;
+}
+
+static void pcn_release(pp_sampler *s)
+{
+    pcn_shared *sh = s->kshared;
+    if (sh) {
+        pp_fft_free_buffer(sh->data);
+        pp_fft_free_buffer(sh->zstart);
+        free(sh);
+        s->kshared = NULL;
+    }
+    for (unsigned i = 0; s->chain && i < s->cfg.chains; i++) {
+        pcn_chain *k = s->chain[i].kstate;
+        if (!k)
+            continue;
+        void *bufs[] = {k->u, k->up, k->ctr, k->z, k->zp, k->x, k->xp, k->ax, k->axp};
+        for (int j = 0; j < 9; j++)
+            pp_fft_free_buffer(bufs[j]);
+        free(k->qlo);
+        free(k->qhi);
+        pp_moments_free(&k->zm);
+        free(k);
+        s->chain[i].kstate = NULL;
+    }
+}
+
+const pp_kernel pp_kernel_pcn = {"pcn", prepare_pcn, pcn_run_chain, pcn_finish, pcn_release};
+const pp_kernel pp_kernel_gpcn = {"gpcn", prepare_gpcn, pcn_run_chain, pcn_finish, pcn_release};
