@@ -431,8 +431,15 @@ static int cmp_double(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
-/* Median of the outermost ring of pixels (the bead's background). */
-static pp_status border_median(const pp_image *img, double *med)
+static double sorted_median(double *v, size_t m)
+{
+    qsort(v, m, sizeof *v, cmp_double);
+    return m % 2 ? v[m / 2] : 0.5 * (v[m / 2 - 1] + v[m / 2]);
+}
+
+/* Median and median absolute deviation of the outermost ring of pixels (the
+ * bead's background and its noise). */
+static pp_status border_stats(const pp_image *img, double *med, double *mad)
 {
     size_t w = img->width, h = img->height;
     size_t n = (h == 1 || w == 1) ? w * h : 2 * w + 2 * h - 4, m = 0;
@@ -443,36 +450,69 @@ static pp_status border_median(const pp_image *img, double *med)
         for (size_t j = 0; j < w; j++)
             if (i == 0 || j == 0 || i == h - 1 || j == w - 1)
                 v[m++] = img->data[i * w + j];
-    qsort(v, m, sizeof *v, cmp_double);
-    *med = m % 2 ? v[m / 2] : 0.5 * (v[m / 2 - 1] + v[m / 2]);
+    *med = sorted_median(v, m);
+    for (size_t i = 0; i < m; i++)
+        v[i] = fabs(v[i] - *med);
+    *mad = sorted_median(v, m);
     free(v);
     return PP_OK;
 }
 
-/* Background-subtracts and clips in place; returns the centroid pixel. */
+/* Subtracts the background med, clips negatives and divides by the peak
+ * (so that sums of huge values cannot overflow). Returns the peak above
+ * med (0 if none, inf if the subtraction overflows). */
+static double bead_subtract(pp_image *img, double med)
+{
+    size_t n = img->width * img->height;
+    double peak = 0;
+    for (size_t i = 0; i < n; i++) {
+        double *p = &img->data[i];
+        *p = *p > med ? *p - med : 0.0;
+        peak = *p > peak ? *p : peak;
+    }
+    if (peak > 0 && isfinite(peak))
+        for (size_t i = 0; i < n; i++)
+            img->data[i] /= peak;
+    return peak;
+}
+
+/* Background-subtracts and clips in place; returns the centroid pixel.
+ * Refuses an image whose brightest pixel does not stand out from the border
+ * by more than 5 robust standard deviations (1.4826 MAD, the Gaussian
+ * consistency factor; a 5 sigma detection threshold is common practice, and
+ * the largest of 10^6 pure-noise pixels is below it): such a "bead" is
+ * noise or a negative image, and its kernel would be garbage. */
 static pp_status bead_clean(pp_image *img, const char *path, size_t *ci, size_t *cj)
 {
     size_t w = img->width, h = img->height;
     for (size_t i = 0; i < w * h; i++)
         if (!isfinite(img->data[i]))
             return pp_fail(PP_ERR_FORMAT, "%s: the PSF image has NaN/Inf pixels", path);
-    double med = 0, sum = 0, sy = 0, sx = 0;
-    pp_status st = border_median(img, &med);
+    double med = 0, mad = 0, sum = 0, sy = 0, sx = 0;
+    pp_status st = border_stats(img, &med, &mad);
     if (st != PP_OK)
         return st;
-    for (size_t i = 0; i < h; i++)
-        for (size_t j = 0; j < w; j++) {
-            double *p = &img->data[i * w + j];
-            *p = *p > med ? *p - med : 0.0;
-            sum += *p;
-            sy += *p * (double)i;
-            sx += *p * (double)j;
-        }
-    if (!(sum > 0))
+    double peak = bead_subtract(img, med);
+    if (!isfinite(peak))
+        return pp_fail(PP_ERR_NUMERIC, "%s: the PSF image's values are too large (subtracting "
+                       "the border median overflows); rescale it", path);
+    if (!(peak > 0))
         return pp_fail(PP_ERR_FORMAT,
                        "%s: no pixel of the PSF image is above its border median; is it a "
                        "bead image?",
                        path);
+    if (!(peak > 5.0 * 1.4826 * mad))
+        return pp_fail(PP_ERR_FORMAT,
+                       "%s: the brightest pixel of the PSF image is only %.3g above its border "
+                       "median, within 5 noise sds of the border (sd %.3g); is it a bead image?",
+                       path, peak, 1.4826 * mad);
+    for (size_t i = 0; i < h; i++)
+        for (size_t j = 0; j < w; j++) {
+            double p = img->data[i * w + j];
+            sum += p;
+            sy += p * (double)i;
+            sx += p * (double)j;
+        }
     *ci = (size_t)floor(sy / sum + 0.5);
     *cj = (size_t)floor(sx / sum + 0.5);
     return PP_OK;
