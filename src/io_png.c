@@ -17,22 +17,29 @@
 #include <stdlib.h>
 #include <string.h>
 
-/* What libpng said last; filled by on_error, read after the longjmp. */
+/* What libpng said: the error (filled by on_error, read after the longjmp)
+ * and the last warning before it, which often says what the error means (libpng
+ * warns "Image width is zero in IHDR", then errors "Invalid IHDR data"). */
 typedef struct png_msg {
-    char text[256];
+    char text[512];
+    char warning[200];
 } png_msg;
 
 static void on_error(png_structp png, png_const_charp msg)
 {
     png_msg *m = png_get_error_ptr(png);
-    snprintf(m->text, sizeof m->text, "%s", msg ? msg : "libpng error");
+    if (m->warning[0])
+        snprintf(m->text, sizeof m->text, "%s (%s)", msg ? msg : "libpng error", m->warning);
+    else
+        snprintf(m->text, sizeof m->text, "%s", msg ? msg : "libpng error");
     png_longjmp(png, 1);
 }
 
 static void on_warning(png_structp png, png_const_charp msg)
 {
-    (void)png; /* warnings (bad gamma, unknown chunks...) are ignored */
-    (void)msg;
+    png_msg *m = png_get_error_ptr(png); /* kept for an error's message only */
+    if (m && msg)
+        snprintf(m->warning, sizeof m->warning, "%s", msg);
 }
 
 /* The decoding plan fixed from the header. */
@@ -168,7 +175,7 @@ pp_status pp_png_read(const char *path, const pp_read_options *opt, pp_image **o
                        png_sig_cmp(sig, 0, n) ? "not a PNG file (bad signature)"
                                               : "truncated PNG (file ends in the signature)");
     }
-    png_msg m = {""};
+    png_msg m = {"", ""};
     png_structp png = png_create_read_struct(PNG_LIBPNG_VER_STRING, &m, on_error, on_warning);
     png_infop pi = png ? png_create_info_struct(png) : NULL;
     if (!pi) {
@@ -197,7 +204,7 @@ static unsigned png_store(double v, double offset, double scale)
 static pp_status png_encode(FILE *fp, const char *path, const pp_image *img, double offset,
                             double scale)
 {
-    png_msg m = {""};
+    png_msg m = {"", ""};
     png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, &m, on_error, on_warning);
     png_infop pi = png ? png_create_info_struct(png) : NULL;
     unsigned char *volatile row = NULL;
