@@ -76,6 +76,28 @@ static pp_status json_hyper(FILE *f, const char *name, const pp_trace *t, size_t
     return PP_OK;
 }
 
+/* pcn/gpcn: the likelihood, positivity, background and per-chain acceptance
+ * of the field move and its step beta (adapted in burn-in only). */
+static void json_pcn(FILE *f, const pp_sampler *s)
+{
+    const pp_sampler_config *c = &s->cfg;
+    fputs("  \"likelihood\": ", f);
+    json_string(f, s->likelihood);
+    fprintf(f, ",\n  \"positivity\": \"%s\",\n  \"background\": ",
+            c->positivity == PP_POSITIVITY_LOG ? "log" : "none");
+    json_number(f, c->background);
+    fputs(",\n  \"chain_moves\": [", f);
+    for (unsigned k = 0; k < c->chains; k++) {
+        fputs(k ? ", " : "", f);
+        fputs("{\"acceptance\": ", f);
+        json_number(f, s->chain[k].acceptance);
+        fputs(", \"step\": ", f);
+        json_number(f, s->chain[k].step);
+        fputc('}', f);
+    }
+    fputs("],\n", f);
+}
+
 typedef struct png_scales {
     double mean_offset, mean_scale, sd_offset, sd_scale;
 } png_scales;
@@ -139,6 +161,8 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
                "\"mean\": {\"offset\": %.10g, \"scale\": %.10g}, "
                "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}},\n",
             ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
+    if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN)
+        json_pcn(f, s);
     fputs("  \"warnings\": [", f);
     for (size_t i = 0; i < s->nwarnings; i++) {
         fputs(i ? ", " : "", f);
