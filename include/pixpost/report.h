@@ -1,0 +1,66 @@
+/* pixpost — the run report: one self-contained HTML page (report.html).
+ *
+ * The page holds everything inline (no network, scripts, fonts or linked
+ * images): the input frame and the posterior mean in grey, the sd map and
+ * the credible-bound width map (hi - lo) in pixpost's own dark-blue to
+ * yellow colour ramp with SVG colour bars labelled in input units, trace and
+ * autocorrelation plots per chain for every trace column (inline SVG),
+ * pooled histograms of lambda and delta, a diagnostics table coloured by
+ * thresholds, the settings, the warnings and a cautions paragraph.
+ * Images are 8-bit PNGs made in memory with libpng and embedded as base64
+ * data URIs; every string from the caller is HTML-escaped.
+ *
+ * The input is plain data, so the report does not depend on sampler
+ * internals. Nothing here is kept after the call; the caller owns every
+ * pointer. Cost: one sort per image (robust percentiles), one PNG encode per
+ * image, and per trace column and chain an autocorrelation by direct sums up
+ * to lag min(100, kept/4): O(chains x kept x 100) per column.
+ */
+#ifndef PIXPOST_REPORT_H
+#define PIXPOST_REPORT_H
+
+#include "pixpost/image.h"
+#include "pixpost/sampler.h"
+#include <stddef.h>
+
+/* One row of the diagnostics table. A non-finite value prints as a dash
+ * (e.g. R-hat of a fixed hyperparameter). */
+typedef struct pp_report_scalar {
+    const char *name;
+    double mean, sd, rhat, ess_bulk, ess_tail, mcse;
+} pp_report_scalar;
+
+typedef struct pp_report_input {
+    const char *title; /* e.g. the input file name; NULL: "pixpost run" */
+    /* Frame-sized images (all of the same size as the first non-NULL one);
+     * any may be NULL and its section is then omitted. The width map needs
+     * both lo and hi. */
+    const pp_image *frame, *mean, *sd, *lo, *hi;
+    /* Per-chain traces (values[(chain*kept + i)*ncols + col], column names
+     * "lambda", "delta", "loglik", "p_<r>_<c>"...); NULL: no trace plots. */
+    const pp_trace *trace;
+    int lambda_fixed, delta_fixed; /* non-zero: not sampled, no histogram */
+    /* Diagnostics table rows; nscalars == 0: the table says "not computed". */
+    const pp_report_scalar *scalars;
+    size_t nscalars;
+    unsigned chains; /* for the ESS-per-chain threshold; 0: trace->chains or 1 */
+    /* Settings shown as a two-column table, in this order. */
+    const char *const *settings_keys;
+    const char *const *settings_values;
+    size_t nsettings;
+    const char *const *warnings; /* plain sentences */
+    size_t nwarnings;
+    double level;      /* credible level of lo/hi, in (0, 1) */
+    const char *units; /* e.g. "camera units (ADU)"; NULL: "input units" */
+} pp_report_input;
+
+/* Zeroes *in and sets level = 0.95. */
+void pp_report_input_init(pp_report_input *in);
+
+/* Writes the page to path atomically (temporary name beside it, then
+ * rename): on failure nothing is left under path or beside it. Fails with
+ * PP_ERR_ARG for images of different sizes or a level outside (0, 1),
+ * PP_ERR_IO when the folder is missing or the write fails. */
+pp_status pp_report_write(const char *path, const pp_report_input *in);
+
+#endif

@@ -1,0 +1,619 @@
+/* pixpost — the run report page (report.html): one self-contained HTML file
+ * with the images, trace/autocorrelation plots, histograms, diagnostics,
+ * settings, warnings and cautions. The plots come from src/report_svg.c,
+ * the embedded PNGs from src/report_png.c; this file lays out the page and
+ * escapes every caller string.
+ *
+ * Cost: dominated by the images (a sort and a PNG encode each) and the
+ * autocorrelations (chains x columns x kept x min(100, kept/4) products).
+ * Written through one FILE opened by pp_atomic_open: a failure anywhere
+ * removes the temporary and leaves nothing under the final name. */
+#include "pixpost/report.h"
+#include "internal.h"
+#include "report_internal.h"
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#ifndef PIXPOST_VERSION
+#define PIXPOST_VERSION "unknown"
+#endif
+
+#define ROBUST_LO 0.5 /* percentiles of the image mappings */
+#define ROBUST_HI 99.5
+#define RHAT_MAX 1.01 /* Vehtari et al. 2021, section 4 (from memory) */
+#define ESS_PER_CHAIN 100.0
+
+static const char CAUTIONS[] =
+    "A reconstruction is a model-based estimate. Its error bars hold only under the stated "
+    "model \xe2\x80\x94 the PSF, the noise model and the prior. pixpost is not a diagnostic "
+    "device; for clinical or forensic use, follow local rules and practice.";
+
+/* Length of the valid UTF-8 sequence at p (1..4), or 0 if it is not one. */
+static int utf8_len(const unsigned char *p)
+{
+    int n = p[0] >= 0xF0 ? 4 : p[0] >= 0xE0 ? 3 : 2;
+    if (p[0] < 0xC2 || p[0] > 0xF4)
+        return 0;
+    for (int i = 1; i < n; i++)
+        if ((p[i] & 0xC0) != 0x80)
+            return 0; /* also stops at the terminating NUL */
+    if ((p[0] == 0xE0 && p[1] < 0xA0) || (p[0] == 0xED && p[1] >= 0xA0) ||
+        (p[0] == 0xF0 && p[1] < 0x90) || (p[0] == 0xF4 && p[1] >= 0x90))
+        return 0; /* overlong, surrogate or beyond U+10FFFF */
+    return n;
+}
+
+void pp_report_escape(FILE *f, const char *s)
+{
+    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p;) {
+        switch (*p) {
+        case '&':
+            fputs("&amp;", f);
+            break;
+        case '<':
+            fputs("&lt;", f);
+            break;
+        case '>':
+            fputs("&gt;", f);
+            break;
+        case '"':
+            fputs("&quot;", f);
+            break;
+        case '\'':
+            fputs("&#39;", f);
+            break;
+        default:
+            if (*p < 0x80) {
+                if (*p < 0x20 && *p != '\t' && *p != '\n')
+                    fputs("\xef\xbf\xbd", f);
+                else
+                    fputc(*p, f);
+            } else {
+                int n = utf8_len(p);
+                if (n == 0) {
+                    fputs("\xef\xbf\xbd", f);
+                    p++;
+                    continue;
+                }
+                fwrite(p, 1, (size_t)n, f);
+                p += n;
+                continue;
+            }
+        }
+        p++;
+    }
+}
+
+/* Column name to an id fragment: [A-Za-z0-9_-], anything else '_'. */
+static void id_of(const char *name, char *buf, size_t n)
+{
+    size_t i = 0;
+    for (; name[i] && i + 1 < n; i++) {
+        char c = name[i];
+        int ok = (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') ||
+                 c == '_' || c == '-';
+        buf[i] = ok ? c : '_';
+    }
+    buf[i] = '\0';
+}
+
+/* A reader's name for a trace column. */
+static void display_name(const char *name, char *buf, size_t n)
+{
+    unsigned r, c;
+    if (strcmp(name, "lambda") == 0)
+        snprintf(buf, n, "\xce\xbb (noise precision)");
+    else if (strcmp(name, "delta") == 0)
+        snprintf(buf, n, "\xce\xb4 (prior precision)");
+    else if (strcmp(name, "loglik") == 0)
+        snprintf(buf, n, "log-likelihood");
+    else if (sscanf(name, "p_%u_%u", &r, &c) == 2)
+        snprintf(buf, n, "pixel at row %u, column %u", r, c);
+    else
+        snprintf(buf, n, "%s", name);
+}
+
+static const char CSS[] =
+    "body{font-family:sans-serif;font-size:15px;line-height:1.45;color:#1d1d1d;"
+    "background:#fff;max-width:1220px;margin:0 auto;padding:0 20px 40px}\n"
+    "h1{font-size:1.5em;margin:18px 0 2px}h2{font-size:1.2em;border-bottom:1px solid #c8c8c8;"
+    "padding-bottom:3px;margin-top:34px}\n"
+    ".sub{color:#444;margin:0 0 8px}nav a{margin-right:14px;color:#1b4f8a}\n"
+    ".images{display:grid;grid-template-columns:repeat(2,minmax(0,1fr));gap:26px}\n"
+    "figure{margin:0}figure img{width:100%;height:auto;image-rendering:pixelated;"
+    "border:1px solid #999;display:block}\n"
+    "figcaption{font-size:13px;color:#333;margin-top:4px}\n"
+    ".pair{display:flex;flex-wrap:wrap;gap:10px;margin:6px 0 14px}\n"
+    "svg{max-width:100%;height:auto}svg text{font-family:sans-serif;fill:#222}\n"
+    "svg .tick{font-size:10px}svg .label{font-size:11px}svg .ptitle{font-size:12px;"
+    "font-weight:bold}\n"
+    "svg .area{fill:#fff;stroke:#888}svg .grid{stroke:#e4e4e4}svg .axis{stroke:#555}\n"
+    "svg .zero{stroke:#777;stroke-dasharray:3 3}\n"
+    "svg .series{fill:none;stroke-width:1;stroke-opacity:0.8}\n"
+    "svg .bar{fill:#5b7ea6;stroke:#fff;stroke-width:0.5}\n"
+    ".legend span{display:inline-block;margin-right:16px}.legend i{display:inline-block;"
+    "width:22px;height:3px;vertical-align:middle;margin-right:5px}\n"
+    "table{border-collapse:collapse;margin:8px 0}th,td{padding:3px 12px;text-align:left;"
+    "border-bottom:1px solid #ddd}th{background:#f0f0f0}\n"
+    "td.num{text-align:right;font-variant-numeric:tabular-nums}\n"
+    "td.warn{background:#f6dcb4;color:#5a2a00;font-weight:bold}.flag{font-size:11px}\n"
+    ".note{color:#444;font-style:italic}\n"
+    "#cautions p{border-left:4px solid #8a6d12;background:#f7f4ea;padding:8px 12px}\n"
+    "footer{margin-top:30px;font-size:12px;color:#555}\n";
+
+/* ---- Images ------------------------------------------------------------- */
+
+typedef struct page {
+    FILE *f;
+    const pp_report_input *in;
+    const char *units;
+    unsigned chains; /* for the ESS threshold */
+} page;
+
+/* Mapping range of an image: robust percentiles, widened when constant. */
+static pp_status image_range(const pp_image *img, double *lo, double *hi)
+{
+    pp_status st = pp_report_percentiles(img, ROBUST_LO, ROBUST_HI, lo, hi);
+    if (st == PP_OK && !(*hi > *lo)) {
+        double d = *lo != 0 ? fabs(*lo) * 1e-3 : 1.0;
+        *lo -= d;
+        *hi += d;
+    }
+    return st;
+}
+
+static void block_note(FILE *f, const pp_image *img)
+{
+    size_t k = pp_report_block(img);
+    if (k > 1)
+        fprintf(f, " Shown as means of %zu&times;%zu pixel blocks.", k, k);
+}
+
+/* One grey figure: frame or mean. */
+static pp_status grey_figure(page *pg, const char *id, const pp_image *img, const char *what)
+{
+    FILE *f = pg->f;
+    double lo, hi;
+    pp_status st = image_range(img, &lo, &hi);
+    if (st != PP_OK)
+        return st;
+    fprintf(f,
+            "<figure><img id=\"%s\" alt=\"%s\" width=\"%zu\" height=\"%zu\" "
+            "data-black=\"%.17g\" data-white=\"%.17g\" src=\"",
+            id, what, img->width, img->height, lo, hi);
+    if ((st = pp_report_png_uri(f, img, lo, hi, 0)) != PP_OK)
+        return st;
+    fprintf(f,
+            "\"><figcaption><b>%s</b> (%zu&times;%zu pixels). Grey, linear: black = %.4g, "
+            "white = %.4g ",
+            what, img->width, img->height, lo, hi);
+    pp_report_escape(f, pg->units);
+    fprintf(f,
+            " (the %.1fth and %.1fth percentiles of this image, so each grey image has "
+            "its own scale; values beyond are clipped).",
+            ROBUST_LO, ROBUST_HI);
+    block_note(f, img);
+    fputs("</figcaption></figure>\n", f);
+    return PP_OK;
+}
+
+/* One colour figure with its colour bar: sd or width. */
+static pp_status colour_figure(page *pg, const char *key, const pp_image *img, const char *what,
+                               const char *explain)
+{
+    FILE *f = pg->f;
+    double lo, hi;
+    pp_status st = image_range(img, &lo, &hi);
+    if (st != PP_OK)
+        return st;
+    fprintf(f,
+            "<figure><img id=\"%s-image\" alt=\"%s\" width=\"%zu\" height=\"%zu\" "
+            "data-low=\"%.17g\" data-high=\"%.17g\" src=\"",
+            key, what, img->width, img->height, lo, hi);
+    if ((st = pp_report_png_uri(f, img, lo, hi, 1)) != PP_OK)
+        return st;
+    fputs("\">\n", f);
+    char id[64];
+    snprintf(id, sizeof id, "%s-colourbar", key);
+    pp_report_svg_colourbar(f, id, lo, hi, pg->units);
+    fprintf(f,
+            "<figcaption><b>%s</b>: %s Colour, linear from %.4g (darkest) to %.4g "
+            "(brightest) ",
+            what, explain, lo, hi);
+    pp_report_escape(f, pg->units);
+    fprintf(f, " (the %.1fth and %.1fth percentiles of this map; values beyond are clipped).",
+            ROBUST_LO, ROBUST_HI);
+    block_note(f, img);
+    fputs("</figcaption></figure>\n", f);
+    return PP_OK;
+}
+
+static pp_status width_figure(page *pg)
+{
+    const pp_report_input *in = pg->in;
+    pp_image *w = NULL;
+    pp_status st = pp_image_create(in->lo->width, in->lo->height, &w);
+    if (st != PP_OK)
+        return st;
+    for (size_t i = 0; i < w->width * w->height; i++)
+        w->data[i] = in->hi->data[i] - in->lo->data[i];
+    char explain[200];
+    snprintf(explain, sizeof explain,
+             "hi &minus; lo, the width of the central %.4g%% credible interval of each pixel.",
+             100.0 * in->level);
+    st = colour_figure(pg, "width", w, "Credible-interval width", explain);
+    pp_image_free(w);
+    return st;
+}
+
+static pp_status images_section(page *pg)
+{
+    const pp_report_input *in = pg->in;
+    if (!in->frame && !in->mean && !in->sd && !(in->lo && in->hi))
+        return PP_OK;
+    fputs("<section id=\"images\"><h2>Images</h2>\n<div class=\"images\">\n", pg->f);
+    pp_status st = PP_OK;
+    if (in->frame)
+        st = grey_figure(pg, "frame-image", in->frame, "Input frame");
+    if (st == PP_OK && in->mean)
+        st = grey_figure(pg, "mean-image", in->mean, "Posterior mean");
+    if (st == PP_OK && in->sd)
+        st = colour_figure(pg, "sd", in->sd, "Posterior standard deviation",
+                           "the spread of the posterior of each pixel.");
+    if (st == PP_OK && in->lo && in->hi)
+        st = width_figure(pg);
+    fputs("</div></section>\n", pg->f);
+    return st;
+}
+
+/* ---- Traces, autocorrelation, histograms -------------------------------- */
+
+static int column_fixed(const pp_report_input *in, const char *name)
+{
+    return (strcmp(name, "lambda") == 0 && in->lambda_fixed) ||
+           (strcmp(name, "delta") == 0 && in->delta_fixed);
+}
+
+/* Non-zero when every finite value of column col is the same. */
+static int column_constant(const pp_trace *t, size_t col, double *value)
+{
+    size_t n = (size_t)t->chains * t->kept;
+    for (size_t i = 1; i < n; i++)
+        if (t->values[i * t->ncols + col] != t->values[col])
+            return 0;
+    *value = n ? t->values[col] : NAN;
+    return 1;
+}
+
+/* The rest of a note on a column that is not plotted: fixed (at v, or not
+ * sampled at all when v is not finite) or constant at v; then tail. */
+static void same_note(FILE *f, int fixed, double v, const char *tail)
+{
+    if (fixed && isfinite(v))
+        fprintf(f, " was fixed at %.6g (not sampled)%s", v, tail);
+    else if (fixed)
+        fprintf(f, " is not sampled under this model%s", tail);
+    else
+        fprintf(f, " has the same value (%.6g) in every draw%s", v, tail);
+}
+
+static void legend(FILE *f, unsigned chains)
+{
+    fputs("<p class=\"legend\">", f);
+    for (unsigned c = 0; c < chains; c++)
+        fprintf(f, "<span><i style=\"background:%s\"></i>chain %u</span>",
+                pp_report_chain_colour(c), c + 1);
+    fputs("</p>\n", f);
+}
+
+/* The autocorrelation plot of column col; acf has room for maxlag + 1 per
+ * chain. */
+static void acf_plot(FILE *f, const pp_trace *t, size_t col, const char *idf, const char *dn,
+                     size_t maxlag, double *acf)
+{
+    pp_series *sr = calloc(t->chains, sizeof *sr);
+    size_t ns = 0;
+    for (unsigned c = 0; sr && c < t->chains; c++) {
+        double *out = acf + (size_t)c * (maxlag + 1);
+        const double *y = t->values + (size_t)c * t->kept * t->ncols + col;
+        if (pp_report_acf(y, t->kept, t->ncols, maxlag, out))
+            sr[ns++] = (pp_series){out, maxlag + 1, 1, 0.0, 1.0};
+    }
+    char id[160], title[200];
+    snprintf(id, sizeof id, "acf-%s", idf);
+    snprintf(title, sizeof title, "%s: autocorrelation", dn);
+    pp_plot p = {id, title, "lag (kept draws)", "autocorrelation", 400, 210, sr, ns, 1, -0.2, 1.0};
+    pp_report_svg_lines(f, &p);
+    free(sr);
+}
+
+static pp_status trace_pair(page *pg, size_t col, size_t maxlag, double *acf)
+{
+    FILE *f = pg->f;
+    const pp_trace *t = pg->in->trace;
+    char idf[120], dn[160];
+    id_of(t->names[col], idf, sizeof idf);
+    display_name(t->names[col], dn, sizeof dn);
+    double v;
+    int fixed = column_fixed(pg->in, t->names[col]);
+    if (fixed || column_constant(t, col, &v)) {
+        fprintf(f, "<p class=\"note\" id=\"trace-%s-note\">", idf);
+        pp_report_escape(f, dn);
+        same_note(f, fixed, t->values[col], ": no trace or autocorrelation plot.</p>\n");
+        return PP_OK;
+    }
+    pp_series *sr = calloc(t->chains, sizeof *sr);
+    if (!sr)
+        return pp_fail(PP_ERR_NOMEM, "report: out of memory for the trace plots");
+    for (unsigned c = 0; c < t->chains; c++)
+        sr[c] = (pp_series){t->values + (size_t)c * t->kept * t->ncols + col, t->kept, t->ncols,
+                            1.0, 1.0};
+    char id[160], title[200];
+    snprintf(id, sizeof id, "trace-%s", idf);
+    snprintf(title, sizeof title, "%s: trace", dn);
+    pp_plot p = {id, title, "kept draw", "", 660, 210, sr, t->chains, 0, NAN, NAN};
+    fputs("<div class=\"pair\">\n", f);
+    pp_report_svg_lines(f, &p);
+    free(sr);
+    acf_plot(f, t, col, idf, dn, maxlag, acf);
+    fputs("</div>\n", f);
+    return PP_OK;
+}
+
+static pp_status traces_section(page *pg)
+{
+    const pp_trace *t = pg->in->trace;
+    FILE *f = pg->f;
+    if (!t || t->chains == 0 || t->kept == 0 || t->ncols == 0)
+        return PP_OK;
+    size_t maxlag = t->kept / 4 < 100 ? t->kept / 4 : 100;
+    if (maxlag < 1)
+        maxlag = t->kept > 1 ? 1 : 0;
+    fprintf(f,
+            "<section id=\"traces\"><h2>Traces and autocorrelation</h2>\n"
+            "<p>One line per chain; %u chains of %zu kept draws each (after burn-in and "
+            "thinning). Autocorrelation per chain at lags 0 to %zu, "
+            "&rho;(k) = &Sigma;(y<sub>t</sub>&minus;&#563;)(y<sub>t+k</sub>&minus;&#563;) / "
+            "&Sigma;(y<sub>t</sub>&minus;&#563;)&sup2;. ",
+            t->chains, t->kept, maxlag);
+    if (t->kept > PP_REPORT_MAX_POINTS)
+        fprintf(f,
+                "Traces longer than %d draws are drawn as the minimum and maximum of each "
+                "block of draws, so single spikes stay visible.",
+                PP_REPORT_MAX_POINTS);
+    fputs("</p>\n", f);
+    legend(f, t->chains);
+    double *acf = malloc((size_t)t->chains * (maxlag + 1) * sizeof *acf);
+    if (!acf)
+        return pp_fail(PP_ERR_NOMEM, "report: out of memory for autocorrelations");
+    pp_status st = PP_OK;
+    for (size_t col = 0; col < t->ncols && st == PP_OK; col++)
+        st = trace_pair(pg, col, maxlag, acf);
+    free(acf);
+    fputs("</section>\n", f);
+    return st;
+}
+
+static void histogram(page *pg, const char *name)
+{
+    const pp_trace *t = pg->in->trace;
+    FILE *f = pg->f;
+    size_t col = 0;
+    while (col < t->ncols && strcmp(t->names[col], name) != 0)
+        col++;
+    char dn[160];
+    display_name(name, dn, sizeof dn);
+    double v;
+    if (col == t->ncols) {
+        fprintf(f, "<p class=\"note\" id=\"hist-%s-note\">No %s column in the trace.</p>\n", name,
+                name);
+    } else if (column_fixed(pg->in, name) || column_constant(t, col, &v)) {
+        fprintf(f, "<p class=\"note\" id=\"hist-%s-note\">", name);
+        pp_report_escape(f, dn);
+        same_note(f, column_fixed(pg->in, name), t->values[col], ": no histogram.</p>\n");
+    } else {
+        char id[64];
+        snprintf(id, sizeof id, "hist-%s", name);
+        pp_report_svg_hist(f, id, dn, t->values + col, (size_t)t->chains * t->kept, t->ncols);
+    }
+}
+
+static void histograms_section(page *pg)
+{
+    if (!pg->in->trace || pg->in->trace->kept == 0 || pg->in->trace->chains == 0)
+        return;
+    fputs("<section id=\"histograms\"><h2>Hyperparameter posteriors</h2>\n"
+          "<p>Histograms of the draws of all chains pooled.</p>\n<div class=\"pair\">\n",
+          pg->f);
+    histogram(pg, "lambda");
+    histogram(pg, "delta");
+    fputs("</div></section>\n", pg->f);
+}
+
+/* ---- Tables ------------------------------------------------------------- */
+
+static void num_cell(FILE *f, double v, int warn, const char *flag)
+{
+    fprintf(f, "<td class=\"num%s\">", warn ? " warn" : "");
+    if (isfinite(v))
+        fprintf(f, "%.4g", v);
+    else
+        fputs("&ndash;", f);
+    if (warn)
+        fprintf(f, " <span class=\"flag\">%s</span>", flag);
+    fputs("</td>", f);
+}
+
+static void diagnostics_section(page *pg)
+{
+    const pp_report_input *in = pg->in;
+    FILE *f = pg->f;
+    double ess_min = ESS_PER_CHAIN * pg->chains;
+    fprintf(f,
+            "<section id=\"diagnostics\"><h2>Convergence diagnostics</h2>\n"
+            "<p>Rank-normalised split-R&#770;, bulk and tail effective sample sizes (ESS) "
+            "and the Monte Carlo standard error (MCSE) of the mean. Flagged in colour: "
+            "R&#770; &gt; %.2f, or ESS &lt; %.0f per chain (here &lt; %.0f for %u "
+            "chains). These thresholds are common practice (Vehtari et al., Bayesian "
+            "Analysis 2021).</p>\n",
+            RHAT_MAX, ESS_PER_CHAIN, ess_min, pg->chains);
+    if (in->nscalars == 0) {
+        fputs("<p id=\"diag-none\">Diagnostics were not computed for this run.</p></section>\n", f);
+        return;
+    }
+    size_t flagged = 0;
+    fputs("<table id=\"diag-table\">\n<tr><th>quantity</th><th>mean</th><th>sd</th>"
+          "<th>MCSE</th><th>R&#770;</th><th>bulk ESS</th><th>tail ESS</th></tr>\n",
+          f);
+    for (size_t i = 0; i < in->nscalars; i++) {
+        const pp_report_scalar *s = &in->scalars[i];
+        int wr = s->rhat > RHAT_MAX, wb = s->ess_bulk < ess_min, wt = s->ess_tail < ess_min;
+        flagged += wr || wb || wt;
+        fputs("<tr><td>", f);
+        pp_report_escape(f, s->name);
+        fputs("</td>", f);
+        num_cell(f, s->mean, 0, "");
+        num_cell(f, s->sd, 0, "");
+        num_cell(f, s->mcse, 0, "");
+        num_cell(f, s->rhat, wr, "high");
+        num_cell(f, s->ess_bulk, wb, "low");
+        num_cell(f, s->ess_tail, wt, "low");
+        fputs("</tr>\n", f);
+    }
+    fprintf(f, "</table>\n<p id=\"diag-count\">%zu of %zu quantities flagged.</p></section>\n",
+            flagged, in->nscalars);
+}
+
+static void settings_section(page *pg)
+{
+    const pp_report_input *in = pg->in;
+    FILE *f = pg->f;
+    fputs("<section id=\"settings\"><h2>Settings</h2>\n<table id=\"settings-table\">\n", f);
+    for (size_t i = 0; i < in->nsettings; i++) {
+        fputs("<tr><th>", f);
+        pp_report_escape(f, in->settings_keys[i]);
+        fputs("</th><td>", f);
+        pp_report_escape(f, in->settings_values[i]);
+        fputs("</td></tr>\n", f);
+    }
+    fprintf(f, "<tr><th>credible level of the bounds</th><td>%.4g%%</td></tr>\n",
+            100.0 * in->level);
+    fputs("</table></section>\n", f);
+}
+
+static void warnings_section(page *pg)
+{
+    const pp_report_input *in = pg->in;
+    FILE *f = pg->f;
+    fputs("<section id=\"warnings\"><h2>Warnings</h2>\n", f);
+    if (in->nwarnings == 0) {
+        fputs("<p id=\"warnings-none\">No warnings were raised.</p></section>\n", f);
+        return;
+    }
+    fputs("<ul id=\"warnings-list\">\n", f);
+    for (size_t i = 0; i < in->nwarnings; i++) {
+        fputs("<li>", f);
+        pp_report_escape(f, in->warnings[i]);
+        fputs("</li>\n", f);
+    }
+    fputs("</ul></section>\n", f);
+}
+
+/* ---- The page ----------------------------------------------------------- */
+
+static void head(page *pg, const char *title)
+{
+    FILE *f = pg->f;
+    fputs("<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+          "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n"
+          "<title>pixpost report: ",
+          f);
+    pp_report_escape(f, title);
+    fprintf(f,
+            "</title>\n<style>\n%s</style>\n</head>\n<body>\n<header>\n"
+            "<h1>Posterior reconstruction report</h1>\n<p class=\"sub\" id=\"title\">",
+            CSS);
+    pp_report_escape(f, title);
+    const pp_image *any = pg->in->frame ? pg->in->frame : pg->in->mean;
+    if (any)
+        fprintf(f, " &middot; %zu&times;%zu pixels", any->width, any->height);
+    fputs(" &middot; values in ", f);
+    pp_report_escape(f, pg->units);
+    fputs("</p>\n<nav><a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
+          "<a href=\"#histograms\">hyperparameters</a><a href=\"#diagnostics\">diagnostics</a>"
+          "<a href=\"#settings\">settings</a><a href=\"#warnings\">warnings</a>"
+          "<a href=\"#cautions\">cautions</a></nav>\n</header>\n",
+          f);
+}
+
+static void tail(FILE *f)
+{
+    fprintf(f,
+            "<section id=\"cautions\"><h2>Cautions</h2>\n<p id=\"cautions-text\">%s</p>\n"
+            "</section>\n<footer>Written by pixpost %s. This page is self-contained: "
+            "it loads nothing from anywhere.</footer>\n</body>\n</html>\n",
+            CAUTIONS, PIXPOST_VERSION);
+}
+
+/* Checks sizes and pointers; the first non-NULL image fixes the size. */
+static pp_status validate(const char *path, const pp_report_input *in)
+{
+    const pp_image *im[5] = {in->frame, in->mean, in->sd, in->lo, in->hi};
+    const pp_image *ref = NULL;
+    for (int i = 0; i < 5; i++) {
+        if (!im[i])
+            continue;
+        if (!im[i]->data || im[i]->width == 0 || im[i]->height == 0)
+            return pp_fail(PP_ERR_ARG, "%s: report image %d is empty", path, i);
+        if (!ref)
+            ref = im[i];
+        else if (im[i]->width != ref->width || im[i]->height != ref->height)
+            return pp_fail(PP_ERR_ARG, "%s: report images differ in size (%zux%zu vs %zux%zu)",
+                           path, im[i]->width, im[i]->height, ref->width, ref->height);
+    }
+    if (!(in->level > 0 && in->level < 1))
+        return pp_fail(PP_ERR_ARG, "%s: credible level must be in (0, 1), got %g", path, in->level);
+    const pp_trace *t = in->trace;
+    if (t && t->chains && t->kept && t->ncols && (!t->values || !t->names))
+        return pp_fail(PP_ERR_ARG, "%s: report trace has no values or names", path);
+    if ((in->nscalars && !in->scalars) || (in->nwarnings && !in->warnings) ||
+        (in->nsettings && (!in->settings_keys || !in->settings_values)))
+        return pp_fail(PP_ERR_ARG, "%s: report table with a count but no rows", path);
+    return PP_OK;
+}
+
+void pp_report_input_init(pp_report_input *in)
+{
+    memset(in, 0, sizeof *in);
+    in->level = 0.95;
+}
+
+pp_status pp_report_write(const char *path, const pp_report_input *in)
+{
+    pp_status st = validate(path, in);
+    if (st != PP_OK)
+        return st;
+    char tmp[PP_PATH_MAX];
+    page pg = {NULL, in, in->units ? in->units : "input units", in->chains};
+    if (pg.chains == 0)
+        pg.chains = in->trace && in->trace->chains ? in->trace->chains : 1;
+    if ((st = pp_atomic_open(path, tmp, &pg.f)) != PP_OK)
+        return st;
+    head(&pg, in->title ? in->title : "pixpost run");
+    st = images_section(&pg);
+    if (st == PP_OK)
+        st = traces_section(&pg);
+    if (st == PP_OK) {
+        histograms_section(&pg);
+        diagnostics_section(&pg);
+        settings_section(&pg);
+        warnings_section(&pg);
+        tail(pg.f);
+    }
+    if (st != PP_OK) {
+        pp_atomic_abort(tmp, pg.f);
+        return st;
+    }
+    return pp_atomic_commit(path, tmp, pg.f);
+}

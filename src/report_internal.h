@@ -1,0 +1,98 @@
+/* pixpost — internals shared by the report files (src/report.c, the page;
+ * src/report_svg.c, the SVG plots; src/report_png.c, the embedded images).
+ * Not installed. Every writer takes an open FILE and never closes it;
+ * errors of stdio are caught once, by ferror() at the commit. */
+#ifndef PIXPOST_REPORT_INTERNAL_H
+#define PIXPOST_REPORT_INTERNAL_H
+
+#include "pixpost/image.h"
+#include "pixpost/status.h"
+#include <stddef.h>
+#include <stdio.h>
+
+/* ---- Text (src/report.c) ------------------------------------------------ */
+/* Writes s HTML-escaped (& < > " ' as entities; invalid UTF-8 bytes and
+ * control characters other than tab and newline as U+FFFD). NULL: nothing. */
+void pp_report_escape(FILE *f, const char *s);
+
+/* ---- Axes and plots (src/report_svg.c) ---------------------------------- */
+/* Tick marks on [lo, hi]: first, step and count, with the axis stretched to
+ * whole steps (amin..amax); nice steps are 1, 2 or 5 times a power of ten. */
+typedef struct pp_ticks {
+    double amin, amax, step;
+    int count;
+    int sci;      /* labels in scientific notation, mantissa x 10^exponent */
+    int exponent; /* of the largest |tick| when sci */
+    int decimals; /* digits after the point (of the mantissa when sci) */
+} pp_ticks;
+/* target: about how many ticks (>= 2). lo == hi (or non-finite) gives an
+ * axis of width 1 around lo (or 0..1). */
+void pp_report_ticks(double lo, double hi, int target, pp_ticks *t);
+/* Label of value v on axis t, e.g. "0.25", "1.2e-4"; buf of n >= 32 bytes. */
+void pp_report_tick_label(const pp_ticks *t, double v, char *buf, size_t n);
+
+/* One data series: y[i * stride] for i < n, at x = x0 + i * dx. */
+typedef struct pp_series {
+    const double *y;
+    size_t n, stride;
+    double x0, dx;
+} pp_series;
+
+/* A line plot with one polyline per series (chain colours by index).
+ * Series longer than PP_REPORT_MAX_POINTS are drawn as the minimum and the
+ * maximum of each block of draws, in the order they occurred, so spikes
+ * survive the decimation. zero_line: draw y = 0; y_floor: the y axis covers
+ * at least [y_floor, ...] when y_floor is finite (the ACF uses -0.2). */
+#define PP_REPORT_MAX_POINTS 1000
+typedef struct pp_plot {
+    const char *id, *title, *xlabel, *ylabel; /* escaped when written */
+    double width, height;                     /* SVG user units */
+    const pp_series *series;
+    size_t nseries;
+    int zero_line;
+    double y_floor, y_ceil; /* NAN: from the data */
+} pp_plot;
+void pp_report_svg_lines(FILE *f, const pp_plot *p);
+
+/* Histogram of y[i * stride], i < n (non-finite values skipped), with
+ * clamp(ceil(sqrt(n)), 10, 50) equal bins. */
+void pp_report_svg_hist(FILE *f, const char *id, const char *xlabel, const double *y, size_t n,
+                        size_t stride);
+
+/* Horizontal colour bar of the ramp from lo to hi, ticks in units. */
+void pp_report_svg_colourbar(FILE *f, const char *id, double lo, double hi, const char *units);
+
+/* The colour of chain k (cycles after 8) as "#rrggbb". */
+const char *pp_report_chain_colour(size_t k);
+
+/* Autocorrelation of y[i * stride], i < n, at lags 0..maxlag (out has
+ * maxlag + 1 entries): rho(k) = sum_t (y_t - m)(y_{t+k} - m) / sum_t
+ * (y_t - m)^2, the usual biased estimator. Returns 0 (and leaves out
+ * unset) when n < 2, maxlag >= n, or the series is constant or not finite. */
+int pp_report_acf(const double *y, size_t n, size_t stride, size_t maxlag, double *out);
+
+/* ---- Images (src/report_png.c) ------------------------------------------ */
+/* The colour ramp of the sd and width maps: t in [0, 1] (clamped) to sRGB,
+ * linear between PP_REPORT_RAMP_STOPS control points. */
+#define PP_REPORT_RAMP_STOPS 4
+void pp_report_ramp(double t, unsigned char rgb[3]);
+/* Control point k: position in [0, 1] and colour. */
+void pp_report_ramp_stop(int k, double *pos, unsigned char rgb[3]);
+
+/* Percentiles plo, phi (in [0, 100], linear interpolation between order
+ * statistics as numpy's default) of the finite pixels. Fails with
+ * PP_ERR_NOMEM, or PP_ERR_NUMERIC when no pixel is finite. */
+pp_status pp_report_percentiles(const pp_image *img, double plo, double phi, double *lo,
+                                double *hi);
+
+/* Pixels of the longest side shown; larger images are shown as block means. */
+#define PP_REPORT_MAX_SIDE 1024
+/* The block size used for img: ceil(max(width, height) / PP_REPORT_MAX_SIDE). */
+size_t pp_report_block(const pp_image *img);
+
+/* Writes "data:image/png;base64,..." of img mapped linearly so lo -> 0 and
+ * hi -> 255 (clipped; NaN shown as 0 / the ramp's start): grey when
+ * colour == 0, the ramp otherwise. hi must be > lo. */
+pp_status pp_report_png_uri(FILE *f, const pp_image *img, double lo, double hi, int colour);
+
+#endif

@@ -1,0 +1,229 @@
+/* pixpost — the report's images: 8-bit PNGs encoded in memory with libpng
+ * (png_set_write_fn into a growing buffer) and written as base64 data URIs,
+ * robust percentiles for the grey mapping, and pixpost's own colour ramp.
+ *
+ * Cost per image: one copy and sort of the finite pixels (percentiles), one
+ * pass to map and encode; memory: the encoded PNG plus one row. Images with
+ * a side longer than PP_REPORT_MAX_SIDE are shown as block means. libpng
+ * reports errors by longjmp: the encoder keeps its allocations in volatile
+ * locals and frees them on that path. */
+#include "internal.h"
+#include "report_internal.h"
+#include <math.h>
+#include <png.h>
+#include <setjmp.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* The ramp: dark navy, through a muted blue and a sand grey, to a warm
+ * yellow. Luminance rises at every step, so the order of values reads the
+ * same in grey print. Our own choice of points. */
+static const struct {
+    double pos;
+    unsigned char rgb[3];
+} ramp[PP_REPORT_RAMP_STOPS] = {
+    {0.00, {14, 22, 62}},
+    {0.35, {38, 92, 150}},
+    {0.70, {168, 160, 118}},
+    {1.00, {250, 228, 84}},
+};
+
+void pp_report_ramp_stop(int k, double *pos, unsigned char rgb[3])
+{
+    *pos = ramp[k].pos;
+    memcpy(rgb, ramp[k].rgb, 3);
+}
+
+void pp_report_ramp(double t, unsigned char rgb[3])
+{
+    if (!(t > 0.0))
+        t = 0.0; /* also NaN */
+    if (t > 1.0)
+        t = 1.0;
+    int k = 0;
+    while (k < PP_REPORT_RAMP_STOPS - 2 && t > ramp[k + 1].pos)
+        k++;
+    double u = (t - ramp[k].pos) / (ramp[k + 1].pos - ramp[k].pos);
+    for (int c = 0; c < 3; c++) {
+        double v = ramp[k].rgb[c] + u * (ramp[k + 1].rgb[c] - ramp[k].rgb[c]);
+        rgb[c] = (unsigned char)lround(v);
+    }
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* numpy's default ("linear", type 7) percentile of sorted v. */
+static double percentile_sorted(const double *v, size_t n, double p)
+{
+    double h = (double)(n - 1) * (p / 100.0);
+    size_t lo = (size_t)floor(h);
+    size_t hi = lo + 1 < n ? lo + 1 : lo;
+    return v[lo] + (h - (double)lo) * (v[hi] - v[lo]);
+}
+
+pp_status pp_report_percentiles(const pp_image *img, double plo, double phi, double *lo, double *hi)
+{
+    size_t n = img->width * img->height, m = 0;
+    double *v = malloc((n ? n : 1) * sizeof *v);
+    if (!v)
+        return pp_fail(PP_ERR_NOMEM, "report: out of memory for percentiles");
+    for (size_t i = 0; i < n; i++)
+        if (isfinite(img->data[i]))
+            v[m++] = img->data[i];
+    if (m == 0) {
+        free(v);
+        return pp_fail(PP_ERR_NUMERIC, "report: an image has no finite pixel");
+    }
+    qsort(v, m, sizeof *v, cmp_double);
+    *lo = percentile_sorted(v, m, plo);
+    *hi = percentile_sorted(v, m, phi);
+    free(v);
+    return PP_OK;
+}
+
+size_t pp_report_block(const pp_image *img)
+{
+    size_t side = img->width > img->height ? img->width : img->height;
+    return (side + PP_REPORT_MAX_SIDE - 1) / PP_REPORT_MAX_SIDE;
+}
+
+/* A growing byte buffer for libpng's write callback. */
+typedef struct membuf {
+    unsigned char *data;
+    size_t len, cap;
+} membuf;
+
+static void mem_write(png_structp png, png_bytep bytes, png_size_t n)
+{
+    membuf *b = png_get_io_ptr(png);
+    if (b->len + n > b->cap) {
+        size_t cap = b->cap ? b->cap : 4096;
+        while (cap < b->len + n)
+            cap *= 2;
+        unsigned char *d = realloc(b->data, cap);
+        if (!d)
+            png_error(png, "out of memory");
+        b->data = d;
+        b->cap = cap;
+    }
+    memcpy(b->data + b->len, bytes, n);
+    b->len += n;
+}
+
+static void mem_flush(png_structp png)
+{
+    (void)png;
+}
+
+static void on_error(png_structp png, png_const_charp msg)
+{
+    (void)msg;
+    png_longjmp(png, 1);
+}
+
+static void on_warning(png_structp png, png_const_charp msg)
+{
+    (void)png;
+    (void)msg;
+}
+
+/* Mean of the finite pixels of the k x k block at block (br, bc); NaN when
+ * there are none. */
+static double block_mean(const pp_image *img, size_t k, size_t br, size_t bc)
+{
+    double sum = 0;
+    size_t cnt = 0;
+    for (size_t r = br * k; r < (br + 1) * k && r < img->height; r++)
+        for (size_t c = bc * k; c < (bc + 1) * k && c < img->width; c++) {
+            double v = img->data[r * img->width + c];
+            if (isfinite(v)) {
+                sum += v;
+                cnt++;
+            }
+        }
+    return cnt ? sum / (double)cnt : NAN;
+}
+
+/* Fills one output row (w pixels, 1 or 3 bytes each). */
+static void map_row(const pp_image *img, size_t k, size_t br, size_t w, double lo, double hi,
+                    int colour, unsigned char *row)
+{
+    for (size_t bc = 0; bc < w; bc++) {
+        double v = k == 1 ? img->data[br * img->width + bc] : block_mean(img, k, br, bc);
+        double t = (v - lo) / (hi - lo);
+        if (colour) {
+            pp_report_ramp(t, row + 3 * bc);
+        } else {
+            double s = isfinite(t) ? round(255.0 * t) : 0.0;
+            row[bc] = (unsigned char)(s < 0 ? 0 : s > 255 ? 255 : s);
+        }
+    }
+}
+
+/* Encodes the mapped image into b (b->data owned by the caller after). */
+static pp_status encode(const pp_image *img, double lo, double hi, int colour, membuf *b)
+{
+    size_t k = pp_report_block(img);
+    size_t w = (img->width + k - 1) / k, h = (img->height + k - 1) / k;
+    png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, NULL, on_error, on_warning);
+    png_infop pi = png ? png_create_info_struct(png) : NULL;
+    unsigned char *volatile row = NULL;
+    if (!pi) {
+        png_destroy_write_struct(&png, NULL);
+        return pp_fail(PP_ERR_NOMEM, "report: out of memory for the PNG encoder");
+    }
+    if (setjmp(png_jmpbuf(png))) {
+        free(row);
+        png_destroy_write_struct(&png, &pi);
+        return pp_fail(PP_ERR_NOMEM, "report: PNG encoding failed (out of memory)");
+    }
+    png_set_write_fn(png, b, mem_write, mem_flush);
+    png_set_IHDR(png, pi, (png_uint_32)w, (png_uint_32)h, 8,
+                 colour ? PNG_COLOR_TYPE_RGB : PNG_COLOR_TYPE_GRAY, PNG_INTERLACE_NONE,
+                 PNG_COMPRESSION_TYPE_DEFAULT, PNG_FILTER_TYPE_DEFAULT);
+    png_write_info(png, pi);
+    row = malloc(w * (colour ? 3 : 1));
+    if (!row)
+        png_error(png, "out of memory");
+    for (size_t r = 0; r < h; r++) {
+        map_row(img, k, r, w, lo, hi, colour, row);
+        png_write_row(png, row);
+    }
+    png_write_end(png, pi);
+    free(row);
+    png_destroy_write_struct(&png, &pi);
+    return PP_OK;
+}
+
+static void base64(FILE *f, const unsigned char *d, size_t n)
+{
+    static const char a[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+    for (size_t i = 0; i < n; i += 3) {
+        unsigned v = (unsigned)d[i] << 16;
+        if (i + 1 < n)
+            v |= (unsigned)d[i + 1] << 8;
+        if (i + 2 < n)
+            v |= d[i + 2];
+        char q[4] = {a[(v >> 18) & 63], a[(v >> 12) & 63], i + 1 < n ? a[(v >> 6) & 63] : '=',
+                     i + 2 < n ? a[v & 63] : '='};
+        fwrite(q, 1, 4, f);
+    }
+}
+
+pp_status pp_report_png_uri(FILE *f, const pp_image *img, double lo, double hi, int colour)
+{
+    if (!(hi > lo))
+        return pp_fail(PP_ERR_ARG, "report: image mapping needs hi > lo (got %g, %g)", lo, hi);
+    membuf b = {NULL, 0, 0};
+    pp_status st = encode(img, lo, hi, colour, &b);
+    if (st == PP_OK) {
+        fputs("data:image/png;base64,", f);
+        base64(f, b.data, b.len);
+    }
+    free(b.data);
+    return st;
+}
