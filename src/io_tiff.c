@@ -384,6 +384,15 @@ pp_status pp_tiff_read(const char *path, const pp_read_options *opt, pp_image **
     return st;
 }
 
+/* libtiff's text plus the system's reason (a full disk says "No space left
+ * on device", a file-size limit "File too large"); e is errno right after
+ * the failing call, 0 when none was set. */
+static pp_status write_failed(const char *path, const tiff_msg *m, int e)
+{
+    return pp_fail(PP_ERR_IO, "%s: write failed: %s%s%s%s", path, msg_or(m, "libtiff error"),
+                   e ? " (" : "", e ? strerror(e) : "", e ? ")" : "");
+}
+
 /* Writes img into the open handle t, one float scanline at a time. */
 static pp_status tiff_encode(TIFF *t, const char *path, const pp_image *img, const tiff_msg *m)
 {
@@ -400,15 +409,16 @@ static pp_status tiff_encode(TIFF *t, const char *path, const pp_image *img, con
     if (!row)
         return pp_fail(PP_ERR_NOMEM, "%s: out of memory for a TIFF row", path);
     pp_status st = PP_OK;
+    errno = 0;
     for (size_t y = 0; y < img->height && st == PP_OK; y++) {
         for (size_t x = 0; x < img->width; x++)
             row[x] = (float)img->data[y * img->width + x];
         if (TIFFWriteScanline(t, row, (uint32_t)y, 0) < 0)
-            st = pp_fail(PP_ERR_IO, "%s: write failed: %s", path, msg_or(m, "libtiff error"));
+            st = write_failed(path, m, errno);
     }
     free(row);
     if (st == PP_OK && !TIFFFlush(t))
-        st = pp_fail(PP_ERR_IO, "%s: write failed: %s", path, msg_or(m, "libtiff error"));
+        st = write_failed(path, m, errno);
     return st;
 }
 
