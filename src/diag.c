@@ -358,7 +358,7 @@ pp_status pp_diag_compute(const double *x, size_t chains, size_t n, pp_diag_scal
 
 /* One pixel of pp_diag_pixel_maps. */
 static void pixel_diag(const double *const *hm, const double *const *m2, size_t k, double m,
-                       size_t p, double *rhat, double *mcse, double *ess)
+                       double within_add, size_t p, double *rhat, double *mcse, double *ess)
 {
     double mean = 0, w = 0;
     for (size_t j = 0; j < k; j++) {
@@ -375,8 +375,9 @@ static void pixel_diag(const double *const *hm, const double *const *m2, size_t 
     double draws = (double)k * m;
     double var_mean = fmax(b_over_m / (double)k, var_plus / draws);
     int ok = isfinite(var_plus) && isfinite(mean);
+    double w_x = w + within_add, var_plus_x = (m - 1) / m * w_x + b_over_m;
     if (rhat)
-        *rhat = ok && w > 0 ? sqrt(var_plus / w) : NAN;
+        *rhat = ok && w_x > 0 ? sqrt(var_plus_x / w_x) : NAN;
     if (mcse)
         *mcse = ok ? sqrt(var_mean) : NAN;
     if (ess)
@@ -384,8 +385,8 @@ static void pixel_diag(const double *const *hm, const double *const *m2, size_t 
 }
 
 pp_status pp_diag_pixel_maps(const double *const *half_mean, const double *const *half_m2,
-                             size_t nhalves, size_t m, size_t npix, double *rhat, double *mcse,
-                             double *ess)
+                             size_t nhalves, size_t m, size_t npix, double within_add,
+                             double *rhat, double *mcse, double *ess)
 {
     if (!half_mean || !half_m2)
         return pp_fail(PP_ERR_ARG, "pixel diagnostics: no half-chain moments given");
@@ -398,7 +399,7 @@ pp_status pp_diag_pixel_maps(const double *const *half_mean, const double *const
         if (!half_mean[j] || !half_m2[j])
             return pp_fail(PP_ERR_ARG, "pixel diagnostics: half-chain %zu has no moments", j);
     for (size_t p = 0; p < npix; p++)
-        pixel_diag(half_mean, half_m2, nhalves, (double)m, p, rhat ? rhat + p : NULL,
+        pixel_diag(half_mean, half_m2, nhalves, (double)m, within_add, p, rhat ? rhat + p : NULL,
                    mcse ? mcse + p : NULL, ess ? ess + p : NULL);
     return PP_OK;
 }

@@ -152,6 +152,8 @@ struct pp_sampler {
     pp_chain *chain;
     pp_trace trace;
     pp_moments pooled;  /* all halves of all chains, pooled in chain order */
+    struct pp_diag_scalar *diag;     /* one per trace column (sampler_diag.c) */
+    pp_image *rhat_map, *mcse_map;   /* per-pixel split-R-hat and MCSE, or NULL */
     char *names[4 + PP_MAX_PROBES]; /* 3 scalars, psf_width, probes */
     double *trace_values;
     pp_image *mean, *sd, *lo, *hi;
@@ -175,6 +177,15 @@ enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3
  * moments of the half of chain c that draw number c->kept falls in. Call
  * once per kept draw, before c->kept is incremented. */
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
+
+/* report.html of a finished run (src/output_report.c). */
+struct pp_run_info;
+pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image *frame,
+                           const struct pp_run_info *info);
+
+/* Scalar diagnostics, pixel maps and their warnings (src/sampler_diag.c),
+ * after the estimates are pooled. */
+pp_status pp_sampler_diagnose(pp_sampler *s);
 
 /* Adds a warning sentence (printf-style) to the sampler. */
 void pp_sampler_warn(pp_sampler *s, const char *fmt, ...) PP_PRINTF(2, 3);

@@ -6,6 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "internal.h"
+#include "pixpost/diag.h"
 #include "pixpost/io.h"
 #include "pixpost/output.h"
 #include "pixpost/psf.h"
@@ -47,9 +48,25 @@ static void json_number(FILE *f, double v)
         fputs("null", f);
 }
 
-/* Pooled posterior summary of one trace column. */
-static pp_status json_hyper(FILE *f, const char *name, const pp_trace *t, size_t col, int fixed)
+/* Diagnostics of one trace column: R-hat, ESS, MCSE, ESS per second. */
+static void json_diag(FILE *f, const pp_diag_scalar *d, double seconds)
 {
+    fputs("\"rhat\": ", f);
+    json_number(f, d->rhat);
+    fputs(", \"ess_bulk\": ", f);
+    json_number(f, d->ess_bulk);
+    fputs(", \"ess_tail\": ", f);
+    json_number(f, d->ess_tail);
+    fputs(", \"mcse\": ", f);
+    json_number(f, d->mcse_mean);
+    fputs(", \"ess_bulk_per_second\": ", f);
+    json_number(f, seconds > 0 ? d->ess_bulk / seconds : NAN);
+}
+
+/* Pooled posterior summary of one trace column, with its diagnostics. */
+static pp_status json_hyper(FILE *f, const char *name, const pp_sampler *s, size_t col, int fixed)
+{
+    const pp_trace *t = &s->trace;
     size_t n = (size_t)t->chains * t->kept;
     double *v = malloc(n * sizeof *v);
     if (!v)
@@ -71,9 +88,72 @@ static pp_status json_hyper(FILE *f, const char *name, const pp_trace *t, size_t
     json_number(f, quantile_sorted(v, n, 0.05));
     fputs(", \"q95\": ", f);
     json_number(f, quantile_sorted(v, n, 0.95));
-    fprintf(f, ", \"fixed\": %s}", fixed ? "true" : "false");
+    fprintf(f, ", \"fixed\": %s, ", fixed ? "true" : "false");
+    json_diag(f, &s->diag[col], s->seconds);
+    fputc('}', f);
     free(v);
     return PP_OK;
+}
+
+/* 50th/99th percentile and maximum of the finite values of a map. */
+static void json_map_percentiles(FILE *f, const char *name, const pp_image *m)
+{
+    size_t n = m->width * m->height, k = 0;
+    double *v = malloc(n * sizeof *v);
+    if (!v) {
+        fprintf(f, "\"%s\": null", name);
+        return;
+    }
+    for (size_t i = 0; i < n; i++)
+        if (isfinite(m->data[i]))
+            v[k++] = m->data[i];
+    fprintf(f, "\"%s\": {\"p50\": ", name);
+    if (k) {
+        qsort(v, k, sizeof *v, cmp_double);
+        json_number(f, quantile_sorted(v, k, 0.5));
+        fputs(", \"p99\": ", f);
+        json_number(f, quantile_sorted(v, k, 0.99));
+        fputs(", \"max\": ", f);
+        json_number(f, v[k - 1]);
+    } else {
+        fputs("null, \"p99\": null, \"max\": null", f);
+    }
+    fprintf(f, ", \"nonfinite\": %zu}", n - k);
+    free(v);
+}
+
+/* The diagnostics block: every trace column, the pixel maps, thresholds. */
+static void json_diagnostics(FILE *f, const pp_sampler *s)
+{
+    const pp_trace *t = &s->trace;
+    fputs("  \"diagnostics\": {\n    \"method\": \"rank-normalised split-R-hat, bulk- and "
+          "tail-ESS (Vehtari et al. 2021); MCSE = sd/sqrt(ESS)\",\n"
+          "    \"thresholds\": {\"rhat\": 1.01, \"ess_per_chain\": 100},\n"
+          "    \"scalars\": {",
+          f);
+    for (size_t j = 0; j < t->ncols; j++) {
+        fprintf(f, "%s\n      \"%s\": {\"mean\": ", j ? "," : "", t->names[j]);
+        json_number(f, s->diag[j].mean);
+        fputs(", \"sd\": ", f);
+        json_number(f, s->diag[j].sd);
+        fputs(", ", f);
+        json_diag(f, &s->diag[j], s->seconds);
+        fputc('}', f);
+    }
+    fputs("\n    },\n    \"pixel_maps\": ", f);
+    if (s->rhat_map) {
+        fputs("{", f);
+        json_map_percentiles(f, "rhat", s->rhat_map);
+        fputs(", ", f);
+        json_map_percentiles(f, "mcse", s->mcse_map);
+        fputs(", \"method\": \"classic split-R-hat of the draws (Rao-Blackwellised where "
+              "the sampler has a conditional mean) and batch-means MCSE of the posterior-mean "
+              "estimate, over the 2 x chains half-chains\"}",
+              f);
+    } else {
+        fputs("null", f);
+    }
+    fputs("\n  },\n", f);
 }
 
 /* pcn/gpcn: the likelihood, positivity, background and per-chain acceptance
@@ -140,13 +220,13 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
                "\"form\": \"Gamma(shape, rate)\"},\n",
             c->hyper_lambda[0], c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1]);
     fputs("  \"hyper\": {\n", f);
-    st = json_hyper(f, "lambda", &s->trace, PP_COL_LAMBDA, c->noise.sigma_set);
+    st = json_hyper(f, "lambda", s, PP_COL_LAMBDA, c->noise.sigma_set);
     fputs(",\n", f);
     if (st == PP_OK)
-        st = json_hyper(f, "delta", &s->trace, PP_COL_DELTA, c->prior.delta_set);
+        st = json_hyper(f, "delta", s, PP_COL_DELTA, c->prior.delta_set);
     if (st == PP_OK && s->col_width >= 0) { /* sampled PSF width (sigma or NA) */
         fputs(",\n", f);
-        st = json_hyper(f, "psf_width", &s->trace, (size_t)s->col_width, 0);
+        st = json_hyper(f, "psf_width", s, (size_t)s->col_width, 0);
     }
     fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
     json_string(f, s->bound_method);
@@ -163,6 +243,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
             ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
     if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN)
         json_pcn(f, s);
+    json_diagnostics(f, s);
     fputs("  \"warnings\": [", f);
     for (size_t i = 0; i < s->nwarnings; i++) {
         fputs(i ? ", " : "", f);
@@ -229,9 +310,15 @@ pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *
         st = pp_png_write16(path, s->mean, ps.mean_offset, ps.mean_scale);
     if (st == PP_OK && (st = join(path, dir, "sd.png")) == PP_OK)
         st = pp_png_write16(path, s->sd, ps.sd_offset, ps.sd_scale);
+    if (st == PP_OK && s->rhat_map && (st = join(path, dir, "rhat.tif")) == PP_OK)
+        st = pp_tiff_write_f32(path, s->rhat_map);
+    if (st == PP_OK && s->mcse_map && (st = join(path, dir, "mcse.tif")) == PP_OK)
+        st = pp_tiff_write_f32(path, s->mcse_map);
     if (st == PP_OK && (st = join(path, dir, "trace.csv")) == PP_OK)
         st = write_trace(path, s);
     if (st == PP_OK && (st = join(path, dir, "summary.json")) == PP_OK)
         st = write_summary(path, s, frame, info, &ps);
+    if (st == PP_OK && (st = join(path, dir, "report.html")) == PP_OK)
+        st = pp_output_report(path, s, frame, info);
     return st;
 }

@@ -532,6 +532,8 @@ pp_status pp_sampler_run(pp_sampler *s)
         res = pool_estimates(s);
     if (res == PP_OK && s->kernel->finish)
         res = s->kernel->finish(s);
+    if (res == PP_OK)
+        res = pp_sampler_diagnose(s);
     return res;
 }
 
@@ -571,6 +573,9 @@ void pp_sampler_free(pp_sampler *s)
     }
     free(s->chain);
     pp_moments_free(&s->pooled);
+    free(s->diag);
+    pp_image_free(s->rhat_map);
+    pp_image_free(s->mcse_map);
     pp_fft_free_buffer(s->otf);
     free(s->otf2);
     free(s->q);

@@ -231,7 +231,7 @@ static void test_pixel_maps(double *x)
         pm[j] = hm[j];
         p2[j] = h2[j];
     }
-    CHECK(pp_diag_pixel_maps(pm, p2, NH, M, NPIX, rhat, mcse, ess) == PP_OK, "pixel maps");
+    CHECK(pp_diag_pixel_maps(pm, p2, NH, M, NPIX, 0.0, rhat, mcse, ess) == PP_OK, "pixel maps");
     int all_close = 1;
     for (size_t p = 0; p < NPIX; p++)
         all_close &= rel_close(rhat[p], direct_rhat(x, p), 1e-12);
@@ -254,15 +254,20 @@ static void test_pixel_maps(double *x)
     h2[0][0] = h2[1][0] = 0;
     h2[1][2] = INFINITY;
     double r2[3], m2v[3], e2[3];
-    CHECK(pp_diag_pixel_maps(pm, p2, 2, M, 3, r2, m2v, e2) == PP_OK, "two halves");
+    CHECK(pp_diag_pixel_maps(pm, p2, 2, M, 3, 0.0, r2, m2v, e2) == PP_OK, "two halves");
     CHECK(isnan(r2[0]) && m2v[0] == 0 && isnan(e2[0]), "constant pixel: rhat NaN, mcse 0, ess NaN");
     CHECK(isnan(r2[2]) && isnan(m2v[2]) && isnan(e2[2]), "Inf moment: NaN");
-    CHECK(pp_diag_pixel_maps(pm, p2, 2, M, 3, NULL, m2v, NULL) == PP_OK, "NULL outputs allowed");
-    CHECK(pp_diag_pixel_maps(pm, p2, 1, M, 3, r2, m2v, e2) == PP_ERR_ARG &&
+    CHECK(pp_diag_pixel_maps(pm, p2, 2, M, 3, 0.0, NULL, m2v, NULL) == PP_OK, "NULL outputs allowed");
+    /* within_add raises W for rhat only: rhat moves towards 1, mcse stays. */
+    double r3[3], m3[3];
+    CHECK(pp_diag_pixel_maps(pm, p2, 2, M, 3, 5.0, r3, m3, NULL) == PP_OK, "within_add");
+    CHECK(r3[1] < r2[1] && m3[1] == m2v[1],
+          "within_add: rhat %g < %g, mcse unchanged", r3[1], r2[1]);
+    CHECK(pp_diag_pixel_maps(pm, p2, 1, M, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG &&
               strstr(pp_error_message(), "half-chains"),
           "one half-chain refused: %s", pp_error_message());
-    CHECK(pp_diag_pixel_maps(pm, p2, 2, 1, 3, r2, m2v, e2) == PP_ERR_ARG, "m = 1 refused");
-    CHECK(pp_diag_pixel_maps(NULL, p2, 2, M, 3, r2, m2v, e2) == PP_ERR_ARG, "NULL refused");
+    CHECK(pp_diag_pixel_maps(pm, p2, 2, 1, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG, "m = 1 refused");
+    CHECK(pp_diag_pixel_maps(NULL, p2, 2, M, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG, "NULL refused");
 }
 
 int main(void)

@@ -103,6 +103,12 @@ pp_status pp_diag_compute(const double *x, size_t chains, size_t n, pp_diag_scal
  * With only nhalves batches this MCSE is itself uncertain (its variance
  * estimate has nhalves - 1 degrees of freedom): a rough map, not a bound.
  *
+ * within_add (>= 0, usually 0) is added to W for rhat only: a sampler that
+ * records a Rao-Blackwellised field mu = E[x | theta] passes the mean
+ * conditional variance E[Var(x | theta)], so rhat is that of the draws x
+ * (whose within variance is W + within_add), while mcse stays that of the
+ * mean of mu, the estimator it reports.
+ *
  * Outputs rhat, mcse, ess: npix doubles each; any of them may be NULL (not
  * computed). They must not alias the inputs. Undefined values: rhat is NaN
  * when W is 0 (a constant pixel) or any input is not finite; ess is NaN when
@@ -111,7 +117,7 @@ pp_status pp_diag_compute(const double *x, size_t chains, size_t n, pp_diag_scal
  * or m < 2 (nothing is written).
  */
 pp_status pp_diag_pixel_maps(const double *const *half_mean, const double *const *half_m2,
-                             size_t nhalves, size_t m, size_t npix, double *rhat, double *mcse,
-                             double *ess);
+                             size_t nhalves, size_t m, size_t npix, double within_add,
+                             double *rhat, double *mcse, double *ess);
 
 #endif

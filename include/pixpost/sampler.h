@@ -106,6 +106,15 @@ typedef struct pp_trace {
 
 const pp_trace *pp_sampler_trace(const pp_sampler *s);
 
+/* Convergence diagnostics (valid after a successful run): one
+ * pp_diag_scalar (include/pixpost/diag.h) per trace column, in column
+ * order; per-pixel split-R-hat and MCSE of the mean maps, frame-sized, or
+ * NULL when a half-chain kept fewer than 2 draws. */
+struct pp_diag_scalar;
+const struct pp_diag_scalar *pp_sampler_diagnostics(const pp_sampler *s);
+const pp_image *pp_sampler_rhat_map(const pp_sampler *s);
+const pp_image *pp_sampler_mcse_map(const pp_sampler *s);
+
 /* Short text naming how the bounds were computed (for summary.json). */
 const char *pp_sampler_bound_method(const pp_sampler *s);
 

@@ -1,0 +1,71 @@
+/* pixpost — report.html for a finished run: gathers the sampler's images,
+ * traces, diagnostics, settings and warnings into the plain-data input of
+ * pp_report_write (src/report.c). Cost: formatting a dozen strings. */
+#include <stdio.h>
+#include <stdlib.h>
+#include "internal.h"
+#include "pixpost/diag.h"
+#include "pixpost/output.h"
+#include "pixpost/report.h"
+
+enum { NSET = 12 };
+
+pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image *frame,
+                           const pp_run_info *info)
+{
+    const pp_sampler_config *c = &s->cfg;
+    static const char *const keys[NSET] = {
+        "input", "sampler", "chains", "burn-in / iterations / thin", "seed", "boundary",
+        "grid", "PSF", "noise", "prior", "hyperpriors Gamma(shape, rate)", "bounds"};
+    char val[NSET][320];
+    snprintf(val[0], sizeof val[0], "%s", info && info->input_path ? info->input_path : "-");
+    snprintf(val[1], sizeof val[1], "%s", pp_sampler_kind_name(c->kind));
+    snprintf(val[2], sizeof val[2], "%u (kept %zu draws each)", c->chains, s->trace.kept);
+    snprintf(val[3], sizeof val[3], "%lu / %lu / %lu", c->burn, c->iters, c->thin);
+    snprintf(val[4], sizeof val[4], "%llu", (unsigned long long)c->seed);
+    snprintf(val[5], sizeof val[5], "%s", pp_boundary_name(c->boundary));
+    snprintf(val[6], sizeof val[6], "%zu x %zu (frame %zu x %zu)", s->gw, s->gh, s->width,
+             s->height);
+    snprintf(val[7], sizeof val[7], "%s", info && info->psf_spec ? info->psf_spec : "-");
+    pp_noise_format(&c->noise, val[8], sizeof val[8]);
+    pp_prior_format(&c->prior, val[9], sizeof val[9]);
+    snprintf(val[10], sizeof val[10], "lambda (%g, %g), delta (%g, %g)", c->hyper_lambda[0],
+             c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1]);
+    snprintf(val[11], sizeof val[11], "%g %% central; %s", 100 * c->level, s->bound_method);
+    const char *vals[NSET];
+    for (int i = 0; i < NSET; i++)
+        vals[i] = val[i];
+
+    pp_report_scalar *rows = calloc(s->trace.ncols, sizeof *rows);
+    if (!rows)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the report");
+    for (size_t j = 0; j < s->trace.ncols; j++) {
+        const pp_diag_scalar *d = &s->diag[j];
+        rows[j] = (pp_report_scalar){s->trace.names[j], d->mean, d->sd, d->rhat,
+                                     d->ess_bulk, d->ess_tail, d->mcse_mean};
+    }
+    pp_report_input in;
+    pp_report_input_init(&in);
+    in.title = info && info->input_path ? info->input_path : NULL;
+    in.frame = frame;
+    in.mean = s->mean;
+    in.sd = s->sd;
+    in.lo = s->lo;
+    in.hi = s->hi;
+    in.trace = &s->trace;
+    in.lambda_fixed = c->noise.kind != PP_NOISE_GAUSSIAN || c->noise.sigma_set;
+    in.delta_fixed = c->prior.delta_set;
+    in.scalars = rows;
+    in.nscalars = s->trace.ncols;
+    in.chains = c->chains;
+    in.settings_keys = keys;
+    in.settings_values = vals;
+    in.nsettings = NSET;
+    in.warnings = (const char *const *)s->warnings;
+    in.nwarnings = s->nwarnings;
+    in.level = c->level;
+    in.units = c->noise.kind == PP_NOISE_GAUSSIAN ? "input units" : "camera units (ADU)";
+    pp_status st = pp_report_write(path, &in);
+    free(rows);
+    return st;
+}

@@ -1,0 +1,123 @@
+/* pixpost — convergence diagnostics of a finished run (issue 4): for every
+ * trace column the rank-normalised split-R-hat, bulk- and tail-ESS and MCSE
+ * (src/diag.c, Vehtari et al. 2021), per-pixel split-R-hat and MCSE maps
+ * from the chains' half moments (for a Rao-Blackwellised field, the split-
+ * R-hat of the draws x, see pp_diag_pixel_maps), and plain-word warnings for R-hat > 1.01
+ * or an ESS below 100 per chain (the thresholds Vehtari et al. recommend).
+ *
+ * Cost: one gather of each column (chains x kept doubles of scratch, freed
+ * before returning) and its O(S log S) diagnostics; one pass over the
+ * 2 x chains half moments for the maps. Runs once, after the chains. */
+#include <math.h>
+#include <stdlib.h>
+#include "internal.h"
+#include "pixpost/diag.h"
+
+#define RHAT_LIMIT 1.01
+#define ESS_PER_CHAIN 100.0
+
+static void warn_column(pp_sampler *s, const char *name, const pp_diag_scalar *d)
+{
+    double ess_min = ESS_PER_CHAIN * s->cfg.chains;
+    if (isfinite(d->rhat) && d->rhat > RHAT_LIMIT)
+        pp_sampler_warn(s,
+                        "R-hat of %s is %.3f (above %.2f): the chains disagree; run longer "
+                        "(--burn, --iters) before trusting its summaries",
+                        name, d->rhat, RHAT_LIMIT);
+    if (isfinite(d->ess_bulk) && d->ess_bulk < ess_min)
+        pp_sampler_warn(s,
+                        "bulk-ESS of %s is %.0f (below %.0f = 100 per chain): its mean and sd "
+                        "are imprecise; run longer (--iters)",
+                        name, d->ess_bulk, ess_min);
+    if (isfinite(d->ess_tail) && d->ess_tail < ess_min)
+        pp_sampler_warn(s,
+                        "tail-ESS of %s is %.0f (below %.0f = 100 per chain): its 5%% and 95%% "
+                        "quantiles are imprecise; run longer (--iters)",
+                        name, d->ess_tail, ess_min);
+}
+
+static pp_status scalar_diagnostics(pp_sampler *s)
+{
+    const pp_trace *t = &s->trace;
+    size_t n = t->kept, total = (size_t)t->chains * n;
+    double *x = malloc(total * sizeof *x);
+    s->diag = calloc(t->ncols, sizeof *s->diag);
+    if (!x || !s->diag) {
+        free(x);
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the diagnostics");
+    }
+    pp_status st = PP_OK;
+    for (size_t j = 0; j < t->ncols && st == PP_OK; j++) {
+        for (size_t i = 0; i < total; i++)
+            x[i] = t->values[i * t->ncols + j];
+        st = pp_diag_compute(x, t->chains, n, &s->diag[j]);
+        if (st == PP_OK)
+            warn_column(s, t->names[j], &s->diag[j]);
+    }
+    free(x);
+    return st;
+}
+
+static pp_status pixel_maps(pp_sampler *s)
+{
+    size_t m = s->chain[0].half[0].count, nh = 2 * (size_t)s->cfg.chains;
+    if (m < 2)
+        return PP_OK; /* too few draws per half: no maps */
+    const double **mean = malloc(nh * sizeof *mean), **m2 = malloc(nh * sizeof *m2);
+    pp_status st = PP_OK;
+    if (!mean || !m2)
+        st = pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
+    if (st == PP_OK)
+        st = pp_image_create(s->width, s->height, &s->rhat_map);
+    if (st == PP_OK)
+        st = pp_image_create(s->width, s->height, &s->mcse_map);
+    for (size_t j = 0; st == PP_OK && j < nh; j++) {
+        mean[j] = s->chain[j / 2].half[j % 2].mean;
+        m2[j] = s->chain[j / 2].half[j % 2].m2;
+    }
+    /* With an odd number of kept draws the second halves hold one draw
+     * more; the maps use the first halves' length m (a negligible
+     * difference for the hundreds of draws a run keeps). */
+    /* The recorded field may be a conditional mean (gibbs, mtc): then the
+     * draws' within-chain variance adds the mean conditional variance. */
+    double condvar = 0, kept = 0;
+    for (unsigned k = 0; k < s->cfg.chains; k++) {
+        condvar += s->chain[k].condvar_sum;
+        kept += (double)s->chain[k].kept;
+    }
+    if (st == PP_OK)
+        st = pp_diag_pixel_maps(mean, m2, nh, m, s->height * s->width, condvar / kept,
+                                s->rhat_map->data, s->mcse_map->data, NULL);
+    free(mean);
+    free(m2);
+    return st;
+}
+
+/* Fraction of map pixels whose split-R-hat exceeds the limit, as a warning. */
+static void warn_map(pp_sampler *s)
+{
+    if (!s->rhat_map)
+        return;
+    size_t n = s->height * s->width, bad = 0;
+    for (size_t i = 0; i < n; i++)
+        bad += isfinite(s->rhat_map->data[i]) && s->rhat_map->data[i] > RHAT_LIMIT;
+    if (bad)
+        pp_sampler_warn(s,
+                        "%zu of %zu pixels (%.1f%%) have a split-R-hat above %.2f (rhat.tif): "
+                        "the chains have not mixed there; run longer",
+                        bad, n, 100.0 * (double)bad / (double)n, RHAT_LIMIT);
+}
+
+pp_status pp_sampler_diagnose(pp_sampler *s)
+{
+    pp_status st = scalar_diagnostics(s);
+    if (st == PP_OK)
+        st = pixel_maps(s);
+    if (st == PP_OK)
+        warn_map(s);
+    return st;
+}
+
+const pp_diag_scalar *pp_sampler_diagnostics(const pp_sampler *s) { return s->diag; }
+const pp_image *pp_sampler_rhat_map(const pp_sampler *s) { return s->rhat_map; }
+const pp_image *pp_sampler_mcse_map(const pp_sampler *s) { return s->mcse_map; }
