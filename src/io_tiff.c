@@ -434,11 +434,14 @@ pp_status pp_tiff_write_f32(const char *path, const pp_image *img)
     /* BigTIFF ("w8") only when classic 32-bit offsets could not hold the data */
     double bytes = 4.0 * (double)img->width * (double)img->height;
     tiff_msg m;
+    errno = 0;
     TIFF *t = tiff_open(tmp, bytes > 3.5e9 ? "w8" : "w", &m);
     if (!t) {
+        int e = errno;
         remove(tmp);
-        return pp_fail(PP_ERR_IO, "%s: cannot write TIFF: %s", path,
-                       msg_or(&m, "libtiff cannot open it"));
+        return pp_fail(PP_ERR_IO, "%s: cannot write TIFF: %s%s%s%s", path,
+                       msg_or(&m, "libtiff cannot open it"), e ? " (" : "", e ? strerror(e) : "",
+                       e ? ")" : "");
     }
     st = tiff_encode(t, path, img, &m);
     TIFFClose(t);
