@@ -10,7 +10,7 @@ zero-byte .tif. Checks:
   temporary files); kill -9 of the process group mid-batch, then --resume:
   every frame complete and every output file byte-identical to an
   uninterrupted run (summary.json compared with its "timing" entry
-  removed), and no stray temporary files;
+  and per-second rates removed), and no stray temporary files;
 * --jobs 1 (the killed-and-resumed run) vs --jobs 2 (the reference run),
   and --shard 1/2 + 2/2 then --merge: byte-identical mean.tif per frame;
 * --resume skips a complete frame only when the settings are unchanged;
@@ -91,10 +91,29 @@ def temps(root):
     return [os.path.join(d, f) for d, _, fs in os.walk(root) for f in fs if ".tmp." in f]
 
 
-def strip_timing(path):
-    j = json.load(open(path))
-    j.pop("timing", None)
-    return j
+def strip_timing(node):
+    """summary.json without what depends on the clock: the "timing" entry and
+    every rate per second (e.g. ess_bulk_per_second)."""
+    if isinstance(node, dict):
+        return {k: strip_timing(v) for k, v in node.items()
+                if k != "timing" and not k.endswith("per_second")}
+    if isinstance(node, list):
+        return [strip_timing(v) for v in node]
+    return node
+
+
+def numbers_under(node, want):
+    """Every number stored under a key for which want(key) is true."""
+    out = []
+    if isinstance(node, dict):
+        for k, v in node.items():
+            if want(k) and isinstance(v, (int, float)):
+                out.append(float(v))
+            out += numbers_under(v, want)
+    elif isinstance(node, list):
+        for v in node:
+            out += numbers_under(v, want)
+    return out
 
 
 # ---- reference run: --jobs 2, uninterrupted ---------------------------------
@@ -123,6 +142,15 @@ for o in OUTPUTS:
     pptest.check(abs(float(by_out[o]["lambda_mean"]) - s["hyper"]["lambda"]["mean"]) <=
                  1e-9 * abs(s["hyper"]["lambda"]["mean"]),
                  "%s: manifest lambda mean equals summary.json's" % o)
+    rh = numbers_under(s, lambda k: "rhat" in k)
+    es = numbers_under(s, lambda k: (k == "ess" or k.startswith("ess_") or k.endswith("_ess"))
+                       and "per" not in k)
+    pptest.check((not rh and by_out[o]["rhat_max"] == "") or
+                 (rh and abs(float(by_out[o]["rhat_max"]) - max(rh)) <= 1e-9 * max(rh)),
+                 "%s: manifest worst R-hat is the largest R-hat in summary.json (%s)" % (o, by_out[o]["rhat_max"]))
+    pptest.check((not es and by_out[o]["ess_min"] == "") or
+                 (es and abs(float(by_out[o]["ess_min"]) - min(es)) <= 1e-9 * min(es)),
+                 "%s: manifest lowest ESS is the smallest ESS in summary.json (%s)" % (o, by_out[o]["ess_min"]))
 js = json.load(open(os.path.join(A, "out", "index.json")))
 pptest.check([f["output"] for f in js["frames"]] == [r["output"] for r in rows] and
              js["counts"]["done"] == len(OUTPUTS) and js["counts"]["failed"] == len(BAD),
@@ -194,7 +222,7 @@ for o in OUTPUTS:
         print("  file lists differ in", o)
     for f in names:
         fa, fb = os.path.join(da, f), os.path.join(db, f)
-        same = (strip_timing(fa) == strip_timing(fb)) if f == "summary.json" else \
+        same = (strip_timing(json.load(open(fa))) == strip_timing(json.load(open(fb)))) if f == "summary.json" else \
             open(fa, "rb").read() == open(fb, "rb").read()
         if not same:
             identical = False
