@@ -21,7 +21,9 @@ static const cli_opt sample_table[] = {
     },
     {"psf", 0, 1, "SPEC",
      "Point-spread function: gaussian:sigma=S (pixels), airy:na=NA,wavelength=L,pixel=P "
-     "(micrometres) or file:PATH (a bead image). Required."},
+     "(micrometres) or file:PATH (a bead image). An uncertain width is sampled with "
+     "gaussian:sigma=auto[,lo=A,hi=B] (default 0.5..4 px) or airy:na=auto[,lo=A,hi=B],"
+     "wavelength=L,pixel=P (default 0.4..1.5), gibbs or mtc only. Required."},
     {"noise", 0, 1, "SPEC",
      "Noise model: gaussian (precision sampled), gaussian:sigma=S (fixed, camera units), "
      "poisson:gain=G,offset=O or camera:gain=G,offset=O,read=R (read noise in electrons)."},
@@ -130,6 +132,7 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
     o->psf_text = cli_str(a, "psf");
     if ((rc = lib_check(pp_psf_parse(o->psf_text, &o->psf))) != 0)
         return rc;
+    o->cfg.psf = o->psf; /* the sampler reads it when the width is sampled */
     if (cli_given(a, "noise")) {
         o->noise_text = cli_str(a, "noise");
         if ((rc = lib_check(pp_noise_parse(o->noise_text, &o->cfg.noise))) != 0)
