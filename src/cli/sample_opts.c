@@ -78,8 +78,11 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
     buf[0] = '\0';
     if (strcmp(name, "noise") == 0)
         pp_noise_format(&d.noise, buf, len);
-    else if (strcmp(name, "prior") == 0)
+    else if (strcmp(name, "prior") == 0) {
         pp_prior_format(&d.prior, buf, len);
+        size_t used = strlen(buf);
+        snprintf(buf + used, len - used, " for gaussian, matern:range=6,nu=1 for poisson/camera");
+    }
     else if (strcmp(name, "positivity") == 0)
         snprintf(buf, len, "log for poisson/camera, none for gaussian");
     else if (strcmp(name, "background") == 0)
@@ -113,7 +116,7 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
     else if (strcmp(name, "wisdom") == 0)
         snprintf(buf, len, "none (estimated plans, no file)");
     else if (strcmp(name, "progress") == 0)
-        snprintf(buf, len, "bar on a terminal, plain otherwise");
+        snprintf(buf, len, "bar on a terminal, none otherwise");
     else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0)
         snprintf(buf, len, "off");
 }
