@@ -40,49 +40,111 @@
 
 typedef pp_fused_sums fused_sums;
 
+/* Row partial sums of the fused pass (unweighted). */
+typedef struct {
+    double ss, qf, cv;
+} row_sums;
+
+/* One half-spectrum entry i of step 1 (real arithmetic: gcc's complex
+ * multiply carries a NaN-recovery branch that stops vectorisation). One
+ * sqrt and one division per entry: rs = 1/sqrt(p), 1/p = rs^2. m is the
+ * prior mean spectrum at this entry (non-zero at i = 0 only). */
+static inline void fused_entry(const pp_sampler *s, const pp_chain *c, size_t i, double m,
+                               int want_ax, double invn, row_sums *acc)
+{
+    const double lam = c->lambda, del = c->delta;
+    const double *ot = (const double *)(c->otf + i), *y = (const double *)(c->yhat + i);
+    double *w = (double *)(c->cbuf + i), *o = (double *)(c->cbuf2 + i);
+    double qq = s->q[i], p = lam * c->otf2[i] + del * qq;
+    double rs = 1.0 / sqrt(p), ip = rs * rs;
+    /* mu = (lam conj(A) y + del q m) / p */
+    double mr = (lam * (ot[0] * y[0] + ot[1] * y[1]) + del * qq * m) * ip;
+    double mi = lam * (ot[0] * y[1] - ot[1] * y[0]) * ip;
+    double xr = mr + w[0] * rs, xi = mi + w[1] * rs;
+    double ar = ot[0] * xr - ot[1] * xi, ai = ot[0] * xi + ot[1] * xr;
+    double rr = ar - y[0], ri = ai - y[1], dr = xr - m;
+    acc->ss += rr * rr + ri * ri;
+    acc->qf += qq * (dr * dr + xi * xi);
+    acc->cv += ip;
+    w[0] = mr * invn;
+    w[1] = mi * invn;
+    o[0] = want_ax ? ar : xr;
+    o[1] = want_ax ? ai : xi;
+}
+
+/* Entries [k0, k1) of one row whose prior mean is 0 (the vectorisable
+ * bulk of the pass). */
+static void fused_run(const pp_sampler *s, const pp_chain *c, size_t i0, size_t n, int want_ax,
+                      double invn, row_sums *acc)
+{
+    row_sums a = {0, 0, 0};
+    for (size_t i = i0; i < i0 + n; i++)
+        fused_entry(s, c, i, 0.0, want_ax, invn, &a);
+    acc->ss += a.ss;
+    acc->qf += a.qf;
+    acc->cv += a.cv;
+}
+
 /* Step 1 plus the sums (internal.h): cbuf holds the noise on entry and
  * mu/N on exit; cbuf2 receives x-hat (want_ax = 0) or A x-hat. Uses the
- * chain's transfer function c->otf (it changes when the width is sampled). */
+ * chain's transfer function c->otf (it changes when the width is sampled).
+ * Columns 0 and (W even) W/2 have half-spectrum weight 1, the rest 2; each
+ * row is one run over the weight-2 interior and one or two edge entries. */
 fused_sums pp_gibbs_fused_pass(const pp_sampler *s, const pp_chain *c, int want_ax)
 {
-    const double lam = c->lambda, del = c->delta, invn = 1.0 / (double)s->gn;
-    const pp_complex *yh = c->yhat, *otf = c->otf;
-    const double *otf2 = c->otf2;
-    pp_complex *cb = c->cbuf, *cb2 = c->cbuf2;
-    double ss = 0, qf = 0, cv = 0;
+    const double invn = 1.0 / (double)s->gn;
+    const size_t wh = s->gwh, last = (s->gw % 2 == 0 && wh > 1) ? wh - 1 : wh;
+    row_sums edge = {0, 0, 0}, in = {0, 0, 0};
     for (size_t k1 = 0; k1 < s->gh; k1++) {
-        double rss = 0, rqf = 0, rcv = 0, rss1 = 0, rqf1 = 0, rcv1 = 0;
-        for (size_t k2 = 0; k2 < s->gwh; k2++) {
-            size_t i = k1 * s->gwh + k2;
-            double qq = s->q[i];
-            double p = lam * otf2[i] + del * qq;
-            pp_complex num = lam * conj(otf[i]) * yh[i];
-            double m = i == 0 ? s->mean_dc : 0.0;
-            num += del * qq * m;
-            pp_complex mu = num / p;
-            pp_complex xh = mu + cb[i] / sqrt(p);
-            pp_complex ax = otf[i] * xh;
-            pp_complex r = ax - yh[i];
-            pp_complex dx = xh - m;
-            double e_r = creal(r) * creal(r) + cimag(r) * cimag(r);
-            double e_q = qq * (creal(dx) * creal(dx) + cimag(dx) * cimag(dx));
-            if (pp_half_weight(k2, s->gw) == 1.0) {
-                rss1 += e_r;
-                rqf1 += e_q;
-                rcv1 += 1.0 / p;
-            } else {
-                rss += e_r;
-                rqf += e_q;
-                rcv += 1.0 / p;
-            }
-            cb[i] = mu * invn;
-            cb2[i] = want_ax ? ax : xh;
-        }
-        ss += 2 * rss + rss1;
-        qf += 2 * rqf + rqf1;
-        cv += 2 * rcv + rcv1;
+        size_t i = k1 * wh;
+        fused_entry(s, c, i, k1 == 0 ? s->mean_dc : 0.0, want_ax, invn, &edge);
+        if (last > 1)
+            fused_run(s, c, i + 1, last - 1, want_ax, invn, &in);
+        if (last < wh)
+            fused_entry(s, c, i + last, 0.0, want_ax, invn, &edge);
     }
-    return (fused_sums){ss * invn, qf * invn, cv * invn};
+    return (fused_sums){(edge.ss + 2 * in.ss) * invn, (edge.qf + 2 * in.qf) * invn,
+                        (edge.cv + 2 * in.cv) * invn};
+}
+
+/* Probe values of the field whose half spectrum is xh (the same numbers as
+ * pp_sampler_probes, whose tables it reads). The probes sit on a few
+ * distinct columns (3 for the 3 x 3 spread), so each row's inner sum is
+ * made once per distinct column and combined with each probe's row
+ * twiddle: ncol instead of nprobe complex multiply-adds per entry, one
+ * read of xh. */
+static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
+{
+    size_t ucol[PP_MAX_PROBES], nu = 0, which[PP_MAX_PROBES];
+    for (size_t p = 0; p < s->nprobe; p++) {
+        size_t u = 0;
+        while (u < nu && s->probe_c[ucol[u]] != s->probe_c[p])
+            u++;
+        if (u == nu)
+            ucol[nu++] = p;
+        which[p] = u;
+    }
+    double acc[PP_MAX_PROBES] = {0};
+    for (size_t k1 = 0; k1 < s->gh; k1++) {
+        const double *row = (const double *)(xh + k1 * s->gwh);
+        double re[PP_MAX_PROBES], im[PP_MAX_PROBES];
+        for (size_t u = 0; u < nu; u++) {
+            const double *tc = (const double *)(s->tw_col + ucol[u] * s->gwh);
+            double sr = 0, si = 0;
+            for (size_t k2 = 0; k2 < s->gwh; k2++) {
+                sr += row[2 * k2] * tc[2 * k2] - row[2 * k2 + 1] * tc[2 * k2 + 1];
+                si += row[2 * k2] * tc[2 * k2 + 1] + row[2 * k2 + 1] * tc[2 * k2];
+            }
+            re[u] = sr;
+            im[u] = si;
+        }
+        for (size_t p = 0; p < s->nprobe; p++) {
+            const double *tr = (const double *)(s->tw_row + p * s->gh + k1);
+            acc[p] += re[which[p]] * tr[0] - im[which[p]] * tr[1];
+        }
+    }
+    for (size_t p = 0; p < s->nprobe; p++)
+        out[p] = acc[p];
 }
 
 /* Pad: from A x (rbuf, times N) redraw the padding pixels of yaug; returns
@@ -125,7 +187,7 @@ void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const fused_sums *f, doub
     if (s->col_width >= 0)
         row[s->col_width] = c->width;
     if (!probes_done)
-        pp_sampler_probes(s, c->cbuf2, row + s->col_probe0);
+        probes_fast(s, c->cbuf2, row + s->col_probe0);
     c->kept++;
 }
 
@@ -164,7 +226,7 @@ static void pad_step(const pp_sampler *s, pp_chain *c, int keep, int have_xhat, 
 {
     if (keep) {
         double *row = c->trace + c->kept * s->trace.ncols;
-        pp_sampler_probes(s, c->cbuf2, row + s->col_probe0);
+        probes_fast(s, c->cbuf2, row + s->col_probe0);
     }
     /* A x-hat goes to the c2r's input after the probes (the c2r destroys it). */
     if (have_xhat)
