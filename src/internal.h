@@ -78,7 +78,7 @@ double pp_norm_quantile(double p);
 #include "pixpost/sampler.h"
 
 #define PP_MAX_PROBES 9
-#define PP_MAX_WARNINGS 32
+#define PP_MAX_WARNINGS 64
 
 /* One chain's state and scratch; owned by the sampler. */
 typedef struct pp_chain {

@@ -135,7 +135,7 @@ static pp_status png_decode(png_structp png, png_infop pi, FILE *fp, const char 
     pp_image *im = NULL;
     st = pp_image_create(p.width, p.height, &im);
     if (st != PP_OK)
-        return st;
+        return pp_fail(st, "%s: %s", path, pp_error_message());
     img = im;
     size_t rows = p.passes > 1 ? p.height : 1, bytes;
     if (!pp_mul_ok(rows, p.rowbytes, &bytes) || !(raw = malloc(bytes))) {

@@ -288,37 +288,80 @@ static pp_status join(char *buf, const char *dir, const char *name)
     return PP_OK;
 }
 
+/* The outputs of a run. Each is first written (itself atomically) under a
+ * staged name ".<name>.part" in the folder; only when every one succeeded
+ * are they renamed onto their final names, so a failed re-run (full disk,
+ * say) leaves the earlier run's files complete and consistent. */
+enum { OUT_MEAN, OUT_SD, OUT_LO, OUT_HI, OUT_RHAT, OUT_MCSE, OUT_MEAN_PNG, OUT_SD_PNG,
+       OUT_TRACE, OUT_SUMMARY, OUT_REPORT, OUT_COUNT };
+static const char *const out_names[OUT_COUNT] = {
+    "mean.tif", "sd.tif", "lo.tif", "hi.tif", "rhat.tif", "mcse.tif", "mean.png", "sd.png",
+    "trace.csv", "summary.json", "report.html"};
+
+static pp_status write_one(int k, const char *path, const pp_sampler *s, const pp_image *frame,
+                           const pp_run_info *info, const png_scales *ps)
+{
+    const pp_image *tif[6] = {s->mean, s->sd, s->lo, s->hi, s->rhat_map, s->mcse_map};
+    if (k <= OUT_MCSE)
+        return pp_tiff_write_f32(path, tif[k]);
+    if (k == OUT_MEAN_PNG)
+        return pp_png_write16(path, s->mean, ps->mean_offset, ps->mean_scale);
+    if (k == OUT_SD_PNG)
+        return pp_png_write16(path, s->sd, ps->sd_offset, ps->sd_scale);
+    if (k == OUT_TRACE)
+        return write_trace(path, s);
+    if (k == OUT_SUMMARY)
+        return write_summary(path, s, frame, info, ps);
+    return pp_output_report(path, s, frame, info);
+}
+
+/* A writer's message names the staged file; say the final name instead. */
+static pp_status name_final(pp_status st, const char *staged, const char *dir, const char *name)
+{
+    const char *m = pp_error_message(), *at = strstr(m, staged);
+    char final[PP_PATH_MAX];
+    if (!at || join(final, dir, name) != PP_OK)
+        return st;
+    /* pp_fail formats into its own buffer first, so m may be an argument */
+    return pp_fail(st, "%.*s%s%s", (int)(at - m), m, final, at + strlen(staged));
+}
+
 pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
                           const pp_run_info *info)
 {
     if (!s->ran)
         return pp_fail(PP_ERR_ARG, "pp_output_write: the sampler has not run");
-    const char *names[4] = {"mean.tif", "sd.tif", "lo.tif", "hi.tif"};
-    const pp_image *imgs[4] = {s->mean, s->sd, s->lo, s->hi};
-    char path[PP_PATH_MAX];
-    pp_status st = PP_OK;
-    for (int i = 0; i < 4 && st == PP_OK; i++)
-        if ((st = join(path, dir, names[i])) == PP_OK)
-            st = pp_tiff_write_f32(path, imgs[i]);
     png_scales ps;
     pp_png_auto_scale(s->mean, &ps.mean_offset, &ps.mean_scale);
     double lo, hi;
     pp_image_range(s->sd, &lo, &hi);
     ps.sd_offset = 0;
     ps.sd_scale = hi > 0 ? hi / 65535.0 : 1.0;
-    if (st == PP_OK && (st = join(path, dir, "mean.png")) == PP_OK)
-        st = pp_png_write16(path, s->mean, ps.mean_offset, ps.mean_scale);
-    if (st == PP_OK && (st = join(path, dir, "sd.png")) == PP_OK)
-        st = pp_png_write16(path, s->sd, ps.sd_offset, ps.sd_scale);
-    if (st == PP_OK && s->rhat_map && (st = join(path, dir, "rhat.tif")) == PP_OK)
-        st = pp_tiff_write_f32(path, s->rhat_map);
-    if (st == PP_OK && s->mcse_map && (st = join(path, dir, "mcse.tif")) == PP_OK)
-        st = pp_tiff_write_f32(path, s->mcse_map);
-    if (st == PP_OK && (st = join(path, dir, "trace.csv")) == PP_OK)
-        st = write_trace(path, s);
-    if (st == PP_OK && (st = join(path, dir, "summary.json")) == PP_OK)
-        st = write_summary(path, s, frame, info, &ps);
-    if (st == PP_OK && (st = join(path, dir, "report.html")) == PP_OK)
-        st = pp_output_report(path, s, frame, info);
+    char staged[OUT_COUNT][PP_PATH_MAX], path[PP_PATH_MAX], part[80];
+    int made[OUT_COUNT] = {0};
+    pp_status st = PP_OK;
+    for (int k = 0; k < OUT_COUNT && st == PP_OK; k++) {
+        if ((k == OUT_RHAT || k == OUT_MCSE) && !s->rhat_map)
+            continue;
+        snprintf(part, sizeof part, ".%s.part", out_names[k]);
+        if ((st = join(staged[k], dir, part)) == PP_OK &&
+            (st = write_one(k, staged[k], s, frame, info, &ps)) != PP_OK)
+            st = name_final(st, staged[k], dir, out_names[k]);
+        made[k] = st == PP_OK;
+    }
+    for (int k = 0; k < OUT_COUNT; k++) {
+        if (st != PP_OK) {
+            if (made[k])
+                remove(staged[k]);
+            continue;
+        }
+        pp_status js = join(path, dir, out_names[k]);
+        if (js == PP_OK && made[k])
+            st = pp_atomic_rename(staged[k], path);
+        else if (js == PP_OK)
+            remove(path); /* not produced by this run: no stale file from an earlier one */
+        else
+            st = js;
+    }
     return st;
 }

@@ -211,8 +211,17 @@ static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image 
     pp_status st = pp_psf_transfer(psf, s->fft, s->otf);
     if (st != PP_OK)
         return st;
-    for (size_t i = 0; i < s->gm; i++)
+    size_t zeros = 0;
+    for (size_t i = 0; i < s->gm; i++) {
         s->otf2[i] = creal(s->otf[i]) * creal(s->otf[i]) + cimag(s->otf[i]) * cimag(s->otf[i]);
+        zeros += s->otf2[i] < 1e-20; /* |A(k)| < 1e-10 of its value at k = 0 */
+    }
+    if (zeros)
+        pp_sampler_warn(s,
+                        "the PSF's transfer function is zero (below 1e-10) at %zu of %zu "
+                        "half-spectrum frequencies: there the data say nothing and the "
+                        "estimate comes from the prior alone",
+                        zeros, s->gm);
     if ((st = pp_prior_eigen(&s->cfg.prior, s->gh, s->gw, s->q, &s->rank)) != PP_OK)
         return st;
     s->mean_dc = s->cfg.prior.mean_set ? s->cfg.prior.mean * (double)s->gn : 0.0;

@@ -10,6 +10,7 @@
  * 2 x chains half moments for the maps. Runs once, after the chains. */
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 #include "internal.h"
 #include "pixpost/diag.h"
 
@@ -36,6 +37,43 @@ static void warn_column(pp_sampler *s, const char *name, const pp_diag_scalar *d
                         name, d->ess_tail, ess_min);
 }
 
+/* The probe pixels share one line per criterion: how many fail, the worst. */
+static void warn_probes(pp_sampler *s)
+{
+    const pp_trace *t = &s->trace;
+    double ess_min = ESS_PER_CHAIN * s->cfg.chains;
+    size_t n_r = 0, n_b = 0, n_t = 0, w_r = 0, w_b = 0, w_t = 0, np = 0;
+    for (size_t j = PP_COL_PROBE0; j < t->ncols; j++) {
+        if (strncmp(t->names[j], "p_", 2) != 0)
+            continue;
+        const pp_diag_scalar *d = &s->diag[j];
+        np++;
+        if (isfinite(d->rhat) && d->rhat > RHAT_LIMIT && (!n_r++ || d->rhat > s->diag[w_r].rhat))
+            w_r = j;
+        if (isfinite(d->ess_bulk) && d->ess_bulk < ess_min &&
+            (!n_b++ || d->ess_bulk < s->diag[w_b].ess_bulk))
+            w_b = j;
+        if (isfinite(d->ess_tail) && d->ess_tail < ess_min &&
+            (!n_t++ || d->ess_tail < s->diag[w_t].ess_tail))
+            w_t = j;
+    }
+    if (n_r)
+        pp_sampler_warn(s,
+                        "R-hat is above %.2f at %zu of %zu probe pixels (worst %s: %.3f): the "
+                        "chains disagree there; run longer (--burn, --iters)",
+                        RHAT_LIMIT, n_r, np, t->names[w_r], s->diag[w_r].rhat);
+    if (n_b)
+        pp_sampler_warn(s,
+                        "bulk-ESS is below %.0f (100 per chain) at %zu of %zu probe pixels "
+                        "(lowest %s: %.0f): pixel means are imprecise; run longer (--iters)",
+                        ess_min, n_b, np, t->names[w_b], s->diag[w_b].ess_bulk);
+    if (n_t)
+        pp_sampler_warn(s,
+                        "tail-ESS is below %.0f (100 per chain) at %zu of %zu probe pixels "
+                        "(lowest %s: %.0f): pixel bounds are imprecise; run longer (--iters)",
+                        ess_min, n_t, np, t->names[w_t], s->diag[w_t].ess_tail);
+}
+
 static pp_status scalar_diagnostics(pp_sampler *s)
 {
     const pp_trace *t = &s->trace;
@@ -51,11 +89,17 @@ static pp_status scalar_diagnostics(pp_sampler *s)
         for (size_t i = 0; i < total; i++)
             x[i] = t->values[i * t->ncols + j];
         st = pp_diag_compute(x, t->chains, n, &s->diag[j]);
-        if (st == PP_OK)
-            warn_column(s, t->names[j], &s->diag[j]);
     }
     free(x);
     return st;
+}
+
+static void warn_scalars(pp_sampler *s)
+{
+    for (size_t j = 0; j < s->trace.ncols; j++)
+        if (strncmp(s->trace.names[j], "p_", 2) != 0)
+            warn_column(s, s->trace.names[j], &s->diag[j]);
+    warn_probes(s);
 }
 
 static pp_status pixel_maps(pp_sampler *s)
@@ -108,9 +152,40 @@ static void warn_map(pp_sampler *s)
                         bad, n, 100.0 * (double)bad / (double)n, RHAT_LIMIT);
 }
 
+/* For the conjugate samplers, the share of a Gamma conditional's rate that
+ * comes from the hyperprior rather than the data: b * E[theta] / shape. A
+ * share above 1 % means the hyperprior, not the frame, sets the precision
+ * (typically a frame on a tiny or huge numerical scale). */
+static void warn_hyperprior(pp_sampler *s)
+{
+    const pp_sampler_config *c = &s->cfg;
+    if (c->kind != PP_SAMPLER_GIBBS && c->kind != PP_SAMPLER_MTC)
+        return;
+    double share_l = c->hyper_lambda[1] * s->diag[PP_COL_LAMBDA].mean /
+                     (c->hyper_lambda[0] + 0.5 * (double)s->gn);
+    double share_d = c->hyper_delta[1] * s->diag[PP_COL_DELTA].mean /
+                     (c->hyper_delta[0] + 0.5 * s->rank);
+    if (!c->noise.sigma_set && share_l > 0.01)
+        pp_sampler_warn(s,
+                        "the Gamma hyperprior of lambda (rate %g) outweighs the data (%.0f%% of "
+                        "its conditional rate): the frame's scale is too small for it; rescale "
+                        "the frame or set --hyper-lambda A,B for its units",
+                        c->hyper_lambda[1], 100 * share_l);
+    if (!c->prior.delta_set && share_d > 0.01)
+        pp_sampler_warn(s,
+                        "the Gamma hyperprior of delta (rate %g) outweighs the data (%.0f%% of "
+                        "its conditional rate): rescale the frame or set --hyper-delta A,B for "
+                        "its units",
+                        c->hyper_delta[1], 100 * share_d);
+}
+
 pp_status pp_sampler_diagnose(pp_sampler *s)
 {
     pp_status st = scalar_diagnostics(s);
+    if (st == PP_OK) {
+        warn_hyperprior(s);
+        warn_scalars(s);
+    }
     if (st == PP_OK)
         st = pixel_maps(s);
     if (st == PP_OK)

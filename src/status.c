@@ -2,6 +2,7 @@
 #include <stdarg.h>
 #include <stdint.h>
 #include <stdio.h>
+#include <string.h>
 #include "internal.h"
 
 static _Thread_local char pp_message[1024];
@@ -10,10 +11,14 @@ const char *pp_error_message(void) { return pp_message; }
 
 pp_status pp_fail(pp_status s, const char *fmt, ...)
 {
+    /* Format into a local buffer first: an argument may be the current
+     * message itself (re-raising it with more context). */
+    char buf[sizeof pp_message];
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(pp_message, sizeof pp_message, fmt, ap);
+    vsnprintf(buf, sizeof buf, fmt, ap);
     va_end(ap);
+    memcpy(pp_message, buf, sizeof pp_message);
     return s;
 }
 

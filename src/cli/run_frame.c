@@ -103,6 +103,15 @@ static int fail_lib(cli_frame_run *r, pp_status st)
     return fail_msg(r, "%s", m && m[0] ? m : pp_status_name(st));
 }
 
+/* A library failure about the frame's content (sampler set-up or run):
+ * the message gets the frame's path in front, as every error line names its
+ * file. */
+static int fail_frame(cli_frame_run *r, pp_status st)
+{
+    const char *m = pp_error_message();
+    return fail_msg(r, "%s: %s", r->frame, m && m[0] ? m : pp_status_name(st));
+}
+
 int cli_make_dirs(const char *path, char *msg, size_t len)
 {
     char buf[4096];
@@ -161,7 +170,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     cfg.progress_ctx = ps;
     cfg.stop = r->stop;
     pp_status st = pp_sampler_create(&cfg, frame, psf, &r->sampler);
-    return st == PP_OK ? 0 : fail_lib(r, st);
+    return st == PP_OK ? 0 : fail_frame(r, st);
 }
 
 static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame)
@@ -179,7 +188,7 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
         return fail_msg(r, "%s: interrupted; no outputs were written", r->frame);
     }
     if (st != PP_OK)
-        return fail_lib(r, st);
+        return fail_frame(r, st);
     pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,
                       o->prior_text, r->command_line, cli_since(&r->t0)};
     if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
