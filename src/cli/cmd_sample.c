@@ -4,6 +4,8 @@
  * progress display and writing the outputs live in run_frame.c (shared with
  * batch); this file prints the result and a short verdict. */
 #include "cli.h"
+#include "pixpost/diag.h"
+#include <math.h>
 #include <stdio.h>
 #include <string.h>
 #include <time.h>
@@ -15,16 +17,35 @@ static void join_args(int argc, char **argv, char *buf, size_t len)
         used += (size_t)snprintf(buf + used, len - used, " %s", argv[i]);
 }
 
+/* Worst R-hat and lowest bulk-ESS over the trace columns (NaN ignored). */
+static void extremes(const pp_sampler *s, double *rhat, double *ess)
+{
+    const pp_trace *t = pp_sampler_trace(s);
+    const pp_diag_scalar *d = pp_sampler_diagnostics(s);
+    *rhat = NAN;
+    *ess = NAN;
+    for (size_t j = 0; d && j < t->ncols; j++) {
+        if (isfinite(d[j].rhat) && !(d[j].rhat <= *rhat))
+            *rhat = d[j].rhat;
+        if (isfinite(d[j].ess_bulk) && !(d[j].ess_bulk >= *ess))
+            *ess = d[j].ess_bulk;
+    }
+}
+
 static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double seconds)
 {
     size_t nw = pp_sampler_warning_count(s);
     const pp_trace *t = pp_sampler_trace(s);
+    double rhat, ess;
+    extremes(s, &rhat, &ess);
     fprintf(stderr,
-            "pixpost: wrote %s/ (mean, sd, lo, hi .tif; mean, sd .png; summary.json; "
-            "trace.csv)\n",
+            "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse .tif; mean, sd .png; "
+            "summary.json; trace.csv; report.html)\n",
             o->outdir);
-    fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; %s\n", t->chains, t->kept,
-            seconds, nw ? "warnings:" : "no warnings");
+    fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; worst R-hat %.3f, lowest "
+                    "bulk-ESS %.0f: %s\n",
+            t->chains, t->kept, seconds, rhat, ess,
+            nw ? "see the warnings below" : "no convergence warnings");
     for (size_t i = 0; i < nw; i++)
         fprintf(stderr, "pixpost:   %s\n", pp_sampler_warning(s, i));
 }

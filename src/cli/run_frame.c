@@ -61,6 +61,7 @@ typedef struct progress_state {
     cli_progress mode;
     struct timespec t0;
     int last_decile;
+    unsigned chains; /* iterations are counted over all chains */
 } progress_state;
 
 static void show_progress(void *ctx, unsigned long long done, unsigned long long total)
@@ -70,9 +71,12 @@ static void show_progress(void *ctx, unsigned long long done, unsigned long long
     double left = frac > 0 ? el * (1 - frac) / frac : 0;
     if (p->mode == CLI_PROGRESS_BAR) {
         int w = 30, fill = (int)(frac * w);
-        fprintf(stderr, "\rsampling [%.*s%*s] %5.1f%%  %.0f it/s  %.0f s left ", fill,
-                "##############################", w - fill, "", 100 * frac,
-                el > 0 ? (double)done / el : 0.0, left);
+        unsigned c = p->chains ? p->chains : 1;
+        fprintf(stderr,
+                "\rsampling %u chains [%.*s%*s] %5.1f%%  iteration %llu/%llu  %.0f it/s  "
+                "%.0f s left ",
+                c, fill, "##############################", w - fill, "", 100 * frac, done / c,
+                total / c, el > 0 ? (double)done / el / c : 0.0, left);
         if (done == total)
             fputc('\n', stderr);
     } else if (p->mode == CLI_PROGRESS_PLAIN) {
@@ -164,6 +168,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     ps->mode = r->progress;
     ps->t0 = r->t0;
     ps->last_decile = 0;
+    ps->chains = cfg.chains;
     if (o->quiet || ps->mode == CLI_PROGRESS_AUTO)
         ps->mode = o->quiet || !isatty(2) ? CLI_PROGRESS_NONE : CLI_PROGRESS_BAR;
     cfg.progress = ps->mode == CLI_PROGRESS_NONE ? NULL : show_progress;
