@@ -35,9 +35,9 @@ int main(int argc, char **argv)
     pp_rng r;
     pp_rng_seed(&r, 1, 0);
     pp_rng_normals(&r, x, h * w);
-    enum { REPS = 15 };
+    enum { REPS = 9 };
     double tp[REPS], tn[REPS];
-    int inner = (int)(2e7 / (double)(h * w)) + 1;
+    int inner = (int)(4e6 / (double)(h * w)) + 1;
     for (int k = 0; k < REPS; k++) {
         double t0 = now();
         for (int i = 0; i < inner; i++) {

@@ -1,19 +1,33 @@
-/* pixpost bench — seconds per iteration of a sampler on a synthetic frame.
- * Usage: bench_sampler KIND H W BOUNDARY THIN CHAINS THREADS ITERS [TRACE.csv]
- * Prints "seconds_per_iteration_per_chain wall_seconds"; with TRACE.csv also
- * writes the traces (chain,lambda,delta,p...) for ESS computations. The
- * frame is a smooth random scene blurred by a Gaussian PSF (sigma 1.5) with
- * Gaussian noise (sd 1): invented data, for timing only. */
+/* pixpost bench — time, memory and effective sample size of one sampler run
+ * through the library API, on a synthetic frame.
+ * Usage: bench_sampler KIND H W [key=value ...], keys (defaults):
+ *   boundary=periodic thin=1 chains=1 threads=1 iters=50 burn=0 seed=1
+ *   prior=gmrf2 jeffreys=1 (hyperpriors Gamma(0,0), scikit-image's model)
+ *   measure=0 (1: FFTW_MEASURE) frame=PATH psf=PATH (write them as TIFF)
+ * Prints one line of key=value pairs:
+ *   sec_iter  wall seconds x parallel lanes / (iterations x chains), i.e.
+ *             seconds per iteration of one chain (burn-in included)
+ *   wall      pp_sampler_seconds (the chains only, burn-in included)
+ *   rss_kb    peak resident set (getrusage ru_maxrss) of the process
+ *   ess_<col> ess_bulk of each trace column (pp_diag_compute, the rank-
+ *             normalised split-chain ESS of include/pixpost/diag.h) over
+ *             the kept draws of all chains, with mean_<col> its mean;
+ *             ess_pmin / ess_pmed: smallest and median over the probes.
+ * The frame is a smooth scene blurred by a Gaussian PSF (sigma 1.5) with
+ * Gaussian noise (sd 1): invented data, for timing only. Cost: the run. */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/resource.h>
+#include "pixpost/diag.h"
 #include "pixpost/pixpost.h"
 
 static pp_image *scene(size_t h, size_t w, const pp_image *psf)
 {
     pp_image *x, *y;
-    pp_image_create(w, h, &x);
+    if (pp_image_create(w, h, &x) != PP_OK)
+        return NULL;
     for (size_t r = 0; r < h; r++)
         for (size_t c = 0; c < w; c++)
             x->data[r * w + c] = 50 + 20 * sin((double)r / 9) * cos((double)c / 13) +
@@ -26,51 +40,87 @@ static pp_image *scene(size_t h, size_t w, const pp_image *psf)
     return y;
 }
 
+/* Value of key=... among argv[first..), or def. */
+static const char *opt(int argc, char **argv, const char *key, const char *def)
+{
+    size_t n = strlen(key);
+    for (int i = 4; i < argc; i++)
+        if (strncmp(argv[i], key, n) == 0 && argv[i][n] == '=')
+            return argv[i] + n + 1;
+    return def;
+}
+
+static void print_ess(const pp_trace *t)
+{
+    size_t n = t->kept, nc = t->chains;
+    double *x = malloc(n * nc * sizeof *x), pe[64];
+    size_t np = 0;
+    for (size_t j = 0; x && j < t->ncols; j++) {
+        for (size_t c = 0; c < nc; c++)
+            for (size_t i = 0; i < n; i++)
+                x[c * n + i] = t->values[(c * n + i) * t->ncols + j];
+        pp_diag_scalar d;
+        if (pp_diag_compute(x, nc, n, &d) != PP_OK)
+            d.ess_bulk = NAN;
+        if (strncmp(t->names[j], "p_", 2) == 0 && np < 64)
+            pe[np++] = d.ess_bulk;
+        else
+            printf(" ess_%s=%.4g mean_%s=%.6g", t->names[j], d.ess_bulk, t->names[j], d.mean);
+    }
+    for (size_t a = 1; a < np; a++) /* insertion sort of the probe ESS */
+        for (size_t b = a; b > 0 && pe[b] < pe[b - 1]; b--) {
+            double tmp = pe[b];
+            pe[b] = pe[b - 1];
+            pe[b - 1] = tmp;
+        }
+    if (np)
+        printf(" ess_pmin=%.4g ess_pmed=%.4g", pe[0], pe[np / 2]);
+    free(x);
+}
+
 int main(int argc, char **argv)
 {
-    if (argc < 9)
-        return fprintf(stderr, "usage: bench_sampler KIND H W pad|periodic THIN CHAINS THREADS "
-                               "ITERS [TRACE.csv]\n"),
-               1;
+    if (argc < 4)
+        return fprintf(stderr, "usage: bench_sampler KIND H W [key=value ...]\n"), 1;
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
     if (pp_sampler_kind_parse(argv[1], &cfg.kind) != PP_OK ||
-        pp_boundary_parse(argv[4], &cfg.boundary) != PP_OK)
+        pp_boundary_parse(opt(argc, argv, "boundary", "periodic"), &cfg.boundary) != PP_OK ||
+        pp_prior_parse(opt(argc, argv, "prior", "gmrf2"), &cfg.prior) != PP_OK)
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
     size_t h = strtoul(argv[2], NULL, 10), w = strtoul(argv[3], NULL, 10);
-    cfg.thin = strtoul(argv[5], NULL, 10);
-    cfg.chains = (unsigned)strtoul(argv[6], NULL, 10);
-    cfg.threads = atoi(argv[7]);
-    cfg.iters = strtoul(argv[8], NULL, 10);
-    cfg.burn = 0;
+    cfg.thin = strtoul(opt(argc, argv, "thin", "1"), NULL, 10);
+    cfg.chains = (unsigned)strtoul(opt(argc, argv, "chains", "1"), NULL, 10);
+    cfg.threads = atoi(opt(argc, argv, "threads", "1"));
+    cfg.iters = strtoul(opt(argc, argv, "iters", "50"), NULL, 10);
+    cfg.burn = strtoul(opt(argc, argv, "burn", "0"), NULL, 10);
+    cfg.seed = strtoull(opt(argc, argv, "seed", "1"), NULL, 10);
+    if (atoi(opt(argc, argv, "measure", "0")))
+        cfg.fft_effort = PP_FFT_MEASURE;
+    if (atoi(opt(argc, argv, "jeffreys", "1")))
+        cfg.hyper_lambda[0] = cfg.hyper_lambda[1] = cfg.hyper_delta[0] = cfg.hyper_delta[1] = 0;
     pp_psf_spec ps;
     pp_image *psf;
     pp_psf_parse("gaussian:sigma=1.5", &ps);
-    pp_psf_make(&ps, 0, &psf);
+    if (pp_psf_make(&ps, 0, &psf) != PP_OK)
+        return fprintf(stderr, "%s\n", pp_error_message()), 1;
     pp_image *y = scene(h, w, psf);
+    const char *fp = opt(argc, argv, "frame", NULL), *pp = opt(argc, argv, "psf", NULL);
+    if (!y || (fp && pp_image_write(fp, y) != PP_OK) || (pp && pp_image_write(pp, psf) != PP_OK))
+        return fprintf(stderr, "%s\n", pp_error_message()), 1;
     pp_sampler *s;
-    if (!y || pp_sampler_create(&cfg, y, psf, &s) != PP_OK || pp_sampler_run(s) != PP_OK)
+    if (pp_sampler_create(&cfg, y, psf, &s) != PP_OK || pp_sampler_run(s) != PP_OK)
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
     double wall = pp_sampler_seconds(s);
     unsigned par = cfg.threads > 0 && (unsigned)cfg.threads < cfg.chains ? (unsigned)cfg.threads
                                                                          : cfg.chains;
-    printf("%.9g %.9g\n", wall * par / ((double)cfg.iters * cfg.chains), wall);
-    if (argc > 9) {
-        FILE *f = fopen(argv[9], "w");
-        const pp_trace *t = pp_sampler_trace(s);
-        fprintf(f, "chain");
-        for (size_t j = 0; j < t->ncols; j++)
-            fprintf(f, ",%s", t->names[j]);
-        fputc('\n', f);
-        for (unsigned c = 0; c < t->chains; c++)
-            for (size_t i = 0; i < t->kept; i++) {
-                fprintf(f, "%u", c);
-                for (size_t j = 0; j < t->ncols; j++)
-                    fprintf(f, ",%.10g", t->values[((size_t)c * t->kept + i) * t->ncols + j]);
-                fputc('\n', f);
-            }
-        fclose(f);
-    }
+    struct rusage ru;
+    getrusage(RUSAGE_SELF, &ru);
+    printf("sec_iter=%.6g wall=%.6g rss_kb=%ld",
+           wall * par / ((double)(cfg.iters + cfg.burn) * cfg.chains), wall, ru.ru_maxrss);
+    if (pp_sampler_trace(s)->kept >= 6)
+        print_ess(pp_sampler_trace(s));
+    putchar('\n');
     pp_sampler_free(s);
     pp_image_free(y);
     pp_image_free(psf);

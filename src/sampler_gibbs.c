@@ -68,8 +68,10 @@ static inline void fused_entry(const pp_sampler *s, const pp_chain *c, size_t i,
     acc->cv += ip;
     w[0] = mr * invn;
     w[1] = mi * invn;
-    o[0] = want_ax ? ar : xr;
-    o[1] = want_ax ? ai : xi;
+    if (want_ax >= 0) {
+        o[0] = want_ax ? ar : xr;
+        o[1] = want_ax ? ai : xi;
+    }
 }
 
 /* Entries [k0, k1) of one row whose prior mean is 0 (the vectorisable
@@ -86,9 +88,10 @@ static void fused_run(const pp_sampler *s, const pp_chain *c, size_t i0, size_t 
 }
 
 /* Step 1 plus the sums (internal.h): cbuf holds the noise on entry and
- * mu/N on exit; cbuf2 receives x-hat (want_ax = 0) or A x-hat. Uses the
- * chain's transfer function c->otf (it changes when the width is sampled).
- * Columns 0 and (W even) W/2 have half-spectrum weight 1, the rest 2; each
+ * mu/N on exit; cbuf2 receives x-hat (want_ax = 0) or A x-hat (1), or is
+ * left alone (-1: a thinned-out iteration that needs neither saves one
+ * write stream). Uses the chain's transfer function c->otf (it changes when
+ * the width is sampled). Columns 0 and (W even) W/2 have half-spectrum weight 1, the rest 2; each
  * row is one run over the weight-2 interior and one or two edge entries. */
 fused_sums pp_gibbs_fused_pass(const pp_sampler *s, const pp_chain *c, int want_ax)
 {
@@ -251,7 +254,8 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
         int keep = t >= cfg->burn && (t - cfg->burn + 1) % cfg->thin == 0;
         int want_xhat = keep || width;
         pp_half_noise(&c->rng, s->gh, s->gw, c->cbuf);
-        fused_sums f = pp_gibbs_fused_pass(s, c, pad && !want_xhat);
+        int mode = pad ? !want_xhat : want_xhat ? 0 : -1;
+        fused_sums f = pp_gibbs_fused_pass(s, c, mode);
         if (width)
             width_move(s, c, &f, t);
         double ss = f.resid, ss_obs = f.resid;
