@@ -204,7 +204,8 @@ typedef struct pp_fused_sums {
 } pp_fused_sums;
 /* x | lambda, delta, y with the chain's otf: cbuf holds white noise (half
  * spectrum) on entry and mu/N on exit; cbuf2 receives x-hat (want_ax = 0)
- * or A x-hat. One pass, no transform. */
+ * or A x-hat (1), or is left untouched (-1: a thinned-out iteration that
+ * needs only the sums). One pass, no transform. */
 pp_fused_sums pp_gibbs_fused_pass(const pp_sampler *s, const pp_chain *c, int want_ax);
 /* Stores a kept draw: one c2r of mu (moments), the conditional variance,
  * the trace row (lambda, delta, loglik, width; probes from cbuf2 = x-hat
