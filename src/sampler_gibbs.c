@@ -156,20 +156,27 @@ static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
 static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss_pad)
 {
     const double invn = 1.0 / (double)s->gn, sd = 1.0 / sqrt(c->lambda);
+    /* The c2r just consumed cbuf2, which holds 2 gm >= gn doubles: draw the
+     * padding's normals there in one bulk call. */
+    double *e = (double *)c->cbuf2;
+    pp_rng_normals(&c->rng, e, s->gn - s->height * s->width);
     double so = 0, sp = 0;
-    for (size_t r = 0; r < s->gh; r++)
-        for (size_t col = 0; col < s->gw; col++) {
-            size_t i = r * s->gw + col;
-            double ax = c->rbuf[i] * invn;
-            if (r < s->height && col < s->width) {
-                double d = ax - s->ygrid[i];
+    size_t k = 0;
+    for (size_t r = 0; r < s->gh; r++) {
+        const double *ax = c->rbuf + r * s->gw, *y = s->ygrid + r * s->gw;
+        double *ya = c->yaug + r * s->gw;
+        size_t col = 0;
+        if (r < s->height)
+            for (; col < s->width; col++) {
+                double d = ax[col] * invn - y[col];
                 so += d * d;
-            } else {
-                double e = sd * pp_rng_normal(&c->rng);
-                c->yaug[i] = ax + e;
-                sp += e * e;
             }
+        for (; col < s->gw; col++, k++) {
+            double en = sd * e[k];
+            ya[col] = ax[col] * invn + en;
+            sp += en * en;
         }
+    }
     *ss_obs = so;
     *ss_pad = sp;
 }
