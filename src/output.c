@@ -156,6 +156,23 @@ static void json_diagnostics(FILE *f, const pp_sampler *s)
     fputs("\n  },\n", f);
 }
 
+/* Per-chain acceptance rate (after burn-in) and step of the sampler's
+ * Metropolis move: pcn/gpcn's field move and its beta; mtc's (lambda,
+ * delta) move and its proposal scale (in log units). */
+static void json_chain_moves(FILE *f, const pp_sampler *s)
+{
+    fputs("  \"chain_moves\": [", f);
+    for (unsigned k = 0; k < s->cfg.chains; k++) {
+        fputs(k ? ", " : "", f);
+        fputs("{\"acceptance\": ", f);
+        json_number(f, s->chain[k].acceptance);
+        fputs(", \"step\": ", f);
+        json_number(f, s->chain[k].step);
+        fputc('}', f);
+    }
+    fputs("],\n", f);
+}
+
 /* pcn/gpcn: the likelihood, positivity, background and per-chain acceptance
  * of the field move and its step beta (adapted in burn-in only). */
 static void json_pcn(FILE *f, const pp_sampler *s)
@@ -166,16 +183,27 @@ static void json_pcn(FILE *f, const pp_sampler *s)
     fprintf(f, ",\n  \"positivity\": \"%s\",\n  \"background\": ",
             c->positivity == PP_POSITIVITY_LOG ? "log" : "none");
     json_number(f, c->background);
-    fputs(",\n  \"chain_moves\": [", f);
-    for (unsigned k = 0; k < c->chains; k++) {
-        fputs(k ? ", " : "", f);
-        fputs("{\"acceptance\": ", f);
-        json_number(f, s->chain[k].acceptance);
-        fputs(", \"step\": ", f);
-        json_number(f, s->chain[k].step);
-        fputc('}', f);
-    }
-    fputs("],\n", f);
+    fputs(",\n", f);
+    json_chain_moves(f, s);
+}
+
+/* mtc with periodic boundaries: which (lambda, delta) move ran, then its
+ * per-chain acceptance and proposal scale. */
+static void json_mtc(FILE *f, const pp_sampler *s)
+{
+    const pp_sampler_config *c = &s->cfg;
+    const char *move = "random-walk Metropolis on the free log-precision (step = its sd, "
+                       "adapted in burn-in only)";
+    if (c->noise.sigma_set && c->prior.delta_set)
+        move = "none (lambda and delta fixed)";
+    else if (!c->noise.sigma_set && !c->prior.delta_set)
+        move = "independence Metropolis on log(lambda/delta) from its marginal (Student-t "
+               "proposal at the Laplace approximation; step = its scale), then lambda | "
+               "lambda/delta exact (Gamma)";
+    fputs("  \"hyper_move\": ", f);
+    json_string(f, move);
+    fputs(",\n", f);
+    json_chain_moves(f, s);
 }
 
 typedef struct png_scales {
@@ -243,6 +271,8 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
             ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
     if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN)
         json_pcn(f, s);
+    if (c->kind == PP_SAMPLER_MTC && c->boundary != PP_BOUNDARY_PAD)
+        json_mtc(f, s);
     json_diagnostics(f, s);
     fputs("  \"warnings\": [", f);
     for (size_t i = 0; i < s->nwarnings; i++) {
