@@ -201,6 +201,8 @@ typedef struct pp_fused_sums {
     double resid; /* ||A x - y||^2 against the chain's data spectrum */
     double quad;  /* (x - m)' Q (x - m) */
     double cvar;  /* conditional variance of one pixel */
+    double v0;    /* ||A (x - m)||^2 over the entries with q > 0 (for ASIS) */
+    double c0;    /* <A (x - m), y - A m> over the same entries */
 } pp_fused_sums;
 /* x | lambda, delta, y with the chain's otf: cbuf holds white noise (half
  * spectrum) on entry and mu/N on exit; cbuf2 receives x-hat (want_ax = 0)
@@ -212,6 +214,7 @@ pp_fused_sums pp_gibbs_fused_pass(const pp_sampler *s, const pp_chain *c, int wa
  * unless probes_done). Increments c->kept. */
 void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const pp_fused_sums *f, double loglik,
                      int probes_done);
+
 
 /* Log marginal density log p(y | lambda, delta) of the periodic model with
  * the transfer function |A|^2 = otf2, over the frequencies where q > 0

@@ -1,0 +1,114 @@
+"""Gibbs with --boundary pad (data augmentation plus the interweaving
+moves for delta) against the exact marginal posterior of (lambda, delta),
+computed densely with numpy on a tiny frame.
+
+The padded model: the frame (H x W) sits at the origin of a periodic grid
+(read from summary.json "grid"); x on the grid has the gmrf1 prior (periodic
+5-point Laplacian Q, a flat prior on the mean level), y_obs = S A x + e with
+A the periodic convolution by the PSF on the grid and S the selection of
+the frame pixels. Integrating x out (numpy.linalg, dense):
+  y_obs ~ N(c 1, 1/lambda I + 1/delta S A Q^+ A' S'),  c flat,
+and integrating c projects onto the complement of the constant vector
+(A 1 = 1). With K = P' S A Q^+ A' S' P = U diag(k) U' (P an orthonormal
+basis of that complement):
+  log p(y | lambda, delta) = -1/2 sum_i [log(1/lambda + k_i/delta)
+                                         + (U'P'y)_i^2 / (1/lambda + k_i/delta)]
+times the Gamma(1, 1e-4) hyperpriors, on a grid in (log lambda, log delta).
+The sampler's posterior means of lambda and delta must match within 4 Monte
+Carlo standard errors (batch means over the chains) plus 1 % for the grid;
+the sds within 15 %.
+"""
+import csv
+import json
+import os
+
+import numpy as np
+import tifffile
+
+import pptest
+
+tmp = pptest.tmpdir()
+rng = np.random.default_rng(7)
+H, W = 10, 9
+yy, xx = np.mgrid[0:H, 0:W]
+truth = 10 + 4 * np.sin(xx / 2.0) + 3 * np.cos(yy / 3.0) + rng.standard_normal((H, W))
+tifffile.imwrite(os.path.join(tmp, "truth.tif"), truth.astype(np.float32))
+PSF = "gaussian:sigma=1.0"
+pptest.run(["psf", PSF, "-o", os.path.join(tmp, "psf.tif")])
+pptest.run(["simulate", os.path.join(tmp, "truth.tif"), "--psf", PSF, "--noise",
+            "gaussian:sigma=3", "--boundary", "pad", "--seed", "3", "-o",
+            os.path.join(tmp, "y.tif")])
+y = tifffile.imread(os.path.join(tmp, "y.tif")).astype(np.float64)
+psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
+out = os.path.join(tmp, "run")
+pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", PSF, "--boundary", "pad",
+            "--chains", "4", "--burn", "300", "--iters", "4000", "--seed", "9", "--quiet",
+            "-o", out])
+summ = json.load(open(os.path.join(out, "summary.json")))
+gw, gh = summ["grid"]["width"], summ["grid"]["height"]
+R = psf.shape[0] // 2
+pptest.check(gh >= H + 2 * R and gw >= W + 2 * R, "grid %dx%d holds the frame plus 2 PSF radii" % (gw, gh))
+
+# Dense operators on the grid (row-major index r * gw + c).
+n = gh * gw
+A = np.zeros((n, n))
+for r in range(gh):
+    for c in range(gw):
+        for i in range(psf.shape[0]):
+            for j in range(psf.shape[1]):
+                A[r * gw + c, ((r + i - R) % gh) * gw + (c + j - R) % gw] += psf[i, j]
+Q = np.zeros((n, n))
+for r in range(gh):
+    for c in range(gw):
+        k = r * gw + c
+        Q[k, k] = 4
+        for dr, dc in ((1, 0), (-1, 0), (0, 1), (0, -1)):
+            Q[k, ((r + dr) % gh) * gw + (c + dc) % gw] -= 1
+obs = np.array([r * gw + c for r in range(H) for c in range(W)])
+B = A[obs]
+nobs = len(obs)
+ones = np.ones((nobs, 1)) / np.sqrt(nobs)
+P = np.linalg.qr(np.hstack([ones, np.eye(nobs)[:, : nobs - 1]]))[0][:, 1:]
+K = P.T @ B @ np.linalg.pinv(Q, hermitian=True) @ B.T @ P
+kap, U = np.linalg.eigh((K + K.T) / 2)
+z2 = (U.T @ P.T @ y.reshape(-1)) ** 2
+
+
+def log_post(ll, ld):
+    lam, dl = np.exp(ll), np.exp(ld)
+    c = 1.0 / lam + kap / dl
+    return -0.5 * np.sum(np.log(c)) - 0.5 * np.sum(z2 / c) - 1e-4 * lam - 1e-4 * dl + ll + ld
+
+
+with open(os.path.join(out, "trace.csv")) as f:
+    rows = list(csv.reader(f))
+head = rows[0]
+tr = np.array([[float(v) for v in row] for row in rows[1:]])
+lam_s, del_s = tr[:, head.index("lambda")], tr[:, head.index("delta")]
+gl = np.linspace(np.log(lam_s.mean()) - 1.5, np.log(lam_s.mean()) + 1.5, 121)
+gd = np.linspace(np.log(del_s.mean()) - 3.0, np.log(del_s.mean()) + 3.0, 121)
+LP = np.array([[log_post(a, b) for b in gd] for a in gl])
+Pm = np.exp(LP - LP.max())
+Pm /= Pm.sum()
+pptest.check(max(Pm[0].max(), Pm[-1].max(), Pm[:, 0].max(), Pm[:, -1].max()) < 1e-5,
+             "the integration grid holds the whole posterior")
+Lg = np.exp(gl)[:, None] * np.ones_like(Pm)
+Dg = np.exp(gd)[None, :] * np.ones_like(Pm)
+
+
+def batch_se(d, chains=4, nb=20):
+    per = d.reshape(chains, -1)
+    m = per[:, : per.shape[1] // nb * nb].reshape(chains * nb, -1).mean(axis=1)
+    return m.std(ddof=1) / np.sqrt(len(m))
+
+
+for name, d, G in (("lambda", lam_s, Lg), ("delta", del_s, Dg)):
+    m_ex = np.sum(Pm * G)
+    s_ex = np.sqrt(np.sum(Pm * G ** 2) - m_ex ** 2)
+    tol = 4 * batch_se(d) + 0.01 * m_ex
+    pptest.check(abs(d.mean() - m_ex) < tol,
+                 "pad: %s posterior mean %.5g vs exact dense marginal %.5g (tol %.2g)"
+                 % (name, d.mean(), m_ex, tol))
+    pptest.check(abs(d.std() - s_ex) < 0.15 * s_ex,
+                 "pad: %s posterior sd %.4g vs exact %.4g (within 15 %%)" % (name, d.std(), s_ex))
+pptest.done()
