@@ -184,8 +184,10 @@ static int run_frame(const char *images, const char *outdir, const demo_frame *f
     if ((rc = make_dir(dir)) != 0)
         return rc;
     const char *svec[] = {"sample", bundled, "--psf", f->psf, "--noise", "gaussian",
-                          "--prior", "gmrf1", "--seed", f->seed, "-o", dir, NULL};
-    printf("  %-18s pixpost sample %s --psf %s --noise gaussian --prior gmrf1 --seed %s -o %s\n",
+                          "--prior", "gmrf1", "--burn", "500", "--iters", "4000",
+                          "--seed", f->seed, "-o", dir, NULL};
+    printf("  %-18s pixpost sample %s --psf %s --noise gaussian --prior gmrf1 --burn 500 "
+           "--iters 4000 --seed %s -o %s\n",
            "", bundled, f->psf, f->seed, dir);
     fflush(stdout);
     return run_vector(cli_cmd_sample, svec);
