@@ -101,8 +101,10 @@ typedef struct pp_chain {
     const double *otf2;    /* |otf|^2 */
     double width;          /* current PSF width (sigma or NA; 0 if fixed) */
     struct pp_width *wstate; /* PSF width sampling (src/psfwidth.c), else NULL */
-    double acceptance; /* pcn/gpcn: field-move acceptance rate after burn-in (else 0) */
-    double step;       /* pcn/gpcn: the step beta fixed after burn-in (else 0) */
+    double acceptance; /* pcn/gpcn: field-move acceptance after burn-in; mtc: that of its
+                        * (lambda, delta) move (else 0) */
+    double step;       /* pcn/gpcn: the step beta fixed after burn-in; mtc: its
+                        * proposal scale (else 0) */
 } pp_chain;
 
 struct pp_sampler;

@@ -25,7 +25,8 @@
 #include "pixpost/psf.h"
 
 typedef enum pp_sampler_kind {
-    PP_SAMPLER_AUTO = 0, /* chosen from the noise model */
+    PP_SAMPLER_AUTO = 0, /* mtc for gaussian + periodic, gibbs for gaussian + pad,
+                          * gpcn for poisson/camera */
     PP_SAMPLER_GIBBS,
     PP_SAMPLER_MTC,
     PP_SAMPLER_PCN,

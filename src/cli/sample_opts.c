@@ -36,7 +36,8 @@ static const cli_opt sample_table[] = {
     {"background", 0, 1, "B",
      "Known background in photons per pixel added to A x (poisson/camera only; B >= 0)."},
     {"sampler", 0, 1, "auto|gibbs|mtc|pcn|gpcn",
-     "MCMC method; auto picks one that fits the noise model (gibbs/mtc need gaussian noise)."},
+     "MCMC method. auto: mtc for gaussian noise with --boundary periodic, gibbs for gaussian "
+     "noise with pad, gpcn for poisson/camera (gibbs/mtc need gaussian noise)."},
     {"chains", 0, 1, "N", "Independent chains run in parallel (whole number >= 1)."},
     {"iters", 0, 1, "N", "Iterations per chain after burn-in (whole number >= 1)."},
     {"burn", 0, 1, "N", "Burn-in iterations per chain, discarded (whole number >= 0)."},
