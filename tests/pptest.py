@@ -1,5 +1,9 @@
 """Shared helpers for the reference checks (tests/ref_*.py).
 
+Running pixpost and the probes, recording checks, and the numerical pieces
+several checks need (reading trace.csv, batch-means errors, the PSF transfer
+function, the gmrf1 eigenvalues, Geyer's ESS).
+
 ctest sets PP_BIN (the pixpost binary), PP_PROBES (folder of the probe_*
 programs), PP_TMP (a scratch folder for this check) and PP_SOURCE_DIR.
 """
@@ -51,3 +55,106 @@ def done():
     n = len(_failures)
     print("%d failed" % n)
     sys.exit(1 if n else 0)
+
+
+# ---- numerical helpers shared by the reference checks ----------------------
+# numpy is imported inside each helper so that checks which never call them
+# (CLI, hostile-input, I/O checks) do not pay for, or depend on, numpy.
+
+
+def read_trace(path):
+    """Reads a trace.csv: returns (header as a list of str, float64 array of
+    shape rows x columns). An empty cell becomes NaN (columns that a sampler
+    leaves blank, e.g. a hyperparameter it does not draw)."""
+    import csv
+    import numpy as np
+    with open(path) as f:
+        rows = list(csv.reader(f))
+    return rows[0], np.array([[float(v) if v else np.nan for v in r] for r in rows[1:]])
+
+
+def batch_se(draws, chains, batches=20):
+    """Monte Carlo standard error of the mean of `draws` by batch means.
+
+    draws: 1-D, the chains one after another (trace.csv order), equal
+    lengths. Each chain is cut into `batches` batches of equal length (the
+    remainder at its end is dropped); the se is the sd of the chains x
+    batches batch means over sqrt(their number) (batch means: e.g. Flegal &
+    Jones, Ann. Statist. 38, 2010, cited from memory; the batch count is a rule of thumb,
+    common practice)."""
+    import numpy as np
+    per = draws.reshape(chains, -1)
+    means = per[:, : per.shape[1] // batches * batches].reshape(chains * batches, -1).mean(axis=1)
+    return means.std(ddof=1) / np.sqrt(len(means))
+
+
+def batch_ess(draws, se, cap=True):
+    """Effective sample size implied by a batch-means standard error `se`
+    (from batch_se): (sd(draws) / se)^2, capped at len(draws) when `cap`."""
+    ess = (draws.std(ddof=1) / se) ** 2
+    return min(ess, len(draws)) if cap else ess
+
+
+def centred_kernel(psf, shape):
+    """The PSF image zero-padded to `shape` (H, W), its centre pixel
+    (psf.shape // 2) rolled to (0, 0): pixpost's centring (DESIGN.md 1),
+    the same as skimage.restoration.uft.ir2tf's."""
+    import numpy as np
+    pad = np.zeros(shape)
+    pad[: psf.shape[0], : psf.shape[1]] = psf
+    return np.roll(pad, (-(psf.shape[0] // 2), -(psf.shape[1] // 2)), axis=(0, 1))
+
+
+def transfer(psf, shape):
+    """Full-spectrum transfer function A = numpy.fft.fft2(centred_kernel)
+    (periodic convolution by the PSF on an H x W grid)."""
+    import numpy as np
+    return np.fft.fft2(centred_kernel(psf, shape))
+
+
+def gmrf1_q(H, W):
+    """Eigenvalues of the periodic 5-point Laplacian on an H x W grid (the
+    gmrf1 precision up to delta; Rue & Held 2005), full spectrum:
+    q(k1, k2) = 4 - 2 cos(2 pi k1 / H) - 2 cos(2 pi k2 / W)."""
+    import numpy as np
+    k1 = np.arange(H)[:, None]
+    k2 = np.arange(W)[None, :]
+    return 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)
+
+
+def geyer_ess(x, monotone=True):
+    """Effective sample size of one chain `x` (1-D) by Geyer's initial
+    sequence estimators (Geyer, Statist. Sci. 7, 1992): autocorrelations
+    rho_t from the FFT autocovariance (numpy, zero-padded to 2n, divided by
+    n), summed in pairs G_m = rho_2m + rho_2m+1 up to the first
+    non-positive pair.
+      monotone=True: initial monotone sequence (each pair replaced by the
+        smallest so far); tau = -1 + 2 sum G_m, ESS = n / max(tau, 1e-9).
+      monotone=False: initial positive sequence; tau = max(2 sum G_m - 1,
+        1/n), ESS = n / tau.
+    A constant chain (zero variance) has no defined autocorrelation: NaN is
+    returned, so that every tolerance built from it fails its comparison."""
+    import numpy as np
+    n = len(x)
+    x = x - x.mean()
+    f = np.fft.rfft(x, 2 * n)
+    acf = np.fft.irfft(f * np.conj(f))[:n] / n
+    if acf[0] <= 0:
+        return float("nan")
+    acf /= acf[0]
+    pairs = acf[0:n - 1:2] + acf[1:n:2]
+    if not monotone:
+        s = 0.0
+        for g in pairs:
+            if g <= 0:
+                break
+            s += g
+        return n / max(2 * s - 1, 1.0 / n)
+    tau, prev = -1.0, np.inf
+    for g in pairs:
+        if g <= 0:
+            break
+        g = min(g, prev)
+        tau += 2 * g
+        prev = g
+    return n / max(tau, 1e-9)

@@ -56,12 +56,8 @@ FRAMES = 8
 psf_path = os.path.join(tmp, "psf.tif")
 pptest.run(["psf", PSF, "-o", psf_path])
 psf = tifffile.imread(psf_path).astype(np.float64)
-pad = np.zeros((H, W))
-pad[:psf.shape[0], :psf.shape[1]] = psf
-A = np.fft.fft2(np.roll(pad, (-(psf.shape[0] // 2), -(psf.shape[1] // 2)), axis=(0, 1)))
-k1 = np.arange(H)[:, None]
-k2 = np.arange(W)[None, :]
-q = 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)
+A = pptest.transfer(psf, (H, W))
+q = pptest.gmrf1_q(H, W)
 kappa2 = 8 * NU / RANGE ** 2
 qm = (kappa2 + q) ** (NU + 1)
 p = LAM * np.abs(A) ** 2 + DELTA * qm

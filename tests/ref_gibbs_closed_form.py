@@ -18,7 +18,6 @@
    hyperpriors. Tolerance: 4 Monte Carlo standard errors from batch means
    of the chains (plus 1 % for the grid).
 """
-import csv
 import json
 import os
 
@@ -40,24 +39,9 @@ y = tifffile.imread(os.path.join(tmp, "y.tif")).astype(np.float64)
 psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
 
 # Transfer function: PSF zero-padded, centre moved to (0, 0).
-pad = np.zeros((H, W))
-r = psf.shape[0] // 2
-pad[:psf.shape[0], :psf.shape[1]] = psf
-pad = np.roll(pad, (-r, -r), axis=(0, 1))
-A = np.fft.fft2(pad)
-k1 = np.arange(H)[:, None]
-k2 = np.arange(W)[None, :]
-q = 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)
+A = pptest.transfer(psf, (H, W))
+q = pptest.gmrf1_q(H, W)
 Y = np.fft.fft2(y)
-
-
-def read_trace(path):
-    with open(path) as f:
-        rows = list(csv.reader(f))
-    head = rows[0]
-    data = np.array([[float(v) for v in row] for row in rows[1:]])
-    return head, data
-
 
 # ---- 1. fixed hyperparameters -------------------------------------------
 lam, dlt = 4.0, 0.8
@@ -78,7 +62,7 @@ pptest.check(err_sd < 1e-6, "fixed hyper: sd.tif = numpy closed-form sd (rel err
 s = json.load(open(os.path.join(out1, "summary.json")))
 pptest.check(s["hyper"]["lambda"]["fixed"] and abs(s["hyper"]["lambda"]["mean"] - lam) < 1e-12,
              "lambda fixed at 1/sigma^2 = 4")
-head, tr = read_trace(os.path.join(out1, "trace.csv"))
+head, tr = pptest.read_trace(os.path.join(out1, "trace.csv"))
 n = tr.shape[0]
 worst = 0.0
 for j, name in enumerate(head):
@@ -97,7 +81,7 @@ out2 = os.path.join(tmp, "hyper")
 pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", "gaussian:sigma=1.3",
             "--boundary", "periodic", "--chains", "4", "--burn", "300", "--iters", "3000",
             "--seed", "12", "--quiet", "-o", out2])
-head, tr = read_trace(os.path.join(out2, "trace.csv"))
+head, tr = pptest.read_trace(os.path.join(out2, "trace.csv"))
 nz = q != 0
 a2 = np.abs(A[nz]) ** 2
 qq = q[nz]
@@ -127,16 +111,9 @@ exact = {"lambda": (np.sum(P * L), np.sqrt(np.sum(P * L ** 2) - np.sum(P * L) **
 pptest.check(P[0, :].max() < 1e-6 and P[-1, :].max() < 1e-6 and P[:, 0].max() < 1e-6
              and P[:, -1].max() < 1e-6, "the integration grid holds the whole posterior")
 
-
-def batch_se(draws, chains=4, nb=20):
-    per = draws.reshape(chains, -1)
-    means = per[:, : per.shape[1] // nb * nb].reshape(chains * nb, -1).mean(axis=1)
-    return means.std(ddof=1) / np.sqrt(len(means))
-
-
 for name, d in (("lambda", lam_s), ("delta", del_s)):
     m_ex, s_ex = exact[name]
-    se = batch_se(d)
+    se = pptest.batch_se(d, 4)
     tol = 4 * se + 0.01 * m_ex
     pptest.check(abs(d.mean() - m_ex) < tol,
                  "%s posterior mean %.6g vs exact marginal %.6g (tol %.2g)" % (name, d.mean(), m_ex, tol))

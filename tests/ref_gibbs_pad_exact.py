@@ -18,7 +18,6 @@ The sampler's posterior means of lambda and delta must match within 4 Monte
 Carlo standard errors (batch means over the chains) plus 1 % for the grid;
 the sds within 15 %.
 """
-import csv
 import json
 import os
 
@@ -80,10 +79,7 @@ def log_post(ll, ld):
     return -0.5 * np.sum(np.log(c)) - 0.5 * np.sum(z2 / c) - 1e-4 * lam - 1e-4 * dl + ll + ld
 
 
-with open(os.path.join(out, "trace.csv")) as f:
-    rows = list(csv.reader(f))
-head = rows[0]
-tr = np.array([[float(v) for v in row] for row in rows[1:]])
+head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
 lam_s, del_s = tr[:, head.index("lambda")], tr[:, head.index("delta")]
 gl = np.linspace(np.log(lam_s.mean()) - 1.5, np.log(lam_s.mean()) + 1.5, 121)
 gd = np.linspace(np.log(del_s.mean()) - 3.0, np.log(del_s.mean()) + 3.0, 121)
@@ -95,17 +91,10 @@ pptest.check(max(Pm[0].max(), Pm[-1].max(), Pm[:, 0].max(), Pm[:, -1].max()) < 1
 Lg = np.exp(gl)[:, None] * np.ones_like(Pm)
 Dg = np.exp(gd)[None, :] * np.ones_like(Pm)
 
-
-def batch_se(d, chains=4, nb=20):
-    per = d.reshape(chains, -1)
-    m = per[:, : per.shape[1] // nb * nb].reshape(chains * nb, -1).mean(axis=1)
-    return m.std(ddof=1) / np.sqrt(len(m))
-
-
 for name, d, G in (("lambda", lam_s, Lg), ("delta", del_s, Dg)):
     m_ex = np.sum(Pm * G)
     s_ex = np.sqrt(np.sum(Pm * G ** 2) - m_ex ** 2)
-    tol = 4 * batch_se(d) + 0.01 * m_ex
+    tol = 4 * pptest.batch_se(d, 4) + 0.01 * m_ex
     pptest.check(abs(d.mean() - m_ex) < tol,
                  "pad: %s posterior mean %.5g vs exact dense marginal %.5g (tol %.2g)"
                  % (name, d.mean(), m_ex, tol))

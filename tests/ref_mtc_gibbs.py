@@ -15,7 +15,6 @@ known PSF and noise). The two samplers must agree within Monte Carlo error:
     posterior integrated on a grid with numpy (formula and style of
     tests/ref_gibbs_closed_form.py), within 4 standard errors + 1 % (grid).
 """
-import csv
 import json
 import os
 
@@ -37,26 +36,13 @@ pptest.run(["simulate", os.path.join(tmp, "truth.tif"), "--psf", PSF, "--noise",
 y = tifffile.imread(os.path.join(tmp, "y.tif")).astype(np.float64)
 psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
 
-
-def read_trace(path):
-    with open(path) as f:
-        rows = list(csv.reader(f))
-    return rows[0], np.array([[float(v) for v in row] for row in rows[1:]])
-
-
-def batch_se(draws, chains=4, nb=20):
-    per = draws.reshape(chains, -1)
-    means = per[:, : per.shape[1] // nb * nb].reshape(chains * nb, -1).mean(axis=1)
-    return means.std(ddof=1) / np.sqrt(len(means))
-
-
 runs = {}
 for kind in ("gibbs", "mtc"):
     out = os.path.join(tmp, kind)
     pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", PSF, "--boundary", "periodic",
                 "--sampler", kind, "--chains", "4", "--burn", "300", "--iters", "3000",
                 "--seed", "21", "--quiet", "-o", out])
-    head, tr = read_trace(os.path.join(out, "trace.csv"))
+    head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
     s = json.load(open(os.path.join(out, "summary.json")))
     pptest.check(s["sampler"] == kind, "%s: summary.json names the sampler" % kind)
     r = {"summary": s,
@@ -64,8 +50,9 @@ for kind in ("gibbs", "mtc"):
          "sd": tifffile.imread(os.path.join(out, "sd.tif")).astype(np.float64)}
     for name in ("lambda", "delta"):
         d = tr[:, head.index(name)]
-        se = batch_se(d)
-        r[name] = (d.mean(), d.std(ddof=1), se, (d.std(ddof=1) / se) ** 2, np.log(d).std())
+        se = pptest.batch_se(d, 4)
+        r[name] = (d.mean(), d.std(ddof=1), se, pptest.batch_ess(d, se, cap=False),
+                   np.log(d).std())
     runs[kind] = r
 
 g, m = runs["gibbs"], runs["mtc"]
@@ -91,14 +78,8 @@ pptest.check(dmean < tol, "pixel means: max |mtc - gibbs| / sd = %.4f < %.4f" % 
 pptest.check(dsd < tol, "pixel sds: max |mtc - gibbs| / sd = %.4f < %.4f" % (dsd, tol))
 
 # ---- mtc vs the exact marginal posterior (numpy grid) ----------------------
-pad = np.zeros((H, W))
-r = psf.shape[0] // 2
-pad[: psf.shape[0], : psf.shape[1]] = psf
-pad = np.roll(pad, (-r, -r), axis=(0, 1))
-A = np.fft.fft2(pad)
-k1 = np.arange(H)[:, None]
-k2 = np.arange(W)[None, :]
-q = 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)
+A = pptest.transfer(psf, (H, W))
+q = pptest.gmrf1_q(H, W)
 Y = np.fft.fft2(y)
 nz = q > 1e-12
 a2, qq, yy = np.abs(A[nz]) ** 2, q[nz], np.abs(Y[nz]) ** 2 / (H * W)

@@ -27,7 +27,6 @@ A deliberately wrong posterior (the Jacobian of (lambda, delta) ->
 (lambda, rho) dropped, i.e. one power of lambda/rho^2 missing) must fail the
 same mean check, to show the check can fire.
 """
-import csv
 import json
 import os
 
@@ -43,13 +42,8 @@ N = H * W
 PSF = "gaussian:sigma=1.2"
 pptest.run(["psf", PSF, "-o", os.path.join(tmp, "psf.tif")])
 psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
-R = psf.shape[0] // 2
-pad = np.zeros((H, W))
-pad[: psf.shape[0], : psf.shape[1]] = psf
-A = np.fft.fft2(np.roll(pad, (-R, -R), axis=(0, 1)))
-k1 = np.arange(H)[:, None]
-k2 = np.arange(W)[None, :]
-q = 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)  # gmrf1 (Rue & Held)
+A = pptest.transfer(psf, (H, W))
+q = pptest.gmrf1_q(H, W)  # gmrf1 (Rue & Held)
 nz = q > 1e-12
 truth = 50 + np.cumsum(np.cumsum(rng.standard_normal((H, W)), 0), 1) / 4
 y = np.real(np.fft.ifft2(np.fft.fft2(truth) * A)) + 0.3 * rng.standard_normal((H, W))
@@ -70,17 +64,10 @@ def log_prior(ll, h):  # Gamma(shape, rate) on e^ll, in ll (Jacobian e^ll)
     return h[0] * ll - h[1] * np.exp(ll)
 
 
-def read_trace(path):
-    with open(path) as f:
-        rows = list(csv.reader(f))
-    return rows[0], np.array([[float(v) for v in row] for row in rows[1:]])
-
-
-def batch(d, chains, nb=20):
-    per = d.reshape(chains, -1)
-    m = per[:, : per.shape[1] // nb * nb].reshape(chains * nb, -1).mean(axis=1)
-    se = m.std(ddof=1) / np.sqrt(len(m))
-    return se, min((d.std(ddof=1) / se) ** 2, len(d))
+def batch(d, chains):
+    """Batch-means se (20 batches per chain) and the ESS it implies (<= n)."""
+    se = pptest.batch_se(d, chains)
+    return se, pptest.batch_ess(d, se)
 
 
 def sample(name, extra, chains=4, iters=4000):
@@ -88,7 +75,7 @@ def sample(name, extra, chains=4, iters=4000):
     pptest.run(["sample", frame, "--psf", PSF, "--boundary", "periodic", "--sampler", "mtc",
                 "--chains", str(chains), "--burn", "100", "--iters", str(iters), "--seed", "31",
                 "--quiet", "-o", out] + extra)
-    head, tr = read_trace(os.path.join(out, "trace.csv"))
+    head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
     return head, tr, json.load(open(os.path.join(out, "summary.json")))
 
 

@@ -16,7 +16,6 @@ Also: trace.csv has psf_width right after loglik, summary.json has
 hyper.psf_width, and gibbs's width posterior mean (Metropolis on the
 conditional given x) is near mtc's on one frame.
 """
-import csv
 import json
 import os
 
@@ -34,12 +33,8 @@ R = int(np.ceil(4 * HI))
 a = np.arange(-R, R + 1)
 kern = np.exp(-(a[:, None] ** 2 + a[None, :] ** 2) / (2 * SIG ** 2))
 kern /= kern.sum()
-pad = np.zeros((H, W))
-pad[: 2 * R + 1, : 2 * R + 1] = kern
-OTF = np.fft.fft2(np.roll(pad, (-R, -R), axis=(0, 1)))
-k1 = np.arange(H)[:, None]
-k2 = np.arange(W)[None, :]
-q = 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)
+OTF = pptest.transfer(kern, (H, W))
+q = pptest.gmrf1_q(H, W)
 rng = np.random.default_rng(61)
 
 
@@ -48,12 +43,6 @@ def simulate():
     Xk = np.where(q > 0, Wk / np.sqrt(1.0 * np.where(q > 0, q, 1)), 0)
     x = 100 + np.real(np.fft.ifft2(Xk))
     return np.real(np.fft.ifft2(np.fft.fft2(x) * OTF)) + 0.1 * rng.standard_normal((H, W))
-
-
-def read_trace(path):
-    with open(path) as f:
-        rows = list(csv.reader(f))
-    return rows[0], np.array([[float(v) for v in row] for row in rows[1:]])
 
 
 pptest.check(stats.binom.cdf(14, 20, 0.95) < 1e-3, "P(count <= 14 | 20, 0.95) = %.1e"
@@ -66,7 +55,7 @@ for f in range(20):
     os.makedirs(out)
     pptest.probe("mtc", ["run", y, SPEC, out, "sampler=mtc", "boundary=periodic", "chains=2",
                          "burn=150", "iters=400", "seed=%d" % (f + 1)])
-    head, tr = read_trace(os.path.join(out, "trace.csv"))
+    head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
     if f == 0:
         pptest.check(head[:6] == ["chain", "iter", "lambda", "delta", "loglik", "psf_width"],
                      "trace.csv columns: psf_width follows loglik (%s)" % ",".join(head[:6]))
@@ -91,10 +80,9 @@ for kind in ("mtc", "gibbs"):
     os.makedirs(out)
     pptest.probe("mtc", ["run", y0, SPEC, out, "sampler=" + kind, "boundary=periodic",
                          "chains=4", "burn=300", "iters=1500", "seed=9"])
-    head, tr = read_trace(os.path.join(out, "trace.csv"))
-    w = tr[:, head.index("psf_width")].reshape(4, -1)
-    bm = w[:, : w.shape[1] // 10 * 10].reshape(40, -1).mean(axis=1)
-    outs[kind] = (w.mean(), bm.std(ddof=1) / np.sqrt(len(bm)), w.std())
+    head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
+    w = tr[:, head.index("psf_width")]
+    outs[kind] = (w.mean(), pptest.batch_se(w, 4, batches=10), w.std())
 (mm, sem, sdm), (mg, seg, sdg) = outs["mtc"], outs["gibbs"]
 z = (mm - mg) / np.hypot(sem, seg)
 pptest.check(abs(z) < 4, "frame 0 sigma posterior mean: mtc %.4f vs gibbs %.4f (z = %.2f; "

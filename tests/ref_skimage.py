@@ -81,16 +81,6 @@ def smooth_truth(H, W, seed):
     return t
 
 
-def spectra(H, W):
-    pad = np.zeros((H, W))
-    pad[:psf.shape[0], :psf.shape[1]] = psf
-    pad = np.roll(pad, (-(psf.shape[0] // 2), -(psf.shape[1] // 2)), axis=(0, 1))
-    k1 = np.arange(H)[:, None]
-    k2 = np.arange(W)[None, :]
-    q = 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)
-    return pad, np.fft.fft2(pad), q
-
-
 def exact_posterior(y, A, q2, center):
     """Grid posterior of (lambda, delta) and the exact posterior mean image."""
     H, W = y.shape
@@ -138,21 +128,8 @@ def mu_at(y, A, q2, lam, dl):
     return np.real(np.fft.ifft2(mu_hat))
 
 
-def batch_se(d, chains, nb=20):
-    per = d.reshape(chains, -1)
-    per = per[:, : per.shape[1] // nb * nb]
-    means = per.reshape(chains * nb, -1).mean(axis=1)
-    return means.std(ddof=1) / np.sqrt(len(means))
-
-
 def rel_rms(a, b):
     return np.sqrt(np.mean((a - b) ** 2)) / np.sqrt(np.mean(b ** 2))
-
-
-def read_trace(path):
-    with open(path) as f:
-        head = f.readline().strip().split(",")
-    return head, np.loadtxt(path, delimiter=",", skiprows=1)
 
 
 for H, W, seed in ((96, 80, 7), (96, 79, 8)):
@@ -165,8 +142,9 @@ for H, W, seed in ((96, 80, 7), (96, 79, 8)):
                 "--noise", "gaussian:sigma=0.5", "--boundary", "periodic", "--seed", seed,
                 "-o", os.path.join(d, "y.tif")])
     y = tifffile.imread(os.path.join(d, "y.tif")).astype(np.float64)
-    pad, A, q = spectra(H, W)
-    q2 = q ** 2
+    pad = pptest.centred_kernel(psf, (H, W))
+    A = np.fft.fft2(pad)
+    q2 = pptest.gmrf1_q(H, W) ** 2
     q2[0, 0] = 0.0
 
     # ---- conventions of skimage (uft.py), checked numerically ----------------
@@ -193,7 +171,7 @@ for H, W, seed in ((96, 80, 7), (96, 79, 8)):
                 "--hyper-lambda", "0,0", "--hyper-delta", "0,0", "--boundary", "periodic",
                 "--chains", "4", "--burn", "300", "--iters", "1500", "--seed", seed + 10,
                 "--quiet", "-o", out])
-    head, tr = read_trace(os.path.join(out, "trace.csv"))
+    head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
     pp = {n: tr[:, head.index(n)] for n in ("lambda", "delta")}
     pp_mean = tifffile.imread(os.path.join(out, "mean.tif")).astype(np.float64)
     pp_sd = tifffile.imread(os.path.join(out, "sd.tif")).astype(np.float64)
@@ -208,7 +186,7 @@ for H, W, seed in ((96, 80, 7), (96, 79, 8)):
     pptest.check(ex["tail"] > 100, "%s: improper Jeffreys tail negligible" % tag)
     for name in ("lambda", "delta"):
         m_ex, s_ex = ex[name]
-        tol = 4 * batch_se(pp[name], 4) + 0.01 * m_ex
+        tol = 4 * pptest.batch_se(pp[name], 4) + 0.01 * m_ex
         ok = abs(pp[name].mean() - m_ex) < tol
         pptest.check(ok, "%s: pixpost %s mean %.5g vs exact %.5g (tol %.2g)"
                      % (tag, name, pp[name].mean(), m_ex, tol))
@@ -247,7 +225,7 @@ for H, W, seed in ((96, 80, 7), (96, 79, 8)):
                      "(tol %.2e)" % (tag, label, e_skpp, tol))
         if label != "long":
             continue
-        se_n, se_x = batch_se(gn, 1), batch_se(gx, 1)
+        se_n, se_x = pptest.batch_se(gn, 1), pptest.batch_se(gx, 1)
         if W % 2:
             for nm, ch, se in (("lambda", gn, se_n), ("delta", gx, se_x)):
                 m_ex = ex[nm][0]
