@@ -172,6 +172,31 @@ static void refusals(const pp_image *psf)
     pp_image_free(y);
 }
 
+/* gpcn with a burn-in too short to adapt is warned about by name; the
+ * default burn-in (200) is not. */
+static void short_burn_warned(const pp_image *psf)
+{
+    pp_image *y = photon_frame(psf, 20, 1, 0);
+    pp_sampler_config cfg;
+    pp_sampler_defaults(&cfg);
+    pp_noise_parse("poisson:gain=1,offset=0", &cfg.noise);
+    pp_prior_parse("matern:range=4,nu=1", &cfg.prior);
+    cfg.kind = PP_SAMPLER_GPCN;
+    cfg.chains = 1;
+    cfg.iters = 20;
+    for (int pass = 0; pass < 2; pass++) {
+        cfg.burn = pass ? 200 : 100;
+        pp_sampler *s = run(&cfg, y, psf);
+        int found = 0;
+        for (size_t i = 0; s && i < pp_sampler_warning_count(s); i++)
+            found |= strstr(pp_sampler_warning(s, i), "too short to adapt") != NULL;
+        CHECK(found == !pass, "burn %lu: short burn-in warning %s", cfg.burn,
+              found ? "given" : "absent");
+        pp_sampler_free(s);
+    }
+    pp_image_free(y);
+}
+
 int main(void)
 {
     pp_psf_spec ps;
@@ -183,6 +208,7 @@ int main(void)
     gaussian_closed_form(psf, PP_SAMPLER_PCN);
     gaussian_closed_form(psf, PP_SAMPLER_GPCN);
     refusals(psf);
+    short_burn_warned(psf);
     pp_image_free(psf);
     return pp_test_done();
 }
