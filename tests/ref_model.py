@@ -55,7 +55,7 @@ for (h, w, n) in [(45, 37, 9), (37, 45, 5), (10, 6, 9), (33, 50, 1)]:
                      "(rel err %.1e)" % (ours, h, w, n, theirs, err))
 
 # (b) Sources: scipy.special.j1 (which wraps the same Cephes routine, so this
-# checks our transcription) and mpmath.besselj at 30 digits (independent).
+# checks that our copy of the coefficients is exact) and mpmath.besselj at 30 digits (independent).
 xs = np.linspace(0, 50, 2001)
 j = floats(pptest.probe("model", ["j1"] + [repr(v) for v in xs]))
 err = np.abs(j - scipy.special.j1(xs)).max()

@@ -15,7 +15,6 @@ probe draw means vs mu (se = sqrt(v/ESS)), probe draw variances vs v
 (se ~ v sqrt(2/ESS), for a Gaussian), every pixel of mean.tif vs mu with the
 smallest probe ESS (5 se, ~1000 pixels), sd.tif vs sqrt(v) (5 se of sqrt).
 """
-import csv
 import json
 import os
 
@@ -25,28 +24,8 @@ import tifffile
 import pptest
 
 
-def geyer_ess(x):
-    """ESS of one chain: Geyer's initial monotone positive-pair sequence."""
-    n = len(x)
-    x = x - x.mean()
-    f = np.fft.rfft(x, 2 * n)
-    acf = np.fft.irfft(f * np.conj(f))[:n] / n
-    acf /= acf[0]
-    pairs = acf[0:n - 1:2] + acf[1:n:2]
-    tau, prev = -1.0, np.inf
-    for g in pairs:
-        if g <= 0:
-            break
-        g = min(g, prev)
-        tau += 2 * g
-        prev = g
-    return n / max(tau, 1e-9)
-
-
-def read_trace(path):
-    with open(path) as f:
-        rows = list(csv.reader(f))
-    return rows[0], np.array([[float(v) if v else np.nan for v in r] for r in rows[1:]])
+geyer_ess = pptest.geyer_ess  # Geyer 1992, initial monotone sequence
+read_trace = pptest.read_trace
 
 
 tmp = pptest.tmpdir()
@@ -60,10 +39,7 @@ pptest.run(["simulate", os.path.join(tmp, "truth.tif"), "--psf", "gaussian:sigma
             "-o", os.path.join(tmp, "y.tif")])
 y = tifffile.imread(os.path.join(tmp, "y.tif")).astype(np.float64)
 psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
-pad = np.zeros((H, W))
-r = psf.shape[0] // 2
-pad[:psf.shape[0], :psf.shape[1]] = psf
-A = np.fft.fft2(np.roll(pad, (-r, -r), axis=(0, 1)))
+A = pptest.transfer(psf, (H, W))
 lam, dlt, M, rng_, nu = 4.0, 0.5, 5.0, 4.0, 1.0
 kap2 = 8 * nu / rng_ ** 2
 k1 = np.arange(H)[:, None]

@@ -16,7 +16,6 @@ must agree with the reference at every pixel within 5 combined standard
 errors (se of an sd estimate ~ sd / sqrt(2 ESS), for near-Gaussian draws);
 144 pixels, so 5 se keeps false alarms rare.
 """
-import csv
 import json
 import os
 
@@ -26,28 +25,8 @@ import tifffile
 import pptest
 
 
-def geyer_ess(x):
-    """ESS of one chain: Geyer's initial monotone positive-pair sequence."""
-    n = len(x)
-    x = x - x.mean()
-    f = np.fft.rfft(x, 2 * n)
-    acf = np.fft.irfft(f * np.conj(f))[:n] / n
-    acf /= acf[0]
-    pairs = acf[0:n - 1:2] + acf[1:n:2]
-    tau, prev = -1.0, np.inf
-    for g in pairs:
-        if g <= 0:
-            break
-        g = min(g, prev)
-        tau += 2 * g
-        prev = g
-    return n / max(tau, 1e-9)
-
-
-def read_trace(path):
-    with open(path) as f:
-        rows = list(csv.reader(f))
-    return rows[0], np.array([[float(v) if v else np.nan for v in r] for r in rows[1:]])
+geyer_ess = pptest.geyer_ess  # Geyer 1992, initial monotone sequence
+read_trace = pptest.read_trace
 
 
 tmp = pptest.tmpdir()
@@ -55,10 +34,7 @@ H = W = 12
 M, DLT, RANGE, B = np.log(8.0), 1.0, 3.0, 1.0
 pptest.run(["psf", "gaussian:sigma=1.0", "--size", "7", "-o", os.path.join(tmp, "psf.tif")])
 psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
-pad = np.zeros((H, W))
-r = psf.shape[0] // 2
-pad[:psf.shape[0], :psf.shape[1]] = psf
-A = np.fft.fft2(np.roll(pad, (-r, -r), axis=(0, 1)))
+A = pptest.transfer(psf, (H, W))
 k1 = np.arange(H)[:, None]
 k2 = np.arange(W)[None, :]
 q = (8.0 / RANGE ** 2 + 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)) ** 2
