@@ -108,6 +108,8 @@ static void display_name(const char *name, char *buf, size_t n)
         snprintf(buf, n, "\xce\xb4 (prior precision)");
     else if (strcmp(name, "loglik") == 0)
         snprintf(buf, n, "log-likelihood");
+    else if (strcmp(name, "psf_width") == 0)
+        snprintf(buf, n, "PSF width (gaussian sigma in pixels, or airy NA)");
     else if (sscanf(name, "p_%u_%u", &r, &c) == 2)
         snprintf(buf, n, "pixel at row %u, column %u", r, c);
     else
@@ -428,6 +430,9 @@ static void histograms_section(page *pg)
           pg->f);
     histogram(pg, "lambda");
     histogram(pg, "delta");
+    for (size_t j = 0; j < pg->in->trace->ncols; j++)
+        if (strcmp(pg->in->trace->names[j], "psf_width") == 0)
+            histogram(pg, "psf_width"); /* only when the width was sampled */
     fputs("</div></section>\n", pg->f);
 }
 

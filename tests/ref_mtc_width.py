@@ -87,4 +87,18 @@ for kind in ("mtc", "gibbs"):
 z = (mm - mg) / np.hypot(sem, seg)
 pptest.check(abs(z) < 4, "frame 0 sigma posterior mean: mtc %.4f vs gibbs %.4f (z = %.2f; "
              "sd %.4f vs %.4f)" % (mm, mg, z, sdm, sdg))
+
+# Through the command line: --psf ...sigma=auto reaches the sampler, and the
+# width appears in summary.json, trace.csv and the report's histograms.
+cli = os.path.join(tmp, "cli")
+pptest.run(["sample", y0, "--psf", SPEC, "--sampler", "mtc", "--boundary", "periodic",
+            "--chains", "2", "--burn", "100", "--iters", "200", "--quiet", "-o", cli])
+summ = json.load(open(os.path.join(cli, "summary.json")))
+pw = summ["hyper"].get("psf_width", {})
+head, _ = pptest.read_trace(os.path.join(cli, "trace.csv"))
+page = open(os.path.join(cli, "report.html")).read()
+pptest.check(not pw.get("fixed", True) and 0.5 < pw.get("mean", 0) < 4 and "psf_width" in head
+             and 'id="hist-psf_width"' in page,
+             "pixpost sample with sigma=auto: hyper.psf_width (mean %s), a trace column and a "
+             "histogram in report.html" % pw.get("mean"))
 pptest.done()
