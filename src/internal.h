@@ -194,8 +194,6 @@ void pp_sampler_warn(pp_sampler *s, const char *fmt, ...) PP_PRINTF(2, 3);
 /* Progress and stop handling for a chain: call once per iteration. Returns
  * non-zero when the caller asked to stop. */
 int pp_sampler_tick(pp_sampler *s);
-/* Probe values of the field whose half spectrum is xh, written to out. */
-void pp_sampler_probes(const pp_sampler *s, const pp_complex *xh, double *out);
 
 /* ---- Pieces of the Gibbs kernel shared with mtc (src/sampler_gibbs.c) -- */
 /* Full-spectrum sums of one conditional draw (already divided by N). */

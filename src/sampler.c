@@ -271,24 +271,6 @@ static pp_status plan_probes(pp_sampler *s)
     return PP_OK;
 }
 
-void pp_sampler_probes(const pp_sampler *s, const pp_complex *xh, double *out)
-{
-    for (size_t p = 0; p < s->nprobe; p++) {
-        const pp_complex *tc = s->tw_col + p * s->gwh, *tr = s->tw_row + p * s->gh;
-        double acc = 0;
-        for (size_t k1 = 0; k1 < s->gh; k1++) {
-            const pp_complex *row = xh + k1 * s->gwh;
-            double re = 0, im = 0;
-            for (size_t k2 = 0; k2 < s->gwh; k2++) {
-                re += creal(row[k2]) * creal(tc[k2]) - cimag(row[k2]) * cimag(tc[k2]);
-                im += creal(row[k2]) * cimag(tc[k2]) + cimag(row[k2]) * creal(tc[k2]);
-            }
-            acc += re * creal(tr[k1]) - im * cimag(tr[k1]);
-        }
-        out[p] = acc;
-    }
-}
-
 static pp_status plan_trace(pp_sampler *s)
 {
     /* A sampled PSF width gets the column after loglik; probes follow. */

@@ -126,12 +126,12 @@ fused_sums pp_gibbs_fused_pass(const pp_sampler *s, const pp_chain *c, int want_
                         (edge.c0 + 2 * in.c0) * invn};
 }
 
-/* Probe values of the field whose half spectrum is xh (the same numbers as
- * pp_sampler_probes, whose tables it reads). The probes sit on a few
- * distinct columns (3 for the 3 x 3 spread), so each row's inner sum is
- * made once per distinct column and combined with each probe's row
- * twiddle: ncol instead of nprobe complex multiply-adds per entry, one
- * read of xh. */
+/* Probe values of the field whose half spectrum is xh: the inverse DFT at
+ * each probe as a direct half-spectrum sum, with the twiddle tables that
+ * sampler.c plans. The probes sit on a few distinct columns (3 for the
+ * 3 x 3 spread), so each row's inner sum is made once per distinct column
+ * and combined with each probe's row twiddle: ncol instead of nprobe
+ * complex multiply-adds per entry, one read of xh. */
 static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
 {
     size_t ucol[PP_MAX_PROBES], nu = 0, which[PP_MAX_PROBES];
