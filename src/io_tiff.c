@@ -81,17 +81,28 @@ static pp_status check_readable(const char *path)
     return PP_OK;
 }
 
-pp_status pp_tiff_count_pages(const char *path, unsigned *pages)
+/* Opens path for reading after the cheap checks (exists, not empty); m
+ * collects libtiff's messages for as long as *t is open. */
+static pp_status open_reader(const char *path, tiff_msg *m, TIFF **t)
 {
-    *pages = 0;
     pp_status st = check_readable(path);
     if (st != PP_OK)
         return st;
-    tiff_msg m;
-    TIFF *t = tiff_open(path, "r", &m);
-    if (!t)
+    *t = tiff_open(path, "r", m);
+    if (!*t)
         return pp_fail(PP_ERR_FORMAT, "%s: not a readable TIFF (corrupt or truncated): %s", path,
-                       msg_or(&m, "libtiff cannot open it"));
+                       msg_or(m, "libtiff cannot open it"));
+    return PP_OK;
+}
+
+pp_status pp_tiff_count_pages(const char *path, unsigned *pages)
+{
+    *pages = 0;
+    tiff_msg m;
+    TIFF *t;
+    pp_status st = open_reader(path, &m, &t);
+    if (st != PP_OK)
+        return st;
     *pages = TIFFNumberOfDirectories(t);
     TIFFClose(t);
     return PP_OK;
@@ -359,14 +370,11 @@ pp_status pp_tiff_read(const char *path, const pp_read_options *opt, pp_image **
     *out = NULL;
     pp_io_info_clear(info);
     pp_read_options o = pp_io_options(opt);
-    pp_status st = check_readable(path);
+    tiff_msg m;
+    TIFF *t;
+    pp_status st = open_reader(path, &m, &t);
     if (st != PP_OK)
         return st;
-    tiff_msg m;
-    TIFF *t = tiff_open(path, "r", &m);
-    if (!t)
-        return pp_fail(PP_ERR_FORMAT, "%s: not a readable TIFF (corrupt or truncated): %s", path,
-                       msg_or(&m, "libtiff cannot open it"));
     unsigned pages = TIFFNumberOfDirectories(t);
     if (info)
         info->pages = pages;
