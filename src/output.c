@@ -26,7 +26,7 @@ static double quantile_sorted(const double *v, size_t n, double p)
     return v[lo] + (h - (double)lo) * (v[hi] - v[lo]);
 }
 
-static void json_string(FILE *f, const char *s)
+void pp_json_write_string(FILE *f, const char *s)
 {
     fputc('"', f);
     for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
@@ -179,7 +179,7 @@ static void json_pcn(FILE *f, const pp_sampler *s)
 {
     const pp_sampler_config *c = &s->cfg;
     fputs("  \"likelihood\": ", f);
-    json_string(f, s->likelihood);
+    pp_json_write_string(f, s->likelihood);
     fprintf(f, ",\n  \"positivity\": \"%s\",\n  \"background\": ",
             c->positivity == PP_POSITIVITY_LOG ? "log" : "none");
     json_number(f, c->background);
@@ -201,7 +201,7 @@ static void json_mtc(FILE *f, const pp_sampler *s)
                "proposal at the Laplace approximation; step = its scale), then lambda | "
                "lambda/delta exact (Gamma)";
     fputs("  \"hyper_move\": ", f);
-    json_string(f, move);
+    pp_json_write_string(f, move);
     fputs(",\n", f);
     json_chain_moves(f, s);
 }
@@ -222,9 +222,9 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     pp_noise_format(&c->noise, noise, sizeof noise);
     pp_prior_format(&c->prior, prior, sizeof prior);
     fprintf(f, "{\n  \"version\": \"%s\",\n  \"command\": ", PIXPOST_VERSION);
-    json_string(f, info ? info->command_line : NULL);
+    pp_json_write_string(f, info ? info->command_line : NULL);
     fputs(",\n  \"input\": ", f);
-    json_string(f, info ? info->input_path : NULL);
+    pp_json_write_string(f, info ? info->input_path : NULL);
     fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu},\n", frame->width,
             frame->height);
     fprintf(f, "  \"grid\": {\"width\": %zu, \"height\": %zu},\n", s->gw, s->gh);
@@ -235,15 +235,15 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
             (unsigned long long)c->seed, s->trace.kept, pp_boundary_name(c->boundary));
     if (c->kind == PP_SAMPLER_MTC && c->boundary == PP_BOUNDARY_PAD) {
         fputs("  \"pad_scheme\": ", f); /* how mtc handled the padding */
-        json_string(f, s->pad_scheme);
+        pp_json_write_string(f, s->pad_scheme);
         fputs(",\n", f);
     }
     fputs("  \"psf\": ", f);
-    json_string(f, info ? info->psf_spec : NULL);
+    pp_json_write_string(f, info ? info->psf_spec : NULL);
     fputs(",\n  \"noise\": ", f);
-    json_string(f, noise);
+    pp_json_write_string(f, noise);
     fputs(",\n  \"prior\": ", f);
-    json_string(f, prior);
+    pp_json_write_string(f, prior);
     fprintf(f, ",\n  \"hyperprior\": {\"lambda\": [%.10g, %.10g], \"delta\": [%.10g, %.10g], "
                "\"form\": \"Gamma(shape, rate)\"},\n",
             c->hyper_lambda[0], c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1]);
@@ -257,7 +257,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
         st = json_hyper(f, "psf_width", s, (size_t)s->col_width, 0);
     }
     fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
-    json_string(f, s->bound_method);
+    pp_json_write_string(f, s->bound_method);
     unsigned long long iters = (unsigned long long)c->chains * (c->burn + c->iters);
     fputs("},\n  \"timing\": {\"seconds_total\": ", f);
     json_number(f, info ? info->seconds_total : s->seconds);
@@ -277,7 +277,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     fputs("  \"warnings\": [", f);
     for (size_t i = 0; i < s->nwarnings; i++) {
         fputs(i ? ", " : "", f);
-        json_string(f, s->warnings[i]);
+        pp_json_write_string(f, s->warnings[i]);
     }
     fputs("]\n}\n", f);
     if (st != PP_OK) {

@@ -11,6 +11,7 @@
 #ifndef PIXPOST_OUTPUT_H
 #define PIXPOST_OUTPUT_H
 
+#include <stdio.h>
 #include "pixpost/sampler.h"
 
 /* What the caller knows about the run that the sampler does not. Every
@@ -23,6 +24,11 @@ typedef struct pp_run_info {
     const char *command_line;
     double seconds_total;   /* wall time of the whole command so far */
 } pp_run_info;
+
+/* Writes s (NULL: "") to f as a JSON string literal: quotes, with '"' and
+ * '\\' escaped and control characters as \u00XX; other bytes (UTF-8) as
+ * they are. Shared by summary.json and the batch manifest. */
+void pp_json_write_string(FILE *f, const char *s);
 
 pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
                           const pp_run_info *info);

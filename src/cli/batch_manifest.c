@@ -12,6 +12,7 @@
  * Cost: O(frames) text per manifest rewrite, one small read per frame.
  */
 #include "batch.h"
+#include "pixpost/output.h"
 #include <dirent.h>
 #include <errno.h>
 #include <math.h>
@@ -252,20 +253,6 @@ static void write_csv(FILE *f, const batch_row *rows, size_t n)
     }
 }
 
-static void json_text(FILE *f, const char *s)
-{
-    fputc('"', f);
-    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
-        if (*p == '"' || *p == '\\')
-            fprintf(f, "\\%c", *p);
-        else if (*p < 0x20)
-            fprintf(f, "\\u%04x", *p);
-        else
-            fputc(*p, f);
-    }
-    fputc('"', f);
-}
-
 static void json_num(FILE *f, const char *key, double v)
 {
     fprintf(f, ", \"%s\": ", key);
@@ -282,10 +269,10 @@ static void write_json(FILE *f, const batch_row *rows, size_t n, const char *ind
     for (size_t i = 0; i < n; i++)
         count[rows[i].status & 3]++;
     fputs("{\n  \"input\": ", f);
-    json_text(f, indir);
+    pp_json_write_string(f, indir);
     fputs(",\n  \"shard\": ", f);
     if (shard)
-        json_text(f, shard);
+        pp_json_write_string(f, shard);
     else
         fputs("null", f);
     fprintf(f,
@@ -295,13 +282,13 @@ static void write_json(FILE *f, const batch_row *rows, size_t n, const char *ind
     for (size_t i = 0; i < n; i++) {
         const batch_row *r = &rows[i];
         fputs(i ? ",\n    {\"path\": " : "\n    {\"path\": ", f);
-        json_text(f, r->path);
+        pp_json_write_string(f, r->path);
         if (r->page)
             fprintf(f, ", \"page\": %d", r->page);
         else
             fputs(", \"page\": null", f);
         fputs(", \"output\": ", f);
-        json_text(f, r->output);
+        pp_json_write_string(f, r->output);
         fprintf(f, ", \"status\": \"%s\"", batch_status_name(r->status));
         json_num(f, "seconds", r->seconds);
         json_num(f, "lambda_mean", r->lambda_mean);
@@ -309,7 +296,7 @@ static void write_json(FILE *f, const batch_row *rows, size_t n, const char *ind
         json_num(f, "rhat_max", r->rhat_max);
         json_num(f, "ess_min", r->ess_min);
         fputs(", \"message\": ", f);
-        json_text(f, r->message);
+        pp_json_write_string(f, r->message);
         fputc('}', f);
     }
     fputs("\n  ]\n}\n", f);
