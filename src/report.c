@@ -172,6 +172,18 @@ static void block_note(FILE *f, const pp_image *img)
         fprintf(f, " Shown as means of %zu&times;%zu pixel blocks.", k, k);
 }
 
+/* The end of a figure's caption: the units, where the mapping's ends come
+ * from ("of this <what>"), the block-mean note, and the closing tags. */
+static void caption_end(page *pg, const pp_image *img, const char *what)
+{
+    FILE *f = pg->f;
+    pp_report_escape(f, pg->units);
+    fprintf(f, " (the %.1fth and %.1fth percentiles of this %s; values beyond are clipped).",
+            ROBUST_LO, ROBUST_HI, what);
+    block_note(f, img);
+    fputs("</figcaption></figure>\n", f);
+}
+
 /* One grey figure: frame or mean. */
 static pp_status grey_figure(page *pg, const char *id, const pp_image *img, const char *what)
 {
@@ -190,13 +202,7 @@ static pp_status grey_figure(page *pg, const char *id, const pp_image *img, cons
             "\"><figcaption><b>%s</b> (%zu&times;%zu pixels). Grey, linear: black = %.4g, "
             "white = %.4g ",
             what, img->width, img->height, lo, hi);
-    pp_report_escape(f, pg->units);
-    fprintf(f,
-            " (the %.1fth and %.1fth percentiles of this image, so each grey image has "
-            "its own scale; values beyond are clipped).",
-            ROBUST_LO, ROBUST_HI);
-    block_note(f, img);
-    fputs("</figcaption></figure>\n", f);
+    caption_end(pg, img, "image, so each grey image has its own scale");
     return PP_OK;
 }
 
@@ -223,11 +229,7 @@ static pp_status colour_figure(page *pg, const char *key, const pp_image *img, c
             "<figcaption><b>%s</b>: %s Colour, linear from %.4g (darkest) to %.4g "
             "(brightest) ",
             what, explain, lo, hi);
-    pp_report_escape(f, pg->units);
-    fprintf(f, " (the %.1fth and %.1fth percentiles of this map; values beyond are clipped).",
-            ROBUST_LO, ROBUST_HI);
-    block_note(f, img);
-    fputs("</figcaption></figure>\n", f);
+    caption_end(pg, img, "map");
     return PP_OK;
 }
 
