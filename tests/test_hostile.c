@@ -150,62 +150,17 @@ static void test_beads(void)
     }
 }
 
-/* ---- PNG headers by hand ---------------------------------------------- */
-
-static uint32_t crc32_of(const unsigned char *p, size_t n)
-{
-    uint32_t c = 0xFFFFFFFFu;
-    for (size_t i = 0; i < n; i++) {
-        c ^= p[i];
-        for (int k = 0; k < 8; k++)
-            c = (c >> 1) ^ (0xEDB88320u & (0u - (c & 1u)));
-    }
-    return c ^ 0xFFFFFFFFu;
-}
-
-static void put32(unsigned char *p, uint32_t v)
-{
-    p[0] = (unsigned char)(v >> 24), p[1] = (unsigned char)(v >> 16);
-    p[2] = (unsigned char)(v >> 8), p[3] = (unsigned char)v;
-}
-
-/* Signature + IHDR (w x h, 8-bit gray) + an empty IDAT + IEND: a header
- * that promises pixels the file does not hold. */
-static void write_png_header(const char *path, uint32_t w, uint32_t h)
-{
-    unsigned char b[8 + 25 + 12 + 12] = {0x89, 'P', 'N', 'G', '\r', '\n', 0x1a, '\n'};
-    unsigned char *c = b + 8;
-    put32(c, 13);
-    memcpy(c + 4, "IHDR", 4);
-    put32(c + 8, w);
-    put32(c + 12, h);
-    c[16] = 8, c[17] = 0, c[18] = 0, c[19] = 0, c[20] = 0;
-    put32(c + 21, crc32_of(c + 4, 17));
-    const char *tail[2] = {"IDAT", "IEND"};
-    for (int k = 0; k < 2; k++) {
-        unsigned char *d = b + 8 + 25 + 12 * k;
-        put32(d, 0);
-        memcpy(d + 4, tail[k], 4);
-        put32(d + 8, crc32_of(d + 4, 4));
-    }
-    FILE *fp = fopen(path, "wb");
-    if (fp) {
-        fwrite(b, 1, sizeof b, fp);
-        fclose(fp);
-    }
-}
-
 static void test_png_headers(void)
 {
     pp_image *img = (pp_image *)1;
-    write_png_header(path_of("w0.png"), 0, 16);
+    pp_test_write_png_header(path_of("w0.png"), 0, 16);
     pp_status st = pp_image_read(path_of("w0.png"), NULL, &img, NULL);
     CHECK(st == PP_ERR_FORMAT && !img && strstr(pp_error_message(), "w0.png") &&
               strstr(pp_error_message(), "width is zero"),
           "PNG of width 0: the message says which field: %s", pp_error_message());
 
     img = (pp_image *)1;
-    write_png_header(path_of("huge.png"), 100000, 100000);
+    pp_test_write_png_header(path_of("huge.png"), 100000, 100000);
     st = pp_image_read(path_of("huge.png"), NULL, &img, NULL);
     CHECK(st == PP_ERR_LIMIT && !img && strstr(pp_error_message(), "100000x100000"),
           "PNG declaring 100000x100000 refused by size before reading data: %s",
@@ -216,11 +171,11 @@ static void test_png_headers(void)
     pp_read_options_defaults(&o);
     o.max_pixels = 100;
     img = (pp_image *)1;
-    write_png_header(path_of("h11.png"), 11, 10);
+    pp_test_write_png_header(path_of("h11.png"), 11, 10);
     st = pp_image_read(path_of("h11.png"), &o, &img, NULL);
     CHECK(st == PP_ERR_LIMIT && !img, "11x10 PNG over max_pixels 100 refused: %s",
           pp_error_message());
-    write_png_header(path_of("h10.png"), 10, 10);
+    pp_test_write_png_header(path_of("h10.png"), 10, 10);
     st = pp_image_read(path_of("h10.png"), &o, &img, NULL);
     CHECK(st == PP_ERR_FORMAT && !img && strstr(pp_error_message(), "h10.png"),
           "10x10 PNG header without pixel data: a format error naming the file: %s",

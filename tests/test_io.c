@@ -61,43 +61,6 @@ static void write_png(const char *path, unsigned w, unsigned h, int depth, int t
     fclose(fp);
 }
 
-/* CRC-32 of PNG chunks (ISO 3309 polynomial, bitwise). */
-static uint32_t crc32_of(const unsigned char *p, size_t n)
-{
-    uint32_t c = 0xffffffffu;
-    for (size_t i = 0; i < n; i++) {
-        c ^= p[i];
-        for (int k = 0; k < 8; k++)
-            c = (c >> 1) ^ (0xedb88320u & (0u - (c & 1u)));
-    }
-    return c ^ 0xffffffffu;
-}
-
-static void put32(unsigned char *p, uint32_t v)
-{
-    p[0] = (unsigned char)(v >> 24), p[1] = (unsigned char)(v >> 16);
-    p[2] = (unsigned char)(v >> 8), p[3] = (unsigned char)v;
-}
-
-/* Signature + IHDR (w x h, 8-bit gray) + a 2-byte IDAT + IEND: a header
- * that declares a frame the file does not hold. */
-static void write_png_header_only(const char *path, uint32_t w, uint32_t h)
-{
-    unsigned char b[64] = {0x89, 'P', 'N', 'G', '\r', '\n', 0x1a, '\n'};
-    size_t n = 8;
-    put32(b + n, 13), memcpy(b + n + 4, "IHDR", 4);
-    put32(b + n + 8, w), put32(b + n + 12, h);
-    b[n + 16] = 8, b[n + 17] = 0, b[n + 18] = b[n + 19] = b[n + 20] = 0;
-    put32(b + n + 21, crc32_of(b + n + 4, 17));
-    n += 25;
-    put32(b + n, 2), memcpy(b + n + 4, "IDAT", 4), b[n + 8] = 0x78, b[n + 9] = 0x9c;
-    put32(b + n + 10, crc32_of(b + n + 4, 6));
-    n += 14;
-    put32(b + n, 0), memcpy(b + n + 4, "IEND", 4), put32(b + n + 8, crc32_of(b + n + 4, 4));
-    n += 12;
-    write_bytes(path, b, n);
-}
-
 /* Little-endian TIFF header + one IFD declaring a w x h 8-bit deflate image
  * in one 10-byte strip: no pixel data to speak of. */
 static void write_tiff_header_only(const char *path, uint32_t w, uint32_t h)
@@ -334,7 +297,7 @@ static void test_limits(void)
     pp_image *img = (pp_image *)1;
     int quiet;
     const char *p = tpath("huge.png");
-    write_png_header_only(p, 100000, 100000);
+    pp_test_write_png_header(p, 100000, 100000);
     CHECK(read_quiet(p, NULL, &img, &quiet) == PP_ERR_LIMIT && img == NULL && quiet,
           "huge PNG header refused: %s", pp_error_message());
     CHECK(strstr(pp_error_message(), p) && strstr(pp_error_message(), "100000x100000"),
@@ -359,7 +322,7 @@ static void test_limits(void)
     CHECK(read_quiet(t, NULL, &img, &quiet) == PP_ERR_FORMAT && quiet &&
               strstr(pp_error_message(), t),
           "zero width TIFF: %s", pp_error_message());
-    write_png_header_only(p, 10, 0);
+    pp_test_write_png_header(p, 10, 0);
     CHECK(read_quiet(p, NULL, &img, &quiet) == PP_ERR_FORMAT && quiet &&
               strstr(pp_error_message(), p),
           "zero height PNG: %s", pp_error_message());

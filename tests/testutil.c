@@ -1,4 +1,5 @@
 #include "testutil.h"
+#include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -21,4 +22,43 @@ const char *pp_test_tmpdir(void)
     if (system(cmd) != 0)
         fprintf(stderr, "cannot prepare %s\n", dir);
     return dir;
+}
+
+/* CRC-32 of PNG chunks (ISO 3309 polynomial, bitwise). */
+static uint32_t crc32_of(const unsigned char *p, size_t n)
+{
+    uint32_t c = 0xffffffffu;
+    for (size_t i = 0; i < n; i++) {
+        c ^= p[i];
+        for (int k = 0; k < 8; k++)
+            c = (c >> 1) ^ (0xedb88320u & (0u - (c & 1u)));
+    }
+    return c ^ 0xffffffffu;
+}
+
+static void put32(unsigned char *p, uint32_t v)
+{
+    p[0] = (unsigned char)(v >> 24), p[1] = (unsigned char)(v >> 16);
+    p[2] = (unsigned char)(v >> 8), p[3] = (unsigned char)v;
+}
+
+void pp_test_write_png_header(const char *path, unsigned w, unsigned h)
+{
+    unsigned char b[64] = {0x89, 'P', 'N', 'G', '\r', '\n', 0x1a, '\n'};
+    size_t n = 8;
+    put32(b + n, 13), memcpy(b + n + 4, "IHDR", 4);
+    put32(b + n + 8, w), put32(b + n + 12, h);
+    b[n + 16] = 8, b[n + 17] = 0, b[n + 18] = b[n + 19] = b[n + 20] = 0;
+    put32(b + n + 21, crc32_of(b + n + 4, 17));
+    n += 25;
+    put32(b + n, 2), memcpy(b + n + 4, "IDAT", 4), b[n + 8] = 0x78, b[n + 9] = 0x9c;
+    put32(b + n + 10, crc32_of(b + n + 4, 6));
+    n += 14;
+    put32(b + n, 0), memcpy(b + n + 4, "IEND", 4), put32(b + n + 8, crc32_of(b + n + 4, 4));
+    n += 12;
+    FILE *fp = fopen(path, "wb");
+    if (fp) {
+        fwrite(b, 1, n, fp);
+        fclose(fp);
+    }
 }

@@ -23,6 +23,12 @@ extern int pp_test_passed, pp_test_failed;
 
 int pp_test_done(void);
 
+/* Writes a hand-made PNG: signature, IHDR declaring w x h 8-bit gray, a
+ * 2-byte IDAT (a zlib header, no pixel data) and IEND, all with correct
+ * CRCs (ISO 3309 polynomial): a header that promises pixels the file does
+ * not hold. */
+void pp_test_write_png_header(const char *path, unsigned w, unsigned h);
+
 /* A scratch folder for this test (from PP_TEST_TMP, created fresh). The
  * returned string is static. */
 const char *pp_test_tmpdir(void);
