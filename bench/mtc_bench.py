@@ -52,6 +52,9 @@ import tempfile
 import numpy as np
 import tifffile
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "tests"))
+import pptest  # noqa: E402  (tests/pptest.py: shared estimators)
+
 # size: (gibbs burn, gibbs iters, mtc iters, K). Gibbs at 1024^2 costs
 # ~25 ms per iteration here; the counts keep the whole run to ~3 minutes.
 PLAN = {256: (200, 4000, 1000, 5), 512: (200, 2000, 500, 5), 1024: (200, 1000, 300, 5)}
@@ -59,20 +62,8 @@ MTC_BURN = 20
 
 
 def ess_ips(x):
-    """Initial positive sequence ESS (Geyer 1992), numpy FFT autocovariance."""
-    n = len(x)
-    x = x - x.mean()
-    f = np.fft.rfft(x, 2 * n)
-    acov = np.fft.irfft(f * np.conj(f))[:n] / n
-    rho = acov / acov[0]
-    s = 0.0
-    for k in range(0, n - 1, 2):
-        pair = rho[k] + rho[k + 1]
-        if pair <= 0:
-            break
-        s += pair
-    tau = max(2 * s - 1, 1.0 / n)
-    return n / tau
+    """Initial positive sequence ESS (Geyer 1992), shared with the tests."""
+    return pptest.geyer_ess(x, monotone=False)
 
 
 def simulate(n, path, psf):

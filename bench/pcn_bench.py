@@ -12,7 +12,6 @@ sampled): the figure of merit is the smallest ESS over the 9 probe pixels
 (Geyer's initial monotone sequence, summed over chains) divided by the
 sampling seconds in summary.json. Prints one table row per run.
 """
-import csv
 import json
 import os
 import subprocess
@@ -22,24 +21,8 @@ import tempfile
 import numpy as np
 import tifffile
 
-
-def geyer_ess(x):
-    n = len(x)
-    x = x - x.mean()
-    f = np.fft.rfft(x, 2 * n)
-    acf = np.fft.irfft(f * np.conj(f))[:n] / n
-    if acf[0] <= 0:
-        return 0.0
-    acf /= acf[0]
-    pairs = acf[0:n - 1:2] + acf[1:n:2]
-    tau, prev = -1.0, np.inf
-    for g in pairs:
-        if g <= 0:
-            break
-        g = min(g, prev)
-        tau += 2 * g
-        prev = g
-    return n / max(tau, 1e-9)
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "tests"))
+import pptest  # noqa: E402  (tests/pptest.py: shared estimators)
 
 
 def frame(level, size, tmp, seed):
@@ -69,12 +52,9 @@ def run(binary, path, kind, delta, out):
                     "--burn", "1000", "--iters", "4000", "--seed", "5", "--quiet", "-o", out],
                    check=True)
     s = json.load(open(os.path.join(out, "summary.json")))
-    with open(os.path.join(out, "trace.csv")) as f:
-        rows = list(csv.reader(f))
-    head = rows[0]
-    tr = np.array([[float(v) if v else np.nan for v in r] for r in rows[1:]])
+    head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
     ch = tr[:, 0].astype(int)
-    ess = min(sum(geyer_ess(tr[ch == c, j]) for c in np.unique(ch))
+    ess = min(sum(pptest.geyer_ess(tr[ch == c, j]) for c in np.unique(ch))
               for j, name in enumerate(head) if name.startswith("p_"))
     sec = s["timing"]["seconds_sampling"]
     return ess, sec, [c["acceptance"] for c in s["chain_moves"]], [c["step"] for c in s["chain_moves"]]
