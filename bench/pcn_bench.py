@@ -69,12 +69,14 @@ def main():
     for level in (5.0, 500.0):
         path, delta, mean_n = frame(level, size, tmp, 11)
         res = {}
-        for kind in ("pcn", "gpcn"):
+        for kind in os.environ.get("PCN_BENCH_KINDS", "pcn gpcn").split():
             ess, sec, acc, beta = run(binary, path, kind, delta, os.path.join(tmp, "%s_%g" % (kind, level)))
             res[kind] = ess / sec
             print("%-6g %-5s %8.1f %9.1f %8.2f %8.1f %10.3f %.3g" % (level, kind, mean_n, ess, sec,
                                                                  ess / sec, np.mean(acc), np.mean(beta)))
-        print("level %g: gpcn / pcn ESS per second = %.1f" % (level, res["gpcn"] / res["pcn"]))
+        for kind in res:
+            if kind != "pcn" and "pcn" in res:
+                print("level %g: %s / pcn ESS per second = %.1f" % (level, kind, res[kind] / res["pcn"]))
 
 
 if __name__ == "__main__":

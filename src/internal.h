@@ -101,9 +101,9 @@ typedef struct pp_chain {
     const double *otf2;    /* |otf|^2 */
     double width;          /* current PSF width (sigma or NA; 0 if fixed) */
     struct pp_width *wstate; /* PSF width sampling (src/psfwidth.c), else NULL */
-    double acceptance; /* pcn/gpcn: field-move acceptance after burn-in; mtc: that of its
+    double acceptance; /* pcn/gpcn/hmc: field-move acceptance after burn-in; mtc: that of its
                         * (lambda, delta) move (else 0) */
-    double step;       /* pcn/gpcn: the step beta fixed after burn-in; mtc: its
+    double step;       /* pcn/gpcn: the step beta (hmc: eps) fixed after burn-in; mtc: its
                         * proposal scale (else 0) */
 } pp_chain;
 
@@ -160,7 +160,7 @@ struct pp_sampler {
     double *trace_values;
     pp_image *mean, *sd, *lo, *hi;
     char bound_method[256];
-    char likelihood[256]; /* pcn/gpcn: the likelihood used, for summary.json ("" else) */
+    char likelihood[256]; /* pcn/gpcn/hmc: the likelihood used, for summary.json ("" else) */
     size_t psf_size;      /* side of the kernel (for rebuilding it at a new width) */
     size_t col_probe0;    /* trace column of the first probe */
     long col_width;       /* trace column "psf_width", -1 when the width is fixed */
@@ -250,3 +250,4 @@ extern const pp_kernel pp_kernel_gibbs;
 extern const pp_kernel pp_kernel_mtc;
 extern const pp_kernel pp_kernel_pcn;
 extern const pp_kernel pp_kernel_gpcn;
+extern const pp_kernel pp_kernel_hmc;

@@ -173,12 +173,22 @@ static void json_chain_moves(FILE *f, const pp_sampler *s)
     fputs("],\n", f);
 }
 
-/* pcn/gpcn: the likelihood, positivity, background and per-chain acceptance
- * of the field move and its step beta (adapted in burn-in only). */
+/* pcn/gpcn/hmc: the likelihood, positivity, background, the field move and
+ * per chain its acceptance and step (adapted in burn-in only). */
 static void json_pcn(FILE *f, const pp_sampler *s)
 {
     const pp_sampler_config *c = &s->cfg;
-    fputs("  \"likelihood\": ", f);
+    const char *move =
+        c->kind == PP_SAMPLER_PCN
+            ? "pCN on the prior (step = beta)"
+        : c->kind == PP_SAMPLER_GPCN
+            ? "gpCN on a Fourier-diagonal Gaussian approximation (step = beta)"
+            : "split HMC: the Fourier-diagonal Gaussian approximation integrated exactly, "
+              "the rest by leapfrog kicks; step = eps, round(pi/(2 eps)) steps per trajectory, "
+              "eps jittered by 20 %";
+    fputs("  \"field_move\": ", f);
+    pp_json_write_string(f, move);
+    fputs(",\n  \"likelihood\": ", f);
     pp_json_write_string(f, s->likelihood);
     fprintf(f, ",\n  \"positivity\": \"%s\",\n  \"background\": ",
             c->positivity == PP_POSITIVITY_LOG ? "log" : "none");
@@ -269,7 +279,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
                "\"mean\": {\"offset\": %.10g, \"scale\": %.10g}, "
                "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}},\n",
             ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
-    if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN)
+    if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN || c->kind == PP_SAMPLER_HMC)
         json_pcn(f, s);
     if (c->kind == PP_SAMPLER_MTC && c->boundary != PP_BOUNDARY_PAD)
         json_mtc(f, s);

@@ -19,22 +19,22 @@
 
 /* ---- names and defaults ---------------------------------------------- */
 
-static const char *const kind_names[] = {"auto", "gibbs", "mtc", "pcn", "gpcn"};
+static const char *const kind_names[] = {"auto", "gibbs", "mtc", "pcn", "gpcn", "hmc"};
 
 pp_status pp_sampler_kind_parse(const char *text, pp_sampler_kind *out)
 {
-    for (int k = 0; k < 5; k++)
+    for (int k = 0; k < 6; k++)
         if (strcmp(text, kind_names[k]) == 0) {
             *out = (pp_sampler_kind)k;
             return PP_OK;
         }
-    return pp_fail(PP_ERR_ARG, "--sampler '%s': unknown sampler (accepted: gibbs, mtc, pcn, gpcn)",
+    return pp_fail(PP_ERR_ARG, "--sampler '%s': unknown sampler (accepted: gibbs, mtc, pcn, gpcn, hmc)",
                    text);
 }
 
 const char *pp_sampler_kind_name(pp_sampler_kind k)
 {
-    return (unsigned)k < 5 ? kind_names[k] : "unknown";
+    return (unsigned)k < 6 ? kind_names[k] : "unknown";
 }
 
 void pp_sampler_defaults(pp_sampler_config *cfg)
@@ -70,6 +70,8 @@ static const pp_kernel *kernel_for(pp_sampler_kind k)
         return &pp_kernel_pcn;
     case PP_SAMPLER_GPCN:
         return &pp_kernel_gpcn;
+    case PP_SAMPLER_HMC:
+        return &pp_kernel_hmc;
     default:
         return NULL;
     }
@@ -97,13 +99,13 @@ static pp_status check_config(pp_sampler_config *cfg)
     /* Gaussian noise, periodic: mtc (ESS/s of delta 6.2-6.8x gibbs's at 256^2
      * to 1024^2, bench/mtc_bench.py); pad keeps gibbs (mtc would fall back). */
     if (cfg->kind == PP_SAMPLER_AUTO && cfg->noise.kind != PP_NOISE_GAUSSIAN)
-        cfg->kind = PP_SAMPLER_GPCN;
+        cfg->kind = PP_SAMPLER_HMC;
     if (cfg->kind == PP_SAMPLER_AUTO)
         cfg->kind = cfg->boundary == PP_BOUNDARY_PERIODIC ? PP_SAMPLER_MTC : PP_SAMPLER_GIBBS;
     if (cfg->noise.kind != PP_NOISE_GAUSSIAN && cfg->kind != PP_SAMPLER_PCN &&
-        cfg->kind != PP_SAMPLER_GPCN)
+        cfg->kind != PP_SAMPLER_GPCN && cfg->kind != PP_SAMPLER_HMC)
         return pp_fail(PP_ERR_ARG, "--sampler %s: needs gaussian noise; the photon-counting "
-                                   "models (poisson, camera) use --sampler pcn or gpcn",
+                                   "models (poisson, camera) use --sampler hmc, gpcn or pcn",
                        pp_sampler_kind_name(cfg->kind));
     if (!kernel_for(cfg->kind))
         return pp_fail(PP_ERR_ARG, "--sampler %s: not available in this version (use gibbs)",

@@ -1,5 +1,6 @@
 /* pixpost — preconditioned Crank-Nicolson samplers for non-Gaussian
- * likelihoods and positive intensities: pcn and gpcn.
+ * likelihoods and positive intensities: pcn and gpcn, and the Hamiltonian
+ * sampler hmc built on gpcn's Gaussian reference.
  *
  * Model (DESIGN.md sections 1-2): z = m + u on the grid, u ~ N(0, (delta Q)^-1)
  * (Fourier-diagonal GMRF; when q(0) = 0, i.e. an intrinsic prior or a matern
@@ -29,25 +30,30 @@
  *      The centre a is the mean of the Gauss-Newton points of the last (<= 50)
  *      states over the first half of burn-in, then fixed, so that beta
  *      adapts in the second half against the proposal that will be used.
- *   2. delta (when free): log random walk in the non-centred
- *      parameterisation u = delta^-1/2 Q^-1/2 w (w fixed, u rescaled).
+ *      hmc  Hamiltonian Monte Carlo with the same reference N(a, P^-1)
+ *      integrated exactly and the rest of the target by kicks (see
+ *      hmc_move); the gradient makes up for the reference's misfit.
+ *   2. delta (when free): log random walk, partially non-centred: u
+ *      rescaled per frequency by how much the prior dominates it there.
  *   3. m (when free): random walk, flat prior (z shifted, x rescaled).
  *   4. lambda (gaussian, sigma free): exact Gamma draw given ||Ax - y||^2.
- * beta and the steps of 2-3 adapt during burn-in only (Robbins-Monro on their
- * logarithms towards acceptance 0.25 for the field, 0.44 for the scalars),
- * then stay fixed; the kept chain is an exact, time-homogeneous MCMC.
+ *   5. delta (when free) again, centred: its exact Gamma draw given u.
+ * beta (hmc: eps) and the steps of 2-3 adapt during burn-in only
+ * (Robbins-Monro on their logarithms towards acceptance 0.25 for the pCN
+ * field moves, 0.65 for hmc, 0.44 for the scalars), and the weights of move
+ * 2 follow delta; all then stay fixed, so the kept chain is an exact,
+ * time-homogeneous MCMC.
  * Warnings (pp_sampler_warn): gpcn with a burn-in under GPCN_MIN_BURN (too
  * short to place the centre and adapt beta: one camera chain was seen at 3 %
  * acceptance after 100), and any chain whose field move accepted under
  * LOW_ACCEPT after burn-in.
- * Tried and not kept (issue 5 follow-up): a second, spatially scaled field
- * move on the data-dominated modes, w = D^1/2 (z - c) with D the local
- * Fisher information x^2/(A x + b + R^2) and reference P = delta q / dbar +
- * |A|^2 there, plus a damped-Newton start at the mode. Its covariance
- * matches the Laplace approximation well (numpy, 32 x 32: eigenvalues of
- * P^-1/2 H_w P^-1/2 in [0.91, 1.38] on band L), but on 64 x 64 the chains
- * adapted to beta 0.13-0.2 only (8 transforms per iteration) and ESS/s did
- * not beat this version (3.1x at ~5, 0.7x at ~500 photons/pixel).
+ * Tried and not kept (issue 5 follow-up), before hmc: a second, spatially
+ * scaled gpcn move, w = D^1/2 (z - c) with D the local Fisher information;
+ * its covariance matched the Laplace approximation (eigenvalues of
+ * P^-1/2 H_w P^-1/2 in [0.91, 1.38] on the data-dominated band, 32 x 32), but
+ * the chains adapted to beta 0.13-0.2 and ESS/s did not beat gpcn. A
+ * gradient-free proposal must match the posterior in every one of ~10^4
+ * directions at once; hmc's kicks correct the misfit instead.
  *
  * Bounds: per pixel and chain, stochastic-approximation (Robbins-Monro)
  * estimates of the two tail quantiles of z, q += g (p - 1{z <= q}) with
@@ -57,20 +63,27 @@
  * mode). Memory: 2 quantiles + 2 moments of z = 32 bytes per pixel per chain.
  *
  * Transforms per iteration (r2c/c2r on the grid):
- *   log:  field move 3 (c2r u' -> z', r2c exp(z'), c2r A x'), delta move 2
- *         (z' = m + s(z - m) needs no transform; r2c, c2r for A x'), m move 0
- *         (A x' = e^dm A x). Kept draws 0 extra. Total 3, or 5 with delta free.
- *   none: field move 1 (c2r A u'; A x is linear in u), delta and m moves 0,
- *         +1 c2r per kept draw for z. Total 1.
- *   gpcn, first half of burn-in only: +3 (log) or +1 (none) for the centre.
- * Measured (bench/pcn_bench.py, 64 x 64, Poisson, one core): gpcn / pcn ESS
- * per second is 190x at ~5 and 77x at ~500 photons/pixel on a nearly flat
- * scene (prior delta 50), but only 3.7x and 0.6x on a scene whose intensity
- * varies several-fold (delta 2): the constant I_F cannot follow a Fisher
- * information proportional to the local intensity.
- * Passes: about 6 over the half spectrum and 4 over the grid per iteration.
- * Memory per chain: 4 half spectra and 6 grids (about 7 x 8 bytes x grid
- * pixels), plus 48 bytes per frame pixel (moments and quantiles).
+ *   log:  field move 3 (c2r u' -> z', r2c exp(z'), c2r A x'); hmc 6 per
+ *         leapfrog step (those 3, then r2c r, c2r A'r, r2c x A'r for the
+ *         gradient), plus 3 when delta, m or lambda moved since the last
+ *         gradient; delta move 3 (z', x', A x'), m move 0 (A x' = e^dm A x),
+ *         centred delta draw 0. Kept draws 0 extra. pcn/gpcn: 3, or 6 with
+ *         delta free; hmc: 6 L (+3) (+3), L = round(pi / (2 eps)).
+ *   none: field move 1 (c2r A u'; A x is linear in u); hmc 2 per step (c2r
+ *         A u', r2c r); delta move 1, m move 0, +1 c2r per kept draw for z.
+ *   gpcn/hmc, first half of burn-in only: +3 (log) or +1 (none) for the
+ *         centre.
+ * Measured (bench/pcn_bench.py, 64 x 64, Poisson, one core, delta fixed,
+ * level free, intensity varying several-fold): ESS/s of the worst probe
+ * pixel relative to pcn: gpcn 3.7x at ~5 and 0.9x at ~500 photons/pixel,
+ * hmc 136x and 71x (hmc adapts to eps 0.7 / 0.35, L = 2 / 5). On a nearly
+ * flat scene gpcn alone reaches 77x at ~500: one Fourier-diagonal I_F
+ * cannot follow a Fisher information proportional to the local intensity,
+ * and that misfit is what hmc's gradient kicks absorb.
+ * Passes: about 6 over the half spectrum and 4 over the grid per iteration
+ * (pcn/gpcn), 4 and 4 per leapfrog step (hmc).
+ * Memory per chain: 4 half spectra (hmc 7) and 6 grids, plus 48 bytes per
+ * frame pixel (moments and quantiles).
  */
 #include <math.h>
 #include <stdlib.h>
@@ -78,6 +91,7 @@
 #include "internal.h"
 
 #define T_FIELD 0.25 /* target acceptance of the field move (common practice) */
+#define T_HMC 0.65   /* hmc target (Beskos, Pillai, Roberts, Sanz-Serna & Stuart 2013) */
 #define T_SCALAR 0.44 /* target of the 1-D random walks (Roberts & Rosenthal 2001) */
 #define Q_WARM 10    /* kept draws before the quantile recursion starts */
 #define GPCN_MIN_BURN 200 /* burn-in below which gpcn's adaptation is warned about */
@@ -85,7 +99,7 @@
 
 /* Shared, read-only during the run. */
 typedef struct pcn_shared {
-    int gpcn, logx, gauss, free_dc;
+    int gpcn, hmc, logx, gauss, free_dc;
     double *data;    /* grid: photons (+R^2, clamped at 0) or y (gaussian) */
     double shift;    /* b + R^2 added to A x (photon models) */
     double lgam;     /* -sum lgamma(n + 1) over observed pixels (photon) */
@@ -99,10 +113,13 @@ typedef struct pcn_shared {
 /* One chain's state. */
 typedef struct pcn_chain {
     pp_complex *u, *up, *ctr; /* current and proposed u, gpcn centre a */
+    pp_complex *g, *gp, *v;   /* hmc: gradients of Phi at u and up, velocity */
+    int gvalid;               /* hmc: g belongs to the current state */
     double *z, *zp, *x, *xp, *ax, *axp;
     double *qlo, *qhi;
     pp_moments zm;
     double m, beta, dstep, mstep, phi, ss;
+    double dref; /* delta of the partially non-centred move's weights */
     unsigned long acc;
 } pcn_chain;
 
@@ -267,42 +284,78 @@ static double field_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
     return alpha;
 }
 
-/* delta move (non-centred); returns the acceptance probability. */
+/* delta move, partially non-centred (Papaspiliopoulos, Roberts & Skold,
+ * Statist. Sci. 22, 2007): log delta' = log delta + step N(0,1), and each
+ * frequency of u rescaled by s^w(k), s = sqrt(delta/delta'), where
+ * w(k) = dref q(k) / (dref q(k) + I_F |A(k)|^2) is the prior's share of the
+ * gpcn precision there: fully non-centred (u = delta^-1/2 Q^-1/2 w, w fixed)
+ * where the prior dominates, centred (u fixed) where the data do, so neither
+ * kind of mode holds delta back. dref is the chain's delta, frozen after
+ * burn-in, so that the map is its own inverse (delta' -> delta undoes it);
+ * the acceptance ratio carries its Jacobian, s^(sum of w over the real
+ * dimensions). Transforms: 3 (log: z', x', A x'), 1 (none). Returns the
+ * acceptance probability. */
 static double delta_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
 {
     const pp_sampler_config *cfg = &s->cfg;
-    double dn = c->delta * exp(k->dstep * pp_rng_normal(&c->rng));
-    double sc = sqrt(c->delta / dn), ssn = 0, phin;
-    if (sh->logx) {
-        for (size_t i = 0; i < s->gn; i++) {
-            k->zp[i] = k->m + sc * (k->z[i] - k->m);
-            k->xp[i] = exp(k->zp[i]);
+    const double del = c->delta, fi = fisher_of(sh, c);
+    double dn = del * exp(k->dstep * pp_rng_normal(&c->rng)), ls = 0.5 * log(del / dn);
+    double quad = 0, quadn = 0, ljac = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            if (i == 0 && sh->free_dc) {
+                k->up[0] = 0;
+                continue;
+            }
+            double pq = k->dref * s->q[i], om = pq > 0 ? pq / (pq + fi * s->otf2[i]) : 0.0;
+            double w = pp_half_weight(k2, s->gw), sc = exp(om * ls);
+            pp_complex u = k->u[i];
+            double a2 = creal(u) * creal(u) + cimag(u) * cimag(u);
+            k->up[i] = sc * u;
+            quad += w * s->q[i] * a2;
+            quadn += w * s->q[i] * sc * sc * a2;
+            ljac += w * om * ls;
         }
-        blur_grid(s, c, k->xp, k->axp);
-        phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
-    } else {
-        /* A x' = m a0 + sc (A x - m a0), evaluated inside phi_of */
-        phin = phi_of(s, sh, k->ax, sc, (1.0 - sc) * k->m * sh->a0, c->lambda, &ssn);
-    }
-    double loga = k->phi - phin + cfg->hyper_delta[0] * log(dn / c->delta) -
-                  cfg->hyper_delta[1] * (dn - c->delta);
+    const double invn = 1.0 / (double)s->gn;
+    field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
+    double ssn = 0, phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
+    double loga = k->phi - phin + 0.5 * s->rank * log(dn / del) -
+                  0.5 * invn * (dn * quadn - del * quad) + ljac +
+                  cfg->hyper_delta[0] * log(dn / del) - cfg->hyper_delta[1] * (dn - del);
     double alpha = loga >= 0 ? 1.0 : exp(loga);
     if (!isfinite(phin) || !(pp_rng_uniform(&c->rng) < alpha))
-        return isfinite(phin) ? alpha : 0.0;
+        return isfinite(phin) && isfinite(loga) ? alpha : 0.0;
     c->delta = dn;
-    for (size_t i = 0; i < s->gm; i++)
-        k->u[i] *= sc;
-    if (sh->logx) {
-        swap_d(&k->z, &k->zp);
-        swap_d(&k->x, &k->xp);
-        swap_d(&k->ax, &k->axp);
-    } else {
-        for (size_t i = 0; i < s->gn; i++)
-            k->ax[i] = sc * k->ax[i] + (1.0 - sc) * k->m * sh->a0;
-    }
+    swap_c(&k->u, &k->up);
+    swap_d(&k->z, &k->zp);
+    swap_d(&k->x, &k->xp);
+    swap_d(&k->ax, &k->axp);
     k->phi = phin;
     k->ss = ssn;
     return alpha;
+}
+
+/* delta in the centred parameterisation: with u fixed the likelihood does
+ * not change, so delta | u ~ Gamma(a + rank/2, b + u'Qu/2) is drawn exactly
+ * (u'Qu by Parseval, no transform). Alternating it with the non-centred move
+ * above follows Yu & Meng (J. Comput. Graph. Stat. 2011): the non-centred
+ * move mixes where the prior dominates, this one where the data do. */
+static void delta_centred(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
+                          const pcn_chain *k)
+{
+    double quad = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            if (i == 0 && sh->free_dc)
+                continue;
+            pp_complex u = k->u[i];
+            quad += pp_half_weight(k2, s->gw) * s->q[i] * (creal(u) * creal(u) + cimag(u) * cimag(u));
+        }
+    quad /= (double)s->gn;
+    c->delta = pp_rng_gamma(&c->rng, s->cfg.hyper_delta[0] + 0.5 * s->rank,
+                            s->cfg.hyper_delta[1] + 0.5 * quad);
 }
 
 /* level move (flat prior); returns the acceptance probability. */
@@ -327,43 +380,154 @@ static double level_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
     return alpha;
 }
 
-/* gpcn, burn-in only: moves the centre a towards the Gauss-Newton point of
- * the current state, u - (delta Q u + grad Phi) / P, with weight w. grad Phi
- * = x * A'r (log) or A'r (none), r the likelihood residual on the observed
- * pixels. Transforms: 3 (log) or 1 (none). For a Gaussian likelihood the
- * point is the exact posterior mean from any state. */
-static void newton_centre(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k,
-                          double w)
+/* grad Phi in Fourier (the DFT of x * A'r, log; A'r, none) into out, from x
+ * and A x on the grid; r is the likelihood residual on the observed pixels.
+ * Transforms: 3 (log) or 1 (none). */
+static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, const double *x,
+                     const double *ax, pp_complex *out)
 {
-    const double invn = 1.0 / (double)s->gn, del = c->delta, fi = fisher_of(sh, c);
+    const double invn = 1.0 / (double)s->gn;
     double *r = c->rbuf;
     memset(r, 0, s->gn * sizeof(double));
     for (size_t row = 0; row < s->height; row++)
         for (size_t col = 0; col < s->width; col++) {
             size_t i = row * s->gw + col;
             if (sh->gauss) {
-                r[i] = c->lambda * (k->ax[i] - sh->data[i]);
+                r[i] = c->lambda * (ax[i] - sh->data[i]);
                 continue;
             }
-            double mu = fmax(k->ax[i] + sh->shift, 1e-300);
+            double mu = fmax(ax[i] + sh->shift, 1e-300);
             r[i] = 1.0 - sh->data[i] / mu;
         }
-    pp_fft_forward(s->fft, r, c->cbuf2);
+    pp_fft_forward(s->fft, r, out);
     for (size_t i = 0; i < s->gm; i++)
-        c->cbuf2[i] *= conj(s->otf[i]);
+        out[i] *= conj(s->otf[i]);
     if (sh->logx) {
         for (size_t i = 0; i < s->gm; i++)
-            c->cbuf2[i] *= invn;
-        pp_fft_inverse(s->fft, c->cbuf2, r);
+            out[i] *= invn;
+        pp_fft_inverse(s->fft, out, r);
         for (size_t i = 0; i < s->gn; i++)
-            r[i] *= k->x[i];
-        pp_fft_forward(s->fft, r, c->cbuf2);
+            r[i] *= x[i];
+        pp_fft_forward(s->fft, r, out);
     }
+}
+
+/* gpcn/hmc, burn-in only: moves the centre a towards the Gauss-Newton point
+ * of the current state, u - (delta Q u + grad Phi) / P, with weight w.
+ * Transforms: 3 (log) or 1 (none). For a Gaussian likelihood the point is
+ * the exact posterior mean from any state. */
+static void newton_centre(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k,
+                          double w)
+{
+    const double del = c->delta, fi = fisher_of(sh, c);
+    grad_phi(s, sh, c, k->x, k->ax, c->cbuf2);
     for (size_t i = sh->free_dc ? 1 : 0; i < s->gm; i++) {
         double p = del * s->q[i] + fi * s->otf2[i];
         pp_complex a = k->u[i] - (del * s->q[i] * k->u[i] + c->cbuf2[i]) / p;
         k->ctr[i] += w * (a - k->ctr[i]);
     }
+}
+
+/* hmc: Hamiltonian Monte Carlo on u with mass matrix P (the gpcn
+ * precision), where the Gaussian part of the target, N(a, P^-1), is
+ * integrated exactly as a rotation and only the remainder
+ * Phi~ = Phi + |u|^2_dQ / 2 - |u - a|^2_P / 2 enters through half kicks
+ * (split HMC: Beskos, Pinski, Sanz-Serna & Stuart, Stoch. Proc. Appl. 2011;
+ * Shahbaba, Lan, Johnson & Neal, Stat. Comput. 2014). Velocity v = P^-1 p,
+ * so v ~ N(0, P^-1) at the start and the kinetic energy is |v|^2_P / 2.
+ * Without kicks one step is gpcn with beta = sin(eps). Quadratic forms by
+ * Parseval: |f|^2 = sum over the half spectrum of w |f_k|^2 / N. */
+static void hmc_kick(const pp_sampler *s, const pcn_shared *sh, const pp_chain *c, pcn_chain *k,
+                     double h)
+{
+    const double del = c->delta, fi = fisher_of(sh, c);
+    for (size_t i = sh->free_dc ? 1 : 0; i < s->gm; i++) {
+        double pq = del * s->q[i], p = pq + fi * s->otf2[i];
+        k->v[i] -= h * (k->gp[i] + pq * k->up[i] - p * (k->up[i] - k->ctr[i])) / p;
+    }
+}
+
+/* 2N times (|u|^2_dQ + |v|^2_P) / 2 summed over the half spectrum. */
+static double hmc_quad(const pp_sampler *s, const pcn_shared *sh, const pp_chain *c,
+                       const pp_complex *u, const pp_complex *v)
+{
+    const double del = c->delta, fi = fisher_of(sh, c);
+    double acc = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            if (i == 0 && sh->free_dc)
+                continue;
+            double pq = del * s->q[i], p = pq + fi * s->otf2[i];
+            acc += pp_half_weight(k2, s->gw) *
+                   (pq * (creal(u[i]) * creal(u[i]) + cimag(u[i]) * cimag(u[i])) +
+                    p * (creal(v[i]) * creal(v[i]) + cimag(v[i]) * cimag(v[i])));
+        }
+    return acc;
+}
+
+/* The trajectory: about a quarter period of the reference (pi/2), which
+ * turns a position into an independent one when the reference is exact. */
+#define HMC_SPAN 1.5707963267948966
+#define HMC_MAX_STEPS 32
+
+static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k,
+                       int *accepted)
+{
+    const double del = c->delta, fi = fisher_of(sh, c), invn = 1.0 / (double)s->gn;
+    if (!k->gvalid) {
+        grad_phi(s, sh, c, k->x, k->ax, k->g);
+        k->gvalid = 1;
+    }
+    /* step jittered by +-20 % against periodic trajectories (Neal 2011) */
+    double eps = k->beta * (0.8 + 0.4 * pp_rng_uniform(&c->rng));
+    unsigned steps = (unsigned)lround(HMC_SPAN / eps);
+    if (steps < 1)
+        steps = 1;
+    if (steps > HMC_MAX_STEPS)
+        steps = HMC_MAX_STEPS;
+    pp_half_noise(&c->rng, s->gh, s->gw, k->v);
+    for (size_t i = 0; i < s->gm; i++)
+        k->v[i] /= sqrt(del * s->q[i] + fi * s->otf2[i]);
+    if (sh->free_dc)
+        k->v[0] = 0;
+    double h0 = k->phi + 0.5 * invn * hmc_quad(s, sh, c, k->u, k->v);
+    memcpy(k->up, k->u, s->gm * sizeof(pp_complex));
+    memcpy(k->gp, k->g, s->gm * sizeof(pp_complex));
+    const double cs = cos(eps), sn = sin(eps);
+    double phin = INFINITY, ssn = 0;
+    *accepted = 0;
+    for (unsigned l = 0; l < steps; l++) {
+        hmc_kick(s, sh, c, k, 0.5 * eps);
+        for (size_t i = 0; i < s->gm; i++) {
+            pp_complex w = k->up[i] - k->ctr[i], v = k->v[i];
+            k->up[i] = k->ctr[i] + cs * w + sn * v;
+            k->v[i] = cs * v - sn * w;
+        }
+        if (sh->free_dc)
+            k->up[0] = 0;
+        field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
+        phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
+        if (!isfinite(phin))
+            return 0.0;
+        grad_phi(s, sh, c, k->xp, k->axp, k->gp);
+        hmc_kick(s, sh, c, k, 0.5 * eps);
+    }
+    double h1 = phin + 0.5 * invn * hmc_quad(s, sh, c, k->up, k->v);
+    double loga = h0 - h1, alpha = loga >= 0 ? 1.0 : exp(loga);
+    if (!isfinite(loga))
+        return 0.0;
+    if (pp_rng_uniform(&c->rng) < alpha) {
+        *accepted = 1;
+        swap_c(&k->u, &k->up);
+        swap_c(&k->g, &k->gp);
+        swap_d(&k->z, &k->zp);
+        swap_d(&k->x, &k->xp);
+        swap_d(&k->ax, &k->axp);
+        k->phi = phin;
+        k->ss = ssn;
+    }
+    return alpha;
 }
 
 /* ---- recording -------------------------------------------------------- */
@@ -420,6 +584,8 @@ static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k
     if (sh->gpcn)
         newton_centre(s, sh, c, k, 1.0);
     k->beta = sh->gpcn ? 0.5 : 0.1;
+    k->gvalid = 0;
+    k->dref = c->delta;
     k->dstep = 0.1;
     k->mstep = 0.02 * (sh->mdisp > 0 ? sh->mdisp / 0.1 : 1.0);
     k->acc = 0;
@@ -442,12 +608,16 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
     for (unsigned long t = 0; t < total; t++) {
         int burn = t < cfg->burn;
         int accepted;
-        double a = field_move(s, sh, c, k, &accepted);
+        double a = sh->hmc ? hmc_move(s, sh, c, k, &accepted) : field_move(s, sh, c, k, &accepted);
         if (burn) { /* gpcn: restart the gain once the centre is frozen */
-            k->beta = adapt(k->beta, a, T_FIELD, sh->gpcn && t >= half ? t - half : t, 1.0);
+            k->beta = adapt(k->beta, a, sh->hmc ? T_HMC : T_FIELD,
+                            sh->gpcn && t >= half ? t - half : t, 1.0);
         } else {
             k->acc += (unsigned long)accepted;
         }
+        double d_was = c->delta, m_was = k->m;
+        if (burn)
+            k->dref = c->delta;
         if (!fix_d) {
             double ad = delta_move(s, sh, c, k);
             if (burn)
@@ -463,6 +633,10 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
                                      cfg->hyper_lambda[1] + 0.5 * k->ss);
             k->phi = 0.5 * c->lambda * k->ss;
         }
+        if (!fix_l || c->delta != d_was || k->m != m_was)
+            k->gvalid = 0; /* hmc: grad Phi changed with the state */
+        if (!fix_d) /* leaves u, hence Phi and its gradient, as they are */
+            delta_centred(s, sh, c, k);
         if (sh->gpcn && t < half) /* centre: mean of the last <= 50 Newton points */
             newton_centre(s, sh, c, k, 1.0 / (double)(t + 2 < 50 ? t + 2 : 50));
         if (!(isfinite(c->delta) && c->delta > 0 && isfinite(k->m) && isfinite(k->phi)))
@@ -578,7 +752,7 @@ static pp_status plan_start(pp_sampler *s, pcn_shared *sh)
     return PP_OK;
 }
 
-static pp_status plan_chain_state(pp_sampler *s, pp_chain *c)
+static pp_status plan_chain_state(pp_sampler *s, const pcn_shared *sh, pp_chain *c)
 {
     pcn_chain *k = calloc(1, sizeof *k);
     if (!k)
@@ -587,6 +761,13 @@ static pp_status plan_chain_state(pp_sampler *s, pp_chain *c)
     k->u = pp_fft_alloc_complex(s->gm);
     k->up = pp_fft_alloc_complex(s->gm);
     k->ctr = pp_fft_alloc_complex(s->gm);
+    if (sh->hmc) {
+        k->g = pp_fft_alloc_complex(s->gm);
+        k->gp = pp_fft_alloc_complex(s->gm);
+        k->v = pp_fft_alloc_complex(s->gm);
+        if (!k->g || !k->gp || !k->v)
+            return fail_nomem();
+    }
     double **g[] = {&k->z, &k->zp, &k->x, &k->xp, &k->ax, &k->axp};
     for (int i = 0; i < 6; i++)
         *g[i] = pp_fft_alloc_real(s->gn);
@@ -599,12 +780,12 @@ static pp_status plan_chain_state(pp_sampler *s, pp_chain *c)
     return pp_moments_init(&k->zm, n);
 }
 
-static pp_status prepare_common(pp_sampler *s, int gpcn)
+static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
 {
     pp_sampler_config *cfg = &s->cfg;
     if (cfg->psf.width_auto)
         return pp_fail(PP_ERR_ARG, "--psf ...=auto: sampling the PSF width is available with "
-                                   "--sampler gibbs or mtc only (give pcn/gpcn a fixed width)");
+                                   "--sampler gibbs or mtc only (give pcn/gpcn/hmc a fixed width)");
     if (cfg->positivity == PP_POSITIVITY_AUTO)
         cfg->positivity =
             cfg->noise.kind == PP_NOISE_GAUSSIAN ? PP_POSITIVITY_NONE : PP_POSITIVITY_LOG;
@@ -612,35 +793,42 @@ static pp_status prepare_common(pp_sampler *s, int gpcn)
     if (!sh)
         return fail_nomem();
     s->kshared = sh;
-    sh->gpcn = gpcn;
+    sh->gpcn = gpcn || hmc;
+    sh->hmc = hmc;
     sh->logx = cfg->positivity == PP_POSITIVITY_LOG;
     sh->gauss = cfg->noise.kind == PP_NOISE_GAUSSIAN;
     sh->free_dc = s->q[0] == 0.0;
     sh->plo = 0.5 * (1.0 - cfg->level);
     double zq = pp_norm_quantile(1.0 - sh->plo);
     sh->phi_z = exp(-0.5 * zq * zq) / sqrt(2 * PP_PI);
-    if (gpcn && cfg->burn < GPCN_MIN_BURN)
+    if (sh->gpcn && cfg->burn < GPCN_MIN_BURN)
         pp_sampler_warn(s,
-                        "gpcn: a burn-in of %lu iterations is too short to adapt the proposal "
-                        "(the first half places its centre, the second adapts beta); use "
+                        "%s: a burn-in of %lu iterations is too short to adapt the proposal "
+                        "(the first half places its centre, the second adapts %s); use "
                         "--burn %d or more, or expect a low acceptance rate",
-                        cfg->burn, GPCN_MIN_BURN);
+                        hmc ? "hmc" : "gpcn", cfg->burn, hmc ? "the step" : "beta",
+                        GPCN_MIN_BURN);
     pp_status st = plan_likelihood(s, sh);
     if (st == PP_OK)
         st = plan_start(s, sh);
     for (unsigned i = 0; st == PP_OK && i < cfg->chains; i++)
-        st = plan_chain_state(s, &s->chain[i]);
+        st = plan_chain_state(s, sh, &s->chain[i]);
     return st;
 }
 
 static pp_status prepare_pcn(pp_sampler *s)
 {
-    return prepare_common(s, 0);
+    return prepare_common(s, 0, 0);
 }
 
 static pp_status prepare_gpcn(pp_sampler *s)
 {
-    return prepare_common(s, 1);
+    return prepare_common(s, 1, 0);
+}
+
+static pp_status prepare_hmc(pp_sampler *s)
+{
+    return prepare_common(s, 0, 1);
 }
 
 /* Pooled bounds: the chains' quantile estimates averaged, mapped to x. */
@@ -686,8 +874,9 @@ static void pcn_release(pp_sampler *s)
         pcn_chain *k = s->chain[i].kstate;
         if (!k)
             continue;
-        void *bufs[] = {k->u, k->up, k->ctr, k->z, k->zp, k->x, k->xp, k->ax, k->axp};
-        for (int j = 0; j < 9; j++)
+        void *bufs[] = {k->u, k->up, k->ctr, k->g, k->gp, k->v,
+                        k->z, k->zp, k->x, k->xp, k->ax, k->axp};
+        for (int j = 0; j < 12; j++)
             pp_fft_free_buffer(bufs[j]);
         free(k->qlo);
         free(k->qhi);
@@ -699,3 +888,4 @@ static void pcn_release(pp_sampler *s)
 
 const pp_kernel pp_kernel_pcn = {"pcn", prepare_pcn, pcn_run_chain, pcn_finish, pcn_release};
 const pp_kernel pp_kernel_gpcn = {"gpcn", prepare_gpcn, pcn_run_chain, pcn_finish, pcn_release};
+const pp_kernel pp_kernel_hmc = {"hmc", prepare_hmc, pcn_run_chain, pcn_finish, pcn_release};

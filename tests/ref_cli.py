@@ -126,7 +126,7 @@ cases = [
     (smp + ["--iters"], ["--iters", "needs a value"], "missing value at the end"),
     (smp + ["--iters", "--burn", "3"], ["--iters", "needs a value"], "missing value before an option"),
     (smp + ["--chains", "2", "--chains=3"], ["--chains", "twice"], "duplicate option"),
-    (smp + ["--sampler", "hmc"], ["--sampler", "hmc"], "unknown sampler"),
+    (smp + ["--sampler", "nuts"], ["--sampler", "nuts"], "unknown sampler"),
     (smp + ["--boundary", "mirror"], ["--boundary", "mirror"], "unknown boundary"),
     (smp + ["--channel", "alpha"], ["--channel", "alpha"], "unknown channel"),
     (smp + ["--noise", "none"], ["--noise", "none"], "sample with --noise none"),

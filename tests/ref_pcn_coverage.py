@@ -1,4 +1,5 @@
-"""Calibration of the gpcn credible bounds on frames simulated from the model.
+"""Calibration of the hmc credible bounds (the default sampler for photon
+counts; gpcn and pcn share its bound code) on frames simulated from the model.
 
 Each of F frames: z drawn from the Matern prior with numpy (known mean M and
 delta, as given to the sampler), x = exp(z), counts n ~ Poisson(A x + b) with
@@ -44,7 +45,7 @@ for f in range(F):
         pptest.run(["sample", path, "--psf", "gaussian:sigma=1.2", "--noise",
                     "poisson:gain=1,offset=0", "--background", str(B),
                     "--prior", "matern:range=%g,nu=1,mean=%.17g,delta=%g" % (RANGE, M, DLT),
-                    "--sampler", "gpcn", "--boundary", "periodic", "--chains", "2",
+                    "--sampler", "hmc", "--boundary", "periodic", "--chains", "2",
                     "--burn", "500", "--iters", "3000", "--level", str(level),
                     "--seed", str(100 + f), "--quiet", "-o", out])
         lo = tifffile.imread(os.path.join(out, "lo.tif"))

@@ -165,9 +165,9 @@ static void refusals(const pp_image *psf)
     cfg.iters = 5;
     cfg.burn = 0;
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_OK &&
-              pp_sampler_config_used(s)->kind == PP_SAMPLER_GPCN &&
+              pp_sampler_config_used(s)->kind == PP_SAMPLER_HMC &&
               pp_sampler_config_used(s)->positivity == PP_POSITIVITY_LOG,
-          "auto picks gpcn with log positivity for poisson");
+          "auto picks hmc with log positivity for poisson");
     pp_sampler_free(s);
     pp_image_free(y);
 }

@@ -26,17 +26,18 @@
 
 typedef enum pp_sampler_kind {
     PP_SAMPLER_AUTO = 0, /* mtc for gaussian + periodic, gibbs for gaussian + pad,
-                          * gpcn for poisson/camera */
+                          * hmc for poisson/camera */
     PP_SAMPLER_GIBBS,
     PP_SAMPLER_MTC,
     PP_SAMPLER_PCN,
-    PP_SAMPLER_GPCN
+    PP_SAMPLER_GPCN,
+    PP_SAMPLER_HMC    /* split Hamiltonian MC on the gpcn reference */
 } pp_sampler_kind;
 
 pp_status pp_sampler_kind_parse(const char *s, pp_sampler_kind *out);
 const char *pp_sampler_kind_name(pp_sampler_kind k);
 
-/* How intensities are kept positive (pcn/gpcn): LOG samples z with the GMRF
+/* How intensities are kept positive (pcn/gpcn/hmc): LOG samples z with the GMRF
  * prior and sets x = exp(z); NONE samples x itself. AUTO: LOG for the
  * photon models (poisson, camera), NONE for gaussian. gibbs/mtc use NONE. */
 typedef enum pp_positivity {
@@ -65,7 +66,7 @@ typedef struct pp_sampler_config {
     double hyper_lambda[2]; /* Gamma shape, rate for lambda (default 1, 1e-4) */
     double hyper_delta[2];  /* Gamma shape, rate for delta (default 1, 1e-4) */
     int fft_effort;         /* PP_FFT_ESTIMATE or PP_FFT_MEASURE */
-    pp_positivity positivity; /* pcn/gpcn (default AUTO) */
+    pp_positivity positivity; /* pcn/gpcn/hmc (default AUTO) */
     double background;      /* known background, photons/pixel, photon models (default 0) */
     /* The PSF model behind the kernel given to pp_sampler_create; read only
      * when psf.width_auto is set (sigma=auto / na=auto): then gibbs and mtc

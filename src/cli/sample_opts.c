@@ -31,13 +31,13 @@ static const cli_opt sample_table[] = {
      "Prior: gmrf1, gmrf2 or matern:range=R,nu=V; any of them also takes delta=D to fix the "
      "prior precision."},
     {"positivity", 0, 1, "log|none",
-     "pcn/gpcn: log samples the log intensity z (x = exp(z) > 0; default for poisson/camera), "
+     "pcn/gpcn/hmc: log samples the log intensity z (x = exp(z) > 0; default for poisson/camera), "
      "none samples x itself (default for gaussian). With log, the prior and mean=M apply to z."},
     {"background", 0, 1, "B",
      "Known background in photons per pixel added to A x (poisson/camera only; B >= 0)."},
-    {"sampler", 0, 1, "auto|gibbs|mtc|pcn|gpcn",
+    {"sampler", 0, 1, "auto|gibbs|mtc|pcn|gpcn|hmc",
      "MCMC method. auto: mtc for gaussian noise with --boundary periodic, gibbs for gaussian "
-     "noise with pad, gpcn for poisson/camera (gibbs/mtc need gaussian noise)."},
+     "noise with pad, hmc for poisson/camera (gibbs/mtc need gaussian noise)."},
     {"chains", 0, 1, "N", "Independent chains run in parallel (whole number >= 1)."},
     {"iters", 0, 1, "N", "Iterations per chain after burn-in (whole number >= 1)."},
     {"burn", 0, 1, "N", "Burn-in iterations per chain, discarded (whole number >= 0)."},
