@@ -13,7 +13,8 @@ and integrating c projects onto the complement of the constant vector
 basis of that complement):
   log p(y | lambda, delta) = -1/2 sum_i [log(1/lambda + k_i/delta)
                                          + (U'P'y)_i^2 / (1/lambda + k_i/delta)]
-times the Gamma(1, 1e-4) hyperpriors, on a grid in (log lambda, log delta).
+times the hyperpriors, lambda ~ Gamma(1, 1e-4) (the default) and
+delta ~ Gamma(1, 1) (--hyper-delta 1,1), on a grid in (log lambda, log delta).
 The sampler's posterior means of lambda and delta must match within 4 Monte
 Carlo standard errors (batch means over the chains) plus 1 % for the grid;
 the sds within 15 %. Power, measured: this catches errors that move the
@@ -21,6 +22,14 @@ posterior by a few per cent (e.g. a wrong augmentation), but on a frame this
 small it did not tell apart a variant of the interweaving step that leaves
 the padding unmoved, whose bias is smaller than the tolerance; that step's
 exactness rests on its derivation in src/sampler_gibbs.c.
+Why delta ~ Gamma(1, 1): with the default Gamma(1, 1e-4), the marginal
+posterior of log delta on a frame this small has a second, minute mode at
+delta ~ 1e3-1e4 (a flat x, all of y noise: the likelihood levels off while
+the prior's Jacobian keeps growing up to 1/rate). Its mass is ~e^-20 of the
+total, but 12 of 60 dispersed gibbs chains (15 seeds) fell onto it during
+burn-in and stayed for the whole run (R-hat flags such runs); that was seen
+for noise sd 1, 2 and 3 alike. A rate of 1 removes that mode and leaves the
+main one (delta ~ 0.02) as it was, so the check stays one of exactness.
 """
 import json
 import os
@@ -44,7 +53,7 @@ pptest.run(["simulate", os.path.join(tmp, "truth.tif"), "--psf", PSF, "--noise",
 y = tifffile.imread(os.path.join(tmp, "y.tif")).astype(np.float64)
 psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
 out = os.path.join(tmp, "run")
-pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", PSF, "--boundary", "pad",
+pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", PSF, "--boundary", "pad", "--hyper-delta", "1,1",
             "--chains", "4", "--burn", "300", "--iters", "4000", "--seed", "9", "--quiet",
             "-o", out])
 summ = json.load(open(os.path.join(out, "summary.json")))
@@ -80,13 +89,16 @@ z2 = (U.T @ P.T @ y.reshape(-1)) ** 2
 def log_post(ll, ld):
     lam, dl = np.exp(ll), np.exp(ld)
     c = 1.0 / lam + kap / dl
-    return -0.5 * np.sum(np.log(c)) - 0.5 * np.sum(z2 / c) - 1e-4 * lam - 1e-4 * dl + ll + ld
+    return -0.5 * np.sum(np.log(c)) - 0.5 * np.sum(z2 / c) - 1e-4 * lam - 1.0 * dl + ll + ld
 
 
 head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
 lam_s, del_s = tr[:, head.index("lambda")], tr[:, head.index("delta")]
-gl = np.linspace(np.log(lam_s.mean()) - 1.5, np.log(lam_s.mean()) + 1.5, 121)
-gd = np.linspace(np.log(del_s.mean()) - 3.0, np.log(del_s.mean()) + 3.0, 121)
+# The grid: fixed and wide (it must not depend on the sampler being right);
+# 241 points per axis, steps of 0.04 (log lambda) and 0.11 (log delta)
+# against posterior sds of ~0.2 and ~0.5 there.
+gl = np.linspace(np.log(1e-3), np.log(1e1), 241)
+gd = np.linspace(np.log(1e-4), np.log(1e7), 241)
 LP = np.array([[log_post(a, b) for b in gd] for a in gl])
 Pm = np.exp(LP - LP.max())
 Pm /= Pm.sum()

@@ -119,10 +119,12 @@ static void test_normal_accuracy(void)
     const long double two_pi = 6.283185307179586476925286766559L;
     double worst = 0;
     for (int i = 0; i < N; i += 2) {
-        /* the same double uniforms (formula rounded to double), so that only
-         * the kernels are compared, not the 2^-53 grid of u */
-        long double u1 = ((double)(pp_rng_u64(&raw) >> 11) + 0.5) * 0x1p-53;
-        long double u2 = ((double)(pp_rng_u64(&raw) >> 11) + 0.5) * 0x1p-53;
+        /* the same uniforms from the pair's one word (src/rng.c: radius from
+         * the high 40 bits, angle from the low 24, each (k + 1/2) 2^-bits,
+         * exact), so that only the kernels are compared, not the grids */
+        uint64_t w = pp_rng_u64(&raw);
+        long double u1 = ((long double)(w >> 24) + 0.5L) * 0x1p-40L;
+        long double u2 = ((long double)(w & 0xFFFFFF) + 0.5L) * 0x1p-24L;
         long double rad = sqrtl(-2.0L * logl(u1));
         long double e0 = fabsl(z[i] - rad * cosl(two_pi * u2)) / (1.0L + rad);
         long double e1 = fabsl(z[i + 1] - rad * sinl(two_pi * u2)) / (1.0L + rad);
