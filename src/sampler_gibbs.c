@@ -6,7 +6,8 @@
  *      diagonal in Fourier space: p(k) = lambda |A(k)|^2 + delta q(k),
  *      mu(k) = lambda conj(A(k)) y(k) / p(k) and x(k) = mu(k) + w(k)/sqrt p(k)
  *      with w the DFT of real white noise drawn straight into the half
- *      spectrum (exact, independent draw; no inner solver).
+ *      spectrum (exact, independent draw; no inner solver): the edge
+ *      columns first (edge_noise), then the interior row by row.
  *   2. lambda | x, y ~ Gamma(a + N/2, b + ||Ax - y||^2 / 2)
  *   3. delta | x ~ Gamma(a + rank/2, b + x'Qx / 2)
  *   3b. interweaving (ASIS; Yu & Meng, JCGS 20, 2011): delta again, now
@@ -31,9 +32,14 @@
  * direct half-spectrum sums (no transform).
  *
  * Cost per iteration (grid N pixels, half spectrum M ~ N/2):
- *   periodic: no transform; 2 passes over the half spectrum (noise, fused
- *             update) + a kept draw's one c2r (of mu), one pass of moments
- *             and 9 probe sums (~9 complex multiply-adds per entry).
+ *   periodic: no transform; 1 pass over the half spectrum (the noise is
+ *             drawn block by block inside the fused update and never
+ *             stored; mu is stored for kept draws only) + a kept draw's
+ *             one c2r (of mu), one pass of moments and the probe sums (3
+ *             complex multiply-adds per entry, one per probe column).
+ *             The pass's elementwise part is vectorised (AVX-512/AVX2
+ *             clones), its sums taken afterwards in a fixed order; at 1024^2
+ *             a thinned-out iteration is then ~60 % normals (bench/NOTES.md).
  *   pad:      + one c2r (A x) and one r2c (augmented data), one grid pass.
  * Uncertain PSF width (sigma=auto / na=auto, src/psfwidth.c): after step 1
  * a random-walk Metropolis step on the width given x and lambda, on
@@ -87,37 +93,139 @@ static inline void fused_entry(const pp_sampler *s, const pp_chain *c, size_t i,
     }
 }
 
-/* Entries [k0, k1) of one row whose prior mean is 0 (the vectorisable
- * bulk of the pass). */
-static void fused_run(const pp_sampler *s, const pp_chain *c, size_t i0, size_t n, int want_ax,
-                      double invn, row_sums *acc)
+/* Entries [i0, i0 + n) of one row whose prior mean is 0 (the bulk of the
+ * pass; n <= NOISE_BLOCK), noise g (scaled by gs). Two loops: an
+ * elementwise one that the compiler vectorises (no reductions: strict
+ * ISO floating point forbids reordering sums), writing the five per-entry
+ * terms of the sums to small arrays in L1, then the sums in index order,
+ * FUSED_LANES partial sums per term. Cloned for AVX-512 and AVX2 like the
+ * bulk normals (src/rng.c). */
+#define NOISE_BLOCK 256
+#define FUSED_LANES 8
+#if defined(__GNUC__) && !defined(__clang__) && defined(__x86_64__) && defined(__linux__)
+#define PP_FUSED_FAST __attribute__((target_clones("avx512f", "avx2", "default")))
+#else
+#define PP_FUSED_FAST
+#endif
+PP_FUSED_FAST static void fused_block(const pp_sampler *s, const pp_chain *c, size_t i0,
+                                      size_t n, const double *restrict g, double gs, int want_ax,
+                                      int want_mu, double invn, row_sums *acc)
 {
-    row_sums a = {0, 0, 0, 0, 0};
-    for (size_t i = i0; i < i0 + n; i++)
-        fused_entry(s, c, i, 0.0, want_ax, invn, &a);
-    acc->ss += a.ss;
-    acc->qf += a.qf;
-    acc->cv += a.cv;
-    acc->v0 += a.v0;
-    acc->c0 += a.c0;
+    const double lam = c->lambda, del = c->delta;
+    const double *restrict ot = (const double *)(c->otf + i0);
+    const double *restrict y = (const double *)(c->yhat + i0);
+    const double *restrict q = s->q + i0, *restrict o2 = c->otf2 + i0;
+    double *restrict w = (double *)(c->cbuf + i0), *restrict o = (double *)(c->cbuf2 + i0);
+    double tss[NOISE_BLOCK], tqf[NOISE_BLOCK], tcv[NOISE_BLOCK], tv0[NOISE_BLOCK],
+        tc0[NOISE_BLOCK], txr[NOISE_BLOCK], txi[NOISE_BLOCK], tmr[NOISE_BLOCK], tmi[NOISE_BLOCK];
+    const int ax = want_ax > 0;
+    for (size_t j = 0; j < n; j++) {
+        double qq = q[j], p = lam * o2[j] + del * qq;
+        double rs = 1.0 / sqrt(p), ip = rs * rs;
+        double a0 = ot[2 * j], a1 = ot[2 * j + 1], y0 = y[2 * j], y1 = y[2 * j + 1];
+        double mr = lam * (a0 * y0 + a1 * y1) * ip, mi = lam * (a0 * y1 - a1 * y0) * ip;
+        double xr = mr + g[2 * j] * (gs * rs), xi = mi + g[2 * j + 1] * (gs * rs);
+        double ar = a0 * xr - a1 * xi, ai = a0 * xi + a1 * xr;
+        double rr = ar - y0, ri = ai - y1, on = qq > 0 ? 1.0 : 0.0;
+        tss[j] = rr * rr + ri * ri;
+        tqf[j] = qq * (xr * xr + xi * xi);
+        tcv[j] = ip;
+        tv0[j] = on * (ar * ar + ai * ai);
+        tc0[j] = on * (ar * y0 + ai * y1);
+        txr[j] = ax ? ar : xr;
+        txi[j] = ax ? ai : xi;
+        tmr[j] = mr * invn;
+        tmi[j] = mi * invn;
+    }
+    if (want_mu)
+        for (size_t j = 0; j < n; j++) {
+            w[2 * j] = tmr[j];
+            w[2 * j + 1] = tmi[j];
+        }
+    if (want_ax >= 0)
+        for (size_t j = 0; j < n; j++) {
+            o[2 * j] = txr[j];
+            o[2 * j + 1] = txi[j];
+        }
+    double ss[FUSED_LANES] = {0}, qf[FUSED_LANES] = {0}, cv[FUSED_LANES] = {0};
+    double v0[FUSED_LANES] = {0}, c0[FUSED_LANES] = {0};
+    size_t nb = n - n % FUSED_LANES;
+    for (size_t b = 0; b < nb; b += FUSED_LANES)
+        for (size_t l = 0; l < FUSED_LANES; l++) {
+            ss[l] += tss[b + l];
+            qf[l] += tqf[b + l];
+            cv[l] += tcv[b + l];
+            v0[l] += tv0[b + l];
+            c0[l] += tc0[b + l];
+        }
+    for (size_t j = nb; j < n; j++) {
+        ss[0] += tss[j];
+        qf[0] += tqf[j];
+        cv[0] += tcv[j];
+        v0[0] += tv0[j];
+        c0[0] += tc0[j];
+    }
+    for (size_t l = 0; l < FUSED_LANES; l++) {
+        acc->ss += ss[l];
+        acc->qf += qf[l];
+        acc->cv += cv[l];
+        acc->v0 += v0[l];
+        acc->c0 += c0[l];
+    }
 }
 
-/* Step 1 plus the sums (internal.h): cbuf holds the noise on entry and
- * mu/N on exit; cbuf2 receives x-hat (want_ax = 0) or A x-hat (1), or is
- * left alone (-1: a thinned-out iteration that needs neither saves one
- * write stream). Uses the chain's transfer function c->otf (it changes when
- * the width is sampled). Columns 0 and (W even) W/2 have half-spectrum weight 1, the rest 2; each
- * row is one run over the weight-2 interior and one or two edge entries. */
-fused_sums pp_gibbs_fused_pass(const pp_sampler *s, const pp_chain *c, int want_ax)
+/* Interior entries are drawn per block of NOISE_BLOCK: the white noise of a
+ * block is generated into a stack buffer and used at once (it never goes
+ * through memory as a half spectrum). */
+
+/* The edge columns' noise (0 and, W even, W/2: row k1 pairs with row H-k1
+ * as complex conjugates; rows 0 and H/2 are real with variance N), into
+ * cbuf, exactly as pp_half_noise draws them (src/spectral.c). */
+static void edge_noise(const pp_sampler *s, pp_chain *c, size_t ncol)
 {
-    const double invn = 1.0 / (double)s->gn;
+    const size_t h = s->gh, wh = s->gwh;
+    const double sc = sqrt((double)s->gn / 2.0);
+    double g[2 * NOISE_BLOCK];
+    for (size_t e = 0; e < ncol; e++) {
+        size_t col = e == 0 ? 0 : wh - 1;
+        for (size_t k0 = 0; k0 < h; k0 += NOISE_BLOCK) {
+            size_t m = h - k0 < NOISE_BLOCK ? h - k0 : NOISE_BLOCK;
+            pp_rng_normals(&c->rng, g, 2 * m);
+            for (size_t k = 0; k < m; k++)
+                c->cbuf[(k0 + k) * wh + col] = sc * (g[2 * k] + I * g[2 * k + 1]);
+        }
+        for (size_t k1 = 1; k1 < h - k1; k1++)
+            c->cbuf[(h - k1) * wh + col] = conj(c->cbuf[k1 * wh + col]);
+        c->cbuf[col] = creal(c->cbuf[col]) * sqrt(2.0);
+        if (h % 2 == 0)
+            c->cbuf[(h / 2) * wh + col] = creal(c->cbuf[(h / 2) * wh + col]) * sqrt(2.0);
+    }
+}
+
+/* Step 1 plus the sums (internal.h), drawing its own white noise: the edge
+ * columns first (edge_noise), then the interior row by row in blocks, so
+ * the noise is used from cache. cbuf receives mu/N (want_mu; the edge
+ * entries always), cbuf2 x-hat (want_ax = 0) or A x-hat (1), or is left
+ * alone (-1: a thinned-out iteration that needs neither saves one write
+ * stream). Uses the chain's transfer function c->otf (it changes when the
+ * width is sampled). Columns 0 and (W even) W/2 have half-spectrum weight
+ * 1, the rest 2; each row is one run over the weight-2 interior and one or
+ * two edge entries. */
+fused_sums pp_gibbs_fused_pass(const pp_sampler *s, pp_chain *c, int want_ax, int want_mu)
+{
+    const double invn = 1.0 / (double)s->gn, gs = sqrt((double)s->gn / 2.0);
     const size_t wh = s->gwh, last = (s->gw % 2 == 0 && wh > 1) ? wh - 1 : wh;
+    double g[2 * NOISE_BLOCK];
+    edge_noise(s, c, last < wh ? 2 : 1);
     row_sums edge = {0, 0, 0, 0, 0}, in = {0, 0, 0, 0, 0};
     for (size_t k1 = 0; k1 < s->gh; k1++) {
         size_t i = k1 * wh;
         fused_entry(s, c, i, k1 == 0 ? s->mean_dc : 0.0, want_ax, invn, &edge);
-        if (last > 1)
-            fused_run(s, c, i + 1, last - 1, want_ax, invn, &in);
+        for (size_t j0 = 1; j0 < last; j0 += NOISE_BLOCK) {
+            size_t m = last - j0 < NOISE_BLOCK ? last - j0 : NOISE_BLOCK;
+            pp_rng_normals(&c->rng, g, 2 * m);
+            fused_block(s, c, i + j0, m, g, gs, want_ax, want_mu, invn, &in);
+        }
         if (last < wh)
             fused_entry(s, c, i + last, 0.0, want_ax, invn, &edge);
     }
@@ -367,9 +475,8 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
     for (unsigned long t = 0; t < total; t++) {
         int keep = t >= cfg->burn && (t - cfg->burn + 1) % cfg->thin == 0;
         int want_xhat = keep || width;
-        pp_half_noise(&c->rng, s->gh, s->gw, c->cbuf);
         int mode = pad ? !want_xhat : want_xhat ? 0 : -1;
-        fused_sums f = pp_gibbs_fused_pass(s, c, mode);
+        fused_sums f = pp_gibbs_fused_pass(s, c, mode, keep);
         if (width)
             width_move(s, c, &f, t);
         if (!fix_d) {
