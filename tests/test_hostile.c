@@ -182,10 +182,44 @@ static void test_png_headers(void)
           pp_error_message());
 }
 
+/* A gray TIFF with hundreds of samples per pixel: small in pixels, large
+ * per decoded strip. The strip buffer is bounded by the --max-pixels budget
+ * (8 bytes per pixel), so it is refused before the allocation (fuzz_tiff
+ * once found 8449 samples asking for a 4.75 GB strip). */
+static void test_tiff_many_samples(void)
+{
+    enum { W = 64, H = 4, SPP = 300 };
+    const char *path = path_of("spp300.tif");
+    TIFF *t = TIFFOpen(path, "w");
+    CHECK(t != NULL, "libtiff opens %s for writing", path);
+    if (!t)
+        return;
+    TIFFSetField(t, TIFFTAG_IMAGEWIDTH, (uint32_t)W);
+    TIFFSetField(t, TIFFTAG_IMAGELENGTH, (uint32_t)H);
+    TIFFSetField(t, TIFFTAG_SAMPLESPERPIXEL, SPP);
+    TIFFSetField(t, TIFFTAG_BITSPERSAMPLE, 16);
+    TIFFSetField(t, TIFFTAG_PHOTOMETRIC, PHOTOMETRIC_MINISBLACK);
+    TIFFSetField(t, TIFFTAG_PLANARCONFIG, PLANARCONFIG_CONTIG);
+    TIFFSetField(t, TIFFTAG_ROWSPERSTRIP, (uint32_t)H);
+    static uint16_t row[W * SPP];
+    for (uint32_t i = 0; i < H; i++)
+        CHECK(TIFFWriteScanline(t, row, i, 0) >= 0, "scanline %u of %s", (unsigned)i, path);
+    TIFFClose(t);
+    pp_read_options o;
+    pp_read_options_defaults(&o);
+    o.max_pixels = 1000; /* budget 8000 bytes; the strip is 64*4*300*2 = 153600 */
+    pp_image *img = (pp_image *)1;
+    pp_status st = pp_image_read(path, &o, &img, NULL);
+    CHECK(st == PP_ERR_LIMIT && !img && strstr(pp_error_message(), "spp300.tif") &&
+              strstr(pp_error_message(), "300 samples per pixel"),
+          "TIFF strip of 300 samples per pixel over the budget refused: %s", pp_error_message());
+}
+
 int main(void)
 {
     tmp_dir = pp_test_tmpdir();
     test_beads();
     test_png_headers();
+    test_tiff_many_samples();
     return pp_test_done();
 }
