@@ -238,6 +238,10 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu},\n", frame->width,
             frame->height);
     fprintf(f, "  \"grid\": {\"width\": %zu, \"height\": %zu},\n", s->gw, s->gh);
+    /* x's units: those of the frame for gaussian noise; photons per pixel
+     * (before gain and offset) for the photon models */
+    fprintf(f, "  \"estimate_units\": \"%s\",\n",
+            c->noise.kind == PP_NOISE_GAUSSIAN ? "input units" : "photons per pixel");
     fprintf(f, "  \"sampler\": \"%s\",\n  \"chains\": %u,\n  \"burn\": %lu,\n"
                "  \"iters\": %lu,\n  \"thin\": %lu,\n  \"seed\": %llu,\n"
                "  \"kept_per_chain\": %zu,\n  \"boundary\": \"%s\",\n",

@@ -64,7 +64,12 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
     in.warnings = (const char *const *)s->warnings;
     in.nwarnings = s->nwarnings;
     in.level = c->level;
-    in.units = c->noise.kind == PP_NOISE_GAUSSIAN ? "input units" : "camera units (ADU)";
+    /* Photon models: the frame is in ADU, x (mean, sd, bounds) in photons
+     * per pixel, the intensity whose blur plus background is the expected
+     * count. */
+    int photons = c->noise.kind != PP_NOISE_GAUSSIAN;
+    in.units = photons ? "photons per pixel" : "input units";
+    in.frame_units = photons ? "camera units (ADU)" : "input units";
     pp_status st = pp_report_write(path, &in);
     free(rows);
     return st;

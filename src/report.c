@@ -149,8 +149,9 @@ static const char CSS[] =
 typedef struct page {
     FILE *f;
     const pp_report_input *in;
-    const char *units;
-    unsigned chains; /* for the ESS threshold */
+    const char *units;       /* of the estimates */
+    const char *frame_units; /* of the input frame */
+    unsigned chains;         /* for the ESS threshold */
 } page;
 
 /* Mapping range of an image: robust percentiles, widened when constant. */
@@ -174,10 +175,10 @@ static void block_note(FILE *f, const pp_image *img)
 
 /* The end of a figure's caption: the units, where the mapping's ends come
  * from ("of this <what>"), the block-mean note, and the closing tags. */
-static void caption_end(page *pg, const pp_image *img, const char *what)
+static void caption_end(page *pg, const pp_image *img, const char *units, const char *what)
 {
     FILE *f = pg->f;
-    pp_report_escape(f, pg->units);
+    pp_report_escape(f, units);
     fprintf(f, " (the %.1fth and %.1fth percentiles of this %s; values beyond are clipped).",
             ROBUST_LO, ROBUST_HI, what);
     block_note(f, img);
@@ -185,7 +186,8 @@ static void caption_end(page *pg, const pp_image *img, const char *what)
 }
 
 /* One grey figure: frame or mean. */
-static pp_status grey_figure(page *pg, const char *id, const pp_image *img, const char *what)
+static pp_status grey_figure(page *pg, const char *id, const pp_image *img, const char *what,
+                             const char *units)
 {
     FILE *f = pg->f;
     double lo, hi;
@@ -202,7 +204,7 @@ static pp_status grey_figure(page *pg, const char *id, const pp_image *img, cons
             "\"><figcaption><b>%s</b> (%zu&times;%zu pixels). Grey, linear: black = %.4g, "
             "white = %.4g ",
             what, img->width, img->height, lo, hi);
-    caption_end(pg, img, "image, so each grey image has its own scale");
+    caption_end(pg, img, units, "image, so each grey image has its own scale");
     return PP_OK;
 }
 
@@ -229,7 +231,7 @@ static pp_status colour_figure(page *pg, const char *key, const pp_image *img, c
             "<figcaption><b>%s</b>: %s Colour, linear from %.4g (darkest) to %.4g "
             "(brightest) ",
             what, explain, lo, hi);
-    caption_end(pg, img, "map");
+    caption_end(pg, img, pg->units, "map");
     return PP_OK;
 }
 
@@ -259,9 +261,9 @@ static pp_status images_section(page *pg)
     fputs("<section id=\"images\"><h2>Images</h2>\n<div class=\"images\">\n", pg->f);
     pp_status st = PP_OK;
     if (in->frame)
-        st = grey_figure(pg, "frame-image", in->frame, "Input frame");
+        st = grey_figure(pg, "frame-image", in->frame, "Input frame", pg->frame_units);
     if (st == PP_OK && in->mean)
-        st = grey_figure(pg, "mean-image", in->mean, "Posterior mean");
+        st = grey_figure(pg, "mean-image", in->mean, "Posterior mean", pg->units);
     if (st == PP_OK && in->sd)
         st = colour_figure(pg, "sd", in->sd, "Posterior standard deviation",
                            "the spread of the posterior of each pixel.");
@@ -545,7 +547,13 @@ static void head(page *pg, const char *title)
     const pp_image *any = pg->in->frame ? pg->in->frame : pg->in->mean;
     if (any)
         fprintf(f, " &middot; %zu&times;%zu pixels", any->width, any->height);
-    fputs(" &middot; values in ", f);
+    if (strcmp(pg->units, pg->frame_units) != 0) {
+        fputs(" &middot; frame in ", f);
+        pp_report_escape(f, pg->frame_units);
+        fputs(", estimates in ", f);
+    } else {
+        fputs(" &middot; values in ", f);
+    }
     pp_report_escape(f, pg->units);
     fputs("</p>\n<nav><a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
           "<a href=\"#histograms\">hyperparameters</a><a href=\"#diagnostics\">diagnostics</a>"
@@ -602,7 +610,8 @@ pp_status pp_report_write(const char *path, const pp_report_input *in)
     if (st != PP_OK)
         return st;
     char tmp[PP_PATH_MAX];
-    page pg = {NULL, in, in->units ? in->units : "input units", in->chains};
+    const char *units = in->units ? in->units : "input units";
+    page pg = {NULL, in, units, in->frame_units ? in->frame_units : units, in->chains};
     if (pg.chains == 0)
         pg.chains = in->trace && in->trace->chains ? in->trace->chains : 1;
     if ((st = pp_atomic_open(path, tmp, &pg.f)) != PP_OK)

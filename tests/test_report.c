@@ -147,6 +147,34 @@ static void test_full_page(const char *dir)
     synth_free(&s);
 }
 
+/* Photon models: the frame is in ADU, the estimates in photons per pixel,
+ * and each caption and colour bar says its own. */
+static void test_units(const char *dir)
+{
+    synth s;
+    synth_make(&s, 20, 16, 50, 3);
+    s.in.units = "photons per pixel";
+    s.in.frame_units = "ADU";
+    char path[4200];
+    snprintf(path, sizeof path, "%s/units.html", dir);
+    CHECK(pp_report_write(path, &s.in) == PP_OK, "report write failed: %s", pp_error_message());
+    char *html = slurp(path);
+    CHECK(has(html, "frame in ADU, estimates in photons per pixel"), "header units");
+    const char *fr = html ? strstr(html, "id=\"frame-image\"") : NULL;
+    const char *mn = html ? strstr(html, "id=\"mean-image\"") : NULL;
+    const char *sd = html ? strstr(html, "id=\"sd-image\"") : NULL;
+    int frame_adu = 0, mean_ph = 0;
+    if (fr && mn && sd && fr < mn && mn < sd) {
+        const char *a = strstr(fr, " ADU (the"), *b = strstr(mn, " photons per pixel (the");
+        frame_adu = a && a < mn;
+        mean_ph = b && b < sd;
+    }
+    CHECK(frame_adu, "the frame's caption is in ADU");
+    CHECK(mean_ph, "the mean's caption is in photons per pixel");
+    free(html);
+    synth_free(&s);
+}
+
 static void test_refusals(const char *dir)
 {
     synth s;
@@ -396,5 +424,6 @@ int main(void)
     test_ticks();
     test_helpers();
     test_escape(d[0]);
+    test_units(d[2]);
     return pp_test_done();
 }

@@ -51,7 +51,8 @@ typedef struct pp_report_input {
     const char *const *warnings; /* plain sentences */
     size_t nwarnings;
     double level;      /* credible level of lo/hi, in (0, 1) */
-    const char *units; /* e.g. "camera units (ADU)"; NULL: "input units" */
+    const char *units; /* of the estimates, e.g. "photons per pixel"; NULL: "input units" */
+    const char *frame_units; /* of the input frame, e.g. "ADU"; NULL: as units */
 } pp_report_input;
 
 /* Zeroes *in and sets level = 0.95. */
