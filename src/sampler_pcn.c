@@ -224,6 +224,17 @@ static void swap_c(pp_complex **a, pp_complex **b)
 
 /* ---- moves ------------------------------------------------------------ */
 
+/* The proposed state (up, zp, xp, axp) becomes the current one. */
+static void take_proposal(pcn_chain *k, double phin, double ssn)
+{
+    swap_c(&k->u, &k->up);
+    swap_d(&k->z, &k->zp);
+    swap_d(&k->x, &k->xp);
+    swap_d(&k->ax, &k->axp);
+    k->phi = phin;
+    k->ss = ssn;
+}
+
 static double fisher_of(const pcn_shared *sh, const pp_chain *c)
 {
     return sh->gauss ? c->lambda : sh->fisher;
@@ -274,12 +285,7 @@ static double field_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
         return 0.0;
     if (pp_rng_uniform(&c->rng) < alpha) {
         *accepted = 1;
-        swap_c(&k->u, &k->up);
-        swap_d(&k->z, &k->zp);
-        swap_d(&k->x, &k->xp);
-        swap_d(&k->ax, &k->axp);
-        k->phi = phin;
-        k->ss = ssn;
+        take_proposal(k, phin, ssn);
     }
     return alpha;
 }
@@ -327,12 +333,7 @@ static double delta_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
     if (!isfinite(phin) || !(pp_rng_uniform(&c->rng) < alpha))
         return isfinite(phin) && isfinite(loga) ? alpha : 0.0;
     c->delta = dn;
-    swap_c(&k->u, &k->up);
-    swap_d(&k->z, &k->zp);
-    swap_d(&k->x, &k->xp);
-    swap_d(&k->ax, &k->axp);
-    k->phi = phin;
-    k->ss = ssn;
+    take_proposal(k, phin, ssn);
     return alpha;
 }
 
@@ -519,13 +520,8 @@ static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, p
         return 0.0;
     if (pp_rng_uniform(&c->rng) < alpha) {
         *accepted = 1;
-        swap_c(&k->u, &k->up);
         swap_c(&k->g, &k->gp);
-        swap_d(&k->z, &k->zp);
-        swap_d(&k->x, &k->xp);
-        swap_d(&k->ax, &k->axp);
-        k->phi = phin;
-        k->ss = ssn;
+        take_proposal(k, phin, ssn);
     }
     return alpha;
 }

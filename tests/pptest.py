@@ -158,3 +158,33 @@ def geyer_ess(x, monotone=True):
         tau += 2 * g
         prev = g
     return n / max(tau, 1e-9)
+
+
+def check_probes_gaussian(label, head, tr, mu, v, tol=4.5):
+    """Checks every probe column p_<r>_<c> of a trace (tr: rows of
+    read_trace, chain in column 0) against a Gaussian posterior with mean
+    mu[r, c] and variance v (a scalar or an array like mu): the draw mean
+    within tol standard errors (se = sqrt(v / ESS)) and the mean squared
+    deviation from mu within tol of v (se = v sqrt(2 / ESS2), for a
+    Gaussian), ESS and ESS2 by Geyer's estimator on each chain, summed, of
+    the draws and of their squared deviations (an antithetic chain has a
+    large ESS for x but not for x^2). Returns the smallest ESS seen."""
+    import numpy as np
+    ch = tr[:, 0].astype(int)
+    ess_min = np.inf
+    for j, name in enumerate(head):
+        if not name.startswith("p_"):
+            continue
+        rr, cc = map(int, name.split("_")[1:])
+        vv = v[rr, cc] if np.ndim(v) else v
+        d = tr[:, j]
+        dev2 = (d - mu[rr, cc]) ** 2
+        ess = sum(geyer_ess(d[ch == c]) for c in np.unique(ch))
+        ess2 = sum(geyer_ess(dev2[ch == c]) for c in np.unique(ch))
+        ess_min = min(ess_min, ess, ess2)
+        z_mean = (d.mean() - mu[rr, cc]) / np.sqrt(vv / ess)
+        z_var = (dev2.mean() - vv) / (vv * np.sqrt(2.0 / ess2))
+        check(abs(z_mean) < tol and abs(z_var) < tol,
+              "%s, probe %s (ESS %.0f): mean z=%.2f, variance z=%.2f vs the closed form"
+              % (label, name, ess, z_mean, z_var))
+    return ess_min

@@ -63,24 +63,7 @@ for kind, iters, thin in (("pcn", 40000, 10), ("gpcn", 4000, 1), ("hmc", 4000, 1
     s = json.load(open(os.path.join(out, "summary.json")))
     acc = [c["acceptance"] for c in s["chain_moves"]]
     head, tr = read_trace(os.path.join(out, "trace.csv"))
-    ch = tr[:, 0].astype(int)
-    ess_min = np.inf
-    for j, name in enumerate(head):
-        if not name.startswith("p_"):
-            continue
-        rr, cc = map(int, name.split("_")[1:])
-        d = tr[:, j]
-        ess = sum(geyer_ess(d[ch == c]) for c in np.unique(ch))
-        # the variance's own ESS: that of the squared deviations (an
-        # antithetic chain has a large ESS for x but not for x^2)
-        dev2 = (d - mu[rr, cc]) ** 2
-        ess2 = sum(geyer_ess(dev2[ch == c]) for c in np.unique(ch))
-        ess_min = min(ess_min, ess, ess2)
-        z_mean = (d.mean() - mu[rr, cc]) / np.sqrt(v / ess)
-        z_var = (dev2.mean() - v) / (v * np.sqrt(2.0 / ess2))
-        pptest.check(abs(z_mean) < 4.5 and abs(z_var) < 4.5,
-                     "%s probe %s (ESS %.0f): mean z=%.2f, variance z=%.2f vs numpy closed form"
-                     % (kind, name, ess, z_mean, z_var))
+    ess_min = pptest.check_probes_gaussian(kind, head, tr, mu, v)
     mean = tifffile.imread(os.path.join(out, "mean.tif")).astype(np.float64)
     sd = tifffile.imread(os.path.join(out, "sd.tif")).astype(np.float64)
     zm = np.max(np.abs(mean - mu)) / np.sqrt(v / ess_min)
@@ -105,20 +88,7 @@ pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", "gaussian:sigma=1.3",
             "--sampler", "hmc", "--positivity", "none", "--boundary", "periodic",
             "--chains", "4", "--burn", "1000", "--iters", "4000", "--seed", "22", "--quiet", "-o", out])
 head, tr = read_trace(os.path.join(out, "trace.csv"))
-ch = tr[:, 0].astype(int)
-for j, name in enumerate(head):
-    if not name.startswith("p_"):
-        continue
-    rr, cc = map(int, name.split("_")[1:])
-    d = tr[:, j]
-    dev2 = (d - muf[rr, cc]) ** 2
-    ess = sum(geyer_ess(d[ch == c]) for c in np.unique(ch))
-    ess2 = sum(geyer_ess(dev2[ch == c]) for c in np.unique(ch))
-    z_mean = (d.mean() - muf[rr, cc]) / np.sqrt(vf / ess)
-    z_var = (dev2.mean() - vf) / (vf * np.sqrt(2.0 / ess2))
-    pptest.check(abs(z_mean) < 4.5 and abs(z_var) < 4.5,
-                 "hmc, level free, probe %s (ESS %.0f): mean z=%.2f, variance z=%.2f vs numpy "
-                 "closed form" % (name, ess, z_mean, z_var))
+pptest.check_probes_gaussian("hmc, level free", head, tr, muf, vf)
 
 # hmc with delta free as well (its own Metropolis move in the non-centred
 # parameterisation) vs gibbs on the same posterior: gibbs draws delta from

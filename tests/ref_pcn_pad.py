@@ -75,23 +75,7 @@ for kind, iters in (("hmc", 4000), ("gpcn", 8000)):
         pptest.check(gh > H and gw > W, "grid %dx%d pads the %dx%d frame" % (gh, gw, H, W))
     mu_f, v_f = exact
     head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
-    ch = tr[:, 0].astype(int)
-    ess_min = np.inf
-    for j, name in enumerate(head):
-        if not name.startswith("p_"):
-            continue
-        rr, cc = map(int, name.split("_")[1:])
-        d = tr[:, j]
-        dev2 = (d - mu_f[rr, cc]) ** 2
-        ess = sum(pptest.geyer_ess(d[ch == c]) for c in np.unique(ch))
-        ess2 = sum(pptest.geyer_ess(dev2[ch == c]) for c in np.unique(ch))
-        ess_min = min(ess_min, ess, ess2)
-        v = v_f[rr, cc]
-        z_mean = (d.mean() - mu_f[rr, cc]) / np.sqrt(v / ess)
-        z_var = (dev2.mean() - v) / (v * np.sqrt(2.0 / ess2))
-        pptest.check(abs(z_mean) < 4.5 and abs(z_var) < 4.5,
-                     "%s pad, probe %s (ESS %.0f): mean z=%.2f, variance z=%.2f vs dense closed "
-                     "form" % (kind, name, ess, z_mean, z_var))
+    ess_min = pptest.check_probes_gaussian("%s pad" % kind, head, tr, mu_f, v_f)
     mean = tifffile.imread(os.path.join(out, "mean.tif")).astype(np.float64)
     sd = tifffile.imread(os.path.join(out, "sd.tif")).astype(np.float64)
     zm = np.max(np.abs(mean - mu_f) / np.sqrt(v_f / ess_min))
