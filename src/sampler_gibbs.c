@@ -240,6 +240,32 @@ fused_sums pp_gibbs_fused_pass(const pp_sampler *s, pp_chain *c, int want_ax, in
  * 3 x 3 spread), so each row's inner sum is made once per distinct column
  * and combined with each probe's row twiddle: ncol instead of nprobe
  * complex multiply-adds per entry, one read of xh. */
+/* sum_k row[k] tc[k] over n complex entries into (*re, *im), with
+ * FUSED_LANES partial sums combined in a fixed order (vectorisable). */
+PP_FUSED_FAST static void row_dot(const double *restrict row, const double *restrict tc, size_t n,
+                                  double *re, double *im)
+{
+    double sr[FUSED_LANES] = {0}, si[FUSED_LANES] = {0};
+    size_t nb = n - n % FUSED_LANES;
+    for (size_t b = 0; b < nb; b += FUSED_LANES)
+        for (size_t l = 0; l < FUSED_LANES; l++) {
+            size_t k = b + l;
+            sr[l] += row[2 * k] * tc[2 * k] - row[2 * k + 1] * tc[2 * k + 1];
+            si[l] += row[2 * k] * tc[2 * k + 1] + row[2 * k + 1] * tc[2 * k];
+        }
+    for (size_t k = nb; k < n; k++) {
+        sr[0] += row[2 * k] * tc[2 * k] - row[2 * k + 1] * tc[2 * k + 1];
+        si[0] += row[2 * k] * tc[2 * k + 1] + row[2 * k + 1] * tc[2 * k];
+    }
+    double r = 0, i = 0;
+    for (size_t l = 0; l < FUSED_LANES; l++) {
+        r += sr[l];
+        i += si[l];
+    }
+    *re = r;
+    *im = i;
+}
+
 static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
 {
     size_t ucol[PP_MAX_PROBES], nu = 0, which[PP_MAX_PROBES];
@@ -255,16 +281,8 @@ static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
     for (size_t k1 = 0; k1 < s->gh; k1++) {
         const double *row = (const double *)(xh + k1 * s->gwh);
         double re[PP_MAX_PROBES], im[PP_MAX_PROBES];
-        for (size_t u = 0; u < nu; u++) {
-            const double *tc = (const double *)(s->tw_col + ucol[u] * s->gwh);
-            double sr = 0, si = 0;
-            for (size_t k2 = 0; k2 < s->gwh; k2++) {
-                sr += row[2 * k2] * tc[2 * k2] - row[2 * k2 + 1] * tc[2 * k2 + 1];
-                si += row[2 * k2] * tc[2 * k2 + 1] + row[2 * k2 + 1] * tc[2 * k2];
-            }
-            re[u] = sr;
-            im[u] = si;
-        }
+        for (size_t u = 0; u < nu; u++)
+            row_dot(row, (const double *)(s->tw_col + ucol[u] * s->gwh), s->gwh, &re[u], &im[u]);
         for (size_t p = 0; p < s->nprobe; p++) {
             const double *tr = (const double *)(s->tw_row + p * s->gh + k1);
             acc[p] += re[which[p]] * tr[0] - im[which[p]] * tr[1];
