@@ -438,13 +438,23 @@ static void newton_centre(const pp_sampler *s, const pcn_shared *sh, pp_chain *c
  * so v ~ N(0, P^-1) at the start and the kinetic energy is |v|^2_P / 2.
  * Without kicks one step is gpcn with beta = sin(eps). Quadratic forms by
  * Parseval: |f|^2 = sum over the half spectrum of w |f_k|^2 / N. */
-static void hmc_kick(const pp_sampler *s, const pcn_shared *sh, const pp_chain *c, pcn_chain *k,
-                     double h)
+/* A kick of length h with the force at up (gradient gp), then, when
+ * rotate, the reference's exact flow for the step (cs, sn) = (cos, sin) eps:
+ * one pass. The zero frequency, when free, stays 0 (u, v and a are 0 there). */
+static void hmc_kick_rotate(const pp_sampler *s, const pcn_shared *sh, const pp_chain *c,
+                            pcn_chain *k, double h, double cs, double sn, int rotate)
 {
     const double del = c->delta, fi = fisher_of(sh, c);
     for (size_t i = sh->free_dc ? 1 : 0; i < s->gm; i++) {
         double pq = del * s->q[i], p = pq + fi * s->otf2[i];
-        k->v[i] -= h * (k->gp[i] + pq * k->up[i] - p * (k->up[i] - k->ctr[i])) / p;
+        pp_complex up = k->up[i], a = k->ctr[i];
+        pp_complex v = k->v[i] - h * (k->gp[i] + pq * up - p * (up - a)) / p;
+        if (rotate) {
+            pp_complex w = up - a;
+            k->up[i] = a + cs * w + sn * v;
+            v = cs * v - sn * w;
+        }
+        k->v[i] = v;
     }
 }
 
@@ -498,21 +508,17 @@ static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, p
     const double cs = cos(eps), sn = sin(eps);
     double phin = INFINITY, ssn = 0;
     *accepted = 0;
+    /* leapfrog (kick h, rotate, kick h) per step, the two half kicks
+     * between steps merged into one of 2h */
+    hmc_kick_rotate(s, sh, c, k, 0.5 * eps, cs, sn, 1);
     for (unsigned l = 0; l < steps; l++) {
-        hmc_kick(s, sh, c, k, 0.5 * eps);
-        for (size_t i = 0; i < s->gm; i++) {
-            pp_complex w = k->up[i] - k->ctr[i], v = k->v[i];
-            k->up[i] = k->ctr[i] + cs * w + sn * v;
-            k->v[i] = cs * v - sn * w;
-        }
-        if (sh->free_dc)
-            k->up[0] = 0;
         field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
         phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
         if (!isfinite(phin))
             return 0.0;
         grad_phi(s, sh, c, k->xp, k->axp, k->gp);
-        hmc_kick(s, sh, c, k, 0.5 * eps);
+        int more = l + 1 < steps;
+        hmc_kick_rotate(s, sh, c, k, more ? eps : 0.5 * eps, cs, sn, more);
     }
     double h1 = phin + 0.5 * invn * hmc_quad(s, sh, c, k->up, k->v);
     double loga = h0 - h1, alpha = loga >= 0 ? 1.0 : exp(loga);
