@@ -81,7 +81,8 @@
  * cannot follow a Fisher information proportional to the local intensity,
  * and that misfit is what hmc's gradient kicks absorb.
  * Passes: about 6 over the half spectrum and 4 over the grid per iteration
- * (pcn/gpcn), 4 and 4 per leapfrog step (hmc).
+ * (pcn/gpcn); about 3 and 4 per leapfrog step (hmc: one for the merged kick
+ * and rotation, two in the gradient, and the grid passes of the likelihood).
  * Memory per chain: 4 half spectra (hmc 7) and 6 grids, plus 48 bytes per
  * frame pixel (moments and quantiles).
  */
