@@ -174,10 +174,6 @@ PP_FUSED_FAST static void fused_block(const pp_sampler *s, const pp_chain *c, si
     }
 }
 
-/* Interior entries are drawn per block of NOISE_BLOCK: the white noise of a
- * block is generated into a stack buffer and used at once (it never goes
- * through memory as a half spectrum). */
-
 /* The edge columns' noise (0 and, W even, W/2: row k1 pairs with row H-k1
  * as complex conjugates; rows 0 and H/2 are real with variance N), into
  * cbuf, exactly as pp_half_noise draws them (src/spectral.c). */
@@ -203,8 +199,9 @@ static void edge_noise(const pp_sampler *s, pp_chain *c, size_t ncol)
 }
 
 /* Step 1 plus the sums (internal.h), drawing its own white noise: the edge
- * columns first (edge_noise), then the interior row by row in blocks, so
- * the noise is used from cache. cbuf receives mu/N (want_mu; the edge
+ * columns first (edge_noise), then the interior row by row in blocks of
+ * NOISE_BLOCK entries generated into a stack buffer and used at once (the
+ * noise never goes through memory as a half spectrum). cbuf receives mu/N (want_mu; the edge
  * entries always), cbuf2 x-hat (want_ax = 0) or A x-hat (1), or is left
  * alone (-1: a thinned-out iteration that needs neither saves one write
  * stream). Uses the chain's transfer function c->otf (it changes when the
@@ -234,12 +231,6 @@ fused_sums pp_gibbs_fused_pass(const pp_sampler *s, pp_chain *c, int want_ax, in
                         (edge.c0 + 2 * in.c0) * invn};
 }
 
-/* Probe values of the field whose half spectrum is xh: the inverse DFT at
- * each probe as a direct half-spectrum sum, with the twiddle tables that
- * sampler.c plans. The probes sit on a few distinct columns (3 for the
- * 3 x 3 spread), so each row's inner sum is made once per distinct column
- * and combined with each probe's row twiddle: ncol instead of nprobe
- * complex multiply-adds per entry, one read of xh. */
 /* sum_k row[k] tc[k] over n complex entries into (*re, *im), with
  * FUSED_LANES partial sums combined in a fixed order (vectorisable). */
 PP_FUSED_FAST static void row_dot(const double *restrict row, const double *restrict tc, size_t n,
@@ -266,6 +257,12 @@ PP_FUSED_FAST static void row_dot(const double *restrict row, const double *rest
     *im = i;
 }
 
+/* Probe values of the field whose half spectrum is xh: the inverse DFT at
+ * each probe as a direct half-spectrum sum, with the twiddle tables that
+ * sampler.c plans. The probes sit on a few distinct columns (3 for the
+ * 3 x 3 spread), so each row's inner sum is made once per distinct column
+ * and combined with each probe's row twiddle: ncol instead of nprobe
+ * complex multiply-adds per entry, one read of xh. */
 static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
 {
     size_t ucol[PP_MAX_PROBES], nu = 0, which[PP_MAX_PROBES];
