@@ -8,8 +8,9 @@
  * .random_raw() (checked in tests/ref_rng.py).
  *
  * Variates: uniform on the open interval (0, 1) from the top 53 bits;
- * standard normal by the Box–Muller transform (two normals per pair of
- * uniforms; the bulk routine is written to vectorise); Gamma by Marsaglia &
+ * standard normal by the Box–Muller transform, two normals per raw word
+ * (radius uniform from its high 40 bits, angle from its low 24: |z| <= 7.54,
+ * the bulk routine is written to vectorise); Gamma by Marsaglia &
  * Tsang (ACM TOMS 26, 2000), with the shape < 1 boost; Poisson by inversion
  * for small means and the PTRS transformed rejection of Hörmann (Insurance:
  * Math. & Econ. 12, 1993) for mean >= 10.

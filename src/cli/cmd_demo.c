@@ -9,7 +9,7 @@
  * each frame, into OUTDIR/<frame stem>/: the Gaussian frame with noise and
  * prior precision sampled (auto: gibbs, padded boundary), the camera frame
  * with its camera noise model and the default matern prior on log
- * intensity (auto: hmc). Cost on the 2-core machine: ~16 s and ~65 s.
+ * intensity (auto: hmc). Cost on the 2-core machine: ~15 s and ~70 s.
  */
 #include "cli.h"
 #include <errno.h>
@@ -62,7 +62,7 @@ void cli_demo_help(FILE *fp)
           "reports how far the result is from the bundled frame (0 = reproduced), then\n"
           "runs `pixpost sample` on each frame into OUTDIR/<frame name>/ (posterior mean,\n"
           "sd, 95 % bounds, summary.json, trace.csv, report.html): the Gaussian-noise\n"
-          "frame with gibbs (~16 s), the camera frame with hmc (~65 s on 2 cores).\n\n"
+          "frame with gibbs (~15 s), the camera frame with hmc (~70 s on 2 cores).\n\n"
           "Options:\n",
           fp);
     cli_print_options(fp, tables, NULL, NULL);
