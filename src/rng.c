@@ -9,7 +9,7 @@
  * Normals: Box–Muller, one raw word per pair (see bm_pair). The bulk routine
  * pp_rng_normals() is the hot path (a 1024x1024 frame draws ~1M normals per
  * iteration), so log and sin/cos of 2*pi*u are evaluated by our own
- * branch-free polynomials (below) that gcc vectorises together with the
+ * branch-free polynomials (below; log in src/vmath.h) that gcc vectorises with the
  * square root (rng.c is built with -fno-math-errno), in chunks of
  * PAIRS_PER_CHUNK pairs held on the stack. The scalar pp_rng_normal() uses
  * the same inline kernels,
@@ -30,6 +30,7 @@
  * No allocation, no globals: all state is the caller's pp_rng.
  */
 #include "pixpost/rng.h"
+#include "vmath.h"
 #include <math.h>
 #include <string.h>
 
@@ -122,20 +123,6 @@ static void fill_u64(pp_rng *r, uint64_t *w, size_t n)
 
 /* ---- uniform --------------------------------------------------------- */
 
-static inline double bits_to_double(uint64_t b)
-{
-    double d;
-    memcpy(&d, &b, sizeof d);
-    return d;
-}
-
-static inline uint64_t double_to_bits(double d)
-{
-    uint64_t b;
-    memcpy(&b, &d, sizeof b);
-    return b;
-}
-
 /* ((w>>11) + 0.5) * 2^-53 rounded once (ties to even), built from integer
  * operations only, so that it vectorises without a u64->double conversion
  * instruction: with k = w>>11, (k>>1)*2^-52 exactly, plus (2*(k&1) + 1)*2^-54
@@ -147,8 +134,8 @@ static inline double u64_to_open01(uint64_t w)
     uint64_t k = w >> 11;
     k ^= (k + 1) >> 53; /* 1 only when k = 2^53 - 1 */
     uint64_t b = k & 1;
-    double hi = bits_to_double(0x3FF0000000000000ULL | (k >> 1)) - 1.0;
-    double lo = bits_to_double(((uint64_t)(1023 - 54) + b) << 52 | b << 51);
+    double hi = pp_bits_to_double(0x3FF0000000000000ULL | (k >> 1)) - 1.0;
+    double lo = pp_bits_to_double(((uint64_t)(1023 - 54) + b) << 52 | b << 51);
     return hi + lo;
 }
 
@@ -159,19 +146,6 @@ double pp_rng_uniform(pp_rng *r)
 
 /* ---- vectorisable kernels for Box–Muller ----------------------------- */
 
-/* sum_j c[j] x^j by Horner's rule; n is a constant at every call, so gcc
- * unrolls it completely and the callers' loops still vectorise. */
-static inline double horner(const double *c, size_t n, double x)
-{
-    double y = c[n - 1];
-    for (size_t j = n - 1; j-- > 0;)
-        y = y * x + c[j];
-    return y;
-}
-
-/* 2/(2j+1), j = 1..10: the atanh series of log (see neg2log). */
-static const double LOG_C[] = {2.0 / 3,  2.0 / 5,  2.0 / 7,  2.0 / 9,  2.0 / 11,
-                               2.0 / 13, 2.0 / 15, 2.0 / 17, 2.0 / 19, 2.0 / 21};
 /* (-1)^j (pi/2)^(2j+1) / (2j+1)!, j = 0..8, and (-1)^j (pi/2)^(2j) / (2j)!,
  * j = 0..9, rounded from 60-digit Python decimal values. */
 static const double SIN_C[] = {
@@ -189,27 +163,11 @@ static const double COS_C[] = {1.0,
                                0x1.20c62c2f2d7f5p-34,
                                -0x1.2a0c591af8314p-41};
 
-/* -2 log(u) for u in (0, 1), a normal double. Reduction u = 2^k m with m in
- * [sqrt(1/2), sqrt(2)) by integer arithmetic on the bits; then
- * log(m) = 2 atanh(s), s = f/(2+f), f = m - 1, written as
- * f - (f^2/2 - s (f^2/2 + R)), R = sum_{j>=1} 2 s^(2j)/(2j+1) (Taylor series;
- * |s| <= 0.1716 so ten terms leave < 1e-18 relative). ln 2 is split hi/lo
- * (hi has 31 significant bits, so k*hi is exact) — constants computed with
- * Python's decimal module. The error vs. long-double libm is checked in test_rng.c. */
+/* -2 log(u) for u in (0, 1), a normal double (src/vmath.h; its error vs.
+ * long-double libm is checked in test_rng.c). */
 static inline double neg2log(double u)
 {
-    const double ln2_hi = 0x1.62e42fee00000p-1, ln2_lo = 0x1.a39ef35793c76p-33;
-    uint64_t ix = double_to_bits(u) + (0x3FF0000000000000ULL - 0x3FE6A09E667F3BCDULL);
-    /* exponent field (0..2047) to double exactly via the 2^52 magic */
-    double k = bits_to_double(0x4330000000000000ULL | (ix >> 52)) - (0x1p52 + 1023.0);
-    double m = bits_to_double((ix & 0x000FFFFFFFFFFFFFULL) + 0x3FE6A09E667F3BCDULL);
-    double f = m - 1.0;
-    double s = f / (2.0 + f);
-    double z = s * s;
-    double R = z * horner(LOG_C, sizeof LOG_C / sizeof LOG_C[0], z);
-    double hfsq = 0.5 * f * f;
-    double lg = k * ln2_hi - ((hfsq - (s * (hfsq + R) + k * ln2_lo)) - f);
-    return -2.0 * lg;
+    return -2.0 * pp_vlog(u);
 }
 
 /* sin and cos of 2*pi*v for v in (0, 1). 4v = n + w with n = round(4v) (the
@@ -221,19 +179,19 @@ static inline double neg2log(double u)
 static inline void sincos2pi(double v, double *sn, double *cs)
 {
     double t = 4.0 * v + 0x1.8p52;
-    uint64_t n = double_to_bits(t); /* low bits hold round(4v) */
+    uint64_t n = pp_double_to_bits(t); /* low bits hold round(4v) */
     double w = 4.0 * v - (t - 0x1.8p52);
     double ww = w * w;
-    double s = w * horner(SIN_C, sizeof SIN_C / sizeof SIN_C[0], ww);
-    double c = horner(COS_C, sizeof COS_C / sizeof COS_C[0], ww);
-    uint64_t sb = double_to_bits(s), cb = double_to_bits(c);
+    double s = w * pp_horner(SIN_C, sizeof SIN_C / sizeof SIN_C[0], ww);
+    double c = pp_horner(COS_C, sizeof COS_C / sizeof COS_C[0], ww);
+    uint64_t sb = pp_double_to_bits(s), cb = pp_double_to_bits(c);
     uint64_t swap = 0 - (n & 1);
     uint64_t so = (cb & swap) | (sb & ~swap);
     uint64_t co = (sb & swap) | (cb & ~swap);
     so ^= (n & 2) << 62;       /* quadrants 2, 3: sin < 0 side */
     co ^= ((n + 1) & 2) << 62; /* quadrants 1, 2: cos < 0 side */
-    *sn = bits_to_double(so);
-    *cs = bits_to_double(co);
+    *sn = pp_bits_to_double(so);
+    *cs = pp_bits_to_double(co);
 }
 
 /* ---- normals --------------------------------------------------------- */
@@ -249,7 +207,7 @@ static inline void sincos2pi(double v, double *sn, double *cs)
  * per pair halves the Philox cost per normal (~4 ns per word here). */
 static inline double bits_to_unit(uint64_t k, double scale)
 {
-    return (bits_to_double(0x4330000000000000ULL | k) - 0x1p52 + 0.5) * scale;
+    return (pp_bits_to_double(0x4330000000000000ULL | k) - 0x1p52 + 0.5) * scale;
 }
 
 static inline double radius_u(uint64_t w)
@@ -290,12 +248,7 @@ double pp_rng_normal(pp_rng *r)
  * bench/NOTES.md). Strict C11 means no FMA contraction, so every clone
  * gives bit-identical normals (IEEE-exact +, *, /, sqrt in the same order;
  * tests/test_rng.c compares bulk with the uncloned scalar path). */
-#if defined(__GNUC__) && !defined(__clang__) && defined(__x86_64__) && defined(__linux__)
-#define PP_NORMAL_FAST __attribute__((target_clones("avx512f", "avx2", "default")))
-#else
-#define PP_NORMAL_FAST
-#endif
-PP_NORMAL_FAST static void normal_chunk(pp_rng *r, double *out, size_t np)
+PP_VECTOR_CLONES static void normal_chunk(pp_rng *r, double *out, size_t np)
 {
     uint64_t w[PAIRS_PER_CHUNK];
     fill_u64(r, w, np);

@@ -51,6 +51,7 @@
  */
 #include <math.h>
 #include "internal.h"
+#include "vmath.h"
 
 typedef pp_fused_sums fused_sums;
 
@@ -102,12 +103,7 @@ static inline void fused_entry(const pp_sampler *s, const pp_chain *c, size_t i,
  * bulk normals (src/rng.c). */
 #define NOISE_BLOCK 256
 #define FUSED_LANES 8
-#if defined(__GNUC__) && !defined(__clang__) && defined(__x86_64__) && defined(__linux__)
-#define PP_FUSED_FAST __attribute__((target_clones("avx512f", "avx2", "default")))
-#else
-#define PP_FUSED_FAST
-#endif
-PP_FUSED_FAST static void fused_block(const pp_sampler *s, const pp_chain *c, size_t i0,
+PP_VECTOR_CLONES static void fused_block(const pp_sampler *s, const pp_chain *c, size_t i0,
                                       size_t n, const double *restrict g, double gs, int want_ax,
                                       int want_mu, double invn, row_sums *acc)
 {
@@ -233,7 +229,7 @@ fused_sums pp_gibbs_fused_pass(const pp_sampler *s, pp_chain *c, int want_ax, in
 
 /* sum_k row[k] tc[k] over n complex entries into (*re, *im), with
  * FUSED_LANES partial sums combined in a fixed order (vectorisable). */
-PP_FUSED_FAST static void row_dot(const double *restrict row, const double *restrict tc, size_t n,
+PP_VECTOR_CLONES static void row_dot(const double *restrict row, const double *restrict tc, size_t n,
                                   double *re, double *im)
 {
     double sr[FUSED_LANES] = {0}, si[FUSED_LANES] = {0};
