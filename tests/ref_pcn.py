@@ -15,6 +15,11 @@ probe draw means vs mu (se = sqrt(v/ESS)), probe mean squared deviations
 from mu vs v (se ~ v sqrt(2/ESS2), for a Gaussian, with ESS2 that of the
 squared deviations), every pixel of mean.tif vs mu with the
 smallest probe ESS (5 se, ~1000 pixels), sd.tif vs sqrt(v) (5 se of sqrt).
+
+Then hmc with the level free (the same closed form with the prior term at
+k = 0 removed) and hmc with delta free against gibbs (the delta means within
+4.5 combined Monte Carlo se): the moves that change delta and the level,
+after which hmc's cached gradient must be recomputed.
 """
 import json
 import os
