@@ -267,6 +267,24 @@ static void swap_c(pp_complex **a, pp_complex **b)
 
 /* ---- moves ------------------------------------------------------------ */
 
+/* sum over the half spectrum of w(k) (a q(k) + b |A(k)|^2) |f(k)|^2 / N,
+ * the held zero frequency left out: by Parseval f' (a Q + b A'A) f for the
+ * field whose DFT is f. */
+static double half_form(const pp_sampler *s, const pcn_shared *sh, const pp_complex *f, double a,
+                        double b)
+{
+    double acc = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            if (i == 0 && sh->free_dc)
+                continue;
+            acc += pp_half_weight(k2, s->gw) * (a * s->q[i] + b * s->otf2[i]) *
+                   (creal(f[i]) * creal(f[i]) + cimag(f[i]) * cimag(f[i]));
+        }
+    return acc / (double)s->gn;
+}
+
 /* The proposed state (up, zp, xp, axp) becomes the current one. */
 static void take_proposal(pcn_chain *k, double phin, double ssn)
 {
@@ -388,16 +406,7 @@ static double delta_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
 static void delta_centred(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
                           const pcn_chain *k)
 {
-    double quad = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
-        for (size_t k2 = 0; k2 < s->gwh; k2++) {
-            size_t i = k1 * s->gwh + k2;
-            if (i == 0 && sh->free_dc)
-                continue;
-            pp_complex u = k->u[i];
-            quad += pp_half_weight(k2, s->gw) * s->q[i] * (creal(u) * creal(u) + cimag(u) * cimag(u));
-        }
-    quad /= (double)s->gn;
+    double quad = half_form(s, sh, k->u, 1.0, 0.0);
     c->delta = pp_rng_gamma(&c->rng, s->cfg.hyper_delta[0] + 0.5 * s->rank,
                             s->cfg.hyper_delta[1] + 0.5 * quad);
 }
@@ -501,23 +510,11 @@ static void hmc_kick_rotate(const pp_sampler *s, const pcn_shared *sh, const pp_
     }
 }
 
-/* 2N times (|u|^2_dQ + |v|^2_P) / 2 summed over the half spectrum. */
+/* 2 (potential prior part + kinetic energy): u'(delta Q)u + v'Pv. */
 static double hmc_quad(const pp_sampler *s, const pcn_shared *sh, const pp_chain *c,
                        const pp_complex *u, const pp_complex *v)
 {
-    const double del = c->delta, fi = fisher_of(sh, c);
-    double acc = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
-        for (size_t k2 = 0; k2 < s->gwh; k2++) {
-            size_t i = k1 * s->gwh + k2;
-            if (i == 0 && sh->free_dc)
-                continue;
-            double pq = del * s->q[i], p = pq + fi * s->otf2[i];
-            acc += pp_half_weight(k2, s->gw) *
-                   (pq * (creal(u[i]) * creal(u[i]) + cimag(u[i]) * cimag(u[i])) +
-                    p * (creal(v[i]) * creal(v[i]) + cimag(v[i]) * cimag(v[i])));
-        }
-    return acc;
+    return half_form(s, sh, u, c->delta, 0.0) + half_form(s, sh, v, c->delta, fisher_of(sh, c));
 }
 
 /* The trajectory: about a quarter period of the reference (pi/2), which
@@ -528,7 +525,7 @@ static double hmc_quad(const pp_sampler *s, const pcn_shared *sh, const pp_chain
 static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k,
                        int *accepted)
 {
-    const double del = c->delta, fi = fisher_of(sh, c), invn = 1.0 / (double)s->gn;
+    const double del = c->delta, fi = fisher_of(sh, c);
     if (!k->gvalid) {
         grad_phi(s, sh, c, k->x, k->ax, k->g);
         k->gvalid = 1;
@@ -545,7 +542,7 @@ static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, p
         k->v[i] /= sqrt(del * s->q[i] + fi * s->otf2[i]);
     if (sh->free_dc)
         k->v[0] = 0;
-    double h0 = k->phi + 0.5 * invn * hmc_quad(s, sh, c, k->u, k->v);
+    double h0 = k->phi + 0.5 * hmc_quad(s, sh, c, k->u, k->v);
     memcpy(k->up, k->u, s->gm * sizeof(pp_complex));
     memcpy(k->gp, k->g, s->gm * sizeof(pp_complex));
     const double cs = cos(eps), sn = sin(eps);
@@ -563,7 +560,7 @@ static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, p
         int more = l + 1 < steps;
         hmc_kick_rotate(s, sh, c, k, more ? eps : 0.5 * eps, cs, sn, more);
     }
-    double h1 = phin + 0.5 * invn * hmc_quad(s, sh, c, k->up, k->v);
+    double h1 = phin + 0.5 * hmc_quad(s, sh, c, k->up, k->v);
     double loga = h0 - h1, alpha = loga >= 0 ? 1.0 : exp(loga);
     if (!isfinite(loga))
         return 0.0;
@@ -781,16 +778,7 @@ static pp_status plan_start(pp_sampler *s, pcn_shared *sh)
     for (size_t i = 0; i < s->gn; i++)
         s->chain[0].rbuf[i] = sh->zstart[i] - sh->m0;
     pp_fft_forward(s->fft, s->chain[0].rbuf, buf);
-    double quad = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
-        for (size_t k2 = 0; k2 < s->gwh; k2++) {
-            size_t i = k1 * s->gwh + k2;
-            if (i == 0 && sh->free_dc)
-                continue;
-            quad += pp_half_weight(k2, s->gw) * s->q[i] *
-                    (creal(buf[i]) * creal(buf[i]) + cimag(buf[i]) * cimag(buf[i]));
-        }
-    quad *= invn;
+    double quad = half_form(s, sh, buf, 1.0, 0.0);
     sh->delta0 = quad > 0 ? s->rank / quad : 1.0;
     sh->a0 = creal(s->otf[0]);
     pp_fft_free_buffer(buf);
