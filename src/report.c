@@ -185,20 +185,31 @@ static void caption_end(page *pg, const pp_image *img, const char *units, const 
     fputs("</figcaption></figure>\n", f);
 }
 
+/* Opens a figure with img's picture (grey, or the colour ramp) mapped over
+ * its robust range *lo..*hi, which the data-<end> attributes record; the
+ * caller closes the img tag. */
+static pp_status figure_image(page *pg, const char *id, const pp_image *img, const char *what,
+                              int colour, double *lo, double *hi)
+{
+    pp_status st = image_range(img, lo, hi);
+    if (st != PP_OK)
+        return st;
+    fprintf(pg->f,
+            "<figure><img id=\"%s\" alt=\"%s\" width=\"%zu\" height=\"%zu\" "
+            "data-%s=\"%.17g\" data-%s=\"%.17g\" src=\"",
+            id, what, img->width, img->height, colour ? "low" : "black", *lo,
+            colour ? "high" : "white", *hi);
+    return pp_report_png_uri(pg->f, img, *lo, *hi, colour);
+}
+
 /* One grey figure: frame or mean. */
 static pp_status grey_figure(page *pg, const char *id, const pp_image *img, const char *what,
                              const char *units)
 {
     FILE *f = pg->f;
     double lo, hi;
-    pp_status st = image_range(img, &lo, &hi);
+    pp_status st = figure_image(pg, id, img, what, 0, &lo, &hi);
     if (st != PP_OK)
-        return st;
-    fprintf(f,
-            "<figure><img id=\"%s\" alt=\"%s\" width=\"%zu\" height=\"%zu\" "
-            "data-black=\"%.17g\" data-white=\"%.17g\" src=\"",
-            id, what, img->width, img->height, lo, hi);
-    if ((st = pp_report_png_uri(f, img, lo, hi, 0)) != PP_OK)
         return st;
     fprintf(f,
             "\"><figcaption><b>%s</b> (%zu&times;%zu pixels). Grey, linear: black = %.4g, "
@@ -214,17 +225,12 @@ static pp_status colour_figure(page *pg, const char *key, const pp_image *img, c
 {
     FILE *f = pg->f;
     double lo, hi;
-    pp_status st = image_range(img, &lo, &hi);
+    char id[64];
+    snprintf(id, sizeof id, "%s-image", key);
+    pp_status st = figure_image(pg, id, img, what, 1, &lo, &hi);
     if (st != PP_OK)
         return st;
-    fprintf(f,
-            "<figure><img id=\"%s-image\" alt=\"%s\" width=\"%zu\" height=\"%zu\" "
-            "data-low=\"%.17g\" data-high=\"%.17g\" src=\"",
-            key, what, img->width, img->height, lo, hi);
-    if ((st = pp_report_png_uri(f, img, lo, hi, 1)) != PP_OK)
-        return st;
     fputs("\">\n", f);
-    char id[64];
     snprintf(id, sizeof id, "%s-colourbar", key);
     pp_report_svg_colourbar(f, id, lo, hi, pg->units);
     fprintf(f,
