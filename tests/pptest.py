@@ -160,6 +160,14 @@ def geyer_ess(x, monotone=True):
     return n / max(tau, 1e-9)
 
 
+def matern_q(H, W, range_, nu=1.0):
+    """Eigenvalues of pixpost's Matern precision on an H x W periodic grid
+    (include/pixpost/prior.h; Lindgren, Rue & Lindstrom 2011), full
+    spectrum: (kappa^2 + q_lap)^(nu + 1) with kappa^2 = 8 nu / range^2 and
+    q_lap the 5-point Laplacian's eigenvalues (gmrf1_q)."""
+    return (8.0 * nu / range_ ** 2 + gmrf1_q(H, W)) ** (nu + 1)
+
+
 def check_probes_gaussian(label, head, tr, mu, v, tol=4.5):
     """Checks every probe column p_<r>_<c> of a trace (tr: rows of
     read_trace, chain in column 0) against a Gaussian posterior with mean

@@ -57,9 +57,7 @@ psf_path = os.path.join(tmp, "psf.tif")
 pptest.run(["psf", PSF, "-o", psf_path])
 psf = tifffile.imread(psf_path).astype(np.float64)
 A = pptest.transfer(psf, (H, W))
-q = pptest.gmrf1_q(H, W)
-kappa2 = 8 * NU / RANGE ** 2
-qm = (kappa2 + q) ** (NU + 1)
+qm = pptest.matern_q(H, W, RANGE, NU)
 p = LAM * np.abs(A) ** 2 + DELTA * qm
 v = np.mean(1.0 / p)  # exact posterior variance of every pixel
 

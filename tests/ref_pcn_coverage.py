@@ -29,9 +29,7 @@ M, DLT, RANGE, B = np.log(20.0), 1.0, 3.0, 0.5
 pptest.run(["psf", "gaussian:sigma=1.2", "--size", "7", "-o", os.path.join(tmp, "psf.tif")])
 psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
 A = pptest.transfer(psf, (H, W))
-k1 = np.arange(H)[:, None]
-k2 = np.arange(W)[None, :]
-q = (8.0 / RANGE ** 2 + 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)) ** 2
+q = pptest.matern_q(H, W, RANGE)
 rng = np.random.default_rng(20261204)
 cov = {0.95: [], 0.5: []}
 for f in range(F):

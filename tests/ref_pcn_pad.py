@@ -57,10 +57,7 @@ for kind, iters in (("hmc", 4000), ("gpcn", 8000)):
     if exact is None:
         n = gh * gw
         A = pptest.transfer(psf, (gh, gw))
-        k1 = np.arange(gh)[:, None]
-        k2 = np.arange(gw)[None, :]
-        q = (8.0 / RANGE ** 2 + 4 - 2 * np.cos(2 * np.pi * k1 / gh)
-             - 2 * np.cos(2 * np.pi * k2 / gw)) ** 2
+        q = pptest.matern_q(gh, gw, RANGE)
         E = np.eye(n).reshape(n, gh, gw)
         Ad = np.real(np.fft.ifft2(A * np.fft.fft2(E))).reshape(n, n).T
         Qd = np.real(np.fft.ifft2(q * np.fft.fft2(E))).reshape(n, n).T

@@ -47,9 +47,7 @@ def scenario(label, M, DLT, B, C, burn, iters, runs, seed):
     pptest.run(["psf", "gaussian:sigma=1.0", "--size", "7", "-o", os.path.join(tmp, "psf.tif")])
     psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
     A = pptest.transfer(psf, (H, W))
-    k1 = np.arange(H)[:, None]
-    k2 = np.arange(W)[None, :]
-    q = (8.0 / RANGE ** 2 + 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)) ** 2
+    q = pptest.matern_q(H, W, RANGE)
 
     # Data: a truth drawn from the prior, counts drawn with numpy.
     rng = np.random.default_rng(seed)
