@@ -89,9 +89,10 @@ typedef struct pp_chain {
     double *rbuf;      /* grid: c2r output */
     double *yaug;      /* pad: observed frame plus latent padding pixels */
     pp_complex *yhat;  /* this chain's data spectrum (pad) or the shared one */
-    pp_moments half[2]; /* frame-sized moments of the recorded field over the first
-                         * and second half of the kept draws (split-R-hat maps);
-                         * add to them with pp_chain_add_draw only */
+    pp_moments mom;    /* frame-sized moments of the recorded field over all kept
+                        * draws; add to them with pp_chain_add_draw only */
+    double *mean1;     /* frame-sized: mom.mean frozen after the first half of the
+                        * kept draws (split-R-hat maps, pp_chain_split) */
     double condvar_sum; /* sum over kept draws of the conditional variance */
     double *trace;     /* kept x ncols rows inside the sampler's trace */
     size_t kept;
@@ -153,7 +154,6 @@ struct pp_sampler {
     pp_complex *tw_col; /* nprobe x gwh twiddles e^{+2 pi i k2 c / gw}, weighted */
     pp_chain *chain;
     pp_trace trace;
-    pp_moments pooled;  /* all halves of all chains, pooled in chain order */
     struct pp_diag_scalar *diag;     /* one per trace column (sampler_diag.c) */
     pp_image *rhat_map, *mcse_map;   /* per-pixel split-R-hat and MCSE, or NULL */
     char *names[4 + PP_MAX_PROBES]; /* 3 scalars, psf_width, probes */
@@ -176,9 +176,13 @@ struct pp_sampler {
 enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
 
 /* Adds the frame block of a grid-sized field (rows s->gw apart) to the
- * moments of the half of chain c that draw number c->kept falls in. Call
- * once per kept draw, before c->kept is incremented. */
+ * moments of chain c, freezing their mean in c->mean1 after the first half
+ * (floor(kept / 2) draws). Call once per kept draw. */
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
+/* After pooling: turns chain c's moments into those of its two halves, in
+ * place: c->mean1 and c->mom.mean become the halves' means, c->mom.m2 the
+ * sum of their M2 (Chan et al.'s merge, solved for the second half). */
+void pp_chain_split(const pp_sampler *s, pp_chain *c);
 
 /* report.html of a finished run (src/output_report.c). */
 struct pp_run_info;

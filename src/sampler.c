@@ -311,9 +311,6 @@ static pp_status plan_chains(pp_sampler *s)
     s->chain = calloc(s->cfg.chains, sizeof *s->chain);
     if (!s->chain)
         return pp_fail(PP_ERR_NOMEM, "out of memory for %u chains", s->cfg.chains);
-    pp_status st0 = pp_moments_init(&s->pooled, s->height * s->width);
-    if (st0 != PP_OK)
-        return st0;
     for (unsigned k = 0; k < s->cfg.chains; k++) {
         pp_chain *c = &s->chain[k];
         c->cbuf = pp_fft_alloc_complex(s->gm);
@@ -323,11 +320,11 @@ static pp_status plan_chains(pp_sampler *s)
         c->yaug = pad ? pp_fft_alloc_real(s->gn) : NULL;
         if (!c->cbuf || !c->cbuf2 || !c->rbuf || !c->yhat || (pad && !c->yaug))
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
-        for (int h = 0; h < 2; h++) {
-            pp_status st = pp_moments_init(&c->half[h], s->height * s->width);
-            if (st != PP_OK)
-                return st;
-        }
+        pp_status st = pp_moments_init(&c->mom, s->height * s->width);
+        if (st != PP_OK)
+            return st;
+        if (!(c->mean1 = malloc(s->height * s->width * sizeof(double))))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
         c->trace = s->trace_values + (size_t)k * s->trace.kept * s->trace.ncols;
         c->otf = s->otf;
         c->otf2 = s->otf2;
@@ -401,8 +398,24 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
 
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
 {
-    int h = c->kept >= s->trace.kept / 2;
-    pp_moments_add_block(&c->half[h], grid, s->height, s->width, s->gw);
+    pp_moments_add_block(&c->mom, grid, s->height, s->width, s->gw);
+    if (c->mom.count == s->trace.kept / 2)
+        memcpy(c->mean1, c->mom.mean, c->mom.len * sizeof(double));
+}
+
+void pp_chain_split(const pp_sampler *s, pp_chain *c)
+{
+    double n1 = (double)(s->trace.kept / 2), n2 = (double)c->mom.count - n1;
+    double n = n1 + n2;
+    if (!(n1 > 0 && n2 > 0))
+        return;
+    for (size_t i = 0; i < c->mom.len; i++) {
+        double m = c->mom.mean[i], a = c->mean1[i];
+        double b = (n * m - n1 * a) / n2, da = a - m, db = b - m;
+        double w = c->mom.m2[i] - n1 * da * da - n2 * db * db;
+        c->mom.mean[i] = b;
+        c->mom.m2[i] = w > 0 ? w : 0.0;
+    }
 }
 
 void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
@@ -445,11 +458,9 @@ static void start_chain(pp_sampler *s, unsigned k)
     c->delta = s->delta0 * (s->cfg.prior.delta_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
     c->kept = 0;
     c->condvar_sum = 0;
-    for (int h = 0; h < 2; h++) {
-        c->half[h].count = 0;
-        memset(c->half[h].mean, 0, c->half[h].len * sizeof(double));
-        memset(c->half[h].m2, 0, c->half[h].len * sizeof(double));
-    }
+    c->mom.count = 0;
+    memset(c->mom.mean, 0, c->mom.len * sizeof(double));
+    memset(c->mom.m2, 0, c->mom.len * sizeof(double));
     if (c->yaug) {
         memcpy(c->yaug, s->ygrid, s->gn * sizeof(double));
         memcpy(c->yhat, s->yhat, s->gm * sizeof(pp_complex));
@@ -465,18 +476,18 @@ static void start_chain(pp_sampler *s, unsigned k)
 
 static pp_status pool_estimates(pp_sampler *s)
 {
-    pp_moments *acc = &s->pooled;
+    /* The chains' moments pooled in chain order, straight into mean/sd. */
+    size_t n = s->height * s->width, bad = 0;
+    pp_moments pool = {n, 0, s->mean->data, s->sd->data}, *acc = &pool;
     double condvar = 0;
     unsigned long long kept = 0;
     for (unsigned k = 0; k < s->cfg.chains; k++) {
-        for (int h = 0; h < 2; h++)
-            pp_moments_merge(acc, &s->chain[k].half[h]);
+        pp_moments_merge(acc, &s->chain[k].mom);
         condvar += s->chain[k].condvar_sum;
         kept += s->chain[k].kept;
     }
     condvar /= (double)kept;
     double z = pp_norm_quantile(0.5 + 0.5 * s->cfg.level);
-    size_t n = s->height * s->width, bad = 0;
     for (size_t i = 0; i < n; i++) {
         double var = condvar + (kept > 1 ? acc->m2[i] / (double)(kept - 1) : 0.0);
         double m = acc->mean[i], sd = sqrt(var);
@@ -565,11 +576,10 @@ void pp_sampler_free(pp_sampler *s)
             pp_fft_free_buffer(c->yhat);
         pp_fft_free_buffer(c->yaug);
         pp_width_free(c->wstate);
-        pp_moments_free(&c->half[0]);
-        pp_moments_free(&c->half[1]);
+        pp_moments_free(&c->mom);
+        free(c->mean1);
     }
     free(s->chain);
-    pp_moments_free(&s->pooled);
     free(s->diag);
     pp_image_free(s->rhat_map);
     pp_image_free(s->mcse_map);

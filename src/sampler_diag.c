@@ -104,10 +104,10 @@ static void warn_scalars(pp_sampler *s)
 
 static pp_status pixel_maps(pp_sampler *s)
 {
-    size_t m = s->chain[0].half[0].count, nh = 2 * (size_t)s->cfg.chains;
+    size_t m = s->trace.kept / 2, nc = s->cfg.chains, nh = 2 * nc;
     if (m < 2)
         return PP_OK; /* too few draws per half: no maps */
-    const double **mean = malloc(nh * sizeof *mean), **m2 = malloc(nh * sizeof *m2);
+    const double **mean = malloc(nh * sizeof *mean), **m2 = malloc(nc * sizeof *m2);
     pp_status st = PP_OK;
     if (!mean || !m2)
         st = pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
@@ -115,9 +115,13 @@ static pp_status pixel_maps(pp_sampler *s)
         st = pp_image_create(s->width, s->height, &s->rhat_map);
     if (st == PP_OK)
         st = pp_image_create(s->width, s->height, &s->mcse_map);
-    for (size_t j = 0; st == PP_OK && j < nh; j++) {
-        mean[j] = s->chain[j / 2].half[j % 2].mean;
-        m2[j] = s->chain[j / 2].half[j % 2].m2;
+    /* Each chain's moments become its halves' (pp_chain_split): the two
+     * means and the sum of the two M2. */
+    for (size_t k = 0; st == PP_OK && k < nc; k++) {
+        pp_chain_split(s, &s->chain[k]);
+        mean[2 * k] = s->chain[k].mean1;
+        mean[2 * k + 1] = s->chain[k].mom.mean;
+        m2[k] = s->chain[k].mom.m2;
     }
     /* With an odd number of kept draws the second halves hold one draw
      * more; the maps use the first halves' length m (a negligible
@@ -130,7 +134,7 @@ static pp_status pixel_maps(pp_sampler *s)
         kept += (double)s->chain[k].kept;
     }
     if (st == PP_OK)
-        st = pp_diag_pixel_maps(mean, m2, nh, m, s->height * s->width, condvar / kept,
+        st = pp_diag_pixel_maps(mean, nh, m2, nc, m, s->height * s->width, condvar / kept,
                                 s->rhat_map->data, s->mcse_map->data, NULL);
     free(mean);
     free(m2);
