@@ -2,9 +2,13 @@
  * wisdom files and FFT-friendly sizes.
  *
  * Cost: planning allocates two scratch arrays (H*W doubles, H*(W/2+1)
- * complex) for the life of the plan and, with PP_FFT_MEASURE, times a few
- * candidate transforms; ESTIMATE planning is cheap and deterministic. An
- * execution is one O(N log N) transform and allocates nothing.
+ * complex) and, with PP_FFT_MEASURE, times a few candidate transforms on
+ * them; ESTIMATE planning is cheap and deterministic. The arrays are freed
+ * as soon as both plans exist: every execution goes through the new-array
+ * functions, which never touch the planning arrays (FFTW 3.3 manual,
+ * section 4.6; FFTW keeps them only for fftw_execute, which is not used).
+ * A plan then holds no grid-sized memory. An execution is one O(N log N)
+ * transform and allocates nothing.
  *
  * Thread safety: FFTW's executor is re-entrant, its planner is not. Every
  * call that touches the planner (plan creation and destruction, wisdom
@@ -31,35 +35,35 @@
 struct pp_fft {
     size_t height, width, half;
     fftw_plan r2c, c2r;
-    double *scratch_r;
-    fftw_complex *scratch_c;
 };
 
 static pthread_mutex_t planner_lock = PTHREAD_MUTEX_INITIALIZER;
 
-/* Frees scratch arrays and plans; caller holds planner_lock. */
+/* Frees the plans; caller holds planner_lock. */
 static void destroy_locked(pp_fft *f)
 {
     if (f->r2c)
         fftw_destroy_plan(f->r2c);
     if (f->c2r)
         fftw_destroy_plan(f->c2r);
-    fftw_free(f->scratch_r);
-    fftw_free(f->scratch_c);
     free(f);
 }
 
-/* Makes both plans on the scratch arrays; caller holds planner_lock. */
+/* Makes both plans on scratch arrays freed right after; caller holds planner_lock. */
 static pp_status plan_locked(pp_fft *f, unsigned flags)
 {
     int h = (int)f->height, w = (int)f->width;
-    f->scratch_r = fftw_alloc_real(f->height * f->width);
-    f->scratch_c = fftw_alloc_complex(f->height * f->half);
-    if (!f->scratch_r || !f->scratch_c)
+    double *r = fftw_alloc_real(f->height * f->width);
+    fftw_complex *c = fftw_alloc_complex(f->height * f->half);
+    if (r && c) {
+        f->r2c = fftw_plan_dft_r2c_2d(h, w, r, c, flags);
+        f->c2r = fftw_plan_dft_c2r_2d(h, w, c, r, flags);
+    }
+    fftw_free(r);
+    fftw_free(c);
+    if (!r || !c)
         return pp_fail(PP_ERR_NOMEM, "out of memory for FFT buffers of %zux%zu", f->width,
                        f->height);
-    f->r2c = fftw_plan_dft_r2c_2d(h, w, f->scratch_r, f->scratch_c, flags);
-    f->c2r = fftw_plan_dft_c2r_2d(h, w, f->scratch_c, f->scratch_r, flags);
     if (!f->r2c || !f->c2r)
         return pp_fail(PP_ERR_NOMEM, "FFTW could not plan a %zux%zu transform", f->width,
                        f->height);

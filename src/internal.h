@@ -80,10 +80,20 @@ double pp_norm_quantile(double p);
 #define PP_MAX_PROBES 9
 #define PP_MAX_WARNINGS 64
 
+/* The working buffers of one running chain, one set per thread: a chain
+ * runs start to finish on one thread, so 4 chains on 1 thread need one set,
+ * not four (see pp_chain). */
+typedef struct pp_slot {
+    pp_complex *cbuf, *cbuf2, *yhat; /* yhat: pad only */
+    double *rbuf, *yaug;             /* yaug: pad only */
+} pp_slot;
+
 /* One chain's state and scratch; owned by the sampler. */
 typedef struct pp_chain {
     pp_rng rng;
     double lambda, delta;
+    /* Working buffers, lent by the thread's pp_slot while the chain runs
+     * (NULL otherwise; state that outlives the run is below): */
     pp_complex *cbuf;  /* half spectrum: noise, then the conditional mean */
     pp_complex *cbuf2; /* half spectrum: x-hat (kept draws) or A x-hat (pad) */
     double *rbuf;      /* grid: c2r output */
@@ -153,6 +163,8 @@ struct pp_sampler {
     pp_complex *tw_row; /* nprobe x gh twiddles e^{+2 pi i k1 r / gh} */
     pp_complex *tw_col; /* nprobe x gwh twiddles e^{+2 pi i k2 c / gw}, weighted */
     pp_chain *chain;
+    pp_slot *slot;  /* nslots sets of working buffers, one per thread of the run */
+    unsigned nslots;
     pp_trace trace;
     struct pp_diag_scalar *diag;     /* one per trace column (sampler_diag.c) */
     pp_image *rhat_map, *mcse_map;   /* per-pixel split-R-hat and MCSE, or NULL */

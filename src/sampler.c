@@ -305,21 +305,33 @@ static pp_status plan_trace(pp_sampler *s)
     return PP_OK;
 }
 
+/* Threads of the run: --threads (all available if 0), at most one per chain. */
+static unsigned run_threads(const pp_sampler *s)
+{
+    int nt = s->cfg.threads > 0 ? s->cfg.threads : omp_get_max_threads();
+    return nt < 1 ? 1 : (unsigned)nt < s->cfg.chains ? (unsigned)nt : s->cfg.chains;
+}
+
 static pp_status plan_chains(pp_sampler *s)
 {
     int pad = s->cfg.boundary == PP_BOUNDARY_PAD;
+    s->nslots = run_threads(s);
     s->chain = calloc(s->cfg.chains, sizeof *s->chain);
-    if (!s->chain)
+    s->slot = calloc(s->nslots, sizeof *s->slot);
+    if (!s->chain || !s->slot)
         return pp_fail(PP_ERR_NOMEM, "out of memory for %u chains", s->cfg.chains);
+    for (unsigned k = 0; k < s->nslots; k++) {
+        pp_slot *b = &s->slot[k];
+        b->cbuf = pp_fft_alloc_complex(s->gm);
+        b->cbuf2 = pp_fft_alloc_complex(s->gm);
+        b->rbuf = pp_fft_alloc_real(s->gn);
+        b->yhat = pad ? pp_fft_alloc_complex(s->gm) : NULL;
+        b->yaug = pad ? pp_fft_alloc_real(s->gn) : NULL;
+        if (!b->cbuf || !b->cbuf2 || !b->rbuf || (pad && (!b->yhat || !b->yaug)))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the buffers of thread %u", k + 1);
+    }
     for (unsigned k = 0; k < s->cfg.chains; k++) {
         pp_chain *c = &s->chain[k];
-        c->cbuf = pp_fft_alloc_complex(s->gm);
-        c->cbuf2 = pp_fft_alloc_complex(s->gm);
-        c->rbuf = pp_fft_alloc_real(s->gn);
-        c->yhat = pad ? pp_fft_alloc_complex(s->gm) : s->yhat;
-        c->yaug = pad ? pp_fft_alloc_real(s->gn) : NULL;
-        if (!c->cbuf || !c->cbuf2 || !c->rbuf || !c->yhat || (pad && !c->yaug))
-            return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
         pp_status st = pp_moments_init(&c->mom, s->height * s->width);
         if (st != PP_OK)
             return st;
@@ -376,14 +388,10 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
         if (s->kernel->prepare)
             st = s->kernel->prepare(s);
     }
-    if (st == PP_OK) {
-        st = pp_image_create(s->width, s->height, &s->mean);
-        if (st == PP_OK)
-            st = pp_image_create(s->width, s->height, &s->sd);
-        if (st == PP_OK)
-            st = pp_image_create(s->width, s->height, &s->lo);
-        if (st == PP_OK)
-            st = pp_image_create(s->width, s->height, &s->hi);
+    if (st == PP_OK && s->cfg.boundary != PP_BOUNDARY_PAD) {
+        /* Only padding redraws pixels of the embedded frame. */
+        pp_fft_free_buffer(s->ygrid);
+        s->ygrid = NULL;
     }
     if (st != PP_OK) {
         pp_sampler_free(s);
@@ -450,9 +458,15 @@ int pp_sampler_tick(pp_sampler *s)
 }
 
 /* Dispersed start: the rough scales times a log-normal factor (sd 1). */
-static void start_chain(pp_sampler *s, unsigned k)
+/* Chain k starts on the buffers of slot b. */
+static void start_chain(pp_sampler *s, unsigned k, const pp_slot *b)
 {
     pp_chain *c = &s->chain[k];
+    c->cbuf = b->cbuf;
+    c->cbuf2 = b->cbuf2;
+    c->rbuf = b->rbuf;
+    c->yaug = b->yaug;
+    c->yhat = b->yhat ? b->yhat : s->yhat;
     pp_rng_seed(&c->rng, s->cfg.seed, 1000 + (uint64_t)k);
     c->lambda = s->lambda0 * (s->cfg.noise.sigma_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
     c->delta = s->delta0 * (s->cfg.prior.delta_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
@@ -474,8 +488,45 @@ static void start_chain(pp_sampler *s, unsigned k)
     }
 }
 
+static void free_slots(pp_sampler *s)
+{
+    for (unsigned k = 0; s->slot && k < s->nslots; k++) {
+        pp_slot *b = &s->slot[k];
+        pp_fft_free_buffer(b->cbuf);
+        pp_fft_free_buffer(b->cbuf2);
+        pp_fft_free_buffer(b->rbuf);
+        pp_fft_free_buffer(b->yhat);
+        pp_fft_free_buffer(b->yaug);
+    }
+    free(s->slot);
+    s->slot = NULL;
+}
+
+/* After the chains: the grid-sized working memory goes before the estimates
+ * are allocated, so the peak is that of sampling, not of both together. */
+static void release_grid(pp_sampler *s)
+{
+    free_slots(s);
+    pp_fft_free_buffer(s->otf);
+    free(s->otf2);
+    free(s->q);
+    pp_fft_free_buffer(s->ygrid);
+    pp_fft_free_buffer(s->yhat);
+    s->otf = NULL;
+    s->otf2 = s->q = s->ygrid = NULL;
+    s->yhat = NULL;
+    for (unsigned k = 0; k < s->cfg.chains; k++)
+        s->chain[k].otf = NULL, s->chain[k].otf2 = NULL;
+}
+
 static pp_status pool_estimates(pp_sampler *s)
 {
+    pp_image **out[] = {&s->mean, &s->sd, &s->lo, &s->hi};
+    for (int i = 0; i < 4; i++) {
+        pp_status st = pp_image_create(s->width, s->height, out[i]);
+        if (st != PP_OK)
+            return st;
+    }
     /* The chains' moments pooled in chain order, straight into mean/sd. */
     size_t n = s->height * s->width, bad = 0;
     pp_moments pool = {n, 0, s->mean->data, s->sd->data}, *acc = &pool;
@@ -511,9 +562,7 @@ pp_status pp_sampler_run(pp_sampler *s)
         return pp_fail(PP_ERR_ARG, "pp_sampler_run: a sampler runs once; create a new one");
     s->ran = 1;
     unsigned nc = s->cfg.chains;
-    int nt = s->cfg.threads > 0 ? s->cfg.threads : omp_get_max_threads();
-    if (nt > (int)nc)
-        nt = (int)nc;
+    int nt = (int)s->nslots;
     pp_status *st = calloc(nc, sizeof *st);
     char(*msg)[1024] = calloc(nc, sizeof *msg);
     if (!st || !msg) {
@@ -524,10 +573,13 @@ pp_status pp_sampler_run(pp_sampler *s)
     double t0 = omp_get_wtime();
 #pragma omp parallel for num_threads(nt) schedule(dynamic, 1)
     for (unsigned k = 0; k < nc; k++) {
-        start_chain(s, k);
-        st[k] = s->kernel->run_chain(s, &s->chain[k]);
+        pp_chain *c = &s->chain[k];
+        start_chain(s, k, &s->slot[omp_get_thread_num()]);
+        st[k] = s->kernel->run_chain(s, c);
         if (st[k] != PP_OK)
             snprintf(msg[k], sizeof msg[k], "%s", pp_error_message());
+        c->cbuf = c->cbuf2 = c->yhat = NULL; /* the slot passes to the next chain */
+        c->rbuf = c->yaug = NULL;
     }
     s->seconds = omp_get_wtime() - t0;
     pp_status res = PP_OK;
@@ -536,6 +588,7 @@ pp_status pp_sampler_run(pp_sampler *s)
             res = pp_fail(st[k], "chain %u: %s", k + 1, msg[k]);
     free(st);
     free(msg);
+    release_grid(s);
     if (res == PP_OK)
         res = pool_estimates(s);
     if (res == PP_OK && s->kernel->finish)
@@ -569,17 +622,12 @@ void pp_sampler_free(pp_sampler *s)
         s->kernel->release(s);
     for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
         pp_chain *c = &s->chain[k];
-        pp_fft_free_buffer(c->cbuf);
-        pp_fft_free_buffer(c->cbuf2);
-        pp_fft_free_buffer(c->rbuf);
-        if (c->yhat != s->yhat)
-            pp_fft_free_buffer(c->yhat);
-        pp_fft_free_buffer(c->yaug);
         pp_width_free(c->wstate);
         pp_moments_free(&c->mom);
         free(c->mean1);
     }
     free(s->chain);
+    free_slots(s);
     free(s->diag);
     pp_image_free(s->rhat_map);
     pp_image_free(s->mcse_map);

@@ -776,8 +776,8 @@ static pp_status plan_start(pp_sampler *s, pcn_shared *sh)
     sh->mdisp = sh->free_dc ? (sh->logx ? 0.1 : 0.1 * sqrt(var)) : 0.0;
     /* delta guess: rank / (u' Q u) of the start field */
     for (size_t i = 0; i < s->gn; i++)
-        s->chain[0].rbuf[i] = sh->zstart[i] - sh->m0;
-    pp_fft_forward(s->fft, s->chain[0].rbuf, buf);
+        s->slot[0].rbuf[i] = sh->zstart[i] - sh->m0;
+    pp_fft_forward(s->fft, s->slot[0].rbuf, buf);
     double quad = half_form(s, sh, buf, 1.0, 0.0);
     sh->delta0 = quad > 0 ? s->rank / quad : 1.0;
     sh->a0 = creal(s->otf[0]);

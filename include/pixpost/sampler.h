@@ -1,9 +1,12 @@
 /* pixpost — posterior samplers.
  *
  * Plan once, run once: pp_sampler_create() validates the configuration,
- * allocates every buffer and makes the FFT plans; pp_sampler_run() runs all
- * chains (in parallel, OpenMP) and allocates nothing; the estimates are then
- * read from the handle and stay valid until pp_sampler_free().
+ * allocates every buffer the chains need and makes the FFT plans;
+ * pp_sampler_run() runs all chains (in parallel, OpenMP; one set of working
+ * buffers per thread, not per chain), frees the grid-sized working memory,
+ * then allocates the frame-sized estimates and diagnostic maps, so the peak
+ * memory is that of sampling or of the results, not of both. The estimates
+ * are then read from the handle and stay valid until pp_sampler_free().
  *
  * Estimates are streamed (nothing stores a chain of images): the posterior
  * mean (Rao-Blackwellised where the sampler has a conditional mean), the
@@ -91,7 +94,7 @@ void pp_sampler_free(pp_sampler *s);
 /* The configuration actually used (kind resolved from AUTO, etc.). */
 const pp_sampler_config *pp_sampler_config_used(const pp_sampler *s);
 
-/* Estimates, frame-sized; valid after a successful run. */
+/* Estimates, frame-sized; valid after a successful run (NULL before). */
 const pp_image *pp_sampler_mean(const pp_sampler *s);
 const pp_image *pp_sampler_sd(const pp_sampler *s);
 const pp_image *pp_sampler_lo(const pp_sampler *s);
