@@ -8,7 +8,8 @@
  *   sec_iter  wall seconds x parallel lanes / (iterations x chains), i.e.
  *             seconds per iteration of one chain (burn-in included)
  *   wall      pp_sampler_seconds (the chains only, burn-in included)
- *   rss_kb    peak resident set (getrusage ru_maxrss) of the process
+ *   rss_kb    peak resident set (getrusage ru_maxrss) of the process, with
+ *             glibc's mmap threshold fixed as the pixpost command fixes it
  *   ess_<col> ess_bulk of each trace column (pp_diag_compute, the rank-
  *             normalised split-chain ESS of include/pixpost/diag.h) over
  *             the kept draws of all chains, with mean_<col> its mean;
@@ -20,6 +21,9 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/resource.h>
+#if defined(__GLIBC__)
+#include <malloc.h>
+#endif
 #include "pixpost/diag.h"
 #include "pixpost/pixpost.h"
 
@@ -82,6 +86,9 @@ int main(int argc, char **argv)
 {
     if (argc < 4)
         return fprintf(stderr, "usage: bench_sampler KIND H W [key=value ...]\n"), 1;
+#if defined(__GLIBC__) && defined(M_MMAP_THRESHOLD)
+    mallopt(M_MMAP_THRESHOLD, 128 * 1024); /* as the pixpost command does (src/cli/main.c) */
+#endif
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
     if (pp_sampler_kind_parse(argv[1], &cfg.kind) != PP_OK ||

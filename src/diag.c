@@ -13,7 +13,7 @@
  * direct O(h^2) sum up to rounding (posterior pads to 2 nextn(h); any
  * L >= 2h - 1 gives the same numbers). Scratch: about 5 S doubles plus the
  * plan; all freed before returning. pp_diag_pixel_maps: O(nhalves * npix),
- * no allocation.
+ * nhalves doubles of scratch.
  */
 #include "pixpost/diag.h"
 #include "internal.h"
@@ -356,21 +356,17 @@ pp_status pp_diag_compute(const double *x, size_t chains, size_t n, pp_diag_scal
     return PP_OK;
 }
 
-/* One pixel of pp_diag_pixel_maps. */
-static void pixel_diag(const double *const *hm, size_t k, const double *const *m2, size_t nm2,
-                       double m, double within_add, size_t p, double *rhat, double *mcse,
-                       double *ess)
+void pp_diag_pixel(const double *hm, size_t k, double m2_sum, double m, double within_add,
+                   double *rhat, double *mcse, double *ess)
 {
-    double mean = 0, w = 0;
+    double mean = 0;
     for (size_t j = 0; j < k; j++)
-        mean += hm[j][p];
-    for (size_t j = 0; j < nm2; j++)
-        w += m2[j][p];
+        mean += hm[j];
     mean /= (double)k;
-    w /= (double)k * (m - 1);
+    double w = m2_sum / ((double)k * (m - 1));
     double b_over_m = 0; /* sample variance of the half-chain means */
     for (size_t j = 0; j < k; j++)
-        b_over_m += (hm[j][p] - mean) * (hm[j][p] - mean);
+        b_over_m += (hm[j] - mean) * (hm[j] - mean);
     b_over_m /= (double)(k - 1);
     double var_plus = (m - 1) / m * w + b_over_m;
     double draws = (double)k * m;
@@ -385,9 +381,9 @@ static void pixel_diag(const double *const *hm, size_t k, const double *const *m
         *ess = ok && var_plus > 0 ? var_plus / var_mean : NAN;
 }
 
-pp_status pp_diag_pixel_maps(const double *const *half_mean, size_t nhalves,
-                             const double *const *half_m2, size_t nm2, size_t m, size_t npix,
-                             double within_add, double *rhat, double *mcse, double *ess)
+pp_status pp_diag_pixel_maps(const double *const *half_mean, const double *const *half_m2,
+                             size_t nhalves, size_t m, size_t npix, double within_add,
+                             double *rhat, double *mcse, double *ess)
 {
     if (!half_mean || !half_m2)
         return pp_fail(PP_ERR_ARG, "pixel diagnostics: no half-chain moments given");
@@ -396,14 +392,21 @@ pp_status pp_diag_pixel_maps(const double *const *half_mean, size_t nhalves,
                        "pixel diagnostics need at least 2 half-chains of at least 2 draws "
                        "(got %zu of %zu); run more iterations",
                        nhalves, m);
-    if (nm2 < 1 || nm2 > nhalves)
-        return pp_fail(PP_ERR_ARG, "pixel diagnostics: %zu M2 arrays for %zu half-chains", nm2,
-                       nhalves);
     for (size_t j = 0; j < nhalves; j++)
-        if (!half_mean[j] || (j < nm2 && !half_m2[j]))
+        if (!half_mean[j] || !half_m2[j])
             return pp_fail(PP_ERR_ARG, "pixel diagnostics: half-chain %zu has no moments", j);
-    for (size_t p = 0; p < npix; p++)
-        pixel_diag(half_mean, nhalves, half_m2, nm2, (double)m, within_add, p,
-                   rhat ? rhat + p : NULL, mcse ? mcse + p : NULL, ess ? ess + p : NULL);
+    double *hm = malloc(nhalves * sizeof *hm);
+    if (!hm)
+        return pp_fail(PP_ERR_NOMEM, "pixel diagnostics: out of memory");
+    for (size_t p = 0; p < npix; p++) {
+        double w = 0;
+        for (size_t j = 0; j < nhalves; j++) {
+            hm[j] = half_mean[j][p];
+            w += half_m2[j][p];
+        }
+        pp_diag_pixel(hm, nhalves, w, (double)m, within_add, rhat ? rhat + p : NULL,
+                      mcse ? mcse + p : NULL, ess ? ess + p : NULL);
+    }
+    free(hm);
     return PP_OK;
 }

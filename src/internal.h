@@ -74,6 +74,12 @@ void pp_moments_merge(pp_moments *acc, const pp_moments *other);
 /* Standard normal quantile by Newton steps on erfc (|error| < 1e-14). */
 double pp_norm_quantile(double p);
 
+/* One pixel of pp_diag_pixel_maps (src/diag.c): hm the k half-chain means
+ * of the pixel, m2_sum the sum of their M2, m draws per half-chain; outputs
+ * as there (each may be NULL). */
+void pp_diag_pixel(const double *hm, size_t k, double m2_sum, double m, double within_add,
+                   double *rhat, double *mcse, double *ess);
+
 /* ---- Sampler internals (src/sampler.c, src/sampler_*.c) ---------------- */
 #include "pixpost/sampler.h"
 
@@ -101,8 +107,9 @@ typedef struct pp_chain {
     pp_complex *yhat;  /* this chain's data spectrum (pad) or the shared one */
     pp_moments mom;    /* frame-sized moments of the recorded field over all kept
                         * draws; add to them with pp_chain_add_draw only */
-    double *mean1;     /* frame-sized: mom.mean frozen after the first half of the
-                        * kept draws (split-R-hat maps, pp_chain_split) */
+    float *mean1;      /* frame-sized: mom.mean frozen after the first half of the
+                        * kept draws, for the split-R-hat maps only (sampler_diag.c
+                        * says why single precision is enough) */
     double condvar_sum; /* sum over kept draws of the conditional variance */
     double *trace;     /* kept x ncols rows inside the sampler's trace */
     size_t kept;
@@ -191,10 +198,6 @@ enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3
  * moments of chain c, freezing their mean in c->mean1 after the first half
  * (floor(kept / 2) draws). Call once per kept draw. */
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
-/* After pooling: turns chain c's moments into those of its two halves, in
- * place: c->mean1 and c->mom.mean become the halves' means, c->mom.m2 the
- * sum of their M2 (Chan et al.'s merge, solved for the second half). */
-void pp_chain_split(const pp_sampler *s, pp_chain *c);
 
 /* report.html of a finished run (src/output_report.c). */
 struct pp_run_info;

@@ -1,12 +1,24 @@
 /* pixpost — the sampler handle: validation, planning, chains in parallel,
  * pooled estimates. The per-iteration kernels live in sampler_<kind>.c.
  *
- * Planning (pp_sampler_create) does all allocation, the FFT plans, the
- * transfer function, the prior eigenvalues, the data spectrum and rough
- * scale estimates for dispersed chain starts. pp_sampler_run allocates
- * nothing. Chains run in parallel over OpenMP threads, each on its own
- * Philox stream and buffers; results are pooled in chain order, so they do
- * not depend on the number of threads.
+ * Planning (pp_sampler_create) does the allocation the chains need, the FFT
+ * plans, the transfer function, the prior eigenvalues, the data spectrum and
+ * rough scale estimates for dispersed chain starts. Chains run in parallel
+ * over OpenMP threads, each on its own Philox stream; a chain runs start to
+ * finish on one thread, on that thread's working buffers (pp_slot). Results
+ * are pooled in chain order, so they do not depend on the number of threads.
+ * pp_sampler_run then frees the grid-sized buffers before it allocates the
+ * estimates and maps, and the chains' frame moments once those are made.
+ *
+ * Memory (periodic gibbs, T threads, C chains, per frame pixel; the grid is
+ * the frame): per chain 20 bytes (mean and M2 of the recorded field, its
+ * first half's mean in single precision); per thread 24 (2 half spectra,
+ * 1 grid); shared 24 (transfer function, |A|^2, prior eigenvalues, data
+ * spectrum). 4 chains on 1 thread: 80 + 24 + 24 = 128 at the peak, 136 with
+ * the caller's frame (measured 136-152: bench/NOTES.md, glibc's heap). The
+ * results (mean, sd, lo, hi, rhat, mcse: 48) come after the grid buffers
+ * are gone. Pad: the grid terms scale with the padded grid and each thread
+ * adds a grid and a half spectrum.
  */
 #include <math.h>
 #include <omp.h>
@@ -335,7 +347,7 @@ static pp_status plan_chains(pp_sampler *s)
         pp_status st = pp_moments_init(&c->mom, s->height * s->width);
         if (st != PP_OK)
             return st;
-        if (!(c->mean1 = malloc(s->height * s->width * sizeof(double))))
+        if (!(c->mean1 = malloc(s->height * s->width * sizeof(float))))
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
         c->trace = s->trace_values + (size_t)k * s->trace.kept * s->trace.ncols;
         c->otf = s->otf;
@@ -388,16 +400,21 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
         if (s->kernel->prepare)
             st = s->kernel->prepare(s);
     }
-    if (st == PP_OK && s->cfg.boundary != PP_BOUNDARY_PAD) {
-        /* Only padding redraws pixels of the embedded frame. */
-        pp_fft_free_buffer(s->ygrid);
-        s->ygrid = NULL;
-    }
     if (st != PP_OK) {
         pp_sampler_free(s);
         return st;
     }
     rough_scales(s, frame);
+    /* The chains read the data in one form only: the spectrum (periodic),
+     * or the embedded frame from which each padded chain starts its own
+     * augmented copy and spectrum (start_chain). */
+    if (s->cfg.boundary == PP_BOUNDARY_PAD) {
+        pp_fft_free_buffer(s->yhat);
+        s->yhat = NULL;
+    } else {
+        pp_fft_free_buffer(s->ygrid);
+        s->ygrid = NULL;
+    }
     *out = s;
     return PP_OK;
 }
@@ -408,22 +425,8 @@ void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
 {
     pp_moments_add_block(&c->mom, grid, s->height, s->width, s->gw);
     if (c->mom.count == s->trace.kept / 2)
-        memcpy(c->mean1, c->mom.mean, c->mom.len * sizeof(double));
-}
-
-void pp_chain_split(const pp_sampler *s, pp_chain *c)
-{
-    double n1 = (double)(s->trace.kept / 2), n2 = (double)c->mom.count - n1;
-    double n = n1 + n2;
-    if (!(n1 > 0 && n2 > 0))
-        return;
-    for (size_t i = 0; i < c->mom.len; i++) {
-        double m = c->mom.mean[i], a = c->mean1[i];
-        double b = (n * m - n1 * a) / n2, da = a - m, db = b - m;
-        double w = c->mom.m2[i] - n1 * da * da - n2 * db * db;
-        c->mom.mean[i] = b;
-        c->mom.m2[i] = w > 0 ? w : 0.0;
-    }
+        for (size_t i = 0; i < c->mom.len; i++)
+            c->mean1[i] = (float)c->mom.mean[i];
 }
 
 void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
@@ -477,7 +480,7 @@ static void start_chain(pp_sampler *s, unsigned k, const pp_slot *b)
     memset(c->mom.m2, 0, c->mom.len * sizeof(double));
     if (c->yaug) {
         memcpy(c->yaug, s->ygrid, s->gn * sizeof(double));
-        memcpy(c->yhat, s->yhat, s->gm * sizeof(pp_complex));
+        pp_fft_forward(s->fft, c->yaug, c->yhat); /* as plan_data made s->yhat */
     }
     if (c->wstate) {
         /* Sampled PSF width: chains start spread evenly over the middle
@@ -595,6 +598,12 @@ pp_status pp_sampler_run(pp_sampler *s)
         res = s->kernel->finish(s);
     if (res == PP_OK)
         res = pp_sampler_diagnose(s);
+    /* The chains' frame moments have served the estimates and the maps. */
+    for (unsigned k = 0; k < s->cfg.chains; k++) {
+        pp_moments_free(&s->chain[k].mom);
+        free(s->chain[k].mean1);
+        s->chain[k].mean1 = NULL;
+    }
     return res;
 }
 

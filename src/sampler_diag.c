@@ -102,30 +102,29 @@ static void warn_scalars(pp_sampler *s)
     warn_probes(s);
 }
 
+/* Pixel maps from each chain's moments over all its kept draws (mean c,
+ * M2) and its first half's mean a (pp_chain_add_draw): the second half's
+ * mean is b = (n c - n1 a) / n2, and the two halves' M2 sum to
+ * M2 - n1 (a - c)^2 - n2 (b - c)^2 (Chan, Golub & LeVeque's merge solved for
+ * the part; only that sum enters W). a is kept in single precision (4
+ * bytes per pixel per chain saved): its rounding, at most 6e-8 |a|, moves
+ * both half means by about that much, which changes their spread (B, and
+ * with it the MCSE map) by a relative 6e-8 |mean| / spread. Measured
+ * against double precision on a 96 x 80 frame, 3 chains x 200 draws: MCSE
+ * map at most 0.7 % off (median 1e-5, 99th percentile 6e-4), R-hat map
+ * 1.2e-7 (the float output's rounding). The MCSE map's own sampling error,
+ * from 2 x chains batch means, is tens of per cent. */
 static pp_status pixel_maps(pp_sampler *s)
 {
-    size_t m = s->trace.kept / 2, nc = s->cfg.chains, nh = 2 * nc;
+    size_t m = s->trace.kept / 2, nc = s->cfg.chains, npix = s->height * s->width;
     if (m < 2)
         return PP_OK; /* too few draws per half: no maps */
-    const double **mean = malloc(nh * sizeof *mean), **m2 = malloc(nc * sizeof *m2);
-    pp_status st = PP_OK;
-    if (!mean || !m2)
-        st = pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
+    double *hm = malloc(2 * nc * sizeof *hm);
+    pp_status st = hm ? PP_OK : pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
     if (st == PP_OK)
         st = pp_image_create(s->width, s->height, &s->rhat_map);
     if (st == PP_OK)
         st = pp_image_create(s->width, s->height, &s->mcse_map);
-    /* Each chain's moments become its halves' (pp_chain_split): the two
-     * means and the sum of the two M2. */
-    for (size_t k = 0; st == PP_OK && k < nc; k++) {
-        pp_chain_split(s, &s->chain[k]);
-        mean[2 * k] = s->chain[k].mean1;
-        mean[2 * k + 1] = s->chain[k].mom.mean;
-        m2[k] = s->chain[k].mom.m2;
-    }
-    /* With an odd number of kept draws the second halves hold one draw
-     * more; the maps use the first halves' length m (a negligible
-     * difference for the hundreds of draws a run keeps). */
     /* The recorded field may be a conditional mean (gibbs, mtc): then the
      * draws' within-chain variance adds the mean conditional variance. */
     double condvar = 0, kept = 0;
@@ -133,11 +132,24 @@ static pp_status pixel_maps(pp_sampler *s)
         condvar += s->chain[k].condvar_sum;
         kept += (double)s->chain[k].kept;
     }
-    if (st == PP_OK)
-        st = pp_diag_pixel_maps(mean, nh, m2, nc, m, s->height * s->width, condvar / kept,
-                                s->rhat_map->data, s->mcse_map->data, NULL);
-    free(mean);
-    free(m2);
+    /* With an odd number of kept draws the second halves hold one draw
+     * more; W uses the first halves' length m (a negligible difference for
+     * the hundreds of draws a run keeps). */
+    double n1 = (double)m, n2 = (double)s->trace.kept - n1, n = n1 + n2;
+    for (size_t p = 0; st == PP_OK && p < npix; p++) {
+        double w = 0;
+        for (size_t k = 0; k < nc; k++) {
+            const pp_chain *c = &s->chain[k];
+            double mc = c->mom.mean[p], a = c->mean1[p], b = (n * mc - n1 * a) / n2;
+            double part = c->mom.m2[p] - n1 * (a - mc) * (a - mc) - n2 * (b - mc) * (b - mc);
+            hm[2 * k] = a;
+            hm[2 * k + 1] = b;
+            w += part > 0 ? part : 0.0;
+        }
+        pp_diag_pixel(hm, 2 * nc, w, n1, condvar / kept, &s->rhat_map->data[p],
+                      &s->mcse_map->data[p], NULL);
+    }
+    free(hm);
     return st;
 }
 

@@ -46,8 +46,9 @@
  * -lambda/2 ||A_w x - y||^2 (one half-spectrum pass using x-hat); each
  * proposal costs a kernel rebuild and one r2c. Pad then always keeps x-hat
  * and forms A x-hat with the accepted width.
- * Memory per chain: 2 half spectra (16N bytes), one real grid (8N), frame
- * moments (16 bytes/pixel); pad adds a real grid and a half spectrum (16N).
+ * Memory: per thread 2 half spectra (16N bytes) and one real grid (8N), pad
+ * adding a real grid and a half spectrum (16N); per chain the frame moments
+ * (20 bytes/pixel). See src/sampler.c.
  */
 #include <math.h>
 #include "internal.h"

@@ -59,7 +59,7 @@ static int pixel(const double *x, size_t k, size_t m, const char *path)
         }
     }
     double rhat, mcse, ess;
-    if (!rc && pp_diag_pixel_maps(pm, k, p2, k, m, 1, 0.0, &rhat, &mcse, &ess) != PP_OK)
+    if (!rc && pp_diag_pixel_maps(pm, p2, k, m, 1, 0.0, &rhat, &mcse, &ess) != PP_OK)
         rc = fail(pp_error_message(), path);
     if (!rc)
         printf("rhat %.17g\nmcse %.17g\ness %.17g\n", rhat, mcse, ess);

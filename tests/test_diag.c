@@ -231,30 +231,12 @@ static void test_pixel_maps(double *x)
         pm[j] = hm[j];
         p2[j] = h2[j];
     }
-    CHECK(pp_diag_pixel_maps(pm, NH, p2, NH, M, NPIX, 0.0, rhat, mcse, ess) == PP_OK, "pixel maps");
+    CHECK(pp_diag_pixel_maps(pm, p2, NH, M, NPIX, 0.0, rhat, mcse, ess) == PP_OK, "pixel maps");
     int all_close = 1;
     for (size_t p = 0; p < NPIX; p++)
         all_close &= rel_close(rhat[p], direct_rhat(x, p), 1e-12);
     CHECK(all_close, "pixel-map rhat equals the direct computation from the draws");
     CHECK(rhat[1] > 1.1, "shifted pixel: rhat %.3f >> 1.01", rhat[1]);
-    /* Only the sum of the M2 enters: summed per chain (pairs of halves, as
-     * the sampler stores them), the maps are the same up to rounding. */
-    static double c2[NH / 2][NPIX], rg[NPIX], mg[NPIX];
-    const double *pc[NH / 2];
-    for (size_t k = 0; k < NH / 2; k++) {
-        for (size_t p = 0; p < NPIX; p++)
-            c2[k][p] = h2[2 * k][p] + h2[2 * k + 1][p];
-        pc[k] = c2[k];
-    }
-    CHECK(pp_diag_pixel_maps(pm, NH, pc, NH / 2, M, NPIX, 0.0, rg, mg, NULL) == PP_OK,
-          "M2 per chain");
-    int same = 1;
-    for (size_t p = 0; p < NPIX; p++)
-        same &= rel_close(rg[p], rhat[p], 1e-14) && rel_close(mg[p], mcse[p], 1e-14);
-    CHECK(same, "M2 summed per chain: same rhat and mcse");
-    CHECK(pp_diag_pixel_maps(pm, NH, pc, NH + 1, M, NPIX, 0.0, rg, mg, NULL) == PP_ERR_ARG &&
-              pp_diag_pixel_maps(pm, NH, pc, 0, M, NPIX, 0.0, rg, mg, NULL) == PP_ERR_ARG,
-          "nm2 outside 1..nhalves refused");
     /* MCSE^2 against the AR(1) truth tau / N (sd 1), averaged over the pixels
      * (not pixel 1): per pixel var(half means) has 7 degrees of freedom
      * (relative sd 0.53), over 199 pixels 0.038; tolerance 0.15 ~ 4 sd. */
@@ -272,20 +254,20 @@ static void test_pixel_maps(double *x)
     h2[0][0] = h2[1][0] = 0;
     h2[1][2] = INFINITY;
     double r2[3], m2v[3], e2[3];
-    CHECK(pp_diag_pixel_maps(pm, 2, p2, 2, M, 3, 0.0, r2, m2v, e2) == PP_OK, "two halves");
+    CHECK(pp_diag_pixel_maps(pm, p2, 2, M, 3, 0.0, r2, m2v, e2) == PP_OK, "two halves");
     CHECK(isnan(r2[0]) && m2v[0] == 0 && isnan(e2[0]), "constant pixel: rhat NaN, mcse 0, ess NaN");
     CHECK(isnan(r2[2]) && isnan(m2v[2]) && isnan(e2[2]), "Inf moment: NaN");
-    CHECK(pp_diag_pixel_maps(pm, 2, p2, 2, M, 3, 0.0, NULL, m2v, NULL) == PP_OK, "NULL outputs allowed");
+    CHECK(pp_diag_pixel_maps(pm, p2, 2, M, 3, 0.0, NULL, m2v, NULL) == PP_OK, "NULL outputs allowed");
     /* within_add raises W for rhat only: rhat moves towards 1, mcse stays. */
     double r3[3], m3[3];
-    CHECK(pp_diag_pixel_maps(pm, 2, p2, 2, M, 3, 5.0, r3, m3, NULL) == PP_OK, "within_add");
+    CHECK(pp_diag_pixel_maps(pm, p2, 2, M, 3, 5.0, r3, m3, NULL) == PP_OK, "within_add");
     CHECK(r3[1] < r2[1] && m3[1] == m2v[1],
           "within_add: rhat %g < %g, mcse unchanged", r3[1], r2[1]);
-    CHECK(pp_diag_pixel_maps(pm, 1, p2, 1, M, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG &&
+    CHECK(pp_diag_pixel_maps(pm, p2, 1, M, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG &&
               strstr(pp_error_message(), "half-chains"),
           "one half-chain refused: %s", pp_error_message());
-    CHECK(pp_diag_pixel_maps(pm, 2, p2, 2, 1, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG, "m = 1 refused");
-    CHECK(pp_diag_pixel_maps(NULL, 2, p2, 2, M, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG, "NULL refused");
+    CHECK(pp_diag_pixel_maps(pm, p2, 2, 1, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG, "m = 1 refused");
+    CHECK(pp_diag_pixel_maps(NULL, p2, 2, M, 3, 0.0, r2, m2v, e2) == PP_ERR_ARG, "NULL refused");
 }
 
 int main(void)

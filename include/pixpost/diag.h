@@ -37,7 +37,7 @@
  * Cost of pp_diag_compute: O(S log S) time (one sort per rank normalisation,
  * one FFT pair per half-chain and per ESS), about 5 S doubles of scratch
  * plus one FFT plan of length ~2h; it allocates and frees everything it
- * uses. pp_diag_pixel_maps is O(nhalves * npix) and allocates nothing.
+ * uses. pp_diag_pixel_maps is O(nhalves * npix) with nhalves doubles of scratch.
  * Both are re-entrant (may be called from several threads at once).
  */
 #ifndef PIXPOST_DIAG_H
@@ -85,14 +85,11 @@ pp_status pp_diag_compute(const double *x, size_t chains, size_t n, pp_diag_scal
 
 /* Per-pixel maps from streaming half-chain moments.
  *
- * half_mean[j][p] (j < nhalves, p < npix) is the mean of pixel p over
- * half-chain j; every half-chain holds m draws. Typically nhalves =
- * 2 * chains. Only the sum over half-chains of the sums of squared deviations
- * (Welford's M2) enters, so half_m2 may hold them per half-chain (nm2 =
- * nhalves) or already summed in groups, e.g. per chain (nm2 = chains): the
- * sum over j < nm2 of half_m2[j][p] is that total. Computes,
+ * half_mean[j][p] and half_m2[j][p] (j < nhalves, p < npix) are the mean and
+ * the sum of squared deviations (Welford's M2) of pixel p over half-chain j;
+ * every half-chain holds m draws. Typically nhalves = 2 * chains. Computes,
  * per pixel (BDA3, Gelman et al. 2013, section 11.4, with half-chains):
- *   W      = sum_j M2_j / (nhalves (m - 1))        within variance
+ *   W      = mean_j M2_j / (m - 1)                 within variance
  *   B/m    = sample variance (denominator nhalves-1) of the half-chain means
  *   var+   = (m - 1)/m W + B/m
  *   rhat   = sqrt(var+ / W)
@@ -116,11 +113,11 @@ pp_status pp_diag_compute(const double *x, size_t chains, size_t n, pp_diag_scal
  * computed). They must not alias the inputs. Undefined values: rhat is NaN
  * when W is 0 (a constant pixel) or any input is not finite; ess is NaN when
  * var+ is 0; mcse is 0 for a constant pixel (the draws agree exactly) and
- * NaN for non-finite input. Errors: PP_ERR_ARG for NULL inputs, nhalves < 2,
- * nm2 = 0, nm2 > nhalves or m < 2 (nothing is written).
+ * NaN for non-finite input. Errors: PP_ERR_ARG for NULL inputs, nhalves < 2
+ * or m < 2, PP_ERR_NOMEM (nothing is written).
  */
-pp_status pp_diag_pixel_maps(const double *const *half_mean, size_t nhalves,
-                             const double *const *half_m2, size_t nm2, size_t m, size_t npix,
-                             double within_add, double *rhat, double *mcse, double *ess);
+pp_status pp_diag_pixel_maps(const double *const *half_mean, const double *const *half_m2,
+                             size_t nhalves, size_t m, size_t npix, double within_add,
+                             double *rhat, double *mcse, double *ess);
 
 #endif
