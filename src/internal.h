@@ -92,6 +92,7 @@ void pp_diag_pixel(const double *hm, size_t k, double m2_sum, double m, double w
 typedef struct pp_slot {
     pp_complex *cbuf, *cbuf2, *yhat; /* yhat: pad only */
     double *rbuf, *yaug;             /* yaug: pad only */
+    void *kwork;                     /* the kernel's working state (kernel->prepare) */
 } pp_slot;
 
 /* One chain's state and scratch; owned by the sampler. */
@@ -114,6 +115,7 @@ typedef struct pp_chain {
     double *trace;     /* kept x ncols rows inside the sampler's trace */
     size_t kept;
     void *kstate;      /* the kernel's own per-chain state (kernel->prepare) */
+    void *kwork;       /* its working state, lent by the slot while the chain runs */
     const pp_complex *otf; /* transfer function this chain uses now (s->otf, or
                             * its width state's when the PSF width is sampled) */
     const double *otf2;    /* |otf|^2 */
@@ -130,8 +132,11 @@ struct pp_sampler;
  * in sampler.c's kernel table. sampler.c plans the grid, transfer function,
  * prior eigenvalues, data spectrum, probes, traces and the chains' common
  * buffers; the kernel adds what it needs and runs one chain at a time.
- *   prepare   optional; after planning: allocate kernel state (s->kshared,
- *             each c->kstate). Runs once, single-threaded.
+ *   prepare   optional; after planning: allocate kernel state (s->kshared;
+ *             each c->kstate for what outlives a chain's run, each
+ *             s->slot[b].kwork for what a run only works with, which the
+ *             chain then finds in c->kwork and must initialise). Runs once,
+ *             single-threaded.
  *   run_chain runs burn + iters iterations of chain c (called in parallel
  *             for different chains; must touch only c and read s).
  *             It records per kept draw the field it estimates with
@@ -140,14 +145,17 @@ struct pp_sampler;
  *             trace rows and c->kept.
  *   finish    optional; after pooling the moments into mean/sd and the
  *             default Gaussian bounds: override lo/hi and bound_method.
- *   release   optional; frees what prepare allocated (also after a failed
- *             prepare; pointers may be NULL). */
+ *   release   optional; frees what prepare allocated but the slots' kwork
+ *             (also after a failed prepare; pointers may be NULL).
+ *   free_work optional; frees one slot's kwork (may be NULL): once the
+ *             chains are done, or when a failed plan is undone. */
 typedef struct pp_kernel {
     const char *name;
     pp_status (*prepare)(struct pp_sampler *s);
     pp_status (*run_chain)(struct pp_sampler *s, pp_chain *c);
     pp_status (*finish)(struct pp_sampler *s);
     void (*release)(struct pp_sampler *s);
+    void (*free_work)(void *kwork);
 } pp_kernel;
 
 struct pp_sampler {

@@ -470,6 +470,7 @@ static void start_chain(pp_sampler *s, unsigned k, const pp_slot *b)
     c->rbuf = b->rbuf;
     c->yaug = b->yaug;
     c->yhat = b->yhat ? b->yhat : s->yhat;
+    c->kwork = b->kwork;
     pp_rng_seed(&c->rng, s->cfg.seed, 1000 + (uint64_t)k);
     c->lambda = s->lambda0 * (s->cfg.noise.sigma_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
     c->delta = s->delta0 * (s->cfg.prior.delta_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
@@ -500,6 +501,8 @@ static void free_slots(pp_sampler *s)
         pp_fft_free_buffer(b->rbuf);
         pp_fft_free_buffer(b->yhat);
         pp_fft_free_buffer(b->yaug);
+        if (s->kernel && s->kernel->free_work)
+            s->kernel->free_work(b->kwork);
     }
     free(s->slot);
     s->slot = NULL;
@@ -583,6 +586,7 @@ pp_status pp_sampler_run(pp_sampler *s)
             snprintf(msg[k], sizeof msg[k], "%s", pp_error_message());
         c->cbuf = c->cbuf2 = c->yhat = NULL; /* the slot passes to the next chain */
         c->rbuf = c->yaug = NULL;
+        c->kwork = NULL;
     }
     s->seconds = omp_get_wtime() - t0;
     pp_status res = PP_OK;

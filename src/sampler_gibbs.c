@@ -524,4 +524,4 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
     return PP_OK;
 }
 
-const pp_kernel pp_kernel_gibbs = {"gibbs", NULL, gibbs_run_chain, NULL, NULL};
+const pp_kernel pp_kernel_gibbs = {"gibbs", NULL, gibbs_run_chain, NULL, NULL, NULL};

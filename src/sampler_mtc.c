@@ -556,4 +556,4 @@ static pp_status mtc_run_chain(pp_sampler *s, pp_chain *c)
     return st;
 }
 
-const pp_kernel pp_kernel_mtc = {"mtc", mtc_prepare, mtc_run_chain, NULL, mtc_release};
+const pp_kernel pp_kernel_mtc = {"mtc", mtc_prepare, mtc_run_chain, NULL, mtc_release, NULL};

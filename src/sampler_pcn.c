@@ -60,7 +60,9 @@
  * g = sd_t / (phi(z_p) t) (phi(z_p) the normal density at the quantile: the
  * optimal gain for a Gaussian marginal), started from the Gaussian guess
  * after 10 kept draws; averaged over chains and mapped through exp (log
- * mode). Memory: 2 quantiles + 2 moments of z = 32 bytes per pixel per chain.
+ * mode). Memory: 2 quantiles = 16 bytes per pixel per chain, and 2 moments
+ * of z (16) per thread with the rest of a running chain's state: 3 half
+ * spectra and 6 grids (hmc: 6 half spectra), 72-96 bytes per grid pixel.
  *
  * Transforms per iteration (r2c/c2r on the grid):
  *   log:  field move 3 (c2r u' -> z', r2c exp(z'), c2r A x'); hmc 6 per
@@ -113,17 +115,24 @@ typedef struct pcn_shared {
 } pcn_shared;
 
 /* One chain's state. */
+/* A running chain's state and buffers: one per thread (the slot's kwork),
+ * set up afresh by start() for each chain the thread runs. */
 typedef struct pcn_chain {
     pp_complex *u, *up, *ctr; /* current and proposed u, gpcn centre a */
     pp_complex *g, *gp, *v;   /* hmc: gradients of Phi at u and up, velocity */
     int gvalid;               /* hmc: g belongs to the current state */
     double *z, *zp, *x, *xp, *ax, *axp;
-    double *qlo, *qhi;
+    double *qlo, *qhi;        /* the running chain's pcn_bounds */
     pp_moments zm;
     double m, beta, dstep, mstep, phi, ss;
     double dref; /* delta of the partially non-centred move's weights */
     unsigned long acc;
 } pcn_chain;
+
+/* What outlives a chain's run (its c->kstate): the quantile estimates. */
+typedef struct pcn_bounds {
+    double *qlo, *qhi;
+} pcn_bounds;
 
 /* ---- likelihood ------------------------------------------------------- */
 
@@ -610,6 +619,9 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
 
 static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
 {
+    const pcn_bounds *q = c->kstate;
+    k->qlo = q->qlo;
+    k->qhi = q->qhi;
     k->m = sh->m0;
     if (sh->free_dc)
         k->m += sh->mdisp * pp_rng_normal(&c->rng);
@@ -640,7 +652,7 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
 {
     const pp_sampler_config *cfg = &s->cfg;
     const pcn_shared *sh = s->kshared;
-    pcn_chain *k = c->kstate;
+    pcn_chain *k = c->kwork;
     const int fix_d = cfg->prior.delta_set, fix_l = !sh->gauss || cfg->noise.sigma_set;
     const double nobs = (double)s->height * (double)s->width;
     start(s, sh, c, k);
@@ -785,12 +797,37 @@ static pp_status plan_start(pp_sampler *s, pcn_shared *sh)
     return PP_OK;
 }
 
-static pp_status plan_chain_state(pp_sampler *s, const pcn_shared *sh, pp_chain *c)
+static void pcn_free_work(void *work)
+{
+    pcn_chain *k = work;
+    if (!k)
+        return;
+    void *bufs[] = {k->u, k->up, k->ctr, k->g, k->gp, k->v,
+                    k->z, k->zp, k->x, k->xp, k->ax, k->axp};
+    for (int j = 0; j < 12; j++)
+        pp_fft_free_buffer(bufs[j]);
+    pp_moments_free(&k->zm);
+    free(k);
+}
+
+static pp_status plan_chain_bounds(pp_sampler *s, pp_chain *c)
+{
+    pcn_bounds *q = calloc(1, sizeof *q);
+    if (!q)
+        return fail_nomem();
+    c->kstate = q;
+    size_t n = s->height * s->width;
+    q->qlo = malloc(n * sizeof(double));
+    q->qhi = malloc(n * sizeof(double));
+    return q->qlo && q->qhi ? PP_OK : fail_nomem();
+}
+
+static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
 {
     pcn_chain *k = calloc(1, sizeof *k);
     if (!k)
         return fail_nomem();
-    c->kstate = k;
+    b->kwork = k;
     k->u = pp_fft_alloc_complex(s->gm);
     k->up = pp_fft_alloc_complex(s->gm);
     k->ctr = pp_fft_alloc_complex(s->gm);
@@ -804,13 +841,9 @@ static pp_status plan_chain_state(pp_sampler *s, const pcn_shared *sh, pp_chain 
     double **g[] = {&k->z, &k->zp, &k->x, &k->xp, &k->ax, &k->axp};
     for (int i = 0; i < 6; i++)
         *g[i] = pp_fft_alloc_real(s->gn);
-    size_t n = s->height * s->width;
-    k->qlo = malloc(n * sizeof(double));
-    k->qhi = malloc(n * sizeof(double));
-    if (!k->u || !k->up || !k->ctr || !k->z || !k->zp || !k->x || !k->xp || !k->ax || !k->axp ||
-        !k->qlo || !k->qhi)
+    if (!k->u || !k->up || !k->ctr || !k->z || !k->zp || !k->x || !k->xp || !k->ax || !k->axp)
         return fail_nomem();
-    return pp_moments_init(&k->zm, n);
+    return pp_moments_init(&k->zm, s->height * s->width);
 }
 
 static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
@@ -845,7 +878,9 @@ static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
     if (st == PP_OK)
         st = plan_start(s, sh);
     for (unsigned i = 0; st == PP_OK && i < cfg->chains; i++)
-        st = plan_chain_state(s, sh, &s->chain[i]);
+        st = plan_chain_bounds(s, &s->chain[i]);
+    for (unsigned b = 0; st == PP_OK && b < s->nslots; b++)
+        st = plan_work(s, sh, &s->slot[b]);
     return st;
 }
 
@@ -873,9 +908,9 @@ static pp_status pcn_finish(pp_sampler *s)
     for (size_t i = 0; i < n; i++) {
         double lo = 0, hi = 0;
         for (unsigned j = 0; j < s->cfg.chains; j++) {
-            const pcn_chain *k = s->chain[j].kstate;
-            lo += k->qlo[i] / kc;
-            hi += k->qhi[i] / kc;
+            const pcn_bounds *q = s->chain[j].kstate;
+            lo += q->qlo[i] / kc;
+            hi += q->qhi[i] / kc;
         }
         s->lo->data[i] = sh->logx ? exp(lo) : lo;
         s->hi->data[i] = sh->logx ? exp(hi) : hi;
@@ -889,7 +924,7 @@ static pp_status pcn_finish(pp_sampler *s)
     snprintf(s->bound_method, sizeof s->bound_method,
              "streaming quantiles: per pixel and chain, Robbins-Monro recursion q += g (p - "
              "1{z <= q}), g = sd/(phi(z_p) t), on %s, started from the Gaussian guess after %d "
-             "kept draws, averaged over chains%s; 32 bytes per pixel per chain",
+             "kept draws, averaged over chains%s; 16 bytes per pixel per chain",
              sh->logx ? "z = log x" : "x", Q_WARM, sh->logx ? " and mapped through exp" : "");
     return PP_OK;
 }
@@ -904,21 +939,19 @@ static void pcn_release(pp_sampler *s)
         s->kshared = NULL;
     }
     for (unsigned i = 0; s->chain && i < s->cfg.chains; i++) {
-        pcn_chain *k = s->chain[i].kstate;
-        if (!k)
+        pcn_bounds *q = s->chain[i].kstate;
+        if (!q)
             continue;
-        void *bufs[] = {k->u, k->up, k->ctr, k->g, k->gp, k->v,
-                        k->z, k->zp, k->x, k->xp, k->ax, k->axp};
-        for (int j = 0; j < 12; j++)
-            pp_fft_free_buffer(bufs[j]);
-        free(k->qlo);
-        free(k->qhi);
-        pp_moments_free(&k->zm);
-        free(k);
+        free(q->qlo);
+        free(q->qhi);
+        free(q);
         s->chain[i].kstate = NULL;
     }
 }
 
-const pp_kernel pp_kernel_pcn = {"pcn", prepare_pcn, pcn_run_chain, pcn_finish, pcn_release};
-const pp_kernel pp_kernel_gpcn = {"gpcn", prepare_gpcn, pcn_run_chain, pcn_finish, pcn_release};
-const pp_kernel pp_kernel_hmc = {"hmc", prepare_hmc, pcn_run_chain, pcn_finish, pcn_release};
+const pp_kernel pp_kernel_pcn = {"pcn", prepare_pcn, pcn_run_chain, pcn_finish, pcn_release,
+                                 pcn_free_work};
+const pp_kernel pp_kernel_gpcn = {"gpcn", prepare_gpcn, pcn_run_chain, pcn_finish, pcn_release,
+                                 pcn_free_work};
+const pp_kernel pp_kernel_hmc = {"hmc", prepare_hmc, pcn_run_chain, pcn_finish, pcn_release,
+                                 pcn_free_work};
