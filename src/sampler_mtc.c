@@ -59,6 +59,7 @@
  * with a sampled width one array of M' doubles per chain.
  */
 #include "internal.h"
+#include "vmath.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -99,15 +100,25 @@ typedef struct rho_sums {
     double S, D, S1, S2, D1, D2;
 } rho_sums;
 
-static void rho_eval(const rho_terms *t, double rho, rho_sums *o)
+/* S and D at rho: per block of RHO_BLOCK entries an elementwise loop into
+ * stack arrays (vectorised: pp_vlog1p for libm's log1p), then lane sums in
+ * a fixed order (src/vmath.h). */
+#define RHO_BLOCK 256
+PP_VECTOR_CLONES static void rho_eval(const rho_terms *t, double rho, rho_sums *o)
 {
-    double S = 0, D = 0;
-    for (size_t j = 0; j < t->n; j++) {
-        double x = rho * t->a[j];
-        S += t->ws[j] / (1 + x);
-        D += t->w[j] * log1p(x);
+    double ts[RHO_BLOCK], td[RHO_BLOCK], as[PP_LANES] = {0}, ad[PP_LANES] = {0};
+    const double *restrict a = t->a, *restrict w = t->w, *restrict ws = t->ws;
+    for (size_t j0 = 0; j0 < t->n; j0 += RHO_BLOCK) {
+        size_t m = t->n - j0 < RHO_BLOCK ? t->n - j0 : RHO_BLOCK;
+        for (size_t j = 0; j < m; j++) {
+            double x = rho * a[j0 + j];
+            ts[j] = ws[j0 + j] / (1 + x);
+            td[j] = w[j0 + j] * pp_vlog1p(x);
+        }
+        pp_lanes_add(as, ts, m);
+        pp_lanes_add(ad, td, m);
     }
-    *o = (rho_sums){S, D, 0, 0, 0, 0};
+    *o = (rho_sums){pp_lanes_total(as), pp_lanes_total(ad), 0, 0, 0, 0};
 }
 
 /* As rho_eval plus first and second derivatives in r: with g = 1/(1+x),

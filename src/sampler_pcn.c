@@ -138,17 +138,16 @@ typedef struct pcn_bounds {
 
 /* One row of the Poisson negative log-likelihood, the sum of mu - d log mu
  * with mu = scale a + add over n pixels: per block of PHI_BLOCK pixels an
- * elementwise loop (vectorised) into a stack array, then PHI_LANES partial
+ * elementwise loop (vectorised) into a stack array, then PP_LANES partial
  * sums combined in a fixed order. A mu that is not > 0 counts in *bad
  * (positivity none: not defined) or, with floor, is raised to 1e-300 (log
  * positivity: the FFT's rounding of a positive A x); a NaN always counts. */
 #define PHI_BLOCK 256
-#define PHI_LANES 8
 PP_VECTOR_CLONES static double poisson_row(const double *restrict a, const double *restrict d,
                                            size_t n, double scale, double add, int floor,
                                            int *bad)
 {
-    double term[PHI_BLOCK], flag[PHI_BLOCK], acc[PHI_LANES] = {0}, nbad = 0;
+    double term[PHI_BLOCK], flag[PHI_BLOCK], acc[PP_LANES] = {0}, nbad = 0;
     const double nofloor = floor ? 0.0 : 1.0;
     for (size_t c0 = 0; c0 < n; c0 += PHI_BLOCK) {
         size_t m = n - c0 < PHI_BLOCK ? n - c0 : PHI_BLOCK;
@@ -158,20 +157,12 @@ PP_VECTOR_CLONES static double poisson_row(const double *restrict a, const doubl
             term[j] = mu - dj * pp_vlog(mu); /* d >= 0; log mu finite */
             flag[j] = v != v ? 1.0 : (v > 0 ? 0.0 : nofloor);
         }
-        size_t mb = m - m % PHI_LANES;
-        for (size_t b = 0; b < mb; b += PHI_LANES)
-            for (size_t l = 0; l < PHI_LANES; l++)
-                acc[l] += term[b + l];
-        for (size_t j = mb; j < m; j++)
-            acc[0] += term[j];
+        pp_lanes_add(acc, term, m);
         for (size_t j = 0; j < m; j++)
             nbad += flag[j];
     }
-    double sum = 0;
-    for (size_t l = 0; l < PHI_LANES; l++)
-        sum += acc[l];
     *bad += nbad > 0;
-    return sum;
+    return pp_lanes_total(acc);
 }
 
 /* Phi = negative log-likelihood of the mean image ax (grid) over the frame

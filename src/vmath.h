@@ -75,6 +75,41 @@ static inline double pp_vlog(double x)
     return k * ln2_hi - ((hfsq - (s * (hfsq + R) + k * ln2_lo)) - f);
 }
 
+/* log(1 + x) for finite x >= 0: with u = 1 + x rounded, log(u) * x / (u - 1)
+ * corrects the rounding of u to first order (Goldberg, ACM Comput. Surv. 23,
+ * 1991, theorem 4; from memory), and x itself where u rounds to 1 (x below
+ * 2^-53, where log1p(x) = x to double precision). Checked against log1pl
+ * in tests/test_vmath.c. */
+static inline double pp_vlog1p(double x)
+{
+    double u = 1.0 + x, d = u - 1.0;
+    double l = pp_vlog(u) * (x / (d == 0.0 ? 1.0 : d));
+    return d == 0.0 ? x : l;
+}
+
+/* Sums in a fixed order that vectorise: acc[l] += v[b + l] over the whole
+ * groups of PP_LANES entries of v[0..m), the rest into acc[0];
+ * pp_lanes_total adds the lanes in order. The order does not depend on the
+ * clone (PP_VECTOR_CLONES), so every copy gives the same sum. */
+#define PP_LANES 8
+static inline void pp_lanes_add(double *restrict acc, const double *restrict v, size_t m)
+{
+    size_t mb = m - m % PP_LANES;
+    for (size_t b = 0; b < mb; b += PP_LANES)
+        for (size_t l = 0; l < PP_LANES; l++)
+            acc[l] += v[b + l];
+    for (size_t j = mb; j < m; j++)
+        acc[0] += v[j];
+}
+
+static inline double pp_lanes_total(const double *acc)
+{
+    double s = 0;
+    for (size_t l = 0; l < PP_LANES; l++)
+        s += acc[l];
+    return s;
+}
+
 /* 1/j!, j = 0..13: exp's Taylor series on |r| <= ln 2 / 2 (the first
  * omitted term, r^14/14!, is < 4e-18 relative). */
 static const double PP_EXP_C[] = {1.0,
