@@ -8,8 +8,10 @@
  *   sec_iter  wall seconds x parallel lanes / (iterations x chains), i.e.
  *             seconds per iteration of one chain (burn-in included)
  *   wall      pp_sampler_seconds (the chains only, burn-in included)
- *   rss_kb    peak resident set (getrusage ru_maxrss) of the process, with
- *             glibc's mmap threshold fixed as the pixpost command fixes it
+ *   rss_kb    peak resident set of the process (VmHWM of /proc/self/status:
+ *             getrusage's ru_maxrss would include the RSS of the process that
+ *             forked us, e.g. Python's ~10 MB, which Linux carries over exec),
+ *             with glibc's mmap threshold fixed as the pixpost command fixes it
  *   ess_<col> ess_bulk of each trace column (pp_diag_compute, the rank-
  *             normalised split-chain ESS of include/pixpost/diag.h) over
  *             the kept draws of all chains, with mean_<col> its mean;
@@ -20,7 +22,6 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/resource.h>
 #if defined(__GLIBC__)
 #include <malloc.h>
 #endif
@@ -121,10 +122,16 @@ int main(int argc, char **argv)
     double wall = pp_sampler_seconds(s);
     unsigned par = cfg.threads > 0 && (unsigned)cfg.threads < cfg.chains ? (unsigned)cfg.threads
                                                                          : cfg.chains;
-    struct rusage ru;
-    getrusage(RUSAGE_SELF, &ru);
+    long hwm = -1;
+    FILE *st = fopen("/proc/self/status", "r");
+    char line[256];
+    while (st && fgets(line, sizeof line, st))
+        if (sscanf(line, "VmHWM: %ld", &hwm) == 1)
+            break;
+    if (st)
+        fclose(st);
     printf("sec_iter=%.6g wall=%.6g rss_kb=%ld",
-           wall * par / ((double)(cfg.iters + cfg.burn) * cfg.chains), wall, ru.ru_maxrss);
+           wall * par / ((double)(cfg.iters + cfg.burn) * cfg.chains), wall, hwm);
     if (pp_sampler_trace(s)->kept >= 6)
         print_ess(pp_sampler_trace(s));
     putchar('\n');

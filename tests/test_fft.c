@@ -74,23 +74,24 @@ static int smooth7(size_t n)
 
 static void check_good_size(void)
 {
-    /* Hand-factored values: 11->12, 13->14 (2*7), 17->18, 97->98 (2*7^2),
-     * 101->105 (3*5*7), 127->128, 1021->1024 (1022 = 2*7*73, 1023 =
-     * 3*11*31), 1000 stays. */
-    size_t in[] = {0, 1, 2, 11, 13, 17, 97, 101, 127, 1000, 1021};
-    size_t want[] = {1, 1, 2, 12, 14, 18, 98, 105, 128, 1000, 1024};
+    /* Hand-factored values: 3->4, 11->12, 13->14 (2*7), 17->18, 97->98
+     * (2*7^2), 101->108 (102 = 2*3*17, 104 = 8*13, 106 = 2*53; 105 is odd),
+     * 127->128, 1021->1024 (1022 = 2*7*73), 1000 stays. */
+    size_t in[] = {0, 1, 2, 3, 11, 13, 17, 97, 101, 127, 1000, 1021};
+    size_t want[] = {1, 1, 2, 4, 12, 14, 18, 98, 108, 128, 1000, 1024};
     for (size_t i = 0; i < sizeof in / sizeof in[0]; i++)
         CHECK(pp_fft_good_size(in[i]) == want[i], "good_size(%zu) = %zu, want %zu", in[i],
               pp_fft_good_size(in[i]), want[i]);
     int bad = 0;
     for (size_t n = 1; n <= 3000; n++) {
         size_t g = pp_fft_good_size(n);
-        if (g < n || !smooth7(g))
+        if (g < n || !smooth7(g) || (n > 1 && g % 2))
             bad++;
         for (size_t m = n; m < g; m++)
-            bad += smooth7(m);
+            bad += m % 2 == 0 && smooth7(m);
     }
-    CHECK(bad == 0, "good_size is the smallest 7-smooth n' >= n for n = 1..3000 (%d bad)", bad);
+    CHECK(bad == 0, "good_size is the smallest even 7-smooth n' >= n for n = 2..3000 (%d bad)",
+          bad);
 }
 
 static void check_wisdom(void)

@@ -43,7 +43,8 @@ void pp_fft_free_buffer(void *p);
 pp_status pp_fft_wisdom_load(const char *path);
 pp_status pp_fft_wisdom_save(const char *path);
 
-/* Smallest n' >= n whose prime factors are all in {2, 3, 5, 7}. */
+/* Smallest even n' >= n whose prime factors are all in {2, 3, 5, 7} (1 for
+ * n <= 1): the sizes FFTW transforms fastest without planning. */
 size_t pp_fft_good_size(size_t n);
 
 #endif
