@@ -167,11 +167,13 @@ struct pp_sampler {
     pp_fft *fft;
     pp_complex *otf;  /* transfer function, gm */
     double *otf2;     /* |otf|^2, gm */
-    double *q;        /* prior eigenvalues, gm */
+    double *q;        /* prior eigenvalues, gm (these three and the data: freed when
+                       * the chains are done) */
     double rank;      /* rank of Q over the full spectrum */
     double mean_dc;   /* prior mean spectrum at (0,0): M * gn, 0 if free */
-    double *ygrid;    /* frame embedded in the grid (padding = frame mean) */
-    pp_complex *yhat; /* r2c(ygrid) */
+    double *ygrid;    /* frame embedded in the grid (padding = frame mean); kept
+                       * after planning with pad only */
+    pp_complex *yhat; /* r2c(ygrid); kept after planning without pad only */
     double lambda0, delta0; /* rough scale estimates for dispersed starts */
     size_t nprobe;
     size_t probe_r[PP_MAX_PROBES], probe_c[PP_MAX_PROBES];

@@ -460,8 +460,8 @@ int pp_sampler_tick(pp_sampler *s)
     return s->cfg.stop && *s->cfg.stop;
 }
 
-/* Dispersed start: the rough scales times a log-normal factor (sd 1). */
-/* Chain k starts on the buffers of slot b. */
+/* Chain k starts on the buffers of slot b, from a dispersed start: the
+ * rough scales times a log-normal factor (sd 1). */
 static void start_chain(pp_sampler *s, unsigned k, const pp_slot *b)
 {
     pp_chain *c = &s->chain[k];

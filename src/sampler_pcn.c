@@ -114,7 +114,6 @@ typedef struct pcn_shared {
     double plo, phi_z; /* lower tail probability, normal density at its quantile */
 } pcn_shared;
 
-/* One chain's state. */
 /* A running chain's state and buffers: one per thread (the slot's kwork),
  * set up afresh by start() for each chain the thread runs. */
 typedef struct pcn_chain {
