@@ -35,11 +35,14 @@
  *   periodic: no transform; 1 pass over the half spectrum (the noise is
  *             drawn block by block inside the fused update and never
  *             stored; mu is stored for kept draws only) + a kept draw's
- *             one c2r (of mu), one pass of moments and the probe sums (3
- *             complex multiply-adds per entry, one per probe column).
- *             The pass's elementwise part is vectorised (AVX-512/AVX2
- *             clones), its sums taken afterwards in a fixed order; at 1024^2
- *             a thinned-out iteration is then ~60 % normals (bench/NOTES.md).
+ *             one c2r (of mu) and one pass of moments. Its probe sums (3
+ *             complex multiply-adds per entry, one per probe column) are
+ *             taken inside the pass, from the draw in L1, so x-hat is never
+ *             stored (with width sampling or pad it is, and the probes are
+ *             summed from it). The pass's elementwise part is vectorised
+ *             (AVX-512/AVX2 clones), its sums taken afterwards in a fixed
+ *             order; at 1024^2 a thinned-out iteration is then ~60 %
+ *             normals (bench/NOTES.md).
  *   pad:      + one c2r (A x) and one r2c (augmented data), one grid pass.
  * Uncertain PSF width (sigma=auto / na=auto, src/psfwidth.c): after step 1
  * a random-walk Metropolis step on the width given x and lambda, on
@@ -48,7 +51,9 @@
  * and forms A x-hat with the accepted width.
  * Memory: per thread 2 half spectra (16N bytes) and one real grid (8N), pad
  * adding a real grid and a half spectrum (16N); per chain the frame moments
- * (20 bytes/pixel). See src/sampler.c.
+ * (20 bytes/pixel). See src/sampler.c. Periodic without width sampling
+ * never writes the second half spectrum (cbuf2), so its pages are never
+ * resident (8N bytes per thread less in practice).
  */
 #include <math.h>
 #include "internal.h"
@@ -66,7 +71,7 @@ typedef struct {
  * sqrt and one division per entry: rs = 1/sqrt(p), 1/p = rs^2. m is the
  * prior mean spectrum at this entry (non-zero at i = 0 only). */
 static inline void fused_entry(const pp_sampler *s, const pp_chain *c, size_t i, double m,
-                               int want_ax, double invn, row_sums *acc)
+                               int want_ax, double invn, row_sums *acc, double xo[2])
 {
     const double lam = c->lambda, del = c->delta;
     const double *ot = (const double *)(c->otf + i), *y = (const double *)(c->yhat + i);
@@ -93,6 +98,57 @@ static inline void fused_entry(const pp_sampler *s, const pp_chain *c, size_t i,
         o[0] = want_ax ? ar : xr;
         o[1] = want_ax ? ai : xi;
     }
+    xo[0] = xr;
+    xo[1] = xi;
+}
+
+/* Probe values summed inside the pass (kept draws that need x-hat for
+ * nothing else): per row, for each distinct probe column u the sum over
+ * the row of x-hat times that column's twiddles (tw_col, which carry the
+ * half-spectrum weight and 1/N), then each probe adds the real part of its
+ * column's sum times its row twiddle, as probes_fast does from a stored
+ * x-hat. */
+typedef struct probe_acc {
+    size_t nu, ucol[PP_MAX_PROBES], which[PP_MAX_PROBES];
+    double re[PP_MAX_PROBES], im[PP_MAX_PROBES]; /* this row's column sums */
+    double acc[PP_MAX_PROBES];
+} probe_acc;
+
+static void probe_setup(const pp_sampler *s, probe_acc *pa)
+{
+    pa->nu = 0;
+    for (size_t p = 0; p < s->nprobe; p++) {
+        size_t u = 0;
+        while (u < pa->nu && s->probe_c[pa->ucol[u]] != s->probe_c[p])
+            u++;
+        if (u == pa->nu)
+            pa->ucol[pa->nu++] = p;
+        pa->which[p] = u;
+        pa->acc[p] = 0;
+    }
+    for (size_t u = 0; u < pa->nu; u++)
+        pa->re[u] = pa->im[u] = 0;
+}
+
+/* One entry (column col of the current row) into the column sums. */
+static inline void probe_entry(const pp_sampler *s, probe_acc *pa, size_t col, const double x[2])
+{
+    for (size_t u = 0; u < pa->nu; u++) {
+        const double *tc = (const double *)(s->tw_col + pa->ucol[u] * s->gwh + col);
+        pa->re[u] += x[0] * tc[0] - x[1] * tc[1];
+        pa->im[u] += x[0] * tc[1] + x[1] * tc[0];
+    }
+}
+
+/* End of row k1: each probe takes its column's sum times its row twiddle. */
+static void probe_row_end(const pp_sampler *s, probe_acc *pa, size_t k1)
+{
+    for (size_t p = 0; p < s->nprobe; p++) {
+        const double *tr = (const double *)(s->tw_row + p * s->gh + k1);
+        pa->acc[p] += pa->re[pa->which[p]] * tr[0] - pa->im[pa->which[p]] * tr[1];
+    }
+    for (size_t u = 0; u < pa->nu; u++)
+        pa->re[u] = pa->im[u] = 0;
 }
 
 /* Entries [i0, i0 + n) of one row whose prior mean is 0 (the bulk of the
@@ -106,7 +162,7 @@ static inline void fused_entry(const pp_sampler *s, const pp_chain *c, size_t i,
 #define FUSED_LANES 8
 PP_VECTOR_CLONES static void fused_block(const pp_sampler *s, const pp_chain *c, size_t i0,
                                       size_t n, const double *restrict g, double gs, int want_ax,
-                                      int want_mu, double invn, row_sums *acc)
+                                      int want_mu, double invn, row_sums *acc, probe_acc *pa)
 {
     const double lam = c->lambda, del = c->delta;
     const double *restrict ot = (const double *)(c->otf + i0);
@@ -144,6 +200,26 @@ PP_VECTOR_CLONES static void fused_block(const pp_sampler *s, const pp_chain *c,
             o[2 * j] = txr[j];
             o[2 * j + 1] = txi[j];
         }
+    /* x-hat against each distinct probe column's twiddles (txr, txi hold x
+     * when want_ax < 1), in lanes like the sums below */
+    for (size_t u = 0; pa && u < pa->nu; u++) {
+        const double *restrict tc = (const double *)(s->tw_col + pa->ucol[u] * s->gwh +
+                                                     i0 % s->gwh);
+        double sr[FUSED_LANES] = {0}, si[FUSED_LANES] = {0};
+        size_t nb = n - n % FUSED_LANES;
+        for (size_t b = 0; b < nb; b += FUSED_LANES)
+            for (size_t l = 0; l < FUSED_LANES; l++) {
+                size_t k = b + l;
+                sr[l] += txr[k] * tc[2 * k] - txi[k] * tc[2 * k + 1];
+                si[l] += txr[k] * tc[2 * k + 1] + txi[k] * tc[2 * k];
+            }
+        for (size_t k = nb; k < n; k++) {
+            sr[0] += txr[k] * tc[2 * k] - txi[k] * tc[2 * k + 1];
+            si[0] += txr[k] * tc[2 * k + 1] + txi[k] * tc[2 * k];
+        }
+        pa->re[u] += pp_lanes_total(sr);
+        pa->im[u] += pp_lanes_total(si);
+    }
     double ss[FUSED_LANES] = {0}, qf[FUSED_LANES] = {0}, cv[FUSED_LANES] = {0};
     double v0[FUSED_LANES] = {0}, c0[FUSED_LANES] = {0};
     size_t nb = n - n % FUSED_LANES;
@@ -205,27 +281,42 @@ static void edge_noise(const pp_sampler *s, pp_chain *c, size_t ncol)
  * width is sampled). Columns 0 and (W even) W/2 have half-spectrum weight
  * 1, the rest 2; each row is one run over the weight-2 interior and one or
  * two edge entries. */
-fused_sums pp_gibbs_fused_pass(const pp_sampler *s, pp_chain *c, int want_ax, int want_mu)
+fused_sums pp_gibbs_fused_pass(const pp_sampler *s, pp_chain *c, int want_ax, int want_mu,
+                               double *probes)
 {
     const double invn = 1.0 / (double)s->gn, gs = sqrt((double)s->gn / 2.0);
     const size_t wh = s->gwh, last = (s->gw % 2 == 0 && wh > 1) ? wh - 1 : wh;
-    double g[2 * NOISE_BLOCK];
+    double g[2 * NOISE_BLOCK], x[2], x00 = 0;
+    probe_acc pacc, *pa = probes ? &pacc : NULL;
+    if (pa)
+        probe_setup(s, pa);
     edge_noise(s, c, last < wh ? 2 : 1);
     row_sums edge = {0, 0, 0, 0, 0}, in = {0, 0, 0, 0, 0};
     for (size_t k1 = 0; k1 < s->gh; k1++) {
         size_t i = k1 * wh;
-        fused_entry(s, c, i, k1 == 0 ? s->mean_dc : 0.0, want_ax, invn, &edge);
+        fused_entry(s, c, i, k1 == 0 ? s->mean_dc : 0.0, want_ax, invn, &edge, x);
+        if (k1 == 0)
+            x00 = x[0];
+        if (pa)
+            probe_entry(s, pa, 0, x);
         for (size_t j0 = 1; j0 < last; j0 += NOISE_BLOCK) {
             size_t m = last - j0 < NOISE_BLOCK ? last - j0 : NOISE_BLOCK;
             pp_rng_normals(&c->rng, g, 2 * m);
-            fused_block(s, c, i + j0, m, g, gs, want_ax, want_mu, invn, &in);
+            fused_block(s, c, i + j0, m, g, gs, want_ax, want_mu, invn, &in, pa);
         }
-        if (last < wh)
-            fused_entry(s, c, i + last, 0.0, want_ax, invn, &edge);
+        if (last < wh) {
+            fused_entry(s, c, i + last, 0.0, want_ax, invn, &edge, x);
+            if (pa)
+                probe_entry(s, pa, last, x);
+        }
+        if (pa)
+            probe_row_end(s, pa, k1);
     }
+    for (size_t p = 0; pa && p < s->nprobe; p++)
+        probes[p] = pa->acc[p];
     return (fused_sums){(edge.ss + 2 * in.ss) * invn, (edge.qf + 2 * in.qf) * invn,
                         (edge.cv + 2 * in.cv) * invn, (edge.v0 + 2 * in.v0) * invn,
-                        (edge.c0 + 2 * in.c0) * invn};
+                        (edge.c0 + 2 * in.c0) * invn, x00};
 }
 
 /* sum_k row[k] tc[k] over n complex entries into (*re, *im), with
@@ -262,28 +353,17 @@ PP_VECTOR_CLONES static void row_dot(const double *restrict row, const double *r
  * complex multiply-adds per entry, one read of xh. */
 static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
 {
-    size_t ucol[PP_MAX_PROBES], nu = 0, which[PP_MAX_PROBES];
-    for (size_t p = 0; p < s->nprobe; p++) {
-        size_t u = 0;
-        while (u < nu && s->probe_c[ucol[u]] != s->probe_c[p])
-            u++;
-        if (u == nu)
-            ucol[nu++] = p;
-        which[p] = u;
-    }
-    double acc[PP_MAX_PROBES] = {0};
+    probe_acc pa;
+    probe_setup(s, &pa);
     for (size_t k1 = 0; k1 < s->gh; k1++) {
         const double *row = (const double *)(xh + k1 * s->gwh);
-        double re[PP_MAX_PROBES], im[PP_MAX_PROBES];
-        for (size_t u = 0; u < nu; u++)
-            row_dot(row, (const double *)(s->tw_col + ucol[u] * s->gwh), s->gwh, &re[u], &im[u]);
-        for (size_t p = 0; p < s->nprobe; p++) {
-            const double *tr = (const double *)(s->tw_row + p * s->gh + k1);
-            acc[p] += re[which[p]] * tr[0] - im[which[p]] * tr[1];
-        }
+        for (size_t u = 0; u < pa.nu; u++)
+            row_dot(row, (const double *)(s->tw_col + pa.ucol[u] * s->gwh), s->gwh, &pa.re[u],
+                    &pa.im[u]);
+        probe_row_end(s, &pa, k1);
     }
     for (size_t p = 0; p < s->nprobe; p++)
-        out[p] = acc[p];
+        out[p] = pa.acc[p];
 }
 
 /* Pad: from A x (rbuf, times N) redraw the padding pixels of yaug; returns
@@ -318,7 +398,8 @@ static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss
 }
 
 /* Stores a kept draw: moments of mu, the conditional variance and the trace
- * row (whose probe columns pad mode has already filled from x-hat). */
+ * row (whose probe columns are already filled when probes_done: by the pass,
+ * or in pad mode from x-hat). */
 void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const fused_sums *f, double loglik,
                      int probes_done)
 {
@@ -475,6 +556,16 @@ static void rescale_xhat(const pp_sampler *s, pp_chain *c, double ratio)
         c->cbuf2[0] = s->mean_dc + (c->cbuf2[0] - s->mean_dc) * ratio;
 }
 
+/* The same change made to probe values summed by the pass (x00 = x-hat at
+ * (0, 0), which adds x00 / N to every pixel; the rest scales by ratio). */
+static void rescale_probes(const pp_sampler *s, double x00, double ratio, double *probe)
+{
+    const double invn = 1.0 / (double)s->gn;
+    double x00n = s->q[0] > 0 ? s->mean_dc + (x00 - s->mean_dc) * ratio : x00;
+    for (size_t p = 0; p < s->nprobe; p++)
+        probe[p] = x00n * invn + (probe[p] - x00 * invn) * ratio;
+}
+
 static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
 {
     const pp_sampler_config *cfg = &s->cfg;
@@ -486,9 +577,13 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
     const unsigned long total = cfg->burn + cfg->iters;
     for (unsigned long t = 0; t < total; t++) {
         int keep = t >= cfg->burn && (t - cfg->burn + 1) % cfg->thin == 0;
-        int want_xhat = keep || width;
+        /* a kept periodic draw without width sampling needs x-hat only for
+         * its probes: the pass sums them and x-hat is never stored */
+        int direct = keep && !pad && !width;
+        int want_xhat = (keep && !direct) || width;
         int mode = pad ? !want_xhat : want_xhat ? 0 : -1;
-        fused_sums f = pp_gibbs_fused_pass(s, c, mode, keep);
+        double *probe = direct ? c->trace + c->kept * s->trace.ncols + s->col_probe0 : NULL;
+        fused_sums f = pp_gibbs_fused_pass(s, c, mode, keep, probe);
         if (width)
             width_move(s, c, &f, t);
         if (!fix_d) {
@@ -496,6 +591,8 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
             double ratio = pad ? 1.0 : asis_delta(s, c, &f);
             if (ratio != 1.0 && want_xhat)
                 rescale_xhat(s, c, ratio);
+            if (ratio != 1.0 && direct)
+                rescale_probes(s, f.x00, ratio, probe);
         }
         double ss = f.resid, ss_obs = f.resid, xsum;
         if (pad) {
@@ -516,7 +613,7 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
         if (keep) {
             double n = pad ? nobs : (double)s->gn;
             double ll = 0.5 * n * log(c->lambda / (2 * PP_PI)) - 0.5 * c->lambda * ss_obs;
-            pp_gibbs_record(s, c, &f, ll, pad);
+            pp_gibbs_record(s, c, &f, ll, pad || direct);
         }
         if (pp_sampler_tick(s))
             return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");
