@@ -54,9 +54,10 @@
  * 116601 of 131583 at 512^2; the step costs 0.26 / 0.83 / 5.8 ms at
  * 256^2 / 512^2 / 1024^2, bench/mtc_bench.py);
  * a kept draw adds the gibbs conditional draw: M complex normals, one fused
- * pass, one c2r, moments and 9 probe sums. Memory: 3 shared arrays of G
- * doubles plus an index and 2 arrays of the M' <= M entries with q > 0;
- * with a sampled width one array of M' doubles per chain.
+ * pass, one c2r, moments and 9 probe sums. Memory: fixed PSF, 3 shared
+ * arrays of G doubles (the entries' index and arrays are dropped once
+ * grouped); sampled width, an index and 2 arrays of the M' <= M entries
+ * with q > 0, and one array of M' doubles per chain.
  */
 #include "internal.h"
 #include "vmath.h"
@@ -87,9 +88,9 @@ typedef struct rho_terms {
 
 typedef struct mtc_shared {
     size_t nk;             /* entries with q > 0 */
-    size_t *idx;           /* their half-spectrum indices */
-    double *w;             /* their half-spectrum weights */
-    double *ws;            /* w_k |Y_k - A_k M_k|^2 / N */
+    size_t *idx;           /* their half-spectrum indices (NULL once grouped) */
+    double *w;             /* their half-spectrum weights (NULL once grouped) */
+    double *ws;            /* w_k |Y_k - A_k M_k|^2 / N (NULL once grouped) */
     double *ga, *gw, *gws; /* fixed PSF: groups of equal a_k, summed w and ws */
     size_t ng;
     int fallback; /* pad: run the gibbs chain */
@@ -150,6 +151,11 @@ double pp_mtc_log_marginal(const pp_sampler *s, const double *otf2, double lam, 
     const mtc_shared *m = s->kshared;
     double rho = lam / del;
     rho_sums z = {0, 0, 0, 0, 0, 0};
+    if (otf2 == s->otf2 && m->ga) { /* the fixed PSF's groups (the entries are gone) */
+        rho_terms g = {m->ga, m->gw, m->gws, m->ng};
+        rho_eval(&g, rho, &z);
+        return marginal_from(s, lam, &z);
+    }
     for (size_t j = 0; j < m->nk; j++) {
         size_t i = m->idx[j];
         double x = rho * (otf2[i] / s->q[i]);
@@ -228,6 +234,19 @@ static pp_status make_groups(const pp_sampler *s, mtc_shared *m)
     }
     m->ng = g;
     free(k);
+    /* The groups replace the entries for good: trim them to their number and
+     * drop the per-entry arrays (12 bytes per half-spectrum entry). */
+    double **arr[] = {&m->ga, &m->gw, &m->gws};
+    for (int a = 0; a < 3; a++) {
+        double *shrunk = realloc(*arr[a], (g ? g : 1) * sizeof(double));
+        if (shrunk)
+            *arr[a] = shrunk;
+    }
+    free(m->idx);
+    free(m->w);
+    free(m->ws);
+    m->idx = NULL;
+    m->w = m->ws = NULL;
     return PP_OK;
 }
 
