@@ -521,7 +521,7 @@ static void release_grid(pp_sampler *s)
     s->otf = NULL;
     s->otf2 = s->q = s->ygrid = NULL;
     s->yhat = NULL;
-    for (unsigned k = 0; k < s->cfg.chains; k++)
+    for (unsigned k = 0; s->chain && k < s->cfg.chains; k++)
         s->chain[k].otf = NULL, s->chain[k].otf2 = NULL;
 }
 
@@ -639,16 +639,11 @@ void pp_sampler_free(pp_sampler *s)
         pp_moments_free(&c->mom);
         free(c->mean1);
     }
+    release_grid(s);
     free(s->chain);
-    free_slots(s);
     free(s->diag);
     pp_image_free(s->rhat_map);
     pp_image_free(s->mcse_map);
-    pp_fft_free_buffer(s->otf);
-    free(s->otf2);
-    free(s->q);
-    pp_fft_free_buffer(s->ygrid);
-    pp_fft_free_buffer(s->yhat);
     free(s->tw_row);
     free(s->tw_col);
     free(s->trace_values);
