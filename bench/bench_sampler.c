@@ -11,7 +11,7 @@
  *   rss_kb    peak resident set of the process (VmHWM of /proc/self/status:
  *             getrusage's ru_maxrss would include the RSS of the process that
  *             forked us, e.g. Python's ~10 MB, which Linux carries over exec),
- *             with glibc's mmap threshold fixed as the pixpost command fixes it
+ *             after pp_sampler_return_memory(), as the pixpost command runs
  *   ess_<col> ess_bulk of each trace column (pp_diag_compute, the rank-
  *             normalised split-chain ESS of include/pixpost/diag.h) over
  *             the kept draws of all chains, with mean_<col> its mean;
@@ -22,9 +22,6 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#if defined(__GLIBC__)
-#include <malloc.h>
-#endif
 #include "pixpost/diag.h"
 #include "pixpost/pixpost.h"
 
@@ -87,9 +84,7 @@ int main(int argc, char **argv)
 {
     if (argc < 4)
         return fprintf(stderr, "usage: bench_sampler KIND H W [key=value ...]\n"), 1;
-#if defined(__GLIBC__) && defined(M_MMAP_THRESHOLD)
-    mallopt(M_MMAP_THRESHOLD, 128 * 1024); /* as the pixpost command does (src/cli/main.c) */
-#endif
+    pp_sampler_return_memory(); /* as the pixpost command does */
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
     if (pp_sampler_kind_parse(argv[1], &cfg.kind) != PP_OK ||

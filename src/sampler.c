@@ -28,6 +28,9 @@
 #include <string.h>
 #include "internal.h"
 #include "pixpost/psf.h"
+#if defined(__GLIBC__)
+#include <malloc.h>
+#endif
 
 /* ---- names and defaults ---------------------------------------------- */
 
@@ -419,6 +422,13 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
     return PP_OK;
 }
 
+void pp_sampler_return_memory(void)
+{
+#if defined(__GLIBC__) && defined(M_MMAP_THRESHOLD)
+    mallopt(M_MMAP_THRESHOLD, 128 * 1024);
+#endif
+}
+
 /* ---- running ---------------------------------------------------------- */
 
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
@@ -525,6 +535,16 @@ static void release_grid(pp_sampler *s)
         s->chain[k].otf = NULL, s->chain[k].otf2 = NULL;
 }
 
+/* The chains' frame moments (after the maps, or when the sampler goes). */
+static void free_moments(pp_sampler *s)
+{
+    for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
+        pp_moments_free(&s->chain[k].mom);
+        free(s->chain[k].mean1);
+        s->chain[k].mean1 = NULL;
+    }
+}
+
 static pp_status pool_estimates(pp_sampler *s)
 {
     pp_image **out[] = {&s->mean, &s->sd, &s->lo, &s->hi};
@@ -602,12 +622,7 @@ pp_status pp_sampler_run(pp_sampler *s)
         res = s->kernel->finish(s);
     if (res == PP_OK)
         res = pp_sampler_diagnose(s);
-    /* The chains' frame moments have served the estimates and the maps. */
-    for (unsigned k = 0; k < s->cfg.chains; k++) {
-        pp_moments_free(&s->chain[k].mom);
-        free(s->chain[k].mean1);
-        s->chain[k].mean1 = NULL;
-    }
+    free_moments(s); /* they have served the estimates and the maps */
     return res;
 }
 
@@ -633,12 +648,9 @@ void pp_sampler_free(pp_sampler *s)
         return;
     if (s->kernel && s->kernel->release)
         s->kernel->release(s);
-    for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
-        pp_chain *c = &s->chain[k];
-        pp_width_free(c->wstate);
-        pp_moments_free(&c->mom);
-        free(c->mean1);
-    }
+    for (unsigned k = 0; s->chain && k < s->cfg.chains; k++)
+        pp_width_free(s->chain[k].wstate);
+    free_moments(s);
     release_grid(s);
     free(s->chain);
     free(s->diag);

@@ -51,8 +51,8 @@
  * the G <= M distinct a_k (fixed PSF; grouped once in prepare, O(M log M));
  * (mirror frequencies of a symmetric PSF differ in the last bits of the
  * FFT, so exact grouping merges little: G = 28906 of 33023 at 256^2,
- * 116601 of 131583 at 512^2; the step costs 0.26 / 0.83 / 5.8 ms at
- * 256^2 / 512^2 / 1024^2, bench/mtc_bench.py);
+ * 116601 of 131583 at 512^2; the step, vectorised (rho_eval), costs
+ * 0.05-0.07 / 0.24-0.30 / 1.2-1.5 ms at 256^2 / 512^2 / 1024^2, bench/run);
  * a kept draw adds the gibbs conditional draw: M complex normals, one fused
  * pass, one c2r, moments and 9 probe sums. Memory: fixed PSF, 3 shared
  * arrays of G doubles (the entries' index and arrays are dropped once

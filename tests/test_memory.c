@@ -6,8 +6,8 @@
  * child's VmHWM at its resident size when forked), which reads VmRSS from
  * /proc/self/status before pp_sampler_create and VmHWM after
  * pp_sampler_run; the difference over the pixel count is the sampler's
- * peak per pixel, planning, chains, estimates and maps together. glibc's
- * mmap threshold is fixed as the pixpost command fixes it (src/cli/main.c).
+ * peak per pixel, planning, chains, estimates and maps together, after
+ * pp_sampler_return_memory() as the pixpost command runs.
  * 1024^2 frame, 4 chains, 4 kept draws (enough for the R-hat maps); the
  * parent starts no OpenMP region before forking. The bound holds for the
  * plain build; under AddressSanitizer see MEASURED below.
@@ -24,9 +24,6 @@
 #include <string.h>
 #include <sys/wait.h>
 #include <unistd.h>
-#if defined(__GLIBC__)
-#include <malloc.h>
-#endif
 #include "pixpost/pixpost.h"
 #include "testutil.h"
 
@@ -120,9 +117,7 @@ static void check_config(const char *name, pp_sampler_kind kind, pp_boundary b, 
 
 int main(void)
 {
-#if defined(__GLIBC__) && defined(M_MMAP_THRESHOLD)
-    mallopt(M_MMAP_THRESHOLD, 128 * 1024); /* as src/cli/main.c */
-#endif
+    pp_sampler_return_memory(); /* as the pixpost command does */
     pp_image *y = NULL, *psf = NULL;
     pp_psf_spec ps;
     pp_psf_parse("gaussian:sigma=1.5", &ps);

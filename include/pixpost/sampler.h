@@ -94,6 +94,17 @@ void pp_sampler_free(pp_sampler *s);
 /* The configuration actually used (kind resolved from AUTO, etc.). */
 const pp_sampler_config *pp_sampler_config_used(const pp_sampler *s);
 
+/* Optional, for programs, once at start before any sampler: makes glibc hand
+ * every frame-sized buffer back to the system as soon as it is freed (fixes
+ * its mmap threshold at its starting value, 128 KiB; a no-op elsewhere).
+ * Otherwise glibc raises the threshold after the first such free and serves
+ * later big blocks from its heap, where freed holes stay resident: 16 bytes
+ * per pixel more at the peak of a 4-chain run (bench/NOTES.md). The library
+ * never calls it itself, as it changes the whole process's allocator; it
+ * allocates only while planning, so the extra system calls cost nothing
+ * measurable. The pixpost command calls it. */
+void pp_sampler_return_memory(void);
+
 /* Estimates, frame-sized; valid after a successful run (NULL before). */
 const pp_image *pp_sampler_mean(const pp_sampler *s);
 const pp_image *pp_sampler_sd(const pp_sampler *s);

@@ -8,9 +8,6 @@
 #include "cli.h"
 #include <stdio.h>
 #include <string.h>
-#if defined(__GLIBC__)
-#include <malloc.h>
-#endif
 
 typedef struct command {
     const char *name;
@@ -48,23 +45,9 @@ static void usage(FILE *fp)
           fp);
 }
 
-/* Big buffers (frame-sized and up) come straight from mmap, so freeing them
- * gives the pages back at once. glibc otherwise raises its mmap threshold
- * after the first such free and serves later ones from the heap, where the
- * holes left by freed buffers stay resident: measured 16 bytes per pixel
- * more at the peak of a 4-chain gibbs run (bench/NOTES.md). The library
- * allocates only while planning, so the extra system calls cost nothing
- * measurable. Setting the threshold fixes it at glibc's starting value. */
-static void return_big_buffers(void)
-{
-#if defined(__GLIBC__) && defined(M_MMAP_THRESHOLD)
-    mallopt(M_MMAP_THRESHOLD, 128 * 1024);
-#endif
-}
-
 int main(int argc, char **argv)
 {
-    return_big_buffers();
+    pp_sampler_return_memory(); /* frame-sized buffers back to the system when freed */
     if (argc < 2) {
         usage(stderr);
         return CLI_EXIT_USAGE;
