@@ -121,7 +121,6 @@ typedef struct pcn_chain {
     pp_complex *g, *gp, *v;   /* hmc: gradients of Phi at u and up, velocity */
     int gvalid;               /* hmc: g belongs to the current state */
     double *z, *zp, *x, *xp, *ax, *axp;
-    double *qlo, *qhi;        /* the running chain's pcn_bounds */
     pp_moments zm;
     double m, beta, dstep, mstep, phi, ss;
     double dref; /* delta of the partially non-centred move's weights */
@@ -582,19 +581,20 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
     pp_chain_add_draw(s, c, x);
     pp_moments_add_block(&k->zm, k->z, s->height, s->width, s->gw);
     double t = (double)k->zm.count, zq = pp_norm_quantile(1.0 - sh->plo);
+    const pcn_bounds *q = c->kstate;
     for (size_t r = 0; r < s->height; r++)
         for (size_t col = 0; col < s->width; col++) {
             size_t i = r * s->width + col;
             double zv = k->z[r * s->gw + col];
             double sd = t > 1 ? sqrt(k->zm.m2[i] / (t - 1)) : 0.0, mu = k->zm.mean[i];
             if (t <= Q_WARM) {
-                k->qlo[i] = mu - zq * sd;
-                k->qhi[i] = mu + zq * sd;
+                q->qlo[i] = mu - zq * sd;
+                q->qhi[i] = mu + zq * sd;
                 continue;
             }
             double g = sd / (sh->phi_z * t);
-            k->qlo[i] += g * (sh->plo - (zv <= k->qlo[i]));
-            k->qhi[i] += g * (1.0 - sh->plo - (zv <= k->qhi[i]));
+            q->qlo[i] += g * (sh->plo - (zv <= q->qlo[i]));
+            q->qhi[i] += g * (1.0 - sh->plo - (zv <= q->qhi[i]));
         }
     double *row = c->trace + c->kept * s->trace.ncols;
     row[PP_COL_LAMBDA] = sh->gauss ? c->lambda : NAN;
@@ -609,9 +609,6 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
 
 static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
 {
-    const pcn_bounds *q = c->kstate;
-    k->qlo = q->qlo;
-    k->qhi = q->qhi;
     k->m = sh->m0;
     if (sh->free_dc)
         k->m += sh->mdisp * pp_rng_normal(&c->rng);
