@@ -141,6 +141,7 @@ typedef struct cli_sample_opts {
     int quiet;              /* --quiet */
     cli_progress progress;  /* --progress (AUTO: bar on a terminal, else none) */
     int strict;             /* --strict */
+    int overwrite;          /* --overwrite */
 } cli_sample_opts;
 
 /* The sample options table (NULL-terminated). */

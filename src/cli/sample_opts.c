@@ -63,6 +63,9 @@ static const cli_opt sample_table[] = {
     {"progress", 0, 1, "bar|plain|none", "How progress is shown on stderr."},
     {"strict", 0, 0, "",
      "Exit with status 3 when convergence warnings were raised (R-hat, ESS, acceptance)."},
+    {"overwrite", 0, 0, "",
+     "Allow writing into an output folder that holds other files, or replacing results "
+     "made with other settings."},
     {NULL, 0, 0, NULL, NULL},
 };
 
@@ -118,7 +121,8 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
         snprintf(buf, len, "none (estimated plans, no file)");
     else if (strcmp(name, "progress") == 0)
         snprintf(buf, len, "bar on a terminal, none otherwise");
-    else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0)
+    else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0 ||
+             strcmp(name, "overwrite") == 0)
         snprintf(buf, len, "off");
 }
 
@@ -217,6 +221,7 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
 {
     o->quiet = cli_given(a, "quiet");
     o->strict = cli_given(a, "strict");
+    o->overwrite = cli_given(a, "overwrite");
     o->wisdom = cli_str(a, "wisdom");
     if (o->wisdom) {
         if (!o->wisdom[0])
