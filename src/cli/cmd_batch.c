@@ -7,8 +7,8 @@
  * Reproducibility contract: a frame's seed is pp_hash_string(--seed, its
  * relative path [+ "#p<page>"]), its thread count does not change results,
  * and the command recorded in its summary.json leaves out the options that
- * only steer the run (--jobs, --shard, --resume, --threads, --quiet,
- * --progress). So a frame's outputs are byte-identical (timings aside)
+ * only steer the run (--jobs, --shard, --resume, --overwrite, --strict,
+ * --threads, --quiet, --progress). So a frame's outputs are byte-identical (timings aside)
  * whatever the order, jobs, shards, ranks or interruptions.
  *
  * Cost: listing (one readdir per folder) and one manifest rewrite per
@@ -32,7 +32,8 @@ static const cli_opt batch_table[] = {
      "to shard (i mod N) + 1. Writes index.shard-K-of-N.csv/json instead of index.csv/json."},
     {"resume", 0, 0, "",
      "Skip frames whose folder holds a completion marker made with the same settings and "
-     "input; redo the others (leftover temporary files are removed)."},
+     "input; redo the others (leftover temporary files are removed). Finished frames made "
+     "with other settings or from a changed input are replaced only with --overwrite."},
     {"recursive", 0, 0, "", "Also take frames from subfolders (outputs keep the tree)."},
     {"pattern", 0, 1, "GLOB",
      "Only frames whose file name matches GLOB (fnmatch; matched against the path relative "
@@ -47,7 +48,8 @@ static void batch_help(FILE *fp)
 {
     const cli_opt *tables[] = {batch_table, cli_sample_table(), NULL};
     fputs("Usage: pixpost batch INDIR -o OUTDIR --psf SPEC [sample options] [--jobs N]\n"
-          "                     [--shard K/N] [--resume] [--recursive] [--pattern GLOB]\n"
+          "                     [--shard K/N] [--resume] [--overwrite] [--strict]\n"
+          "                     [--recursive] [--pattern GLOB]\n"
           "       pixpost batch --merge OUTDIR\n"
           "       mpirun -n R pixpost batch ...   (MPI builds: rank 0 hands frames out)\n\n"
           "Samples every PNG/TIFF frame of INDIR (sorted by path; a multi-page TIFF gives one\n"
@@ -56,11 +58,18 @@ static void batch_help(FILE *fp)
           "completion marker .done last. Each frame's seed is a hash of --seed and its\n"
           "relative path, so results do not depend on order, jobs, shards or ranks.\n"
           "OUTDIR/index.csv and index.json list every frame (path, page, output, status\n"
-          "done/failed/skipped/pending, seconds, lambda and delta means, worst R-hat, lowest\n"
-          "ESS, message) and are rewritten atomically as frames finish. A frame that cannot\n"
-          "be read or crashes is recorded as failed and the others go on. --threads is the\n"
-          "total thread budget of the batch. SIGINT/SIGTERM: running frames stop without\n"
-          "writing, the manifest is updated, and the command to resume is printed.\n"
+          "done/failed/failed-strict/skipped/pending, seconds, lambda and delta means, worst\n"
+          "R-hat and lowest bulk-ESS over the trace columns, the number of convergence\n"
+          "warnings, converged true/false, message) and are rewritten atomically as frames\n"
+          "finish. A frame that cannot be read or crashes is recorded as failed and the\n"
+          "others go on; with --strict a frame with convergence warnings is failed-strict\n"
+          "(its outputs are written). Entries of INDIR that are not PNG/TIFF frames (and\n"
+          "subfolders without --recursive) are named once at the start. Each frame prints a\n"
+          "progress line per 10 % (unless --quiet or --progress none) and a last line\n"
+          "'done, N warnings'. A frame folder finished with other settings is replaced only\n"
+          "with --overwrite (otherwise nothing is done). --threads is the total thread\n"
+          "budget of the batch. SIGINT/SIGTERM: running frames stop without writing, the\n"
+          "manifest is updated, and the command to resume is printed.\n"
           "OUTDIR may not be inside INDIR; nothing is ever written into INDIR. Under mpirun,\n"
           "--jobs is not used: each worker rank runs one frame at a time with --threads\n"
           "threads (default: cores / ranks on the node).\n\nOptions:\n",
@@ -69,7 +78,8 @@ static void batch_help(FILE *fp)
     fprintf(fp,
             "\nMPI support in this build: %s.\n"
             "Exit status: 0 all frames done or skipped; 1 bad usage or input; 2 some frames "
-            "failed;\n128+signal when stopped by SIGINT/SIGTERM (rerun with --resume).\n",
+            "failed;\n3 no frame failed but some had convergence warnings under --strict;\n"
+            "128+signal when stopped by SIGINT/SIGTERM (rerun with --resume).\n",
             cli_mpi_support());
 }
 
