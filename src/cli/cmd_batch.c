@@ -357,7 +357,7 @@ static int announce(const batch_state *s)
 
 static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **argv)
 {
-    int rank = 0, size = 1, rc = 0;
+    int rank = 0, size = 1, rc = 0, dispatched = 0;
     int mpi = batch_mpi_active(&rank, &size);
     if (mpi && size > 1 && rank > 0) {
         c->threads_per_frame = mpi_threads(c->opts);
@@ -390,6 +390,7 @@ static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **ar
                     mpi && size > 1 ? size - 1 : jobs, mpi && size > 1 ? "worker ranks" : "jobs",
                     mpi && size > 1 ? mpi_threads(c->opts) : c->threads_per_frame);
         cli_stop_install(0);
+        dispatched = !rc;
         if (!rc && mpi && size > 1)
             batch_mpi_manager(c, todo, s.ntodo, on_done, &s, size);
         else if (!rc)
@@ -400,6 +401,8 @@ static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **ar
             rc = verdict(&s, argc, argv);
         cli_stop_uninstall();
     }
+    if (mpi && size > 1 && !dispatched)
+        batch_mpi_manager(c, todo, 0, on_done, &s, size); /* refused: release the workers */
     free(todo);
     free(s.rows);
     free(s.sel);
