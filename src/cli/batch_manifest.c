@@ -315,7 +315,9 @@ static void write_json(FILE *f, const batch_row *rows, size_t n, const char *ind
         json_num(f, "ess_bulk_min", r->ess_bulk_min);
         json_num(f, "warnings", r->warnings >= 0 ? r->warnings : NAN);
         fprintf(f, ", \"converged\": %s",
-                r->converged > 0 ? "true" : r->converged == 0 ? "false" : "null");
+                r->converged > 0    ? "true"
+                : r->converged == 0 ? "false"
+                                    : "null");
         fputs(", \"message\": ", f);
         pp_json_write_string(f, r->message);
         fputc('}', f);

@@ -241,8 +241,8 @@ static int plan(batch_state *s, unsigned k, unsigned n, int resume, size_t **tod
         batch_row *r = &s->rows[s->nsel];
         s->sel[s->nsel++] = i;
         batch_row_init(r, &c->frames[i]);
-        batch_marker m = c->frames[i].clash[0] ? BATCH_MARKER_NONE
-                                               : batch_marker_state(c, &c->frames[i]);
+        batch_marker m =
+            c->frames[i].clash[0] ? BATCH_MARKER_NONE : batch_marker_state(c, &c->frames[i]);
         s->replaced += m == BATCH_MARKER_OTHER;
         if (resume && m == BATCH_MARKER_SAME) {
             char dir[BATCH_PATH * 2];
@@ -427,8 +427,8 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
     c->outdir = o->outdir;
     recorded_command(argc, argv, c->command_line, sizeof c->command_line);
     settings_text(a, o, c->settings, sizeof c->settings);
-    if ((rc = batch_list(c->indir, ro->recursive, ro->pattern, o->cfg.seed, &c->frames,
-                         &c->nframes, &c->skipped)) != 0)
+    if ((rc = batch_list(c->indir, ro->recursive, ro->pattern, o->cfg.seed, &c->frames, &c->nframes,
+                         &c->skipped)) != 0)
         return rc;
     if (c->nframes == 0)
         return cli_error("%s: no PNG or TIFF frames found%s%s%s%s%s", c->indir,
