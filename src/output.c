@@ -216,6 +216,20 @@ static void json_mtc(FILE *f, const pp_sampler *s)
     json_chain_moves(f, s);
 }
 
+/* The run's headline figures (pp_sampler_convergence), under one key that
+ * batch reads back exactly when it resumes. */
+static void json_convergence(FILE *f, const pp_sampler *s)
+{
+    pp_convergence cv;
+    pp_sampler_convergence(s, &cv);
+    fputs("  \"convergence\": {\"rhat_max\": ", f);
+    json_number(f, cv.rhat_max);
+    fputs(", \"ess_bulk_min\": ", f);
+    json_number(f, cv.ess_bulk_min);
+    fprintf(f, ", \"warnings\": %zu, \"converged\": %s},\n", cv.warnings,
+            cv.converged ? "true" : "false");
+}
+
 typedef struct png_scales {
     double mean_offset, mean_scale, sd_offset, sd_scale;
 } png_scales;
@@ -288,6 +302,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     if (c->kind == PP_SAMPLER_MTC && c->boundary != PP_BOUNDARY_PAD)
         json_mtc(f, s);
     json_diagnostics(f, s);
+    json_convergence(f, s);
     fputs("  \"warnings\": [", f);
     for (size_t i = 0; i < s->nwarnings; i++) {
         fputs(i ? ", " : "", f);

@@ -223,3 +223,18 @@ pp_status pp_sampler_diagnose(pp_sampler *s)
 const pp_diag_scalar *pp_sampler_diagnostics(const pp_sampler *s) { return s->diag; }
 const pp_image *pp_sampler_rhat_map(const pp_sampler *s) { return s->rhat_map; }
 const pp_image *pp_sampler_mcse_map(const pp_sampler *s) { return s->mcse_map; }
+
+void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out)
+{
+    out->rhat_max = NAN;
+    out->ess_bulk_min = NAN;
+    out->warnings = s->nwarnings;
+    out->converged = s->nwarnings == 0;
+    for (size_t j = 0; s->diag && j < s->trace.ncols; j++) {
+        const pp_diag_scalar *d = &s->diag[j];
+        if (isfinite(d->rhat) && !(d->rhat <= out->rhat_max))
+            out->rhat_max = d->rhat;
+        if (isfinite(d->ess_bulk) && !(d->ess_bulk >= out->ess_bulk_min))
+            out->ess_bulk_min = d->ess_bulk;
+    }
+}

@@ -11,9 +11,13 @@ zero-byte .tif. Checks:
   every frame complete and every output file byte-identical to an
   uninterrupted run (summary.json compared with its "timing" entry
   and per-second rates removed), and no stray temporary files;
+* the manifest's worst R-hat, lowest bulk-ESS, warnings and converged
+  columns agree with each frame's summary.json (tests/ref_batch_verdicts.py
+  checks them on well-converged and unconverged frames, and --strict);
 * --jobs 1 (the killed-and-resumed run) vs --jobs 2 (the reference run),
   and --shard 1/2 + 2/2 then --merge: byte-identical mean.tif per frame;
-* --resume skips a complete frame only when the settings are unchanged;
+* --resume skips a complete frame only when the settings are unchanged, and
+  replaces one made with other settings only with --overwrite;
 * an OUTDIR inside INDIR is refused (exit 1) and INDIR is never modified.
 Byte identity needs no tolerance: a frame's seed is a hash of --seed and its
 relative path, and the sampler's results do not depend on thread counts.
@@ -102,20 +106,6 @@ def strip_timing(node):
     return node
 
 
-def numbers_under(node, want):
-    """Every number stored under a key for which want(key) is true."""
-    out = []
-    if isinstance(node, dict):
-        for k, v in node.items():
-            if want(k) and isinstance(v, (int, float)):
-                out.append(float(v))
-            out += numbers_under(v, want)
-    elif isinstance(node, list):
-        for v in node:
-            out += numbers_under(v, want)
-    return out
-
-
 # ---- reference run: --jobs 2, uninterrupted ---------------------------------
 A = os.path.join(tmp, "A")
 os.makedirs(A)
@@ -142,15 +132,19 @@ for o in OUTPUTS:
     pptest.check(abs(float(by_out[o]["lambda_mean"]) - s["hyper"]["lambda"]["mean"]) <=
                  1e-9 * abs(s["hyper"]["lambda"]["mean"]),
                  "%s: manifest lambda mean equals summary.json's" % o)
-    rh = numbers_under(s, lambda k: "rhat" in k)
-    es = numbers_under(s, lambda k: (k == "ess" or k.startswith("ess_") or k.endswith("_ess"))
-                       and "per" not in k)
+    # the worst R-hat and lowest bulk-ESS over the trace columns, from the JSON
+    sc = s["diagnostics"]["scalars"].values()
+    rh = [v["rhat"] for v in sc if v["rhat"] is not None]
+    es = [v["ess_bulk"] for v in sc if v["ess_bulk"] is not None]
     pptest.check((not rh and by_out[o]["rhat_max"] == "") or
                  (rh and abs(float(by_out[o]["rhat_max"]) - max(rh)) <= 1e-9 * max(rh)),
-                 "%s: manifest worst R-hat is the largest R-hat in summary.json (%s)" % (o, by_out[o]["rhat_max"]))
-    pptest.check((not es and by_out[o]["ess_min"] == "") or
-                 (es and abs(float(by_out[o]["ess_min"]) - min(es)) <= 1e-9 * min(es)),
-                 "%s: manifest lowest ESS is the smallest ESS in summary.json (%s)" % (o, by_out[o]["ess_min"]))
+                 "%s: manifest worst R-hat is the largest R-hat of summary.json's scalars (%s)" % (o, by_out[o]["rhat_max"]))
+    pptest.check((not es and by_out[o]["ess_bulk_min"] == "") or
+                 (es and abs(float(by_out[o]["ess_bulk_min"]) - min(es)) <= 1e-9 * min(es)),
+                 "%s: manifest lowest bulk-ESS is the smallest of summary.json's scalars (%s)" % (o, by_out[o]["ess_bulk_min"]))
+    pptest.check(by_out[o]["warnings"] == str(len(s["warnings"])) and
+                 by_out[o]["converged"] == ("false" if s["warnings"] else "true"),
+                 "%s: manifest warnings and converged agree with summary.json's warnings" % o)
 js = json.load(open(os.path.join(A, "out", "index.json")))
 pptest.check([f["output"] for f in js["frames"]] == [r["output"] for r in rows] and
              js["counts"]["done"] == len(OUTPUTS) and js["counts"]["failed"] == len(BAD),
@@ -238,9 +232,14 @@ pptest.check(p.returncode == 0 and [x["status"] for x in r] == ["skipped"],
 opts12 = ["12" if v == "11" else v for v in OPTS]
 p = subprocess.run([pptest.BIN, "batch", indir, "-o", "out"] + opts12 + ["--resume", "--pattern", "a01.png"],
                    cwd=B, capture_output=True, text=True)
+pptest.check(p.returncode == 1 and "1 finished frame was made with other settings" in p.stderr and
+             "--overwrite" in p.stderr,
+             "--resume after --seed changed: refused without --overwrite (%r)" % p.stderr.strip())
+p = subprocess.run([pptest.BIN, "batch", indir, "-o", "out"] + opts12 +
+                   ["--resume", "--overwrite", "--pattern", "a01.png"], cwd=B, capture_output=True, text=True)
 r = read_csv(os.path.join(B, "out", "index.csv"))
 pptest.check(p.returncode == 0 and [x["status"] for x in r] == ["done"],
-             "--resume redoes a frame when --seed changed (%s)" % [x["status"] for x in r])
+             "--resume --overwrite redoes a frame when --seed changed (%s)" % [x["status"] for x in r])
 
 # ---- shards 1/2 + 2/2, merged -------------------------------------------------
 S = os.path.join(tmp, "S")

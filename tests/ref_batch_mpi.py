@@ -12,9 +12,14 @@ frames written by Pillow/tifffile (one a 2-page TIFF) plus a text file named
 .png; checks exit 2, one manifest with every frame, the bad one failed, and
 mean.tif of every frame byte-identical to a plain (non-MPI, forked-worker)
 run of the same binary: a frame's seed is a hash of --seed and its path, so
-which rank ran it must not matter (exact, no tolerance).
+which rank ran it must not matter (exact, no tolerance). Also: the rows the
+workers send carry each frame's warning count; --strict with 30 iterations
+(every frame unconverged) marks them failed-strict through the ranks; a
+refusal on rank 0 (frames made with other settings, no --overwrite) exits 1
+and lets the worker ranks end.
 """
 import csv
+import json
 import os
 import shutil
 import subprocess
@@ -52,8 +57,8 @@ with tifffile.TiffWriter(os.path.join(indir, "stack.tif")) as w:  # tifffile: 2 
         w.write((400 + 50 * rng.random((32, 32))).astype(np.float32), photometric="minisblack")
 open(os.path.join(indir, "notes.png"), "w").write("not an image\n")
 OUTPUTS = ["f0", "f1", "f2", "f3", "stack_p1", "stack_p2"]
-OPTS = ["--psf", "gaussian:sigma=1.5", "--chains", "2", "--burn", "30", "--iters", "200", "--seed", "5",
-        "--quiet"]
+BASE = ["--psf", "gaussian:sigma=1.5", "--chains", "2", "--burn", "30", "--seed", "5", "--quiet"]
+OPTS = BASE + ["--iters", "200"]
 
 env = dict(os.environ, OMPI_ALLOW_RUN_AS_ROOT="1", OMPI_ALLOW_RUN_AS_ROOT_CONFIRM="1",
            OMPI_MCA_rmaps_base_oversubscribe="1")
@@ -71,4 +76,23 @@ pptest.check(len(rows) == 7 and all(st.get(o) == "done" for o in OUTPUTS) and st
 same = [open(os.path.join(tmp, "mpi", o, "mean.tif"), "rb").read() ==
         open(os.path.join(tmp, "plain", o, "mean.tif"), "rb").read() for o in OUTPUTS]
 pptest.check(all(same), "mean.tif byte-identical between the 3-rank and the plain run (%s)" % same)
+pptest.check(all(r["warnings"] == str(len(json.load(open(os.path.join(tmp, "mpi", r["output"], "summary.json")))["warnings"]))
+                 for r in rows if r["status"] == "done"),
+             "the workers' rows carry each frame's warning count (as its summary.json)")
+
+# --strict through the ranks: 30 iterations leave every frame unconverged
+strict = subprocess.run([mpirun, "--oversubscribe", "-n", "3", pptest.BIN, "batch", indir, "-o",
+                         os.path.join(tmp, "strict")] + BASE + ["--iters", "30", "--strict"],
+                        capture_output=True, text=True, env=env)
+st = {r["output"]: r["status"] for r in csv.DictReader(open(os.path.join(tmp, "strict", "index.csv"), newline=""))}
+pptest.check(strict.returncode == 2 and all(st.get(o) == "failed-strict" for o in OUTPUTS),
+             "3-rank --strict: unconverged frames failed-strict, exit 2 for the bad frame (got %d: %s)"
+             % (strict.returncode, st))
+# a refusal on rank 0 (frames made with other settings) releases the worker ranks
+again = subprocess.run([mpirun, "--oversubscribe", "-n", "3", pptest.BIN, "batch", indir, "-o",
+                        os.path.join(tmp, "strict")] + BASE + ["--iters", "31"],
+                       capture_output=True, text=True, env=env)
+pptest.check(again.returncode == 1 and "--overwrite" in again.stderr,
+             "3-rank run over frames made with other settings: refused, exit 1, the ranks end (%r)"
+             % again.stderr[-300:])
 pptest.done()

@@ -141,4 +141,21 @@ double pp_sampler_seconds(const pp_sampler *s);
 size_t pp_sampler_warning_count(const pp_sampler *s);
 const char *pp_sampler_warning(const pp_sampler *s, size_t i);
 
+/* A run's headline convergence figures: what `sample` prints, what
+ * summary.json records under "convergence" and what a batch manifest lists.
+ * rhat_max is the worst R-hat and ess_bulk_min the lowest bulk-ESS over
+ * every trace column (lambda, delta, log-likelihood, probe pixels; NaN
+ * columns ignored; NaN when no column has a finite value, e.g. before a
+ * successful run or with too few kept draws); warnings is
+ * pp_sampler_warning_count(s); converged is 1 exactly when warnings is 0
+ * (so `--strict` fails exactly the runs that are not converged).
+ * Cost: one pass over the trace columns. */
+typedef struct pp_convergence {
+    double rhat_max;
+    double ess_bulk_min;
+    size_t warnings;
+    int converged;
+} pp_convergence;
+void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out);
+
 #endif

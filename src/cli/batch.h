@@ -28,8 +28,10 @@ typedef enum batch_status {
     BATCH_PENDING = 0, /* not finished (yet) */
     BATCH_DONE,
     BATCH_FAILED,
-    BATCH_SKIPPED /* --resume found it complete with the same settings */
+    BATCH_SKIPPED,      /* --resume found it complete with the same settings */
+    BATCH_FAILED_STRICT /* outputs written, but convergence warnings under --strict */
 } batch_status;
+#define BATCH_NSTATUS 5
 
 /* One manifest row. A plain struct so workers can send it through a pipe or
  * an MPI message as bytes. NaN numbers are written as empty fields. */
@@ -38,9 +40,20 @@ typedef struct batch_row {
     char output[BATCH_PATH]; /* stem */
     int page;                /* 1-based page, 0 when the file has one page */
     int status;              /* batch_status */
-    double seconds, lambda_mean, delta_mean, rhat_max, ess_min;
+    double seconds, lambda_mean, delta_mean;
+    double rhat_max, ess_bulk_min; /* pp_convergence of the run */
+    int warnings;                  /* pp_convergence: count, -1 unknown */
+    int converged;                 /* pp_convergence: 1, 0, or -1 unknown */
     char message[BATCH_MSG];
 } batch_row;
+
+/* What the listing left out because of its type: files that are not
+ * PNG/TIFF by name, and subfolders when not recursive (hidden names and
+ * names that --pattern leaves out are not counted). */
+typedef struct batch_skipped {
+    size_t count;
+    char names[BATCH_MSG]; /* "a.jpg, notes.txt, sub/, and 4 more" (sorted) */
+} batch_skipped;
 
 /* Everything a worker needs to run a frame; identical on every rank. */
 typedef struct batch_ctx {
@@ -51,13 +64,15 @@ typedef struct batch_ctx {
     int threads_per_frame;
     char command_line[8192]; /* recorded in every summary.json */
     char settings[4096];     /* canonical text of the result-changing options */
+    batch_skipped skipped;   /* entries of indir that are not frames */
 } batch_ctx;
 
 /* ---- batch_list.c ---- */
 /* Lists the frames of indir (sorted; recursive; pattern NULL = all PNG/TIFF
- * names). *out is malloc'ed (caller frees). Returns 0 or CLI_EXIT_USAGE. */
+ * names). *out is malloc'ed (caller frees); *skipped says what was left out
+ * by type. Returns 0 or CLI_EXIT_USAGE. */
 int batch_list(const char *indir, int recursive, const char *pattern, uint64_t seed,
-               batch_frame **out, size_t *n);
+               batch_frame **out, size_t *n, batch_skipped *skipped);
 /* Refuses an outdir that is indir or inside it (symlinks resolved). */
 int batch_check_outdir(const char *indir, const char *outdir);
 
@@ -66,15 +81,27 @@ const char *batch_status_name(int status);
 /* The hash of the settings text, the frame's key and its input file's size
  * and modification time: what the .done marker holds. */
 uint64_t batch_settings_hash(const batch_ctx *c, const batch_frame *f);
-/* 1 if OUTDIR/<stem>/.done exists and holds this settings hash. */
-int batch_is_complete(const batch_ctx *c, const batch_frame *f);
+/* What OUTDIR/<stem>/.done says about the frame. */
+typedef enum batch_marker {
+    BATCH_MARKER_NONE = 0, /* no marker: not finished */
+    BATCH_MARKER_SAME,     /* finished with these settings and this input */
+    BATCH_MARKER_OTHER     /* finished, with other settings or another input */
+} batch_marker;
+batch_marker batch_marker_state(const batch_ctx *c, const batch_frame *f);
 /* Writes the marker (atomically). 0 or CLI_EXIT_USAGE with msg. */
 int batch_write_marker(const batch_ctx *c, const batch_frame *f, char *msg, size_t len);
 /* Removes the marker and leftover ".*.tmp.*" files of the frame's folder. */
 void batch_clean_folder(const char *dir);
-/* Fills lambda/delta means, worst R-hat and lowest ESS from summary.json
- * (NaN where absent). */
-void batch_read_summary(const char *dir, batch_row *r);
+/* Fills the lambda and delta means (and seconds when NaN) from dir's
+ * summary.json; with convergence != 0 also the run's headline figures from
+ * its "convergence" key (pp_convergence, written by pp_output_write); NaN
+ * or -1 where absent. */
+void batch_read_summary(const char *dir, int convergence, batch_row *r);
+/* Fills the row's convergence fields from the run's figures. */
+void batch_row_convergence(batch_row *r, const pp_convergence *cv);
+/* --strict: a complete row (done or skipped) that is not converged becomes
+ * BATCH_FAILED_STRICT with a message saying so. No-op otherwise. */
+void batch_apply_strict(const batch_ctx *c, batch_row *r);
 /* Writes base.csv and base.json in outdir (each atomically). */
 int batch_write_manifest(const char *outdir, const char *base, const batch_row *rows, size_t n,
                          const char *indir, const char *shard);

@@ -53,10 +53,16 @@ void batch_do_frame(const batch_ctx *c, size_t i, batch_row *r)
     fr.seed = f->seed;
     fr.threads = c->threads_per_frame;
     fr.command_line = c->command_line;
-    fr.progress = CLI_PROGRESS_NONE;
+    /* A frame's own progress: a line per 10 % naming it (bars of several
+     * processes would overwrite each other). */
+    fr.progress = c->opts->progress == CLI_PROGRESS_NONE ? CLI_PROGRESS_NONE : CLI_PROGRESS_PLAIN;
+    fr.label = f->stem;
     fr.stop = cli_stop_flag();
     clock_gettime(CLOCK_MONOTONIC, &fr.t0);
     int rc = cli_run_frame(c->opts, &fr);
+    pp_convergence cv;
+    if (!rc)
+        pp_sampler_convergence(fr.sampler, &cv); /* the figures summary.json holds */
     pp_sampler_free(fr.sampler);
     if (!rc)
         rc = batch_write_marker(c, f, fr.message, sizeof fr.message);
@@ -67,7 +73,9 @@ void batch_do_frame(const batch_ctx *c, size_t i, batch_row *r)
         return;
     }
     r->status = BATCH_DONE;
-    batch_read_summary(out, r);
+    batch_read_summary(out, 0, r);
+    batch_row_convergence(r, &cv);
+    batch_apply_strict(c, r);
 }
 
 int batch_spawn(const batch_ctx *c, size_t i, batch_child *ch)

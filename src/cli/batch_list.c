@@ -6,6 +6,8 @@
  * list. A multi-page TIFF becomes one frame per page, output "<stem>_p<k>"
  * with k counted from 1. Two frames with the same output folder (a.png and
  * a.tif) are both marked as clashing rather than silently overwriting.
+ * What is left out because of its type (other extensions; subfolders
+ * without --recursive) is counted and named, for batch to say so once.
  * Cost: one readdir per folder and one TIFF directory count per TIFF file.
  */
 #include "batch.h"
@@ -39,8 +41,6 @@ static int frame_ext(const char *name)
 
 static int wanted(const char *rel, const char *name, const char *pattern)
 {
-    if (!frame_ext(name))
-        return 0;
     if (!pattern)
         return 1;
     return fnmatch(pattern, strchr(pattern, '/') ? rel : name, 0) == 0;
@@ -60,8 +60,9 @@ static int push(name_list *l, const char *rel)
     return 0;
 }
 
+/* Frames go to l; entries left out by type to skip (folders with '/'). */
 static int walk(const char *root, const char *sub, int recursive, const char *pattern, name_list *l,
-                int depth)
+                name_list *skip, int depth)
 {
     char dir[BATCH_PATH * 2];
     snprintf(dir, sizeof dir, "%s%s%s", root, sub[0] ? "/" : "", sub);
@@ -83,10 +84,17 @@ static int walk(const char *root, const char *sub, int recursive, const char *pa
         struct stat sb;
         if (stat(full, &sb) != 0)
             continue; /* a dangling link: not a frame */
-        if (S_ISDIR(sb.st_mode) && recursive && depth < 64)
-            rc = walk(root, rel, recursive, pattern, l, depth + 1);
-        else if (S_ISREG(sb.st_mode) && wanted(rel, e->d_name, pattern))
+        if (S_ISDIR(sb.st_mode) && recursive && depth < 64) {
+            rc = walk(root, rel, recursive, pattern, l, skip, depth + 1);
+        } else if (S_ISDIR(sb.st_mode)) {
+            char dirname[BATCH_PATH];
+            snprintf(dirname, sizeof dirname, "%.*s/", BATCH_PATH - 2, rel);
+            rc = push(skip, dirname);
+        } else if (!frame_ext(e->d_name)) {
+            rc = push(skip, rel);
+        } else if (S_ISREG(sb.st_mode) && wanted(rel, e->d_name, pattern)) {
             rc = push(l, rel);
+        }
     }
     closedir(d);
     return rc;
@@ -191,18 +199,43 @@ static int expand_pages(const char *indir, const name_list *l, uint64_t seed, ba
     return mark_clashes(f, total);
 }
 
+/* "a.jpg, notes.txt, sub/ (a folder: add --recursive), and 4 more". */
+static void describe_skipped(name_list *skip, int recursive, batch_skipped *out)
+{
+    enum { SHOWN = 8 };
+    qsort(skip->v, skip->n, sizeof *skip->v, cmp_name);
+    out->count = skip->n;
+    out->names[0] = '\0';
+    size_t used = 0, folders = 0;
+    for (size_t i = 0; i < skip->n; i++) {
+        const char *name = skip->v[i];
+        folders += name[strlen(name) - 1] == '/';
+        if (i < SHOWN && used < sizeof out->names)
+            used += (size_t)snprintf(out->names + used, sizeof out->names - used, "%s%.200s",
+                                     i ? ", " : "", name);
+    }
+    if (skip->n > SHOWN && used < sizeof out->names)
+        used += (size_t)snprintf(out->names + used, sizeof out->names - used, ", and %zu more",
+                                 skip->n - SHOWN);
+    if (folders && !recursive && used < sizeof out->names)
+        snprintf(out->names + used, sizeof out->names - used,
+                 " (names ending in / are folders: add --recursive to take their frames)");
+}
+
 int batch_list(const char *indir, int recursive, const char *pattern, uint64_t seed,
-               batch_frame **out, size_t *n)
+               batch_frame **out, size_t *n, batch_skipped *skipped)
 {
     *out = NULL;
     *n = 0;
-    name_list l = {NULL, 0, 0};
-    int rc = walk(indir, "", recursive, pattern, &l, 0);
+    name_list l = {NULL, 0, 0}, skip = {NULL, 0, 0};
+    int rc = walk(indir, "", recursive, pattern, &l, &skip, 0);
     if (!rc) {
+        describe_skipped(&skip, recursive, skipped);
         qsort(l.v, l.n, sizeof *l.v, cmp_name);
         rc = expand_pages(indir, &l, seed, out, n);
     }
     free(l.v);
+    free(skip.v);
     return rc;
 }
 

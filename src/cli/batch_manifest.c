@@ -32,6 +32,8 @@ const char *batch_status_name(int status)
         return "failed";
     case BATCH_SKIPPED:
         return "skipped";
+    case BATCH_FAILED_STRICT:
+        return "failed-strict";
     default:
         return "pending";
     }
@@ -44,7 +46,28 @@ void batch_row_init(batch_row *r, const batch_frame *f)
     snprintf(r->output, sizeof r->output, "%s", f->stem);
     r->page = f->pages > 1 ? (int)f->page + 1 : 0;
     r->status = BATCH_PENDING;
-    r->seconds = r->lambda_mean = r->delta_mean = r->rhat_max = r->ess_min = NAN;
+    r->seconds = r->lambda_mean = r->delta_mean = r->rhat_max = r->ess_bulk_min = NAN;
+    r->warnings = r->converged = -1;
+}
+
+void batch_row_convergence(batch_row *r, const pp_convergence *cv)
+{
+    r->rhat_max = cv->rhat_max;
+    r->ess_bulk_min = cv->ess_bulk_min;
+    r->warnings = (int)cv->warnings;
+    r->converged = cv->converged;
+}
+
+void batch_apply_strict(const batch_ctx *c, batch_row *r)
+{
+    if (!c->opts->strict || r->converged != 0 ||
+        (r->status != BATCH_DONE && r->status != BATCH_SKIPPED))
+        return;
+    snprintf(r->message, sizeof r->message,
+             "%d convergence warning%s under --strict (outputs written; the warnings are in "
+             "%.600s/summary.json)",
+             r->warnings, r->warnings == 1 ? "" : "s", r->output);
+    r->status = BATCH_FAILED_STRICT;
 }
 
 /* ---- atomic text files ---- */
@@ -99,19 +122,19 @@ static void marker_path(const batch_ctx *c, const batch_frame *f, char *buf, siz
     snprintf(buf, len, "%s/%s/%s", c->outdir, f->stem, marker_name);
 }
 
-int batch_is_complete(const batch_ctx *c, const batch_frame *f)
+batch_marker batch_marker_state(const batch_ctx *c, const batch_frame *f)
 {
     char path[BATCH_PATH * 2], want[64], got[128] = "";
     marker_path(c, f, path, sizeof path);
     FILE *fp = fopen(path, "r");
     if (!fp)
-        return 0;
+        return BATCH_MARKER_NONE;
     size_t n = fread(got, 1, sizeof got - 1, fp);
     got[n] = '\0';
     fclose(fp);
     snprintf(want, sizeof want, "settings %016llx\n",
              (unsigned long long)batch_settings_hash(c, f));
-    return strstr(got, want) != NULL;
+    return strstr(got, want) ? BATCH_MARKER_SAME : BATCH_MARKER_OTHER;
 }
 
 int batch_write_marker(const batch_ctx *c, const batch_frame *f, char *msg, size_t len)
@@ -158,37 +181,25 @@ static double number_after(const char *text, const char *pattern)
     return end == p + strlen(pattern) ? NAN : v;
 }
 
-/* Worst R-hat (max over keys holding "rhat") and lowest ESS (min over keys
- * "ess", "ess_*" or "*_ess", not rates such as ess_per_second). */
-static void scan_diagnostics(const char *text, batch_row *r)
+/* The "convergence" object written by pp_output_write, read by its exact
+ * keys in their written order. */
+static void read_convergence(const char *text, batch_row *r)
 {
-    for (const char *p = strchr(text, '"'); p; p = strchr(p + 1, '"')) {
-        const char *q = strchr(p + 1, '"');
-        if (!q)
-            break;
-        char key[64];
-        size_t n = (size_t)(q - p - 1);
-        if (n == 0 || n >= sizeof key || q[1] != ':') {
-            p = q;
-            continue;
-        }
-        memcpy(key, p + 1, n);
-        key[n] = '\0';
-        char *end;
-        double v = strtod(q + 2, &end);
-        int num = end != q + 2 && isfinite(v);
-        int rhat = strstr(key, "rhat") || strstr(key, "r_hat");
-        int ess = !strstr(key, "per") && (strcmp(key, "ess") == 0 || strncmp(key, "ess_", 4) == 0 ||
-                                          (n > 4 && strcmp(key + n - 4, "_ess") == 0));
-        if (num && rhat && !(v <= r->rhat_max))
-            r->rhat_max = v;
-        if (num && ess && !(v >= r->ess_min))
-            r->ess_min = v;
-        p = q;
-    }
+    const char *p = strstr(text, "\n  \"convergence\": {");
+    if (!p)
+        return;
+    r->rhat_max = number_after(p, "{\"rhat_max\": ");
+    r->ess_bulk_min = number_after(p, ", \"ess_bulk_min\": ");
+    double w = number_after(p, ", \"warnings\": ");
+    const char *cv = strstr(p, ", \"converged\": ");
+    if (!isfinite(w) || !cv)
+        return;
+    r->warnings = (int)w;
+    cv += strlen(", \"converged\": ");
+    r->converged = strncmp(cv, "true", 4) == 0 ? 1 : strncmp(cv, "false", 5) == 0 ? 0 : -1;
 }
 
-void batch_read_summary(const char *dir, batch_row *r)
+void batch_read_summary(const char *dir, int convergence, batch_row *r)
 {
     char path[BATCH_PATH * 3];
     snprintf(path, sizeof path, "%s/summary.json", dir);
@@ -204,7 +215,8 @@ void batch_read_summary(const char *dir, batch_row *r)
         r->delta_mean = number_after(text, "\"delta\": {\"mean\": ");
         if (!isfinite(r->seconds))
             r->seconds = number_after(text, "\"seconds_total\": ");
-        scan_diagnostics(text, r);
+        if (convergence)
+            read_convergence(text, r);
     }
     free(text);
     fclose(f);
@@ -230,9 +242,13 @@ static void csv_num(FILE *f, double v)
         fprintf(f, "%.10g", v);
 }
 
+static const char csv_header[] = "path,page,output,status,seconds,lambda_mean,delta_mean,"
+                                 "rhat_max,ess_bulk_min,warnings,converged,message\n";
+#define CSV_FIELDS 12
+
 static void write_csv(FILE *f, const batch_row *rows, size_t n)
 {
-    fputs("path,page,output,status,seconds,lambda_mean,delta_mean,rhat_max,ess_min,message\n", f);
+    fputs(csv_header, f);
     for (size_t i = 0; i < n; i++) {
         const batch_row *r = &rows[i];
         csv_text(f, r->path);
@@ -246,8 +262,9 @@ static void write_csv(FILE *f, const batch_row *rows, size_t n)
         csv_num(f, r->lambda_mean);
         csv_num(f, r->delta_mean);
         csv_num(f, r->rhat_max);
-        csv_num(f, r->ess_min);
-        fputc(',', f);
+        csv_num(f, r->ess_bulk_min);
+        csv_num(f, r->warnings >= 0 ? r->warnings : NAN);
+        fputs(r->converged > 0 ? ",true," : r->converged == 0 ? ",false," : ",,", f);
         csv_text(f, r->message);
         fputc('\n', f);
     }
@@ -265,9 +282,9 @@ static void json_num(FILE *f, const char *key, double v)
 static void write_json(FILE *f, const batch_row *rows, size_t n, const char *indir,
                        const char *shard)
 {
-    size_t count[4] = {0, 0, 0, 0};
+    size_t count[BATCH_NSTATUS] = {0};
     for (size_t i = 0; i < n; i++)
-        count[rows[i].status & 3]++;
+        count[rows[i].status]++;
     fputs("{\n  \"input\": ", f);
     pp_json_write_string(f, indir);
     fputs(",\n  \"shard\": ", f);
@@ -276,9 +293,10 @@ static void write_json(FILE *f, const batch_row *rows, size_t n, const char *ind
     else
         fputs("null", f);
     fprintf(f,
-            ",\n  \"counts\": {\"done\": %zu, \"failed\": %zu, \"skipped\": %zu, "
-            "\"pending\": %zu},\n  \"frames\": [",
-            count[BATCH_DONE], count[BATCH_FAILED], count[BATCH_SKIPPED], count[BATCH_PENDING]);
+            ",\n  \"counts\": {\"done\": %zu, \"failed\": %zu, \"failed_strict\": %zu, "
+            "\"skipped\": %zu, \"pending\": %zu},\n  \"frames\": [",
+            count[BATCH_DONE], count[BATCH_FAILED], count[BATCH_FAILED_STRICT],
+            count[BATCH_SKIPPED], count[BATCH_PENDING]);
     for (size_t i = 0; i < n; i++) {
         const batch_row *r = &rows[i];
         fputs(i ? ",\n    {\"path\": " : "\n    {\"path\": ", f);
@@ -294,7 +312,12 @@ static void write_json(FILE *f, const batch_row *rows, size_t n, const char *ind
         json_num(f, "lambda_mean", r->lambda_mean);
         json_num(f, "delta_mean", r->delta_mean);
         json_num(f, "rhat_max", r->rhat_max);
-        json_num(f, "ess_min", r->ess_min);
+        json_num(f, "ess_bulk_min", r->ess_bulk_min);
+        json_num(f, "warnings", r->warnings >= 0 ? r->warnings : NAN);
+        fprintf(f, ", \"converged\": %s",
+                r->converged > 0    ? "true"
+                : r->converged == 0 ? "false"
+                                    : "null");
         fputs(", \"message\": ", f);
         pp_json_write_string(f, r->message);
         fputc('}', f);
@@ -358,7 +381,7 @@ static double field_num(const char *s)
 
 static int parse_status(const char *s)
 {
-    for (int k = 0; k < 4; k++)
+    for (int k = 0; k < BATCH_NSTATUS; k++)
         if (strcmp(s, batch_status_name(k)) == 0)
             return k;
     return -1;
@@ -366,9 +389,9 @@ static int parse_status(const char *s)
 
 static int parse_line(const char *line, batch_row *r)
 {
-    char f[10][BATCH_MSG];
+    char f[CSV_FIELDS][BATCH_MSG];
     const char *p = line;
-    for (int k = 0; k < 10; k++)
+    for (int k = 0; k < CSV_FIELDS; k++)
         csv_field(&p, f[k], sizeof f[k]);
     memset(r, 0, sizeof *r);
     snprintf(r->path, sizeof r->path, "%s", f[0]);
@@ -379,8 +402,11 @@ static int parse_line(const char *line, batch_row *r)
     r->lambda_mean = field_num(f[5]);
     r->delta_mean = field_num(f[6]);
     r->rhat_max = field_num(f[7]);
-    r->ess_min = field_num(f[8]);
-    snprintf(r->message, sizeof r->message, "%s", f[9]);
+    r->ess_bulk_min = field_num(f[8]);
+    double w = field_num(f[9]);
+    r->warnings = isfinite(w) ? (int)w : -1;
+    r->converged = strcmp(f[10], "true") == 0 ? 1 : strcmp(f[10], "false") == 0 ? 0 : -1;
+    snprintf(r->message, sizeof r->message, "%s", f[11]);
     return r->status < 0 || !r->path[0] ? -1 : 0;
 }
 
@@ -393,8 +419,15 @@ int batch_read_csv(const char *path, batch_row **rows, size_t *n)
     char *line = malloc(line_max);
     int rc = line ? 0 : cli_error("batch: out of memory");
     for (size_t no = 1; !rc && fgets(line, (int)line_max, f); no++) {
-        if (no == 1)
-            continue; /* header */
+        if (no == 1) {
+            if (strcmp(line, csv_header) != 0) {
+                rc = cli_error("%s: not a manifest of this pixpost version (its first line is "
+                               "not the expected header); rerun that shard",
+                               path);
+                break;
+            }
+            continue;
+        }
         batch_row r;
         if (parse_line(line, &r) != 0) {
             rc = cli_error("%s: line %zu is not a manifest row (a damaged or foreign file)", path,

@@ -172,6 +172,7 @@ typedef struct cli_frame_run {
     int threads;              /* replaces o->cfg.threads */
     const char *command_line; /* recorded in summary.json; may be NULL */
     cli_progress progress;    /* AUTO: bar on a terminal, else none */
+    const char *label;        /* may be NULL; names the frame in plain progress lines */
     const volatile sig_atomic_t *stop; /* may be NULL */
     int announce_pages;       /* print "N pages; using page P" (sample) */
     int install_signals;      /* SIGINT/SIGTERM set the stop flag while sampling */

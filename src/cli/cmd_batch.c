@@ -7,8 +7,8 @@
  * Reproducibility contract: a frame's seed is pp_hash_string(--seed, its
  * relative path [+ "#p<page>"]), its thread count does not change results,
  * and the command recorded in its summary.json leaves out the options that
- * only steer the run (--jobs, --shard, --resume, --threads, --quiet,
- * --progress). So a frame's outputs are byte-identical (timings aside)
+ * only steer the run (--jobs, --shard, --resume, --overwrite, --strict,
+ * --threads, --quiet, --progress). So a frame's outputs are byte-identical (timings aside)
  * whatever the order, jobs, shards, ranks or interruptions.
  *
  * Cost: listing (one readdir per folder) and one manifest rewrite per
@@ -32,7 +32,8 @@ static const cli_opt batch_table[] = {
      "to shard (i mod N) + 1. Writes index.shard-K-of-N.csv/json instead of index.csv/json."},
     {"resume", 0, 0, "",
      "Skip frames whose folder holds a completion marker made with the same settings and "
-     "input; redo the others (leftover temporary files are removed)."},
+     "input; redo the others (leftover temporary files are removed). Finished frames made "
+     "with other settings or from a changed input are replaced only with --overwrite."},
     {"recursive", 0, 0, "", "Also take frames from subfolders (outputs keep the tree)."},
     {"pattern", 0, 1, "GLOB",
      "Only frames whose file name matches GLOB (fnmatch; matched against the path relative "
@@ -47,7 +48,8 @@ static void batch_help(FILE *fp)
 {
     const cli_opt *tables[] = {batch_table, cli_sample_table(), NULL};
     fputs("Usage: pixpost batch INDIR -o OUTDIR --psf SPEC [sample options] [--jobs N]\n"
-          "                     [--shard K/N] [--resume] [--recursive] [--pattern GLOB]\n"
+          "                     [--shard K/N] [--resume] [--overwrite] [--strict]\n"
+          "                     [--recursive] [--pattern GLOB]\n"
           "       pixpost batch --merge OUTDIR\n"
           "       mpirun -n R pixpost batch ...   (MPI builds: rank 0 hands frames out)\n\n"
           "Samples every PNG/TIFF frame of INDIR (sorted by path; a multi-page TIFF gives one\n"
@@ -56,11 +58,18 @@ static void batch_help(FILE *fp)
           "completion marker .done last. Each frame's seed is a hash of --seed and its\n"
           "relative path, so results do not depend on order, jobs, shards or ranks.\n"
           "OUTDIR/index.csv and index.json list every frame (path, page, output, status\n"
-          "done/failed/skipped/pending, seconds, lambda and delta means, worst R-hat, lowest\n"
-          "ESS, message) and are rewritten atomically as frames finish. A frame that cannot\n"
-          "be read or crashes is recorded as failed and the others go on. --threads is the\n"
-          "total thread budget of the batch. SIGINT/SIGTERM: running frames stop without\n"
-          "writing, the manifest is updated, and the command to resume is printed.\n"
+          "done/failed/failed-strict/skipped/pending, seconds, lambda and delta means, worst\n"
+          "R-hat and lowest bulk-ESS over the trace columns, the number of convergence\n"
+          "warnings, converged true/false, message) and are rewritten atomically as frames\n"
+          "finish. A frame that cannot be read or crashes is recorded as failed and the\n"
+          "others go on; with --strict a frame with convergence warnings is failed-strict\n"
+          "(its outputs are written). Entries of INDIR that are not PNG/TIFF frames (and\n"
+          "subfolders without --recursive) are named once at the start. Each frame prints a\n"
+          "progress line per 10 % (unless --quiet or --progress none) and a last line\n"
+          "'done, N warnings'. A frame folder finished with other settings is replaced only\n"
+          "with --overwrite (otherwise nothing is done). --threads is the total thread\n"
+          "budget of the batch. SIGINT/SIGTERM: running frames stop without writing, the\n"
+          "manifest is updated, and the command to resume is printed.\n"
           "OUTDIR may not be inside INDIR; nothing is ever written into INDIR. Under mpirun,\n"
           "--jobs is not used: each worker rank runs one frame at a time with --threads\n"
           "threads (default: cores / ranks on the node).\n\nOptions:\n",
@@ -69,7 +78,8 @@ static void batch_help(FILE *fp)
     fprintf(fp,
             "\nMPI support in this build: %s.\n"
             "Exit status: 0 all frames done or skipped; 1 bad usage or input; 2 some frames "
-            "failed;\n128+signal when stopped by SIGINT/SIGTERM (rerun with --resume).\n",
+            "failed;\n3 no frame failed but some had convergence warnings under --strict;\n"
+            "128+signal when stopped by SIGINT/SIGTERM (rerun with --resume).\n",
             cli_mpi_support());
 }
 
@@ -79,7 +89,8 @@ static int steering_option(const char *arg, int *with_value)
 {
     static const char *const valued[] = {"--jobs", "--shard", "--threads", "--progress"};
     *with_value = 0;
-    if (strcmp(arg, "--resume") == 0 || strcmp(arg, "--quiet") == 0)
+    if (strcmp(arg, "--resume") == 0 || strcmp(arg, "--quiet") == 0 ||
+        strcmp(arg, "--overwrite") == 0 || strcmp(arg, "--strict") == 0)
         return 1;
     for (size_t k = 0; k < sizeof valued / sizeof *valued; k++) {
         size_t n = strlen(valued[k]);
@@ -109,7 +120,8 @@ static void recorded_command(int argc, char **argv, char *buf, size_t len)
  * (table order, so canonical) except those that only steer the run. */
 static void settings_text(const cli_args *a, const cli_sample_opts *o, char *buf, size_t len)
 {
-    static const char *const steering[] = {"output", "quiet", "progress", "threads", "strict"};
+    static const char *const steering[] = {"output",  "quiet",  "progress",
+                                           "threads", "strict", "overwrite"};
     const pp_sampler_config *c = &o->cfg;
     char noise[256], prior[256];
     pp_noise_format(&c->noise, noise, sizeof noise);
@@ -148,6 +160,7 @@ typedef struct batch_state {
     batch_row *rows;   /* one per selected frame */
     size_t *sel;       /* selected frame indices, sorted */
     size_t nsel, finished, ntodo;
+    size_t replaced; /* finished frames made with other settings, to redo */
     int quiet;
     struct timespec last_write; /* of the manifest */
 } batch_state;
@@ -178,9 +191,15 @@ static void on_done(void *ctx, size_t idx, const batch_row *row)
         batch_write_manifest(s->c->outdir, s->base, s->rows, s->nsel, s->c->indir, s->shard);
         clock_gettime(CLOCK_MONOTONIC, &s->last_write);
     }
+    char warn[32] = "no warnings";
+    if (row->warnings > 0)
+        snprintf(warn, sizeof warn, "%d warning%s", row->warnings, row->warnings == 1 ? "" : "s");
     if (!s->quiet && row->status == BATCH_DONE)
-        fprintf(stderr, "pixpost: [%zu/%zu] %s: done in %.1f s\n", s->finished, s->ntodo,
-                row->output, row->seconds);
+        fprintf(stderr, "pixpost: [%zu/%zu] %s: done, %s (%.1f s)\n", s->finished, s->ntodo,
+                row->output, warn, row->seconds);
+    else if (!s->quiet && row->status == BATCH_FAILED_STRICT)
+        fprintf(stderr, "pixpost: [%zu/%zu] %s: FAILED under --strict: done, %s (%.1f s)\n",
+                s->finished, s->ntodo, row->output, warn, row->seconds);
     else if (!s->quiet)
         fprintf(stderr, "pixpost: [%zu/%zu] %s: FAILED: %s\n", s->finished, s->ntodo, row->output,
                 row->message);
@@ -222,11 +241,15 @@ static int plan(batch_state *s, unsigned k, unsigned n, int resume, size_t **tod
         batch_row *r = &s->rows[s->nsel];
         s->sel[s->nsel++] = i;
         batch_row_init(r, &c->frames[i]);
-        if (resume && !c->frames[i].clash[0] && batch_is_complete(c, &c->frames[i])) {
+        batch_marker m =
+            c->frames[i].clash[0] ? BATCH_MARKER_NONE : batch_marker_state(c, &c->frames[i]);
+        s->replaced += m == BATCH_MARKER_OTHER;
+        if (resume && m == BATCH_MARKER_SAME) {
             char dir[BATCH_PATH * 2];
             snprintf(dir, sizeof dir, "%s/%s", c->outdir, c->frames[i].stem);
             r->status = BATCH_SKIPPED;
-            batch_read_summary(dir, r);
+            batch_read_summary(dir, 1, r);
+            batch_apply_strict(c, r);
         } else {
             (*todo)[s->ntodo++] = i;
         }
@@ -236,17 +259,17 @@ static int plan(batch_state *s, unsigned k, unsigned n, int resume, size_t **tod
 
 static int verdict(const batch_state *s, int argc, char **argv)
 {
-    size_t count[4] = {0, 0, 0, 0};
+    size_t count[BATCH_NSTATUS] = {0};
     for (size_t i = 0; i < s->nsel; i++)
-        count[s->rows[i].status & 3]++;
+        count[s->rows[i].status]++;
     int sig = (int)*cli_stop_flag();
     if (!s->quiet || sig)
         fprintf(stderr,
-                "pixpost: batch %s%s%s: %zu done, %zu skipped, %zu failed, %zu not done; "
-                "manifest %s/%s.csv\n",
+                "pixpost: batch %s%s%s: %zu done, %zu skipped, %zu failed, %zu failed under "
+                "--strict, %zu not done; manifest %s/%s.csv\n",
                 s->c->outdir, s->shard ? " shard " : "", s->shard ? s->shard : "",
-                count[BATCH_DONE], count[BATCH_SKIPPED], count[BATCH_FAILED], count[BATCH_PENDING],
-                s->c->outdir, s->base);
+                count[BATCH_DONE], count[BATCH_SKIPPED], count[BATCH_FAILED],
+                count[BATCH_FAILED_STRICT], count[BATCH_PENDING], s->c->outdir, s->base);
     if (sig || count[BATCH_PENDING]) {
         char cmd[8192];
         size_t used = (size_t)snprintf(cmd, sizeof cmd, "pixpost");
@@ -256,7 +279,9 @@ static int verdict(const batch_state *s, int argc, char **argv)
         fprintf(stderr, "pixpost: stopped before the end; finish with:\n  %s --resume\n", cmd);
         return sig ? 128 + sig : CLI_EXIT_USAGE;
     }
-    return count[BATCH_FAILED] ? CLI_EXIT_BATCH : CLI_EXIT_OK;
+    return count[BATCH_FAILED]          ? CLI_EXIT_BATCH
+           : count[BATCH_FAILED_STRICT] ? CLI_EXIT_STRICT
+                                        : CLI_EXIT_OK;
 }
 
 /* ---- setup ---- */
@@ -306,9 +331,33 @@ static int mpi_threads(const cli_sample_opts *o)
 
 static int merge(const char *outdir);
 
+/* Before anything is written: what the listing left out, and finished
+ * frames made with other settings, which only --overwrite replaces. */
+static int announce(const batch_state *s)
+{
+    const batch_ctx *c = s->c;
+    if (s->replaced && !c->opts->overwrite)
+        return cli_error("%s: %zu finished frame%s made with other settings or from a changed "
+                         "input; add --overwrite to replace %s (or choose another -o)",
+                         c->outdir, s->replaced, s->replaced == 1 ? " was" : "s were",
+                         s->replaced == 1 ? "it" : "them");
+    if (s->quiet)
+        return 0;
+    if (c->skipped.count)
+        fprintf(stderr, "pixpost: %s: skipping %zu entr%s that %s not PNG/TIFF frames: %s\n",
+                c->indir, c->skipped.count, c->skipped.count == 1 ? "y" : "ies",
+                c->skipped.count == 1 ? "is" : "are", c->skipped.names);
+    if (s->replaced)
+        fprintf(stderr,
+                "pixpost: %s: redoing %zu finished frame%s made with other settings or from a "
+                "changed input (--overwrite)\n",
+                c->outdir, s->replaced, s->replaced == 1 ? "" : "s");
+    return 0;
+}
+
 static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **argv)
 {
-    int rank = 0, size = 1, rc = 0;
+    int rank = 0, size = 1, rc = 0, dispatched = 0;
     int mpi = batch_mpi_active(&rank, &size);
     if (mpi && size > 1 && rank > 0) {
         c->threads_per_frame = mpi_threads(c->opts);
@@ -320,10 +369,18 @@ static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **ar
     snprintf(base, sizeof base, sharded ? "index.shard-%u-of-%u" : "index", ro->shard_k,
              ro->shard_n);
     snprintf(shard, sizeof shard, "%u/%u", ro->shard_k, ro->shard_n);
-    batch_state s = {c, base, sharded ? shard : NULL, NULL, NULL, 0, 0, 0, c->opts->quiet, {0, 0}};
+    batch_state s;
+    memset(&s, 0, sizeof s);
+    s.c = c;
+    s.base = base;
+    s.shard = sharded ? shard : NULL;
+    s.quiet = c->opts->quiet;
     clock_gettime(CLOCK_MONOTONIC, &s.last_write);
     size_t *todo = NULL;
-    if ((rc = plan(&s, ro->shard_k, ro->shard_n, ro->resume, &todo)) == 0) {
+    rc = plan(&s, ro->shard_k, ro->shard_n, ro->resume, &todo);
+    if (!rc)
+        rc = announce(&s);
+    if (!rc) {
         clean_manifest_temps(c->outdir, base);
         int jobs = choose_jobs(ro, c->opts, s.ntodo, &c->threads_per_frame);
         rc = batch_write_manifest(c->outdir, base, s.rows, s.nsel, c->indir, s.shard);
@@ -333,6 +390,7 @@ static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **ar
                     mpi && size > 1 ? size - 1 : jobs, mpi && size > 1 ? "worker ranks" : "jobs",
                     mpi && size > 1 ? mpi_threads(c->opts) : c->threads_per_frame);
         cli_stop_install(0);
+        dispatched = !rc;
         if (!rc && mpi && size > 1)
             batch_mpi_manager(c, todo, s.ntodo, on_done, &s, size);
         else if (!rc)
@@ -343,6 +401,8 @@ static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **ar
             rc = verdict(&s, argc, argv);
         cli_stop_uninstall();
     }
+    if (mpi && size > 1 && !dispatched)
+        batch_mpi_manager(c, todo, 0, on_done, &s, size); /* refused: release the workers */
     free(todo);
     free(s.rows);
     free(s.sel);
@@ -357,19 +417,24 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
     rc = rc ? rc : batch_check_outdir(a->pos[0], o->outdir);
     if (rc)
         return rc;
+    /* A frame's progress is shown unless asked not to (sample's default
+     * shows it only on a terminal): a line per 10 % naming the frame. */
+    if (!o->quiet && !cli_given(a, "progress"))
+        o->progress = CLI_PROGRESS_PLAIN;
     memset(c, 0, sizeof *c);
     c->opts = o;
     c->indir = a->pos[0];
     c->outdir = o->outdir;
     recorded_command(argc, argv, c->command_line, sizeof c->command_line);
     settings_text(a, o, c->settings, sizeof c->settings);
-    if ((rc = batch_list(c->indir, ro->recursive, ro->pattern, o->cfg.seed, &c->frames,
-                         &c->nframes)) != 0)
+    if ((rc = batch_list(c->indir, ro->recursive, ro->pattern, o->cfg.seed, &c->frames, &c->nframes,
+                         &c->skipped)) != 0)
         return rc;
     if (c->nframes == 0)
-        return cli_error("%s: no PNG or TIFF frames found%s%s%s", c->indir,
+        return cli_error("%s: no PNG or TIFF frames found%s%s%s%s%s", c->indir,
                          ro->pattern ? " matching " : "", ro->pattern ? ro->pattern : "",
-                         ro->recursive ? "" : " (add --recursive for subfolders)");
+                         ro->recursive ? "" : " (add --recursive for subfolders)",
+                         c->skipped.count ? "; not frames: " : "", c->skipped.names);
     char msg[BATCH_MSG];
     if (cli_make_dirs(c->outdir, msg, sizeof msg) != 0)
         return cli_error("%s", msg);
@@ -449,21 +514,23 @@ static int merge(const char *outdir)
         else
             rc = batch_read_csv(path, &rows, &nrows);
     }
-    size_t count[4] = {0, 0, 0, 0};
+    size_t count[BATCH_NSTATUS] = {0};
     if (!rc) {
         qsort(rows, nrows, sizeof *rows, cmp_row);
         for (size_t i = 0; i < nrows; i++)
-            count[rows[i].status & 3]++;
+            count[rows[i].status]++;
         rc = batch_write_manifest(outdir, "index", rows, nrows, NULL, NULL);
     }
     if (!rc)
         fprintf(stderr,
                 "pixpost: merged %u shard manifests into %s/index.csv: %zu frames (%zu "
-                "done, %zu skipped, %zu failed, %zu not done)\n",
+                "done, %zu skipped, %zu failed, %zu failed under --strict, %zu not done)\n",
                 n, outdir, nrows, count[BATCH_DONE], count[BATCH_SKIPPED], count[BATCH_FAILED],
-                count[BATCH_PENDING]);
+                count[BATCH_FAILED_STRICT], count[BATCH_PENDING]);
     free(rows);
     if (rc)
         return rc;
-    return count[BATCH_FAILED] || count[BATCH_PENDING] ? CLI_EXIT_BATCH : CLI_EXIT_OK;
+    return count[BATCH_FAILED] || count[BATCH_PENDING] ? CLI_EXIT_BATCH
+           : count[BATCH_FAILED_STRICT]                ? CLI_EXIT_STRICT
+                                                       : CLI_EXIT_OK;
 }

@@ -17,34 +17,19 @@ static void join_args(int argc, char **argv, char *buf, size_t len)
         used += (size_t)snprintf(buf + used, len - used, " %s", argv[i]);
 }
 
-/* Worst R-hat and lowest bulk-ESS over the trace columns (NaN ignored). */
-static void extremes(const pp_sampler *s, double *rhat, double *ess)
-{
-    const pp_trace *t = pp_sampler_trace(s);
-    const pp_diag_scalar *d = pp_sampler_diagnostics(s);
-    *rhat = NAN;
-    *ess = NAN;
-    for (size_t j = 0; d && j < t->ncols; j++) {
-        if (isfinite(d[j].rhat) && !(d[j].rhat <= *rhat))
-            *rhat = d[j].rhat;
-        if (isfinite(d[j].ess_bulk) && !(d[j].ess_bulk >= *ess))
-            *ess = d[j].ess_bulk;
-    }
-}
-
 static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double seconds)
 {
     size_t nw = pp_sampler_warning_count(s);
     const pp_trace *t = pp_sampler_trace(s);
-    double rhat, ess;
-    extremes(s, &rhat, &ess);
+    pp_convergence cv;
+    pp_sampler_convergence(s, &cv);
     fprintf(stderr,
             "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse .tif; mean, sd .png; "
             "summary.json; trace.csv; report.html)\n",
             o->outdir);
     fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; worst R-hat %.3f, lowest "
                     "bulk-ESS %.0f: %s\n",
-            t->chains, t->kept, seconds, rhat, ess,
+            t->chains, t->kept, seconds, cv.rhat_max, cv.ess_bulk_min,
             nw ? "see the warnings below" : "no convergence warnings");
     for (size_t i = 0; i < nw; i++)
         fprintf(stderr, "pixpost:   %s\n", pp_sampler_warning(s, i));

@@ -62,6 +62,7 @@ typedef struct progress_state {
     struct timespec t0;
     int last_decile;
     unsigned chains; /* iterations are counted over all chains */
+    const char *label; /* plain lines start "pixpost: <label>: " when set */
 } progress_state;
 
 static void show_progress(void *ctx, unsigned long long done, unsigned long long total)
@@ -84,7 +85,9 @@ static void show_progress(void *ctx, unsigned long long done, unsigned long long
         if (dec > p->last_decile) {
             p->last_decile = dec;
             fprintf(stderr,
-                    "sampling: %d%% (%llu of %llu iterations, %.1f s elapsed, %.1f s left)\n",
+                    "%s%s%ssampling: %d%% (%llu of %llu iterations, %.1f s elapsed, %.1f s "
+                    "left)\n",
+                    p->label ? "pixpost: " : "", p->label ? p->label : "", p->label ? ": " : "",
                     dec * 10, done, total, el, left);
         }
     }
@@ -169,6 +172,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     ps->t0 = r->t0;
     ps->last_decile = 0;
     ps->chains = cfg.chains;
+    ps->label = r->label;
     if (o->quiet || ps->mode == CLI_PROGRESS_AUTO)
         ps->mode = o->quiet || !isatty(2) ? CLI_PROGRESS_NONE : CLI_PROGRESS_BAR;
     cfg.progress = ps->mode == CLI_PROGRESS_NONE ? NULL : show_progress;
