@@ -141,41 +141,123 @@ static pp_status parse_width_range(pp_spec *sp, double dlo, double dhi, const ch
     return PP_OK;
 }
 
+/* Physical ranges (units traps: a value typed in the wrong unit is
+ * refused with the unit expected, instead of giving a 3x3 kernel that
+ * deblurs nothing, as airy:...,pixel=65 once did):
+ *  - gaussian sigma, pixels: [0.3, 20]. Below 0.3 the sampled kernel's
+ *    neighbours get exp(-1/(2 * 0.3^2)) = 0.4 % of the centre's weight: one
+ *    pixel, no deblurring (a micrometre value typed for pixels lands here).
+ *    An in-focus PSF sampled at the Nyquist pixel lambda/(4 NA) has sigma
+ *    = 0.21 lambda/NA / pixel = 0.84 px (Zhang, Zerubia & Olivo-Marin
+ *    2007 for the 0.21); 20 px is 24 times finer sampling than that, beyond
+ *    any camera setup; nanometres typed for pixels land above it.
+ *  - airy wavelength, micrometres: [0.2, 2], deep ultraviolet (~0.25 um)
+ *    to the near infrared of multiphoton excitation (up to ~1.7 um); from
+ *    memory. Nanometres (>= 200) and millimetres (<= 0.002) land outside.
+ *  - airy pixel (the sample-plane pixel: camera pixel / magnification),
+ *    micrometres: [0.001, 20]. Camera pixels span ~2.4 to 24 um and
+ *    objectives 1.25x to 150x (from memory), giving 0.016 to 19 um;
+ *    super-resolution images are rendered at a few nm (common practice).
+ *    Nanometres typed (pixel=65) land above 20.
+ *  - airy sampling: the first dark ring 0.61 lambda/NA must span at least
+ *    1/4 pixel (pixel <= 4 * 0.61 lambda/NA, ten times coarser than the
+ *    Nyquist pixel 0.25 lambda/NA). Measured with pixpost psf (na 1.4,
+ *    wavelength 0.52, size 7): the centre pixel holds 94 % of the kernel at
+ *    a ring of 0.23 px, 99 % at 0.035 px (the camera's own 6.5 um pixel
+ *    typed for pixel=). Such a kernel is one pixel and deblurs nothing.
+ *  - airy na: (0, 1.7]; dry objectives reach ~0.95, oil immersion ~1.4-1.5,
+ *    special immersion media ~1.65 (from memory). */
+#define SIGMA_MIN 0.3
+#define SIGMA_MAX 20.0
+#define WAVELENGTH_MIN 0.2
+#define WAVELENGTH_MAX 2.0
+#define PIXEL_MIN 0.001
+#define PIXEL_MAX 20.0
+#define RINGS_PER_PIXEL_MIN 0.25
+#define NA_MAX 1.7
+
+static pp_status check_sigma(double sigma, const char *key)
+{
+    if (!(sigma > 0))
+        return pp_fail(PP_ERR_ARG, WHAT " gaussian: %s=%g must be > 0 (pixels)", key, sigma);
+    if (sigma < SIGMA_MIN)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " gaussian: %s=%g pixels is below %g: the kernel would be one "
+                            "pixel and deblur nothing (sigma is in pixels, not micrometres: "
+                            "divide a width in micrometres by the pixel size)",
+                       key, sigma, SIGMA_MIN);
+    if (sigma > SIGMA_MAX)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " gaussian: %s=%g pixels is above %g, wider than any microscope "
+                            "PSF sampled for deblurring (sigma is in pixels, not nanometres: "
+                            "80 nm at 65 nm pixels is sigma=1.2)",
+                       key, sigma, SIGMA_MAX);
+    return PP_OK;
+}
+
 static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
 {
     static const char form[] = "gaussian:sigma=S or gaussian:sigma=auto[,lo=A,hi=B], in pixels";
+    static const char *const keys[] = {"sigma", "lo", "hi", NULL};
+    static const char *const fixed_keys[] = {"sigma", NULL};
     int is_auto = 0;
     pp_status st;
+    if ((st = pp_spec_check_known(sp, WHAT, keys)) != PP_OK)
+        return st;
     if (!pp_spec_number(sp, "sigma", WHAT, &out->sigma, &is_auto, &st))
         return pp_fail(PP_ERR_ARG, WHAT " %s: missing sigma= (expected %s)", sp->name, form);
     if (st == PP_OK && is_auto)
         st = parse_width_range(sp, 0.5, 4.0, "pixels", out, &out->sigma);
     if (st != PP_OK)
         return st;
-    if ((st = pp_spec_check_used(sp, WHAT, is_auto ? "sigma, lo, hi" : "sigma")) != PP_OK)
+    if ((st = pp_spec_check_used(sp, WHAT, is_auto ? keys : fixed_keys)) != PP_OK)
         return st;
-    if (!(out->sigma > 0))
-        return pp_fail(PP_ERR_ARG, WHAT " gaussian: sigma=%g must be > 0 (pixels)", out->sigma);
-    return PP_OK;
+    if (is_auto)
+        return (st = check_sigma(out->width_lo, "lo")) != PP_OK ? st
+                                                                : check_sigma(out->width_hi, "hi");
+    return check_sigma(out->sigma, "sigma");
 }
 
+/* Checks the ranges above; for na=auto the narrowest PSF (NA at hi). */
 static pp_status check_airy(const pp_psf_spec *s)
 {
-    if (!(s->na > 0 && s->na <= 1.7))
+    double na = s->width_auto ? s->width_hi : s->na;
+    if (!(s->na > 0 && s->na <= NA_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " airy: na=%g must be in (0, 1.7] (dry objectives reach ~0.95, "
-                            "oil immersion ~1.4-1.5)",
+                       WHAT " airy: na=%g must be in (0, 1.7] (a numerical aperture, no unit: "
+                            "dry objectives reach ~0.95, oil immersion ~1.4-1.5)",
                        s->na);
-    if (!(s->wavelength > 0))
-        return pp_fail(PP_ERR_ARG, WHAT " airy: wavelength=%g must be > 0 (micrometres)",
-                       s->wavelength);
     if (s->wavelength >= 100)
         return pp_fail(PP_ERR_ARG,
                        WHAT " airy: wavelength=%g is in micrometres; that looks like "
                             "nanometres (e.g. 520 nm is wavelength=0.52)",
                        s->wavelength);
-    if (!(s->pixel > 0))
-        return pp_fail(PP_ERR_ARG, WHAT " airy: pixel=%g must be > 0 (micrometres)", s->pixel);
+    if (!(s->wavelength >= WAVELENGTH_MIN && s->wavelength <= WAVELENGTH_MAX))
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: wavelength=%g must be in [%g, %g] micrometres, ultraviolet "
+                            "to near-infrared light (e.g. 520 nm is wavelength=0.52)",
+                       s->wavelength, WAVELENGTH_MIN, WAVELENGTH_MAX);
+    if (s->pixel > PIXEL_MAX)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: pixel=%g is in micrometres, larger than any sample-plane "
+                            "pixel (at most %g); that looks like nanometres (e.g. 65 nm is "
+                            "pixel=0.065)",
+                       s->pixel, PIXEL_MAX);
+    if (!(s->pixel >= PIXEL_MIN))
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: pixel=%g must be in [%g, %g] micrometres, the "
+                            "sample-plane pixel sizes of light microscopy (e.g. 65 nm is "
+                            "pixel=0.065)",
+                       s->pixel, PIXEL_MIN, PIXEL_MAX);
+    double ring = 0.61 * s->wavelength / na;
+    if (ring < RINGS_PER_PIXEL_MIN * s->pixel)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: pixel=%g micrometres is %.0f times the Airy first dark-ring "
+                            "radius 0.61 wavelength/na = %.3g um (at most %g): the PSF would "
+                            "fall in one pixel and deblur nothing; pixel is the sample-plane "
+                            "pixel, the camera's pixel / magnification (6.5 um at 100x is "
+                            "pixel=0.065)",
+                       s->pixel, s->pixel / ring, ring, 1 / RINGS_PER_PIXEL_MIN);
     return PP_OK;
 }
 
@@ -183,8 +265,12 @@ static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
 {
     static const char form[] = "airy:na=NA,wavelength=L,pixel=P (or na=auto[,lo=A,hi=B]), "
                                "L and P in micrometres";
+    static const char *const keys[] = {"na", "wavelength", "pixel", "lo", "hi", NULL};
+    static const char *const fixed_keys[] = {"na", "wavelength", "pixel", NULL};
     int is_auto = 0;
-    pp_status st = PP_OK;
+    pp_status st = pp_spec_check_known(sp, WHAT, keys);
+    if (st != PP_OK)
+        return st;
     if (!pp_spec_number(sp, "na", WHAT, &out->na, &is_auto, &st))
         return pp_fail(PP_ERR_ARG, WHAT " %s: missing na= (expected %s)", sp->name, form);
     if (st == PP_OK && is_auto)
@@ -194,9 +280,8 @@ static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
     if (st == PP_OK)
         st = need_number(sp, "pixel", form, &out->pixel);
     if (st == PP_OK)
-        st = pp_spec_check_used(sp, WHAT,
-                                is_auto ? "na, lo, hi, wavelength, pixel" : "na, wavelength, pixel");
-    if (st == PP_OK && is_auto && out->width_hi > 1.7)
+        st = pp_spec_check_used(sp, WHAT, is_auto ? keys : fixed_keys);
+    if (st == PP_OK && is_auto && out->width_hi > NA_MAX)
         st = pp_fail(PP_ERR_ARG, WHAT " airy: hi=%g must be <= 1.7 (numerical aperture)",
                      out->width_hi);
     return st == PP_OK ? check_airy(out) : st;
@@ -222,7 +307,10 @@ static pp_status parse_kind(pp_spec *sp, const char *text, int is_file, pp_psf_s
     }
     if (strcmp(sp->name, "file") == 0)
         return pp_fail(PP_ERR_ARG, WHAT " '%s': missing the path (expected file:PATH)", text);
-    return pp_fail(PP_ERR_ARG, WHAT " '%s': unknown PSF model '%s' (accepted: %s)", text, sp->name,
+    static const char *const models[] = {"gaussian", "airy", "file", NULL};
+    const char *near = pp_spec_closest(sp->name, models);
+    return pp_fail(PP_ERR_ARG, WHAT " '%s': unknown PSF model '%s' (%s%s%saccepted: %s)", text,
+                   sp->name, near ? "did you mean " : "", near ? near : "", near ? "? " : "",
                    ACCEPTED_MODELS);
 }
 
