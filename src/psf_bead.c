@@ -19,7 +19,7 @@
  *     accepted). An in-focus bead sampled at the Nyquist pixel is about
  *     2 px wide (0.51 lambda/NA over lambda/(4 NA)); one round cell
  *     (scikit-image's data.cell(), a cell in a 660 x 550 image) measures
- *     105 px (inverted, 136 px).
+ *     105 px.
  * A test of "energy within a radius small against the kernel's size" was
  * tried and does not separate the cases: pixpost's own gaussian kernel
  * (radius 4 sigma) has 80 % of its sum within 0.45 of its half-width,
