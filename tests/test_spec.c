@@ -28,7 +28,7 @@ static void refused(const char *what, const char *text, const char *n1, const ch
                     const char *n3, const char *absent)
 {
     pp_status st = parse_any(what, text);
-    const char *m = pp_error_message();
+    const char *m = st == PP_OK ? "(accepted)" : pp_error_message();
     int ok = st == PP_ERR_ARG && strstr(m, what) != NULL;
     const char *needles[] = {n1, n2, n3};
     for (int i = 0; i < 3 && needles[i]; i++)
