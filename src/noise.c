@@ -1,10 +1,10 @@
 /* pixpost — noise model specs (parsing and canonical text). */
+#include "pixpost/noise.h"
+#include "internal.h"
+#include "pixpost/spec.h"
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
-#include "internal.h"
-#include "pixpost/noise.h"
-#include "pixpost/spec.h"
 
 #define WHAT "--noise"
 
@@ -22,7 +22,7 @@ static pp_status missing(const pp_spec *s, const char *key, const char *meaning)
 {
     return pp_fail(PP_ERR_ARG, WHAT " %s: missing %s= (%s; expected %s)", s->name, key, meaning,
                    strcmp(s->name, "camera") == 0 ? "camera:gain=G,offset=O,read=R"
-                                                   : "poisson:gain=G,offset=O");
+                                                  : "poisson:gain=G,offset=O");
 }
 
 /* gain=G or e_per_adu=E (G = 1/E): data sheets print electrons per ADU, the
@@ -36,12 +36,15 @@ static pp_status parse_gain(pp_spec *s, pp_noise_spec *out)
         (st = get(s, "e_per_adu", &e_per_adu, &has_e)) != PP_OK)
         return st;
     if (has_gain && has_e)
-        return pp_fail(PP_ERR_ARG, WHAT " %s: gain= and e_per_adu= are both given; give one "
-                       "(gain = 1/e_per_adu)", s->name);
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " %s: gain= and e_per_adu= are both given; give one "
+                            "(gain = 1/e_per_adu)",
+                       s->name);
     if (!has_gain && !has_e)
-        return missing(s, "gain", "ADU per electron, the inverse of the electrons-per-ADU "
-                                  "figure most camera data sheets print; or give that figure "
-                                  "as e_per_adu=E");
+        return missing(s, "gain",
+                       "ADU per electron, the inverse of the electrons-per-ADU "
+                       "figure most camera data sheets print; or give that figure "
+                       "as e_per_adu=E");
     if (has_e) {
         if (!(e_per_adu > 0))
             return pp_fail(PP_ERR_ARG, WHAT " %s: e_per_adu=%g must be > 0 (electrons per ADU)",
@@ -67,8 +70,9 @@ static pp_status parse_photon(pp_spec *s, pp_noise_spec *out, int camera)
         (st = parse_gain(s, out)) != PP_OK || (st = get(s, "offset", &out->offset, &set)) != PP_OK)
         return st;
     if (!set)
-        return missing(s, "offset", "the camera's dark level in ADU, what a pixel reads with "
-                                    "no light");
+        return missing(s, "offset",
+                       "the camera's dark level in ADU, what a pixel reads with "
+                       "no light");
     if (!camera)
         return PP_OK;
     if ((st = get(s, "read", &out->read, &set)) != PP_OK)
@@ -115,10 +119,9 @@ pp_status pp_noise_parse(const char *text, pp_noise_spec *out)
     const char *near = pp_spec_closest(s.name, models);
     return pp_fail(PP_ERR_ARG,
                    WHAT " '%s': unknown model '%s' (%s%s%saccepted: none, gaussian[:sigma=S], "
-                   "poisson:gain=G,offset=O, camera:gain=G,offset=O,read=R; gain=G may be "
-                   "given as e_per_adu=1/G)",
-                   text, s.name, near ? "did you mean " : "", near ? near : "",
-                   near ? "? " : "");
+                        "poisson:gain=G,offset=O, camera:gain=G,offset=O,read=R; gain=G may be "
+                        "given as e_per_adu=1/G)",
+                   text, s.name, near ? "did you mean " : "", near ? near : "", near ? "? " : "");
 }
 
 /* The canonical text always says gain=, even when the user gave

@@ -65,7 +65,7 @@ pp_status pp_prior_parse(const char *text, pp_prior_spec *out)
     const char *near = pp_spec_closest(s.name, priors);
     return pp_fail(PP_ERR_ARG,
                    WHAT " '%s': unknown prior '%s' (%s%s%saccepted: gmrf1, gmrf2, "
-                   "matern:range=R,nu=V; each may add ,delta=D)",
+                        "matern:range=R,nu=V; each may add ,delta=D)",
                    text, s.name, near ? "did you mean " : "", near ? near : "", near ? "? " : "");
 }
 

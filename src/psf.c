@@ -20,9 +20,9 @@
  */
 #include "pixpost/psf.h"
 #include "internal.h"
-#include "psf_internal.h"
 #include "pixpost/io.h"
 #include "pixpost/spec.h"
+#include "psf_internal.h"
 #include <errno.h>
 #include <math.h>
 #include <stdio.h>
@@ -30,8 +30,8 @@
 #include <string.h>
 
 #define WHAT "--psf"
-#define ACCEPTED_MODELS                                                                  \
-    "gaussian:sigma=S (or sigma=auto[,lo=A,hi=B]), airy:na=NA,wavelength=L,pixel=P (or "   \
+#define ACCEPTED_MODELS                                                                            \
+    "gaussian:sigma=S (or sigma=auto[,lo=A,hi=B]), airy:na=NA,wavelength=L,pixel=P (or "           \
     "na=auto[,lo=A,hi=B]), file:PATH"
 /* The 5th zero of J1 (Abramowitz & Stegun table 9.5) bounds the Airy
  * kernel chosen by default. The energy inside the n-th dark ring is

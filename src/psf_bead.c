@@ -29,20 +29,20 @@
  * flood fill per spot over the image (a stack of pixel indices, one byte
  * of marks per pixel); bead images are small.
  */
+#include "internal.h"
+#include "pixpost/io.h"
 #include "psf_internal.h"
 #include <math.h>
 #include <stdint.h>
 #include <stdlib.h>
-#include "internal.h"
-#include "pixpost/io.h"
 
 #define BRIGHT_FRACTION 0.2
 #define BRIGHT_NOISE_SDS 4.0
 #define ONE_SPOT_SHARE 0.9
 
 typedef struct spot {
-    double sum;    /* summed value of its bright pixels */
-    size_t half;   /* its pixels at or above half the peak */
+    double sum;  /* summed value of its bright pixels */
+    size_t half; /* its pixels at or above half the peak */
 } spot;
 
 /* Flood-fills the 8-connected bright pixels from `seed`, marking them in
@@ -187,8 +187,10 @@ static pp_status bead_clean(pp_image *img, const char *path, size_t *ci, size_t 
         return st;
     double peak = bead_subtract(img, med);
     if (!isfinite(peak))
-        return pp_fail(PP_ERR_NUMERIC, "%s: the PSF image's values are too large (subtracting "
-                       "the border median overflows); rescale it", path);
+        return pp_fail(PP_ERR_NUMERIC,
+                       "%s: the PSF image's values are too large (subtracting "
+                       "the border median overflows); rescale it",
+                       path);
     if (!(peak > 0))
         return pp_fail(PP_ERR_FORMAT,
                        "%s: no pixel of the PSF image is above its border median; is it a "

@@ -1,14 +1,14 @@
 /* pixpost — SPEC string splitting: "name" or "name:key=value,...", the key
  * checks and the spelling suggestions shared by every SPEC parser (and the
  * CLI's option names). Cost: negligible (specs are a few dozen bytes). */
+#include "pixpost/spec.h"
+#include "internal.h"
 #include <ctype.h>
 #include <errno.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 #include <strings.h>
-#include "internal.h"
-#include "pixpost/spec.h"
 
 static pp_status copy_bounded(char *dst, size_t cap, const char *src, size_t n,
                               const char *what, const char *text)
@@ -29,10 +29,14 @@ static pp_status no_space(const char *text, size_t n, const char *what)
         if (!isspace((unsigned char)text[i]))
             continue;
         if (i == 0)
-            return pp_fail(PP_ERR_ARG, "%s '%s': stray space at the start (a SPEC has no "
-                           "spaces: remove it)", what, text);
-        return pp_fail(PP_ERR_ARG, "%s '%s': stray space after '%.*s' (a SPEC has no "
-                       "spaces: remove it)", what, text, (int)i, text);
+            return pp_fail(PP_ERR_ARG,
+                           "%s '%s': stray space at the start (a SPEC has no "
+                           "spaces: remove it)",
+                           what, text);
+        return pp_fail(PP_ERR_ARG,
+                       "%s '%s': stray space after '%.*s' (a SPEC has no "
+                       "spaces: remove it)",
+                       what, text, (int)i, text);
     }
     return PP_OK;
 }
@@ -205,8 +209,8 @@ static pp_status unknown_key(const pp_spec *s, size_t k, const char *what,
         snprintf(hint, sizeof hint, "keys are lower case: did you mean %s? ", near);
     else if (near)
         snprintf(hint, sizeof hint, "did you mean %s? ", near);
-    return pp_fail(PP_ERR_ARG, "%s %s: unknown key '%s' (%saccepted: %s)", what, s->name,
-                   s->key[k], hint, list);
+    return pp_fail(PP_ERR_ARG, "%s %s: unknown key '%s' (%saccepted: %s)", what, s->name, s->key[k],
+                   hint, list);
 }
 
 pp_status pp_spec_check_known(const pp_spec *s, const char *what, const char *const *accepted)

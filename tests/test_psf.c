@@ -282,9 +282,9 @@ static void check_units(void)
     refused("airy:na=1.4,wavelength=0.52,pixel=65", "pixel=65 is in micrometres");
     refused("airy:na=1.4,wavelength=0.52,pixel=65", "65 nm is pixel=0.065");
     refused("airy:na=1.4,wavelength=0.52,pixel=0.0000650", "micrometres");
-    refused("airy:na=1.4,wavelength=0.52,pixel=6.5", "dark-ring");      /* camera pixel typed */
+    refused("airy:na=1.4,wavelength=0.52,pixel=6.5", "dark-ring"); /* camera pixel typed */
     refused("airy:na=1.4,wavelength=0.52,pixel=6.5", "camera's pixel / magnification");
-    refused("airy:na=auto,wavelength=0.52,pixel=2", "dark-ring");       /* at hi = 1.5 */
+    refused("airy:na=auto,wavelength=0.52,pixel=2", "dark-ring"); /* at hi = 1.5 */
     refused("airy:na=1.4,wavelength=5,pixel=0.065", "[0.2, 2] micrometres");
     refused("airy:na=1.4,wavelength=0.00052,pixel=0.065", "micrometres");
     refused("airy:na=14,wavelength=0.52,pixel=0.065", "numerical aperture");
@@ -293,9 +293,11 @@ static void check_units(void)
     refused("gaussian:sigma=120", "not nanometres");
     refused("gaussian:sigma=auto,lo=0.1,hi=2", "lo=0.1");
     refused("gaussian:sigma=auto,lo=1,hi=30", "hi=30");
-    const char *ok[] = {"gaussian:sigma=0.3", "gaussian:sigma=20",
+    const char *ok[] = {"gaussian:sigma=0.3",
+                        "gaussian:sigma=20",
                         "airy:na=1.4,wavelength=0.52,pixel=0.4", /* ring 0.57 px */
-                        "airy:na=0.05,wavelength=2,pixel=20", "airy:na=1.4,wavelength=0.2,pixel=0.001",
+                        "airy:na=0.05,wavelength=2,pixel=20",
+                        "airy:na=1.4,wavelength=0.2,pixel=0.001",
                         "airy:na=auto,wavelength=0.52,pixel=0.065"};
     for (size_t i = 0; i < sizeof ok / sizeof ok[0]; i++) {
         pp_psf_spec s;

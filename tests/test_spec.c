@@ -2,12 +2,12 @@
  * the parser must refuse, and the messages of the PSF, noise and prior
  * parsers for typos, spaces, case and missing keys (issue 14, items 3 and
  * 5). */
-#include <string.h>
 #include "pixpost/noise.h"
 #include "pixpost/prior.h"
 #include "pixpost/psf.h"
 #include "pixpost/spec.h"
 #include "testutil.h"
+#include <string.h>
 
 /* Parses text with the parser for `what` (--psf, --noise, --prior). */
 static pp_status parse_any(const char *what, const char *text)
@@ -90,8 +90,8 @@ static void check_typos(void)
 static void check_photon_keys(void)
 {
     refused("--noise", "poisson:gain=2", "missing offset=", "dark level in ADU", NULL, NULL);
-    refused("--noise", "poisson:offset=100", "missing gain=", "ADU per electron", "e_per_adu=",
-            NULL);
+    refused("--noise", "poisson:offset=100", "missing gain=", "ADU per electron",
+            "e_per_adu=", NULL);
     refused("--noise", "poisson", "missing gain=", NULL, NULL, NULL);
     refused("--noise", "camera:gain=2,offset=100", "missing read=", "electrons", NULL, NULL);
     refused("--noise", "camera:read=1.6,offset=100", "missing gain=", "electrons-per-ADU", NULL,
@@ -157,8 +157,8 @@ int main(void)
           "unknown key named before any lookup: %s", pp_error_message());
 
     /* the spelling suggestions (also used for the CLI's option names) */
-    static const char *const opts[] = {"iters", "chains", "seed", "burn", "thin", "threads",
-                                       "output", NULL};
+    static const char *const opts[] = {"iters", "chains",  "seed",   "burn",
+                                       "thin",  "threads", "output", NULL};
     const char *near;
     CHECK((near = pp_spec_closest("iter", opts)) && strcmp(near, "iters") == 0, "iter -> iters");
     CHECK((near = pp_spec_closest("chain", opts)) && strcmp(near, "chains") == 0,

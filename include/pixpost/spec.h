@@ -42,14 +42,12 @@ int pp_spec_number(pp_spec *s, const char *key, const char *what, double *v,
  * "did you mean" (pp_spec_closest; "keys are lower case" when only the
  * case differs). Call it before looking up required keys, so that a typo
  * ("sigam=1.6") is reported as itself and not as a missing sigma=. */
-pp_status pp_spec_check_known(const pp_spec *s, const char *what,
-                              const char *const *accepted);
+pp_status pp_spec_check_known(const pp_spec *s, const char *what, const char *const *accepted);
 
 /* Fails naming the first key that no lookup used (one that is known but
  * does not apply here, e.g. lo= without sigma=auto); `accepted` (NULL-
  * terminated) lists the keys that apply, as in pp_spec_check_known. */
-pp_status pp_spec_check_used(const pp_spec *s, const char *what,
-                             const char *const *accepted);
+pp_status pp_spec_check_used(const pp_spec *s, const char *what, const char *const *accepted);
 
 /* The entry of `names` (NULL-terminated) that `word` most likely
  * misspells, or NULL. Close means: equal but for case, or an optimal-
