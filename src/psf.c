@@ -165,7 +165,6 @@ static pp_status parse_width_range(pp_spec *sp, double dlo, double dhi, const ch
  *  - airy na: (0, 1.7]; dry objectives reach ~0.95, oil immersion ~1.4-1.5,
  *    special immersion media ~1.65 (from memory). */
 #define SIGMA_MIN 0.3
-#define SIGMA_MAX 20.0
 #define WAVELENGTH_MIN 0.2
 #define WAVELENGTH_MAX 2.0
 #define PIXEL_MIN 0.001
@@ -183,12 +182,12 @@ static pp_status check_sigma(double sigma, const char *key)
                             "pixel and deblur nothing (sigma is in pixels, not micrometres: "
                             "divide a width in micrometres by the pixel size)",
                        key, sigma, SIGMA_MIN);
-    if (sigma > SIGMA_MAX)
+    if (sigma > PP_PSF_SIGMA_MAX)
         return pp_fail(PP_ERR_ARG,
                        WHAT " gaussian: %s=%g pixels is above %g, wider than any microscope "
                             "PSF sampled for deblurring (sigma is in pixels, not nanometres: "
                             "80 nm at 65 nm pixels is sigma=1.2)",
-                       key, sigma, SIGMA_MAX);
+                       key, sigma, PP_PSF_SIGMA_MAX);
     return PP_OK;
 }
 

@@ -15,8 +15,8 @@
  *     peak, below t) costs nothing.
  *  2. Compact. The spot's width at half its peak, 2 sqrt(A / pi) with A the
  *     number of its pixels at or above 0.5, must be at most
- *     PP_BEAD_MAX_WIDTH (48 px, the FWHM of the widest gaussian PSF
- *     accepted). An in-focus bead sampled at the Nyquist pixel is about
+ *     MAX_WIDTH (47 px, the FWHM of the widest gaussian PSF accepted,
+ *     sigma 20 px). An in-focus bead sampled at the Nyquist pixel is about
  *     2 px wide (0.51 lambda/NA over lambda/(4 NA)); one round cell
  *     (scikit-image's data.cell(), a cell in a 660 x 550 image) measures
  *     105 px.
@@ -36,6 +36,8 @@
 #include <stdint.h>
 #include <stdlib.h>
 
+/* The FWHM of the widest gaussian PSF accepted: 47.1 px. */
+#define MAX_WIDTH (2.0 * sqrt(2.0 * log(2.0)) * PP_PSF_SIGMA_MAX)
 #define BRIGHT_FRACTION 0.2
 #define BRIGHT_NOISE_SDS 4.0
 #define ONE_SPOT_SHARE 0.9
@@ -108,12 +110,12 @@ static pp_status one_spot(const pp_image *img, double noise_sd, const char *path
                        "crop a single bead with dark background around it",
                        path, t, spots, peak / img->width, peak % img->width, 100.0 * share,
                        100.0 * ONE_SPOT_SHARE);
-    if (width > PP_BEAD_MAX_WIDTH)
+    if (width > MAX_WIDTH)
         return pp_fail(PP_ERR_FORMAT,
                        "%s: the PSF image's spot is %.0f pixels across at half its peak, wider "
                        "than a bead image (at most %.0f, the width of a gaussian PSF of sigma "
-                       "20 pixels); is it a cell or a whole frame rather than one bead?",
-                       path, width, PP_BEAD_MAX_WIDTH);
+                       "%g pixels); is it a cell or a whole frame rather than one bead?",
+                       path, width, MAX_WIDTH, PP_PSF_SIGMA_MAX);
     return PP_OK;
 }
 

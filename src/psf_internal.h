@@ -5,10 +5,10 @@
 
 #include "pixpost/image.h"
 
-/* The widest spot a bead image may have, in pixels across at half its
- * peak: the FWHM of the widest gaussian PSF accepted (sigma 20 px,
- * 2 sqrt(2 ln 2) * 20 = 47.1 px), rounded up. See psf_bead.c. */
-#define PP_BEAD_MAX_WIDTH 48.0
+/* The widest gaussian PSF accepted, sigma in pixels (the reason is in
+ * psf.c); a bead image's spot may be as wide at half its peak as this
+ * PSF's FWHM, 2 sqrt(2 ln 2) * 20 = 47.1 px (psf_bead.c). */
+#define PP_PSF_SIGMA_MAX 20.0
 
 /* Largest kernel radius, in pixels (a 4097-pixel square, far beyond any
  * real frame); a bigger model kernel is almost surely a unit mistake (nm

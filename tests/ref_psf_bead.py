@@ -92,7 +92,7 @@ def expect_refused(name, image, words):
 
 ihc_hed = skimage.color.rgb2hed(skimage.data.immunohistochemistry())
 expect_refused("cell.tif", skimage.data.cell(), ["pixels across at half its peak",
-                                                  "at most 48", "one bead"])
+                                                  "at most 47", "one bead"])
 expect_refused("ihc_hematoxylin.tif", ihc_hed[..., 0], ["not one bead", "separate spots"])
 expect_refused("ihc_dab.tif", ihc_hed[..., 2], ["not one bead", "separate spots"])
 g = kernel("gaussian:sigma=1.5", size=41)
