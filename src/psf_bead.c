@@ -11,8 +11,9 @@
  *     with probability 3e-5). The bright pixels 8-connected to the
  *     brightest one must hold at least 90 % of the bright pixels' summed
  *     value. A second bead as bright as the first leaves 50 %; a field of
- *     nuclei a few %; a stray noise pixel or an Airy ring (1.75 % of the
- *     peak, below t) costs nothing.
+ *     nuclei a few %; a stray noise pixel or an Airy ring (its first ring
+ *     peaks at 1.75 % of the centre, a textbook value, below t) costs
+ *     nothing.
  *  2. Compact. The spot's width at half its peak, 2 sqrt(A / pi) with A the
  *     number of its pixels at or above 0.5, must be at most
  *     MAX_WIDTH (47 px, the FWHM of the widest gaussian PSF accepted,
@@ -83,7 +84,7 @@ static pp_status one_spot(const pp_image *img, double noise_sd, const char *path
     for (size_t p = 1; p < n; p++)
         if (img->data[p] > img->data[peak])
             peak = p;
-    double t = fmax(BRIGHT_FRACTION, BRIGHT_NOISE_SDS * noise_sd), all = 0.0;
+    double t = fmax(BRIGHT_FRACTION, BRIGHT_NOISE_SDS * noise_sd);
     uint8_t *mark = calloc(n, 1);
     size_t *stack = malloc(n * sizeof *stack);
     if (!mark || !stack) {
@@ -92,7 +93,7 @@ static pp_status one_spot(const pp_image *img, double noise_sd, const char *path
         return pp_fail(PP_ERR_NOMEM, "out of memory checking the PSF image %s", path);
     }
     spot main = fill(img, t, peak, mark, stack);
-    all = main.sum;
+    double all = main.sum;
     spots = 1;
     for (size_t p = 0; p < n; p++)
         if (!mark[p] && img->data[p] >= t) {
@@ -106,7 +107,7 @@ static pp_status one_spot(const pp_image *img, double noise_sd, const char *path
         return pp_fail(PP_ERR_FORMAT,
                        "%s: the PSF image is not one bead: its pixels above %.2g of the peak "
                        "form %zu separate spots, and the one at the brightest pixel (row %zu, "
-                       "column %zu) holds %.0f %% of their light (one bead: at least %.0f %%); "
+                       "column %zu, from 0) holds %.0f %% of their light (one bead: at least %.0f %%); "
                        "crop a single bead with dark background around it",
                        path, t, spots, peak / img->width, peak % img->width, 100.0 * share,
                        100.0 * ONE_SPOT_SHARE);
