@@ -1,9 +1,10 @@
 /* pixpost — noise model specs (parsing and canonical text). */
+#include "pixpost/noise.h"
+#include "internal.h"
+#include "pixpost/spec.h"
+#include <math.h>
 #include <stdio.h>
 #include <string.h>
-#include "internal.h"
-#include "pixpost/noise.h"
-#include "pixpost/spec.h"
 
 #define WHAT "--noise"
 
@@ -16,20 +17,68 @@ static pp_status get(pp_spec *s, const char *key, double *v, int *set)
     return st;
 }
 
-static pp_status parse_photon(pp_spec *s, pp_noise_spec *out, int camera)
+/* A required key's absence, with what the key means and where to find it. */
+static pp_status missing(const pp_spec *s, const char *key, const char *meaning)
 {
+    return pp_fail(PP_ERR_ARG, WHAT " %s: missing %s= (%s; expected %s)", s->name, key, meaning,
+                   strcmp(s->name, "camera") == 0 ? "camera:gain=G,offset=O,read=R"
+                                                  : "poisson:gain=G,offset=O");
+}
+
+/* gain=G or e_per_adu=E (G = 1/E): data sheets print electrons per ADU, the
+ * model and the canonical text use its inverse. */
+static pp_status parse_gain(pp_spec *s, pp_noise_spec *out)
+{
+    double e_per_adu = 0;
+    int has_gain = 0, has_e = 0;
     pp_status st;
-    if ((st = get(s, "gain", &out->gain, NULL)) != PP_OK ||
-        (st = get(s, "offset", &out->offset, NULL)) != PP_OK)
+    if ((st = get(s, "gain", &out->gain, &has_gain)) != PP_OK ||
+        (st = get(s, "e_per_adu", &e_per_adu, &has_e)) != PP_OK)
         return st;
-    if (camera && (st = get(s, "read", &out->read, NULL)) != PP_OK)
-        return st;
-    if ((st = pp_spec_check_used(s, WHAT, camera ? "gain, offset, read" : "gain, offset")) !=
-        PP_OK)
-        return st;
-    if (!(out->gain > 0))
+    if (has_gain && has_e)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " %s: gain= and e_per_adu= are both given; give one "
+                            "(gain = 1/e_per_adu)",
+                       s->name);
+    if (!has_gain && !has_e)
+        return missing(s, "gain",
+                       "ADU per electron, the inverse of the electrons-per-ADU "
+                       "figure most camera data sheets print; or give that figure "
+                       "as e_per_adu=E");
+    if (has_e) {
+        if (!(e_per_adu > 0))
+            return pp_fail(PP_ERR_ARG, WHAT " %s: e_per_adu=%g must be > 0 (electrons per ADU)",
+                           s->name, e_per_adu);
+        out->gain = 1.0 / e_per_adu;
+    }
+    if (!(out->gain > 0 && isfinite(out->gain)))
         return pp_fail(PP_ERR_ARG, WHAT " %s: gain must be > 0 (ADU per photo-electron)",
                        s->name);
+    return PP_OK;
+}
+
+/* gain (or e_per_adu) and offset are required, and read for camera: a
+ * default of gain 1, offset 0 once turned a camera's dark level into ~50
+ * photons per pixel of "fluorescence" without a word. */
+static pp_status parse_photon(pp_spec *s, pp_noise_spec *out, int camera)
+{
+    static const char *const photon_keys[] = {"gain", "e_per_adu", "offset", NULL};
+    static const char *const camera_keys[] = {"gain", "e_per_adu", "offset", "read", NULL};
+    pp_status st;
+    int set = 0;
+    if ((st = pp_spec_check_known(s, WHAT, camera ? camera_keys : photon_keys)) != PP_OK ||
+        (st = parse_gain(s, out)) != PP_OK || (st = get(s, "offset", &out->offset, &set)) != PP_OK)
+        return st;
+    if (!set)
+        return missing(s, "offset",
+                       "the camera's dark level in ADU, what a pixel reads with "
+                       "no light");
+    if (!camera)
+        return PP_OK;
+    if ((st = get(s, "read", &out->read, &set)) != PP_OK)
+        return st;
+    if (!set)
+        return missing(s, "read", "the read noise in electrons rms, from the camera's data sheet");
     if (!(out->read >= 0))
         return pp_fail(PP_ERR_ARG, WHAT " camera: read must be >= 0 (electrons rms)");
     return PP_OK;
@@ -44,13 +93,15 @@ pp_status pp_noise_parse(const char *text, pp_noise_spec *out)
     if (st != PP_OK)
         return st;
     if (strcmp(s.name, "none") == 0) {
+        static const char *const none_keys[] = {NULL};
         out->kind = PP_NOISE_NONE;
-        return pp_spec_check_used(&s, WHAT, "no keys");
+        return pp_spec_check_known(&s, WHAT, none_keys);
     }
     if (strcmp(s.name, "gaussian") == 0) {
+        static const char *const gaussian_keys[] = {"sigma", NULL};
         out->kind = PP_NOISE_GAUSSIAN;
-        if ((st = get(&s, "sigma", &out->sigma, &out->sigma_set)) != PP_OK ||
-            (st = pp_spec_check_used(&s, WHAT, "sigma")) != PP_OK)
+        if ((st = pp_spec_check_known(&s, WHAT, gaussian_keys)) != PP_OK ||
+            (st = get(&s, "sigma", &out->sigma, &out->sigma_set)) != PP_OK)
             return st;
         if (out->sigma_set && !(out->sigma > 0))
             return pp_fail(PP_ERR_ARG, WHAT " gaussian: sigma must be > 0 (camera units)");
@@ -64,12 +115,18 @@ pp_status pp_noise_parse(const char *text, pp_noise_spec *out)
         out->kind = PP_NOISE_CAMERA;
         return parse_photon(&s, out, 1);
     }
+    static const char *const models[] = {"none", "gaussian", "poisson", "camera", NULL};
+    const char *near = pp_spec_closest(s.name, models);
     return pp_fail(PP_ERR_ARG,
-                   WHAT " '%s': unknown model '%s' (accepted: none, gaussian[:sigma=S], "
-                   "poisson:gain=G,offset=O, camera:gain=G,offset=O,read=R)",
-                   text, s.name);
+                   WHAT " '%s': unknown model '%s' (%s%s%saccepted: none, gaussian[:sigma=S], "
+                        "poisson:gain=G,offset=O, camera:gain=G,offset=O,read=R; gain=G may be "
+                        "given as e_per_adu=1/G)",
+                   text, s.name, near ? "did you mean " : "", near ? near : "", near ? "? " : "");
 }
 
+/* The canonical text always says gain=, even when the user gave
+ * e_per_adu= (gain = 1/e_per_adu): one form in summary.json, whatever was
+ * typed, so two runs with the same camera compare equal. */
 void pp_noise_format(const pp_noise_spec *s, char *buf, size_t len)
 {
     switch (s->kind) {

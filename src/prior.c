@@ -36,22 +36,24 @@ pp_status pp_prior_parse(const char *text, pp_prior_spec *out)
     if (st != PP_OK)
         return st;
     if (strcmp(s.name, "gmrf1") == 0 || strcmp(s.name, "gmrf2") == 0) {
+        static const char *const gmrf_keys[] = {"delta", NULL};
         out->kind = s.name[4] == '1' ? PP_PRIOR_GMRF1 : PP_PRIOR_GMRF2;
-        if ((st = common_keys(&s, out, 0)) != PP_OK)
+        if ((st = pp_spec_check_known(&s, WHAT, gmrf_keys)) != PP_OK)
             return st;
-        return pp_spec_check_used(&s, WHAT, "delta");
+        return common_keys(&s, out, 0);
     }
     if (strcmp(s.name, "matern") == 0) {
+        static const char *const matern_keys[] = {"range", "nu", "mean", "delta", NULL};
         out->kind = PP_PRIOR_MATERN;
         out->range = 6.0;
         out->nu = 1.0;
+        if ((st = pp_spec_check_known(&s, WHAT, matern_keys)) != PP_OK)
+            return st;
         if (pp_spec_number(&s, "range", WHAT, &out->range, NULL, &st), st != PP_OK)
             return st;
         if (pp_spec_number(&s, "nu", WHAT, &out->nu, NULL, &st), st != PP_OK)
             return st;
         if ((st = common_keys(&s, out, 1)) != PP_OK)
-            return st;
-        if ((st = pp_spec_check_used(&s, WHAT, "range, nu, mean, delta")) != PP_OK)
             return st;
         if (!(out->range > 0))
             return pp_fail(PP_ERR_ARG, WHAT " matern: range must be > 0 (pixels)");
@@ -59,10 +61,12 @@ pp_status pp_prior_parse(const char *text, pp_prior_spec *out)
             return pp_fail(PP_ERR_ARG, WHAT " matern: nu must be in (0, 8] (smoothness)");
         return PP_OK;
     }
+    static const char *const priors[] = {"gmrf1", "gmrf2", "matern", NULL};
+    const char *near = pp_spec_closest(s.name, priors);
     return pp_fail(PP_ERR_ARG,
-                   WHAT " '%s': unknown prior '%s' (accepted: gmrf1, gmrf2, "
-                   "matern:range=R,nu=V; each may add ,delta=D)",
-                   text, s.name);
+                   WHAT " '%s': unknown prior '%s' (%s%s%saccepted: gmrf1, gmrf2, "
+                        "matern:range=R,nu=V; each may add ,delta=D)",
+                   text, s.name, near ? "did you mean " : "", near ? near : "", near ? "? " : "");
 }
 
 void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len)

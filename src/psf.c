@@ -1,11 +1,11 @@
 /* pixpost — point-spread functions: spec parsing, the Gaussian and Airy
- * models, measured bead images, kernel checks and the Bessel function J1.
+ * models, kernel checks and the Bessel function J1.
  *
  * Cost: a Gaussian kernel is one exp per pixel; an Airy kernel is s*s
  * evaluations of J1 per pixel (s = supersampling, 8 for usual settings, see
- * airy_supersampling()); a file PSF is one read plus a sort of its border
- * (median) and two passes. Kernels are small (radius tens of pixels), so
- * none of this matters next to sampling.
+ * airy_supersampling()). Bead images (file:PATH) are read and checked in
+ * psf_bead.c. Kernels are small (radius tens of pixels), so none of this
+ * matters next to sampling.
  *
  * Discretisation (documented choices):
  *  - gaussian: exp(-r^2 / (2 sigma^2)) SAMPLED at pixel centres (not
@@ -22,6 +22,7 @@
 #include "internal.h"
 #include "pixpost/io.h"
 #include "pixpost/spec.h"
+#include "psf_internal.h"
 #include <errno.h>
 #include <math.h>
 #include <stdio.h>
@@ -29,13 +30,9 @@
 #include <string.h>
 
 #define WHAT "--psf"
-#define ACCEPTED_MODELS                                                                  \
-    "gaussian:sigma=S (or sigma=auto[,lo=A,hi=B]), airy:na=NA,wavelength=L,pixel=P (or "   \
+#define ACCEPTED_MODELS                                                                            \
+    "gaussian:sigma=S (or sigma=auto[,lo=A,hi=B]), airy:na=NA,wavelength=L,pixel=P (or "           \
     "na=auto[,lo=A,hi=B]), file:PATH"
-/* Largest kernel radius made from a model, in pixels (a 4097-pixel square,
- * far beyond any real frame); a bigger request is almost surely a unit
- * mistake (nm for um, um for pixels). */
-#define MAX_RADIUS 2048
 /* The 5th zero of J1 (Abramowitz & Stegun table 9.5) bounds the Airy
  * kernel chosen by default. The energy inside the n-th dark ring is
  * 1 - J0(z_n)^2 (Rayleigh's encircled-energy formula, since J1(z_n) = 0):
@@ -141,41 +138,122 @@ static pp_status parse_width_range(pp_spec *sp, double dlo, double dhi, const ch
     return PP_OK;
 }
 
+/* Physical ranges (units traps: a value typed in the wrong unit is
+ * refused with the unit expected, instead of giving a 3x3 kernel that
+ * deblurs nothing, as airy:...,pixel=65 once did):
+ *  - gaussian sigma, pixels: [0.3, 20]. Below 0.3 the sampled kernel's
+ *    neighbours get exp(-1/(2 * 0.3^2)) = 0.4 % of the centre's weight: one
+ *    pixel, no deblurring (a micrometre value typed for pixels lands here).
+ *    An in-focus PSF sampled at the Nyquist pixel lambda/(4 NA) has sigma
+ *    = 0.21 lambda/NA / pixel = 0.84 px (Zhang, Zerubia & Olivo-Marin
+ *    2007 for the 0.21); 20 px is 24 times finer sampling than that, beyond
+ *    any camera setup; nanometres typed for pixels land above it.
+ *  - airy wavelength, micrometres: [0.2, 2], deep ultraviolet (~0.25 um)
+ *    to the near infrared of multiphoton excitation (up to ~1.7 um); from
+ *    memory. Nanometres (>= 200) and millimetres (<= 0.002) land outside.
+ *  - airy pixel (the sample-plane pixel: camera pixel / magnification),
+ *    micrometres: [0.001, 20]. Camera pixels span ~2.4 to 24 um and
+ *    objectives 1.25x to 150x (from memory), giving 0.016 to 19 um;
+ *    super-resolution images are rendered at a few nm (common practice).
+ *    Nanometres typed (pixel=65) land above 20.
+ *  - airy sampling: the first dark ring 0.61 lambda/NA must span at least
+ *    1/4 pixel (pixel <= 4 * 0.61 lambda/NA, ten times coarser than the
+ *    Nyquist pixel 0.25 lambda/NA). Measured with pixpost psf (na 1.4,
+ *    wavelength 0.52, size 7): the centre pixel holds 94 % of the kernel at
+ *    a ring of 0.23 px, 99 % at 0.035 px (the camera's own 6.5 um pixel
+ *    typed for pixel=). Such a kernel is one pixel and deblurs nothing.
+ *  - airy na: (0, 1.7]; dry objectives reach ~0.95, oil immersion ~1.4-1.5,
+ *    special immersion media ~1.65 (from memory). */
+#define SIGMA_MIN 0.3
+#define WAVELENGTH_MIN 0.2
+#define WAVELENGTH_MAX 2.0
+#define PIXEL_MIN 0.001
+#define PIXEL_MAX 20.0
+#define RINGS_PER_PIXEL_MIN 0.25
+#define NA_MAX 1.7
+
+static pp_status check_sigma(double sigma, const char *key)
+{
+    if (!(sigma > 0))
+        return pp_fail(PP_ERR_ARG, WHAT " gaussian: %s=%g must be > 0 (pixels)", key, sigma);
+    if (sigma < SIGMA_MIN)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " gaussian: %s=%g pixels is below %g: the kernel would be one "
+                            "pixel and deblur nothing (sigma is in pixels, not micrometres: "
+                            "divide a width in micrometres by the pixel size)",
+                       key, sigma, SIGMA_MIN);
+    if (sigma > PP_PSF_SIGMA_MAX)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " gaussian: %s=%g pixels is above %g, wider than any microscope "
+                            "PSF sampled for deblurring (sigma is in pixels, not nanometres: "
+                            "80 nm at 65 nm pixels is sigma=1.2)",
+                       key, sigma, PP_PSF_SIGMA_MAX);
+    return PP_OK;
+}
+
 static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
 {
     static const char form[] = "gaussian:sigma=S or gaussian:sigma=auto[,lo=A,hi=B], in pixels";
+    static const char *const keys[] = {"sigma", "lo", "hi", NULL};
+    static const char *const fixed_keys[] = {"sigma", NULL};
     int is_auto = 0;
     pp_status st;
+    if ((st = pp_spec_check_known(sp, WHAT, keys)) != PP_OK)
+        return st;
     if (!pp_spec_number(sp, "sigma", WHAT, &out->sigma, &is_auto, &st))
         return pp_fail(PP_ERR_ARG, WHAT " %s: missing sigma= (expected %s)", sp->name, form);
     if (st == PP_OK && is_auto)
         st = parse_width_range(sp, 0.5, 4.0, "pixels", out, &out->sigma);
     if (st != PP_OK)
         return st;
-    if ((st = pp_spec_check_used(sp, WHAT, is_auto ? "sigma, lo, hi" : "sigma")) != PP_OK)
+    if ((st = pp_spec_check_used(sp, WHAT, is_auto ? keys : fixed_keys)) != PP_OK)
         return st;
-    if (!(out->sigma > 0))
-        return pp_fail(PP_ERR_ARG, WHAT " gaussian: sigma=%g must be > 0 (pixels)", out->sigma);
-    return PP_OK;
+    if (is_auto)
+        return (st = check_sigma(out->width_lo, "lo")) != PP_OK ? st
+                                                                : check_sigma(out->width_hi, "hi");
+    return check_sigma(out->sigma, "sigma");
 }
 
+/* Checks the ranges above; for na=auto the narrowest PSF (NA at hi). */
 static pp_status check_airy(const pp_psf_spec *s)
 {
-    if (!(s->na > 0 && s->na <= 1.7))
+    double na = s->width_auto ? s->width_hi : s->na;
+    if (!(s->na > 0 && s->na <= NA_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " airy: na=%g must be in (0, 1.7] (dry objectives reach ~0.95, "
-                            "oil immersion ~1.4-1.5)",
+                       WHAT " airy: na=%g must be in (0, 1.7] (a numerical aperture, no unit: "
+                            "dry objectives reach ~0.95, oil immersion ~1.4-1.5)",
                        s->na);
-    if (!(s->wavelength > 0))
-        return pp_fail(PP_ERR_ARG, WHAT " airy: wavelength=%g must be > 0 (micrometres)",
-                       s->wavelength);
     if (s->wavelength >= 100)
         return pp_fail(PP_ERR_ARG,
                        WHAT " airy: wavelength=%g is in micrometres; that looks like "
                             "nanometres (e.g. 520 nm is wavelength=0.52)",
                        s->wavelength);
-    if (!(s->pixel > 0))
-        return pp_fail(PP_ERR_ARG, WHAT " airy: pixel=%g must be > 0 (micrometres)", s->pixel);
+    if (!(s->wavelength >= WAVELENGTH_MIN && s->wavelength <= WAVELENGTH_MAX))
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: wavelength=%g must be in [%g, %g] micrometres, ultraviolet "
+                            "to near-infrared light (e.g. 520 nm is wavelength=0.52)",
+                       s->wavelength, WAVELENGTH_MIN, WAVELENGTH_MAX);
+    if (s->pixel > PIXEL_MAX)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: pixel=%g is in micrometres, larger than any sample-plane "
+                            "pixel (at most %g); that looks like nanometres (e.g. 65 nm is "
+                            "pixel=0.065)",
+                       s->pixel, PIXEL_MAX);
+    if (!(s->pixel >= PIXEL_MIN))
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: pixel=%g must be in [%g, %g] micrometres, the "
+                            "sample-plane pixel sizes of light microscopy (e.g. 65 nm is "
+                            "pixel=0.065)",
+                       s->pixel, PIXEL_MIN, PIXEL_MAX);
+    double ring = 0.61 * s->wavelength / na;
+    if (ring < RINGS_PER_PIXEL_MIN * s->pixel)
+        return pp_fail(PP_ERR_ARG,
+                       WHAT " airy: pixel=%g micrometres is %.0f times the Airy first dark-ring "
+                            "radius 0.61 wavelength/na = %.3g um (at most %g): the PSF would "
+                            "fall in one pixel and deblur nothing; pixel is the sample-plane "
+                            "pixel, the camera's pixel / magnification (6.5 um at 100x is "
+                            "pixel=0.065)",
+                       s->pixel, s->pixel / ring, ring, 1 / RINGS_PER_PIXEL_MIN);
     return PP_OK;
 }
 
@@ -183,8 +261,12 @@ static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
 {
     static const char form[] = "airy:na=NA,wavelength=L,pixel=P (or na=auto[,lo=A,hi=B]), "
                                "L and P in micrometres";
+    static const char *const keys[] = {"na", "wavelength", "pixel", "lo", "hi", NULL};
+    static const char *const fixed_keys[] = {"na", "wavelength", "pixel", NULL};
     int is_auto = 0;
-    pp_status st = PP_OK;
+    pp_status st = pp_spec_check_known(sp, WHAT, keys);
+    if (st != PP_OK)
+        return st;
     if (!pp_spec_number(sp, "na", WHAT, &out->na, &is_auto, &st))
         return pp_fail(PP_ERR_ARG, WHAT " %s: missing na= (expected %s)", sp->name, form);
     if (st == PP_OK && is_auto)
@@ -194,9 +276,8 @@ static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
     if (st == PP_OK)
         st = need_number(sp, "pixel", form, &out->pixel);
     if (st == PP_OK)
-        st = pp_spec_check_used(sp, WHAT,
-                                is_auto ? "na, lo, hi, wavelength, pixel" : "na, wavelength, pixel");
-    if (st == PP_OK && is_auto && out->width_hi > 1.7)
+        st = pp_spec_check_used(sp, WHAT, is_auto ? keys : fixed_keys);
+    if (st == PP_OK && is_auto && out->width_hi > NA_MAX)
         st = pp_fail(PP_ERR_ARG, WHAT " airy: hi=%g must be <= 1.7 (numerical aperture)",
                      out->width_hi);
     return st == PP_OK ? check_airy(out) : st;
@@ -222,7 +303,10 @@ static pp_status parse_kind(pp_spec *sp, const char *text, int is_file, pp_psf_s
     }
     if (strcmp(sp->name, "file") == 0)
         return pp_fail(PP_ERR_ARG, WHAT " '%s': missing the path (expected file:PATH)", text);
-    return pp_fail(PP_ERR_ARG, WHAT " '%s': unknown PSF model '%s' (accepted: %s)", text, sp->name,
+    static const char *const models[] = {"gaussian", "airy", "file", NULL};
+    const char *near = pp_spec_closest(sp->name, models);
+    return pp_fail(PP_ERR_ARG, WHAT " '%s': unknown PSF model '%s' (%s%s%saccepted: %s)", text,
+                   sp->name, near ? "did you mean " : "", near ? near : "", near ? "? " : "",
                    ACCEPTED_MODELS);
 }
 
@@ -287,28 +371,28 @@ void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len)
 /* ------------------------------------------------------------ models ---- */
 
 /* Radius from an explicit size (must be odd) or the model's default. */
-static pp_status pick_radius(size_t size, double model_radius, size_t *radius)
+pp_status pp_psf_pick_radius(size_t size, double model_radius, size_t *radius)
 {
     if (size != 0) {
         if (size % 2 == 0)
             return pp_fail(PP_ERR_ARG, "PSF size %zu must be odd (2R+1)", size);
-        if (size > 2 * MAX_RADIUS + 1)
+        if (size > 2 * PP_PSF_MAX_RADIUS + 1)
             return pp_fail(PP_ERR_LIMIT, "PSF size %zu is above the limit of %d", size,
-                           2 * MAX_RADIUS + 1);
+                           2 * PP_PSF_MAX_RADIUS + 1);
         *radius = (size - 1) / 2;
         return PP_OK;
     }
     double r = ceil(model_radius - 1e-9); /* a radius of exactly 4.0 stays 4 */
-    if (!(r <= MAX_RADIUS))
+    if (!(r <= PP_PSF_MAX_RADIUS))
         return pp_fail(PP_ERR_LIMIT,
                        "PSF radius %.0f pixels is above the limit of %d; check the units "
                        "(gaussian sigma is in pixels, airy lengths in micrometres)",
-                       r, MAX_RADIUS);
+                       r, PP_PSF_MAX_RADIUS);
     *radius = r < 1 ? 1 : (size_t)r;
     return PP_OK;
 }
 
-static void normalise(pp_image *k)
+void pp_psf_normalise(pp_image *k)
 {
     size_t n = k->width * k->height;
     double sum = 0;
@@ -326,7 +410,7 @@ static void fill_gaussian(double sigma, pp_image *k)
             double dy = (double)i - (double)r, dx = (double)j - (double)r;
             k->data[i * k->width + j] = exp(-(dx * dx + dy * dy) / (2 * sigma * sigma));
         }
-    normalise(k);
+    pp_psf_normalise(k);
 }
 
 /* An uncertain width sizes the kernel for the widest PSF of its range. */
@@ -334,7 +418,7 @@ static pp_status make_gaussian(const pp_psf_spec *spec, size_t size, pp_image **
 {
     size_t r;
     double widest = spec->width_auto ? spec->width_hi : spec->sigma;
-    pp_status st = pick_radius(size, 4.0 * widest, &r);
+    pp_status st = pp_psf_pick_radius(size, 4.0 * widest, &r);
     if (st != PP_OK || (st = pp_image_create(2 * r + 1, 2 * r + 1, out)) != PP_OK)
         return st;
     fill_gaussian(spec->sigma, *out);
@@ -391,7 +475,7 @@ static void fill_airy(const pp_psf_spec *spec, pp_image *img)
         for (size_t j = 0; j < img->width; j++)
             img->data[i * img->width + j] =
                 airy_pixel((double)i - (double)r, (double)j - (double)r, k, s);
-    normalise(img);
+    pp_psf_normalise(img);
 }
 
 static pp_status make_airy(const pp_psf_spec *spec, size_t size, pp_image **out)
@@ -402,7 +486,7 @@ static pp_status make_airy(const pp_psf_spec *spec, size_t size, pp_image **out)
     double na = spec->width_auto ? spec->width_lo : spec->na; /* widest: smallest NA */
     double k = 2.0 * PP_PI * na * spec->pixel / spec->wavelength;
     size_t r;
-    if ((st = pick_radius(size, j1_zero5 / k, &r)) != PP_OK ||
+    if ((st = pp_psf_pick_radius(size, j1_zero5 / k, &r)) != PP_OK ||
         (st = pp_image_create(2 * r + 1, 2 * r + 1, out)) != PP_OK)
         return st;
     fill_airy(spec, *out);
@@ -423,149 +507,6 @@ pp_status pp_psf_fill(const pp_psf_spec *s, pp_image *k)
     return PP_OK;
 }
 
-/* -------------------------------------------------------- bead files ---- */
-
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
-
-static double sorted_median(double *v, size_t m)
-{
-    qsort(v, m, sizeof *v, cmp_double);
-    return m % 2 ? v[m / 2] : 0.5 * (v[m / 2 - 1] + v[m / 2]);
-}
-
-/* Median and median absolute deviation of the outermost ring of pixels (the
- * bead's background and its noise). */
-static pp_status border_stats(const pp_image *img, double *med, double *mad)
-{
-    size_t w = img->width, h = img->height;
-    size_t n = (h == 1 || w == 1) ? w * h : 2 * w + 2 * h - 4, m = 0;
-    double *v = malloc(n * sizeof *v);
-    if (!v)
-        return pp_fail(PP_ERR_NOMEM, "out of memory for a PSF border");
-    for (size_t i = 0; i < h; i++)
-        for (size_t j = 0; j < w; j++)
-            if (i == 0 || j == 0 || i == h - 1 || j == w - 1)
-                v[m++] = img->data[i * w + j];
-    *med = sorted_median(v, m);
-    for (size_t i = 0; i < m; i++)
-        v[i] = fabs(v[i] - *med);
-    *mad = sorted_median(v, m);
-    free(v);
-    return PP_OK;
-}
-
-/* Subtracts the background med, clips negatives and divides by the peak
- * (so that sums of huge values cannot overflow). Returns the peak above
- * med (0 if none, inf if the subtraction overflows). */
-static double bead_subtract(pp_image *img, double med)
-{
-    size_t n = img->width * img->height;
-    double peak = 0;
-    for (size_t i = 0; i < n; i++) {
-        double *p = &img->data[i];
-        *p = *p > med ? *p - med : 0.0;
-        peak = *p > peak ? *p : peak;
-    }
-    if (peak > 0 && isfinite(peak))
-        for (size_t i = 0; i < n; i++)
-            img->data[i] /= peak;
-    return peak;
-}
-
-/* Background-subtracts and clips in place; returns the centroid pixel.
- * Refuses an image whose brightest pixel does not stand out from the border
- * by more than 5 robust standard deviations (1.4826 MAD, the Gaussian
- * consistency factor; a 5 sigma detection threshold is common practice, and
- * the largest of 10^6 pure-noise pixels is below it): such a "bead" is
- * noise or a negative image, and its kernel would be garbage. */
-static pp_status bead_clean(pp_image *img, const char *path, size_t *ci, size_t *cj)
-{
-    size_t w = img->width, h = img->height;
-    for (size_t i = 0; i < w * h; i++)
-        if (!isfinite(img->data[i]))
-            return pp_fail(PP_ERR_FORMAT, "%s: the PSF image has NaN/Inf pixels", path);
-    double med = 0, mad = 0, sum = 0, sy = 0, sx = 0;
-    pp_status st = border_stats(img, &med, &mad);
-    if (st != PP_OK)
-        return st;
-    double peak = bead_subtract(img, med);
-    if (!isfinite(peak))
-        return pp_fail(PP_ERR_NUMERIC, "%s: the PSF image's values are too large (subtracting "
-                       "the border median overflows); rescale it", path);
-    if (!(peak > 0))
-        return pp_fail(PP_ERR_FORMAT,
-                       "%s: no pixel of the PSF image is above its border median; is it a "
-                       "bead image?",
-                       path);
-    if (!(peak > 5.0 * 1.4826 * mad))
-        return pp_fail(PP_ERR_FORMAT,
-                       "%s: the brightest pixel of the PSF image is only %.3g above its border "
-                       "median, within 5 noise sds of the border (sd %.3g); is it a bead image?",
-                       path, peak, 1.4826 * mad);
-    for (size_t i = 0; i < h; i++)
-        for (size_t j = 0; j < w; j++) {
-            double p = img->data[i * w + j];
-            sum += p;
-            sy += p * (double)i;
-            sx += p * (double)j;
-        }
-    *ci = (size_t)floor(sy / sum + 0.5);
-    *cj = (size_t)floor(sx / sum + 0.5);
-    return PP_OK;
-}
-
-static size_t max4(size_t a, size_t b, size_t c, size_t d)
-{
-    size_t m = a > b ? a : b;
-    m = m > c ? m : c;
-    return m > d ? m : d;
-}
-
-/* Copies the (2r+1)^2 window of img centred on (ci, cj), zero outside. */
-static pp_status bead_window(const pp_image *img, size_t ci, size_t cj, size_t r, pp_image **out)
-{
-    pp_status st = pp_image_create(2 * r + 1, 2 * r + 1, out);
-    if (st != PP_OK)
-        return st;
-    pp_image *k = *out;
-    for (size_t a = 0; a < k->height; a++) {
-        long i = (long)ci + (long)a - (long)r;
-        for (size_t b = 0; b < k->width; b++) {
-            long j = (long)cj + (long)b - (long)r;
-            if (i >= 0 && j >= 0 && i < (long)img->height && j < (long)img->width)
-                k->data[a * k->width + b] = img->data[(size_t)i * img->width + (size_t)j];
-        }
-    }
-    normalise(k);
-    return PP_OK;
-}
-
-static pp_status make_file(const char *path, size_t size, pp_image **out)
-{
-    pp_image *img = NULL;
-    size_t ci = 0, cj = 0, r = 0;
-    pp_status st = pp_image_read(path, NULL, &img, NULL);
-    if (st != PP_OK)
-        return st;
-    st = bead_clean(img, path, &ci, &cj);
-    if (st == PP_OK && size == 0) {
-        r = max4(ci, img->height - 1 - ci, cj, img->width - 1 - cj);
-        if (r > MAX_RADIUS)
-            st = pp_fail(PP_ERR_LIMIT, "%s: the PSF image is larger than the limit of %d", path,
-                         2 * MAX_RADIUS + 1);
-    } else if (st == PP_OK) {
-        st = pick_radius(size, 0, &r);
-    }
-    if (st == PP_OK)
-        st = bead_window(img, ci, cj, r, out);
-    pp_image_free(img);
-    return st;
-}
-
 pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
 {
     *out = NULL;
@@ -577,7 +518,7 @@ pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
     case PP_PSF_AIRY:
         return make_airy(s, size, out);
     case PP_PSF_FILE:
-        return make_file(s->path, size, out);
+        return pp_psf_bead_make(s->path, size, out);
     }
     return pp_fail(PP_ERR_ARG, WHAT ": unknown PSF kind %d", (int)s->kind);
 }
@@ -603,6 +544,6 @@ pp_status pp_psf_check(pp_image *psf, size_t height, size_t width)
     }
     if (!(sum > 0) || !isfinite(sum))
         return pp_fail(PP_ERR_NUMERIC, "the PSF sums to %g; it needs a positive finite sum", sum);
-    normalise(psf);
+    pp_psf_normalise(psf);
     return PP_OK;
 }

@@ -1,10 +1,14 @@
-/* pixpost — SPEC string splitting: "name" or "name:key=value,...". */
+/* pixpost — SPEC string splitting: "name" or "name:key=value,...", the key
+ * checks and the spelling suggestions shared by every SPEC parser (and the
+ * CLI's option names). Cost: negligible (specs are a few dozen bytes). */
+#include "pixpost/spec.h"
+#include "internal.h"
+#include <ctype.h>
 #include <errno.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include "internal.h"
-#include "pixpost/spec.h"
+#include <strings.h>
 
 static pp_status copy_bounded(char *dst, size_t cap, const char *src, size_t n,
                               const char *what, const char *text)
@@ -16,6 +20,27 @@ static pp_status copy_bounded(char *dst, size_t cap, const char *src, size_t n,
     return PP_OK;
 }
 
+/* Refuses the first white-space character of text[0..n), saying where it
+ * is. A SPEC never holds one: "gaussian: sigma=1.6" would otherwise give an
+ * unknown key " sigma" and a message that hides the space. */
+static pp_status no_space(const char *text, size_t n, const char *what)
+{
+    for (size_t i = 0; i < n; i++) {
+        if (!isspace((unsigned char)text[i]))
+            continue;
+        if (i == 0)
+            return pp_fail(PP_ERR_ARG,
+                           "%s '%s': stray space at the start (a SPEC has no "
+                           "spaces: remove it)",
+                           what, text);
+        return pp_fail(PP_ERR_ARG,
+                       "%s '%s': stray space after '%.*s' (a SPEC has no "
+                       "spaces: remove it)",
+                       what, text, (int)i, text);
+    }
+    return PP_OK;
+}
+
 pp_status pp_spec_split(const char *text, const char *what, int raw_after_colon,
                         pp_spec *out)
 {
@@ -23,6 +48,11 @@ pp_status pp_spec_split(const char *text, const char *what, int raw_after_colon,
     if (!text || !text[0])
         return pp_fail(PP_ERR_ARG, "%s: empty value", what);
     const char *colon = strchr(text, ':');
+    /* a file path may hold spaces, but not begin with one */
+    size_t plain = raw_after_colon && colon ? (size_t)(colon - text) + 2 : strlen(text);
+    pp_status sp = no_space(text, plain < strlen(text) ? plain : strlen(text), what);
+    if (sp != PP_OK)
+        return sp;
     size_t nlen = colon ? (size_t)(colon - text) : strlen(text);
     pp_status st = copy_bounded(out->name, sizeof out->name, text, nlen, what, text);
     if (st != PP_OK)
@@ -40,8 +70,10 @@ pp_status pp_spec_split(const char *text, const char *what, int raw_after_colon,
         return copy_bounded(out->value[0], PP_SPEC_MAX_TEXT, p, strlen(p), what, text);
     }
     if (!*p)
-        return pp_fail(PP_ERR_ARG, "%s '%s': nothing after ':' (expected key=value)", what,
-                       text);
+        return pp_fail(PP_ERR_ARG,
+                       "%s '%s': nothing after ':' (expected key=value; if the shell split "
+                       "the SPEC at a space, remove the space)",
+                       what, text);
     while (*p) {
         const char *end = strchr(p, ',');
         size_t len = end ? (size_t)(end - p) : strlen(p);
@@ -106,11 +138,97 @@ int pp_spec_number(pp_spec *s, const char *key, const char *what, double *v, int
     return 0;
 }
 
-pp_status pp_spec_check_used(const pp_spec *s, const char *what, const char *accepted)
+/* Optimal-string-alignment distance of a and b compared in lower case
+ * (Damerau's four edits, no substring edited twice). Words longer than 63
+ * characters count as far from everything. */
+static size_t osa_distance(const char *a, const char *b)
+{
+    size_t n = strlen(a), m = strlen(b);
+    if (n > 63 || m > 63)
+        return (size_t)-1;
+    size_t d[64][64];
+    for (size_t i = 0; i <= n; i++)
+        d[i][0] = i;
+    for (size_t j = 0; j <= m; j++)
+        d[0][j] = j;
+    for (size_t i = 1; i <= n; i++)
+        for (size_t j = 1; j <= m; j++) {
+            int ai = tolower((unsigned char)a[i - 1]), bj = tolower((unsigned char)b[j - 1]);
+            size_t best = d[i - 1][j - 1] + (ai != bj);
+            if (d[i - 1][j] + 1 < best)
+                best = d[i - 1][j] + 1;
+            if (d[i][j - 1] + 1 < best)
+                best = d[i][j - 1] + 1;
+            if (i > 1 && j > 1 && ai == tolower((unsigned char)b[j - 2]) &&
+                tolower((unsigned char)a[i - 2]) == bj && d[i - 2][j - 2] + 1 < best)
+                best = d[i - 2][j - 2] + 1;
+            d[i][j] = best;
+        }
+    return d[n][m];
+}
+
+const char *pp_spec_closest(const char *word, const char *const *names)
+{
+    size_t limit = strlen(word) <= 4 ? 1 : 2, best = limit + 1;
+    const char *pick = NULL;
+    int ties = 0;
+    for (size_t i = 0; names[i]; i++) {
+        if (strcasecmp(word, names[i]) == 0)
+            return names[i];
+        size_t d = osa_distance(word, names[i]);
+        if (d < best) {
+            best = d;
+            pick = names[i];
+            ties = 0;
+        } else if (d == best) {
+            ties = 1;
+        }
+    }
+    return ties ? NULL : pick;
+}
+
+/* "a, b, c" (or "no keys") into buf. */
+static void join_names(const char *const *names, char *buf, size_t len)
+{
+    size_t used = 0;
+    buf[0] = '\0';
+    if (!names[0])
+        snprintf(buf, len, "no keys");
+    for (size_t i = 0; names[i] && used < len; i++)
+        used += (size_t)snprintf(buf + used, len - used, "%s%s", i ? ", " : "", names[i]);
+}
+
+/* The message for key k of s, which is not among `accepted`. */
+static pp_status unknown_key(const pp_spec *s, size_t k, const char *what,
+                             const char *const *accepted)
+{
+    char list[256], hint[96] = "";
+    join_names(accepted, list, sizeof list);
+    const char *near = pp_spec_closest(s->key[k], accepted);
+    if (near && strcasecmp(near, s->key[k]) == 0)
+        snprintf(hint, sizeof hint, "keys are lower case: did you mean %s? ", near);
+    else if (near)
+        snprintf(hint, sizeof hint, "did you mean %s? ", near);
+    return pp_fail(PP_ERR_ARG, "%s %s: unknown key '%s' (%saccepted: %s)", what, s->name, s->key[k],
+                   hint, list);
+}
+
+pp_status pp_spec_check_known(const pp_spec *s, const char *what, const char *const *accepted)
+{
+    for (size_t i = 0; i < s->nkeys; i++) {
+        size_t j = 0;
+        while (accepted[j] && strcmp(accepted[j], s->key[i]) != 0)
+            j++;
+        if (!accepted[j])
+            return unknown_key(s, i, what, accepted);
+    }
+    return PP_OK;
+}
+
+pp_status pp_spec_check_used(const pp_spec *s, const char *what, const char *const *accepted)
 {
     for (size_t i = 0; i < s->nkeys; i++)
         if (!s->used[i])
-            return pp_fail(PP_ERR_ARG, "%s %s: unknown key '%s' (accepted: %s)", what, s->name,
-                           s->key[i], accepted);
+            return unknown_key(s, i, what, accepted);
     return PP_OK;
 }

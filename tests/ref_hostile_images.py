@@ -138,7 +138,12 @@ def tiff_bytes(w, h, data=b"\0" * 16):
     return b"II*\0" + struct.pack("<I", 8) + ifd + data
 
 
-expect_ok(write("hand.tif", tiff_bytes(4, 4)), ["--psf", "gaussian:sigma=0.2"],
+# a 3x3 kernel fits the 4x4 frame (gaussian sigma below 0.3 px is refused
+# as deblurring nothing, and sigma 0.3 makes a 5x5 kernel)
+k3 = np.zeros((3, 3), np.float32)
+k3[1, 1], k3[0, 1], k3[1, 0], k3[1, 2], k3[2, 1] = 1, 0.1, 0.1, 0.1, 0.1
+tifffile.imwrite(P("k3.tif"), k3)
+expect_ok(write("hand.tif", tiff_bytes(4, 4)), ["--psf", "file:" + P("k3.tif")],
           "hand-made 4x4 8-bit TIFF (control)")
 expect_fail(write("zerowidth.tif", tiff_bytes(0, 4)), G, ["zerowidth.tif"], "TIFF declaring width 0")
 expect_fail(write("huge.tif", tiff_bytes(100000, 100000)), G, ["100000x100000", "limit"],

@@ -82,7 +82,9 @@ cases = [
     (["--prior", "matern:range=3,nu=1,"], ["--prior", "trailing ','"]),
     (["--psf", "gaussian:sigma=1,sigma=1"], ["--psf", "'sigma' is given twice"]),
     (["--psf", "gaussian:sigma=1e999"], ["--psf", "not a number"]),
-    (["--psf", "gaussian:width=1"], ["--psf", "missing sigma=", "gaussian:sigma=S"]),
+    (["--psf", "gaussian"], ["--psf", "missing sigma=", "gaussian:sigma=S"]),
+    # a key typed instead of sigma is named as itself, not as a missing sigma=
+    (["--psf", "gaussian:width=1"], ["--psf", "unknown key 'width'", "accepted: sigma"]),
     (["--psf", "gaussian:sigma=1,width=1"], ["--psf", "unknown key 'width'", "accepted"]),
     (["--psf", "airy:na=1.4"], ["--psf", "airy"]),
     (["--psf", "file:"], ["--psf", "missing the path"]),

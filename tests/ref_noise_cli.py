@@ -92,8 +92,10 @@ rng = np.random.default_rng(12345)
 truth = rng.uniform(0, 100, size=(48, 64)).astype(np.float32)  # not square: catches transposes
 truth[10:14, 20:23] += 500.0
 tifffile.imwrite(P("truth.tif"), truth)
-asym = np.zeros((7, 7), np.float32)  # centroid at the centre, not point-symmetric
-asym[3, 3], asym[3, 5], asym[1, 2], asym[5, 2] = 2.0, 1.0, 1.0, 1.0
+# centroid at the centre, not point-symmetric, one connected spot (a file:
+# PSF must be one bead, src/psf_bead.c)
+asym = np.zeros((7, 7), np.float32)
+asym[3, 3], asym[3, 4], asym[2, 2], asym[4, 2] = 2.0, 2.0, 1.0, 1.0
 tifffile.imwrite(P("asym.tif"), asym)
 psfs = ["gaussian:sigma=1.6", "airy:na=1.4,wavelength=0.52,pixel=0.065",
         "file:" + P("asym.tif")]

@@ -226,7 +226,7 @@ static void check_noise(void)
     CHECK(pp_model_add_noise(y, &ns, &rng) == PP_ERR_ARG && y->data[0] == 1.5 &&
               strstr(pp_error_message(), "sigma="),
           "gaussian without sigma refused, y unchanged: %s", pp_error_message());
-    pp_noise_parse("poisson", &ns);
+    pp_noise_parse("poisson:gain=1,offset=0", &ns);
     y->data[5] = NAN;
     y->data[0] = 1.5;
     CHECK(pp_model_add_noise(y, &ns, &rng) == PP_ERR_NUMERIC && y->data[0] == 1.5,

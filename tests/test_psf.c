@@ -5,6 +5,7 @@
 #include "pixpost/psf.h"
 #include "testutil.h"
 #include <math.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -274,9 +275,115 @@ static void check_file(void)
     pp_image_free(img);
 }
 
+/* Issue 14 item 4: values in the wrong unit are refused naming the unit
+ * expected; the edges of the ranges (src/psf.c) are accepted. */
+static void check_units(void)
+{
+    refused("airy:na=1.4,wavelength=0.52,pixel=65", "pixel=65 is in micrometres");
+    refused("airy:na=1.4,wavelength=0.52,pixel=65", "65 nm is pixel=0.065");
+    refused("airy:na=1.4,wavelength=0.52,pixel=0.0000650", "micrometres");
+    refused("airy:na=1.4,wavelength=0.52,pixel=6.5", "dark-ring"); /* camera pixel typed */
+    refused("airy:na=1.4,wavelength=0.52,pixel=6.5", "camera's pixel / magnification");
+    refused("airy:na=auto,wavelength=0.52,pixel=2", "dark-ring"); /* at hi = 1.5 */
+    refused("airy:na=1.4,wavelength=5,pixel=0.065", "[0.2, 2] micrometres");
+    refused("airy:na=1.4,wavelength=0.00052,pixel=0.065", "micrometres");
+    refused("airy:na=14,wavelength=0.52,pixel=0.065", "numerical aperture");
+    refused("gaussian:sigma=0.1", "below 0.3");
+    refused("gaussian:sigma=0.1", "not micrometres");
+    refused("gaussian:sigma=120", "not nanometres");
+    refused("gaussian:sigma=auto,lo=0.1,hi=2", "lo=0.1");
+    refused("gaussian:sigma=auto,lo=1,hi=30", "hi=30");
+    const char *ok[] = {"gaussian:sigma=0.3",
+                        "gaussian:sigma=20",
+                        "airy:na=1.4,wavelength=0.52,pixel=0.4", /* ring 0.57 px */
+                        "airy:na=0.05,wavelength=2,pixel=20",
+                        "airy:na=1.4,wavelength=0.2,pixel=0.001",
+                        "airy:na=auto,wavelength=0.52,pixel=0.065"};
+    for (size_t i = 0; i < sizeof ok / sizeof ok[0]; i++) {
+        pp_psf_spec s;
+        CHECK(pp_psf_parse(ok[i], &s) == PP_OK, "'%s' accepted: %s", ok[i], pp_error_message());
+    }
+}
+
+/* A w x h image of background 100 plus Gaussian spots (amplitude, row,
+ * column, sigma) and a seeded noise of sd `noise` (a sum of 12 uniforms,
+ * which is close enough to normal here). */
+typedef struct blob {
+    double amp, row, col, sigma;
+} blob;
+
+static pp_image *spots_image(size_t w, size_t h, const blob *b, size_t nb, double noise)
+{
+    pp_image *img = NULL;
+    pp_image_create(w, h, &img);
+    uint64_t x = 88172645463325252ull;
+    for (size_t i = 0; i < h; i++)
+        for (size_t j = 0; j < w; j++) {
+            double v = 100, u = 0;
+            for (size_t k = 0; k < nb; k++)
+                v += b[k].amp * exp(-(pow(i - b[k].row, 2) + pow(j - b[k].col, 2)) /
+                                    (2 * b[k].sigma * b[k].sigma));
+            for (int r = 0; r < 12; r++) {
+                x ^= x << 13, x ^= x >> 7, x ^= x << 17; /* xorshift64 */
+                u += (double)(x >> 11) / 9007199254740992.0;
+            }
+            img->data[i * w + j] = v + noise * (u - 6);
+        }
+    return img;
+}
+
+/* Writes img as name in the test folder, makes its file: PSF; returns the
+ * status (the kernel is freed) and leaves the message in pp_error_message. */
+static pp_status bead_status(const char *name, pp_image *img)
+{
+    pp_psf_spec s = {.kind = PP_PSF_FILE};
+    pp_image *k = NULL;
+    snprintf(s.path, sizeof s.path, "%s/%s", pp_test_tmpdir(), name);
+    pp_status st = pp_image_write(s.path, img);
+    if (st == PP_OK)
+        st = pp_psf_make(&s, 0, &k);
+    pp_image_free(k);
+    pp_image_free(img);
+    return st;
+}
+
+/* Issue 14 item 4: a file: PSF must be one compact bead (src/psf_bead.c);
+ * the real-image cases are in tests/ref_psf_bead.py. */
+static void check_one_bead(void)
+{
+    blob one[] = {{500, 30, 30, 1.5}}, off[] = {{500, 8, 50, 1.5}};
+    blob two[] = {{500, 30, 20, 1.5}, {400, 30, 44, 1.5}};
+    blob dim[] = {{500, 30, 20, 1.5}, {150, 30, 44, 1.5}};
+    blob wide[] = {{500, 64, 64, 30}}, edge[] = {{500, 30, 30, 19}};
+    CHECK(bead_status("one.tif", spots_image(61, 61, one, 1, 5)) == PP_OK,
+          "a noisy bead (peak 100 noise sd) is accepted: %s", pp_error_message());
+    CHECK(bead_status("off.tif", spots_image(61, 61, off, 1, 5)) == PP_OK,
+          "an off-centre noisy bead is accepted: %s", pp_error_message());
+    CHECK(bead_status("faint.tif", spots_image(61, 61, one, 1, 50)) == PP_OK,
+          "a faint bead (peak 10 noise sd) is accepted: %s", pp_error_message());
+    CHECK(bead_status("edge.tif", spots_image(161, 161, edge, 1, 1)) == PP_OK,
+          "a bead of sigma 19 px (45 px at half peak) is accepted: %s", pp_error_message());
+    pp_status st = bead_status("two.tif", spots_image(65, 61, two, 2, 5));
+    const char *m = pp_error_message();
+    CHECK(st == PP_ERR_FORMAT && strstr(m, "two.tif") && strstr(m, "not one bead") &&
+              strstr(m, "2 separate spots") && strstr(m, "55 %"),
+          "two beads refused, saying what was measured: %s", m);
+    st = bead_status("dim.tif", spots_image(65, 61, dim, 2, 5));
+    m = pp_error_message();
+    CHECK(st == PP_ERR_FORMAT && strstr(m, "not one bead"),
+          "a second bead at 30 %% of the first refused: %s", m);
+    st = bead_status("wide.tif", spots_image(129, 129, wide, 1, 5));
+    m = pp_error_message();
+    CHECK(st == PP_ERR_FORMAT && strstr(m, "wide.tif") && strstr(m, "pixels across") &&
+              strstr(m, "at most 47"),
+          "a spot 70 px across (sigma 30) refused: %s", m);
+}
+
 int main(void)
 {
     check_parse();
+    check_units();
+    check_one_bead();
     check_gaussian();
     check_airy(1.4, 0.52, 0.065); /* typical: ~2.7 pixels per lambda/(2NA) */
     check_airy(0.5, 0.6, 0.25);   /* coarse pixels */

@@ -7,6 +7,11 @@
  *   poisson:gain=G,offset=O         ADU = O + G * Poisson(photons)
  *   camera:gain=G,offset=O,read=R   ADU = O + G * (Poisson(photons) + N(0, R^2))
  *                                   (read noise R in electrons)
+ * gain (ADU per electron) and offset (the dark level, ADU) are required for
+ * poisson and camera, read too for camera: there is no silent default. The
+ * gain may be given as e_per_adu=E (electrons per ADU, the figure camera
+ * data sheets print; G = 1/E), not both; pp_noise_format always writes
+ * gain=.
  */
 #ifndef PIXPOST_NOISE_H
 #define PIXPOST_NOISE_H
@@ -25,8 +30,8 @@ typedef struct pp_noise_spec {
     pp_noise_kind kind;
     double sigma;   /* gaussian: fixed sd when sigma_set */
     int sigma_set;
-    double gain;    /* ADU per photo-electron (default 1) */
-    double offset;  /* ADU (default 0) */
+    double gain;    /* ADU per photo-electron */
+    double offset;  /* ADU, the camera's dark level */
     double read;    /* electrons rms (camera) */
 } pp_noise_spec;
 

@@ -130,6 +130,32 @@ static int take_value(cli_args *a, int i, const char *inline_value, int argc, ch
     return store(a, i, argv[*k]);
 }
 
+/* The option name (without dashes) that `word` most likely misspells, or
+ * NULL (pp_spec_closest: one edit for short words, two for longer). */
+static const char *closest_option(const cli_args *a, const char *word, size_t len)
+{
+    char w[64];
+    const char *names[CLI_MAX_OPTS + 1];
+    if (len >= sizeof w)
+        return NULL;
+    memcpy(w, word, len);
+    w[len] = '\0';
+    for (size_t i = 0; i < a->nopts; i++)
+        names[i] = a->opt[i]->name;
+    names[a->nopts] = NULL;
+    return pp_spec_closest(w, names);
+}
+
+/* "unknown option" with a "did you mean --X?" when one option is close. */
+static int unknown_option(const cli_args *a, const char *shown, int shown_len, const char *near)
+{
+    if (near)
+        return cli_error("%s: unknown option '%.*s' (did you mean --%s? see 'pixpost %s --help')",
+                         a->command, shown_len, shown, near, a->command);
+    return cli_error("%s: unknown option '%.*s' (see 'pixpost %s --help')", a->command, shown_len,
+                     shown, a->command);
+}
+
 static int parse_long(cli_args *a, int argc, char **argv, int *k)
 {
     const char *arg = argv[*k] + 2;
@@ -137,21 +163,36 @@ static int parse_long(cli_args *a, int argc, char **argv, int *k)
     size_t len = eq ? (size_t)(eq - arg) : strlen(arg);
     int i = find_long(a, arg, len);
     if (i < 0)
-        return cli_error("%s: unknown option '--%.*s' (see 'pixpost %s --help')", a->command,
-                         (int)len, arg, a->command);
+        return unknown_option(a, argv[*k], (int)len + 2, closest_option(a, arg, len));
     return take_value(a, i, eq ? eq + 1 : NULL, argc, argv, k);
+}
+
+/* An unknown short form: "-O" may be "-o" (case); "-iters" is a long
+ * option typed with one dash. */
+static int unknown_short(const cli_args *a, const char *arg)
+{
+    const char *near = NULL;
+    if (arg[2]) {
+        const char *eq = strchr(arg + 1, '=');
+        size_t len = eq ? (size_t)(eq - arg - 1) : strlen(arg + 1);
+        near = closest_option(a, arg + 1, len);
+    } else {
+        for (size_t i = 0; i < a->nopts && !near; i++)
+            if (a->opt[i]->short_name &&
+                tolower((unsigned char)a->opt[i]->short_name) == tolower((unsigned char)arg[1]))
+                return cli_error("%s: unknown option '%s' (did you mean -%c? see 'pixpost %s "
+                                 "--help')",
+                                 a->command, arg, a->opt[i]->short_name, a->command);
+    }
+    return unknown_option(a, arg, (int)strlen(arg), near);
 }
 
 static int parse_short(cli_args *a, int argc, char **argv, int *k)
 {
     const char *arg = argv[*k];
     int i = find_short(a, arg[1]);
-    if (i < 0)
-        return cli_error("%s: unknown option '%s' (see 'pixpost %s --help')", a->command, arg,
-                         a->command);
-    if (arg[2] && !a->opt[i]->takes_value)
-        return cli_error("%s: unknown option '%s' (see 'pixpost %s --help')", a->command, arg,
-                         a->command);
+    if (i < 0 || (arg[2] && !a->opt[i]->takes_value))
+        return unknown_short(a, arg);
     return take_value(a, i, arg[2] ? arg + 2 : NULL, argc, argv, k);
 }
 
@@ -379,6 +420,13 @@ int cli_positionals(const cli_args *a, size_t n, const char *what)
     if (a->npos < n)
         return cli_error("%s: missing %s (usage: see 'pixpost %s --help')", a->command, what,
                          a->command);
+    /* "--psf gaussian: sigma=1.6" unquoted: the shell made "sigma=1.6" an
+     * argument of its own */
+    if (a->npos > n && strchr(a->pos[n], '=') && a->pos[n][0] != '-')
+        return cli_error("%s: unexpected argument '%s' (only %s is taken; it looks like part "
+                         "of a SPEC that the shell split at a space: remove the space, or "
+                         "quote the whole SPEC)",
+                         a->command, a->pos[n], what);
     if (a->npos > n)
         return cli_error("%s: unexpected argument '%s' (only %s is taken; see 'pixpost %s "
                          "--help')",

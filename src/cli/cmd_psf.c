@@ -21,9 +21,11 @@ void cli_psf_help(FILE *fp)
     const cli_opt *tables[] = {psf_table, NULL};
     fputs("Usage: pixpost psf SPEC [--size N] -o OUT\n\n"
           "Writes the point-spread function SPEC as an odd-sized square kernel, centred on\n"
-          "its middle pixel and normalised to sum 1. SPEC is gaussian:sigma=S (pixels),\n"
-          "airy:na=NA,wavelength=L,pixel=P (micrometres; in-focus Airy pattern averaged over\n"
-          "each pixel) or file:PATH (a bead image: border median removed, centred).\n\n"
+          "its middle pixel and normalised to sum 1. SPEC is gaussian:sigma=S (pixels,\n"
+          "0.3 to 20), airy:na=NA,wavelength=L,pixel=P (micrometres: L 0.2 to 2, P the\n"
+          "sample-plane pixel, 0.001 to 20; in-focus Airy pattern averaged over each pixel)\n"
+          "or file:PATH (an image of one bead: border median removed, centred; an image\n"
+          "that is not one compact spot is refused).\n\n"
           "Options:\n",
           fp);
     cli_print_options(fp, tables, NULL, NULL);

@@ -14,12 +14,15 @@ static const cli_opt simulate_table[] = {
      "Output frame: .tif/.tiff (32-bit float, values as simulated) or .png (16-bit; values "
      "rounded, stored as is when they fit 0..65535, else rescaled with a note). Required."},
     {"psf", 0, 1, "SPEC",
-     "Point-spread function: gaussian:sigma=S (pixels), airy:na=NA,wavelength=L,pixel=P "
-     "(micrometres) or file:PATH. Required."},
+     "Point-spread function: gaussian:sigma=S (pixels, 0.3 to 20), "
+     "airy:na=NA,wavelength=L,pixel=P (L 0.2 to 2 and P 0.001 to 20 micrometres; P is the "
+     "sample-plane pixel) or file:PATH (an image of one bead). Required."},
     {"noise", 0, 1, "SPEC",
      "none, gaussian:sigma=S (camera units), poisson:gain=G,offset=O or "
      "camera:gain=G,offset=O,read=R. For poisson/camera TRUTH is in photons and OUT in "
-     "ADU = offset + gain * electrons. Required."},
+     "ADU = offset + gain * electrons; gain (ADU per electron; or e_per_adu=E, the "
+     "electrons per ADU of camera data sheets, gain = 1/E), offset (the dark level, ADU) "
+     "and, for camera, read (electrons) must be given. Required."},
     {"seed", 0, 1, "N", "Random seed (whole number 0 to 2^64-1). Default: 1."},
     {"boundary", 0, 1, "pad|periodic",
      "pad: the scene is zero outside the frame; periodic: the frame wraps around. "

@@ -20,13 +20,17 @@ static const cli_opt sample_table[] = {
         "created if missing. Required.",
     },
     {"psf", 0, 1, "SPEC",
-     "Point-spread function: gaussian:sigma=S (pixels), airy:na=NA,wavelength=L,pixel=P "
-     "(micrometres) or file:PATH (a bead image). An uncertain width is sampled with "
+     "Point-spread function: gaussian:sigma=S (pixels, 0.3 to 20), "
+     "airy:na=NA,wavelength=L,pixel=P (L 0.2 to 2 and P 0.001 to 20 micrometres; P is the "
+     "sample-plane pixel, camera pixel / magnification) or file:PATH (an image of one bead). "
+     "An uncertain width is sampled with "
      "gaussian:sigma=auto[,lo=A,hi=B] (default 0.5..4 px) or airy:na=auto[,lo=A,hi=B],"
      "wavelength=L,pixel=P (default 0.4..1.5), gibbs or mtc only. Required."},
     {"noise", 0, 1, "SPEC",
      "Noise model: gaussian (precision sampled), gaussian:sigma=S (fixed, camera units), "
-     "poisson:gain=G,offset=O or camera:gain=G,offset=O,read=R (read noise in electrons)."},
+     "poisson:gain=G,offset=O or camera:gain=G,offset=O,read=R. Required keys: gain G in ADU "
+     "per electron (or e_per_adu=E, the electrons per ADU that camera data sheets print; "
+     "G = 1/E), offset O the camera's dark level in ADU, read R the read noise in electrons."},
     {"prior", 0, 1, "SPEC",
      "Prior: gmrf1, gmrf2 or matern:range=R,nu=V; any of them also takes delta=D to fix the "
      "prior precision."},

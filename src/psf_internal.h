@@ -1,0 +1,32 @@
+/* pixpost — internals of the PSF module shared between psf.c and
+ * psf_bead.c (not installed). */
+#ifndef PIXPOST_PSF_INTERNAL_H
+#define PIXPOST_PSF_INTERNAL_H
+
+#include "pixpost/image.h"
+
+/* The widest gaussian PSF accepted, sigma in pixels (the reason is in
+ * psf.c); a bead image's spot may be as wide at half its peak as this
+ * PSF's FWHM, 2 sqrt(2 ln 2) * 20 = 47.1 px (psf_bead.c). */
+#define PP_PSF_SIGMA_MAX 20.0
+
+/* Largest kernel radius, in pixels (a 4097-pixel square, far beyond any
+ * real frame); a bigger model kernel is almost surely a unit mistake (nm
+ * for um, um for pixels). */
+#define PP_PSF_MAX_RADIUS 2048
+
+/* Kernel radius from an explicit size (must be odd, PP_ERR_ARG otherwise)
+ * or, for size 0, ceil(model_radius) (at least 1). PP_ERR_LIMIT above
+ * PP_PSF_MAX_RADIUS. (psf.c) */
+pp_status pp_psf_pick_radius(size_t size, double model_radius, size_t *radius);
+
+/* Divides k by its sum (which must be positive and finite). (psf.c) */
+void pp_psf_normalise(pp_image *k);
+
+/* The kernel of the bead image at path: read, background handled, checked
+ * to be one compact bead (PP_ERR_FORMAT naming the file and what was
+ * measured otherwise), centred on its centroid, size 0 = its own support
+ * (else odd), normalised. *out is owned by the caller. (psf_bead.c) */
+pp_status pp_psf_bead_make(const char *path, size_t size, pp_image **out);
+
+#endif
