@@ -1,6 +1,7 @@
 /* pixpost — measured bead images as PSFs (file:PATH): the border median is
- * taken as the background and subtracted, negatives clipped, the image
- * checked to be one bead, and the kernel centred on the bead's centroid.
+ * taken as the background and subtracted, the image checked to be one
+ * bead, everything outside the bead's support set to zero and negatives
+ * clipped (bead_support), and the kernel centred on the bead's centroid.
  *
  * Is it one bead? The test refuses a whole cell image, a field of nuclei or
  * two beads, which the background handling alone would turn into a
@@ -43,6 +44,12 @@
 #define BRIGHT_NOISE_SDS 4.0
 #define ONE_SPOT_SHARE 0.9
 
+/* The "bright" threshold of the one-spot test (criterion 1 above). */
+static double bright_threshold(double noise_sd)
+{
+    return fmax(BRIGHT_FRACTION, BRIGHT_NOISE_SDS * noise_sd);
+}
+
 typedef struct spot {
     double sum;  /* summed value of its bright pixels */
     size_t half; /* its pixels at or above half the peak */
@@ -75,7 +82,7 @@ static spot fill(const pp_image *img, double t, size_t seed, uint8_t *mark, size
     return s;
 }
 
-/* Checks that img (background-subtracted, clipped, maximum 1) holds one
+/* Checks that img (background-subtracted, maximum 1) holds one
  * compact spot, by the criterion at the top of this file; noise_sd is the
  * border's robust noise sd on img's scale. Does not modify img. */
 static pp_status one_spot(const pp_image *img, double noise_sd, const char *path)
@@ -84,7 +91,7 @@ static pp_status one_spot(const pp_image *img, double noise_sd, const char *path
     for (size_t p = 1; p < n; p++)
         if (img->data[p] > img->data[peak])
             peak = p;
-    double t = fmax(BRIGHT_FRACTION, BRIGHT_NOISE_SDS * noise_sd);
+    double t = bright_threshold(noise_sd);
     uint8_t *mark = calloc(n, 1);
     size_t *stack = malloc(n * sizeof *stack);
     if (!mark || !stack) {
@@ -132,12 +139,18 @@ static double sorted_median(double *v, size_t m)
     return m % 2 ? v[m / 2] : 0.5 * (v[m / 2 - 1] + v[m / 2]);
 }
 
+/* The number of pixels in the image's outermost ring. */
+static size_t border_count(const pp_image *img)
+{
+    size_t w = img->width, h = img->height;
+    return (h == 1 || w == 1) ? w * h : 2 * w + 2 * h - 4;
+}
+
 /* Median and median absolute deviation of the outermost ring of pixels (the
  * bead's background and its noise). */
 static pp_status border_stats(const pp_image *img, double *med, double *mad)
 {
-    size_t w = img->width, h = img->height;
-    size_t n = (h == 1 || w == 1) ? w * h : 2 * w + 2 * h - 4, m = 0;
+    size_t w = img->width, h = img->height, n = border_count(img), m = 0;
     double *v = malloc(n * sizeof *v);
     if (!v)
         return pp_fail(PP_ERR_NOMEM, "out of memory for a PSF border");
@@ -153,16 +166,17 @@ static pp_status border_stats(const pp_image *img, double *med, double *mad)
     return PP_OK;
 }
 
-/* Subtracts the background med, clips negatives and divides by the peak
- * (so that sums of huge values cannot overflow). Returns the peak above
- * med (0 if none, inf if the subtraction overflows). */
+/* Subtracts the background med and divides by the peak (so that sums of
+ * huge values cannot overflow); negatives are kept for now (bead_support
+ * needs the unbiased values). Returns the peak above med (0 if none, inf if
+ * the subtraction overflows). */
 static double bead_subtract(pp_image *img, double med)
 {
     size_t n = img->width * img->height;
     double peak = 0;
     for (size_t i = 0; i < n; i++) {
         double *p = &img->data[i];
-        *p = *p > med ? *p - med : 0.0;
+        *p -= med;
         peak = *p > peak ? *p : peak;
     }
     if (peak > 0 && isfinite(peak))
@@ -171,7 +185,64 @@ static double bead_subtract(pp_image *img, double med)
     return peak;
 }
 
-/* Background-subtracts and clips in place; returns the centroid pixel.
+/* Limits the bead to its support and clips negatives. Clipping alone keeps
+ * the positive half of the background noise: on a 91 x 91 crop at peak /
+ * noise sd 100 that pedestal held about 80 % of the kernel's sum, a broad
+ * skirt the sampler would take for blur. The support is the disc around
+ * the bead's centre (cy, cx: the centroid of the pixels at or above t)
+ * out to the last one-pixel ring whose mean stands more than 4 standard
+ * errors above zero, plus one ring. The standard error holds the ring's
+ * own noise, noise_sd / sqrt(pixels in the ring), and that of the
+ * subtracted background, bg_se (the border median's: 1.2533 noise_sd /
+ * sqrt(border pixels) for Gaussian noise, the textbook large-sample
+ * value); without the latter a wide ring far out crossed 4 errors on a
+ * 91 x 91 crop at peak / noise 1000 (the median was 0.06 sd off). Cut at
+ * the last ring with light, not the first without, so that an Airy
+ * pattern keeps its bright rings beyond the first dark one. Beyond 4
+ * standard errors a pure-noise ring is a 3e-5 event. On a noise-free image
+ * (noise_sd 0) every ring with any light is kept, so pixpost's own kernels
+ * pass through unchanged. */
+static pp_status bead_support(pp_image *img, double noise_sd, double bg_se, double t)
+{
+    size_t w = img->width, h = img->height, n = w * h;
+    double sy = 0, sx = 0, sw = 0;
+    for (size_t p = 0; p < n; p++)
+        if (img->data[p] >= t) {
+            sw += img->data[p];
+            sy += img->data[p] * (double)(p / w);
+            sx += img->data[p] * (double)(p % w);
+        }
+    double cy = sy / sw, cx = sx / sw;
+    size_t rings = (size_t)ceil(hypot((double)h, (double)w)) + 1;
+    double *sum = calloc(rings, sizeof *sum), *cnt = calloc(rings, sizeof *cnt);
+    if (!sum || !cnt) {
+        free(sum);
+        free(cnt);
+        return pp_fail(PP_ERR_NOMEM, "out of memory for a PSF profile");
+    }
+    for (size_t p = 0; p < n; p++) {
+        size_t b = (size_t)hypot((double)(p / w) - cy, (double)(p % w) - cx);
+        sum[b] += img->data[p];
+        cnt[b] += 1;
+    }
+    size_t last = 0;
+    for (size_t b = 0; b < rings; b++)
+        if (cnt[b] > 0 &&
+            sum[b] / cnt[b] > 4.0 * sqrt(noise_sd * noise_sd / cnt[b] + bg_se * bg_se))
+            last = b;
+    free(sum);
+    free(cnt);
+    double radius = (double)last + 2.0; /* the rings 0..last, and one more */
+    for (size_t p = 0; p < n; p++) {
+        double *v = &img->data[p];
+        if (*v < 0 || hypot((double)(p / w) - cy, (double)(p % w) - cx) >= radius)
+            *v = 0.0;
+    }
+    return PP_OK;
+}
+
+/* Background-subtracts, limits to the bead's support and clips in place
+ * (bead_support); returns the centroid pixel.
  * Refuses an image whose brightest pixel does not stand out from the border
  * by more than 5 robust standard deviations (1.4826 MAD, the Gaussian
  * consistency factor; a 5 sigma detection threshold is common practice, and
@@ -204,7 +275,10 @@ static pp_status bead_clean(pp_image *img, const char *path, size_t *ci, size_t 
                        "%s: the brightest pixel of the PSF image is only %.3g above its border "
                        "median, within 5 noise sds of the border (sd %.3g); is it a bead image?",
                        path, peak, 1.4826 * mad);
-    if ((st = one_spot(img, 1.4826 * mad / peak, path)) != PP_OK)
+    double noise_sd = 1.4826 * mad / peak;
+    if ((st = one_spot(img, noise_sd, path)) != PP_OK ||
+        (st = bead_support(img, noise_sd, 1.2533 * noise_sd / sqrt((double)border_count(img)),
+                           bright_threshold(noise_sd))) != PP_OK)
         return st;
     for (size_t i = 0; i < h; i++)
         for (size_t j = 0; j < w; j++) {
