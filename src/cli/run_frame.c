@@ -190,7 +190,8 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
         cli_stop_uninstall();
     if (st == PP_ERR_INTERRUPTED) {
         r->interrupted = 1;
-        return fail_msg(r, "%s: interrupted; no outputs were written", r->frame);
+        return fail_msg(r, "%s: interrupted by %s; no outputs were written", r->frame,
+                        r->stop && *r->stop == SIGTERM ? "SIGTERM" : "SIGINT");
     }
     if (st != PP_OK)
         return fail_frame(r, st);
