@@ -245,12 +245,14 @@ int cli_cmd_demo(int argc, char **argv)
                          "--images DIR)",
                          a.pos[0]);
     const char *outdir = cli_given(&a, "output") ? cli_str(&a, "output") : "pixpost-demo";
+    int overwrite = cli_given(&a, "overwrite");
+    if ((rc = check_folders(outdir, overwrite)) != 0)
+        return rc;
     if (cli_given(&a, "images"))
         snprintf(images, sizeof images, "%s", cli_str(&a, "images"));
     else if ((rc = find_images(images, sizeof images)) != 0)
         return rc;
-    int overwrite = cli_given(&a, "overwrite");
-    if ((rc = check_folders(outdir, overwrite)) != 0 || (rc = make_dir(outdir)) != 0)
+    if ((rc = make_dir(outdir)) != 0)
         return rc;
     pp_status st = pp_output_mark(outdir, "pixpost demo");
     if (st != PP_OK)
