@@ -5,7 +5,8 @@
  * command name ("sample") and the options follow, like a small main(); it
  * returns the process exit status (DESIGN.md section 6):
  *   0 success, 1 bad usage or bad input (one line on stderr), 2 a batch in
- *   which some frames failed, 3 convergence warnings with --strict.
+ *   which some frames failed, 3 convergence warnings with --strict, 128 +
+ *   the signal number when stopped by SIGINT/SIGTERM (sample, batch).
  *
  * Option parsing is table driven (args.c): a command lists its options in
  * cli_opt tables, cli_parse() collects the raw strings (refusing unknown,
