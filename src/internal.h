@@ -85,6 +85,7 @@ void pp_diag_pixel(const double *hm, size_t k, double m2_sum, double m, double w
 
 #define PP_MAX_PROBES 9
 #define PP_MAX_WARNINGS 64
+#define PP_MAX_NOTES 16
 
 /* The working buffers of one running chain, one set per thread: a chain
  * runs start to finish on one thread, so 4 chains on 1 thread need one set,
@@ -194,8 +195,10 @@ struct pp_sampler {
     size_t col_probe0;    /* trace column of the first probe */
     long col_width;       /* trace column "psf_width", -1 when the width is fixed */
     const char *pad_scheme; /* mtc with --boundary pad: the scheme used (static text) */
-    char *warnings[PP_MAX_WARNINGS];
+    char *warnings[PP_MAX_WARNINGS]; /* convergence and set-up warnings (--strict) */
     size_t nwarnings;
+    char *notes[PP_MAX_NOTES]; /* information about the data, not warnings */
+    size_t nnotes;
     double seconds;
     unsigned long long progress_done;
     int ran;
@@ -218,8 +221,12 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
  * after the estimates are pooled. */
 pp_status pp_sampler_diagnose(pp_sampler *s);
 
-/* Adds a warning sentence (printf-style) to the sampler. */
+/* Adds a warning sentence (printf-style) to the sampler: something that
+ * makes the results less trustworthy (what --strict exits on). */
 void pp_sampler_warn(pp_sampler *s, const char *fmt, ...) PP_PRINTF(2, 3);
+/* Adds a note: information about the data or the model that does not make
+ * the run less trustworthy (e.g. frequencies the PSF removes entirely). */
+void pp_sampler_add_note(pp_sampler *s, const char *fmt, ...) PP_PRINTF(2, 3);
 /* Progress and stop handling for a chain: call once per iteration. Returns
  * non-zero when the caller asked to stop. */
 int pp_sampler_tick(pp_sampler *s);

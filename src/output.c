@@ -5,6 +5,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include "internal.h"
 #include "pixpost/diag.h"
 #include "pixpost/io.h"
@@ -230,6 +231,17 @@ static void json_convergence(FILE *f, const pp_sampler *s)
             cv.converged ? "true" : "false");
 }
 
+/* "  \"key\": [\"...\", ...]" (no trailing comma or newline). */
+static void json_sentences(FILE *f, const char *key, char *const *list, size_t n)
+{
+    fprintf(f, "  \"%s\": [", key);
+    for (size_t i = 0; i < n; i++) {
+        fputs(i ? ", " : "", f);
+        pp_json_write_string(f, list[i]);
+    }
+    fputc(']', f);
+}
+
 typedef struct png_scales {
     double mean_offset, mean_scale, sd_offset, sd_scale;
 } png_scales;
@@ -303,12 +315,10 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
         json_mtc(f, s);
     json_diagnostics(f, s);
     json_convergence(f, s);
-    fputs("  \"warnings\": [", f);
-    for (size_t i = 0; i < s->nwarnings; i++) {
-        fputs(i ? ", " : "", f);
-        pp_json_write_string(f, s->warnings[i]);
-    }
-    fputs("]\n}\n", f);
+    json_sentences(f, "notes", s->notes, s->nnotes);
+    fputs(",\n", f);
+    json_sentences(f, "warnings", s->warnings, s->nwarnings);
+    fputs("\n}\n", f);
     if (st != PP_OK) {
         pp_atomic_abort(tmp, f);
         return st;
@@ -385,11 +395,49 @@ static pp_status name_final(pp_status st, const char *staged, const char *dir, c
     return pp_fail(st, "%.*s%s%s", (int)(at - m), m, final, at + strlen(staged));
 }
 
+pp_status pp_output_mark(const char *dir, const char *writer)
+{
+    char path[PP_PATH_MAX], tmp[PP_PATH_MAX];
+    FILE *f;
+    pp_status st = join(path, dir, PP_OUTPUT_MARKER);
+    if (st == PP_OK)
+        st = pp_atomic_open(path, tmp, &f);
+    if (st != PP_OK)
+        return st;
+    fprintf(f, "%s\nwritten by pixpost %s: %s\n", PP_OUTPUT_MARKER_LINE, PIXPOST_VERSION,
+            writer && writer[0] ? writer : "(not recorded)");
+    fputs("pixpost writes into this folder again without --overwrite and replaces its own "
+          "outputs here (mean.tif, summary.json, ...); other files are kept. Delete this "
+          "file to make pixpost treat the folder as not its own.\n",
+          f);
+    return pp_atomic_commit(path, tmp, f);
+}
+
+int pp_output_is_marked(const char *dir)
+{
+    char path[PP_PATH_MAX], line[sizeof PP_OUTPUT_MARKER_LINE + 1] = "";
+    struct stat sb;
+    if (join(path, dir, PP_OUTPUT_MARKER) != PP_OK || stat(path, &sb) != 0 ||
+        !S_ISREG(sb.st_mode))
+        return 0;
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return 0;
+    size_t n = fread(line, 1, sizeof line - 1, f);
+    fclose(f);
+    line[n] = '\0';
+    return strcmp(line, PP_OUTPUT_MARKER_LINE "\n") == 0;
+}
+
 pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
                           const pp_run_info *info)
 {
     if (!s->ran)
         return pp_fail(PP_ERR_ARG, "pp_output_write: the sampler has not run");
+    /* the marker first: any output of this run found later comes with it */
+    pp_status mst = pp_output_mark(dir, info ? info->command_line : NULL);
+    if (mst != PP_OK)
+        return mst;
     png_scales ps;
     pp_png_auto_scale(s->mean, &ps.mean_offset, &ps.mean_scale);
     double lo, hi;

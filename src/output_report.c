@@ -63,6 +63,8 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
     in.nsettings = NSET;
     in.warnings = (const char *const *)s->warnings;
     in.nwarnings = s->nwarnings;
+    in.notes = (const char *const *)s->notes;
+    in.nnotes = s->nnotes;
     in.level = c->level;
     /* Photon models: the frame is in ADU, x (mean, sd, bounds) in photons
      * per pixel, the intensity whose blur plus background is the expected

@@ -517,22 +517,34 @@ static void settings_section(page *pg)
     fputs("</table></section>\n", f);
 }
 
+static void sentence_list(FILE *f, const char *id, const char *const *list, size_t n)
+{
+    fprintf(f, "<ul id=\"%s\">\n", id);
+    for (size_t i = 0; i < n; i++) {
+        fputs("<li>", f);
+        pp_report_escape(f, list[i]);
+        fputs("</li>\n", f);
+    }
+    fputs("</ul>\n", f);
+}
+
+/* The warnings, then the notes (information, not warnings) when any. */
 static void warnings_section(page *pg)
 {
     const pp_report_input *in = pg->in;
     FILE *f = pg->f;
     fputs("<section id=\"warnings\"><h2>Warnings</h2>\n", f);
-    if (in->nwarnings == 0) {
-        fputs("<p id=\"warnings-none\">No warnings were raised.</p></section>\n", f);
-        return;
+    if (in->nwarnings == 0)
+        fputs("<p id=\"warnings-none\">No warnings were raised.</p>\n", f);
+    else
+        sentence_list(f, "warnings-list", in->warnings, in->nwarnings);
+    if (in->nnotes) {
+        fputs("<h3>Notes</h3>\n<p>Information about the data and the model, not a sign "
+              "that the run went wrong.</p>\n",
+              f);
+        sentence_list(f, "notes-list", in->notes, in->nnotes);
     }
-    fputs("<ul id=\"warnings-list\">\n", f);
-    for (size_t i = 0; i < in->nwarnings; i++) {
-        fputs("<li>", f);
-        pp_report_escape(f, in->warnings[i]);
-        fputs("</li>\n", f);
-    }
-    fputs("</ul></section>\n", f);
+    fputs("</section>\n", f);
 }
 
 /* ---- The page ----------------------------------------------------------- */
@@ -599,6 +611,7 @@ static pp_status validate(const char *path, const pp_report_input *in)
     if (t && t->chains && t->kept && t->ncols && (!t->values || !t->names))
         return pp_fail(PP_ERR_ARG, "%s: report trace has no values or names", path);
     if ((in->nscalars && !in->scalars) || (in->nwarnings && !in->warnings) ||
+        (in->nnotes && !in->notes) ||
         (in->nsettings && (!in->settings_keys || !in->settings_values)))
         return pp_fail(PP_ERR_ARG, "%s: report table with a count but no rows", path);
     return PP_OK;

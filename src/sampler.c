@@ -237,12 +237,12 @@ static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image 
         s->otf2[i] = creal(s->otf[i]) * creal(s->otf[i]) + cimag(s->otf[i]) * cimag(s->otf[i]);
         zeros += s->otf2[i] < 1e-20; /* |A(k)| < 1e-10 of its value at k = 0 */
     }
-    if (zeros)
-        pp_sampler_warn(s,
-                        "the PSF's transfer function is zero (below 1e-10) at %zu of %zu "
-                        "half-spectrum frequencies: there the data say nothing and the "
-                        "estimate comes from the prior alone",
-                        zeros, s->gm);
+    if (zeros) /* a property of the PSF, not of the run: a note, not a warning */
+        pp_sampler_add_note(s,
+                            "the PSF's transfer function is zero (below 1e-10) at %zu of %zu "
+                            "half-spectrum frequencies: there the data say nothing and the "
+                            "estimate comes from the prior alone",
+                            zeros, s->gm);
     if ((st = pp_prior_eigen(&s->cfg.prior, s->gh, s->gw, s->q, &s->rank)) != PP_OK)
         return st;
     s->mean_dc = s->cfg.prior.mean_set ? s->cfg.prior.mean * (double)s->gn : 0.0;
@@ -439,18 +439,33 @@ void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
             c->mean1[i] = (float)c->mom.mean[i];
 }
 
-void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
+/* Appends a formatted sentence to a list of at most max (dropped when full
+ * or out of memory: a lost sentence must not fail a finished run). */
+static void add_sentence(char **list, size_t *n, size_t max, const char *fmt, va_list ap)
 {
-    if (s->nwarnings == PP_MAX_WARNINGS)
+    if (*n == max)
         return;
     char buf[512];
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    list[*n] = strdup(buf);
+    if (list[*n])
+        ++*n;
+}
+
+void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
+{
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(buf, sizeof buf, fmt, ap);
+    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
     va_end(ap);
-    s->warnings[s->nwarnings] = strdup(buf);
-    if (s->warnings[s->nwarnings])
-        s->nwarnings++;
+}
+
+void pp_sampler_add_note(pp_sampler *s, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    add_sentence(s->notes, &s->nnotes, PP_MAX_NOTES, fmt, ap);
+    va_end(ap);
 }
 
 int pp_sampler_tick(pp_sampler *s)
@@ -641,6 +656,11 @@ const char *pp_sampler_warning(const pp_sampler *s, size_t i)
 {
     return i < s->nwarnings ? s->warnings[i] : NULL;
 }
+size_t pp_sampler_note_count(const pp_sampler *s) { return s->nnotes; }
+const char *pp_sampler_note(const pp_sampler *s, size_t i)
+{
+    return i < s->nnotes ? s->notes[i] : NULL;
+}
 
 void pp_sampler_free(pp_sampler *s)
 {
@@ -663,6 +683,8 @@ void pp_sampler_free(pp_sampler *s)
         free(s->names[i]);
     for (size_t i = 0; i < s->nwarnings; i++)
         free(s->warnings[i]);
+    for (size_t i = 0; i < s->nnotes; i++)
+        free(s->notes[i]);
     pp_image_free(s->mean);
     pp_image_free(s->sd);
     pp_image_free(s->lo);

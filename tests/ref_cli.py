@@ -158,13 +158,13 @@ pptest.check(not os.path.exists(P("k.tif")), "no psf output after the usage erro
 # ---- help and version --------------------------------------------------------
 options = {
     "simulate": ["--psf", "--noise", "--seed", "--boundary", "--channel", "--max-pixels",
-                 "--output", "-o", "--quiet"],
+                 "--output", "-o", "--quiet", "--overwrite"],
     "sample": ["--psf", "--noise", "--prior", "--sampler", "--chains", "--iters", "--burn",
                "--thin", "--seed", "--boundary", "--threads", "--level", "--hyper-lambda",
                "--hyper-delta", "--channel", "--max-pixels", "--wisdom", "--quiet",
-               "--progress", "--strict", "--output", "-o"],
-    "psf": ["--size", "--output", "-o"],
-    "demo": ["--output", "-o", "--images"],
+               "--progress", "--strict", "--overwrite", "--output", "-o"],
+    "psf": ["--size", "--output", "-o", "--overwrite"],
+    "demo": ["--output", "-o", "--images", "--overwrite"],
 }
 for cmd, opts in options.items():
     p = pptest.run([cmd, "--help"], check=False)

@@ -100,8 +100,11 @@ expect_fail(run(["sample", frame, "-o", "/proc/self/pp_out"] + ARGS),
             ["/proc/self/pp_out", "cannot create the output folder"],
             "sample -o a folder procfs will not create")
 expect_fail(run(["sample", frame, "-o", "/proc/self"] + ARGS),
-            ["/proc/self/mean.tif", "cannot create a file"],
-            "sample -o an existing folder that takes no new files")
+            ["/proc/self", "--overwrite"],
+            "sample -o an existing folder holding files pixpost did not write")
+expect_fail(run(["sample", frame, "-o", "/proc/self", "--overwrite"] + ARGS),
+            ["/proc/self/.pixpost-output", "cannot create a file"],
+            "sample --overwrite into an existing folder that takes no new files")
 expect_fail(run(["simulate", truth, "--psf", "gaussian:sigma=1", "--noise", "none",
                  "-o", "/proc/self/sim.tif"]),
             ["/proc/self/sim.tif"], "simulate -o into a folder that takes no new files")

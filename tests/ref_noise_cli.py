@@ -34,8 +34,9 @@ n = N_SIDE * N_SIDE
 
 
 def simulate(truth_path, out, psf, noise, seed, boundary="periodic"):
+    # --overwrite: out is this check's scratch frame, rewritten on purpose
     pptest.run(["simulate", truth_path, "--psf", psf, "--noise", noise, "--seed", seed,
-                "--boundary", boundary, "--quiet", "-o", out])
+                "--boundary", boundary, "--quiet", "--overwrite", "-o", out])
     return tifffile.imread(out).astype(np.float64)  # tifffile reads it back
 
 

@@ -103,7 +103,7 @@ def main():
           % (truth, WIDTH, HEIGHT, img.min(), img.max(), img.sum()))
     for name, noise, seed in FRAMES:
         cmd = [pixpost, "simulate", truth, "--psf", PSF, "--noise", noise,
-               "--seed", seed, "--boundary", "pad", "-o", os.path.join(outdir, name)]
+               "--seed", seed, "--boundary", "pad", "--overwrite", "-o", os.path.join(outdir, name)]
         print("$ " + " ".join(cmd[1:]).replace(outdir + "/", "images/"))
         subprocess.run(cmd, check=True)
 

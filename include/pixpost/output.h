@@ -6,6 +6,8 @@
  *   summary.json                    settings, hyperparameter posteriors,
  *                                   bound method, timings, warnings
  *   trace.csv                       chain,iter,lambda,delta,loglik,p_<r>_<c>...
+ *   .pixpost-output                 the folder marker (PP_OUTPUT_MARKER),
+ *                                   written first
  * The folder must exist. Nothing in it other than these names is touched.
  */
 #ifndef PIXPOST_OUTPUT_H
@@ -32,5 +34,23 @@ void pp_json_write_string(FILE *f, const char *s);
 
 pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
                           const pp_run_info *info);
+
+/* The marker of a folder pixpost wrote: a small text file whose first line
+ * is PP_OUTPUT_MARKER_LINE, then what wrote it. Its presence tells a later
+ * run (the command line's output-folder rule) that the files there are
+ * pixpost's to replace; a user's folder does not have it. */
+#define PP_OUTPUT_MARKER ".pixpost-output"
+#define PP_OUTPUT_MARKER_LINE "pixpost output folder"
+
+/* Writes dir/PP_OUTPUT_MARKER atomically (replacing an earlier one); writer
+ * says what wrote the folder, e.g. a command line (NULL: not recorded).
+ * pp_output_write() calls it before writing any output, so a folder holding
+ * any file of a run, even an interrupted write, holds the marker. */
+pp_status pp_output_mark(const char *dir, const char *writer);
+
+/* 1 if dir/PP_OUTPUT_MARKER is a regular file whose first line is
+ * PP_OUTPUT_MARKER_LINE; 0 otherwise (missing, unreadable, or a file of
+ * that name with other content). Only reads. */
+int pp_output_is_marked(const char *dir);
 
 #endif

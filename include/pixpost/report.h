@@ -50,6 +50,8 @@ typedef struct pp_report_input {
     size_t nsettings;
     const char *const *warnings; /* plain sentences */
     size_t nwarnings;
+    const char *const *notes; /* plain sentences: information, not warnings */
+    size_t nnotes;
     double level;      /* credible level of lo/hi, in (0, 1) */
     const char *units; /* of the estimates, e.g. "photons per pixel"; NULL: "input units" */
     const char *frame_units; /* of the input frame, e.g. "ADU"; NULL: as units */

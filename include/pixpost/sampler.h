@@ -137,7 +137,11 @@ const char *pp_sampler_bound_method(const pp_sampler *s);
 /* Timings of the last run, seconds. */
 double pp_sampler_seconds(const pp_sampler *s);
 
-/* Warnings raised while sampling (plain sentences), count and i-th. */
+/* Warnings raised while setting up or sampling (plain sentences): R-hat,
+ * ESS, acceptance, a burn-in too short to adapt, a hyperprior that outweighs
+ * the data. Each says the results are less trustworthy than they look; the
+ * command line's --strict exits 3 when there is any. Count and i-th (NULL
+ * when i >= count); the strings live until pp_sampler_free(). */
 size_t pp_sampler_warning_count(const pp_sampler *s);
 const char *pp_sampler_warning(const pp_sampler *s, size_t i);
 
@@ -157,5 +161,14 @@ typedef struct pp_convergence {
     int converged;
 } pp_convergence;
 void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out);
+
+/* Notes (plain sentences): information about the data or the model that
+ * does not make a run less trustworthy, e.g. that the PSF's transfer
+ * function is zero at some frequencies (every Gaussian PSF of sigma above
+ * about 1.5 px), where the estimate comes from the prior. Never counted as
+ * warnings. Valid after pp_sampler_create(); same lifetime and NULL rule as
+ * the warnings. */
+size_t pp_sampler_note_count(const pp_sampler *s);
+const char *pp_sampler_note(const pp_sampler *s, size_t i);
 
 #endif

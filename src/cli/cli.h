@@ -5,7 +5,8 @@
  * command name ("sample") and the options follow, like a small main(); it
  * returns the process exit status (DESIGN.md section 6):
  *   0 success, 1 bad usage or bad input (one line on stderr), 2 a batch in
- *   which some frames failed, 3 convergence warnings with --strict.
+ *   which some frames failed, 3 convergence warnings with --strict, 128 +
+ *   the signal number when stopped by SIGINT/SIGTERM (sample, batch).
  *
  * Option parsing is table driven (args.c): a command lists its options in
  * cli_opt tables, cli_parse() collects the raw strings (refusing unknown,
@@ -116,6 +117,21 @@ int cli_has_ext(const char *path, const char *ext);
 int cli_check_not_same(const char *out, const char *in);
 /* Checks that the folder that will hold path exists. */
 int cli_check_parent_dir(const char *path);
+
+/* Output locations (outdir.c). The folder rule, used by sample and demo
+ * and meant for batch's frame folders: pixpost writes into a folder that is
+ * missing (created later), empty, or marked as pixpost's (PP_OUTPUT_MARKER,
+ * include/pixpost/output.h, which every run's outputs carry); a folder
+ * holding other files only with overwrite (--overwrite). A path that exists
+ * but is not a folder is refused even with overwrite. Only looks (touches
+ * nothing), so call it before any sampling. Returns 0, or CLI_EXIT_USAGE
+ * with one sentence in msg naming the folder and the way on (not printed,
+ * so batch can put it in its manifest). */
+int cli_check_outdir(const char *dir, int overwrite, char *msg, size_t len);
+/* The single-file rule (simulate, psf): an existing file is replaced only
+ * with overwrite; a folder of that name is refused. Returns 0 or
+ * CLI_EXIT_USAGE after printing one line naming the file. */
+int cli_check_outfile(const char *path, int overwrite);
 
 /* ---- sample options (sample_opts.c), reused by batch ---------------- */
 

@@ -12,6 +12,7 @@
  * intensity (auto: hmc). Cost on the 2-core machine: ~15 s and ~70 s.
  */
 #include "cli.h"
+#include "pixpost/output.h"
 #include <errno.h>
 #include <limits.h>
 #include <math.h>
@@ -48,13 +49,16 @@ static const cli_opt demo_table[] = {
     {"images", 0, 1, "DIR",
      "Folder with the bundled frames. Default: ../share/pixpost/images next to the "
      "executable, else the source tree's images/."},
+    {"overwrite", 0, 0, "",
+     "Write into OUTDIR (and its demo_* folders) even when they hold files pixpost did "
+     "not write. Default: off (such a folder is refused)."},
     {NULL, 0, 0, NULL, NULL},
 };
 
 void cli_demo_help(FILE *fp)
 {
     const cli_opt *tables[] = {demo_table, NULL};
-    fputs("Usage: pixpost demo [-o OUTDIR]\n\n"
+    fputs("Usage: pixpost demo [-o OUTDIR] [--overwrite]\n\n"
           "Runs pixpost on the bundled demonstration frames: a synthetic fluorescence scene\n"
           "(curved filaments and sub-resolution beads, 65 nm pixels) blurred by an Airy PSF\n"
           "(NA 1.4, 520 nm) with Gaussian noise and with camera noise (images/README.md).\n"
@@ -62,7 +66,8 @@ void cli_demo_help(FILE *fp)
           "reports how far the result is from the bundled frame (0 = reproduced), then\n"
           "runs `pixpost sample` on each frame into OUTDIR/<frame name>/ (posterior mean,\n"
           "sd, 95 % bounds, summary.json, trace.csv, report.html): the Gaussian-noise\n"
-          "frame with gibbs (~15 s), the camera frame with hmc (~70 s on 2 cores).\n\n"
+          "frame with gibbs (~15 s), the camera frame with hmc (~70 s on 2 cores).\n"
+          "OUTDIR must be new, empty or a folder pixpost wrote before, as for sample.\n\n"
           "Options:\n",
           fp);
     cli_print_options(fp, tables, NULL, NULL);
@@ -158,14 +163,24 @@ static int make_dir(const char *dir)
                      errno == EEXIST ? "a file of that name exists" : strerror(errno));
 }
 
-static int run_frame(const char *images, const char *outdir, const demo_frame *f)
+/* OUTDIR/<frame stem>, where sample writes the frame's outputs. */
+static void frame_dir(char *dir, size_t len, const char *outdir, const demo_frame *f)
+{
+    snprintf(dir, len, "%s/%.*s", outdir, (int)(strlen(f->file) - 4), f->file);
+}
+
+/* The re-simulated frames are the demo's own files in its (marked) folder,
+ * so simulate replaces them; sample's folders follow sample's rule, with
+ * --overwrite passed on when given. */
+static int run_frame(const char *images, const char *outdir, const demo_frame *f, int overwrite)
 {
     char truth[PATH_MAX + 64], bundled[PATH_MAX + 64], made[PATH_MAX + 64];
     snprintf(truth, sizeof truth, "%s/scene_truth.tif", images);
     snprintf(bundled, sizeof bundled, "%s/%s", images, f->file);
     snprintf(made, sizeof made, "%s/resimulated_%s", outdir, f->file);
-    const char *vec[] = {"simulate", truth,        "--psf", f->psf, "--noise", f->noise,  "--seed",
-                         f->seed,    "--boundary", "pad",   "-o",   made,      "--quiet", NULL};
+    const char *vec[] = {"simulate", truth,   "--psf",  f->psf,      "--noise",
+                         f->noise,   "--seed", f->seed, "--boundary", "pad",
+                         "-o",       made,     "--quiet", "--overwrite", NULL};
     int rc = run_vector(cli_cmd_simulate, vec);
     double rel = 0.0, maxabs = 0.0;
     if (rc || (rc = compare(made, bundled, &rel, &maxabs)) != 0)
@@ -180,9 +195,7 @@ static int run_frame(const char *images, const char *outdir, const demo_frame *f
     /* The posterior run, as a user would type it: the hyperparameters
      * sampled, padded boundary, default sampler and chains. */
     char dir[PATH_MAX + 64];
-    snprintf(dir, sizeof dir, "%s/%.*s", outdir, (int)(strlen(f->file) - 4), f->file);
-    if ((rc = make_dir(dir)) != 0)
-        return rc;
+    frame_dir(dir, sizeof dir, outdir, f);
     const char *svec[20] = {"sample", bundled, "--psf", f->psf};
     int n = 4;
     for (int i = 0; i < 4 && f->model[i]; i++)
@@ -190,12 +203,29 @@ static int run_frame(const char *images, const char *outdir, const demo_frame *f
     const char *tail[] = {"--burn", f->burn, "--iters", f->iters, "--seed", f->seed, "-o", dir};
     for (size_t i = 0; i < sizeof tail / sizeof tail[0]; i++)
         svec[n++] = tail[i];
+    if (overwrite)
+        svec[n++] = "--overwrite";
     printf("  %-18s pixpost", "");
     for (int i = 0; i < n; i++)
         printf(" %s", svec[i]);
     printf("\n");
     fflush(stdout);
     return run_vector(cli_cmd_sample, svec);
+}
+
+/* The output-folder rule for OUTDIR and every frame's folder, before
+ * anything is written: a refusal leaves all of them as they were. */
+static int check_folders(const char *outdir, int overwrite)
+{
+    char msg[1024], dir[PATH_MAX + 64];
+    if (cli_check_outdir(outdir, overwrite, msg, sizeof msg))
+        return cli_error("demo: %s", msg);
+    for (size_t i = 0; i < DEMO_NFRAMES; i++) {
+        frame_dir(dir, sizeof dir, outdir, &demo_frames[i]);
+        if (cli_check_outdir(dir, overwrite, msg, sizeof msg))
+            return cli_error("demo: %s", msg);
+    }
+    return 0;
 }
 
 int cli_cmd_demo(int argc, char **argv)
@@ -215,15 +245,21 @@ int cli_cmd_demo(int argc, char **argv)
                          "--images DIR)",
                          a.pos[0]);
     const char *outdir = cli_given(&a, "output") ? cli_str(&a, "output") : "pixpost-demo";
+    int overwrite = cli_given(&a, "overwrite");
+    if ((rc = check_folders(outdir, overwrite)) != 0)
+        return rc;
     if (cli_given(&a, "images"))
         snprintf(images, sizeof images, "%s", cli_str(&a, "images"));
     else if ((rc = find_images(images, sizeof images)) != 0)
         return rc;
     if ((rc = make_dir(outdir)) != 0)
         return rc;
+    pp_status st = pp_output_mark(outdir, "pixpost demo");
+    if (st != PP_OK)
+        return cli_fail(st);
     printf("pixpost demo: bundled frames from %s\n", images);
     for (size_t i = 0; i < DEMO_NFRAMES && rc == 0; i++)
-        rc = run_frame(images, outdir, &demo_frames[i]);
+        rc = run_frame(images, outdir, &demo_frames[i], overwrite);
     if (rc == 0)
         printf("outputs are in %s/\n", outdir);
     return rc;

@@ -13,6 +13,9 @@ static const cli_opt psf_table[] = {
      "Kernel side in pixels, odd (2R+1). Default: 0 = from the model (gaussian: radius "
      "ceil(4 sigma); airy: the 5th dark ring; file: its own support)."},
     {"quiet", 0, 0, "", "Do not print what was written. Default: off."},
+    {"overwrite", 0, 0, "",
+     "Replace OUT when it exists (without it, an existing OUT is refused and left as it "
+     "is). Default: off."},
     {NULL, 0, 0, NULL, NULL},
 };
 
@@ -32,7 +35,7 @@ void cli_psf_help(FILE *fp)
 }
 
 static int parse(int argc, char **argv, const char **spec, size_t *size, const char **out,
-                 int *quiet)
+                 int *quiet, int *overwrite)
 {
     const cli_opt *tables[] = {psf_table, NULL};
     cli_args a;
@@ -50,6 +53,7 @@ static int parse(int argc, char **argv, const char **spec, size_t *size, const c
     *spec = a.pos[0];
     *out = cli_str(&a, "output");
     *quiet = cli_given(&a, "quiet");
+    *overwrite = cli_given(&a, "overwrite");
     if (!cli_has_ext(*out, ".tif") && !cli_has_ext(*out, ".tiff"))
         return cli_error("%s: the kernel is written as a float TIFF (expected a name ending "
                          "in .tif or .tiff)",
@@ -61,8 +65,8 @@ int cli_cmd_psf(int argc, char **argv)
 {
     const char *text = NULL, *out = NULL;
     size_t size = 0;
-    int quiet = 0;
-    int rc = parse(argc, argv, &text, &size, &out, &quiet);
+    int quiet = 0, overwrite = 0;
+    int rc = parse(argc, argv, &text, &size, &out, &quiet, &overwrite);
     if (rc == CLI_HELP)
         return CLI_EXIT_OK;
     if (rc)
@@ -71,6 +75,8 @@ int cli_cmd_psf(int argc, char **argv)
     pp_image *k = NULL;
     pp_status st = pp_psf_parse(text, &spec);
     if (st == PP_OK && spec.kind == PP_PSF_FILE && (rc = cli_check_not_same(out, spec.path)))
+        return rc;
+    if (st == PP_OK && (rc = cli_check_outfile(out, overwrite)) != 0)
         return rc;
     if (st == PP_OK)
         st = pp_psf_make(&spec, size, &k);

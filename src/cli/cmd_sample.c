@@ -33,6 +33,8 @@ static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double 
             nw ? "see the warnings below" : "no convergence warnings");
     for (size_t i = 0; i < nw; i++)
         fprintf(stderr, "pixpost:   %s\n", pp_sampler_warning(s, i));
+    for (size_t i = 0; i < pp_sampler_note_count(s); i++)
+        fprintf(stderr, "pixpost: note: %s\n", pp_sampler_note(s, i));
 }
 
 static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec *t0)
@@ -41,6 +43,8 @@ static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec 
     join_args(argc, argv, cmd, sizeof cmd);
     cli_frame_run r;
     memset(&r, 0, sizeof r);
+    if (cli_check_outdir(o->outdir, o->overwrite, r.message, sizeof r.message))
+        return cli_error("%s", r.message);
     r.frame = o->frame;
     r.page = o->read.page;
     r.outdir = o->outdir;
@@ -55,6 +59,8 @@ static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec 
     int rc = cli_run_frame(o, &r);
     if (rc)
         cli_error("%s", r.message);
+    if (rc && r.interrupted && *r.stop)
+        rc = 128 + (int)*r.stop; /* as a process killed by the signal (and as batch) */
     if (!rc && !o->quiet)
         print_verdict(r.sampler, o, cli_since(t0));
     if (!rc && o->strict && pp_sampler_warning_count(r.sampler) > 0)

@@ -31,6 +31,9 @@ static const cli_opt simulate_table[] = {
      "Channel to take from a colour TRUTH. Default: none (grayscale only)."},
     {"max-pixels", 0, 1, "N", "Refuse a TRUTH with more than N pixels. Default: 268435456."},
     {"quiet", 0, 0, "", "Do not print what was written. Default: off."},
+    {"overwrite", 0, 0, "",
+     "Replace OUT when it exists (without it, an existing OUT is refused and left as it "
+     "is). Default: off."},
     {NULL, 0, 0, NULL, NULL},
 };
 
@@ -54,6 +57,7 @@ typedef struct sim_opts {
     pp_boundary boundary;
     pp_read_options read;
     int quiet;
+    int overwrite;
 } sim_opts;
 
 static int lib(pp_status st)
@@ -69,7 +73,9 @@ static int check_out_name(const sim_opts *o)
                          ".png)",
                          o->out);
     int rc = cli_check_parent_dir(o->out);
-    return rc ? rc : cli_check_not_same(o->out, o->truth);
+    if (!rc)
+        rc = cli_check_not_same(o->out, o->truth);
+    return rc ? rc : cli_check_outfile(o->out, o->overwrite);
 }
 
 static int parse(int argc, char **argv, sim_opts *o)
@@ -91,6 +97,7 @@ static int parse(int argc, char **argv, sim_opts *o)
     o->seed = 1;
     o->boundary = PP_BOUNDARY_PAD;
     o->quiet = cli_given(&a, "quiet");
+    o->overwrite = cli_given(&a, "overwrite");
     if ((rc = lib(pp_psf_parse(o->psf_text, &o->psf))) != 0 ||
         (rc = lib(pp_noise_parse(o->noise_text, &o->noise))) != 0 ||
         (rc = cli_get_u64(&a, "seed", &o->seed)) != 0 ||

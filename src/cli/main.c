@@ -41,7 +41,8 @@ static void usage(FILE *fp)
           "  pixpost demo -o pixpost-demo\n\n"
           "Exit status: 0 success; 1 bad usage or bad input (one line on stderr naming the file\n"
           "or option); 2 a batch in which some frames failed; 3 convergence warnings with "
-          "--strict.\n",
+          "--strict;\n128 + the signal number when stopped by SIGINT (130) or SIGTERM (143).\n"
+          "Outputs never replace files pixpost did not write, unless --overwrite is given.\n",
           fp);
 }
 

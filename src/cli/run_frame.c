@@ -182,7 +182,8 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     return st == PP_OK ? 0 : fail_frame(r, st);
 }
 
-static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame)
+static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
+                            const progress_state *ps)
 {
     int rc = cli_make_dirs(r->outdir, r->message, sizeof r->message);
     if (rc)
@@ -192,9 +193,12 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     pp_status st = pp_sampler_run(r->sampler);
     if (r->install_signals)
         cli_stop_uninstall();
+    if (st != PP_OK && ps->mode == CLI_PROGRESS_BAR)
+        fputc('\n', stderr); /* end the unfinished bar: the message gets its own line */
     if (st == PP_ERR_INTERRUPTED) {
         r->interrupted = 1;
-        return fail_msg(r, "%s: interrupted; no outputs were written", r->frame);
+        return fail_msg(r, "%s: interrupted by %s; no outputs were written", r->frame,
+                        r->stop && *r->stop == SIGTERM ? "SIGTERM" : "SIGINT");
     }
     if (st != PP_OK)
         return fail_frame(r, st);
@@ -224,7 +228,7 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     if (!rc)
         rc = make_sampler(o, r, frame, psf, &ps);
     if (!rc)
-        rc = sample_and_write(o, r, frame);
+        rc = sample_and_write(o, r, frame, &ps);
     pp_image_free(psf);
     pp_image_free(frame);
     return rc;

@@ -17,7 +17,9 @@ static const cli_opt sample_table[] = {
         1,
         "OUTDIR",
         "Folder for mean/sd/lo/hi .tif, mean/sd .png, summary.json, trace.csv, report.html; "
-        "created if missing. Required.",
+        "created if missing. It must be new, empty or one pixpost wrote before (it holds "
+        "pixpost's marker file .pixpost-output); a folder with other files needs --overwrite. "
+        "Required.",
     },
     {"psf", 0, 1, "SPEC",
      "Point-spread function: gaussian:sigma=S (pixels, 0.3 to 20), "
@@ -285,7 +287,9 @@ void cli_sample_help(FILE *fp)
           fp);
     cli_print_options(fp, tables, cli_sample_default, NULL);
     fputs("\nExit status: 0 success; 1 bad usage or input; 3 convergence warnings with "
-          "--strict.\n",
+          "--strict\n(notes, such as frequencies the PSF removes, are not warnings); "
+          "128 + the signal\nnumber when stopped by SIGINT (130) or SIGTERM (143), with no "
+          "outputs written.\n",
           fp);
 }
 
