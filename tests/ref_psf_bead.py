@@ -34,14 +34,15 @@ rng = np.random.default_rng(1414)
 def kernel(spec, size=None):
     """pixpost's own kernel for spec, read back with tifffile."""
     out = P("k.tif")
-    pptest.run(["psf", spec, "-o", out, "--quiet"] + (["--size", str(size)] if size else []))
+    pptest.run(["psf", spec, "-o", out, "--quiet", "--overwrite"] + (["--size", str(size)] if size else []))
     return tifffile.imread(out).astype(np.float64)
 
 
 def psf_file(name, image):
     path = P(name)
     tifffile.imwrite(path, np.asarray(image, np.float32))
-    return pptest.run(["psf", "file:" + path, "-o", P("out_" + name), "--quiet"], check=False)
+    return pptest.run(["psf", "file:" + path, "-o", P("out_" + name), "--quiet", "--overwrite"],
+                      check=False)
 
 
 # ---- bead images that must pass ----------------------------------------------
