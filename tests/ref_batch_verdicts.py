@@ -219,4 +219,24 @@ pptest.check(codes == [3, 3] and p.returncode == 3 and
                  for r in merged.values()) and len(merged) == 2,
              "--merge keeps failed-strict rows and their warnings, and exits 3 (shards %s, merge %d)"
              % (codes, p.returncode))
+# ---- item 2 for batch: OUTDIR holding a user's own files -----------------------
+# A folder with files pixpost did not write (here the user's own index.csv)
+# is refused before anything is written, the folder unchanged; --overwrite
+# writes into it; a folder batch wrote before is pixpost's (its marker).
+mine = os.path.join(tmp, "mine")
+os.makedirs(mine)
+with open(os.path.join(mine, "index.csv"), "w") as f:
+    f.write("my own table\n")
+before = digest(mine)
+p = batch("mine", *POOR, "--pattern", "a.png")
+pptest.check(p.returncode == 1 and len(p.stderr.splitlines()) == 1 and mine in p.stderr
+             and "--overwrite" in p.stderr and digest(mine) == before,
+             "batch refuses an OUTDIR with the user's files, naming it and --overwrite, touching "
+             "nothing (%d, %r)" % (p.returncode, p.stderr))
+p = batch("mine", *POOR, "--pattern", "a.png", "--overwrite")
+pptest.check(p.returncode == 0 and os.path.exists(os.path.join(mine, ".pixpost-output")),
+             "with --overwrite batch writes into it and marks it (%d)" % p.returncode)
+p = batch("mine", *POOR, "--pattern", "a.png", "--resume")
+pptest.check(p.returncode == 0, "a folder batch wrote is resumed without --overwrite (%d, %r)"
+             % (p.returncode, p.stderr[-200:]))
 pptest.done()

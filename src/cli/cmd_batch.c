@@ -15,6 +15,7 @@
  * finished frame; the frames themselves cost what `pixpost sample` costs.
  */
 #include "batch.h"
+#include "pixpost/output.h"
 #include <dirent.h>
 #include <errno.h>
 #include <math.h>
@@ -417,6 +418,9 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
     rc = rc ? rc : batch_check_outdir(a->pos[0], o->outdir);
     if (rc)
         return rc;
+    char msg[BATCH_MSG];
+    if (cli_check_outdir(o->outdir, o->overwrite, msg, sizeof msg) != 0)
+        return cli_error("%s", msg);
     /* A frame's progress is shown unless asked not to (sample's default
      * shows it only on a terminal): a line per 10 % naming the frame. */
     if (!o->quiet && !cli_given(a, "progress"))
@@ -435,10 +439,16 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
                          ro->pattern ? " matching " : "", ro->pattern ? ro->pattern : "",
                          ro->recursive ? "" : " (add --recursive for subfolders)",
                          c->skipped.count ? "; not frames: " : "", c->skipped.names);
-    char msg[BATCH_MSG];
     if (cli_make_dirs(c->outdir, msg, sizeof msg) != 0)
         return cli_error("%s", msg);
-    return 0;
+    /* The folder is pixpost's from now on (cli_check_outdir): marked before
+     * any frame folder or manifest is written in it. An existing marker is
+     * left as it is, so a later refusal (frames made with other settings)
+     * leaves the folder unchanged. */
+    if (pp_output_is_marked(c->outdir))
+        return 0;
+    pp_status st = pp_output_mark(c->outdir, c->command_line);
+    return st == PP_OK ? 0 : cli_fail(st);
 }
 
 int cli_cmd_batch(int argc, char **argv)
