@@ -7,6 +7,7 @@ function, the gmrf1 eigenvalues, Geyer's ESS).
 ctest sets PP_BIN (the pixpost binary), PP_PROBES (folder of the probe_*
 programs), PP_TMP (a scratch folder for this check) and PP_SOURCE_DIR.
 """
+import hashlib
 import os
 import shutil
 import subprocess
@@ -16,6 +17,17 @@ BIN = os.environ.get("PP_BIN", "pixpost")
 PROBES = os.environ.get("PP_PROBES", ".")
 SOURCE = os.environ.get("PP_SOURCE_DIR", ".")
 _failures = []
+
+
+def tree_digest(root):
+    """sha256 of every file below root, by relative path (to show a folder unchanged)."""
+    out = {}
+    for d, _, files in os.walk(root):
+        for f in files:
+            p = os.path.join(d, f)
+            with open(p, "rb") as fh:
+                out[os.path.relpath(p, root)] = hashlib.sha256(fh.read()).hexdigest()
+    return out
 
 
 def tmpdir():

@@ -22,7 +22,6 @@ zero-byte .tif. Checks:
 Byte identity needs no tolerance: a frame's seed is a hash of --seed and its
 relative path, and the sampler's results do not depend on thread counts.
 """
-import hashlib
 import json
 import os
 import signal
@@ -66,16 +65,7 @@ BAD = {"b02_trunc.png", "b05_text.png", "c00_empty.tif"}
 OUTPUTS = ["a01", "a02", "b03", "c04", "sub/d05", "stack_p1", "stack_p2", "stack_p3"]
 
 
-def tree_digest(root):
-    out = {}
-    for d, _, files in os.walk(root):
-        for f in files:
-            p = os.path.join(d, f)
-            out[os.path.relpath(p, root)] = hashlib.sha256(open(p, "rb").read()).hexdigest()
-    return out
-
-
-indir_before = tree_digest(indir)
+indir_before = pptest.tree_digest(indir)
 OPTS = ["--psf", "gaussian:sigma=1.5", "--chains", "2", "--burn", "50", "--iters", "400",
         "--seed", "11", "--recursive", "--quiet"]
 
@@ -265,5 +255,5 @@ p = subprocess.run([pptest.BIN, "batch", indir, "-o", os.path.join(indir, "sub",
                    capture_output=True, text=True)
 pptest.check(p.returncode == 1 and "inside the input folder" in p.stderr,
              "OUTDIR inside INDIR is refused with exit 1 (%r)" % p.stderr.strip())
-pptest.check(tree_digest(indir) == indir_before, "INDIR is unchanged by every run above")
+pptest.check(pptest.tree_digest(indir) == indir_before, "INDIR is unchanged by every run above")
 pptest.done()

@@ -30,7 +30,6 @@ dozen warnings. Exact comparisons only (values are the same doubles printed with
 10 significant digits, so a relative 1e-9).
 """
 import csv
-import hashlib
 import json
 import os
 import re
@@ -74,15 +73,6 @@ def summary(out, o):
 
 def close(a, b):
     return abs(a - b) <= 1e-9 * abs(b)
-
-
-def digest(root):
-    out = {}
-    for d, _, files in os.walk(root):
-        for f in files:
-            p = os.path.join(d, f)
-            out[os.path.relpath(p, root)] = hashlib.sha256(open(p, "rb").read()).hexdigest()
-    return out
 
 
 # ---- item 1: a well-converged batch; its manifest against each summary --------
@@ -154,14 +144,14 @@ pptest.check(p.returncode == 0 and all(after[o]["status"] == "skipped" for o in 
              "--resume: skipped rows keep rhat_max, ess_bulk_min, warnings, converged")
 
 # ---- settings changed: --overwrite required -----------------------------------
-tree = digest(os.path.join(tmp, "good"))
+tree = pptest.tree_digest(os.path.join(tmp, "good"))
 p = batch("good", "--iters", "4001", "--pattern", "[ab].png", "--resume")
 lines = p.stderr.strip().splitlines()
 pptest.check(p.returncode == 1 and len(lines) == 1 and os.path.join(tmp, "good") in lines[0]
              and "2 finished frames" in lines[0] and "--overwrite" in lines[0],
              "--resume with other settings: refused in one line naming the folder, the count and "
              "--overwrite, exit 1 (got %d: %r)" % (p.returncode, p.stderr))
-pptest.check(digest(os.path.join(tmp, "good")) == tree, "refused: nothing in OUTDIR changed")
+pptest.check(pptest.tree_digest(os.path.join(tmp, "good")) == tree, "refused: nothing in OUTDIR changed")
 p = batch("good", "--iters", "4001", "--pattern", "a.png")
 pptest.check(p.returncode == 1 and "1 finished frame was made with other settings" in p.stderr
              and "--overwrite" in p.stderr,
@@ -227,10 +217,10 @@ mine = os.path.join(tmp, "mine")
 os.makedirs(mine)
 with open(os.path.join(mine, "index.csv"), "w") as f:
     f.write("my own table\n")
-before = digest(mine)
+before = pptest.tree_digest(mine)
 p = batch("mine", *POOR, "--pattern", "a.png")
 pptest.check(p.returncode == 1 and len(p.stderr.splitlines()) == 1 and mine in p.stderr
-             and "--overwrite" in p.stderr and digest(mine) == before,
+             and "--overwrite" in p.stderr and pptest.tree_digest(mine) == before,
              "batch refuses an OUTDIR with the user's files, naming it and --overwrite, touching "
              "nothing (%d, %r)" % (p.returncode, p.stderr))
 p = batch("mine", *POOR, "--pattern", "a.png", "--overwrite")
