@@ -129,7 +129,7 @@ class Ops:
 def make_prec(kind, ops, lam, wh, wv, g2=0.0):
     """Preconditioner M^-1 as a function (see module docstring); a per-
     pixel second-order weight g2 enters through its mean."""
-    g2 = float(np.mean(g2))
+    g2_arr, g2 = g2, float(np.mean(g2))
     order = 2 if wv is None else 1
     ws = [wh] if wv is None else [wh, wv]
     if kind == 'four':
@@ -139,12 +139,14 @@ def make_prec(kind, ops, lam, wh, wv, g2=0.0):
         return ops.four(lam, c, order=order, g2=g2)
     if kind == 'scal':
         a2 = (ops.kernel ** 2).sum()           # diag of A'A
+        g2v = np.broadcast_to(g2_arr, wh.shape)
+        d2 = 16 * g2v + (np.roll(g2v, 1, -1) + np.roll(g2v, -1, -1) + np.roll(g2v, 1, -2) + np.roll(g2v, -1, -2))
         if wv is None:
             dP = lam * a2 + 16 * wh + (np.roll(wh, 1, -1) + np.roll(wh, -1, -1)
                                        + np.roll(wh, 1, -2) + np.roll(wh, -1, -2))
             dC = lam * a2 + 20 * c
         else:
-            dP = lam * a2 + wh + wv + np.roll(wh, 1, -1) + np.roll(wv, 1, -2) + 20 * g2
+            dP = lam * a2 + wh + wv + np.roll(wh, 1, -1) + np.roll(wv, 1, -2) + d2
             dC = lam * a2 + 4 * c + 20 * g2
         si = 1 / np.sqrt(dP / dC)
         inner = ops.four(lam, c, order=order, g2=g2)
@@ -362,6 +364,117 @@ class MixPix(StudentT):
         self.delta = self.rng.gamma(1 + (self.N - 1) / 2, 1 / (EPS_RATE + (self.oh * e).sum() / 2))
 
 
+class NonStatQ:
+    """(h, added) ns plus a second-order term gated per block:
+    prior precision D'(e^s tau)D + L diag(e^s2) L, s and s2 piecewise
+    constant on BS x BS blocks, each a first-order intrinsic GMRF on the
+    coarse grid (precisions kappa1, kappa2 ~ Gamma(1, KRATE)), tau as ns.
+    Block normaliser by the local-stationary (Whittle) approximation
+    (BS^2/2) [s + g(s2 - s)], g(t) = mean_k log(q_k + e^t q_k^2) over the
+    frame's non-zero frequencies (exact for block-constant fields equal
+    everywhere; the ns rank-share count is its t -> -inf limit). Flat
+    blocks can raise s2 (steep spectrum), edge blocks drop it."""
+    name = 'nq'
+    BS = 8
+    KRATE = 0.5
+
+    def __init__(self, n, rng, h, v, delta, nu=2.0):
+        self.rng, self.n, self.nu = rng, n, nu
+        self.m = n // self.BS
+        self.s = np.full((self.m, self.m), np.log(delta))
+        self.s2 = np.full((self.m, self.m), np.log(delta))
+        self.k1 = self.k2 = 2.0
+        f0 = np.fft.fftfreq(n)[:, None]
+        q = (4 - 2 * np.cos(2 * np.pi * f0) - 2 * np.cos(2 * np.pi * f0.T)).ravel()[1:]
+        self.tg = np.linspace(-40, 40, 1601)
+        self.gt = np.array([np.mean(np.log(q + np.exp(t) * q * q)) for t in self.tg])
+        self.g1 = np.gradient(self.gt, self.tg)
+        self.g2t = np.gradient(self.g1, self.tg)
+        self.acc = []
+        self.l = np.zeros((n, n))
+        self.th = np.ones((n, n))
+        self.tv = np.ones((n, n))
+
+    def g(self, t, which=0):
+        return np.interp(t, self.tg, (self.gt, self.g1, self.g2t)[which])
+
+    def up(self, a):
+        return np.kron(a, np.ones((self.BS, self.BS)))
+
+    @property
+    def g2(self):
+        return self.up(np.exp(self.s2))
+
+    def weights(self):
+        e = np.exp(self.up(self.s))
+        return e * self.th, e * self.tv
+
+    def blocksum(self, a):
+        m, b = self.m, self.BS
+        return a.reshape(m, b, m, b).sum((1, 3))
+
+    def field_move(self, which, R, kappa):
+        rng, nb = self.rng, self.BS ** 2
+        k4 = 4 * kappa
+        ii, jj = np.indices((self.m, self.m))
+        for colour in (0, 1):
+            cur = self.s if which == 0 else self.s2
+            oth = self.s2 if which == 0 else self.s
+            mbar = (np.roll(cur, 1, 0) + np.roll(cur, -1, 0) + np.roll(cur, 1, 1) + np.roll(cur, -1, 1)) / 4
+            def parts(u):
+                t = (oth - u) if which == 0 else (u - oth)
+                # s's own count BS^2/2 (s2's is inside g); g carries the rest
+                return t, nb / 2 * (u if which == 0 else 0.0) + nb / 2 * self.g(t)
+
+            def logf(u):
+                t, lin = parts(u)
+                return lin - np.exp(u) * R / 2 - k4 / 2 * (u - mbar) ** 2
+            u = cur.copy() * 0 + mbar
+            for _ in range(12):
+                t = (oth - u) if which == 0 else (u - oth)
+                cnt = nb / 2 * ((1 - self.g(t, 1)) if which == 0 else self.g(t, 1))
+                f1 = cnt - np.exp(u) * R / 2 - k4 * (u - mbar)
+                f2 = nb / 2 * self.g(t, 2) - np.exp(u) * R / 2 - k4
+                f2 = np.minimum(f2, -0.5)
+                u = u - np.clip(f1 / f2, -3, 3)
+            t = (oth - u) if which == 0 else (u - oth)
+            f2 = np.minimum(nb / 2 * self.g(t, 2) - np.exp(u) * R / 2 - k4, -0.5)
+            sd = 1 / np.sqrt(-f2)
+            prop = u + sd * rng.standard_normal(cur.shape)
+            lq = lambda w: -0.5 * ((w - u) / sd) ** 2
+            la = logf(prop) - logf(cur) + lq(cur) - lq(prop)
+            sel = (ii + jj) % 2 == colour
+            ok = (np.log(rng.random(cur.shape)) < la) & sel
+            self.acc.append(ok.sum() / max(1, sel.sum()))
+            new = np.where(ok, prop, cur)
+            if which == 0:
+                self.s = new
+            else:
+                self.s2 = new
+
+    def update_q(self, h, v, l):
+        g = self.rng.gamma
+        es = np.exp(self.up(self.s))
+        nu = self.nu
+        self.th = g(nu / 2 + 0.5, 1 / (nu / 2 + es * h * h / 2))
+        self.tv = g(nu / 2 + 0.5, 1 / (nu / 2 + es * v * v / 2))
+        self.field_move(0, self.blocksum(self.th * h * h + self.tv * v * v), self.k1)
+        self.field_move(1, self.blocksum(l * l), self.k2)
+        for nm in ('s', 's2'):
+            a = getattr(self, nm)
+            qs = ((np.roll(a, -1, 0) - a) ** 2).sum() + ((np.roll(a, -1, 1) - a) ** 2).sum()
+            kk = g(1 + (a.size - 1) / 2, 1 / (self.KRATE + qs / 2))
+            if nm == 's':
+                self.k1 = kk
+            else:
+                self.k2 = kk
+
+    def trace(self):
+        return {'kappa1': self.k1, 'kappa2': self.k2, 'smean': self.s.mean(),
+                's2mean': self.s2.mean(), 's2spread': self.s2.max() - self.s2.min(),
+                'acc_s': float(np.mean(self.acc[-20:]))}
+
+
 class NonStat:
     """(c) W = exp(s_block) * tau, tau_e ~ Gamma(nu/2, nu/2) (nu fixed), s
     piecewise constant on BS x BS blocks with a first-order intrinsic GMRF
@@ -434,7 +547,7 @@ class NonStat:
 
 
 PRIOR_CLASS = {'gmrf1': Gmrf1, 'st': StudentT, 'lap': Laplace, 'ns': NonStat, 'pp': PerPixel,
-               'lt': LapT, 'gmrf2': Gmrf2, 'mx': Mixed, 'mp': MixPix}
+               'lt': LapT, 'gmrf2': Gmrf2, 'mx': Mixed, 'mp': MixPix, 'nq': NonStatQ}
 ORDER2 = ('lt', 'gmrf2')
 
 
@@ -530,6 +643,8 @@ def run_chain(ops, y, prior, rng, n_burn, n_keep, prec='four', tol=1e-6, log=Non
             pr.update_mixed(h, v, (ops.Lap(x) ** 2).sum())
         elif base == 'mp':
             pr.update_mixed(h, v, ops.Lap(x))
+        elif base == 'nq':
+            pr.update_q(h, v, ops.Lap(x))
         else:
             pr.update(h, v)
         if it >= n_burn:

@@ -1,7 +1,8 @@
 #!/usr/bin/python3
 """Markdown tables from proto.py's JSON rows: one summary row per
 (set, prior) and one detail row per configuration.
-Usage: python3 bench/adaptive/table.py results/main_dev.json ... """
+Usage: python3 bench/adaptive/table.py results/main_dev.json ...
+       python3 bench/adaptive/table.py --solver results/solver.json ... """
 import json
 import sys
 
@@ -48,5 +49,42 @@ def main(paths):
               f"| {f('it_four', 0)}/{f('it_fgeo', 0)}/{f('it_scal', 0)} | {f('w_log10_p1_p99', 1)} |")
 
 
+
+
+def solver(paths):
+    """Solver-study rows (proto.py --study --dense)."""
+    rows = []
+    for p in paths:
+        rows += json.load(open(p))
+    print('| image | prior | log10 w p1-p99 [range] | it four / fgeo / scal (tol 1e-6) | '
+          'cond(M⁻¹P) four / fgeo | aux split: cond(P₀⁻¹P), τ slowest / median |')
+    print('|' + '---|' * 6)
+    for r in rows:
+        if 'kappa_four' not in r:
+            continue
+        print(f"| {r['image'].split('.')[0]} {r['noise']} | {r['prior']} | {r['w_log10_p1_p99']:.1f} [{r['w_log10_range']:.1f}] "
+              f"| {r['it_four']:.0f} / {r['it_fgeo']:.0f} / {r['it_scal']:.0f} "
+              f"| {r['kappa_four']:.0f} / {r['kappa_fgeo']:.0f} "
+              f"| {r['kappa_aux']:.0f}, {r['aux_tau_slowest']:.0f} / {r['aux_tau_median']:.0f} |")
+    print()
+    print('| image | prior | tol | four: it, max / rms err (chain sd), max err (cond. sd) | scal: it, max / rms err (chain sd) |')
+    print('|' + '---|' * 5)
+    for r in rows:
+        if 'kappa_four' not in r:
+            continue
+        for t in ('1e-02', '1e-03', '1e-04', '1e-06'):
+            f = r.get(f'tol{t}_four_it')
+            cs = r.get(f'tol{t}_four_errmax_condsd')
+            four = (f"{f}, {r[f'tol{t}_four_errmax_sd']:.3f} / {r[f'tol{t}_four_errrms_sd']:.4f}" if f is not None
+                    else f"{r['it_four']:.0f} (it_four)")
+            four += f", {cs:.4f}" if cs is not None else ', -'
+            sc = (f"{r[f'tol{t}_scal_it']}, {r[f'tol{t}_scal_errmax_sd']:.3f} / {r[f'tol{t}_scal_errrms_sd']:.4f}"
+                  if f is not None else f"{r['it_scal']:.0f} (it_scal)")
+            print(f"| {r['image'].split('.')[0]} | {r['prior']} | {t} | {four} | {sc} |")
+
+
 if __name__ == '__main__':
-    main(sys.argv[1:])
+    if sys.argv[1:2] == ['--solver']:
+        solver(sys.argv[2:])
+    else:
+        main(sys.argv[1:])
