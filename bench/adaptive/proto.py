@@ -9,24 +9,32 @@ Model (periodic boundary, Gaussian noise, DESIGN.md section 1):
     global prior precision delta absorbed into W.
 Priors (what sets W; each is Gibbs with exact conditionals):
     gmrf1  W = delta (today's default; baseline)
-    st     (a) w_e ~ Gamma(a, rate b) per increment, a on a log grid and b
-           sampled (Student-t increments whose shape and scale are learned;
+    st     (a) w_e = delta omega_e, omega_e ~ Gamma(a, a) per increment, a
+           fixed, delta sampled (Student-t increments; learning a by Gibbs
+           is biased, see delta_update and NOTES.md section 1;
            the r = -1 member of the generalised-gamma hypermodels of
            Calvetti, Pragliola, Somersalo & Strang, Inverse Problems 2020)
     lap    (b) Laplace increments (Bardsley, J. Inverse Ill-Posed Probl.
            2012): variance 1/w_e ~ Exp(rate alpha^2/2), w_e | x inverse
-           Gaussian(alpha/|d_e|, alpha^2) (Park & Casella 2008), alpha^2
-           Gamma-conjugate
+           Gaussian (Park & Casella 2008), alpha^2 = delta
     ns     (c) W_e = exp(s_B(e)) tau_e: tau_e ~ Gamma(nu/2, nu/2) (Student-t
-           local factor, nu on a grid) times a piecewise-constant
+           local factor, nu fixed) times a piecewise-constant
            log-precision field s on 8x8-pixel blocks with a first-order
            intrinsic GMRF prior of precision kappa (non-stationary GMRF in
            the sense of Lindgren, Rue & Lindstrom 2011 section 3.2 /
            Fuglstad et al. 2015, on a coarse grid); s by a checkerboard
            independence-Metropolis move from a Laplace approximation,
            kappa Gamma-conjugate
-    pp     (d) one weight per pixel shared by its two forward increments,
-           w_i ~ Gamma(a, rate b), a on a grid, b sampled
+    pp     (d) one weight per pixel shared by its two forward increments
+    added after the main table (see NOTES.md section 3):
+    gmrf2  stationary q(k)^2 (today's gmrf2)
+    lt     Student-t weights on the 5-point Laplacian
+    mx     st:0.5 plus a stationary second-order part gamma L'L
+    mp     one weight per pixel on both orders
+    nq     ns plus a second-order part gated by a second block field
+All priors: W = delta * omega with omega of fixed scale (mean 1) and ONE
+global delta with the rank-correct update (delta_update); a prior key
+'name:p' passes p (shape a, nu or gamma) to the class.
 x | W, lam: perturbation-optimisation (Orieux, Feron & Giovannelli, IEEE SPL
 2012): eta = lam A'(y + lam^-1/2 e1) + D' W^1/2 e2, solve P x = eta with
 P = lam A'A + D'WD by preconditioned CG, warm-started at the previous draw,
@@ -66,7 +74,7 @@ DATA = '/usr/lib/python3/dist-packages/skimage/data/'
 DEV = ['cell.png', 'hubble_deep_field.jpg', 'coins.png', 'text.png', 'gravel.png']
 HELD = ['ihc.png', 'microaneurysms.png', 'camera.png', 'moon.png', 'brick.png']
 PSF_SIGMA = 1.8
-PRIORS = ['gmrf1', 'st:0.25', 'st:1', 'lap', 'ns:2', 'pp:0.5']
+PRIORS = ['gmrf1', 'gmrf2', 'st:0.5', 'ns:2', 'pp:0.5', 'lap', 'mx:1']
 EPS_RATE = 1e-4          # Gamma rate of the weak hyperpriors (DESIGN.md defaults)
 
 

@@ -19,6 +19,9 @@ def main(paths):
     rows = []
     for p in paths:
         rows += json.load(open(p))
+    for r in rows:                    # other frame sizes summarised apart
+        if r.get('n', 48) != 48 and '@' not in r['prior']:
+            r['prior'] = f"{r['prior']}@{r['n']}"
     dev = {'cell.png', 'hubble_deep_field.jpg', 'coins.png', 'text.png', 'gravel.png'}
     print('| set | prior | n cfg | cov95 mean [min,max] | cov50 mean | z sd mean [min,max] | '
           'Spearman mean | cov95 edges/bright/dark/flat (means) | worst-class cov95 (mean of per-cfg min) | flat z sd | RMSE ratio mean [max] | CG it/draw (chain) | in-target cfgs |')
