@@ -473,6 +473,10 @@ def main():
         psfs = a.psfs.split(",")
     if a.noises:
         noises = a.noises.split(",")
+    for what, given, known in (("--scenes", names, SCENES), ("--psfs", psfs, PSFS), ("--noises", noises, NOISES)):
+        bad = [g for g in given if g not in known]
+        if bad:
+            ap.error("%s: unknown %s; choose from %s" % (what, ",".join(bad), ",".join(known)))
     bounds = ["pad", "periodic"] if a.boundary == "both" else [a.boundary]
     os.makedirs(a.out, exist_ok=True)
     bin_hash = hashlib.sha1(open(a.bin, "rb").read()).hexdigest()
