@@ -12,9 +12,13 @@
 - Four processes of four sizes started together on one empty cache: all
   exit 0, the file is valid wisdom holding all four (a fifth round of the
   same four reports "from cache" for each: none lost another's plans).
+- batch uses the cache: of two frames of one size, the first measures and
+  saves, the second loads.
 - Reproducibility, both halves of the README's statement: same seed and
   same plans (one cache) -> byte-identical mean.tif with --threads 1 and 2;
-  cache vs --no-plan-cache (different plans) -> equal to rounding. The
+  cache vs --no-plan-cache (different plans: on the 144 x 144 periodic grid
+  used here FFTW's ESTIMATE plans are another algorithm, 12x slower than
+  the measured ones, bench/fft_sizes.txt) -> equal to rounding. The
   tolerance: mean.tif is float32, so two runs whose doubles differ in the
   last bits can round a pixel to neighbouring floats: |a - b| <= 2 ulp of
   float32 at the image's scale (2^-22 max|a|). The double-precision summary
@@ -84,17 +88,18 @@ def valid_wisdom(path):
 xdg = P("xdg")
 wis = os.path.join(xdg, "pixpost", "fftw-wisdom")
 e = env(XDG_CACHE_HOME=xdg, HOME=P("home_unused"))
-p1, s1 = sample("run1", e)
+R = ["--boundary", "periodic", "--sampler", "gibbs"]
+p1, s1 = sample("run1", e, *R, h=144, w=144)
 pptest.check(p1.returncode == 0 and plans(s1) == "measured, saved to cache",
              "first run: plans measured and saved (%s; %s)" % (plans(s1), p1.stderr.strip()))
 pptest.check(os.path.isfile(wis) and valid_wisdom(wis),
              "the cache is $XDG_CACHE_HOME/pixpost/fftw-wisdom, valid FFTW wisdom")
 pptest.check(not os.path.exists(P("home_unused")), "$HOME is not touched when XDG_CACHE_HOME is set")
-p2, s2 = sample("run2", e)
+p2, s2 = sample("run2", e, *R, h=144, w=144)
 pptest.check(p2.returncode == 0 and plans(s2) == "measured, from cache",
              "second run: plans from the cache (%s)" % plans(s2))
 pptest.check(notes(p1.stderr) == [] and notes(p2.stderr) == [], "no note when the cache works")
-p3, s3 = sample("run3", e, threads=2)
+p3, s3 = sample("run3", e, *R, h=144, w=144, threads=2)
 m1, m2, m3 = (tifffile.imread(P(r, "mean.tif")) for r in ("run1", "run2", "run3"))
 with open(P("run2", "mean.tif"), "rb") as a, open(P("run3", "mean.tif"), "rb") as b:
     same = a.read() == b.read()
@@ -104,7 +109,7 @@ pptest.check(same and np.array_equal(m1, m2),
 
 # ---- --no-plan-cache: estimated plans, equal to rounding ---------------------
 xdg_off = P("xdg_off")
-p4, s4 = sample("run4", env(XDG_CACHE_HOME=xdg_off), "--no-plan-cache")
+p4, s4 = sample("run4", env(XDG_CACHE_HOME=xdg_off), "--no-plan-cache", *R, h=144, w=144)
 pptest.check(p4.returncode == 0 and plans(s4) == "estimated" and not os.path.exists(xdg_off),
              "--no-plan-cache: estimated plans, no cache folder made (%s)" % plans(s4))
 m4 = tifffile.imread(P("run4", "mean.tif"))
@@ -184,4 +189,23 @@ again = [plans(sample("conc2_%d" % h, env(XDG_CACHE_HOME=conc), h=h, w=w)[1])
          for h, w in sizes]
 pptest.check(again == ["measured, from cache"] * 4,
              "after four writers at once the cache holds all four sizes' plans (%s)" % again)
+
+# ---- batch uses the cache too ---------------------------------------------------
+bdir = P("batch_in")
+os.makedirs(bdir)
+for name in ("a", "b"):
+    y = 100 + 5 * rng.standard_normal((38, 42))
+    tifffile.imwrite(os.path.join(bdir, name + ".tif"), y.astype(np.float32))
+pb = subprocess.run([pptest.BIN, "batch", bdir, "-o", P("batch_out"), "--jobs", "1",
+                     "--threads", "1"] + ARGS, capture_output=True, text=True,
+                    env=env(XDG_CACHE_HOME=P("xdg_batch")))
+got = []
+for name in ("a", "b"):
+    try:
+        with open(P("batch_out", name, "summary.json")) as f:
+            got.append(json.load(f).get("fft_plans"))
+    except OSError:
+        got.append(None)
+pptest.check(pb.returncode == 0 and got == ["measured, saved to cache", "measured, from cache"],
+             "batch: the first frame measures and saves, the second loads (%s)" % got)
 pptest.done()
