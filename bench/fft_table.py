@@ -21,6 +21,8 @@ for path in sys.argv[1:]:
         n, est, meas, plan = line.split()
         rows.setdefault(int(n), []).append((float(est), float(meas), float(plan)))
 here = os.path.dirname(os.path.abspath(__file__))
+print("/* Made by bench/fft_table.py from the sweeps in bench/fft_sizes.txt: {side n,\n"
+      " * MEASURE r2c + c2r pair cost in hundredths of a ns per pixel of n x n}. */")
 with open(os.path.join(here, "fft_sizes.txt"), "w") as out:
     out.write("# bench/bench_fft_sizes sweeps (n: square n x n grid; est / meas: r2c + c2r\n"
               "# pair, ns per pixel, ESTIMATE / MEASURE plans; plan: seconds of MEASURE\n"

@@ -12,8 +12,9 @@
  * mean (Rao-Blackwellised where the sampler has a conditional mean), the
  * pixelwise sd (law of total variance), central credible bounds at
  * cfg.level, and scalar traces per chain (lambda, delta, log-likelihood,
- * probe pixels). The same seed gives byte-identical results whatever the
- * thread count.
+ * probe pixels). The same seed with the same FFT plans gives byte-identical
+ * results whatever the thread count; other plans (another cfg.fft_effort,
+ * other wisdom) give results equal to rounding.
  */
 #ifndef PIXPOST_SAMPLER_H
 #define PIXPOST_SAMPLER_H

@@ -61,7 +61,7 @@ static const cli_opt sample_table[] = {
      "plans were measured."},
     {"no-plan-cache", 0, 0, "",
      "Do not use the per-user FFT plan cache ($XDG_CACHE_HOME/pixpost, else ~/.cache/pixpost): "
-     "plans are estimated (reproducible on any machine, slower at some sizes)."},
+     "plans are estimated, which involves no timing (slower at some sizes)."},
     {"quiet", 0, 0, "", "Print nothing but errors (no progress, no summary)."},
     {"progress", 0, 1, "bar|plain|none", "How progress is shown on stderr."},
     {"strict", 0, 0, "",
