@@ -4,6 +4,8 @@
  *   boundary=periodic thin=1 chains=1 threads=1 iters=50 burn=0 seed=1
  *   prior=gmrf2 jeffreys=1 (hyperpriors Gamma(0,0), scikit-image's model)
  *   measure=0 (1: FFTW_MEASURE) frame=PATH psf=PATH (write them as TIFF)
+ *   wisdom=PATH (FFTW wisdom loaded before planning, saved after, as the
+ *   plan cache of the pixpost command; use with measure=1)
  * Prints one line of key=value pairs:
  *   sec_iter  wall seconds x parallel lanes / (iterations x chains), i.e.
  *             seconds per iteration of one chain (burn-in included)
@@ -112,7 +114,9 @@ int main(int argc, char **argv)
     if (!y || (fp && pp_image_write(fp, y) != PP_OK) || (pp && pp_image_write(pp, psf) != PP_OK))
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
     pp_sampler *s;
-    if (pp_sampler_create(&cfg, y, psf, &s) != PP_OK || pp_sampler_run(s) != PP_OK)
+    const char *wis = opt(argc, argv, "wisdom", NULL);
+    if ((wis && pp_fft_wisdom_load(wis) != PP_OK) || pp_sampler_create(&cfg, y, psf, &s) != PP_OK ||
+        (wis && pp_fft_wisdom_save(wis) != PP_OK) || pp_sampler_run(s) != PP_OK)
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
     double wall = pp_sampler_seconds(s);
     unsigned par = cfg.threads > 0 && (unsigned)cfg.threads < cfg.chains ? (unsigned)cfg.threads

@@ -25,16 +25,20 @@
 #include "internal.h"
 #include <complex.h> /* before fftw3.h: fftw_complex becomes double _Complex */
 #include <errno.h>
+#include <fcntl.h>
 #include <fftw3.h>
 #include <limits.h>
 #include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
 
 struct pp_fft {
     size_t height, width, half;
     fftw_plan r2c, c2r;
+    pp_fft_plans source;
 };
 
 static pthread_mutex_t planner_lock = PTHREAD_MUTEX_INITIALIZER;
@@ -49,13 +53,29 @@ static void destroy_locked(pp_fft *f)
     free(f);
 }
 
-/* Makes both plans on scratch arrays freed right after; caller holds planner_lock. */
+/* Makes both plans on scratch arrays freed right after; caller holds
+ * planner_lock. MEASURE first asks for plans from wisdom alone
+ * (FFTW_WISDOM_ONLY, which fails at once when the wisdom has none), so that
+ * f->source can tell loaded plans from newly measured ones. */
 static pp_status plan_locked(pp_fft *f, unsigned flags)
 {
     int h = (int)f->height, w = (int)f->width;
     double *r = fftw_alloc_real(f->height * f->width);
     fftw_complex *c = fftw_alloc_complex(f->height * f->half);
-    if (r && c) {
+    f->source = flags == FFTW_MEASURE ? PP_FFT_PLANS_WISDOM : PP_FFT_PLANS_ESTIMATED;
+    if (r && c && flags == FFTW_MEASURE) {
+        f->r2c = fftw_plan_dft_r2c_2d(h, w, r, c, flags | FFTW_WISDOM_ONLY);
+        f->c2r = fftw_plan_dft_c2r_2d(h, w, c, r, flags | FFTW_WISDOM_ONLY);
+        if (!f->r2c || !f->c2r) {
+            if (f->r2c)
+                fftw_destroy_plan(f->r2c);
+            if (f->c2r)
+                fftw_destroy_plan(f->c2r);
+            f->r2c = f->c2r = NULL;
+            f->source = PP_FFT_PLANS_MEASURED;
+        }
+    }
+    if (r && c && !f->r2c) {
         f->r2c = fftw_plan_dft_r2c_2d(h, w, r, c, flags);
         f->c2r = fftw_plan_dft_c2r_2d(h, w, c, r, flags);
     }
@@ -122,6 +142,10 @@ size_t pp_fft_half_width(const pp_fft *f)
 {
     return f->half;
 }
+pp_fft_plans pp_fft_plans_source(const pp_fft *f)
+{
+    return f->source;
+}
 
 /* The r2c plan is made without FFTW_DESTROY_INPUT, and for r2c FFTW's
  * default is to preserve the input, so casting away const is safe. */
@@ -157,6 +181,8 @@ void pp_fft_free_buffer(void *p)
     fftw_free(p);
 }
 
+/* An empty file counts as missing: pp_fft_wisdom_save() creates the file
+ * empty to lock it when it does not exist yet, and a reader may see it then. */
 pp_status pp_fft_wisdom_load(const char *path)
 {
     FILE *fp = fopen(path, "rb");
@@ -166,6 +192,12 @@ pp_status pp_fft_wisdom_load(const char *path)
         return pp_fail(PP_ERR_IO, "%s: cannot open the FFTW wisdom file: %s", path,
                        strerror(errno));
     }
+    int c = fgetc(fp);
+    if (c == EOF) {
+        fclose(fp);
+        return PP_OK;
+    }
+    ungetc(c, fp);
     pthread_mutex_lock(&planner_lock);
     int ok = fftw_import_wisdom_from_file(fp);
     pthread_mutex_unlock(&planner_lock);
@@ -178,20 +210,87 @@ pp_status pp_fft_wisdom_load(const char *path)
     return PP_OK;
 }
 
+/* Opens path (created empty if missing) and takes a POSIX write lock on it,
+ * waiting for another process's; retries until the locked file is still the
+ * one path names (a writer that held the lock has renamed a new file over
+ * it). Returns the descriptor to close when done, or -1 when the file cannot
+ * be opened or locked (a read-only file, a file system without locks): the
+ * caller then goes on without the lock. */
+static int lock_target(const char *path)
+{
+    for (int tries = 0; tries < 64; tries++) {
+        int fd = open(path, O_RDWR | O_CREAT, 0666);
+        if (fd < 0)
+            return -1;
+        struct flock l;
+        memset(&l, 0, sizeof l);
+        l.l_type = F_WRLCK;
+        l.l_whence = SEEK_SET;
+        if (fcntl(fd, F_SETLKW, &l) != 0) {
+            close(fd);
+            return -1;
+        }
+        struct stat a, b;
+        if (fstat(fd, &a) == 0 && stat(path, &b) == 0 && a.st_dev == b.st_dev &&
+            a.st_ino == b.st_ino)
+            return fd;
+        close(fd);
+    }
+    return -1;
+}
+
+/* The whole file behind fd as a NUL-terminated string (NULL when empty or
+ * unreadable). Read through the locked descriptor itself: closing any other
+ * descriptor of the file would drop this process's POSIX lock on it. */
+static char *read_all(int fd)
+{
+    struct stat sb;
+    if (fstat(fd, &sb) != 0 || sb.st_size <= 0 || sb.st_size > (1 << 26))
+        return NULL;
+    size_t n = (size_t)sb.st_size, got = 0;
+    char *buf = malloc(n + 1);
+    while (buf && got < n) {
+        ssize_t r = pread(fd, buf + got, n - got, (off_t)got);
+        if (r <= 0)
+            break;
+        got += (size_t)r;
+    }
+    if (buf)
+        buf[got] = '\0';
+    return buf;
+}
+
+/* Merge, then replace: under the lock, the wisdom already in the file is
+ * imported (a junk or empty file is skipped: it is replaced), all of this
+ * process's wisdom is written to a temporary file, which is renamed over
+ * path. Two processes saving at once therefore both keep their plans, and a
+ * reader sees the old file or the new one, never a partial one. */
 pp_status pp_fft_wisdom_save(const char *path)
 {
     char tmp[PP_PATH_MAX];
     pp_status st = pp_atomic_reserve(path, tmp);
     if (st != PP_OK)
         return st;
+    int fd = lock_target(path);
+    char *old = fd >= 0 ? read_all(fd) : NULL;
     pthread_mutex_lock(&planner_lock);
+    if (old)
+        (void)fftw_import_wisdom_from_string(old);
+    else if (fd < 0) /* no lock to lose: merge what is there, if anything */
+        (void)fftw_import_wisdom_from_filename(path);
     int ok = fftw_export_wisdom_to_filename(tmp);
     pthread_mutex_unlock(&planner_lock);
+    free(old);
     if (!ok) {
         remove(tmp);
+        if (fd >= 0)
+            close(fd);
         return pp_fail(PP_ERR_IO, "%s: cannot write the FFTW wisdom file", path);
     }
-    return pp_atomic_rename(tmp, path);
+    st = pp_atomic_rename(tmp, path);
+    if (fd >= 0)
+        close(fd); /* after the rename: releases the lock */
+    return st;
 }
 
 /* 1 when n has no prime factor above 7. */
@@ -217,4 +316,80 @@ size_t pp_fft_good_size(size_t n)
     while (!is_smooth7(n))
         n += 2;
     return n;
+}
+
+/* The padded-grid table: every even 7-smooth side from 8 to 2100 whose
+ * ESTIMATE pair (r2c + c2r) is at most 3x its MEASURE pair, with that
+ * MEASURE pair's cost in hundredths of a nanosecond per pixel. Measured by
+ * bench/bench_fft_sizes on square grids (AMD EPYC, 1 thread, the fastest of
+ * two sweeps, 2026-12-03; the data and the sizes left out are in
+ * bench/fft_sizes.txt, generated by bench/fft_table.py). Left out because
+ * FFTW's ESTIMATE plans for them are 3-40x slower than measured ones (e.g.
+ * 144: 48 vs 2.7 ns per pixel, 216: 57 vs 3.6, 1280: 289 vs 7.0), which is
+ * what a run without the plan cache gets. Why: those plans allocate a
+ * scratch buffer above 128 KiB in every execution, and with glibc's mmap
+ * threshold fixed there (pp_sampler_return_memory, which the command calls)
+ * each one is a fresh mmap: page faults in the kernel at every transform.
+ * Without that call the same 144^2 ESTIMATE pair takes 4.7 ns per pixel,
+ * 1280^2 25-31 (2026-12-03). MEASURE plans, timed under the same allocator
+ * setting, avoid them. */
+static const struct {
+    unsigned short n, cost;
+} grid_table[] = {
+#include "fft_table.inc"
+};
+enum { GRID_TABLE_LEN = sizeof grid_table / sizeof grid_table[0] };
+
+/* A gibbs kept draw with --boundary pad costs ~1.5 pairs plus ~15 ns per
+ * grid pixel of other passes (normals, the Fourier-space pass, moments):
+ * 500^2 frame on a 512^2 grid, 5.5 ms per iteration against a 1.0-1.1 ms
+ * MEASURE pair (bench_sampler, bench_floor, 2026-12-03). In pair units that
+ * is 10 ns per pixel on top of the pair's own cost, in the table's unit: */
+#define GRID_OTHER_COST 1000.0
+
+/* Index of the first table entry >= n, or GRID_TABLE_LEN. */
+static size_t table_from(size_t n)
+{
+    size_t lo = 0, hi = GRID_TABLE_LEN;
+    while (lo < hi) {
+        size_t mid = (lo + hi) / 2;
+        if (grid_table[mid].n < n)
+            lo = mid + 1;
+        else
+            hi = mid;
+    }
+    return lo;
+}
+
+/* Candidates for one side: table entries from the first >= n up to 1.5 n
+ * (a grid half as large again never wins against the 10 ns per pixel). */
+static size_t table_until(size_t first, size_t n)
+{
+    size_t last = first;
+    while (last < GRID_TABLE_LEN && (last == first || grid_table[last].n <= n + n / 2))
+        last++;
+    return last;
+}
+
+void pp_fft_good_grid(size_t h, size_t w, size_t *gh, size_t *gw)
+{
+    size_t h0 = table_from(h), w0 = table_from(w);
+    *gh = pp_fft_good_size(h);
+    *gw = pp_fft_good_size(w);
+    if (h < grid_table[0].n || w < grid_table[0].n || h0 == GRID_TABLE_LEN ||
+        w0 == GRID_TABLE_LEN)
+        return; /* below or beyond the table: the smallest even 7-smooth sides */
+    size_t h1 = table_until(h0, h), w1 = table_until(w0, w);
+    double best = -1;
+    for (size_t i = h0; i < h1; i++)
+        for (size_t j = w0; j < w1; j++) {
+            double a = grid_table[i].n, b = grid_table[j].n;
+            double cost = a * b * (0.5 * (grid_table[i].cost + grid_table[j].cost) +
+                                   GRID_OTHER_COST);
+            if (best < 0 || cost < best) { /* ties: the smaller grid (found first) */
+                best = cost;
+                *gh = grid_table[i].n;
+                *gw = grid_table[j].n;
+            }
+        }
 }

@@ -2,8 +2,9 @@
  * blur A x and simulated noise.
  *
  * Cost of pp_model_blur: one plan for the grid (H x W periodic; padded
- * Hp x Wp with Hp = good_size(max(H + R, 2R + 1)) for pad), three
- * transforms (PSF, scene, inverse) and three grid-sized buffers. Noise is
+ * Hp x Wp = pp_fft_good_grid(max(H + R, 2R + 1), max(W + R, 2R + 1)) for
+ * pad), three transforms (PSF, scene, inverse) and three grid-sized
+ * buffers. Noise is
  * one or two variates per pixel. Simulation is not on the sampler's hot
  * path, so nothing here is cached.
  *
@@ -140,8 +141,8 @@ pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b, p
                        "needs it to fit (use --boundary pad)",
                        psf->width, psf->height, wg, hg);
     if (b == PP_BOUNDARY_PAD) {
-        hg = pp_fft_good_size(hg + r > 2 * r + 1 ? hg + r : 2 * r + 1);
-        wg = pp_fft_good_size(wg + r > 2 * r + 1 ? wg + r : 2 * r + 1);
+        pp_fft_good_grid(hg + r > 2 * r + 1 ? hg + r : 2 * r + 1,
+                         wg + r > 2 * r + 1 ? wg + r : 2 * r + 1, &hg, &wg);
     }
     if ((st = pp_image_create(x->width, x->height, out)) != PP_OK)
         return st;

@@ -264,6 +264,11 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu},\n", frame->width,
             frame->height);
     fprintf(f, "  \"grid\": {\"width\": %zu, \"height\": %zu},\n", s->gw, s->gh);
+    static const char *const plans[] = {"estimated", "measured", "measured, from wisdom"};
+    fputs("  \"fft_plans\": ", f);
+    pp_json_write_string(f, info && info->fft_plans ? info->fft_plans
+                                                    : plans[pp_sampler_fft_plans(s)]);
+    fputs(",\n", f);
     /* x's units: those of the frame for gaussian noise; photons per pixel
      * (before gain and offset) for the photon models */
     fprintf(f, "  \"estimate_units\": \"%s\",\n",

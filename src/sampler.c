@@ -208,8 +208,7 @@ static pp_status plan_grid(pp_sampler *s, const pp_image *psf)
     s->gh = s->height;
     s->gw = s->width;
     if (s->cfg.boundary == PP_BOUNDARY_PAD && r > 0) {
-        s->gh = pp_fft_good_size(s->height + 2 * r);
-        s->gw = pp_fft_good_size(s->width + 2 * r);
+        pp_fft_good_grid(s->height + 2 * r, s->width + 2 * r, &s->gh, &s->gw);
     }
     s->gwh = s->gw / 2 + 1;
     s->gn = s->gh * s->gw;
@@ -651,6 +650,7 @@ const pp_image *pp_sampler_hi(const pp_sampler *s) { return s->hi; }
 const pp_trace *pp_sampler_trace(const pp_sampler *s) { return &s->trace; }
 const char *pp_sampler_bound_method(const pp_sampler *s) { return s->bound_method; }
 double pp_sampler_seconds(const pp_sampler *s) { return s->seconds; }
+pp_fft_plans pp_sampler_fft_plans(const pp_sampler *s) { return pp_fft_plans_source(s->fft); }
 size_t pp_sampler_warning_count(const pp_sampler *s) { return s->nwarnings; }
 const char *pp_sampler_warning(const pp_sampler *s, size_t i)
 {

@@ -1,6 +1,7 @@
 /* Unit tests of src/fft.c: the forward transform against a direct DFT sum,
  * the round-trip scaling c2r(r2c(x)) = H*W*x, that forward leaves its input
- * alone, good sizes, wisdom files, refusals, and planning from several
+ * alone, good sizes, the padded-grid rule, wisdom files (where plans come
+ * from, merged saves), refusals, and planning from several
  * threads at once. */
 #include "pixpost/fft.h"
 #include "testutil.h"
@@ -94,6 +95,43 @@ static void check_good_size(void)
           bad);
 }
 
+/* The padded-grid rule (pp_fft_good_grid): sides at least the minimum,
+ * even and 7-smooth, never one of the sizes whose ESTIMATE plans were
+ * measured 12-41x slower than MEASURE plans (bench/fft_sizes.txt: 144 48 vs
+ * 2.7 ns per pixel per pair, 216 57 vs 3.6, 1280 289 vs 7.0), a larger side
+ * when the smallest is slow (125 -> 128: 126 costs 4.1 ns per pixel, 128
+ * 2.1), within 1.5x of the minimum, the same for both sides of a square,
+ * and the old rule beyond the table. */
+static void check_good_grid(void)
+{
+    int bad = 0, slow = 0, far = 0;
+    for (size_t n = 3; n <= 2300; n++) {
+        size_t gh, gw;
+        pp_fft_good_grid(n, n + n % 7, &gh, &gw);
+        if (gh < n || gw < n + n % 7 || gh % 2 || gw % 2 || !smooth7(gh) || !smooth7(gw))
+            bad++;
+        slow += gh == 144 || gh == 216 || gh == 1280 || gw == 144 || gw == 216 || gw == 1280;
+        far += gh > n + n / 2 + 2;
+    }
+    CHECK(bad == 0, "good_grid: sides >= the minimum, even, 7-smooth for 3..2300 (%d bad)", bad);
+    CHECK(slow == 0, "good_grid never picks 144, 216 or 1280 (%d times)", slow);
+    CHECK(far == 0, "good_grid stays within 1.5x of the minimum side (%d times)", far);
+    size_t gh, gw;
+    pp_fft_good_grid(125, 125, &gh, &gw);
+    CHECK(gh == 128 && gw == 128, "good_grid(125, 125) = %zux%zu, want 128x128 (126 is slower)",
+          gh, gw);
+    pp_fft_good_grid(140, 1275, &gh, &gw);
+    CHECK(gh != 144 && gw != 1280 && gh >= 140 && gw >= 1275,
+          "good_grid(140, 1275) = %zux%zu avoids 144 and 1280", gh, gw);
+    pp_fft_good_grid(2600, 3001, &gh, &gw);
+    CHECK(gh == pp_fft_good_size(2600) && gw == pp_fft_good_size(3001),
+          "beyond the table: the smallest even 7-smooth sides (%zux%zu)", gh, gw);
+    size_t a1, b1, a2, b2;
+    pp_fft_good_grid(300, 500, &a1, &b1);
+    pp_fft_good_grid(500, 300, &a2, &b2);
+    CHECK(a1 == b2 && b1 == a2, "good_grid is symmetric (%zux%zu, %zux%zu)", a1, b1, a2, b2);
+}
+
 static void check_wisdom(void)
 {
     const char *dir = pp_test_tmpdir();
@@ -114,6 +152,24 @@ static void check_wisdom(void)
     char nodir[4200];
     snprintf(nodir, sizeof nodir, "%s/no/such/dir/w.txt", dir);
     CHECK(pp_fft_wisdom_save(nodir) == PP_ERR_IO, "saving into a missing folder fails");
+    char empty[4200];
+    snprintf(empty, sizeof empty, "%s/empty.txt", dir);
+    fp = fopen(empty, "w");
+    if (fp)
+        fclose(fp);
+    CHECK(pp_fft_wisdom_load(empty) == PP_OK, "an empty wisdom file counts as missing");
+    /* where plans come from: 22x18 is planned nowhere else in this test */
+    pp_fft *e = NULL, *m = NULL, *w = NULL;
+    pp_fft_create(22, 18, PP_FFT_ESTIMATE, &e);
+    pp_fft_create(22, 18, PP_FFT_MEASURE, &m);
+    pp_fft_create(22, 18, PP_FFT_MEASURE, &w);
+    CHECK(e && m && w && pp_fft_plans_source(e) == PP_FFT_PLANS_ESTIMATED &&
+              pp_fft_plans_source(m) == PP_FFT_PLANS_MEASURED &&
+              pp_fft_plans_source(w) == PP_FFT_PLANS_WISDOM,
+          "plans: ESTIMATE, then MEASURE measured, then MEASURE again from wisdom");
+    pp_fft_free(e);
+    pp_fft_free(m);
+    pp_fft_free(w);
 }
 
 struct job {
@@ -171,6 +227,7 @@ int main(void)
     check_grid(5, 1, PP_FFT_ESTIMATE);
     check_grid(12, 14, PP_FFT_MEASURE);
     check_good_size();
+    check_good_grid();
     check_wisdom();
     check_threads();
     pp_fft *f = (pp_fft *)1;

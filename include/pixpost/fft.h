@@ -7,8 +7,11 @@
  * executed on any buffers from pp_fft_alloc_*, from any number of threads at
  * once. Execution allocates nothing.
  *
- * Planner effort: PP_FFT_ESTIMATE (default, deterministic plans) or
- * PP_FFT_MEASURE (faster, slower to plan; combine with wisdom files).
+ * Planner effort: PP_FFT_ESTIMATE (deterministic plans, no planning time) or
+ * PP_FFT_MEASURE (FFTW times candidate plans: faster to run, 0.02-2 s to
+ * make below 1024^2, up to ~10 s at 2048^2 (bench/NOTES.md), unless wisdom
+ * already holds them). Different plans round differently: results computed
+ * with different plans agree to rounding, not bit for bit.
  */
 #ifndef PIXPOST_FFT_H
 #define PIXPOST_FFT_H
@@ -22,12 +25,22 @@ typedef struct pp_fft pp_fft;
 
 enum { PP_FFT_ESTIMATE = 0, PP_FFT_MEASURE = 1 };
 
+/* Where a pp_fft's plans came from: ESTIMATE planning, MEASURE planning
+ * now, or MEASURE wisdom already loaded (pp_fft_wisdom_load) or made
+ * earlier in this process. */
+typedef enum pp_fft_plans {
+    PP_FFT_PLANS_ESTIMATED = 0,
+    PP_FFT_PLANS_MEASURED,
+    PP_FFT_PLANS_WISDOM
+} pp_fft_plans;
+
 pp_status pp_fft_create(size_t height, size_t width, int effort, pp_fft **out);
 void pp_fft_free(pp_fft *f);
 
 size_t pp_fft_height(const pp_fft *f);
 size_t pp_fft_width(const pp_fft *f);
 size_t pp_fft_half_width(const pp_fft *f); /* W/2 + 1 */
+pp_fft_plans pp_fft_plans_source(const pp_fft *f);
 
 /* in: H*W reals; out: H*(W/2+1) complex. in is not modified. */
 void pp_fft_forward(const pp_fft *f, const double *in, pp_complex *out);
@@ -39,12 +52,27 @@ double *pp_fft_alloc_real(size_t n);
 pp_complex *pp_fft_alloc_complex(size_t n);
 void pp_fft_free_buffer(void *p);
 
-/* Load / save FFTW wisdom (a missing file on load is not an error). */
+/* Load FFTW wisdom into this process (a missing or empty file is not an
+ * error; PP_ERR_IO when it cannot be read, PP_ERR_FORMAT when it is not
+ * wisdom of this FFTW build). */
 pp_status pp_fft_wisdom_load(const char *path);
+/* Saves this process's wisdom merged with what path already holds, under a
+ * POSIX lock on path, through a temporary file renamed over it: safe when
+ * several processes save to one file at once (none loses its plans, a
+ * reader never sees a partial file). The folder must exist. */
 pp_status pp_fft_wisdom_save(const char *path);
 
 /* Smallest even n' >= n whose prime factors are all in {2, 3, 5, 7} (1 for
- * n <= 1): the sizes FFTW transforms fastest without planning. */
+ * n <= 1). Used for 1-D lengths (diag.c's autocovariances). */
 size_t pp_fft_good_size(size_t n);
+
+/* The grid for a padded H x W transform: the gh x gw with gh >= h and
+ * gw >= w of least modelled cost per iteration, from a fixed table of
+ * measured transform costs (src/fft.c), so the choice is the same on every
+ * machine. A larger grid is chosen when it is faster; sizes whose ESTIMATE
+ * plans are slow are never chosen. Beyond the table (above 2200) it is
+ * pp_fft_good_size() per side. The one padding rule of the library
+ * (sampler, pp_model_blur). */
+void pp_fft_good_grid(size_t h, size_t w, size_t *gh, size_t *gw);
 
 #endif

@@ -25,6 +25,9 @@ typedef struct pp_run_info {
     const char *prior_spec;
     const char *command_line;
     double seconds_total;   /* wall time of the whole command so far */
+    const char *fft_plans;  /* summary's "fft_plans" (how the plans were made and
+                             * kept); NULL: "estimated", "measured" or
+                             * "measured, from wisdom", from the sampler */
 } pp_run_info;
 
 /* Writes s (NULL: "") to f as a JSON string literal: quotes, with '"' and

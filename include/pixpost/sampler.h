@@ -12,8 +12,9 @@
  * mean (Rao-Blackwellised where the sampler has a conditional mean), the
  * pixelwise sd (law of total variance), central credible bounds at
  * cfg.level, and scalar traces per chain (lambda, delta, log-likelihood,
- * probe pixels). The same seed gives byte-identical results whatever the
- * thread count.
+ * probe pixels). The same seed with the same FFT plans gives byte-identical
+ * results whatever the thread count; other plans (another cfg.fft_effort,
+ * other wisdom) give results equal to rounding.
  */
 #ifndef PIXPOST_SAMPLER_H
 #define PIXPOST_SAMPLER_H
@@ -68,7 +69,8 @@ typedef struct pp_sampler_config {
     pp_prior_spec prior;    /* default gmrf1 */
     double hyper_lambda[2]; /* Gamma shape, rate for lambda (default 1, 1e-4) */
     double hyper_delta[2];  /* Gamma shape, rate for delta (default 1, 1e-4) */
-    int fft_effort;         /* PP_FFT_ESTIMATE or PP_FFT_MEASURE */
+    int fft_effort;         /* PP_FFT_ESTIMATE (default) or PP_FFT_MEASURE; the
+                             * caller loads wisdom first (pp_fft_wisdom_load) */
     pp_positivity positivity; /* pcn/gpcn/hmc (default AUTO) */
     double background;      /* known background, photons/pixel, photon models (default 0) */
     /* The PSF model behind the kernel given to pp_sampler_create; read only
@@ -136,6 +138,10 @@ const char *pp_sampler_bound_method(const pp_sampler *s);
 
 /* Timings of the last run, seconds. */
 double pp_sampler_seconds(const pp_sampler *s);
+
+/* Where the grid's FFT plans came from (cfg.fft_effort and the wisdom
+ * loaded before pp_sampler_create; include/pixpost/fft.h). */
+pp_fft_plans pp_sampler_fft_plans(const pp_sampler *s);
 
 /* Warnings raised while setting up or sampling (plain sentences): R-hat,
  * ESS, acceptance, a burn-in too short to adapt, a hyperprior that outweighs

@@ -154,6 +154,7 @@ typedef struct cli_sample_opts {
     pp_psf_spec psf;        /* parsed --psf */
     pp_read_options read;   /* --channel, --max-pixels */
     const char *wisdom;     /* --wisdom FILE or NULL */
+    int no_plan_cache;      /* --no-plan-cache */
     int quiet;              /* --quiet */
     cli_progress progress;  /* --progress (AUTO: bar on a terminal, else none) */
     int strict;             /* --strict */
@@ -172,6 +173,25 @@ int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o);
  * 0, CLI_HELP (help printed to stdout) or CLI_EXIT_USAGE. */
 int cli_sample_opts_parse(int argc, char **argv, cli_sample_opts *o);
 void cli_sample_help(FILE *fp);
+
+/* ---- where the FFT plans come from (plan_cache.c) ------------------- */
+
+typedef struct cli_plans {
+    char path[4096];   /* wisdom file in use (cache or --wisdom), "" for none */
+    int from_option;   /* path is --wisdom FILE */
+    int effort;        /* PP_FFT_MEASURE with a wisdom file, else ESTIMATE */
+    char summary[64];  /* summary.json's "fft_plans" */
+} cli_plans;
+
+/* Finds and loads the wisdom (--wisdom FILE, else the per-user cache unless
+ * --no-plan-cache) and sets p->effort for the sampler. A cache problem is a
+ * note on stderr (not under --quiet) and ESTIMATE plans; a --wisdom FILE
+ * that cannot be read returns CLI_EXIT_USAGE with the reason in msg. */
+int cli_plans_load(const cli_sample_opts *o, cli_plans *p, char *msg, size_t len);
+/* After pp_sampler_create: saves newly measured plans and sets p->summary.
+ * A cache that cannot be written is a note; a --wisdom FILE, CLI_EXIT_USAGE. */
+int cli_plans_save(const cli_sample_opts *o, cli_plans *p, const pp_sampler *s, char *msg,
+                   size_t len);
 
 /* ---- one frame into a folder (run_frame.c), used by sample and batch - */
 

@@ -163,9 +163,10 @@ static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **fra
 }
 
 static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
-                        const pp_image *psf, progress_state *ps)
+                        const pp_image *psf, progress_state *ps, int fft_effort)
 {
     pp_sampler_config cfg = o->cfg;
+    cfg.fft_effort = fft_effort;
     cfg.seed = r->seed;
     cfg.threads = r->threads;
     ps->mode = r->progress;
@@ -183,7 +184,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
 }
 
 static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
-                            const progress_state *ps)
+                            const progress_state *ps, const cli_plans *plans)
 {
     int rc = cli_make_dirs(r->outdir, r->message, sizeof r->message);
     if (rc)
@@ -202,11 +203,9 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     }
     if (st != PP_OK)
         return fail_frame(r, st);
-    pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,
-                      o->prior_text, r->command_line, cli_since(&r->t0)};
+    pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,    o->prior_text,
+                      r->command_line, cli_since(&r->t0), plans->summary};
     if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
-        return fail_lib(r, st);
-    if (o->wisdom && (st = pp_fft_wisdom_save(o->wisdom)) != PP_OK)
         return fail_lib(r, st);
     return 0;
 }
@@ -220,15 +219,18 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     r->interrupted = 0;
     memset(&r->info, 0, sizeof r->info);
     progress_state ps;
+    cli_plans plans;
     int rc = read_frame(o, r, &frame);
     if (!rc && (st = pp_psf_make(&o->psf, 0, &psf)) != PP_OK)
         rc = fail_lib(r, st);
-    if (!rc && o->wisdom && (st = pp_fft_wisdom_load(o->wisdom)) != PP_OK)
-        rc = fail_lib(r, st);
     if (!rc)
-        rc = make_sampler(o, r, frame, psf, &ps);
+        rc = cli_plans_load(o, &plans, r->message, sizeof r->message);
     if (!rc)
-        rc = sample_and_write(o, r, frame, &ps);
+        rc = make_sampler(o, r, frame, psf, &ps, plans.effort);
+    if (!rc)
+        rc = cli_plans_save(o, &plans, r->sampler, r->message, sizeof r->message);
+    if (!rc)
+        rc = sample_and_write(o, r, frame, &ps, &plans);
     pp_image_free(psf);
     pp_image_free(frame);
     return rc;

@@ -63,8 +63,11 @@ static const cli_opt sample_table[] = {
      "Channel to take from a colour image (colour input is refused without it)."},
     {"max-pixels", 0, 1, "N", "Refuse frames with more than N pixels (whole number >= 1)."},
     {"wisdom", 0, 1, "FILE",
-     "FFTW wisdom file: loaded if present, saved after planning; plans are then measured "
-     "(slower to make, faster to run)."},
+     "FFTW wisdom file used instead of the plan cache: loaded if present, saved after new "
+     "plans were measured."},
+    {"no-plan-cache", 0, 0, "",
+     "Do not use the per-user FFT plan cache ($XDG_CACHE_HOME/pixpost, else ~/.cache/pixpost): "
+     "plans are estimated, which involves no timing (slower at some sizes)."},
     {"quiet", 0, 0, "", "Print nothing but errors (no progress, no summary)."},
     {"progress", 0, 1, "bar|plain|none", "How progress is shown on stderr."},
     {"strict", 0, 0, "",
@@ -124,11 +127,13 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
     else if (strcmp(name, "max-pixels") == 0)
         snprintf(buf, len, "%zu", (size_t)PP_DEFAULT_MAX_PIXELS);
     else if (strcmp(name, "wisdom") == 0)
-        snprintf(buf, len, "none (estimated plans, no file)");
+        snprintf(buf, len, "none (the plan cache)");
     else if (strcmp(name, "progress") == 0)
         snprintf(buf, len, "bar on a terminal, none otherwise");
     else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0 ||
              strcmp(name, "overwrite") == 0)
+        snprintf(buf, len, "off");
+    else if (strcmp(name, "no-plan-cache") == 0)
         snprintf(buf, len, "off");
 }
 
@@ -229,11 +234,12 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
     o->strict = cli_given(a, "strict");
     o->overwrite = cli_given(a, "overwrite");
     o->wisdom = cli_str(a, "wisdom");
-    if (o->wisdom) {
-        if (!o->wisdom[0])
-            return cli_opt_error("wisdom", "empty file name (expected --wisdom FILE)");
-        o->cfg.fft_effort = PP_FFT_MEASURE;
-    }
+    o->no_plan_cache = cli_given(a, "no-plan-cache");
+    if (o->wisdom && !o->wisdom[0])
+        return cli_opt_error("wisdom", "empty file name (expected --wisdom FILE)");
+    /* MEASURE plans unless turned off; cli_plans_load may still fall back
+     * to ESTIMATE for one run when the cache cannot be read */
+    o->cfg.fft_effort = o->wisdom || !o->no_plan_cache ? PP_FFT_MEASURE : PP_FFT_ESTIMATE;
     const char *p = cli_str(a, "progress");
     o->progress = o->quiet ? CLI_PROGRESS_NONE : CLI_PROGRESS_AUTO;
     if (!p)
