@@ -32,6 +32,10 @@ H3  'sp'  x = u + v: u the stationary field of 'sb' (beta learned, or
                (tol 1e-6, warm start), then u | v, y exact (Fourier);
             3. omega_i | v ~ Gamma(a + 1/2, a + delta_v v_i^2 / 2),
                delta_v | v, omega ~ Gamma(1 + N/2, 1e-4 + sum omega v^2 / 2).
+'mxa:a:g' (added): proto.py's mx:g (Student-t first-order weights plus a
+          stationary g q^2 part, one delta) with the Student-t shape a
+          instead of 0.5: do heavier edge tails rescue edges under a steep
+          stationary part?
 Usage:
     nice -n 19 /usr/bin/python3 bench/adaptive/round2.py --models sb,sb1 \
         --set dev --out results/r2/h2_dev.json
@@ -130,10 +134,11 @@ class RWM:
 
 
 def u_draw(ops, rng, yd, lam, delta, beta):
-    """Exact draw of the stationary field given data yd (rfft layout)."""
+    """Exact draw of the stationary field given data yd (rfft layout;
+    leading batch axes of yd are independent draws)."""
     n = ops.n
     p = lam * ops.otf2 + delta * np.where(ops.q > 0, ops.q, 1) ** beta * (ops.q > 0)
-    wn = rfft2(rng.standard_normal((n, n)))
+    wn = rfft2(rng.standard_normal(yd.shape))
     return irfft2((lam * np.conj(ops.otf) * rfft2(yd) + wn * np.sqrt(p)) / p, s=(n, n))
 
 
@@ -163,6 +168,60 @@ def jacobi_pcg(Sf, dS, b, x0, tol, maxit=3000):
     return proto.pcg(Sf, lambda r: r / dS, b, x0, tol, maxit)
 
 
+def uv_draw(ops, rng, y, lam, d, b, Dv, H, v0, tol, batch=()):
+    """Joint draw of (u, v) | y, lam, delta, beta, Dv = delta_v omega for
+    y = A u + A G v + e (H = the symbol of A G): v from its marginal with u
+    integrated out (precision Dv + F, F Fourier-diagonal, symbol
+    |H_k|^2 / c_k, c_k = |A_k|^2/(delta q_k^beta) + 1/lam; DC: 1/c = 0),
+    by perturbation-optimisation and Jacobi PCG (tol, warm start v0),
+    then u | v exact. Returns u, v, CG iterations."""
+    n = ops.n
+    qpos = ops.q > 0
+    qb = d * np.where(qpos, ops.q, 1) ** b * qpos
+    invc = lam * qb / (lam * ops.otf2 + qb)             # 1/c_k, 0 at DC
+    Fsym = np.abs(H) ** 2 * invc
+    e1 = rfft2(rng.standard_normal(batch + (n, n)))
+    eta = irfft2(np.conj(H) * (invc * rfft2(y) + np.sqrt(invc) * e1), s=(n, n)) \
+        + np.sqrt(Dv) * rng.standard_normal(batch + (n, n))
+    fdiag = irfft2(Fsym, s=(n, n))[0, 0]
+    Sf = lambda z: Dv * z + irfft2(rfft2(z) * Fsym, s=(n, n))
+    v, k = jacobi_pcg(Sf, Dv + fdiag, eta, np.broadcast_to(v0, eta.shape).copy(), tol)
+    u = u_draw(ops, rng, y - irfft2(rfft2(v) * H, s=(n, n)), lam, d, b)
+    return u, v, k
+
+
+def validate(ndraw=20000, seed=3):
+    """(u, v) draws of uv_draw against the dense Gaussian posterior of the
+    stacked model on 8x8 (sigma 1.2 PSF, G sd 0.7, beta 1.6, omega over
+    4 decades), tol 1e-10. The dense precision (numpy inverse):
+    [[lam A'A + Q, lam A'AG], [lam G'A'A, lam G'A'AG + Dv]], Q the
+    circulant with symbol delta q^beta (singular alone, the block is not)."""
+    n, N = 8, 64
+    ops = Ops(n, sigma=1.2)
+    rng = np.random.default_rng(seed)
+    lam, d, b = 1e3, 5.0, 1.6
+    y = ops.A(rng.random((n, n))) + 0.03 * rng.standard_normal((n, n))
+    Dv = 10 ** rng.uniform(0, 4, (n, n))
+    og = Ops(n, sigma=0.7).otf
+    H = ops.otf * og
+    I = np.eye(N).reshape(N, n, n)
+    circ = lambda sym: irfft2(rfft2(I) * sym, s=(n, n)).reshape(N, N).T
+    qb = d * np.where(ops.q > 0, ops.q, 1) ** b * (ops.q > 0)
+    AtA, Q, AG = circ(ops.otf2), circ(qb), circ(H)
+    Am = circ(ops.otf)
+    P = np.block([[lam * AtA + Q, lam * AtA @ circ(og)], [lam * AG.T @ Am, lam * AG.T @ AG + np.diag(Dv.ravel())]])
+    P = 0.5 * (P + P.T)
+    C = np.linalg.inv(P)
+    mu = C @ np.concatenate([lam * Am.T @ y.ravel(), lam * AG.T @ y.ravel()])
+    u, v, k = uv_draw(ops, rng, y, lam, d, b, Dv, H, np.zeros((n, n)), 1e-10, batch=(ndraw,))
+    z = np.concatenate([u.reshape(ndraw, N), v.reshape(ndraw, N)], 1)
+    zm = (z.mean(0) - mu) / np.sqrt(np.diag(C) / ndraw)
+    vr = z.var(0, ddof=1) / np.diag(C)
+    return {'cg_iters': int(k), 'max_abs_z_mean_of_128': float(np.abs(zm).max()),
+            'var_ratio_min': float(vr.min()), 'var_ratio_max': float(vr.max()),
+            'var_ratio_tol': float(4 * np.sqrt(2 / ndraw))}
+
+
 def run_sp(ops, y, rng, n_burn, n_keep, a=0.5, fixed_beta=None, mh_per=20, tol=1e-6, sg=0.0):
     n, N = ops.n, ops.N
     sp = Spec(ops)
@@ -180,24 +239,12 @@ def run_sp(ops, y, rng, n_burn, n_keep, a=0.5, fixed_beta=None, mh_per=20, tol=1
     om = np.ones((n, n))
     dv = 1.0 / np.var(y) * 10       # v starts tight (sd ~ 0.3 of the data's sd)
     draws, its, tr = [], [], []
-    qpos = ops.q > 0
     for it in range(n_burn + n_keep):
         # 1. hypers of u | v (u integrated out)
         mh.steps(y - AG(v), mh_per, adapt=it < n_burn and it % 25 == 24)
         lam, d, b = mh.lam, mh.delta, mh.beta
-        qb = d * np.where(qpos, ops.q, 1) ** b * qpos
-        invc = lam * qb / (lam * ops.otf2 + qb)             # 1/c_k, 0 at DC
-        Fsym = H2 * invc
-        # 2. v | y, hypers, omega (u integrated), PO + Jacobi PCG
-        Dv = dv * om
-        e1 = rfft2(rng.standard_normal((n, n)))
-        eta = irfft2(np.conj(H) * (invc * rfft2(y) + np.sqrt(invc) * e1), s=(n, n)) \
-            + np.sqrt(Dv) * rng.standard_normal((n, n))
-        fdiag = irfft2(Fsym, s=(n, n))[0, 0]
-        Sf = lambda z: Dv * z + irfft2(rfft2(z) * Fsym, s=(n, n))
-        v, k = jacobi_pcg(Sf, Dv + fdiag, eta, v, tol)
+        u, v, k = uv_draw(ops, rng, y, lam, d, b, dv * om, H, v, tol)
         its.append(k)
-        u = u_draw(ops, rng, y - AG(v), lam, d, b)
         # 3. omega, delta_v | v
         om = rng.gamma(a + 0.5, 1 / (a + dv * v * v / 2))
         dv = rng.gamma(1 + N / 2, 1 / (EPS_RATE + (om * v * v).sum() / 2))
@@ -222,6 +269,13 @@ def one(name, noise, model, n, n_burn, n_keep):
     rng = np.random.default_rng(seed_of(name, noise, model))
     base, _, par = model.partition(':')
     t0 = time.time()
+    if base == 'mxa':                # 'mxa:a:gamma': proto.py's mx with Student-t shape a
+        a_, g_ = par.split(':')
+        proto.Mixed.A = float(a_)
+        out = proto.one_config(name, noise, 'mx:' + g_, n, n_burn, n_keep, False)
+        proto.Mixed.A = 0.5
+        out.update({'prior': model, 'burn': n_burn, 'keep': n_keep})
+        return out
     if base == 'sb':
         draws, info = run_sb(ops, y, rng, n_burn, n_keep)
     elif base == 'sb1':
@@ -255,7 +309,11 @@ def main():
     ap.add_argument('--keep', type=int, default=600)
     ap.add_argument('--base-from', default='results/main_dev.json,results/main_held.json')
     ap.add_argument('--out', default=None)
+    ap.add_argument('--validate', action='store_true', help='dense 8x8 check of the (u, v) draw')
     a = ap.parse_args()
+    if a.validate:
+        print(json.dumps(validate(), indent=1))
+        return
     imgs = {'dev': proto.DEV, 'held': proto.HELD, 'all': proto.DEV + proto.HELD}[a.set]
     if a.images:
         imgs = a.images.split(',')
