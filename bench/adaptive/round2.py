@@ -320,11 +320,11 @@ def main():
     cache = {}
     for p in a.base_from.split(','):
         for r in json.load(open(p)):
-            cache[(r['image'], r['noise'])] = {k: r[k] for k in ('rl_rmse', 'rl_iter', 'wiener_rmse')}
+            cache[(r['image'], r['noise'], r.get('n', 48))] = {k: r[k] for k in ('rl_rmse', 'rl_iter', 'wiener_rmse')}
     rows = []
     for name in imgs:
         for nz in [float(s) for s in a.noise.split(',')]:
-            base = cache.get((name, nz))
+            base = cache.get((name, nz, a.n))
             if base is None:
                 ops = Ops(a.n)
                 truth = load_truth(name, a.n)
