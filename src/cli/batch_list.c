@@ -203,7 +203,8 @@ static int expand_pages(const char *indir, const name_list *l, uint64_t seed, ba
 static void describe_skipped(name_list *skip, int recursive, batch_skipped *out)
 {
     enum { SHOWN = 8 };
-    qsort(skip->v, skip->n, sizeof *skip->v, cmp_name);
+    if (skip->n) /* qsort's base must not be NULL, even for no elements */
+        qsort(skip->v, skip->n, sizeof *skip->v, cmp_name);
     out->count = skip->n;
     out->names[0] = '\0';
     size_t used = 0, folders = 0;
@@ -231,7 +232,8 @@ int batch_list(const char *indir, int recursive, const char *pattern, uint64_t s
     int rc = walk(indir, "", recursive, pattern, &l, &skip, 0);
     if (!rc) {
         describe_skipped(&skip, recursive, skipped);
-        qsort(l.v, l.n, sizeof *l.v, cmp_name);
+        if (l.n)
+            qsort(l.v, l.n, sizeof *l.v, cmp_name);
         rc = expand_pages(indir, &l, seed, out, n);
     }
     free(l.v);
