@@ -23,8 +23,8 @@
 typedef struct pp_po pp_po;
 
 /* Workspace for an h x w grid (h, w >= 2), FFT plans of the given effort
- * (PP_FFT_ESTIMATE / PP_FFT_MEASURE). Memory: 8 real grids + one half
- * spectrum (complex) + one real half spectrum ≈ 84 B/px. *out is NULL on
+ * (PP_FFT_ESTIMATE / PP_FFT_MEASURE). Memory: 7 real grids + one half
+ * spectrum (complex) + three real half spectra ≈ 76 B/px. *out is NULL on
  * failure (PP_ERR_ARG, PP_ERR_NOMEM). */
 pp_status pp_po_create(size_t h, size_t w, int effort, pp_po **out);
 
