@@ -26,8 +26,8 @@ void pp_incr_apply(size_t h, size_t w, const double *wh, const double *wv, const
             size_t l = j ? j - 1 : w - 1, r = j + 1 < w ? j + 1 : 0;
             double c = xr[j];
             /* own increments (weight at this pixel) minus incoming ones */
-            o[j] = whr[j] * (c - xr[r]) + whr[l] * (c - xr[l]) + wvr[j] * (c - xd[j])
-                   + wvu[j] * (c - xu[j]);
+            o[j] = whr[j] * (c - xr[r]) + whr[l] * (c - xr[l]) + wvr[j] * (c - xd[j]) +
+                   wvu[j] * (c - xu[j]);
         }
     }
 }
@@ -56,8 +56,8 @@ void pp_incr_perturb(size_t h, size_t w, const double *wh, const double *wv, con
         double *o = out + i * w;
         for (size_t j = 0; j < w; j++) {
             size_t l = j ? j - 1 : w - 1;
-            o[j] = sqrt(whr[l]) * gh[l] - sqrt(whr[j]) * gh[j] + sqrt(wvu[j]) * gvu[j]
-                   - sqrt(wvr[j]) * gv[j];
+            o[j] = sqrt(whr[l]) * gh[l] - sqrt(whr[j]) * gh[j] + sqrt(wvu[j]) * gvu[j] -
+                   sqrt(wvr[j]) * gv[j];
         }
     }
 }

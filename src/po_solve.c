@@ -81,8 +81,8 @@ pp_status pp_po_create(size_t h, size_t w, int effort, pp_po **out)
     }
     for (size_t k1 = 0; k1 < h; k1++)
         for (size_t k2 = 0; k2 < po->hw; k2++)
-            po->qk[k1 * po->hw + k2] = 4.0 - 2.0 * cos(TWO_PI * (double)k1 / (double)h)
-                                       - 2.0 * cos(TWO_PI * (double)k2 / (double)w);
+            po->qk[k1 * po->hw + k2] = 4.0 - 2.0 * cos(TWO_PI * (double)k1 / (double)h) -
+                                       2.0 * cos(TWO_PI * (double)k2 / (double)w);
     *out = po;
     return PP_OK;
 }
@@ -125,8 +125,10 @@ static pp_status prepare(pp_po *po, const pp_complex *otf, double lam, double de
     double logsum = 0.0;
     for (size_t i = 0; i < po->n; i++) {
         if (!(wh[i] > 0 && wv[i] > 0 && isfinite(wh[i]) && isfinite(wv[i])))
-            return pp_fail(PP_ERR_ARG, "PO solver: increment weight at pixel %zu is not a "
-                                       "positive finite number", i);
+            return pp_fail(PP_ERR_ARG,
+                           "PO solver: increment weight at pixel %zu is not a "
+                           "positive finite number",
+                           i);
         logsum += log(wh[i]) + log(wv[i]);
     }
     double c = delta * exp(logsum / (2.0 * (double)po->n)), nn = (double)po->n, a2 = 0.0;
@@ -137,8 +139,9 @@ static pp_status prepare(pp_po *po, const pp_complex *otf, double lam, double de
         po->pm[k] = lam * m / nn;
         double ck = lam * m + c * po->qk[k];
         if (!(ck > 0 && isfinite(ck)))
-            return pp_fail(PP_ERR_ARG, "PO solver: the precision's Fourier part is %g at "
-                                       "frequency %zu (the PSF must pass the mean: otf[0] != 0)",
+            return pp_fail(PP_ERR_ARG,
+                           "PO solver: the precision's Fourier part is %g at "
+                           "frequency %zu (the PSF must pass the mean: otf[0] != 0)",
                            ck, k);
         po->cinv[k] = 1.0 / (nn * ck);
     }
@@ -183,8 +186,10 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
                      double *x, pp_po_stats *stats)
 {
     if (!(lam > 0 && delta > 0 && tol > 0 && isfinite(lam) && isfinite(delta) && isfinite(tol)))
-        return pp_fail(PP_ERR_ARG, "PO solver: lambda %g, delta %g and tolerance %g must be "
-                                   "positive and finite", lam, delta, tol);
+        return pp_fail(PP_ERR_ARG,
+                       "PO solver: lambda %g, delta %g and tolerance %g must be "
+                       "positive and finite",
+                       lam, delta, tol);
     pp_status st = prepare(po, otf, lam, delta, wh, wv);
     if (st != PP_OK)
         return st;
@@ -201,15 +206,19 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
     for (;;) {
         rn = sqrt(dot(po->r, po->r, n));
         if (!isfinite(rn))
-            return pp_fail(PP_ERR_NUMERIC, "PO solver: CG residual is not finite after %zu "
-                                           "iterations", k);
+            return pp_fail(PP_ERR_NUMERIC,
+                           "PO solver: CG residual is not finite after %zu "
+                           "iterations",
+                           k);
         if (rn <= tol * bn || k == cap)
             break;
         apply_p(po, delta, wh, wv, po->p, po->q);
         double pq = dot(po->p, po->q, n);
         if (!(pq > 0))
-            return pp_fail(PP_ERR_NUMERIC, "PO solver: CG found pᵀPp = %g <= 0 at iteration "
-                                           "%zu (the precision is not positive definite)", pq, k);
+            return pp_fail(PP_ERR_NUMERIC,
+                           "PO solver: CG found pᵀPp = %g <= 0 at iteration "
+                           "%zu (the precision is not positive definite)",
+                           pq, k);
         double alpha = rz / pq;
         for (size_t i = 0; i < n; i++) {
             x[i] += alpha * po->p[i];
@@ -227,6 +236,8 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
         stats->iters = k, stats->relres = rel;
     if (rn <= tol * bn)
         return PP_OK;
-    return pp_fail(PP_ERR_LIMIT, "PO solver: CG reached its cap of %zu iterations at relative "
-                                 "residual %.3g (tolerance %.3g)", cap, rel, tol);
+    return pp_fail(PP_ERR_LIMIT,
+                   "PO solver: CG reached its cap of %zu iterations at relative "
+                   "residual %.3g (tolerance %.3g)",
+                   cap, rel, tol);
 }

@@ -55,8 +55,8 @@ int main(int argc, char **argv)
     double *m2 = calloc(n, sizeof *m2), *info = malloc(3 * ndraw * sizeof *info);
     double *all = keep ? malloc(ndraw * n * sizeof *all) : NULL;
     pp_po *po = NULL;
-    if (!ot || !x || !mean || !m2 || !info || (keep && !all)
-        || pp_po_create(h, w, PP_FFT_ESTIMATE, &po) != PP_OK) {
+    if (!ot || !x || !mean || !m2 || !info || (keep && !all) ||
+        pp_po_create(h, w, PP_FFT_ESTIMATE, &po) != PP_OK) {
         fprintf(stderr, "probe_po: %s\n", pp_error_message());
         return 1;
     }
@@ -84,9 +84,9 @@ int main(int argc, char **argv)
     for (size_t i = 0; i < n; i++)
         m2[i] /= (double)(ndraw - 1);
     FILE *o = fopen(argv[2], "wb");
-    if (!o || fwrite(info, sizeof *info, 3 * ndraw, o) != 3 * ndraw
-        || fwrite(mean, sizeof *mean, n, o) != n || fwrite(m2, sizeof *m2, n, o) != n
-        || (keep && fwrite(all, sizeof *all, ndraw * n, o) != ndraw * n) || fclose(o) != 0) {
+    if (!o || fwrite(info, sizeof *info, 3 * ndraw, o) != 3 * ndraw ||
+        fwrite(mean, sizeof *mean, n, o) != n || fwrite(m2, sizeof *m2, n, o) != n ||
+        (keep && fwrite(all, sizeof *all, ndraw * n, o) != ndraw * n) || fclose(o) != 0) {
         fprintf(stderr, "probe_po: %s: cannot write\n", argv[2]);
         return 1;
     }
