@@ -1,0 +1,58 @@
+/* pixpost — x | W, λ, δ by perturbation–optimisation with PCG (internal).
+ *
+ * Model (Gaussian noise, periodic H x W grid, PSF as its transfer
+ * function): precision P = λ AᵀA + δ Dᵀ W D, with A the periodic
+ * convolution whose half spectrum is otf (FFTW's r2c layout, H x (W/2+1),
+ * otf[0] the DC gain), D, W as in incr.h. One draw (Orieux, Féron &
+ * Giovannelli, IEEE SPL 2012): η = λ Aᵀ(y + λ^{-1/2} ε₁) + δ^{1/2} Dᵀ(√w ⊙ ε₂),
+ * ε₁ ~ N(0, I_N), ε₂ ~ N(0, I_2N); solve P x = η; then x ~ N(P⁻¹λAᵀy, P⁻¹)
+ * up to the solver tolerance. Preconditioner "scal" of
+ * bench/adaptive/NOTES.md §4 (see po_solve.c).
+ *
+ * Plan once, execute many: pp_po_create allocates and plans for one grid;
+ * pp_po_draw allocates nothing. One workspace serves one thread at a time.
+ */
+#ifndef PIXPOST_PO_SOLVE_H
+#define PIXPOST_PO_SOLVE_H
+
+#include "pixpost/fft.h"
+#include "pixpost/rng.h"
+#include "pixpost/status.h"
+#include <stddef.h>
+
+typedef struct pp_po pp_po;
+
+/* Workspace for an h x w grid (h, w >= 2), FFT plans of the given effort
+ * (PP_FFT_ESTIMATE / PP_FFT_MEASURE). Memory: 7 real grids + one half
+ * spectrum (complex) + three real half spectra ≈ 76 B/px. *out is NULL on
+ * failure (PP_ERR_ARG, PP_ERR_NOMEM). */
+pp_status pp_po_create(size_t h, size_t w, int effort, pp_po **out);
+
+/* Accepts NULL. */
+void pp_po_free(pp_po *po);
+
+/* What one draw did: CG iterations and the final relative residual
+ * ‖r‖₂/‖η‖₂ of CG's recursively updated residual. */
+typedef struct pp_po_stats {
+    size_t iters;
+    double relres;
+} pp_po_stats;
+
+/* One draw of x | W, λ, δ into x (N = h*w reals), warm-started at the x
+ * passed in. otf: h*(w/2+1) values (not modified); y: the frame, N reals;
+ * lam, delta > 0; wh, wv: N positive finite weights each; rng advanced by
+ * 3N normals (ε₁ then ε₂'s horizontal then vertical half); tol > 0: stop
+ * at ‖r‖₂ ≤ tol‖η‖₂; cap: most iterations. Needs λ|otf[0]|² > 0 (the
+ * constant field is fixed by the data alone, Dᵀ W D being blind to it).
+ * None of the arrays may alias x. stats may be NULL.
+ * Returns PP_OK when converged; PP_ERR_LIMIT when cap iterations were done
+ * without reaching tol (x then holds the last iterate and stats says how
+ * far it got: the caller must count this, never ignore it); PP_ERR_ARG on
+ * a bad argument (x untouched); PP_ERR_NUMERIC if CG broke down (x
+ * undefined). Cost: 2 FFT pairs per CG iteration + 3 per draw (see
+ * po_solve.c). */
+pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double lam, double delta,
+                     const double *wh, const double *wv, pp_rng *rng, double tol, size_t cap,
+                     double *x, pp_po_stats *stats);
+
+#endif

@@ -1,0 +1,97 @@
+/* Probe for tests/ref_po_dense.py: runs src/po_solve.c's pp_po_draw on a
+ * problem written by Python and writes what the draws did.
+ *
+ *   probe_po IN OUT
+ *
+ * IN (float64, native order): H W lambda delta tol cap ndraw seed keep,
+ * then y (H*W), otf (H*(W/2+1) complex as re, im pairs), wh (H*W),
+ * wv (H*W), x0 (H*W). Every draw starts from x0 (independent draws) and
+ * uses one rng, pp_rng_seed(seed, 0), in sequence.
+ * OUT (float64): per draw (iterations, final relative residual, status),
+ * then the pixel means (H*W) and variances (H*W, divisor ndraw - 1), then
+ * every draw (ndraw x H*W) when keep != 0. Exit 0 unless a draw failed
+ * with something other than PP_ERR_LIMIT (the cap), or on bad input.
+ * Cost: ndraw draws; memory O(ndraw * H*W) only when keep != 0.
+ */
+#include "po_solve.h"
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+static double *read_n(FILE *f, size_t n)
+{
+    double *a = malloc(n * sizeof *a);
+    if (a && fread(a, sizeof *a, n, f) != n) {
+        free(a);
+        return NULL;
+    }
+    return a;
+}
+
+int main(int argc, char **argv)
+{
+    if (argc != 3) {
+        fprintf(stderr, "usage: probe_po IN OUT\n");
+        return 1;
+    }
+    FILE *f = fopen(argv[1], "rb");
+    double hd[9];
+    if (!f || fread(hd, sizeof *hd, 9, f) != 9) {
+        fprintf(stderr, "probe_po: %s: cannot read the header\n", argv[1]);
+        return 1;
+    }
+    size_t h = (size_t)hd[0], w = (size_t)hd[1], n = h * w, nh = h * (w / 2 + 1);
+    size_t cap = (size_t)hd[5], ndraw = (size_t)hd[6], keep = hd[8] != 0;
+    double *y = read_n(f, n), *otf = read_n(f, 2 * nh), *wh = read_n(f, n), *wv = read_n(f, n);
+    double *x0 = read_n(f, n);
+    fclose(f);
+    if (!y || !otf || !wh || !wv || !x0 || ndraw < 2) {
+        fprintf(stderr, "probe_po: %s: short file or fewer than 2 draws\n", argv[1]);
+        return 1;
+    }
+    pp_complex *ot = malloc(nh * sizeof *ot);
+    double *x = malloc(n * sizeof *x), *mean = calloc(n, sizeof *mean);
+    double *m2 = calloc(n, sizeof *m2), *info = malloc(3 * ndraw * sizeof *info);
+    double *all = keep ? malloc(ndraw * n * sizeof *all) : NULL;
+    pp_po *po = NULL;
+    if (!ot || !x || !mean || !m2 || !info || (keep && !all) ||
+        pp_po_create(h, w, PP_FFT_ESTIMATE, &po) != PP_OK) {
+        fprintf(stderr, "probe_po: %s\n", pp_error_message());
+        return 1;
+    }
+    for (size_t k = 0; k < nh; k++)
+        ot[k] = otf[2 * k] + I * otf[2 * k + 1];
+    pp_rng rng;
+    pp_rng_seed(&rng, (uint64_t)hd[7], 0);
+    for (size_t d = 0; d < ndraw; d++) {
+        memcpy(x, x0, n * sizeof *x);
+        pp_po_stats st = {0, 0.0};
+        pp_status s = pp_po_draw(po, ot, y, hd[2], hd[3], wh, wv, &rng, hd[4], cap, x, &st);
+        if (s != PP_OK && s != PP_ERR_LIMIT) {
+            fprintf(stderr, "probe_po: draw %zu: %s\n", d, pp_error_message());
+            return 1;
+        }
+        info[3 * d] = (double)st.iters, info[3 * d + 1] = st.relres, info[3 * d + 2] = (double)s;
+        for (size_t i = 0; i < n; i++) { /* Welford's running mean and M2 */
+            double e = x[i] - mean[i];
+            mean[i] += e / (double)(d + 1);
+            m2[i] += e * (x[i] - mean[i]);
+        }
+        if (keep)
+            memcpy(all + d * n, x, n * sizeof *x);
+    }
+    for (size_t i = 0; i < n; i++)
+        m2[i] /= (double)(ndraw - 1);
+    FILE *o = fopen(argv[2], "wb");
+    if (!o || fwrite(info, sizeof *info, 3 * ndraw, o) != 3 * ndraw ||
+        fwrite(mean, sizeof *mean, n, o) != n || fwrite(m2, sizeof *m2, n, o) != n ||
+        (keep && fwrite(all, sizeof *all, ndraw * n, o) != ndraw * n) || fclose(o) != 0) {
+        fprintf(stderr, "probe_po: %s: cannot write\n", argv[2]);
+        return 1;
+    }
+    pp_po_free(po);
+    free(ot), free(x), free(mean), free(m2), free(info), free(all);
+    free(y), free(otf), free(wh), free(wv), free(x0);
+    return 0;
+}
