@@ -6,20 +6,8 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include "bench_time.h"
 #include "pixpost/pixpost.h"
-
-static double now(void)
-{
-    struct timespec t;
-    clock_gettime(CLOCK_MONOTONIC, &t);
-    return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
-}
-
-static int cmp(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
 
 int main(int argc, char **argv)
 {
@@ -39,20 +27,18 @@ int main(int argc, char **argv)
     double tp[REPS], tn[REPS];
     int inner = (int)(4e6 / (double)(h * w)) + 1;
     for (int k = 0; k < REPS; k++) {
-        double t0 = now();
+        double t0 = bench_now();
         for (int i = 0; i < inner; i++) {
             pp_fft_forward(f, x, c);
             pp_fft_inverse(f, c, x);
         }
-        tp[k] = (now() - t0) / inner;
-        t0 = now();
+        tp[k] = (bench_now() - t0) / inner;
+        t0 = bench_now();
         for (int i = 0; i < inner; i++)
             pp_rng_normals(&r, x, h * w);
-        tn[k] = (now() - t0) / inner;
+        tn[k] = (bench_now() - t0) / inner;
     }
-    qsort(tp, REPS, sizeof(double), cmp);
-    qsort(tn, REPS, sizeof(double), cmp);
-    printf("%.9g %.9g\n", tp[REPS / 2], tn[REPS / 2]);
+    printf("%.9g %.9g\n", bench_median(tp, REPS), bench_median(tn, REPS));
     pp_fft_free_buffer(x);
     pp_fft_free_buffer(c);
     pp_fft_free(f);
