@@ -372,7 +372,24 @@ class MixPix(StudentT):
         self.delta = self.rng.gamma(1 + (self.N - 1) / 2, 1 / (EPS_RATE + (self.oh * e).sum() / 2))
 
 
-class NonStatQ:
+class BlockField:
+    """What ns and nq share: a field s constant on BS x BS blocks times the
+    per-increment factors th, tv (needs self.s, self.m, self.BS, self.th,
+    self.tv)."""
+
+    def up(self, a):
+        return np.kron(a, np.ones((self.BS, self.BS)))
+
+    def weights(self):
+        e = np.exp(self.up(self.s))
+        return e * self.th, e * self.tv
+
+    def blocksum(self, a):
+        m, b = self.m, self.BS
+        return a.reshape(m, b, m, b).sum((1, 3))
+
+
+class NonStatQ(BlockField):
     """(h, added) ns plus a second-order term gated per block:
     prior precision D'(e^s tau)D + L diag(e^s2) L, s and s2 piecewise
     constant on BS x BS blocks, each a first-order intrinsic GMRF on the
@@ -406,20 +423,9 @@ class NonStatQ:
     def g(self, t, which=0):
         return np.interp(t, self.tg, (self.gt, self.g1, self.g2t)[which])
 
-    def up(self, a):
-        return np.kron(a, np.ones((self.BS, self.BS)))
-
     @property
     def g2(self):
         return self.up(np.exp(self.s2))
-
-    def weights(self):
-        e = np.exp(self.up(self.s))
-        return e * self.th, e * self.tv
-
-    def blocksum(self, a):
-        m, b = self.m, self.BS
-        return a.reshape(m, b, m, b).sum((1, 3))
 
     def field_move(self, which, R, kappa):
         rng, nb = self.rng, self.BS ** 2
@@ -483,7 +489,7 @@ class NonStatQ:
                 'acc_s': float(np.mean(self.acc[-20:]))}
 
 
-class NonStat:
+class NonStat(BlockField):
     """(c) W = exp(s_block) * tau, tau_e ~ Gamma(nu/2, nu/2) (nu fixed), s
     piecewise constant on BS x BS blocks with a first-order intrinsic GMRF
     prior of precision kappa ~ Gamma(1, KRATE); s carries the global level
@@ -503,17 +509,6 @@ class NonStat:
         self.acc = []
         for _ in range(3):
             self.update(h, v)
-
-    def up(self, s):
-        return np.kron(s, np.ones((self.BS, self.BS)))
-
-    def weights(self):
-        e = np.exp(self.up(self.s))
-        return e * self.th, e * self.tv
-
-    def blocksum(self, a):
-        m, b = self.m, self.BS
-        return a.reshape(m, b, m, b).sum((1, 3))
 
     def update(self, h, v):
         g, rng = self.rng.gamma, self.rng
