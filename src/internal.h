@@ -126,6 +126,11 @@ typedef struct pp_chain {
                         * (lambda, delta) move (else 0) */
     double step;       /* pcn/gpcn: the step beta (hmc: eps) fixed after burn-in; mtc: its
                         * proposal scale (else 0) */
+    /* The adaptive prior's inner solver (gibbs: CG of the x-draws; 0 else):
+     * draws made, CG iterations in total and at most, and kept-phase draws
+     * that stopped at the iteration cap. */
+    unsigned long long solver_draws, solver_iters, solver_capped;
+    size_t solver_max;
 } pp_chain;
 
 struct pp_sampler;
@@ -186,7 +191,7 @@ struct pp_sampler {
     pp_trace trace;
     struct pp_diag_scalar *diag;     /* one per trace column (sampler_diag.c) */
     pp_image *rhat_map, *mcse_map;   /* per-pixel split-R-hat and MCSE, or NULL */
-    char *names[4 + PP_MAX_PROBES]; /* 3 scalars, psf_width, probes */
+    char *names[5 + PP_MAX_PROBES]; /* 3 scalars, psf_width, kappa, probes */
     double *trace_values;
     pp_image *mean, *sd, *lo, *hi;
     char bound_method[256];
@@ -194,6 +199,7 @@ struct pp_sampler {
     size_t psf_size;      /* side of the kernel (for rebuilding it at a new width) */
     size_t col_probe0;    /* trace column of the first probe */
     long col_width;       /* trace column "psf_width", -1 when the width is fixed */
+    long col_kappa;       /* trace column "kappa" (adaptive prior), else -1 */
     const char *pad_scheme; /* mtc with --boundary pad: the scheme used (static text) */
     char *warnings[PP_MAX_WARNINGS]; /* convergence and set-up warnings (--strict) */
     size_t nwarnings;
@@ -287,6 +293,7 @@ double pp_width_acceptance(const pp_width *w);
 
 /* The kernels (src/sampler_<kind>.c). */
 extern const pp_kernel pp_kernel_gibbs;
+extern const pp_kernel pp_kernel_gibbs_adaptive;
 extern const pp_kernel pp_kernel_mtc;
 extern const pp_kernel pp_kernel_pcn;
 extern const pp_kernel pp_kernel_gpcn;

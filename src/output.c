@@ -217,6 +217,29 @@ static void json_mtc(FILE *f, const pp_sampler *s)
     json_chain_moves(f, s);
 }
 
+/* The adaptive prior (gibbs): the x-draws' inner solver over all chains
+ * and the block moves' acceptance per chain. */
+static void json_adaptive(FILE *f, const pp_sampler *s)
+{
+    unsigned long long draws = 0, iters = 0, capped = 0;
+    size_t most = 0;
+    for (unsigned k = 0; k < s->cfg.chains; k++) {
+        const pp_chain *c = &s->chain[k];
+        draws += c->solver_draws;
+        iters += c->solver_iters;
+        capped += c->solver_capped;
+        most = c->solver_max > most ? c->solver_max : most;
+    }
+    fputs("  \"x_solver\": {\"method\": \"perturbation-optimisation, conjugate gradients "
+          "with a Fourier preconditioner scaled by the weights\", \"draws\": ",
+          f);
+    fprintf(f, "%llu, \"cg_iterations_mean\": ", draws);
+    json_number(f, draws ? (double)iters / (double)draws : NAN);
+    fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu},\n", most,
+            capped);
+    json_chain_moves(f, s); /* acceptance of the block log-precision moves */
+}
+
 /* The run's headline figures (pp_sampler_convergence), under one key that
  * batch reads back exactly when it resumes. */
 static void json_convergence(FILE *f, const pp_sampler *s)
@@ -301,6 +324,10 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
         fputs(",\n", f);
         st = json_hyper(f, "psf_width", s, (size_t)s->col_width, 0);
     }
+    if (st == PP_OK && s->col_kappa >= 0) { /* the adaptive prior's block-field precision */
+        fputs(",\n", f);
+        st = json_hyper(f, "kappa", s, (size_t)s->col_kappa, 0);
+    }
     fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
     pp_json_write_string(f, s->bound_method);
     unsigned long long iters = (unsigned long long)c->chains * (c->burn + c->iters);
@@ -318,6 +345,8 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
         json_pcn(f, s);
     if (c->kind == PP_SAMPLER_MTC && c->boundary != PP_BOUNDARY_PAD)
         json_mtc(f, s);
+    if (c->kind == PP_SAMPLER_GIBBS && c->prior.kind == PP_PRIOR_ADAPTIVE)
+        json_adaptive(f, s);
     json_diagnostics(f, s);
     json_convergence(f, s);
     json_sentences(f, "notes", s->notes, s->nnotes);

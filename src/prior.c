@@ -61,11 +61,31 @@ pp_status pp_prior_parse(const char *text, pp_prior_spec *out)
             return pp_fail(PP_ERR_ARG, WHAT " matern: nu must be in (0, 8] (smoothness)");
         return PP_OK;
     }
-    static const char *const priors[] = {"gmrf1", "gmrf2", "matern", NULL};
+    if (strcmp(s.name, "adaptive") == 0) {
+        static const char *const adaptive_keys[] = {"nu", "block", NULL};
+        out->kind = PP_PRIOR_ADAPTIVE;
+        out->nu = 2.0;
+        double block = 8;
+        if ((st = pp_spec_check_known(&s, WHAT, adaptive_keys)) != PP_OK)
+            return st;
+        if (pp_spec_number(&s, "nu", WHAT, &out->nu, NULL, &st), st != PP_OK)
+            return st;
+        if (pp_spec_number(&s, "block", WHAT, &block, NULL, &st), st != PP_OK)
+            return st;
+        if (!(out->nu >= 0.5 && out->nu <= 100))
+            return pp_fail(PP_ERR_ARG, WHAT " adaptive: nu must be in [0.5, 100] (Student-t "
+                                            "degrees of freedom of the local weights)");
+        if (!(block >= 2 && block <= 256 && block == floor(block)))
+            return pp_fail(PP_ERR_ARG, WHAT " adaptive: block must be a whole number of pixels "
+                                            "in [2, 256]");
+        out->block = (size_t)block;
+        return PP_OK;
+    }
+    static const char *const priors[] = {"adaptive", "gmrf1", "gmrf2", "matern", NULL};
     const char *near = pp_spec_closest(s.name, priors);
     return pp_fail(PP_ERR_ARG,
-                   WHAT " '%s': unknown prior '%s' (%s%s%saccepted: gmrf1, gmrf2, "
-                        "matern:range=R,nu=V; each may add ,delta=D)",
+                   WHAT " '%s': unknown prior '%s' (%s%s%saccepted: adaptive:nu=V,block=B, "
+                        "gmrf1, gmrf2, matern:range=R,nu=V; the last three may add delta=D)",
                    text, s.name, near ? "did you mean " : "", near ? near : "", near ? "? " : "");
 }
 
@@ -87,6 +107,9 @@ void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len)
         break;
     case PP_PRIOR_MATERN:
         snprintf(buf, len, "matern:range=%.15g,nu=%.15g%s", s->range, s->nu, extra);
+        break;
+    case PP_PRIOR_ADAPTIVE:
+        snprintf(buf, len, "adaptive:nu=%.15g,block=%zu", s->nu, s->block);
         break;
     }
 }

@@ -65,7 +65,9 @@ void pp_sampler_defaults(pp_sampler_config *cfg)
     cfg->level = 0.95;
     cfg->noise.kind = PP_NOISE_GAUSSIAN;
     cfg->noise.gain = 1.0;
-    cfg->prior.kind = PP_PRIOR_GMRF1;
+    cfg->prior.kind = PP_PRIOR_ADAPTIVE; /* README "Which prior": why it is the default */
+    cfg->prior.nu = 2.0;
+    cfg->prior.block = 8;
     cfg->hyper_lambda[0] = cfg->hyper_delta[0] = 1.0;
     cfg->hyper_lambda[1] = cfg->hyper_delta[1] = 1e-4;
     cfg->fft_effort = PP_FFT_ESTIMATE;
@@ -73,12 +75,12 @@ void pp_sampler_defaults(pp_sampler_config *cfg)
 
 /* ---- validation ------------------------------------------------------- */
 
-/* The kernel of each sampler kind (NULL: not in this version). */
-static const pp_kernel *kernel_for(pp_sampler_kind k)
+/* The kernel of each sampler kind and prior (NULL: not in this version). */
+static const pp_kernel *kernel_for(pp_sampler_kind k, pp_prior_kind prior)
 {
     switch (k) {
     case PP_SAMPLER_GIBBS:
-        return &pp_kernel_gibbs;
+        return prior == PP_PRIOR_ADAPTIVE ? &pp_kernel_gibbs_adaptive : &pp_kernel_gibbs;
     case PP_SAMPLER_MTC:
         return &pp_kernel_mtc;
     case PP_SAMPLER_PCN:
@@ -103,6 +105,9 @@ static pp_status check_width(const pp_sampler_config *cfg)
         return pp_fail(PP_ERR_ARG, "--psf ...=auto: the PSF width is sampled by gibbs and mtc "
                                    "only (not %s)",
                        pp_sampler_kind_name(cfg->kind));
+    if (cfg->prior.kind == PP_PRIOR_ADAPTIVE)
+        return pp_fail(PP_ERR_ARG, "--psf ...=auto: the PSF width is sampled with the "
+                                   "stationary priors only; add --prior gmrf1 (or gmrf2, matern)");
     if (p->kind == PP_PSF_FILE || !(p->width_lo > 0 && p->width_hi > p->width_lo))
         return pp_fail(PP_ERR_ARG, "--psf ...=auto: needs a gaussian or airy model with "
                                    "0 < lo < hi");
@@ -115,14 +120,23 @@ static pp_status check_config(pp_sampler_config *cfg)
      * to 1024^2, bench/mtc_bench.py); pad keeps gibbs (mtc would fall back). */
     if (cfg->kind == PP_SAMPLER_AUTO && cfg->noise.kind != PP_NOISE_GAUSSIAN)
         cfg->kind = PP_SAMPLER_HMC;
+    /* The adaptive prior is not Fourier-diagonal: gibbs (x by perturbation-
+     * optimisation) whatever the boundary; mtc needs a stationary prior. */
     if (cfg->kind == PP_SAMPLER_AUTO)
-        cfg->kind = cfg->boundary == PP_BOUNDARY_PERIODIC ? PP_SAMPLER_MTC : PP_SAMPLER_GIBBS;
+        cfg->kind = cfg->boundary == PP_BOUNDARY_PERIODIC && cfg->prior.kind != PP_PRIOR_ADAPTIVE
+                        ? PP_SAMPLER_MTC
+                        : PP_SAMPLER_GIBBS;
+    if (cfg->prior.kind == PP_PRIOR_ADAPTIVE && cfg->kind != PP_SAMPLER_GIBBS)
+        return pp_fail(PP_ERR_ARG, "--sampler %s: the adaptive prior (the default) runs with "
+                                   "gibbs (gaussian noise) or hmc (photon counts); for %s add "
+                                   "--prior gmrf1 (or gmrf2, matern)",
+                       pp_sampler_kind_name(cfg->kind), pp_sampler_kind_name(cfg->kind));
     if (cfg->noise.kind != PP_NOISE_GAUSSIAN && cfg->kind != PP_SAMPLER_PCN &&
         cfg->kind != PP_SAMPLER_GPCN && cfg->kind != PP_SAMPLER_HMC)
         return pp_fail(PP_ERR_ARG, "--sampler %s: needs gaussian noise; the photon-counting "
                                    "models (poisson, camera) use --sampler hmc, gpcn or pcn",
                        pp_sampler_kind_name(cfg->kind));
-    if (!kernel_for(cfg->kind))
+    if (!kernel_for(cfg->kind, cfg->prior.kind))
         return pp_fail(PP_ERR_ARG, "--sampler %s: not available in this version (use gibbs)",
                        pp_sampler_kind_name(cfg->kind));
     if (cfg->chains < 1 || cfg->chains > 1024)
@@ -289,9 +303,12 @@ static pp_status plan_probes(pp_sampler *s)
 
 static pp_status plan_trace(pp_sampler *s)
 {
-    /* A sampled PSF width gets the column after loglik; probes follow. */
-    s->col_width = s->cfg.psf.width_auto ? PP_COL_PROBE0 : -1;
-    s->col_probe0 = PP_COL_PROBE0 + (s->cfg.psf.width_auto ? 1 : 0);
+    /* A sampled PSF width gets the column after loglik, then the adaptive
+     * prior's kappa; probes follow. */
+    size_t col = PP_COL_PROBE0;
+    s->col_width = s->cfg.psf.width_auto ? (long)col++ : -1;
+    s->col_kappa = s->cfg.prior.kind == PP_PRIOR_ADAPTIVE ? (long)col++ : -1;
+    s->col_probe0 = col;
     size_t ncols = s->col_probe0 + s->nprobe;
     size_t kept = s->cfg.iters / s->cfg.thin, rows, n;
     if (!pp_mul_ok(kept, s->cfg.chains, &rows) || !pp_mul_ok(rows, ncols, &n) ||
@@ -307,6 +324,8 @@ static pp_status plan_trace(pp_sampler *s)
             snprintf(buf, sizeof buf, "%s", fixed[i]);
         else if ((long)i == s->col_width)
             snprintf(buf, sizeof buf, "psf_width");
+        else if ((long)i == s->col_kappa)
+            snprintf(buf, sizeof buf, "kappa");
         else
             snprintf(buf, sizeof buf, "p_%zu_%zu", s->probe_r[i - s->col_probe0],
                      s->probe_c[i - s->col_probe0]);
@@ -398,7 +417,7 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
     if (st == PP_OK)
         st = plan_chains(s);
     if (st == PP_OK) {
-        s->kernel = kernel_for(s->cfg.kind);
+        s->kernel = kernel_for(s->cfg.kind, s->cfg.prior.kind);
         if (s->kernel->prepare)
             st = s->kernel->prepare(s);
     }
@@ -499,6 +518,8 @@ static void start_chain(pp_sampler *s, unsigned k, const pp_slot *b)
     c->lambda = s->lambda0 * (s->cfg.noise.sigma_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
     c->delta = s->delta0 * (s->cfg.prior.delta_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
     c->kept = 0;
+    c->solver_draws = c->solver_iters = c->solver_capped = 0;
+    c->solver_max = 0;
     c->condvar_sum = 0;
     c->mom.count = 0;
     memset(c->mom.mean, 0, c->mom.len * sizeof(double));
@@ -679,7 +700,7 @@ void pp_sampler_free(pp_sampler *s)
     free(s->tw_row);
     free(s->tw_col);
     free(s->trace_values);
-    for (size_t i = 0; i < 4 + PP_MAX_PROBES; i++)
+    for (size_t i = 0; i < 5 + PP_MAX_PROBES; i++)
         free(s->names[i]);
     for (size_t i = 0; i < s->nwarnings; i++)
         free(s->warnings[i]);

@@ -206,8 +206,27 @@ static void warn_hyperprior(pp_sampler *s)
                         c->hyper_delta[1], 100 * share_d);
 }
 
+/* The adaptive prior's x-draws: a kept draw whose CG stopped at its cap is
+ * less exact than the stated bound (src/sampler_adaptive.c). */
+static void warn_solver(pp_sampler *s)
+{
+    unsigned long long capped = 0, kept = 0;
+    for (unsigned k = 0; k < s->cfg.chains; k++) {
+        capped += s->chain[k].solver_capped;
+        kept += s->chain[k].kept;
+    }
+    if (capped)
+        pp_sampler_warn(s,
+                        "the inner solver of the adaptive prior stopped at its iteration cap "
+                        "in %llu draws after burn-in (of %llu kept): those draws are not "
+                        "within the stated tolerance; a longer burn-in or --prior gmrf1 "
+                        "avoids it",
+                        capped, kept * s->cfg.thin);
+}
+
 pp_status pp_sampler_diagnose(pp_sampler *s)
 {
+    warn_solver(s);
     pp_status st = scalar_diagnostics(s);
     if (st == PP_OK) {
         warn_hyperprior(s);

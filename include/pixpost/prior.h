@@ -5,7 +5,15 @@
  *   gmrf2                 q(k)^2                                          (rank N-1)
  *   matern:range=R,nu=V   (kappa^2 + q(k))^(nu+1), kappa = sqrt(8 nu)/R
  *                         (Lindgren, Rue & Lindstrom, JRSS-B 2011)
- * Keys for every prior: delta=D fixes delta instead of sampling it; matern
+ *   adaptive:nu=V,block=B the default: a spatially adaptive GMRF on first-
+ *                         order increments, precision D' W D with one weight
+ *                         per increment, w = exp(s_block) tau, tau ~
+ *                         Gamma(nu/2, nu/2) (Student-t increments, nu = 2)
+ *                         and s one log-precision per B x B block (B = 8),
+ *                         itself a first-order GMRF (src/adaptive.h). Its
+ *                         eigenvalues here are gmrf1's (the stationary
+ *                         reference that starts the chains).
+ * Keys for the stationary priors: delta=D fixes delta instead of sampling it; matern
  * also takes mean=M, a known prior mean. Without mean=M the zero frequency
  * carries no prior weight (the mean level is left to the data), so an
  * offset or background is never shrunk towards zero.
@@ -16,11 +24,17 @@
 #include <stddef.h>
 #include "pixpost/status.h"
 
-typedef enum pp_prior_kind { PP_PRIOR_GMRF1, PP_PRIOR_GMRF2, PP_PRIOR_MATERN } pp_prior_kind;
+typedef enum pp_prior_kind {
+    PP_PRIOR_GMRF1,
+    PP_PRIOR_GMRF2,
+    PP_PRIOR_MATERN,
+    PP_PRIOR_ADAPTIVE
+} pp_prior_kind;
 
 typedef struct pp_prior_spec {
     pp_prior_kind kind;
-    double range, nu;   /* matern */
+    double range, nu;   /* matern; nu also adaptive (Student-t degrees of freedom) */
+    size_t block;       /* adaptive: side of the blocks of the log-precision field */
     double mean;        /* known prior mean when mean_set */
     int mean_set;
     double delta;       /* fixed prior precision when delta_set */

@@ -1,0 +1,73 @@
+/* pixpost — the spatially adaptive prior's local precisions (internal).
+ *
+ * Model (`--prior adaptive`; bench/adaptive/NOTES.md §5, the prototype's
+ * "ns"): given weights W = diag(wh, wv), one per first-order increment of
+ * the periodic H x W grid (incr.h), the field is an intrinsic GMRF with
+ * precision Dᵀ W D, and
+ *     w_e = exp(s_B(e)) τ_e,
+ *     τ_e ~ Gamma(ν/2, ν/2)           a heavy-tailed local factor (Student-t
+ *                                     increments, ν = 2 by default),
+ *     s_B  one log-precision per B x B block of pixels (B = 8 by default):
+ *          a first-order intrinsic GMRF on the block grid (4 neighbours,
+ *          free edges) with precision κ ~ Gamma(1, rate 0.5), flat prior on
+ *          its mean (the mean plays the role of log δ of gmrf1).
+ * An increment belongs to the block of its first pixel. The joint density
+ * that defines the prior (and that the conditionals below sample exactly) is
+ *     p(x, τ, s, κ) ∝ Π_B e^{n_B s_B / 2} · Π_e τ_e^{1/2} e^{-w_e d_e² / 2}
+ *                      · Π_e Gamma(τ_e; ν/2, ν/2) · p(s | κ) p(κ),
+ * n_B the pixels of block B: each block counts its share of the field's
+ * rank (N − 1), not its increments (NOTES.md §1: counting increments tilts
+ * the global level and collapses the field). For constant s this is exactly
+ * the normaliser of x | W; otherwise it is a local approximation, and the
+ * joint above (not an exact scale mixture) is the model.
+ *
+ * Conditionals (one pp_adapt_update):
+ *   τ_e | x, s  ~ Gamma(ν/2 + 1/2, ν/2 + e^{s} d_e² / 2);
+ *   s_B | τ, x, s_nb  ∝ exp(n_B s/2 − e^{s} R_B/2 − κ m_B (s − s̄_B)²/2),
+ *       R_B = Σ_{e in B} τ_e d_e², m_B neighbours with mean s̄_B: an
+ *       independence Metropolis step from the Laplace approximation at the
+ *       mode (Newton), blocks in two checkerboard colours (prototype
+ *       acceptance 0.96–0.98);
+ *   κ | s ~ Gamma(1 + (nB − 1)/2, 0.5 + Σ_{neighbour pairs} (s_B − s_B')²/2).
+ * With ν = 2 the τ draws use Gamma(3/2) = Exp(1) + Z²/2 (exact).
+ */
+#ifndef PIXPOST_ADAPTIVE_H
+#define PIXPOST_ADAPTIVE_H
+
+#include <stddef.h>
+#include "pixpost/rng.h"
+#include "pixpost/status.h"
+
+typedef struct pp_adapt pp_adapt;
+
+/* State for an h x w grid (h, w >= 2) with blocks of side block (>= 1) and
+ * Student-t degrees of freedom nu (> 0). Memory: a few doubles per block.
+ * *out is NULL on failure (PP_ERR_ARG, PP_ERR_NOMEM). */
+pp_status pp_adapt_create(size_t h, size_t w, size_t block, double nu, pp_adapt **out);
+void pp_adapt_free(pp_adapt *a); /* accepts NULL */
+
+/* Starts at s = log(delta) everywhere, κ = 2 (the prior's mean), and the
+ * acceptance counters at zero. delta > 0. */
+void pp_adapt_start(pp_adapt *a, double delta);
+
+/* One sweep of the conditionals above given the field x (h*w reals):
+ * writes the new weights W = e^{s} τ into wh and wv (h*w each; their input
+ * values are not read). Draws 2N + O(blocks) variates from rng. Weights are
+ * clamped to [1e-250, 1e250] (a draw outside needs increments beyond
+ * 1e125 and is a numerical failure upstream). Cost: two passes over the
+ * grid and O(blocks). */
+void pp_adapt_update(pp_adapt *a, const double *x, double *wh, double *wv, pp_rng *rng);
+
+/* Adds dl to every block's s and multiplies the weights by e^{dl} (a move
+ * of the global level made elsewhere, e.g. by interweaving). */
+void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv);
+
+/* The geometric mean of the block precisions, exp(mean s): the global
+ * level, reported where gmrf1 reports δ. */
+double pp_adapt_level(const pp_adapt *a);
+double pp_adapt_kappa(const pp_adapt *a);
+/* Block moves accepted and tried since pp_adapt_start. */
+void pp_adapt_acceptance(const pp_adapt *a, unsigned long long *accepted,
+                         unsigned long long *tried);
+
+#endif

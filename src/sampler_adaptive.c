@@ -1,0 +1,273 @@
+/* pixpost — Gibbs sampler for Gaussian noise under the adaptive prior
+ * (`--prior adaptive`, src/adaptive.h), periodic or padded grid.
+ *
+ * One iteration, given the weights W (which carry the global level) and λ:
+ *   1. x | W, λ, y ~ N(P⁻¹λAᵀy, P⁻¹), P = λAᵀA + DᵀWD, by perturbation–
+ *      optimisation with preconditioned CG warm-started at the previous x
+ *      (src/po_solve.h; Orieux, Féron & Giovannelli, IEEE SPL 2012). Not
+ *      Fourier-diagonal any more, so not exact: CG stops at ‖r‖ ≤ tol‖η‖,
+ *      tol = 1e-6, which keeps a draw within about 1e-3 conditional sd of
+ *      the exact draw with the same noise (bench/adaptive/NOTES.md §4;
+ *      tests/ref_adaptive_dense.py repeats it). A draw that reaches the
+ *      iteration cap is counted and warned about, never hidden.
+ *   2. pad: the padding pixels of the augmented frame redrawn from
+ *      N(Ax, 1/λ) (data augmentation, as gibbs); then
+ *      λ | x ~ Gamma(a + N/2, b + ‖Ax − y‖²/2) over the grid.
+ *   3. W | x by src/adaptive.c (τ, block log-precisions, κ).
+ * Start: x = the gmrf1 posterior mean at the chain's dispersed (λ, δ),
+ * one Fourier solve; s = log δ everywhere.
+ * Estimates: plain Monte Carlo moments of the draws x (no conditional
+ * mean in closed form: the variance is the draws' variance alone).
+ * Trace: lambda, delta (= exp(mean s), the global level), loglik, kappa,
+ * probes.
+ * Cost per iteration: the CG draw (2 FFT pairs per CG iteration + 3) and
+ * one pair for A x, plus 2N Gamma and 3N normal draws.
+ * Memory per thread: the solver (≈ 76 B/px) + x, wh, wv (24 B/px) on top
+ * of gibbs's buffers; shared: the frame on the grid (periodic, 8 B/px).
+ */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include "adaptive.h"
+#include "internal.h"
+#include "po_solve.h"
+
+#define PO_TOL 1e-6
+#define PO_CAP 2000
+
+typedef struct {
+    pp_po *po;
+    pp_adapt *ad;
+    double *x, *wh, *wv;
+} adapt_work;
+
+typedef struct {
+    double *y; /* periodic: the frame on the grid (pad chains use their yaug) */
+} adapt_shared;
+
+static void free_work(void *p)
+{
+    adapt_work *k = p;
+    if (!k)
+        return;
+    pp_po_free(k->po);
+    pp_adapt_free(k->ad);
+    pp_fft_free_buffer(k->x);
+    pp_fft_free_buffer(k->wh);
+    pp_fft_free_buffer(k->wv);
+    free(k);
+}
+
+static void release(pp_sampler *s)
+{
+    adapt_shared *sh = s->kshared;
+    if (sh)
+        pp_fft_free_buffer(sh->y);
+    free(sh);
+    s->kshared = NULL;
+}
+
+static pp_status prepare(pp_sampler *s)
+{
+    if (s->gh < 2 || s->gw < 2)
+        return pp_fail(PP_ERR_ARG, "--prior adaptive: the frame must be at least 2 x 2 pixels");
+    adapt_shared *sh = calloc(1, sizeof *sh);
+    if (!sh)
+        return pp_fail(PP_ERR_NOMEM, "out of memory");
+    s->kshared = sh;
+    if (s->cfg.boundary != PP_BOUNDARY_PAD) {
+        if (!(sh->y = pp_fft_alloc_real(s->gn)))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the frame");
+        memcpy(sh->y, s->ygrid, s->gn * sizeof(double));
+    }
+    for (unsigned b = 0; b < s->nslots; b++) {
+        adapt_work *k = calloc(1, sizeof *k);
+        if (!k)
+            return pp_fail(PP_ERR_NOMEM, "out of memory");
+        s->slot[b].kwork = k;
+        pp_status st = pp_po_create(s->gh, s->gw, s->cfg.fft_effort, &k->po);
+        if (st == PP_OK)
+            st = pp_adapt_create(s->gh, s->gw, s->cfg.prior.block, s->cfg.prior.nu, &k->ad);
+        if (st != PP_OK)
+            return st;
+        k->x = pp_fft_alloc_real(s->gn);
+        k->wh = pp_fft_alloc_real(s->gn);
+        k->wv = pp_fft_alloc_real(s->gn);
+        if (!k->x || !k->wh || !k->wv)
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the adaptive prior's buffers");
+    }
+    return PP_OK;
+}
+
+/* x = the stationary (gmrf1) posterior mean at (λ, δ) from the chain's data
+ * spectrum: one Fourier solve (cbuf, c2r into x). */
+static void start_field(const pp_sampler *s, pp_chain *c, double *x)
+{
+    const double lam = c->lambda, del = c->delta, invn = 1.0 / (double)s->gn;
+    for (size_t i = 0; i < s->gm; i++) {
+        double p = lam * c->otf2[i] + del * s->q[i];
+        c->cbuf[i] = p > 0 ? lam * conj(c->otf[i]) * c->yhat[i] / p * invn : 0;
+    }
+    pp_fft_inverse(s->fft, c->cbuf, x);
+}
+
+/* A x on the grid into c->rbuf (one FFT pair); returns ‖Ax − y‖² over the
+ * frame (*obs) and over the grid (return value), y the data grid. */
+static double residual(const pp_sampler *s, pp_chain *c, const double *x, const double *y,
+                       double *obs)
+{
+    const double invn = 1.0 / (double)s->gn;
+    pp_fft_forward(s->fft, x, c->cbuf);
+    for (size_t i = 0; i < s->gm; i++)
+        c->cbuf[i] *= c->otf[i] * invn;
+    pp_fft_inverse(s->fft, c->cbuf, c->rbuf);
+    double so = 0, sp = 0;
+    for (size_t r = 0; r < s->gh; r++)
+        for (size_t col = 0; col < s->gw; col++) {
+            size_t i = r * s->gw + col;
+            double d = c->rbuf[i] - y[i];
+            if (r < s->height && col < s->width)
+                so += d * d;
+            else
+                sp += d * d;
+        }
+    *obs = so;
+    return so + sp;
+}
+
+/* Interweaving move on the global level (Yu & Meng, JCGS 20, 2011, as
+ * gibbs's asis_delta): with L the mean of s and x = c + σ u, σ = e^{-L/2},
+ * c the grid mean of x (the prior is blind to it), u held fixed. Given u
+ * the model's joint density in σ is σ^{-2} (the flat prior on L, the
+ * Jacobian σ^{N-1} of x − c and the blocks' e^{N L/2}) times the Gaussian
+ * likelihood exp(−λ/2 (V σ² − 2 C σ)) with V = ‖Au‖², C = <Au, y − Ac>
+ * over the grid; σ' is proposed from that Gaussian and accepted with the
+ * ratio (σ/σ')² (independence Metropolis, exact). On acceptance x, A x (in
+ * rbuf), the residual and the weights move with it. Returns the new
+ * residual sums (*ss grid, *obs frame). One grid pass (two if accepted). */
+static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const double *y,
+                       double *ss, double *obs)
+{
+    const size_t n = s->gn;
+    const double a0 = creal(c->otf[0]);
+    double cm = 0;
+    for (size_t i = 0; i < n; i++)
+        cm += k->x[i];
+    cm /= (double)n;
+    double s1 = 1.0 / sqrt(c->delta), v0 = 0, c0 = 0;
+    for (size_t i = 0; i < n; i++) {
+        double g = c->rbuf[i] - cm * a0;
+        v0 += g * g;
+        c0 += g * (y[i] - cm * a0);
+    }
+    double V = v0 / (s1 * s1), C = c0 / s1;
+    if (!(V > 0) || !isfinite(V) || !isfinite(C))
+        return;
+    double sp = C / V + pp_rng_normal(&c->rng) / sqrt(c->lambda * V);
+    double u = pp_rng_uniform(&c->rng);
+    if (!(sp > 0) || !(log(u) < 2.0 * log(s1 / sp)))
+        return;
+    double ratio = sp / s1, so = 0, sa = 0;
+    for (size_t r = 0; r < s->gh; r++)
+        for (size_t col = 0; col < s->gw; col++) {
+            size_t i = r * s->gw + col;
+            k->x[i] = cm + ratio * (k->x[i] - cm);
+            c->rbuf[i] = cm * a0 + ratio * (c->rbuf[i] - cm * a0);
+            double d = c->rbuf[i] - y[i];
+            sa += d * d;
+            if (r < s->height && col < s->width)
+                so += d * d;
+        }
+    *ss = sa;
+    *obs = so;
+    pp_adapt_shift(k->ad, -2.0 * log(ratio), k->wh, k->wv);
+    c->delta = pp_adapt_level(k->ad);
+}
+
+/* Pad: the padding pixels of yaug redrawn from N(Ax, 1/λ) (Ax in rbuf). */
+static void augment(const pp_sampler *s, pp_chain *c)
+{
+    const double sd = 1.0 / sqrt(c->lambda);
+    for (size_t r = 0; r < s->gh; r++)
+        for (size_t col = r < s->height ? s->width : 0; col < s->gw; col++) {
+            size_t i = r * s->gw + col;
+            c->yaug[i] = c->rbuf[i] + sd * pp_rng_normal(&c->rng);
+        }
+}
+
+static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
+{
+    const pp_sampler_config *cfg = &s->cfg;
+    const adapt_shared *sh = s->kshared;
+    adapt_work *k = c->kwork;
+    const int pad = cfg->boundary == PP_BOUNDARY_PAD, fix_l = cfg->noise.sigma_set;
+    const double shape_l = cfg->hyper_lambda[0] + 0.5 * (double)s->gn;
+    const double nobs = (double)s->height * (double)s->width;
+    double *y = pad ? c->yaug : sh->y;
+    start_field(s, c, k->x);
+    pp_adapt_start(k->ad, c->delta);
+    pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
+    double ss_obs, ss;
+    if (pad) {
+        residual(s, c, k->x, y, &ss_obs);
+        augment(s, c);
+    }
+    const unsigned long total = cfg->burn + cfg->iters;
+    for (unsigned long t = 0; t < total; t++) {
+        int keep = t >= cfg->burn && (t - cfg->burn + 1) % cfg->thin == 0;
+        pp_po_stats ps = {0, 0};
+        pp_status st = pp_po_draw(k->po, c->otf, y, c->lambda, 1.0, k->wh, k->wv, &c->rng,
+                                  PO_TOL, PO_CAP, k->x, &ps);
+        if (st != PP_OK && st != PP_ERR_LIMIT)
+            return pp_fail(st, "iteration %lu: %s", t + 1, pp_error_message());
+        c->solver_draws++;
+        c->solver_iters += ps.iters;
+        if (ps.iters > c->solver_max)
+            c->solver_max = ps.iters;
+        if (st == PP_ERR_LIMIT && t >= cfg->burn)
+            c->solver_capped++;
+        ss = residual(s, c, k->x, y, &ss_obs);
+        level_move(s, c, k, y, &ss, &ss_obs);
+        if (pad) {
+            augment(s, c);
+            ss = ss_obs;
+            for (size_t r = 0; r < s->gh; r++)
+                for (size_t col = r < s->height ? s->width : 0; col < s->gw; col++) {
+                    double d = c->rbuf[r * s->gw + col] - y[r * s->gw + col];
+                    ss += d * d;
+                }
+        }
+        if (!fix_l)
+            c->lambda = pp_rng_gamma(&c->rng, shape_l, cfg->hyper_lambda[1] + 0.5 * ss);
+        pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
+        c->delta = pp_adapt_level(k->ad);
+        if (!(isfinite(c->lambda) && c->lambda > 0 && isfinite(c->delta) && c->delta > 0))
+            return pp_fail(PP_ERR_NUMERIC,
+                           "the noise or prior precision left the floating-point range at "
+                           "iteration %lu (lambda=%g, level=%g); rescale the frame or fix "
+                           "the noise with gaussian:sigma=S",
+                           t + 1, c->lambda, c->delta);
+        if (keep) {
+            pp_chain_add_draw(s, c, k->x);
+            double *row = c->trace + c->kept * s->trace.ncols;
+            row[PP_COL_LAMBDA] = c->lambda;
+            row[PP_COL_DELTA] = c->delta;
+            row[PP_COL_LOGLIK] =
+                0.5 * (pad ? nobs : (double)s->gn) * log(c->lambda / (2 * PP_PI)) -
+                0.5 * c->lambda * ss_obs;
+            row[s->col_kappa] = pp_adapt_kappa(k->ad);
+            for (size_t p = 0; p < s->nprobe; p++)
+                row[s->col_probe0 + p] = k->x[s->probe_r[p] * s->gw + s->probe_c[p]];
+            c->kept++;
+        }
+        if (pp_sampler_tick(s))
+            return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");
+    }
+    unsigned long long acc, tried;
+    pp_adapt_acceptance(k->ad, &acc, &tried);
+    c->acceptance = tried ? (double)acc / (double)tried : 0;
+    return PP_OK;
+}
+
+const pp_kernel pp_kernel_gibbs_adaptive = {"gibbs",  prepare, adaptive_run_chain,
+                                            NULL,     release, free_work};
