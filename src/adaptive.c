@@ -17,6 +17,7 @@
 
 struct pp_adapt {
     size_t h, w, bs, mh, mw, nb;
+    size_t fmh, fmw; /* blocks holding frame pixels: the top-left fmh x fmw */
     double nu;
     double *s;     /* nb block log-precisions */
     double *half;  /* nb: n_B / 2 */
@@ -27,10 +28,12 @@ struct pp_adapt {
     unsigned long long acc, tried;
 };
 
-pp_status pp_adapt_create(size_t h, size_t w, size_t block, double nu, pp_adapt **out)
+pp_status pp_adapt_create(size_t h, size_t w, size_t fh, size_t fw, size_t block, double nu,
+                          pp_adapt **out)
 {
     *out = NULL;
-    if (h < 2 || w < 2 || block < 1 || !(nu > 0 && isfinite(nu)))
+    if (h < 2 || w < 2 || block < 1 || !(nu > 0 && isfinite(nu)) || fh < 1 || fh > h ||
+        fw < 1 || fw > w)
         return pp_fail(PP_ERR_ARG, "adaptive prior: grid %zux%zu, block %zu, nu %g out of range",
                        w, h, block, nu);
     pp_adapt *a = calloc(1, sizeof *a);
@@ -39,6 +42,7 @@ pp_status pp_adapt_create(size_t h, size_t w, size_t block, double nu, pp_adapt 
     a->h = h, a->w = w, a->bs = block, a->nu = nu;
     a->mh = (h + block - 1) / block, a->mw = (w + block - 1) / block;
     a->nb = a->mh * a->mw;
+    a->fmh = (fh + block - 1) / block, a->fmw = (fw + block - 1) / block;
     a->s = malloc(a->nb * sizeof *a->s);
     a->half = calloc(a->nb, sizeof *a->half);
     a->r = malloc(a->nb * sizeof *a->r);
@@ -263,9 +267,10 @@ void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv)
 double pp_adapt_level(const pp_adapt *a)
 {
     double m = 0;
-    for (size_t b = 0; b < a->nb; b++)
-        m += a->s[b];
-    return exp(m / (double)a->nb);
+    for (size_t bi = 0; bi < a->fmh; bi++)
+        for (size_t bj = 0; bj < a->fmw; bj++)
+            m += a->s[bi * a->mw + bj];
+    return exp(m / (double)(a->fmh * a->fmw));
 }
 
 double pp_adapt_kappa(const pp_adapt *a) { return a->kappa; }

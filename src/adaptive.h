@@ -40,10 +40,13 @@
 
 typedef struct pp_adapt pp_adapt;
 
-/* State for an h x w grid (h, w >= 2) with blocks of side block (>= 1) and
- * Student-t degrees of freedom nu (> 0). Memory: a few doubles per block.
- * *out is NULL on failure (PP_ERR_ARG, PP_ERR_NOMEM). */
-pp_status pp_adapt_create(size_t h, size_t w, size_t block, double nu, pp_adapt **out);
+/* State for an h x w grid (h, w >= 2) whose observed frame is its top-left
+ * fh x fw corner (1 <= fh <= h, 1 <= fw <= w; the rest is padding), with
+ * blocks of side block (>= 1) and Student-t degrees of freedom nu (> 0).
+ * Memory: a few doubles per block. *out is NULL on failure (PP_ERR_ARG,
+ * PP_ERR_NOMEM). */
+pp_status pp_adapt_create(size_t h, size_t w, size_t fh, size_t fw, size_t block, double nu,
+                          pp_adapt **out);
 void pp_adapt_free(pp_adapt *a); /* accepts NULL */
 
 /* Starts at s = log(delta) everywhere, κ = 2 (the prior's mean), and the
@@ -62,8 +65,10 @@ void pp_adapt_update(pp_adapt *a, const double *x, double *wh, double *wv, pp_rn
  * of the global level made elsewhere, e.g. by interweaving). */
 void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv);
 
-/* The geometric mean of the block precisions, exp(mean s): the global
- * level, reported where gmrf1 reports δ. */
+/* The geometric mean of the block precisions over the blocks that hold a
+ * frame pixel, exp(mean s): the level of the prior where there are data,
+ * reported where gmrf1 reports δ (the padding's blocks are left out: they
+ * follow the prior alone, wander slowly and say nothing about the frame). */
 double pp_adapt_level(const pp_adapt *a);
 double pp_adapt_kappa(const pp_adapt *a);
 /* Block moves accepted and tried since pp_adapt_start. */

@@ -87,7 +87,7 @@ static pp_status prepare(pp_sampler *s)
         s->slot[b].kwork = k;
         pp_status st = pp_po_create(s->gh, s->gw, s->cfg.fft_effort, &k->po);
         if (st == PP_OK)
-            st = pp_adapt_create(s->gh, s->gw, s->cfg.prior.block, s->cfg.prior.nu, &k->ad);
+            st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block, s->cfg.prior.nu, &k->ad);
         if (st != PP_OK)
             return st;
         k->x = pp_fft_alloc_real(s->gn);
