@@ -25,24 +25,54 @@ struct pp_adapt {
     double *tb;    /* nb: T_B = Σ_{e in B} τ_e scratch */
     double *es;    /* nb: e^{s_B} before the block moves, then the factor e^{s_new - s_old} */
     double kappa;
+    double ha, hb;   /* Gamma(ha, hb) hyperprior on the level e^{L}, L = the mean
+                      * of s over the frame's blocks (what pp_adapt_level reports) */
+    double ssum;     /* Σ s_B over the frame's blocks (kept in step with s) */
+    size_t nf;       /* the frame's blocks */
     unsigned long long acc, tried;
 };
 
+/* log p(L) of the level L = mean s under the Gamma(ha, hb) hyperprior on
+ * δ = e^{L} (with the Jacobian dδ/dL = δ): ha L − hb e^{L}. */
+double pp_adapt_level(const pp_adapt *a);
+
+static double level_logp(const pp_adapt *a, double L)
+{
+    return a->ha * L - a->hb * exp(L);
+}
+
+/* log p(L + dl) − log p(L) at the current L. */
+static double level_dlogp(const pp_adapt *a, double dl)
+{
+    double L = a->ssum / (double)a->nf;
+    return level_logp(a, L + dl) - level_logp(a, L);
+}
+
+double pp_adapt_level_dlogp(const pp_adapt *a, double dl) { return level_dlogp(a, dl); }
+
+/* 1/nf when block b holds frame pixels (a change of s_B moves L by that
+ * share), else 0. */
+static double frame_share(const pp_adapt *a, size_t b)
+{
+    return (b / a->mw < a->fmh && b % a->mw < a->fmw) ? 1.0 / (double)a->nf : 0.0;
+}
+
 pp_status pp_adapt_create(size_t h, size_t w, size_t fh, size_t fw, size_t block, double nu,
-                          pp_adapt **out)
+                          const double hyper[2], pp_adapt **out)
 {
     *out = NULL;
     if (h < 2 || w < 2 || block < 1 || !(nu > 0 && isfinite(nu)) || fh < 1 || fh > h ||
-        fw < 1 || fw > w)
+        fw < 1 || fw > w || !(hyper[0] >= 0 && hyper[1] >= 0))
         return pp_fail(PP_ERR_ARG, "adaptive prior: grid %zux%zu, block %zu, nu %g out of range",
                        w, h, block, nu);
     pp_adapt *a = calloc(1, sizeof *a);
     if (!a)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the adaptive prior");
-    a->h = h, a->w = w, a->bs = block, a->nu = nu;
+    a->h = h, a->w = w, a->bs = block, a->nu = nu, a->ha = hyper[0], a->hb = hyper[1];
     a->mh = (h + block - 1) / block, a->mw = (w + block - 1) / block;
     a->nb = a->mh * a->mw;
     a->fmh = (fh + block - 1) / block, a->fmw = (fw + block - 1) / block;
+    a->nf = a->fmh * a->fmw;
     a->s = malloc(a->nb * sizeof *a->s);
     a->half = calloc(a->nb, sizeof *a->half);
     a->r = malloc(a->nb * sizeof *a->r);
@@ -76,6 +106,7 @@ void pp_adapt_start(pp_adapt *a, double delta)
     double l = log(delta);
     for (size_t b = 0; b < a->nb; b++)
         a->s[b] = l;
+    a->ssum = l * (double)a->nf;
     a->kappa = KAPPA_SHAPE / KAPPA_RATE;
     a->acc = a->tried = 0;
 }
@@ -156,8 +187,10 @@ static void block_scale(pp_adapt *a, size_t b, pp_rng *rng)
     if (!(isfinite(u) && u > 0))
         return;
     double t0 = a->s[b] - mean, t1 = t0 - log(u);
-    if (log(pp_rng_uniform(rng)) < -0.5 * prec * (t1 * t1 - t0 * t0)) {
+    double la = -0.5 * prec * (t1 * t1 - t0 * t0) + level_dlogp(a, -log(u) * frame_share(a, b));
+    if (log(pp_rng_uniform(rng)) < la) {
         a->s[b] -= log(u);
+        a->ssum -= log(u) * frame_share(a, b) * (double)a->nf;
         a->r[b] *= u;
         a->tb[b] *= u;
     }
@@ -181,9 +214,11 @@ static void block_move(pp_adapt *a, size_t b, pp_rng *rng)
     double prop = t + sd * pp_rng_normal(rng);
     double cur = a->s[b], zc = (cur - t) / sd, zp = (prop - t) / sd;
     double la = block_logf(prop, half, R, prec, mean) - block_logf(cur, half, R, prec, mean) +
+                level_dlogp(a, (prop - cur) * frame_share(a, b)) +
                 0.5 * (zp * zp - zc * zc);
     a->tried++;
     if (log(pp_rng_uniform(rng)) < la && isfinite(prop)) {
+        a->ssum += (prop - cur) * frame_share(a, b) * (double)a->nf;
         a->s[b] = prop;
         a->acc++;
     }
@@ -192,6 +227,7 @@ static void block_move(pp_adapt *a, size_t b, pp_rng *rng)
 void pp_adapt_update(pp_adapt *a, const double *x, double *wh, double *wv, pp_rng *rng)
 {
     double z[2 * CHUNK];
+    a->ssum = log(pp_adapt_level(a)) * (double)a->nf; /* afresh: no drift by rounding */
     for (size_t b = 0; b < a->nb; b++) {
         a->r[b] = a->tb[b] = 0;
         a->es[b] = exp(a->s[b]);
@@ -207,12 +243,16 @@ void pp_adapt_update(pp_adapt *a, const double *x, double *wh, double *wv, pp_rn
      * one Gibbs step at a time. */
     double nn = (double)(a->h * a->w);
     double u = pp_rng_gamma(rng, nn * (a->nu + 0.5), 0.5 * a->nu * tsum);
-    if (isfinite(u) && u > 0)
+    /* ... proposed from that Gamma and accepted with the level's hyperprior
+     * ratio (independence Metropolis; always accepted when hb = ha = 0) */
+    if (isfinite(u) && u > 0 && log(pp_rng_uniform(rng)) < level_dlogp(a, -log(u))) {
+        a->ssum -= log(u) * (double)a->nf;
         for (size_t b = 0; b < a->nb; b++) {
             a->s[b] -= log(u);
             a->r[b] *= u;
             a->tb[b] *= u;
         }
+    }
     /* The same ridge within each block: τ_B → uτ_B, s_B → s_B − log u with u
      * proposed from the block's share of that Gamma, Gamma(n_B(ν + 1/2),
      * (ν/2) T_B), and accepted with the ratio of the block field's GMRF
@@ -258,6 +298,7 @@ void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv)
     double f = exp(dl);
     for (size_t b = 0; b < a->nb; b++)
         a->s[b] += dl;
+    a->ssum += dl * (double)a->nf;
     for (size_t i = 0; i < a->h * a->w; i++) {
         wh[i] = clampw(wh[i] * f);
         wv[i] = clampw(wv[i] * f);
@@ -266,11 +307,11 @@ void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv)
 
 double pp_adapt_level(const pp_adapt *a)
 {
-    double m = 0;
+    double m = 0; /* summed afresh (ssum drifts by rounding) */
     for (size_t bi = 0; bi < a->fmh; bi++)
         for (size_t bj = 0; bj < a->fmw; bj++)
             m += a->s[bi * a->mw + bj];
-    return exp(m / (double)(a->fmh * a->fmw));
+    return exp(m / (double)a->nf);
 }
 
 double pp_adapt_kappa(const pp_adapt *a) { return a->kappa; }

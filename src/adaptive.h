@@ -9,12 +9,17 @@
  *                                     increments, ν = 2 by default),
  *     s_B  one log-precision per B x B block of pixels (B = 8 by default):
  *          a first-order intrinsic GMRF on the block grid (4 neighbours,
- *          free edges) with precision κ ~ Gamma(1, rate 0.5), flat prior on
- *          its mean (the mean plays the role of log δ of gmrf1).
+ *          free edges) with precision κ ~ Gamma(1, rate 0.5); its mean L
+ *          plays the role of log δ of gmrf1 and has gmrf1's hyperprior,
+ *          δ = e^{L} ~ Gamma(a_δ, b_δ) (--hyper-delta; a flat prior on L
+ *          makes the posterior improper when the data cannot bound the
+ *          prior's scale, e.g. a frame whose noise the λ hyperprior
+ *          outweighs).
  * An increment belongs to the block of its first pixel. The joint density
  * that defines the prior (and that the conditionals below sample exactly) is
  *     p(x, τ, s, κ) ∝ Π_B e^{n_B s_B / 2} · Π_e τ_e^{1/2} e^{-w_e d_e² / 2}
- *                      · Π_e Gamma(τ_e; ν/2, ν/2) · p(s | κ) p(κ),
+ *                      · Π_e Gamma(τ_e; ν/2, ν/2) · p(s | κ) p(κ) p(L),
+ * p(s | κ) the intrinsic GMRF density (blind to L), p(L) ∝ e^{a_δ L − b_δ e^L}.
  * n_B the pixels of block B: each block counts its share of the field's
  * rank (N − 1), not its increments (NOTES.md §1: counting increments tilts
  * the global level and collapses the field). For constant s this is exactly
@@ -28,7 +33,9 @@
  *       independence Metropolis step from the Laplace approximation at the
  *       mode (Newton), blocks in two checkerboard colours (prototype
  *       acceptance 0.96–0.98);
- *   κ | s ~ Gamma(1 + (nB − 1)/2, 0.5 + Σ_{neighbour pairs} (s_B − s_B')²/2).
+ *   κ | s ~ Gamma(1 + (nB − 1)/2, 0.5 + Σ_{neighbour pairs} (s_B − s_B')²/2);
+ *   and two scale moves along the ridge W = e^{s}τ (W fixed, see adaptive.c).
+ * Every move that changes L includes p(L) in its acceptance ratio.
  * With ν = 2 the τ draws use Gamma(3/2) = Exp(1) + Z²/2 (exact).
  */
 #ifndef PIXPOST_ADAPTIVE_H
@@ -42,11 +49,13 @@ typedef struct pp_adapt pp_adapt;
 
 /* State for an h x w grid (h, w >= 2) whose observed frame is its top-left
  * fh x fw corner (1 <= fh <= h, 1 <= fw <= w; the rest is padding), with
- * blocks of side block (>= 1) and Student-t degrees of freedom nu (> 0).
+ * blocks of side block (>= 1), Student-t degrees of freedom nu (> 0) and
+ * the level's hyperprior Gamma(hyper[0], rate hyper[1]) (both >= 0; 0, 0
+ * is the flat prior on L).
  * Memory: a few doubles per block. *out is NULL on failure (PP_ERR_ARG,
  * PP_ERR_NOMEM). */
 pp_status pp_adapt_create(size_t h, size_t w, size_t fh, size_t fw, size_t block, double nu,
-                          pp_adapt **out);
+                          const double hyper[2], pp_adapt **out);
 void pp_adapt_free(pp_adapt *a); /* accepts NULL */
 
 /* Starts at s = log(delta) everywhere, κ = 2 (the prior's mean), and the
@@ -63,6 +72,9 @@ void pp_adapt_update(pp_adapt *a, const double *x, double *wh, double *wv, pp_rn
 
 /* Adds dl to every block's s and multiplies the weights by e^{dl} (a move
  * of the global level made elsewhere, e.g. by interweaving). */
+/* log p(L + dl) − log p(L): the level hyperprior's part of the acceptance
+ * ratio of such a move. */
+double pp_adapt_level_dlogp(const pp_adapt *a, double dl);
 void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv);
 
 /* The geometric mean of the block precisions over the blocks that hold a

@@ -22,7 +22,8 @@
  *
  * Cost, in FFT pairs (one r2c + one c2r of the grid): per CG iteration 2
  * (P p: λAᵀA p by one pair plus the Dᵀ W D stencil; M⁻¹ r: one pair) and
- * about 8 passes over the grid; per draw 3 more (η's data term, P x₀ and
+ * about 10 passes over the grid (two of them keep CG on zero-mean fields);
+ * per draw 3 more (η's data term, P x₀ and
  * M⁻¹ r₀), 3N normals and 2 setup passes. Memory: 7 real grids, one
  * complex and three real half spectra ≈ 76 B/px.
  */
@@ -150,6 +151,11 @@ static pp_status prepare(pp_po *po, const pp_complex *otf, double lam, double de
                            ck, k);
         po->cinv[k] = 1.0 / (nn * ck);
     }
+    /* CG runs on zero-mean fields (pp_po_draw): the preconditioner drops the
+     * constant mode. Keeping 1/C(0) = 1/(λ|Â(0)|²) would let the diagonal
+     * scaling leak the mean of S^{-1/2} r into it and amplify it by the
+     * ratio of prior to data precision (1e49 on a frame of values ~1e-27). */
+    po->cinv[0] = 0.0;
     a2 /= nn;
     double dc = lam * a2 + 4.0 * c;
     pp_incr_diag(po->h, po->w, wh, wv, po->si);
@@ -178,6 +184,22 @@ static void perturbed_rhs(pp_po *po, const pp_complex *otf, const double *y, dou
         po->b[i] += sd * po->t[i];
 }
 
+static double mean_of(const double *a, size_t n)
+{
+    double s = 0.0;
+    for (size_t i = 0; i < n; i++)
+        s += a[i];
+    return s / (double)n;
+}
+
+/* a -= mean(a) */
+static void center(double *a, size_t n)
+{
+    double m = mean_of(a, n);
+    for (size_t i = 0; i < n; i++)
+        a[i] -= m;
+}
+
 static double dot(const double *a, const double *b, size_t n)
 {
     double s = 0.0;
@@ -200,11 +222,29 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
         return st;
     perturbed_rhs(po, otf, y, lam, delta, wh, wv, rng);
     size_t n = po->n, k = 0;
-    double bn = sqrt(dot(po->b, po->b, n)), rn;
+    double rn;
+    /* P is block-diagonal between the constant field and its orthogonal
+     * complement: Dᵀ W D annihilates constants and (symmetric) maps into
+     * zero-mean fields, and AᵀA, a convolution, keeps both. So the mean of
+     * x is solved exactly, x̄ = b̄ / (λ|Â(0)|²), and CG runs on zero-mean
+     * fields only (its iterates, residuals and preconditioned residuals are
+     * kept at mean 0). Without this the diagonal scaling of the
+     * preconditioner couples the mean to the rest, and when the prior
+     * dwarfs the data (weights 1e49 times λ) CG cannot resolve the mean to
+     * any tolerance. */
+    double bbar = mean_of(po->b, n), xbar = mean_of(x, n), bn = 0.0;
+    for (size_t i = 0; i < n; i++) /* the tolerance is relative to the zero-mean part of η */
+        bn += (po->b[i] - bbar) * (po->b[i] - bbar);
+    bn = sqrt(bn);
+    double xbar_new = bbar / (lam * (creal(otf[0]) * creal(otf[0]) + cimag(otf[0]) * cimag(otf[0])));
+    for (size_t i = 0; i < n; i++)
+        x[i] += xbar_new - xbar;
     apply_p(po, delta, wh, wv, x, po->r);
     for (size_t i = 0; i < n; i++)
         po->r[i] = po->b[i] - po->r[i];
+    center(po->r, n);
     apply_minv(po, po->r, po->z);
+    center(po->z, n);
     for (size_t i = 0; i < n; i++)
         po->p[i] = po->z[i];
     double rz = dot(po->r, po->z, n);
@@ -229,7 +269,9 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
             x[i] += alpha * po->p[i];
             po->r[i] -= alpha * po->q[i];
         }
+        center(po->r, n);
         apply_minv(po, po->r, po->z);
+        center(po->z, n);
         double rz2 = dot(po->r, po->z, n), beta = rz2 / rz;
         for (size_t i = 0; i < n; i++)
             po->p[i] = po->z[i] + beta * po->p[i];

@@ -32,7 +32,8 @@ pp_status pp_po_create(size_t h, size_t w, int effort, pp_po **out);
 void pp_po_free(pp_po *po);
 
 /* What one draw did: CG iterations and the final relative residual
- * ‖r‖₂/‖η‖₂ of CG's recursively updated residual. */
+ * ‖r‖₂/‖η − η̄‖₂ of CG's recursively updated residual (the mean of x is solved
+ * exactly, see po_solve.c, so η's mean η̄ is left out of the reference). */
 typedef struct pp_po_stats {
     size_t iters;
     double relres;
@@ -42,7 +43,7 @@ typedef struct pp_po_stats {
  * passed in. otf: h*(w/2+1) values (not modified); y: the frame, N reals;
  * lam, delta > 0; wh, wv: N positive finite weights each; rng advanced by
  * 3N normals (ε₁ then ε₂'s horizontal then vertical half); tol > 0: stop
- * at ‖r‖₂ ≤ tol‖η‖₂; cap: most iterations. Needs λ|otf[0]|² > 0 (the
+ * at ‖r‖₂ ≤ tol‖η − η̄‖₂; cap: most iterations. Needs λ|otf[0]|² > 0 (the
  * constant field is fixed by the data alone, Dᵀ W D being blind to it).
  * None of the arrays may alias x. stats may be NULL.
  * Returns PP_OK when converged; PP_ERR_LIMIT when cap iterations were done

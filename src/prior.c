@@ -84,8 +84,9 @@ pp_status pp_prior_parse(const char *text, pp_prior_spec *out)
     static const char *const priors[] = {"adaptive", "gmrf1", "gmrf2", "matern", NULL};
     const char *near = pp_spec_closest(s.name, priors);
     return pp_fail(PP_ERR_ARG,
-                   WHAT " '%s': unknown prior '%s' (%s%s%saccepted: adaptive:nu=V,block=B, "
-                        "gmrf1, gmrf2, matern:range=R,nu=V; the last three may add delta=D)",
+                   WHAT " '%s': unknown prior '%s' (%s%s%saccepted: gmrf1, gmrf2, "
+                        "matern:range=R,nu=V, each may add ,delta=D; adaptive:nu=V,block=B, "
+                        "the default)",
                    text, s.name, near ? "did you mean " : "", near ? near : "", near ? "? " : "");
 }
 

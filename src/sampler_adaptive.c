@@ -87,7 +87,8 @@ static pp_status prepare(pp_sampler *s)
         s->slot[b].kwork = k;
         pp_status st = pp_po_create(s->gh, s->gw, s->cfg.fft_effort, &k->po);
         if (st == PP_OK)
-            st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block, s->cfg.prior.nu, &k->ad);
+            st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block,
+                                 s->cfg.prior.nu, s->cfg.hyper_delta, &k->ad);
         if (st != PP_OK)
             return st;
         k->x = pp_fft_alloc_real(s->gn);
@@ -138,11 +139,11 @@ static double residual(const pp_sampler *s, pp_chain *c, const double *x, const 
 /* Interweaving move on the global level (Yu & Meng, JCGS 20, 2011, as
  * gibbs's asis_delta): with L the mean of s and x = c + σ u, σ = e^{-L/2},
  * c the grid mean of x (the prior is blind to it), u held fixed. Given u
- * the model's joint density in σ is σ^{-2} (the flat prior on L, the
- * Jacobian σ^{N-1} of x − c and the blocks' e^{N L/2}) times the Gaussian
+ * the model's joint density in σ is σ^{-2} p(L) (the Jacobian σ^{N-1} of
+ * x − c, the blocks' e^{N L/2}, dL/dσ and the level's hyperprior) times the Gaussian
  * likelihood exp(−λ/2 (V σ² − 2 C σ)) with V = ‖Au‖², C = <Au, y − Ac>
  * over the grid; σ' is proposed from that Gaussian and accepted with the
- * ratio (σ/σ')² (independence Metropolis, exact). On acceptance x, A x (in
+ * ratio (σ/σ')² p(L')/p(L) (independence Metropolis, exact). On acceptance x, A x (in
  * rbuf), the residual and the weights move with it. Returns the new
  * residual sums (*ss grid, *obs frame). One grid pass (two if accepted). */
 static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const double *y,
@@ -165,7 +166,7 @@ static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const do
         return;
     double sp = C / V + pp_rng_normal(&c->rng) / sqrt(c->lambda * V);
     double u = pp_rng_uniform(&c->rng);
-    if (!(sp > 0) || !(log(u) < 2.0 * log(s1 / sp)))
+    if (!(sp > 0) || !(log(u) < 2.0 * log(s1 / sp) + pp_adapt_level_dlogp(k->ad, -2.0 * log(sp / s1))))
         return;
     double ratio = sp / s1, so = 0, sa = 0;
     for (size_t r = 0; r < s->gh; r++)
@@ -195,6 +196,18 @@ static void augment(const pp_sampler *s, pp_chain *c)
         }
 }
 
+#define RANGE_MSG "the noise or prior precision left the floating-point range"
+
+/* λ and the level δ must be positive finite numbers before a draw. */
+static pp_status range_check(const pp_chain *c, unsigned long t)
+{
+    if (isfinite(c->lambda) && c->lambda > 0 && isfinite(c->delta) && c->delta > 0)
+        return PP_OK;
+    return pp_fail(PP_ERR_NUMERIC, "%s at iteration %lu (lambda=%g, delta=%g); rescale the frame "
+                                   "or fix the noise with gaussian:sigma=S",
+                   RANGE_MSG, t + 1, c->lambda, c->delta);
+}
+
 static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
 {
     const pp_sampler_config *cfg = &s->cfg;
@@ -216,10 +229,16 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     for (unsigned long t = 0; t < total; t++) {
         int keep = t >= cfg->burn && (t - cfg->burn + 1) % cfg->thin == 0;
         pp_po_stats ps = {0, 0};
-        pp_status st = pp_po_draw(k->po, c->otf, y, c->lambda, 1.0, k->wh, k->wv, &c->rng,
-                                  PO_TOL, PO_CAP, k->x, &ps);
+        pp_status st = range_check(c, t);
+        if (st == PP_OK)
+            st = pp_po_draw(k->po, c->otf, y, c->lambda, 1.0, k->wh, k->wv, &c->rng, PO_TOL,
+                            PO_CAP, k->x, &ps);
+        if (st == PP_ERR_NUMERIC || st == PP_ERR_ARG) /* CG broke down: the same cause */
+            return pp_fail(PP_ERR_NUMERIC, "%s at iteration %lu (lambda=%g, delta=%g); rescale "
+                                           "the frame or fix the noise with gaussian:sigma=S",
+                           RANGE_MSG, t + 1, c->lambda, c->delta);
         if (st != PP_OK && st != PP_ERR_LIMIT)
-            return pp_fail(st, "iteration %lu: %s", t + 1, pp_error_message());
+            return st;
         c->solver_draws++;
         c->solver_iters += ps.iters;
         if (ps.iters > c->solver_max)
@@ -241,12 +260,6 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
             c->lambda = pp_rng_gamma(&c->rng, shape_l, cfg->hyper_lambda[1] + 0.5 * ss);
         pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
         c->delta = pp_adapt_level(k->ad);
-        if (!(isfinite(c->lambda) && c->lambda > 0 && isfinite(c->delta) && c->delta > 0))
-            return pp_fail(PP_ERR_NUMERIC,
-                           "the noise or prior precision left the floating-point range at "
-                           "iteration %lu (lambda=%g, level=%g); rescale the frame or fix "
-                           "the noise with gaussian:sigma=S",
-                           t + 1, c->lambda, c->delta);
         if (keep) {
             pp_chain_add_draw(s, c, k->x);
             double *row = c->trace + c->kept * s->trace.ncols;

@@ -43,7 +43,8 @@ pptest.run(["simulate", os.path.join(tmp, "truth.tif"), "--psf", PSF, "--noise",
 def sample(name, *extra, check=True):
     out = os.path.join(tmp, name)
     p = pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", PSF, "--boundary", "periodic",
-                    "--quiet", "-o", out] + list(extra), check=check)
+                    "--quiet", "-o", out] + list(extra)
+                   + ([] if "--prior" in extra else ["--prior", "gmrf1"]), check=check)
     return p, out
 
 

@@ -80,7 +80,7 @@ for j, name in enumerate(head):
 out2 = os.path.join(tmp, "hyper")
 pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", "gaussian:sigma=1.3",
             "--boundary", "periodic", "--chains", "4", "--burn", "300", "--iters", "3000",
-            "--seed", "12", "--quiet", "-o", out2])
+            "--seed", "12", "--quiet", "-o", out2, "--prior", "gmrf1"])
 head, tr = pptest.read_trace(os.path.join(out2, "trace.csv"))
 nz = q != 0
 a2 = np.abs(A[nz]) ** 2

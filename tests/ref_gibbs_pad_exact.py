@@ -54,6 +54,7 @@ y = tifffile.imread(os.path.join(tmp, "y.tif")).astype(np.float64)
 psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
 out = os.path.join(tmp, "run")
 pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", PSF, "--boundary", "pad", "--hyper-delta", "1,1",
+            "--prior", "gmrf1",
             "--chains", "4", "--burn", "300", "--iters", "4000", "--seed", "9", "--quiet",
             "-o", out])
 summ = json.load(open(os.path.join(out, "summary.json")))

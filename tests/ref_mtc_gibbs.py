@@ -40,7 +40,7 @@ runs = {}
 for kind in ("gibbs", "mtc"):
     out = os.path.join(tmp, kind)
     pptest.run(["sample", os.path.join(tmp, "y.tif"), "--psf", PSF, "--boundary", "periodic",
-                "--sampler", kind, "--chains", "4", "--burn", "300", "--iters", "3000",
+                "--sampler", kind, "--prior", "gmrf1", "--chains", "4", "--burn", "300", "--iters", "3000",
                 "--seed", "21", "--quiet", "-o", out])
     head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
     s = json.load(open(os.path.join(out, "summary.json")))

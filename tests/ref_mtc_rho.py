@@ -74,7 +74,8 @@ def sample(name, extra, chains=4, iters=4000):
     out = os.path.join(tmp, name)
     pptest.run(["sample", frame, "--psf", PSF, "--boundary", "periodic", "--sampler", "mtc",
                 "--chains", str(chains), "--burn", "100", "--iters", str(iters), "--seed", "31",
-                "--quiet", "-o", out] + extra)
+                "--quiet", "-o", out] + extra
+               + ([] if "--prior" in extra else ["--prior", "gmrf1"]))
     head, tr = pptest.read_trace(os.path.join(out, "trace.csv"))
     return head, tr, json.load(open(os.path.join(out, "summary.json")))
 

@@ -92,7 +92,8 @@ pptest.check(abs(z) < 4, "frame 0 sigma posterior mean: mtc %.4f vs gibbs %.4f (
 # width appears in summary.json, trace.csv and the report's histograms.
 cli = os.path.join(tmp, "cli")
 pptest.run(["sample", y0, "--psf", SPEC, "--sampler", "mtc", "--boundary", "periodic",
-            "--chains", "2", "--burn", "100", "--iters", "200", "--quiet", "-o", cli])
+            "--chains", "2", "--burn", "100", "--iters", "200", "--quiet", "-o", cli,
+            "--prior", "gmrf1"])
 summ = json.load(open(os.path.join(cli, "summary.json")))
 pw = summ["hyper"].get("psf_width", {})
 head, _ = pptest.read_trace(os.path.join(cli, "trace.csv"))
