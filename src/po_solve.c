@@ -43,7 +43,10 @@ struct pp_po {
     double *b, *r, *z, *p, *q, *t, *si; /* real grids (si = S^{-1/2}) */
     pp_complex *spec;                   /* half spectrum scratch */
     double *qk, *pm, *cinv;             /* half: q(k), λ|Â|²/N, 1/(N C(k)) */
+    const volatile sig_atomic_t *stop;  /* see pp_po_set_stop */
 };
+
+void pp_po_set_stop(pp_po *po, const volatile sig_atomic_t *stop) { po->stop = stop; }
 
 void pp_po_free(pp_po *po)
 {
@@ -257,6 +260,8 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
                            k);
         if (rn <= tol * bn || k == cap)
             break;
+        if (po->stop && *po->stop)
+            return pp_fail(PP_ERR_INTERRUPTED, "PO solver: stopped at the caller's request");
         apply_p(po, delta, wh, wv, po->p, po->q);
         double pq = dot(po->p, po->q, n);
         if (!(pq > 0))

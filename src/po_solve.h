@@ -18,6 +18,7 @@
 #include "pixpost/fft.h"
 #include "pixpost/rng.h"
 #include "pixpost/status.h"
+#include <signal.h>
 #include <stddef.h>
 
 typedef struct pp_po pp_po;
@@ -30,6 +31,11 @@ pp_status pp_po_create(size_t h, size_t w, int effort, pp_po **out);
 
 /* Accepts NULL. */
 void pp_po_free(pp_po *po);
+
+/* While *stop (if stop is not NULL) is non-zero, pp_po_draw gives up at its
+ * next CG iteration with PP_ERR_INTERRUPTED (a draw on a large grid can
+ * take seconds: a caller's stop request must not wait for it). */
+void pp_po_set_stop(pp_po *po, const volatile sig_atomic_t *stop);
 
 /* What one draw did: CG iterations and the final relative residual
  * ‖r‖₂/‖η − η̄‖₂ of CG's recursively updated residual (the mean of x is solved
@@ -50,7 +56,8 @@ typedef struct pp_po_stats {
  * without reaching tol (x then holds the last iterate and stats says how
  * far it got: the caller must count this, never ignore it); PP_ERR_ARG on
  * a bad argument (x untouched); PP_ERR_NUMERIC if CG broke down (x
- * undefined). Cost: 2 FFT pairs per CG iteration + 3 per draw (see
+ * undefined); PP_ERR_INTERRUPTED when asked to stop (pp_po_set_stop; x
+ * then holds the last iterate). Cost: 2 FFT pairs per CG iteration + 3 per draw (see
  * po_solve.c). */
 pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double lam, double delta,
                      const double *wh, const double *wv, pp_rng *rng, double tol, size_t cap,

@@ -632,6 +632,9 @@ pp_status pp_sampler_run(pp_sampler *s)
         return pp_fail(PP_ERR_NOMEM, "out of memory");
     }
     double t0 = omp_get_wtime();
+    if (s->cfg.progress) /* shown at once: an iteration may take seconds */
+        s->cfg.progress(s->cfg.progress_ctx, 0,
+                        (unsigned long long)s->cfg.chains * (s->cfg.burn + s->cfg.iters));
 #pragma omp parallel for num_threads(nt) schedule(dynamic, 1)
     for (unsigned k = 0; k < nc; k++) {
         pp_chain *c = &s->chain[k];

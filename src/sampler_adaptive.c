@@ -217,6 +217,7 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     const double shape_l = cfg->hyper_lambda[0] + 0.5 * (double)s->gn;
     const double nobs = (double)s->height * (double)s->width;
     double *y = pad ? c->yaug : sh->y;
+    pp_po_set_stop(k->po, cfg->stop);
     start_field(s, c, k->x);
     pp_adapt_start(k->ad, c->delta);
     pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
@@ -233,6 +234,8 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
         if (st == PP_OK)
             st = pp_po_draw(k->po, c->otf, y, c->lambda, 1.0, k->wh, k->wv, &c->rng, PO_TOL,
                             PO_CAP, k->x, &ps);
+        if (st == PP_ERR_INTERRUPTED)
+            return pp_fail(st, "sampling stopped at the caller's request");
         if (st == PP_ERR_NUMERIC || st == PP_ERR_ARG) /* CG broke down: the same cause */
             return pp_fail(PP_ERR_NUMERIC, "%s at iteration %lu (lambda=%g, delta=%g); rescale "
                                            "the frame or fix the noise with gaussian:sigma=S",
