@@ -108,6 +108,8 @@ static void display_name(const char *name, char *buf, size_t n)
         snprintf(buf, n, "\xce\xb4 (prior precision)");
     else if (strcmp(name, "loglik") == 0)
         snprintf(buf, n, "log-likelihood");
+    else if (strcmp(name, "kappa") == 0)
+        snprintf(buf, n, "\xce\xba (smoothness of the adaptive prior's block field)");
     else if (strcmp(name, "psf_width") == 0)
         snprintf(buf, n, "PSF width (gaussian sigma in pixels, or airy NA)");
     else if (sscanf(name, "p_%u_%u", &r, &c) == 2)
@@ -272,7 +274,8 @@ static pp_status images_section(page *pg)
         st = grey_figure(pg, "mean-image", in->mean, "Posterior mean", pg->units);
     if (st == PP_OK && in->sd)
         st = colour_figure(pg, "sd", in->sd, "Posterior standard deviation",
-                           "the spread of the posterior of each pixel.");
+                           in->sd_caption ? in->sd_caption
+                                          : "the spread of the posterior of each pixel.");
     if (st == PP_OK && in->lo && in->hi)
         st = width_figure(pg);
     fputs("</div></section>\n", pg->f);

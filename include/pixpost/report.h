@@ -55,6 +55,8 @@ typedef struct pp_report_input {
     double level;      /* credible level of lo/hi, in (0, 1) */
     const char *units; /* of the estimates, e.g. "photons per pixel"; NULL: "input units" */
     const char *frame_units; /* of the input frame, e.g. "ADU"; NULL: as units */
+    const char *sd_caption;  /* what the sd map shows under this model (a sentence);
+                              * NULL: a generic one */
 } pp_report_input;
 
 /* Zeroes *in and sets level = 0.95. */
