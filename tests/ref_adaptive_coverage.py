@@ -39,13 +39,32 @@ Checks:
 2. That tolerance is meaningful: pixels within a frame are correlated (they
    share s, kappa and the blur), so the coverage of one frame varies far
    more than binomial(144, 0.95). Its sd s_f across frames is measured; the
-   pooled coverage's Monte Carlo sd is s_f / sqrt(FRAMES) (frames
-   independent); checked: 3 s_f / sqrt(FRAMES) < 0.02, i.e. a correct
+   pooled coverage's Monte Carlo sd is se = s_f / sqrt(FRAMES) for
+   independent frames, times sqrt((1 + r1) / (1 - r1)) (AR(1)
+   approximation) for the lag-1 correlation r1 >= 0 of successive frames'
+   coverage (measured 0.15-0.2 at THIN = 40); checked: 3 s_f / sqrt(FRAMES) < 0.02, i.e. a correct
    sampler lands in the band with probability > 99.7 % (3 sd, normal
    approximation), and a sampler off by 2 % is not hidden by noise wider
    than the band. n_eff = L(1 - L) / s_f^2, the effective number of
    independent pixels per frame, is printed.
-3. Pooled 50 % coverage within 0.5 +/- max(0.02, 3 s_f50 / sqrt(FRAMES)).
+3. Pooled 50 % coverage within 0.5 +/- 0.05: a guard against gross errors
+   only. pixpost's bounds are mean +/- z sd (Gaussian), while the
+   posterior marginals of this model are heavier-tailed (kurtosis ~3.8,
+   measured on the numpy posterior chain), so Gaussian 50 % bounds are too
+   wide: on 48 frames like these the numpy reference's Gaussian 50 % bounds
+   covered 0.526 +/- 0.009 and its draw-quantile bounds 0.496 +/- 0.009
+   (paired difference 0.030 +/- 0.002); at 95 % the two differ by only
+   -0.002 +/- 0.001. A +/- 2 % check at 50 % would test the bound method.
+
+Measured (fixed seeds, 128 frames): 95 % coverage 0.9417 (se 0.0035, frame
+sd 0.039, n_eff ~30 of 144 pixels), 50 % coverage 0.518 (se 0.007); with
+256 frames 0.9409 +/- 0.0024 and 0.514 +/- 0.004 (bench/adaptive/REF_LONG.md).
+Can fail: a pixpost built with n_B in place of n_B/2 in the block
+normaliser fails check 1 (see REF_LONG.md); a level bias of +37 % in delta
+(the global scale move's Gamma shape N nu instead of N (nu + 1/2)) moves
+the 95 % coverage by only -0.7 % and passes: that error is caught by
+tests/ref_adaptive_chain.py, not here.
+Runtime ~40 s on a loaded 2-core machine.
 """
 import os
 
@@ -62,7 +81,7 @@ H = W = 12
 BLOCK = 8  # pixpost's default block (src/prior.c)
 DELTA0, M, SIGMA = 0.04, 100.0, 1.0
 PSF = "gaussian:sigma=1"
-FRAMES, BURN, THIN = 64 * int(os.environ.get("PP_REF_SCALE", "1")), 200, 40
+FRAMES, BURN, THIN = 128 * int(os.environ.get("PP_REF_SCALE", "1")), 200, 40
 Z95, Z50 = 1.959964, 0.674490  # standard normal quantiles 0.975, 0.75 (scipy.stats.norm.ppf)
 
 tmp = pptest.tmpdir()
@@ -119,12 +138,12 @@ for f, x in enumerate(truths):
 for level, band in ((0.95, 0.02), (0.5, None)):
     c = np.array(cov[level])
     sf = c.std(ddof=1)
-    se = sf / np.sqrt(FRAMES)
     lag1 = np.corrcoef(c[:-1], c[1:])[0, 1]
+    se = sf / np.sqrt(FRAMES) * np.sqrt((1 + max(lag1, 0)) / (1 - max(lag1, 0)))
     print("level %g: per-frame coverage %s\n  pooled %.4f, frame sd %.4f (n_eff %.0f of %d pixels), "
           "se of the pooled coverage %.4f, lag-1 correlation across frames %.2f"
           % (level, np.round(c, 3), c.mean(), sf, level * (1 - level) / sf ** 2, H * W, se, lag1))
-    tol = band if band else max(0.02, 3 * se)
+    tol = band if band else 0.05
     pptest.check(abs(c.mean() - level) <= tol,
                  "level %g: pooled coverage %.4f over %d frames x %d pixels within %.3f of %g"
                  % (level, c.mean(), FRAMES, H * W, tol, level))
