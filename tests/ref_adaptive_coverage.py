@@ -131,7 +131,10 @@ for f, x in enumerate(truths):
     rd = lambda n: tifffile.imread(os.path.join(out, n)).astype(np.float64)
     mean, sd, lo, hi = rd("mean.tif"), rd("sd.tif"), rd("lo.tif"), rd("hi.tif")
     if f == 0:
-        method = json.load(open(os.path.join(out, "summary.json")))["bounds"]["method"]
+        summary = json.load(open(os.path.join(out, "summary.json")))
+        method = summary["bounds"]["method"]
+        pptest.check(summary["prior"] == "adaptive:nu=2,block=%d" % BLOCK,
+                     "the default prior is the one simulated (%s)" % summary["prior"])
         gap = max(np.max(np.abs(lo - (mean - Z95 * sd))), np.max(np.abs(hi - (mean + Z95 * sd))))
         pptest.check(method.startswith("gaussian") and gap < 1e-4 * np.max(np.abs(mean)),
                      "bounds are mean +/- z sd (%s; lo/hi off by %.2g)" % (method, gap))
