@@ -1,0 +1,145 @@
+"""An independent numpy implementation of the adaptive prior (src/adaptive.h)
+for the reference checks tests/ref_adaptive_chain.py and
+tests/ref_adaptive_coverage.py.
+
+Written from the model's statement in src/adaptive.h (the joint density),
+not from the C code; outside sources: numpy / scipy.linalg (dense Cholesky
+draws). The model, H x W periodic grid, N = H W pixels:
+  increments d_e = x[q(e)] - x[p(e)], 2N of them (src/incr.h layout:
+    horizontal e = i W + j joins (i, j) -> (i, (j + 1) % W), then vertical
+    e = N + i W + j joins (i, j) -> ((i + 1) % H, j)); e belongs to the
+    block of its first pixel p(e);
+  p(x, tau, s, kappa) prop. to prod_B e^{n_B s_B / 2}
+      prod_e tau_e^{1/2} e^{-w_e d_e^2 / 2} Gamma(tau_e; nu/2, rate nu/2)
+      kappa^{(nB - 1)/2} e^{-kappa/2 sum_{pairs} (s_B - s_B')^2}
+      Gamma(kappa; 1, rate 0.5),  w_e = e^{s_B(e)} tau_e,
+  block grid pairs: 4 neighbours, free (not periodic) edges.
+
+The sampler here differs from pixpost's on purpose (so that a shared
+mistake is unlikely): s is moved with tau integrated out (collapsed),
+    int tau^{1/2} e^{-e^s tau d^2/2} Gamma(tau; nu/2, nu/2) dtau
+        prop. to (1 + e^s d^2 / nu)^{-(nu + 1)/2},
+by random-walk Metropolis (one block at a time in two checkerboard
+colours, vectorised, plus a move of the global level when it is free),
+then tau | x, s is drawn exactly (Gamma(nu/2 + 1/2, rate nu/2 + e^s d^2/2)),
+kappa | s exactly, and x by a dense Cholesky factor of its precision.
+An MH move on the tau-marginal of s followed by an exact tau | s draw is a
+valid update of (s, tau) jointly.
+"""
+import numpy as np
+import scipy.linalg
+
+KAPPA_SHAPE, KAPPA_RATE = 1.0, 0.5  # src/adaptive.h: kappa ~ Gamma(1, rate 0.5)
+
+
+class Model:
+    """Index tables of the adaptive prior on an H x W periodic grid."""
+
+    def __init__(self, H, W, block, nu=2.0):
+        self.H, self.W, self.N, self.block, self.nu = H, W, H * W, block, nu
+        ii, jj = np.meshgrid(np.arange(H), np.arange(W), indexing="ij")
+        p = (ii * W + jj).ravel()
+        qh = (ii * W + (jj + 1) % W).ravel()
+        qv = (((ii + 1) % H) * W + jj).ravel()
+        self.p = np.concatenate([p, p])
+        self.q = np.concatenate([qh, qv])
+        self.mh, self.mw = -(-H // block), -(-W // block)
+        self.nb = self.mh * self.mw
+        bpix = ((ii // block) * self.mw + jj // block).ravel()
+        self.bpix = bpix
+        self.be = np.concatenate([bpix, bpix])  # block of each increment
+        self.nB = np.bincount(bpix, minlength=self.nb).astype(float)
+        bi, bj = np.divmod(np.arange(self.nb), self.mw)
+        self.colour = (bi + bj) % 2
+        pairs = [(b, b + 1) for b in range(self.nb) if bj[b] + 1 < self.mw]
+        pairs += [(b, b + self.mw) for b in range(self.nb) if bi[b] + 1 < self.mh]
+        self.pairs = np.array(pairs)
+        nbr = np.zeros((self.nb, self.nb))
+        for a, b in pairs:
+            nbr[a, b] = nbr[b, a] = 1
+        self.nbr = nbr
+        self.deg = nbr.sum(axis=1)
+        self.diag_idx = np.arange(self.N) * (self.N + 1)
+
+    def incr(self, x):
+        """The 2N increments of the flat field x."""
+        return x[self.q] - x[self.p]
+
+    def laplacian(self, w, base):
+        """base + D' diag(w) D as a dense N x N matrix (base is not changed)."""
+        P = base.copy()
+        flat = P.reshape(-1)
+        flat[self.diag_idx] += np.bincount(self.p, w, self.N) + np.bincount(self.q, w, self.N)
+        np.subtract.at(flat, self.p * self.N + self.q, w)
+        np.subtract.at(flat, self.q * self.N + self.p, w)
+        return P
+
+    def block_logf(self, s, d2):
+        """Per block: n_B s_B/2 - (nu+1)/2 sum_{e in B} log(1 + e^{s_B} d_e^2/nu),
+        the tau-collapsed part of the joint that involves s_B alone."""
+        t = np.log1p(np.exp(s[self.be]) * d2 / self.nu)
+        return 0.5 * self.nB * s - 0.5 * (self.nu + 1) * np.bincount(self.be, t, self.nb)
+
+    def gmrf_q(self, s):
+        d = s[self.pairs[:, 0]] - s[self.pairs[:, 1]]
+        return float(d @ d)
+
+    def s_sweep(self, s, d2, kappa, rng, step, free_level, step_level=0.0):
+        """Moves s (in place) by random-walk Metropolis on p(s | x, kappa) with
+        tau integrated out. free_level: blocks one at a time (checkerboard,
+        vectorised) plus a global shift; otherwise every block move keeps the
+        mean of s fixed (direction e_B - 1/nB, symmetric), one block at a
+        time. Returns the number of accepted block moves."""
+        acc = 0
+        if free_level:
+            f0 = self.block_logf(s, d2)
+            for c in (0, 1):
+                m = self.colour == c
+                prop = s + step * rng.standard_normal(self.nb) * m
+                f1 = self.block_logf(prop, d2)
+                nbs = self.nbr @ s  # neighbours are of the other colour: unchanged
+                g0 = -0.5 * kappa * (self.deg * s ** 2 - 2 * s * nbs)
+                g1 = -0.5 * kappa * (self.deg * prop ** 2 - 2 * prop * nbs)
+                ok = m & (np.log(rng.random(self.nb)) < f1 + g1 - f0 - g0)
+                s[ok] = prop[ok]
+                f0 = np.where(ok, f1, f0)
+                acc += int(ok.sum())
+            prop = s + step_level * rng.standard_normal()
+            if np.log(rng.random()) < self.block_logf(prop, d2).sum() - f0.sum():
+                s[:] = prop
+            return acc
+        cur = self.block_logf(s, d2).sum() - 0.5 * kappa * self.gmrf_q(s)
+        for b in range(self.nb):
+            eps = step * rng.standard_normal()
+            prop = s - eps / self.nb  # s + eps (e_b - 1/nB): the mean of s is kept
+            prop[b] += eps
+            new = self.block_logf(prop, d2).sum() - 0.5 * kappa * self.gmrf_q(prop)
+            if np.log(rng.random()) < new - cur:
+                s[:] = prop
+                cur = new
+                acc += 1
+        return acc
+
+    def draw_tau(self, s, d2, rng):
+        rate = 0.5 * self.nu + 0.5 * np.exp(s[self.be]) * d2
+        return rng.gamma(0.5 * self.nu + 0.5, 1.0 / rate)
+
+    def draw_kappa(self, s, rng):
+        shape = KAPPA_SHAPE + 0.5 * (self.nb - 1)
+        return rng.gamma(shape, 1.0 / (KAPPA_RATE + 0.5 * self.gmrf_q(s)))
+
+
+def draw_gaussian(P, b, rng):
+    """x ~ N(P^-1 b, P^-1) by a dense Cholesky factor (scipy.linalg)."""
+    L = scipy.linalg.cholesky(P, lower=True)
+    mean = scipy.linalg.cho_solve((L, True), b)
+    return mean + scipy.linalg.solve_triangular(L.T, rng.standard_normal(len(b)), lower=False)
+
+
+def dense_blur(psf, H, W, transfer):
+    """Dense A: periodic convolution by psf with pixpost's centring
+    (transfer = pptest.transfer), row-major pixels."""
+    n = H * W
+    T = transfer(psf, (H, W))
+    eye = np.eye(n).reshape(n, H, W)
+    return np.real(np.fft.ifft2(T[None] * np.fft.fft2(eye))).reshape(n, n).T
