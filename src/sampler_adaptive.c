@@ -27,10 +27,12 @@
  */
 #include <math.h>
 #include <stdlib.h>
+#include <stdio.h>
 #include <string.h>
 #include "adaptive.h"
 #include "internal.h"
 #include "po_solve.h"
+#include "quantiles.h"
 
 #define PO_TOL 1e-6
 #define PO_CAP 2000
@@ -43,6 +45,7 @@ typedef struct {
 
 typedef struct {
     double *y; /* periodic: the frame on the grid (pad chains use their yaug) */
+    pp_squant_law law;
 } adapt_shared;
 
 static void free_work(void *p)
@@ -65,6 +68,13 @@ static void release(pp_sampler *s)
         pp_fft_free_buffer(sh->y);
     free(sh);
     s->kshared = NULL;
+    for (unsigned i = 0; s->chain && i < s->cfg.chains; i++) {
+        pp_squant *q = s->chain[i].kstate;
+        if (q)
+            pp_squant_free(q);
+        free(q);
+        s->chain[i].kstate = NULL;
+    }
 }
 
 static pp_status prepare(pp_sampler *s)
@@ -75,6 +85,16 @@ static pp_status prepare(pp_sampler *s)
     if (!sh)
         return pp_fail(PP_ERR_NOMEM, "out of memory");
     s->kshared = sh;
+    pp_squant_law_init(&sh->law, s->cfg.level);
+    for (unsigned i = 0; i < s->cfg.chains; i++) {
+        pp_squant *q = calloc(1, sizeof *q);
+        if (!q)
+            return pp_fail(PP_ERR_NOMEM, "out of memory");
+        s->chain[i].kstate = q;
+        pp_status st = pp_squant_alloc(q, s->height * s->width);
+        if (st != PP_OK)
+            return st;
+    }
     if (s->cfg.boundary != PP_BOUNDARY_PAD) {
         if (!(sh->y = pp_fft_alloc_real(s->gn)))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the frame");
@@ -265,6 +285,7 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
         c->delta = pp_adapt_level(k->ad);
         if (keep) {
             pp_chain_add_draw(s, c, k->x);
+            pp_squant_add(&sh->law, c->kstate, k->x, s->height, s->width, s->gw, &c->mom);
             double *row = c->trace + c->kept * s->trace.ncols;
             row[PP_COL_LAMBDA] = c->lambda;
             row[PP_COL_DELTA] = c->delta;
@@ -285,5 +306,31 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     return PP_OK;
 }
 
-const pp_kernel pp_kernel_gibbs_adaptive = {"gibbs",  prepare, adaptive_run_chain,
-                                            NULL,     release, free_work};
+/* Pooled bounds: the chains' streaming quantiles averaged (the draws are
+ * not Gaussian given the rest: heavier-tailed, kurtosis about 3.8 per pixel
+ * on the reference frames of tests/ref_adaptive_coverage.py, where mean ±
+ * 0.674 sd covered 0.519 and the draws' own quartiles 0.487). */
+static pp_status finish(pp_sampler *s)
+{
+    size_t n = s->height * s->width;
+    double kc = (double)s->cfg.chains;
+    for (size_t i = 0; i < n; i++) {
+        double lo = 0, hi = 0;
+        for (unsigned j = 0; j < s->cfg.chains; j++) {
+            const pp_squant *q = s->chain[j].kstate;
+            lo += q->qlo[i] / kc;
+            hi += q->qhi[i] / kc;
+        }
+        s->lo->data[i] = lo;
+        s->hi->data[i] = hi;
+    }
+    snprintf(s->bound_method, sizeof s->bound_method,
+             "streaming quantiles: per pixel and chain, Robbins-Monro recursion q += g (p - "
+             "1{x <= q}), g = sd/(phi(z_p) t), started from the Gaussian guess after %d kept "
+             "draws, averaged over chains; 16 bytes per pixel per chain",
+             PP_SQUANT_WARM);
+    return PP_OK;
+}
+
+const pp_kernel pp_kernel_gibbs_adaptive = {"gibbs", prepare, adaptive_run_chain,
+                                            finish,  release, free_work};

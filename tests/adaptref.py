@@ -12,7 +12,9 @@ draws). The model, H x W periodic grid, N = H W pixels:
   p(x, tau, s, kappa) prop. to prod_B e^{n_B s_B / 2}
       prod_e tau_e^{1/2} e^{-w_e d_e^2 / 2} Gamma(tau_e; nu/2, rate nu/2)
       kappa^{(nB - 1)/2} e^{-kappa/2 sum_{pairs} (s_B - s_B')^2}
-      Gamma(kappa; 1, rate 0.5),  w_e = e^{s_B(e)} tau_e,
+      Gamma(kappa; 1, rate 0.5) e^{a L - b e^L},  w_e = e^{s_B(e)} tau_e,
+  L the mean of s over the frame's blocks with pixpost's default
+    --hyper-delta (a, b) = (1, 1e-4) on e^L,
   block grid pairs: 4 neighbours, free (not periodic) edges.
 
 The sampler here differs from pixpost's on purpose (so that a shared
@@ -35,8 +37,9 @@ KAPPA_SHAPE, KAPPA_RATE = 1.0, 0.5  # src/adaptive.h: kappa ~ Gamma(1, rate 0.5)
 class Model:
     """Index tables of the adaptive prior on an H x W periodic grid."""
 
-    def __init__(self, H, W, block, nu=2.0):
+    def __init__(self, H, W, block, nu=2.0, hyper=(1.0, 1e-4)):
         self.H, self.W, self.N, self.block, self.nu = H, W, H * W, block, nu
+        self.hyper = hyper  # pixpost's default --hyper-delta (shape, rate)
         ii, jj = np.meshgrid(np.arange(H), np.arange(W), indexing="ij")
         p = (ii * W + jj).ravel()
         qh = (ii * W + (jj + 1) % W).ravel()
@@ -80,6 +83,13 @@ class Model:
         t = np.log1p(np.exp(s[self.be]) * d2 / self.nu)
         return 0.5 * self.nB * s - 0.5 * (self.nu + 1) * np.bincount(self.be, t, self.nb)
 
+    def level_logp(self, L):
+        """log p(L) of the level L = mean of s (all blocks hold frame pixels
+        on the periodic frames used here): Gamma(a, rate b) on e^L with the
+        Jacobian, a L - b e^L."""
+        a, b = self.hyper
+        return a * L - b * np.exp(L)
+
     def gmrf_q(self, s):
         d = s[self.pairs[:, 0]] - s[self.pairs[:, 1]]
         return float(d @ d)
@@ -92,20 +102,23 @@ class Model:
         time. Returns the number of accepted block moves."""
         acc = 0
         if free_level:
-            f0 = self.block_logf(s, d2)
-            for c in (0, 1):
-                m = self.colour == c
-                prop = s + step * rng.standard_normal(self.nb) * m
-                f1 = self.block_logf(prop, d2)
-                nbs = self.nbr @ s  # neighbours are of the other colour: unchanged
-                g0 = -0.5 * kappa * (self.deg * s ** 2 - 2 * s * nbs)
-                g1 = -0.5 * kappa * (self.deg * prop ** 2 - 2 * prop * nbs)
-                ok = m & (np.log(rng.random(self.nb)) < f1 + g1 - f0 - g0)
-                s[ok] = prop[ok]
-                f0 = np.where(ok, f1, f0)
-                acc += int(ok.sum())
+            # The level L = mean of s has the Gamma(a, b) hyperprior on e^L
+            # (src/adaptive.h: log p(L) = a L - b e^L), which couples every
+            # block: blocks move one at a time.
+            def target(v):
+                return (self.block_logf(v, d2).sum() - 0.5 * kappa * self.gmrf_q(v) +
+                        self.level_logp(v.mean()))
+            cur = target(s)
+            for b in range(self.nb):
+                prop = s.copy()
+                prop[b] += step * rng.standard_normal()
+                new = target(prop)
+                if np.log(rng.random()) < new - cur:
+                    s[:] = prop
+                    cur = new
+                    acc += 1
             prop = s + step_level * rng.standard_normal()
-            if np.log(rng.random()) < self.block_logf(prop, d2).sum() - f0.sum():
+            if np.log(rng.random()) < target(prop) - cur:
                 s[:] = prop
             return acc
         cur = self.block_logf(s, d2).sum() - 0.5 * kappa * self.gmrf_q(s)

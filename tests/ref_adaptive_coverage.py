@@ -28,9 +28,9 @@ Data: y = A x + SIGMA e (A: periodic blur by the PSF `pixpost psf` writes,
 via pptest.transfer), float32. pixpost: --noise gaussian:sigma=SIGMA (lambda
 fixed at its true value), --boundary periodic (the simulation is exactly the
 model), every other setting at its default (prior adaptive, 4 chains,
-burn 200, iters 1000, level 0.95). The 50 % bounds are mean +/- 0.67449 sd
-from mean.tif and sd.tif: summary.json's bounds.method is checked to be
-the Gaussian mean +/- z sd that lo.tif and hi.tif use (so one run per
+burn 200, iters 1000, level 0.95). lo.tif and hi.tif are the draws'
+streaming quantiles (summary.json's bounds.method is checked); the 50 %
+check below uses mean +/- 0.67449 sd from mean.tif and sd.tif (one run per
 frame).
 
 Checks:
@@ -47,8 +47,10 @@ Checks:
    approximation), and a sampler off by 2 % is not hidden by noise wider
    than the band. n_eff = L(1 - L) / s_f^2, the effective number of
    independent pixels per frame, is printed.
-3. Pooled 50 % coverage within 0.5 +/- 0.05: a guard against gross errors
-   only. pixpost's bounds are mean +/- z sd (Gaussian), while the
+3. Pooled 50 % coverage of mean +/- 0.67449 sd within 0.5 +/- 0.05: a
+   guard against gross errors of the sd only. Gaussian bounds are not what
+   pixpost writes under this prior (since this test found the following,
+   lo/hi are the draws' quantiles): the
    posterior marginals of this model are heavier-tailed (kurtosis ~3.8,
    measured on the numpy posterior chain), so Gaussian 50 % bounds are too
    wide: on 48 frames like these the numpy reference's Gaussian 50 % bounds
@@ -135,9 +137,8 @@ for f, x in enumerate(truths):
         method = summary["bounds"]["method"]
         pptest.check(summary["prior"] == "adaptive:nu=2,block=%d" % BLOCK,
                      "the default prior is the one simulated (%s)" % summary["prior"])
-        gap = max(np.max(np.abs(lo - (mean - Z95 * sd))), np.max(np.abs(hi - (mean + Z95 * sd))))
-        pptest.check(method.startswith("gaussian") and gap < 1e-4 * np.max(np.abs(mean)),
-                     "bounds are mean +/- z sd (%s; lo/hi off by %.2g)" % (method, gap))
+        pptest.check(method.startswith("streaming quantiles"),
+                     "the 95 %% bounds are the draws' own quantiles (%s)" % method)
     cov[0.95].append(np.mean((lo <= x) & (x <= hi)))
     cov[0.5].append(np.mean(np.abs(x - mean) <= Z50 * sd))
 

@@ -1,0 +1,51 @@
+/* pixpost — streaming tail quantiles (see quantiles.h). */
+#include "quantiles.h"
+
+#include "internal.h"
+
+#include <math.h>
+#include <stdlib.h>
+
+void pp_squant_law_init(pp_squant_law *law, double level)
+{
+    law->plo = 0.5 * (1.0 - level);
+    law->zq = pp_norm_quantile(1.0 - law->plo);
+    law->phi_z = exp(-0.5 * law->zq * law->zq) / sqrt(2 * PP_PI);
+}
+
+pp_status pp_squant_alloc(pp_squant *q, size_t n)
+{
+    q->qlo = malloc(n * sizeof(double));
+    q->qhi = malloc(n * sizeof(double));
+    if (q->qlo && q->qhi)
+        return PP_OK;
+    pp_squant_free(q);
+    return pp_fail(PP_ERR_NOMEM, "out of memory for the credible bounds");
+}
+
+void pp_squant_free(pp_squant *q)
+{
+    free(q->qlo);
+    free(q->qhi);
+    q->qlo = q->qhi = NULL;
+}
+
+void pp_squant_add(const pp_squant_law *law, pp_squant *q, const double *v, size_t rows,
+                   size_t cols, size_t stride, const struct pp_moments *m)
+{
+    double t = (double)m->count, zq = law->zq;
+    for (size_t r = 0; r < rows; r++)
+        for (size_t col = 0; col < cols; col++) {
+            size_t i = r * cols + col;
+            double zv = v[r * stride + col];
+            double sd = t > 1 ? sqrt(m->m2[i] / (t - 1)) : 0.0, mu = m->mean[i];
+            if (t <= PP_SQUANT_WARM) {
+                q->qlo[i] = mu - zq * sd;
+                q->qhi[i] = mu + zq * sd;
+                continue;
+            }
+            double g = sd / (law->phi_z * t);
+            q->qlo[i] += g * (law->plo - (zv <= q->qlo[i]));
+            q->qhi[i] += g * (1.0 - law->plo - (zv <= q->qhi[i]));
+        }
+}
