@@ -29,8 +29,8 @@
 #include "pixpost/psf.h"
 
 typedef enum pp_sampler_kind {
-    PP_SAMPLER_AUTO = 0, /* mtc for gaussian + periodic, gibbs for gaussian + pad,
-                          * hmc for poisson/camera */
+    PP_SAMPLER_AUTO = 0, /* gibbs for gaussian (mtc for gaussian + periodic with a
+                          * stationary prior), hmc for poisson/camera */
     PP_SAMPLER_GIBBS,
     PP_SAMPLER_MTC,
     PP_SAMPLER_PCN,
@@ -66,7 +66,7 @@ typedef struct pp_sampler_config {
     int threads;            /* 0 = OpenMP's default */
     double level;           /* credible level of the bounds (default 0.95) */
     pp_noise_spec noise;    /* default gaussian, lambda sampled */
-    pp_prior_spec prior;    /* default gmrf1 */
+    pp_prior_spec prior;    /* default adaptive:nu=2,block=8 */
     double hyper_lambda[2]; /* Gamma shape, rate for lambda (default 1, 1e-4) */
     double hyper_delta[2];  /* Gamma shape, rate for delta (default 1, 1e-4) */
     int fft_effort;         /* PP_FFT_ESTIMATE (default) or PP_FFT_MEASURE; the

@@ -34,16 +34,20 @@ static const cli_opt sample_table[] = {
      "per electron (or e_per_adu=E, the electrons per ADU that camera data sheets print; "
      "G = 1/E), offset O the camera's dark level in ADU, read R the read noise in electrons."},
     {"prior", 0, 1, "SPEC",
-     "Prior: gmrf1, gmrf2 or matern:range=R,nu=V; any of them also takes delta=D to fix the "
-     "prior precision."},
+     "Prior: adaptive[:nu=V,block=B] (a GMRF whose precision varies over the frame: "
+     "Student-t increments with nu degrees of freedom times one log-precision per B x B "
+     "block; gibbs, and hmc for photon counts), or the stationary gmrf1, gmrf2 or "
+     "matern:range=R,nu=V, each of which also takes delta=D to fix the prior precision "
+     "(README, \"Which prior\")."},
     {"positivity", 0, 1, "log|none",
      "pcn/gpcn/hmc: log samples the log intensity z (x = exp(z) > 0; default for poisson/camera), "
      "none samples x itself (default for gaussian). With log, the prior and mean=M apply to z."},
     {"background", 0, 1, "B",
      "Known background in photons per pixel added to A x (poisson/camera only; B >= 0)."},
     {"sampler", 0, 1, "auto|gibbs|mtc|pcn|gpcn|hmc",
-     "MCMC method. auto: mtc for gaussian noise with --boundary periodic, gibbs for gaussian "
-     "noise with pad, hmc for poisson/camera (gibbs/mtc need gaussian noise)."},
+     "MCMC method. auto: gibbs for gaussian noise (mtc instead with --boundary periodic and "
+     "a stationary prior), hmc for poisson/camera (gibbs/mtc need gaussian noise; mtc, pcn "
+     "and gpcn need a stationary prior)."},
     {"chains", 0, 1, "N", "Independent chains run in parallel (whole number >= 1)."},
     {"iters", 0, 1, "N", "Iterations per chain after burn-in (whole number >= 1)."},
     {"burn", 0, 1, "N", "Burn-in iterations per chain, discarded (whole number >= 0)."},
