@@ -49,3 +49,44 @@ void pp_squant_add(const pp_squant_law *law, pp_squant *q, const double *v, size
             q->qhi[i] += g * (1.0 - law->plo - (zv <= q->qhi[i]));
         }
 }
+
+void pp_squant_pool(const struct pp_chain *chains, unsigned nchains, size_t n, int exp_map,
+                    double *lo, double *hi)
+{
+    double kc = (double)nchains;
+    for (size_t i = 0; i < n; i++) {
+        double l = 0, h = 0;
+        for (unsigned j = 0; j < nchains; j++) {
+            const pp_squant *q = chains[j].kstate;
+            l += q->qlo[i] / kc;
+            h += q->qhi[i] / kc;
+        }
+        lo[i] = exp_map ? exp(l) : l;
+        hi[i] = exp_map ? exp(h) : h;
+    }
+}
+
+pp_status pp_squant_plan_chains(struct pp_chain *chains, unsigned nchains, size_t n)
+{
+    for (unsigned i = 0; i < nchains; i++) {
+        pp_squant *q = calloc(1, sizeof *q);
+        if (!q)
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the credible bounds");
+        chains[i].kstate = q;
+        pp_status st = pp_squant_alloc(q, n);
+        if (st != PP_OK)
+            return st;
+    }
+    return PP_OK;
+}
+
+void pp_squant_release_chains(struct pp_chain *chains, unsigned nchains)
+{
+    for (unsigned i = 0; chains && i < nchains; i++) {
+        pp_squant *q = chains[i].kstate;
+        if (q)
+            pp_squant_free(q);
+        free(q);
+        chains[i].kstate = NULL;
+    }
+}

@@ -17,6 +17,7 @@
 #include "pixpost/status.h"
 
 struct pp_moments; /* internal.h (which has no include guard of its own) */
+struct pp_chain;
 
 #define PP_SQUANT_WARM 10 /* kept draws before the recursion starts */
 
@@ -41,5 +42,17 @@ void pp_squant_free(pp_squant *q); /* accepts a zeroed struct */
  * whose running moments m already include it (m->count draws so far). */
 void pp_squant_add(const pp_squant_law *law, pp_squant *q, const double *v, size_t rows,
                    size_t cols, size_t stride, const struct pp_moments *m);
+
+/* Gives each of the nchains chains a pp_squant of n pixels as its kstate;
+ * pp_squant_release_chains frees them (also after a partial failure). */
+pp_status pp_squant_plan_chains(struct pp_chain *chains, unsigned nchains, size_t n);
+void pp_squant_release_chains(struct pp_chain *chains, unsigned nchains);
+
+/* Pooled bounds: chains[j].kstate points at chain j's pp_squant; their
+ * estimates averaged over the nchains chains (in chain order), mapped
+ * through exp when exp_map (a field sampled on the log scale), into lo and
+ * hi (n pixels each). */
+void pp_squant_pool(const struct pp_chain *chains, unsigned nchains, size_t n, int exp_map,
+                    double *lo, double *hi);
 
 #endif

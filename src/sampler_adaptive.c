@@ -68,13 +68,7 @@ static void release(pp_sampler *s)
         pp_fft_free_buffer(sh->y);
     free(sh);
     s->kshared = NULL;
-    for (unsigned i = 0; s->chain && i < s->cfg.chains; i++) {
-        pp_squant *q = s->chain[i].kstate;
-        if (q)
-            pp_squant_free(q);
-        free(q);
-        s->chain[i].kstate = NULL;
-    }
+    pp_squant_release_chains(s->chain, s->cfg.chains);
 }
 
 static pp_status prepare(pp_sampler *s)
@@ -86,15 +80,9 @@ static pp_status prepare(pp_sampler *s)
         return pp_fail(PP_ERR_NOMEM, "out of memory");
     s->kshared = sh;
     pp_squant_law_init(&sh->law, s->cfg.level);
-    for (unsigned i = 0; i < s->cfg.chains; i++) {
-        pp_squant *q = calloc(1, sizeof *q);
-        if (!q)
-            return pp_fail(PP_ERR_NOMEM, "out of memory");
-        s->chain[i].kstate = q;
-        pp_status st = pp_squant_alloc(q, s->height * s->width);
-        if (st != PP_OK)
-            return st;
-    }
+    pp_status st = pp_squant_plan_chains(s->chain, s->cfg.chains, s->height * s->width);
+    if (st != PP_OK)
+        return st;
     if (s->cfg.boundary != PP_BOUNDARY_PAD) {
         if (!(sh->y = pp_fft_alloc_real(s->gn)))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the frame");
@@ -312,18 +300,7 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
  * 0.674 sd covered 0.519 and the draws' own quartiles 0.487). */
 static pp_status finish(pp_sampler *s)
 {
-    size_t n = s->height * s->width;
-    double kc = (double)s->cfg.chains;
-    for (size_t i = 0; i < n; i++) {
-        double lo = 0, hi = 0;
-        for (unsigned j = 0; j < s->cfg.chains; j++) {
-            const pp_squant *q = s->chain[j].kstate;
-            lo += q->qlo[i] / kc;
-            hi += q->qhi[i] / kc;
-        }
-        s->lo->data[i] = lo;
-        s->hi->data[i] = hi;
-    }
+    pp_squant_pool(s->chain, s->cfg.chains, s->height * s->width, 0, s->lo->data, s->hi->data);
     snprintf(s->bound_method, sizeof s->bound_method,
              "streaming quantiles: per pixel and chain, Robbins-Monro recursion q += g (p - "
              "1{x <= q}), g = sd/(phi(z_p) t), started from the Gaussian guess after %d kept "

@@ -92,12 +92,12 @@
 #include <stdlib.h>
 #include <string.h>
 #include "internal.h"
+#include "quantiles.h"
 #include "vmath.h"
 
 #define T_FIELD 0.25 /* target acceptance of the field move (common practice) */
 #define T_HMC 0.65   /* hmc target (Beskos, Pillai, Roberts, Sanz-Serna & Stuart 2013) */
 #define T_SCALAR 0.44 /* target of the 1-D random walks (Roberts & Rosenthal 2001) */
-#define Q_WARM 10    /* kept draws before the quantile recursion starts */
 #define GPCN_MIN_BURN 200 /* burn-in below which gpcn's adaptation is warned about */
 #define LOW_ACCEPT 0.05   /* field-move acceptance below which a chain is warned about */
 
@@ -111,7 +111,7 @@ typedef struct pcn_shared {
     double *zstart;  /* grid: the start field */
     double x0;       /* data level: mean photons - b - R^2 (log/none photon models) */
     double m0, mdisp, delta0, a0; /* level, its dispersion, delta, A's gain at k=0 */
-    double plo, phi_z; /* lower tail probability, normal density at its quantile */
+    pp_squant_law law; /* the bounds' tail probabilities (src/quantiles.h) */
 } pcn_shared;
 
 /* A running chain's state and buffers: one per thread (the slot's kwork),
@@ -127,10 +127,8 @@ typedef struct pcn_chain {
     unsigned long acc;
 } pcn_chain;
 
-/* What outlives a chain's run (its c->kstate): the quantile estimates. */
-typedef struct pcn_bounds {
-    double *qlo, *qhi;
-} pcn_bounds;
+/* What outlives a chain's run (its c->kstate): the quantile estimates, a
+ * pp_squant (src/quantiles.h). */
 
 /* ---- likelihood ------------------------------------------------------- */
 
@@ -580,22 +578,7 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
     const double *x = sh->logx ? k->x : k->z;
     pp_chain_add_draw(s, c, x);
     pp_moments_add_block(&k->zm, k->z, s->height, s->width, s->gw);
-    double t = (double)k->zm.count, zq = pp_norm_quantile(1.0 - sh->plo);
-    const pcn_bounds *q = c->kstate;
-    for (size_t r = 0; r < s->height; r++)
-        for (size_t col = 0; col < s->width; col++) {
-            size_t i = r * s->width + col;
-            double zv = k->z[r * s->gw + col];
-            double sd = t > 1 ? sqrt(k->zm.m2[i] / (t - 1)) : 0.0, mu = k->zm.mean[i];
-            if (t <= Q_WARM) {
-                q->qlo[i] = mu - zq * sd;
-                q->qhi[i] = mu + zq * sd;
-                continue;
-            }
-            double g = sd / (sh->phi_z * t);
-            q->qlo[i] += g * (sh->plo - (zv <= q->qlo[i]));
-            q->qhi[i] += g * (1.0 - sh->plo - (zv <= q->qhi[i]));
-        }
+    pp_squant_add(&sh->law, c->kstate, k->z, s->height, s->width, s->gw, &k->zm);
     double *row = c->trace + c->kept * s->trace.ncols;
     row[PP_COL_LAMBDA] = sh->gauss ? c->lambda : NAN;
     row[PP_COL_DELTA] = c->delta;
@@ -797,18 +780,6 @@ static void pcn_free_work(void *work)
     free(k);
 }
 
-static pp_status plan_chain_bounds(pp_sampler *s, pp_chain *c)
-{
-    pcn_bounds *q = calloc(1, sizeof *q);
-    if (!q)
-        return fail_nomem();
-    c->kstate = q;
-    size_t n = s->height * s->width;
-    q->qlo = malloc(n * sizeof(double));
-    q->qhi = malloc(n * sizeof(double));
-    return q->qlo && q->qhi ? PP_OK : fail_nomem();
-}
-
 static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
 {
     pcn_chain *k = calloc(1, sizeof *k);
@@ -851,9 +822,7 @@ static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
     sh->logx = cfg->positivity == PP_POSITIVITY_LOG;
     sh->gauss = cfg->noise.kind == PP_NOISE_GAUSSIAN;
     sh->free_dc = s->q[0] == 0.0;
-    sh->plo = 0.5 * (1.0 - cfg->level);
-    double zq = pp_norm_quantile(1.0 - sh->plo);
-    sh->phi_z = exp(-0.5 * zq * zq) / sqrt(2 * PP_PI);
+    pp_squant_law_init(&sh->law, cfg->level);
     if (sh->gpcn && cfg->burn < GPCN_MIN_BURN)
         pp_sampler_warn(s,
                         "%s: a burn-in of %lu iterations is too short to adapt the proposal "
@@ -864,8 +833,8 @@ static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
     pp_status st = plan_likelihood(s, sh);
     if (st == PP_OK)
         st = plan_start(s, sh);
-    for (unsigned i = 0; st == PP_OK && i < cfg->chains; i++)
-        st = plan_chain_bounds(s, &s->chain[i]);
+    if (st == PP_OK)
+        st = pp_squant_plan_chains(s->chain, cfg->chains, s->height * s->width);
     for (unsigned b = 0; st == PP_OK && b < s->nslots; b++)
         st = plan_work(s, sh, &s->slot[b]);
     return st;
@@ -890,18 +859,8 @@ static pp_status prepare_hmc(pp_sampler *s)
 static pp_status pcn_finish(pp_sampler *s)
 {
     const pcn_shared *sh = s->kshared;
-    size_t n = s->height * s->width;
-    double kc = (double)s->cfg.chains;
-    for (size_t i = 0; i < n; i++) {
-        double lo = 0, hi = 0;
-        for (unsigned j = 0; j < s->cfg.chains; j++) {
-            const pcn_bounds *q = s->chain[j].kstate;
-            lo += q->qlo[i] / kc;
-            hi += q->qhi[i] / kc;
-        }
-        s->lo->data[i] = sh->logx ? exp(lo) : lo;
-        s->hi->data[i] = sh->logx ? exp(hi) : hi;
-    }
+    pp_squant_pool(s->chain, s->cfg.chains, s->height * s->width, sh->logx, s->lo->data,
+                   s->hi->data);
     for (unsigned j = 0; j < s->cfg.chains; j++)
         if (s->chain[j].acceptance < LOW_ACCEPT)
             pp_sampler_warn(s,
@@ -912,7 +871,7 @@ static pp_status pcn_finish(pp_sampler *s)
              "streaming quantiles: per pixel and chain, Robbins-Monro recursion q += g (p - "
              "1{z <= q}), g = sd/(phi(z_p) t), on %s, started from the Gaussian guess after %d "
              "kept draws, averaged over chains%s; 16 bytes per pixel per chain",
-             sh->logx ? "z = log x" : "x", Q_WARM, sh->logx ? " and mapped through exp" : "");
+             sh->logx ? "z = log x" : "x", PP_SQUANT_WARM, sh->logx ? " and mapped through exp" : "");
     return PP_OK;
 }
 
@@ -925,15 +884,7 @@ static void pcn_release(pp_sampler *s)
         free(sh);
         s->kshared = NULL;
     }
-    for (unsigned i = 0; s->chain && i < s->cfg.chains; i++) {
-        pcn_bounds *q = s->chain[i].kstate;
-        if (!q)
-            continue;
-        free(q->qlo);
-        free(q->qhi);
-        free(q);
-        s->chain[i].kstate = NULL;
-    }
+    pp_squant_release_chains(s->chain, s->cfg.chains);
 }
 
 const pp_kernel pp_kernel_pcn = {"pcn", prepare_pcn, pcn_run_chain, pcn_finish, pcn_release,
