@@ -131,6 +131,10 @@ int main(int argc, char **argv)
         fclose(st);
     printf("sec_iter=%.6g wall=%.6g rss_kb=%ld",
            wall * par / ((double)(cfg.iters + cfg.burn) * cfg.chains), wall, hwm);
+    pp_solver_stats ss;
+    pp_sampler_solver_stats(s, &ss);
+    if (ss.draws)
+        printf(" cg_mean=%.4g cg_max=%zu", (double)ss.iterations / (double)ss.draws, ss.most);
     if (pp_sampler_trace(s)->kept >= 6)
         print_ess(pp_sampler_trace(s));
     putchar('\n');

@@ -221,22 +221,15 @@ static void json_mtc(FILE *f, const pp_sampler *s)
  * and the block moves' acceptance per chain. */
 static void json_adaptive(FILE *f, const pp_sampler *s)
 {
-    unsigned long long draws = 0, iters = 0, capped = 0;
-    size_t most = 0;
-    for (unsigned k = 0; k < s->cfg.chains; k++) {
-        const pp_chain *c = &s->chain[k];
-        draws += c->solver_draws;
-        iters += c->solver_iters;
-        capped += c->solver_capped;
-        most = c->solver_max > most ? c->solver_max : most;
-    }
+    pp_solver_stats ss;
+    pp_sampler_solver_stats(s, &ss);
     fputs("  \"x_solver\": {\"method\": \"perturbation-optimisation, conjugate gradients "
           "with a Fourier preconditioner scaled by the weights\", \"draws\": ",
           f);
-    fprintf(f, "%llu, \"cg_iterations_mean\": ", draws);
-    json_number(f, draws ? (double)iters / (double)draws : NAN);
-    fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu},\n", most,
-            capped);
+    fprintf(f, "%llu, \"cg_iterations_mean\": ", ss.draws);
+    json_number(f, ss.draws ? (double)ss.iterations / (double)ss.draws : NAN);
+    fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu},\n", ss.most,
+            ss.capped);
     json_chain_moves(f, s); /* acceptance of the block log-precision moves */
 }
 

@@ -680,6 +680,18 @@ const char *pp_sampler_warning(const pp_sampler *s, size_t i)
 {
     return i < s->nwarnings ? s->warnings[i] : NULL;
 }
+void pp_sampler_solver_stats(const pp_sampler *s, pp_solver_stats *out)
+{
+    *out = (pp_solver_stats){0, 0, 0, 0};
+    for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
+        const pp_chain *c = &s->chain[k];
+        out->draws += c->solver_draws;
+        out->iterations += c->solver_iters;
+        out->capped += c->solver_capped;
+        out->most = c->solver_max > out->most ? c->solver_max : out->most;
+    }
+}
+
 size_t pp_sampler_note_count(const pp_sampler *s) { return s->nnotes; }
 const char *pp_sampler_note(const pp_sampler *s, size_t i)
 {

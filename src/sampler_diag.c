@@ -210,18 +210,18 @@ static void warn_hyperprior(pp_sampler *s)
  * less exact than the stated bound (src/sampler_adaptive.c). */
 static void warn_solver(pp_sampler *s)
 {
-    unsigned long long capped = 0, kept = 0;
-    for (unsigned k = 0; k < s->cfg.chains; k++) {
-        capped += s->chain[k].solver_capped;
+    unsigned long long kept = 0;
+    pp_solver_stats ss;
+    pp_sampler_solver_stats(s, &ss);
+    for (unsigned k = 0; k < s->cfg.chains; k++)
         kept += s->chain[k].kept;
-    }
-    if (capped)
+    if (ss.capped)
         pp_sampler_warn(s,
                         "the inner solver of the adaptive prior stopped at its iteration cap "
                         "in %llu draws after burn-in (of %llu kept): those draws are not "
                         "within the stated tolerance; a longer burn-in or --prior gmrf1 "
                         "avoids it",
-                        capped, kept * s->cfg.thin);
+                        ss.capped, kept * s->cfg.thin);
 }
 
 pp_status pp_sampler_diagnose(pp_sampler *s)

@@ -168,6 +168,17 @@ typedef struct pp_convergence {
 } pp_convergence;
 void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out);
 
+/* The inner linear solver of gibbs under the adaptive prior (conjugate
+ * gradients of the x-draws), summed over chains: draws made (burn-in
+ * included), CG iterations in total and the most in one draw, and draws
+ * after burn-in that stopped at the iteration cap. All 0 for the other
+ * samplers and priors. Valid after pp_sampler_run. */
+typedef struct pp_solver_stats {
+    unsigned long long draws, iterations, capped;
+    size_t most;
+} pp_solver_stats;
+void pp_sampler_solver_stats(const pp_sampler *s, pp_solver_stats *out);
+
 /* Notes (plain sentences): information about the data or the model that
  * does not make a run less trustworthy, e.g. that the PSF's transfer
  * function is zero at some frequencies (every Gaussian PSF of sigma above
