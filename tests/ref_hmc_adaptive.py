@@ -274,4 +274,44 @@ pptest.check(zk < 5, "kappa posterior mean %.4g vs reference %.4g: %.2f combined
              % (pp_kappa, ref_kappa, zk))
 pptest.check(zd < 5, "delta (exp mean s) posterior mean %.4g vs reference %.4g: %.2f combined se"
              % (pp_delta, ref_delta, zd))
+
+# ---- consistency: hmc (positivity none) vs gibbs on a Gaussian frame ---------
+# Not an outside source: pixpost's two kernels for the same adaptive model
+# (gibbs draws x | W exactly by perturbation-optimisation, hmc by split HMC
+# through the positivity-none path, whose prior gradient takes its own r2c).
+# 24 x 24 periodic, a step edge and a bright square, sd 3 noise. Tolerance 5
+# combined se per pixel (each from its mcse.tif; se of an sd from the ESS
+# (sd / mcse)^2 as above), 5 se for lambda, delta and kappa (summary mcse).
+gdir = os.path.join(root, "gauss")
+os.makedirs(gdir)
+gt = np.full((24, 24), 10.0)
+gt[:, 12:] += 50.0
+gt[5:9, 5:9] += 80.0
+tifffile.imwrite(os.path.join(gdir, "truth.tif"), gt.astype(np.float32))
+pptest.run(["simulate", os.path.join(gdir, "truth.tif"), "--psf", "gaussian:sigma=1.2", "--noise",
+            "gaussian:sigma=3", "--boundary", "periodic", "--seed", "2", "-o",
+            os.path.join(gdir, "frame.tif")])
+res = {}
+for kind in ("gibbs", "hmc"):
+    o = os.path.join(gdir, kind)
+    pptest.run(["sample", os.path.join(gdir, "frame.tif"), "--psf", "gaussian:sigma=1.2",
+                "--noise", "gaussian", "--prior", "adaptive:block=4", "--sampler", kind,
+                "--positivity", "none", "--boundary", "periodic", "--burn", "1000", "--iters",
+                "8000", "--seed", "3", "--quiet", "-o", o])
+    res[kind] = {m: tifffile.imread(os.path.join(o, m + ".tif")).astype(np.float64)
+                 for m in ("mean", "sd", "mcse")}
+    res[kind]["hyper"] = json.load(open(os.path.join(o, "summary.json")))["hyper"]
+g, h = res["gibbs"], res["hmc"]
+zm = np.abs(g["mean"] - h["mean"]) / np.hypot(g["mcse"], h["mcse"])
+ess_g, ess_h = (g["sd"] / g["mcse"]) ** 2, (h["sd"] / h["mcse"]) ** 2
+zs = np.abs(h["sd"] / g["sd"] - 1) / np.sqrt(1 / (2 * ess_g) + 1 / (2 * ess_h))
+print("gaussian: hmc vs gibbs worst mean %.2f se, worst sd %.2f se (sd ratio %.3f..%.3f)"
+      % (zm.max(), zs.max(), (h["sd"] / g["sd"]).min(), (h["sd"] / g["sd"]).max()))
+pptest.check(zm.max() < 5, "gaussian frame: hmc mean.tif vs gibbs within 5 se (worst %.2f)" % zm.max())
+pptest.check(zs.max() < 5, "gaussian frame: hmc sd.tif vs gibbs within 5 se (worst %.2f)" % zs.max())
+for key in ("lambda", "delta", "kappa"):
+    a, b = g["hyper"][key], h["hyper"][key]
+    zk = abs(a["mean"] - b["mean"]) / np.hypot(a["mcse"], b["mcse"])
+    pptest.check(zk < 5, "gaussian frame: %s hmc %.4g vs gibbs %.4g (%.2f se)"
+                 % (key, b["mean"], a["mean"], zk))
 pptest.done()
