@@ -279,9 +279,14 @@ pptest.check(zd < 5, "delta (exp mean s) posterior mean %.4g vs reference %.4g: 
 # Not an outside source: pixpost's two kernels for the same adaptive model
 # (gibbs draws x | W exactly by perturbation-optimisation, hmc by split HMC
 # through the positivity-none path, whose prior gradient takes its own r2c).
-# 24 x 24 periodic, a step edge and a bright square, sd 3 noise. Tolerance 5
-# combined se per pixel (each from its mcse.tif; se of an sd from the ESS
-# (sd / mcse)^2 as above), 5 se for lambda, delta and kappa (summary mcse).
+# 24 x 24 periodic, a step edge and a bright square, sd 3 noise. Tolerances:
+# means 5 combined se per pixel (each from its mcse.tif); lambda, delta and
+# kappa 5 combined se (summary mcse). sd: the pixel draws are a scale
+# mixture (heavy-tailed), so sd / sqrt(2 ESS) understates the error of an
+# sd (first run: 5.4 % of pixels beyond 3 such se, none biased: median
+# ratio 1.0017); instead se(sd)/sd ~ sqrt((k - 1) / (4 ESS)) with kurtosis
+# k <= 9 (assumed) and the smaller of the two ESS (sd/mcse)^2, 5 se per
+# pixel, and the median ratio over the 576 pixels within 1 % (a bias).
 gdir = os.path.join(root, "gauss")
 os.makedirs(gdir)
 gt = np.full((24, 24), 10.0)
@@ -304,9 +309,12 @@ for kind in ("gibbs", "hmc"):
 g, h = res["gibbs"], res["hmc"]
 zm = np.abs(g["mean"] - h["mean"]) / np.hypot(g["mcse"], h["mcse"])
 ess_g, ess_h = (g["sd"] / g["mcse"]) ** 2, (h["sd"] / h["mcse"]) ** 2
-zs = np.abs(h["sd"] / g["sd"] - 1) / np.sqrt(1 / (2 * ess_g) + 1 / (2 * ess_h))
-print("gaussian: hmc vs gibbs worst mean %.2f se, worst sd %.2f se (sd ratio %.3f..%.3f)"
-      % (zm.max(), zs.max(), (h["sd"] / g["sd"]).min(), (h["sd"] / g["sd"]).max()))
+ratio = h["sd"] / g["sd"]
+zs = np.abs(ratio - 1) / np.sqrt(8.0 / (4 * np.minimum(ess_g, ess_h)))
+print("gaussian: hmc vs gibbs worst mean %.2f se, worst sd %.2f se (sd ratio %.3f..%.3f, "
+      "median %.4f)" % (zm.max(), zs.max(), ratio.min(), ratio.max(), np.median(ratio)))
+pptest.check(abs(np.median(ratio) - 1) < 0.01,
+             "gaussian frame: median sd ratio hmc/gibbs %.4f within 1 %%" % np.median(ratio))
 pptest.check(zm.max() < 5, "gaussian frame: hmc mean.tif vs gibbs within 5 se (worst %.2f)" % zm.max())
 pptest.check(zs.max() < 5, "gaussian frame: hmc sd.tif vs gibbs within 5 se (worst %.2f)" % zs.max())
 for key in ("lambda", "delta", "kappa"):
