@@ -32,6 +32,23 @@ void pp_incr_apply(size_t h, size_t w, const double *wh, const double *wv, const
     }
 }
 
+void pp_incr_apply_add(size_t h, size_t w, const double *wh, const double *wv, const double *x,
+                       double *out)
+{
+    for (size_t i = 0; i < h; i++) {
+        size_t up = (i + h - 1) % h, dn = (i + 1) % h;
+        const double *xr = x + i * w, *xu = x + up * w, *xd = x + dn * w;
+        const double *whr = wh + i * w, *wvr = wv + i * w, *wvu = wv + up * w;
+        double *o = out + i * w;
+        for (size_t j = 0; j < w; j++) {
+            size_t l = j ? j - 1 : w - 1, r = j + 1 < w ? j + 1 : 0;
+            double c = xr[j];
+            o[j] += whr[j] * (c - xr[r]) + whr[l] * (c - xr[l]) + wvr[j] * (c - xd[j]) +
+                    wvu[j] * (c - xu[j]);
+        }
+    }
+}
+
 double pp_incr_quad(size_t h, size_t w, const double *wh, const double *wv, const double *x)
 {
     double s = 0.0;

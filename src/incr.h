@@ -22,6 +22,12 @@
 void pp_incr_apply(size_t h, size_t w, const double *wh, const double *wv, const double *x,
                    double *out);
 
+/* out += Dᵀ diag(wh, wv) D x (the same sums as pp_incr_apply, added to what
+ * out holds: a gradient that already holds another term). out must not
+ * alias x. */
+void pp_incr_apply_add(size_t h, size_t w, const double *wh, const double *wv, const double *x,
+                       double *out);
+
 /* The quadratic form xᵀ Dᵀ W D x = Σ wh dh² + Σ wv dv². */
 double pp_incr_quad(size_t h, size_t w, const double *wh, const double *wv, const double *x);
 

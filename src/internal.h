@@ -126,6 +126,9 @@ typedef struct pp_chain {
                         * (lambda, delta) move (else 0) */
     double step;       /* pcn/gpcn: the step beta (hmc: eps) fixed after burn-in; mtc: its
                         * proposal scale (else 0) */
+    double block_acceptance; /* hmc with the adaptive prior: acceptance of the block
+                              * log-precision moves over the whole run (gibbs keeps it
+                              * in acceptance; else 0) */
     /* The adaptive prior's inner solver (gibbs: CG of the x-draws; 0 else):
      * draws made, CG iterations in total and at most, and kept-phase draws
      * that stopped at the iteration cap. */

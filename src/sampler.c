@@ -126,7 +126,8 @@ static pp_status check_config(pp_sampler_config *cfg)
         cfg->kind = cfg->boundary == PP_BOUNDARY_PERIODIC && cfg->prior.kind != PP_PRIOR_ADAPTIVE
                         ? PP_SAMPLER_MTC
                         : PP_SAMPLER_GIBBS;
-    if (cfg->prior.kind == PP_PRIOR_ADAPTIVE && cfg->kind != PP_SAMPLER_GIBBS)
+    if (cfg->prior.kind == PP_PRIOR_ADAPTIVE && cfg->kind != PP_SAMPLER_GIBBS &&
+        cfg->kind != PP_SAMPLER_HMC)
         return pp_fail(PP_ERR_ARG, "--sampler %s: the adaptive prior (the default) runs with "
                                    "gibbs (gaussian noise) or hmc (photon counts); for %s add "
                                    "--prior gmrf1 (or gmrf2, matern)",

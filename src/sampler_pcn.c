@@ -38,6 +38,21 @@
  *   3. m (when free): random walk, flat prior (z shifted, x rescaled).
  *   4. lambda (gaussian, sigma free): exact Gamma draw given ||Ax - y||^2.
  *   5. delta (when free) again, centred: its exact Gamma draw given u.
+ * Adaptive prior (--prior adaptive, hmc only; src/adaptive.h): the prior
+ * part of the target is z'Dᵀ W D z / 2 (D ignores the level m) instead of
+ * |u|^2_dQ / 2. hmc keeps its Fourier-diagonal reference with delta = the
+ * level exp(mean s) (pp_adapt_level) and moves the difference through the
+ * kicks: the gradient holds the DFT of Dᵀ W D z (added before grad_phi's
+ * last transform: no extra transform with positivity log; one c2r for z and
+ * one r2c with none), and the energy z'Dᵀ W D z (one grid pass). Move 2 is
+ * adapt_level_move (the level of s, partially non-centred like delta_move);
+ * move 5 is W | z by pp_adapt_update (τ, the block log-precisions, κ), so
+ * the gradient is recomputed each iteration (+3 transforms, log). In the
+ * first burn / ADAPT_HOLD iterations W stays at the start's delta (the
+ * gmrf1 prior): W drawn from the over-smooth start field made the padding
+ * blocks' precisions climb to ~1e9 and the step fall to 1e-4 on the demo
+ * frame (a trap of slow mixing, not of the model). Per thread: wh, wv
+ * (16 bytes per grid pixel) and the blocks' state.
  * beta (hmc: eps) and the steps of 2-3 adapt during burn-in only
  * (Robbins-Monro on their logarithms towards acceptance 0.25 for the pCN
  * field moves, 0.65 for hmc, 0.44 for the scalars), and the weights of move
@@ -91,6 +106,8 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include "adaptive.h"
+#include "incr.h"
 #include "internal.h"
 #include "quantiles.h"
 #include "vmath.h"
@@ -100,10 +117,12 @@
 #define T_SCALAR 0.44 /* target of the 1-D random walks (Roberts & Rosenthal 2001) */
 #define GPCN_MIN_BURN 200 /* burn-in below which gpcn's adaptation is warned about */
 #define LOW_ACCEPT 0.05   /* field-move acceptance below which a chain is warned about */
+#define ADAPT_HOLD 4      /* adaptive prior: W held at the start's delta for burn / ADAPT_HOLD */
 
 /* Shared, read-only during the run. */
 typedef struct pcn_shared {
     int gpcn, hmc, logx, gauss, free_dc;
+    int adaptive;    /* hmc with --prior adaptive (see "adaptive prior" above) */
     double *data;    /* grid: photons (+R^2, clamped at 0) or y (gaussian) */
     double shift;    /* b + R^2 added to A x (photon models) */
     double lgam;     /* -sum lgamma(n + 1) over observed pixels (photon) */
@@ -125,6 +144,8 @@ typedef struct pcn_chain {
     double m, beta, dstep, mstep, phi, ss;
     double dref; /* delta of the partially non-centred move's weights */
     unsigned long acc;
+    pp_adapt *ad;     /* adaptive prior: its local precisions (src/adaptive.h) */
+    double *wh, *wv;  /* adaptive prior: the weights W on the grid's increments */
 } pcn_chain;
 
 /* What outlives a chain's run (its c->kstate): the quantile estimates, a
@@ -240,6 +261,8 @@ static void field_of(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
         return;
     }
     double invn = 1.0 / (double)s->gn;
+    if (sh->adaptive) /* the adaptive prior's terms need z */
+        z_of(s, c, u, m, z);
     for (size_t i = 0; i < s->gm; i++)
         c->cbuf[i] = u[i] * s->otf[i] * invn;
     pp_fft_inverse(s->fft, c->cbuf, ax);
@@ -407,6 +430,63 @@ static void delta_centred(const pp_sampler *s, const pcn_shared *sh, pp_chain *c
                             s->cfg.hyper_delta[1] + 0.5 * quad);
 }
 
+static double ref_delta(const pcn_chain *k)
+{
+    return pp_adapt_level(k->ad);
+}
+
+/* Adaptive prior: the global level of the block log-precisions s, the
+ * counterpart of delta_move. s -> s + dl in every block (W -> e^dl W, τ and
+ * the differences of s unchanged), dl ~ N(0, step^2), and each frequency of
+ * u rescaled by e^(-om(k) dl / 2) with delta_move's weights om(k) (fully
+ * non-centred where the prior dominates: there the increments' weighted
+ * squares w d^2 do not change). The joint density of src/adaptive.h
+ * changes by e^(N dl/2) (the blocks' factors, N the grid's pixels) and
+ * the quadratic form; p(s | κ) is blind to a common shift, and the level's
+ * Gamma hyperprior (pp_adapt_level_dlogp) enters the ratio. The proposal is symmetric (dl and -dl undo each
+ * other with om fixed, as dref is after burn-in), and the Jacobian is
+ * e^(sum over the real dimensions of -om dl / 2). Transforms as
+ * delta_move. Returns the acceptance probability. */
+static double adapt_level_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
+                               pcn_chain *k)
+{
+    const double fi = fisher_of(sh, c);
+    double dl = k->dstep * pp_rng_normal(&c->rng), ls = -0.5 * dl, ljac = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            if (i == 0 && sh->free_dc) {
+                k->up[0] = 0;
+                continue;
+            }
+            double pq = k->dref * s->q[i], om = pq > 0 ? pq / (pq + fi * s->otf2[i]) : 0.0;
+            k->up[i] = exp(om * ls) * k->u[i];
+            ljac += pp_half_weight(k2, s->gw) * om * ls;
+        }
+    field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
+    double ssn = 0, phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
+    double quad = pp_incr_quad(s->gh, s->gw, k->wh, k->wv, k->z);
+    double quadn = pp_incr_quad(s->gh, s->gw, k->wh, k->wv, k->zp);
+    double loga = k->phi - phin + 0.5 * (double)s->gn * dl - 0.5 * (exp(dl) * quadn - quad) + ljac +
+                  pp_adapt_level_dlogp(k->ad, dl);
+    double alpha = loga >= 0 ? 1.0 : exp(loga);
+    if (!isfinite(phin) || !(pp_rng_uniform(&c->rng) < alpha))
+        return isfinite(phin) && isfinite(loga) ? alpha : 0.0;
+    take_proposal(k, phin, ssn);
+    pp_adapt_shift(k->ad, dl, k->wh, k->wv);
+    c->delta = ref_delta(k);
+    return alpha;
+}
+
+/* Adaptive prior: W | z by src/adaptive.c (τ, the block log-precisions, κ);
+ * delta (the reference's prior precision) follows the level. */
+static void adapt_weights(const pp_sampler *s, pp_chain *c, pcn_chain *k)
+{
+    (void)s;
+    pp_adapt_update(k->ad, k->z, k->wh, k->wv, &c->rng);
+    c->delta = ref_delta(k);
+}
+
 /* level move (flat prior); returns the acceptance probability. */
 static double level_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
 {
@@ -431,9 +511,12 @@ static double level_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
 
 /* grad Phi in Fourier (the DFT of x * A'r, log; A'r, none) into out, from x
  * and A x on the grid; r is the likelihood residual on the observed pixels.
- * Transforms: 3 (log) or 1 (none). */
-static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, const double *x,
-                     const double *ax, pp_complex *out)
+ * With the adaptive prior, out also holds the prior's gradient, the DFT of
+ * Dᵀ W D z (z the field on the grid; added to x * A'r before the last
+ * transform, log; its own r2c, none). Transforms: 3 (log) or 1 (none; 2
+ * with the adaptive prior). */
+static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, const pcn_chain *k,
+                     const double *z, const double *x, const double *ax, pp_complex *out)
 {
     const double invn = 1.0 / (double)s->gn;
     double *r = c->rbuf;
@@ -457,7 +540,14 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
         pp_fft_inverse(s->fft, out, r);
         for (size_t i = 0; i < s->gn; i++)
             r[i] *= x[i];
+        if (sh->adaptive)
+            pp_incr_apply_add(s->gh, s->gw, k->wh, k->wv, z, r);
         pp_fft_forward(s->fft, r, out);
+    } else if (sh->adaptive) {
+        pp_incr_apply(s->gh, s->gw, k->wh, k->wv, z, r);
+        pp_fft_forward(s->fft, r, c->cbuf);
+        for (size_t i = 0; i < s->gm; i++)
+            out[i] += c->cbuf[i];
     }
 }
 
@@ -469,10 +559,11 @@ static void newton_centre(const pp_sampler *s, const pcn_shared *sh, pp_chain *c
                           double w)
 {
     const double del = c->delta, fi = fisher_of(sh, c);
-    grad_phi(s, sh, c, k->x, k->ax, c->cbuf2);
+    grad_phi(s, sh, c, k, k->z, k->x, k->ax, c->cbuf2);
     for (size_t i = sh->free_dc ? 1 : 0; i < s->gm; i++) {
         double p = del * s->q[i] + fi * s->otf2[i];
-        pp_complex a = k->u[i] - (del * s->q[i] * k->u[i] + c->cbuf2[i]) / p;
+        pp_complex prior = sh->adaptive ? 0 : del * s->q[i] * k->u[i]; /* adaptive: in cbuf2 */
+        pp_complex a = k->u[i] - (prior + c->cbuf2[i]) / p;
         k->ctr[i] += w * (a - k->ctr[i]);
     }
 }
@@ -496,7 +587,8 @@ static void hmc_kick_rotate(const pp_sampler *s, const pcn_shared *sh, const pp_
     for (size_t i = sh->free_dc ? 1 : 0; i < s->gm; i++) {
         double pq = del * s->q[i], p = pq + fi * s->otf2[i];
         pp_complex up = k->up[i], a = k->ctr[i];
-        pp_complex v = k->v[i] - h * (k->gp[i] + pq * up - p * (up - a)) / p;
+        pp_complex f = sh->adaptive ? k->gp[i] : k->gp[i] + pq * up; /* adaptive: in gp */
+        pp_complex v = k->v[i] - h * (f - p * (up - a)) / p;
         if (rotate) {
             pp_complex w = up - a;
             k->up[i] = a + cs * w + sn * v;
@@ -506,11 +598,15 @@ static void hmc_kick_rotate(const pp_sampler *s, const pcn_shared *sh, const pp_
     }
 }
 
-/* 2 (potential prior part + kinetic energy): u'(delta Q)u + v'Pv. */
+/* 2 (potential prior part + kinetic energy): u'(delta Q)u + v'Pv, or with
+ * the adaptive prior z'Dᵀ W D z + v'Pv (z the field of u on the grid). */
 static double hmc_quad(const pp_sampler *s, const pcn_shared *sh, const pp_chain *c,
-                       const pp_complex *u, const pp_complex *v)
+                       const pcn_chain *k, const pp_complex *u, const double *z,
+                       const pp_complex *v)
 {
-    return half_form(s, sh, u, c->delta, 0.0) + half_form(s, sh, v, c->delta, fisher_of(sh, c));
+    double prior = sh->adaptive ? pp_incr_quad(s->gh, s->gw, k->wh, k->wv, z)
+                                : half_form(s, sh, u, c->delta, 0.0);
+    return prior + half_form(s, sh, v, c->delta, fisher_of(sh, c));
 }
 
 /* The trajectory: about a quarter period of the reference (pi/2), which
@@ -523,7 +619,7 @@ static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, p
 {
     const double del = c->delta, fi = fisher_of(sh, c);
     if (!k->gvalid) {
-        grad_phi(s, sh, c, k->x, k->ax, k->g);
+        grad_phi(s, sh, c, k, k->z, k->x, k->ax, k->g);
         k->gvalid = 1;
     }
     /* step jittered by +-20 % against periodic trajectories (Neal 2011) */
@@ -538,7 +634,7 @@ static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, p
         k->v[i] /= sqrt(del * s->q[i] + fi * s->otf2[i]);
     if (sh->free_dc)
         k->v[0] = 0;
-    double h0 = k->phi + 0.5 * hmc_quad(s, sh, c, k->u, k->v);
+    double h0 = k->phi + 0.5 * hmc_quad(s, sh, c, k, k->u, k->z, k->v);
     memcpy(k->up, k->u, s->gm * sizeof(pp_complex));
     memcpy(k->gp, k->g, s->gm * sizeof(pp_complex));
     const double cs = cos(eps), sn = sin(eps);
@@ -552,11 +648,11 @@ static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, p
         phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
         if (!isfinite(phin))
             return 0.0;
-        grad_phi(s, sh, c, k->xp, k->axp, k->gp);
+        grad_phi(s, sh, c, k, k->zp, k->xp, k->axp, k->gp);
         int more = l + 1 < steps;
         hmc_kick_rotate(s, sh, c, k, more ? eps : 0.5 * eps, cs, sn, more);
     }
-    double h1 = phin + 0.5 * hmc_quad(s, sh, c, k->up, k->v);
+    double h1 = phin + 0.5 * hmc_quad(s, sh, c, k, k->up, k->zp, k->v);
     double loga = h0 - h1, alpha = loga >= 0 ? 1.0 : exp(loga);
     if (!isfinite(loga))
         return 0.0;
@@ -583,6 +679,8 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
     row[PP_COL_LAMBDA] = sh->gauss ? c->lambda : NAN;
     row[PP_COL_DELTA] = c->delta;
     row[PP_COL_LOGLIK] = loglik_of(s, sh, c, k);
+    if (sh->adaptive)
+        row[s->col_kappa] = pp_adapt_kappa(k->ad);
     for (size_t p = 0; p < s->nprobe; p++)
         row[s->col_probe0 + p] = x[s->probe_r[p] * s->gw + s->probe_c[p]];
     c->kept++;
@@ -605,6 +703,11 @@ static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k
     memcpy(k->ctr, k->u, s->gm * sizeof(pp_complex));
     field_of(s, sh, c, k->u, k->m, k->z, k->x, k->ax);
     k->phi = phi_of(s, sh, k->ax, 1.0, 0.0, c->lambda, &k->ss);
+    if (sh->adaptive) { /* s = log delta and τ = 1: W = delta, the gmrf1 prior (see ADAPT_HOLD) */
+        pp_adapt_start(k->ad, c->delta);
+        for (size_t i = 0; i < s->gn; i++)
+            k->wh[i] = k->wv[i] = c->delta;
+    }
     if (sh->gpcn)
         newton_centre(s, sh, c, k, 1.0);
     k->beta = sh->gpcn ? 0.5 : 0.1;
@@ -643,7 +746,7 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
         if (burn)
             k->dref = c->delta;
         if (!fix_d) {
-            double ad = delta_move(s, sh, c, k);
+            double ad = sh->adaptive ? adapt_level_move(s, sh, c, k) : delta_move(s, sh, c, k);
             if (burn)
                 k->dstep = adapt(k->dstep, ad, T_SCALAR, t, 5.0);
         }
@@ -659,8 +762,13 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
         }
         if (!fix_l || c->delta != d_was || k->m != m_was)
             k->gvalid = 0; /* hmc: grad Phi changed with the state */
-        if (!fix_d) /* leaves u, hence Phi and its gradient, as they are */
+        if (sh->adaptive) { /* W moves (after the hold), and the prior's gradient with it */
+            if (t >= cfg->burn / ADAPT_HOLD)
+                adapt_weights(s, c, k);
+            k->gvalid = 0;
+        } else if (!fix_d) { /* leaves u, hence Phi and its gradient, as they are */
             delta_centred(s, sh, c, k);
+        }
         if (sh->gpcn && t < half) /* centre: mean of the last <= 50 Newton points */
             newton_centre(s, sh, c, k, 1.0 / (double)(t + 2 < 50 ? t + 2 : 50));
         if (!(isfinite(c->delta) && c->delta > 0 && isfinite(k->m) && isfinite(k->phi)))
@@ -675,6 +783,11 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
     }
     c->acceptance = (double)k->acc / (double)cfg->iters;
     c->step = k->beta;
+    if (sh->adaptive) {
+        unsigned long long acc, tried;
+        pp_adapt_acceptance(k->ad, &acc, &tried);
+        c->block_acceptance = tried ? (double)acc / (double)tried : 0;
+    }
     c->condvar_sum = 0;
     return PP_OK;
 }
@@ -777,6 +890,9 @@ static void pcn_free_work(void *work)
     for (int j = 0; j < 12; j++)
         pp_fft_free_buffer(bufs[j]);
     pp_moments_free(&k->zm);
+    pp_adapt_free(k->ad);
+    pp_fft_free_buffer(k->wh);
+    pp_fft_free_buffer(k->wv);
     free(k);
 }
 
@@ -801,6 +917,16 @@ static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
         *g[i] = pp_fft_alloc_real(s->gn);
     if (!k->u || !k->up || !k->ctr || !k->z || !k->zp || !k->x || !k->xp || !k->ax || !k->axp)
         return fail_nomem();
+    if (sh->adaptive) {
+        pp_status st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block,
+                                       s->cfg.prior.nu, s->cfg.hyper_delta, &k->ad);
+        if (st != PP_OK)
+            return st;
+        k->wh = pp_fft_alloc_real(s->gn);
+        k->wv = pp_fft_alloc_real(s->gn);
+        if (!k->wh || !k->wv)
+            return fail_nomem();
+    }
     return pp_moments_init(&k->zm, s->height * s->width);
 }
 
@@ -823,6 +949,9 @@ static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
     sh->gauss = cfg->noise.kind == PP_NOISE_GAUSSIAN;
     sh->free_dc = s->q[0] == 0.0;
     pp_squant_law_init(&sh->law, cfg->level);
+    sh->adaptive = cfg->prior.kind == PP_PRIOR_ADAPTIVE; /* hmc only (sampler.c checks) */
+    if (sh->adaptive && (s->gh < 2 || s->gw < 2))
+        return pp_fail(PP_ERR_ARG, "--prior adaptive: the frame must be at least 2 x 2 pixels");
     if (sh->gpcn && cfg->burn < GPCN_MIN_BURN)
         pp_sampler_warn(s,
                         "%s: a burn-in of %lu iterations is too short to adapt the proposal "

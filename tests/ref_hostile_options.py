@@ -100,6 +100,11 @@ cases = [
     (["--sampler", "gibbs", "--noise", "poisson:gain=1,offset=0"], ["--sampler gibbs",
                                                                      "gaussian noise"]),
     (["--iters", "5", "--iters", "6"], ["--iters", "given twice"]),
+    # the adaptive prior runs with gibbs and hmc only (src/sampler.c check_config)
+    (["--prior", "adaptive", "--sampler", "pcn", "--noise", "poisson:gain=1,offset=0"],
+     ["--sampler pcn", "adaptive prior", "hmc", "--prior gmrf1"]),
+    (["--prior", "adaptive", "--sampler", "gpcn", "--noise", "poisson:gain=1,offset=0"],
+     ["--sampler gpcn", "adaptive prior", "hmc", "--prior gmrf1"]),
 ]
 for extra, words in cases:
     has_psf = "--psf" in extra

@@ -70,6 +70,14 @@ static void check_grid(size_t h, size_t w)
     double scale = 1e3 * 8; /* largest weight x largest |increment| x 4 terms */
     CHECK(maxdiff(a, b, n) <= 1e-13 * scale, "%zux%zu apply vs scatter: %g", h, w,
           maxdiff(a, b, n));
+    /* apply_add: the same sums added to what out holds (u as the prior content) */
+    for (size_t i = 0; i < n; i++)
+        c[i] = u[i];
+    pp_incr_apply_add(h, w, wh, wv, x, c);
+    double addmax = 0.0;
+    for (size_t i = 0; i < n; i++)
+        addmax = fmax(addmax, fabs(c[i] - (u[i] + b[i])));
+    CHECK(addmax <= 1e-13 * scale, "%zux%zu apply_add vs u + apply: %g", h, w, addmax);
     double quad = pp_incr_quad(h, w, wh, wv, x), xpx = dot(x, b, n);
     CHECK(fabs(quad - xpx) <= 1e-12 * fabs(quad), "%zux%zu quad %.17g vs <x,DWDx> %.17g", h, w,
           quad, xpx);
