@@ -78,7 +78,8 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
                         "blur removed) and follows the actual error better than a stationary "
                         "prior's, but it is still model-based. On real test images it was "
                         "conservative on flat areas (errors there about half the sd; README, "
-                        "\"Which prior\").";
+                        "\"Which prior\"). Squares of the prior's block size (8 px by default) "
+                        "are the prior's blocks, not features of the specimen.";
     else if (!photons)
         in.sd_caption = "under a stationary prior and Gaussian noise the posterior sd does not "
                         "depend on the data: it is nearly the same everywhere (apart from the "
