@@ -23,7 +23,8 @@ struct pp_adapt {
     double *half;  /* nb: n_B / 2 */
     double *r;     /* nb: R_B scratch */
     double *tb;    /* nb: T_B = Σ_{e in B} τ_e scratch */
-    double *es;    /* nb: e^{s_B} before the block moves, then the factor e^{s_new - s_old} */
+    double *es;    /* nb scratch of pp_adapt_update, in turn: e^{s_B} for the τ draws, s_B
+                    * after the scale moves, the factor e^{s_new - s_old} */
     double kappa;
     double ha, hb;   /* Gamma(ha, hb) hyperprior on the level e^{L}, L = the mean
                       * of s over the frame's blocks (what pp_adapt_level reports) */
@@ -34,7 +35,15 @@ struct pp_adapt {
 
 /* log p(L) of the level L = mean s under the Gamma(ha, hb) hyperprior on
  * δ = e^{L} (with the Jacobian dδ/dL = δ): ha L − hb e^{L}. */
-double pp_adapt_level(const pp_adapt *a);
+/* Σ s_B over the blocks that hold frame pixels. */
+static double frame_sum(const pp_adapt *a)
+{
+    double m = 0;
+    for (size_t bi = 0; bi < a->fmh; bi++)
+        for (size_t bj = 0; bj < a->fmw; bj++)
+            m += a->s[bi * a->mw + bj];
+    return m;
+}
 
 static double level_logp(const pp_adapt *a, double L)
 {
@@ -227,7 +236,7 @@ static void block_move(pp_adapt *a, size_t b, pp_rng *rng)
 void pp_adapt_update(pp_adapt *a, const double *x, double *wh, double *wv, pp_rng *rng)
 {
     double z[2 * CHUNK];
-    a->ssum = log(pp_adapt_level(a)) * (double)a->nf; /* afresh: no drift by rounding */
+    a->ssum = frame_sum(a); /* afresh: no drift by rounding */
     for (size_t b = 0; b < a->nb; b++) {
         a->r[b] = a->tb[b] = 0;
         a->es[b] = exp(a->s[b]);
@@ -307,11 +316,7 @@ void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv)
 
 double pp_adapt_level(const pp_adapt *a)
 {
-    double m = 0; /* summed afresh (ssum drifts by rounding) */
-    for (size_t bi = 0; bi < a->fmh; bi++)
-        for (size_t bj = 0; bj < a->fmw; bj++)
-            m += a->s[bi * a->mw + bj];
-    return exp(m / (double)a->nf);
+    return exp(frame_sum(a) / (double)a->nf); /* summed afresh: ssum drifts by rounding */
 }
 
 double pp_adapt_kappa(const pp_adapt *a) { return a->kappa; }

@@ -14,8 +14,11 @@
 /* Dᵀ(gh, gv)[i][j] = gh[i][j-1] - gh[i][j] + gv[i-1][j] - gv[i][j] (wrapping).
  * apply writes Dᵀ(wh dh, wv dv) per pixel from the four increments that
  * touch it; perturb writes Dᵀ(sqrt(wh) ξh, sqrt(wv) ξv) the same way. */
-void pp_incr_apply(size_t h, size_t w, const double *wh, const double *wv, const double *x,
-                   double *out)
+/* out = Dᵀ W D x (add = 0) or out += Dᵀ W D x (add = 1); one body for both
+ * (the flag is a constant at each call below, so each inlines to its own
+ * loop). */
+static inline void apply_rows(size_t h, size_t w, const double *wh, const double *wv,
+                              const double *x, double *out, int add)
 {
     for (size_t i = 0; i < h; i++) {
         size_t up = (i + h - 1) % h, dn = (i + 1) % h;
@@ -26,27 +29,23 @@ void pp_incr_apply(size_t h, size_t w, const double *wh, const double *wv, const
             size_t l = j ? j - 1 : w - 1, r = j + 1 < w ? j + 1 : 0;
             double c = xr[j];
             /* own increments (weight at this pixel) minus incoming ones */
-            o[j] = whr[j] * (c - xr[r]) + whr[l] * (c - xr[l]) + wvr[j] * (c - xd[j]) +
-                   wvu[j] * (c - xu[j]);
+            double v = whr[j] * (c - xr[r]) + whr[l] * (c - xr[l]) + wvr[j] * (c - xd[j]) +
+                       wvu[j] * (c - xu[j]);
+            o[j] = add ? o[j] + v : v;
         }
     }
+}
+
+void pp_incr_apply(size_t h, size_t w, const double *wh, const double *wv, const double *x,
+                   double *out)
+{
+    apply_rows(h, w, wh, wv, x, out, 0);
 }
 
 void pp_incr_apply_add(size_t h, size_t w, const double *wh, const double *wv, const double *x,
                        double *out)
 {
-    for (size_t i = 0; i < h; i++) {
-        size_t up = (i + h - 1) % h, dn = (i + 1) % h;
-        const double *xr = x + i * w, *xu = x + up * w, *xd = x + dn * w;
-        const double *whr = wh + i * w, *wvr = wv + i * w, *wvu = wv + up * w;
-        double *o = out + i * w;
-        for (size_t j = 0; j < w; j++) {
-            size_t l = j ? j - 1 : w - 1, r = j + 1 < w ? j + 1 : 0;
-            double c = xr[j];
-            o[j] += whr[j] * (c - xr[r]) + whr[l] * (c - xr[l]) + wvr[j] * (c - xd[j]) +
-                    wvu[j] * (c - xu[j]);
-        }
-    }
+    apply_rows(h, w, wh, wv, x, out, 1);
 }
 
 double pp_incr_quad(size_t h, size_t w, const double *wh, const double *wv, const double *x)

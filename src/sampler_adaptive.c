@@ -121,27 +121,24 @@ static void start_field(const pp_sampler *s, pp_chain *c, double *x)
 }
 
 /* A x on the grid into c->rbuf (one FFT pair); returns ‖Ax − y‖² over the
- * frame (*obs) and over the grid (return value), y the data grid. */
+ * frame, y the data grid (the padding's part comes from augment), and in
+ * *xmean the grid mean of x, read off the transform's zero frequency. */
 static double residual(const pp_sampler *s, pp_chain *c, const double *x, const double *y,
-                       double *obs)
+                       double *xmean)
 {
     const double invn = 1.0 / (double)s->gn;
     pp_fft_forward(s->fft, x, c->cbuf);
+    *xmean = creal(c->cbuf[0]) * invn;
     for (size_t i = 0; i < s->gm; i++)
         c->cbuf[i] *= c->otf[i] * invn;
     pp_fft_inverse(s->fft, c->cbuf, c->rbuf);
-    double so = 0, sp = 0;
-    for (size_t r = 0; r < s->gh; r++)
-        for (size_t col = 0; col < s->gw; col++) {
-            size_t i = r * s->gw + col;
-            double d = c->rbuf[i] - y[i];
-            if (r < s->height && col < s->width)
-                so += d * d;
-            else
-                sp += d * d;
+    double so = 0;
+    for (size_t r = 0; r < s->height; r++)
+        for (size_t col = 0; col < s->width; col++) {
+            double d = c->rbuf[r * s->gw + col] - y[r * s->gw + col];
+            so += d * d;
         }
-    *obs = so;
-    return so + sp;
+    return so;
 }
 
 /* Interweaving move on the global level (Yu & Meng, JCGS 20, 2011, as
@@ -152,17 +149,13 @@ static double residual(const pp_sampler *s, pp_chain *c, const double *x, const 
  * likelihood exp(−λ/2 (V σ² − 2 C σ)) with V = ‖Au‖², C = <Au, y − Ac>
  * over the grid; σ' is proposed from that Gaussian and accepted with the
  * ratio (σ/σ')² p(L')/p(L) (independence Metropolis, exact). On acceptance x, A x (in
- * rbuf), the residual and the weights move with it. Returns the new
- * residual sums (*ss grid, *obs frame). One grid pass (two if accepted). */
+ * rbuf), the frame's residual *obs and the weights move with it. cm: the
+ * grid mean of x (from residual). One grid pass (two if accepted). */
 static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const double *y,
-                       double *ss, double *obs)
+                       double cm, double *obs)
 {
     const size_t n = s->gn;
     const double a0 = creal(c->otf[0]);
-    double cm = 0;
-    for (size_t i = 0; i < n; i++)
-        cm += k->x[i];
-    cm /= (double)n;
     double s1 = 1.0 / sqrt(c->delta), v0 = 0, c0 = 0;
     for (size_t i = 0; i < n; i++) {
         double g = c->rbuf[i] - cm * a0;
@@ -176,32 +169,35 @@ static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const do
     double u = pp_rng_uniform(&c->rng);
     if (!(sp > 0) || !(log(u) < 2.0 * log(s1 / sp) + pp_adapt_level_dlogp(k->ad, -2.0 * log(sp / s1))))
         return;
-    double ratio = sp / s1, so = 0, sa = 0;
+    double ratio = sp / s1, so = 0;
     for (size_t r = 0; r < s->gh; r++)
         for (size_t col = 0; col < s->gw; col++) {
             size_t i = r * s->gw + col;
             k->x[i] = cm + ratio * (k->x[i] - cm);
             c->rbuf[i] = cm * a0 + ratio * (c->rbuf[i] - cm * a0);
             double d = c->rbuf[i] - y[i];
-            sa += d * d;
             if (r < s->height && col < s->width)
                 so += d * d;
         }
-    *ss = sa;
     *obs = so;
     pp_adapt_shift(k->ad, -2.0 * log(ratio), k->wh, k->wv);
     c->delta = pp_adapt_level(k->ad);
 }
 
-/* Pad: the padding pixels of yaug redrawn from N(Ax, 1/λ) (Ax in rbuf). */
-static void augment(const pp_sampler *s, pp_chain *c)
+/* Pad: the padding pixels of yaug redrawn from N(Ax, 1/λ) (Ax in rbuf);
+ * returns their residual sum of squares ‖yaug − Ax‖² over the padding. */
+static double augment(const pp_sampler *s, pp_chain *c)
 {
     const double sd = 1.0 / sqrt(c->lambda);
+    double sp = 0;
     for (size_t r = 0; r < s->gh; r++)
         for (size_t col = r < s->height ? s->width : 0; col < s->gw; col++) {
             size_t i = r * s->gw + col;
-            c->yaug[i] = c->rbuf[i] + sd * pp_rng_normal(&c->rng);
+            double e = sd * pp_rng_normal(&c->rng);
+            c->yaug[i] = c->rbuf[i] + e;
+            sp += e * e;
         }
+    return sp;
 }
 
 #define RANGE_MSG "the noise or prior precision left the floating-point range"
@@ -229,9 +225,9 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     start_field(s, c, k->x);
     pp_adapt_start(k->ad, c->delta);
     pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
-    double ss_obs, ss;
+    double ss_obs, ss, xmean;
     if (pad) {
-        residual(s, c, k->x, y, &ss_obs);
+        residual(s, c, k->x, y, &xmean);
         augment(s, c);
     }
     const unsigned long total = cfg->burn + cfg->iters;
@@ -256,17 +252,9 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
             c->solver_max = ps.iters;
         if (st == PP_ERR_LIMIT && t >= cfg->burn)
             c->solver_capped++;
-        ss = residual(s, c, k->x, y, &ss_obs);
-        level_move(s, c, k, y, &ss, &ss_obs);
-        if (pad) {
-            augment(s, c);
-            ss = ss_obs;
-            for (size_t r = 0; r < s->gh; r++)
-                for (size_t col = r < s->height ? s->width : 0; col < s->gw; col++) {
-                    double d = c->rbuf[r * s->gw + col] - y[r * s->gw + col];
-                    ss += d * d;
-                }
-        }
+        ss_obs = residual(s, c, k->x, y, &xmean);
+        level_move(s, c, k, y, xmean, &ss_obs);
+        ss = ss_obs + (pad ? augment(s, c) : 0.0); /* periodic: the frame is the grid */
         if (!fix_l)
             c->lambda = pp_rng_gamma(&c->rng, shape_l, cfg->hyper_lambda[1] + 0.5 * ss);
         pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);

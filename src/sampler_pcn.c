@@ -370,6 +370,37 @@ static double field_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
     return alpha;
 }
 
+/* The partially non-centred rescaling shared by delta_move and
+ * adapt_level_move: up = e^(om(k) ls) u per frequency, om(k) = dref q /
+ * (dref q + I_F |A|^2) (the prior's share); returns the log-Jacobian
+ * sum over the real dimensions of om ls. With quad/quadn (delta_move) also
+ * the stationary quadratic forms u'Qu and up'Qu (Parseval, times N). One
+ * pass over the half spectrum. */
+static double scale_u(const pp_sampler *s, const pcn_shared *sh, pcn_chain *k, double fi,
+                      double ls, double *quad, double *quadn)
+{
+    double ljac = 0;
+    for (size_t k1 = 0; k1 < s->gh; k1++)
+        for (size_t k2 = 0; k2 < s->gwh; k2++) {
+            size_t i = k1 * s->gwh + k2;
+            if (i == 0 && sh->free_dc) {
+                k->up[0] = 0;
+                continue;
+            }
+            double pq = k->dref * s->q[i], om = pq > 0 ? pq / (pq + fi * s->otf2[i]) : 0.0;
+            double w = pp_half_weight(k2, s->gw), sc = exp(om * ls);
+            pp_complex u = k->u[i];
+            k->up[i] = sc * u;
+            if (quad) {
+                double a2 = creal(u) * creal(u) + cimag(u) * cimag(u);
+                *quad += w * s->q[i] * a2;
+                *quadn += w * s->q[i] * sc * sc * a2;
+            }
+            ljac += w * om * ls;
+        }
+    return ljac;
+}
+
 /* delta move, partially non-centred (Papaspiliopoulos, Roberts & Skold,
  * Statist. Sci. 22, 2007): log delta' = log delta + step N(0,1), and each
  * frequency of u rescaled by s^w(k), s = sqrt(delta/delta'), where
@@ -386,23 +417,7 @@ static double delta_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
     const pp_sampler_config *cfg = &s->cfg;
     const double del = c->delta, fi = fisher_of(sh, c);
     double dn = del * exp(k->dstep * pp_rng_normal(&c->rng)), ls = 0.5 * log(del / dn);
-    double quad = 0, quadn = 0, ljac = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
-        for (size_t k2 = 0; k2 < s->gwh; k2++) {
-            size_t i = k1 * s->gwh + k2;
-            if (i == 0 && sh->free_dc) {
-                k->up[0] = 0;
-                continue;
-            }
-            double pq = k->dref * s->q[i], om = pq > 0 ? pq / (pq + fi * s->otf2[i]) : 0.0;
-            double w = pp_half_weight(k2, s->gw), sc = exp(om * ls);
-            pp_complex u = k->u[i];
-            double a2 = creal(u) * creal(u) + cimag(u) * cimag(u);
-            k->up[i] = sc * u;
-            quad += w * s->q[i] * a2;
-            quadn += w * s->q[i] * sc * sc * a2;
-            ljac += w * om * ls;
-        }
+    double quad = 0, quadn = 0, ljac = scale_u(s, sh, k, fi, ls, &quad, &quadn);
     const double invn = 1.0 / (double)s->gn;
     field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
     double ssn = 0, phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
@@ -451,18 +466,8 @@ static double adapt_level_move(const pp_sampler *s, const pcn_shared *sh, pp_cha
                                pcn_chain *k)
 {
     const double fi = fisher_of(sh, c);
-    double dl = k->dstep * pp_rng_normal(&c->rng), ls = -0.5 * dl, ljac = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
-        for (size_t k2 = 0; k2 < s->gwh; k2++) {
-            size_t i = k1 * s->gwh + k2;
-            if (i == 0 && sh->free_dc) {
-                k->up[0] = 0;
-                continue;
-            }
-            double pq = k->dref * s->q[i], om = pq > 0 ? pq / (pq + fi * s->otf2[i]) : 0.0;
-            k->up[i] = exp(om * ls) * k->u[i];
-            ljac += pp_half_weight(k2, s->gw) * om * ls;
-        }
+    double dl = k->dstep * pp_rng_normal(&c->rng), ls = -0.5 * dl;
+    double ljac = scale_u(s, sh, k, fi, ls, NULL, NULL);
     field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
     double ssn = 0, phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
     double quad = pp_incr_quad(s->gh, s->gw, k->wh, k->wv, k->z);
