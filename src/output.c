@@ -235,8 +235,9 @@ static void json_adaptive(FILE *f, const pp_sampler *s)
 
 /* The run's headline figures (pp_sampler_convergence), under one key that
  * batch reads back exactly when it resumes (its first four keys, in this
- * order), then the two parts, the iterations to ask for (null when none)
- * and the verdict sentence (pp_convergence_verdict). */
+ * order), then the two parts, the iterations to ask for (null when none),
+ * the part that failed (pp_convergence_failed; null when converged) and
+ * the verdict sentence (pp_convergence_verdict). */
 static void json_convergence(FILE *f, const pp_sampler *s)
 {
     pp_convergence cv;
@@ -264,6 +265,11 @@ static void json_convergence(FILE *f, const pp_sampler *s)
         fprintf(f, "    \"iters_suggested\": %lu,\n", cv.iters_suggested);
     else
         fputs("    \"iters_suggested\": null,\n", f);
+    fputs("    \"failed\": ", f);
+    if (cv.converged)
+        fputs("null,\n", f);
+    else
+        fprintf(f, "\"%s\",\n", pp_convergence_failed(&cv));
     fputs("    \"verdict\": ", f);
     pp_json_write_string(f, verdict);
     fputs("},\n", f);

@@ -56,3 +56,12 @@ void pp_convergence_verdict(const pp_convergence *cv, char *buf, size_t len)
                  "convergence check, but %zu other warning%s (see the warnings)",
                  n_other, n_other == 1 ? " applies" : "s apply");
 }
+
+const char *pp_convergence_failed(const pp_convergence *cv)
+{
+    if (cv->converged)
+        return "";
+    if (!cv->hyper_converged)
+        return cv->pixels_converged ? "hyperparameters" : "hyperparameters and pixels";
+    return cv->pixels_converged ? "other" : "pixels";
+}

@@ -216,6 +216,12 @@ void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out);
 #define PP_VERDICT_MAX 512
 void pp_convergence_verdict(const pp_convergence *cv, char *buf, size_t len);
 
+/* Which part kept the run from converging, as a short label for tables
+ * (batch manifests): "" when converged, else "hyperparameters", "pixels",
+ * "hyperparameters and pixels", or "other" (only warnings of neither part).
+ * Static text. */
+const char *pp_convergence_failed(const pp_convergence *cv);
+
 /* The inner linear solver of gibbs under the adaptive prior (conjugate
  * gradients of the x-draws), summed over chains: draws made (burn-in
  * included), CG iterations in total and the most in one draw, and draws
