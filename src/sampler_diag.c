@@ -4,6 +4,9 @@
  * from the chains' half moments (for a Rao-Blackwellised field, the split-
  * R-hat of the draws x, see pp_diag_pixel_maps), and plain-word warnings for R-hat > 1.01
  * or an ESS below 100 per chain (the thresholds Vehtari et al. recommend).
+ * Each convergence warning names its part (pp_part: "hyperparameters", the
+ * global columns, or "pixels", the probes and the map) and ends with the
+ * --iters to ask for (pp_sampler_iters_suggested).
  *
  * Cost: one gather of each column (chains x kept doubles of scratch, freed
  * before returning) and its O(S log S) diagnostics; one pass over the
@@ -60,12 +63,18 @@ static map_check check_map(const pp_sampler *s)
     return m;
 }
 
-/* The ESS rule's margin. A run's ESS estimate is itself uncertain: for the
- * fixed-seed cases of tests/ref_warn_verdict.py, 8 seeds of the same run
- * gave bulk-ESS estimates of delta with a relative spread (sd / mean) of
- * about 0.1-0.2 (measured; see that file), so aiming 25 % above the
- * target keeps the rerun's ESS above 100 per chain in most reruns. The
- * margin is chosen here, not taken from a reference. */
+/* The ESS rule's margin: aim 25 % above the target, for the ESS estimate's
+ * own error (chosen here, not from a reference). A short run tends to
+ * overstate the ESS per draw of a slowly mixing column (its autocorrelation
+ * is cut short), so the rule errs low. Measured (tests/ref_warn_verdict.py's
+ * 40 x 40 beads frame, gmrf1, 4 chains, burn 200, seeds 1-8): gibbs with
+ * periodic boundaries at 200 and 400 iterations, rerun at the suggested
+ * --iters: the binding figure (bulk-ESS of delta) came out 0.99 to 3.5
+ * times the target, median 1.2 (16 runs). gibbs with --boundary pad at
+ * 2000 iterations (suggested 13000-49000): delta's bulk-ESS came out only
+ * 0.09-0.14 of the target: there delta's autocorrelation time is thousands
+ * of iterations, which a 2000-iteration run cannot see. No figure of such
+ * a run predicts that; its R-hat warnings say the advice is a lower bound. */
 #define ESS_MARGIN 1.25
 /* Chains that disagree (R-hat) need more draws by an amount no figure of
  * the run predicts; the common practice is to run at least twice as long
@@ -127,8 +136,8 @@ static void warn_column(pp_sampler *s, const char *name, const pp_diag_scalar *d
     if (rhat_fails(d->rhat))
         pp_sampler_warn_part(s, PP_PART_HYPER,
                              "hyperparameters: R-hat of %s is %.3f (above %.2f): the chains "
-                             "disagree on this global quantity; %s (a longer --burn helps too "
-                             "when the chains start far apart)",
+                             "disagree on this global quantity; %s (a lower bound while the "
+                             "chains disagree; a longer --burn helps when they start far apart)",
                              name, d->rhat, RHAT_LIMIT, advice(s, adv, sizeof adv));
     if (ess_fails(s, d->ess_bulk))
         pp_sampler_warn_part(s, PP_PART_HYPER,
@@ -162,7 +171,8 @@ static void warn_probes(pp_sampler *s)
     if (n_r)
         pp_sampler_warn_part(s, PP_PART_PIXELS,
                              "pixels: R-hat is above %.2f at %zu of %zu probe pixels (worst "
-                             "%s: %.3f): the chains disagree there; %s",
+                             "%s: %.3f): the chains disagree there; %s (a lower bound while the "
+                             "chains disagree)",
                              RHAT_LIMIT, n_r, np, t->names[w_r], s->diag[w_r].rhat,
                              advice(s, adv, sizeof adv));
     if (n_b)
@@ -266,7 +276,7 @@ static void warn_map(pp_sampler *s)
         pp_sampler_warn_part(s, PP_PART_PIXELS,
                              "pixels: %zu of %zu pixels (%.1f%%) have a split-R-hat above "
                              "%.2f, the worst %.3f (rhat.tif): the chains have not mixed there; "
-                             "%s",
+                             "%s (a lower bound while the chains disagree)",
                              m.bad, m.n, 100.0 * (double)m.bad / (double)m.n, RHAT_LIMIT,
                              m.worst, advice(s, adv, sizeof adv));
 }

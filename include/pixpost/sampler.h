@@ -172,7 +172,9 @@ pp_part pp_sampler_warning_part(const pp_sampler *s, size_t i);
  *  - R-hat (a column, or the pixel map's rule): chains that disagree need
  *    more draws by an amount no diagnostic predicts; the common practice
  *    of at least doubling the run is taken.
- * The larger of the two, rounded up to two significant digits. "iters"
+ * The larger of the two, rounded up to two significant digits. While the
+ * chains disagree the ESS per draw of a short run looks better than it is,
+ * so the figure is then a lower bound (measured in src/sampler_diag.c). "iters"
  * here is what the diagnostics saw: kept draws per chain times --thin.
  * Reads only the finished diagnostics (pp_sampler_diagnostics and the
  * R-hat map); cost: one pass over the trace columns and the map. */
