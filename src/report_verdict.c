@@ -8,7 +8,10 @@
 #include "pixpost/report.h"
 #include "report_internal.h"
 
-static const char *plural(size_t n) { return n == 1 ? "" : "s"; }
+static const char *plural(size_t n)
+{
+    return n == 1 ? "" : "s";
+}
 
 /* One part's line in the banner: its name, pass/fail and its warnings. */
 static void part_chip(FILE *f, const char *id, const char *name, int ok, size_t n,
@@ -45,8 +48,7 @@ void pp_report_verdict_banner(FILE *f, const pp_report_input *in)
             cv->converged ? "Converged" : "Not converged");
     if (cv->warnings)
         fprintf(f, "%zu warning%s: %zu on hyperparameters, %zu on pixel estimates, %zu other",
-                cv->warnings, plural(cv->warnings), cv->hyper_warnings, cv->pixel_warnings,
-                other);
+                cv->warnings, plural(cv->warnings), cv->hyper_warnings, cv->pixel_warnings, other);
     else
         fputs("no warnings", f);
     fputs("</span></p>\n<ul class=\"parts\">\n", f);

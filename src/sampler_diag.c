@@ -121,43 +121,46 @@ unsigned long pp_sampler_iters_suggested(const pp_sampler *s)
     return round_up_2sig(need);
 }
 
-/* The advice ending every convergence warning. */
-static const char *advice(const pp_sampler *s, char *buf, size_t len)
+/* The advice ending every convergence warning (made once per run). */
+typedef struct advice {
+    char text[96];
+} advice;
+static advice advise(const pp_sampler *s)
 {
+    advice a;
     unsigned long n = pp_sampler_iters_suggested(s);
-    snprintf(buf, len, "run about %lu iterations: --iters %lu", n, n);
-    return buf;
+    snprintf(a.text, sizeof a.text, "run about %lu iterations: --iters %lu", n, n);
+    return a;
 }
 
-static void warn_column(pp_sampler *s, const char *name, const pp_diag_scalar *d)
+static void warn_column(pp_sampler *s, const char *name, const pp_diag_scalar *d,
+                        const char *adv)
 {
     double ess_min = ESS_PER_CHAIN * s->cfg.chains;
-    char adv[96];
     if (rhat_fails(d->rhat))
         pp_sampler_warn_part(s, PP_PART_HYPER,
                              "hyperparameters: R-hat of %s is %.3f (above %.2f): the chains "
                              "disagree on this global quantity; %s (a lower bound while the "
                              "chains disagree; a longer --burn helps when they start far apart)",
-                             name, d->rhat, RHAT_LIMIT, advice(s, adv, sizeof adv));
+                             name, d->rhat, RHAT_LIMIT, adv);
     if (ess_fails(s, d->ess_bulk))
         pp_sampler_warn_part(s, PP_PART_HYPER,
                              "hyperparameters: bulk-ESS of %s is %.0f (below %.0f = 100 per "
                              "chain): its mean and sd are imprecise; %s",
-                             name, d->ess_bulk, ess_min, advice(s, adv, sizeof adv));
+                             name, d->ess_bulk, ess_min, adv);
     if (ess_fails(s, d->ess_tail))
         pp_sampler_warn_part(s, PP_PART_HYPER,
                              "hyperparameters: tail-ESS of %s is %.0f (below %.0f = 100 per "
                              "chain): its 5%% and 95%% quantiles are imprecise; %s",
-                             name, d->ess_tail, ess_min, advice(s, adv, sizeof adv));
+                             name, d->ess_tail, ess_min, adv);
 }
 
 /* The probe pixels share one line per criterion: how many fail, the worst. */
-static void warn_probes(pp_sampler *s)
+static void warn_probes(pp_sampler *s, const char *adv)
 {
     const pp_trace *t = &s->trace;
     double ess_min = ESS_PER_CHAIN * s->cfg.chains;
     size_t n_r = 0, n_b = 0, n_t = 0, w_r = 0, w_b = 0, w_t = 0, np = 0;
-    char adv[96];
     for (size_t j = s->col_probe0; j < t->ncols; j++) {
         const pp_diag_scalar *d = &s->diag[j];
         np++;
@@ -174,19 +177,19 @@ static void warn_probes(pp_sampler *s)
                              "%s: %.3f): the chains disagree there; %s (a lower bound while the "
                              "chains disagree)",
                              RHAT_LIMIT, n_r, np, t->names[w_r], s->diag[w_r].rhat,
-                             advice(s, adv, sizeof adv));
+                             adv);
     if (n_b)
         pp_sampler_warn_part(s, PP_PART_PIXELS,
                              "pixels: bulk-ESS is below %.0f (100 per chain) at %zu of %zu probe "
                              "pixels (lowest %s: %.0f): pixel means are imprecise; %s",
                              ess_min, n_b, np, t->names[w_b], s->diag[w_b].ess_bulk,
-                             advice(s, adv, sizeof adv));
+                             adv);
     if (n_t)
         pp_sampler_warn_part(s, PP_PART_PIXELS,
                              "pixels: tail-ESS is below %.0f (100 per chain) at %zu of %zu probe "
                              "pixels (lowest %s: %.0f): pixel bounds are imprecise; %s",
                              ess_min, n_t, np, t->names[w_t], s->diag[w_t].ess_tail,
-                             advice(s, adv, sizeof adv));
+                             adv);
 }
 
 static pp_status scalar_diagnostics(pp_sampler *s)
@@ -209,11 +212,11 @@ static pp_status scalar_diagnostics(pp_sampler *s)
     return st;
 }
 
-static void warn_scalars(pp_sampler *s)
+static void warn_scalars(pp_sampler *s, const char *adv)
 {
     for (size_t j = 0; j < s->col_probe0 && j < s->trace.ncols; j++)
-        warn_column(s, s->trace.names[j], &s->diag[j]);
-    warn_probes(s);
+        warn_column(s, s->trace.names[j], &s->diag[j], adv);
+    warn_probes(s, adv);
 }
 
 /* Pixel maps from each chain's moments over all its kept draws (mean c,
@@ -268,17 +271,16 @@ static pp_status pixel_maps(pp_sampler *s)
 }
 
 /* The pixel map's rule (check_map) as a warning. */
-static void warn_map(pp_sampler *s)
+static void warn_map(pp_sampler *s, const char *adv)
 {
     map_check m = check_map(s);
-    char adv[96];
     if (m.fails)
         pp_sampler_warn_part(s, PP_PART_PIXELS,
                              "pixels: %zu of %zu pixels (%.1f%%) have a split-R-hat above "
                              "%.2f, the worst %.3f (rhat.tif): the chains have not mixed there; "
                              "%s (a lower bound while the chains disagree)",
                              m.bad, m.n, 100.0 * (double)m.bad / (double)m.n, RHAT_LIMIT,
-                             m.worst, advice(s, adv, sizeof adv));
+                             m.worst, adv);
 }
 
 /* For the conjugate samplers, the share of a Gamma conditional's rate that
@@ -335,8 +337,9 @@ pp_status pp_sampler_diagnose(pp_sampler *s)
         st = pixel_maps(s); /* before the convergence warnings: their advice reads the map */
     }
     if (st == PP_OK) {
-        warn_scalars(s);
-        warn_map(s);
+        advice adv = advise(s);
+        warn_scalars(s, adv.text);
+        warn_map(s, adv.text);
     }
     return st;
 }

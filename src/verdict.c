@@ -5,9 +5,9 @@
  * for. `sample` prints it, summary.json and report.html carry it. Reads only
  * the plain struct, so every writer words a verdict the same way.
  * Cost: a few snprintf calls. */
+#include "pixpost/sampler.h"
 #include <stdio.h>
 #include <string.h>
-#include "pixpost/sampler.h"
 
 /* Warnings about neither part (acceptance, set-up, hyperprior, solver). */
 static size_t others(const pp_convergence *cv)
@@ -30,9 +30,10 @@ void pp_convergence_verdict(const pp_convergence *cv, char *buf, size_t len)
         snprintf(tail, sizeof tail, "; %zu other warning%s too", n_other,
                  n_other == 1 ? " applies" : "s apply");
     if (cv->converged)
-        snprintf(buf, len, "converged: the hyperparameters and the pixel estimates pass every "
-                           "convergence check (R-hat at most 1.01, bulk- and tail-ESS at least "
-                           "100 per chain, the pixel R-hat map)");
+        snprintf(buf, len,
+                 "converged: the hyperparameters and the pixel estimates pass every "
+                 "convergence check (R-hat at most 1.01, bulk- and tail-ESS at least "
+                 "100 per chain, the pixel R-hat map)");
     else if (!cv->hyper_converged && cv->pixels_converged)
         snprintf(buf, len,
                  "not converged: the hyperparameters have not converged (%s); the pixel "

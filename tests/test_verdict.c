@@ -19,7 +19,10 @@
 #include <string.h>
 #include <sys/stat.h>
 
-static int has(const char *s, const char *sub) { return s && strstr(s, sub) != NULL; }
+static int has(const char *s, const char *sub)
+{
+    return s && strstr(s, sub) != NULL;
+}
 
 static pp_convergence figures(size_t hyper, size_t pixels, size_t other, unsigned long iters,
                               const char *failing)
