@@ -151,7 +151,8 @@ static const char CSS[] =
     ".verdict.bad #verdict-word{color:#8c2f14}\n"
     ".verdict .parts{margin:4px 0;padding-left:20px}.verdict li.fail{color:#7a2a10}"
     ".verdict li.pass{color:#245c31}#verdict-text,#verdict-iters{margin:6px 0 0}\n"
-    "code{background:#f2f2f2;padding:1px 4px;border-radius:3px}h3{font-size:1.02em;margin:16px 0 4px}\n"
+    "code{background:#f2f2f2;padding:1px 4px;border-radius:3px}\n"
+    "h3{font-size:1.02em;margin:16px 0 4px}\n"
     "#cautions p{border-left:4px solid #8a6d12;background:#f7f4ea;padding:8px 12px}\n"
     "footer{margin-top:30px;font-size:12px;color:#555}\n";
 

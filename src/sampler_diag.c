@@ -71,15 +71,15 @@ static map_check check_map(const pp_sampler *s)
  * periodic boundaries at 200 and 400 iterations, rerun at the suggested
  * --iters: the binding figure (bulk-ESS of delta) came out 0.99 to 3.5
  * times the target, median 1.2 (16 runs). gibbs with --boundary pad at
- * 2000 iterations (suggested 13000-49000): delta's bulk-ESS came out only
+ * 2000 iterations (seeds 1-4, suggested 13000-49000): delta's bulk-ESS came out only
  * 0.09-0.14 of the target: there delta's autocorrelation time is thousands
  * of iterations, which a 2000-iteration run cannot see. No figure of such
  * a run predicts that; its R-hat warnings say the advice is a lower bound. */
 #define ESS_MARGIN 1.25
 /* Chains that disagree (R-hat) need more draws by an amount no figure of
  * the run predicts; the common practice is to run at least twice as long
- * and look again (from memory: e.g. Gelman & Shirley, "Inference from
- * simulations and monitoring convergence", Handbook of MCMC, 2011). */
+ * and look again (a rule of thumb, stated from memory; no reference was
+ * checked for the factor). */
 #define RHAT_FACTOR 2.0
 
 /* v rounded up to two significant digits (so the advice reads "--iters
