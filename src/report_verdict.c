@@ -69,7 +69,7 @@ void pp_report_verdict_banner(FILE *f, const pp_report_input *in)
 }
 
 static void sentence_list(FILE *f, const char *id, const char *const *list, size_t n,
-                          const pp_part *parts, int part)
+                          const pp_warning_part *parts, int part)
 {
     fprintf(f, "<ul id=\"%s\">\n", id);
     for (size_t i = 0; i < n; i++) {
@@ -87,14 +87,14 @@ static void sentence_list(FILE *f, const char *id, const char *const *list, size
 void pp_report_warnings_section(FILE *f, const pp_report_input *in)
 {
     static const struct {
-        pp_part part;
+        pp_warning_part part;
         const char *id, *title;
     } groups[] = {
-        {PP_PART_HYPER, "warnings-hyper",
+        {PP_WARN_HYPER, "warnings-hyper",
          "Hyperparameters &mdash; global quantities, one number for the whole frame"},
-        {PP_PART_PIXELS, "warnings-pixels",
+        {PP_WARN_PIXELS, "warnings-pixels",
          "Pixel estimates &mdash; the probe pixels and the R&#770; map"},
-        {PP_PART_OTHER, "warnings-other", "Other"},
+        {PP_WARN_OTHER, "warnings-other", "Other"},
     };
     fputs("<section id=\"warnings\"><h2>Warnings</h2>\n", f);
     if (in->nwarnings == 0) {

@@ -4,7 +4,7 @@
  * from the chains' half moments (for a Rao-Blackwellised field, the split-
  * R-hat of the draws x, see pp_diag_pixel_maps), and plain-word warnings for R-hat > 1.01
  * or an ESS below 100 per chain (the thresholds Vehtari et al. recommend).
- * Each convergence warning names its part (pp_part: "hyperparameters", the
+ * Each convergence warning names its part (pp_warning_part: "hyperparameters", the
  * global columns, or "pixels", the probes and the map) and ends with the
  * --iters to ask for (pp_sampler_iters_suggested).
  *
@@ -138,18 +138,18 @@ static void warn_column(pp_sampler *s, const char *name, const pp_diag_scalar *d
 {
     double ess_min = ESS_PER_CHAIN * s->cfg.chains;
     if (rhat_fails(d->rhat))
-        pp_sampler_warn_part(s, PP_PART_HYPER,
+        pp_sampler_warn_part(s, PP_WARN_HYPER,
                              "hyperparameters: R-hat of %s is %.3f (above %.2f): the chains "
                              "disagree on this global quantity; %s (a lower bound while the "
                              "chains disagree; a longer --burn helps when they start far apart)",
                              name, d->rhat, RHAT_LIMIT, adv);
     if (ess_fails(s, d->ess_bulk))
-        pp_sampler_warn_part(s, PP_PART_HYPER,
+        pp_sampler_warn_part(s, PP_WARN_HYPER,
                              "hyperparameters: bulk-ESS of %s is %.0f (below %.0f = 100 per "
                              "chain): its mean and sd are imprecise; %s",
                              name, d->ess_bulk, ess_min, adv);
     if (ess_fails(s, d->ess_tail))
-        pp_sampler_warn_part(s, PP_PART_HYPER,
+        pp_sampler_warn_part(s, PP_WARN_HYPER,
                              "hyperparameters: tail-ESS of %s is %.0f (below %.0f = 100 per "
                              "chain): its 5%% and 95%% quantiles are imprecise; %s",
                              name, d->ess_tail, ess_min, adv);
@@ -172,20 +172,20 @@ static void warn_probes(pp_sampler *s, const char *adv)
             w_t = j;
     }
     if (n_r)
-        pp_sampler_warn_part(s, PP_PART_PIXELS,
+        pp_sampler_warn_part(s, PP_WARN_PIXELS,
                              "pixels: R-hat is above %.2f at %zu of %zu probe pixels (worst "
                              "%s: %.3f): the chains disagree there; %s (a lower bound while the "
                              "chains disagree)",
                              RHAT_LIMIT, n_r, np, t->names[w_r], s->diag[w_r].rhat,
                              adv);
     if (n_b)
-        pp_sampler_warn_part(s, PP_PART_PIXELS,
+        pp_sampler_warn_part(s, PP_WARN_PIXELS,
                              "pixels: bulk-ESS is below %.0f (100 per chain) at %zu of %zu probe "
                              "pixels (lowest %s: %.0f): pixel means are imprecise; %s",
                              ess_min, n_b, np, t->names[w_b], s->diag[w_b].ess_bulk,
                              adv);
     if (n_t)
-        pp_sampler_warn_part(s, PP_PART_PIXELS,
+        pp_sampler_warn_part(s, PP_WARN_PIXELS,
                              "pixels: tail-ESS is below %.0f (100 per chain) at %zu of %zu probe "
                              "pixels (lowest %s: %.0f): pixel bounds are imprecise; %s",
                              ess_min, n_t, np, t->names[w_t], s->diag[w_t].ess_tail,
@@ -275,7 +275,7 @@ static void warn_map(pp_sampler *s, const char *adv)
 {
     map_check m = check_map(s);
     if (m.fails)
-        pp_sampler_warn_part(s, PP_PART_PIXELS,
+        pp_sampler_warn_part(s, PP_WARN_PIXELS,
                              "pixels: %zu of %zu pixels (%.1f%%) have a split-R-hat above "
                              "%.2f, the worst %.3f (rhat.tif): the chains have not mixed there; "
                              "%s (a lower bound while the chains disagree)",
@@ -368,8 +368,8 @@ void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out)
         }
     }
     for (size_t i = 0; i < s->nwarnings; i++) {
-        out->hyper_warnings += s->warning_part[i] == PP_PART_HYPER;
-        out->pixel_warnings += s->warning_part[i] == PP_PART_PIXELS;
+        out->hyper_warnings += s->warning_part[i] == PP_WARN_HYPER;
+        out->pixel_warnings += s->warning_part[i] == PP_WARN_PIXELS;
     }
     out->hyper_converged = out->hyper_warnings == 0;
     out->pixels_converged = out->pixel_warnings == 0;

@@ -131,7 +131,7 @@ static int cmd_write(int argc, char **argv)
         const char *warn[2] = {"hyperparameters: R-hat of lambda is 1.034 (above 1.01): run "
                                "about 2000 iterations: --iters 2000",
                                "the acceptance of chain 2 is low"};
-        const pp_part parts[2] = {PP_PART_HYPER, PP_PART_OTHER};
+        const pp_warning_part parts[2] = {PP_WARN_HYPER, PP_WARN_OTHER};
         /* the banner's figures: one warning on the hyperparameters, one other */
         pp_convergence cv;
         memset(&cv, 0, sizeof cv);

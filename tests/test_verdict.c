@@ -118,7 +118,7 @@ static size_t at(const char *html, const char *s)
 }
 
 static char *page(const char *dir, const char *name, const pp_convergence *cv,
-                  const char *const *warn, const pp_part *parts, size_t nw)
+                  const char *const *warn, const pp_warning_part *parts, size_t nw)
 {
     pp_image *img = NULL;
     pp_image_create(8, 6, &img);
@@ -147,7 +147,7 @@ static void test_banner(const char *dir)
 {
     const char *warn[4] = {"hyperparameters: R-hat of delta is 1.2", "pixels: probes",
                            "hyperparameters: bulk-ESS of delta is 18", "acceptance <low>"};
-    const pp_part parts[4] = {PP_PART_HYPER, PP_PART_PIXELS, PP_PART_HYPER, PP_PART_OTHER};
+    const pp_warning_part parts[4] = {PP_WARN_HYPER, PP_WARN_PIXELS, PP_WARN_HYPER, PP_WARN_OTHER};
     pp_convergence cv = figures(2, 1, 1, 86000, "delta");
     char *h = page(dir, "bad", &cv, warn, parts, 4);
     CHECK(has(h, "<div id=\"verdict\" class=\"verdict bad\" data-converged=\"false\" "

@@ -52,10 +52,10 @@ typedef struct pp_report_input {
     size_t nsettings;
     const char *const *warnings; /* plain sentences */
     size_t nwarnings;
-    /* What each warning is about (pp_part), nwarnings entries, or NULL: the
-     * warnings are listed as one list; otherwise in groups (hyperparameters,
-     * pixel estimates, other). */
-    const pp_part *warning_parts;
+    /* What each warning is about (pp_warning_part), nwarnings entries, or
+     * NULL: the warnings are listed as one list; otherwise in groups
+     * (hyperparameters, pixel estimates, other). */
+    const pp_warning_part *warning_parts;
     /* The run's verdict for the banner at the top of the page (converged or
      * not, the warnings per part, the --iters to ask for): the figures and
      * the sentence pp_convergence_verdict made of them. NULL convergence:

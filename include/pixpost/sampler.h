@@ -151,15 +151,19 @@ pp_fft_plans pp_sampler_fft_plans(const pp_sampler *s);
 size_t pp_sampler_warning_count(const pp_sampler *s);
 const char *pp_sampler_warning(const pp_sampler *s, size_t i);
 
-/* What a warning is about. PP_PART_HYPER: a global trace column (lambda,
+/* What a warning is about. PP_WARN_HYPER: a global trace column (lambda,
  * delta, the log-likelihood, psf_width, kappa: one number for the whole
- * frame) fails a convergence criterion. PP_PART_PIXELS: the pixel estimates
- * do (the probe pixels' traces, or the per-pixel R-hat map). PP_PART_OTHER:
+ * frame) fails a convergence criterion. PP_WARN_PIXELS: the pixel estimates
+ * do (the probe pixels' traces, or the per-pixel R-hat map). PP_WARN_OTHER:
  * everything else (acceptance, burn-in too short to adapt, a hyperprior
  * that outweighs the data, the inner solver's cap). */
-typedef enum pp_part { PP_PART_OTHER = 0, PP_PART_HYPER, PP_PART_PIXELS } pp_part;
-/* The part of the i-th warning (PP_PART_OTHER when i >= count). */
-pp_part pp_sampler_warning_part(const pp_sampler *s, size_t i);
+typedef enum pp_warning_part {
+    PP_WARN_OTHER = 0,
+    PP_WARN_HYPER,
+    PP_WARN_PIXELS
+} pp_warning_part;
+/* The part of the i-th warning (PP_WARN_OTHER when i >= count). */
+pp_warning_part pp_sampler_warning_part(const pp_sampler *s, size_t i);
 
 /* The number of iterations after burn-in (--iters) to ask for so that every
  * convergence criterion that failed would pass, or 0 when none failed (or
@@ -188,9 +192,9 @@ unsigned long pp_sampler_iters_suggested(const pp_sampler *s);
  * successful run or with too few kept draws); warnings is
  * pp_sampler_warning_count(s); converged is 1 exactly when warnings is 0
  * (so `--strict` fails exactly the runs that are not converged).
- * The two parts (pp_part): hyper_warnings and pixel_warnings count the
+ * The two parts (pp_warning_part): hyper_warnings and pixel_warnings count the
  * warnings of each part (the rest, warnings minus both, are
- * PP_PART_OTHER); hyper_converged / pixels_converged are 1 exactly when
+ * PP_WARN_OTHER); hyper_converged / pixels_converged are 1 exactly when
  * that part has no warning; hyper_failing names the global columns that
  * fail a criterion, ", "-separated ("" when none); iters_suggested is
  * pp_sampler_iters_suggested(s).
