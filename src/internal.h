@@ -205,6 +205,7 @@ struct pp_sampler {
     long col_kappa;       /* trace column "kappa" (adaptive prior), else -1 */
     const char *pad_scheme; /* mtc with --boundary pad: the scheme used (static text) */
     char *warnings[PP_MAX_WARNINGS]; /* convergence and set-up warnings (--strict) */
+    pp_warning_part warning_part[PP_MAX_WARNINGS]; /* what each warning is about */
     size_t nwarnings;
     char *notes[PP_MAX_NOTES]; /* information about the data, not warnings */
     size_t nnotes;
@@ -233,6 +234,10 @@ pp_status pp_sampler_diagnose(pp_sampler *s);
 /* Adds a warning sentence (printf-style) to the sampler: something that
  * makes the results less trustworthy (what --strict exits on). */
 void pp_sampler_warn(pp_sampler *s, const char *fmt, ...) PP_PRINTF(2, 3);
+/* The same, for a warning about one part of the convergence criteria
+ * (pp_warning_part: the global columns or the pixel estimates). */
+void pp_sampler_warn_part(pp_sampler *s, pp_warning_part part, const char *fmt, ...)
+    PP_PRINTF(3, 4);
 /* Adds a note: information about the data or the model that does not make
  * the run less trustworthy (e.g. frequencies the PSF removes entirely). */
 void pp_sampler_add_note(pp_sampler *s, const char *fmt, ...) PP_PRINTF(2, 3);

@@ -234,17 +234,45 @@ static void json_adaptive(FILE *f, const pp_sampler *s)
 }
 
 /* The run's headline figures (pp_sampler_convergence), under one key that
- * batch reads back exactly when it resumes. */
+ * batch reads back exactly when it resumes (its first four keys, in this
+ * order), then the two parts, the iterations to ask for (null when none),
+ * the part that failed (pp_convergence_failed; null when converged) and
+ * the verdict sentence (pp_convergence_verdict). */
 static void json_convergence(FILE *f, const pp_sampler *s)
 {
     pp_convergence cv;
+    char verdict[PP_VERDICT_MAX];
     pp_sampler_convergence(s, &cv);
+    pp_convergence_verdict(&cv, verdict, sizeof verdict);
     fputs("  \"convergence\": {\"rhat_max\": ", f);
     json_number(f, cv.rhat_max);
     fputs(", \"ess_bulk_min\": ", f);
     json_number(f, cv.ess_bulk_min);
-    fprintf(f, ", \"warnings\": %zu, \"converged\": %s},\n", cv.warnings,
+    fprintf(f, ", \"warnings\": %zu, \"converged\": %s,\n", cv.warnings,
             cv.converged ? "true" : "false");
+    fprintf(f, "    \"hyperparameters\": {\"converged\": %s, \"warnings\": %zu, \"failing\": [",
+            cv.hyper_converged ? "true" : "false", cv.hyper_warnings);
+    /* hyper_failing is "name, name" (trace column names: no quotes or commas) */
+    for (const char *p = cv.hyper_failing; *p;) {
+        size_t n = strcspn(p, ",");
+        fprintf(f, "%s\"%.*s\"", p == cv.hyper_failing ? "" : ", ", (int)n, p);
+        p += n;
+        p += strspn(p, ", ");
+    }
+    fprintf(f, "]},\n    \"pixels\": {\"converged\": %s, \"warnings\": %zu},\n",
+            cv.pixels_converged ? "true" : "false", cv.pixel_warnings);
+    if (cv.iters_suggested)
+        fprintf(f, "    \"iters_suggested\": %lu,\n", cv.iters_suggested);
+    else
+        fputs("    \"iters_suggested\": null,\n", f);
+    fputs("    \"failed\": ", f);
+    if (cv.converged)
+        fputs("null,\n", f);
+    else
+        fprintf(f, "\"%s\",\n", pp_convergence_failed(&cv));
+    fputs("    \"verdict\": ", f);
+    pp_json_write_string(f, verdict);
+    fputs("},\n", f);
 }
 
 /* "  \"key\": [\"...\", ...]" (no trailing comma or newline). */

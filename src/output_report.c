@@ -1,5 +1,5 @@
 /* pixpost — report.html for a finished run: gathers the sampler's images,
- * traces, diagnostics, settings and warnings into the plain-data input of
+ * traces, diagnostics, settings, verdict and warnings into the plain-data input of
  * pp_report_write (src/report.c). Cost: formatting a dozen strings. */
 #include <stdio.h>
 #include <stdlib.h>
@@ -63,6 +63,13 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
     in.nsettings = NSET;
     in.warnings = (const char *const *)s->warnings;
     in.nwarnings = s->nwarnings;
+    in.warning_parts = s->warning_part;
+    pp_convergence cv;
+    char verdict[PP_VERDICT_MAX];
+    pp_sampler_convergence(s, &cv);
+    pp_convergence_verdict(&cv, verdict, sizeof verdict);
+    in.convergence = &cv;
+    in.verdict = verdict;
     in.notes = (const char *const *)s->notes;
     in.nnotes = s->nnotes;
     in.level = c->level;

@@ -143,6 +143,16 @@ static const char CSS[] =
     "td.num{text-align:right;font-variant-numeric:tabular-nums}\n"
     "td.warn{background:#f6dcb4;color:#5a2a00;font-weight:bold}.flag{font-size:11px}\n"
     ".note{color:#444;font-style:italic}\n"
+    ".verdict{margin:14px 0 4px;padding:10px 16px;border-radius:6px;border:2px solid}\n"
+    ".verdict.ok{background:#e6f2e8;border-color:#3c7a4a}"
+    ".verdict.bad{background:#fbeadf;border-color:#b0492a}\n"
+    ".verdict-head{margin:0 0 4px;font-size:1.15em}#verdict-word{font-weight:bold;"
+    "margin-right:8px}.verdict.ok #verdict-word{color:#245c31}"
+    ".verdict.bad #verdict-word{color:#8c2f14}\n"
+    ".verdict .parts{margin:4px 0;padding-left:20px}.verdict li.fail{color:#7a2a10}"
+    ".verdict li.pass{color:#245c31}#verdict-text,#verdict-iters{margin:6px 0 0}\n"
+    "code{background:#f2f2f2;padding:1px 4px;border-radius:3px}\n"
+    "h3{font-size:1.02em;margin:16px 0 4px}\n"
     "#cautions p{border-left:4px solid #8a6d12;background:#f7f4ea;padding:8px 12px}\n"
     "footer{margin-top:30px;font-size:12px;color:#555}\n";
 
@@ -520,36 +530,6 @@ static void settings_section(page *pg)
     fputs("</table></section>\n", f);
 }
 
-static void sentence_list(FILE *f, const char *id, const char *const *list, size_t n)
-{
-    fprintf(f, "<ul id=\"%s\">\n", id);
-    for (size_t i = 0; i < n; i++) {
-        fputs("<li>", f);
-        pp_report_escape(f, list[i]);
-        fputs("</li>\n", f);
-    }
-    fputs("</ul>\n", f);
-}
-
-/* The warnings, then the notes (information, not warnings) when any. */
-static void warnings_section(page *pg)
-{
-    const pp_report_input *in = pg->in;
-    FILE *f = pg->f;
-    fputs("<section id=\"warnings\"><h2>Warnings</h2>\n", f);
-    if (in->nwarnings == 0)
-        fputs("<p id=\"warnings-none\">No warnings were raised.</p>\n", f);
-    else
-        sentence_list(f, "warnings-list", in->warnings, in->nwarnings);
-    if (in->nnotes) {
-        fputs("<h3>Notes</h3>\n<p>Information about the data and the model, not a sign "
-              "that the run went wrong.</p>\n",
-              f);
-        sentence_list(f, "notes-list", in->notes, in->nnotes);
-    }
-    fputs("</section>\n", f);
-}
-
 /* ---- The page ----------------------------------------------------------- */
 
 static void head(page *pg, const char *title)
@@ -576,11 +556,15 @@ static void head(page *pg, const char *title)
         fputs(" &middot; values in ", f);
     }
     pp_report_escape(f, pg->units);
-    fputs("</p>\n<nav><a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
-          "<a href=\"#histograms\">hyperparameters</a><a href=\"#diagnostics\">diagnostics</a>"
-          "<a href=\"#settings\">settings</a><a href=\"#warnings\">warnings</a>"
-          "<a href=\"#cautions\">cautions</a></nav>\n</header>\n",
-          f);
+    int warn_first = pg->in->nwarnings > 0;
+    fprintf(f,
+            "</p>\n<nav>%s<a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
+            "<a href=\"#histograms\">hyperparameters</a><a href=\"#diagnostics\">diagnostics</a>"
+            "<a href=\"#settings\">settings</a>%s<a href=\"#cautions\">cautions</a></nav>\n",
+            warn_first ? "<a href=\"#warnings\">warnings</a>" : "",
+            warn_first ? "" : "<a href=\"#warnings\">warnings</a>");
+    pp_report_verdict_banner(f, pg->in);
+    fputs("</header>\n", f);
 }
 
 static void tail(FILE *f)
@@ -639,6 +623,9 @@ pp_status pp_report_write(const char *path, const pp_report_input *in)
     if ((st = pp_atomic_open(path, tmp, &pg.f)) != PP_OK)
         return st;
     head(&pg, in->title ? in->title : "pixpost run");
+    int warn_first = in->nwarnings > 0; /* what needs reading first, first */
+    if (warn_first)
+        pp_report_warnings_section(pg.f, in);
     st = images_section(&pg);
     if (st == PP_OK)
         st = traces_section(&pg);
@@ -646,7 +633,8 @@ pp_status pp_report_write(const char *path, const pp_report_input *in)
         histograms_section(&pg);
         diagnostics_section(&pg);
         settings_section(&pg);
-        warnings_section(&pg);
+        if (!warn_first)
+            pp_report_warnings_section(pg.f, in);
         tail(pg.f);
     }
     if (st != PP_OK) {

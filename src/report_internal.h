@@ -15,6 +15,14 @@
  * control characters other than tab and newline as U+FFFD). NULL: nothing. */
 void pp_report_escape(FILE *f, const char *s);
 
+/* ---- Verdict and warnings (src/report_verdict.c) ------------------------ */
+struct pp_report_input;
+/* The verdict banner (nothing when in->convergence is NULL). */
+void pp_report_verdict_banner(FILE *f, const struct pp_report_input *in);
+/* The warnings section (grouped by in->warning_parts when given), then
+ * the notes. */
+void pp_report_warnings_section(FILE *f, const struct pp_report_input *in);
+
 /* ---- Axes and plots (src/report_svg.c) ---------------------------------- */
 /* Tick marks on [lo, hi]: first, step and count, with the axis stretched to
  * whole steps (amin..amax); nice steps are 1, 2 or 5 times a power of ten. */

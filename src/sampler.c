@@ -475,6 +475,18 @@ void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
+    if (s->nwarnings < PP_MAX_WARNINGS)
+        s->warning_part[s->nwarnings] = PP_WARN_OTHER;
+    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
+    va_end(ap);
+}
+
+void pp_sampler_warn_part(pp_sampler *s, pp_warning_part part, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    if (s->nwarnings < PP_MAX_WARNINGS)
+        s->warning_part[s->nwarnings] = part;
     add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
     va_end(ap);
 }
@@ -680,6 +692,10 @@ size_t pp_sampler_warning_count(const pp_sampler *s) { return s->nwarnings; }
 const char *pp_sampler_warning(const pp_sampler *s, size_t i)
 {
     return i < s->nwarnings ? s->warnings[i] : NULL;
+}
+pp_warning_part pp_sampler_warning_part(const pp_sampler *s, size_t i)
+{
+    return i < s->nwarnings ? s->warning_part[i] : PP_WARN_OTHER;
 }
 void pp_sampler_solver_stats(const pp_sampler *s, pp_solver_stats *out)
 {

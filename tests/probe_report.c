@@ -7,7 +7,9 @@
  *       sd, lo = mean - 1.96 sd, hi = mean + 1.96 sd, and a trace of 4 AR(1)
  *       chains (lambda, delta, loglik, two probe pixels); the images are also
  *       written as DIR/{frame,mean,sd,lo,hi}.tif (32-bit float) so the check
- *       can recompute the page's pixel mapping; prints the report path.
+ *       can recompute the page's pixel mapping; a verdict banner of two
+ *       warnings (one on the hyperparameters, one other); prints the
+ *       report path.
  *   probe_report acf MAXLAG
  *       reads numbers from stdin, prints the autocorrelation at lags
  *       0..MAXLAG (one per line, %.17g), or "constant".
@@ -126,7 +128,18 @@ static int cmd_write(int argc, char **argv)
                                   {"p_12_15 <x>", 164.2, 3.1, 1.004, 2200, 1800, 0.07}};
         const char *keys[3] = {"input", "sampler", "psf"};
         const char *vals[3] = {title, "gibbs", "gaussian:sigma=1.6"};
-        const char *warn[1] = {"R-hat of lambda is 1.034 (> 1.01): run longer chains."};
+        const char *warn[2] = {"hyperparameters: R-hat of lambda is 1.034 (above 1.01): run "
+                               "about 2000 iterations: --iters 2000",
+                               "the acceptance of chain 2 is low"};
+        const pp_warning_part parts[2] = {PP_WARN_HYPER, PP_WARN_OTHER};
+        /* the banner's figures: one warning on the hyperparameters, one other */
+        pp_convergence cv;
+        memset(&cv, 0, sizeof cv);
+        cv.rhat_max = 1.034, cv.ess_bulk_min = 95, cv.warnings = 2, cv.hyper_warnings = 1;
+        cv.pixels_converged = 1, cv.iters_suggested = 2000;
+        snprintf(cv.hyper_failing, sizeof cv.hyper_failing, "lambda");
+        char verdict[PP_VERDICT_MAX];
+        pp_convergence_verdict(&cv, verdict, sizeof verdict);
         pp_report_input in;
         pp_report_input_init(&in);
         in.title = title;
@@ -135,7 +148,8 @@ static int cmd_write(int argc, char **argv)
         in.delta_fixed = fixed_delta;
         in.scalars = sc, in.nscalars = diag ? 3 : 0;
         in.settings_keys = keys, in.settings_values = vals, in.nsettings = 3;
-        in.warnings = warn, in.nwarnings = 1;
+        in.warnings = warn, in.nwarnings = 2, in.warning_parts = parts;
+        in.convergence = &cv, in.verdict = verdict;
         in.units = "camera units (ADU)";
         char path[4200];
         snprintf(path, sizeof path, "%s/report.html", argv[2]);

@@ -9,6 +9,11 @@ items 1, 6 and 8), asserted by text and exit status.
   what `sample` prints for the same frame and seed; kept by --resume.
 * warnings and converged columns: the count of summary.json's "warnings"
   and whether it is zero; "done, N warnings" per frame.
+* The verdict (issue 16, item 3): each frame's line says "converged", or
+  "not converged (<part>): run about K iterations: --iters K"; the
+  manifest's failed and iters_suggested columns (index.csv, index.json)
+  are summary.json's "convergence" "failed" and "iters_suggested" (empty /
+  null when converged); --resume and --merge keep them.
 * --strict: a frame with convergence warnings is failed-strict and the batch
   exits 3; with a frame that failed outright it exits 2. --merge of such
   shards exits 3 too.
@@ -112,6 +117,9 @@ for o in ["a", "b"]:
     pptest.check(c.get("rhat_max") == worst and c.get("ess_bulk_min") == lowest and c.get("warnings") == 0
                  and c.get("converged") is True,
                  "%s: summary.json's \"convergence\" holds the same figures (%s)" % (o, c))
+    pptest.check(r.get("failed") == "" and r.get("iters_suggested") == "" and j.get("failed", 0) is None
+                 and j.get("iters_suggested", 0) is None,
+                 "%s: converged: failed and iters_suggested empty in index.csv, null in index.json" % o)
 
 # `sample` on the same frame with the frame's seed prints the same figure
 sa = summary("good", "a")
@@ -136,8 +144,8 @@ for o in ["a", "b"]:
     steps = [int(x) for x in re.findall(r"^pixpost: %s: sampling: (\d+)%%" % o, err, re.M)]
     pptest.check(steps == list(range(10, 101, 10)),
                  "%s: its own progress is a line per 10 %% naming it (%s)" % (o, steps))
-    pptest.check(re.search(r"\] %s: done, no warnings \(" % o, err) is not None,
-                 "%s: per-frame line says 'done, no warnings'" % o)
+    pptest.check(re.search(r"\] %s: done, no warnings, converged \(" % o, err) is not None,
+                 "%s: per-frame line says 'done, no warnings, converged'" % o)
 p = batch("quiet", *GOOD, "--quiet")
 pptest.check(p.returncode == 0 and p.stderr == "", "--quiet prints nothing (%r)" % p.stderr[:200])
 
@@ -179,8 +187,29 @@ for o in ["a", "b"]:
     pptest.check(n > 0 and rows[o].get("warnings") == str(n) and rows[o].get("converged") == "false"
                  and rows[o]["status"] == "done",
                  "%s: warnings column = summary.json's %d warnings, converged false" % (o, n))
-    pptest.check(re.search(r"\] %s: done, %d warnings \(" % (o, n), p.stderr) is not None,
-                 "%s: per-frame line says 'done, %d warnings'" % (o, n))
+    c = summary("poor", o)["convergence"]
+    k = c.get("iters_suggested")
+    pptest.check(c.get("failed") in ("hyperparameters", "pixels", "hyperparameters and pixels")
+                 and isinstance(k, int) and k > 30,
+                 "%s: summary.json names the part that failed (%r) and the iterations to ask for (%r)"
+                 % (o, c.get("failed"), k))
+    pptest.check(re.search(r"\] %s: done, %d warnings, not converged \(%s\): run about %s iterations: "
+                           r"--iters %s \(" % (o, n, c.get("failed"), k, k), p.stderr) is not None,
+                 "%s: per-frame line says 'done, %d warnings, not converged (%s): run about %s "
+                 "iterations: --iters %s'" % (o, n, c.get("failed"), k, k))
+    j = {f["output"]: f for f in json.load(open(os.path.join(tmp, "poor", "index.json")))["frames"]}[o]
+    pptest.check(rows[o].get("failed") == c.get("failed") and rows[o].get("iters_suggested") == str(k)
+                 and j.get("failed") == c.get("failed") and j.get("iters_suggested") == k,
+                 "%s: index.csv and index.json carry failed %r and iters_suggested %r (%s, %s; %s, %s)"
+                 % (o, c.get("failed"), k, rows[o].get("failed"), rows[o].get("iters_suggested"),
+                    j.get("failed"), j.get("iters_suggested")))
+poor_rows = rows
+p = batch("poor", *POOR, "--pattern", "[ab].png", "--resume")
+pptest.check(p.returncode == 0 and all(r["status"] == "skipped" and
+                                       r["failed"] == poor_rows[o]["failed"] and
+                                       r["iters_suggested"] == poor_rows[o]["iters_suggested"]
+                                       for o, r in rows_of("poor").items()),
+             "--resume: skipped rows keep failed and iters_suggested (read back from summary.json)")
 
 p = batch("strict", *POOR, "--pattern", "[ab].png", "--strict")
 rows = rows_of("strict")
@@ -213,8 +242,10 @@ p = pptest.run(["batch", "--merge", os.path.join(tmp, "shards")], check=False)
 merged = rows_of("shards")
 pptest.check(codes == [3, 3] and p.returncode == 3 and
              all(r["status"] == "failed-strict" and int(r.get("warnings") or 0) > 0 and r.get("converged") == "false"
+                 and r.get("failed") and int(r.get("iters_suggested") or 0) > 30
                  for r in merged.values()) and len(merged) == 2,
-             "--merge keeps failed-strict rows and their warnings, and exits 3 (shards %s, merge %d)"
+             "--merge keeps failed-strict rows, their warnings, failed part and iters_suggested, and "
+             "exits 3 (shards %s, merge %d)"
              % (codes, p.returncode))
 # ---- item 2 for batch: OUTDIR holding a user's own files -----------------------
 # A folder with files pixpost did not write (here the user's own index.csv)

@@ -16,6 +16,8 @@ shows as float TIFFs. Then:
      (--enable-logging=stderr --v=0 prints every console message as a
      ":CONSOLE" line) must stay silent for the page -- and must catch the
      errors of a deliberately broken control page, so we know it listens.
+     The verdict banner (issue 16) is laid out first, with a non-zero box,
+     above the warnings section, which is above the images.
   4. A screenshot (1280x2400) for a person to look at; its path is printed.
 If chromium is missing the check FAILS (CI installs it through .ci/run).
 """
@@ -39,7 +41,9 @@ TITLE = 'frame <script>alert("x")</script> & co.tif'
 IDS = ["frame-image", "mean-image", "sd-image", "sd-colourbar", "width-image",
        "width-colourbar", "trace-lambda", "acf-lambda", "trace-delta", "acf-delta",
        "trace-loglik", "trace-p_12_15", "acf-p_30_44", "hist-lambda", "hist-delta",
-       "diag-table", "settings-table", "warnings-list", "cautions", "cautions-text"]
+       "diag-table", "settings-table", "warnings-list", "cautions", "cautions-text",
+       "verdict", "verdict-word", "verdict-count", "verdict-hyper", "verdict-pixels",
+       "verdict-text", "verdict-iters", "warnings-hyper", "warnings-other"]
 CAUTIONS = ("A reconstruction is a model-based estimate. Its error bars hold only under the "
             "stated model \u2014 the PSF, the noise model and the prior. pixpost is not a "
             "diagnostic device; for clinical or forensic use, follow local rules and practice.")
@@ -153,8 +157,13 @@ INJECT = """<script>
     }
     var pre = document.createElement('pre');
     pre.id = 'probe-result';
+    var box = function (id) {
+      var e = document.getElementById(id), r = e ? e.getBoundingClientRect() : null;
+      return r ? [r.top, r.height] : null;
+    };
     pre.textContent = JSON.stringify({imgs: imgs.length, bad: bad, svgs: svgs.length,
-                                      flat: flat, errors: errs,
+                                      flat: flat, errors: errs, verdict: box('verdict'),
+                                      warnings: box('warnings'), images: box('images'),
                                       scrollWidth: document.documentElement.scrollWidth});
     document.body.appendChild(pre);
   });
@@ -193,6 +202,10 @@ def check_browser(exe, tmp, report):
     pptest.check(res.get("svgs", 0) >= 12 and res.get("flat") == 0,
                  "every SVG laid out with a non-zero box (%s svgs)" % res.get("svgs"))
     pptest.check(res.get("errors") == [] and not console, "no script errors or console output")
+    v, w, i = res.get("verdict"), res.get("warnings"), res.get("images")
+    pptest.check(v and w and i and v[1] > 0 and w[1] > 0 and v[0] < w[0] < i[0] and v[0] < 300,
+                 "laid out: the verdict banner near the top (y %s), then the warnings, then the "
+                 "images (boxes %s %s %s)" % (v and v[0], v, w, i))
     pptest.check(0 < res.get("scrollWidth", 1e9) <= 1280,
                  "no horizontal overflow at 1280 px (scrollWidth %s)" % res.get("scrollWidth"))
 

@@ -6,7 +6,9 @@
  * yellow colour ramp with SVG colour bars labelled in input units, trace and
  * autocorrelation plots per chain for every trace column (inline SVG),
  * pooled histograms of lambda and delta, a diagnostics table coloured by
- * thresholds, the settings, the warnings and a cautions paragraph.
+ * thresholds, the settings, the warnings and a cautions paragraph; at the
+ * top a verdict banner (converged or not, warnings per part), with the
+ * warnings right under it when there are any.
  * Images are 8-bit PNGs made in memory with libpng and embedded as base64
  * data URIs; every string from the caller is HTML-escaped.
  *
@@ -50,6 +52,17 @@ typedef struct pp_report_input {
     size_t nsettings;
     const char *const *warnings; /* plain sentences */
     size_t nwarnings;
+    /* What each warning is about (pp_warning_part), nwarnings entries, or
+     * NULL: the warnings are listed as one list; otherwise in groups
+     * (hyperparameters, pixel estimates, other). */
+    const pp_warning_part *warning_parts;
+    /* The run's verdict for the banner at the top of the page (converged or
+     * not, the warnings per part, the --iters to ask for): the figures and
+     * the sentence pp_convergence_verdict made of them. NULL convergence:
+     * no banner. When there are warnings the warnings section comes first,
+     * right under the banner. */
+    const pp_convergence *convergence;
+    const char *verdict;
     const char *const *notes; /* plain sentences: information, not warnings */
     size_t nnotes;
     double level;      /* credible level of lo/hi, in (0, 1) */

@@ -151,6 +151,39 @@ pp_fft_plans pp_sampler_fft_plans(const pp_sampler *s);
 size_t pp_sampler_warning_count(const pp_sampler *s);
 const char *pp_sampler_warning(const pp_sampler *s, size_t i);
 
+/* What a warning is about. PP_WARN_HYPER: a global trace column (lambda,
+ * delta, the log-likelihood, psf_width, kappa: one number for the whole
+ * frame) fails a convergence criterion. PP_WARN_PIXELS: the pixel estimates
+ * do (the probe pixels' traces, or the per-pixel R-hat map). PP_WARN_OTHER:
+ * everything else (acceptance, burn-in too short to adapt, a hyperprior
+ * that outweighs the data, the inner solver's cap). */
+typedef enum pp_warning_part {
+    PP_WARN_OTHER = 0,
+    PP_WARN_HYPER,
+    PP_WARN_PIXELS
+} pp_warning_part;
+/* The part of the i-th warning (PP_WARN_OTHER when i >= count). */
+pp_warning_part pp_sampler_warning_part(const pp_sampler *s, size_t i);
+
+/* The number of iterations after burn-in (--iters) to ask for so that every
+ * convergence criterion that failed would pass, or 0 when none failed (or
+ * before a successful run). An estimate, from two rules:
+ *  - ESS: past burn-in, a chain's ESS grows about linearly with its number
+ *    of draws, so a failing bulk- or tail-ESS (of any trace column or probe
+ *    pixel) reaches 100 per chain after about iters * 100 * chains / ESS
+ *    iterations; the largest such figure, times a margin for the ESS
+ *    estimate's own error (src/sampler_diag.c), is taken.
+ *  - R-hat (a column, or the pixel map's rule): chains that disagree need
+ *    more draws by an amount no diagnostic predicts; the common practice
+ *    of at least doubling the run is taken.
+ * The larger of the two, rounded up to two significant digits. While the
+ * chains disagree the ESS per draw of a short run looks better than it is,
+ * so the figure is then a lower bound (measured in src/sampler_diag.c). "iters"
+ * here is what the diagnostics saw: kept draws per chain times --thin.
+ * Reads only the finished diagnostics (pp_sampler_diagnostics and the
+ * R-hat map); cost: one pass over the trace columns and the map. */
+unsigned long pp_sampler_iters_suggested(const pp_sampler *s);
+
 /* A run's headline convergence figures: what `sample` prints, what
  * summary.json records under "convergence" and what a batch manifest lists.
  * rhat_max is the worst R-hat and ess_bulk_min the lowest bulk-ESS over
@@ -159,14 +192,41 @@ const char *pp_sampler_warning(const pp_sampler *s, size_t i);
  * successful run or with too few kept draws); warnings is
  * pp_sampler_warning_count(s); converged is 1 exactly when warnings is 0
  * (so `--strict` fails exactly the runs that are not converged).
- * Cost: one pass over the trace columns. */
+ * The two parts (pp_warning_part): hyper_warnings and pixel_warnings count the
+ * warnings of each part (the rest, warnings minus both, are
+ * PP_WARN_OTHER); hyper_converged / pixels_converged are 1 exactly when
+ * that part has no warning; hyper_failing names the global columns that
+ * fail a criterion, ", "-separated ("" when none); iters_suggested is
+ * pp_sampler_iters_suggested(s).
+ * Cost: one pass over the trace columns, the map and the warnings. */
 typedef struct pp_convergence {
     double rhat_max;
     double ess_bulk_min;
     size_t warnings;
     int converged;
+    size_t hyper_warnings, pixel_warnings;
+    int hyper_converged, pixels_converged;
+    char hyper_failing[64];
+    unsigned long iters_suggested;
 } pp_convergence;
 void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out);
+
+/* One plain sentence saying whether the run converged and, when not, which
+ * part failed (the hyperparameters, the pixel estimates, both, or only
+ * other warnings), what that means for the pixel bounds (when only global
+ * columns fail, the pixel bounds are sound as far as the diagnostics can
+ * tell) and the --iters to ask for. Written into buf (always
+ * NUL-terminated, truncated to len - 1 bytes; len >= 1); PP_VERDICT_MAX
+ * bytes always suffice. Reads only *cv, so every program holding the
+ * figures words them the same way. */
+#define PP_VERDICT_MAX 512
+void pp_convergence_verdict(const pp_convergence *cv, char *buf, size_t len);
+
+/* Which part kept the run from converging, as a short label for tables
+ * (batch manifests): "" when converged, else "hyperparameters", "pixels",
+ * "hyperparameters and pixels", or "other" (only warnings of neither part).
+ * Static text. */
+const char *pp_convergence_failed(const pp_convergence *cv);
 
 /* The inner linear solver of gibbs under the adaptive prior (conjugate
  * gradients of the x-draws), summed over chains: draws made (burn-in

@@ -44,6 +44,8 @@ typedef struct batch_row {
     double rhat_max, ess_bulk_min; /* pp_convergence of the run */
     int warnings;                  /* pp_convergence: count, -1 unknown */
     int converged;                 /* pp_convergence: 1, 0, or -1 unknown */
+    char failed[32];               /* pp_convergence_failed: "" converged or unknown */
+    unsigned long iters_suggested; /* pp_convergence: 0 none (or unknown) */
     char message[BATCH_MSG];
 } batch_row;
 
@@ -99,6 +101,10 @@ void batch_clean_folder(const char *dir);
 void batch_read_summary(const char *dir, int convergence, batch_row *r);
 /* Fills the row's convergence fields from the run's figures. */
 void batch_row_convergence(batch_row *r, const pp_convergence *cv);
+/* The per-frame line's verdict: "N warnings, converged", or "N warnings,
+ * not converged (<part>): run about K iterations: --iters K"; just the
+ * warnings when unknown. */
+void batch_row_verdict(const batch_row *r, char *buf, size_t len);
 /* --strict: a complete row (done or skipped) that is not converged becomes
  * BATCH_FAILED_STRICT with a message saying so. No-op otherwise. */
 void batch_apply_strict(const batch_ctx *c, batch_row *r);

@@ -56,6 +56,24 @@ void batch_row_convergence(batch_row *r, const pp_convergence *cv)
     r->ess_bulk_min = cv->ess_bulk_min;
     r->warnings = (int)cv->warnings;
     r->converged = cv->converged;
+    snprintf(r->failed, sizeof r->failed, "%s", pp_convergence_failed(cv));
+    r->iters_suggested = cv->iters_suggested;
+}
+
+void batch_row_verdict(const batch_row *r, char *buf, size_t len)
+{
+    char warn[32] = "no warnings";
+    if (r->warnings > 0)
+        snprintf(warn, sizeof warn, "%d warning%s", r->warnings, r->warnings == 1 ? "" : "s");
+    if (r->converged > 0)
+        snprintf(buf, len, "%s, converged", warn);
+    else if (r->converged == 0 && r->iters_suggested)
+        snprintf(buf, len, "%s, not converged (%s): run about %lu iterations: --iters %lu", warn,
+                 r->failed, r->iters_suggested, r->iters_suggested);
+    else if (r->converged == 0)
+        snprintf(buf, len, "%s, not converged (%s)", warn, r->failed);
+    else
+        snprintf(buf, len, "%s", warn);
 }
 
 void batch_apply_strict(const batch_ctx *c, batch_row *r)
@@ -64,9 +82,10 @@ void batch_apply_strict(const batch_ctx *c, batch_row *r)
         (r->status != BATCH_DONE && r->status != BATCH_SKIPPED))
         return;
     snprintf(r->message, sizeof r->message,
-             "%d convergence warning%s under --strict (outputs written; the warnings are in "
-             "%.600s/summary.json)",
-             r->warnings, r->warnings == 1 ? "" : "s", r->output);
+             "%d convergence warning%s under --strict, not converged (%s) (outputs written; "
+             "the warnings are in %.600s/summary.json)",
+             r->warnings, r->warnings == 1 ? "" : "s", r->failed[0] ? r->failed : "unknown part",
+             r->output);
     r->status = BATCH_FAILED_STRICT;
 }
 
@@ -197,6 +216,14 @@ static void read_convergence(const char *text, batch_row *r)
     r->warnings = (int)w;
     cv += strlen(", \"converged\": ");
     r->converged = strncmp(cv, "true", 4) == 0 ? 1 : strncmp(cv, "false", 5) == 0 ? 0 : -1;
+    double n = number_after(p, "\n    \"iters_suggested\": ");
+    r->iters_suggested = isfinite(n) && n > 0 ? (unsigned long)n : 0;
+    const char *fl = strstr(p, "\n    \"failed\": \"");
+    if (fl) {
+        fl += strlen("\n    \"failed\": \"");
+        size_t k = strcspn(fl, "\"\n");
+        snprintf(r->failed, sizeof r->failed, "%.*s", (int)k, fl);
+    }
 }
 
 void batch_read_summary(const char *dir, int convergence, batch_row *r)
@@ -243,8 +270,9 @@ static void csv_num(FILE *f, double v)
 }
 
 static const char csv_header[] = "path,page,output,status,seconds,lambda_mean,delta_mean,"
-                                 "rhat_max,ess_bulk_min,warnings,converged,message\n";
-#define CSV_FIELDS 12
+                                 "rhat_max,ess_bulk_min,warnings,converged,failed,"
+                                 "iters_suggested,message\n";
+#define CSV_FIELDS 14
 
 static void write_csv(FILE *f, const batch_row *rows, size_t n)
 {
@@ -265,6 +293,9 @@ static void write_csv(FILE *f, const batch_row *rows, size_t n)
         csv_num(f, r->ess_bulk_min);
         csv_num(f, r->warnings >= 0 ? r->warnings : NAN);
         fputs(r->converged > 0 ? ",true," : r->converged == 0 ? ",false," : ",,", f);
+        csv_text(f, r->failed);
+        csv_num(f, r->iters_suggested ? (double)r->iters_suggested : NAN);
+        fputc(',', f);
         csv_text(f, r->message);
         fputc('\n', f);
     }
@@ -318,6 +349,12 @@ static void write_json(FILE *f, const batch_row *rows, size_t n, const char *ind
                 r->converged > 0    ? "true"
                 : r->converged == 0 ? "false"
                                     : "null");
+        fputs(", \"failed\": ", f);
+        if (r->converged == 0)
+            pp_json_write_string(f, r->failed);
+        else
+            fputs("null", f);
+        json_num(f, "iters_suggested", r->iters_suggested ? (double)r->iters_suggested : NAN);
         fputs(", \"message\": ", f);
         pp_json_write_string(f, r->message);
         fputc('}', f);
@@ -406,7 +443,10 @@ static int parse_line(const char *line, batch_row *r)
     double w = field_num(f[9]);
     r->warnings = isfinite(w) ? (int)w : -1;
     r->converged = strcmp(f[10], "true") == 0 ? 1 : strcmp(f[10], "false") == 0 ? 0 : -1;
-    snprintf(r->message, sizeof r->message, "%s", f[11]);
+    snprintf(r->failed, sizeof r->failed, "%.31s", f[11]);
+    double it = field_num(f[12]);
+    r->iters_suggested = isfinite(it) && it > 0 ? (unsigned long)it : 0;
+    snprintf(r->message, sizeof r->message, "%s", f[13]);
     return r->status < 0 || !r->path[0] ? -1 : 0;
 }
 

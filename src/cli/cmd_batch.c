@@ -61,16 +61,18 @@ static void batch_help(FILE *fp)
           "OUTDIR/index.csv and index.json list every frame (path, page, output, status\n"
           "done/failed/failed-strict/skipped/pending, seconds, lambda and delta means, worst\n"
           "R-hat and lowest bulk-ESS over the trace columns, the number of convergence\n"
-          "warnings, converged true/false, message) and are rewritten atomically as frames\n"
-          "finish. A frame that cannot be read or crashes is recorded as failed and the\n"
-          "others go on; with --strict a frame with convergence warnings is failed-strict\n"
-          "(its outputs are written). Entries of INDIR that are not PNG/TIFF frames (and\n"
-          "subfolders without --recursive) are named once at the start. Each frame prints a\n"
-          "progress line per 10 % (unless --quiet or --progress none) and a last line\n"
-          "'done, N warnings'. A frame folder finished with other settings is replaced only\n"
-          "with --overwrite (otherwise nothing is done). --threads is the total thread\n"
-          "budget of the batch. SIGINT/SIGTERM: running frames stop without writing, the\n"
-          "manifest is updated, and the command to resume is printed.\n"
+          "warnings, converged true/false, the part that failed (hyperparameters, pixels,\n"
+          "hyperparameters and pixels, or other), the suggested --iters, message) and are\n"
+          "rewritten atomically as frames finish. A frame that cannot be read or crashes is\n"
+          "recorded as failed and the others go on; with --strict a frame with convergence\n"
+          "warnings is failed-strict (its outputs are written). Entries of INDIR that are not\n"
+          "PNG/TIFF frames (and subfolders without --recursive) are named once at the start.\n"
+          "Each frame prints a progress line per 10 % (unless --quiet or --progress none) and\n"
+          "a last line 'done, N warnings, converged' or 'done, N warnings, not converged\n"
+          "(<part>): run about K iterations: --iters K'. A frame folder finished with other\n"
+          "settings is replaced only with --overwrite (otherwise nothing is done). --threads\n"
+          "is the total thread budget of the batch. SIGINT/SIGTERM: running frames stop\n"
+          "without writing, the manifest is updated, and the command to resume is printed.\n"
           "OUTDIR may not be inside INDIR; nothing is ever written into INDIR. Under mpirun,\n"
           "--jobs is not used: each worker rank runs one frame at a time with --threads\n"
           "threads (default: cores / ranks on the node).\n\nOptions:\n",
@@ -192,9 +194,8 @@ static void on_done(void *ctx, size_t idx, const batch_row *row)
         batch_write_manifest(s->c->outdir, s->base, s->rows, s->nsel, s->c->indir, s->shard);
         clock_gettime(CLOCK_MONOTONIC, &s->last_write);
     }
-    char warn[32] = "no warnings";
-    if (row->warnings > 0)
-        snprintf(warn, sizeof warn, "%d warning%s", row->warnings, row->warnings == 1 ? "" : "s");
+    char warn[256];
+    batch_row_verdict(row, warn, sizeof warn);
     if (!s->quiet && row->status == BATCH_DONE)
         fprintf(stderr, "pixpost: [%zu/%zu] %s: done, %s (%.1f s)\n", s->finished, s->ntodo,
                 row->output, warn, row->seconds);

@@ -17,20 +17,30 @@ static void join_args(int argc, char **argv, char *buf, size_t len)
         used += (size_t)snprintf(buf + used, len - used, " %s", argv[i]);
 }
 
+/* The summary lines: outputs, headline figures, the verdict sentence
+ * (pp_convergence_verdict: which part failed, the --iters to ask for),
+ * then each warning and note. */
 static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double seconds)
 {
     size_t nw = pp_sampler_warning_count(s);
     const pp_trace *t = pp_sampler_trace(s);
     pp_convergence cv;
+    char verdict[PP_VERDICT_MAX], count[160] = "no convergence warnings";
     pp_sampler_convergence(s, &cv);
+    pp_convergence_verdict(&cv, verdict, sizeof verdict);
+    if (nw)
+        snprintf(count, sizeof count,
+                 "%zu warning%s (%zu on hyperparameters, %zu on pixels, %zu other) below", nw,
+                 nw == 1 ? "" : "s", cv.hyper_warnings, cv.pixel_warnings,
+                 nw - cv.hyper_warnings - cv.pixel_warnings);
     fprintf(stderr,
             "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse .tif; mean, sd .png; "
             "summary.json; trace.csv; report.html)\n",
             o->outdir);
     fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; worst R-hat %.3f, lowest "
                     "bulk-ESS %.0f: %s\n",
-            t->chains, t->kept, seconds, cv.rhat_max, cv.ess_bulk_min,
-            nw ? "see the warnings below" : "no convergence warnings");
+            t->chains, t->kept, seconds, cv.rhat_max, cv.ess_bulk_min, count);
+    fprintf(stderr, "pixpost: verdict: %s\n", verdict);
     for (size_t i = 0; i < nw; i++)
         fprintf(stderr, "pixpost:   %s\n", pp_sampler_warning(s, i));
     for (size_t i = 0; i < pp_sampler_note_count(s); i++)

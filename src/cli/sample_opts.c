@@ -293,7 +293,11 @@ void cli_sample_help(FILE *fp)
     fputs("Usage: pixpost sample FRAME --psf SPEC -o OUTDIR [options]\n\n"
           "Draws MCMC samples from the posterior of the sharp image behind FRAME (a grayscale\n"
           "PNG or TIFF in camera units) and writes the posterior mean, sd, credible bounds,\n"
-          "traces and diagnostics into OUTDIR.\n\nOptions:\n",
+          "traces and diagnostics into OUTDIR. At the end it prints a verdict: converged, or\n"
+          "which part did not converge (the hyperparameters, global quantities such as delta;\n"
+          "or the pixel estimates) and about how many iterations to ask for (--iters N; an\n"
+          "estimate from the measured ESS per draw, a lower bound while R-hat fails).\n\n"
+          "Options:\n",
           fp);
     cli_print_options(fp, tables, cli_sample_default, NULL);
     fputs("\nExit status: 0 success; 1 bad usage or input; 3 convergence warnings with "
