@@ -89,6 +89,7 @@ int main(int argc, char **argv)
     pp_sampler_return_memory(); /* as the pixpost command does */
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     if (pp_sampler_kind_parse(argv[1], &cfg.kind) != PP_OK ||
         pp_boundary_parse(opt(argc, argv, "boundary", "periodic"), &cfg.boundary) != PP_OK ||
         pp_prior_parse(opt(argc, argv, "prior", "gmrf2"), &cfg.prior) != PP_OK)

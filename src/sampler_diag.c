@@ -78,7 +78,8 @@ static pp_status scalar_diagnostics(pp_sampler *s)
 {
     const pp_trace *t = &s->trace;
     size_t n = t->kept, total = (size_t)t->chains * n;
-    double *x = malloc(total * sizeof *x);
+    double *x = malloc((total ? total : 1) * sizeof *x);
+    free(s->diag);
     s->diag = calloc(t->ncols, sizeof *s->diag);
     if (!x || !s->diag) {
         free(x);
@@ -103,10 +104,17 @@ static void warn_scalars(pp_sampler *s)
 }
 
 /* Pixel maps from each chain's moments over all its kept draws (mean c,
- * M2) and its first half's mean a (pp_chain_add_draw): the second half's
+ * M2) and its first half's mean a (the first n1 = s->half_n draws, frozen
+ * by pp_chain_add_draw or at a round's end): the second half's
  * mean is b = (n c - n1 a) / n2, and the two halves' M2 sum to
  * M2 - n1 (a - c)^2 - n2 (b - c)^2 (Chan, Golub & LeVeque's merge solved for
- * the part; only that sum enters W). a is kept in single precision (4
+ * the part; only that sum enters W). Halves of unequal length (an odd
+ * count; a run in rounds whose last round was cut by a cap) enter as
+ * halves of m = 2 n1 n2 / (n1 + n2) draws, the harmonic mean, with which
+ * the half means' spread B/m has the expectation sigma^2 / m of equal
+ * halves; W is then pooled over the n1 + n2 - 2 degrees of freedom of each
+ * chain's two halves (the M2 sum rescaled to what pp_diag_pixel divides
+ * by). With equal halves both reduce to the classic split-R-hat. a is kept in single precision (4
  * bytes per pixel per chain saved): its rounding, at most 6e-8 |a|, moves
  * both half means by about that much, which changes their spread (B, and
  * with it the MCSE map) by a relative 6e-8 |mean| / spread. Measured
@@ -116,8 +124,11 @@ static void warn_scalars(pp_sampler *s)
  * from 2 x chains batch means, is tens of per cent. */
 static pp_status pixel_maps(pp_sampler *s)
 {
-    size_t m = s->trace.kept / 2, nc = s->cfg.chains, npix = s->height * s->width;
-    if (m < 2)
+    size_t nc = s->cfg.chains, npix = s->height * s->width;
+    pp_image_free(s->rhat_map);
+    pp_image_free(s->mcse_map);
+    s->rhat_map = s->mcse_map = NULL;
+    if (s->half_n < 2 || s->trace.kept < s->half_n + 2)
         return PP_OK; /* too few draws per half: no maps */
     double *hm = malloc(2 * nc * sizeof *hm);
     pp_status st = hm ? PP_OK : pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
@@ -132,10 +143,9 @@ static pp_status pixel_maps(pp_sampler *s)
         condvar += s->chain[k].condvar_sum;
         kept += (double)s->chain[k].kept;
     }
-    /* With an odd number of kept draws the second halves hold one draw
-     * more; W uses the first halves' length m (a negligible difference for
-     * the hundreds of draws a run keeps). */
-    double n1 = (double)m, n2 = (double)s->trace.kept - n1, n = n1 + n2;
+    double n1 = (double)s->half_n, n2 = (double)s->trace.kept - n1, n = n1 + n2;
+    double m = n1 == n2 ? n1 : 2 * n1 * n2 / n;
+    double wscale = n1 == n2 ? 1.0 : 2 * (m - 1) / (n - 2);
     for (size_t p = 0; st == PP_OK && p < npix; p++) {
         double w = 0;
         for (size_t k = 0; k < nc; k++) {
@@ -146,7 +156,7 @@ static pp_status pixel_maps(pp_sampler *s)
             hm[2 * k + 1] = b;
             w += part > 0 ? part : 0.0;
         }
-        pp_diag_pixel(hm, 2 * nc, w, n1, condvar / kept, &s->rhat_map->data[p],
+        pp_diag_pixel(hm, 2 * nc, w * wscale, m, condvar / kept, &s->rhat_map->data[p],
                       &s->mcse_map->data[p], NULL);
     }
     free(hm);
@@ -159,20 +169,30 @@ static pp_status pixel_maps(pp_sampler *s)
  * exceeds MAP_MAX (thresholds chosen here, not from a reference). */
 #define MAP_FRACTION 0.01
 #define MAP_MAX 1.1
-static void warn_map(pp_sampler *s)
+/* 1 when the map breaks the rule; *bad pixels above RHAT_LIMIT, the worst. */
+static int map_fails(const pp_sampler *s, size_t *bad_out, double *worst_out)
 {
-    if (!s->rhat_map)
-        return;
     size_t n = s->height * s->width, bad = 0;
     double worst = 0;
-    for (size_t i = 0; i < n; i++) {
+    for (size_t i = 0; s->rhat_map && i < n; i++) {
         double r = s->rhat_map->data[i];
         if (!isfinite(r))
             continue;
         bad += r > RHAT_LIMIT;
         worst = r > worst ? r : worst;
     }
-    if ((double)bad > MAP_FRACTION * (double)n || worst > MAP_MAX)
+    *bad_out = bad;
+    *worst_out = worst;
+    return (double)bad > MAP_FRACTION * (double)n || worst > MAP_MAX;
+}
+
+static void warn_map(pp_sampler *s)
+{
+    if (!s->rhat_map)
+        return;
+    size_t n = s->height * s->width, bad;
+    double worst;
+    if (map_fails(s, &bad, &worst))
         pp_sampler_warn(s,
                         "%zu of %zu pixels (%.1f%%) have a split-R-hat above %.2f, the worst "
                         "%.3f (rhat.tif): the chains have not mixed there; run longer",
@@ -226,6 +246,10 @@ static void warn_solver(pp_sampler *s)
 
 pp_status pp_sampler_diagnose(pp_sampler *s)
 {
+    for (size_t i = s->nwarn_setup; i < s->nwarnings; i++)
+        free(s->warnings[i]);
+    if (s->nwarnings > s->nwarn_setup)
+        s->nwarnings = s->nwarn_setup;
     warn_solver(s);
     pp_status st = scalar_diagnostics(s);
     if (st == PP_OK) {
@@ -237,6 +261,53 @@ pp_status pp_sampler_diagnose(pp_sampler *s)
     if (st == PP_OK)
         warn_map(s);
     return st;
+}
+
+/* One column against the criteria: appends its first failure to why (if
+ * why is still empty) and raises *ratio to its ESS shortfall factor. */
+static int column_ok(const pp_sampler *s, size_t j, char *why, size_t len, double *ratio)
+{
+    const pp_diag_scalar *d = &s->diag[j];
+    const char *name = s->trace.names[j];
+    double ess_min = ESS_PER_CHAIN * s->cfg.chains;
+    int ok = 1;
+    if (isfinite(d->rhat) && d->rhat > RHAT_LIMIT) {
+        if (!why[0])
+            snprintf(why, len, "R-hat of %s %.3f > %.2f", name, d->rhat, RHAT_LIMIT);
+        ok = 0;
+    }
+    const double ess[2] = {d->ess_bulk, d->ess_tail};
+    for (int e = 0; e < 2; e++)
+        if (isfinite(ess[e]) && ess[e] < ess_min) {
+            if (!why[0])
+                snprintf(why, len, "%s-ESS of %s %.0f < %.0f", e ? "tail" : "bulk", name, ess[e],
+                         ess_min);
+            *ratio = fmax(*ratio, ess_min / fmax(ess[e], 1.0));
+            ok = 0;
+        }
+    return ok;
+}
+
+int pp_sampler_criteria(const pp_sampler *s, char *why, size_t len, double *ess_ratio)
+{
+    int ok = 1;
+    why[0] = 0;
+    *ess_ratio = 1.0;
+    if (!s->diag || s->trace.kept < 4) {
+        snprintf(why, len, "too few kept draws (%zu per chain)", s->trace.kept);
+        return 0;
+    }
+    for (size_t j = 0; j < s->trace.ncols; j++)
+        ok &= column_ok(s, j, why, len, ess_ratio);
+    size_t bad;
+    double worst;
+    if (map_fails(s, &bad, &worst)) {
+        if (!why[0])
+            snprintf(why, len, "pixel R-hat map: %zu pixels above %.2f, worst %.3f", bad,
+                     RHAT_LIMIT, worst);
+        ok = 0;
+    }
+    return ok;
 }
 
 const pp_diag_scalar *pp_sampler_diagnostics(const pp_sampler *s) { return s->diag; }
