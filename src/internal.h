@@ -103,7 +103,7 @@ typedef struct pp_slot {
     pp_complex *cbuf, *cbuf2, *yhat; /* yhat: pad only */
     double *rbuf, *yaug;             /* yaug: pad only */
     void *kwork;                     /* the kernel's working state (kernel->prepare) */
-    long resident;                   /* the chain whose state the slot holds, -1: none */
+    long resident;                   /* the chain whose state the slot holds (rounds) */
 } pp_slot;
 
 /* One chain's state and scratch; owned by the sampler. */
@@ -221,7 +221,7 @@ struct pp_sampler {
     unsigned nslots;
     unsigned char **park; /* rounds with chains > nslots: park stores, one per chain
                            * beyond the slots (sampler.c, park_swap), else NULL */
-    long *park_owner;     /* the chain whose state each park store holds */
+    long *park_of;        /* per chain: the store holding its state, -1: in its slot */
     size_t park_bytes;    /* bytes of one store */
     unsigned long t_end;     /* run_chain advances every chain to this iteration */
     unsigned long keep_from; /* first iteration that may be kept (the burn-in used) */
@@ -230,6 +230,8 @@ struct pp_sampler {
     size_t half_n;           /* draws per chain behind mean1 (the maps' first half) */
     size_t trace_cap;        /* rows per chain the trace has room for */
     size_t nwarn_setup;      /* warnings from set-up: kept when a round's go */
+    int maps_final;          /* pp_sampler_diagnose makes the MCSE map too (the last call;
+                              * a round's check makes the R-hat map only) */
     pp_run_length length;    /* what the run did (pp_sampler_run_length) */
     unsigned long long progress_total;
     pp_trace trace;

@@ -581,37 +581,29 @@ static size_t slot_regions(const pp_sampler *s, pp_slot *b, pp_region *out)
 
 /* Makes chain k the one whose state slot b holds: swaps the bytes of the
  * slot's state regions with those of the park store holding chain k's,
- * which then holds the resident chain's. Lossless (a byte swap); a chain
- * not yet started (t = 0) brings no state and needs none. */
+ * which then holds the resident chain's. Lossless (a byte swap). Chain k
+ * (k >= nslots) starts out owning store k - nslots, empty; slot b starts
+ * out holding chain b. A store only ever passes between the chains of one
+ * slot (k % nslots), so the threads, one per slot, never share one. */
 static void park_swap(pp_sampler *s, pp_slot *b, unsigned k)
 {
-    if (b->resident == (long)k || !s->park) {
-        b->resident = (long)k;
+    if (!s->park || b->resident == (long)k)
         return;
-    }
-    if (b->resident < 0 && s->chain[k].t == 0) { /* nothing to swap */
-        b->resident = (long)k;
-        return;
-    }
-    size_t p = 0, nstore = s->cfg.chains - s->nslots;
-    while (p < nstore && s->park_owner[p] != (long)k)
-        p++;
-    if (p == nstore) /* k holds no store: it is fresh, the resident moves out */
-        for (p = 0; p < nstore && s->park_owner[p] != -1; p++)
-            ;
-    pp_region r[PP_MAX_REGIONS + 1];
-    size_t n = slot_regions(s, b, r), off = 0;
+    long p = s->park_of[k], r = b->resident;
+    pp_region reg[PP_MAX_REGIONS + 1];
+    size_t n = slot_regions(s, b, reg), off = 0;
     unsigned char *st = s->park[p];
     for (size_t j = 0; j < n; j++) {
-        unsigned char *a = r[j].p;
-        for (size_t i = 0; i < r[j].bytes; i++) {
+        unsigned char *a = reg[j].p;
+        for (size_t i = 0; i < reg[j].bytes; i++) {
             unsigned char v = a[i];
             a[i] = st[off + i];
             st[off + i] = v;
         }
-        off += r[j].bytes;
+        off += reg[j].bytes;
     }
-    s->park_owner[p] = b->resident;
+    s->park_of[r] = p;
+    s->park_of[k] = -1;
     b->resident = (long)k;
     if (b->yaug && s->chain[k].t > 0)
         pp_fft_forward(s->fft, b->yaug, b->yhat);
@@ -630,17 +622,19 @@ static pp_status plan_park(pp_sampler *s)
     if (bytes == 0)
         return PP_OK;
     s->park = calloc(nstore, sizeof *s->park);
-    s->park_owner = malloc(nstore * sizeof *s->park_owner);
-    if (!s->park || !s->park_owner)
+    s->park_of = malloc(s->cfg.chains * sizeof *s->park_of);
+    if (!s->park || !s->park_of)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the chains' park stores");
     s->park_bytes = bytes;
-    for (size_t p = 0; p < nstore; p++) {
-        s->park_owner[p] = -1;
+    for (unsigned k = 0; k < s->cfg.chains; k++)
+        s->park_of[k] = k < s->nslots ? -1 : (long)(k - s->nslots);
+    for (unsigned b = 0; b < s->nslots; b++)
+        s->slot[b].resident = b;
+    for (size_t p = 0; p < nstore; p++)
         if (!(s->park[p] = calloc(1, bytes)))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the chains' park stores (%zu bytes "
                                          "each)",
                            bytes);
-    }
     return PP_OK;
 }
 
@@ -649,9 +643,9 @@ static void free_park(pp_sampler *s)
     for (unsigned p = 0; s->park && p + s->nslots < s->cfg.chains; p++)
         free(s->park[p]);
     free(s->park);
-    free(s->park_owner);
+    free(s->park_of);
     s->park = NULL;
-    s->park_owner = NULL;
+    s->park_of = NULL;
 }
 
 static void free_slots(pp_sampler *s)
@@ -819,9 +813,12 @@ static pp_status run_round(pp_sampler *s, unsigned long t_end)
     return st == PP_OK ? run_segment(s, t_end) : st;
 }
 
-/* The end of a round: the kept draws so far become the maps' first half. */
+/* The end of a round: the kept draws so far become the maps' first half;
+ * the round's R-hat map goes (not to sit beside the next round's buffers). */
 static void close_round(pp_sampler *s)
 {
+    pp_image_free(s->rhat_map);
+    s->rhat_map = NULL;
     for (unsigned k = 0; k < s->cfg.chains; k++)
         freeze_mean(&s->chain[k]);
     s->half_n = s->chain[0].kept;
@@ -860,7 +857,7 @@ static pp_status end_run(pp_sampler *s, pp_status res, double t0)
     pp_run_length *L = &s->length;
     L->burn = s->keep_from;
     L->kept = s->trace.kept;
-    L->iters = (unsigned long)L->kept * s->cfg.thin;
+    L->iters = s->chain[0].t > s->keep_from ? s->chain[0].t - s->keep_from : 0;
     release_grid(s);
     for (size_t i = s->nwarn_setup; i < s->nwarnings; i++)
         free(s->warnings[i]);
@@ -872,6 +869,7 @@ static pp_status end_run(pp_sampler *s, pp_status res, double t0)
     size_t keep = s->nwarnings; /* finish's warnings stay */
     if (res == PP_OK) {
         s->nwarn_setup = keep;
+        s->maps_final = 1;
         res = pp_sampler_diagnose(s);
     }
     free_moments(s); /* they have served the estimates and the maps */
@@ -982,6 +980,8 @@ static pp_status run_auto(pp_sampler *s, double t0)
             unsigned long next = next_round(s, want, spi, cap - (now - t0), &why);
             if (next == want) { /* only when the full round fits */
                 extend_burn(s, want);
+            pp_image_free(s->rhat_map);
+            s->rhat_map = NULL;
                 L->rounds = 0;
                 len = next;
                 continue;

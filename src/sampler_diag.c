@@ -134,7 +134,7 @@ static pp_status pixel_maps(pp_sampler *s)
     pp_status st = hm ? PP_OK : pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
     if (st == PP_OK)
         st = pp_image_create(s->width, s->height, &s->rhat_map);
-    if (st == PP_OK)
+    if (st == PP_OK && s->maps_final) /* a round's check needs the R-hat map only */
         st = pp_image_create(s->width, s->height, &s->mcse_map);
     /* The recorded field may be a conditional mean (gibbs, mtc): then the
      * draws' within-chain variance adds the mean conditional variance. */
@@ -157,7 +157,7 @@ static pp_status pixel_maps(pp_sampler *s)
             w += part > 0 ? part : 0.0;
         }
         pp_diag_pixel(hm, 2 * nc, w * wscale, m, condvar / kept, &s->rhat_map->data[p],
-                      &s->mcse_map->data[p], NULL);
+                      s->mcse_map ? &s->mcse_map->data[p] : NULL, NULL);
     }
     free(hm);
     return st;

@@ -40,15 +40,16 @@ static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double 
                         "converged\n",
                 L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s");
     else if (L->iters_needed)
-        fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations in %u rounds: "
+        fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
                         "stopped at --%s, not converged (%s; about %lu iterations after "
                         "burn-in would be needed)\n",
-                L->burn, L->iters, L->rounds, pp_stop_reason_name(L->stop), L->failed,
-                L->iters_needed);
+                L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s",
+                pp_stop_reason_name(L->stop), L->failed, L->iters_needed);
     else
-        fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations in %u rounds: "
+        fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
                         "stopped at --%s, not converged (%s)\n",
-                L->burn, L->iters, L->rounds, pp_stop_reason_name(L->stop), L->failed);
+                L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s",
+                pp_stop_reason_name(L->stop), L->failed);
     for (size_t i = 0; i < nw; i++)
         fprintf(stderr, "pixpost:   %s\n", pp_sampler_warning(s, i));
     for (size_t i = 0; i < pp_sampler_note_count(s); i++)
