@@ -230,6 +230,7 @@ struct pp_sampler {
     size_t half_n;           /* draws per chain behind mean1 (the maps' first half) */
     size_t trace_cap;        /* rows per chain the trace has room for */
     size_t nwarn_setup;      /* warnings from set-up: kept when a round's go */
+    size_t diag_kept;        /* kept draws per chain behind s->diag (0: stale) */
     int maps_final;          /* pp_sampler_diagnose makes the MCSE map too (the last call;
                               * a round's check makes the R-hat map only) */
     pp_run_length length;    /* what the run did (pp_sampler_run_length) */

@@ -743,6 +743,7 @@ static pp_status run_segment(pp_sampler *s, unsigned long t_end)
         return pp_fail(PP_ERR_NOMEM, "out of memory");
     }
     s->t_end = t_end;
+    s->diag_kept = 0; /* new draws: the diagnostics are stale */
     s->progress_total = (unsigned long long)nc * t_end;
     if (s->cfg.progress) /* shown at once: an iteration may take seconds */
         s->cfg.progress(s->cfg.progress_ctx, s->progress_done, s->progress_total);

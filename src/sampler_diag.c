@@ -251,7 +251,9 @@ pp_status pp_sampler_diagnose(pp_sampler *s)
     if (s->nwarnings > s->nwarn_setup)
         s->nwarnings = s->nwarn_setup;
     warn_solver(s);
-    pp_status st = scalar_diagnostics(s);
+    /* the last round's check already has them when no draw came since */
+    pp_status st = s->diag && s->diag_kept == s->trace.kept ? PP_OK : scalar_diagnostics(s);
+    s->diag_kept = st == PP_OK ? s->trace.kept : 0;
     if (st == PP_OK) {
         warn_hyperprior(s);
         warn_scalars(s);
