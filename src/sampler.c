@@ -4,8 +4,13 @@
  * Planning (pp_sampler_create) does the allocation the chains need, the FFT
  * plans, the transfer function, the prior eigenvalues, the data spectrum and
  * rough scale estimates for dispersed chain starts. Chains run in parallel
- * over OpenMP threads, each on its own Philox stream; a chain runs start to
- * finish on one thread, on that thread's working buffers (pp_slot). Results
+ * over OpenMP threads, each on its own Philox stream; chain k always runs on
+ * the working buffers of slot k % nslots (one slot per thread). A fixed run
+ * (--iters N) runs each chain start to finish in one go; a run in rounds
+ * (--iters auto, sampler.h "Run length") advances every chain to the
+ * round's end, checks the diagnostics and decides the next round, and a
+ * slot that hosts several chains swaps their working state with park
+ * stores in between (park_swap; bytes per pixel in README "Limits"). Results
  * are pooled in chain order, so they do not depend on the number of threads.
  * pp_sampler_run then frees the grid-sized buffers before it allocates the
  * estimates and maps, and the chains' frame moments once those are made.
