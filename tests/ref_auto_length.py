@@ -14,6 +14,9 @@
 (d) Same seed, same outputs whatever --threads for the auto run of (b)
     that stopped by convergence (4 chains on 1 and 2 threads: on 1 thread
     the chains take turns on one set of buffers between rounds).
+(e) batch runs each frame with --iters auto; --resume skips finished frames
+    with the same settings, and counts other caps as other settings (the
+    settings hash holds the run-length mode and caps).
 Thresholds (R-hat 1.01, 100 ESS per chain) are those of Vehtari et al.,
 Bayesian Analysis 16 (2021), as sampler.h states.
 """
@@ -102,6 +105,29 @@ for cap, reason in ((["--max-iters", "1200"], "max-iters"), (["--max-time", "0.0
                  "%s: sample's line names the cap (%r)" % (reason, p.stderr))
     p = pptest.run(hard + cap + ["--strict", "-o", out + "_strict"], check=False)
     pptest.check(p.returncode == 3, "%s under --strict: exit 3 (got %d)" % (reason, p.returncode))
+
+# ---- (e) batch and --resume -------------------------------------------------
+bin_ = P("batch_in")
+os.makedirs(bin_)
+tifffile.imwrite(os.path.join(bin_, "a.tif"), g.astype(np.float32))
+tifffile.imwrite(os.path.join(bin_, "b.tif"), g[::-1].copy().astype(np.float32))
+bargs = ["batch", bin_, "-o", P("batch_out")] + PSF + ["--prior", "gmrf1", "--boundary",
+                                                        "periodic", "--jobs", "1"]
+p = pptest.run(bargs, check=False)
+pptest.check(p.returncode == 0, "batch with --iters auto: exit 0 (%r)" % p.stderr[-300:])
+for f in ("a", "b"):
+    L = summary(P("batch_out", f))["run_length"]
+    pptest.check(L["mode"] == "auto" and L["stop"] == "converged",
+                 "batch frame %s: auto, converged (%r)" % (f, L))
+before = open(P("batch_out", "a", "mean.tif"), "rb").read()
+p = pptest.run(bargs + ["--resume"], check=False)
+pptest.check(p.returncode == 0 and "2 skipped" in p.stderr,
+             "batch --resume with the same settings skips both frames (%r)" % p.stderr[-300:])
+pptest.check(open(P("batch_out", "a", "mean.tif"), "rb").read() == before,
+             "--resume leaves the finished frame as it was")
+p = pptest.run(bargs + ["--resume", "--max-iters", "5000"], check=False)
+pptest.check(p.returncode == 1 and "--overwrite" in p.stderr,
+             "batch --resume with another cap refuses without --overwrite (%r)" % p.stderr[-300:])
 
 # ---- a number still means exactly that many ----------------------------------
 out = P("fixed")
