@@ -17,6 +17,10 @@
 (e) batch runs each frame with --iters auto; --resume skips finished frames
     with the same settings, and counts other caps as other settings (the
     settings hash holds the run-length mode and caps).
+(f) A converged auto run without a longer burn-in is the fixed run it
+    reports: --burn B --iters N from its run_length gives the same bytes
+    (rounds of doubling length keep every draw; tests/test_rounds.c checks
+    the same inside the library for every kernel).
 Thresholds (R-hat 1.01, 100 ESS per chain) are those of Vehtari et al.,
 Bayesian Analysis 16 (2021), as sampler.h states.
 """
@@ -105,6 +109,19 @@ for cap, reason in ((["--max-iters", "1200"], "max-iters"), (["--max-time", "0.0
                  "%s: sample's line names the cap (%r)" % (reason, p.stderr))
     p = pptest.run(hard + cap + ["--strict", "-o", out + "_strict"], check=False)
     pptest.check(p.returncode == 3, "%s under --strict: exit 3 (got %d)" % (reason, p.returncode))
+
+# ---- (f) the fixed run an auto run reports ---------------------------------
+per = ["sample", P("g.tif")] + PSF + ["--prior", "gmrf1", "--boundary", "periodic", "--sampler",
+                                      "gibbs", "--progress", "none"]
+pptest.run(per + ["-o", P("rep_auto")])
+L = summary(P("rep_auto"))["run_length"]
+pptest.check(L["stop"] == "converged" and L["rounds"] >= 2 and L["burn_extensions"] == 0,
+             "periodic gibbs: converged in rounds, no longer burn-in (%r)" % L)
+pptest.run(per + ["--burn", str(L["burn"]), "--iters", str(L["iters"]), "-o", P("rep_fixed")])
+for f in FILES:
+    a = open(P("rep_auto", f), "rb").read()
+    b = open(P("rep_fixed", f), "rb").read()
+    pptest.check(a == b, "auto run = --burn %d --iters %d: %s identical" % (L["burn"], L["iters"], f))
 
 # ---- (e) batch and --resume -------------------------------------------------
 bin_ = P("batch_in")
