@@ -915,6 +915,9 @@ static double max_seconds(const pp_sampler *s)
  * grossly: the older threshold of Gelman et al., BDA3 (2013) section 11.4,
  * common practice for "not yet converged at all". */
 #define BURN_RHAT 1.1
+/* The least kept draws per chain of a first round cut by the time cap: the
+ * ESS criteria ask for 100 per chain. */
+#define FIRST_MIN 100UL
 
 /* The worst R-hat over the trace columns (NaN columns ignored). */
 static double worst_rhat(const pp_sampler *s)
@@ -956,10 +959,20 @@ static pp_status run_auto(pp_sampler *s, double t0)
     const unsigned long th = s->cfg.thin, first = (s->cfg.iters + th - 1) / th * th;
     L->max_seconds = cap;
     L->max_iters = s->cfg.max_iters;
-    s->freeze_at = s->half_n = first / th / 2;
+    /* The burn-in runs first, alone, whatever the caps (the samplers tune
+     * there); its speed decides how much of the first round fits the time
+     * cap, at least FIRST_MIN kept draws (fewer can never pass the ESS
+     * criteria). A zero burn-in leaves the first round whole. */
+    unsigned long len = first;
+    pp_status res = s->cfg.burn ? run_round(s, s->cfg.burn) : PP_OK;
+    if (res != PP_OK)
+        return end_run(s, res, t0);
+    double spent = omp_get_wtime() - t0, fit = (cap - spent) / (spent / (double)s->cfg.burn);
+    if (s->cfg.burn && spent > 0 && fit < (double)first)
+        len = fit > (double)(FIRST_MIN * th) ? (unsigned long)fit / th * th : FIRST_MIN * th;
+    len = len < first ? len : first;
+    s->freeze_at = s->half_n = len / th / 2;
     int burn_ok = 0;
-    unsigned long len = s->cfg.burn + first; /* the first round includes the burn-in */
-    pp_status res = PP_OK;
     for (;;) {
         double r0 = omp_get_wtime();
         unsigned long t_from = s->chain[0].t;

@@ -9,8 +9,10 @@
     mixes slowly under hmc): --max-iters 1200 (burn-in 200 + the first round
     of 1000) stops after one round with exit 0, warnings, stop "max-iters",
     the failing criterion and a predicted length; exit 3 under --strict.
-    --max-time 0.001 stops after the first round (which always runs) with
-    stop "max-time" -- the decision needs no timing: no round fits.
+    --max-time 0.001 stops after a first round cut to its least, 100 draws
+    per chain (the burn-in always runs; the cap leaves nothing after it), with
+    stop "max-time" -- the outcome needs no timing: 200 hmc iterations take
+    far more than a millisecond.
 (d) Same seed, same outputs whatever --threads for the auto run of (b)
     that stopped by convergence (4 chains on 1 and 2 threads: on 1 thread
     the chains take turns on one set of buffers between rounds).
@@ -93,13 +95,14 @@ pptest.check("converged" in p.stderr and "run length" in p.stderr,
 # ---- (c) a cap that stops first --------------------------------------------
 hard = ["sample", P("ph.tif")] + PSF + ["--noise", "camera:gain=0.5,offset=100,read=1.6",
                                         "--progress", "none"]
-for cap, reason in ((["--max-iters", "1200"], "max-iters"), (["--max-time", "0.001"], "max-time")):
+for cap, reason, kept in ((["--max-iters", "1200"], "max-iters", 1000),
+                          (["--max-time", "0.001"], "max-time", 100)):
     out = P("cap_" + reason)
     p = pptest.run(hard + cap + ["-o", out], check=False)
     pptest.check(p.returncode == 0, "%s: exit 0 without --strict (%r)" % (reason, p.stderr))
     s = summary(out)
     L = s["run_length"]
-    pptest.check(L["stop"] == reason and L["rounds"] == 1 and L["kept_per_chain"] == 1000,
+    pptest.check(L["stop"] == reason and L["rounds"] == 1 and L["kept_per_chain"] == kept,
                  "%s: stopped after the first round, reason in summary.json (%r)" % (reason, L))
     pptest.check(L["failed"] != "" and len(s["warnings"]) > 0 and not s["convergence"]["converged"],
                  "%s: a failed criterion and warnings (%r)" % (reason, L["failed"]))

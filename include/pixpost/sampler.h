@@ -35,7 +35,9 @@
  *      length is fixed before it starts, the same for every chain, and is
  *      cut to what the caps leave (cfg.max_seconds, predicted from the
  *      measured seconds per iteration; cfg.max_iters). A cut last round
- *      makes the two halves unequal, which the maps allow for.
+ *      makes the two halves unequal, which the maps allow for. The burn-in
+ *      always runs in full, timed on its own; the first round is cut to
+ *      what the time cap leaves but keeps at least 100 draws per chain.
  * Every chain keeps all its kept draws: estimates, maps and traces are
  * those of one run of the final length (rounds of doubling length give
  * the same bytes as one fixed run with the same seed). Stopping on the
