@@ -3,7 +3,8 @@
  * 1. Extendable moments: a run split into rounds of doubling length
  *    (pp_sampler_run_schedule, 10 + 10 + 20 kept draws) gives the same
  *    bytes as one run of the same total length (40) and seed, for every
- *    kernel and both boundaries, with 4 chains on 1 and on 2 threads: so a
+ *    kernel (gibbs, mtc, adaptive gibbs, hmc, pcn, gpcn) and both boundaries,
+ *    with 4 chains on 1 and on 2 threads: so a
  *    chain resumed after another chain used its slot continues exactly
  *    (the park stores), the split-R-hat maps' first half is exactly all
  *    rounds but the last, and the trace grows without moving a value.
@@ -165,6 +166,8 @@ static void extendable(void)
     rounds_equal_one_run("hmc gmrf1", cfg, yp, psf);
     cfg.kind = PP_SAMPLER_PCN;
     rounds_equal_one_run("pcn gmrf1", cfg, yp, psf);
+    cfg.kind = PP_SAMPLER_GPCN;
+    rounds_equal_one_run("gpcn gmrf1", cfg, yp, psf);
     pp_image_free(y);
     pp_image_free(yp);
     pp_image_free(psf);

@@ -45,7 +45,7 @@
  * converged; README "Run length" says what is done about it. Chain k
  * always runs on the working buffers of thread k % threads; with more
  * chains than threads, a chain's working state waits in a park store
- * between rounds (bytes per pixel: README "Memory"). What the run did is in
+ * between rounds (bytes per pixel: README "Limits"). What the run did is in
  * pp_sampler_run_length().
  */
 #ifndef PIXPOST_SAMPLER_H
