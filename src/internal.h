@@ -108,7 +108,7 @@ typedef struct pp_slot {
 
 /* One chain's state and scratch; owned by the sampler. */
 typedef struct pp_chain {
-    unsigned long t;   /* iterations done (burn-in included); 0: not started */
+    unsigned long t; /* iterations done (burn-in included); 0: not started */
     pp_rng rng;
     double lambda, delta;
     /* Working buffers, lent by the thread's pp_slot while the chain runs
@@ -219,10 +219,10 @@ struct pp_sampler {
     pp_chain *chain;
     pp_slot *slot;  /* nslots sets of working buffers, one per thread of the run */
     unsigned nslots;
-    unsigned char **park; /* rounds with chains > nslots: park stores, one per chain
-                           * beyond the slots (sampler.c, park_swap), else NULL */
-    long *park_of;        /* per chain: the store holding its state, -1: in its slot */
-    size_t park_bytes;    /* bytes of one store */
+    unsigned char **park;    /* rounds with chains > nslots: park stores, one per chain
+                              * beyond the slots (sampler.c, park_swap), else NULL */
+    long *park_of;           /* per chain: the store holding its state, -1: in its slot */
+    size_t park_bytes;       /* bytes of one store */
     unsigned long t_end;     /* run_chain advances every chain to this iteration */
     unsigned long keep_from; /* first iteration that may be kept (the burn-in used) */
     unsigned long freeze_at; /* pp_chain_add_draw copies mom.mean into mean1 when a

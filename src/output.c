@@ -47,9 +47,10 @@ static void json_number(FILE *f, double v);
 static void json_run_length(FILE *f, const pp_sampler *s)
 {
     const pp_run_length *L = &s->length;
-    fprintf(f, "  \"run_length\": {\"mode\": \"%s\", \"stop\": \"%s\", \"burn\": %lu, "
-               "\"iters\": %lu, \"kept_per_chain\": %zu, \"rounds\": %u, "
-               "\"burn_extensions\": %u, \"max_seconds\": ",
+    fprintf(f,
+            "  \"run_length\": {\"mode\": \"%s\", \"stop\": \"%s\", \"burn\": %lu, "
+            "\"iters\": %lu, \"kept_per_chain\": %zu, \"rounds\": %u, "
+            "\"burn_extensions\": %u, \"max_seconds\": ",
             L->iters_auto ? "auto" : "fixed", pp_stop_reason_name(L->stop), L->burn, L->iters,
             L->kept, L->rounds, L->burn_extensions);
     json_number(f, L->iters_auto ? L->max_seconds : NAN);
@@ -306,9 +307,10 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
      * (before gain and offset) for the photon models */
     fprintf(f, "  \"estimate_units\": \"%s\",\n",
             c->noise.kind == PP_NOISE_GAUSSIAN ? "input units" : "photons per pixel");
-    fprintf(f, "  \"sampler\": \"%s\",\n  \"chains\": %u,\n  \"burn\": %lu,\n"
-               "  \"iters\": %lu,\n  \"thin\": %lu,\n  \"seed\": %llu,\n"
-               "  \"kept_per_chain\": %zu,\n  \"boundary\": \"%s\",\n",
+    fprintf(f,
+            "  \"sampler\": \"%s\",\n  \"chains\": %u,\n  \"burn\": %lu,\n"
+            "  \"iters\": %lu,\n  \"thin\": %lu,\n  \"seed\": %llu,\n"
+            "  \"kept_per_chain\": %zu,\n  \"boundary\": \"%s\",\n",
             pp_sampler_kind_name(c->kind), c->chains, s->length.burn, s->length.iters, c->thin,
             (unsigned long long)c->seed, s->trace.kept, pp_boundary_name(c->boundary));
     json_run_length(f, s);
@@ -341,8 +343,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     }
     fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
     pp_json_write_string(f, s->bound_method);
-    unsigned long long iters =
-        (unsigned long long)c->chains * (s->length.burn + s->length.iters);
+    unsigned long long iters = (unsigned long long)c->chains * (s->length.burn + s->length.iters);
     fputs("},\n  \"timing\": {\"seconds_total\": ", f);
     json_number(f, info ? info->seconds_total : s->seconds);
     fputs(", \"seconds_sampling\": ", f);

@@ -155,8 +155,9 @@ static pp_status check_config(pp_sampler_config *cfg)
                        cfg->max_seconds);
     if (cfg->iters_auto && cfg->max_iters && cfg->max_iters < cfg->burn + cfg->iters)
         /* (the first round, rounded up to whole thins, may still pass it: next_round cuts) */
-        return pp_fail(PP_ERR_ARG, "--max-iters %lu: must be at least --burn + the first "
-                                   "round (%lu + %lu)",
+        return pp_fail(PP_ERR_ARG,
+                       "--max-iters %lu: must be at least --burn + the first "
+                       "round (%lu + %lu)",
                        cfg->max_iters, cfg->burn, cfg->iters);
     if (cfg->thin < 1 || (!cfg->iters_auto && cfg->thin > cfg->iters))
         return pp_fail(PP_ERR_ARG, "--thin %lu: must be between 1 and --iters (%lu)", cfg->thin,
@@ -637,8 +638,9 @@ static pp_status plan_park(pp_sampler *s)
         s->slot[b].resident = b;
     for (size_t p = 0; p < nstore; p++)
         if (!(s->park[p] = calloc(1, bytes)))
-            return pp_fail(PP_ERR_NOMEM, "out of memory for the chains' park stores (%zu bytes "
-                                         "each)",
+            return pp_fail(PP_ERR_NOMEM,
+                           "out of memory for the chains' park stores (%zu bytes "
+                           "each)",
                            bytes);
     return PP_OK;
 }
@@ -999,8 +1001,8 @@ static pp_status run_auto(pp_sampler *s, double t0)
             unsigned long next = next_round(s, want, spi, cap - (now - t0), &why);
             if (next == want) { /* only when the full round fits */
                 extend_burn(s, want);
-            pp_image_free(s->rhat_map);
-            s->rhat_map = NULL;
+                pp_image_free(s->rhat_map);
+                s->rhat_map = NULL;
                 L->rounds = 0;
                 len = next;
                 continue;

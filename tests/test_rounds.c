@@ -23,14 +23,14 @@
  *    the half means. A fixed run (halves 16 and 17 of 33) must give other
  *    maps, which shows the check can fail.
  */
-#include <math.h>
-#include <stdlib.h>
-#include <string.h>
 #include "internal.h"
 #include "pixpost/diag.h"
 #include "pixpost/psf.h"
 #include "pixpost/rng.h"
 #include "testutil.h"
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
 
 /* w x h: a smooth pattern plus unit noise (gaussian) or Poisson-like
  * counts around 30 (photon models; rounded, so whole photons). */
@@ -241,8 +241,9 @@ static void unequal_halves(const char *name, pp_sampler_config cfg, const pp_ima
                   "%s: maps of halves 20 + 13 = the formula at the %zu probes (worst %s, %.2g)",
                   name, nprobe, t->names[worst], err);
         else
-            CHECK(rm && err > 1e-3, "%s: a fixed run's halves (16 + 17) differ from 20 + 13 "
-                                    "(%.2g): the check can fail",
+            CHECK(rm && err > 1e-3,
+                  "%s: a fixed run's halves (16 + 17) differ from 20 + 13 "
+                  "(%.2g): the check can fail",
                   name, err);
         pp_sampler_free(s);
     }

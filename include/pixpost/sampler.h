@@ -157,22 +157,23 @@ void pp_sampler_return_memory(void);
 
 /* What a run did about its length (valid after pp_sampler_run; zero before). */
 typedef enum pp_stop_reason {
-    PP_STOP_FIXED = 0,  /* iters_auto off: exactly burn + iters */
-    PP_STOP_CONVERGED,  /* every criterion holds */
-    PP_STOP_MAX_TIME,   /* cfg.max_seconds (or its default) reached first */
-    PP_STOP_MAX_ITERS   /* cfg.max_iters reached first */
+    PP_STOP_FIXED = 0, /* iters_auto off: exactly burn + iters */
+    PP_STOP_CONVERGED, /* every criterion holds */
+    PP_STOP_MAX_TIME,  /* cfg.max_seconds (or its default) reached first */
+    PP_STOP_MAX_ITERS  /* cfg.max_iters reached first */
 } pp_stop_reason;
-const char *pp_stop_reason_name(pp_stop_reason r); /* "fixed", "converged", "max-time", "max-iters" */
+/* "fixed", "converged", "max-time", "max-iters" ("unknown" out of range). */
+const char *pp_stop_reason_name(pp_stop_reason r);
 
 typedef struct pp_run_length {
-    int iters_auto;          /* cfg.iters_auto */
+    int iters_auto; /* cfg.iters_auto */
     pp_stop_reason stop;
-    unsigned long burn;      /* burn-in used per chain (cfg.burn plus any extension) */
-    unsigned long iters;     /* iterations per chain after the burn-in */
-    size_t kept;             /* kept draws per chain (iters / thin) */
-    unsigned rounds;         /* sampling rounds kept (1 for a fixed run) */
+    unsigned long burn;       /* burn-in used per chain (cfg.burn plus any extension) */
+    unsigned long iters;      /* iterations per chain after the burn-in */
+    size_t kept;              /* kept draws per chain (iters / thin) */
+    unsigned rounds;          /* sampling rounds kept (1 for a fixed run) */
     unsigned burn_extensions; /* rounds thrown away as further burn-in */
-    double max_seconds;      /* the caps in force (0: none; fixed runs: 0) */
+    double max_seconds;       /* the caps in force (0: none; fixed runs: 0) */
     unsigned long max_iters;
     /* When the run stopped at a cap: the first criterion that failed (a
      * short phrase, e.g. "bulk-ESS of delta 212 < 400"), and the

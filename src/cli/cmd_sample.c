@@ -36,18 +36,21 @@ static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double 
         fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations (fixed by --iters)\n",
                 L->burn, L->iters);
     else if (L->stop == PP_STOP_CONVERGED)
-        fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
-                        "converged\n",
+        fprintf(stderr,
+                "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
+                "converged\n",
                 L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s");
     else if (L->iters_needed)
-        fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
-                        "stopped at --%s, not converged (%s; about %lu iterations after "
-                        "burn-in would be needed)\n",
+        fprintf(stderr,
+                "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
+                "stopped at --%s, not converged (%s; about %lu iterations after "
+                "burn-in would be needed)\n",
                 L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s",
                 pp_stop_reason_name(L->stop), L->failed, L->iters_needed);
     else
-        fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
-                        "stopped at --%s, not converged (%s)\n",
+        fprintf(stderr,
+                "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
+                "stopped at --%s, not converged (%s)\n",
                 L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s",
                 pp_stop_reason_name(L->stop), L->failed);
     for (size_t i = 0; i < nw; i++)

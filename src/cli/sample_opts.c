@@ -242,8 +242,9 @@ static int parse_counts(const cli_args *a, cli_sample_opts *o)
     c->threads = (int)threads;
     const char *capped = cli_given(a, "max-time") ? "max-time" : "max-iters";
     if (!c->iters_auto && (cli_given(a, "max-time") || cli_given(a, "max-iters")))
-        return cli_opt_error(capped, "applies to --iters auto only (--iters %lu runs exactly "
-                                     "that many iterations)",
+        return cli_opt_error(capped,
+                             "applies to --iters auto only (--iters %lu runs exactly "
+                             "that many iterations)",
                              c->iters);
     if (c->iters_auto && c->max_iters && c->max_iters < c->burn + c->iters)
         return cli_opt_error("max-iters",
