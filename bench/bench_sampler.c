@@ -6,6 +6,8 @@
  *   measure=0 (1: FFTW_MEASURE) frame=PATH psf=PATH (write them as TIFF)
  *   wisdom=PATH (FFTW wisdom loaded before planning, saved after, as the
  *   plan cache of the pixpost command; use with measure=1)
+ *   auto=0 (1: --iters auto, in rounds; iters is then the first round)
+ *   max_iters=0 (auto: the cap on iterations per chain, burn-in included)
  * Prints one line of key=value pairs:
  *   sec_iter  wall seconds x parallel lanes / (iterations x chains), i.e.
  *             seconds per iteration of one chain (burn-in included)
@@ -17,7 +19,8 @@
  *   ess_<col> ess_bulk of each trace column (pp_diag_compute, the rank-
  *             normalised split-chain ESS of include/pixpost/diag.h) over
  *             the kept draws of all chains, with mean_<col> its mean;
- *             ess_pmin / ess_pmed: smallest and median over the probes.
+ *             ess_pmin / ess_pmed: smallest and median over the probes;
+ *   auto=1:   stop, rounds, burn_used, iters_used (pp_sampler_run_length).
  * The frame is a smooth scene blurred by a Gaussian PSF (sigma 1.5) with
  * Gaussian noise (sd 1): invented data, for timing only. Cost: the run. */
 #include <math.h>
@@ -89,6 +92,7 @@ int main(int argc, char **argv)
     pp_sampler_return_memory(); /* as the pixpost command does */
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     if (pp_sampler_kind_parse(argv[1], &cfg.kind) != PP_OK ||
         pp_boundary_parse(opt(argc, argv, "boundary", "periodic"), &cfg.boundary) != PP_OK ||
         pp_prior_parse(opt(argc, argv, "prior", "gmrf2"), &cfg.prior) != PP_OK)
@@ -100,6 +104,8 @@ int main(int argc, char **argv)
     cfg.iters = strtoul(opt(argc, argv, "iters", "50"), NULL, 10);
     cfg.burn = strtoul(opt(argc, argv, "burn", "0"), NULL, 10);
     cfg.seed = strtoull(opt(argc, argv, "seed", "1"), NULL, 10);
+    cfg.iters_auto = atoi(opt(argc, argv, "auto", "0")); /* 1: rounds, iters the first */
+    cfg.max_iters = strtoul(opt(argc, argv, "max_iters", "0"), NULL, 10);
     if (atoi(opt(argc, argv, "measure", "0")))
         cfg.fft_effort = PP_FFT_MEASURE;
     if (atoi(opt(argc, argv, "jeffreys", "1")))
@@ -129,8 +135,12 @@ int main(int argc, char **argv)
             break;
     if (st)
         fclose(st);
+    const pp_run_length *L = pp_sampler_run_length(s);
     printf("sec_iter=%.6g wall=%.6g rss_kb=%ld",
-           wall * par / ((double)(cfg.iters + cfg.burn) * cfg.chains), wall, hwm);
+           wall * par / ((double)(L->iters + L->burn) * cfg.chains), wall, hwm);
+    if (cfg.iters_auto)
+        printf(" stop=%s rounds=%u burn_used=%lu iters_used=%lu", pp_stop_reason_name(L->stop),
+               L->rounds, L->burn, L->iters);
     pp_solver_stats ss;
     pp_sampler_solver_stats(s, &ss);
     if (ss.draws)

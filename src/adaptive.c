@@ -327,3 +327,13 @@ void pp_adapt_acceptance(const pp_adapt *a, unsigned long long *accepted,
     *accepted = a->acc;
     *tried = a->tried;
 }
+
+size_t pp_adapt_state(pp_adapt *a, pp_region *out)
+{
+    out[0] = (pp_region){a->s, a->nb * sizeof *a->s};
+    out[1] = (pp_region){&a->kappa, sizeof a->kappa};
+    out[2] = (pp_region){&a->ssum, sizeof a->ssum};
+    out[3] = (pp_region){&a->acc, sizeof a->acc};
+    out[4] = (pp_region){&a->tried, sizeof a->tried};
+    return 5;
+}

@@ -83,6 +83,12 @@ void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv);
  * follow the prior alone, wander slowly and say nothing about the frame). */
 double pp_adapt_level(const pp_adapt *a);
 double pp_adapt_kappa(const pp_adapt *a);
+/* The regions (internal.h's pp_region) holding a's state between two
+ * updates: the block log-precisions, κ, the level's sum and the counters
+ * (the rest is scratch or fixed). Writes at most 5; returns the count. */
+struct pp_region;
+size_t pp_adapt_state(pp_adapt *a, struct pp_region *out);
+
 /* Block moves accepted and tried since pp_adapt_start. */
 void pp_adapt_acceptance(const pp_adapt *a, unsigned long long *accepted,
                          unsigned long long *tried);

@@ -87,17 +87,28 @@ void pp_diag_pixel(const double *hm, size_t k, double m2_sum, double m, double w
 #define PP_MAX_WARNINGS 64
 #define PP_MAX_NOTES 16
 
-/* The working buffers of one running chain, one set per thread: a chain
- * runs start to finish on one thread, so 4 chains on 1 thread need one set,
- * not four (see pp_chain). */
+/* A piece of memory holding a running chain's state (see pp_kernel.state). */
+typedef struct pp_region {
+    void *p;
+    size_t bytes;
+} pp_region;
+#define PP_MAX_REGIONS 32
+
+/* The working buffers of one running chain, one set per thread: chain k
+ * always runs on slot k % nslots, so 4 chains on 1 thread need one set,
+ * not four (see pp_chain). When a run goes in rounds (pp_sampler_run with
+ * cfg.iters_auto), a slot hosts its chains in turn: the state of the chain
+ * it is not running waits in a park store (sampler.c, park_swap). */
 typedef struct pp_slot {
     pp_complex *cbuf, *cbuf2, *yhat; /* yhat: pad only */
     double *rbuf, *yaug;             /* yaug: pad only */
     void *kwork;                     /* the kernel's working state (kernel->prepare) */
+    long resident;                   /* the chain whose state the slot holds (rounds) */
 } pp_slot;
 
 /* One chain's state and scratch; owned by the sampler. */
 typedef struct pp_chain {
+    unsigned long t; /* iterations done (burn-in included); 0: not started */
     pp_rng rng;
     double lambda, delta;
     /* Working buffers, lent by the thread's pp_slot while the chain runs
@@ -110,8 +121,8 @@ typedef struct pp_chain {
     pp_moments mom;    /* frame-sized moments of the recorded field over all kept
                         * draws; add to them with pp_chain_add_draw only */
     float *mean1;      /* frame-sized: mom.mean frozen after the first half of the
-                        * kept draws, for the split-R-hat maps only (sampler_diag.c
-                        * says why single precision is enough) */
+                        * kept draws (s->half_n of them), for the split-R-hat maps
+                        * only (sampler_diag.c says why single precision is enough) */
     double condvar_sum; /* sum over kept draws of the conditional variance */
     double *trace;     /* kept x ncols rows inside the sampler's trace */
     size_t kept;
@@ -146,18 +157,34 @@ struct pp_sampler;
  *             s->slot[b].kwork for what a run only works with, which the
  *             chain then finds in c->kwork and must initialise). Runs once,
  *             single-threaded.
- *   run_chain runs burn + iters iterations of chain c (called in parallel
- *             for different chains; must touch only c and read s).
- *             It records per kept draw the field it estimates with
- *             pp_chain_add_draw (the draw, or its conditional mean),
- *             c->condvar_sum (0 if it has no conditional variance), its
- *             trace rows and c->kept.
+ *   run_chain advances chain c from iteration c->t to s->t_end and sets
+ *             c->t = s->t_end (called in parallel for different chains;
+ *             must touch only c and read s). At c->t == 0 it starts the
+ *             chain (sampler.c has set rng, lambda, delta and the data);
+ *             a later call resumes exactly where the last one stopped,
+ *             finding in c->kwork what state() listed. Tuning (step
+ *             sizes, centres) adapts while t < cfg.burn only; iteration t
+ *             is kept when t >= s->keep_from and (t - s->keep_from + 1) %
+ *             cfg.thin == 0. It records per kept draw the field it
+ *             estimates with pp_chain_add_draw (the draw, or its
+ *             conditional mean), c->condvar_sum (0 if it has no
+ *             conditional variance), its trace rows and c->kept; what it
+ *             accumulates over kept draws on its own (pcn's moments of z)
+ *             starts afresh at t == s->keep_from (a run that finds its
+ *             burn-in too short moves keep_from on, sampler.c).
  *   finish    optional; after pooling the moments into mean/sd and the
  *             default Gaussian bounds: override lo/hi and bound_method.
  *   release   optional; frees what prepare allocated but the slots' kwork
  *             (also after a failed prepare; pointers may be NULL).
  *   free_work optional; frees one slot's kwork (may be NULL): once the
- *             chains are done, or when a failed plan is undone. */
+ *             chains are done, or when a failed plan is undone.
+ *   state     optional; lists in out (at most PP_MAX_REGIONS) the memory
+ *             of a slot's kwork that holds a running chain's state (what
+ *             run_chain reads at its next iteration), returns the count.
+ *             A run in rounds swaps these bytes in and out of park stores
+ *             when a slot hosts several chains: the list must be the same
+ *             size for every slot and call, and complete (resuming from
+ *             it gives the same bytes as not stopping). */
 typedef struct pp_kernel {
     const char *name;
     pp_status (*prepare)(struct pp_sampler *s);
@@ -165,6 +192,7 @@ typedef struct pp_kernel {
     pp_status (*finish)(struct pp_sampler *s);
     void (*release)(struct pp_sampler *s);
     void (*free_work)(void *kwork);
+    size_t (*state)(const struct pp_sampler *s, void *kwork, pp_region *out);
 } pp_kernel;
 
 struct pp_sampler {
@@ -191,6 +219,22 @@ struct pp_sampler {
     pp_chain *chain;
     pp_slot *slot;  /* nslots sets of working buffers, one per thread of the run */
     unsigned nslots;
+    unsigned char **park;    /* rounds with chains > nslots: park stores, one per chain
+                              * beyond the slots (sampler.c, park_swap), else NULL */
+    long *park_of;           /* per chain: the store holding its state, -1: in its slot */
+    size_t park_bytes;       /* bytes of one store */
+    unsigned long t_end;     /* run_chain advances every chain to this iteration */
+    unsigned long keep_from; /* first iteration that may be kept (the burn-in used) */
+    unsigned long freeze_at; /* pp_chain_add_draw copies mom.mean into mean1 when a
+                              * chain's count reaches it (0: never) */
+    size_t half_n;           /* draws per chain behind mean1 (the maps' first half) */
+    size_t trace_cap;        /* rows per chain the trace has room for */
+    size_t nwarn_setup;      /* warnings from set-up: kept when a round's go */
+    size_t diag_kept;        /* kept draws per chain behind s->diag (0: stale) */
+    int maps_final;          /* pp_sampler_diagnose makes the MCSE map too (the last call;
+                              * a round's check makes the R-hat map only) */
+    pp_run_length length;    /* what the run did (pp_sampler_run_length) */
+    unsigned long long progress_total;
     pp_trace trace;
     struct pp_diag_scalar *diag;     /* one per trace column (sampler_diag.c) */
     pp_image *rhat_map, *mcse_map;   /* per-pixel split-R-hat and MCSE, or NULL */
@@ -218,8 +262,9 @@ struct pp_sampler {
 enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
 
 /* Adds the frame block of a grid-sized field (rows s->gw apart) to the
- * moments of chain c, freezing their mean in c->mean1 after the first half
- * (floor(kept / 2) draws). Call once per kept draw. */
+ * moments of chain c, freezing their mean in c->mean1 when the count
+ * reaches s->freeze_at (a fixed run: floor(kept / 2); a run in rounds also
+ * copies it at each round's end). Call once per kept draw. */
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
 
 /* report.html of a finished run (src/output_report.c). */
@@ -228,8 +273,25 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
                            const struct pp_run_info *info);
 
 /* Scalar diagnostics, pixel maps and their warnings (src/sampler_diag.c),
- * after the estimates are pooled. */
+ * from the chains' moments (c->mom, c->mean1, s->half_n) and the trace;
+ * drops the results of an earlier call first (its diagnostics, maps and
+ * every warning after the first s->nwarn_setup). */
 pp_status pp_sampler_diagnose(pp_sampler *s);
+/* After pp_sampler_diagnose: 1 when every stopping criterion holds (R-hat
+ * <= 1.01, bulk- and tail-ESS >= 100 per chain for every trace column, the
+ * pixel-map rule of the warnings); else 0, with the first failing criterion
+ * in why (a short phrase) and in *ess_ratio the largest factor by which an
+ * ESS falls short (1 when none does). */
+int pp_sampler_criteria(const pp_sampler *s, char *why, size_t len, double *ess_ratio);
+
+/* Runs the chains in rounds ending at the given iterations after burn-in
+ * (ends[0] < ends[1] < ... < ends[n-1], each a multiple of cfg.thin), with
+ * the diagnostics after each round, as a run in rounds does, but no
+ * stopping rule: the schedule is the caller's. The tests' way to check that
+ * rounds give the same bytes as one run of the same length (ends must then
+ * double: ends[i] = 2 ends[i-1], so that each first half is all rounds but
+ * the last). Replaces pp_sampler_run (a sampler runs once). */
+pp_status pp_sampler_run_schedule(pp_sampler *s, const unsigned long *ends, size_t n);
 
 /* Adds a warning sentence (printf-style) to the sampler: something that
  * makes the results less trustworthy (what --strict exits on). */

@@ -41,6 +41,24 @@ void pp_json_write_string(FILE *f, const char *s)
     fputc('"', f);
 }
 
+static void json_number(FILE *f, double v);
+
+/* "run_length": what pp_sampler_run did about its length (sampler.h). */
+static void json_run_length(FILE *f, const pp_sampler *s)
+{
+    const pp_run_length *L = &s->length;
+    fprintf(f,
+            "  \"run_length\": {\"mode\": \"%s\", \"stop\": \"%s\", \"burn\": %lu, "
+            "\"iters\": %lu, \"kept_per_chain\": %zu, \"rounds\": %u, "
+            "\"burn_extensions\": %u, \"max_seconds\": ",
+            L->iters_auto ? "auto" : "fixed", pp_stop_reason_name(L->stop), L->burn, L->iters,
+            L->kept, L->rounds, L->burn_extensions);
+    json_number(f, L->iters_auto ? L->max_seconds : NAN);
+    fprintf(f, ", \"max_iters\": %lu, \"failed\": ", L->max_iters);
+    pp_json_write_string(f, L->failed);
+    fprintf(f, ", \"iters_needed\": %lu},\n", L->iters_needed);
+}
+
 static void json_number(FILE *f, double v)
 {
     if (isfinite(v))
@@ -317,11 +335,13 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
      * (before gain and offset) for the photon models */
     fprintf(f, "  \"estimate_units\": \"%s\",\n",
             c->noise.kind == PP_NOISE_GAUSSIAN ? "input units" : "photons per pixel");
-    fprintf(f, "  \"sampler\": \"%s\",\n  \"chains\": %u,\n  \"burn\": %lu,\n"
-               "  \"iters\": %lu,\n  \"thin\": %lu,\n  \"seed\": %llu,\n"
-               "  \"kept_per_chain\": %zu,\n  \"boundary\": \"%s\",\n",
-            pp_sampler_kind_name(c->kind), c->chains, c->burn, c->iters, c->thin,
+    fprintf(f,
+            "  \"sampler\": \"%s\",\n  \"chains\": %u,\n  \"burn\": %lu,\n"
+            "  \"iters\": %lu,\n  \"thin\": %lu,\n  \"seed\": %llu,\n"
+            "  \"kept_per_chain\": %zu,\n  \"boundary\": \"%s\",\n",
+            pp_sampler_kind_name(c->kind), c->chains, s->length.burn, s->length.iters, c->thin,
             (unsigned long long)c->seed, s->trace.kept, pp_boundary_name(c->boundary));
+    json_run_length(f, s);
     if (c->kind == PP_SAMPLER_MTC && c->boundary == PP_BOUNDARY_PAD) {
         fputs("  \"pad_scheme\": ", f); /* how mtc handled the padding */
         pp_json_write_string(f, s->pad_scheme);
@@ -351,7 +371,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     }
     fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
     pp_json_write_string(f, s->bound_method);
-    unsigned long long iters = (unsigned long long)c->chains * (c->burn + c->iters);
+    unsigned long long iters = (unsigned long long)c->chains * (s->length.burn + s->length.iters);
     fputs("},\n  \"timing\": {\"seconds_total\": ", f);
     json_number(f, info ? info->seconds_total : s->seconds);
     fputs(", \"seconds_sampling\": ", f);

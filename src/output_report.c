@@ -21,7 +21,9 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
     snprintf(val[0], sizeof val[0], "%s", info && info->input_path ? info->input_path : "-");
     snprintf(val[1], sizeof val[1], "%s", pp_sampler_kind_name(c->kind));
     snprintf(val[2], sizeof val[2], "%u (kept %zu draws each)", c->chains, s->trace.kept);
-    snprintf(val[3], sizeof val[3], "%lu / %lu / %lu", c->burn, c->iters, c->thin);
+    const pp_run_length *L = &s->length; /* the lengths used (--iters auto chooses them) */
+    snprintf(val[3], sizeof val[3], "%lu / %lu / %lu (%s: %s)", L->burn, L->iters, c->thin,
+             L->iters_auto ? "--iters auto" : "fixed", pp_stop_reason_name(L->stop));
     snprintf(val[4], sizeof val[4], "%llu", (unsigned long long)c->seed);
     snprintf(val[5], sizeof val[5], "%s", pp_boundary_name(c->boundary));
     snprintf(val[6], sizeof val[6], "%zu x %zu (frame %zu x %zu)", s->gw, s->gh, s->width,

@@ -4,8 +4,13 @@
  * Planning (pp_sampler_create) does the allocation the chains need, the FFT
  * plans, the transfer function, the prior eigenvalues, the data spectrum and
  * rough scale estimates for dispersed chain starts. Chains run in parallel
- * over OpenMP threads, each on its own Philox stream; a chain runs start to
- * finish on one thread, on that thread's working buffers (pp_slot). Results
+ * over OpenMP threads, each on its own Philox stream; chain k always runs on
+ * the working buffers of slot k % nslots (one slot per thread). A fixed run
+ * (--iters N) runs each chain start to finish in one go; a run in rounds
+ * (--iters auto, sampler.h "Run length") advances every chain to the
+ * round's end, checks the diagnostics and decides the next round, and a
+ * slot that hosts several chains swaps their working state with park
+ * stores in between (park_swap; bytes per pixel in README "Limits"). Results
  * are pooled in chain order, so they do not depend on the number of threads.
  * pp_sampler_run then frees the grid-sized buffers before it allocates the
  * estimates and maps, and the chains' frame moments once those are made.
@@ -60,6 +65,7 @@ void pp_sampler_defaults(pp_sampler_config *cfg)
     cfg->burn = 200;
     cfg->iters = 1000;
     cfg->thin = 1;
+    cfg->iters_auto = 1;
     cfg->seed = 1;
     cfg->boundary = PP_BOUNDARY_PAD;
     cfg->level = 0.95;
@@ -144,7 +150,16 @@ static pp_status check_config(pp_sampler_config *cfg)
         return pp_fail(PP_ERR_ARG, "--chains %u: must be between 1 and 1024", cfg->chains);
     if (cfg->iters < 1)
         return pp_fail(PP_ERR_ARG, "--iters: must be at least 1");
-    if (cfg->thin < 1 || cfg->thin > cfg->iters)
+    if (!(cfg->max_seconds >= 0 && isfinite(cfg->max_seconds)))
+        return pp_fail(PP_ERR_ARG, "--max-time %g: must be a finite number of seconds >= 0",
+                       cfg->max_seconds);
+    if (cfg->iters_auto && cfg->max_iters && cfg->max_iters < cfg->burn + cfg->iters)
+        /* (the first round, rounded up to whole thins, may still pass it: next_round cuts) */
+        return pp_fail(PP_ERR_ARG,
+                       "--max-iters %lu: must be at least --burn + the first "
+                       "round (%lu + %lu)",
+                       cfg->max_iters, cfg->burn, cfg->iters);
+    if (cfg->thin < 1 || (!cfg->iters_auto && cfg->thin > cfg->iters))
         return pp_fail(PP_ERR_ARG, "--thin %lu: must be between 1 and --iters (%lu)", cfg->thin,
                        cfg->iters);
     if (!(cfg->level > 0 && cfg->level < 1))
@@ -311,7 +326,10 @@ static pp_status plan_trace(pp_sampler *s)
     s->col_kappa = s->cfg.prior.kind == PP_PRIOR_ADAPTIVE ? (long)col++ : -1;
     s->col_probe0 = col;
     size_t ncols = s->col_probe0 + s->nprobe;
-    size_t kept = s->cfg.iters / s->cfg.thin, rows, n;
+    /* a run in rounds: room for the first round (rounded up to whole thins) */
+    size_t kept = s->cfg.iters_auto ? (s->cfg.iters + s->cfg.thin - 1) / s->cfg.thin
+                                    : s->cfg.iters / s->cfg.thin,
+           rows, n;
     if (!pp_mul_ok(kept, s->cfg.chains, &rows) || !pp_mul_ok(rows, ncols, &n) ||
         !pp_mul_ok(n, sizeof(double), &n))
         return pp_fail(PP_ERR_LIMIT, "--iters/--chains: the trace would not fit in memory");
@@ -336,6 +354,7 @@ static pp_status plan_trace(pp_sampler *s)
     }
     s->trace = (pp_trace){s->cfg.chains, kept, ncols, (const char *const *)s->names,
                           s->trace_values};
+    s->trace_cap = kept;
     return PP_OK;
 }
 
@@ -356,6 +375,7 @@ static pp_status plan_chains(pp_sampler *s)
         return pp_fail(PP_ERR_NOMEM, "out of memory for %u chains", s->cfg.chains);
     for (unsigned k = 0; k < s->nslots; k++) {
         pp_slot *b = &s->slot[k];
+        b->resident = -1;
         b->cbuf = pp_fft_alloc_complex(s->gm);
         b->cbuf2 = pp_fft_alloc_complex(s->gm);
         b->rbuf = pp_fft_alloc_real(s->gn);
@@ -371,7 +391,7 @@ static pp_status plan_chains(pp_sampler *s)
             return st;
         if (!(c->mean1 = malloc(s->height * s->width * sizeof(float))))
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
-        c->trace = s->trace_values + (size_t)k * s->trace.kept * s->trace.ncols;
+        c->trace = s->trace_values + (size_t)k * s->trace_cap * s->trace.ncols;
         c->otf = s->otf;
         c->otf2 = s->otf2;
         if (s->cfg.psf.width_auto) {
@@ -427,6 +447,7 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
         return st;
     }
     rough_scales(s, frame);
+    s->nwarn_setup = s->nwarnings;
     /* The chains read the data in one form only: the spectrum (periodic),
      * or the embedded frame from which each padded chain starts its own
      * augmented copy and spectrum (start_chain). */
@@ -450,12 +471,18 @@ void pp_sampler_return_memory(void)
 
 /* ---- running ---------------------------------------------------------- */
 
+/* mean1 = the chain's running mean (the maps' first half ends here). */
+static void freeze_mean(pp_chain *c)
+{
+    for (size_t i = 0; i < c->mom.len; i++)
+        c->mean1[i] = (float)c->mom.mean[i];
+}
+
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
 {
     pp_moments_add_block(&c->mom, grid, s->height, s->width, s->gw);
-    if (c->mom.count == s->trace.kept / 2)
-        for (size_t i = 0; i < c->mom.len; i++)
-            c->mean1[i] = (float)c->mom.mean[i];
+    if (c->mom.count == s->freeze_at)
+        freeze_mean(c);
 }
 
 /* Appends a formatted sentence to a list of at most max (dropped when full
@@ -505,8 +532,7 @@ int pp_sampler_tick(pp_sampler *s)
 #pragma omp atomic capture
     done = ++s->progress_done;
     if (s->cfg.progress) {
-        unsigned long long total =
-            (unsigned long long)s->cfg.chains * (s->cfg.burn + s->cfg.iters);
+        unsigned long long total = s->progress_total;
         unsigned long long step = total / 200 + 1;
         if (done % step == 0 || done == total) {
 #pragma omp critical(pp_progress)
@@ -516,27 +542,27 @@ int pp_sampler_tick(pp_sampler *s)
     return s->cfg.stop && *s->cfg.stop;
 }
 
-/* Chain k starts on the buffers of slot b, from a dispersed start: the
- * rough scales times a log-normal factor (sd 1). */
-static void start_chain(pp_sampler *s, unsigned k, const pp_slot *b)
+/* Chain k runs on the buffers of slot b (every time it runs). */
+static void bind_chain(pp_sampler *s, pp_chain *c, const pp_slot *b)
 {
-    pp_chain *c = &s->chain[k];
     c->cbuf = b->cbuf;
     c->cbuf2 = b->cbuf2;
     c->rbuf = b->rbuf;
     c->yaug = b->yaug;
     c->yhat = b->yhat ? b->yhat : s->yhat;
     c->kwork = b->kwork;
+}
+
+/* Chain k's first iteration: a dispersed start, the rough scales times a
+ * log-normal factor (sd 1). */
+static void start_chain(pp_sampler *s, unsigned k)
+{
+    pp_chain *c = &s->chain[k];
     pp_rng_seed(&c->rng, s->cfg.seed, 1000 + (uint64_t)k);
     c->lambda = s->lambda0 * (s->cfg.noise.sigma_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
     c->delta = s->delta0 * (s->cfg.prior.delta_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
-    c->kept = 0;
     c->solver_draws = c->solver_iters = c->solver_capped = 0;
     c->solver_max = 0;
-    c->condvar_sum = 0;
-    c->mom.count = 0;
-    memset(c->mom.mean, 0, c->mom.len * sizeof(double));
-    memset(c->mom.m2, 0, c->mom.len * sizeof(double));
     if (c->yaug) {
         memcpy(c->yaug, s->ygrid, s->gn * sizeof(double));
         pp_fft_forward(s->fft, c->yaug, c->yhat); /* as plan_data made s->yhat */
@@ -548,6 +574,97 @@ static void start_chain(pp_sampler *s, unsigned k, const pp_slot *b)
         double f = 0.25 + 0.5 * ((double)k + 0.5) / (double)s->cfg.chains;
         pp_width_start(s, c, p->width_lo + f * (p->width_hi - p->width_lo));
     }
+}
+
+/* Forgets chain c's kept draws (a fresh start of its kept phase). */
+static void clear_kept(pp_chain *c)
+{
+    c->kept = 0;
+    c->condvar_sum = 0;
+    c->mom.count = 0;
+    memset(c->mom.mean, 0, c->mom.len * sizeof(double));
+    memset(c->mom.m2, 0, c->mom.len * sizeof(double));
+}
+
+/* The regions of slot b that hold its running chain's state: the kernel's
+ * (state) and, with padding, the augmented frame (its spectrum yhat is
+ * made again from it: the r2c is deterministic, so the same bytes). */
+static size_t slot_regions(const pp_sampler *s, pp_slot *b, pp_region *out)
+{
+    size_t n = s->kernel->state ? s->kernel->state(s, b->kwork, out) : 0;
+    if (b->yaug)
+        out[n++] = (pp_region){b->yaug, s->gn * sizeof(double)};
+    return n;
+}
+
+/* Makes chain k the one whose state slot b holds: swaps the bytes of the
+ * slot's state regions with those of the park store holding chain k's,
+ * which then holds the resident chain's. Lossless (a byte swap). Chain k
+ * (k >= nslots) starts out owning store k - nslots, empty; slot b starts
+ * out holding chain b. A store only ever passes between the chains of one
+ * slot (k % nslots), so the threads, one per slot, never share one. */
+static void park_swap(pp_sampler *s, pp_slot *b, unsigned k)
+{
+    if (!s->park || b->resident == (long)k)
+        return;
+    long p = s->park_of[k], r = b->resident;
+    pp_region reg[PP_MAX_REGIONS + 1];
+    size_t n = slot_regions(s, b, reg), off = 0;
+    unsigned char *st = s->park[p];
+    for (size_t j = 0; j < n; j++) {
+        unsigned char *a = reg[j].p;
+        for (size_t i = 0; i < reg[j].bytes; i++) {
+            unsigned char v = a[i];
+            a[i] = st[off + i];
+            st[off + i] = v;
+        }
+        off += reg[j].bytes;
+    }
+    s->park_of[r] = p;
+    s->park_of[k] = -1;
+    b->resident = (long)k;
+    if (b->yaug && s->chain[k].t > 0)
+        pp_fft_forward(s->fft, b->yaug, b->yhat);
+}
+
+/* Park stores for a run in rounds with more chains than slots: one per
+ * chain beyond the slots (a slot holds one chain's state itself). */
+static pp_status plan_park(pp_sampler *s)
+{
+    if (s->cfg.chains <= s->nslots)
+        return PP_OK;
+    pp_region r[PP_MAX_REGIONS + 1];
+    size_t n = slot_regions(s, &s->slot[0], r), bytes = 0, nstore = s->cfg.chains - s->nslots;
+    for (size_t j = 0; j < n; j++)
+        bytes += r[j].bytes;
+    if (bytes == 0)
+        return PP_OK;
+    s->park = calloc(nstore, sizeof *s->park);
+    s->park_of = malloc(s->cfg.chains * sizeof *s->park_of);
+    if (!s->park || !s->park_of)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the chains' park stores");
+    s->park_bytes = bytes;
+    for (unsigned k = 0; k < s->cfg.chains; k++)
+        s->park_of[k] = k < s->nslots ? -1 : (long)(k - s->nslots);
+    for (unsigned b = 0; b < s->nslots; b++)
+        s->slot[b].resident = b;
+    for (size_t p = 0; p < nstore; p++)
+        if (!(s->park[p] = calloc(1, bytes)))
+            return pp_fail(PP_ERR_NOMEM,
+                           "out of memory for the chains' park stores (%zu bytes "
+                           "each)",
+                           bytes);
+    return PP_OK;
+}
+
+static void free_park(pp_sampler *s)
+{
+    for (unsigned p = 0; s->park && p + s->nslots < s->cfg.chains; p++)
+        free(s->park[p]);
+    free(s->park);
+    free(s->park_of);
+    s->park = NULL;
+    s->park_of = NULL;
 }
 
 static void free_slots(pp_sampler *s)
@@ -571,6 +688,7 @@ static void free_slots(pp_sampler *s)
 static void release_grid(pp_sampler *s)
 {
     free_slots(s);
+    free_park(s);
     pp_fft_free_buffer(s->otf);
     free(s->otf2);
     free(s->q);
@@ -630,13 +748,12 @@ static pp_status pool_estimates(pp_sampler *s)
     return PP_OK;
 }
 
-pp_status pp_sampler_run(pp_sampler *s)
+/* Runs every chain from its c->t to t_end: slot b runs chains b, b +
+ * nslots, ... in turn (so a chain's slot, and the results, do not depend on
+ * timing), swapping park stores when a slot hosts several. */
+static pp_status run_segment(pp_sampler *s, unsigned long t_end)
 {
-    if (s->ran)
-        return pp_fail(PP_ERR_ARG, "pp_sampler_run: a sampler runs once; create a new one");
-    s->ran = 1;
-    unsigned nc = s->cfg.chains;
-    int nt = (int)s->nslots;
+    unsigned nc = s->cfg.chains, ns = s->nslots;
     pp_status *st = calloc(nc, sizeof *st);
     char(*msg)[1024] = calloc(nc, sizeof *msg);
     if (!st || !msg) {
@@ -644,38 +761,296 @@ pp_status pp_sampler_run(pp_sampler *s)
         free(msg);
         return pp_fail(PP_ERR_NOMEM, "out of memory");
     }
-    double t0 = omp_get_wtime();
+    s->t_end = t_end;
+    s->diag_kept = 0; /* new draws: the diagnostics are stale */
+    s->progress_total = (unsigned long long)nc * t_end;
     if (s->cfg.progress) /* shown at once: an iteration may take seconds */
-        s->cfg.progress(s->cfg.progress_ctx, 0,
-                        (unsigned long long)s->cfg.chains * (s->cfg.burn + s->cfg.iters));
-#pragma omp parallel for num_threads(nt) schedule(dynamic, 1)
-    for (unsigned k = 0; k < nc; k++) {
-        pp_chain *c = &s->chain[k];
-        start_chain(s, k, &s->slot[omp_get_thread_num()]);
-        st[k] = s->kernel->run_chain(s, c);
-        if (st[k] != PP_OK)
-            snprintf(msg[k], sizeof msg[k], "%s", pp_error_message());
-        c->cbuf = c->cbuf2 = c->yhat = NULL; /* the slot passes to the next chain */
-        c->rbuf = c->yaug = NULL;
-        c->kwork = NULL;
-    }
-    s->seconds = omp_get_wtime() - t0;
+        s->cfg.progress(s->cfg.progress_ctx, s->progress_done, s->progress_total);
+#pragma omp parallel for num_threads((int)ns) schedule(static, 1)
+    for (unsigned b = 0; b < ns; b++)
+        for (unsigned k = b; k < nc; k += ns) {
+            pp_chain *c = &s->chain[k];
+            pp_slot *sl = &s->slot[b];
+            int failed = 0;
+            for (unsigned j = b; j < k; j += ns)
+                failed |= st[j] != PP_OK; /* the slot's state may be half-made */
+            if (failed || c->t >= t_end)
+                continue;
+            park_swap(s, sl, k);
+            bind_chain(s, c, sl);
+            if (c->t == 0)
+                start_chain(s, k);
+            st[k] = s->kernel->run_chain(s, c);
+            if (st[k] != PP_OK)
+                snprintf(msg[k], sizeof msg[k], "%s", pp_error_message());
+            c->cbuf = c->cbuf2 = c->yhat = NULL; /* the slot passes to the next chain */
+            c->rbuf = c->yaug = NULL;
+            c->kwork = NULL;
+        }
     pp_status res = PP_OK;
     for (unsigned k = 0; k < nc && res == PP_OK; k++)
         if (st[k] != PP_OK)
             res = pp_fail(st[k], "chain %u: %s", k + 1, msg[k]);
     free(st);
     free(msg);
+    s->trace.kept = s->chain[0].kept;
+    return res;
+}
+
+/* Room in the trace for `rows` kept draws per chain (chain-major: each
+ * chain's block moves up, last chain first). */
+static pp_status grow_trace(pp_sampler *s, size_t rows)
+{
+    if (rows <= s->trace_cap)
+        return PP_OK;
+    size_t nc = s->cfg.chains, ncols = s->trace.ncols, n;
+    if (!pp_mul_ok(rows, nc * ncols, &n) || !pp_mul_ok(n, sizeof(double), &n))
+        return pp_fail(PP_ERR_LIMIT, "--max-iters: the trace would not fit in memory");
+    double *v = realloc(s->trace_values, n);
+    if (!v)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the traces (%zu rows)", rows * nc);
+    for (size_t k = nc; k-- > 0;)
+        memmove(v + k * rows * ncols, v + k * s->trace_cap * ncols,
+                s->trace_cap * ncols * sizeof(double));
+    s->trace_values = v;
+    s->trace_cap = rows;
+    s->trace.values = v;
+    for (size_t k = 0; k < nc; k++)
+        s->chain[k].trace = v + k * rows * ncols;
+    return PP_OK;
+}
+
+/* Rows a segment to t_end keeps per chain (all chains alike). */
+static size_t kept_at(const pp_sampler *s, unsigned long t_end)
+{
+    return t_end > s->keep_from ? (t_end - s->keep_from) / s->cfg.thin : 0;
+}
+
+/* Runs to t_end, trace room first. */
+static pp_status run_round(pp_sampler *s, unsigned long t_end)
+{
+    pp_status st = grow_trace(s, kept_at(s, t_end));
+    return st == PP_OK ? run_segment(s, t_end) : st;
+}
+
+/* The end of a round: the kept draws so far become the maps' first half;
+ * the round's R-hat map goes (not to sit beside the next round's buffers). */
+static void close_round(pp_sampler *s)
+{
+    pp_image_free(s->rhat_map);
+    s->rhat_map = NULL;
+    for (unsigned k = 0; k < s->cfg.chains; k++)
+        freeze_mean(&s->chain[k]);
+    s->half_n = s->chain[0].kept;
+    s->freeze_at = 0;
+}
+
+/* The kept draws so far become burn-in: the next round starts the kept
+ * phase afresh (its first half frozen at its midpoint, as a fixed run). */
+static void extend_burn(pp_sampler *s, unsigned long first)
+{
+    s->keep_from = s->chain[0].t;
+    for (unsigned k = 0; k < s->cfg.chains; k++)
+        clear_kept(&s->chain[k]);
+    s->trace.kept = 0;
+    s->freeze_at = first / s->cfg.thin / 2;
+    s->half_n = s->freeze_at;
+    s->length.burn_extensions++;
+}
+
+/* Allocations of a run: park stores when chains share slots in rounds. */
+static pp_status begin_run(pp_sampler *s, int rounds)
+{
+    if (s->ran)
+        return pp_fail(PP_ERR_ARG, "pp_sampler_run: a sampler runs once; create a new one");
+    s->ran = 1;
+    s->keep_from = s->cfg.burn;
+    s->half_n = s->freeze_at = s->trace_cap / 2;
+    s->length.iters_auto = s->cfg.iters_auto;
+    return rounds ? plan_park(s) : PP_OK;
+}
+
+/* After the last round: estimates, bounds, final diagnostics. */
+static pp_status end_run(pp_sampler *s, pp_status res, double t0)
+{
+    s->seconds = omp_get_wtime() - t0;
+    pp_run_length *L = &s->length;
+    L->burn = s->keep_from;
+    L->kept = s->trace.kept;
+    L->iters = s->chain[0].t > s->keep_from ? s->chain[0].t - s->keep_from : 0;
     release_grid(s);
+    for (size_t i = s->nwarn_setup; i < s->nwarnings; i++)
+        free(s->warnings[i]);
+    s->nwarnings = s->nwarn_setup < s->nwarnings ? s->nwarn_setup : s->nwarnings;
     if (res == PP_OK)
         res = pool_estimates(s);
     if (res == PP_OK && s->kernel->finish)
         res = s->kernel->finish(s);
-    if (res == PP_OK)
+    size_t keep = s->nwarnings; /* finish's warnings stay */
+    if (res == PP_OK) {
+        s->nwarn_setup = keep;
+        s->maps_final = 1;
         res = pp_sampler_diagnose(s);
+    }
     free_moments(s); /* they have served the estimates and the maps */
     return res;
 }
+
+pp_status pp_sampler_run_schedule(pp_sampler *s, const unsigned long *ends, size_t n)
+{
+    pp_status res = begin_run(s, n > 1);
+    if (res != PP_OK)
+        return res;
+    double t0 = omp_get_wtime();
+    s->freeze_at = s->half_n = (size_t)(ends[0] / s->cfg.thin / 2);
+    for (size_t r = 0; r < n && res == PP_OK; r++) {
+        res = run_round(s, s->cfg.burn + ends[r]);
+        if (res == PP_OK && r + 1 < n) {
+            res = pp_sampler_diagnose(s);
+            close_round(s);
+        }
+    }
+    s->length.rounds = (unsigned)n;
+    s->length.stop = s->cfg.iters_auto ? PP_STOP_MAX_ITERS : PP_STOP_FIXED;
+    return end_run(s, res, t0);
+}
+
+/* The default time cap: PP_MAX_SECONDS_PER_MP per megapixel, floored. */
+static double max_seconds(const pp_sampler *s)
+{
+    if (s->cfg.max_seconds > 0)
+        return s->cfg.max_seconds;
+    double mp = (double)s->height * (double)s->width * 1e-6;
+    return fmax(PP_MAX_SECONDS_FLOOR, PP_MAX_SECONDS_PER_MP * mp);
+}
+
+/* Burn-in check (step 3 of the header's "Run length"): R-hat above this in
+ * any trace column after the first round means the chains still disagree
+ * grossly: the older threshold of Gelman et al., BDA3 (2013) section 11.4,
+ * common practice for "not yet converged at all". */
+#define BURN_RHAT 1.1
+/* The least kept draws per chain of a first round cut by the time cap: the
+ * ESS criteria ask for 100 per chain. */
+#define FIRST_MIN 100UL
+
+/* The worst R-hat over the trace columns (NaN columns ignored). */
+static double worst_rhat(const pp_sampler *s)
+{
+    pp_convergence cv;
+    pp_sampler_convergence(s, &cv);
+    return cv.rhat_max;
+}
+
+/* The next round's length in iterations (a multiple of thin), cut to the
+ * caps; 0 when a cap leaves no room, with the reason in *stop. */
+static unsigned long next_round(const pp_sampler *s, unsigned long want, double spi, double left,
+                                pp_stop_reason *stop)
+{
+    unsigned long th = s->cfg.thin, t = s->chain[0].t, len = want / th * th;
+    if (s->cfg.max_iters) {
+        unsigned long room = s->cfg.max_iters > t ? (s->cfg.max_iters - t) / th * th : 0;
+        if (room < len) {
+            len = room;
+            *stop = PP_STOP_MAX_ITERS;
+        }
+    }
+    double fit = spi > 0 ? left / spi : (double)len;
+    if (fit < (double)len) {
+        len = fit > 0 ? (unsigned long)fit / th * th : 0;
+        *stop = PP_STOP_MAX_TIME;
+    }
+    /* a round under a tenth of the planned one is not worth its diagnostics */
+    if (len < th || len * 10 < want)
+        return 0;
+    return len;
+}
+
+/* The run in rounds of the header's "Run length". */
+static pp_status run_auto(pp_sampler *s, double t0)
+{
+    pp_run_length *L = &s->length;
+    const double cap = max_seconds(s);
+    const unsigned long th = s->cfg.thin, first = (s->cfg.iters + th - 1) / th * th;
+    L->max_seconds = cap;
+    L->max_iters = s->cfg.max_iters;
+    /* The burn-in runs first, alone, whatever the caps (the samplers tune
+     * there); its speed decides how much of the first round fits the time
+     * cap, at least FIRST_MIN kept draws (fewer can never pass the ESS
+     * criteria). A zero burn-in leaves the first round whole. */
+    unsigned long len = first;
+    pp_status res = s->cfg.burn ? run_round(s, s->cfg.burn) : PP_OK;
+    if (res != PP_OK)
+        return end_run(s, res, t0);
+    double spent = omp_get_wtime() - t0, fit = (cap - spent) / (spent / (double)s->cfg.burn);
+    if (s->cfg.burn && spent > 0 && fit < (double)first)
+        len = fit > (double)(FIRST_MIN * th) ? (unsigned long)fit / th * th : FIRST_MIN * th;
+    len = len < first ? len : first;
+    s->freeze_at = s->half_n = len / th / 2;
+    int burn_ok = 0;
+    for (;;) {
+        double r0 = omp_get_wtime();
+        unsigned long t_from = s->chain[0].t;
+        res = run_round(s, t_from + len);
+        if (res == PP_OK)
+            res = pp_sampler_diagnose(s);
+        if (res != PP_OK)
+            break;
+        L->rounds++;
+        double now = omp_get_wtime(), spi = (now - r0) / (double)len, ratio = 1;
+        if (pp_sampler_criteria(s, L->failed, sizeof L->failed, &ratio)) {
+            L->stop = PP_STOP_CONVERGED;
+            L->failed[0] = 0;
+            L->iters_needed = 0;
+            break;
+        }
+        unsigned long kept_iters = s->chain[0].t - s->keep_from;
+        L->iters_needed = ratio > 1 ? (unsigned long)ceil(ratio * (double)kept_iters) : 0;
+        pp_stop_reason why = PP_STOP_MAX_TIME;
+        if (!burn_ok && worst_rhat(s) > BURN_RHAT) {
+            /* further burn-in: as long as all burn-in added so far */
+            unsigned long extra = s->chain[0].t - s->cfg.burn;
+            unsigned long want = extra > first ? extra : first;
+            unsigned long next = next_round(s, want, spi, cap - (now - t0), &why);
+            if (next == want) { /* only when the full round fits */
+                extend_burn(s, want);
+                pp_image_free(s->rhat_map);
+                s->rhat_map = NULL;
+                L->rounds = 0;
+                len = next;
+                continue;
+            }
+        }
+        burn_ok = 1;
+        len = next_round(s, kept_iters, spi, cap - (now - t0), &why);
+        if (len == 0) {
+            L->stop = why;
+            break;
+        }
+        close_round(s);
+    }
+    return end_run(s, res, t0);
+}
+
+pp_status pp_sampler_run(pp_sampler *s)
+{
+    pp_status res = begin_run(s, s->cfg.iters_auto);
+    if (res != PP_OK)
+        return res;
+    double t0 = omp_get_wtime();
+    if (s->cfg.iters_auto)
+        return run_auto(s, t0);
+    res = run_round(s, s->cfg.burn + s->cfg.iters);
+    s->length.rounds = 1;
+    s->length.stop = PP_STOP_FIXED;
+    return end_run(s, res, t0);
+}
+
+static const char *const stop_names[] = {"fixed", "converged", "max-time", "max-iters"};
+const char *pp_stop_reason_name(pp_stop_reason r)
+{
+    return (unsigned)r < 4 ? stop_names[r] : "unknown";
+}
+const pp_run_length *pp_sampler_run_length(const pp_sampler *s) { return &s->length; }
 
 /* ---- results and cleanup ---------------------------------------------- */
 

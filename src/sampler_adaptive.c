@@ -222,17 +222,18 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     const double nobs = (double)s->height * (double)s->width;
     double *y = pad ? c->yaug : sh->y;
     pp_po_set_stop(k->po, cfg->stop);
-    start_field(s, c, k->x);
-    pp_adapt_start(k->ad, c->delta);
-    pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
     double ss_obs, ss, xmean;
-    if (pad) {
-        residual(s, c, k->x, y, &xmean);
-        augment(s, c);
+    if (c->t == 0) {
+        start_field(s, c, k->x);
+        pp_adapt_start(k->ad, c->delta);
+        pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
+        if (pad) {
+            residual(s, c, k->x, y, &xmean);
+            augment(s, c);
+        }
     }
-    const unsigned long total = cfg->burn + cfg->iters;
-    for (unsigned long t = 0; t < total; t++) {
-        int keep = t >= cfg->burn && (t - cfg->burn + 1) % cfg->thin == 0;
+    for (unsigned long t = c->t; t < s->t_end; t++) {
+        int keep = t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0;
         pp_po_stats ps = {0, 0};
         pp_status st = range_check(c, t);
         if (st == PP_OK)
@@ -279,7 +280,20 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     unsigned long long acc, tried;
     pp_adapt_acceptance(k->ad, &acc, &tried);
     c->acceptance = tried ? (double)acc / (double)tried : 0;
+    c->t = s->t_end;
     return PP_OK;
+}
+
+/* A running chain's state in the slot: x (the CG's warm start), the
+ * weights and the prior's block state; the solver's buffers are scratch. */
+static size_t state(const pp_sampler *s, void *kwork, pp_region *out)
+{
+    adapt_work *k = kwork;
+    size_t g = s->gn * sizeof(double);
+    out[0] = (pp_region){k->x, g};
+    out[1] = (pp_region){k->wh, g};
+    out[2] = (pp_region){k->wv, g};
+    return 3 + pp_adapt_state(k->ad, out + 3);
 }
 
 /* Pooled bounds: the chains' streaming quantiles averaged (the draws are
@@ -297,5 +311,5 @@ static pp_status finish(pp_sampler *s)
     return PP_OK;
 }
 
-const pp_kernel pp_kernel_gibbs_adaptive = {"gibbs", prepare, adaptive_run_chain,
-                                            finish,  release, free_work};
+const pp_kernel pp_kernel_gibbs_adaptive = {"gibbs", prepare, adaptive_run_chain, finish,
+                                            release, free_work,          state};

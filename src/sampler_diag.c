@@ -196,7 +196,8 @@ static pp_status scalar_diagnostics(pp_sampler *s)
 {
     const pp_trace *t = &s->trace;
     size_t n = t->kept, total = (size_t)t->chains * n;
-    double *x = malloc(total * sizeof *x);
+    double *x = malloc((total ? total : 1) * sizeof *x);
+    free(s->diag);
     s->diag = calloc(t->ncols, sizeof *s->diag);
     if (!x || !s->diag) {
         free(x);
@@ -220,10 +221,17 @@ static void warn_scalars(pp_sampler *s, const char *adv)
 }
 
 /* Pixel maps from each chain's moments over all its kept draws (mean c,
- * M2) and its first half's mean a (pp_chain_add_draw): the second half's
+ * M2) and its first half's mean a (the first n1 = s->half_n draws, frozen
+ * by pp_chain_add_draw or at a round's end): the second half's
  * mean is b = (n c - n1 a) / n2, and the two halves' M2 sum to
  * M2 - n1 (a - c)^2 - n2 (b - c)^2 (Chan, Golub & LeVeque's merge solved for
- * the part; only that sum enters W). a is kept in single precision (4
+ * the part; only that sum enters W). Halves of unequal length (an odd
+ * count; a run in rounds whose last round was cut by a cap) enter as
+ * halves of m = 2 n1 n2 / (n1 + n2) draws, the harmonic mean, with which
+ * the half means' spread B/m has the expectation sigma^2 / m of equal
+ * halves; W is then pooled over the n1 + n2 - 2 degrees of freedom of each
+ * chain's two halves (the M2 sum rescaled to what pp_diag_pixel divides
+ * by). With equal halves both reduce to the classic split-R-hat. a is kept in single precision (4
  * bytes per pixel per chain saved): its rounding, at most 6e-8 |a|, moves
  * both half means by about that much, which changes their spread (B, and
  * with it the MCSE map) by a relative 6e-8 |mean| / spread. Measured
@@ -233,14 +241,17 @@ static void warn_scalars(pp_sampler *s, const char *adv)
  * from 2 x chains batch means, is tens of per cent. */
 static pp_status pixel_maps(pp_sampler *s)
 {
-    size_t m = s->trace.kept / 2, nc = s->cfg.chains, npix = s->height * s->width;
-    if (m < 2)
+    size_t nc = s->cfg.chains, npix = s->height * s->width;
+    pp_image_free(s->rhat_map);
+    pp_image_free(s->mcse_map);
+    s->rhat_map = s->mcse_map = NULL;
+    if (s->half_n < 2 || s->trace.kept < s->half_n + 2)
         return PP_OK; /* too few draws per half: no maps */
     double *hm = malloc(2 * nc * sizeof *hm);
     pp_status st = hm ? PP_OK : pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
     if (st == PP_OK)
         st = pp_image_create(s->width, s->height, &s->rhat_map);
-    if (st == PP_OK)
+    if (st == PP_OK && s->maps_final) /* a round's check needs the R-hat map only */
         st = pp_image_create(s->width, s->height, &s->mcse_map);
     /* The recorded field may be a conditional mean (gibbs, mtc): then the
      * draws' within-chain variance adds the mean conditional variance. */
@@ -249,10 +260,9 @@ static pp_status pixel_maps(pp_sampler *s)
         condvar += s->chain[k].condvar_sum;
         kept += (double)s->chain[k].kept;
     }
-    /* With an odd number of kept draws the second halves hold one draw
-     * more; W uses the first halves' length m (a negligible difference for
-     * the hundreds of draws a run keeps). */
-    double n1 = (double)m, n2 = (double)s->trace.kept - n1, n = n1 + n2;
+    double n1 = (double)s->half_n, n2 = (double)s->trace.kept - n1, n = n1 + n2;
+    double m = n1 == n2 ? n1 : 2 * n1 * n2 / n;
+    double wscale = n1 == n2 ? 1.0 : 2 * (m - 1) / (n - 2);
     for (size_t p = 0; st == PP_OK && p < npix; p++) {
         double w = 0;
         for (size_t k = 0; k < nc; k++) {
@@ -263,8 +273,8 @@ static pp_status pixel_maps(pp_sampler *s)
             hm[2 * k + 1] = b;
             w += part > 0 ? part : 0.0;
         }
-        pp_diag_pixel(hm, 2 * nc, w, n1, condvar / kept, &s->rhat_map->data[p],
-                      &s->mcse_map->data[p], NULL);
+        pp_diag_pixel(hm, 2 * nc, w * wscale, m, condvar / kept, &s->rhat_map->data[p],
+                      s->mcse_map ? &s->mcse_map->data[p] : NULL, NULL);
     }
     free(hm);
     return st;
@@ -330,8 +340,14 @@ static void warn_solver(pp_sampler *s)
 
 pp_status pp_sampler_diagnose(pp_sampler *s)
 {
+    for (size_t i = s->nwarn_setup; i < s->nwarnings; i++)
+        free(s->warnings[i]);
+    if (s->nwarnings > s->nwarn_setup)
+        s->nwarnings = s->nwarn_setup;
     warn_solver(s);
-    pp_status st = scalar_diagnostics(s);
+    /* the last round's check already has them when no draw came since */
+    pp_status st = s->diag && s->diag_kept == s->trace.kept ? PP_OK : scalar_diagnostics(s);
+    s->diag_kept = st == PP_OK ? s->trace.kept : 0;
     if (st == PP_OK) {
         warn_hyperprior(s);
         st = pixel_maps(s); /* before the convergence warnings: their advice reads the map */
@@ -342,6 +358,52 @@ pp_status pp_sampler_diagnose(pp_sampler *s)
         warn_map(s, adv.text);
     }
     return st;
+}
+
+/* One column against the criteria: appends its first failure to why (if
+ * why is still empty) and raises *ratio to its ESS shortfall factor. */
+static int column_ok(const pp_sampler *s, size_t j, char *why, size_t len, double *ratio)
+{
+    const pp_diag_scalar *d = &s->diag[j];
+    const char *name = s->trace.names[j];
+    double ess_min = ESS_PER_CHAIN * s->cfg.chains;
+    int ok = 1;
+    if (isfinite(d->rhat) && d->rhat > RHAT_LIMIT) {
+        if (!why[0])
+            snprintf(why, len, "R-hat of %s %.3f > %.2f", name, d->rhat, RHAT_LIMIT);
+        ok = 0;
+    }
+    const double ess[2] = {d->ess_bulk, d->ess_tail};
+    for (int e = 0; e < 2; e++)
+        if (isfinite(ess[e]) && ess[e] < ess_min) {
+            if (!why[0])
+                snprintf(why, len, "%s-ESS of %s %.0f < %.0f", e ? "tail" : "bulk", name, ess[e],
+                         ess_min);
+            *ratio = fmax(*ratio, ess_min / fmax(ess[e], 1.0));
+            ok = 0;
+        }
+    return ok;
+}
+
+int pp_sampler_criteria(const pp_sampler *s, char *why, size_t len, double *ess_ratio)
+{
+    int ok = 1;
+    why[0] = 0;
+    *ess_ratio = 1.0;
+    if (!s->diag || s->trace.kept < 4) {
+        snprintf(why, len, "too few kept draws (%zu per chain)", s->trace.kept);
+        return 0;
+    }
+    for (size_t j = 0; j < s->trace.ncols; j++)
+        ok &= column_ok(s, j, why, len, ess_ratio);
+    map_check m = check_map(s);
+    if (m.fails) {
+        if (!why[0])
+            snprintf(why, len, "pixel R-hat map: %zu pixels above %.2f, worst %.3f", m.bad,
+                     RHAT_LIMIT, m.worst);
+        ok = 0;
+    }
+    return ok;
 }
 
 const pp_diag_scalar *pp_sampler_diagnostics(const pp_sampler *s) { return s->diag; }

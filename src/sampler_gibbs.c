@@ -574,9 +574,8 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
     const double shape_l = cfg->hyper_lambda[0] + 0.5 * (double)s->gn;
     const double shape_d = cfg->hyper_delta[0] + 0.5 * s->rank;
     const double nobs = (double)s->height * (double)s->width;
-    const unsigned long total = cfg->burn + cfg->iters;
-    for (unsigned long t = 0; t < total; t++) {
-        int keep = t >= cfg->burn && (t - cfg->burn + 1) % cfg->thin == 0;
+    for (unsigned long t = c->t; t < s->t_end; t++) {
+        int keep = t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0;
         /* a kept periodic draw without width sampling needs x-hat only for
          * its probes: the pass sums them and x-hat is never stored */
         int direct = keep && !pad && !width;
@@ -618,7 +617,8 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
         if (pp_sampler_tick(s))
             return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");
     }
+    c->t = s->t_end;
     return PP_OK;
 }
 
-const pp_kernel pp_kernel_gibbs = {"gibbs", NULL, gibbs_run_chain, NULL, NULL, NULL};
+const pp_kernel pp_kernel_gibbs = {"gibbs", NULL, gibbs_run_chain, NULL, NULL, NULL, NULL};

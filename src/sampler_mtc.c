@@ -548,8 +548,7 @@ static double hyper_move(const pp_sampler *s, pp_chain *c, mtc_chain *k, unsigne
 static pp_status run_iterations(pp_sampler *s, pp_chain *c, mtc_chain *k)
 {
     const pp_sampler_config *cfg = &s->cfg;
-    const unsigned long total = cfg->burn + cfg->iters;
-    for (unsigned long t = 0; t < total; t++) {
+    for (unsigned long t = c->t; t < s->t_end; t++) {
         int burn = t < cfg->burn;
         double lm = hyper_move(s, c, k, t);
         if (c->wstate && pp_width_step(s, c, width_logp, NULL, &lm, burn ? t + 1 : 0))
@@ -561,7 +560,7 @@ static pp_status run_iterations(pp_sampler *s, pp_chain *c, mtc_chain *k)
                            "(lambda=%g, delta=%g); rescale the frame or fix one with "
                            "gaussian:sigma=S or delta=D",
                            t + 1, c->lambda, c->delta);
-        if (!burn && (t - cfg->burn + 1) % cfg->thin == 0)
+        if (t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0)
             conditional_draw(s, c);
         if (pp_sampler_tick(s))
             return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");
@@ -575,11 +574,15 @@ static pp_status mtc_run_chain(pp_sampler *s, pp_chain *c)
     if (m->fallback)
         return pp_kernel_gibbs.run_chain(s, c);
     mtc_chain *k = c->kstate;
-    double *a = k->a;
-    memset(k, 0, sizeof *k);
-    k->a = a;
-    chain_start(s, c, k);
+    if (c->t == 0) {
+        double *a = k->a;
+        memset(k, 0, sizeof *k);
+        k->a = a;
+        chain_start(s, c, k);
+    }
     pp_status st = run_iterations(s, c, k);
+    if (st == PP_OK)
+        c->t = s->t_end;
     c->acceptance = k->tried ? (double)k->accepted / (double)k->tried : 0.0;
     c->step = move_kind(s) == MOVE_RHO    ? T_WIDEN * k->sd
               : move_kind(s) == MOVE_WALK ? exp(k->logsc) * k->wsd
@@ -587,4 +590,5 @@ static pp_status mtc_run_chain(pp_sampler *s, pp_chain *c)
     return st;
 }
 
-const pp_kernel pp_kernel_mtc = {"mtc", mtc_prepare, mtc_run_chain, NULL, mtc_release, NULL};
+const pp_kernel pp_kernel_mtc = {"mtc", mtc_prepare, mtc_run_chain, NULL, mtc_release, NULL,
+                                 NULL};

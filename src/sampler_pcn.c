@@ -693,6 +693,13 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
 
 /* ---- chain ------------------------------------------------------------ */
 
+static void clear_zm(pcn_chain *k)
+{
+    k->zm.count = 0;
+    memset(k->zm.mean, 0, k->zm.len * sizeof(double));
+    memset(k->zm.m2, 0, k->zm.len * sizeof(double));
+}
+
 static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k)
 {
     k->m = sh->m0;
@@ -721,9 +728,7 @@ static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k
     k->dstep = 0.1;
     k->mstep = 0.02 * (sh->mdisp > 0 ? sh->mdisp / 0.1 : 1.0);
     k->acc = 0;
-    k->zm.count = 0;
-    memset(k->zm.mean, 0, k->zm.len * sizeof(double));
-    memset(k->zm.m2, 0, k->zm.len * sizeof(double));
+    clear_zm(k);
 }
 
 static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
@@ -733,12 +738,15 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
     pcn_chain *k = c->kwork;
     const int fix_d = cfg->prior.delta_set, fix_l = !sh->gauss || cfg->noise.sigma_set;
     const double nobs = (double)s->height * (double)s->width;
-    start(s, sh, c, k);
+    if (c->t == 0)
+        start(s, sh, c, k);
     if (!isfinite(k->phi))
         return pp_fail(PP_ERR_NUMERIC, "the start image has no finite likelihood");
-    const unsigned long total = cfg->burn + cfg->iters, half = cfg->burn / 2;
-    for (unsigned long t = 0; t < total; t++) {
+    const unsigned long half = cfg->burn / 2;
+    for (unsigned long t = c->t; t < s->t_end; t++) {
         int burn = t < cfg->burn;
+        if (t == s->keep_from) /* the kept phase starts (again, after a longer burn-in) */
+            clear_zm(k);
         int accepted;
         double a = sh->hmc ? hmc_move(s, sh, c, k, &accepted) : field_move(s, sh, c, k, &accepted);
         if (burn) { /* gpcn: restart the gain once the centre is frozen */
@@ -781,12 +789,13 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
                            "the state left the floating-point range at iteration %lu "
                            "(delta=%g, level=%g); fix delta=D or rescale the frame",
                            t + 1, c->delta, k->m);
-        if (!burn && (t - cfg->burn + 1) % cfg->thin == 0)
+        if (t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0)
             record(s, sh, c, k);
         if (pp_sampler_tick(s))
             return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");
     }
-    c->acceptance = (double)k->acc / (double)cfg->iters;
+    c->t = s->t_end;
+    c->acceptance = c->t > cfg->burn ? (double)k->acc / (double)(c->t - cfg->burn) : 0.0;
     c->step = k->beta;
     if (sh->adaptive) {
         unsigned long long acc, tried;
@@ -1021,9 +1030,46 @@ static void pcn_release(pp_sampler *s)
     pp_squant_release_chains(s->chain, s->cfg.chains);
 }
 
+/* A running chain's state in the slot (pointers follow take_proposal's
+ * swaps): u, the gpcn centre, hmc's gradient, z, x, A x, the moments of z,
+ * the scalars, the adaptive prior's weights and blocks. The proposal
+ * buffers and hmc's velocity are scratch. */
+static size_t pcn_state(const pp_sampler *s, void *kwork, pp_region *out)
+{
+    pcn_chain *k = kwork;
+    const pcn_shared *sh = s->kshared;
+    size_t n = 0, h = s->gm * sizeof(pp_complex), g = s->gn * sizeof(double);
+    size_t f = k->zm.len * sizeof(double);
+    out[n++] = (pp_region){k->u, h};
+    out[n++] = (pp_region){k->ctr, h};
+    if (sh->hmc)
+        out[n++] = (pp_region){k->g, h};
+    out[n++] = (pp_region){k->z, g};
+    out[n++] = (pp_region){k->x, g};
+    out[n++] = (pp_region){k->ax, g};
+    out[n++] = (pp_region){k->zm.mean, f};
+    out[n++] = (pp_region){k->zm.m2, f};
+    out[n++] = (pp_region){&k->zm.count, sizeof k->zm.count};
+    out[n++] = (pp_region){&k->gvalid, sizeof k->gvalid};
+    out[n++] = (pp_region){&k->m, sizeof k->m};
+    out[n++] = (pp_region){&k->beta, sizeof k->beta};
+    out[n++] = (pp_region){&k->dstep, sizeof k->dstep};
+    out[n++] = (pp_region){&k->mstep, sizeof k->mstep};
+    out[n++] = (pp_region){&k->phi, sizeof k->phi};
+    out[n++] = (pp_region){&k->ss, sizeof k->ss};
+    out[n++] = (pp_region){&k->dref, sizeof k->dref};
+    out[n++] = (pp_region){&k->acc, sizeof k->acc};
+    if (sh->adaptive) {
+        out[n++] = (pp_region){k->wh, g};
+        out[n++] = (pp_region){k->wv, g};
+        n += pp_adapt_state(k->ad, out + n);
+    }
+    return n;
+}
+
 const pp_kernel pp_kernel_pcn = {"pcn", prepare_pcn, pcn_run_chain, pcn_finish, pcn_release,
-                                 pcn_free_work};
+                                 pcn_free_work, pcn_state};
 const pp_kernel pp_kernel_gpcn = {"gpcn", prepare_gpcn, pcn_run_chain, pcn_finish, pcn_release,
-                                 pcn_free_work};
+                                 pcn_free_work, pcn_state};
 const pp_kernel pp_kernel_hmc = {"hmc", prepare_hmc, pcn_run_chain, pcn_finish, pcn_release,
-                                 pcn_free_work};
+                                 pcn_free_work, pcn_state};

@@ -75,6 +75,7 @@ static int do_logmarg(int argc, char **argv)
     pp_sampler *s = NULL;
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     cfg.kind = PP_SAMPLER_MTC;
     cfg.boundary = PP_BOUNDARY_PERIODIC;
@@ -102,6 +103,7 @@ static int do_run(int argc, char **argv)
     pp_sampler *s = NULL;
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     const char *prior_text = "gmrf1";
     if (load(argv[0], argv[1], &frame, &cfg.psf, &psf))

@@ -129,7 +129,9 @@ for f, x in enumerate(truths):
     tifffile.imwrite(frame, y.astype(np.float32))
     out = os.path.join(tmp, "post%02d" % f)
     pptest.run(["sample", frame, "--psf", PSF, "--noise", "gaussian:sigma=%g" % SIGMA,
-                "--boundary", "periodic", "--seed", 100 + f, "--quiet", "-o", out])
+                "--boundary", "periodic", "--seed", 100 + f, "--quiet",
+                "--burn", "200", "--iters", "1000",  # the length this band was measured at
+                "-o", out])
     rd = lambda n: tifffile.imread(os.path.join(out, n)).astype(np.float64)
     mean, sd, lo, hi = rd("mean.tif"), rd("sd.tif"), rd("lo.tif"), rd("hi.tif")
     if f == 0:

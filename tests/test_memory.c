@@ -76,6 +76,7 @@ static void check_config(const char *name, pp_sampler_kind kind, pp_boundary b, 
 {
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     cfg.kind = kind;
     cfg.boundary = b;

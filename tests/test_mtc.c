@@ -28,6 +28,7 @@ static pp_sampler_config base(pp_sampler_kind kind)
 {
     pp_sampler_config c;
     pp_sampler_defaults(&c);
+    c.iters_auto = 0; /* exactly burn + iters */
     c.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     c.kind = kind;
     c.boundary = PP_BOUNDARY_PERIODIC;

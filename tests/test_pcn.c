@@ -99,6 +99,7 @@ static void camera_read0_is_poisson(const pp_image *psf, pp_sampler_kind kind, p
     pp_image *y = photon_frame(psf, 20, 0.5, 100);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     cfg.kind = kind;
     cfg.boundary = b;
@@ -152,6 +153,7 @@ static void gaussian_closed_form(const pp_image *psf, pp_sampler_kind kind)
     pp_model_simulate(truth, psf, PP_BOUNDARY_PERIODIC, &nz, 4, &y);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     cfg.kind = kind;
     cfg.boundary = PP_BOUNDARY_PERIODIC;
@@ -205,6 +207,7 @@ static void refusals(const pp_image *psf)
     pp_image *y = photon_frame(psf, 5, 1, 0);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     pp_noise_parse("poisson:gain=1,offset=0", &cfg.noise);
     cfg.kind = PP_SAMPLER_GIBBS;
@@ -235,6 +238,7 @@ static void short_burn_warned(const pp_image *psf)
     pp_image *y = photon_frame(psf, 20, 1, 0);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     pp_noise_parse("poisson:gain=1,offset=0", &cfg.noise);
     pp_prior_parse("matern:range=4,nu=1", &cfg.prior);

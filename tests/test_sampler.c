@@ -137,6 +137,7 @@ static void determinism_and_refusals(void)
     for (int b = 0; b < 2; b++) {
         pp_sampler_config cfg;
         pp_sampler_defaults(&cfg);
+        cfg.iters_auto = 0; /* exactly burn + iters */
         cfg.boundary = b ? PP_BOUNDARY_PAD : PP_BOUNDARY_PERIODIC;
         cfg.chains = 3;
         cfg.burn = 20;
@@ -170,16 +171,20 @@ static void determinism_and_refusals(void)
     pp_sampler_config cfg;
     pp_sampler *s;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.thin = 5000;
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG && strstr(pp_error_message(), "--thin"),
           "thin > iters refused: %s", pp_error_message());
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.chains = 0;
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG, "zero chains refused");
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.level = 1.0;
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG, "level 1 refused");
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     y->data[5] = NAN;
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_NUMERIC && strstr(pp_error_message(), "NaN"),
           "NaN frame refused: %s", pp_error_message());
@@ -205,6 +210,7 @@ static void transfer_zeros_are_a_note(void)
     pp_psf_make(&ps, 0, &psf);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.boundary = PP_BOUNDARY_PERIODIC;
     pp_sampler *s = NULL;
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_OK, "create: %s", pp_error_message());

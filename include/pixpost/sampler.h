@@ -15,6 +15,38 @@
  * probe pixels). The same seed with the same FFT plans gives byte-identical
  * results whatever the thread count; other plans (another cfg.fft_effort,
  * other wisdom) give results equal to rounding.
+ *
+ * Run length. With cfg.iters_auto (the default) the run picks its own
+ * length from its diagnostics, in rounds:
+ *   1. burn-in of cfg.burn iterations (the samplers tune their steps here,
+ *      and only here), then a first round of cfg.iters iterations;
+ *   2. after each round: the diagnostics of all kept draws. The run stops
+ *      when every criterion holds: R-hat <= 1.01 and bulk- and tail-ESS
+ *      >= 100 per chain for every trace column (lambda, delta, loglik,
+ *      kappa, psf_width, the probe pixels), and the pixel R-hat map's rule
+ *      (at most 1 % of pixels above 1.01, none above 1.1);
+ *   3. until a round has passed this check once, a round after which some
+ *      column's R-hat is above 1.1 (the chains clearly still disagree) is
+ *      thrown away as further burn-in (tuning stays frozen), and the next
+ *      round is as long as the burn-in added so far;
+ *   4. otherwise the next round is as long as all kept rounds together
+ *      (the kept draws double), so the first half of the draws is exactly
+ *      all rounds but the last: the split-R-hat maps stay exact. A round's
+ *      length is fixed before it starts, the same for every chain, and is
+ *      cut to what the caps leave (cfg.max_seconds, predicted from the
+ *      measured seconds per iteration; cfg.max_iters). A cut last round
+ *      makes the two halves unequal, which the maps allow for. The burn-in
+ *      always runs in full, timed on its own; the first round is cut to
+ *      what the time cap leaves but keeps at least 100 draws per chain.
+ * Every chain keeps all its kept draws: estimates, maps and traces are
+ * those of one run of the final length (rounds of doubling length give
+ * the same bytes as one fixed run with the same seed). Stopping on the
+ * diagnostics slightly biases the estimates towards runs that looked
+ * converged; README "Run length" says what is done about it. Chain k
+ * always runs on the working buffers of thread k % threads; with more
+ * chains than threads, a chain's working state waits in a park store
+ * between rounds (bytes per pixel: README "Limits"). What the run did is in
+ * pp_sampler_run_length().
  */
 #ifndef PIXPOST_SAMPLER_H
 #define PIXPOST_SAMPLER_H
@@ -58,9 +90,21 @@ typedef void (*pp_progress_fn)(void *ctx, unsigned long long done,
 typedef struct pp_sampler_config {
     pp_sampler_kind kind;
     unsigned chains;        /* default 4 */
-    unsigned long burn;     /* discarded iterations per chain (default 200) */
-    unsigned long iters;    /* iterations after burn-in (default 1000) */
-    unsigned long thin;     /* keep every thin-th of iters (default 1) */
+    unsigned long burn;     /* discarded iterations per chain (default 200); with
+                             * iters_auto the first burn-in, which may grow */
+    unsigned long iters;    /* iterations after burn-in (default 1000); with
+                             * iters_auto the first round's length */
+    unsigned long thin;     /* keep every thin-th of iters (default 1); with
+                             * iters_auto every round is a multiple of it */
+    /* Run length (see "Run length" above). iters_auto 1 (default): rounds
+     * until the diagnostics pass or a cap is reached; 0: exactly burn +
+     * iters iterations per chain. The caps apply to iters_auto only:
+     * max_seconds > 0 the sampling wall time (default 0: max(120 s, 300 s
+     * per megapixel of frame), PP_MAX_SECONDS_*), max_iters > 0 the
+     * iterations per chain, burn-in included (default 0: none). */
+    int iters_auto;
+    double max_seconds;
+    unsigned long max_iters;
     uint64_t seed;          /* default 1 */
     pp_boundary boundary;   /* default pad */
     int threads;            /* 0 = OpenMP's default */
@@ -85,6 +129,10 @@ typedef struct pp_sampler_config {
 
 void pp_sampler_defaults(pp_sampler_config *cfg);
 
+/* The default time cap of a run in rounds: max(FLOOR, PER_MP x megapixels). */
+#define PP_MAX_SECONDS_FLOOR 120.0
+#define PP_MAX_SECONDS_PER_MP 300.0
+
 typedef struct pp_sampler pp_sampler;
 
 /* frame and psf are copied; the caller keeps ownership of both. */
@@ -106,6 +154,37 @@ const pp_sampler_config *pp_sampler_config_used(const pp_sampler *s);
  * allocates only while planning, so the extra system calls cost nothing
  * measurable. The pixpost command calls it. */
 void pp_sampler_return_memory(void);
+
+/* What a run did about its length (valid after pp_sampler_run; zero before). */
+typedef enum pp_stop_reason {
+    PP_STOP_FIXED = 0, /* iters_auto off: exactly burn + iters */
+    PP_STOP_CONVERGED, /* every criterion holds */
+    PP_STOP_MAX_TIME,  /* cfg.max_seconds (or its default) reached first */
+    PP_STOP_MAX_ITERS  /* cfg.max_iters reached first */
+} pp_stop_reason;
+/* "fixed", "converged", "max-time", "max-iters" ("unknown" out of range). */
+const char *pp_stop_reason_name(pp_stop_reason r);
+
+typedef struct pp_run_length {
+    int iters_auto; /* cfg.iters_auto */
+    pp_stop_reason stop;
+    unsigned long burn;       /* burn-in used per chain (cfg.burn plus any extension) */
+    unsigned long iters;      /* iterations per chain after the burn-in */
+    size_t kept;              /* kept draws per chain (iters / thin) */
+    unsigned rounds;          /* sampling rounds kept (1 for a fixed run) */
+    unsigned burn_extensions; /* rounds thrown away as further burn-in */
+    double max_seconds;       /* the caps in force (0: none; fixed runs: 0) */
+    unsigned long max_iters;
+    /* When the run stopped at a cap: the first criterion that failed (a
+     * short phrase, e.g. "bulk-ESS of delta 212 < 400"), and the
+     * iterations after burn-in that the ESS criteria predict are needed
+     * (iters x the largest shortfall factor of an ESS: ESS grows in
+     * proportion to the draws once the chains mix; 0 when only an R-hat
+     * fails, which no rate predicts). "" and 0 otherwise. */
+    char failed[160];
+    unsigned long iters_needed;
+} pp_run_length;
+const pp_run_length *pp_sampler_run_length(const pp_sampler *s);
 
 /* Estimates, frame-sized; valid after a successful run (NULL before). */
 const pp_image *pp_sampler_mean(const pp_sampler *s);

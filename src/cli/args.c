@@ -356,6 +356,24 @@ int cli_get_double(const cli_args *a, const char *name, double lo, double hi, in
     return 0;
 }
 
+int cli_get_seconds(const cli_args *a, const char *name, double *out)
+{
+    const char *v = cli_str(a, name);
+    if (!v)
+        return 0;
+    size_t n = strlen(v);
+    double unit = 1, x;
+    if (n > 0 && strchr("smh", v[n - 1])) {
+        unit = v[n - 1] == 'h' ? 3600 : v[n - 1] == 'm' ? 60 : 1;
+        n--;
+    }
+    if (parse_double(v, v + n, &x) || !(x > 0) || !isfinite(x * unit))
+        return bad_value(a, name, v, "is not accepted",
+                         "a time > 0: seconds, or a number with the unit s, m or h");
+    *out = x * unit;
+    return 0;
+}
+
 int cli_get_pair(const cli_args *a, const char *name, double min, double out[2])
 {
     const char *v = cli_str(a, name);

@@ -81,6 +81,8 @@ int cli_get_size(const cli_args *a, const char *name, size_t min, size_t *out);
 /* A finite double; lo/hi are bounds, open (lo < v < hi) when open != 0. */
 int cli_get_double(const cli_args *a, const char *name, double lo, double hi, int open,
                    double *out);
+/* A time > 0 in seconds: a number, optionally followed by s, m or h. */
+int cli_get_seconds(const cli_args *a, const char *name, double *out);
 /* "A,B": two finite doubles, each >= min. */
 int cli_get_pair(const cli_args *a, const char *name, double min, double out[2]);
 /* "K/N" with 1 <= K <= N: shard K of N (1-based: 1/4 is the first of four). */

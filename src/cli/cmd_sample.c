@@ -41,6 +41,28 @@ static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double 
                     "bulk-ESS %.0f: %s\n",
             t->chains, t->kept, seconds, cv.rhat_max, cv.ess_bulk_min, count);
     fprintf(stderr, "pixpost: verdict: %s\n", verdict);
+    const pp_run_length *L = pp_sampler_run_length(s);
+    if (L->stop == PP_STOP_FIXED)
+        fprintf(stderr, "pixpost: run length: burn-in %lu + %lu iterations (fixed by --iters)\n",
+                L->burn, L->iters);
+    else if (L->stop == PP_STOP_CONVERGED)
+        fprintf(stderr,
+                "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
+                "converged\n",
+                L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s");
+    else if (L->iters_needed)
+        fprintf(stderr,
+                "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
+                "stopped at --%s, not converged (%s; about %lu iterations after "
+                "burn-in would be needed)\n",
+                L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s",
+                pp_stop_reason_name(L->stop), L->failed, L->iters_needed);
+    else
+        fprintf(stderr,
+                "pixpost: run length: burn-in %lu + %lu iterations in %u round%s: "
+                "stopped at --%s, not converged (%s)\n",
+                L->burn, L->iters, L->rounds, L->rounds == 1 ? "" : "s",
+                pp_stop_reason_name(L->stop), L->failed);
     for (size_t i = 0; i < nw; i++)
         fprintf(stderr, "pixpost:   %s\n", pp_sampler_warning(s, i));
     for (size_t i = 0; i < pp_sampler_note_count(s); i++)

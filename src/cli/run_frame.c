@@ -61,6 +61,7 @@ typedef struct progress_state {
     cli_progress mode;
     struct timespec t0;
     int last_decile;
+    unsigned long long total; /* grows with each round of --iters auto */
     unsigned chains; /* iterations are counted over all chains */
     const char *label; /* plain lines start "pixpost: <label>: " when set */
 } progress_state;
@@ -69,6 +70,10 @@ static void show_progress(void *ctx, unsigned long long done, unsigned long long
 {
     progress_state *p = ctx;
     double el = cli_since(&p->t0), frac = (double)done / (double)total;
+    if (total != p->total) { /* a new round: count tenths of the longer run from here */
+        p->total = total;
+        p->last_decile = (int)(frac * 10);
+    }
     double left = frac > 0 ? el * (1 - frac) / frac : 0;
     if (p->mode == CLI_PROGRESS_BAR) {
         int w = 30, fill = (int)(frac * w);

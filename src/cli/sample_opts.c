@@ -49,9 +49,24 @@ static const cli_opt sample_table[] = {
      "a stationary prior), hmc for poisson/camera (gibbs/mtc need gaussian noise; mtc, pcn "
      "and gpcn need a stationary prior)."},
     {"chains", 0, 1, "N", "Independent chains run in parallel (whole number >= 1)."},
-    {"iters", 0, 1, "N", "Iterations per chain after burn-in (whole number >= 1)."},
-    {"burn", 0, 1, "N", "Burn-in iterations per chain, discarded (whole number >= 0)."},
-    {"thin", 0, 1, "N", "Keep every N-th iteration (1 <= N <= --iters)."},
+    {"iters", 0, 1, "auto|N",
+     "Iterations per chain after burn-in. auto: sample in rounds (the first 1000 "
+     "iterations, then doubling the kept draws) until R-hat <= 1.01 and bulk- and tail-ESS "
+     ">= 100 per chain hold for every trace column and the R-hat map, or a cap is reached "
+     "(--max-time, --max-iters); a burn-in after which the chains still disagree (R-hat "
+     "above 1.1) is lengthened. N (whole number >= 1): exactly N, no rounds."},
+    {"burn", 0, 1, "N",
+     "Burn-in iterations per chain, discarded (whole number >= 0); the samplers tune their "
+     "steps during it. With --iters auto the first burn-in, which may grow."},
+    {"thin", 0, 1, "N",
+     "Keep every N-th iteration (1 <= N <= --iters; with --iters auto every round keeps every "
+     "N-th iteration and the ESS criteria count kept draws)."},
+    {"max-time", 0, 1, "T",
+     "--iters auto: stop starting rounds that would end after T of sampling (T: seconds, or "
+     "with a unit s, m or h: 90, 5m, 1.5h). The run then ends not converged, with warnings."},
+    {"max-iters", 0, 1, "N",
+     "--iters auto: at most N iterations per chain, burn-in included (whole number >= "
+     "--burn + 1000)."},
     {"seed", 0, 1, "N",
      "Random seed (whole number 0 to 2^64-1); the same seed gives the same result whatever "
      "the thread count."},
@@ -109,7 +124,12 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
     else if (strcmp(name, "chains") == 0)
         snprintf(buf, len, "%u", d.chains);
     else if (strcmp(name, "iters") == 0)
-        snprintf(buf, len, "%lu", d.iters);
+        snprintf(buf, len, "auto");
+    else if (strcmp(name, "max-time") == 0)
+        snprintf(buf, len, "%gs per megapixel of frame, at least %gs", PP_MAX_SECONDS_PER_MP,
+                 PP_MAX_SECONDS_FLOOR);
+    else if (strcmp(name, "max-iters") == 0)
+        snprintf(buf, len, "none");
     else if (strcmp(name, "burn") == 0)
         snprintf(buf, len, "%lu", d.burn);
     else if (strcmp(name, "thin") == 0)
@@ -202,17 +222,36 @@ static int parse_counts(const cli_args *a, cli_sample_opts *o)
     unsigned long chains = c->chains, threads = (unsigned long)c->threads;
     int rc = 0;
     rc = rc ? rc : cli_get_ulong(a, "chains", 1, 4096, &chains);
-    rc = rc ? rc : cli_get_ulong(a, "iters", 1, ULONG_MAX, &c->iters);
+    const char *iv = cli_str(a, "iters");
+    if (iv && strcmp(iv, "auto") != 0) {
+        c->iters_auto = 0;
+        rc = cli_get_ulong(a, "iters", 1, ULONG_MAX, &c->iters);
+        if (rc)
+            return rc;
+    }
     rc = rc ? rc : cli_get_ulong(a, "burn", 0, ULONG_MAX, &c->burn);
     rc = rc ? rc : cli_get_ulong(a, "thin", 1, ULONG_MAX, &c->thin);
     rc = rc ? rc : cli_get_u64(a, "seed", &c->seed);
     rc = rc ? rc : cli_get_ulong(a, "threads", 0, 4096, &threads);
     rc = rc ? rc : cli_get_size(a, "max-pixels", 1, &o->read.max_pixels);
+    rc = rc ? rc : cli_get_ulong(a, "max-iters", 1, ULONG_MAX, &c->max_iters);
+    rc = rc ? rc : cli_get_seconds(a, "max-time", &c->max_seconds);
     if (rc)
         return rc;
     c->chains = (unsigned)chains;
     c->threads = (int)threads;
-    if (c->thin > c->iters)
+    const char *capped = cli_given(a, "max-time") ? "max-time" : "max-iters";
+    if (!c->iters_auto && (cli_given(a, "max-time") || cli_given(a, "max-iters")))
+        return cli_opt_error(capped,
+                             "applies to --iters auto only (--iters %lu runs exactly "
+                             "that many iterations)",
+                             c->iters);
+    if (c->iters_auto && c->max_iters && c->max_iters < c->burn + c->iters)
+        return cli_opt_error("max-iters",
+                             "%lu is below --burn + the first round (%lu + %lu; expected "
+                             "a whole number >= %lu)",
+                             c->max_iters, c->burn, c->iters, c->burn + c->iters);
+    if (!c->iters_auto && c->thin > c->iters)
         return cli_opt_error("thin",
                              "%lu is larger than --iters %lu (no draw would be kept; "
                              "expected 1 <= N <= --iters)",
