@@ -280,9 +280,8 @@ pp_status pp_sampler_diagnose(pp_sampler *s);
 /* After pp_sampler_diagnose: 1 when every stopping criterion holds (R-hat
  * <= 1.01, bulk- and tail-ESS >= 100 per chain for every trace column, the
  * pixel-map rule of the warnings); else 0, with the first failing criterion
- * in why (a short phrase) and in *ess_ratio the largest factor by which an
- * ESS falls short (1 when none does). */
-int pp_sampler_criteria(const pp_sampler *s, char *why, size_t len, double *ess_ratio);
+ * in why (a short phrase). */
+int pp_sampler_criteria(const pp_sampler *s, char *why, size_t len);
 
 /* Runs the chains in rounds ending at the given iterations after burn-in
  * (ends[0] < ends[1] < ... < ends[n-1], each a multiple of cfg.thin), with

@@ -996,15 +996,14 @@ static pp_status run_auto(pp_sampler *s, double t0)
         if (res != PP_OK)
             break;
         L->rounds++;
-        double now = omp_get_wtime(), spi = (now - r0) / (double)len, ratio = 1;
-        if (pp_sampler_criteria(s, L->failed, sizeof L->failed, &ratio)) {
+        double now = omp_get_wtime(), spi = (now - r0) / (double)len;
+        if (pp_sampler_criteria(s, L->failed, sizeof L->failed)) {
             L->stop = PP_STOP_CONVERGED;
             L->failed[0] = 0;
             L->iters_needed = 0;
             break;
         }
-        unsigned long kept_iters = s->chain[0].t - s->keep_from;
-        L->iters_needed = ratio > 1 ? (unsigned long)ceil(ratio * (double)kept_iters) : 0;
+        L->iters_needed = pp_sampler_iters_suggested(s);
         pp_stop_reason why = PP_STOP_MAX_TIME;
         if (!burn_ok && worst_rhat(s) > BURN_RHAT) {
             /* further burn-in: as long as all burn-in added so far */

@@ -361,8 +361,8 @@ pp_status pp_sampler_diagnose(pp_sampler *s)
 }
 
 /* One column against the criteria: appends its first failure to why (if
- * why is still empty) and raises *ratio to its ESS shortfall factor. */
-static int column_ok(const pp_sampler *s, size_t j, char *why, size_t len, double *ratio)
+ * why is still empty). */
+static int column_ok(const pp_sampler *s, size_t j, char *why, size_t len)
 {
     const pp_diag_scalar *d = &s->diag[j];
     const char *name = s->trace.names[j];
@@ -379,23 +379,21 @@ static int column_ok(const pp_sampler *s, size_t j, char *why, size_t len, doubl
             if (!why[0])
                 snprintf(why, len, "%s-ESS of %s %.0f < %.0f", e ? "tail" : "bulk", name, ess[e],
                          ess_min);
-            *ratio = fmax(*ratio, ess_min / fmax(ess[e], 1.0));
             ok = 0;
         }
     return ok;
 }
 
-int pp_sampler_criteria(const pp_sampler *s, char *why, size_t len, double *ess_ratio)
+int pp_sampler_criteria(const pp_sampler *s, char *why, size_t len)
 {
     int ok = 1;
     why[0] = 0;
-    *ess_ratio = 1.0;
     if (!s->diag || s->trace.kept < 4) {
         snprintf(why, len, "too few kept draws (%zu per chain)", s->trace.kept);
         return 0;
     }
     for (size_t j = 0; j < s->trace.ncols; j++)
-        ok &= column_ok(s, j, why, len, ess_ratio);
+        ok &= column_ok(s, j, why, len);
     map_check m = check_map(s);
     if (m.fails) {
         if (!why[0])

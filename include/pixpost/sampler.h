@@ -177,10 +177,10 @@ typedef struct pp_run_length {
     unsigned long max_iters;
     /* When the run stopped at a cap: the first criterion that failed (a
      * short phrase, e.g. "bulk-ESS of delta 212 < 400"), and the
-     * iterations after burn-in that the ESS criteria predict are needed
-     * (iters x the largest shortfall factor of an ESS: ESS grows in
-     * proportion to the draws once the chains mix; 0 when only an R-hat
-     * fails, which no rate predicts). "" and 0 otherwise. */
+     * iterations after burn-in to ask for, pp_sampler_iters_suggested (its
+     * rule: the ESS shortfall scaled with a margin, at least double the run
+     * when an R-hat fails; a lower bound while the chains disagree). "" and
+     * 0 otherwise. */
     char failed[160];
     unsigned long iters_needed;
 } pp_run_length;
