@@ -321,6 +321,33 @@ double pp_adapt_level(const pp_adapt *a)
 
 double pp_adapt_kappa(const pp_adapt *a) { return a->kappa; }
 
+void pp_adapt_geometry(const pp_adapt *a, size_t *side, size_t *mh, size_t *mw)
+{
+    *side = a->bs, *mh = a->mh, *mw = a->mw;
+}
+
+double pp_adapt_block_dlogp(const pp_adapt *a, size_t b, double ds)
+{
+    double mean, m = (double)block_nbrs(a, b, &mean), t0 = a->s[b] - mean, t1 = t0 + ds;
+    /* Σ_nbrs (s − s_n)² = m (s − s̄)² + const in s */
+    return a->half[b] * ds - 0.5 * a->kappa * m * (t1 * t1 - t0 * t0) +
+           level_dlogp(a, ds * frame_share(a, b));
+}
+
+void pp_adapt_block_shift(pp_adapt *a, size_t b, double ds, double *wh, double *wv)
+{
+    a->s[b] += ds;
+    a->ssum += ds * frame_share(a, b) * (double)a->nf;
+    double f = exp(ds);
+    size_t r0 = (b / a->mw) * a->bs, c0 = (b % a->mw) * a->bs;
+    size_t r1 = r0 + a->bs < a->h ? r0 + a->bs : a->h, c1 = c0 + a->bs < a->w ? c0 + a->bs : a->w;
+    for (size_t i = r0; i < r1; i++)
+        for (size_t j = c0; j < c1; j++) {
+            wh[i * a->w + j] = clampw(wh[i * a->w + j] * f);
+            wv[i * a->w + j] = clampw(wv[i * a->w + j] * f);
+        }
+}
+
 void pp_adapt_acceptance(const pp_adapt *a, unsigned long long *accepted,
                          unsigned long long *tried)
 {

@@ -82,6 +82,18 @@ void pp_adapt_shift(pp_adapt *a, double dl, double *wh, double *wv);
  * reported where gmrf1 reports δ (the padding's blocks are left out: they
  * follow the prior alone, wander slowly and say nothing about the frame). */
 double pp_adapt_level(const pp_adapt *a);
+
+/* Block geometry: side, block rows and columns (blocks are numbered row
+ * by row, block b covering pixel rows (b / mw) * side ... and columns
+ * (b % mw) * side ..., clipped to the grid). */
+void pp_adapt_geometry(const pp_adapt *a, size_t *side, size_t *mh, size_t *mw);
+/* log p at s_B + ds − log p at s_B of the factors of the joint that hold
+ * s_B but not the increments: e^{n_B s_B / 2}, the block field's GMRF
+ * p(s | κ) and the level's hyperprior p(L) (src/fieldscale.c's move). */
+double pp_adapt_block_dlogp(const pp_adapt *a, size_t b, double ds);
+/* s_B += ds, and the weights of the increments of block B (those whose
+ * first pixel lies in B) multiplied by e^{ds}. */
+void pp_adapt_block_shift(pp_adapt *a, size_t b, double ds, double *wh, double *wv);
 double pp_adapt_kappa(const pp_adapt *a);
 /* The regions (internal.h's pp_region) holding a's state between two
  * updates: the block log-precisions, κ, the level's sum and the counters

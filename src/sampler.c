@@ -1020,7 +1020,7 @@ static pp_status run_auto(pp_sampler *s, double t0)
             }
         }
         burn_ok = 1;
-        len = next_round(s, kept_iters, spi, cap - (now - t0), &why);
+        len = next_round(s, s->chain[0].t - s->keep_from, spi, cap - (now - t0), &why);
         if (len == 0) {
             L->stop = why;
             break;

@@ -30,6 +30,7 @@
 #include <stdio.h>
 #include <string.h>
 #include "adaptive.h"
+#include "fieldscale.h"
 #include "internal.h"
 #include "po_solve.h"
 #include "quantiles.h"
@@ -40,6 +41,7 @@
 typedef struct {
     pp_po *po;
     pp_adapt *ad;
+    pp_fieldscale *fs; /* the block field-scale move (NULL on tiny grids) */
     double *x, *wh, *wv;
 } adapt_work;
 
@@ -55,6 +57,7 @@ static void free_work(void *p)
         return;
     pp_po_free(k->po);
     pp_adapt_free(k->ad);
+    pp_fieldscale_free(k->fs);
     pp_fft_free_buffer(k->x);
     pp_fft_free_buffer(k->wh);
     pp_fft_free_buffer(k->wv);
@@ -97,6 +100,9 @@ static pp_status prepare(pp_sampler *s)
         if (st == PP_OK)
             st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block,
                                  s->cfg.prior.nu, s->cfg.hyper_delta, &k->ad);
+        if (st == PP_OK)
+            st = pp_fieldscale_create(s->gh, s->gw, s->height, s->width, s->psf_size,
+                                      s->cfg.prior.block, s->otf, s->fft, &k->fs);
         if (st != PP_OK)
             return st;
         k->x = pp_fft_alloc_real(s->gn);
@@ -259,6 +265,8 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
         if (!fix_l)
             c->lambda = pp_rng_gamma(&c->rng, shape_l, cfg->hyper_lambda[1] + 0.5 * ss);
         pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
+        pp_fieldscale_sweep(k->fs, k->ad, k->x, c->rbuf, y, k->wh, k->wv, c->lambda, pad,
+                            &c->rng, &ss_obs);
         c->delta = pp_adapt_level(k->ad);
         if (keep) {
             pp_chain_add_draw(s, c, k->x);

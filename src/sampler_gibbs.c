@@ -57,6 +57,7 @@
  */
 #include <math.h>
 #include "internal.h"
+#include "padscale.h"
 #include "vmath.h"
 
 typedef pp_fused_sums fused_sums;
@@ -574,13 +575,14 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
     const double shape_l = cfg->hyper_lambda[0] + 0.5 * (double)s->gn;
     const double shape_d = cfg->hyper_delta[0] + 0.5 * s->rank;
     const double nobs = (double)s->height * (double)s->width;
+    pp_padscale *ps = c->kwork; /* the padding scale move (gibbs_prepare), or NULL */
     for (unsigned long t = c->t; t < s->t_end; t++) {
         int keep = t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0;
         /* a kept periodic draw without width sampling needs x-hat only for
          * its probes: the pass sums them and x-hat is never stored */
         int direct = keep && !pad && !width;
         int want_xhat = (keep && !direct) || width;
-        int mode = pad ? !want_xhat : want_xhat ? 0 : -1;
+        int mode = pad ? !(want_xhat || ps) : want_xhat ? 0 : -1;
         double *probe = direct ? c->trace + c->kept * s->trace.ncols + s->col_probe0 : NULL;
         fused_sums f = pp_gibbs_fused_pass(s, c, mode, keep, probe);
         if (width)
@@ -594,8 +596,12 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
                 rescale_probes(s, f.x00, ratio, probe);
         }
         double ss = f.resid, ss_obs = f.resid, xsum;
+        if (ps)
+            pp_padscale_prepare(ps, s, c, c->cbuf2);
         if (pad) {
-            pad_step(s, c, keep, want_xhat, &ss_obs, &ss, &xsum);
+            pad_step(s, c, keep, want_xhat || ps, &ss_obs, &ss, &xsum);
+            if (ps)
+                pp_padscale_move(ps, s, c, &ss_obs, &ss, &xsum);
             if (!fix_d)
                 asis_delta_pad(s, c, keep, xsum, &ss_obs, &ss);
         }
@@ -621,4 +627,25 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
     return PP_OK;
 }
 
-const pp_kernel pp_kernel_gibbs = {"gibbs", NULL, gibbs_run_chain, NULL, NULL, NULL, NULL};
+/* Pad with gmrf1 and delta sampled: one padding scale move per slot
+ * (src/padscale.h). */
+static pp_status gibbs_prepare(pp_sampler *s)
+{
+    const pp_sampler_config *cfg = &s->cfg;
+    if (cfg->boundary != PP_BOUNDARY_PAD || cfg->prior.delta_set ||
+        cfg->prior.kind != PP_PRIOR_GMRF1)
+        return PP_OK;
+    for (unsigned b = 0; b < s->nslots; b++) {
+        pp_padscale *p;
+        pp_status st = pp_padscale_create(s, &p);
+        if (st != PP_OK)
+            return st;
+        s->slot[b].kwork = p;
+    }
+    return PP_OK;
+}
+
+static void gibbs_free_work(void *p) { pp_padscale_free(p); }
+
+const pp_kernel pp_kernel_gibbs = {"gibbs", gibbs_prepare, gibbs_run_chain, NULL,
+                                   NULL,    gibbs_free_work, NULL};

@@ -60,6 +60,7 @@
  * with q > 0, and one array of M' doubles per chain.
  */
 #include "internal.h"
+#include "padscale.h"
 #include "vmath.h"
 #include <math.h>
 #include <stdlib.h>
@@ -263,7 +264,7 @@ static pp_status mtc_prepare(pp_sampler *s)
         pp_sampler_warn(s, "--sampler mtc with --boundary pad runs the gibbs chain (data "
                            "augmentation); use --boundary periodic for marginal-then-"
                            "conditional draws");
-        return PP_OK;
+        return pp_kernel_gibbs.prepare(s); /* the padding scale move, src/padscale.h */
     }
     m->idx = malloc(s->gm * sizeof *m->idx);
     m->w = malloc(s->gm * sizeof(double));
@@ -590,5 +591,8 @@ static pp_status mtc_run_chain(pp_sampler *s, pp_chain *c)
     return st;
 }
 
-const pp_kernel pp_kernel_mtc = {"mtc", mtc_prepare, mtc_run_chain, NULL, mtc_release, NULL,
-                                 NULL};
+/* The slots' padding scale moves of the pad fallback (NULL otherwise). */
+static void mtc_free_work(void *p) { pp_padscale_free(p); }
+
+const pp_kernel pp_kernel_mtc = {"mtc",       mtc_prepare,   mtc_run_chain, NULL,
+                                 mtc_release, mtc_free_work, NULL};

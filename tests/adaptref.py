@@ -37,7 +37,10 @@ KAPPA_SHAPE, KAPPA_RATE = 1.0, 0.5  # src/adaptive.h: kappa ~ Gamma(1, rate 0.5)
 class Model:
     """Index tables of the adaptive prior on an H x W periodic grid."""
 
-    def __init__(self, H, W, block, nu=2.0, hyper=(1.0, 1e-4)):
+    def __init__(self, H, W, block, nu=2.0, hyper=(1.0, 1e-4), frame=None):
+        """frame: (fh, fw) when the observed frame is the top-left corner of
+        the grid (--boundary pad): the level L is then the mean of s over
+        the blocks that hold frame pixels (src/adaptive.h)."""
         self.H, self.W, self.N, self.block, self.nu = H, W, H * W, block, nu
         self.hyper = hyper  # pixpost's default --hyper-delta (shape, rate)
         ii, jj = np.meshgrid(np.arange(H), np.arange(W), indexing="ij")
@@ -63,6 +66,13 @@ class Model:
         self.nbr = nbr
         self.deg = nbr.sum(axis=1)
         self.diag_idx = np.arange(self.N) * (self.N + 1)
+        fh, fw = frame if frame else (H, W)
+        self.fblocks = np.array([b for b in range(self.nb)
+                                 if bi[b] * block < fh and bj[b] * block < fw])
+
+    def level(self, s):
+        """L: the mean of s over the blocks holding frame pixels."""
+        return s[self.fblocks].mean()
 
     def incr(self, x):
         """The 2N increments of the flat field x."""
@@ -84,9 +94,8 @@ class Model:
         return 0.5 * self.nB * s - 0.5 * (self.nu + 1) * np.bincount(self.be, t, self.nb)
 
     def level_logp(self, L):
-        """log p(L) of the level L = mean of s (all blocks hold frame pixels
-        on the periodic frames used here): Gamma(a, rate b) on e^L with the
-        Jacobian, a L - b e^L."""
+        """log p(L) of the level L (self.level): Gamma(a, rate b) on e^L with
+        the Jacobian, a L - b e^L."""
         a, b = self.hyper
         return a * L - b * np.exp(L)
 
@@ -107,7 +116,7 @@ class Model:
             # block: blocks move one at a time.
             def target(v):
                 return (self.block_logf(v, d2).sum() - 0.5 * kappa * self.gmrf_q(v) +
-                        self.level_logp(v.mean()))
+                        self.level_logp(self.level(v)))
             cur = target(s)
             for b in range(self.nb):
                 prop = s.copy()

@@ -21,7 +21,12 @@ the sds within 15 %. Power, measured: this catches errors that move the
 posterior by a few per cent (e.g. a wrong augmentation), but on a frame this
 small it did not tell apart a variant of the interweaving step that leaves
 the padding unmoved, whose bias is smaller than the tolerance; that step's
-exactness rests on its derivation in src/sampler_gibbs.c.
+exactness rests on its derivation in src/sampler_gibbs.c. The padding scale
+move (src/padscale.h, gmrf1 with pad) runs here too: with its Jacobian
+e^{(n_P - 2) rho} written e^{n_P rho} this check fails (delta 0.01738
+against 0.01590, tol 0.0011), with it dropped it fails by far (delta 0.94);
+with its frame-likelihood term dropped it still passes (0.01695): that
+term rests on its derivation (bench/NOTES.md 2026-12-04).
 Why delta ~ Gamma(1, 1): with the default Gamma(1, 1e-4), the marginal
 posterior of log delta on a frame this small has a second, minute mode at
 delta ~ 1e3-1e4 (a flat x, all of y noise: the likelihood levels off while
