@@ -15,33 +15,38 @@
  * Gibbs draw of delta in sampler_pcn.c is kept, these moves add the
  * non-centred side), with a weight omega_i in [0, 1] per pixel: the prior's
  * share of the local precision of z there, omega = f0 / (f0 + f_i), f_i the
- * local Fisher information of the data for z_i at a mean field, f0 = dref
- * q_min (the prior precision of the smoothest free mode), smoothed by a
+ * local Fisher information of the data for z_i at a mean field, f0 = 0.1 dref
+ * q_min (q_min: the prior precision of the smoothest free mode), smoothed by a
  * Gaussian of PP_HPHOT_SMOOTH pixels so that the moved direction is smooth
  * (a rough one would pay in the prior). omega is ~1 in the padding beyond
  * the PSF's reach, ~0 on bright observed pixels, between on dark ones.
  *
  * Moves (each a Metropolis-Hastings step with a deterministic map, so the
  * acceptance ratio is target ratio x |Jacobian|; the references c, omega,
- * h, fw are frozen after burn-in, so each map is fixed):
- *  1. delta: eps ~ N(0, dstep^2), delta' = delta e^eps, and the field by
- *     T_s = P_r o F_s o P_r with s = e^(-eps/2) (= sqrt(delta/delta')),
- *     r = sqrt(s):
- *       P_a(z) = c + a^omega (z - c)            (per pixel; centre c)
- *       F_s(z) = m0 + IDFT(s^fw(k) DFT(z - m0)) (per frequency; the
- *                partially non-centred map of sampler_pcn.c's delta_move,
- *                fw(k) = dref q / (dref q + I_F |A|^2), DC untouched when
- *                the level is free, m0 = the fixed level otherwise)
- *     Both are linear with Jacobians prod_i a^omega_i and prod over the
- *     real dimensions of the half spectrum s^fw(k), so
- *       log |J| = log s (sum_i omega_i + sum_k w_k fw(k)).
- *     P_a^-1 = P_1/a and F_s^-1 = F_1/s, hence T_s^-1 = T_1/s: the map
- *     (delta, z) -> (delta e^eps, T(z)) is undone by -eps, which has the
- *     same density; with the log-scale proposal the ratio is
- *       pi(z', delta') / pi(z, delta) * (delta'/delta) * |J|
- *     (the delta'/delta is the log transform's Jacobian, the "+1" in the
- *     Gamma shape below). The palindrome is needed because P and F do
- *     not commute: P_r F_s P_r is its own reverse.
+ * fw are frozen after burn-in, so each map is fixed):
+ *  1. delta: eps ~ N(0, dstep^2) (clamped to +-1, symmetrically), delta' =
+ *     delta e^eps, ls = -eps/2 (= log sqrt(delta/delta')), and the field by
+ *       z' = T(z) = c + E(ls/2) exp(ls S) E(ls/2) (z - c)
+ *     with E(a) = diag e^(a omega) (per pixel, centre c) and
+ *     S = R Fw R, R = diag sqrt(1 - omega), Fw the Fourier multiplier
+ *     fw(k) = dref q / (dref q + I_F |A|^2) of sampler_pcn.c's delta_move
+ *     (0 at the DC when the level is free). The exponent is thus about
+ *     omega(x) + (1 - omega(x)) fw(k): 1 (fully non-centred) in the
+ *     padding at every frequency, fw(k) on observed pixels. (A first
+ *     version composed the pixel and frequency maps directly; their
+ *     exponents added, the padding's high frequencies were scaled twice
+ *     and the step adapted small.) T is linear about c with
+ *       log |det| = ls (sum_i omega_i + tr S),
+ *       tr S = sum_i (1 - omega_i) (1/N) sum_k fw(k)
+ *     (Fw is circulant: its diagonal is the mean of fw over the full
+ *     spectrum). T for -eps is exactly T^-1 (exp(-ls S) = exp(ls S)^-1 and
+ *     the palindrome reverses), so (delta, z) -> (delta e^eps, T(z)) is
+ *     undone by -eps, which has the same density, and the ratio is
+ *       pi(z', delta') / pi(z, delta) * (delta'/delta) * |det|
+ *     (delta'/delta: the log scale's Jacobian, the "+ a eps" below with the
+ *     Gamma(a, b) hyperprior). exp(ls S) v by its Taylor series until a
+ *     term is below 1e-17 of the sum (||S|| <= 1, |ls| <= 0.5), so T for
+ *     -eps inverts T to rounding.
  *  2. level: dm ~ N(0, lstep^2), z' = z + dm h with h = omega / mean
  *     omega, so m' = m + dm (mean h = 1): a translation (Jacobian 1) with a
  *     symmetric proposal; the data pin z where omega ~ 0, so the level
@@ -50,22 +55,26 @@
  * exp(-Phi(z)) p(delta) with respect to Lebesgue measure on z (the flat
  * level is z's constant direction, Q's null space); (m, u) is a fixed linear
  * image of z, so the Jacobians above hold in the sampler's coordinates.
+ * tests/ref_hyper_photon.py checks the result against a numpy chain and
+ * fails (221 se) with the sum-of-omega term left out.
  *
- * Cost per iteration: move 1 five transforms (r2c, c2r for F; r2c for u';
- * r2c + c2r for A x'), about 8 grid and 3 half-spectrum passes; move 2 two
- * transforms (A x'), 3 grid passes and 2 half-spectrum passes. The
- * references cost 7 transforms, twice per burn-in. Memory: pp_hphot.
+ * Cost per iteration: move 1 three transforms (r2c for u'; r2c + c2r for
+ * A x') plus 2 per Taylor term (about 8-10 terms),
+ * about 4 grid passes per term; move 2 two transforms (A x'), 3 grid and 2
+ * half-spectrum passes. Measured: 1.3-1.65x the CPU per hmc iteration
+ * (bench/NOTES.md, 2026-12-04). The references cost 7 transforms, twice per
+ * burn-in. Memory: pp_hphot, 4 grids and 1.5 half spectra per chain.
  */
 #include "hyper_photon.h"
 #include "internal.h"
+#include "vmath.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include "vmath.h"
 
 /* Smoothing of omega (pixels, Gaussian sd): wide enough that the level
  * move's direction costs little prior energy, narrow next to a frame. Rule
- * of thumb (2-3 matern ranges of 6 px were tried: bench/NOTES.md). */
+ * of thumb (the default matern range, 6 px); other values not tried. */
 #define PP_HPHOT_SMOOTH 6.0
 /* omega = f0 / (f0 + f) with f0 = PP_HPHOT_F0 dref q_min: a pixel counts as
  * the prior's when its data hold the smoothest free mode less than a tenth
@@ -141,8 +150,7 @@ PP_VECTOR_CLONES static void exp_into(const double *restrict z, double *restrict
 }
 
 void pp_hphot_reference(const pp_sampler *s, pp_chain *c, pp_hphot *hp, const pp_hphot_view *v,
-                        const double *cz, double shift, double dref,
-                        double fi, int free_dc)
+                        const double *cz, double shift, double dref, double fi, int free_dc)
 {
     const size_t gn = s->gn, gm = s->gm;
     const double invn = 1.0 / (double)gn;
@@ -266,8 +274,8 @@ static void exp_s(const pp_sampler *s, pp_chain *c, const pp_hphot *hp, double l
 }
 
 double pp_hphot_delta_move(const pp_sampler *s, struct pp_chain *c, const pp_hphot *hp,
-                           const pp_hphot_view *v, const double hyper[2], double rank,
-                           int free_dc, double m_fixed)
+                           const pp_hphot_view *v, const double hyper[2], double rank, int free_dc,
+                           double m_fixed)
 {
     const size_t gn = s->gn;
     const double invn = 1.0 / (double)gn, del = *v->delta;

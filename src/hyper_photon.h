@@ -5,10 +5,10 @@
 #ifndef PIXPOST_HYPER_PHOTON_H
 #define PIXPOST_HYPER_PHOTON_H
 
-#include <stddef.h>
 #include "pixpost/fft.h"
 #include "pixpost/sampler.h"
 #include "pixpost/status.h"
+#include <stddef.h>
 
 struct pp_chain; /* internal.h (which has no include guard of its own) */
 
@@ -28,19 +28,19 @@ typedef struct pp_hphot_view {
 } pp_hphot_view;
 
 /* Per-chain state: the frozen references of the moves and their steps.
- * Memory: 3 grids and 1.5 half spectra (about 36 bytes per grid pixel). */
+ * Memory: 4 grids and 1.5 half spectra (about 44 bytes per grid pixel). */
 typedef struct pp_hphot {
-    double *c;      /* grid: centre of the spatial scaling (a mean field of burn-in) */
-    double *om;     /* grid: omega, the prior's local share in [0, 1] */
-    double *rw;     /* grid: sqrt(1 - omega) */
-    double *h;      /* grid: the level move's direction, omega / mean omega */
-    pp_complex *hh; /* DFT(h - 1) (DC 0) */
-    double *fw;     /* half spectrum: the frequency weights om(k) of delta_move */
-    double sum_om;  /* sum of omega over the grid */
-    double jac_f;   /* tr S, S = R Fw R (see hyper_photon.c) */
+    double *c;           /* grid: centre of the spatial scaling (a mean field of burn-in) */
+    double *om;          /* grid: omega, the prior's local share in [0, 1] */
+    double *rw;          /* grid: sqrt(1 - omega) */
+    double *h;           /* grid: the level move's direction, omega / mean omega */
+    pp_complex *hh;      /* DFT(h - 1) (DC 0) */
+    double *fw;          /* half spectrum: the frequency weights om(k) of delta_move */
+    double sum_om;       /* sum of omega over the grid */
+    double jac_f;        /* tr S, S = R Fw R (see hyper_photon.c) */
     double dstep, lstep; /* random-walk steps (log delta; level), adapted in burn-in */
     unsigned long nmean; /* draws in the running mean c */
-    int level_on;   /* the level move is used (the level is free and omega not ~0) */
+    int level_on;        /* the level move is used (the level is free and omega not ~0) */
 } pp_hphot;
 
 /* Allocates the state for a gh x gw grid (gm = gh (gw/2 + 1) entries).
@@ -54,8 +54,8 @@ void pp_hphot_free(pp_hphot *hp);
  * level direction h; the frequency weights fw(k) = dref q / (dref q + fi
  * |A|^2). shift: b + R^2 added to A x. Uses c->cbuf, cbuf2, rbuf and the view's
  * scratch grids (xp, axp). 7 transforms. Call only in burn-in (or before). */
-void pp_hphot_reference(const pp_sampler *s, struct pp_chain *c, pp_hphot *hp, const pp_hphot_view *v,
-                        const double *cz, double shift, double dref,
+void pp_hphot_reference(const pp_sampler *s, struct pp_chain *c, pp_hphot *hp,
+                        const pp_hphot_view *v, const double *cz, double shift, double dref,
                         double fi, int free_dc);
 
 /* Burn-in: adds z to the running mean that becomes the centre (hp->c is
@@ -63,13 +63,13 @@ void pp_hphot_reference(const pp_sampler *s, struct pp_chain *c, pp_hphot *hp, c
 void pp_hphot_add_mean(const pp_sampler *s, pp_hphot *hp, const double *z);
 
 /* delta and the field together: log delta' = log delta + eps, eps ~ N(0,
- * dstep^2), the field mapped by the palindrome P_r F_s P_r (s = sqrt(delta /
- * delta'), r = sqrt s). Returns the acceptance probability. hyper: the Gamma
- * (shape, rate) of delta; rank of Q; m_fixed: the level when it is not free
- * (ignored when free_dc). 5 transforms. */
+ * dstep^2) clamped to +-1, the field mapped by c + E exp(ls S) E (z - c)
+ * (src/hyper_photon.c). Returns the acceptance probability. hyper: the
+ * Gamma (shape, rate) of delta; rank of Q; m_fixed: the level when it is not
+ * free (ignored when free_dc). 3 + 2 per Taylor term transforms. */
 double pp_hphot_delta_move(const pp_sampler *s, struct pp_chain *c, const pp_hphot *hp,
-                           const pp_hphot_view *v, const double hyper[2], double rank,
-                           int free_dc, double m_fixed);
+                           const pp_hphot_view *v, const double hyper[2], double rank, int free_dc,
+                           double m_fixed);
 
 /* The level and the field together: z' = z + dm h, dm ~ N(0, lstep^2), so
  * m' = m + dm. Returns

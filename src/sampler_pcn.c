@@ -41,7 +41,7 @@
  * Photon models with log positivity and a stationary prior (issue 16):
  * move 2 is src/hyper_photon.c's delta move (the field scaled per pixel
  * where the data do not reach, e.g. the padding, and per frequency where
- * the prior dominates; 5 + 2 per Taylor term transforms, ~8-10 terms), and
+ * the prior dominates; 3 + 2 per Taylor term transforms, ~8-10 terms), and
  * after move 3 its level move (z + dm h, h where the data do not reach; 2
  * transforms). Their references are set from the mean field of the second
  * quarter of burn-in, then frozen.
