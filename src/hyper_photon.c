@@ -6,8 +6,11 @@
  * held by the prior alone, while hmc's Fourier-diagonal reference (and
  * delta_move's frequency weights) assume the same Fisher information
  * everywhere. The padding's smooth part then moves by small steps, and
- * delta and m, which are tied to it, drift: tau of delta ~300 and of m
- * ~900 iterations on a 256^2 camera frame (periodic: 10 and 53).
+ * delta and m, which are tied to it, drift: on a 256^2 camera frame the
+ * level's tau was ~2000 iterations and delta took over 1000 iterations to
+ * reach equilibrium (periodic: tau 10 and 53). Measured effect (bench/
+ * NOTES.md, 2026-12-04): the level's tau ~270, delta's approach faster,
+ * delta's tau at equilibrium unchanged (~20-30) at 1.3-1.65x the CPU.
  *
  * The cure is a non-centred parameterisation in PIXEL space, where the data
  * are missing or weak (Papaspiliopoulos, Roberts & Skold, Statist. Sci. 22,
