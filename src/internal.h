@@ -238,7 +238,7 @@ struct pp_sampler {
     pp_trace trace;
     struct pp_diag_scalar *diag;     /* one per trace column (sampler_diag.c) */
     pp_image *rhat_map, *mcse_map;   /* per-pixel split-R-hat and MCSE, or NULL */
-    char *names[5 + PP_MAX_PROBES]; /* 3 scalars, psf_width, kappa, probes */
+    char *names[6 + PP_MAX_PROBES]; /* 3 scalars, psf_width, kappa, level, probes */
     double *trace_values;
     pp_image *mean, *sd, *lo, *hi;
     char bound_method[256];
@@ -247,6 +247,7 @@ struct pp_sampler {
     size_t col_probe0;    /* trace column of the first probe */
     long col_width;       /* trace column "psf_width", -1 when the width is fixed */
     long col_kappa;       /* trace column "kappa" (adaptive prior), else -1 */
+    long col_level;       /* trace column "level" (pcn/gpcn/hmc, free level m), else -1 */
     const char *pad_scheme; /* mtc with --boundary pad: the scheme used (static text) */
     char *warnings[PP_MAX_WARNINGS]; /* convergence and set-up warnings (--strict) */
     pp_warning_part warning_part[PP_MAX_WARNINGS]; /* what each warning is about */

@@ -369,6 +369,10 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
         fputs(",\n", f);
         st = json_hyper(f, "kappa", s, (size_t)s->col_kappa, 0);
     }
+    if (st == PP_OK && s->col_level >= 0) { /* pcn family: the free level m of z = m + u */
+        fputs(",\n", f);
+        st = json_hyper(f, "level", s, (size_t)s->col_level, 0);
+    }
     fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
     pp_json_write_string(f, s->bound_method);
     unsigned long long iters = (unsigned long long)c->chains * (s->length.burn + s->length.iters);

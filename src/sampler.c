@@ -320,10 +320,15 @@ static pp_status plan_probes(pp_sampler *s)
 static pp_status plan_trace(pp_sampler *s)
 {
     /* A sampled PSF width gets the column after loglik, then the adaptive
-     * prior's kappa; probes follow. */
+     * prior's kappa, then the pCN family's free level (the grid mean of the
+     * sampled field, when q(0) = 0); probes follow. */
     size_t col = PP_COL_PROBE0;
+    const pp_sampler_kind kind = s->cfg.kind;
+    const int pcn_family =
+        kind == PP_SAMPLER_PCN || kind == PP_SAMPLER_GPCN || kind == PP_SAMPLER_HMC;
     s->col_width = s->cfg.psf.width_auto ? (long)col++ : -1;
     s->col_kappa = s->cfg.prior.kind == PP_PRIOR_ADAPTIVE ? (long)col++ : -1;
+    s->col_level = pcn_family && s->q[0] == 0.0 ? (long)col++ : -1;
     s->col_probe0 = col;
     size_t ncols = s->col_probe0 + s->nprobe;
     /* a run in rounds: room for the first round (rounded up to whole thins) */
@@ -345,6 +350,8 @@ static pp_status plan_trace(pp_sampler *s)
             snprintf(buf, sizeof buf, "psf_width");
         else if ((long)i == s->col_kappa)
             snprintf(buf, sizeof buf, "kappa");
+        else if ((long)i == s->col_level)
+            snprintf(buf, sizeof buf, "level");
         else
             snprintf(buf, sizeof buf, "p_%zu_%zu", s->probe_r[i - s->col_probe0],
                      s->probe_c[i - s->col_probe0]);

@@ -38,6 +38,13 @@
  *   3. m (when free): random walk, flat prior (z shifted, x rescaled).
  *   4. lambda (gaussian, sigma free): exact Gamma draw given ||Ax - y||^2.
  *   5. delta (when free) again, centred: its exact Gamma draw given u.
+ * Photon models with log positivity and a stationary prior (issue 16):
+ * move 2 is src/hyper_photon.c's delta move (the field scaled per pixel
+ * where the data do not reach, e.g. the padding, and per frequency where
+ * the prior dominates; 3 + 2 per Taylor term transforms, ~8-10 terms), and
+ * after move 3 its level move (z + dm h, h where the data do not reach; 2
+ * transforms). Their references are set from the mean field of the second
+ * quarter of burn-in, then frozen.
  * Adaptive prior (--prior adaptive, hmc only; src/adaptive.h): the prior
  * part of the target is z'Dᵀ W D z / 2 (D ignores the level m) instead of
  * |u|^2_dQ / 2. hmc keeps its Fourier-diagonal reference with delta = the
@@ -107,6 +114,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "adaptive.h"
+#include "hyper_photon.h"
 #include "incr.h"
 #include "internal.h"
 #include "quantiles.h"
@@ -146,6 +154,7 @@ typedef struct pcn_chain {
     unsigned long acc;
     pp_adapt *ad;     /* adaptive prior: its local precisions (src/adaptive.h) */
     double *wh, *wv;  /* adaptive prior: the weights W on the grid's increments */
+    pp_hphot *hp;     /* photon models, stationary prior: src/hyper_photon.h, else NULL */
 } pcn_chain;
 
 /* What outlives a chain's run (its c->kstate): the quantile estimates, a
@@ -686,9 +695,39 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
     row[PP_COL_LOGLIK] = loglik_of(s, sh, c, k);
     if (sh->adaptive)
         row[s->col_kappa] = pp_adapt_kappa(k->ad);
+    if (s->col_level >= 0)
+        row[s->col_level] = k->m;
     for (size_t p = 0; p < s->nprobe; p++)
         row[s->col_probe0 + p] = x[s->probe_r[p] * s->gw + s->probe_c[p]];
     c->kept++;
+}
+
+/* ---- spatially non-centred hyperparameter moves (src/hyper_photon.c) --- */
+
+typedef struct hp_ctx {
+    const pp_sampler *s;
+    const pcn_shared *sh;
+    const pp_chain *c;
+} hp_ctx;
+
+static double hp_phi(const void *ctx, const double *ax)
+{
+    const hp_ctx *h = ctx;
+    double ss = 0;
+    return phi_of(h->s, h->sh, ax, 1.0, 0.0, h->c->lambda, &ss);
+}
+
+static double hp_quad(const void *ctx, const pp_complex *u)
+{
+    const hp_ctx *h = ctx;
+    return half_form(h->s, h->sh, u, 1.0, 0.0);
+}
+
+/* The chain's state seen by src/hyper_photon.c (valid while h lives). */
+static pp_hphot_view hp_view(pp_chain *c, pcn_chain *k, const hp_ctx *h)
+{
+    return (pp_hphot_view){&k->u, &k->up, &k->z, &k->zp, &k->x, &k->xp, &k->ax, &k->axp,
+                           &k->m, &k->phi, &c->delta, hp_phi, hp_quad, h};
 }
 
 /* ---- chain ------------------------------------------------------------ */
@@ -722,6 +761,14 @@ static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k
     }
     if (sh->gpcn)
         newton_centre(s, sh, c, k, 1.0);
+    if (k->hp) {
+        hp_ctx h = {s, sh, c};
+        pp_hphot_view v = hp_view(c, k, &h);
+        pp_hphot_reference(s, c, k->hp, &v, k->z, sh->shift, c->delta, fisher_of(sh, c),
+                           sh->free_dc);
+        k->hp->dstep = 0.02;
+        k->hp->lstep = 0.01;
+    }
     k->beta = sh->gpcn ? 0.5 : 0.1;
     k->gvalid = 0;
     k->dref = c->delta;
@@ -758,7 +805,14 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
         double d_was = c->delta, m_was = k->m;
         if (burn)
             k->dref = c->delta;
-        if (!fix_d) {
+        hp_ctx hc = {s, sh, c};
+        pp_hphot_view hv = hp_view(c, k, &hc);
+        if (!fix_d && k->hp) {
+            double ad = pp_hphot_delta_move(s, c, k->hp, &hv, cfg->hyper_delta, s->rank,
+                                            sh->free_dc, sh->m0);
+            if (burn)
+                k->hp->dstep = adapt(k->hp->dstep, ad, T_SCALAR, t, 5.0);
+        } else if (!fix_d) {
             double ad = sh->adaptive ? adapt_level_move(s, sh, c, k) : delta_move(s, sh, c, k);
             if (burn)
                 k->dstep = adapt(k->dstep, ad, T_SCALAR, t, 5.0);
@@ -767,6 +821,11 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
             double am = level_move(s, sh, c, k);
             if (burn)
                 k->mstep = adapt(k->mstep, am, T_SCALAR, t, 1e300);
+        }
+        if (k->hp && sh->free_dc) {
+            double al = pp_hphot_level_move(s, c, k->hp, &hv);
+            if (burn)
+                k->hp->lstep = adapt(k->hp->lstep, al, T_SCALAR, t, 1e300);
         }
         if (!fix_l) {
             c->lambda = pp_rng_gamma(&c->rng, cfg->hyper_lambda[0] + 0.5 * nobs,
@@ -784,6 +843,13 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
         }
         if (sh->gpcn && t < half) /* centre: mean of the last <= 50 Newton points */
             newton_centre(s, sh, c, k, 1.0 / (double)(t + 2 < 50 ? t + 2 : 50));
+        if (k->hp && burn && t >= half / 2) { /* references: mean field of [half/2, half) */
+            if (t < half)
+                pp_hphot_add_mean(s, k->hp, k->z);
+            else if (t == half)
+                pp_hphot_reference(s, c, k->hp, &hv, k->hp->c, sh->shift, c->delta,
+                                   fisher_of(sh, c), sh->free_dc);
+        }
         if (!(isfinite(c->delta) && c->delta > 0 && isfinite(k->m) && isfinite(k->phi)))
             return pp_fail(PP_ERR_NUMERIC,
                            "the state left the floating-point range at iteration %lu "
@@ -905,6 +971,7 @@ static void pcn_free_work(void *work)
         pp_fft_free_buffer(bufs[j]);
     pp_moments_free(&k->zm);
     pp_adapt_free(k->ad);
+    pp_hphot_free(k->hp);
     pp_fft_free_buffer(k->wh);
     pp_fft_free_buffer(k->wv);
     free(k);
@@ -930,6 +997,9 @@ static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
     for (int i = 0; i < 6; i++)
         *g[i] = pp_fft_alloc_real(s->gn);
     if (!k->u || !k->up || !k->ctr || !k->z || !k->zp || !k->x || !k->xp || !k->ax || !k->axp)
+        return fail_nomem();
+    if (!sh->gauss && sh->logx && !sh->adaptive &&
+        pp_hphot_create(s->gn, s->gm, &k->hp) != PP_OK)
         return fail_nomem();
     if (sh->adaptive) {
         pp_status st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block,
