@@ -123,6 +123,24 @@ pp_status pp_hphot_create(size_t gn, size_t gm, pp_hphot **out)
     return PP_OK;
 }
 
+size_t pp_hphot_state(pp_hphot *hp, size_t gn, size_t gm, pp_region *out)
+{
+    size_t n = 0, g = gn * sizeof(double);
+    out[n++] = (pp_region){hp->c, g};
+    out[n++] = (pp_region){hp->om, g};
+    out[n++] = (pp_region){hp->rw, g};
+    out[n++] = (pp_region){hp->h, g};
+    out[n++] = (pp_region){hp->hh, gm * sizeof(pp_complex)};
+    out[n++] = (pp_region){hp->fw, gm * sizeof(double)};
+    out[n++] = (pp_region){&hp->sum_om, sizeof hp->sum_om};
+    out[n++] = (pp_region){&hp->jac_f, sizeof hp->jac_f};
+    out[n++] = (pp_region){&hp->dstep, sizeof hp->dstep};
+    out[n++] = (pp_region){&hp->lstep, sizeof hp->lstep};
+    out[n++] = (pp_region){&hp->nmean, sizeof hp->nmean};
+    out[n++] = (pp_region){&hp->level_on, sizeof hp->level_on};
+    return n;
+}
+
 void pp_hphot_free(pp_hphot *hp)
 {
     if (!hp)

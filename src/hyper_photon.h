@@ -48,6 +48,11 @@ typedef struct pp_hphot {
  * pp_hphot_free (NULL is accepted). */
 pp_status pp_hphot_create(size_t gn, size_t gm, pp_hphot **out);
 void pp_hphot_free(pp_hphot *hp);
+/* The memory that holds hp's state between rounds of a run (the pp_kernel
+ * state contract, src/internal.h): writes its regions to out (at most 12)
+ * and returns their count. */
+struct pp_region;
+size_t pp_hphot_state(pp_hphot *hp, size_t gn, size_t gm, struct pp_region *out);
 
 /* Sets the references from the field cz (grid; a mean field): omega from
  * the local Fisher information of the data at x = exp(cz), smoothed; the

@@ -1134,6 +1134,8 @@ static size_t pcn_state(const pp_sampler *s, void *kwork, pp_region *out)
         out[n++] = (pp_region){k->wv, g};
         n += pp_adapt_state(k->ad, out + n);
     }
+    if (k->hp)
+        n += pp_hphot_state(k->hp, s->gn, s->gm, out + n);
     return n;
 }
 
