@@ -294,6 +294,27 @@ static void exp_s(const pp_sampler *s, pp_chain *c, const pp_hphot *hp, double l
     }
 }
 
+/* The Metropolis decision of both moves: *alpha the acceptance probability
+ * (0 when the proposal's likelihood or ratio is not finite, and then no
+ * uniform is drawn); on acceptance the proposal (up, zp, xp, axp) becomes
+ * the state and *v->phi its likelihood, and 1 is returned. */
+static int accept(pp_chain *c, const pp_hphot_view *v, double loga, double phin, double *alpha)
+{
+    *alpha = 0.0;
+    if (!isfinite(phin) || !isfinite(loga))
+        return 0;
+    *alpha = loga >= 0 ? 1.0 : exp(loga);
+    if (!(pp_rng_uniform(&c->rng) < *alpha))
+        return 0;
+    swap_c(v->u, v->up);
+    swap_d(v->z, v->zp);
+    swap_d(v->x, v->xp);
+    swap_d(v->ax, v->axp);
+    *v->phi = phin;
+    return 1;
+}
+
+
 double pp_hphot_delta_move(const pp_sampler *s, struct pp_chain *c, const pp_hphot *hp,
                            const pp_hphot_view *v, const double hyper[2], double rank, int free_dc,
                            double m_fixed)
@@ -328,15 +349,8 @@ double pp_hphot_delta_move(const pp_sampler *s, struct pp_chain *c, const pp_hph
     double ljac = ls * (hp->sum_om + hp->jac_f);
     double loga = *v->phi - phin + 0.5 * rank * eps - 0.5 * (dn * quadn - del * quad) + ljac +
                   hyper[0] * eps - hyper[1] * (dn - del);
-    double alpha = loga >= 0 ? 1.0 : exp(loga);
-    if (!isfinite(phin) || !isfinite(loga))
-        return 0.0;
-    if (pp_rng_uniform(&c->rng) < alpha) {
-        swap_c(v->u, v->up);
-        swap_d(v->z, v->zp);
-        swap_d(v->x, v->xp);
-        swap_d(v->ax, v->axp);
-        *v->phi = phin;
+    double alpha;
+    if (accept(c, v, loga, phin, &alpha)) {
         *v->m = mn;
         *v->delta = dn;
     }
@@ -361,16 +375,8 @@ double pp_hphot_level_move(const pp_sampler *s, pp_chain *c, const pp_hphot *hp,
     double phin = v->phi_of(v->ctx, *v->axp);
     double quad = v->quad_of(v->ctx, u), quadn = v->quad_of(v->ctx, up);
     double loga = *v->phi - phin - 0.5 * del * (quadn - quad);
-    double alpha = loga >= 0 ? 1.0 : exp(loga);
-    if (!isfinite(phin) || !isfinite(loga))
-        return 0.0;
-    if (pp_rng_uniform(&c->rng) < alpha) {
-        swap_c(v->u, v->up);
-        swap_d(v->z, v->zp);
-        swap_d(v->x, v->xp);
-        swap_d(v->ax, v->axp);
-        *v->phi = phin;
+    double alpha;
+    if (accept(c, v, loga, phin, &alpha))
         *v->m += dm;
-    }
     return alpha;
 }

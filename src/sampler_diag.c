@@ -360,48 +360,40 @@ pp_status pp_sampler_diagnose(pp_sampler *s)
     return st;
 }
 
-/* One column against the criteria: appends its first failure to why (if
- * why is still empty). */
-static int column_ok(const pp_sampler *s, size_t j, char *why, size_t len)
+/* Column j's first failing criterion (it fails, column_fails), as a short
+ * phrase in why. */
+static void describe_failure(const pp_sampler *s, size_t j, char *why, size_t len)
 {
     const pp_diag_scalar *d = &s->diag[j];
     const char *name = s->trace.names[j];
     double ess_min = ESS_PER_CHAIN * s->cfg.chains;
-    int ok = 1;
-    if (isfinite(d->rhat) && d->rhat > RHAT_LIMIT) {
-        if (!why[0])
-            snprintf(why, len, "R-hat of %s %.3f > %.2f", name, d->rhat, RHAT_LIMIT);
-        ok = 0;
-    }
-    const double ess[2] = {d->ess_bulk, d->ess_tail};
-    for (int e = 0; e < 2; e++)
-        if (isfinite(ess[e]) && ess[e] < ess_min) {
-            if (!why[0])
-                snprintf(why, len, "%s-ESS of %s %.0f < %.0f", e ? "tail" : "bulk", name, ess[e],
-                         ess_min);
-            ok = 0;
-        }
-    return ok;
+    if (rhat_fails(d->rhat))
+        snprintf(why, len, "R-hat of %s %.3f > %.2f", name, d->rhat, RHAT_LIMIT);
+    else if (ess_fails(s, d->ess_bulk))
+        snprintf(why, len, "bulk-ESS of %s %.0f < %.0f", name, d->ess_bulk, ess_min);
+    else
+        snprintf(why, len, "tail-ESS of %s %.0f < %.0f", name, d->ess_tail, ess_min);
 }
 
 int pp_sampler_criteria(const pp_sampler *s, char *why, size_t len)
 {
-    int ok = 1;
     why[0] = 0;
     if (!s->diag || s->trace.kept < 4) {
         snprintf(why, len, "too few kept draws (%zu per chain)", s->trace.kept);
         return 0;
     }
     for (size_t j = 0; j < s->trace.ncols; j++)
-        ok &= column_ok(s, j, why, len);
+        if (column_fails(s, j)) {
+            describe_failure(s, j, why, len);
+            return 0;
+        }
     map_check m = check_map(s);
     if (m.fails) {
-        if (!why[0])
-            snprintf(why, len, "pixel R-hat map: %zu pixels above %.2f, worst %.3f", m.bad,
-                     RHAT_LIMIT, m.worst);
-        ok = 0;
+        snprintf(why, len, "pixel R-hat map: %zu pixels above %.2f, worst %.3f", m.bad,
+                 RHAT_LIMIT, m.worst);
+        return 0;
     }
-    return ok;
+    return 1;
 }
 
 const pp_diag_scalar *pp_sampler_diagnostics(const pp_sampler *s) { return s->diag; }

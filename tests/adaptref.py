@@ -28,8 +28,13 @@ kappa | s exactly, and x by a dense Cholesky factor of its precision.
 An MH move on the tau-marginal of s followed by an exact tau | s draw is a
 valid update of (s, tau) jointly.
 """
+import os
+
 import numpy as np
 import scipy.linalg
+import tifffile
+
+import pptest
 
 KAPPA_SHAPE, KAPPA_RATE = 1.0, 0.5  # src/adaptive.h: kappa ~ Gamma(1, rate 0.5)
 
@@ -165,3 +170,48 @@ def dense_blur(psf, H, W, transfer):
     T = transfer(psf, (H, W))
     eye = np.eye(n).reshape(n, H, W)
     return np.real(np.fft.ifft2(T[None] * np.fft.fft2(eye))).reshape(n, n).T
+
+
+def mean_sd_se(chains):
+    """Mean, sd and the se of each from a list of 1-D chains (Geyer ESS of
+    the draws and of the squared deviations, summed over chains)."""
+    d = np.concatenate(chains)
+    mu, sd = d.mean(), d.std(ddof=1)
+    ess = sum(pptest.geyer_ess(c) for c in chains)
+    ess2 = sum(pptest.geyer_ess((c - mu) ** 2) for c in chains)
+    return mu, sd, sd / np.sqrt(ess), ((d - mu) ** 2).std(ddof=1) / np.sqrt(ess2) / (2 * sd), ess
+
+
+def pixel_z(out, xs, tr, head, ch):
+    """z-scores of pixpost's pixel means and sds (mean.tif, sd.tif, mcse.tif
+    in out; the trace rows tr with columns head and chain numbers ch) against
+    the numpy draws xs (draws x pixels). The se of a mean joins pixpost's
+    MCSE and numpy's sd / sqrt(Geyer ESS); that of an sd uses the kurtosis
+    of the numpy draws and an ESS of the squared deviations, pixpost's taken
+    from its MCSE map scaled by the worst probe pixel's ratio of the two
+    ESS. Returns a dict: z_mean, z_sd, psd and nsd (pixpost's and numpy's
+    sds), pmcse, ess and ess2 (numpy's Geyer ESS of the draws and of their
+    squared deviations) and ratio (the probe ESS ratio used)."""
+    rd = lambda n: tifffile.imread(os.path.join(out, n)).astype(np.float64).ravel()
+    pmean, psd, pmcse = rd("mean.tif"), rd("sd.tif"), rd("mcse.tif")
+    nmean, nsd = xs.mean(axis=0), xs.std(axis=0, ddof=1)
+    dev2 = (xs - nmean) ** 2
+    npix = xs.shape[1]
+    ess = np.array([pptest.geyer_ess(xs[:, i]) for i in range(npix)])
+    ess2 = np.array([pptest.geyer_ess(dev2[:, i]) for i in range(npix)])
+    k4 = (dev2 ** 2).mean(axis=0) / dev2.mean(axis=0) ** 2
+    ratio = 1.0
+    for name in head:
+        if name.startswith("p_"):
+            col = tr[:, head.index(name)]
+            parts = [col[ch == c] for c in np.unique(ch)]
+            mu = col.mean()
+            e1 = sum(pptest.geyer_ess(c) for c in parts)
+            e2 = sum(pptest.geyer_ess((c - mu) ** 2) for c in parts)
+            ratio = min(ratio, e2 / e1)
+    pp_ess2 = (psd / pmcse) ** 2 * ratio
+    se_mean = np.sqrt(pmcse ** 2 + nsd ** 2 / ess)
+    se_sd = np.sqrt(psd ** 2 * (k4 - 1) / (4 * pp_ess2) +
+                    dev2.std(axis=0, ddof=1) ** 2 / ess2 / (4 * nsd ** 2))
+    return dict(z_mean=(pmean - nmean) / se_mean, z_sd=(psd - nsd) / se_sd, psd=psd, nsd=nsd,
+                pmcse=pmcse, ess=ess, ess2=ess2, ratio=ratio)

@@ -208,3 +208,13 @@ def check_probes_gaussian(label, head, tr, mu, v, tol=4.5):
               "%s, probe %s (ESS %.0f): mean z=%.2f, variance z=%.2f vs the closed form"
               % (label, name, ess, z_mean, z_var))
     return ess_min
+
+
+def beads_truth(rng, size=40, beads=10):
+    """A size x size test scene of our own: a flat background of 20 and
+    `beads` Gaussian spots of height 200 (variance 4 px^2) at positions drawn
+    from rng, uniform in [4, size - 4)."""
+    import numpy as np
+    yy, xx = np.mgrid[:size, :size]
+    return 20 + sum(200 * np.exp(-((yy - r) ** 2 + (xx - c) ** 2) / 8)
+                    for r, c in rng.uniform(4, size - 4, (beads, 2)))

@@ -111,19 +111,11 @@ def numpy_chain(seed):
     return hyp, xs
 
 
-def mean_sd_se(chains):
-    d = np.concatenate(chains)
-    mu, sd = d.mean(), d.std(ddof=1)
-    ess = sum(pptest.geyer_ess(c) for c in chains)
-    ess2 = sum(pptest.geyer_ess((c - mu) ** 2) for c in chains)
-    return mu, sd, sd / np.sqrt(ess), ((d - mu) ** 2).std(ddof=1) / np.sqrt(ess2) / (2 * sd), ess
-
-
 hyp, xs = numpy_chain(78)
 for k, name in enumerate(("lambda", "delta", "kappa")):
     col = tr[:, head.index(name)]
-    pm, psd, pse_m, pse_s, pess = mean_sd_se([col[ch == c] for c in np.unique(ch)])
-    nm, nsd, nse_m, nse_s, ness = mean_sd_se([hyp[:, k]])
+    pm, psd, pse_m, pse_s, pess = adaptref.mean_sd_se([col[ch == c] for c in np.unique(ch)])
+    nm, nsd, nse_m, nse_s, ness = adaptref.mean_sd_se([hyp[:, k]])
     zm = (pm - nm) / np.hypot(pse_m, nse_m)
     zsd = (psd - nsd) / np.hypot(pse_s, nse_s)
     pptest.check(abs(zm) < ZMAX and abs(zsd) < ZMAX,
@@ -131,28 +123,8 @@ for k, name in enumerate(("lambda", "delta", "kappa")):
                  "z mean %.2f, z sd %.2f (|z| < %g)" % (name, pm, psd, pess, nm, nsd, ness, zm, zsd,
                                                          ZMAX))
 
-rd = lambda n: tifffile.imread(os.path.join(out, n)).astype(np.float64).ravel()
-pmean, psd, pmcse = rd("mean.tif"), rd("sd.tif"), rd("mcse.tif")
-nmean, nsd = xs.mean(axis=0), xs.std(axis=0, ddof=1)
-dev2 = (xs - nmean) ** 2
-ess = np.array([pptest.geyer_ess(xs[:, i]) for i in range(H * W)])
-ess2 = np.array([pptest.geyer_ess(dev2[:, i]) for i in range(H * W)])
-k4 = (dev2 ** 2).mean(axis=0) / dev2.mean(axis=0) ** 2
-ratio = 1.0
-for name in head:
-    if name.startswith("p_"):
-        col = tr[:, head.index(name)]
-        parts = [col[ch == c] for c in np.unique(ch)]
-        mu = col.mean()
-        e1 = sum(pptest.geyer_ess(c) for c in parts)
-        e2 = sum(pptest.geyer_ess((c - mu) ** 2) for c in parts)
-        ratio = min(ratio, e2 / e1)
-pp_ess2 = (psd / pmcse) ** 2 * ratio
-se_mean = np.sqrt(pmcse ** 2 + nsd ** 2 / ess)
-se_sd = np.sqrt(psd ** 2 * (k4 - 1) / (4 * pp_ess2) +
-                dev2.std(axis=0, ddof=1) ** 2 / ess2 / (4 * nsd ** 2))
-z_mean = (pmean - nmean) / se_mean
-z_sd = (psd - nsd) / se_sd
+pz = adaptref.pixel_z(out, xs, tr, head, ch)
+z_mean, z_sd, ess, ratio = (pz["z_mean"], pz["z_sd"], pz["ess"], pz["ratio"])
 print("pixel means: mean z^2 %.2f (worst %.2f); pixel sds: mean z^2 %.2f (worst %.2f)"
       % ((z_mean ** 2).mean(), np.abs(z_mean).max(), (z_sd ** 2).mean(), np.abs(z_sd).max()))
 pptest.check(np.abs(z_mean).max() < ZMAX, "pad: all %d frame pixel means within %g se of the "

@@ -35,9 +35,7 @@ rng = np.random.default_rng(6)
 # boundaries with a stationary prior) draws nearly independent samples, so 1000 iterations give an
 # ESS far above the 100-per-chain threshold (measured: worst R-hat 1.001,
 # lowest bulk-ESS ~3200 on such a frame, seed 1).
-yy, xx = np.mgrid[:40, :40]
-truth = 20 + sum(200 * np.exp(-((yy - r) ** 2 + (xx - c) ** 2) / 8)
-                 for r, c in rng.uniform(4, 36, (10, 2)))
+truth = pptest.beads_truth(rng)
 tifffile.imwrite(P("truth.tif"), truth.astype(np.float32))
 pptest.run(["simulate", P("truth.tif"), "--psf", "gaussian:sigma=2", "--noise",
             "gaussian:sigma=2", "--boundary", "periodic", "--seed", "5", "--quiet",

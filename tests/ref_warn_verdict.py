@@ -54,9 +54,7 @@ import pptest
 tmp = pptest.tmpdir()
 P = lambda *n: os.path.join(tmp, *n)
 rng = np.random.default_rng(6)
-yy, xx = np.mgrid[:40, :40]
-truth = 20 + sum(200 * np.exp(-((yy - r) ** 2 + (xx - c) ** 2) / 8)
-                 for r, c in rng.uniform(4, 36, (10, 2)))
+truth = pptest.beads_truth(rng)
 tifffile.imwrite(P("truth.tif"), truth.astype(np.float32))
 pptest.run(["simulate", P("truth.tif"), "--psf", "gaussian:sigma=2", "--noise", "gaussian:sigma=2",
             "--seed", "5", "--quiet", "-o", P("beads.tif")])

@@ -61,25 +61,6 @@ static void synth_free(synth *s)
     free(s->v);
 }
 
-static char *slurp(const char *path)
-{
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return NULL;
-    fseek(f, 0, SEEK_END);
-    long n = ftell(f);
-    fseek(f, 0, SEEK_SET);
-    char *b = malloc((size_t)n + 1);
-    if (b && fread(b, 1, (size_t)n, f) != (size_t)n) {
-        free(b);
-        b = NULL;
-    }
-    if (b)
-        b[n] = '\0';
-    fclose(f);
-    return b;
-}
-
 static int count_entries(const char *dir)
 {
     DIR *d = opendir(dir);
@@ -120,7 +101,7 @@ static void test_full_page(const char *dir)
     snprintf(path, sizeof path, "%s/report.html", dir);
     pp_status st = pp_report_write(path, &s.in);
     CHECK(st == PP_OK, "report write failed: %s", pp_error_message());
-    char *html = slurp(path);
+    char *html = pp_test_slurp(path);
     CHECK(html != NULL, "report.html missing");
     CHECK(html && strncmp(html, "<!DOCTYPE html>\n", 16) == 0, "no doctype at the start");
     CHECK(has(html, "</html>\n"), "page not closed");
@@ -158,7 +139,7 @@ static void test_units(const char *dir)
     char path[4200];
     snprintf(path, sizeof path, "%s/units.html", dir);
     CHECK(pp_report_write(path, &s.in) == PP_OK, "report write failed: %s", pp_error_message());
-    char *html = slurp(path);
+    char *html = pp_test_slurp(path);
     CHECK(has(html, "frame in ADU, estimates in photons per pixel"), "header units");
     const char *fr = html ? strstr(html, "id=\"frame-image\"") : NULL;
     const char *mn = html ? strstr(html, "id=\"mean-image\"") : NULL;
@@ -211,7 +192,7 @@ static void test_fixed_and_empty(const char *dir)
     char path[4200];
     snprintf(path, sizeof path, "%s/fixed.html", dir);
     CHECK(pp_report_write(path, &s.in) == PP_OK, "write: %s", pp_error_message());
-    char *html = slurp(path);
+    char *html = pp_test_slurp(path);
     CHECK(has(html, "id=\"hist-delta-note\"") && !has(html, "id=\"hist-delta\""), "hist note");
     CHECK(has(html, "fixed at 3.5 (not sampled)"), "fixed value not stated");
     CHECK(!has(html, "id=\"trace-delta\"") && has(html, "id=\"trace-lambda\""), "traces");
@@ -256,7 +237,7 @@ static void test_decimation(const char *dir)
     char path[4200];
     snprintf(path, sizeof path, "%s/long.html", dir);
     CHECK(pp_report_write(path, &s.in) == PP_OK, "write: %s", pp_error_message());
-    char *html = slurp(path);
+    char *html = pp_test_slurp(path);
     double y1 = 0, y2 = 0; /* stay 0 when the page is missing (n1 = n2 = 0 fails) */
     size_t n1 = html ? polyline_points(html, "id=\"trace-lambda\"", 1, &y1) : 0;
     size_t n2 = html ? polyline_points(html, "id=\"trace-lambda\"", 2, &y2) : 0;
@@ -303,7 +284,7 @@ static void test_large_image(const char *dir)
     char path[4200];
     snprintf(path, sizeof path, "%s/large.html", dir);
     CHECK(pp_report_write(path, &s.in) == PP_OK, "write: %s", pp_error_message());
-    char *html = slurp(path);
+    char *html = pp_test_slurp(path);
     const char *p = html ? strstr(html, "id=\"mean-image\"") : NULL;
     p = p ? strstr(p, "base64,") : NULL;
     unsigned w = 0, h = 0;
@@ -398,7 +379,7 @@ static void test_escape(const char *dir)
     FILE *f = fopen(path, "wb");
     pp_report_escape(f, "a\x01\xff\xc3\xa9<'\xe2\x82");
     fclose(f);
-    char *s = slurp(path);
+    char *s = pp_test_slurp(path);
     /* control char and the bad byte -> U+FFFD; e-acute kept; a cut-off
      * 3-byte sequence -> U+FFFD per byte */
     CHECK(s && strcmp(s, "a\xef\xbf\xbd\xef\xbf\xbd\xc3\xa9&lt;&#39;\xef\xbf\xbd\xef\xbf\xbd") == 0,

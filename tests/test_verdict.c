@@ -91,25 +91,6 @@ static void test_sentences(void)
     CHECK(strcmp(small, "not converg") == 0, "truncated and terminated: '%s'", small);
 }
 
-static char *slurp(const char *path)
-{
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return NULL;
-    fseek(f, 0, SEEK_END);
-    long n = ftell(f);
-    fseek(f, 0, SEEK_SET);
-    char *b = malloc((size_t)n + 1);
-    if (b && fread(b, 1, (size_t)n, f) != (size_t)n) {
-        free(b);
-        b = NULL;
-    }
-    if (b)
-        b[n] = '\0';
-    fclose(f);
-    return b;
-}
-
 /* Position of s in html, or a huge value when absent. */
 static size_t at(const char *html, const char *s)
 {
@@ -140,7 +121,7 @@ static char *page(const char *dir, const char *name, const pp_convergence *cv,
     pp_status st = pp_report_write(path, &in);
     CHECK(st == PP_OK, "%s: write failed: %s", name, pp_error_message());
     pp_image_free(img);
-    return slurp(path);
+    return pp_test_slurp(path);
 }
 
 static void test_banner(const char *dir)

@@ -62,3 +62,22 @@ void pp_test_write_png_header(const char *path, unsigned w, unsigned h)
         fclose(fp);
     }
 }
+
+char *pp_test_slurp(const char *path)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return NULL;
+    fseek(f, 0, SEEK_END);
+    long n = ftell(f);
+    fseek(f, 0, SEEK_SET);
+    char *b = malloc((size_t)n + 1);
+    if (b && fread(b, 1, (size_t)n, f) != (size_t)n) {
+        free(b);
+        b = NULL;
+    }
+    if (b)
+        b[n] = '\0';
+    fclose(f);
+    return b;
+}

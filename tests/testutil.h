@@ -33,4 +33,8 @@ void pp_test_write_png_header(const char *path, unsigned w, unsigned h);
  * returned string is static. */
 const char *pp_test_tmpdir(void);
 
+/* The whole file at path as a NUL-terminated string (malloc'd; the caller
+ * frees it), or NULL when it cannot be read. */
+char *pp_test_slurp(const char *path);
+
 #endif
