@@ -344,6 +344,7 @@ def do_row(job):
     base = [a.bin, "sample", frame, "--psf", PSFS[job["psf"]]] + noise_args
     if a.prior:
         base += ["--prior", a.prior]
+    base += ["--iters", a.iters]
     base += ["--boundary", job["boundary"], "--seed", "1", "--threads", "1", "--quiet"]
     res = {}
     secs = 0.0
@@ -464,6 +465,9 @@ def main():
     ap.add_argument("--quick", action="store_true", help="4 dev scenes (one per class), gaussian PSF, gauss1 and phot200, size 64")
     ap.add_argument("--bin", default=os.path.join(HERE, "..", "..", "build", "pixpost"))
     ap.add_argument("--prior", default="", help="--prior SPEC for pixpost (default: pixpost's own default)")
+    ap.add_argument("--iters", default="1000",
+                    help="--iters for pixpost (default 1000, the fixed length the tables in "
+                         "ADAPTIVE.md were measured with; 'auto' for pixpost's own default)")
     ap.add_argument("--boundary", default="pad", choices=["pad", "periodic", "both"])
     ap.add_argument("--size", type=int, default=None, help="frame side S (default 96; 64 with --quick)")
     ap.add_argument("--sets", default="dev,check")
