@@ -342,7 +342,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
             pp_sampler_kind_name(c->kind), c->chains, s->length.burn, s->length.iters, c->thin,
             (unsigned long long)c->seed, s->trace.kept, pp_boundary_name(c->boundary));
     json_run_length(f, s);
-    if (c->kind == PP_SAMPLER_MTC && c->boundary == PP_BOUNDARY_PAD) {
+    if (s->pad_scheme) {
         fputs("  \"pad_scheme\": ", f); /* how mtc handled the padding */
         pp_json_write_string(f, s->pad_scheme);
         fputs(",\n", f);
@@ -388,7 +388,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
             ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
     if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN || c->kind == PP_SAMPLER_HMC)
         json_pcn(f, s);
-    if (c->kind == PP_SAMPLER_MTC && c->boundary != PP_BOUNDARY_PAD)
+    if (c->kind == PP_SAMPLER_MTC && !s->pad_scheme)
         json_mtc(f, s);
     if (c->kind == PP_SAMPLER_GIBBS && c->prior.kind == PP_PRIOR_ADAPTIVE)
         json_adaptive(f, s);
