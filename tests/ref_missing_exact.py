@@ -12,15 +12,19 @@ since A 1 = 1). Masked pixels are then latent like the padding: gibbs
 redraws them (data augmentation), hmc leaves them out of the likelihood.
 Each run must match the exact mean within 4.5 of its own per-pixel MCSE
 (mcse.tif) plus 1 % of the exact sd, and the exact sd within 10 % per pixel
-and 4 % averaged over the masked pixels (the sd is the square root of a
-variance estimated from ~10^3 effective draws: ~2-3 % relative error). The
+(pcn, gpcn: 20 %, their draws' sd rests on a few hundred effective draws
+per pixel, ~5 % relative error, and the worst of 144 pixels lies ~3.5 of
+those out) and 4 % averaged over the masked pixels. The
 masked pixels' exact sd is larger than the observed ones' (a fact of the
 model, checked too: 8 % here, where the prior is tight), and so must the
-sampler's be. Measured: sd ratios 0.997-1.002 (gibbs, mtc), 0.98-1.02 (hmc);
-worst mean error 0.24-0.45 of the tolerance.
+sampler's be. Measured: sd ratios 0.997-1.002 (gibbs, mtc), 0.98-1.02 (hmc),
+0.89-1.16 (pcn, gpcn; masked pixels' mean 1.00, 1.02); worst mean error
+0.24-0.76 of the tolerance.
 Cases: gibbs periodic, gibbs pad (grid from summary.json), mtc periodic
-(which runs the gibbs chain with missing pixels and says so), hmc periodic
-(gaussian likelihood over the observed pixels only).
+(which runs the gibbs chain with missing pixels and says so), hmc periodic,
+gpcn pad and pcn periodic (gaussian likelihood over the observed pixels
+only: the pCN family's likelihood and gradient, which the photon models
+share, skip the masked pixels).
 """
 import json
 import os
@@ -84,7 +88,9 @@ common = ["--psf", PSF, "--noise", "gaussian:sigma=%g" % SIGMA, "--prior", "gmrf
 cases = [("gibbs periodic", ["--sampler", "gibbs", "--boundary", "periodic", "--burn", "200", "--iters", "3000"]),
          ("gibbs pad", ["--sampler", "gibbs", "--boundary", "pad", "--burn", "200", "--iters", "3000"]),
          ("mtc periodic", ["--sampler", "mtc", "--boundary", "periodic", "--burn", "200", "--iters", "3000"]),
-         ("hmc periodic", ["--sampler", "hmc", "--boundary", "periodic", "--burn", "500", "--iters", "3000"])]
+         ("hmc periodic", ["--sampler", "hmc", "--boundary", "periodic", "--burn", "500", "--iters", "3000"]),
+         ("gpcn pad", ["--sampler", "gpcn", "--boundary", "pad", "--burn", "1000", "--iters", "20000"]),
+         ("pcn periodic", ["--sampler", "pcn", "--boundary", "periodic", "--burn", "1000", "--iters", "20000"])]
 for name, extra in cases:
     out = os.path.join(tmp, name.replace(" ", "_"))
     pptest.run(["sample", frame, "-o", out] + common + extra)
@@ -103,8 +109,9 @@ for name, extra in cases:
     pptest.check(z.max() < 1, "%s: mean within 4.5 MCSE + 1 %% sd of the exact mean at every pixel "
                  "(worst %.2f of the tolerance; masked pixels' worst %.2f)" % (name, z.max(), z[masked].max()))
     ratio = sd / s_ex
-    pptest.check(np.abs(ratio - 1).max() < 0.10,
-                 "%s: sd / exact sd in [%.3f, %.3f] (within 10 %%)" % (name, ratio.min(), ratio.max()))
+    stol = 0.20 if "pcn" in name else 0.10
+    pptest.check(np.abs(ratio - 1).max() < stol,
+                 "%s: sd / exact sd in [%.3f, %.3f] (within %d %%)" % (name, ratio.min(), ratio.max(), 100 * stol))
     pptest.check(abs(ratio[masked].mean() - 1) < 0.04,
                  "%s: masked pixels' sd / exact %.3f (within 4 %%)" % (name, ratio[masked].mean()))
     pptest.check(s_ex[masked].mean() > 1.05 * s_ex[~masked].mean() and sd[masked].mean() > 1.05 * sd[~masked].mean(),
