@@ -40,7 +40,7 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
     if (n - nan < need)
         return pp_fail(PP_ERR_ARG,
                        "only %zu of the frame's %zu pixels are observed (not NaN: masked or "
-                       "saturated pixels are unobserved); at least %zu are needed",
+                       "saturated pixels are unobserved); at least %zu are needed: mask fewer pixels",
                        n - nan, n, need);
     if (!(s->obs = calloc(s->gn, 1)))
         return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
