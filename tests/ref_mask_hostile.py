@@ -77,6 +77,14 @@ for k in range(2):
     md = json.load(open(sj[0]))["missing_data"] if sj else {}
     pptest.check(md.get("masked") == 10 and md.get("observed") == 470,
                  "batch --mask: frame f%d missing_data %s" % (k, md))
+# --resume sees a mask edited in place (same name): the finished frames were
+# made with other settings, which only --overwrite replaces
+m[10, 10] = 1
+tifffile.imwrite(P("m.tif"), m)
+os.utime(P("m.tif"), ns=(1, 1))  # an old time, as if copied with its date kept
+pr = pptest.run(["batch", P("indir"), "-o", P("bout"), "--mask", P("m.tif"), "--resume"] + FAST, check=False)
+pptest.check(pr.returncode == 1 and "2 finished frames were made with other settings" in pr.stderr,
+             "batch --resume after the mask changed: refused (exit %d): %r" % (pr.returncode, pr.stderr.strip()))
 pp = pptest.run(["batch", P("indir"), "-o", P("bout2"), "--mask", P("small.tif")] + FAST[:-1], check=False)
 pptest.check(pp.returncode == 2 and "frame's size" in pp.stderr,
              "batch with a wrong-size mask: every frame fails (exit %d): %r" % (pp.returncode, pp.stderr.strip()[-300:]))
