@@ -1,9 +1,9 @@
 /* pixpost — the observed pixels of a sampler's grid (see observed.h). */
 #include "observed.h"
 
+#include "internal.h"
 #include <math.h>
 #include <stdlib.h>
-#include "internal.h"
 
 size_t pp_observed_min(size_t n)
 {
@@ -38,10 +38,11 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
                        inf);
     size_t n = s->height * s->width, need = pp_observed_min(n);
     if (n - nan < need)
-        return pp_fail(PP_ERR_ARG,
-                       "only %zu of the frame's %zu pixels are observed (not NaN: masked or "
-                       "saturated pixels are unobserved); at least %zu are needed: mask fewer pixels",
-                       n - nan, n, need);
+        return pp_fail(
+            PP_ERR_ARG,
+            "only %zu of the frame's %zu pixels are observed (not NaN: masked or "
+            "saturated pixels are unobserved); at least %zu are needed: mask fewer pixels",
+            n - nan, n, need);
     if (!(s->obs = calloc(s->gn, 1)))
         return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
     for (size_t r = 0; r < s->height; r++)

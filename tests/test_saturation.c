@@ -2,11 +2,11 @@
  * on hand-made frames whose answer is known by construction: each rule
  * fires where pixpost/saturation.h says and nowhere else (the rule's
  * thresholds at their edges: 0.1 % share, 4x the next values' mean count). */
-#include <math.h>
-#include <string.h>
 #include "pixpost/image.h"
 #include "pixpost/saturation.h"
 #include "testutil.h"
+#include <math.h>
+#include <string.h>
 
 /* A w x h frame with pixel i = i % m (a flat histogram over 0..m-1). */
 static pp_image *ramp(size_t w, size_t h, unsigned m)

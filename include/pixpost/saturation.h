@@ -19,9 +19,9 @@
 #ifndef PIXPOST_SATURATION_H
 #define PIXPOST_SATURATION_H
 
-#include <stddef.h>
 #include "pixpost/image.h"
 #include "pixpost/status.h"
+#include <stddef.h>
 
 #define PP_SAT_MIN_SHARE 0.001 /* 0.1 % of the pixels */
 #define PP_SAT_SPIKE 4.0
@@ -35,9 +35,9 @@ typedef enum pp_sat_rule {
 
 typedef struct pp_saturation {
     pp_sat_rule rule;
-    double level;     /* the clip value (0 when rule is NONE) */
-    size_t count;     /* pixels at it (0 when NONE) */
-    size_t finite;    /* finite pixels of the frame (the share's denominator) */
+    double level;  /* the clip value (0 when rule is NONE) */
+    size_t count;  /* pixels at it (0 when NONE) */
+    size_t finite; /* finite pixels of the frame (the share's denominator) */
 } pp_saturation;
 
 /* Finds the saturated pixels of frame (NaN pixels are ignored). bits and

@@ -22,20 +22,22 @@ static int apply_mask(const char *path, cli_frame_run *r, pp_image *frame)
     pp_image *m = NULL;
     pp_status st = pp_image_read(path, &ro, &m, NULL);
     if (st == PP_ERR_UNSUPPORTED && strstr(pp_error_message(), "colour"))
-        return mask_fail(r, "--mask %s: a colour image; save the mask as a one-channel "
-                            "(grayscale) PNG or TIFF, nonzero = ignore the pixel%s",
+        return mask_fail(r,
+                         "--mask %s: a colour image; save the mask as a one-channel "
+                         "(grayscale) PNG or TIFF, nonzero = ignore the pixel%s",
                          path, "");
     if (st != PP_OK)
-        return mask_fail(r, "--mask %s: cannot be read (%s); give a grayscale PNG or TIFF of "
-                            "the frame's size, nonzero = ignore the pixel",
+        return mask_fail(r,
+                         "--mask %s: cannot be read (%s); give a grayscale PNG or TIFF of "
+                         "the frame's size, nonzero = ignore the pixel",
                          path, pp_error_message());
     if (m->width != frame->width || m->height != frame->height) {
         char dims[128];
         snprintf(dims, sizeof dims, "%zux%zu pixels but the frame %s is %zux%zu", m->width,
                  m->height, r->frame, frame->width, frame->height);
         pp_image_free(m);
-        return mask_fail(r, "--mask %s: %s; give a mask of the frame's size (width x height)",
-                         path, dims);
+        return mask_fail(r, "--mask %s: %s; give a mask of the frame's size (width x height)", path,
+                         dims);
     }
     size_t n = 0;
     for (size_t i = 0; i < m->width * m->height; i++)
