@@ -7,7 +7,7 @@ mask of 12 pixels: a 3 x 3 block, and 3 single pixels inside rows, so that
 the Poisson sum of src/sampler_pcn.c (phi_of) runs over several runs of
 observed pixels in a row. The masked pixels are compared too: their
 posterior comes from the prior and the data around them.
-Frames: "dim" (about 8 photons/pixel; hmc and pcn) and "bright" (160-1200
+Frames: "dim" (about 8 photons/pixel; hmc, gpcn, pcn) and "bright" (160-1200
 photons/pixel; hmc and gpcn), 12 x 12 periodic.
 Fails before: a binary that takes the masked pixels as data at the fill
 value (the mean of the frame): worst 13.6-89.7 se on mean.tif (measured).
