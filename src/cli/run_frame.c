@@ -1,5 +1,6 @@
 /* pixpost command line — sample one frame into a folder: read the frame (a
- * chosen page), make the PSF, create and run the sampler (with an optional
+ * chosen page), mark its masked and saturated pixels unobserved (NaN;
+ * unobserved.c), make the PSF, create and run the sampler (with an optional
  * progress display and a stop flag), write the outputs with pp_output_write.
  * Used by `pixpost sample` (one frame) and by `pixpost batch` (each frame, in
  * a worker process). Errors are returned as one sentence in r->message, not
