@@ -41,7 +41,8 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
         return pp_fail(
             PP_ERR_ARG,
             "only %zu of the frame's %zu pixels are observed (not NaN: masked or "
-            "saturated pixels are unobserved); at least %zu are needed: mask fewer pixels",
+            "saturated pixels are unobserved); at least %zu are needed: mask fewer pixels (or use "
+            "saturated ones as data, --keep-saturated)",
             n - nan, n, need);
     if (!(s->obs = calloc(s->gn, 1)))
         return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
