@@ -13,12 +13,12 @@
 #define RHO_SD 0.3
 
 struct pp_fieldscale {
-    size_t h, w, fh, fw, bs, r, k; /* grid, frame, block side, kernel radius and side */
+    size_t h, w, bs, r, k; /* grid, block side, kernel radius and side */
     double *ker;                   /* k x k: the PSF on the grid around pixel (0, 0) */
     double *g;                     /* window (bs + 2r)^2: A v */
 };
 
-pp_status pp_fieldscale_create(size_t h, size_t w, size_t fh, size_t fw, size_t ksize,
+pp_status pp_fieldscale_create(size_t h, size_t w, size_t ksize,
                                size_t block, const pp_complex *otf, const pp_fft *fft,
                                pp_fieldscale **out)
 {
@@ -29,7 +29,7 @@ pp_status pp_fieldscale_create(size_t h, size_t w, size_t fh, size_t fw, size_t 
     pp_fieldscale *f = calloc(1, sizeof *f);
     if (!f)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the field-scale move");
-    *f = (pp_fieldscale){h, w, fh, fw, block, r, k, NULL, NULL};
+    *f = (pp_fieldscale){h, w, block, r, k, NULL, NULL};
     size_t wn = (block + 2 * r) * (block + 2 * r), gm = h * (w / 2 + 1);
     f->ker = malloc(k * k * sizeof *f->ker);
     f->g = malloc(wn * sizeof *f->g);
@@ -98,8 +98,8 @@ static double edge_dquad(const pp_fieldscale *f, const double *x, const double *
 
 /* One move of block b (fieldscale.h). Returns 1 when accepted. */
 static int block_move(pp_fieldscale *f, pp_adapt *a, size_t b, size_t mw, double *x,
-                      double *ax, double *y, double *wh, double *wv, double lambda, int pad,
-                      pp_rng *rng, double *ss_obs)
+                      double *ax, double *y, double *wh, double *wv, double lambda,
+                      const unsigned char *obs, pp_rng *rng, double *ss_obs)
 {
     const size_t h = f->h, w = f->w, bs = f->bs, r = f->r, k = f->k;
     size_t r0 = (b / mw) * bs, c0 = (b % mw) * bs;
@@ -133,11 +133,9 @@ static int block_move(pp_fieldscale *f, pp_adapt *a, size_t b, size_t mw, double
     double g1 = 0, g2 = 0;
     for (size_t u = 0; u < wn / ww; u++) {
         size_t gi = (r0 + h + u - r) % h;
-        if (pad && gi >= f->fh)
-            continue;
         for (size_t t = 0; t < ww; t++) {
             size_t gj = (c0 + w + t - r) % w;
-            if (pad && gj >= f->fw)
+            if (obs && !obs[gi * w + gj])
                 continue;
             double gv = f->g[u * ww + t];
             g1 += gv * (ax[gi * w + gj] - y[gi * w + gj]);
@@ -157,8 +155,8 @@ static int block_move(pp_fieldscale *f, pp_adapt *a, size_t b, size_t mw, double
             size_t gj = (c0 + w + t - r) % w, i = gi * w + gj;
             double d = em * f->g[u * ww + t];
             ax[i] += d;
-            if (pad && (gi >= f->fh || gj >= f->fw))
-                y[i] += d; /* the padding's noise e held */
+            if (obs && !obs[i])
+                y[i] += d; /* the latent pixels' noise e held */
         }
     }
     *ss_obs += dss;
@@ -167,8 +165,8 @@ static int block_move(pp_fieldscale *f, pp_adapt *a, size_t b, size_t mw, double
 }
 
 unsigned pp_fieldscale_sweep(pp_fieldscale *f, pp_adapt *a, double *x, double *ax, double *y,
-                             double *wh, double *wv, double lambda, int pad, pp_rng *rng,
-                             double *ss_obs)
+                             double *wh, double *wv, double lambda,
+                             const unsigned char *obs, pp_rng *rng, double *ss_obs)
 {
     if (!f)
         return 0;
@@ -176,6 +174,6 @@ unsigned pp_fieldscale_sweep(pp_fieldscale *f, pp_adapt *a, double *x, double *a
     pp_adapt_geometry(a, &bs, &mh, &mw);
     unsigned acc = 0;
     for (size_t b = 0; b < mh * mw; b++)
-        acc += (unsigned)block_move(f, a, b, mw, x, ax, y, wh, wv, lambda, pad, rng, ss_obs);
+        acc += (unsigned)block_move(f, a, b, mw, x, ax, y, wh, wv, lambda, obs, rng, ss_obs);
     return acc;
 }

@@ -39,23 +39,25 @@
 
 typedef struct pp_fieldscale pp_fieldscale;
 
-/* For an h x w grid whose observed frame is the top-left fh x fw corner,
- * with the transfer function otf (half spectrum of the PSF on the grid,
+/* For an h x w grid with the transfer function otf (half spectrum of the PSF on the grid,
  * centre at pixel (0, 0)) of a kernel of side ksize, and its FFT plans.
  * *out is NULL when the grid is too small for the move (it then does
  * nothing) or on failure (PP_ERR_NOMEM). */
-pp_status pp_fieldscale_create(size_t h, size_t w, size_t fh, size_t fw, size_t ksize,
+pp_status pp_fieldscale_create(size_t h, size_t w, size_t ksize,
                                size_t block, const pp_complex *otf, const pp_fft *fft,
                                pp_fieldscale **out);
 void pp_fieldscale_free(pp_fieldscale *f); /* accepts NULL */
 
 /* One sweep of the move over every block, in order. x, the field; ax = A x
- * and y the data on the grid (y's padding = yaug when pad, moved with the
- * field); wh, wv the weights (moved with s); lambda the noise precision.
- * Adds the change of the frame's residual sum of squares to *ss_obs.
+ * and y the data on the grid (y's latent pixels = yaug's, moved with the
+ * field); obs, the grid's observed-pixel bytes (src/observed.h; NULL: every
+ * grid pixel is observed); wh, wv the weights (moved with s); lambda the
+ * noise precision. Adds the change of the observed residual sum of squares
+ * to *ss_obs.
  * Returns the accepted moves. */
 unsigned pp_fieldscale_sweep(pp_fieldscale *f, pp_adapt *a, double *x, double *ax, double *y,
-                             double *wh, double *wv, double lambda, int pad, pp_rng *rng,
+                             double *wh, double *wv, double lambda,
+                             const unsigned char *obs, pp_rng *rng,
                              double *ss_obs);
 
 #endif

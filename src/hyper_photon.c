@@ -188,6 +188,8 @@ void pp_hphot_reference(const pp_sampler *s, pp_chain *c, pp_hphot *hp, const pp
     for (size_t row = 0; row < s->height; row++)
         for (size_t col = 0; col < s->width; col++) {
             size_t i = row * s->gw + col;
+            if (!s->obs[i]) /* a missing pixel (NaN): no data there */
+                continue;
             r[i] = 1.0 / fmax(ax[i] + shift, 1e-12);
         }
     double s2 = 0, qmin = INFINITY;

@@ -100,8 +100,8 @@ typedef struct pp_region {
  * cfg.iters_auto), a slot hosts its chains in turn: the state of the chain
  * it is not running waits in a park store (sampler.c, park_swap). */
 typedef struct pp_slot {
-    pp_complex *cbuf, *cbuf2, *yhat; /* yhat: pad only */
-    double *rbuf, *yaug;             /* yaug: pad only */
+    pp_complex *cbuf, *cbuf2, *yhat; /* yhat: augment only */
+    double *rbuf, *yaug;             /* yaug: augment only */
     void *kwork;                     /* the kernel's working state (kernel->prepare) */
     long resident;                   /* the chain whose state the slot holds (rounds) */
 } pp_slot;
@@ -116,8 +116,9 @@ typedef struct pp_chain {
     pp_complex *cbuf;  /* half spectrum: noise, then the conditional mean */
     pp_complex *cbuf2; /* half spectrum: x-hat (kept draws) or A x-hat (pad) */
     double *rbuf;      /* grid: c2r output */
-    double *yaug;      /* pad: observed frame plus latent padding pixels */
-    pp_complex *yhat;  /* this chain's data spectrum (pad) or the shared one */
+    double *yaug;      /* augment: observed pixels plus the latent ones (padding,
+                        * missing pixels) */
+    pp_complex *yhat;  /* this chain's data spectrum (augment) or the shared one */
     pp_moments mom;    /* frame-sized moments of the recorded field over all kept
                         * draws; add to them with pp_chain_add_draw only */
     float *mean1;      /* frame-sized: mom.mean frozen after the first half of the
@@ -208,9 +209,17 @@ struct pp_sampler {
                        * the chains are done) */
     double rank;      /* rank of Q over the full spectrum */
     double mean_dc;   /* prior mean spectrum at (0,0): M * gn, 0 if free */
-    double *ygrid;    /* frame embedded in the grid (padding = frame mean); kept
-                       * after planning with pad only */
-    pp_complex *yhat; /* r2c(ygrid); kept after planning without pad only */
+    double *ygrid;    /* frame embedded in the grid (padding and missing pixels =
+                       * the observed pixels' mean); kept after planning with
+                       * augment only */
+    pp_complex *yhat; /* r2c(ygrid); kept after planning without augment only */
+    unsigned char *obs; /* gn: 1 where the grid pixel is observed (a finite frame
+                         * pixel), 0 for the latent ones (padding, NaN pixels);
+                         * src/observed.h */
+    size_t nobs;        /* observed pixels */
+    size_t nmissing;    /* frame pixels that are NaN (unobserved) */
+    int augment;        /* the grid has latent pixels that the Gibbs family redraws
+                         * (pad, or missing pixels): yaug, per-chain yhat */
     double lambda0, delta0; /* rough scale estimates for dispersed starts */
     size_t nprobe;
     size_t probe_r[PP_MAX_PROBES], probe_c[PP_MAX_PROBES];

@@ -11,6 +11,7 @@
 #include "pixpost/io.h"
 #include "pixpost/output.h"
 #include "pixpost/psf.h"
+#include "pixpost/saturation.h"
 
 static int cmp_double(const void *a, const void *b)
 {
@@ -308,6 +309,22 @@ typedef struct png_scales {
     double mean_offset, mean_scale, sd_offset, sd_scale;
 } png_scales;
 
+/* "missing_data": the frame's observed and unobserved (NaN) pixels, and
+ * the caller's reasons for the latter (pixpost/saturation.h, --mask). */
+static void json_missing(FILE *f, const pp_sampler *s, const pp_run_info *info)
+{
+    size_t obs, miss;
+    pp_sampler_observed(s, &obs, &miss);
+    fprintf(f, "  \"missing_data\": {\"observed\": %zu, \"unobserved\": %zu, \"masked\": %zu, "
+               "\"saturated\": %zu, \"saturation_level\": ",
+            obs, miss, info ? info->masked : 0, info ? info->saturated : 0);
+    json_number(f, info && info->saturated ? info->saturation_level : NAN);
+    fputs(", \"saturation_rule\": ", f);
+    pp_json_write_string(f, pp_sat_rule_name(info ? (pp_sat_rule)info->saturation_rule
+                                                  : PP_SAT_NONE));
+    fputs("},\n", f);
+}
+
 static pp_status write_summary(const char *path, const pp_sampler *s, const pp_image *frame,
                                const pp_run_info *info, const png_scales *ps)
 {
@@ -342,11 +359,12 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
             pp_sampler_kind_name(c->kind), c->chains, s->length.burn, s->length.iters, c->thin,
             (unsigned long long)c->seed, s->trace.kept, pp_boundary_name(c->boundary));
     json_run_length(f, s);
-    if (c->kind == PP_SAMPLER_MTC && c->boundary == PP_BOUNDARY_PAD) {
+    if (s->pad_scheme) {
         fputs("  \"pad_scheme\": ", f); /* how mtc handled the padding */
         pp_json_write_string(f, s->pad_scheme);
         fputs(",\n", f);
     }
+    json_missing(f, s, info);
     fputs("  \"psf\": ", f);
     pp_json_write_string(f, info ? info->psf_spec : NULL);
     fputs(",\n  \"noise\": ", f);
@@ -388,7 +406,7 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
             ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
     if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN || c->kind == PP_SAMPLER_HMC)
         json_pcn(f, s);
-    if (c->kind == PP_SAMPLER_MTC && c->boundary != PP_BOUNDARY_PAD)
+    if (c->kind == PP_SAMPLER_MTC && !s->pad_scheme)
         json_mtc(f, s);
     if (c->kind == PP_SAMPLER_GIBBS && c->prior.kind == PP_PRIOR_ADAPTIVE)
         json_adaptive(f, s);

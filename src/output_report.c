@@ -8,7 +8,7 @@
 #include "pixpost/output.h"
 #include "pixpost/report.h"
 
-enum { NSET = 12 };
+enum { NSET = 13 };
 
 pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image *frame,
                            const pp_run_info *info)
@@ -16,7 +16,8 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
     const pp_sampler_config *c = &s->cfg;
     static const char *const keys[NSET] = {
         "input", "sampler", "chains", "burn-in / iterations / thin", "seed", "boundary",
-        "grid", "PSF", "noise", "prior", "hyperpriors Gamma(shape, rate)", "bounds"};
+        "grid", "PSF", "noise", "prior", "hyperpriors Gamma(shape, rate)", "bounds",
+        "unobserved pixels"};
     char val[NSET][320];
     snprintf(val[0], sizeof val[0], "%s", info && info->input_path ? info->input_path : "-");
     snprintf(val[1], sizeof val[1], "%s", pp_sampler_kind_name(c->kind));
@@ -34,6 +35,12 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
     snprintf(val[10], sizeof val[10], "lambda (%g, %g), delta (%g, %g)", c->hyper_lambda[0],
              c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1]);
     snprintf(val[11], sizeof val[11], "%g %% central; %s", 100 * c->level, s->bound_method);
+    size_t nobs, nmiss;
+    pp_sampler_observed(s, &nobs, &nmiss);
+    snprintf(val[12], sizeof val[12],
+             "%zu of %zu (masked %zu, saturated %zu); estimated there from their neighbours "
+             "(wider bounds)",
+             nmiss, nobs + nmiss, info ? info->masked : 0, info ? info->saturated : 0);
     const char *vals[NSET];
     for (int i = 0; i < NSET; i++)
         vals[i] = val[i];

@@ -122,12 +122,17 @@ int pp_padscale_move(pp_padscale *p, const pp_sampler *s, pp_chain *c, double *s
         return 0;
     p->ready = 0;
     const size_t gw = s->gw;
-    const double invn = 1.0 / (double)s->gn, nobs = (double)s->height * (double)s->width;
-    const double np = (double)s->gn - nobs;
+    /* np: the padding pixels (whose x is scaled); nobs: the observed ones
+     * (the frame's pixels but missing ones, NaN, whose data are latent and
+     * move with x like the padding's, their noise held) */
+    const double invn = 1.0 / (double)s->gn, nobs = (double)s->nobs;
+    const double np = (double)s->gn - (double)s->height * (double)s->width;
     double g1 = 0, g2 = 0;
     for (size_t r = 0; r < s->height; r++)
         for (size_t col = 0; col < s->width; col++) {
             size_t i = r * gw + col;
+            if (!s->obs[i])
+                continue;
             g1 += p->g[i] * (c->rbuf[i] * invn - s->ygrid[i]);
             g2 += p->g[i] * p->g[i];
         }
@@ -151,7 +156,7 @@ int pp_padscale_move(pp_padscale *p, const pp_sampler *s, pp_chain *c, double *s
         for (size_t col = 0; col < gw; col++) {
             size_t i = r * gw + col;
             c->rbuf[i] += fn * p->g[i];
-            if (r >= s->height || col >= s->width)
+            if (!s->obs[i])
                 c->yaug[i] += em * p->g[i];
         }
     double d_obs = 2 * em * g1 + em * em * g2;

@@ -32,6 +32,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "internal.h"
+#include "observed.h"
 #include "pixpost/psf.h"
 #if defined(__GLIBC__)
 #include <malloc.h>
@@ -120,16 +121,18 @@ static pp_status check_width(const pp_sampler_config *cfg)
     return PP_OK;
 }
 
-static pp_status check_config(pp_sampler_config *cfg)
+static pp_status check_config(pp_sampler_config *cfg, int missing)
 {
     /* Gaussian noise, periodic: mtc (ESS/s of delta 6.2-6.8x gibbs's at 256^2
-     * to 1024^2, bench/mtc_bench.py); pad keeps gibbs (mtc would fall back). */
+     * to 1024^2, bench/mtc_bench.py); pad or missing pixels keep gibbs (mtc
+     * would fall back). */
     if (cfg->kind == PP_SAMPLER_AUTO && cfg->noise.kind != PP_NOISE_GAUSSIAN)
         cfg->kind = PP_SAMPLER_HMC;
     /* The adaptive prior is not Fourier-diagonal: gibbs (x by perturbation-
      * optimisation) whatever the boundary; mtc needs a stationary prior. */
     if (cfg->kind == PP_SAMPLER_AUTO)
-        cfg->kind = cfg->boundary == PP_BOUNDARY_PERIODIC && cfg->prior.kind != PP_PRIOR_ADAPTIVE
+        cfg->kind = cfg->boundary == PP_BOUNDARY_PERIODIC && !missing &&
+                            cfg->prior.kind != PP_PRIOR_ADAPTIVE
                         ? PP_SAMPLER_MTC
                         : PP_SAMPLER_GIBBS;
     if (cfg->prior.kind == PP_PRIOR_ADAPTIVE && cfg->kind != PP_SAMPLER_GIBBS &&
@@ -181,7 +184,8 @@ static int cmp_double(const void *a, const void *b)
 }
 
 /* Noise sd from the median absolute deviation of horizontal differences
- * (a robust estimate; common practice for smooth, blurred frames). */
+ * (a robust estimate; common practice for smooth, blurred frames); pairs
+ * with an unobserved (NaN) pixel are left out. */
 static double robust_noise_sd(const pp_image *y)
 {
     size_t n = y->height * (y->width - 1);
@@ -192,8 +196,15 @@ static double robust_noise_sd(const pp_image *y)
         return 0;
     size_t k = 0;
     for (size_t r = 0; r < y->height; r++)
-        for (size_t c = 0; c + 1 < y->width; c++)
-            d[k++] = y->data[r * y->width + c + 1] - y->data[r * y->width + c];
+        for (size_t c = 0; c + 1 < y->width; c++) {
+            double v = y->data[r * y->width + c + 1] - y->data[r * y->width + c];
+            if (!isnan(v))
+                d[k++] = v;
+        }
+    if ((n = k) < 2) {
+        free(d);
+        return 0;
+    }
     qsort(d, n, sizeof *d, cmp_double);
     double med = d[n / 2];
     for (size_t i = 0; i < n; i++)
@@ -275,15 +286,12 @@ static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image 
     if ((st = pp_prior_eigen(&s->cfg.prior, s->gh, s->gw, s->q, &s->rank)) != PP_OK)
         return st;
     s->mean_dc = s->cfg.prior.mean_set ? s->cfg.prior.mean * (double)s->gn : 0.0;
-    /* Embed the frame at the grid's origin; padding starts at the frame mean. */
-    double sum = 0;
-    for (size_t i = 0; i < s->height * s->width; i++)
-        sum += frame->data[i];
-    double fill = sum / (double)(s->height * s->width);
+    /* Embed the frame at the grid's origin; the latent pixels (padding,
+     * missing pixels) start at the mean of the observed ones. */
+    double fill = pp_observed_mean(frame);
     for (size_t r = 0; r < s->gh; r++)
         for (size_t c = 0; c < s->gw; c++)
-            s->ygrid[r * s->gw + c] =
-                (r < s->height && c < s->width) ? frame->data[r * s->width + c] : fill;
+            s->ygrid[r * s->gw + c] = s->obs[r * s->gw + c] ? frame->data[r * s->width + c] : fill;
     pp_fft_forward(s->fft, s->ygrid, s->yhat);
     return PP_OK;
 }
@@ -374,7 +382,7 @@ static unsigned run_threads(const pp_sampler *s)
 
 static pp_status plan_chains(pp_sampler *s)
 {
-    int pad = s->cfg.boundary == PP_BOUNDARY_PAD;
+    int pad = s->augment;
     s->nslots = run_threads(s);
     s->chain = calloc(s->cfg.chains, sizeof *s->chain);
     s->slot = calloc(s->nslots, sizeof *s->slot);
@@ -420,14 +428,10 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
     s->cfg = *cfg;
     s->height = frame->height;
     s->width = frame->width;
-    pp_status st = check_config(&s->cfg);
-    if (st == PP_OK) {
-        size_t bad = 0;
-        for (size_t i = 0; i < s->height * s->width; i++)
-            bad += !isfinite(frame->data[i]);
-        if (bad)
-            st = pp_fail(PP_ERR_NUMERIC, "the frame has %zu NaN or infinite pixels", bad);
-    }
+    int missing = 0;
+    for (size_t i = 0; i < s->height * s->width && !missing; i++)
+        missing = isnan(frame->data[i]);
+    pp_status st = check_config(&s->cfg, missing);
     pp_image *kernel = NULL;
     if (st == PP_OK && (st = pp_image_clone(psf, &kernel)) == PP_OK)
         st = pp_psf_check(kernel, s->height, s->width);
@@ -435,6 +439,8 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
         s->psf_size = kernel->width;
     if (st == PP_OK)
         st = plan_grid(s, kernel);
+    if (st == PP_OK)
+        st = pp_observed_plan(s, frame);
     if (st == PP_OK)
         st = plan_data(s, frame, kernel);
     pp_image_free(kernel);
@@ -456,9 +462,9 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
     rough_scales(s, frame);
     s->nwarn_setup = s->nwarnings;
     /* The chains read the data in one form only: the spectrum (periodic),
-     * or the embedded frame from which each padded chain starts its own
-     * augmented copy and spectrum (start_chain). */
-    if (s->cfg.boundary == PP_BOUNDARY_PAD) {
+     * or the embedded frame from which each chain with latent pixels starts
+     * its own augmented copy and spectrum (start_chain). */
+    if (s->augment) {
         pp_fft_free_buffer(s->yhat);
         s->yhat = NULL;
     } else {
@@ -701,6 +707,8 @@ static void release_grid(pp_sampler *s)
     free(s->q);
     pp_fft_free_buffer(s->ygrid);
     pp_fft_free_buffer(s->yhat);
+    free(s->obs);
+    s->obs = NULL;
     s->otf = NULL;
     s->otf2 = s->q = s->ygrid = NULL;
     s->yhat = NULL;
@@ -1065,6 +1073,11 @@ const pp_image *pp_sampler_mean(const pp_sampler *s) { return s->mean; }
 const pp_image *pp_sampler_sd(const pp_sampler *s) { return s->sd; }
 const pp_image *pp_sampler_lo(const pp_sampler *s) { return s->lo; }
 const pp_image *pp_sampler_hi(const pp_sampler *s) { return s->hi; }
+void pp_sampler_observed(const pp_sampler *s, size_t *observed, size_t *missing)
+{
+    *observed = s->nobs;
+    *missing = s->nmissing;
+}
 const pp_trace *pp_sampler_trace(const pp_sampler *s) { return &s->trace; }
 const char *pp_sampler_bound_method(const pp_sampler *s) { return s->bound_method; }
 double pp_sampler_seconds(const pp_sampler *s) { return s->seconds; }

@@ -10,8 +10,9 @@
  *      the exact draw with the same noise (bench/adaptive/NOTES.md §4;
  *      tests/ref_adaptive_dense.py repeats it). A draw that reaches the
  *      iteration cap is counted and warned about, never hidden.
- *   2. pad: the padding pixels of the augmented frame redrawn from
- *      N(Ax, 1/λ) (data augmentation, as gibbs); then
+ *   2. pad or missing pixels (NaN, src/observed.h): the latent pixels of the
+ *      augmented frame redrawn from N(Ax, 1/λ) (data augmentation, as
+ *      gibbs); then
  *      λ | x ~ Gamma(a + N/2, b + ‖Ax − y‖²/2) over the grid.
  *   3. W | x by src/adaptive.c (τ, block log-precisions, κ).
  * Start: x = the gmrf1 posterior mean at the chain's dispersed (λ, δ),
@@ -46,7 +47,8 @@ typedef struct {
 } adapt_work;
 
 typedef struct {
-    double *y; /* periodic: the frame on the grid (pad chains use their yaug) */
+    double *y; /* periodic, no missing pixel: the frame on the grid (chains
+                * with latent pixels use their yaug) */
     pp_squant_law law;
 } adapt_shared;
 
@@ -86,7 +88,7 @@ static pp_status prepare(pp_sampler *s)
     pp_status st = pp_squant_plan_chains(s->chain, s->cfg.chains, s->height * s->width);
     if (st != PP_OK)
         return st;
-    if (s->cfg.boundary != PP_BOUNDARY_PAD) {
+    if (!s->augment) {
         if (!(sh->y = pp_fft_alloc_real(s->gn)))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the frame");
         memcpy(sh->y, s->ygrid, s->gn * sizeof(double));
@@ -101,7 +103,7 @@ static pp_status prepare(pp_sampler *s)
             st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block,
                                  s->cfg.prior.nu, s->cfg.hyper_delta, &k->ad);
         if (st == PP_OK)
-            st = pp_fieldscale_create(s->gh, s->gw, s->height, s->width, s->psf_size,
+            st = pp_fieldscale_create(s->gh, s->gw, s->psf_size,
                                       s->cfg.prior.block, s->otf, s->fft, &k->fs);
         if (st != PP_OK)
             return st;
@@ -127,7 +129,7 @@ static void start_field(const pp_sampler *s, pp_chain *c, double *x)
 }
 
 /* A x on the grid into c->rbuf (one FFT pair); returns ‖Ax − y‖² over the
- * frame, y the data grid (the padding's part comes from augment), and in
+ * observed pixels, y the data grid (the padding's part comes from augment), and in
  * *xmean the grid mean of x, read off the transform's zero frequency. */
 static double residual(const pp_sampler *s, pp_chain *c, const double *x, const double *y,
                        double *xmean)
@@ -141,6 +143,8 @@ static double residual(const pp_sampler *s, pp_chain *c, const double *x, const 
     double so = 0;
     for (size_t r = 0; r < s->height; r++)
         for (size_t col = 0; col < s->width; col++) {
+            if (!s->obs[r * s->gw + col])
+                continue;
             double d = c->rbuf[r * s->gw + col] - y[r * s->gw + col];
             so += d * d;
         }
@@ -182,7 +186,7 @@ static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const do
             k->x[i] = cm + ratio * (k->x[i] - cm);
             c->rbuf[i] = cm * a0 + ratio * (c->rbuf[i] - cm * a0);
             double d = c->rbuf[i] - y[i];
-            if (r < s->height && col < s->width)
+            if (s->obs[i])
                 so += d * d;
         }
     *obs = so;
@@ -190,15 +194,15 @@ static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const do
     c->delta = pp_adapt_level(k->ad);
 }
 
-/* Pad: the padding pixels of yaug redrawn from N(Ax, 1/λ) (Ax in rbuf);
- * returns their residual sum of squares ‖yaug − Ax‖² over the padding. */
+/* The latent pixels of yaug (padding, missing pixels) redrawn from
+ * N(Ax, 1/λ) (Ax in rbuf); returns their residual sum of squares
+ * ‖yaug − Ax‖² over them. */
 static double augment(const pp_sampler *s, pp_chain *c)
 {
     const double sd = 1.0 / sqrt(c->lambda);
     double sp = 0;
-    for (size_t r = 0; r < s->gh; r++)
-        for (size_t col = r < s->height ? s->width : 0; col < s->gw; col++) {
-            size_t i = r * s->gw + col;
+    for (size_t i = 0; i < s->gn; i++)
+        if (!s->obs[i]) {
             double e = sd * pp_rng_normal(&c->rng);
             c->yaug[i] = c->rbuf[i] + e;
             sp += e * e;
@@ -223,9 +227,9 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     const pp_sampler_config *cfg = &s->cfg;
     const adapt_shared *sh = s->kshared;
     adapt_work *k = c->kwork;
-    const int pad = cfg->boundary == PP_BOUNDARY_PAD, fix_l = cfg->noise.sigma_set;
+    const int pad = s->augment, fix_l = cfg->noise.sigma_set;
     const double shape_l = cfg->hyper_lambda[0] + 0.5 * (double)s->gn;
-    const double nobs = (double)s->height * (double)s->width;
+    const double nobs = (double)s->nobs;
     double *y = pad ? c->yaug : sh->y;
     pp_po_set_stop(k->po, cfg->stop);
     double ss_obs, ss, xmean;
@@ -265,8 +269,8 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
         if (!fix_l)
             c->lambda = pp_rng_gamma(&c->rng, shape_l, cfg->hyper_lambda[1] + 0.5 * ss);
         pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
-        pp_fieldscale_sweep(k->fs, k->ad, k->x, c->rbuf, y, k->wh, k->wv, c->lambda, pad,
-                            &c->rng, &ss_obs);
+        pp_fieldscale_sweep(k->fs, k->ad, k->x, c->rbuf, y, k->wh, k->wv, c->lambda,
+                            pad ? s->obs : NULL, &c->rng, &ss_obs);
         c->delta = pp_adapt_level(k->ad);
         if (keep) {
             pp_chain_add_draw(s, c, k->x);

@@ -23,7 +23,9 @@
  *
  * --boundary pad (data augmentation, DESIGN.md section 3): the grid is larger
  * than the frame; padding pixels are unobserved and redrawn every iteration
- * from N(Ax, 1/lambda), which keeps step 1 Fourier-diagonal.
+ * from N(Ax, 1/lambda), which keeps step 1 Fourier-diagonal. Missing frame
+ * pixels (NaN, src/observed.h) are latent the same way, with either
+ * boundary: "pad" below means any latent pixel (s->augment).
  *
  * Estimates (kept draws only): the Rao-Blackwellised mean (the average of
  * mu) and the law of total variance, Var x_i = E[v] + Var(mu_i), where the
@@ -367,29 +369,29 @@ static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
         out[p] = pa.acc[p];
 }
 
-/* Pad: from A x (rbuf, times N) redraw the padding pixels of yaug; returns
- * the observed residual sum of squares in *ss_obs and the padding one in
- * *ss_pad. */
+/* Pad: from A x (rbuf, times N) redraw the latent pixels of yaug (padding,
+ * missing pixels); returns the observed residual sum of squares in *ss_obs
+ * and the latent one in *ss_pad. */
 static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss_pad)
 {
     const double invn = 1.0 / (double)s->gn, sd = 1.0 / sqrt(c->lambda);
     /* The c2r just consumed cbuf2, which holds 2 gm >= gn doubles: draw the
      * padding's normals there in one bulk call. */
     double *e = (double *)c->cbuf2;
-    pp_rng_normals(&c->rng, e, s->gn - s->height * s->width);
+    pp_rng_normals(&c->rng, e, s->gn - s->nobs);
     double so = 0, sp = 0;
     size_t k = 0;
     for (size_t r = 0; r < s->gh; r++) {
         const double *ax = c->rbuf + r * s->gw, *y = s->ygrid + r * s->gw;
+        const unsigned char *ob = s->obs + r * s->gw;
         double *ya = c->yaug + r * s->gw;
-        size_t col = 0;
-        if (r < s->height)
-            for (; col < s->width; col++) {
+        for (size_t col = 0; col < s->gw; col++) {
+            if (ob[col]) {
                 double d = ax[col] * invn - y[col];
                 so += d * d;
+                continue;
             }
-        for (; col < s->gw; col++, k++) {
-            double en = sd * e[k];
+            double en = sd * e[k++];
             ya[col] = ax[col] * invn + en;
             sp += en * en;
         }
@@ -503,9 +505,9 @@ static double asis_delta(const pp_sampler *s, pp_chain *c, fused_sums *f)
 }
 
 /* The interweaving step with padding: as asis_delta, but holding fixed
- * both u and the padding's noise e = sqrt(lambda) (y_pad - A x), so the
- * padding moves with x and only the observed pixels inform s: V and C are
- * sums over the frame of g = A x - c and y - c, c the part of x that is not
+ * both u and the latent pixels' noise e = sqrt(lambda) (y_pad - A x), so
+ * the latent data move with x and only the observed pixels inform s: V and
+ * C are sums over the observed pixels of g = A x - c and y - c, c the part of x that is not
  * rescaled (its grid mean for an intrinsic prior, the prior mean M
  * otherwise; A c = c as the PSF sums to 1). Needs A x on the grid (rbuf,
  * times N, from pad_step); updates the padding in yaug, *ss_obs and *ss,
@@ -520,6 +522,8 @@ static void asis_delta_pad(const pp_sampler *s, pp_chain *c, int keep, double xs
     for (size_t r = 0; r < s->height; r++)
         for (size_t col = 0; col < s->width; col++) {
             size_t i = r * s->gw + col;
+            if (!s->obs[i])
+                continue;
             double g = c->rbuf[i] * invn - cst;
             v0 += g * g;
             c0 += g * (s->ygrid[i] - cst);
@@ -535,11 +539,9 @@ static void asis_delta_pad(const pp_sampler *s, pp_chain *c, int keep, double xs
     *ss_obs += d_obs;
     *ss += d_obs;
     c->delta = 1.0 / (sp * sp);
-    for (size_t r = 0; r < s->gh; r++)
-        for (size_t col = r < s->height ? s->width : 0; col < s->gw; col++) {
-            size_t i = r * s->gw + col;
+    for (size_t i = 0; i < s->gn; i++)
+        if (!s->obs[i])
             c->yaug[i] += (ratio - 1) * (c->rbuf[i] * invn - cst);
-        }
     if (keep) {
         double *row = c->trace + c->kept * s->trace.ncols + s->col_probe0;
         for (size_t p = 0; p < s->nprobe; p++)
@@ -570,11 +572,11 @@ static void rescale_probes(const pp_sampler *s, double x00, double ratio, double
 static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
 {
     const pp_sampler_config *cfg = &s->cfg;
-    const int pad = cfg->boundary == PP_BOUNDARY_PAD, width = c->wstate != NULL;
+    const int pad = s->augment, width = c->wstate != NULL;
     const int fix_l = cfg->noise.sigma_set, fix_d = cfg->prior.delta_set;
     const double shape_l = cfg->hyper_lambda[0] + 0.5 * (double)s->gn;
     const double shape_d = cfg->hyper_delta[0] + 0.5 * s->rank;
-    const double nobs = (double)s->height * (double)s->width;
+    const double nobs = (double)s->nobs;
     pp_padscale *ps = c->kwork; /* the padding scale move (gibbs_prepare), or NULL */
     for (unsigned long t = c->t; t < s->t_end; t++) {
         int keep = t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0;

@@ -43,9 +43,10 @@
  * proposal is a function of the width only, which the (lambda, delta) step
  * leaves unchanged, so the step stays exact.
  *
- * --boundary pad: the padding pixels are unobserved, so the marginal is no
- * longer diagonal; this kernel then runs the gibbs chain (data
- * augmentation) and says so (summary.json "pad_scheme" and a warning).
+ * --boundary pad or missing pixels (NaN, src/observed.h): the padding or
+ * missing pixels are unobserved, so the marginal is no longer diagonal;
+ * this kernel then runs the gibbs chain (data augmentation) and says so
+ * (summary.json "pad_scheme" and a warning).
  *
  * Cost per iteration (grid N, half spectrum M ~ N/2): one evaluation over
  * the G <= M distinct a_k (fixed PSF; grouped once in prepare, O(M log M));
@@ -94,7 +95,7 @@ typedef struct mtc_shared {
     double *ws;            /* w_k |Y_k - A_k M_k|^2 / N (NULL once grouped) */
     double *ga, *gw, *gws; /* fixed PSF: groups of equal a_k, summed w and ws */
     size_t ng;
-    int fallback; /* pad: run the gibbs chain */
+    int fallback; /* pad or missing pixels: run the gibbs chain */
 } mtc_shared;
 
 /* Sums of the marginal at one rho; the derivatives are in r = log rho. */
@@ -257,7 +258,16 @@ static pp_status mtc_prepare(pp_sampler *s)
     s->kshared = m;
     if (!m)
         return pp_fail(PP_ERR_NOMEM, "out of memory");
-    if (s->cfg.boundary == PP_BOUNDARY_PAD) {
+    if (s->augment && s->cfg.boundary != PP_BOUNDARY_PAD) {
+        m->fallback = 1;
+        s->pad_scheme = "gibbs (data augmentation): with unobserved (missing) pixels the "
+                        "marginal of (lambda, delta) is not Fourier-diagonal";
+        pp_sampler_warn(s, "--sampler mtc with %zu unobserved (masked or saturated) pixels "
+                           "runs the gibbs chain (data augmentation); use --sampler gibbs",
+                        s->nmissing);
+        return PP_OK; /* (the padding scale move is for --boundary pad only) */
+    }
+    if (s->augment) {
         m->fallback = 1;
         s->pad_scheme = "gibbs (data augmentation): with unobserved padding the marginal of "
                         "(lambda, delta) is not Fourier-diagonal";

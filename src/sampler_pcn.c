@@ -12,7 +12,8 @@
  * n + R^2 ~ Poisson(A x + b + R^2) (Snyder, Hammoud & White, JOSA A 10, 1993:
  * it matches the first two moments; with R = 0 it is exactly poisson);
  * gaussian: y ~ N(A x, 1/lambda). Phi(z) is the negative log-likelihood summed
- * over the OBSERVED pixels only (pad: the frame block of the grid).
+ * over the OBSERVED pixels only (the frame block of the grid but its NaN,
+ * missing pixels: s->obs, src/observed.h).
  *
  * Moves per iteration:
  *   1. field: pcn  u' = sqrt(1-beta^2) u + beta xi,  xi ~ N(0, (delta Q)^-1),
@@ -191,22 +192,35 @@ PP_VECTOR_CLONES static double poisson_row(const double *restrict a, const doubl
     return pp_lanes_total(acc);
 }
 
-/* Phi = negative log-likelihood of the mean image ax (grid) over the frame
- * block; *ss receives ||ax - y||^2 (gaussian). INFINITY when not defined. */
+/* Phi = negative log-likelihood of the mean image ax (grid) over the
+ * observed pixels; *ss receives ||ax - y||^2 (gaussian). INFINITY when not
+ * defined. A row's Poisson sum goes by its runs of observed pixels (one run,
+ * the whole row, when none is missing). */
 static double phi_of(const pp_sampler *s, const pcn_shared *sh, const double *ax, double scale,
                      double add, double lambda, double *ss)
 {
     double acc = 0;
     if (!sh->gauss) {
         int bad = 0;
-        for (size_t r = 0; r < s->height && !bad; r++)
-            acc += poisson_row(ax + r * s->gw, sh->data + r * s->gw, s->width, scale,
-                               add + sh->shift, sh->logx, &bad);
+        for (size_t r = 0; r < s->height && !bad; r++) {
+            const unsigned char *ob = s->obs + r * s->gw;
+            for (size_t c0 = 0, c1; c0 < s->width; c0 = c1) {
+                for (; c0 < s->width && !ob[c0]; c0++)
+                    ;
+                for (c1 = c0; c1 < s->width && ob[c1]; c1++)
+                    ;
+                if (c1 > c0)
+                    acc += poisson_row(ax + r * s->gw + c0, sh->data + r * s->gw + c0, c1 - c0,
+                                       scale, add + sh->shift, sh->logx, &bad);
+            }
+        }
         return bad || !isfinite(acc) ? INFINITY : acc;
     }
     for (size_t r = 0; r < s->height; r++) {
         const double *a = ax + r * s->gw, *d = sh->data + r * s->gw;
         for (size_t c = 0; c < s->width; c++) {
+            if (!s->obs[r * s->gw + c])
+                continue;
             double e = scale * a[c] + add - d[c];
             acc += e * e;
         }
@@ -221,7 +235,7 @@ static double phi_of(const pp_sampler *s, const pcn_shared *sh, const double *ax
 static double loglik_of(const pp_sampler *s, const pcn_shared *sh, const pp_chain *c,
                         const pcn_chain *k)
 {
-    double nobs = (double)s->height * (double)s->width;
+    double nobs = (double)s->nobs;
     if (sh->gauss)
         return 0.5 * nobs * log(c->lambda / (2 * PP_PI)) - k->phi;
     return sh->lgam - k->phi;
@@ -538,6 +552,8 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
     for (size_t row = 0; row < s->height; row++)
         for (size_t col = 0; col < s->width; col++) {
             size_t i = row * s->gw + col;
+            if (!s->obs[i])
+                continue;
             if (sh->gauss) {
                 r[i] = c->lambda * (ax[i] - sh->data[i]);
                 continue;
@@ -784,7 +800,7 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
     const pcn_shared *sh = s->kshared;
     pcn_chain *k = c->kwork;
     const int fix_d = cfg->prior.delta_set, fix_l = !sh->gauss || cfg->noise.sigma_set;
-    const double nobs = (double)s->height * (double)s->width;
+    const double nobs = (double)s->nobs;
     if (c->t == 0)
         start(s, sh, c, k);
     if (!isfinite(k->phi))
@@ -898,11 +914,13 @@ static pp_status plan_likelihood(pp_sampler *s, pcn_shared *sh)
     }
     for (size_t r = 0; r < s->height; r++)
         for (size_t c = 0; c < s->width; c++) {
+            if (!s->obs[r * s->gw + c])
+                continue;
             double v = sh->data[r * s->gw + c];
             sum += v;
             lg -= sh->gauss ? 0.0 : lgamma(v + 1.0);
         }
-    double nobs = (double)s->height * (double)s->width;
+    double nobs = (double)s->nobs;
     sh->shift = b + r2;
     sh->lgam = lg;
     double x0 = fmax(sum / nobs - sh->shift, 1e-3 * (sum / nobs) + 1e-9);

@@ -185,9 +185,24 @@ static void determinism_and_refusals(void)
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG, "level 1 refused");
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0; /* exactly burn + iters */
+    /* NaN = unobserved (sampler.h): accepted; an infinite pixel and a frame
+     * with too few observed pixels are refused with the counts. */
     y->data[5] = NAN;
-    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_NUMERIC && strstr(pp_error_message(), "NaN"),
-          "NaN frame refused: %s", pp_error_message());
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_OK, "a NaN pixel is accepted (unobserved): %s",
+          pp_error_message());
+    pp_sampler_free(s);
+    y->data[5] = INFINITY;
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_NUMERIC &&
+              strstr(pp_error_message(), "1 infinite pixels"),
+          "infinite pixel refused: %s", pp_error_message());
+    size_t npix = y->width * y->height;
+    for (size_t i = 0; i < npix; i++)
+        y->data[i] = NAN;
+    y->data[0] = 1.0;
+    char want[64];
+    snprintf(want, sizeof want, "only 1 of the frame's %zu pixels are observed", npix);
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG && strstr(pp_error_message(), want),
+          "a frame with 1 observed pixel refused: %s", pp_error_message());
     pp_image *tiny = test_frame(5, 5);
     CHECK(pp_sampler_create(&cfg, tiny, psf, &s) != PP_OK, "PSF larger than the frame refused");
     pp_image_free(tiny);

@@ -28,6 +28,12 @@ typedef struct pp_run_info {
     const char *fft_plans;  /* summary's "fft_plans" (how the plans were made and
                              * kept); NULL: "estimated", "measured" or
                              * "measured, from wisdom", from the sampler */
+    /* The frame's unobserved pixels (summary.json "missing_data", one line of
+     * the report): how many the caller masked and found saturated (at
+     * saturation_level by saturation_rule, a pp_sat_rule), so NaN. */
+    size_t masked, saturated;
+    double saturation_level;
+    int saturation_rule;
 } pp_run_info;
 
 /* Writes s (NULL: "") to f as a JSON string literal: quotes, with '"' and

@@ -135,7 +135,18 @@ void pp_sampler_defaults(pp_sampler_config *cfg);
 
 typedef struct pp_sampler pp_sampler;
 
-/* frame and psf are copied; the caller keeps ownership of both. */
+/* frame and psf are copied; the caller keeps ownership of both.
+ * Missing data: a frame pixel that is NaN is UNOBSERVED (a masked or
+ * saturated pixel; pp_saturation_find marks the latter). It is left out of
+ * the likelihood and treated like the padding of --boundary pad (redrawn
+ * each iteration from N(Ax, 1/lambda) by gibbs, mtc, and the adaptive
+ * prior's gibbs, whatever the boundary; skipped by pcn, gpcn and hmc). The
+ * estimates (mean, sd, lo, hi) still cover it: they are the posterior there,
+ * wider than at observed pixels. With NaN pixels, kind AUTO picks gibbs
+ * (not mtc) and mtc runs the gibbs chain (with a warning). Refused:
+ * an infinite pixel (PP_ERR_NUMERIC), and fewer observed pixels than 1 %
+ * of the frame or 2 (PP_ERR_ARG: the message gives the counts). A frame
+ * without NaN gives the same bytes as before this rule. */
 pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
                             const pp_image *psf, pp_sampler **out);
 pp_status pp_sampler_run(pp_sampler *s);
@@ -191,6 +202,8 @@ const pp_image *pp_sampler_mean(const pp_sampler *s);
 const pp_image *pp_sampler_sd(const pp_sampler *s);
 const pp_image *pp_sampler_lo(const pp_sampler *s);
 const pp_image *pp_sampler_hi(const pp_sampler *s);
+/* Frame pixels that were observed (finite) and unobserved (NaN). */
+void pp_sampler_observed(const pp_sampler *s, size_t *observed, size_t *missing);
 
 /* Scalar traces: values[(chain * kept + i) * ncols + col]. */
 typedef struct pp_trace {

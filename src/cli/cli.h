@@ -161,6 +161,8 @@ typedef struct cli_sample_opts {
     cli_progress progress;  /* --progress (AUTO: bar on a terminal, else none) */
     int strict;             /* --strict */
     int overwrite;          /* --overwrite */
+    const char *mask;       /* --mask FILE (nonzero = unobserved) or NULL */
+    int keep_saturated;     /* --keep-saturated: saturated pixels stay data */
 } cli_sample_opts;
 
 /* The sample options table (NULL-terminated). */
@@ -220,12 +222,23 @@ typedef struct cli_frame_run {
     pp_read_info info;
     int interrupted;     /* stopped by the stop flag: nothing was written */
     char message[1024];  /* the failure, one sentence naming the file */
+    size_t masked;       /* pixels --mask made unobserved */
+    pp_saturation sat;   /* the saturated pixels found (rule NONE with --keep-saturated) */
 } cli_frame_run;
 
 /* Samples r->frame into r->outdir (DESIGN.md section 6 outputs). Returns 0,
  * or CLI_EXIT_USAGE with r->message set (nothing printed). o is not
  * modified. */
 int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r);
+/* Marks the unobserved pixels of a frame just read (unobserved.c): NaN
+ * where o->mask is nonzero, then at the saturated pixels
+ * (pp_saturation_find) unless o->keep_saturated; counts in r->masked and
+ * r->sat. Returns 0, or CLI_EXIT_USAGE with r->message naming --mask's file
+ * (unreadable, colour, not the frame's size). */
+int cli_mark_unobserved(const cli_sample_opts *o, cli_frame_run *r, pp_image *frame);
+/* One line on the unobserved pixels of a run (masked and saturated, the
+ * share of the frame), into buf; "" when none. */
+void cli_unobserved_line(const cli_frame_run *r, size_t npix, char *buf, size_t len);
 /* mkdir -p; 0 or CLI_EXIT_USAGE with the reason in msg. */
 int cli_make_dirs(const char *path, char *msg, size_t len);
 /* The SIGINT/SIGTERM stop flag (holds the signal number once one came). */

@@ -21,6 +21,7 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 static const cli_opt batch_table[] = {
@@ -146,6 +147,13 @@ static void settings_text(const cli_args *a, const cli_sample_opts *o, char *buf
         if (!skip)
             used +=
                 (size_t)snprintf(buf + used, len - used, "--%s=%s\n", t->name, cli_str(a, t->name));
+    }
+    if (o->mask && used < len) { /* a mask edited in place changes every frame's result */
+        struct stat sb;
+        memset(&sb, 0, sizeof sb);
+        stat(o->mask, &sb);
+        snprintf(buf + used, len - used, "mask %llu %lld.%09ld\n", (unsigned long long)sb.st_size,
+                 (long long)sb.st_mtim.tv_sec, (long)sb.st_mtim.tv_nsec);
     }
 }
 

@@ -1,5 +1,6 @@
 /* pixpost command line — sample one frame into a folder: read the frame (a
- * chosen page), make the PSF, create and run the sampler (with an optional
+ * chosen page), mark its masked and saturated pixels unobserved (NaN;
+ * unobserved.c), make the PSF, create and run the sampler (with an optional
  * progress display and a stop flag), write the outputs with pp_output_write.
  * Used by `pixpost sample` (one frame) and by `pixpost batch` (each frame, in
  * a worker process). Errors are returned as one sentence in r->message, not
@@ -162,8 +163,16 @@ static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **fra
     if (r->info.pages > 1 && r->announce_pages)
         fprintf(stderr, "pixpost: %s: %u pages; using page %u\n", r->frame, r->info.pages, r->page);
     if (r->info.nonfinite)
-        return fail_msg(r, "%s: %zu pixels are NaN or infinite; mask or repair them first",
+        return fail_msg(r, "%s: %zu pixels are NaN or infinite; repair them, or mark them "
+                           "with --mask FILE (nonzero = ignore) after setting them to a number",
                         r->frame, r->info.nonfinite);
+    int rc = cli_mark_unobserved(o, r, *frame);
+    if (rc)
+        return rc;
+    char line[512];
+    cli_unobserved_line(r, (*frame)->width * (*frame)->height, line, sizeof line);
+    if (line[0] && r->announce_pages && !o->quiet)
+        fprintf(stderr, "pixpost: %s: note: %s\n", r->frame, line);
     return 0;
 }
 
@@ -209,7 +218,8 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     if (st != PP_OK)
         return fail_frame(r, st);
     pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,    o->prior_text,
-                      r->command_line, cli_since(&r->t0), plans->summary};
+                      r->command_line, cli_since(&r->t0), plans->summary,
+                      r->masked,     r->sat.count,    r->sat.level,     r->sat.rule};
     if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
         return fail_lib(r, st);
     return 0;

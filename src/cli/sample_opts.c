@@ -81,6 +81,15 @@ static const cli_opt sample_table[] = {
     {"channel", 0, 1, "r|g|b|luma",
      "Channel to take from a colour image (colour input is refused without it)."},
     {"max-pixels", 0, 1, "N", "Refuse frames with more than N pixels (whole number >= 1)."},
+    {"mask", 0, 1, "FILE",
+     "Pixels to ignore: a grayscale PNG or TIFF of the frame's size where NONZERO marks a "
+     "pixel that is not data (a hot pixel, a scratch, a saturated nucleus) and zero a pixel "
+     "that is. Ignored pixels are unobserved: left out of the likelihood, still estimated "
+     "(from their neighbours, with wider bounds)."},
+    {"keep-saturated", 0, 0, "",
+     "Use saturated pixels as data. Without it, pixels at the format's maximum (255 for "
+     "8-bit, 65535 for 16-bit integer input) or on a flat top of the histogram (README, "
+     "\"Saturated pixels\") are unobserved, and their count is reported."},
     {"wisdom", 0, 1, "FILE",
      "FFTW wisdom file used instead of the plan cache: loaded if present, saved after new "
      "plans were measured."},
@@ -157,8 +166,10 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
     else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0 ||
              strcmp(name, "overwrite") == 0)
         snprintf(buf, len, "off");
-    else if (strcmp(name, "no-plan-cache") == 0)
+    else if (strcmp(name, "no-plan-cache") == 0 || strcmp(name, "keep-saturated") == 0)
         snprintf(buf, len, "off");
+    else if (strcmp(name, "mask") == 0)
+        snprintf(buf, len, "none");
 }
 
 /* Runs a library parser on an option's value; prints its message on failure. */
@@ -278,8 +289,12 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
     o->overwrite = cli_given(a, "overwrite");
     o->wisdom = cli_str(a, "wisdom");
     o->no_plan_cache = cli_given(a, "no-plan-cache");
+    o->mask = cli_str(a, "mask");
+    o->keep_saturated = cli_given(a, "keep-saturated");
     if (o->wisdom && !o->wisdom[0])
         return cli_opt_error("wisdom", "empty file name (expected --wisdom FILE)");
+    if (o->mask && !o->mask[0])
+        return cli_opt_error("mask", "empty file name (expected --mask FILE)");
     /* MEASURE plans unless turned off; cli_plans_load may still fall back
      * to ESTIMATE for one run when the cache cannot be read */
     o->cfg.fft_effort = o->wisdom || !o->no_plan_cache ? PP_FFT_MEASURE : PP_FFT_ESTIMATE;

@@ -1,0 +1,89 @@
+/* pixpost command line — the pixels of a frame that are not data: --mask
+ * FILE (nonzero = ignore the pixel) and the saturated pixels the library
+ * finds (pixpost/saturation.h). Both become NaN, which the sampler treats as
+ * unobserved (pixpost/sampler.h, pp_sampler_create). Cost: one read of the
+ * mask and a few passes over the frame. */
+#include "cli.h"
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+static int mask_fail(cli_frame_run *r, const char *fmt, const char *a, const char *b)
+{
+    snprintf(r->message, sizeof r->message, fmt, a, b);
+    return CLI_EXIT_USAGE;
+}
+
+/* NaN where the mask is nonzero (NaN in a float mask counts as nonzero). */
+static int apply_mask(const char *path, cli_frame_run *r, pp_image *frame)
+{
+    pp_read_options ro;
+    pp_read_options_defaults(&ro);
+    pp_image *m = NULL;
+    pp_status st = pp_image_read(path, &ro, &m, NULL);
+    if (st == PP_ERR_UNSUPPORTED && strstr(pp_error_message(), "colour"))
+        return mask_fail(r,
+                         "--mask %s: a colour image; save the mask as a one-channel "
+                         "(grayscale) PNG or TIFF, nonzero = ignore the pixel%s",
+                         path, "");
+    if (st != PP_OK)
+        return mask_fail(r,
+                         "--mask %s: cannot be read (%s); give a grayscale PNG or TIFF of "
+                         "the frame's size, nonzero = ignore the pixel",
+                         path, pp_error_message());
+    if (m->width != frame->width || m->height != frame->height) {
+        char dims[128];
+        snprintf(dims, sizeof dims, "%zux%zu pixels but the frame %s is %zux%zu", m->width,
+                 m->height, r->frame, frame->width, frame->height);
+        pp_image_free(m);
+        return mask_fail(r, "--mask %s: %s; give a mask of the frame's size (width x height)", path,
+                         dims);
+    }
+    size_t n = 0;
+    for (size_t i = 0; i < m->width * m->height; i++)
+        if (m->data[i] != 0) {
+            n += !isnan(frame->data[i]);
+            frame->data[i] = NAN;
+        }
+    pp_image_free(m);
+    r->masked = n;
+    return 0;
+}
+
+int cli_mark_unobserved(const cli_sample_opts *o, cli_frame_run *r, pp_image *frame)
+{
+    r->masked = 0;
+    r->sat = (pp_saturation){PP_SAT_NONE, 0, 0, 0};
+    if (o->mask) {
+        int rc = apply_mask(o->mask, r, frame);
+        if (rc)
+            return rc;
+    }
+    if (!o->keep_saturated) {
+        pp_saturation_find(frame, r->info.bits, r->info.is_float, &r->sat);
+        pp_saturation_mark(frame, &r->sat);
+    }
+    return 0;
+}
+
+void cli_unobserved_line(const cli_frame_run *r, size_t npix, char *buf, size_t len)
+{
+    buf[0] = '\0';
+    size_t used = 0;
+    double pc = 100.0 / (double)(npix ? npix : 1);
+    if (r->sat.count) {
+        char why[96];
+        if (r->sat.rule == PP_SAT_FORMAT_MAX)
+            snprintf(why, sizeof why, "the %u-bit format's maximum", r->info.bits);
+        else
+            snprintf(why, sizeof why, "a flat top of the histogram");
+        used += (size_t)snprintf(buf, len,
+                                 "%zu pixels (%.1f %%) are saturated at %.10g (%s); they are "
+                                 "treated as unobserved (--keep-saturated to use them as data)",
+                                 r->sat.count, pc * (double)r->sat.count, r->sat.level, why);
+    }
+    if (r->masked && used < len)
+        snprintf(buf + used, len - used, "%s%zu pixels (%.1f %%) are masked (--mask)%s",
+                 used ? "; " : "", r->masked, pc * (double)r->masked,
+                 used ? "" : "; they are treated as unobserved");
+}

@@ -1,0 +1,56 @@
+/* pixpost — the observed pixels of a sampler's grid (see observed.h). */
+#include "observed.h"
+
+#include "internal.h"
+#include <math.h>
+#include <stdlib.h>
+
+size_t pp_observed_min(size_t n)
+{
+    size_t m = (n + 99) / 100;
+    return m < 2 ? 2 : m;
+}
+
+double pp_observed_mean(const pp_image *frame)
+{
+    double sum = 0;
+    size_t n = 0;
+    for (size_t i = 0; i < frame->height * frame->width; i++)
+        if (isfinite(frame->data[i])) {
+            sum += frame->data[i];
+            n++;
+        }
+    return n ? sum / (double)n : 0.0;
+}
+
+pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
+{
+    size_t inf = 0, nan = 0;
+    for (size_t i = 0; i < s->height * s->width; i++) {
+        double v = frame->data[i];
+        inf += isinf(v);
+        nan += isnan(v);
+    }
+    if (inf)
+        return pp_fail(PP_ERR_NUMERIC,
+                       "the frame has %zu infinite pixels; set them to NaN to mark them "
+                       "unobserved, or repair them",
+                       inf);
+    size_t n = s->height * s->width, need = pp_observed_min(n);
+    if (n - nan < need)
+        return pp_fail(
+            PP_ERR_ARG,
+            "only %zu of the frame's %zu pixels are observed (not NaN: masked or "
+            "saturated pixels are unobserved); at least %zu are needed: mask fewer pixels (or use "
+            "saturated ones as data, --keep-saturated)",
+            n - nan, n, need);
+    if (!(s->obs = calloc(s->gn, 1)))
+        return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
+    for (size_t r = 0; r < s->height; r++)
+        for (size_t c = 0; c < s->width; c++)
+            s->obs[r * s->gw + c] = !isnan(frame->data[r * s->width + c]);
+    s->nobs = n - nan;
+    s->nmissing = nan;
+    s->augment = s->cfg.boundary == PP_BOUNDARY_PAD || nan > 0;
+    return PP_OK;
+}

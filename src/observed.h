@@ -1,0 +1,36 @@
+/* pixpost — the observed pixels of a sampler's grid (internal).
+ *
+ * A frame pixel whose value is NaN is unobserved (missing data: a --mask,
+ * a saturated pixel); so are the padding pixels of --boundary pad. Both are
+ * latent in the samplers: the Gibbs family redraws them each iteration from
+ * N(Ax, 1/lambda) (data augmentation), the pCN family leaves them out of
+ * the likelihood. One byte per grid pixel says which pixels are observed;
+ * loops that visit the latent pixels run over the whole grid in row-major
+ * order and skip the observed ones, which visits the padding in the order
+ * the padding-only loops did (so a frame without NaN gives the same bytes).
+ * Cost: one grid pass at planning; 1 byte per grid pixel. */
+#ifndef PIXPOST_OBSERVED_H
+#define PIXPOST_OBSERVED_H
+
+#include "pixpost/image.h"
+#include "pixpost/status.h"
+
+struct pp_sampler;
+
+/* Builds s->obs (s->gn bytes, 1 = observed), s->nobs, s->nmissing and
+ * s->augment (pad, or missing frame pixels) for frame (s->height x
+ * s->width) on the planned grid (s->gh x s->gw). Refuses (PP_ERR_NUMERIC)
+ * an infinite pixel, and (PP_ERR_ARG) a frame with fewer observed pixels
+ * than pp_observed_min of its size. On failure s->obs may be allocated
+ * (pp_sampler_free frees it). */
+pp_status pp_observed_plan(struct pp_sampler *s, const pp_image *frame);
+
+/* The least number of observed pixels accepted for a frame of n pixels:
+ * 1 % of them and at least 2 (our own rule: below it the estimates would be
+ * the prior's alone and the noise level is not identified). */
+size_t pp_observed_min(size_t n);
+
+/* The mean of the finite values of frame (0 if none). */
+double pp_observed_mean(const pp_image *frame);
+
+#endif
