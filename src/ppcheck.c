@@ -203,18 +203,55 @@ static int significant(double x, double x0, double sd)
     return fabs(x - x0) > 4 * sd;
 }
 
+/* The structure warning (first, as a wrong PSF also inflates the other
+ * figures); returns 1 when it fired. */
+static int judge_structure(pp_ppcheck *p)
+{
+    double n = (double)p->used;
+    double lag = fmax(p->lag1_row, p->lag1_col);
+    int lag_hit = lag > PP_PPCHECK_LAG1 && significant(lag, 0.0, 1 / sqrt(n));
+    int curv_hit = fabs(p->curvature) > PP_PPCHECK_CURV &&
+                   significant(p->curvature, 0.0, 1 / sqrt(n));
+    /* a share of the band's frequencies, white: its sd is about the ratio
+     * times sqrt(2 / (frequencies in the band)) ~ sqrt(2 / (n band_white)) */
+    int band_hit = p->band_ratio > PP_PPCHECK_BAND &&
+                   significant(p->band_ratio, 1.0, sqrt(2.0 / (n * p->band_white)));
+    if (!(lag_hit || band_hit || curv_hit))
+        return 0;
+    char t[640];
+    snprintf(t, sizeof t,
+             "predictive check: residuals structured at the PSF's scale (correlation "
+             "with the fitted image's curvature %+.2f, flagged beyond +-%.2g; lag-1 "
+             "correlation %.2f along rows, %.2f down columns, flagged above %.2g; power "
+             "in the PSF's band %.2fx white noise's, flagged above %.2g): %s (check --psf "
+             "against a bead image)",
+             p->curvature, PP_PPCHECK_CURV, p->lag1_row, p->lag1_col, PP_PPCHECK_LAG1,
+             p->band_ratio, PP_PPCHECK_BAND,
+             p->curvature < 0 ? "the data are smoother than the fit: the PSF may be too "
+                                "narrow"
+                              : "the data are sharper than the model can make them: the "
+                                "PSF may be too wide (or the specimen has detail the "
+                                "prior smooths away)");
+    warn(p, t);
+    return 1;
+}
+
 static void judge(const pp_ppcheck_input *in, pp_ppcheck *p)
 {
     double n = (double)p->used;
     char t[640];
+    const char *also = judge_structure(p) ? "; or a consequence of the structure above (a "
+                                            "wrong PSF leaves large residuals at bright "
+                                            "detail): fix that first"
+                                          : "";
     if ((p->var > PP_PPCHECK_VAR_HI || p->var < PP_PPCHECK_VAR_LO) &&
         significant(p->var, 1.0, sqrt(2.0 / n))) {
         int high = p->var > 1;
         snprintf(t, sizeof t,
                  "predictive check: residual variance %.2fx predicted (1 expected; flagged "
-                 "%s %.2g): %s",
+                 "%s %.2g): %s%s",
                  p->var, high ? "above" : "below", high ? PP_PPCHECK_VAR_HI : PP_PPCHECK_VAR_LO,
-                 var_cause(&in->noise, high));
+                 var_cause(&in->noise, high), high ? also : "");
         warn(p, t);
     }
     if (fabs(p->mean) > PP_PPCHECK_MEAN && significant(p->mean, 0.0, 1 / sqrt(n))) {
@@ -222,10 +259,7 @@ static void judge(const pp_ppcheck_input *in, pp_ppcheck *p)
                  "predictive check: mean residual %+.2f sd (0 expected; flagged beyond "
                  "+-%.2g): the model is systematically %s the data: the offset or the "
                  "background may be wrong%s",
-                 p->mean, PP_PPCHECK_MEAN, p->mean > 0 ? "below" : "above",
-                 in->noise.kind == PP_NOISE_GAUSSIAN ? " (or the intensities hit a positivity "
-                                                       "limit)"
-                                                     : "");
+                 p->mean, PP_PPCHECK_MEAN, p->mean > 0 ? "below" : "above", also);
         warn(p, t);
     }
     double p3 = 0.0027; /* P(|N(0,1)| > 3) */
@@ -235,32 +269,8 @@ static void judge(const pp_ppcheck_input *in, pp_ppcheck *p)
                  "predictive check: %.2f %% of the residuals lie beyond +-3 sd (0.27 %% "
                  "expected; flagged above %.2g %%): outliers (hot or saturated pixels, "
                  "cosmic rays, dust) or noise with heavier tails than the model's; mask "
-                 "such pixels",
-                 100 * p->beyond3, 100 * PP_PPCHECK_BEYOND3);
-        warn(p, t);
-    }
-    double lag = fmax(p->lag1_row, p->lag1_col);
-    int lag_hit = lag > PP_PPCHECK_LAG1 && significant(lag, 0.0, 1 / sqrt(n));
-    int curv_hit = fabs(p->curvature) > PP_PPCHECK_CURV &&
-                   significant(p->curvature, 0.0, 1 / sqrt(n));
-    /* a share of the band's frequencies, white: its sd is about the ratio
-     * times sqrt(2 / (frequencies in the band)) ~ sqrt(2 / (n band_white)) */
-    int band_hit = p->band_ratio > PP_PPCHECK_BAND &&
-                   significant(p->band_ratio, 1.0, sqrt(2.0 / (n * p->band_white)));
-    if (lag_hit || band_hit || curv_hit) {
-        snprintf(t, sizeof t,
-                 "predictive check: residuals structured at the PSF's scale (correlation "
-                 "with the fitted image's curvature %+.2f, flagged beyond +-%.2g; lag-1 "
-                 "correlation %.2f along rows, %.2f down columns, flagged above %.2g; power "
-                 "in the PSF's band %.2fx white noise's, flagged above %.2g): %s (check --psf "
-                 "against a bead image)",
-                 p->curvature, PP_PPCHECK_CURV, p->lag1_row, p->lag1_col, PP_PPCHECK_LAG1,
-                 p->band_ratio, PP_PPCHECK_BAND,
-                 p->curvature < 0 ? "the data are smoother than the fit: the PSF may be too "
-                                    "narrow"
-                                  : "the data are sharper than the model can make them: the "
-                                    "PSF may be too wide (or the specimen has detail the "
-                                    "prior smooths away)");
+                 "such pixels%s",
+                 100 * p->beyond3, 100 * PP_PPCHECK_BEYOND3, also);
         warn(p, t);
     }
 }
