@@ -97,10 +97,12 @@ static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double 
             "--noise %s%s",
             imposs, 100 * d->share_impossible, v[0], low, o, s, m,
             err ? "; the frame is not in raw camera units (background-subtracted, "
-                  "normalised or negative values) or the offset is wrong: give the "
-                  "camera's real offset and gain in --noise, or use --noise gaussian for "
-                  "processed data"
-                : "; they look like cold or defect pixels: mask them, or check the offset");
+                  "normalised or negative values), or the offset is too high, or the gain "
+                  "or read noise too small (an inverted gain: data sheets print electrons "
+                  "per ADU, give that as e_per_adu=): give the camera's real offset, gain "
+                  "and read noise in --noise, or use --noise gaussian for processed data"
+                : "; they look like cold or defect pixels: mask them, or check the offset, "
+                  "gain and read noise");
     }
     double far = fmax(10 * s, 10 * g);
     if (d->q01 > o + far)

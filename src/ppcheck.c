@@ -51,8 +51,8 @@ static double curvature(const pp_image *ax, size_t i, size_t j)
 
 /* Fills p->residual with r (NaN where left out: non-finite y, and the
  * border band of the kernel's radius with pad) from ax = A x-bar, and
- * p->curvature with the correlation of r with the standardised curvature
- * -Laplacian(A x-bar) / sqrt(Var). */
+ * p->curvature with the correlation of y - E[y] with the curvature
+ * -Laplacian(A x-bar). */
 static void residuals(const pp_ppcheck_input *in, const pp_image *ax, pp_ppcheck *p)
 {
     double sc = 0, sr = 0, scc = 0, srr = 0, src = 0, cnt = 0;
@@ -76,13 +76,13 @@ static void residuals(const pp_ppcheck_input *in, const pp_image *ax, pp_ppcheck
                 } else {
                     r = (y - ax->data[k]) / sd;
                 }
-                double c = (photons ? g : 1.0) * curvature(ax, i, j) / sd;
+                double c = curvature(ax, i, j), e = r * sd; /* e: y - E[y], unscaled */
                 cnt++;
-                sr += r;
+                sr += e;
                 sc += c;
-                srr += r * r;
+                srr += e * e;
                 scc += c * c;
-                src += r * c;
+                src += e * c;
             }
             p->residual->data[k] = r;
         }
@@ -229,9 +229,12 @@ static int judge_structure(pp_ppcheck *p)
              p->band_ratio, PP_PPCHECK_BAND,
              p->curvature < 0 ? "the data are smoother than the fit: the PSF may be too "
                                 "narrow"
-                              : "the data are sharper than the model can make them: the "
-                                "PSF may be too wide (or the specimen has detail the "
-                                "prior smooths away)");
+             : p->var < PP_PPCHECK_VAR_LO
+                 ? "the data are sharper than the fit, with less noise than predicted (below): "
+                   "the offset may be too low or the background too high (the fit bends to "
+                   "absorb them), or the PSF too wide"
+                 : "the data are sharper than the model can make them: the PSF may be too "
+                   "wide (or the specimen has detail the prior smooths away)");
     warn(p, t);
     return 1;
 }

@@ -58,7 +58,7 @@ typedef enum pp_check_severity { PP_CHECK_WARNING = 1, PP_CHECK_ERROR = 2 } pp_c
 typedef struct pp_check_finding {
     pp_check_severity severity;
     const char *check; /* static text */
-    char text[480];
+    char text[640];
 } pp_check_finding;
 
 #define PP_DATACHECK_MAX 8

@@ -21,10 +21,11 @@
  * the PSF's band (frequencies where the transfer function |A(k)| is between
  * 0.1 and 0.9) as a share of its power over all frequencies but 0, divided
  * by that share for white noise (1 for white residuals); and the
- * correlation of r with the fitted image's curvature at the PSF's scale,
- * -Laplacian(A x-bar) (5 points) divided by sqrt(Var): positive when the
- * data are sharper than the model can make them (a PSF too wide), negative
- * when smoother.
+ * correlation of the unscaled residual y - E[y] with the fitted image's
+ * curvature at the PSF's scale, -Laplacian(A x-bar) (5 points): positive
+ * when the data are sharper than the model can make them (a PSF too wide;
+ * an offset too low also gives some, which is why the warning names the
+ * offset when the variance is low too), negative when smoother.
  *
  * Using x-bar rather than draws of x makes the residuals slightly smaller
  * and anti-correlated: the fit absorbs part of the noise (about p/N of the
@@ -60,7 +61,7 @@
 #define PP_PPCHECK_BEYOND3 0.01
 #define PP_PPCHECK_LAG1 0.15
 #define PP_PPCHECK_BAND 1.5
-#define PP_PPCHECK_CURV 0.15
+#define PP_PPCHECK_CURV 0.2
 #define PP_PPCHECK_OTF_LO 0.1
 #define PP_PPCHECK_OTF_HI 0.9
 
@@ -83,7 +84,7 @@ typedef struct pp_ppcheck {
     double mean, var, beyond3, lag1_row, lag1_col;
     double band_ratio;    /* PSF-band power share / white noise's (NaN: empty band) */
     double band_white;    /* white noise's share of the band */
-    double curvature;     /* correlation of r with -Laplacian(A x-bar) / sqrt(Var) */
+    double curvature;     /* correlation of y - E[y] with -Laplacian(A x-bar) */
     int quantised;        /* q = 1/12 was added */
     size_t nwarnings;
     char warning[PP_PPCHECK_MAX_WARNINGS][640];
