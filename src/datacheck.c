@@ -121,16 +121,16 @@ static void size_checks(pp_datacheck *d, const pp_image *frame, const pp_image *
     size_t h = frame->height, w = frame->width, kh = psf->height, kw = psf->width;
     if (h < kh || w < kw) {
         add(d, PP_CHECK_ERROR, "psf_size",
-            "the frame (%zu x %zu pixels) is smaller than the PSF kernel (%zu x %zu): the "
-            "kernel must fit in the frame; use a larger frame (at least %zu x %zu, better "
+            "the frame (%zux%zu pixels) is smaller than the PSF kernel (%zux%zu): the "
+            "kernel must fit in the frame; use a larger frame (at least %zux%zu, better "
             "twice that) or check the --psf units (sigma in pixels; airy pixel= in um)",
             w, h, kw, kh, kw, kh);
     } else if (h < 2 * kh || w < 2 * kw) {
         add(d, PP_CHECK_WARNING, "psf_size",
-            "the frame (%zu x %zu pixels) is less than twice the PSF kernel (%zu x %zu) "
+            "the frame (%zux%zu pixels) is less than twice the PSF kernel (%zux%zu) "
             "across: most pixels lie within the PSF's reach of an edge, where %s, so the "
             "estimate and its bounds rest largely on the prior; use a frame of at least "
-            "%zu x %zu",
+            "%zux%zu",
             w, h, kw, kh,
             b == PP_BOUNDARY_PAD ? "the scene outside the frame is unknown (--boundary pad)"
                                  : "the frame is assumed to wrap around (--boundary periodic)",

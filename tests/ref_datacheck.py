@@ -111,14 +111,14 @@ small = P("small10.tif")
 tifffile.imwrite(small, (100 + 2 * np.random.default_rng(3).poisson(5, (10, 10))).astype(np.float32))
 p = sample(small, P("out_small"), CAMERA)
 err = p.stderr.strip()
-pptest.check(p.returncode == 1 and small in err and "smaller than the PSF kernel (13 x 13)" in err,
+pptest.check(p.returncode == 1 and small in err and "smaller than the PSF kernel (13x13)" in err,
              "10 x 10 frame: exit 1, 'smaller than the PSF kernel': %s" % err[:160])
 pptest.check(not os.path.exists(P("out_small")), "10 x 10: nothing written")
 mid = P("mid20.tif")
 tifffile.imwrite(mid, (100 + 2 * np.random.default_rng(4).poisson(20, (20, 20))).astype(np.float32))
 p = sample(mid, P("out_mid"), CAMERA, ["--sampler", "pcn"])
-pptest.check(p.returncode == 0 and "warning: data check: the frame (20 x 20 pixels) is less than "
-             "twice the PSF kernel (13 x 13)" in p.stderr, "20 x 20 frame: a warning, exit 0")
+pptest.check(p.returncode == 0 and "warning: data check: the frame (20x20 pixels) is less than "
+             "twice the PSF kernel (13x13)" in p.stderr, "20 x 20 frame: a warning, exit 0")
 with open(P("out_mid/summary.json")) as f:
     dc = json.load(f)["data_checks"]
 pptest.check(dc["warnings"] == 1 and dc["findings"][0]["check"] == "psf_size" and
