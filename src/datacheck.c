@@ -2,13 +2,13 @@
  * (include/pixpost/datacheck.h states every rule and its threshold).
  * Workload: one frame per run, before the sampler is made. Cost: one copy
  * of the finite pixels and one qsort; the rest is a pass or two. */
+#include "pixpost/datacheck.h"
+#include "internal.h"
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include "internal.h"
-#include "pixpost/datacheck.h"
 
 static int cmp_double(const void *a, const void *b)
 {
@@ -87,8 +87,7 @@ static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double 
             "plus read noise of %.3g ADU sd): the offset is too high. The darkest 1 %% of "
             "the frame (%.6g ADU) point to an offset of about %.0f: give offset=%.0f in "
             "--noise (or measure it from dark frames)",
-            100 * d->share_below_offset, o, m, s, d->q01, d->offset_suggested,
-            d->offset_suggested);
+            100 * d->share_below_offset, o, m, s, d->q01, d->offset_suggested, d->offset_suggested);
     } else if (imposs) {
         int err = d->share_impossible > 0.01;
         add(d, err ? PP_CHECK_ERROR : PP_CHECK_WARNING, "impossible",
@@ -115,8 +114,7 @@ static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double 
 }
 
 /* psf_size (datacheck.h). */
-static void size_checks(pp_datacheck *d, const pp_image *frame, const pp_image *psf,
-                        pp_boundary b)
+static void size_checks(pp_datacheck *d, const pp_image *frame, const pp_image *psf, pp_boundary b)
 {
     size_t h = frame->height, w = frame->width, kh = psf->height, kw = psf->width;
     if (h < kh || w < kw) {
@@ -138,8 +136,8 @@ static void size_checks(pp_datacheck *d, const pp_image *frame, const pp_image *
     }
 }
 
-pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise,
-                           const pp_image *psf, pp_boundary b, pp_datacheck *out)
+pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, const pp_image *psf,
+                           pp_boundary b, pp_datacheck *out)
 {
     memset(out, 0, sizeof *out);
     out->dark_sd = out->share_below_offset = out->share_impossible = NAN;

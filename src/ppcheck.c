@@ -4,13 +4,13 @@
  * transforms on the frame's grid or its padded grid), one r2c of the
  * frame-sized residual and the PSF's transfer function (two r2c), and five
  * passes over the frame. */
+#include "pixpost/ppcheck.h"
+#include "internal.h"
+#include "pixpost/psf.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include "internal.h"
-#include "pixpost/ppcheck.h"
-#include "pixpost/psf.h"
 
 const char *pp_ppcheck_verdict(const pp_ppcheck *p)
 {
@@ -210,8 +210,8 @@ static int judge_structure(pp_ppcheck *p)
     double n = (double)p->used;
     double lag = fmax(p->lag1_row, p->lag1_col);
     int lag_hit = lag > PP_PPCHECK_LAG1 && significant(lag, 0.0, 1 / sqrt(n));
-    int curv_hit = fabs(p->curvature) > PP_PPCHECK_CURV &&
-                   significant(p->curvature, 0.0, 1 / sqrt(n));
+    int curv_hit =
+        fabs(p->curvature) > PP_PPCHECK_CURV && significant(p->curvature, 0.0, 1 / sqrt(n));
     /* a share of the band's frequencies, white: its sd is about the ratio
      * times sqrt(2 / (frequencies in the band)) ~ sqrt(2 / (n band_white)) */
     int band_hit = p->band_ratio > PP_PPCHECK_BAND &&
@@ -266,8 +266,7 @@ static void judge(const pp_ppcheck_input *in, pp_ppcheck *p)
         warn(p, t);
     }
     double p3 = 0.0027; /* P(|N(0,1)| > 3) */
-    if (p->beyond3 > PP_PPCHECK_BEYOND3 &&
-        significant(p->beyond3, p3, sqrt(p3 * (1 - p3) / n))) {
+    if (p->beyond3 > PP_PPCHECK_BEYOND3 && significant(p->beyond3, p3, sqrt(p3 * (1 - p3) / n))) {
         snprintf(t, sizeof t,
                  "predictive check: %.2f %% of the residuals lie beyond +-3 sd (0.27 %% "
                  "expected; flagged above %.2g %%): outliers (hot or saturated pixels, "
@@ -283,8 +282,9 @@ pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out)
     *out = NULL;
     const pp_image *y = in->frame, *m = in->mean;
     if (y->width != m->width || y->height != m->height)
-        return pp_fail(PP_ERR_ARG, "predictive check: the frame (%zux%zu) and the mean "
-                                   "(%zux%zu) differ in size",
+        return pp_fail(PP_ERR_ARG,
+                       "predictive check: the frame (%zux%zu) and the mean "
+                       "(%zux%zu) differ in size",
                        y->width, y->height, m->width, m->height);
     if (in->psf->width > y->width || in->psf->height > y->height)
         return pp_fail(PP_ERR_ARG, "predictive check: the PSF does not fit in the frame");
@@ -300,8 +300,9 @@ pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out)
         residuals(in, ax, p);
         moments(p);
         if (p->used < 16)
-            st = pp_fail(PP_ERR_ARG, "predictive check: only %zu pixels away from the edges "
-                                     "(16 needed)",
+            st = pp_fail(PP_ERR_ARG,
+                         "predictive check: only %zu pixels away from the edges "
+                         "(16 needed)",
                          p->used);
     }
     if (st == PP_OK)
@@ -339,9 +340,9 @@ pp_status pp_ppcheck_sampler(const pp_sampler *s, const pp_image *frame, const p
     if (!pp_sampler_mean(s))
         return pp_fail(PP_ERR_ARG, "predictive check: the sampler has not run");
     pp_ppcheck_input in = {frame, pp_sampler_mean(s), psf, c->boundary, c->noise,
-                           NAN, c->background};
-    in.lambda = c->noise.sigma_set ? 1.0 / (c->noise.sigma * c->noise.sigma)
-                                   : column_mean(t, "lambda");
+                           NAN,   c->background};
+    in.lambda =
+        c->noise.sigma_set ? 1.0 / (c->noise.sigma * c->noise.sigma) : column_mean(t, "lambda");
     pp_image *k = NULL;
     pp_status st = PP_OK;
     if (c->psf.width_auto) { /* the kernel at the posterior mean width */

@@ -51,8 +51,7 @@ static void test_datacheck(void)
         y->data[i] = NAN;
     CHECK(pp_datacheck_run(y, &cam, psf, PP_BOUNDARY_PAD, &d) == PP_OK && d.observed == 40 &&
               fabs(d.share_below_offset - 11.0 / 40) < 1e-12 && d.errors == 0,
-          "NaN skipped: 40 observed, share 11/40 (got %zu, %g)", d.observed,
-          d.share_below_offset);
+          "NaN skipped: 40 observed, share 11/40 (got %zu, %g)", d.observed, d.share_below_offset);
     y->data[99] = 50.0; /* one impossible pixel of 40: 2.5 % -> error */
     CHECK(pp_datacheck_run(y, &cam, psf, PP_BOUNDARY_PAD, &d) == PP_OK && d.errors == 1 &&
               strcmp(d.finding[0].check, "impossible") == 0,
@@ -108,8 +107,7 @@ static void test_ppcheck(void)
         CHECK(fabs(p->lag1_row + 1) < 1e-9 && fabs(p->lag1_col + 1) < 1e-9,
               "checkerboard: lag-1 %g, %g (-1)", p->lag1_row, p->lag1_col);
         CHECK(fabs(p->band_ratio) < 1e-9, "checkerboard: PSF-band power %g (0)", p->band_ratio);
-        CHECK(p->nwarnings == 0, "checkerboard of the stated sd: no warning (%zu)",
-              p->nwarnings);
+        CHECK(p->nwarnings == 0, "checkerboard of the stated sd: no warning (%zu)", p->nwarnings);
     }
     pp_ppcheck_free(p);
     ax->data[5] = NAN;

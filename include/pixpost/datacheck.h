@@ -45,10 +45,10 @@
 #ifndef PIXPOST_DATACHECK_H
 #define PIXPOST_DATACHECK_H
 
-#include <stddef.h>
 #include "pixpost/image.h"
 #include "pixpost/model.h"
 #include "pixpost/noise.h"
+#include <stddef.h>
 
 typedef enum pp_check_severity { PP_CHECK_WARNING = 1, PP_CHECK_ERROR = 2 } pp_check_severity;
 
@@ -66,15 +66,15 @@ typedef struct pp_check_finding {
 /* The findings and the figures behind them. Figures that a model does not
  * use are NaN (the offset figures under gaussian noise). */
 typedef struct pp_datacheck {
-    size_t count;                          /* findings, errors first */
+    size_t count; /* findings, errors first */
     pp_check_finding finding[PP_DATACHECK_MAX];
     size_t errors, warnings;
-    size_t observed;                       /* finite pixels */
-    double dark_sd;                        /* s above, ADU */
+    size_t observed; /* finite pixels */
+    double dark_sd;  /* s above, ADU */
     double share_below_offset;
-    double share_impossible;               /* below offset - 5 s - 1 */
-    double q001, q01;                      /* 0.1 % and 1 % quantiles of the frame */
-    double offset_suggested;               /* 1st percentile + 2.33 s */
+    double share_impossible; /* below offset - 5 s - 1 */
+    double q001, q01;        /* 0.1 % and 1 % quantiles of the frame */
+    double offset_suggested; /* 1st percentile + 2.33 s */
 } pp_datacheck;
 
 /* Runs the checks above on frame (NaN pixels skipped) under noise, for a
@@ -82,7 +82,7 @@ typedef struct pp_datacheck {
  * kept. out is overwritten. Fails with PP_ERR_ARG when the frame has no
  * finite pixel, PP_ERR_NOMEM when the sort's copy cannot be allocated;
  * findings are results, not failures (the call succeeds). */
-pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise,
-                           const pp_image *psf, pp_boundary b, pp_datacheck *out);
+pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, const pp_image *psf,
+                           pp_boundary b, pp_datacheck *out);
 
 #endif
