@@ -12,7 +12,8 @@
    Against residual.tif and
    summary.json's "predictive". Two runs: camera noise with pad (hmc), and
    Gaussian noise with lambda sampled and periodic boundaries (mtc; lambda
-   = the mean of trace.csv's lambda column). Tolerances: residual.tif and
+   = the mean of trace.csv's lambda column); with sigma=auto the check is
+   not made (a note, predictive null). Tolerances: residual.tif and
    mean.tif are float32 (relative rounding 6e-8), so the residual map
    agrees to 1e-4 and the figures to 1e-4 (absolute; summary.json holds 10
    digits).
@@ -119,6 +120,15 @@ keep = np.ones(y.shape, bool)
 compare("gaussian periodic", predg, r_np,
         tifffile.imread(P("out_gauss/residual.tif")).astype(np.float64), ax,
         np.full(y.shape, 1 / np.sqrt(lam)), keep)
+
+# 1c. a sampled PSF width: the check is not made, and a note says why
+p = pptest.run(["sample", gp, "--psf", "gaussian:sigma=auto", "--noise", "gaussian", "--prior",
+                "gmrf1", "--boundary", "periodic", "--burn", 50, "--iters", 100, "--progress",
+                "none", "-o", P("out_auto")])
+with open(P("out_auto/summary.json")) as f:
+    pptest.check(json.load(f)["predictive"] is None and not os.path.exists(P("out_auto/residual.tif"))
+                 and "note: the predictive check is not made with a sampled PSF width" in p.stderr,
+                 "sigma=auto: no predictive check, no residual.tif, a note says why")
 
 # 2. the misfits fire, with the likely cause named
 expect = {

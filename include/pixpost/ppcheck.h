@@ -109,10 +109,11 @@ pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out);
 
 /* The same for a finished run: x-bar = pp_sampler_mean(s), the noise,
  * boundary and background of the configuration used, lambda the posterior
- * mean of the "lambda" trace column (1/sigma^2 when fixed), and with a
- * sampled PSF width (psf.width_auto) the kernel psf refilled at the
- * posterior mean of the "psf_width" column. psf is the kernel the run was
- * given. */
+ * mean of the "lambda" trace column (1/sigma^2 when fixed); psf is the
+ * kernel the run was given. With a sampled PSF width (psf.width_auto) it
+ * fails with PP_ERR_UNSUPPORTED: the prediction E[A x] would need each
+ * draw's width, and A x-bar at the mean width is not it (src/ppcheck.c
+ * says what that gave). */
 pp_status pp_ppcheck_sampler(const pp_sampler *s, const pp_image *frame, const pp_image *psf,
                              pp_ppcheck **out);
 

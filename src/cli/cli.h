@@ -222,6 +222,7 @@ typedef struct cli_frame_run {
     pp_datacheck checks; /* the checks before sampling (datacheck.h) */
     pp_ppcheck *predictive; /* the check after sampling (ppcheck.h), NULL when it could
                              * not be made; caller frees (pp_ppcheck_free) */
+    char predictive_note[256]; /* why it was not made ("" when it was) */
     pp_read_info info;
     int interrupted;     /* stopped by the stop flag: nothing was written */
     char message[1024];  /* the failure, one sentence naming the file */

@@ -79,9 +79,7 @@ static void print_checks(const cli_frame_run *r)
         for (size_t i = 0; i < r->predictive->nwarnings; i++)
             fprintf(stderr, "pixpost: warning: %s\n", r->predictive->warning[i]);
     else
-        fputs("pixpost: note: the predictive check was not made (too few pixels away from "
-              "the frame's edges)\n",
-              stderr);
+        fprintf(stderr, "pixpost: note: %s\n", r->predictive_note);
 }
 
 static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec *t0)

@@ -226,10 +226,13 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     }
     if (st != PP_OK)
         return fail_frame(r, st);
-    /* the check of the fit (ppcheck.h); a frame it cannot judge (too few
-     * pixels away from the edges) is written without it */
-    if (pp_ppcheck_sampler(r->sampler, frame, psf, &r->predictive) != PP_OK)
+    /* the check of the fit (ppcheck.h); a run it cannot judge (too few
+     * pixels away from the edges, a sampled PSF width) is written without
+     * it, and the reason becomes a note */
+    if (pp_ppcheck_sampler(r->sampler, frame, psf, &r->predictive) != PP_OK) {
         r->predictive = NULL;
+        snprintf(r->predictive_note, sizeof r->predictive_note, "%s", pp_error_message());
+    }
     pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,    o->prior_text,
                       r->command_line, cli_since(&r->t0), plans->summary, &r->checks,
                       r->predictive};
@@ -244,6 +247,7 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     pp_status st;
     r->sampler = NULL;
     r->predictive = NULL;
+    r->predictive_note[0] = '\0';
     memset(&r->checks, 0, sizeof r->checks);
     r->message[0] = '\0';
     r->interrupted = 0;
