@@ -295,7 +295,7 @@ pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out)
     if (st == PP_OK)
         st = pp_model_blur(m, in->psf, in->boundary, &ax);
     if (st == PP_OK) {
-        p->quantised = whole_numbers(y);
+        p->quantised = in->noise.kind == PP_NOISE_CAMERA && whole_numbers(y);
         residuals(in, ax, p);
         moments(p);
         if (p->used < 16)

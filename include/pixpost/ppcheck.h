@@ -9,8 +9,9 @@
  *                                                    + R^2) + q
  * G the gain (ADU per electron), O the offset, R the read noise (electrons,
  * 0 for poisson), b the background (photons per pixel), q = 1/12 ADU^2 (the
- * rounding of the digitiser) when every pixel of the frame is a whole
- * number, else 0. A is the blur with the run's boundary (pp_model_blur).
+ * digitiser's rounding of the continuous read noise) for camera noise when
+ * every pixel of the frame is a whole number, else 0 (poisson counts are
+ * whole numbers by themselves). A is the blur with the run's boundary (pp_model_blur).
  * Pixels left out (NaN in the residual map): non-finite frame pixels
  * (unobserved), and with --boundary pad the band of the kernel's radius
  * along the edges, where A x-bar would need the scene outside the frame
