@@ -85,7 +85,10 @@ pptest.check(not os.path.exists(P("out_offset")), "offset 120: nothing written")
 p = sample(frame, P("out_right"), CAMERA)
 pptest.check(p.returncode == 0 and "data check" not in p.stderr, "offset 100: runs, no data check fires")
 with open(P("out_right/summary.json")) as f:
-    dc = json.load(f)["data_checks"]
+    summ = json.load(f)
+dc = summ["data_checks"]
+pptest.check(summ["predictive"]["quantised"] is True, "a 16-bit camera frame: the predictive "
+             "check adds the rounding term")
 pptest.check(dc["findings"] == [] and dc["errors"] == 0, "offset 100: summary.json data_checks empty")
 pptest.check(abs(dc["share_below_offset"] - float((y < 100).mean())) < 1e-9 and
              abs(dc["q01"] - np.percentile(y, 1)) < 1e-9,
