@@ -12,5 +12,7 @@
 #include "pixpost/prior.h"
 #include "pixpost/model.h"
 #include "pixpost/sampler.h"
+#include "pixpost/datacheck.h"
+#include "pixpost/ppcheck.h"
 #define PP_VERSION_STRING "0.1.0"
 #endif
