@@ -565,11 +565,13 @@ static void head(page *pg, const char *title)
     }
     pp_report_escape(f, pg->units);
     int warn_first = pg->in->nwarnings > 0;
+    int checks = pg->in->residual || pg->in->checks_summary || pg->in->nchecks;
     fprintf(f,
-            "</p>\n<nav>%s<a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
+            "</p>\n<nav>%s%s<a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
             "<a href=\"#histograms\">hyperparameters</a><a href=\"#diagnostics\">diagnostics</a>"
             "<a href=\"#settings\">settings</a>%s<a href=\"#cautions\">cautions</a></nav>\n",
             warn_first ? "<a href=\"#warnings\">warnings</a>" : "",
+            checks ? "<a href=\"#checks\">checks</a>" : "",
             warn_first ? "" : "<a href=\"#warnings\">warnings</a>");
     pp_report_verdict_banner(f, pg->in);
     fputs("</header>\n", f);
