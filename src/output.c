@@ -7,8 +7,10 @@
 #include <string.h>
 #include <sys/stat.h>
 #include "internal.h"
+#include "pixpost/datacheck.h"
 #include "pixpost/diag.h"
 #include "pixpost/io.h"
+#include "pixpost/ppcheck.h"
 #include "pixpost/output.h"
 #include "pixpost/psf.h"
 #include "pixpost/saturation.h"
@@ -305,6 +307,77 @@ static void json_sentences(FILE *f, const char *key, char *const *list, size_t n
     fputc(']', f);
 }
 
+/* "data_checks": the findings before sampling and their figures
+ * (include/pixpost/datacheck.h); null when not made. */
+static void json_data_checks(FILE *f, const pp_datacheck *d)
+{
+    fputs("  \"data_checks\": ", f);
+    if (!d) {
+        fputs("null", f);
+        return;
+    }
+    fprintf(f, "{\"errors\": %zu, \"warnings\": %zu, \"observed_pixels\": %zu, ", d->errors,
+            d->warnings, d->observed);
+    static const char *const keys[] = {"dark_sd_adu", "share_below_offset", "share_impossible",
+                                       "q001", "q01", "offset_suggested"};
+    const double vals[] = {d->dark_sd, d->share_below_offset, d->share_impossible,
+                           d->q001, d->q01, d->offset_suggested};
+    for (size_t i = 0; i < sizeof vals / sizeof vals[0]; i++) {
+        fprintf(f, "\"%s\": ", keys[i]);
+        json_number(f, vals[i]);
+        fputs(", ", f);
+    }
+    fputs("\"findings\": [", f);
+    for (size_t i = 0; i < d->count; i++) {
+        fprintf(f, "%s{\"check\": \"%s\", \"severity\": \"%s\", \"text\": ", i ? ", " : "",
+                d->finding[i].check,
+                d->finding[i].severity == PP_CHECK_ERROR ? "error" : "warning");
+        pp_json_write_string(f, d->finding[i].text);
+        fputc('}', f);
+    }
+    fputs("]}", f);
+}
+
+/* "predictive": the posterior predictive check's figures, thresholds,
+ * verdict and warnings (include/pixpost/ppcheck.h); null when not made. */
+static void json_predictive(FILE *f, const pp_ppcheck *p)
+{
+    fputs("  \"predictive\": ", f);
+    if (!p) {
+        fputs("null", f);
+        return;
+    }
+    fprintf(f, "{\"pixels\": %zu, \"quantised\": %s, ", p->used,
+            p->quantised ? "true" : "false");
+    static const char *const keys[] = {"mean",           "var",
+                                       "beyond3",        "lag1_row",
+                                       "lag1_col",       "psf_band_power",
+                                       "psf_band_white_share", "curvature_corr"};
+    const double vals[] = {p->mean,     p->var,        p->beyond3,    p->lag1_row,
+                           p->lag1_col, p->band_ratio, p->band_white, p->curvature};
+    for (size_t i = 0; i < sizeof vals / sizeof vals[0]; i++) {
+        fprintf(f, "\"%s\": ", keys[i]);
+        json_number(f, vals[i]);
+        fputs(", ", f);
+    }
+    fprintf(f,
+            "\"thresholds\": {\"var_high\": %g, \"var_low\": %g, \"mean\": %g, "
+            "\"beyond3\": %g, \"lag1\": %g, \"psf_band_power\": %g, \"otf_band\": [%g, %g], "
+            "\"curvature_corr\": %g, "
+            "\"significance_sd\": 4}, \"verdict\": \"%s\", ",
+            PP_PPCHECK_VAR_HI, PP_PPCHECK_VAR_LO, PP_PPCHECK_MEAN, PP_PPCHECK_BEYOND3,
+            PP_PPCHECK_LAG1, PP_PPCHECK_BAND, PP_PPCHECK_OTF_LO, PP_PPCHECK_OTF_HI,
+            PP_PPCHECK_CURV, pp_ppcheck_verdict(p));
+    fputs("\"residual\": \"residual.tif: (y - E[y | mean]) / sqrt(Var[y | mean]), NaN where "
+          "left out\", \"warnings\": [",
+          f);
+    for (size_t i = 0; i < p->nwarnings; i++) {
+        fputs(i ? ", " : "", f);
+        pp_json_write_string(f, p->warning[i]);
+    }
+    fputs("]}", f);
+}
+
 typedef struct png_scales {
     double mean_offset, mean_scale, sd_offset, sd_scale;
 } png_scales;
@@ -415,6 +488,10 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     json_sentences(f, "notes", s->notes, s->nnotes);
     fputs(",\n", f);
     json_sentences(f, "warnings", s->warnings, s->nwarnings);
+    fputs(",\n", f);
+    json_data_checks(f, info ? info->data_checks : NULL);
+    fputs(",\n", f);
+    json_predictive(f, info ? info->predictive : NULL);
     fputs("\n}\n", f);
     if (st != PP_OK) {
         pp_atomic_abort(tmp, f);
@@ -459,10 +536,10 @@ static pp_status join(char *buf, const char *dir, const char *name)
  * are they renamed onto their final names, so a failed re-run (full disk,
  * say) leaves the earlier run's files complete and consistent. */
 enum { OUT_MEAN, OUT_SD, OUT_LO, OUT_HI, OUT_RHAT, OUT_MCSE, OUT_MEAN_PNG, OUT_SD_PNG,
-       OUT_TRACE, OUT_SUMMARY, OUT_REPORT, OUT_COUNT };
+       OUT_TRACE, OUT_SUMMARY, OUT_REPORT, OUT_RESIDUAL, OUT_COUNT };
 static const char *const out_names[OUT_COUNT] = {
     "mean.tif", "sd.tif", "lo.tif", "hi.tif", "rhat.tif", "mcse.tif", "mean.png", "sd.png",
-    "trace.csv", "summary.json", "report.html"};
+    "trace.csv", "summary.json", "report.html", "residual.tif"};
 
 static pp_status write_one(int k, const char *path, const pp_sampler *s, const pp_image *frame,
                            const pp_run_info *info, const png_scales *ps)
@@ -478,6 +555,8 @@ static pp_status write_one(int k, const char *path, const pp_sampler *s, const p
         return write_trace(path, s);
     if (k == OUT_SUMMARY)
         return write_summary(path, s, frame, info, ps);
+    if (k == OUT_RESIDUAL)
+        return pp_tiff_write_f32(path, info->predictive->residual);
     return pp_output_report(path, s, frame, info);
 }
 
@@ -546,6 +625,8 @@ pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *
     pp_status st = PP_OK;
     for (int k = 0; k < OUT_COUNT && st == PP_OK; k++) {
         if ((k == OUT_RHAT || k == OUT_MCSE) && !s->rhat_map)
+            continue;
+        if (k == OUT_RESIDUAL && !(info && info->predictive))
             continue;
         snprintf(part, sizeof part, ".%s.part", out_names[k]);
         if ((st = join(staged[k], dir, part)) == PP_OK &&

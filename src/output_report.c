@@ -5,7 +5,9 @@
 #include <stdlib.h>
 #include "internal.h"
 #include "pixpost/diag.h"
+#include "pixpost/datacheck.h"
 #include "pixpost/output.h"
+#include "pixpost/ppcheck.h"
 #include "pixpost/report.h"
 
 enum { NSET = 13 };
@@ -101,6 +103,27 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
                         "depend on the data: it is nearly the same everywhere (apart from the "
                         "frame's edges with padding), a frame-wide scale rather than a map of "
                         "where the estimate is unsure.";
+    /* the checks of the data and the fit: their warnings, in that order */
+    const char *checks[PP_DATACHECK_MAX + PP_PPCHECK_MAX_WARNINGS];
+    char summary[400];
+    const pp_datacheck *dc = info ? info->data_checks : NULL;
+    const pp_ppcheck *pc = info ? info->predictive : NULL;
+    for (size_t i = 0; dc && i < dc->count; i++)
+        checks[in.nchecks++] = dc->finding[i].text;
+    for (size_t i = 0; pc && i < pc->nwarnings; i++)
+        checks[in.nchecks++] = pc->warning[i];
+    in.checks = checks;
+    if (pc) {
+        in.residual = pc->residual;
+        snprintf(summary, sizeof summary,
+                 "Predictive check (%s) over %zu pixels: standardised residuals' mean %.3f "
+                 "(0 expected), variance %.3f (1), beyond +-3 sd %.2f %% (0.27 %%), lag-1 "
+                 "correlation %.3f along rows and %.3f down columns, power in the PSF's band "
+                 "%.2fx white noise's, correlation with the fit's curvature %.3f.",
+                 pp_ppcheck_verdict(pc), pc->used, pc->mean, pc->var, 100 * pc->beyond3,
+                 pc->lag1_row, pc->lag1_col, pc->band_ratio, pc->curvature);
+        in.checks_summary = summary;
+    }
     pp_status st = pp_report_write(path, &in);
     free(rows);
     return st;

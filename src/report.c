@@ -231,9 +231,9 @@ static pp_status grey_figure(page *pg, const char *id, const pp_image *img, cons
     return PP_OK;
 }
 
-/* One colour figure with its colour bar: sd or width. */
+/* One colour figure with its colour bar in units: sd, width or residual. */
 static pp_status colour_figure(page *pg, const char *key, const pp_image *img, const char *what,
-                               const char *explain)
+                               const char *explain, const char *units)
 {
     FILE *f = pg->f;
     double lo, hi;
@@ -244,12 +244,12 @@ static pp_status colour_figure(page *pg, const char *key, const pp_image *img, c
         return st;
     fputs("\">\n", f);
     snprintf(id, sizeof id, "%s-colourbar", key);
-    pp_report_svg_colourbar(f, id, lo, hi, pg->units);
+    pp_report_svg_colourbar(f, id, lo, hi, units);
     fprintf(f,
             "<figcaption><b>%s</b>: %s Colour, linear from %.4g (darkest) to %.4g "
             "(brightest) ",
             what, explain, lo, hi);
-    caption_end(pg, img, pg->units, "map");
+    caption_end(pg, img, units, "map");
     return PP_OK;
 }
 
@@ -266,7 +266,7 @@ static pp_status width_figure(page *pg)
     snprintf(explain, sizeof explain,
              "hi &minus; lo, the width of the central %.4g%% credible interval of each pixel.",
              100.0 * in->level);
-    st = colour_figure(pg, "width", w, "Credible-interval width", explain);
+    st = colour_figure(pg, "width", w, "Credible-interval width", explain, pg->units);
     pp_image_free(w);
     return st;
 }
@@ -285,9 +285,17 @@ static pp_status images_section(page *pg)
     if (st == PP_OK && in->sd)
         st = colour_figure(pg, "sd", in->sd, "Posterior standard deviation",
                            in->sd_caption ? in->sd_caption
-                                          : "the spread of the posterior of each pixel.");
+                                          : "the spread of the posterior of each pixel.",
+                           pg->units);
     if (st == PP_OK && in->lo && in->hi)
         st = width_figure(pg);
+    if (st == PP_OK && in->residual)
+        st = colour_figure(pg, "residual", in->residual, "Standardised residual",
+                           "(y &minus; E[y | mean]) / &radic;Var[y | mean], the predictive "
+                           "check's residual (section &ldquo;Checks&rdquo;): noise without "
+                           "pattern when the model fits; blank where left out (the frame's "
+                           "edges with --boundary pad, unobserved pixels).",
+                           "sd");
     fputs("</div></section>\n", pg->f);
     return st;
 }
@@ -557,11 +565,13 @@ static void head(page *pg, const char *title)
     }
     pp_report_escape(f, pg->units);
     int warn_first = pg->in->nwarnings > 0;
+    int checks = pg->in->residual || pg->in->checks_summary || pg->in->nchecks;
     fprintf(f,
-            "</p>\n<nav>%s<a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
+            "</p>\n<nav>%s%s<a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
             "<a href=\"#histograms\">hyperparameters</a><a href=\"#diagnostics\">diagnostics</a>"
             "<a href=\"#settings\">settings</a>%s<a href=\"#cautions\">cautions</a></nav>\n",
             warn_first ? "<a href=\"#warnings\">warnings</a>" : "",
+            checks ? "<a href=\"#checks\">checks</a>" : "",
             warn_first ? "" : "<a href=\"#warnings\">warnings</a>");
     pp_report_verdict_banner(f, pg->in);
     fputs("</header>\n", f);
@@ -579,9 +589,9 @@ static void tail(FILE *f)
 /* Checks sizes and pointers; the first non-NULL image fixes the size. */
 static pp_status validate(const char *path, const pp_report_input *in)
 {
-    const pp_image *im[5] = {in->frame, in->mean, in->sd, in->lo, in->hi};
+    const pp_image *im[6] = {in->frame, in->mean, in->sd, in->lo, in->hi, in->residual};
     const pp_image *ref = NULL;
-    for (int i = 0; i < 5; i++) {
+    for (int i = 0; i < 6; i++) {
         if (!im[i])
             continue;
         if (!im[i]->data || im[i]->width == 0 || im[i]->height == 0)
@@ -598,7 +608,7 @@ static pp_status validate(const char *path, const pp_report_input *in)
     if (t && t->chains && t->kept && t->ncols && (!t->values || !t->names))
         return pp_fail(PP_ERR_ARG, "%s: report trace has no values or names", path);
     if ((in->nscalars && !in->scalars) || (in->nwarnings && !in->warnings) ||
-        (in->nnotes && !in->notes) ||
+        (in->nnotes && !in->notes) || (in->nchecks && !in->checks) ||
         (in->nsettings && (!in->settings_keys || !in->settings_values)))
         return pp_fail(PP_ERR_ARG, "%s: report table with a count but no rows", path);
     return PP_OK;
@@ -626,6 +636,7 @@ pp_status pp_report_write(const char *path, const pp_report_input *in)
     int warn_first = in->nwarnings > 0; /* what needs reading first, first */
     if (warn_first)
         pp_report_warnings_section(pg.f, in);
+    pp_report_checks_section(pg.f, in);
     st = images_section(&pg);
     if (st == PP_OK)
         st = traces_section(&pg);

@@ -23,6 +23,11 @@ void pp_report_verdict_banner(FILE *f, const struct pp_report_input *in);
  * the notes. */
 void pp_report_warnings_section(FILE *f, const struct pp_report_input *in);
 
+/* ---- Checks of the data and the fit (src/report_checks.c) -------------- */
+/* The section "checks": the predictive check's figures, the checks'
+ * warnings; nothing when there is no residual map, sentence or warning. */
+void pp_report_checks_section(FILE *f, const struct pp_report_input *in);
+
 /* ---- Axes and plots (src/report_svg.c) ---------------------------------- */
 /* Tick marks on [lo, hi]: first, step and count, with the axis stretched to
  * whole steps (amin..amax); nice steps are 1, 2 or 5 times a power of ten. */

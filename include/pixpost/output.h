@@ -6,6 +6,8 @@
  *   summary.json                    settings, hyperparameter posteriors,
  *                                   bound method, timings, warnings
  *   trace.csv                       chain,iter,lambda,delta,loglik,p_<r>_<c>...
+ *   residual.tif                    standardised residuals of the predictive
+ *                                   check (when info->predictive is given)
  *   .pixpost-output                 the folder marker (PP_OUTPUT_MARKER),
  *                                   written first
  * The folder must exist. Nothing in it other than these names is touched.
@@ -34,6 +36,12 @@ typedef struct pp_run_info {
     size_t masked, saturated;
     double saturation_level;
     int saturation_rule;
+    /* The checks of the data before sampling and of the fit after it
+     * (datacheck.h, ppcheck.h); NULL: not made. Their warnings go to
+     * summary.json ("data_checks", "predictive") and the report; the
+     * predictive check's residual map to residual.tif. */
+    const struct pp_datacheck *data_checks;
+    const struct pp_ppcheck *predictive;
 } pp_run_info;
 
 /* Writes s (NULL: "") to f as a JSON string literal: quotes, with '"' and

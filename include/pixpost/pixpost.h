@@ -13,5 +13,7 @@
 #include "pixpost/model.h"
 #include "pixpost/sampler.h"
 #include "pixpost/saturation.h"
+#include "pixpost/datacheck.h"
+#include "pixpost/ppcheck.h"
 #define PP_VERSION_STRING "0.1.0"
 #endif

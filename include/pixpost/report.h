@@ -6,7 +6,8 @@
  * yellow colour ramp with SVG colour bars labelled in input units, trace and
  * autocorrelation plots per chain for every trace column (inline SVG),
  * pooled histograms of lambda and delta, a diagnostics table coloured by
- * thresholds, the settings, the warnings and a cautions paragraph; at the
+ * thresholds, the settings, the warnings, the checks of the data and the
+ * fit with the standardised residual map, and a cautions paragraph; at the
  * top a verdict banner (converged or not, warnings per part), with the
  * warnings right under it when there are any.
  * Images are 8-bit PNGs made in memory with libpng and embedded as base64
@@ -70,6 +71,16 @@ typedef struct pp_report_input {
     const char *frame_units; /* of the input frame, e.g. "ADU"; NULL: as units */
     const char *sd_caption;  /* what the sd map shows under this model (a sentence);
                               * NULL: a generic one */
+    /* The checks of the data and of the fit (include/pixpost/datacheck.h,
+     * ppcheck.h): the standardised residual map (frame-sized, NaN where left
+     * out; NULL: no panel), their warnings (plain sentences) and one
+     * sentence of the predictive check's figures (NULL: none). Shown in a
+     * section "Checks of the data and the fit" (id "checks") after the
+     * warnings; never counted in the verdict banner. */
+    const pp_image *residual;
+    const char *const *checks;
+    size_t nchecks;
+    const char *checks_summary;
 } pp_report_input;
 
 /* Zeroes *in and sets level = 0.95. */

@@ -64,6 +64,7 @@ void batch_do_frame(const batch_ctx *c, size_t i, batch_row *r)
     if (!rc)
         pp_sampler_convergence(fr.sampler, &cv); /* the figures summary.json holds */
     pp_sampler_free(fr.sampler);
+    pp_ppcheck_free(fr.predictive);
     if (!rc)
         rc = batch_write_marker(c, f, fr.message, sizeof fr.message);
     r->seconds = cli_since(&fr.t0);

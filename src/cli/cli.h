@@ -18,6 +18,8 @@
 #define PIXPOST_CLI_H
 
 #include "pixpost/pixpost.h"
+#include "pixpost/datacheck.h"
+#include "pixpost/ppcheck.h"
 #include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -219,6 +221,10 @@ typedef struct cli_frame_run {
     struct timespec t0;       /* CLOCK_MONOTONIC start, for timings */
     /* outputs */
     pp_sampler *sampler; /* after a run (even a failed write); caller frees */
+    pp_datacheck checks; /* the checks before sampling (datacheck.h) */
+    pp_ppcheck *predictive; /* the check after sampling (ppcheck.h), NULL when it could
+                             * not be made; caller frees (pp_ppcheck_free) */
+    char predictive_note[256]; /* why it was not made ("" when it was) */
     pp_read_info info;
     int interrupted;     /* stopped by the stop flag: nothing was written */
     char message[1024];  /* the failure, one sentence naming the file */

@@ -34,7 +34,7 @@ static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double 
                  nw == 1 ? "" : "s", cv.hyper_warnings, cv.pixel_warnings,
                  nw - cv.hyper_warnings - cv.pixel_warnings);
     fprintf(stderr,
-            "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse .tif; mean, sd .png; "
+            "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse, residual .tif; mean, sd .png; "
             "summary.json; trace.csv; report.html)\n",
             o->outdir);
     fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; worst R-hat %.3f, lowest "
@@ -69,6 +69,19 @@ static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double 
         fprintf(stderr, "pixpost: note: %s\n", pp_sampler_note(s, i));
 }
 
+/* The checks' warnings (data before sampling, the fit after it): model
+ * warnings, not convergence ones, so --strict does not count them. */
+static void print_checks(const cli_frame_run *r)
+{
+    for (size_t i = 0; i < r->checks.count; i++)
+        fprintf(stderr, "pixpost: warning: data check: %s\n", r->checks.finding[i].text);
+    if (r->predictive)
+        for (size_t i = 0; i < r->predictive->nwarnings; i++)
+            fprintf(stderr, "pixpost: warning: %s\n", r->predictive->warning[i]);
+    else
+        fprintf(stderr, "pixpost: note: %s\n", r->predictive_note);
+}
+
 static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec *t0)
 {
     char cmd[8192];
@@ -95,9 +108,12 @@ static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec 
         rc = 128 + (int)*r.stop; /* as a process killed by the signal (and as batch) */
     if (!rc && !o->quiet)
         print_verdict(r.sampler, o, cli_since(t0));
+    if (!rc && !o->quiet)
+        print_checks(&r);
     if (!rc && o->strict && pp_sampler_warning_count(r.sampler) > 0)
         rc = CLI_EXIT_STRICT;
     pp_sampler_free(r.sampler);
+    pp_ppcheck_free(r.predictive);
     return rc;
 }
 

@@ -2,6 +2,9 @@
  * chosen page), mark its masked and saturated pixels unobserved (NaN;
  * unobserved.c), make the PSF, create and run the sampler (with an optional
  * progress display and a stop flag), write the outputs with pp_output_write.
+ * Before the sampler is made the data are checked against the model
+ * (datacheck.h: an error stops the frame), after the run the fit is
+ * (ppcheck.h: warnings and residual.tif).
  * Used by `pixpost sample` (one frame) and by `pixpost batch` (each frame, in
  * a worker process). Errors are returned as one sentence in r->message, not
  * printed, so batch can record them in its manifest.
@@ -176,6 +179,20 @@ static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **fra
     return 0;
 }
 
+/* The checks of the data before sampling (include/pixpost/datacheck.h):
+ * an error fails the frame before anything is written; warnings stay in
+ * r->checks for the summary, the report and the end-of-run lines. */
+static int check_data(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
+                      const pp_image *psf)
+{
+    pp_status st = pp_datacheck_run(frame, &o->cfg.noise, psf, o->cfg.boundary, &r->checks);
+    if (st != PP_OK)
+        return fail_frame(r, st);
+    if (r->checks.errors)
+        return fail_msg(r, "%s: data check: %s", r->frame, r->checks.finding[0].text);
+    return 0;
+}
+
 static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
                         const pp_image *psf, progress_state *ps, int fft_effort)
 {
@@ -198,7 +215,8 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
 }
 
 static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
-                            const progress_state *ps, const cli_plans *plans)
+                            const pp_image *psf, const progress_state *ps,
+                            const cli_plans *plans)
 {
     int rc = cli_make_dirs(r->outdir, r->message, sizeof r->message);
     if (rc)
@@ -217,9 +235,17 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     }
     if (st != PP_OK)
         return fail_frame(r, st);
+    /* the check of the fit (ppcheck.h); a run it cannot judge (too few
+     * pixels away from the edges, a sampled PSF width) is written without
+     * it, and the reason becomes a note */
+    if (pp_ppcheck_sampler(r->sampler, frame, psf, &r->predictive) != PP_OK) {
+        r->predictive = NULL;
+        snprintf(r->predictive_note, sizeof r->predictive_note, "%s", pp_error_message());
+    }
     pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,    o->prior_text,
                       r->command_line, cli_since(&r->t0), plans->summary,
-                      r->masked,     r->sat.count,    r->sat.level,     r->sat.rule};
+                      r->masked,     r->sat.count,    r->sat.level,     r->sat.rule,
+                      &r->checks,    r->predictive};
     if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
         return fail_lib(r, st);
     return 0;
@@ -230,6 +256,9 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     pp_image *frame = NULL, *psf = NULL;
     pp_status st;
     r->sampler = NULL;
+    r->predictive = NULL;
+    r->predictive_note[0] = '\0';
+    memset(&r->checks, 0, sizeof r->checks);
     r->message[0] = '\0';
     r->interrupted = 0;
     memset(&r->info, 0, sizeof r->info);
@@ -239,13 +268,15 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     if (!rc && (st = pp_psf_make(&o->psf, 0, &psf)) != PP_OK)
         rc = fail_lib(r, st);
     if (!rc)
+        rc = check_data(o, r, frame, psf);
+    if (!rc)
         rc = cli_plans_load(o, &plans, r->message, sizeof r->message);
     if (!rc)
         rc = make_sampler(o, r, frame, psf, &ps, plans.effort);
     if (!rc)
         rc = cli_plans_save(o, &plans, r->sampler, r->message, sizeof r->message);
     if (!rc)
-        rc = sample_and_write(o, r, frame, &ps, &plans);
+        rc = sample_and_write(o, r, frame, psf, &ps, &plans);
     pp_image_free(psf);
     pp_image_free(frame);
     return rc;

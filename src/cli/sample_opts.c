@@ -16,7 +16,8 @@ static const cli_opt sample_table[] = {
         'o',
         1,
         "OUTDIR",
-        "Folder for mean/sd/lo/hi .tif, mean/sd .png, summary.json, trace.csv, report.html; "
+        "Folder for mean/sd/lo/hi/residual .tif, mean/sd .png, summary.json, trace.csv, "
+        "report.html; "
         "created if missing. It must be new, empty or one pixpost wrote before (it holds "
         "pixpost's marker file .pixpost-output); a folder with other files needs --overwrite. "
         "Required.",
@@ -350,12 +351,17 @@ void cli_sample_help(FILE *fp)
           "traces and diagnostics into OUTDIR. At the end it prints a verdict: converged, or\n"
           "which part did not converge (the hyperparameters, global quantities such as delta;\n"
           "or the pixel estimates) and about how many iterations to ask for (--iters N; an\n"
-          "estimate from the measured ESS per draw, a lower bound while R-hat fails).\n\n"
+          "estimate from the measured ESS per draw, a lower bound while R-hat fails).\n"
+          "Before sampling the frame is checked against the noise model and the PSF (e.g.\n"
+          "most pixels below the offset: an error, exit 1); after it, the fit against the\n"
+          "frame (standardised residuals, residual.tif): a misfit is a warning naming the\n"
+          "likely cause (README \"Checks of the data and the fit\").\n\n"
           "Options:\n",
           fp);
     cli_print_options(fp, tables, cli_sample_default, NULL);
-    fputs("\nExit status: 0 success; 1 bad usage or input; 3 convergence warnings with "
-          "--strict\n(notes, such as frequencies the PSF removes, are not warnings); "
+    fputs("\nExit status: 0 success; 1 bad usage or input (a data check's error too); 3 "
+          "convergence\nwarnings with --strict (notes, such as frequencies the PSF removes, "
+          "and the\nchecks' warnings are not convergence warnings); "
           "128 + the signal\nnumber when stopped by SIGINT (130) or SIGTERM (143), with no "
           "outputs written.\n",
           fp);

@@ -1,0 +1,165 @@
+/* pixpost — checks of a frame against the stated model before sampling
+ * (include/pixpost/datacheck.h states every rule and its threshold).
+ * Workload: one frame per run, before the sampler is made. Cost: one copy
+ * of the finite pixels and one qsort; the rest is a pass or two. */
+#include "pixpost/datacheck.h"
+#include "internal.h"
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* Linear-interpolation quantile of sorted v (numpy's default). */
+static double quantile(const double *v, size_t n, double p)
+{
+    double h = (double)(n - 1) * p;
+    size_t lo = (size_t)floor(h), hi = lo + 1 < n ? lo + 1 : lo;
+    return v[lo] + (h - (double)lo) * (v[hi] - v[lo]);
+}
+
+static void add(pp_datacheck *d, pp_check_severity sev, const char *check, const char *fmt, ...)
+    PP_PRINTF(4, 5);
+static void add(pp_datacheck *d, pp_check_severity sev, const char *check, const char *fmt, ...)
+{
+    if (d->count == PP_DATACHECK_MAX)
+        return;
+    pp_check_finding *f = &d->finding[d->count++];
+    f->severity = sev;
+    f->check = check;
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(f->text, sizeof f->text, fmt, ap);
+    va_end(ap);
+    if (sev == PP_CHECK_ERROR)
+        d->errors++;
+    else
+        d->warnings++;
+}
+
+/* Errors first, each group in the order found (a stable partition). */
+static void errors_first(pp_datacheck *d)
+{
+    pp_check_finding tmp[PP_DATACHECK_MAX];
+    size_t k = 0;
+    for (int pass = 0; pass < 2; pass++)
+        for (size_t i = 0; i < d->count; i++)
+            if ((d->finding[i].severity == PP_CHECK_ERROR) == (pass == 0))
+                tmp[k++] = d->finding[i];
+    memcpy(d->finding, tmp, d->count * sizeof tmp[0]);
+}
+
+static const char *model_name(const pp_noise_spec *n)
+{
+    return n->kind == PP_NOISE_CAMERA ? "camera" : "poisson";
+}
+
+/* The offset checks of the photon models (datacheck.h: below_offset,
+ * impossible, dark_level); v holds the sorted finite pixels. */
+static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double *v, size_t cnt)
+{
+    double g = n->gain, o = n->offset, r = n->kind == PP_NOISE_CAMERA ? n->read : 0.0;
+    double s = sqrt(g * g * r * r + 1.0 / 12.0), low = o - 5 * s - 1;
+    size_t below = 0, imposs = 0;
+    for (size_t i = 0; i < cnt && v[i] < o; i++) {
+        below++;
+        imposs += v[i] < low;
+    }
+    double nn = (double)cnt;
+    d->dark_sd = s;
+    d->share_below_offset = (double)below / nn;
+    d->share_impossible = (double)imposs / nn;
+    d->q001 = quantile(v, cnt, 0.001);
+    d->q01 = quantile(v, cnt, 0.01);
+    d->offset_suggested = d->q01 + 2.33 * s;
+    const char *m = model_name(n);
+    double limit = 0.5 + fmax(0.1, 2.0 / sqrt(nn));
+    if (d->share_below_offset > limit) {
+        add(d, PP_CHECK_ERROR, "below_offset",
+            "%.1f %% of the observed pixels are below the offset %g ADU of --noise %s, where "
+            "at most half can be under that model (a pixel without light reads the offset "
+            "plus read noise of %.3g ADU sd): the offset is too high. The darkest 1 %% of "
+            "the frame (%.6g ADU) point to an offset of about %.0f: give offset=%.0f in "
+            "--noise (or measure it from dark frames)",
+            100 * d->share_below_offset, o, m, s, d->q01, d->offset_suggested, d->offset_suggested);
+    } else if (imposs) {
+        int err = d->share_impossible > 0.01;
+        add(d, err ? PP_CHECK_ERROR : PP_CHECK_WARNING, "impossible",
+            "%zu of the observed pixels (%.2f %%, lowest %.6g) are below %.6g ADU, the offset "
+            "%g minus 5 read-noise sd (%.3g ADU) and 1 ADU of rounding: impossible under "
+            "--noise %s%s",
+            imposs, 100 * d->share_impossible, v[0], low, o, s, m,
+            err ? "; the frame is not in raw camera units (background-subtracted, "
+                  "normalised or negative values), or the offset is too high, or the gain "
+                  "or read noise too small (an inverted gain: data sheets print electrons "
+                  "per ADU, give that as e_per_adu=): give the camera's real offset, gain "
+                  "and read noise in --noise, or use --noise gaussian for processed data"
+                : "; they look like cold or defect pixels: mask them, or check the offset, "
+                  "gain and read noise");
+    }
+    double far = fmax(10 * s, 10 * g);
+    if (d->q01 > o + far)
+        add(d, PP_CHECK_WARNING, "dark_level",
+            "the darkest 1 %% of the pixels read %.6g ADU or more, %.3g ADU above the offset "
+            "%g of --noise %s (more than max(10 read-noise sd, 10 photons)): if the frame "
+            "has areas without light the offset is too low (they would read about the "
+            "offset); check it against dark frames",
+            d->q01, d->q01 - o, o, m);
+}
+
+/* psf_size (datacheck.h). */
+static void size_checks(pp_datacheck *d, const pp_image *frame, const pp_image *psf, pp_boundary b)
+{
+    size_t h = frame->height, w = frame->width, kh = psf->height, kw = psf->width;
+    if (h < kh || w < kw) {
+        add(d, PP_CHECK_ERROR, "psf_size",
+            "the frame (%zux%zu pixels) is smaller than the PSF kernel (%zux%zu): the "
+            "kernel must fit in the frame; use a larger frame (at least %zux%zu, better "
+            "twice that) or check the --psf units (sigma in pixels; airy pixel= in um)",
+            w, h, kw, kh, kw, kh);
+    } else if (h < 2 * kh || w < 2 * kw) {
+        add(d, PP_CHECK_WARNING, "psf_size",
+            "the frame (%zux%zu pixels) is less than twice the PSF kernel (%zux%zu) "
+            "across: most pixels lie within the PSF's reach of an edge, where %s, so the "
+            "estimate and its bounds rest largely on the prior; use a frame of at least "
+            "%zux%zu",
+            w, h, kw, kh,
+            b == PP_BOUNDARY_PAD ? "the scene outside the frame is unknown (--boundary pad)"
+                                 : "the frame is assumed to wrap around (--boundary periodic)",
+            2 * kw, 2 * kh);
+    }
+}
+
+pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, const pp_image *psf,
+                           pp_boundary b, pp_datacheck *out)
+{
+    memset(out, 0, sizeof *out);
+    out->dark_sd = out->share_below_offset = out->share_impossible = NAN;
+    out->q001 = out->q01 = out->offset_suggested = NAN;
+    size_t n = frame->width * frame->height, cnt = 0;
+    double *v = malloc((n ? n : 1) * sizeof *v);
+    if (!v)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the data checks");
+    for (size_t i = 0; i < n; i++)
+        if (isfinite(frame->data[i]))
+            v[cnt++] = frame->data[i];
+    out->observed = cnt;
+    if (!cnt) {
+        free(v);
+        return pp_fail(PP_ERR_ARG, "the frame has no observed (finite) pixel");
+    }
+    size_checks(out, frame, psf, b);
+    if (noise->kind == PP_NOISE_POISSON || noise->kind == PP_NOISE_CAMERA) {
+        qsort(v, cnt, sizeof *v, cmp_double);
+        offset_checks(out, noise, v, cnt);
+    }
+    free(v);
+    errors_first(out);
+    return PP_OK;
+}
