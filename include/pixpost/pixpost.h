@@ -12,5 +12,6 @@
 #include "pixpost/prior.h"
 #include "pixpost/model.h"
 #include "pixpost/sampler.h"
+#include "pixpost/calib.h"
 #define PP_VERSION_STRING "0.1.0"
 #endif

@@ -244,10 +244,12 @@ int cli_cmd_simulate(int argc, char **argv);
 int cli_cmd_sample(int argc, char **argv); /* cmd_sample.c (the lead) */
 int cli_cmd_batch(int argc, char **argv);  /* cmd_batch.c */
 int cli_cmd_psf(int argc, char **argv);
+int cli_cmd_calibrate(int argc, char **argv); /* cmd_calibrate.c */
 int cli_cmd_demo(int argc, char **argv);
 
 void cli_simulate_help(FILE *fp);
 void cli_psf_help(FILE *fp);
+void cli_calibrate_help(FILE *fp);
 void cli_demo_help(FILE *fp);
 
 #endif
