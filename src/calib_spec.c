@@ -6,6 +6,8 @@
  * and give the read noise what is left. Cost: nothing measurable. */
 #include "pixpost/calib.h"
 #include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 int pp_noise_from_frame_fit(const pp_noise_fit *fit, pp_noise_spec *out)
@@ -23,4 +25,21 @@ int pp_noise_from_frame_fit(const pp_noise_fit *fit, pp_noise_spec *out)
     out->offset = O;
     out->read = sqrt(fmax(a * O + b, 0)) / a;
     return 1;
+}
+
+/* Through text, so the printed spec and the numbers used are the same. */
+static double round_digits(double v, int digits)
+{
+    char b[64];
+    snprintf(b, sizeof b, "%.*g", digits, v);
+    return strtod(b, NULL);
+}
+
+void pp_noise_round(pp_noise_spec *s)
+{
+    if (s->kind != PP_NOISE_CAMERA && s->kind != PP_NOISE_POISSON)
+        return;
+    s->gain = round_digits(s->gain, 4);
+    s->offset = round_digits(s->offset, 6);
+    s->read = round_digits(s->read, 4);
 }

@@ -195,6 +195,11 @@ void pp_noise_from_ptc(const pp_ptc_result *r, pp_noise_spec *out);
  * Returns 1 when a camera spec was made, 0 for the gaussian fallback. */
 int pp_noise_from_frame_fit(const pp_noise_fit *fit, pp_noise_spec *out);
 
+/* Rounds a photon spec to what the fits support: gain and read noise to 4
+ * significant digits, offset to 6 (their relative standard errors are
+ * rarely below 1e-3 and 1e-5). Other kinds are left as they are. */
+void pp_noise_round(pp_noise_spec *s);
+
 /* ---- JSON ------------------------------------------------------------ */
 
 /* Writes a fit as one JSON object (no trailing newline), its keys indented

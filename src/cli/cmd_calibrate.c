@@ -284,19 +284,6 @@ static int read_group(const calib_opts *o, const group *g, const char *what,
     return rc;
 }
 
-/* Rounded for printing (the spec and the JSON use the same numbers):
- * gain and read to 4 significant digits, offset to 6. */
-static void round_spec(pp_noise_spec *n)
-{
-    char b[64];
-    snprintf(b, sizeof b, "%.4g", n->gain);
-    n->gain = strtod(b, NULL);
-    snprintf(b, sizeof b, "%.6g", n->offset);
-    n->offset = strtod(b, NULL);
-    snprintf(b, sizeof b, "%.4g", n->read);
-    n->read = strtod(b, NULL);
-}
-
 static void print_ptc(const pp_ptc_result *r)
 {
     printf("photon transfer (EMVA 1288): %zu darks, %zu flat levels, %zu pixels used\n",
@@ -339,7 +326,7 @@ static int run_ptc(const calib_opts *o, pp_noise_spec *spec, pp_ptc_result *r)
     if (st != PP_OK)
         return cli_fail(st);
     pp_noise_from_ptc(r, spec);
-    round_spec(spec);
+    pp_noise_round(spec);
     if (!o->quiet)
         print_ptc(r);
     return 0;
@@ -389,7 +376,7 @@ static int run_frame_fit(const calib_opts *o, pp_noise_spec *spec, pp_noise_fit 
         return cli_error("%s: %s", o->frame, pp_error_message());
     int camera = pp_noise_from_frame_fit(f, spec);
     if (camera)
-        round_spec(spec);
+        pp_noise_round(spec);
     if (!o->quiet)
         print_fit(o, f, camera);
     return 0;

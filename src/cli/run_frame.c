@@ -168,9 +168,11 @@ static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **fra
 }
 
 static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
-                        const pp_image *psf, progress_state *ps, int fft_effort)
+                        const pp_image *psf, progress_state *ps, int fft_effort,
+                        const cli_noise_auto *na)
 {
     pp_sampler_config cfg = o->cfg;
+    cli_noise_auto_apply(na, &cfg);
     cfg.fft_effort = fft_effort;
     cfg.seed = r->seed;
     cfg.threads = r->threads;
@@ -189,7 +191,8 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
 }
 
 static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
-                            const progress_state *ps, const cli_plans *plans)
+                            const progress_state *ps, const cli_plans *plans,
+                            const cli_noise_auto *na)
 {
     int rc = cli_make_dirs(r->outdir, r->message, sizeof r->message);
     if (rc)
@@ -208,8 +211,15 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     }
     if (st != PP_OK)
         return fail_frame(r, st);
-    pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,    o->prior_text,
-                      r->command_line, cli_since(&r->t0), plans->summary};
+    pp_run_info ri = {.input_path = r->frame, .psf_spec = o->psf_text,
+                      .noise_spec = o->noise_text, .prior_spec = o->prior_text,
+                      .command_line = r->command_line, .seconds_total = cli_since(&r->t0),
+                      .fft_plans = plans->summary};
+    if (na->used) { /* --noise auto: the estimate and the sentence saying what was chosen */
+        ri.noise_estimate = &na->fit;
+        ri.noise_chosen = &na->spec;
+        ri.noise_note = na->note;
+    }
     if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
         return fail_lib(r, st);
     return 0;
@@ -225,17 +235,20 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     memset(&r->info, 0, sizeof r->info);
     progress_state ps;
     cli_plans plans;
+    cli_noise_auto na;
     int rc = read_frame(o, r, &frame);
+    if (!rc)
+        rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
     if (!rc && (st = pp_psf_make(&o->psf, 0, &psf)) != PP_OK)
         rc = fail_lib(r, st);
     if (!rc)
         rc = cli_plans_load(o, &plans, r->message, sizeof r->message);
     if (!rc)
-        rc = make_sampler(o, r, frame, psf, &ps, plans.effort);
+        rc = make_sampler(o, r, frame, psf, &ps, plans.effort, &na);
     if (!rc)
         rc = cli_plans_save(o, &plans, r->sampler, r->message, sizeof r->message);
     if (!rc)
-        rc = sample_and_write(o, r, frame, &ps, &plans);
+        rc = sample_and_write(o, r, frame, &ps, &plans, &na);
     pp_image_free(psf);
     pp_image_free(frame);
     return rc;
