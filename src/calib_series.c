@@ -137,6 +137,10 @@ pp_status pp_series_stats_get(const pp_series *s, pp_series_stats *out)
         sum_mm += s->mean[p] * s->mean[p];
     }
     out->pixels = used;
+    if (used < 2 && out->saturated)
+        return pp_fail(PP_ERR_ARG, "every pixel is saturated (at or above %g) in some frame; "
+                                   "lower the exposure or the light",
+                       s->saturation);
     if (used < 2)
         return pp_fail(PP_ERR_ARG, "a series needs at least 2 usable pixels (finite and below "
                                    "saturation in every frame); it has %zu",

@@ -242,11 +242,12 @@ static int add_file(const calib_opts *o, const char *file, const char *what, pp_
                              file, info.nonfinite);
         }
         if (size->width && (img->width != size->width || img->height != size->height)) {
+            size_t w = img->width, h = img->height;
             pp_image_free(img);
             return cli_error("%s %s: frame is %zux%zu but the first dark is %zux%zu; every frame of "
                              "a calibration must have the same size (same camera region and "
                              "binning)",
-                             what, file, img->width, img->height, size->width, size->height);
+                             what, file, w, h, size->width, size->height);
         }
         size->width = img->width;
         size->height = img->height;
@@ -279,7 +280,8 @@ static int read_group(const calib_opts *o, const group *g, const char *what,
                        "measured between frames (give more files or a multi-page TIFF)",
                        what, frames, g->file[0]);
     if (!rc && pp_series_stats_get(s, out) != PP_OK)
-        rc = cli_error("%s: %s", what, pp_error_message());
+        rc = cli_error("%s %s%s: %s", what, g->file[0], g->n > 1 ? " ..." : "",
+                       pp_error_message());
     pp_series_free(s);
     return rc;
 }
