@@ -165,13 +165,14 @@ typedef struct pp_noise_fit {
  * Foi et al. 2008, section IV, with our own smoothness test): the frame is
  * cut into 2x2 blocks; each gives a local mean A (the Haar approximation)
  * and a diagonal Haar detail D = (p00 - p01 - p10 + p11)/2, which removes
- * the block's level and any linear gradient and, under Poisson-Gaussian
- * noise, satisfies E[D^2 | A] = a A + b exactly for a locally constant
- * signal. A block is smooth when a plane fits the means A of its 3x3 block
- * neighbourhood within the noise (residual sum of squares below the 99.5 %
- * point of chi^2 with 6 degrees of freedom, the noise from a first, robust
- * fit). Smooth blocks are sorted by A into equal-count level sets; each
- * gives (mean A, mean D^2); the line is fitted by iteratively reweighted
+ * the block's level and any linear gradient; E[D^2] = a mu + b for a
+ * block of true level mu. A block is smooth when a plane fits the means A
+ * of its 8 neighbouring blocks within the noise (residual sum of squares
+ * below the 99.5 % point of chi^2 with 5 degrees of freedom, the noise from
+ * a first, robust fit). Smooth blocks are sorted by their neighbours' mean
+ * (not their own A, whose noise would flatten the slope) into equal-count
+ * level sets; each gives (mean A, mean D^2); the line is fitted by
+ * iteratively reweighted
  * least squares with weights n / (2 kappa var^2) (kappa: the measured
  * kurtosis factor of D), standard errors scaled by sqrt(chi2_red) when
  * above 1. Cost: a few passes over the frame and one sort.
