@@ -35,6 +35,8 @@ static const cli_opt calib_table[] = {
     {"saturation", 0, 1, "V",
      "Pixels at or above V are saturated and left out. Default: the format's maximum for "
      "integer files (255, 65535), none for float files."},
+    {"channel", 0, 1, "r|g|b|luma",
+     "Channel to take from colour files. Default: none (grayscale only)."},
     {"output", 'o', 1, "OUT.json", "Write the calibration as JSON. Default: not written."},
     {"overwrite", 0, 0, "", "Replace OUT.json when it exists. Default: off."},
     {"quiet", 0, 0, "", "Print only the --noise spec line. Default: off."},
@@ -77,6 +79,7 @@ typedef struct calib_opts {
     int dark_given;
     const char *frame, *out;
     double saturation; /* NaN: from each file's format */
+    pp_channel channel; /* --channel */
     double exposure[PP_PTC_MAX_LEVELS];
     size_t nexposure;
     int quiet, overwrite;
@@ -187,6 +190,10 @@ static int parse(int argc, char **argv, calib_opts *o)
     o->saturation = NAN;
     if ((rc = cli_get_double(&a, "saturation", -1e300, 1e300, 0, &o->saturation)) != 0)
         return rc;
+    pp_status cst;
+    if (cli_given(&a, "channel") &&
+        (cst = pp_channel_parse(cli_str(&a, "channel"), &o->channel)) != PP_OK)
+        return cli_fail(cst);
     if (o->frame && (o->dark_given || o->nflat))
         return cli_opt_error("frame", "cannot be used with --dark/--flat (one frame, or darks "
                                       "and flats)");
@@ -227,6 +234,7 @@ static int add_file(const calib_opts *o, const char *file, const char *what, pp_
 {
     pp_read_options ro;
     pp_read_options_defaults(&ro);
+    ro.channel = o->channel;
     unsigned pages = 1;
     for (unsigned p = 0; p < pages; p++) {
         pp_read_info info;
@@ -361,7 +369,10 @@ static int run_frame_fit(const calib_opts *o, pp_noise_spec *spec, pp_noise_fit 
 {
     pp_read_info info;
     pp_image *img = NULL;
-    pp_status st = pp_image_read(o->frame, NULL, &img, &info);
+    pp_read_options ro;
+    pp_read_options_defaults(&ro);
+    ro.channel = o->channel;
+    pp_status st = pp_image_read(o->frame, &ro, &img, &info);
     if (st != PP_OK)
         return cli_fail(st);
     if (info.nonfinite) {
