@@ -1,7 +1,8 @@
 """The single-frame noise fit (pixpost calibrate --frame) on simulated camera
 frames: gain error and coverage of its 95 % interval, by scene kind, frame
 size and blur. Usage: PP_BIN=build/pixpost /usr/bin/python3 bench/calib_frame.py
-[trials] [size...]. Frames from tests/calibref.py; results in bench/NOTES.md."""
+[trials] [size...]. Frames from tests/calibref.py; results in the README
+("Calibrating the camera"), 2026-12-04."""
 import json
 import os
 import subprocess
