@@ -30,9 +30,9 @@
  * Cost: four passes over the frame, one sort of the blocks (n log n), and
  * a sort per level set for the robust first pass.
  */
-#include "pixpost/calib.h"
 #include "calib_internal.h"
 #include "internal.h"
+#include "pixpost/calib.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -235,8 +235,10 @@ static void finish(pp_noise_fit *out, const fit_state *fs)
         double a = out->a, b = out->b;
         out->zero_level = -b / a;
         double ga = b / (a * a), gb = -1 / a;
-        out->zero_level_se = sqrt(fmax(ga * ga * out->a_se * out->a_se + gb * gb * out->b_se *
-                                   out->b_se + 2 * ga * gb * out->cov_ab, 0));
+        out->zero_level_se =
+            sqrt(fmax(ga * ga * out->a_se * out->a_se + gb * gb * out->b_se * out->b_se +
+                          2 * ga * gb * out->cov_ab,
+                      0));
     } else {
         out->zero_level = NAN;
         out->zero_level_se = NAN;
@@ -286,8 +288,9 @@ pp_status pp_noise_fit_frame(const pp_image *frame, const pp_frame_fit_config *c
     }
     memset(out, 0, sizeof *out);
     if (cfg->per_level < 2 || cfg->max_levels < 3 || cfg->max_levels > PP_FRAME_FIT_MAX_LEVELS)
-        return pp_fail(PP_ERR_ARG, "single-frame noise fit: per_level must be >= 2 and "
-                                   "max_levels 3 to %d",
+        return pp_fail(PP_ERR_ARG,
+                       "single-frame noise fit: per_level must be >= 2 and "
+                       "max_levels 3 to %d",
                        PP_FRAME_FIT_MAX_LEVELS);
     if (frame->width < 16 || frame->height < 16)
         return pp_fail(PP_ERR_ARG,

@@ -2,8 +2,8 @@
  * writes and the "noise_estimate" object of summary.json (contract in
  * include/pixpost/calib.h). Numbers with 10 significant digits; a value
  * that is not finite is null. Cost: a few hundred bytes of text. */
-#include "pixpost/calib.h"
 #include "internal.h"
+#include "pixpost/calib.h"
 #include "pixpost/output.h"
 #include <math.h>
 
@@ -31,13 +31,13 @@ static void ci95(FILE *f, int indent, const char *key, double v, double se)
     fputc(']', f);
 }
 
-void pp_noise_fit_json(FILE *f, const pp_noise_fit *fit, const pp_noise_spec *chosen,
-                       int indent)
+void pp_noise_fit_json(FILE *f, const pp_noise_fit *fit, const pp_noise_spec *chosen, int indent)
 {
     int in = indent;
-    fprintf(f, "{\n%*s\"method\": \"single-frame Poisson-Gaussian fit (Foi, Trimeche, "
-               "Katkovnik & Egiazarian, IEEE TIP 2008): var = a * mean + b over smooth "
-               "2x2 blocks\"",
+    fprintf(f,
+            "{\n%*s\"method\": \"single-frame Poisson-Gaussian fit (Foi, Trimeche, "
+            "Katkovnik & Egiazarian, IEEE TIP 2008): var = a * mean + b over smooth "
+            "2x2 blocks\"",
             in, "");
     key_num(f, in, "a", fit->a);
     key_num(f, in, "a_se", fit->a_se);
@@ -141,8 +141,8 @@ static void ptc_json(FILE *f, const pp_ptc_result *r)
     fputs("]\n  }", f);
 }
 
-pp_status pp_calib_write_json(const char *path, const pp_ptc_result *ptc,
-                              const pp_noise_fit *fit, const pp_noise_spec *spec)
+pp_status pp_calib_write_json(const char *path, const pp_ptc_result *ptc, const pp_noise_fit *fit,
+                              const pp_noise_spec *spec)
 {
     char tmp[PP_PATH_MAX], text[256];
     FILE *f;

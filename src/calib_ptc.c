@@ -14,9 +14,9 @@
  * that turns down at its top instead.
  * Cost: a handful of arithmetic on at most PP_PTC_MAX_LEVELS points.
  */
-#include "pixpost/calib.h"
 #include "calib_internal.h"
 #include "internal.h"
+#include "pixpost/calib.h"
 #include <math.h>
 #include <string.h>
 
@@ -73,12 +73,12 @@ static pp_status check_top(const pp_series_stats *level, size_t n)
     return PP_OK;
 }
 
-static pp_status check_levels(const pp_series_stats *dark, const pp_series_stats *level,
-                              size_t n)
+static pp_status check_levels(const pp_series_stats *dark, const pp_series_stats *level, size_t n)
 {
     if (n < 2)
-        return pp_fail(PP_ERR_ARG, "photon transfer needs flats at 2 or more light levels "
-                                   "(%zu given); 5 to 8 levels from dim to bright are better",
+        return pp_fail(PP_ERR_ARG,
+                       "photon transfer needs flats at 2 or more light levels "
+                       "(%zu given); 5 to 8 levels from dim to bright are better",
                        n);
     if (n > PP_PTC_MAX_LEVELS)
         return pp_fail(PP_ERR_ARG, "%zu flat levels given; at most %d are accepted", n,

@@ -14,8 +14,8 @@
  * Cost: two passes over each frame; memory 2 doubles + 1 byte per pixel and
  * one double per frame.
  */
-#include "pixpost/calib.h"
 #include "internal.h"
+#include "pixpost/calib.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -26,9 +26,9 @@ struct pp_series {
     size_t width, height;
     double saturation;
     size_t frames;
-    double *mean, *m2;     /* per pixel, of r_l(p) */
-    unsigned char *state;  /* PIX_*: why a pixel was dropped */
-    double *frame_mean;    /* m_l */
+    double *mean, *m2;    /* per pixel, of r_l(p) */
+    unsigned char *state; /* PIX_*: why a pixel was dropped */
+    double *frame_mean;   /* m_l */
     size_t frame_cap;
 };
 
@@ -37,8 +37,8 @@ pp_status pp_series_create(size_t width, size_t height, double saturation, pp_se
     *out = NULL;
     size_t n, bytes;
     if (width == 0 || height == 0)
-        return pp_fail(PP_ERR_ARG, "series of %zux%zu frames: both sides must be at least 1",
-                       width, height);
+        return pp_fail(PP_ERR_ARG, "series of %zux%zu frames: both sides must be at least 1", width,
+                       height);
     if (!pp_mul_ok(width, height, &n) || !pp_mul_ok(n, 2 * sizeof(double), &bytes))
         return pp_fail(PP_ERR_LIMIT, "series of %zux%zu frames is too large to address", width,
                        height);
@@ -53,8 +53,7 @@ pp_status pp_series_create(size_t width, size_t height, double saturation, pp_se
     s->state = calloc(n, 1);
     if (!s->mean || !s->m2 || !s->state) {
         pp_series_free(s);
-        return pp_fail(PP_ERR_NOMEM, "out of memory for a series of %zux%zu frames", width,
-                       height);
+        return pp_fail(PP_ERR_NOMEM, "out of memory for a series of %zux%zu frames", width, height);
     }
     *out = s;
     return PP_OK;
@@ -119,8 +118,9 @@ pp_status pp_series_stats_get(const pp_series *s, pp_series_stats *out)
     memset(out, 0, sizeof *out);
     out->frames = s->frames;
     if (s->frames < 2)
-        return pp_fail(PP_ERR_ARG, "a series needs at least 2 frames (it has %zu): the "
-                                   "temporal variance is measured between frames",
+        return pp_fail(PP_ERR_ARG,
+                       "a series needs at least 2 frames (it has %zu): the "
+                       "temporal variance is measured between frames",
                        s->frames);
     size_t n = s->width * s->height, used = 0;
     double L = (double)s->frames, sum_v = 0, sum_vv = 0, sum_m = 0, sum_mm = 0;
@@ -138,12 +138,14 @@ pp_status pp_series_stats_get(const pp_series *s, pp_series_stats *out)
     }
     out->pixels = used;
     if (used < 2 && out->saturated)
-        return pp_fail(PP_ERR_ARG, "every pixel is saturated (at or above %g) in some frame; "
-                                   "lower the exposure or the light",
+        return pp_fail(PP_ERR_ARG,
+                       "every pixel is saturated (at or above %g) in some frame; "
+                       "lower the exposure or the light",
                        s->saturation);
     if (used < 2)
-        return pp_fail(PP_ERR_ARG, "a series needs at least 2 usable pixels (finite and below "
-                                   "saturation in every frame); it has %zu",
+        return pp_fail(PP_ERR_ARG,
+                       "a series needs at least 2 usable pixels (finite and below "
+                       "saturation in every frame); it has %zu",
                        used);
     double N = (double)used, mbar = 0;
     for (size_t l = 0; l < s->frames; l++)

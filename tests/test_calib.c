@@ -134,8 +134,7 @@ static void test_ptc(void)
     pp_series_stats bend[3] = {lv[0], lv[1], lv[2]};
     bend[2].temporal_var = 0.5 * lv[1].temporal_var; /* the curve turns down at its top */
     CHECK(pp_ptc_fit(&dark, bend, 3, NULL, &r) == PP_ERR_ARG &&
-              strstr(pp_error_message(), "flat level 3") &&
-              strstr(pp_error_message(), "saturates"),
+              strstr(pp_error_message(), "flat level 3") && strstr(pp_error_message(), "saturates"),
           "bend: %s", pp_error_message());
     double expo[4] = {1, 4, 16, 70}; /* the last level 9 % short of the line */
     CHECK(pp_ptc_fit(&dark, lv, 4, expo, &r) == PP_OK && r.linearity_from_exposure &&
@@ -174,8 +173,8 @@ static void test_frame_fit(void)
     CHECK(fit.blocks <= 64 * 64 - 15 * 15 - 10 * 10, "NaN and saturated blocks left out: %zu",
           fit.blocks);
     pp_noise_spec n;
-    CHECK(pp_noise_from_frame_fit(&fit, &n) == 1 && n.kind == PP_NOISE_CAMERA &&
-              n.gain == fit.a && n.offset >= fit.zero_level && n.offset == fit.darkest,
+    CHECK(pp_noise_from_frame_fit(&fit, &n) == 1 && n.kind == PP_NOISE_CAMERA && n.gain == fit.a &&
+              n.offset >= fit.zero_level && n.offset == fit.darkest,
           "camera spec from the fit: offset %g at the darkest level %g, zero level %g", n.offset,
           fit.darkest, fit.zero_level);
     /* the fitted variance is kept at the chosen offset: K^2 R^2 = a O + b */

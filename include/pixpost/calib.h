@@ -25,11 +25,11 @@
 #ifndef PIXPOST_CALIB_H
 #define PIXPOST_CALIB_H
 
-#include <stddef.h>
-#include <stdio.h>
 #include "pixpost/image.h"
 #include "pixpost/noise.h"
 #include "pixpost/status.h"
+#include <stddef.h>
+#include <stdio.h>
 
 /* ---- one series of frames at one light level ------------------------- */
 
@@ -86,22 +86,22 @@ typedef struct pp_ptc_result {
     size_t nlevels;
     pp_series_stats level[PP_PTC_MAX_LEVELS];
     double exposure[PP_PTC_MAX_LEVELS]; /* as given, NaN when not given */
-    double offset, offset_se; /* ADU: the darks' mean */
-    double gain, gain_se;     /* K, ADU per electron: slope of the fit */
-    double intercept, intercept_se; /* the fit's variance at the dark level, ADU^2 */
-    double chi2_red;          /* chi^2 / (points - 2) of the weighted fit */
-    double read, read_se;     /* electrons: sqrt(dark temporal var) / K, the
-                               * read noise the camera model needs (quantisation
-                               * noise included: the model has no other place
-                               * for it) */
-    double read_emva;         /* electrons: sqrt(dark var - 1/12) / K, EMVA 1288's
-                               * sigma_d (quantisation noise removed; NaN when
-                               * the dark variance is below 1/12) */
-    double dsnu;              /* electrons: sqrt(dark spatial var) / K */
-    double linearity_error;   /* percent, see linearity_kind */
-    int linearity_from_exposure; /* 1: EMVA 1288's linearity error of the mean
-                                  * signal against exposure; 0: half the spread
-                                  * of the relative residuals of the variance fit */
+    double offset, offset_se;           /* ADU: the darks' mean */
+    double gain, gain_se;               /* K, ADU per electron: slope of the fit */
+    double intercept, intercept_se;     /* the fit's variance at the dark level, ADU^2 */
+    double chi2_red;                    /* chi^2 / (points - 2) of the weighted fit */
+    double read, read_se;               /* electrons: sqrt(dark temporal var) / K, the
+                                         * read noise the camera model needs (quantisation
+                                         * noise included: the model has no other place
+                                         * for it) */
+    double read_emva;                   /* electrons: sqrt(dark var - 1/12) / K, EMVA 1288's
+                                         * sigma_d (quantisation noise removed; NaN when
+                                         * the dark variance is below 1/12) */
+    double dsnu;                        /* electrons: sqrt(dark spatial var) / K */
+    double linearity_error;             /* percent, see linearity_from_exposure */
+    int linearity_from_exposure;        /* 1: EMVA 1288's linearity error of the mean
+                                         * signal against exposure; 0: half the spread
+                                         * of the relative residuals of the variance fit */
     double residual[PP_PTC_MAX_LEVELS]; /* relative residual of each level's
                                          * variance from the fit */
 } pp_ptc_result;
@@ -132,33 +132,34 @@ pp_status pp_ptc_fit(const pp_series_stats *dark, const pp_series_stats *level, 
 #define PP_FRAME_FIT_MAX_LEVELS 16
 
 typedef struct pp_frame_fit_config {
-    double saturation;  /* pixel values >= this are excluded (default INFINITY) */
-    size_t per_level;   /* smooth blocks per level set, at least (default 150) */
-    size_t max_levels;  /* level sets, at most (default 16, <= PP_FRAME_FIT_MAX_LEVELS) */
+    double saturation; /* pixel values >= this are excluded (default INFINITY) */
+    size_t per_level;  /* smooth blocks per level set, at least (default 150) */
+    size_t max_levels; /* level sets, at most (default 16, <= PP_FRAME_FIT_MAX_LEVELS) */
 } pp_frame_fit_config;
 
 void pp_frame_fit_defaults(pp_frame_fit_config *cfg);
 
 typedef struct pp_noise_fit {
-    double a, a_se;        /* var = a * mean + b: a is the gain K, ADU per electron */
-    double b, b_se;        /* ADU^2; b = K^2 R^2 - K O (+ 1/12 for integer data) */
-    double cov_ab;         /* covariance of a and b */
-    double chi2_red;       /* of the weighted fit over the level sets */
+    double a, a_se;                   /* var = a * mean + b: a is the gain K, ADU per electron */
+    double b, b_se;                   /* ADU^2; b = K^2 R^2 - K O (+ 1/12 for integer data) */
+    double cov_ab;                    /* covariance of a and b */
+    double chi2_red;                  /* of the weighted fit over the level sets */
     double zero_level, zero_level_se; /* ADU: -b/a, where the fitted variance is
                                        * 0; the offset when read noise is 0, a
                                        * lower bound of the offset otherwise */
-    double darkest;        /* ADU: mean of the darkest level set */
-    size_t blocks, smooth; /* 2x2 blocks usable (finite, unsaturated) / judged smooth */
+    double darkest;                   /* ADU: mean of the darkest level set */
+    size_t blocks, smooth;            /* 2x2 blocks usable (finite, unsaturated, with 8 usable
+                                       * neighbours) / of those, judged smooth */
     size_t nlevels;
     double level_mean[PP_FRAME_FIT_MAX_LEVELS]; /* ADU */
     double level_var[PP_FRAME_FIT_MAX_LEVELS];  /* ADU^2 */
     double level_var_se[PP_FRAME_FIT_MAX_LEVELS];
     size_t level_n[PP_FRAME_FIT_MAX_LEVELS];
-    int gain_determined;   /* a >= 3 a_se: the noise grows with the signal
-                            * clearly enough to give a gain (3 standard errors,
-                            * common practice); 0: the frame cannot separate
-                            * gain from offset (too narrow a range of levels,
-                            * or no signal-dependent noise) */
+    int gain_determined; /* a >= 3 a_se: the noise grows with the signal
+                          * clearly enough to give a gain (3 standard errors,
+                          * common practice); 0: the frame cannot separate
+                          * gain from offset (too narrow a range of levels,
+                          * or no signal-dependent noise) */
 } pp_noise_fit;
 
 /* Fits var = a mean + b on one frame (cfg NULL: defaults). Method (after
@@ -176,8 +177,9 @@ typedef struct pp_noise_fit {
  * least squares with weights n / (2 kappa var^2) (kappa: the measured
  * kurtosis factor of D), standard errors scaled by sqrt(chi2_red) when
  * above 1. Cost: a few passes over the frame and one sort.
- * Fails (PP_ERR_ARG) for frames under 16 x 16 pixels or with fewer than
- * 2 * per_level smooth blocks. */
+ * NaN (unobserved) and saturated pixels are skipped: a block with one takes
+ * no part, nor do its neighbours' judgements. Fails (PP_ERR_ARG) for frames
+ * under 16 x 16 pixels or with fewer than 3 * per_level smooth blocks. */
 pp_status pp_noise_fit_frame(const pp_image *frame, const pp_frame_fit_config *cfg,
                              pp_noise_fit *out);
 
@@ -207,13 +209,12 @@ void pp_noise_round(pp_noise_spec *s);
  * by `indent` spaces: {"method": ..., "a": ..., ...}. chosen: the spec made
  * from it (may be NULL). Used by calibrate's file and summary.json's
  * "noise_estimate". */
-void pp_noise_fit_json(FILE *f, const pp_noise_fit *fit, const pp_noise_spec *chosen,
-                       int indent);
+void pp_noise_fit_json(FILE *f, const pp_noise_fit *fit, const pp_noise_spec *chosen, int indent);
 
 /* Writes a calibration file atomically: {"pixpost_calibration": 1,
  * "noise": spec text, "photon_transfer": {...} or "single_frame": {...}}.
  * Exactly one of ptc and fit is non-NULL. */
-pp_status pp_calib_write_json(const char *path, const pp_ptc_result *ptc,
-                              const pp_noise_fit *fit, const pp_noise_spec *spec);
+pp_status pp_calib_write_json(const char *path, const pp_ptc_result *ptc, const pp_noise_fit *fit,
+                              const pp_noise_spec *spec);
 
 #endif

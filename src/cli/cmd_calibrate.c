@@ -78,7 +78,7 @@ typedef struct calib_opts {
     size_t nflat;
     int dark_given;
     const char *frame, *out;
-    double saturation; /* NaN: from each file's format */
+    double saturation;  /* NaN: from each file's format */
     pp_channel channel; /* --channel */
     double exposure[PP_PTC_MAX_LEVELS];
     size_t nexposure;
@@ -122,8 +122,9 @@ static int parse_exposures(const char *v, calib_opts *o)
         char *end;
         double t = strtod(p, &end);
         if (end == p || !isfinite(t) || (*end && *end != ','))
-            return cli_opt_error("exposure", "'%s' is not a list of numbers (expected "
-                                             "--exposure T1,T2,..., one per --flat)",
+            return cli_opt_error("exposure",
+                                 "'%s' is not a list of numbers (expected "
+                                 "--exposure T1,T2,..., one per --flat)",
                                  v);
         if (o->nexposure == PP_PTC_MAX_LEVELS)
             return cli_opt_error("exposure", "more than %d values", PP_PTC_MAX_LEVELS);
@@ -131,8 +132,9 @@ static int parse_exposures(const char *v, calib_opts *o)
         p = *end ? end + 1 : end;
     }
     if (o->nexposure != o->nflat)
-        return cli_opt_error("exposure", "%zu values for %zu --flat levels (give one per "
-                                         "--flat, in the same order)",
+        return cli_opt_error("exposure",
+                             "%zu values for %zu --flat levels (give one per "
+                             "--flat, in the same order)",
                              o->nexposure, o->nflat);
     return 0;
 }
@@ -246,16 +248,17 @@ static int add_file(const calib_opts *o, const char *file, const char *what, pp_
         pages = info.pages;
         if (info.nonfinite) {
             pp_image_free(img);
-            return cli_error("%s: %zu pixels are NaN or infinite; mask or repair them first",
-                             file, info.nonfinite);
+            return cli_error("%s: %zu pixels are NaN or infinite; mask or repair them first", file,
+                             info.nonfinite);
         }
         if (size->width && (img->width != size->width || img->height != size->height)) {
             size_t w = img->width, h = img->height;
             pp_image_free(img);
-            return cli_error("%s %s: frame is %zux%zu but the first dark is %zux%zu; every frame of "
-                             "a calibration must have the same size (same camera region and "
-                             "binning)",
-                             what, file, w, h, size->width, size->height);
+            return cli_error(
+                "%s %s: frame is %zux%zu but the first dark is %zux%zu; every frame of "
+                "a calibration must have the same size (same camera region and "
+                "binning)",
+                what, file, w, h, size->width, size->height);
         }
         size->width = img->width;
         size->height = img->height;
@@ -275,8 +278,8 @@ static int add_file(const calib_opts *o, const char *file, const char *what, pp_
     return 0;
 }
 
-static int read_group(const calib_opts *o, const group *g, const char *what,
-                      pp_series_stats *out, frame_size *size)
+static int read_group(const calib_opts *o, const group *g, const char *what, pp_series_stats *out,
+                      frame_size *size)
 {
     pp_series *s = NULL;
     size_t frames = 0;
@@ -288,8 +291,7 @@ static int read_group(const calib_opts *o, const group *g, const char *what,
                        "measured between frames (give more files or a multi-page TIFF)",
                        what, frames, g->file[0]);
     if (!rc && pp_series_stats_get(s, out) != PP_OK)
-        rc = cli_error("%s %s%s: %s", what, g->file[0], g->n > 1 ? " ..." : "",
-                       pp_error_message());
+        rc = cli_error("%s %s%s: %s", what, g->file[0], g->n > 1 ? " ..." : "", pp_error_message());
     pp_series_free(s);
     return rc;
 }
@@ -305,8 +307,7 @@ static void print_ptc(const pp_ptc_result *r)
     printf("  read noise  %.4g electrons rms (se %.2g; %.4g without the 1/12 ADU^2 of "
            "quantisation, EMVA 1288's sigma_d)\n",
            r->read, r->read_se, r->read_emva);
-    printf("  dark fixed pattern %.3g electrons rms (pixel-to-pixel, not in the model)\n",
-           r->dsnu);
+    printf("  dark fixed pattern %.3g electrons rms (pixel-to-pixel, not in the model)\n", r->dsnu);
     printf("  linearity error %.2g %% (%s); fit chi^2 per degree of freedom %.2g\n",
            r->linearity_error,
            r->linearity_from_exposure ? "mean signal against --exposure, EMVA 1288"
@@ -377,8 +378,8 @@ static int run_frame_fit(const calib_opts *o, pp_noise_spec *spec, pp_noise_fit 
         return cli_fail(st);
     if (info.nonfinite) {
         pp_image_free(img);
-        return cli_error("%s: %zu pixels are NaN or infinite; mask or repair them first",
-                         o->frame, info.nonfinite);
+        return cli_error("%s: %zu pixels are NaN or infinite; mask or repair them first", o->frame,
+                         info.nonfinite);
     }
     pp_frame_fit_config cfg;
     pp_frame_fit_defaults(&cfg);
@@ -412,8 +413,8 @@ int cli_cmd_calibrate(int argc, char **argv)
         printf("--noise %s\n", text);
     }
     if (!rc && o->out) {
-        pp_status st = pp_calib_write_json(o->out, o->frame ? NULL : &ptc,
-                                           o->frame ? &fit : NULL, &spec);
+        pp_status st =
+            pp_calib_write_json(o->out, o->frame ? NULL : &ptc, o->frame ? &fit : NULL, &spec);
         rc = st == PP_OK ? 0 : cli_fail(st);
         if (!rc && !o->quiet)
             printf("wrote %s\n", o->out);
