@@ -219,6 +219,9 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
         ri.noise_estimate = &na->fit;
         ri.noise_chosen = &na->spec;
         ri.noise_note = na->note;
+        ri.noise_spec = na->noise_text;
+        if (na->prior_text[0])
+            ri.prior_spec = na->prior_text;
     }
     if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
         return fail_lib(r, st);
