@@ -188,6 +188,18 @@ for args, words in cases:
     pptest.check(ok and not os.path.exists(out_json),
                  "calibrate %s -> exit %d, %r" % (" ".join(os.path.basename(a) for a in args),
                                                   p.returncode, msg))
+# a colour file: refused without --channel (the reader's message names it),
+# read with it
+rgb = os.path.join(tmp, "rgb.tif")
+tifffile.imwrite(rgb, np.round(rng.normal(500, 10, (64, 64, 3))).astype(np.uint16),
+                 photometric="rgb")
+p = pptest.run(["calibrate", "--frame", rgb], check=False)
+pptest.check(p.returncode == 1 and "rgb.tif" in p.stderr and "--channel" in p.stderr,
+             "colour frame without --channel: %r" % p.stderr.strip())
+p = pptest.run(["calibrate", "--frame", rgb, "--channel", "g"], check=False)
+pptest.check(p.returncode == 0 and "--noise gaussian" in p.stdout,
+             "colour frame with --channel g: exit %d" % p.returncode)
+
 # an existing output is not replaced without --overwrite
 with open(out_json, "w") as fh:
     fh.write("mine")
