@@ -254,12 +254,14 @@ static pp_status fit_blocks(block *blk, const unsigned char *valid, size_t bh, s
     out->blocks = n;
     double m4[PP_FRAME_FIT_MAX_LEVELS];
     fit_state fs;
-    if (n < 3 * cfg->per_level || level_sets(sel, n, cfg, 1, out, m4, scratch) < 3 ||
-        irls(out, 1.0, &fs))
+    if (n < 3 * cfg->per_level || level_sets(sel, n, cfg, 1, out, m4, scratch) < 3)
         return pp_fail(PP_ERR_ARG,
                        "single-frame noise fit: %zu usable 2x2 blocks (finite, unsaturated, "
                        "with usable neighbours), %zu needed; give a larger frame",
                        n, 3 * cfg->per_level);
+    if (irls(out, 1.0, &fs))
+        return pp_fail(PP_ERR_ARG, "single-frame noise fit: the frame has no noise to fit (its "
+                                   "pixel-to-pixel differences are all 0, or it is constant)");
     for (int pass = 0; pass < 2; pass++) {
         size_t m = select_blocks(blk, valid, bh, bw, &fs, sel);
         out->smooth = m;
