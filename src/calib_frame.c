@@ -1,16 +1,19 @@
 /* pixpost — the Poisson-Gaussian noise of one frame, var(y) = a E[y] + b,
  * after Foi, Trimeche, Katkovnik & Egiazarian, "Practical Poissonian-
  * Gaussian noise modeling and fitting for single-image raw-data", IEEE
- * Trans. Image Process. 17(10), 2008 (their section IV: wavelet detail and
- * approximation coefficients, a smoothness mask, level sets, a fit of the
- * level sets' (mean, variance) pairs). Contract and method summary in
- * include/pixpost/calib.h.
+ * Trans. Image Process. 17(10), 2008. Their algorithm, as we remember it:
+ * the finest-scale wavelet detail and approximation coefficients, a
+ * smoothness mask from an edge detector on the approximation, level sets
+ * of the smooth coefficients by their approximation value, and a maximum-
+ * likelihood fit of the level sets' (mean, sd) pairs (they also model
+ * clipping, which we leave to the saturation value). Contract and method
+ * summary in include/pixpost/calib.h.
  *
  * Our choices, each measured on simulated camera frames (README,
  * "Calibrating the camera"; bench/calib_frame.py):
- * - the finest Haar transform on 2x2 blocks (Foi et al. use a Daubechies
- *   wavelet at the finest scale, downsampled by 2; Haar is db1). The
- *   blocks do not overlap, so their details are independent;
+ * - the finest Haar transform on 2x2 blocks (a Daubechies wavelet in their
+ *   paper, as we remember; Haar is db1). The blocks do not overlap, so
+ *   their details are independent;
  * - a block's level set and its smoothness are judged from its 8
  *   neighbours only, never from the block itself. Sorting blocks by their
  *   own mean A flattens the slope: A carries the block's read noise, which
@@ -26,7 +29,9 @@
  *   relative standard error of the gain 3.9 % against 2.3 % on 48
  *   simulated 256^2 frames in our numpy prototype) without less bias;
  * - the level sets' variances by plain means of D^2 (efficient); the first
- *   pass, before any block is judged, uses the robust 1.4826 median |D|.
+ *   pass, before any block is judged, uses the robust 1.4826 median |D|;
+ * - the line by iteratively reweighted least squares on the variances
+ *   (not their maximum likelihood on standard deviations).
  * Cost: four passes over the frame, one sort of the blocks (n log n), and
  * a sort per level set for the robust first pass.
  */
