@@ -1,7 +1,7 @@
-/* pixpost — the photon transfer fit of EMVA 1288 (release 3.1, 2010; the
- * formulas below as we remember them): offset, gain, read noise and
- * linearity from the statistics of a dark series and flat series at
- * several light levels (src/calib_series.c gives those).
+/* pixpost — the photon transfer fit of EMVA 1288 (release 3.1, in effect
+ * from December 2016; the formulas below as we remember them): offset,
+ * gain, read noise and linearity from the statistics of a dark series and
+ * flat series at several light levels (src/calib_series.c gives those).
  *
  * EMVA 1288's linear camera model: mean mu_y = mu_dark + K mu_e and
  * temporal variance sigma_y^2 = K^2 sigma_d^2 + sigma_q^2 + K (mu_y -

@@ -3,8 +3,9 @@
  * Two ways to the numbers `--noise camera:gain=G,offset=O,read=R` needs:
  *
  * 1. Photon transfer (EMVA Standard 1288, "Standard for Characterization of
- *    Image Sensors and Cameras", release 3.1, 2010; formulas as we remember
- *    them, checked against our own simulations): a series of dark frames and
+ *    Image Sensors and Cameras", release 3.1, in effect from December
+ *    2016; formulas as we remember them, checked against our own
+ *    simulations): a series of dark frames and
  *    one series of evenly lit ("flat") frames per light level. Per series,
  *    pp_series accumulates the per-pixel temporal statistics frame by frame
  *    (the frames are not kept); pp_ptc_fit fits the photon transfer line
