@@ -442,6 +442,12 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     pp_json_write_string(f, info ? info->psf_spec : NULL);
     fputs(",\n  \"noise\": ", f);
     pp_json_write_string(f, noise);
+    if (info && info->noise_estimate) { /* --noise auto: the fit and the choice */
+        fputs(",\n  \"noise_estimate\": ", f);
+        pp_noise_fit_json(f, info->noise_estimate, info->noise_chosen, 4);
+        fputs(",\n  \"noise_estimate_note\": ", f);
+        pp_json_write_string(f, info->noise_note);
+    }
     fputs(",\n  \"prior\": ", f);
     pp_json_write_string(f, prior);
     fprintf(f, ",\n  \"hyperprior\": {\"lambda\": [%.10g, %.10g], \"delta\": [%.10g, %.10g], "

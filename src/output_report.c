@@ -10,17 +10,20 @@
 #include "pixpost/ppcheck.h"
 #include "pixpost/report.h"
 
-enum { NSET = 13 };
+enum { NSET = 13, NSET_MAX = 14 };
 
 pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image *frame,
                            const pp_run_info *info)
 {
     const pp_sampler_config *c = &s->cfg;
-    static const char *const keys[NSET] = {
+    static const char *const keys[NSET_MAX] = {
         "input", "sampler", "chains", "burn-in / iterations / thin", "seed", "boundary",
         "grid", "PSF", "noise", "prior", "hyperpriors Gamma(shape, rate)", "bounds",
-        "unobserved pixels"};
-    char val[NSET][320];
+        "unobserved pixels", "noise estimate"};
+    char val[NSET_MAX][600];
+    size_t nset = NSET;
+    if (info && info->noise_note) /* --noise auto: what was estimated and chosen */
+        snprintf(val[nset++], sizeof val[0], "%s", info->noise_note);
     snprintf(val[0], sizeof val[0], "%s", info && info->input_path ? info->input_path : "-");
     snprintf(val[1], sizeof val[1], "%s", pp_sampler_kind_name(c->kind));
     snprintf(val[2], sizeof val[2], "%u (kept %zu draws each)", c->chains, s->trace.kept);
@@ -43,8 +46,8 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
              "%zu of %zu (masked %zu, saturated %zu); estimated there from their neighbours "
              "(wider bounds)",
              nmiss, nobs + nmiss, info ? info->masked : 0, info ? info->saturated : 0);
-    const char *vals[NSET];
-    for (int i = 0; i < NSET; i++)
+    const char *vals[NSET_MAX];
+    for (size_t i = 0; i < nset; i++)
         vals[i] = val[i];
 
     pp_report_scalar *rows = calloc(s->trace.ncols, sizeof *rows);
@@ -71,7 +74,7 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
     in.chains = c->chains;
     in.settings_keys = keys;
     in.settings_values = vals;
-    in.nsettings = NSET;
+    in.nsettings = nset;
     in.warnings = (const char *const *)s->warnings;
     in.nwarnings = s->nwarnings;
     in.warning_parts = s->warning_part;

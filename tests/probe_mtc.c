@@ -117,8 +117,8 @@ static int do_run(int argc, char **argv)
         return fail("create");
     if (pp_sampler_run(s) != PP_OK)
         return fail("run");
-    pp_run_info ri = {.input_path = argv[0], .psf_spec = argv[1], .noise_spec = "gaussian", .prior_spec = prior_text,
-                      .command_line = "probe_mtc run"};
+    pp_run_info ri = {.input_path = argv[0], .psf_spec = argv[1], .noise_spec = "gaussian",
+                      .prior_spec = prior_text, .command_line = "probe_mtc run"};
     if (pp_output_write(argv[2], s, frame, &ri) != PP_OK)
         return fail(argv[2]);
     printf("%.17g\n", pp_sampler_seconds(s));

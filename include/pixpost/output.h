@@ -17,6 +17,7 @@
 
 #include <stdio.h>
 #include "pixpost/sampler.h"
+#include "pixpost/calib.h"
 
 /* What the caller knows about the run that the sampler does not. Every
  * string may be NULL. */
@@ -42,6 +43,12 @@ typedef struct pp_run_info {
      * predictive check's residual map to residual.tif. */
     const struct pp_datacheck *data_checks;
     const struct pp_ppcheck *predictive;
+    /* --noise auto (NULL otherwise): the single-frame fit, the model chosen
+     * from it and the sentence saying so; summary.json's "noise_estimate"
+     * and a line of the report's settings. */
+    const pp_noise_fit *noise_estimate;
+    const pp_noise_spec *noise_chosen;
+    const char *noise_note;
 } pp_run_info;
 
 /* Writes s (NULL: "") to f as a JSON string literal: quotes, with '"' and

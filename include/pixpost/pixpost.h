@@ -15,5 +15,6 @@
 #include "pixpost/saturation.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/ppcheck.h"
+#include "pixpost/calib.h"
 #define PP_VERSION_STRING "0.1.0"
 #endif

@@ -165,6 +165,8 @@ typedef struct cli_sample_opts {
     int overwrite;          /* --overwrite */
     const char *mask;       /* --mask FILE (nonzero = unobserved) or NULL */
     int keep_saturated;     /* --keep-saturated: saturated pixels stay data */
+    int noise_auto;         /* --noise auto: estimated per frame (noise_auto.c) */
+    int prior_given;        /* --prior was given */
 } cli_sample_opts;
 
 /* The sample options table (NULL-terminated). */
@@ -179,6 +181,30 @@ int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o);
  * 0, CLI_HELP (help printed to stdout) or CLI_EXIT_USAGE. */
 int cli_sample_opts_parse(int argc, char **argv, cli_sample_opts *o);
 void cli_sample_help(FILE *fp);
+
+/* ---- --noise auto (noise_auto.c) ------------------------------------ */
+
+/* One frame's estimate. Filled by cli_noise_auto_run; used == 0 when
+ * --noise auto was not given (then nothing else is set). */
+typedef struct cli_noise_auto {
+    int used;
+    int camera;            /* 1: a camera spec; 0: the gaussian fallback */
+    pp_noise_fit fit;
+    pp_noise_spec spec;    /* the chosen model */
+    pp_prior_spec prior;   /* the photon models' default prior, when prior_text[0] */
+    char noise_text[256];  /* spec as text, for summary.json and the report */
+    char prior_text[128];
+    char note[512];        /* the sentence printed and recorded */
+} cli_noise_auto;
+
+/* With o->noise_auto: fits the frame and chooses the model; prints the note
+ * on stderr unless o->quiet. Returns 0, or CLI_EXIT_USAGE with msg set
+ * (frame too small or too detailed for the fit). */
+int cli_noise_auto_run(const cli_sample_opts *o, const char *path, const pp_image *frame,
+                       const pp_read_info *info, cli_noise_auto *na, char *msg, size_t len);
+/* Puts the chosen model (and the photon prior, when --prior was not given)
+ * into cfg; nothing without --noise auto. */
+void cli_noise_auto_apply(const cli_noise_auto *na, pp_sampler_config *cfg);
 
 /* ---- where the FFT plans come from (plan_cache.c) ------------------- */
 
@@ -263,10 +289,12 @@ int cli_cmd_simulate(int argc, char **argv);
 int cli_cmd_sample(int argc, char **argv); /* cmd_sample.c (the lead) */
 int cli_cmd_batch(int argc, char **argv);  /* cmd_batch.c */
 int cli_cmd_psf(int argc, char **argv);
+int cli_cmd_calibrate(int argc, char **argv); /* cmd_calibrate.c */
 int cli_cmd_demo(int argc, char **argv);
 
 void cli_simulate_help(FILE *fp);
 void cli_psf_help(FILE *fp);
+void cli_calibrate_help(FILE *fp);
 void cli_demo_help(FILE *fp);
 
 #endif

@@ -129,6 +129,8 @@ static void settings_text(const cli_args *a, const cli_sample_opts *o, char *buf
     const pp_sampler_config *c = &o->cfg;
     char noise[256], prior[256];
     pp_noise_format(&c->noise, noise, sizeof noise);
+    if (o->noise_auto) /* estimated per frame: the setting is "auto" */
+        snprintf(noise, sizeof noise, "auto");
     pp_prior_format(&c->prior, prior, sizeof prior);
     size_t used = (size_t)snprintf(
         buf, len,

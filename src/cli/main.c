@@ -1,7 +1,7 @@
 /* pixpost command line — entry point: picks the command and hands it argv.
  *
- * `pixpost <command> [options]` with commands simulate, sample, batch, psf
- * and demo; `pixpost --help`, `pixpost <command> --help`, `pixpost
+ * `pixpost <command> [options]` with commands simulate, sample, batch, psf,
+ * calibrate and demo; `pixpost --help`, `pixpost <command> --help`, `pixpost
  * --version`. Each command gets (argc - 1, argv + 1), so its argv[0] is its
  * own name. Exit statuses are listed in cli.h. Cost: nothing measurable.
  */
@@ -20,6 +20,7 @@ static const command commands[] = {
     {"sample", cli_cmd_sample, "draw posterior samples for one frame; write mean, sd, bounds"},
     {"batch", cli_cmd_batch, "run sample on every frame of a folder (sharded, resumable)"},
     {"psf", cli_cmd_psf, "write a point-spread function kernel as a float TIFF"},
+    {"calibrate", cli_cmd_calibrate, "measure camera offset, gain and read noise (--noise spec)"},
     {"demo", cli_cmd_demo, "run on the bundled demonstration frames"},
     {NULL, NULL, NULL},
 };
@@ -37,6 +38,7 @@ static void usage(FILE *fp)
           "  pixpost psf airy:na=1.4,wavelength=0.52,pixel=0.065 -o psf.tif\n"
           "  pixpost simulate truth.tif --psf gaussian:sigma=1.6 --noise gaussian:sigma=2.5 "
           "-o frame.tif\n"
+          "  pixpost calibrate --dark dark.tif --flat dim.tif --flat mid.tif --flat bright.tif\n"
           "  pixpost sample frame.tif --psf gaussian:sigma=1.6 --noise gaussian -o out/\n"
           "  pixpost demo -o pixpost-demo\n\n"
           "Exit status: 0 success; 1 bad usage or bad input (one line on stderr naming the file\n"
@@ -67,7 +69,7 @@ int main(int argc, char **argv)
             return c->run(argc - 1, argv + 1);
     if (name[0] == '-')
         return cli_error("unknown option '%s' before the command (see 'pixpost --help')", name);
-    return cli_error("unknown command '%s' (commands: simulate, sample, batch, psf, demo; see "
-                     "'pixpost --help')",
+    return cli_error("unknown command '%s' (commands: simulate, sample, batch, psf, calibrate, "
+                     "demo; see 'pixpost --help')",
                      name);
 }

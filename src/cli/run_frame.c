@@ -183,9 +183,11 @@ static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **fra
  * an error fails the frame before anything is written; warnings stay in
  * r->checks for the summary, the report and the end-of-run lines. */
 static int check_data(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
-                      const pp_image *psf)
+                      const pp_image *psf, const cli_noise_auto *na)
 {
-    pp_status st = pp_datacheck_run(frame, &o->cfg.noise, psf, o->cfg.boundary, &r->checks);
+    pp_sampler_config cfg = o->cfg; /* with --noise auto, the model chosen */
+    cli_noise_auto_apply(na, &cfg);
+    pp_status st = pp_datacheck_run(frame, &cfg.noise, psf, cfg.boundary, &r->checks);
     if (st != PP_OK)
         return fail_frame(r, st);
     if (r->checks.errors)
@@ -194,9 +196,11 @@ static int check_data(const cli_sample_opts *o, cli_frame_run *r, const pp_image
 }
 
 static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
-                        const pp_image *psf, progress_state *ps, int fft_effort)
+                        const pp_image *psf, progress_state *ps, int fft_effort,
+                        const cli_noise_auto *na)
 {
     pp_sampler_config cfg = o->cfg;
+    cli_noise_auto_apply(na, &cfg);
     cfg.fft_effort = fft_effort;
     cfg.seed = r->seed;
     cfg.threads = r->threads;
@@ -216,7 +220,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
 
 static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
                             const pp_image *psf, const progress_state *ps,
-                            const cli_plans *plans)
+                            const cli_plans *plans, const cli_noise_auto *na)
 {
     int rc = cli_make_dirs(r->outdir, r->message, sizeof r->message);
     if (rc)
@@ -242,10 +246,21 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
         r->predictive = NULL;
         snprintf(r->predictive_note, sizeof r->predictive_note, "%s", pp_error_message());
     }
-    pp_run_info ri = {r->frame,      o->psf_text,     o->noise_text,    o->prior_text,
-                      r->command_line, cli_since(&r->t0), plans->summary,
-                      r->masked,     r->sat.count,    r->sat.level,     r->sat.rule,
-                      &r->checks,    r->predictive};
+    pp_run_info ri = {.input_path = r->frame, .psf_spec = o->psf_text,
+                      .noise_spec = o->noise_text, .prior_spec = o->prior_text,
+                      .command_line = r->command_line, .seconds_total = cli_since(&r->t0),
+                      .fft_plans = plans->summary,
+                      .masked = r->masked, .saturated = r->sat.count,
+                      .saturation_level = r->sat.level, .saturation_rule = r->sat.rule,
+                      .data_checks = &r->checks, .predictive = r->predictive};
+    if (na->used) { /* --noise auto: the estimate and the sentence saying what was chosen */
+        ri.noise_estimate = &na->fit;
+        ri.noise_chosen = &na->spec;
+        ri.noise_note = na->note;
+        ri.noise_spec = na->noise_text;
+        if (na->prior_text[0])
+            ri.prior_spec = na->prior_text;
+    }
     if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
         return fail_lib(r, st);
     return 0;
@@ -264,19 +279,22 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     memset(&r->info, 0, sizeof r->info);
     progress_state ps;
     cli_plans plans;
+    cli_noise_auto na;
     int rc = read_frame(o, r, &frame);
+    if (!rc)
+        rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
     if (!rc && (st = pp_psf_make(&o->psf, 0, &psf)) != PP_OK)
         rc = fail_lib(r, st);
     if (!rc)
-        rc = check_data(o, r, frame, psf);
+        rc = check_data(o, r, frame, psf, &na);
     if (!rc)
         rc = cli_plans_load(o, &plans, r->message, sizeof r->message);
     if (!rc)
-        rc = make_sampler(o, r, frame, psf, &ps, plans.effort);
+        rc = make_sampler(o, r, frame, psf, &ps, plans.effort, &na);
     if (!rc)
         rc = cli_plans_save(o, &plans, r->sampler, r->message, sizeof r->message);
     if (!rc)
-        rc = sample_and_write(o, r, frame, psf, &ps, &plans);
+        rc = sample_and_write(o, r, frame, psf, &ps, &plans, &na);
     pp_image_free(psf);
     pp_image_free(frame);
     return rc;

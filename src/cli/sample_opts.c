@@ -33,7 +33,10 @@ static const cli_opt sample_table[] = {
      "Noise model: gaussian (precision sampled), gaussian:sigma=S (fixed, camera units), "
      "poisson:gain=G,offset=O or camera:gain=G,offset=O,read=R. Required keys: gain G in ADU "
      "per electron (or e_per_adu=E, the electrons per ADU that camera data sheets print; "
-     "G = 1/E), offset O the camera's dark level in ADU, read R the read noise in electrons."},
+     "G = 1/E), offset O the camera's dark level in ADU, read R the read noise in electrons. "
+     "auto: estimated from the frame (camera:gain,offset,read by the single-frame fit of "
+     "'pixpost calibrate --frame'; gaussian when the noise does not grow with the signal); "
+     "the estimate is printed and recorded in summary.json (\"noise_estimate\")."},
     {"prior", 0, 1, "SPEC",
      "Prior: adaptive[:nu=V,block=B] (a GMRF whose precision varies over the frame: "
      "Student-t increments with nu degrees of freedom times one log-precision per B x B "
@@ -188,7 +191,11 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
     if ((rc = lib_check(pp_psf_parse(o->psf_text, &o->psf))) != 0)
         return rc;
     o->cfg.psf = o->psf; /* the sampler reads it when the width is sampled */
-    if (cli_given(a, "noise")) {
+    o->prior_given = cli_given(a, "prior");
+    o->noise_auto = cli_given(a, "noise") && strcmp(cli_str(a, "noise"), "auto") == 0;
+    if (o->noise_auto) /* the model is chosen per frame (noise_auto.c) */
+        o->noise_text = "auto";
+    else if (cli_given(a, "noise")) {
         o->noise_text = cli_str(a, "noise");
         if ((rc = lib_check(pp_noise_parse(o->noise_text, &o->cfg.noise))) != 0)
             return rc;
