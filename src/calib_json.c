@@ -7,27 +7,19 @@
 #include "pixpost/output.h"
 #include <math.h>
 
-static void num(FILE *f, double v)
-{
-    if (isfinite(v))
-        fprintf(f, "%.10g", v);
-    else
-        fputs("null", f);
-}
-
 /* ",\n<indent>\"key\": value" */
 static void key_num(FILE *f, int indent, const char *key, double v)
 {
     fprintf(f, ",\n%*s\"%s\": ", indent, "", key);
-    num(f, v);
+    pp_json_write_number(f, v);
 }
 
 static void ci95(FILE *f, int indent, const char *key, double v, double se)
 {
     fprintf(f, ",\n%*s\"%s\": [", indent, "", key);
-    num(f, v - 1.959963984540054 * se); /* normal 97.5 % point */
+    pp_json_write_number(f, v - 1.959963984540054 * se); /* normal 97.5 % point */
     fputs(", ", f);
-    num(f, v + 1.959963984540054 * se);
+    pp_json_write_number(f, v + 1.959963984540054 * se);
     fputc(']', f);
 }
 
@@ -55,11 +47,11 @@ void pp_noise_fit_json(FILE *f, const pp_noise_fit *fit, const pp_noise_spec *ch
     fprintf(f, ",\n%*s\"levels\": [", in, "");
     for (size_t s = 0; s < fit->nlevels; s++) {
         fprintf(f, "%s{\"mean\": ", s ? ", " : "");
-        num(f, fit->level_mean[s]);
+        pp_json_write_number(f, fit->level_mean[s]);
         fputs(", \"var\": ", f);
-        num(f, fit->level_var[s]);
+        pp_json_write_number(f, fit->level_var[s]);
         fputs(", \"var_se\": ", f);
-        num(f, fit->level_var_se[s]);
+        pp_json_write_number(f, fit->level_var_se[s]);
         fprintf(f, ", \"n\": %zu}", fit->level_n[s]);
     }
     fputc(']', f);
@@ -85,18 +77,18 @@ static void series_json(FILE *f, const pp_series_stats *s, double exposure, doub
 {
     fprintf(f, "{\"frames\": %zu, \"pixels\": %zu, \"saturated\": %zu, \"mean\": ", s->frames,
             s->pixels, s->saturated);
-    num(f, s->mean);
+    pp_json_write_number(f, s->mean);
     fputs(", \"temporal_var\": ", f);
-    num(f, s->temporal_var);
+    pp_json_write_number(f, s->temporal_var);
     fputs(", \"temporal_var_se\": ", f);
-    num(f, s->temporal_var_se);
+    pp_json_write_number(f, s->temporal_var_se);
     fputs(", \"spatial_var\": ", f);
-    num(f, s->spatial_var);
+    pp_json_write_number(f, s->spatial_var);
     if (!isnan(exposure) || !isnan(residual)) {
         fputs(", \"exposure\": ", f);
-        num(f, exposure);
+        pp_json_write_number(f, exposure);
         fputs(", \"relative_residual\": ", f);
-        num(f, residual);
+        pp_json_write_number(f, residual);
     }
     fputc('}', f);
 }

@@ -10,20 +10,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
-
-/* Linear-interpolation quantile of sorted v (numpy's default). */
-static double quantile(const double *v, size_t n, double p)
-{
-    double h = (double)(n - 1) * p;
-    size_t lo = (size_t)floor(h), hi = lo + 1 < n ? lo + 1 : lo;
-    return v[lo] + (h - (double)lo) * (v[hi] - v[lo]);
-}
-
 static void add(pp_datacheck *d, pp_check_severity sev, const char *check, const char *fmt, ...)
     PP_PRINTF(4, 5);
 static void add(pp_datacheck *d, pp_check_severity sev, const char *check, const char *fmt, ...)
@@ -75,8 +61,8 @@ static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double 
     d->dark_sd = s;
     d->share_below_offset = (double)below / nn;
     d->share_impossible = (double)imposs / nn;
-    d->q001 = quantile(v, cnt, 0.001);
-    d->q01 = quantile(v, cnt, 0.01);
+    d->q001 = pp_quantile_sorted(v, cnt, 0.001);
+    d->q01 = pp_quantile_sorted(v, cnt, 0.01);
     d->offset_suggested = d->q01 + 2.33 * s;
     const char *m = model_name(n);
     double limit = 0.5 + fmax(0.1, 2.0 / sqrt(nn));
@@ -156,7 +142,7 @@ pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, co
     }
     size_checks(out, frame, psf, b);
     if (noise->kind == PP_NOISE_POISSON || noise->kind == PP_NOISE_CAMERA) {
-        qsort(v, cnt, sizeof *v, cmp_double);
+        pp_sort_doubles(v, cnt);
         offset_checks(out, noise, v, cnt);
     }
     free(v);

@@ -73,6 +73,11 @@ void pp_moments_add_block(pp_moments *m, const double *x, size_t rows, size_t co
 void pp_moments_merge(pp_moments *acc, const pp_moments *other);
 /* Standard normal quantile by Newton steps on erfc (|error| < 1e-14). */
 double pp_norm_quantile(double p);
+/* Sorts v[0..n) ascending (qsort; no NaN). */
+void pp_sort_doubles(double *v, size_t n);
+/* Linear-interpolation quantile of sorted v[0..n), n >= 1 (numpy's
+ * default, R's type 7): v[lo] + (h - lo)(v[lo+1] - v[lo]), h = (n - 1) p. */
+double pp_quantile_sorted(const double *v, size_t n, double p);
 
 /* One pixel of pp_diag_pixel_maps (src/diag.c): hm the k half-chain means
  * of the pixel, m2_sum the sum of their M2, m draws per half-chain; outputs

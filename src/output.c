@@ -15,21 +15,6 @@
 #include "pixpost/psf.h"
 #include "pixpost/saturation.h"
 
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
-
-/* Linear-interpolation quantile of sorted v (numpy's default, "type 7"). */
-static double quantile_sorted(const double *v, size_t n, double p)
-{
-    double h = (double)(n - 1) * p;
-    size_t lo = (size_t)floor(h);
-    size_t hi = lo + 1 < n ? lo + 1 : lo;
-    return v[lo] + (h - (double)lo) * (v[hi] - v[lo]);
-}
-
 void pp_json_write_string(FILE *f, const char *s)
 {
     fputc('"', f);
@@ -44,7 +29,6 @@ void pp_json_write_string(FILE *f, const char *s)
     fputc('"', f);
 }
 
-static void json_number(FILE *f, double v);
 
 /* "run_length": what pp_sampler_run did about its length (sampler.h). */
 static void json_run_length(FILE *f, const pp_sampler *s)
@@ -56,13 +40,13 @@ static void json_run_length(FILE *f, const pp_sampler *s)
             "\"burn_extensions\": %u, \"max_seconds\": ",
             L->iters_auto ? "auto" : "fixed", pp_stop_reason_name(L->stop), L->burn, L->iters,
             L->kept, L->rounds, L->burn_extensions);
-    json_number(f, L->iters_auto ? L->max_seconds : NAN);
+    pp_json_write_number(f, L->iters_auto ? L->max_seconds : NAN);
     fprintf(f, ", \"max_iters\": %lu, \"failed\": ", L->max_iters);
     pp_json_write_string(f, L->failed);
     fprintf(f, ", \"iters_needed\": %lu},\n", L->iters_needed);
 }
 
-static void json_number(FILE *f, double v)
+void pp_json_write_number(FILE *f, double v)
 {
     if (isfinite(v))
         fprintf(f, "%.10g", v);
@@ -74,15 +58,15 @@ static void json_number(FILE *f, double v)
 static void json_diag(FILE *f, const pp_diag_scalar *d, double seconds)
 {
     fputs("\"rhat\": ", f);
-    json_number(f, d->rhat);
+    pp_json_write_number(f, d->rhat);
     fputs(", \"ess_bulk\": ", f);
-    json_number(f, d->ess_bulk);
+    pp_json_write_number(f, d->ess_bulk);
     fputs(", \"ess_tail\": ", f);
-    json_number(f, d->ess_tail);
+    pp_json_write_number(f, d->ess_tail);
     fputs(", \"mcse\": ", f);
-    json_number(f, d->mcse_mean);
+    pp_json_write_number(f, d->mcse_mean);
     fputs(", \"ess_bulk_per_second\": ", f);
-    json_number(f, seconds > 0 ? d->ess_bulk / seconds : NAN);
+    pp_json_write_number(f, seconds > 0 ? d->ess_bulk / seconds : NAN);
 }
 
 /* Pooled posterior summary of one trace column, with its diagnostics. */
@@ -101,15 +85,15 @@ static pp_status json_hyper(FILE *f, const char *name, const pp_sampler *s, size
     double mean = sum / (double)n;
     for (size_t i = 0; i < n; i++)
         ss += (v[i] - mean) * (v[i] - mean);
-    qsort(v, n, sizeof *v, cmp_double);
+    pp_sort_doubles(v, n);
     fprintf(f, "    \"%s\": {\"mean\": ", name);
-    json_number(f, mean);
+    pp_json_write_number(f, mean);
     fputs(", \"sd\": ", f);
-    json_number(f, n > 1 ? sqrt(ss / (double)(n - 1)) : 0.0);
+    pp_json_write_number(f, n > 1 ? sqrt(ss / (double)(n - 1)) : 0.0);
     fputs(", \"q05\": ", f);
-    json_number(f, quantile_sorted(v, n, 0.05));
+    pp_json_write_number(f, pp_quantile_sorted(v, n, 0.05));
     fputs(", \"q95\": ", f);
-    json_number(f, quantile_sorted(v, n, 0.95));
+    pp_json_write_number(f, pp_quantile_sorted(v, n, 0.95));
     fprintf(f, ", \"fixed\": %s, ", fixed ? "true" : "false");
     json_diag(f, &s->diag[col], s->seconds);
     fputc('}', f);
@@ -131,12 +115,12 @@ static void json_map_percentiles(FILE *f, const char *name, const pp_image *m)
             v[k++] = m->data[i];
     fprintf(f, "\"%s\": {\"p50\": ", name);
     if (k) {
-        qsort(v, k, sizeof *v, cmp_double);
-        json_number(f, quantile_sorted(v, k, 0.5));
+        pp_sort_doubles(v, k);
+        pp_json_write_number(f, pp_quantile_sorted(v, k, 0.5));
         fputs(", \"p99\": ", f);
-        json_number(f, quantile_sorted(v, k, 0.99));
+        pp_json_write_number(f, pp_quantile_sorted(v, k, 0.99));
         fputs(", \"max\": ", f);
-        json_number(f, v[k - 1]);
+        pp_json_write_number(f, v[k - 1]);
     } else {
         fputs("null, \"p99\": null, \"max\": null", f);
     }
@@ -155,9 +139,9 @@ static void json_diagnostics(FILE *f, const pp_sampler *s)
           f);
     for (size_t j = 0; j < t->ncols; j++) {
         fprintf(f, "%s\n      \"%s\": {\"mean\": ", j ? "," : "", t->names[j]);
-        json_number(f, s->diag[j].mean);
+        pp_json_write_number(f, s->diag[j].mean);
         fputs(", \"sd\": ", f);
-        json_number(f, s->diag[j].sd);
+        pp_json_write_number(f, s->diag[j].sd);
         fputs(", ", f);
         json_diag(f, &s->diag[j], s->seconds);
         fputc('}', f);
@@ -187,9 +171,9 @@ static void json_chain_moves(FILE *f, const pp_sampler *s)
     for (unsigned k = 0; k < s->cfg.chains; k++) {
         fputs(k ? ", " : "", f);
         fputs("{\"acceptance\": ", f);
-        json_number(f, s->chain[k].acceptance);
+        pp_json_write_number(f, s->chain[k].acceptance);
         fputs(", \"step\": ", f);
-        json_number(f, s->chain[k].step);
+        pp_json_write_number(f, s->chain[k].step);
         fputc('}', f);
     }
     fputs("],\n", f);
@@ -214,7 +198,7 @@ static void json_pcn(FILE *f, const pp_sampler *s)
     pp_json_write_string(f, s->likelihood);
     fprintf(f, ",\n  \"positivity\": \"%s\",\n  \"background\": ",
             c->positivity == PP_POSITIVITY_LOG ? "log" : "none");
-    json_number(f, c->background);
+    pp_json_write_number(f, c->background);
     fputs(",\n", f);
     json_chain_moves(f, s);
 }
@@ -248,7 +232,7 @@ static void json_adaptive(FILE *f, const pp_sampler *s)
           "with a Fourier preconditioner scaled by the weights\", \"draws\": ",
           f);
     fprintf(f, "%llu, \"cg_iterations_mean\": ", ss.draws);
-    json_number(f, ss.draws ? (double)ss.iterations / (double)ss.draws : NAN);
+    pp_json_write_number(f, ss.draws ? (double)ss.iterations / (double)ss.draws : NAN);
     fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu},\n", ss.most,
             ss.capped);
     json_chain_moves(f, s); /* acceptance of the block log-precision moves */
@@ -266,9 +250,9 @@ static void json_convergence(FILE *f, const pp_sampler *s)
     pp_sampler_convergence(s, &cv);
     pp_convergence_verdict(&cv, verdict, sizeof verdict);
     fputs("  \"convergence\": {\"rhat_max\": ", f);
-    json_number(f, cv.rhat_max);
+    pp_json_write_number(f, cv.rhat_max);
     fputs(", \"ess_bulk_min\": ", f);
-    json_number(f, cv.ess_bulk_min);
+    pp_json_write_number(f, cv.ess_bulk_min);
     fprintf(f, ", \"warnings\": %zu, \"converged\": %s,\n", cv.warnings,
             cv.converged ? "true" : "false");
     fprintf(f, "    \"hyperparameters\": {\"converged\": %s, \"warnings\": %zu, \"failing\": [",
@@ -324,7 +308,7 @@ static void json_data_checks(FILE *f, const pp_datacheck *d)
                            d->q001, d->q01, d->offset_suggested};
     for (size_t i = 0; i < sizeof vals / sizeof vals[0]; i++) {
         fprintf(f, "\"%s\": ", keys[i]);
-        json_number(f, vals[i]);
+        pp_json_write_number(f, vals[i]);
         fputs(", ", f);
     }
     fputs("\"findings\": [", f);
@@ -357,7 +341,7 @@ static void json_predictive(FILE *f, const pp_ppcheck *p)
                            p->lag1_col, p->band_ratio, p->band_white, p->curvature};
     for (size_t i = 0; i < sizeof vals / sizeof vals[0]; i++) {
         fprintf(f, "\"%s\": ", keys[i]);
-        json_number(f, vals[i]);
+        pp_json_write_number(f, vals[i]);
         fputs(", ", f);
     }
     fprintf(f,
@@ -391,7 +375,7 @@ static void json_missing(FILE *f, const pp_sampler *s, const pp_run_info *info)
     fprintf(f, "  \"missing_data\": {\"observed\": %zu, \"unobserved\": %zu, \"masked\": %zu, "
                "\"saturated\": %zu, \"saturation_level\": ",
             obs, miss, info ? info->masked : 0, info ? info->saturated : 0);
-    json_number(f, info && info->saturated ? info->saturation_level : NAN);
+    pp_json_write_number(f, info && info->saturated ? info->saturation_level : NAN);
     fputs(", \"saturation_rule\": ", f);
     pp_json_write_string(f, pp_sat_rule_name(info ? (pp_sat_rule)info->saturation_rule
                                                   : PP_SAT_NONE));
@@ -474,11 +458,11 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     pp_json_write_string(f, s->bound_method);
     unsigned long long iters = (unsigned long long)c->chains * (s->length.burn + s->length.iters);
     fputs("},\n  \"timing\": {\"seconds_total\": ", f);
-    json_number(f, info ? info->seconds_total : s->seconds);
+    pp_json_write_number(f, info ? info->seconds_total : s->seconds);
     fputs(", \"seconds_sampling\": ", f);
-    json_number(f, s->seconds);
+    pp_json_write_number(f, s->seconds);
     fputs(", \"seconds_per_iteration\": ", f);
-    json_number(f, s->seconds / (double)iters * (double)c->chains);
+    pp_json_write_number(f, s->seconds / (double)iters * (double)c->chains);
     fprintf(f, "},\n  \"png_scale\": {\"formula\": \"value = offset + stored * scale\", "
                "\"mean\": {\"offset\": %.10g, \"scale\": %.10g}, "
                "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}},\n",

@@ -1,5 +1,5 @@
 /* pixpost — streaming per-pixel moments (Welford 1962; pairwise merge of
- * Chan, Golub & LeVeque 1979) and the normal quantile. Cost: one pass over
+ * Chan, Golub & LeVeque 1979), the normal quantile and sample quantiles. Cost: one pass over
  * the vector per added draw, two divisions hoisted out of the loop. */
 #include <math.h>
 #include <stdlib.h>
@@ -76,4 +76,23 @@ double pp_norm_quantile(double p)
             break;
     }
     return z;
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+void pp_sort_doubles(double *v, size_t n)
+{
+    qsort(v, n, sizeof *v, cmp_double);
+}
+
+double pp_quantile_sorted(const double *v, size_t n, double p)
+{
+    double h = (double)(n - 1) * p;
+    size_t lo = (size_t)floor(h);
+    size_t hi = lo + 1 < n ? lo + 1 : lo;
+    return v[lo] + (h - (double)lo) * (v[hi] - v[lo]);
 }

@@ -172,6 +172,31 @@ def geyer_ess(x, monotone=True):
     return n / max(tau, 1e-9)
 
 
+def dense_periodic(psf, gh, gw):
+    """Dense operators on a gh x gw periodic grid (row-major index
+    r * gw + c), built entry by entry (no FFT, so independent of pixpost's
+    transfer functions): A, periodic convolution by psf centred at its
+    middle pixel, and Q, the 5-point Laplacian precision of gmrf1
+    (include/pixpost/prior.h). Returns (A, Q)."""
+    import numpy as np
+    R = psf.shape[0] // 2
+    n = gh * gw
+    A = np.zeros((n, n))
+    for r in range(gh):
+        for c in range(gw):
+            for i in range(psf.shape[0]):
+                for j in range(psf.shape[1]):
+                    A[r * gw + c, ((r + i - R) % gh) * gw + (c + j - R) % gw] += psf[i, j]
+    Q = np.zeros((n, n))
+    for r in range(gh):
+        for c in range(gw):
+            k = r * gw + c
+            Q[k, k] = 4
+            for dr, dc in ((1, 0), (-1, 0), (0, 1), (0, -1)):
+                Q[k, ((r + dr) % gh) * gw + (c + dc) % gw] -= 1
+    return A, Q
+
+
 def matern_q(H, W, range_, nu=1.0):
     """Eigenvalues of pixpost's Matern precision on an H x W periodic grid
     (include/pixpost/prior.h; Lindgren, Rue & Lindstrom 2011), full

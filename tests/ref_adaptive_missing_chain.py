@@ -88,29 +88,7 @@ SA = A[obs]
 pptest.check(summary["missing_data"]["masked"] == int(mask.sum()), "summary.json: %d masked" % mask.sum())
 
 
-def numpy_chain(seed):
-    """Returns (hyper draws: n x 3 lambda, delta, kappa; frame pixel draws)."""
-    m = adaptref.Model(GH, GW, BLOCK, hyper=(1.0, 1.0), frame=(H, W))
-    r = np.random.default_rng(seed)
-    AtA, Aty = SA.T @ SA, SA.T @ y
-    lam, kappa, s = 1.0, 2.0, np.full(m.nb, np.log(0.1))
-    x = np.linalg.solve(AtA + 0.1 * m.laplacian(np.ones(2 * m.N), np.zeros((m.N, m.N))), Aty)
-    hyp, xs = np.zeros((NP_ITERS, 3)), np.zeros((NP_ITERS, H * W))
-    for t in range(NP_BURN + NP_ITERS):
-        d2 = m.incr(x) ** 2
-        m.s_sweep(s, d2, kappa, r, 0.5, True, 0.4)
-        tau = m.draw_tau(s, d2, r)
-        kappa = m.draw_kappa(s, r)
-        x = adaptref.draw_gaussian(m.laplacian(np.exp(s[m.be]) * tau, lam * AtA), lam * Aty, r)
-        res = SA @ x - y
-        lam = r.gamma(1.0 + 0.5 * len(obs), 1.0 / (1e-4 + 0.5 * res @ res))
-        if t >= NP_BURN:
-            hyp[t - NP_BURN] = lam, np.exp(m.level(s)), kappa
-            xs[t - NP_BURN] = x[frame_px]
-    return hyp, xs
-
-
-hyp, xs = numpy_chain(78)
+hyp, xs = adaptref.gibbs_chain((GH, GW), BLOCK, (H, W), SA, y, frame_px, 78, NP_BURN, NP_ITERS)
 for k, name in enumerate(("lambda", "delta", "kappa")):
     col = tr[:, head.index(name)]
     pm, psd, pse_m, pse_s, pess = adaptref.mean_sd_se([col[ch == c] for c in np.unique(ch)])

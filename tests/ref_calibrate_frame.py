@@ -29,6 +29,18 @@ import calibref
 import pptest
 
 tmp = pptest.tmpdir()
+
+
+def fit_frame(y, name):
+    """`pixpost calibrate --frame` on y (written as tmp/name.tif): its
+    "single_frame" object."""
+    f = os.path.join(tmp, name + ".tif")
+    j = os.path.join(tmp, name + ".json")
+    tifffile.imwrite(f, y)
+    pptest.run(["calibrate", "--frame", f, "-o", j, "--overwrite", "--quiet"])
+    return json.load(open(j))["single_frame"]
+
+
 rng = np.random.default_rng(17)
 N = 50
 within = cover = 0
@@ -37,11 +49,7 @@ for t in range(N):
     kind = calibref.KINDS[t % len(calibref.KINDS)]
     K, O, R, lo, hi = calibref.draw_camera(rng)
     y = calibref.camera(calibref.scene(kind, 256, rng, lo, hi), K, O, R, rng)
-    f = os.path.join(tmp, "f.tif")
-    j = os.path.join(tmp, "f.json")
-    tifffile.imwrite(f, y)
-    pptest.run(["calibrate", "--frame", f, "-o", j, "--overwrite", "--quiet"])
-    s = json.load(open(j))["single_frame"]
+    s = fit_frame(y, "f")
     a_lo, a_hi = s["a_ci95"]
     rel = s["a"] / K - 1
     errs.append(rel)
@@ -70,11 +78,7 @@ for t in range(30):
     K, O = rng_dim.uniform(0.5, 4), rng_dim.uniform(100, 500)
     R, lo, hi = rng_dim.uniform(1.5, 3), rng_dim.uniform(1, 3), rng_dim.uniform(20, 60)
     y = calibref.camera(calibref.scene(kind, 256, rng_dim, lo, hi), K, O, R, rng_dim)
-    f = os.path.join(tmp, "dim.tif")
-    j = os.path.join(tmp, "dim.json")
-    tifffile.imwrite(f, y)
-    pptest.run(["calibrate", "--frame", f, "-o", j, "--overwrite", "--quiet"])
-    s = json.load(open(j))["single_frame"]
+    s = fit_frame(y, "dim")
     cover += s["a_ci95"][0] <= K <= s["a_ci95"][1]
     errs.append(s["a"] / K - 1)
 pptest.check(cover >= 27, "dim frames: 95 %% interval covers the truth in %d of 30 (>= 27)" % cover)

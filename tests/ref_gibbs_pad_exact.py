@@ -68,20 +68,7 @@ R = psf.shape[0] // 2
 pptest.check(gh >= H + 2 * R and gw >= W + 2 * R, "grid %dx%d holds the frame plus 2 PSF radii" % (gw, gh))
 
 # Dense operators on the grid (row-major index r * gw + c).
-n = gh * gw
-A = np.zeros((n, n))
-for r in range(gh):
-    for c in range(gw):
-        for i in range(psf.shape[0]):
-            for j in range(psf.shape[1]):
-                A[r * gw + c, ((r + i - R) % gh) * gw + (c + j - R) % gw] += psf[i, j]
-Q = np.zeros((n, n))
-for r in range(gh):
-    for c in range(gw):
-        k = r * gw + c
-        Q[k, k] = 4
-        for dr, dc in ((1, 0), (-1, 0), (0, 1), (0, -1)):
-            Q[k, ((r + dr) % gh) * gw + (c + dc) % gw] -= 1
+A, Q = pptest.dense_periodic(psf, gh, gw)
 obs = np.array([r * gw + c for r in range(H) for c in range(W)])
 B = A[obs]
 nobs = len(obs)

@@ -58,21 +58,7 @@ masked = mask > 0
 
 def exact(gh, gw):
     """Exact posterior mean and sd on the frame (the frame at the grid's origin)."""
-    R = psf.shape[0] // 2
-    n = gh * gw
-    A = np.zeros((n, n))
-    for r in range(gh):
-        for c in range(gw):
-            for i in range(psf.shape[0]):
-                for j in range(psf.shape[1]):
-                    A[r * gw + c, ((r + i - R) % gh) * gw + (c + j - R) % gw] += psf[i, j]
-    Q = np.zeros((n, n))
-    for r in range(gh):
-        for c in range(gw):
-            k = r * gw + c
-            Q[k, k] = 4
-            for dr, dc in ((1, 0), (-1, 0), (0, 1), (0, -1)):
-                Q[k, ((r + dr) % gh) * gw + (c + dc) % gw] -= 1
+    A, Q = pptest.dense_periodic(psf, gh, gw)
     obs = np.array([r * gw + c for r in range(H) for c in range(W) if not masked[r, c]])
     B = A[obs]
     lam = 1.0 / SIGMA ** 2

@@ -55,6 +55,9 @@ typedef struct pp_run_info {
  * '\\' escaped and control characters as \u00XX; other bytes (UTF-8) as
  * they are. Shared by summary.json and the batch manifest. */
 void pp_json_write_string(FILE *f, const char *s);
+/* Writes v to f as a JSON number with 10 significant digits ("%.10g"), or
+ * null when v is not finite. */
+void pp_json_write_number(FILE *f, double v);
 
 pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
                           const pp_run_info *info);
