@@ -2,6 +2,7 @@
 #ifndef PIXPOST_H
 #define PIXPOST_H
 #include "pixpost/status.h"
+#include "pixpost/shape.h"
 #include "pixpost/image.h"
 #include "pixpost/io.h"
 #include "pixpost/rng.h"
