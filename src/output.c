@@ -7,6 +7,9 @@
 #include <string.h>
 #include <sys/stat.h>
 #include "internal.h"
+#include "output_report.h"
+#include "sampler_internal.h"
+#include "stats.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/diag.h"
 #include "pixpost/io.h"

@@ -33,6 +33,11 @@
 #include <string.h>
 #include "internal.h"
 #include "observed.h"
+#include "psfwidth.h"
+#include "sampler_diag.h"
+#include "sampler_internal.h"
+#include "spectral.h"
+#include "stats.h"
 #include "pixpost/psf.h"
 #if defined(__GLIBC__)
 #include <malloc.h>
