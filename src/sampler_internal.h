@@ -1,7 +1,7 @@
 /* pixpost — sampler internals (src/sampler.c, src/sampler_*.c): the
  * sampler's struct, its chains and working slots, the kernel interface, the
- * kernels' table and the services sampler.c gives the kernels (not
- * installed). */
+ * kernels' table and the services a running sampler gives the kernels and
+ * the diagnostics (src/sampler_services.c); not installed. */
 #ifndef PIXPOST_SAMPLER_INTERNAL_H
 #define PIXPOST_SAMPLER_INTERNAL_H
 
@@ -205,6 +205,9 @@ enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3
  * reaches s->freeze_at (a fixed run: floor(kept / 2); a run in rounds also
  * copies it at each round's end). Call once per kept draw. */
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
+/* c->mean1 = c->mom.mean (in single precision): the maps' first half ends
+ * here. */
+void pp_chain_freeze_mean(pp_chain *c);
 
 /* Runs the chains in rounds ending at the given iterations after burn-in
  * (ends[0] < ends[1] < ... < ends[n-1], each a multiple of cfg.thin), with
