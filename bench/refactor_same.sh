@@ -3,10 +3,12 @@
 # proof that a pure refactor (issue #18 step 0) changed no result.
 #   bench/refactor_same.sh REF_BIN NEW_BIN [WORKDIR]
 # e.g. bench/refactor_same.sh /work/ref-build/pixpost build/pixpost
-# Every file an output folder holds is cmp'ed; summary.json and report.html
-# and the output marker first lose what differs between any two runs (the
-# command line, timings and per-second rates, the FFT plan cache's state). Small runs (the demo frames, short
-# fixed chains, 1 thread) so the whole check takes a few minutes on 2 cores.
+# Every file an output folder holds is cmp'ed; summary.json, report.html and
+# the output marker first lose what differs between any two runs (the
+# command line, timings and per-second rates, the FFT plan cache's state).
+# Small runs (the demo frames, short fixed chains, 1 thread): the whole
+# check takes about 8 minutes on 2 shared cores. Last, the noise fit of
+# `pixpost calibrate --frame` on the camera frame.
 # Exit 0 when every output is identical, 1 otherwise.
 set -u
 REF=$1
@@ -59,5 +61,16 @@ echo "$RUNS" | while IFS='|' read -r name args; do
         { echo "DIFF $name: file lists differ"; echo 1 >"$WORK/failed"; }
     echo "$name: exit $(cat "$WORK/new.$name.rc"), $nfiles files compared"
 done
+# The noise fit's JSON (pixpost calibrate --frame): no timing in it.
+for side in ref new; do
+    if [ $side = ref ]; then bin=$REF; else bin=$NEW; fi
+    nice "$bin" calibrate --frame "$P" -o "$WORK/$side.calibrate.json" --quiet \
+        >"$WORK/$side.calibrate.out" 2>&1
+    echo "$?" >"$WORK/$side.calibrate.rc"
+done
+for f in calibrate.json calibrate.out calibrate.rc; do
+    cmp -s "$WORK/ref.$f" "$WORK/new.$f" || { echo "DIFF calibrate: $f"; echo 1 >"$WORK/failed"; }
+done
+echo "calibrate: exit $(cat "$WORK/new.calibrate.rc"), JSON and output compared"
 if [ -f "$WORK/failed" ]; then status=1; echo "NOT identical"; else echo "all identical"; fi
 exit $status
