@@ -7,6 +7,7 @@
 #include <math.h>
 #include <stdlib.h>
 #include "internal.h"
+#include "sampler_internal.h"
 
 #define KAPPA_SHAPE 1.0
 #define KAPPA_RATE 0.5 /* κ ~ Gamma(1, 0.5): mean 2 (bench/adaptive/NOTES.md §5) */

@@ -4,6 +4,7 @@
  * of the finite pixels and one qsort; the rest is a pass or two. */
 #include "pixpost/datacheck.h"
 #include "internal.h"
+#include "stats.h"
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>

@@ -16,7 +16,9 @@
  * nhalves doubles of scratch.
  */
 #include "pixpost/diag.h"
+#include "diag_internal.h"
 #include "internal.h"
+#include "stats.h"
 #include "pixpost/fft.h"
 #include <float.h>
 #include <math.h>

@@ -70,6 +70,8 @@
  */
 #include "hyper_photon.h"
 #include "internal.h"
+#include "sampler_internal.h"
+#include "spectral.h"
 #include "vmath.h"
 #include <math.h>
 #include <stdlib.h>

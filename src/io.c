@@ -1,6 +1,8 @@
-/* pixpost — frame I/O front door: read options, channel names, reading by
- * file signature (not by name) and writing by extension. The format work is
- * in io_png.c and io_tiff.c; this file costs one 8-byte read per call. */
+/* pixpost — frame I/O front door: channel names, reading by file signature
+ * (not by name) and writing by extension. The format work is in io_png.c and
+ * io_tiff.c, what they share in io_common.c (dependencies point one way:
+ * io.c -> io_png.c, io_tiff.c -> io_common.c); this file costs one 8-byte
+ * read per call. */
 #include "pixpost/io.h"
 #include "internal.h"
 #include "io_internal.h"
@@ -8,28 +10,6 @@
 #include <stdio.h>
 #include <string.h>
 #include <strings.h>
-
-void pp_read_options_defaults(pp_read_options *opt)
-{
-    opt->channel = PP_CHANNEL_NONE;
-    opt->max_pixels = PP_DEFAULT_MAX_PIXELS;
-    opt->page = 0;
-}
-
-pp_read_options pp_io_options(const pp_read_options *opt)
-{
-    pp_read_options o;
-    pp_read_options_defaults(&o);
-    return opt ? *opt : o;
-}
-
-void pp_io_info_clear(pp_read_info *info)
-{
-    if (!info)
-        return;
-    memset(info, 0, sizeof *info);
-    info->pages = 1;
-}
 
 pp_status pp_channel_parse(const char *s, pp_channel *out)
 {
@@ -45,44 +25,6 @@ pp_status pp_channel_parse(const char *s, pp_channel *out)
         }
     }
     return pp_fail(PP_ERR_ARG, "--channel '%s': expected r, g, b or luma", s ? s : "");
-}
-
-pp_status pp_io_check_size(const char *path, size_t width, size_t height, size_t max_pixels)
-{
-    size_t n;
-    if (width == 0 || height == 0)
-        return pp_fail(PP_ERR_FORMAT, "%s: the header declares an empty frame (%zux%zu)", path,
-                       width, height);
-    if (!pp_mul_ok(width, height, &n) || n > max_pixels)
-        return pp_fail(PP_ERR_LIMIT, "%s: frame of %zux%zu pixels is over the limit of %zu pixels",
-                       path, width, height, max_pixels);
-    return PP_OK;
-}
-
-pp_status pp_io_colour_weights(const char *path, const char *kind, pp_channel channel, double w[3])
-{
-    w[0] = w[1] = w[2] = 0.0;
-    switch (channel) {
-    case PP_CHANNEL_R:
-        w[0] = 1.0;
-        break;
-    case PP_CHANNEL_G:
-        w[1] = 1.0;
-        break;
-    case PP_CHANNEL_B:
-        w[2] = 1.0;
-        break;
-    case PP_CHANNEL_LUMA: /* Rec. 709 luma, as io.h says */
-        w[0] = 0.2126;
-        w[1] = 0.7152;
-        w[2] = 0.0722;
-        break;
-    default:
-        return pp_fail(PP_ERR_UNSUPPORTED,
-                       "%s: colour image (%s); choose a channel with --channel r|g|b|luma", path,
-                       kind);
-    }
-    return PP_OK;
 }
 
 /* Reads up to 8 leading bytes of path into sig; *n gets the count. */

@@ -1,5 +1,6 @@
 /* pixpost — internals shared by the frame readers and writers (src/io.c,
- * src/io_png.c, src/io_tiff.c) only; not installed, not used elsewhere. */
+ * src/io_png.c, src/io_tiff.c) only, defined in src/io_common.c; not
+ * installed, not used elsewhere. */
 #ifndef PIXPOST_IO_INTERNAL_H
 #define PIXPOST_IO_INTERNAL_H
 

@@ -2,6 +2,7 @@
 #include "observed.h"
 
 #include "internal.h"
+#include "sampler_internal.h"
 #include <math.h>
 #include <stdlib.h>
 

@@ -7,6 +7,9 @@
 #include <string.h>
 #include <sys/stat.h>
 #include "internal.h"
+#include "output_report.h"
+#include "sampler_internal.h"
+#include "stats.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/diag.h"
 #include "pixpost/io.h"
@@ -14,21 +17,6 @@
 #include "pixpost/output.h"
 #include "pixpost/psf.h"
 #include "pixpost/saturation.h"
-
-void pp_json_write_string(FILE *f, const char *s)
-{
-    fputc('"', f);
-    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
-        if (*p == '"' || *p == '\\')
-            fprintf(f, "\\%c", *p);
-        else if (*p < 0x20)
-            fprintf(f, "\\u%04x", *p);
-        else
-            fputc(*p, f);
-    }
-    fputc('"', f);
-}
-
 
 /* "run_length": what pp_sampler_run did about its length (sampler.h). */
 static void json_run_length(FILE *f, const pp_sampler *s)
@@ -44,14 +32,6 @@ static void json_run_length(FILE *f, const pp_sampler *s)
     fprintf(f, ", \"max_iters\": %lu, \"failed\": ", L->max_iters);
     pp_json_write_string(f, L->failed);
     fprintf(f, ", \"iters_needed\": %lu},\n", L->iters_needed);
-}
-
-void pp_json_write_number(FILE *f, double v)
-{
-    if (isfinite(v))
-        fprintf(f, "%.10g", v);
-    else
-        fputs("null", f);
 }
 
 /* Diagnostics of one trace column: R-hat, ESS, MCSE, ESS per second. */

@@ -4,6 +4,8 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include "internal.h"
+#include "output_report.h"
+#include "sampler_internal.h"
 #include "pixpost/diag.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/output.h"

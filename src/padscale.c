@@ -2,6 +2,7 @@
  * leaves the posterior invariant). */
 #include "padscale.h"
 #include "internal.h"
+#include "sampler_internal.h"
 
 #include <math.h>
 #include <stdlib.h>

@@ -6,6 +6,7 @@
  * passes over the frame. */
 #include "pixpost/ppcheck.h"
 #include "internal.h"
+#include "spectral.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

@@ -1,5 +1,5 @@
-/* pixpost — internals of the PSF module shared between psf.c and
- * psf_bead.c (not installed). */
+/* pixpost — internals of the PSF module shared between psf.c,
+ * psf_bead.c and psf_kernel.c (not installed). */
 #ifndef PIXPOST_PSF_INTERNAL_H
 #define PIXPOST_PSF_INTERNAL_H
 
@@ -17,10 +17,10 @@
 
 /* Kernel radius from an explicit size (must be odd, PP_ERR_ARG otherwise)
  * or, for size 0, ceil(model_radius) (at least 1). PP_ERR_LIMIT above
- * PP_PSF_MAX_RADIUS. (psf.c) */
+ * PP_PSF_MAX_RADIUS. (psf_kernel.c) */
 pp_status pp_psf_pick_radius(size_t size, double model_radius, size_t *radius);
 
-/* Divides k by its sum (which must be positive and finite). (psf.c) */
+/* Divides k by its sum (which must be positive and finite). (psf_kernel.c) */
 void pp_psf_normalise(pp_image *k);
 
 /* The kernel of the bead image at path: read, background handled, checked

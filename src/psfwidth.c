@@ -16,6 +16,8 @@
 #include <stdlib.h>
 #include <string.h>
 #include "internal.h"
+#include "psfwidth.h"
+#include "sampler_internal.h"
 #include "pixpost/psf.h"
 
 struct pp_width {

@@ -2,6 +2,8 @@
 #include "quantiles.h"
 
 #include "internal.h"
+#include "sampler_internal.h"
+#include "stats.h"
 
 #include <math.h>
 #include <stdlib.h>

@@ -2,7 +2,7 @@
  * with the images, trace/autocorrelation plots, histograms, diagnostics,
  * settings, warnings and cautions. The plots come from src/report_svg.c,
  * the embedded PNGs from src/report_png.c; this file lays out the page and
- * escapes every caller string.
+ * escapes every caller string (src/report_escape.c).
  *
  * Cost: dominated by the images (a sort and a PNG encode each) and the
  * autocorrelations (chains x columns x kept x min(100, kept/4) products).
@@ -28,62 +28,6 @@ static const char CAUTIONS[] =
     "A reconstruction is a model-based estimate. Its error bars hold only under the stated "
     "model \xe2\x80\x94 the PSF, the noise model and the prior. pixpost is not a diagnostic "
     "device; for clinical or forensic use, follow local rules and practice.";
-
-/* Length of the valid UTF-8 sequence at p (1..4), or 0 if it is not one. */
-static int utf8_len(const unsigned char *p)
-{
-    int n = p[0] >= 0xF0 ? 4 : p[0] >= 0xE0 ? 3 : 2;
-    if (p[0] < 0xC2 || p[0] > 0xF4)
-        return 0;
-    for (int i = 1; i < n; i++)
-        if ((p[i] & 0xC0) != 0x80)
-            return 0; /* also stops at the terminating NUL */
-    if ((p[0] == 0xE0 && p[1] < 0xA0) || (p[0] == 0xED && p[1] >= 0xA0) ||
-        (p[0] == 0xF0 && p[1] < 0x90) || (p[0] == 0xF4 && p[1] >= 0x90))
-        return 0; /* overlong, surrogate or beyond U+10FFFF */
-    return n;
-}
-
-void pp_report_escape(FILE *f, const char *s)
-{
-    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p;) {
-        switch (*p) {
-        case '&':
-            fputs("&amp;", f);
-            break;
-        case '<':
-            fputs("&lt;", f);
-            break;
-        case '>':
-            fputs("&gt;", f);
-            break;
-        case '"':
-            fputs("&quot;", f);
-            break;
-        case '\'':
-            fputs("&#39;", f);
-            break;
-        default:
-            if (*p < 0x80) {
-                if (*p < 0x20 && *p != '\t' && *p != '\n')
-                    fputs("\xef\xbf\xbd", f);
-                else
-                    fputc(*p, f);
-            } else {
-                int n = utf8_len(p);
-                if (n == 0) {
-                    fputs("\xef\xbf\xbd", f);
-                    p++;
-                    continue;
-                }
-                fwrite(p, 1, (size_t)n, f);
-                p += n;
-                continue;
-            }
-        }
-        p++;
-    }
-}
 
 /* Column name to an id fragment: [A-Za-z0-9_-], anything else '_'. */
 static void id_of(const char *name, char *buf, size_t n)

@@ -1,5 +1,6 @@
 /* pixpost — internals shared by the report files (src/report.c, the page;
- * src/report_svg.c, the SVG plots; src/report_png.c, the embedded images).
+ * src/report_svg.c, the SVG plots; src/report_png.c, the embedded images;
+ * src/report_escape.c, the HTML escaping they all use).
  * Not installed. Every writer takes an open FILE and never closes it;
  * errors of stdio are caught once, by ferror() at the commit. */
 #ifndef PIXPOST_REPORT_INTERNAL_H
@@ -10,7 +11,7 @@
 #include <stddef.h>
 #include <stdio.h>
 
-/* ---- Text (src/report.c) ------------------------------------------------ */
+/* ---- Text (src/report_escape.c) ----------------------------------------- */
 /* Writes s HTML-escaped (& < > " ' as entities; invalid UTF-8 bytes and
  * control characters other than tab and newline as U+FFFD). NULL: nothing. */
 void pp_report_escape(FILE *f, const char *s);

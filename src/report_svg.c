@@ -7,7 +7,6 @@
  * autocorrelation is a direct sum, O(n x maxlag). SVG is written for HTML
  * (no xmlns attribute: inline SVG in HTML needs none, and the page must not
  * name any network address). */
-#include "internal.h"
 #include "report_internal.h"
 #include <math.h>
 #include <stdint.h>

@@ -27,12 +27,16 @@
  */
 #include <math.h>
 #include <omp.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include "internal.h"
 #include "observed.h"
+#include "psfwidth.h"
+#include "sampler_diag.h"
+#include "sampler_internal.h"
+#include "spectral.h"
+#include "stats.h"
 #include "pixpost/psf.h"
 #if defined(__GLIBC__)
 #include <malloc.h>
@@ -484,77 +488,6 @@ void pp_sampler_return_memory(void)
 
 /* ---- running ---------------------------------------------------------- */
 
-/* mean1 = the chain's running mean (the maps' first half ends here). */
-static void freeze_mean(pp_chain *c)
-{
-    for (size_t i = 0; i < c->mom.len; i++)
-        c->mean1[i] = (float)c->mom.mean[i];
-}
-
-void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
-{
-    pp_moments_add_block(&c->mom, grid, s->height, s->width, s->gw);
-    if (c->mom.count == s->freeze_at)
-        freeze_mean(c);
-}
-
-/* Appends a formatted sentence to a list of at most max (dropped when full
- * or out of memory: a lost sentence must not fail a finished run). */
-static void add_sentence(char **list, size_t *n, size_t max, const char *fmt, va_list ap)
-{
-    if (*n == max)
-        return;
-    char buf[512];
-    vsnprintf(buf, sizeof buf, fmt, ap);
-    list[*n] = strdup(buf);
-    if (list[*n])
-        ++*n;
-}
-
-void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    if (s->nwarnings < PP_MAX_WARNINGS)
-        s->warning_part[s->nwarnings] = PP_WARN_OTHER;
-    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
-    va_end(ap);
-}
-
-void pp_sampler_warn_part(pp_sampler *s, pp_warning_part part, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    if (s->nwarnings < PP_MAX_WARNINGS)
-        s->warning_part[s->nwarnings] = part;
-    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
-    va_end(ap);
-}
-
-void pp_sampler_add_note(pp_sampler *s, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    add_sentence(s->notes, &s->nnotes, PP_MAX_NOTES, fmt, ap);
-    va_end(ap);
-}
-
-int pp_sampler_tick(pp_sampler *s)
-{
-    unsigned long long done;
-#pragma omp atomic capture
-    done = ++s->progress_done;
-    if (s->cfg.progress) {
-        unsigned long long total = s->progress_total;
-        unsigned long long step = total / 200 + 1;
-        if (done % step == 0 || done == total) {
-#pragma omp critical(pp_progress)
-            s->cfg.progress(s->cfg.progress_ctx, done, total);
-        }
-    }
-    return s->cfg.stop && *s->cfg.stop;
-}
-
 /* Chain k runs on the buffers of slot b (every time it runs). */
 static void bind_chain(pp_sampler *s, pp_chain *c, const pp_slot *b)
 {
@@ -855,7 +788,7 @@ static void close_round(pp_sampler *s)
     pp_image_free(s->rhat_map);
     s->rhat_map = NULL;
     for (unsigned k = 0; k < s->cfg.chains; k++)
-        freeze_mean(&s->chain[k]);
+        pp_chain_freeze_mean(&s->chain[k]);
     s->half_n = s->chain[0].kept;
     s->freeze_at = 0;
 }
@@ -1091,18 +1024,6 @@ pp_warning_part pp_sampler_warning_part(const pp_sampler *s, size_t i)
 {
     return i < s->nwarnings ? s->warning_part[i] : PP_WARN_OTHER;
 }
-void pp_sampler_solver_stats(const pp_sampler *s, pp_solver_stats *out)
-{
-    *out = (pp_solver_stats){0, 0, 0, 0};
-    for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
-        const pp_chain *c = &s->chain[k];
-        out->draws += c->solver_draws;
-        out->iterations += c->solver_iters;
-        out->capped += c->solver_capped;
-        out->most = c->solver_max > out->most ? c->solver_max : out->most;
-    }
-}
-
 size_t pp_sampler_note_count(const pp_sampler *s) { return s->nnotes; }
 const char *pp_sampler_note(const pp_sampler *s, size_t i)
 {

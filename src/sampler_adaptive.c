@@ -35,6 +35,7 @@
 #include "internal.h"
 #include "po_solve.h"
 #include "quantiles.h"
+#include "sampler_internal.h"
 
 #define PO_TOL 1e-6
 #define PO_CAP 2000

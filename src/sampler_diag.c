@@ -14,7 +14,10 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include "diag_internal.h"
 #include "internal.h"
+#include "sampler_diag.h"
+#include "sampler_internal.h"
 #include "pixpost/diag.h"
 
 #define RHAT_LIMIT 1.01

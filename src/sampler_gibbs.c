@@ -60,6 +60,10 @@
 #include <math.h>
 #include "internal.h"
 #include "padscale.h"
+#include "psfwidth.h"
+#include "sampler_gibbs.h"
+#include "sampler_internal.h"
+#include "spectral.h"
 #include "vmath.h"
 
 typedef pp_fused_sums fused_sums;

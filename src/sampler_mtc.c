@@ -62,6 +62,11 @@
  */
 #include "internal.h"
 #include "padscale.h"
+#include "psfwidth.h"
+#include "sampler_gibbs.h"
+#include "sampler_internal.h"
+#include "sampler_mtc.h"
+#include "spectral.h"
 #include "vmath.h"
 #include <math.h>
 #include <stdlib.h>

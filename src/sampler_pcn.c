@@ -119,6 +119,9 @@
 #include "incr.h"
 #include "internal.h"
 #include "quantiles.h"
+#include "sampler_internal.h"
+#include "spectral.h"
+#include "stats.h"
 #include "vmath.h"
 
 #define T_FIELD 0.25 /* target acceptance of the field move (common practice) */

@@ -1,7 +1,7 @@
 /* pixpost — the DFT of real white noise, drawn straight into the half
  * spectrum (DESIGN.md section 2). Cost: H*(W+2) normals and one pass. */
 #include <math.h>
-#include "internal.h"
+#include "spectral.h"
 
 void pp_half_noise(pp_rng *rng, size_t height, size_t width, pp_complex *out)
 {

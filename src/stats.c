@@ -4,6 +4,7 @@
 #include <math.h>
 #include <stdlib.h>
 #include "internal.h"
+#include "stats.h"
 
 pp_status pp_moments_init(pp_moments *m, size_t len)
 {

@@ -9,7 +9,7 @@
  *   probe_diag CHAINS N FILE
  *   probe_diag pixel NHALVES M FILE
  */
-#include "internal.h"
+#include "stats.h"
 #include "pixpost/diag.h"
 #include <stdio.h>
 #include <stdlib.h>

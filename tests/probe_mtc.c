@@ -13,7 +13,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include "internal.h"
+#include "sampler_mtc.h"
 #include "pixpost/io.h"
 #include "pixpost/output.h"
 #include "pixpost/psf.h"

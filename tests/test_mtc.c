@@ -4,7 +4,8 @@
  * rough scales, the width column of the trace, the automatic choice (mtc
  * for periodic Gaussian, gibbs for pad) and the recorded acceptance of the
  * (lambda, delta) move. */
-#include "internal.h"
+#include "sampler_internal.h"
+#include "sampler_mtc.h"
 #include "pixpost/psf.h"
 #include "testutil.h"
 #include <math.h>

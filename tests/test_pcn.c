@@ -6,7 +6,8 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include "internal.h"
+#include "sampler_internal.h"
+#include "spectral.h"
 #include "pixpost/diag.h"
 #include "pixpost/pixpost.h"
 #include "testutil.h"

@@ -23,7 +23,7 @@
  *    the half means. A fixed run (halves 16 and 17 of 33) must give other
  *    maps, which shows the check can fail.
  */
-#include "internal.h"
+#include "sampler_internal.h"
 #include "pixpost/diag.h"
 #include "pixpost/psf.h"
 #include "pixpost/rng.h"

@@ -4,7 +4,9 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include "internal.h"
+#include "sampler_internal.h"
+#include "spectral.h"
+#include "stats.h"
 #include "pixpost/pixpost.h"
 #include "testutil.h"
 

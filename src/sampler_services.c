@@ -1,0 +1,94 @@
+/* pixpost — what a running sampler offers the code it runs (the kernels in
+ * src/sampler_<kind>.c, the diagnostics in src/sampler_diag.c) and the
+ * top of src/sampler.c: recording a kept draw, warnings and notes, the
+ * progress tick, the inner solver's statistics. Kept apart from sampler.c
+ * so that calls point one way: sampler.c -> kernels, diagnostics -> this
+ * file. Cost: O(frame) per kept draw (the moments), O(1) otherwise. */
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include "sampler_internal.h"
+#include "stats.h"
+
+void pp_chain_freeze_mean(pp_chain *c)
+{
+    for (size_t i = 0; i < c->mom.len; i++)
+        c->mean1[i] = (float)c->mom.mean[i];
+}
+
+void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
+{
+    pp_moments_add_block(&c->mom, grid, s->height, s->width, s->gw);
+    if (c->mom.count == s->freeze_at)
+        pp_chain_freeze_mean(c);
+}
+
+/* Appends a formatted sentence to a list of at most max (dropped when full
+ * or out of memory: a lost sentence must not fail a finished run). */
+static void add_sentence(char **list, size_t *n, size_t max, const char *fmt, va_list ap)
+{
+    if (*n == max)
+        return;
+    char buf[512];
+    vsnprintf(buf, sizeof buf, fmt, ap);
+    list[*n] = strdup(buf);
+    if (list[*n])
+        ++*n;
+}
+
+void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    if (s->nwarnings < PP_MAX_WARNINGS)
+        s->warning_part[s->nwarnings] = PP_WARN_OTHER;
+    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
+    va_end(ap);
+}
+
+void pp_sampler_warn_part(pp_sampler *s, pp_warning_part part, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    if (s->nwarnings < PP_MAX_WARNINGS)
+        s->warning_part[s->nwarnings] = part;
+    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
+    va_end(ap);
+}
+
+void pp_sampler_add_note(pp_sampler *s, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    add_sentence(s->notes, &s->nnotes, PP_MAX_NOTES, fmt, ap);
+    va_end(ap);
+}
+
+int pp_sampler_tick(pp_sampler *s)
+{
+    unsigned long long done;
+#pragma omp atomic capture
+    done = ++s->progress_done;
+    if (s->cfg.progress) {
+        unsigned long long total = s->progress_total;
+        unsigned long long step = total / 200 + 1;
+        if (done % step == 0 || done == total) {
+#pragma omp critical(pp_progress)
+            s->cfg.progress(s->cfg.progress_ctx, done, total);
+        }
+    }
+    return s->cfg.stop && *s->cfg.stop;
+}
+
+void pp_sampler_solver_stats(const pp_sampler *s, pp_solver_stats *out)
+{
+    *out = (pp_solver_stats){0, 0, 0, 0};
+    for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
+        const pp_chain *c = &s->chain[k];
+        out->draws += c->solver_draws;
+        out->iterations += c->solver_iters;
+        out->capped += c->solver_capped;
+        out->most = c->solver_max > out->most ? c->solver_max : out->most;
+    }
+}
