@@ -273,19 +273,11 @@ struct pp_sampler {
     int ran;
 };
 
-/* Columns of a trace row. */
-enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
-
 /* Adds the frame block of a grid-sized field (rows s->gw apart) to the
  * moments of chain c, freezing their mean in c->mean1 when the count
  * reaches s->freeze_at (a fixed run: floor(kept / 2); a run in rounds also
  * copies it at each round's end). Call once per kept draw. */
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
-
-/* report.html of a finished run (src/output_report.c). */
-struct pp_run_info;
-pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image *frame,
-                           const struct pp_run_info *info);
 
 /* Scalar diagnostics, pixel maps and their warnings (src/sampler_diag.c),
  * from the chains' moments (c->mom, c->mean1, s->half_n) and the trace;

@@ -215,6 +215,10 @@ typedef struct pp_trace {
 } pp_trace;
 
 const pp_trace *pp_sampler_trace(const pp_sampler *s);
+/* The trace columns every sampler has, first in every row. PP_COL_PROBE0
+ * is the column after them: the optional psf_width, kappa and level
+ * columns start there when present, then the probe pixels. */
+enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
 
 /* Convergence diagnostics (valid after a successful run): one
  * pp_diag_scalar (include/pixpost/diag.h) per trace column, in column
