@@ -7,8 +7,7 @@
 #include <string.h>
 #include <sys/stat.h>
 #include "internal.h"
-#include "output_report.h"
-#include "sampler_internal.h"
+#include "output_internal.h"
 #include "stats.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/diag.h"
@@ -16,12 +15,13 @@
 #include "pixpost/ppcheck.h"
 #include "pixpost/output.h"
 #include "pixpost/psf.h"
+#include "pixpost/result.h"
 #include "pixpost/saturation.h"
 
 /* "run_length": what pp_sampler_run did about its length (sampler.h). */
-static void json_run_length(FILE *f, const pp_sampler *s)
+static void json_run_length(FILE *f, const pp_result *r)
 {
-    const pp_run_length *L = &s->length;
+    const pp_run_length *L = &r->length;
     fprintf(f,
             "  \"run_length\": {\"mode\": \"%s\", \"stop\": \"%s\", \"burn\": %lu, "
             "\"iters\": %lu, \"kept_per_chain\": %zu, \"rounds\": %u, "
@@ -50,9 +50,9 @@ static void json_diag(FILE *f, const pp_diag_scalar *d, double seconds)
 }
 
 /* Pooled posterior summary of one trace column, with its diagnostics. */
-static pp_status json_hyper(FILE *f, const char *name, const pp_sampler *s, size_t col, int fixed)
+static pp_status json_hyper(FILE *f, const char *name, const pp_result *r, size_t col, int fixed)
 {
-    const pp_trace *t = &s->trace;
+    const pp_trace *t = &r->trace;
     size_t n = (size_t)t->chains * t->kept;
     double *v = malloc(n * sizeof *v);
     if (!v)
@@ -75,7 +75,7 @@ static pp_status json_hyper(FILE *f, const char *name, const pp_sampler *s, size
     fputs(", \"q95\": ", f);
     pp_json_write_number(f, pp_quantile_sorted(v, n, 0.95));
     fprintf(f, ", \"fixed\": %s, ", fixed ? "true" : "false");
-    json_diag(f, &s->diag[col], s->seconds);
+    json_diag(f, &r->diag[col], r->seconds);
     fputc('}', f);
     free(v);
     return PP_OK;
@@ -109,9 +109,9 @@ static void json_map_percentiles(FILE *f, const char *name, const pp_image *m)
 }
 
 /* The diagnostics block: every trace column, the pixel maps, thresholds. */
-static void json_diagnostics(FILE *f, const pp_sampler *s)
+static void json_diagnostics(FILE *f, const pp_result *r)
 {
-    const pp_trace *t = &s->trace;
+    const pp_trace *t = &r->trace;
     fputs("  \"diagnostics\": {\n    \"method\": \"rank-normalised split-R-hat, bulk- and "
           "tail-ESS (Vehtari et al. 2021); MCSE = sd/sqrt(ESS)\",\n"
           "    \"thresholds\": {\"rhat\": 1.01, \"ess_per_chain\": 100},\n"
@@ -119,19 +119,19 @@ static void json_diagnostics(FILE *f, const pp_sampler *s)
           f);
     for (size_t j = 0; j < t->ncols; j++) {
         fprintf(f, "%s\n      \"%s\": {\"mean\": ", j ? "," : "", t->names[j]);
-        pp_json_write_number(f, s->diag[j].mean);
+        pp_json_write_number(f, r->diag[j].mean);
         fputs(", \"sd\": ", f);
-        pp_json_write_number(f, s->diag[j].sd);
+        pp_json_write_number(f, r->diag[j].sd);
         fputs(", ", f);
-        json_diag(f, &s->diag[j], s->seconds);
+        json_diag(f, &r->diag[j], r->seconds);
         fputc('}', f);
     }
     fputs("\n    },\n    \"pixel_maps\": ", f);
-    if (s->rhat_map) {
+    if (r->rhat_map) {
         fputs("{", f);
-        json_map_percentiles(f, "rhat", s->rhat_map);
+        json_map_percentiles(f, "rhat", r->rhat_map);
         fputs(", ", f);
-        json_map_percentiles(f, "mcse", s->mcse_map);
+        json_map_percentiles(f, "mcse", r->mcse_map);
         fputs(", \"method\": \"classic split-R-hat of the draws (Rao-Blackwellised where "
               "the sampler has a conditional mean) and batch-means MCSE of the posterior-mean "
               "estimate, over the 2 x chains half-chains\"}",
@@ -145,15 +145,15 @@ static void json_diagnostics(FILE *f, const pp_sampler *s)
 /* Per-chain acceptance rate (after burn-in) and step of the sampler's
  * Metropolis move: pcn/gpcn's field move and its beta; mtc's (lambda,
  * delta) move and its proposal scale (in log units). */
-static void json_chain_moves(FILE *f, const pp_sampler *s)
+static void json_chain_moves(FILE *f, const pp_result *r)
 {
     fputs("  \"chain_moves\": [", f);
-    for (unsigned k = 0; k < s->cfg.chains; k++) {
+    for (unsigned k = 0; k < r->config.chains; k++) {
         fputs(k ? ", " : "", f);
         fputs("{\"acceptance\": ", f);
-        pp_json_write_number(f, s->chain[k].acceptance);
+        pp_json_write_number(f, r->chain[k].acceptance);
         fputs(", \"step\": ", f);
-        pp_json_write_number(f, s->chain[k].step);
+        pp_json_write_number(f, r->chain[k].step);
         fputc('}', f);
     }
     fputs("],\n", f);
@@ -161,9 +161,9 @@ static void json_chain_moves(FILE *f, const pp_sampler *s)
 
 /* pcn/gpcn/hmc: the likelihood, positivity, background, the field move and
  * per chain its acceptance and step (adapted in burn-in only). */
-static void json_pcn(FILE *f, const pp_sampler *s)
+static void json_pcn(FILE *f, const pp_result *r)
 {
-    const pp_sampler_config *c = &s->cfg;
+    const pp_sampler_config *c = &r->config;
     const char *move =
         c->kind == PP_SAMPLER_PCN
             ? "pCN on the prior (step = beta)"
@@ -175,19 +175,19 @@ static void json_pcn(FILE *f, const pp_sampler *s)
     fputs("  \"field_move\": ", f);
     pp_json_write_string(f, move);
     fputs(",\n  \"likelihood\": ", f);
-    pp_json_write_string(f, s->likelihood);
+    pp_json_write_string(f, r->likelihood);
     fprintf(f, ",\n  \"positivity\": \"%s\",\n  \"background\": ",
             c->positivity == PP_POSITIVITY_LOG ? "log" : "none");
     pp_json_write_number(f, c->background);
     fputs(",\n", f);
-    json_chain_moves(f, s);
+    json_chain_moves(f, r);
 }
 
 /* mtc with periodic boundaries: which (lambda, delta) move ran, then its
  * per-chain acceptance and proposal scale. */
-static void json_mtc(FILE *f, const pp_sampler *s)
+static void json_mtc(FILE *f, const pp_result *r)
 {
-    const pp_sampler_config *c = &s->cfg;
+    const pp_sampler_config *c = &r->config;
     const char *move = "random-walk Metropolis on the free log-precision (step = its sd, "
                        "adapted in burn-in only)";
     if (c->noise.sigma_set && c->prior.delta_set)
@@ -199,15 +199,14 @@ static void json_mtc(FILE *f, const pp_sampler *s)
     fputs("  \"hyper_move\": ", f);
     pp_json_write_string(f, move);
     fputs(",\n", f);
-    json_chain_moves(f, s);
+    json_chain_moves(f, r);
 }
 
 /* The adaptive prior (gibbs): the x-draws' inner solver over all chains
  * and the block moves' acceptance per chain. */
-static void json_adaptive(FILE *f, const pp_sampler *s)
+static void json_adaptive(FILE *f, const pp_result *r)
 {
-    pp_solver_stats ss;
-    pp_sampler_solver_stats(s, &ss);
+    const pp_solver_stats ss = r->solver;
     fputs("  \"x_solver\": {\"method\": \"perturbation-optimisation, conjugate gradients "
           "with a Fourier preconditioner scaled by the weights\", \"draws\": ",
           f);
@@ -215,7 +214,7 @@ static void json_adaptive(FILE *f, const pp_sampler *s)
     pp_json_write_number(f, ss.draws ? (double)ss.iterations / (double)ss.draws : NAN);
     fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu},\n", ss.most,
             ss.capped);
-    json_chain_moves(f, s); /* acceptance of the block log-precision moves */
+    json_chain_moves(f, r); /* acceptance of the block log-precision moves */
 }
 
 /* The run's headline figures (pp_sampler_convergence), under one key that
@@ -223,11 +222,10 @@ static void json_adaptive(FILE *f, const pp_sampler *s)
  * order), then the two parts, the iterations to ask for (null when none),
  * the part that failed (pp_convergence_failed; null when converged) and
  * the verdict sentence (pp_convergence_verdict). */
-static void json_convergence(FILE *f, const pp_sampler *s)
+static void json_convergence(FILE *f, const pp_result *r)
 {
-    pp_convergence cv;
+    const pp_convergence cv = r->convergence;
     char verdict[PP_VERDICT_MAX];
-    pp_sampler_convergence(s, &cv);
     pp_convergence_verdict(&cv, verdict, sizeof verdict);
     fputs("  \"convergence\": {\"rhat_max\": ", f);
     pp_json_write_number(f, cv.rhat_max);
@@ -261,7 +259,7 @@ static void json_convergence(FILE *f, const pp_sampler *s)
 }
 
 /* "  \"key\": [\"...\", ...]" (no trailing comma or newline). */
-static void json_sentences(FILE *f, const char *key, char *const *list, size_t n)
+static void json_sentences(FILE *f, const char *key, const char *const *list, size_t n)
 {
     fprintf(f, "  \"%s\": [", key);
     for (size_t i = 0; i < n; i++) {
@@ -348,10 +346,9 @@ typedef struct png_scales {
 
 /* "missing_data": the frame's observed and unobserved (NaN) pixels, and
  * the caller's reasons for the latter (pixpost/saturation.h, --mask). */
-static void json_missing(FILE *f, const pp_sampler *s, const pp_run_info *info)
+static void json_missing(FILE *f, const pp_result *r, const pp_run_info *info)
 {
-    size_t obs, miss;
-    pp_sampler_observed(s, &obs, &miss);
+    size_t obs = r->observed, miss = r->unobserved;
     fprintf(f, "  \"missing_data\": {\"observed\": %zu, \"unobserved\": %zu, \"masked\": %zu, "
                "\"saturated\": %zu, \"saturation_level\": ",
             obs, miss, info ? info->masked : 0, info ? info->saturated : 0);
@@ -362,10 +359,10 @@ static void json_missing(FILE *f, const pp_sampler *s, const pp_run_info *info)
     fputs("},\n", f);
 }
 
-static pp_status write_summary(const char *path, const pp_sampler *s, const pp_image *frame,
+static pp_status write_summary(const char *path, const pp_result *r, const pp_image *frame,
                                const pp_run_info *info, const png_scales *ps)
 {
-    const pp_sampler_config *c = &s->cfg;
+    const pp_sampler_config *c = &r->config;
     char tmp[PP_PATH_MAX], noise[256], prior[256];
     FILE *f;
     pp_status st = pp_atomic_open(path, tmp, &f);
@@ -379,11 +376,11 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     pp_json_write_string(f, info ? info->input_path : NULL);
     fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu},\n", frame->width,
             frame->height);
-    fprintf(f, "  \"grid\": {\"width\": %zu, \"height\": %zu},\n", s->gw, s->gh);
+    fprintf(f, "  \"grid\": {\"width\": %zu, \"height\": %zu},\n", r->grid.n[1], r->grid.n[0]);
     static const char *const plans[] = {"estimated", "measured", "measured, from wisdom"};
     fputs("  \"fft_plans\": ", f);
     pp_json_write_string(f, info && info->fft_plans ? info->fft_plans
-                                                    : plans[pp_sampler_fft_plans(s)]);
+                                                    : plans[r->fft_plans]);
     fputs(",\n", f);
     /* x's units: those of the frame for gaussian noise; photons per pixel
      * (before gain and offset) for the photon models */
@@ -393,15 +390,15 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
             "  \"sampler\": \"%s\",\n  \"chains\": %u,\n  \"burn\": %lu,\n"
             "  \"iters\": %lu,\n  \"thin\": %lu,\n  \"seed\": %llu,\n"
             "  \"kept_per_chain\": %zu,\n  \"boundary\": \"%s\",\n",
-            pp_sampler_kind_name(c->kind), c->chains, s->length.burn, s->length.iters, c->thin,
-            (unsigned long long)c->seed, s->trace.kept, pp_boundary_name(c->boundary));
-    json_run_length(f, s);
-    if (s->pad_scheme) {
+            pp_sampler_kind_name(c->kind), c->chains, r->length.burn, r->length.iters, c->thin,
+            (unsigned long long)c->seed, r->trace.kept, pp_boundary_name(c->boundary));
+    json_run_length(f, r);
+    if (r->pad_scheme) {
         fputs("  \"pad_scheme\": ", f); /* how mtc handled the padding */
-        pp_json_write_string(f, s->pad_scheme);
+        pp_json_write_string(f, r->pad_scheme);
         fputs(",\n", f);
     }
-    json_missing(f, s, info);
+    json_missing(f, r, info);
     fputs("  \"psf\": ", f);
     pp_json_write_string(f, info ? info->psf_spec : NULL);
     fputs(",\n  \"noise\": ", f);
@@ -418,46 +415,46 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
                "\"form\": \"Gamma(shape, rate)\"},\n",
             c->hyper_lambda[0], c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1]);
     fputs("  \"hyper\": {\n", f);
-    st = json_hyper(f, "lambda", s, PP_COL_LAMBDA, c->noise.sigma_set);
+    st = json_hyper(f, "lambda", r, PP_COL_LAMBDA, c->noise.sigma_set);
     fputs(",\n", f);
     if (st == PP_OK)
-        st = json_hyper(f, "delta", s, PP_COL_DELTA, c->prior.delta_set);
-    if (st == PP_OK && s->col_width >= 0) { /* sampled PSF width (sigma or NA) */
+        st = json_hyper(f, "delta", r, PP_COL_DELTA, c->prior.delta_set);
+    if (st == PP_OK && r->col_width >= 0) { /* sampled PSF width (sigma or NA) */
         fputs(",\n", f);
-        st = json_hyper(f, "psf_width", s, (size_t)s->col_width, 0);
+        st = json_hyper(f, "psf_width", r, (size_t)r->col_width, 0);
     }
-    if (st == PP_OK && s->col_kappa >= 0) { /* the adaptive prior's block-field precision */
+    if (st == PP_OK && r->col_kappa >= 0) { /* the adaptive prior's block-field precision */
         fputs(",\n", f);
-        st = json_hyper(f, "kappa", s, (size_t)s->col_kappa, 0);
+        st = json_hyper(f, "kappa", r, (size_t)r->col_kappa, 0);
     }
-    if (st == PP_OK && s->col_level >= 0) { /* pcn family: the free level m of z = m + u */
+    if (st == PP_OK && r->col_level >= 0) { /* pcn family: the free level m of z = m + u */
         fputs(",\n", f);
-        st = json_hyper(f, "level", s, (size_t)s->col_level, 0);
+        st = json_hyper(f, "level", r, (size_t)r->col_level, 0);
     }
     fprintf(f, "\n  },\n  \"bounds\": {\"level\": %.10g, \"method\": ", c->level);
-    pp_json_write_string(f, s->bound_method);
-    unsigned long long iters = (unsigned long long)c->chains * (s->length.burn + s->length.iters);
+    pp_json_write_string(f, r->bound_method);
+    unsigned long long iters = (unsigned long long)c->chains * (r->length.burn + r->length.iters);
     fputs("},\n  \"timing\": {\"seconds_total\": ", f);
-    pp_json_write_number(f, info ? info->seconds_total : s->seconds);
+    pp_json_write_number(f, info ? info->seconds_total : r->seconds);
     fputs(", \"seconds_sampling\": ", f);
-    pp_json_write_number(f, s->seconds);
+    pp_json_write_number(f, r->seconds);
     fputs(", \"seconds_per_iteration\": ", f);
-    pp_json_write_number(f, s->seconds / (double)iters * (double)c->chains);
+    pp_json_write_number(f, r->seconds / (double)iters * (double)c->chains);
     fprintf(f, "},\n  \"png_scale\": {\"formula\": \"value = offset + stored * scale\", "
                "\"mean\": {\"offset\": %.10g, \"scale\": %.10g}, "
                "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}},\n",
             ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
     if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN || c->kind == PP_SAMPLER_HMC)
-        json_pcn(f, s);
-    if (c->kind == PP_SAMPLER_MTC && !s->pad_scheme)
-        json_mtc(f, s);
+        json_pcn(f, r);
+    if (c->kind == PP_SAMPLER_MTC && !r->pad_scheme)
+        json_mtc(f, r);
     if (c->kind == PP_SAMPLER_GIBBS && c->prior.kind == PP_PRIOR_ADAPTIVE)
-        json_adaptive(f, s);
-    json_diagnostics(f, s);
-    json_convergence(f, s);
-    json_sentences(f, "notes", s->notes, s->nnotes);
+        json_adaptive(f, r);
+    json_diagnostics(f, r);
+    json_convergence(f, r);
+    json_sentences(f, "notes", r->notes, r->nnotes);
     fputs(",\n", f);
-    json_sentences(f, "warnings", s->warnings, s->nwarnings);
+    json_sentences(f, "warnings", r->warnings, r->nwarnings);
     fputs(",\n", f);
     json_data_checks(f, info ? info->data_checks : NULL);
     fputs(",\n", f);
@@ -470,9 +467,9 @@ static pp_status write_summary(const char *path, const pp_sampler *s, const pp_i
     return pp_atomic_commit(path, tmp, f);
 }
 
-static pp_status write_trace(const char *path, const pp_sampler *s)
+static pp_status write_trace(const char *path, const pp_result *r)
 {
-    const pp_trace *t = &s->trace;
+    const pp_trace *t = &r->trace;
     char tmp[PP_PATH_MAX];
     FILE *f;
     pp_status st = pp_atomic_open(path, tmp, &f);
@@ -485,7 +482,7 @@ static pp_status write_trace(const char *path, const pp_sampler *s)
     for (unsigned c = 0; c < t->chains; c++)
         for (size_t i = 0; i < t->kept; i++) {
             const double *row = t->values + ((size_t)c * t->kept + i) * t->ncols;
-            fprintf(f, "%u,%lu", c + 1, (unsigned long)((i + 1) * s->cfg.thin));
+            fprintf(f, "%u,%lu", c + 1, (unsigned long)((i + 1) * r->config.thin));
             for (size_t j = 0; j < t->ncols; j++)
                 fprintf(f, ",%.10g", row[j]);
             fputc('\n', f);
@@ -511,23 +508,23 @@ static const char *const out_names[OUT_COUNT] = {
     "mean.tif", "sd.tif", "lo.tif", "hi.tif", "rhat.tif", "mcse.tif", "mean.png", "sd.png",
     "trace.csv", "summary.json", "report.html", "residual.tif"};
 
-static pp_status write_one(int k, const char *path, const pp_sampler *s, const pp_image *frame,
+static pp_status write_one(int k, const char *path, const pp_result *r, const pp_image *frame,
                            const pp_run_info *info, const png_scales *ps)
 {
-    const pp_image *tif[6] = {s->mean, s->sd, s->lo, s->hi, s->rhat_map, s->mcse_map};
+    const pp_image *tif[6] = {r->mean, r->sd, r->lo, r->hi, r->rhat_map, r->mcse_map};
     if (k <= OUT_MCSE)
         return pp_tiff_write_f32(path, tif[k]);
     if (k == OUT_MEAN_PNG)
-        return pp_png_write16(path, s->mean, ps->mean_offset, ps->mean_scale);
+        return pp_png_write16(path, r->mean, ps->mean_offset, ps->mean_scale);
     if (k == OUT_SD_PNG)
-        return pp_png_write16(path, s->sd, ps->sd_offset, ps->sd_scale);
+        return pp_png_write16(path, r->sd, ps->sd_offset, ps->sd_scale);
     if (k == OUT_TRACE)
-        return write_trace(path, s);
+        return write_trace(path, r);
     if (k == OUT_SUMMARY)
-        return write_summary(path, s, frame, info, ps);
+        return write_summary(path, r, frame, info, ps);
     if (k == OUT_RESIDUAL)
         return pp_tiff_write_f32(path, info->predictive->residual);
-    return pp_output_report(path, s, frame, info);
+    return pp_output_report(path, r, frame, info);
 }
 
 /* A writer's message names the staged file; say the final name instead. */
@@ -575,32 +572,30 @@ int pp_output_is_marked(const char *dir)
     return strcmp(line, PP_OUTPUT_MARKER_LINE "\n") == 0;
 }
 
-pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
+pp_status pp_output_write(const char *dir, const pp_result *r, const pp_image *frame,
                           const pp_run_info *info)
 {
-    if (!s->ran)
-        return pp_fail(PP_ERR_ARG, "pp_output_write: the sampler has not run");
     /* the marker first: any output of this run found later comes with it */
     pp_status mst = pp_output_mark(dir, info ? info->command_line : NULL);
     if (mst != PP_OK)
         return mst;
     png_scales ps;
-    pp_png_auto_scale(s->mean, &ps.mean_offset, &ps.mean_scale);
+    pp_png_auto_scale(r->mean, &ps.mean_offset, &ps.mean_scale);
     double lo, hi;
-    pp_image_range(s->sd, &lo, &hi);
+    pp_image_range(r->sd, &lo, &hi);
     ps.sd_offset = 0;
     ps.sd_scale = hi > 0 ? hi / 65535.0 : 1.0;
     char staged[OUT_COUNT][PP_PATH_MAX], path[PP_PATH_MAX], part[80];
     int made[OUT_COUNT] = {0};
     pp_status st = PP_OK;
     for (int k = 0; k < OUT_COUNT && st == PP_OK; k++) {
-        if ((k == OUT_RHAT || k == OUT_MCSE) && !s->rhat_map)
+        if ((k == OUT_RHAT || k == OUT_MCSE) && !r->rhat_map)
             continue;
         if (k == OUT_RESIDUAL && !(info && info->predictive))
             continue;
         snprintf(part, sizeof part, ".%s.part", out_names[k]);
         if ((st = join(staged[k], dir, part)) == PP_OK &&
-            (st = write_one(k, staged[k], s, frame, info, &ps)) != PP_OK)
+            (st = write_one(k, staged[k], r, frame, info, &ps)) != PP_OK)
             st = name_final(st, staged[k], dir, out_names[k]);
         made[k] = st == PP_OK;
     }

@@ -1,11 +1,10 @@
-/* pixpost — report.html for a finished run: gathers the sampler's images,
+/* pixpost — report.html for a finished run: gathers the run's images,
  * traces, diagnostics, settings, verdict and warnings into the plain-data input of
  * pp_report_write (src/report.c). Cost: formatting a dozen strings. */
 #include <stdio.h>
 #include <stdlib.h>
 #include "internal.h"
-#include "output_report.h"
-#include "sampler_internal.h"
+#include "output_internal.h"
 #include "pixpost/diag.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/output.h"
@@ -14,10 +13,10 @@
 
 enum { NSET = 13, NSET_MAX = 14 };
 
-pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image *frame,
+pp_status pp_output_report(const char *path, const pp_result *r, const pp_image *frame,
                            const pp_run_info *info)
 {
-    const pp_sampler_config *c = &s->cfg;
+    const pp_sampler_config *c = &r->config;
     static const char *const keys[NSET_MAX] = {
         "input", "sampler", "chains", "burn-in / iterations / thin", "seed", "boundary",
         "grid", "PSF", "noise", "prior", "hyperpriors Gamma(shape, rate)", "bounds",
@@ -28,22 +27,21 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
         snprintf(val[nset++], sizeof val[0], "%s", info->noise_note);
     snprintf(val[0], sizeof val[0], "%s", info && info->input_path ? info->input_path : "-");
     snprintf(val[1], sizeof val[1], "%s", pp_sampler_kind_name(c->kind));
-    snprintf(val[2], sizeof val[2], "%u (kept %zu draws each)", c->chains, s->trace.kept);
-    const pp_run_length *L = &s->length; /* the lengths used (--iters auto chooses them) */
+    snprintf(val[2], sizeof val[2], "%u (kept %zu draws each)", c->chains, r->trace.kept);
+    const pp_run_length *L = &r->length; /* the lengths used (--iters auto chooses them) */
     snprintf(val[3], sizeof val[3], "%lu / %lu / %lu (%s: %s)", L->burn, L->iters, c->thin,
              L->iters_auto ? "--iters auto" : "fixed", pp_stop_reason_name(L->stop));
     snprintf(val[4], sizeof val[4], "%llu", (unsigned long long)c->seed);
     snprintf(val[5], sizeof val[5], "%s", pp_boundary_name(c->boundary));
-    snprintf(val[6], sizeof val[6], "%zu x %zu (frame %zu x %zu)", s->gw, s->gh, s->width,
-             s->height);
+    snprintf(val[6], sizeof val[6], "%zu x %zu (frame %zu x %zu)", r->grid.n[1], r->grid.n[0],
+             r->frame.n[1], r->frame.n[0]);
     snprintf(val[7], sizeof val[7], "%s", info && info->psf_spec ? info->psf_spec : "-");
     pp_noise_format(&c->noise, val[8], sizeof val[8]);
     pp_prior_format(&c->prior, val[9], sizeof val[9]);
     snprintf(val[10], sizeof val[10], "lambda (%g, %g), delta (%g, %g)", c->hyper_lambda[0],
              c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1]);
-    snprintf(val[11], sizeof val[11], "%g %% central; %s", 100 * c->level, s->bound_method);
-    size_t nobs, nmiss;
-    pp_sampler_observed(s, &nobs, &nmiss);
+    snprintf(val[11], sizeof val[11], "%g %% central; %s", 100 * c->level, r->bound_method);
+    size_t nobs = r->observed, nmiss = r->unobserved;
     snprintf(val[12], sizeof val[12],
              "%zu of %zu (masked %zu, saturated %zu); estimated there from their neighbours "
              "(wider bounds)",
@@ -52,42 +50,40 @@ pp_status pp_output_report(const char *path, const pp_sampler *s, const pp_image
     for (size_t i = 0; i < nset; i++)
         vals[i] = val[i];
 
-    pp_report_scalar *rows = calloc(s->trace.ncols, sizeof *rows);
+    pp_report_scalar *rows = calloc(r->trace.ncols, sizeof *rows);
     if (!rows)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the report");
-    for (size_t j = 0; j < s->trace.ncols; j++) {
-        const pp_diag_scalar *d = &s->diag[j];
-        rows[j] = (pp_report_scalar){s->trace.names[j], d->mean, d->sd, d->rhat,
+    for (size_t j = 0; j < r->trace.ncols; j++) {
+        const pp_diag_scalar *d = &r->diag[j];
+        rows[j] = (pp_report_scalar){r->trace.names[j], d->mean, d->sd, d->rhat,
                                      d->ess_bulk, d->ess_tail, d->mcse_mean};
     }
     pp_report_input in;
     pp_report_input_init(&in);
     in.title = info && info->input_path ? info->input_path : NULL;
     in.frame = frame;
-    in.mean = s->mean;
-    in.sd = s->sd;
-    in.lo = s->lo;
-    in.hi = s->hi;
-    in.trace = &s->trace;
+    in.mean = r->mean;
+    in.sd = r->sd;
+    in.lo = r->lo;
+    in.hi = r->hi;
+    in.trace = &r->trace;
     in.lambda_fixed = c->noise.kind != PP_NOISE_GAUSSIAN || c->noise.sigma_set;
     in.delta_fixed = c->prior.delta_set;
     in.scalars = rows;
-    in.nscalars = s->trace.ncols;
+    in.nscalars = r->trace.ncols;
     in.chains = c->chains;
     in.settings_keys = keys;
     in.settings_values = vals;
     in.nsettings = nset;
-    in.warnings = (const char *const *)s->warnings;
-    in.nwarnings = s->nwarnings;
-    in.warning_parts = s->warning_part;
-    pp_convergence cv;
+    in.warnings = r->warnings;
+    in.nwarnings = r->nwarnings;
+    in.warning_parts = r->warning_part;
     char verdict[PP_VERDICT_MAX];
-    pp_sampler_convergence(s, &cv);
-    pp_convergence_verdict(&cv, verdict, sizeof verdict);
-    in.convergence = &cv;
+    pp_convergence_verdict(&r->convergence, verdict, sizeof verdict);
+    in.convergence = &r->convergence;
     in.verdict = verdict;
-    in.notes = (const char *const *)s->notes;
-    in.nnotes = s->nnotes;
+    in.notes = r->notes;
+    in.nnotes = r->nnotes;
     in.level = c->level;
     /* Photon models: the frame is in ADU, x (mean, sd, bounds) in photons
      * per pixel, the intensity whose blur plus background is the expected

@@ -59,12 +59,18 @@ void pp_report_verdict_banner(FILE *f, const pp_report_input *in)
     fputs("</ul>\n<p id=\"verdict-text\">", f);
     pp_report_escape(f, in->verdict);
     fputs("</p>\n", f);
-    if (cv->iters_suggested)
-        fprintf(f,
-                "<p id=\"verdict-iters\">To ask for: <code>--iters %lu</code> (an estimate "
-                "from the measured ESS per draw; see <a href=\"#warnings\">the "
-                "warnings</a>).</p>\n",
-                cv->iters_suggested);
+    if (cv->iters_suggested) {
+        fputs("<p id=\"verdict-iters\">To ask for: <code>", f);
+        if (cv->iters_name) { /* the setting by the caller's name, e.g. "--iters 4700" */
+            pp_report_escape(f, cv->iters_name);
+            fprintf(f, " %lu", cv->iters_suggested);
+        } else {
+            fprintf(f, "%lu iterations", cv->iters_suggested);
+        }
+        fputs("</code> (an estimate from the measured ESS per draw; see <a "
+              "href=\"#warnings\">the warnings</a>).</p>\n",
+              f);
+    }
     fputs("</div>\n", f);
 }
 

@@ -105,6 +105,10 @@ static const pp_kernel *kernel_for(pp_sampler_kind k, pp_prior_kind prior)
     }
 }
 
+/* A setting's name in messages: the caller's (cfg->setting_names) or the
+ * library's word (include/pixpost/setting.h). */
+#define NAME(k) pp_setting_name(cfg->setting_names, (k))
+
 /* An uncertain PSF width (sigma=auto / na=auto) needs gibbs or mtc and a
  * model the sampler can rebuild. */
 static pp_status check_width(const pp_sampler_config *cfg)
@@ -113,15 +117,17 @@ static pp_status check_width(const pp_sampler_config *cfg)
     if (!p->width_auto)
         return PP_OK;
     if (cfg->kind != PP_SAMPLER_GIBBS && cfg->kind != PP_SAMPLER_MTC)
-        return pp_fail(PP_ERR_ARG, "--psf ...=auto: the PSF width is sampled by gibbs and mtc "
+        return pp_fail(PP_ERR_ARG, "%s ...=auto: the PSF width is sampled by gibbs and mtc "
                                    "only (not %s)",
-                       pp_sampler_kind_name(cfg->kind));
+                       NAME(PP_SET_PSF), pp_sampler_kind_name(cfg->kind));
     if (cfg->prior.kind == PP_PRIOR_ADAPTIVE)
-        return pp_fail(PP_ERR_ARG, "--psf ...=auto: the PSF width is sampled with the "
-                                   "stationary priors only; add --prior gmrf1 (or gmrf2, matern)");
+        return pp_fail(PP_ERR_ARG, "%s ...=auto: the PSF width is sampled with the "
+                                   "stationary priors only; add %s gmrf1 (or gmrf2, matern)",
+                       NAME(PP_SET_PSF), NAME(PP_SET_PRIOR));
     if (p->kind == PP_PSF_FILE || !(p->width_lo > 0 && p->width_hi > p->width_lo))
-        return pp_fail(PP_ERR_ARG, "--psf ...=auto: needs a gaussian or airy model with "
-                                   "0 < lo < hi");
+        return pp_fail(PP_ERR_ARG, "%s ...=auto: needs a gaussian or airy model with "
+                                   "0 < lo < hi",
+                       NAME(PP_SET_PSF));
     return PP_OK;
 }
 
@@ -141,41 +147,46 @@ static pp_status check_config(pp_sampler_config *cfg, int missing)
                         : PP_SAMPLER_GIBBS;
     if (cfg->prior.kind == PP_PRIOR_ADAPTIVE && cfg->kind != PP_SAMPLER_GIBBS &&
         cfg->kind != PP_SAMPLER_HMC)
-        return pp_fail(PP_ERR_ARG, "--sampler %s: the adaptive prior (the default) runs with "
+        return pp_fail(PP_ERR_ARG, "%s %s: the adaptive prior (the default) runs with "
                                    "gibbs (gaussian noise) or hmc (photon counts); for %s add "
-                                   "--prior gmrf1 (or gmrf2, matern)",
-                       pp_sampler_kind_name(cfg->kind), pp_sampler_kind_name(cfg->kind));
+                                   "%s gmrf1 (or gmrf2, matern)",
+                       NAME(PP_SET_SAMPLER), pp_sampler_kind_name(cfg->kind),
+                       pp_sampler_kind_name(cfg->kind), NAME(PP_SET_PRIOR));
     if (cfg->noise.kind != PP_NOISE_GAUSSIAN && cfg->kind != PP_SAMPLER_PCN &&
         cfg->kind != PP_SAMPLER_GPCN && cfg->kind != PP_SAMPLER_HMC)
-        return pp_fail(PP_ERR_ARG, "--sampler %s: needs gaussian noise; the photon-counting "
-                                   "models (poisson, camera) use --sampler hmc, gpcn or pcn",
-                       pp_sampler_kind_name(cfg->kind));
+        return pp_fail(PP_ERR_ARG, "%s %s: needs gaussian noise; the photon-counting "
+                                   "models (poisson, camera) use %s hmc, gpcn or pcn",
+                       NAME(PP_SET_SAMPLER), pp_sampler_kind_name(cfg->kind),
+                       NAME(PP_SET_SAMPLER));
     if (!kernel_for(cfg->kind, cfg->prior.kind))
-        return pp_fail(PP_ERR_ARG, "--sampler %s: not available in this version (use gibbs)",
-                       pp_sampler_kind_name(cfg->kind));
+        return pp_fail(PP_ERR_ARG, "%s %s: not available in this version (use gibbs)",
+                       NAME(PP_SET_SAMPLER), pp_sampler_kind_name(cfg->kind));
     if (cfg->chains < 1 || cfg->chains > 1024)
-        return pp_fail(PP_ERR_ARG, "--chains %u: must be between 1 and 1024", cfg->chains);
+        return pp_fail(PP_ERR_ARG, "%s %u: must be between 1 and 1024", NAME(PP_SET_CHAINS),
+                       cfg->chains);
     if (cfg->iters < 1)
-        return pp_fail(PP_ERR_ARG, "--iters: must be at least 1");
+        return pp_fail(PP_ERR_ARG, "%s: must be at least 1", NAME(PP_SET_ITERS));
     if (!(cfg->max_seconds >= 0 && isfinite(cfg->max_seconds)))
-        return pp_fail(PP_ERR_ARG, "--max-time %g: must be a finite number of seconds >= 0",
-                       cfg->max_seconds);
+        return pp_fail(PP_ERR_ARG, "%s %g: must be a finite number of seconds >= 0",
+                       NAME(PP_SET_MAX_SECONDS), cfg->max_seconds);
     if (cfg->iters_auto && cfg->max_iters && cfg->max_iters < cfg->burn + cfg->iters)
         /* (the first round, rounded up to whole thins, may still pass it: next_round cuts) */
         return pp_fail(PP_ERR_ARG,
-                       "--max-iters %lu: must be at least --burn + the first "
+                       "%s %lu: must be at least %s + the first "
                        "round (%lu + %lu)",
-                       cfg->max_iters, cfg->burn, cfg->iters);
-    if (cfg->thin < 1 || (!cfg->iters_auto && cfg->thin > cfg->iters))
-        return pp_fail(PP_ERR_ARG, "--thin %lu: must be between 1 and --iters (%lu)", cfg->thin,
+                       NAME(PP_SET_MAX_ITERS), cfg->max_iters, NAME(PP_SET_BURN), cfg->burn,
                        cfg->iters);
+    if (cfg->thin < 1 || (!cfg->iters_auto && cfg->thin > cfg->iters))
+        return pp_fail(PP_ERR_ARG, "%s %lu: must be between 1 and %s (%lu)", NAME(PP_SET_THIN),
+                       cfg->thin, NAME(PP_SET_ITERS), cfg->iters);
     if (!(cfg->level > 0 && cfg->level < 1))
-        return pp_fail(PP_ERR_ARG, "--level %g: must be strictly between 0 and 1", cfg->level);
+        return pp_fail(PP_ERR_ARG, "%s %g: must be strictly between 0 and 1", NAME(PP_SET_LEVEL),
+                       cfg->level);
     for (int i = 0; i < 2; i++)
         if (!(cfg->hyper_lambda[i] >= 0 && cfg->hyper_delta[i] >= 0 &&
               isfinite(cfg->hyper_lambda[i]) && isfinite(cfg->hyper_delta[i])))
-            return pp_fail(PP_ERR_ARG, "--hyper-lambda/--hyper-delta: shape and rate must be "
-                                       "finite and >= 0");
+            return pp_fail(PP_ERR_ARG, "%s/%s: shape and rate must be finite and >= 0",
+                           NAME(PP_SET_HYPER_LAMBDA), NAME(PP_SET_HYPER_DELTA));
     return check_width(cfg);
 }
 
@@ -349,7 +360,9 @@ static pp_status plan_trace(pp_sampler *s)
            rows, n;
     if (!pp_mul_ok(kept, s->cfg.chains, &rows) || !pp_mul_ok(rows, ncols, &n) ||
         !pp_mul_ok(n, sizeof(double), &n))
-        return pp_fail(PP_ERR_LIMIT, "--iters/--chains: the trace would not fit in memory");
+        return pp_fail(PP_ERR_LIMIT, "%s/%s: the trace would not fit in memory",
+                       pp_setting_name(s->cfg.setting_names, PP_SET_ITERS),
+                       pp_setting_name(s->cfg.setting_names, PP_SET_CHAINS));
     s->trace_values = calloc(rows * ncols, sizeof(double));
     if (!s->trace_values)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the traces (%zu rows)", rows);
@@ -753,7 +766,8 @@ static pp_status grow_trace(pp_sampler *s, size_t rows)
         return PP_OK;
     size_t nc = s->cfg.chains, ncols = s->trace.ncols, n;
     if (!pp_mul_ok(rows, nc * ncols, &n) || !pp_mul_ok(n, sizeof(double), &n))
-        return pp_fail(PP_ERR_LIMIT, "--max-iters: the trace would not fit in memory");
+        return pp_fail(PP_ERR_LIMIT, "%s: the trace would not fit in memory",
+                       pp_setting_name(s->cfg.setting_names, PP_SET_MAX_ITERS));
     double *v = realloc(s->trace_values, n);
     if (!v)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the traces (%zu rows)", rows * nc);

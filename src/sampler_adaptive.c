@@ -80,7 +80,8 @@ static void release(pp_sampler *s)
 static pp_status prepare(pp_sampler *s)
 {
     if (s->gh < 2 || s->gw < 2)
-        return pp_fail(PP_ERR_ARG, "--prior adaptive: the frame must be at least 2 x 2 pixels");
+        return pp_fail(PP_ERR_ARG, "%s adaptive: the frame must be at least 2 x 2 pixels",
+                       pp_setting_name(s->cfg.setting_names, PP_SET_PRIOR));
     adapt_shared *sh = calloc(1, sizeof *sh);
     if (!sh)
         return pp_fail(PP_ERR_NOMEM, "out of memory");

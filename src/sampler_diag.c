@@ -132,7 +132,12 @@ static advice advise(const pp_sampler *s)
 {
     advice a;
     unsigned long n = pp_sampler_iters_suggested(s);
-    snprintf(a.text, sizeof a.text, "run about %lu iterations: --iters %lu", n, n);
+    /* a caller that names the settings gets the one to set (": --iters N") */
+    if (s->cfg.setting_names)
+        snprintf(a.text, sizeof a.text, "run about %lu iterations: %s %lu", n,
+                 pp_setting_name(s->cfg.setting_names, PP_SET_ITERS), n);
+    else
+        snprintf(a.text, sizeof a.text, "run about %lu iterations", n);
     return a;
 }
 
@@ -144,8 +149,9 @@ static void warn_column(pp_sampler *s, const char *name, const pp_diag_scalar *d
         pp_sampler_warn_part(s, PP_WARN_HYPER,
                              "hyperparameters: R-hat of %s is %.3f (above %.2f): the chains "
                              "disagree on this global quantity; %s (a lower bound while the "
-                             "chains disagree; a longer --burn helps when they start far apart)",
-                             name, d->rhat, RHAT_LIMIT, adv);
+                             "chains disagree; a longer %s helps when they start far apart)",
+                             name, d->rhat, RHAT_LIMIT, adv,
+                             pp_setting_name(s->cfg.setting_names, PP_SET_BURN));
     if (ess_fails(s, d->ess_bulk))
         pp_sampler_warn_part(s, PP_WARN_HYPER,
                              "hyperparameters: bulk-ESS of %s is %.0f (below %.0f = 100 per "
@@ -313,14 +319,16 @@ static void warn_hyperprior(pp_sampler *s)
         pp_sampler_warn(s,
                         "the Gamma hyperprior of lambda (rate %g) outweighs the data (%.0f%% of "
                         "its conditional rate): the frame's scale is too small for it; rescale "
-                        "the frame or set --hyper-lambda A,B for its units",
-                        c->hyper_lambda[1], 100 * share_l);
+                        "the frame or set %s A,B for its units",
+                        c->hyper_lambda[1], 100 * share_l,
+                        pp_setting_name(c->setting_names, PP_SET_HYPER_LAMBDA));
     if (!c->prior.delta_set && share_d > 0.01)
         pp_sampler_warn(s,
                         "the Gamma hyperprior of delta (rate %g) outweighs the data (%.0f%% of "
-                        "its conditional rate): rescale the frame or set --hyper-delta A,B for "
+                        "its conditional rate): rescale the frame or set %s A,B for "
                         "its units",
-                        c->hyper_delta[1], 100 * share_d);
+                        c->hyper_delta[1], 100 * share_d,
+                        pp_setting_name(c->setting_names, PP_SET_HYPER_DELTA));
 }
 
 /* The adaptive prior's x-draws: a kept draw whose CG stopped at its cap is
@@ -336,9 +344,10 @@ static void warn_solver(pp_sampler *s)
         pp_sampler_warn(s,
                         "the inner solver of the adaptive prior stopped at its iteration cap "
                         "in %llu draws after burn-in (of %llu kept): those draws are not "
-                        "within the stated tolerance; a longer burn-in or --prior gmrf1 "
+                        "within the stated tolerance; a longer burn-in or %s gmrf1 "
                         "avoids it",
-                        ss.capped, kept * s->cfg.thin);
+                        ss.capped, kept * s->cfg.thin,
+                        pp_setting_name(s->cfg.setting_names, PP_SET_PRIOR));
 }
 
 pp_status pp_sampler_diagnose(pp_sampler *s)
@@ -410,6 +419,8 @@ void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out)
     out->ess_bulk_min = NAN;
     out->warnings = s->nwarnings;
     out->converged = s->nwarnings == 0;
+    if (s->cfg.setting_names)
+        out->iters_name = pp_setting_name(s->cfg.setting_names, PP_SET_ITERS);
     for (size_t j = 0; s->diag && j < s->trace.ncols; j++) {
         const pp_diag_scalar *d = &s->diag[j];
         if (isfinite(d->rhat) && !(d->rhat <= out->rhat_max))

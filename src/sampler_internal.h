@@ -197,8 +197,6 @@ struct pp_sampler {
     int ran;
 };
 
-/* Columns of a trace row. */
-enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
 
 /* Adds the frame block of a grid-sized field (rows s->gw apart) to the
  * moments of chain c, freezing their mean in c->mean1 when the count

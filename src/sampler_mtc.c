@@ -267,18 +267,20 @@ static pp_status mtc_prepare(pp_sampler *s)
         m->fallback = 1;
         s->pad_scheme = "gibbs (data augmentation): with unobserved (missing) pixels the "
                         "marginal of (lambda, delta) is not Fourier-diagonal";
-        pp_sampler_warn(s, "--sampler mtc with %zu unobserved (masked or saturated) pixels "
-                           "runs the gibbs chain (data augmentation); use --sampler gibbs",
-                        s->nmissing);
+        pp_sampler_warn(s, "%s mtc with %zu unobserved (masked or saturated) pixels "
+                           "runs the gibbs chain (data augmentation); use %s gibbs",
+                        pp_setting_name(s->cfg.setting_names, PP_SET_SAMPLER), s->nmissing, pp_setting_name(s->cfg.setting_names, PP_SET_SAMPLER));
         return PP_OK; /* (the padding scale move is for --boundary pad only) */
     }
     if (s->augment) {
         m->fallback = 1;
         s->pad_scheme = "gibbs (data augmentation): with unobserved padding the marginal of "
                         "(lambda, delta) is not Fourier-diagonal";
-        pp_sampler_warn(s, "--sampler mtc with --boundary pad runs the gibbs chain (data "
-                           "augmentation); use --boundary periodic for marginal-then-"
-                           "conditional draws");
+        pp_sampler_warn(s, "%s mtc with %s pad runs the gibbs chain (data "
+                           "augmentation); use %s periodic for marginal-then-"
+                           "conditional draws",
+                        pp_setting_name(s->cfg.setting_names, PP_SET_SAMPLER), pp_setting_name(s->cfg.setting_names, PP_SET_BOUNDARY),
+                        pp_setting_name(s->cfg.setting_names, PP_SET_BOUNDARY));
         return pp_kernel_gibbs.prepare(s); /* the padding scale move, src/padscale.h */
     }
     m->idx = malloc(s->gm * sizeof *m->idx);

@@ -904,7 +904,8 @@ static pp_status plan_likelihood(pp_sampler *s, pcn_shared *sh)
     const pp_noise_spec *nz = &s->cfg.noise;
     double r2 = nz->kind == PP_NOISE_CAMERA ? nz->read * nz->read : 0.0, b = s->cfg.background;
     if (!(b >= 0 && isfinite(b)))
-        return pp_fail(PP_ERR_ARG, "--background %g: must be finite and >= 0 (photons/pixel)", b);
+        return pp_fail(PP_ERR_ARG, "%s %g: must be finite and >= 0 (photons/pixel)",
+                       pp_setting_name(s->cfg.setting_names, PP_SET_BACKGROUND), b);
     sh->data = pp_fft_alloc_real(s->gn);
     if (!sh->data)
         return fail_nomem();
@@ -1039,8 +1040,10 @@ static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
 {
     pp_sampler_config *cfg = &s->cfg;
     if (cfg->psf.width_auto)
-        return pp_fail(PP_ERR_ARG, "--psf ...=auto: sampling the PSF width is available with "
-                                   "--sampler gibbs or mtc only (give pcn/gpcn/hmc a fixed width)");
+        return pp_fail(PP_ERR_ARG, "%s ...=auto: sampling the PSF width is available with "
+                                   "%s gibbs or mtc only (give pcn/gpcn/hmc a fixed width)",
+                       pp_setting_name(cfg->setting_names, PP_SET_PSF),
+                       pp_setting_name(cfg->setting_names, PP_SET_SAMPLER));
     if (cfg->positivity == PP_POSITIVITY_AUTO)
         cfg->positivity =
             cfg->noise.kind == PP_NOISE_GAUSSIAN ? PP_POSITIVITY_NONE : PP_POSITIVITY_LOG;
@@ -1056,14 +1059,15 @@ static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
     pp_squant_law_init(&sh->law, cfg->level);
     sh->adaptive = cfg->prior.kind == PP_PRIOR_ADAPTIVE; /* hmc only (sampler.c checks) */
     if (sh->adaptive && (s->gh < 2 || s->gw < 2))
-        return pp_fail(PP_ERR_ARG, "--prior adaptive: the frame must be at least 2 x 2 pixels");
+        return pp_fail(PP_ERR_ARG, "%s adaptive: the frame must be at least 2 x 2 pixels",
+                       pp_setting_name(cfg->setting_names, PP_SET_PRIOR));
     if (sh->gpcn && cfg->burn < GPCN_MIN_BURN)
         pp_sampler_warn(s,
                         "%s: a burn-in of %lu iterations is too short to adapt the proposal "
                         "(the first half places its centre, the second adapts %s); use "
-                        "--burn %d or more, or expect a low acceptance rate",
+                        "%s %d or more, or expect a low acceptance rate",
                         hmc ? "hmc" : "gpcn", cfg->burn, hmc ? "the step" : "beta",
-                        GPCN_MIN_BURN);
+                        pp_setting_name(cfg->setting_names, PP_SET_BURN), GPCN_MIN_BURN);
     pp_status st = plan_likelihood(s, sh);
     if (st == PP_OK)
         st = plan_start(s, sh);
@@ -1099,8 +1103,9 @@ static pp_status pcn_finish(pp_sampler *s)
         if (s->chain[j].acceptance < LOW_ACCEPT)
             pp_sampler_warn(s,
                             "chain %u: the field move accepted %.1f %% of its proposals after "
-                            "burn-in (step %.3g): the chain moves slowly; lengthen --burn",
-                            j + 1, 100 * s->chain[j].acceptance, s->chain[j].step);
+                            "burn-in (step %.3g): the chain moves slowly; lengthen %s",
+                            j + 1, 100 * s->chain[j].acceptance, s->chain[j].step,
+                            pp_setting_name(s->cfg.setting_names, PP_SET_BURN));
     snprintf(s->bound_method, sizeof s->bound_method,
              "streaming quantiles: per pixel and chain, Robbins-Monro recursion q += g (p - "
              "1{z <= q}), g = sd/(phi(z_p) t), on %s, started from the Gaussian guess after %d "

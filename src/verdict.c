@@ -21,10 +21,12 @@ void pp_convergence_verdict(const pp_convergence *cv, char *buf, size_t len)
     const char *names = cv->hyper_failing[0] ? cv->hyper_failing : "a global column";
     int several = strchr(cv->hyper_failing, ',') != NULL;
     size_t n_other = others(cv);
-    char iters[96] = "";
-    if (cv->iters_suggested)
-        snprintf(iters, sizeof iters, "; run about %lu iterations: --iters %lu",
-                 cv->iters_suggested, cv->iters_suggested);
+    char iters[128] = "";
+    if (cv->iters_suggested && cv->iters_name) /* the setting to change, by the caller's name */
+        snprintf(iters, sizeof iters, "; run about %lu iterations: %.40s %lu",
+                 cv->iters_suggested, cv->iters_name, cv->iters_suggested);
+    else if (cv->iters_suggested)
+        snprintf(iters, sizeof iters, "; run about %lu iterations", cv->iters_suggested);
     char tail[64] = "";
     if (n_other && (!cv->hyper_converged || !cv->pixels_converged))
         snprintf(tail, sizeof tail, "; %zu other warning%s too", n_other,

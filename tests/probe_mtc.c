@@ -119,7 +119,12 @@ static int do_run(int argc, char **argv)
         return fail("run");
     pp_run_info ri = {.input_path = argv[0], .psf_spec = argv[1], .noise_spec = "gaussian",
                       .prior_spec = prior_text, .command_line = "probe_mtc run"};
-    if (pp_output_write(argv[2], s, frame, &ri) != PP_OK)
+    pp_result res;
+    if (pp_sampler_result(s, &res) != PP_OK)
+        return fail("result");
+    pp_status wst = pp_output_write(argv[2], &res, frame, &ri);
+    pp_result_free(&res);
+    if (wst != PP_OK)
         return fail(argv[2]);
     printf("%.17g\n", pp_sampler_seconds(s));
     pp_sampler_free(s);

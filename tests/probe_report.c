@@ -137,6 +137,7 @@ static int cmd_write(int argc, char **argv)
         memset(&cv, 0, sizeof cv);
         cv.rhat_max = 1.034, cv.ess_bulk_min = 95, cv.warnings = 2, cv.hyper_warnings = 1;
         cv.pixels_converged = 1, cv.iters_suggested = 2000;
+        cv.iters_name = "--iters"; /* as the command line names it */
         snprintf(cv.hyper_failing, sizeof cv.hyper_failing, "lambda");
         char verdict[PP_VERDICT_MAX];
         pp_convergence_verdict(&cv, verdict, sizeof verdict);

@@ -87,7 +87,10 @@ static void test_pad_fallback(const pp_image *y, const pp_image *k)
     CHECK(s->pad_scheme && strstr(s->pad_scheme, "gibbs"), "pad_scheme names gibbs");
     int warned = 0;
     for (size_t i = 0; i < pp_sampler_warning_count(s); i++)
-        warned |= strstr(pp_sampler_warning(s, i), "--boundary pad") != NULL;
+        /* the library's words (no setting names given; the command line's
+         * are "--sampler mtc with --boundary pad") */
+        warned |= strstr(pp_sampler_warning(s, i), "sampler mtc with boundary pad runs the "
+                                                   "gibbs chain") != NULL;
     CHECK(warned, "mtc with pad warns about the fallback");
     pp_sampler_free(s);
 }

@@ -175,8 +175,22 @@ static void determinism_and_refusals(void)
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.thin = 5000;
-    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG && strstr(pp_error_message(), "--thin"),
+    /* the library's words for a library caller; a caller's own names (the
+     * command line's flags) when given (include/pixpost/setting.h) */
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG &&
+              strcmp(pp_error_message(),
+                     "thinning 5000: must be between 1 and iterations (1000)") == 0,
           "thin > iters refused: %s", pp_error_message());
+    static const char *const flags[PP_SET_COUNT] = {[PP_SET_THIN] = "--thin",
+                                                    [PP_SET_ITERS] = "--iters"};
+    cfg.setting_names = flags;
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG &&
+              strcmp(pp_error_message(), "--thin 5000: must be between 1 and --iters (1000)") == 0,
+          "thin > iters refused, caller's names: %s", pp_error_message());
+    CHECK(strcmp(pp_setting_name(flags, PP_SET_BURN), "burn-in") == 0 &&
+              strcmp(pp_setting_name(NULL, PP_SET_THIN), "thinning") == 0 &&
+              strcmp(pp_setting_name(NULL, PP_SET_COUNT), "setting") == 0,
+          "a name the caller leaves NULL is the library's word");
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.chains = 0;

@@ -5,7 +5,9 @@
  *    both; other warnings only) gets its label and its sentence, and the
  *    hyperparameters-only case says the pixel bounds are sound while the
  *    failing columns are still moving, naming them;
- *  - the suggested --iters appears as "run about N iterations: --iters N";
+ *  - the suggested --iters appears as "run about N iterations: --iters N"
+ *    when the figures name the setting (iters_name), as "run about N
+ *    iterations" when they do not;
  *  - a short buffer is truncated and terminated;
  *  - report.html: the banner comes first with the right counts in its
  *    data attributes and text, the warnings section comes before the
@@ -38,6 +40,7 @@ static pp_convergence figures(size_t hyper, size_t pixels, size_t other, unsigne
     cv.hyper_converged = hyper == 0;
     cv.pixels_converged = pixels == 0;
     snprintf(cv.hyper_failing, sizeof cv.hyper_failing, "%s", failing);
+    cv.iters_name = "--iters"; /* as the command line names the setting */
     cv.iters_suggested = iters;
     return cv;
 }
@@ -51,12 +54,19 @@ static void test_sentences(void)
     CHECK(strcmp(pp_convergence_failed(&cv), "") == 0, "converged label");
 
     cv = figures(3, 0, 0, 86000, "delta");
+    cv.iters_name = NULL;
     pp_convergence_verdict(&cv, buf, sizeof buf);
     CHECK(strncmp(buf, "not converged: the hyperparameters have not converged (delta)", 61) == 0,
           "hyper only: %s", buf);
     CHECK(has(buf, "the pixel bounds are sound as far as the diagnostics can tell while delta "
                    "is still moving"),
           "hyper only says the bounds are sound: %s", buf);
+    /* no name for the setting: the library's words only; the caller's name
+     * (the command line's flag) when given */
+    CHECK(has(buf, "; run about 86000 iterations") && !has(buf, "--iters") && !has(buf, ": "
+          "iterations"), "hyper only, iters, no names: %s", buf);
+    cv.iters_name = "--iters";
+    pp_convergence_verdict(&cv, buf, sizeof buf);
     CHECK(has(buf, "run about 86000 iterations: --iters 86000"), "hyper only, iters: %s", buf);
     CHECK(strcmp(pp_convergence_failed(&cv), "hyperparameters") == 0, "hyper label");
 
@@ -130,6 +140,12 @@ static void test_banner(const char *dir)
                            "hyperparameters: bulk-ESS of delta is 18", "acceptance <low>"};
     const pp_warning_part parts[4] = {PP_WARN_HYPER, PP_WARN_PIXELS, PP_WARN_HYPER, PP_WARN_OTHER};
     pp_convergence cv = figures(2, 1, 1, 86000, "delta");
+    cv.iters_name = NULL;
+    char *h0 = page(dir, "bad", &cv, warn, parts, 4); /* no name for the setting */
+    CHECK(has(h0, "<code>86000 iterations</code>") && !has(h0, "--iters"),
+          "banner's suggestion without a setting name");
+    free(h0);
+    cv.iters_name = "--iters";
     char *h = page(dir, "bad", &cv, warn, parts, 4);
     CHECK(has(h, "<div id=\"verdict\" class=\"verdict bad\" data-converged=\"false\" "
                  "data-warnings=\"4\" data-hyper-warnings=\"2\" data-pixel-warnings=\"1\" "

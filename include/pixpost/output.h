@@ -16,7 +16,7 @@
 #define PIXPOST_OUTPUT_H
 
 #include <stdio.h>
-#include "pixpost/sampler.h"
+#include "pixpost/result.h"
 #include "pixpost/calib.h"
 
 /* What the caller knows about the run that the sampler does not. Every
@@ -59,7 +59,9 @@ void pp_json_write_string(FILE *f, const char *s);
  * null when v is not finite. */
 void pp_json_write_number(FILE *f, double v);
 
-pp_status pp_output_write(const char *dir, const pp_sampler *s, const pp_image *frame,
+/* Writes the outputs of the finished run r (pp_sampler_result) into dir;
+ * frame is the input frame the run sampled (the report shows it). */
+pp_status pp_output_write(const char *dir, const pp_result *r, const pp_image *frame,
                           const pp_run_info *info);
 
 /* The marker of a folder pixpost wrote: a small text file whose first line

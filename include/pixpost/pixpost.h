@@ -13,6 +13,7 @@
 #include "pixpost/prior.h"
 #include "pixpost/model.h"
 #include "pixpost/sampler.h"
+#include "pixpost/result.h"
 #include "pixpost/saturation.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/ppcheck.h"

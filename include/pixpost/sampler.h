@@ -59,6 +59,7 @@
 #include "pixpost/noise.h"
 #include "pixpost/prior.h"
 #include "pixpost/psf.h"
+#include "pixpost/setting.h"
 
 typedef enum pp_sampler_kind {
     PP_SAMPLER_AUTO = 0, /* gibbs for gaussian (mtc for gaussian + periodic with a
@@ -125,6 +126,10 @@ typedef struct pp_sampler_config {
     pp_progress_fn progress;
     void *progress_ctx;
     const volatile sig_atomic_t *stop; /* non-zero: stop soon, PP_ERR_INTERRUPTED */
+    /* How messages name the settings above (include/pixpost/setting.h):
+     * PP_SET_COUNT names kept by the caller while the sampler lives, e.g.
+     * a command line's flags; NULL (default): the library's words. */
+    const char *const *setting_names;
 } pp_sampler_config;
 
 void pp_sampler_defaults(pp_sampler_config *cfg);
@@ -215,6 +220,10 @@ typedef struct pp_trace {
 } pp_trace;
 
 const pp_trace *pp_sampler_trace(const pp_sampler *s);
+/* The trace columns every sampler has, first in every row. PP_COL_PROBE0
+ * is the column after them: the optional psf_width, kappa and level
+ * columns start there when present, then the probe pixels. */
+enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
 
 /* Convergence diagnostics (valid after a successful run): one
  * pp_diag_scalar (include/pixpost/diag.h) per trace column, in column
@@ -300,6 +309,10 @@ typedef struct pp_convergence {
     int hyper_converged, pixels_converged;
     char hyper_failing[64];
     unsigned long iters_suggested;
+    /* The caller's name of the iterations setting (cfg.setting_names'
+     * PP_SET_ITERS, e.g. "--iters"), which the verdict names with the
+     * suggestion; NULL when the caller gave no names. */
+    const char *iters_name;
 } pp_convergence;
 void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out);
 

@@ -169,6 +169,10 @@ typedef struct cli_sample_opts {
     int prior_given;        /* --prior was given */
 } cli_sample_opts;
 
+/* The flag of each sampler setting (flag_names.c), for
+ * pp_sampler_config.setting_names: the library's messages name the flags. */
+extern const char *const cli_flag_names[PP_SET_COUNT];
+
 /* The sample options table (NULL-terminated). */
 const cli_opt *cli_sample_table(void);
 /* Writes the default of a sample option (a cli_default_fn; ctx unused). */

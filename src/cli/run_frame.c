@@ -261,7 +261,11 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
         if (na->prior_text[0])
             ri.prior_spec = na->prior_text;
     }
-    if ((st = pp_output_write(r->outdir, r->sampler, frame, &ri)) != PP_OK)
+    pp_result res;
+    if ((st = pp_sampler_result(r->sampler, &res)) == PP_OK)
+        st = pp_output_write(r->outdir, &res, frame, &ri);
+    pp_result_free(&res);
+    if (st != PP_OK)
         return fail_lib(r, st);
     return 0;
 }

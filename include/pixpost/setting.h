@@ -1,0 +1,40 @@
+/* pixpost — names of the sampler's settings in its messages.
+ *
+ * An error or warning about a setting names it. The library's own words
+ * name the setting itself ("thinning 0: must be between 1 and iterations
+ * (1000)"); a program with its own names for them (the command line's
+ * flags: "--thin", "--iters") gives a table in pp_sampler_config's
+ * setting_names, and the same messages (also the warnings kept in the
+ * results and summary.json) then use those names.
+ */
+#ifndef PIXPOST_SETTING_H
+#define PIXPOST_SETTING_H
+
+typedef enum pp_setting {
+    PP_SET_SAMPLER = 0, /* cfg.kind */
+    PP_SET_CHAINS,      /* cfg.chains */
+    PP_SET_BURN,        /* cfg.burn */
+    PP_SET_ITERS,       /* cfg.iters */
+    PP_SET_THIN,        /* cfg.thin */
+    PP_SET_MAX_SECONDS, /* cfg.max_seconds */
+    PP_SET_MAX_ITERS,   /* cfg.max_iters */
+    PP_SET_LEVEL,       /* cfg.level */
+    PP_SET_HYPER_LAMBDA, /* cfg.hyper_lambda */
+    PP_SET_HYPER_DELTA,  /* cfg.hyper_delta */
+    PP_SET_PRIOR,       /* cfg.prior */
+    PP_SET_PSF,         /* cfg.psf */
+    PP_SET_BOUNDARY,    /* cfg.boundary */
+    PP_SET_BACKGROUND,  /* cfg.background */
+    PP_SET_COUNT
+} pp_setting;
+
+/* The name of setting k: names[k] when names is not NULL and names[k] is
+ * not NULL, else the library's word ("sampler", "chains", "burn-in",
+ * "iterations", "thinning", "time cap", "iteration cap", "credible
+ * level", "lambda hyperprior", "delta hyperprior", "prior", "PSF",
+ * "boundary", "background"); "setting" for k out of
+ * range. names, when given, has PP_SET_COUNT entries. Static text or the
+ * caller's. */
+const char *pp_setting_name(const char *const *names, pp_setting k);
+
+#endif
