@@ -48,6 +48,22 @@ void pp_grid_get_box(const double *grid, const pp_shape *gs, double *frame,
             memcpy(frame + (z * ny + y) * nx, grid + (z * gy + y) * gx, nx * sizeof *frame);
 }
 
+void pp_grid_place_kernel(double *grid, const pp_shape *gs, const double *kernel,
+                          const pp_shape *ks)
+{
+    size_t total = gs->n[0] * gs->n[1] * gs->n[2];
+    memset(grid, 0, total * sizeof *grid);
+    int k = ks->rank;
+    size_t kz = k == 3 ? ks->n[0] : 1, ky = ks->n[k - 2], kx = ks->n[k - 1];
+    size_t gz = k == 3 ? gs->n[0] : 1, gy = gs->n[k - 2], gx = gs->n[k - 1];
+    size_t rz = kz / 2, ry = ky / 2, rx = kx / 2;
+    for (size_t a = 0; a < kz; a++)
+        for (size_t b = 0; b < ky; b++)
+            for (size_t c = 0; c < kx; c++) /* centre goes to the origin, with wrap */
+                grid[(((a + gz - rz) % gz) * gy + (b + gy - ry) % gy) * gx + (c + gx - rx) % gx] =
+                    kernel[(a * ky + b) * kx + c];
+}
+
 int pp_grid_half_weight(const pp_shape *s, size_t k)
 {
     size_t n = s->n[s->rank - 1];

@@ -48,6 +48,14 @@ void pp_grid_put_box(double *grid, const pp_shape *gs, const double *frame,
 void pp_grid_get_box(const double *grid, const pp_shape *gs, double *frame,
                      const pp_shape *fs);
 
+/* Zeroes grid (shape *gs) and places the kernel (shape *ks, same rank, odd
+ * extents no larger than the grid's) with its centre element (n/2 on every
+ * axis) at the grid's origin, wrapping: kernel element i goes to
+ * (i - n/2) mod the grid extent on every axis. Its transform is then the
+ * transfer function of a blur centred on each element. */
+void pp_grid_place_kernel(double *grid, const pp_shape *gs, const double *kernel,
+                          const pp_shape *ks);
+
 /* Weight of half-spectrum entries with last-axis index k in a sum over the
  * full spectrum of a real grid of shape *s: 1 on the edge columns (k = 0
  * and, n[rank-1] even, k = n[rank-1]/2), 2 elsewhere. Summed over the half

@@ -70,11 +70,8 @@ pp_status pp_psf_transfer(const pp_image *psf, const pp_fft *f, pp_complex *otf)
         pp_fft_free_buffer(spec);
         return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zu transfer function", w, h);
     }
-    memset(grid, 0, h * w * sizeof *grid);
-    size_t n = psf->width, r = n / 2;
-    for (size_t i = 0; i < n; i++)
-        for (size_t j = 0; j < n; j++) /* centre (r, r) goes to (0, 0), with wrap */
-            grid[((i + h - r) % h) * w + (j + w - r) % w] = psf->data[i * n + j];
+    pp_shape gs = pp_shape_2d(h, w), ks = pp_shape_2d(psf->height, psf->width);
+    pp_grid_place_kernel(grid, &gs, psf->data, &ks); /* centre (r, r) to (0, 0) */
     pp_fft_forward(f, grid, spec);
     memcpy(otf, spec, nc * sizeof *spec);
     pp_fft_free_buffer(grid);

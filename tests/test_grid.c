@@ -9,12 +9,53 @@
  * and the Hermitian edge pairing: every entry of an edge column equals the
  * conjugate of its mirror (-k mod every extent), self-mirrors real and
  * sqrt(2) times the drawn real part, rank 2 also against the loop
- * spectral.c and sampler_gibbs.c had before (k1 = 1 .. H-k1 mirrored). */
+ * spectral.c and sampler_gibbs.c had before (k1 = 1 .. H-k1 mirrored);
+ * kernel placement of asymmetric kernels (3x5 in 6x7, 3x3x5 in 4x5x8)
+ * against numpy's roll-based placement, np.roll(np.pad(k, (0, G - n)),
+ * -(n // 2), axis) on every axis, with np.roll's definition (numpy.roll
+ * docs: out[(i + shift) mod G] = in[i]) written out one axis at a time. */
 #include "grid.h"
 #include "pixpost/fft.h"
 #include "testutil.h"
 #include <complex.h>
 #include <math.h>
+
+/* np.roll along one axis of a row-major array of shape n[0..2]. */
+static void roll_axis(double *a, const size_t *n, int axis, long shift)
+{
+    size_t tot = n[0] * n[1] * n[2];
+    double tmp[256];
+    for (size_t i = 0; i < tot; i++) {
+        size_t idx[3] = {i / (n[1] * n[2]), (i / n[2]) % n[1], i % n[2]};
+        long m = (long)n[axis];
+        idx[axis] = (size_t)((((long)idx[axis] + shift) % m + m) % m);
+        tmp[(idx[0] * n[1] + idx[1]) * n[2] + idx[2]] = a[i];
+    }
+    for (size_t i = 0; i < tot; i++) a[i] = tmp[i];
+}
+
+/* pp_grid_place_kernel against pad-then-roll; kernel extents k, grid g. */
+static int placement_matches(const pp_shape *ks, const pp_shape *gs)
+{
+    size_t k[3] = {1, 1, 1}, g[3] = {1, 1, 1};
+    int off = 3 - ks->rank;
+    for (int a = 0; a < ks->rank; a++) {
+        k[off + a] = ks->n[a];
+        g[off + a] = gs->n[a];
+    }
+    double kern[64], ref[256], got[256];
+    for (size_t i = 0; i < k[0] * k[1] * k[2]; i++) kern[i] = 1.0 + (double)i * (double)i;
+    for (size_t i = 0; i < 256; i++) ref[i] = 0, got[i] = -5;
+    for (size_t a = 0; a < k[0]; a++) /* np.pad: kernel at the origin */
+        for (size_t b = 0; b < k[1]; b++)
+            for (size_t c = 0; c < k[2]; c++)
+                ref[(a * g[1] + b) * g[2] + c] = kern[(a * k[1] + b) * k[2] + c];
+    for (int a = 0; a < 3; a++) roll_axis(ref, g, a, -(long)(k[a] / 2));
+    pp_grid_place_kernel(got, gs, kern, ks);
+    int ok = 1;
+    for (size_t i = 0; i < g[0] * g[1] * g[2]; i++) ok &= got[i] == ref[i];
+    return ok;
+}
 
 static int smooth_even(size_t n)
 {
@@ -141,5 +182,10 @@ int main(void)
         if (i % 4 == 1 || i % 4 == 2)
             ok &= h3[i] == d3[i];
     CHECK(ok, "interior columns untouched");
+
+    pp_shape k2 = pp_shape_2d(3, 5), gk2 = pp_shape_2d(6, 7);
+    CHECK(placement_matches(&k2, &gk2), "rank-2 placement of a 3x5 kernel equals np.roll placement");
+    pp_shape k3 = pp_shape_3d(3, 3, 5), gk3 = pp_shape_3d(4, 5, 8);
+    CHECK(placement_matches(&k3, &gk3), "rank-3 placement of a 3x3x5 kernel equals np.roll placement");
     return pp_test_done();
 }
