@@ -2,8 +2,8 @@
  * blur A x and simulated noise.
  *
  * Cost of pp_model_blur: one plan for the grid (H x W periodic; padded
- * Hp x Wp = pp_fft_good_grid(max(H + R, 2R + 1), max(W + R, 2R + 1)) for
- * pad), three transforms (PSF, scene, inverse) and three grid-sized
+ * Hp x Wp = pp_grid_padded(PP_GRID_PAD_BLUR): pp_fft_good_grid(max(H + R,
+ * 2R + 1), max(W + R, 2R + 1)) for pad), three transforms (PSF, scene, inverse) and three grid-sized
  * buffers. Noise is
  * one or two variates per pixel. Simulation is not on the sampler's hot
  * path, so nothing here is cached.
@@ -15,6 +15,7 @@
  */
 #include "pixpost/model.h"
 #include "internal.h"
+#include "grid.h"
 #include "pixpost/psf.h"
 #include <math.h>
 #include <stdlib.h>
@@ -69,11 +70,8 @@ pp_status pp_psf_transfer(const pp_image *psf, const pp_fft *f, pp_complex *otf)
         pp_fft_free_buffer(spec);
         return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zu transfer function", w, h);
     }
-    memset(grid, 0, h * w * sizeof *grid);
-    size_t n = psf->width, r = n / 2;
-    for (size_t i = 0; i < n; i++)
-        for (size_t j = 0; j < n; j++) /* centre (r, r) goes to (0, 0), with wrap */
-            grid[((i + h - r) % h) * w + (j + w - r) % w] = psf->data[i * n + j];
+    pp_shape gs = pp_shape_2d(h, w), ks = pp_shape_2d(psf->height, psf->width);
+    pp_grid_place_kernel(grid, &gs, psf->data, &ks); /* centre (r, r) to (0, 0) */
     pp_fft_forward(f, grid, spec);
     memcpy(otf, spec, nc * sizeof *spec);
     pp_fft_free_buffer(grid);
@@ -90,7 +88,8 @@ static pp_status blur_on_grid(const pp_image *x, const pp_image *psf, size_t hg,
     pp_status st = pp_fft_create(hg, wg, PP_FFT_ESTIMATE, &f);
     if (st != PP_OK)
         return st;
-    size_t nc = hg * pp_fft_half_width(f), h = x->height, w = x->width;
+    size_t nc = hg * pp_fft_half_width(f);
+    pp_shape gs = pp_shape_2d(hg, wg), fs = pp_shape_2d(x->height, x->width);
     double *grid = pp_fft_alloc_real(hg * wg);
     pp_complex *otf = pp_fft_alloc_complex(nc), *spec = pp_fft_alloc_complex(nc);
     if (!grid || !otf || !spec)
@@ -99,15 +98,13 @@ static pp_status blur_on_grid(const pp_image *x, const pp_image *psf, size_t hg,
         st = pp_psf_transfer(psf, f, otf);
     if (st == PP_OK) {
         memset(grid, 0, hg * wg * sizeof *grid);
-        for (size_t i = 0; i < h; i++)
-            memcpy(grid + i * wg, x->data + i * w, w * sizeof *grid);
+        pp_grid_put_box(grid, &gs, x->data, &fs);
         pp_fft_forward(f, grid, spec);
         double scale = 1.0 / ((double)hg * (double)wg); /* FFTW is unnormalised */
         for (size_t k = 0; k < nc; k++)
             spec[k] *= otf[k] * scale;
         pp_fft_inverse(f, spec, grid);
-        for (size_t i = 0; i < h; i++)
-            memcpy(out->data + i * w, grid + i * wg, w * sizeof *grid);
+        pp_grid_get_box(grid, &gs, out->data, &fs);
     }
     pp_fft_free_buffer(grid);
     pp_fft_free_buffer(otf);
@@ -141,8 +138,10 @@ pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b, p
                        "needs it to fit (use --boundary pad)",
                        psf->width, psf->height, wg, hg);
     if (b == PP_BOUNDARY_PAD) {
-        pp_fft_good_grid(hg + r > 2 * r + 1 ? hg + r : 2 * r + 1,
-                         wg + r > 2 * r + 1 ? wg + r : 2 * r + 1, &hg, &wg);
+        pp_shape fs = pp_shape_2d(hg, wg), gs;
+        pp_grid_padded(&fs, r, PP_GRID_PAD_BLUR, &gs);
+        hg = gs.n[0];
+        wg = gs.n[1];
     }
     if ((st = pp_image_create(x->width, x->height, out)) != PP_OK)
         return st;

@@ -16,6 +16,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "internal.h"
+#include "grid.h"
 #include "psfwidth.h"
 #include "sampler_internal.h"
 #include "pixpost/psf.h"
@@ -74,12 +75,9 @@ static void build(const pp_sampler *s, pp_width *w, double value, int i)
         w->spec.na = value;
     /* The range was checked when parsing, so the fill cannot fail. */
     (void)pp_psf_fill(&w->spec, w->kernel);
-    memset(w->grid, 0, s->gn * sizeof(double));
-    size_t n = w->kernel->width, r = n / 2;
-    for (size_t a = 0; a < n; a++)
-        for (size_t b = 0; b < n; b++) /* centre (r, r) goes to (0, 0), with wrap */
-            w->grid[((a + s->gh - r) % s->gh) * s->gw + (b + s->gw - r) % s->gw] =
-                w->kernel->data[a * n + b];
+    pp_shape gs = pp_shape_2d(s->gh, s->gw),
+             ks = pp_shape_2d(w->kernel->height, w->kernel->width);
+    pp_grid_place_kernel(w->grid, &gs, w->kernel->data, &ks); /* centre to (0, 0) */
     pp_fft_forward(s->fft, w->grid, w->otf[i]);
     for (size_t k = 0; k < s->gm; k++) {
         pp_complex o = w->otf[i][k];

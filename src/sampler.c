@@ -31,6 +31,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include "internal.h"
+#include "grid.h"
 #include "observed.h"
 #include "psfwidth.h"
 #include "sampler_diag.h"
@@ -261,11 +262,11 @@ static void rough_scales(pp_sampler *s, const pp_image *frame)
 static pp_status plan_grid(pp_sampler *s, const pp_image *psf)
 {
     size_t r = psf->width / 2;
-    s->gh = s->height;
-    s->gw = s->width;
-    if (s->cfg.boundary == PP_BOUNDARY_PAD && r > 0) {
-        pp_fft_good_grid(s->height + 2 * r, s->width + 2 * r, &s->gh, &s->gw);
-    }
+    pp_shape fs = pp_shape_2d(s->height, s->width), gs = fs;
+    if (s->cfg.boundary == PP_BOUNDARY_PAD)
+        pp_grid_padded(&fs, r, PP_GRID_PAD_SCENE, &gs);
+    s->gh = gs.n[0];
+    s->gw = gs.n[1];
     s->gwh = s->gw / 2 + 1;
     s->gn = s->gh * s->gw;
     s->gm = s->gh * s->gwh;

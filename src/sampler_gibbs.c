@@ -59,6 +59,7 @@
  */
 #include <math.h>
 #include "internal.h"
+#include "grid.h"
 #include "padscale.h"
 #include "psfwidth.h"
 #include "sampler_gibbs.h"
@@ -256,11 +257,13 @@ PP_VECTOR_CLONES static void fused_block(const pp_sampler *s, const pp_chain *c,
 
 /* The edge columns' noise (0 and, W even, W/2: row k1 pairs with row H-k1
  * as complex conjugates; rows 0 and H/2 are real with variance N), into
- * cbuf, exactly as pp_half_noise draws them (src/spectral.c). */
+ * cbuf, exactly as pp_half_noise draws them (src/spectral.c; the pairing
+ * is pp_grid_hermitian_column, src/grid.h). */
 static void edge_noise(const pp_sampler *s, pp_chain *c, size_t ncol)
 {
     const size_t h = s->gh, wh = s->gwh;
     const double sc = sqrt((double)s->gn / 2.0);
+    const pp_shape gs = pp_shape_2d(s->gh, s->gw);
     double g[2 * NOISE_BLOCK];
     for (size_t e = 0; e < ncol; e++) {
         size_t col = e == 0 ? 0 : wh - 1;
@@ -270,11 +273,7 @@ static void edge_noise(const pp_sampler *s, pp_chain *c, size_t ncol)
             for (size_t k = 0; k < m; k++)
                 c->cbuf[(k0 + k) * wh + col] = sc * (g[2 * k] + I * g[2 * k + 1]);
         }
-        for (size_t k1 = 1; k1 < h - k1; k1++)
-            c->cbuf[(h - k1) * wh + col] = conj(c->cbuf[k1 * wh + col]);
-        c->cbuf[col] = creal(c->cbuf[col]) * sqrt(2.0);
-        if (h % 2 == 0)
-            c->cbuf[(h / 2) * wh + col] = creal(c->cbuf[(h / 2) * wh + col]) * sqrt(2.0);
+        pp_grid_hermitian_column(c->cbuf, &gs, col);
     }
 }
 

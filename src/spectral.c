@@ -2,6 +2,7 @@
  * spectrum (DESIGN.md section 2). Cost: H*(W+2) normals and one pass. */
 #include <math.h>
 #include "spectral.h"
+#include "grid.h"
 
 void pp_half_noise(pp_rng *rng, size_t height, size_t width, pp_complex *out)
 {
@@ -14,14 +15,9 @@ void pp_half_noise(pp_rng *rng, size_t height, size_t width, pp_complex *out)
         d[i] *= s;
     /* Columns 0 and (W even) W/2 hold k with -k in the same column: row k1
      * pairs with row H-k1 as complex conjugates; k1 = 0 and (H even) H/2
-     * are their own mirror and real, with variance N. */
+     * are their own mirror and real, with variance N (src/grid.h). */
+    pp_shape sh = pp_shape_2d(height, width);
     size_t ncol = (width % 2 == 0 && wh > 1) ? 2 : 1;
-    for (size_t c = 0; c < ncol; c++) {
-        size_t col = c == 0 ? 0 : width / 2;
-        for (size_t k1 = 1; k1 < height - k1; k1++)
-            out[(height - k1) * wh + col] = conj(out[k1 * wh + col]);
-        out[col] = creal(out[col]) * sqrt(2.0);
-        if (height % 2 == 0)
-            out[(height / 2) * wh + col] = creal(out[(height / 2) * wh + col]) * sqrt(2.0);
-    }
+    for (size_t c = 0; c < ncol; c++)
+        pp_grid_hermitian_column(out, &sh, c == 0 ? 0 : width / 2);
 }

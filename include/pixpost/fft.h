@@ -72,7 +72,7 @@ size_t pp_fft_good_size(size_t n);
  * machine. A larger grid is chosen when it is faster; sizes whose ESTIMATE
  * plans are slow are never chosen. Beyond the table (above 2200) it is
  * pp_fft_good_size() per side. The one padding rule of the library
- * (sampler, pp_model_blur). */
+ * (sampler, pp_model_blur, through src/grid.c pp_grid_padded). */
 void pp_fft_good_grid(size_t h, size_t w, size_t *gh, size_t *gw);
 
 #endif

@@ -1,0 +1,85 @@
+/* pixpost — the grid unit (src/grid.h): the padded-size rule and the
+ * frame-box copies, rank 2 and 3. */
+#include "grid.h"
+#include "pixpost/fft.h"
+#include <math.h>
+#include <string.h>
+
+static size_t least_side(size_t n, size_t r, pp_grid_pad kind)
+{
+    if (kind == PP_GRID_PAD_BLUR)
+        return n + r > 2 * r + 1 ? n + r : 2 * r + 1;
+    return r > 0 ? n + 2 * r : n;
+}
+
+void pp_grid_padded(const pp_shape *frame, size_t r, pp_grid_pad kind, pp_shape *out)
+{
+    *out = *frame;
+    if (kind == PP_GRID_PAD_SCENE && r == 0)
+        return; /* no margin: the frame's own grid, not rounded */
+    int a = frame->rank - 2; /* first of the two axes chosen together */
+    pp_fft_good_grid(least_side(frame->n[a], r, kind), least_side(frame->n[a + 1], r, kind),
+                     &out->n[a], &out->n[a + 1]);
+    if (frame->rank == 3)
+        out->n[0] = pp_fft_good_size(least_side(frame->n[0], r, kind));
+}
+
+/* Rows (runs along the last axis) of the frame box: frame row q of a
+ * rank-r shape is grid row (z, y) with the grid's row stride. */
+void pp_grid_put_box(double *grid, const pp_shape *gs, const double *frame,
+                     const pp_shape *fs)
+{
+    int k = fs->rank;
+    size_t nz = k == 3 ? fs->n[0] : 1, ny = fs->n[k - 2], nx = fs->n[k - 1];
+    size_t gy = gs->n[k - 2], gx = gs->n[k - 1];
+    for (size_t z = 0; z < nz; z++)
+        for (size_t y = 0; y < ny; y++)
+            memcpy(grid + (z * gy + y) * gx, frame + (z * ny + y) * nx, nx * sizeof *grid);
+}
+
+void pp_grid_get_box(const double *grid, const pp_shape *gs, double *frame,
+                     const pp_shape *fs)
+{
+    int k = fs->rank;
+    size_t nz = k == 3 ? fs->n[0] : 1, ny = fs->n[k - 2], nx = fs->n[k - 1];
+    size_t gy = gs->n[k - 2], gx = gs->n[k - 1];
+    for (size_t z = 0; z < nz; z++)
+        for (size_t y = 0; y < ny; y++)
+            memcpy(frame + (z * ny + y) * nx, grid + (z * gy + y) * gx, nx * sizeof *frame);
+}
+
+void pp_grid_place_kernel(double *grid, const pp_shape *gs, const double *kernel,
+                          const pp_shape *ks)
+{
+    size_t total = gs->n[0] * gs->n[1] * gs->n[2];
+    memset(grid, 0, total * sizeof *grid);
+    int k = ks->rank;
+    size_t kz = k == 3 ? ks->n[0] : 1, ky = ks->n[k - 2], kx = ks->n[k - 1];
+    size_t gz = k == 3 ? gs->n[0] : 1, gy = gs->n[k - 2], gx = gs->n[k - 1];
+    size_t rz = kz / 2, ry = ky / 2, rx = kx / 2;
+    for (size_t a = 0; a < kz; a++)
+        for (size_t b = 0; b < ky; b++)
+            for (size_t c = 0; c < kx; c++) /* centre goes to the origin, with wrap */
+                grid[(((a + gz - rz) % gz) * gy + (b + gy - ry) % gy) * gx + (c + gx - rx) % gx] =
+                    kernel[(a * ky + b) * kx + c];
+}
+
+int pp_grid_half_weight(const pp_shape *s, size_t k)
+{
+    size_t n = s->n[s->rank - 1];
+    return k == 0 || (n % 2 == 0 && k == n / 2) ? 1 : 2;
+}
+
+void pp_grid_hermitian_column(pp_complex *half, const pp_shape *s, size_t col)
+{
+    int k = s->rank;
+    size_t n0 = k == 3 ? s->n[0] : 1, n1 = s->n[k - 2], wh = s->n[k - 1] / 2 + 1;
+    for (size_t a = 0; a < n0; a++)
+        for (size_t b = 0; b < n1; b++) {
+            size_t i = a * n1 + b, m = ((n0 - a) % n0) * n1 + (n1 - b) % n1;
+            if (m == i)
+                half[i * wh + col] = creal(half[i * wh + col]) * sqrt(2.0);
+            else if (m < i)
+                half[i * wh + col] = conj(half[m * wh + col]);
+        }
+}
