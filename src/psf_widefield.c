@@ -38,12 +38,15 @@
  * z > 0 side.
  *
  * Numerics:
- *  - rho integral: Gauss-Legendre on [0, 1], nodes = 32 + ceil(v_max +
+ *  - rho integral: Gauss-Legendre on [0, 1] (split at the evanescent
+ *    edge when there is one, see pupil_rule), nodes = 32 + ceil(v_max +
  *    Phi_max) where v_max = k NA r_max is the largest Bessel argument and
- *    Phi_max the largest phase excursion over the pupil (a J0 or exp factor
- *    of total phase T needs ~T/2 nodes per the degree-2N-1 exactness of
- *    Gauss-Legendre; this doubles that). tests/test_psf3.c measures the
- *    default against twice the nodes.
+ *    Phi_max the largest phase excursion over the pupil in the outermost
+ *    slices (phase_range; a J0 or exp factor of total phase T needs ~T/2
+ *    nodes per the degree-2N-1 exactness of Gauss-Legendre; this doubles
+ *    that). tests/test_psf3.c measures the default against 600 nodes:
+ *    within 1e-9 of the peak (measured ~1e-14 matched, 4e-5 before the
+ *    phase range counted the mismatch term fully, at depth 50 um).
  *  - J0 by Miller's backward recurrence normalised with
  *    J0 + 2 sum J_2k = 1 (Abramowitz & Stegun 9.1.46 and 9.12; from
  *    memory); checked through the in-focus plane, which must equal the 2-D
@@ -247,8 +250,6 @@ static void gauss_legendre(int n, double *x, double *w)
                 p0 = p1;
                 p1 = p2;
             }
-            if (n == 1)
-                p0 = 1, p1 = t;
             dp = n * (t * p1 - p0) / (t * t - 1);
             double dt = p1 / dp;
             t -= dt;
@@ -259,6 +260,36 @@ static void gauss_legendre(int n, double *x, double *w)
         x[i] = 0.5 * (1 - t);
         x[n - 1 - i] = 0.5 * (1 + t);
         w[i] = w[n - 1 - i] = 0.5 * wt;
+    }
+}
+
+/* The rule on [0, 1] for the pupil integral. Plain Gauss-Legendre, except
+ * when rays beyond rho_c = sample_n / NA (< 1) turn evanescent: there the
+ * integrand has a square-root kink (sqrt(n_s^2 - (NA rho)^2) changes
+ * branch) and plain Gauss-Legendre converged only like 1/nodes^2
+ * (measured: 2 % of the peak at 110 nodes, 0.06 % at 1600, NA 1.4 oil
+ * into water 5 um deep). So [0, rho_c] and [rho_c, 1] get half the nodes
+ * each, through rho = rho_c u (2 - u) and rho = rho_c + (1 - rho_c) u^2,
+ * which make that square root smooth in u; the Jacobians go into w. */
+static void pupil_rule(const pp_psf_spec *s, int n, double *x, double *w)
+{
+    double rc = s->sample_n > 0 && s->depth > 0 ? s->sample_n / s->na : 2.0;
+    if (!(rc < 1.0)) {
+        gauss_legendre(n, x, w);
+        return;
+    }
+    int h = n / 2;
+    gauss_legendre(h, x, w);
+    gauss_legendre(n - h, x + h, w + h);
+    for (int j = 0; j < h; j++) {
+        double u = x[j];
+        x[j] = rc * u * (2 - u);
+        w[j] *= 2 * rc * (1 - u);
+    }
+    for (int j = h; j < n; j++) {
+        double u = x[j];
+        x[j] = rc + (1 - rc) * u * u;
+        w[j] *= 2 * (1 - rc) * u;
     }
 }
 
@@ -278,6 +309,24 @@ static double complex pupil_factor(const pp_psf_spec *s, double rho, double z)
             f *= exp(-k * s->depth * sqrt(-q)) * cexp(-I * k * s->depth * nci);
     }
     return f;
+}
+
+/* The excursion (max - min) of the pupil phase over rho in [0, 1] at z,
+ * from 1024 samples (the evanescent branch's decay does not oscillate and
+ * only its phase counts). */
+static double phase_range(const pp_psf_spec *s, double z)
+{
+    double lo = INFINITY, hi = -INFINITY, k = 2.0 * PP_PI / s->wavelength;
+    for (int i = 0; i <= 1024; i++) {
+        double sn = s->na * i / 1024.0, nci = sqrt(s->n * s->n - sn * sn), ph = -k * z * nci;
+        if (s->sample_n > 0 && s->depth > 0) {
+            double q = s->sample_n * s->sample_n - sn * sn;
+            ph += k * s->depth * ((q > 0 ? sqrt(q) : 0) - nci);
+        }
+        lo = fmin(lo, ph);
+        hi = fmax(hi, ph);
+    }
+    return hi - lo;
 }
 
 /* Linear interpolation of tab (spacing V_STEP in v) at v. */
@@ -322,9 +371,7 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
     double k = 2.0 * PP_PI / s->wavelength, kv = k * s->na * s->pixel; /* v per pixel */
     double vmax = kv * sqrt(2.0) * ((double)r + 1.0);
     size_t len = (size_t)(vmax / V_STEP) + 2;
-    double zmax = (double)rz * s->step, phimax = k * zmax * (s->n - sqrt(s->n * s->n - s->na * s->na));
-    if (s->sample_n > 0)
-        phimax += k * s->depth * fabs(s->n - s->sample_n) * 2.0;
+    double phimax = fmax(phase_range(s, -(double)rz * s->step), phase_range(s, (double)rz * s->step));
     if (nodes <= 0)
         nodes = 32 + (int)ceil(vmax + phimax);
     double *x = malloc((size_t)nodes * sizeof *x), *w = malloc((size_t)nodes * sizeof *w);
@@ -335,7 +382,7 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
         return pp_fail(PP_ERR_NOMEM, WHAT " widefield: out of memory for a %zu x %d table",
                        len, nodes);
     }
-    gauss_legendre(nodes, x, w);
+    pupil_rule(s, nodes, x, w);
     for (size_t i = 0; i < len; i++)
         for (int j = 0; j < nodes; j++)
             bes[i * (size_t)nodes + (size_t)j] = bessel_j0((double)i * V_STEP * x[j]) * x[j] * w[j];
