@@ -14,7 +14,8 @@ static const cli_opt psf_table[] = {
     {"output", 'o', 1, "OUT", "Output kernel, a 32-bit float TIFF (.tif or .tiff). Required."},
     {"size", 0, 1, "N",
      "Kernel side in pixels, odd (2R+1). Default: 0 = from the model (gaussian: radius "
-     "ceil(4 sigma); airy: the 5th dark ring; file: its own support)."},
+     "ceil(4 sigma); airy: the 5th dark ring; widefield: that ring plus the defocused disc "
+     "of the outermost slice; file: its own support)."},
     {"depth", 0, 1, "N",
      "Slices of a 3-D kernel, odd (2R+1). Default: 0 = from the model (gaussian: radius "
      "ceil(4 sigma_z); widefield: twice the paraxial first axial zero 2 n L / NA^2; file: "
@@ -29,7 +30,7 @@ static const cli_opt psf_table[] = {
 void cli_psf_help(FILE *fp)
 {
     const cli_opt *tables[] = {psf_table, NULL};
-    fputs("Usage: pixpost psf SPEC [--size N] -o OUT\n\n"
+    fputs("Usage: pixpost psf SPEC [--size N] [--depth N] -o OUT\n\n"
           "Writes the point-spread function SPEC as an odd-sized square kernel, centred on\n"
           "its middle pixel and normalised to sum 1. SPEC is gaussian:sigma=S (pixels,\n"
           "0.3 to 20), airy:na=NA,wavelength=L,pixel=P (micrometres: L 0.2 to 2, P the\n"
