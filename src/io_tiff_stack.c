@@ -4,9 +4,9 @@
  * frame reader applies to each page. Writing is its own small libtiff loop
  * (one directory per slice, float scanlines). Cost: one pass over the data.
  */
-#include "pixpost/tiffstack.h"
 #include "internal.h"
 #include "pixpost/io.h"
+#include "pixpost/tiffstack.h"
 #include <errno.h>
 #include <stdarg.h>
 #include <stdint.h>
@@ -100,8 +100,9 @@ pp_status pp_tiff_stack_write_f32(const char *path, const pp_shape *shape, const
 {
     if (shape->rank != 3 || shape->n[0] > 65535 || shape->n[1] > UINT32_MAX ||
         shape->n[2] > UINT32_MAX)
-        return pp_fail(PP_ERR_ARG, "%s: a TIFF stack needs a rank-3 shape of at most 65535 "
-                                   "slices",
+        return pp_fail(PP_ERR_ARG,
+                       "%s: a TIFF stack needs a rank-3 shape of at most 65535 "
+                       "slices",
                        path);
     char tmp[PP_PATH_MAX];
     pp_status st = pp_atomic_reserve(path, tmp);

@@ -32,7 +32,7 @@
 #define WHAT "--psf"
 #define ACCEPTED_MODELS                                                                            \
     "gaussian:sigma=S (or sigma=auto[,lo=A,hi=B]), airy:na=NA,wavelength=L,pixel=P (or "           \
-    "na=auto[,lo=A,hi=B]), widefield:na=NA,wavelength=L,pixel=P,step=DZ,n=N[,sample_n=NS,"        \
+    "na=auto[,lo=A,hi=B]), widefield:na=NA,wavelength=L,pixel=P,step=DZ,n=N[,sample_n=NS,"         \
     "depth=D], file:PATH"
 /* The 5th zero of J1 (Abramowitz & Stegun table 9.5) bounds the Airy
  * kernel chosen by default. The energy inside the n-th dark ring is
@@ -359,11 +359,11 @@ void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len)
             snprintf(buf, len, "gaussian:sigma=auto,lo=%s,hi=%s", b, c);
         } else {
             snprintf(buf, len, "gaussian:sigma=%s", a);
-        if (s->sigma_z > 0) {
-            size_t used = strlen(buf);
-            fmt_number(b, sizeof b, s->sigma_z);
-            snprintf(buf + used, len - used, ",sigma_z=%s", b);
-        }
+            if (s->sigma_z > 0) {
+                size_t used = strlen(buf);
+                fmt_number(b, sizeof b, s->sigma_z);
+                snprintf(buf + used, len - used, ",sigma_z=%s", b);
+            }
         }
         break;
     case PP_PSF_AIRY:

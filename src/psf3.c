@@ -75,8 +75,9 @@ static pp_status make_flat(const pp_psf_spec *s, size_t size, size_t depth, pp_s
                            double **data)
 {
     if (depth > 1)
-        return pp_fail(PP_ERR_ARG, "--psf: a 2-D PSF has one slice; depth %zu needs a 3-D "
-                                   "spec (gaussian:...,sigma_z=Z or widefield:...)",
+        return pp_fail(PP_ERR_ARG,
+                       "--psf: a 2-D PSF has one slice; depth %zu needs a 3-D "
+                       "spec (gaussian:...,sigma_z=Z or widefield:...)",
                        depth);
     pp_image *k = NULL;
     pp_status st = pp_psf_make(s, size, &k);

@@ -36,8 +36,8 @@ static double median(double *v, size_t m)
 
 static int on_face(const pp_shape *s, size_t z, size_t y, size_t x)
 {
-    return (s->n[0] > 1 && (z == 0 || z + 1 == s->n[0])) || y == 0 || y + 1 == s->n[1] ||
-           x == 0 || x + 1 == s->n[2];
+    return (s->n[0] > 1 && (z == 0 || z + 1 == s->n[0])) || y == 0 || y + 1 == s->n[1] || x == 0 ||
+           x + 1 == s->n[2];
 }
 
 /* Median and MAD of the face voxels. */
@@ -123,7 +123,8 @@ pp_status pp_psf_bead3_make(const char *path, size_t size, size_t depth, pp_shap
     if (st == PP_OK) {
         *shape = pp_shape_3d(2 * rz + 1, 2 * r + 1, 2 * r + 1);
         size_t count = 0;
-        if ((st = pp_shape_count(shape, sizeof *k, &count)) == PP_OK && !(k = calloc(count, sizeof *k)))
+        if ((st = pp_shape_count(shape, sizeof *k, &count)) == PP_OK &&
+            !(k = calloc(count, sizeof *k)))
             st = pp_fail(PP_ERR_NOMEM, "%s: out of memory for the PSF", path);
     }
     if (st == PP_OK) {

@@ -51,8 +51,7 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
                                 double *data);
 
 /* The default kernel extents of a widefield spec (odd; psf_widefield.c). */
-pp_status pp_psf_widefield_extent(const pp_psf_spec *s, size_t size, size_t depth,
-                                  pp_shape *shape);
+pp_status pp_psf_widefield_extent(const pp_psf_spec *s, size_t size, size_t depth, pp_shape *shape);
 
 /* The 3-D bead stack at path, cleaned and centred (psf_bead3.c). */
 pp_status pp_psf_bead3_make(const char *path, size_t size, size_t depth, pp_shape *shape,

@@ -110,8 +110,8 @@ static pp_status check_index(double v, const char *key)
  * the densest immersion media, from memory); depth [0, 1000] um. */
 pp_status pp_psf_widefield_parse(pp_spec *sp, pp_psf_spec *out)
 {
-    static const char *const keys[] = {"na",    "wavelength", "pixel", "step",
-                                       "n",     "sample_n",   "depth", NULL};
+    static const char *const keys[] = {"na", "wavelength", "pixel", "step",
+                                       "n",  "sample_n",   "depth", NULL};
     pp_status st = pp_spec_check_known(sp, WHAT, keys);
     if (st == PP_OK)
         st = need(sp, "na", &out->na);
@@ -133,8 +133,8 @@ pp_status pp_psf_widefield_parse(pp_spec *sp, pp_psf_spec *out)
         return st;
     if (has_ns != has_d)
         return pp_fail(PP_ERR_ARG, WHAT " widefield: sample_n= and depth= go together (the "
-                                   "sample's refractive index and the depth in micrometres "
-                                   "below the coverslip); give both or neither");
+                                        "sample's refractive index and the depth in micrometres "
+                                        "below the coverslip); give both or neither");
     if ((st = pp_psf_check_optics(out)) != PP_OK || (st = check_index(out->n, "n")) != PP_OK)
         return st;
     if (has_ns && (st = check_index(out->sample_n, "sample_n")) != PP_OK)
@@ -172,8 +172,8 @@ void pp_psf_widefield_format(const pp_psf_spec *s, char *buf, size_t len)
     fmt(c, sizeof c, s->pixel);
     fmt(d, sizeof d, s->step);
     fmt(e, sizeof e, s->n);
-    int n = snprintf(buf, len, "widefield:na=%s,wavelength=%s,pixel=%s,step=%s,n=%s", a, b, c, d,
-                     e);
+    int n =
+        snprintf(buf, len, "widefield:na=%s,wavelength=%s,pixel=%s,step=%s,n=%s", a, b, c, d, e);
     if (s->sample_n > 0 && n >= 0 && (size_t)n < len) {
         fmt(f, sizeof f, s->sample_n);
         fmt(g, sizeof g, s->depth);
@@ -188,8 +188,7 @@ void pp_psf_widefield_format(const pp_psf_spec *s, char *buf, size_t len)
  * 5th dark ring plus the geometric defocus blur z_max tan(alpha),
  * sin(alpha) = NA / n. Our own choice: it keeps the first two axial lobes
  * and the defocused disc of the outermost slice. */
-pp_status pp_psf_widefield_extent(const pp_psf_spec *s, size_t size, size_t depth,
-                                  pp_shape *shape)
+pp_status pp_psf_widefield_extent(const pp_psf_spec *s, size_t size, size_t depth, pp_shape *shape)
 {
     double zmax = 2.0 * 2.0 * s->n * s->wavelength / (s->na * s->na);
     if (s->sample_n > 0)
@@ -371,7 +370,8 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
     double k = 2.0 * PP_PI / s->wavelength, kv = k * s->na * s->pixel; /* v per pixel */
     double vmax = kv * sqrt(2.0) * ((double)r + 1.0);
     size_t len = (size_t)(vmax / V_STEP) + 2;
-    double phimax = fmax(phase_range(s, -(double)rz * s->step), phase_range(s, (double)rz * s->step));
+    double phimax =
+        fmax(phase_range(s, -(double)rz * s->step), phase_range(s, (double)rz * s->step));
     if (nodes <= 0)
         nodes = 32 + (int)ceil(vmax + phimax);
     double *x = malloc((size_t)nodes * sizeof *x), *w = malloc((size_t)nodes * sizeof *w);
@@ -379,8 +379,8 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
     double complex *e = malloc((size_t)nodes * sizeof *e);
     if (!x || !w || !bes || !tab || !e) {
         free(x), free(w), free(bes), free(tab), free(e);
-        return pp_fail(PP_ERR_NOMEM, WHAT " widefield: out of memory for a %zu x %d table",
-                       len, nodes);
+        return pp_fail(PP_ERR_NOMEM, WHAT " widefield: out of memory for a %zu x %d table", len,
+                       nodes);
     }
     pupil_rule(s, nodes, x, w);
     for (size_t i = 0; i < len; i++)

@@ -35,9 +35,9 @@ static void check_parse(void)
     CHECK(strcmp(buf, "gaussian:sigma=1.5,sigma_z=2.5") == 0, "formatted: %s", buf);
     CHECK(pp_psf_parse("gaussian:sigma=1.5", &s) == PP_OK && !pp_psf_is_3d(&s),
           "plain gaussian stays 2-D");
-    CHECK(pp_psf_parse(WF ",sample_n=1.33,depth=10", &s) == PP_OK &&
-              s.kind == PP_PSF_WIDEFIELD && s.step == 0.2 && s.n == 1.515 &&
-              s.sample_n == 1.33 && s.depth == 10 && pp_psf_is_3d(&s),
+    CHECK(pp_psf_parse(WF ",sample_n=1.33,depth=10", &s) == PP_OK && s.kind == PP_PSF_WIDEFIELD &&
+              s.step == 0.2 && s.n == 1.515 && s.sample_n == 1.33 && s.depth == 10 &&
+              pp_psf_is_3d(&s),
           "widefield with sample_n, depth parsed");
     pp_psf_format(&s, buf, sizeof buf);
     CHECK(pp_psf_parse(buf, &t) == PP_OK && t.na == s.na && t.step == s.step &&
@@ -47,7 +47,8 @@ static void check_parse(void)
     refused(WF ",sample_n=1.33", "depth=");
     refused("widefield:na=1.4,wavelength=0.52,pixel=0.065,step=0.2,n=1.33", "below the immersion");
     refused("widefield:na=1.4,wavelength=0.52,pixel=0.065,step=200,n=1.515", "step=200");
-    refused("widefield:na=1.4,wavelength=520,pixel=0.065,step=0.2,n=1.515", "widefield: wavelength");
+    refused("widefield:na=1.4,wavelength=520,pixel=0.065,step=0.2,n=1.515",
+            "widefield: wavelength");
     refused(WF ",sample_n=13.3,depth=1", "sample_n=13.3");
     refused("gaussian:sigma=1,sigma_z=0.01", "sigma_z=0.01");
     refused("gaussian:sigma=auto,sigma_z=2", "sigma_z");
