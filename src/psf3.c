@@ -13,12 +13,22 @@
 #include <stdlib.h>
 #include <string.h>
 
+/* The largest 3-D kernel made: 2^27 voxels (1 GiB of doubles), far beyond
+ * a useful PSF (a 257 x 257 x 2033 stack); a default size above it comes
+ * from a fine pixel at a low NA, and --size/--depth bound it. */
+#define MAX_VOXELS ((size_t)1 << 27)
+
 static pp_status alloc_volume(const pp_shape *s, double **data)
 {
     size_t count;
     pp_status st = pp_shape_count(s, sizeof **data, &count);
     if (st != PP_OK)
         return st;
+    if (count > MAX_VOXELS)
+        return pp_fail(PP_ERR_LIMIT,
+                       "--psf: the 3-D PSF would be %zu slices of %zux%zu, above the limit of "
+                       "%zu voxels; give a smaller --size and --depth",
+                       s->n[0], s->n[2], s->n[1], MAX_VOXELS);
     if (!(*data = calloc(count, sizeof **data)))
         return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zux%zu PSF", s->n[0], s->n[1],
                        s->n[2]);

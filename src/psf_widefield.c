@@ -60,7 +60,10 @@
  *    kernel keeps the total light of the volume, as the 2-D kernels keep
  *    a frame's; each plane of the untruncated PSF holds the same light
  *    (the pupil's energy, Parseval), so the per-plane sums of a kernel
- *    wide enough are nearly equal, each about 1/nz.
+ *    wide enough are nearly equal, each about 1/nz (the default kernel of
+ *    na=1.4,wavelength=0.52,pixel=0.065,step=0.2,n=1.515, 19 slices of
+ *    165 x 165: 0.05241 to 0.05273, 1/19 = 0.05263; the outer slices lose
+ *    a little more of their wider disc to the kernel's edge).
  * Cost: nodes x (table length) Bessel values once, then per plane the same
  * number of complex multiply-adds and s^2 lookups per pixel of one octant.
  */
@@ -202,8 +205,6 @@ pp_status pp_psf_widefield_extent(const pp_psf_spec *s, size_t size, size_t dept
     if ((st = pp_psf_pick_radius(size, (ring + z * sa / sqrt(1 - sa * sa)) / s->pixel, &r)) !=
         PP_OK)
         return st;
-    if (depth == 0 && rz == 1 && zmax / s->step < 0.5)
-        rz = 0;
     *shape = pp_shape_3d(2 * rz + 1, 2 * r + 1, 2 * r + 1);
     return PP_OK;
 }

@@ -19,8 +19,9 @@ where sampling needs a 2-D one.
    measure between the true kernel and itself shifted by one voxel in x is
    printed and must exceed the tolerance (the check can fail).
 3. sample and simulate refuse a 3-D PSF (exit 1, one line naming --psf and
-   saying 3-D sampling is not built yet); a widefield spec without step=
-   is refused naming step=.
+   saying 3-D sampling is not built yet), and sample refuses a bead stack
+   instead of taking its first page; a widefield spec without step= is
+   refused naming step=; a kernel above 2^27 voxels is refused.
 """
 import os
 
@@ -96,6 +97,13 @@ for cmd in (["sample", P("frame.tif"), "-o", P("o")],
         pptest.check(p.returncode == 1 and len(lines) == 1 and "--psf" in p.stderr
                      and "3-D sampling is not built yet" in p.stderr,
                      "%s refuses %s (exit %d): %s" % (cmd[0], spec.split(":")[0], p.returncode, p.stderr.strip()))
+p = pptest.run(["sample", P("frame.tif"), "--psf", "file:" + P("bead.tif"), "-o", P("o2")], check=False)
+pptest.check(p.returncode == 1 and "bead.tif" in p.stderr and "3-D sampling is not built yet" in p.stderr
+             and len(p.stderr.strip().splitlines()) == 1,
+             "sample refuses a bead stack instead of using its first page: %s" % p.stderr.strip())
+p = pptest.run(["psf", "gaussian:sigma=20,sigma_z=20", "--size", 4001, "-o", P("big.tif")], check=False)
+pptest.check(p.returncode == 1 and "--size" in p.stderr and not os.path.exists(P("big.tif")),
+             "an over-large 3-D kernel refused: %s" % p.stderr.strip())
 p = pptest.run(["psf", "widefield:na=1.4,wavelength=0.52,pixel=0.065,n=1.515", "-o", P("w.tif")], check=False)
 pptest.check(p.returncode == 1 and "step=" in p.stderr, "widefield without step= refused: %s" % p.stderr.strip())
 p = pptest.run(["psf", "gaussian:sigma=1,sigma_z=2", "--depth", "4", "-o", P("w.tif")], check=False)
