@@ -32,7 +32,8 @@
 #define WHAT "--psf"
 #define ACCEPTED_MODELS                                                                            \
     "gaussian:sigma=S (or sigma=auto[,lo=A,hi=B]), airy:na=NA,wavelength=L,pixel=P (or "           \
-    "na=auto[,lo=A,hi=B]), file:PATH"
+    "na=auto[,lo=A,hi=B]), widefield:na=NA,wavelength=L,pixel=P,step=DZ,n=N[,sample_n=NS,"         \
+    "depth=D], file:PATH"
 /* The 5th zero of J1 (Abramowitz & Stegun table 9.5) bounds the Airy
  * kernel chosen by default. The energy inside the n-th dark ring is
  * 1 - J0(z_n)^2 (Rayleigh's encircled-energy formula, since J1(z_n) = 0):
@@ -193,9 +194,11 @@ static pp_status check_sigma(double sigma, const char *key)
 
 static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
 {
-    static const char form[] = "gaussian:sigma=S or gaussian:sigma=auto[,lo=A,hi=B], in pixels";
-    static const char *const keys[] = {"sigma", "lo", "hi", NULL};
-    static const char *const fixed_keys[] = {"sigma", NULL};
+    static const char form[] = "gaussian:sigma=S[,sigma_z=Z] or gaussian:sigma=auto[,lo=A,hi=B], "
+                               "in pixels (sigma_z in slices)";
+    static const char *const keys[] = {"sigma", "lo", "hi", "sigma_z", NULL};
+    static const char *const fixed_keys[] = {"sigma", "sigma_z", NULL};
+    static const char *const auto_keys[] = {"sigma", "lo", "hi", NULL};
     int is_auto = 0;
     pp_status st;
     if ((st = pp_spec_check_known(sp, WHAT, keys)) != PP_OK)
@@ -204,9 +207,12 @@ static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
         return pp_fail(PP_ERR_ARG, WHAT " %s: missing sigma= (expected %s)", sp->name, form);
     if (st == PP_OK && is_auto)
         st = parse_width_range(sp, 0.5, 4.0, "pixels", out, &out->sigma);
+    if (st == PP_OK && !is_auto && pp_spec_number(sp, "sigma_z", WHAT, &out->sigma_z, NULL, &st) &&
+        st == PP_OK && (st = check_sigma(out->sigma_z, "sigma_z")) != PP_OK)
+        return st;
     if (st != PP_OK)
         return st;
-    if ((st = pp_spec_check_used(sp, WHAT, is_auto ? keys : fixed_keys)) != PP_OK)
+    if ((st = pp_spec_check_used(sp, WHAT, is_auto ? auto_keys : fixed_keys)) != PP_OK)
         return st;
     if (is_auto)
         return (st = check_sigma(out->width_lo, "lo")) != PP_OK ? st
@@ -214,46 +220,48 @@ static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
     return check_sigma(out->sigma, "sigma");
 }
 
-/* Checks the ranges above; for na=auto the narrowest PSF (NA at hi). */
-static pp_status check_airy(const pp_psf_spec *s)
+/* Checks the ranges above; for na=auto the narrowest PSF (NA at hi). Shared
+ * with widefield (psf_internal.h). */
+pp_status pp_psf_check_optics(const pp_psf_spec *s)
 {
+    const char *m = s->kind == PP_PSF_WIDEFIELD ? "widefield" : "airy";
     double na = s->width_auto ? s->width_hi : s->na;
     if (!(s->na > 0 && s->na <= NA_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " airy: na=%g must be in (0, 1.7] (a numerical aperture, no unit: "
+                       WHAT " %s: na=%g must be in (0, 1.7] (a numerical aperture, no unit: "
                             "dry objectives reach ~0.95, oil immersion ~1.4-1.5)",
-                       s->na);
+                       m, s->na);
     if (s->wavelength >= 100)
         return pp_fail(PP_ERR_ARG,
-                       WHAT " airy: wavelength=%g is in micrometres; that looks like "
+                       WHAT " %s: wavelength=%g is in micrometres; that looks like "
                             "nanometres (e.g. 520 nm is wavelength=0.52)",
-                       s->wavelength);
+                       m, s->wavelength);
     if (!(s->wavelength >= WAVELENGTH_MIN && s->wavelength <= WAVELENGTH_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " airy: wavelength=%g must be in [%g, %g] micrometres, ultraviolet "
+                       WHAT " %s: wavelength=%g must be in [%g, %g] micrometres, ultraviolet "
                             "to near-infrared light (e.g. 520 nm is wavelength=0.52)",
-                       s->wavelength, WAVELENGTH_MIN, WAVELENGTH_MAX);
+                       m, s->wavelength, WAVELENGTH_MIN, WAVELENGTH_MAX);
     if (s->pixel > PIXEL_MAX)
         return pp_fail(PP_ERR_ARG,
-                       WHAT " airy: pixel=%g is in micrometres, larger than any sample-plane "
+                       WHAT " %s: pixel=%g is in micrometres, larger than any sample-plane "
                             "pixel (at most %g); that looks like nanometres (e.g. 65 nm is "
                             "pixel=0.065)",
-                       s->pixel, PIXEL_MAX);
+                       m, s->pixel, PIXEL_MAX);
     if (!(s->pixel >= PIXEL_MIN))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " airy: pixel=%g must be in [%g, %g] micrometres, the "
+                       WHAT " %s: pixel=%g must be in [%g, %g] micrometres, the "
                             "sample-plane pixel sizes of light microscopy (e.g. 65 nm is "
                             "pixel=0.065)",
-                       s->pixel, PIXEL_MIN, PIXEL_MAX);
+                       m, s->pixel, PIXEL_MIN, PIXEL_MAX);
     double ring = 0.61 * s->wavelength / na;
     if (ring < RINGS_PER_PIXEL_MIN * s->pixel)
         return pp_fail(PP_ERR_ARG,
-                       WHAT " airy: pixel=%g micrometres is %.0f times the Airy first dark-ring "
+                       WHAT " %s: pixel=%g micrometres is %.0f times the Airy first dark-ring "
                             "radius 0.61 wavelength/na = %.3g um (at most %g): the PSF would "
                             "fall in one pixel and deblur nothing; pixel is the sample-plane "
                             "pixel, the camera's pixel / magnification (6.5 um at 100x is "
                             "pixel=0.065)",
-                       s->pixel, s->pixel / ring, ring, 1 / RINGS_PER_PIXEL_MIN);
+                       m, s->pixel, s->pixel / ring, ring, 1 / RINGS_PER_PIXEL_MIN);
     return PP_OK;
 }
 
@@ -280,7 +288,7 @@ static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
     if (st == PP_OK && is_auto && out->width_hi > NA_MAX)
         st = pp_fail(PP_ERR_ARG, WHAT " airy: hi=%g must be <= 1.7 (numerical aperture)",
                      out->width_hi);
-    return st == PP_OK ? check_airy(out) : st;
+    return st == PP_OK ? pp_psf_check_optics(out) : st;
 }
 
 /* Dispatches on the model name of an already split spec. */
@@ -301,9 +309,13 @@ static pp_status parse_kind(pp_spec *sp, const char *text, int is_file, pp_psf_s
         out->kind = PP_PSF_AIRY;
         return parse_airy(sp, out);
     }
+    if (strcmp(sp->name, "widefield") == 0) {
+        out->kind = PP_PSF_WIDEFIELD;
+        return pp_psf_widefield_parse(sp, out);
+    }
     if (strcmp(sp->name, "file") == 0)
         return pp_fail(PP_ERR_ARG, WHAT " '%s': missing the path (expected file:PATH)", text);
-    static const char *const models[] = {"gaussian", "airy", "file", NULL};
+    static const char *const models[] = {"gaussian", "airy", "widefield", "file", NULL};
     const char *near = pp_spec_closest(sp->name, models);
     return pp_fail(PP_ERR_ARG, WHAT " '%s': unknown PSF model '%s' (%s%s%saccepted: %s)", text,
                    sp->name, near ? "did you mean " : "", near ? near : "", near ? "? " : "",
@@ -347,6 +359,11 @@ void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len)
             snprintf(buf, len, "gaussian:sigma=auto,lo=%s,hi=%s", b, c);
         } else {
             snprintf(buf, len, "gaussian:sigma=%s", a);
+            if (s->sigma_z > 0) {
+                size_t used = strlen(buf);
+                fmt_number(b, sizeof b, s->sigma_z);
+                snprintf(buf + used, len - used, ",sigma_z=%s", b);
+            }
         }
         break;
     case PP_PSF_AIRY:
@@ -361,6 +378,9 @@ void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len)
         } else {
             snprintf(buf, len, "airy:na=%s,wavelength=%s,pixel=%s", a, b, c);
         }
+        break;
+    case PP_PSF_WIDEFIELD:
+        pp_psf_widefield_format(s, buf, len);
         break;
     default:
         snprintf(buf, len, "file:%s", s->path);
@@ -402,7 +422,7 @@ static pp_status make_gaussian(const pp_psf_spec *spec, size_t size, pp_image **
  * cut-off by (pi/16)^2/6 = 0.6 % and far less for the low frequencies that
  * carry the energy. For na=1.4, lambda=0.52, pixel=0.065 that gives s = 8
  * (tests/test_psf.c measures 8 vs 64 sub-pixels). */
-static int airy_supersampling(const pp_psf_spec *s)
+int pp_psf_airy_supersampling(const pp_psf_spec *s)
 {
     double need = ceil(s->pixel * 32.0 * s->na / s->wavelength);
     if (need < 8)
@@ -437,7 +457,7 @@ static double airy_pixel(double dy, double dx, double k, int s)
 static void fill_airy(const pp_psf_spec *spec, pp_image *img)
 {
     double k = 2.0 * PP_PI * spec->na * spec->pixel / spec->wavelength;
-    int s = airy_supersampling(spec);
+    int s = pp_psf_airy_supersampling(spec);
     size_t r = img->width / 2;
     for (size_t i = 0; i < img->height; i++)
         for (size_t j = 0; j < img->width; j++)
@@ -448,7 +468,7 @@ static void fill_airy(const pp_psf_spec *spec, pp_image *img)
 
 static pp_status make_airy(const pp_psf_spec *spec, size_t size, pp_image **out)
 {
-    pp_status st = check_airy(spec);
+    pp_status st = pp_psf_check_optics(spec);
     if (st != PP_OK)
         return st;
     double na = spec->width_auto ? spec->width_lo : spec->na; /* widest: smallest NA */
@@ -465,9 +485,9 @@ pp_status pp_psf_fill(const pp_psf_spec *s, pp_image *k)
 {
     if (k->width != k->height || k->width % 2 == 0)
         return pp_fail(PP_ERR_ARG, "pp_psf_fill: the kernel must be an odd square");
-    if (s->kind == PP_PSF_GAUSSIAN && s->sigma > 0)
+    if (s->kind == PP_PSF_GAUSSIAN && s->sigma > 0 && s->sigma_z == 0)
         fill_gaussian(s->sigma, k);
-    else if (s->kind == PP_PSF_AIRY && check_airy(s) == PP_OK)
+    else if (s->kind == PP_PSF_AIRY && pp_psf_check_optics(s) == PP_OK)
         fill_airy(s, k);
     else
         return pp_fail(PP_ERR_ARG, WHAT ": only gaussian and airy models can be refilled "
@@ -475,9 +495,23 @@ pp_status pp_psf_fill(const pp_psf_spec *s, pp_image *k)
     return PP_OK;
 }
 
+int pp_psf_is_3d(const pp_psf_spec *s)
+{
+    return s->kind == PP_PSF_WIDEFIELD || (s->kind == PP_PSF_GAUSSIAN && s->sigma_z > 0);
+}
+
 pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
 {
     *out = NULL;
+    if (pp_psf_is_3d(s)) {
+        char canon[256];
+        pp_psf_format(s, canon, sizeof canon);
+        return pp_fail(PP_ERR_UNSUPPORTED,
+                       WHAT " %s: a 3-D PSF, but sampling is 2-D only (3-D sampling is not "
+                            "built yet); use a 2-D PSF for a frame (gaussian:sigma=S or airy:...), "
+                            "or write this one with `pixpost psf` to inspect it",
+                       canon);
+    }
     switch (s->kind) {
     case PP_PSF_GAUSSIAN:
         if (!(s->sigma > 0))
@@ -487,6 +521,8 @@ pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
         return make_airy(s, size, out);
     case PP_PSF_FILE:
         return pp_psf_bead_make(s->path, size, out);
+    case PP_PSF_WIDEFIELD:
+        break;
     }
     return pp_fail(PP_ERR_ARG, WHAT ": unknown PSF kind %d", (int)s->kind);
 }

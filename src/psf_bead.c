@@ -322,9 +322,18 @@ pp_status pp_psf_bead_make(const char *path, size_t size, pp_image **out)
 {
     pp_image *img = NULL;
     size_t ci = 0, cj = 0, r = 0;
-    pp_status st = pp_image_read(path, NULL, &img, NULL);
+    pp_read_info info;
+    pp_status st = pp_image_read(path, NULL, &img, &info);
     if (st != PP_OK)
         return st;
+    if (info.pages > 1) { /* a bead stack: 3-D, never squashed to its first page */
+        pp_image_free(img);
+        return pp_fail(PP_ERR_UNSUPPORTED,
+                       "%s: the PSF image has %u pages, a 3-D bead stack, but sampling is 2-D "
+                       "only (3-D sampling is not built yet); give one in-focus page as its "
+                       "own file, or inspect the stack with `pixpost psf file:...`",
+                       path, info.pages);
+    }
     st = bead_clean(img, path, &ci, &cj);
     if (st == PP_OK && size == 0) {
         r = max4(ci, img->height - 1 - ci, cj, img->width - 1 - cj);

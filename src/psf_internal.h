@@ -3,7 +3,8 @@
 #ifndef PIXPOST_PSF_INTERNAL_H
 #define PIXPOST_PSF_INTERNAL_H
 
-#include "pixpost/image.h"
+#include "pixpost/psf.h"
+#include "pixpost/spec.h"
 
 /* The widest gaussian PSF accepted, sigma in pixels (the reason is in
  * psf.c); a bead image's spot may be as wide at half its peak as this
@@ -28,5 +29,32 @@ void pp_psf_normalise(pp_image *k);
  * measured otherwise), centred on its centroid, size 0 = its own support
  * (else odd), normalised. *out is owned by the caller. (psf_bead.c) */
 pp_status pp_psf_bead_make(const char *path, size_t size, pp_image **out);
+
+/* The na/wavelength/pixel range checks of airy and widefield, naming the
+ * model (psf.c). */
+pp_status pp_psf_check_optics(const pp_psf_spec *s);
+
+/* Sub-pixels per side of the Airy pixel average (psf.c, where the rule is
+ * explained); widefield uses the same rule. */
+int pp_psf_airy_supersampling(const pp_psf_spec *s);
+
+/* Parses the keys of a widefield: spec (psf_widefield.c). */
+pp_status pp_psf_widefield_parse(pp_spec *sp, pp_psf_spec *out);
+
+/* Canonical widefield spec string (psf_widefield.c). */
+void pp_psf_widefield_format(const pp_psf_spec *s, char *buf, size_t len);
+
+/* The widefield kernel (nz, ny, nx odd; ny == nx) into data, summing to 1
+ * over the volume; nodes = Gauss-Legendre nodes of the pupil integral, 0
+ * = the default rule (psf_widefield.c). */
+pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int nodes,
+                                double *data);
+
+/* The default kernel extents of a widefield spec (odd; psf_widefield.c). */
+pp_status pp_psf_widefield_extent(const pp_psf_spec *s, size_t size, size_t depth, pp_shape *shape);
+
+/* The 3-D bead stack at path, cleaned and centred (psf_bead3.c). */
+pp_status pp_psf_bead3_make(const char *path, size_t size, size_t depth, pp_shape *shape,
+                            double **data);
 
 #endif

@@ -11,6 +11,19 @@
  * Every kernel is odd-sized (2R+1 square), centred at (R, R), finite,
  * non-negative and normalised to sum 1.
  *
+ * 3-D PSFs (volumes, slowest axis first {nz, ny, nx}; not yet usable for
+ * sampling, which is 2-D today: pp_psf_make refuses them, pp_psf_make3
+ * builds them, `pixpost psf` writes them as multi-page float TIFF):
+ *   gaussian:sigma=S,sigma_z=Z          sigma_z in slices (z-steps)
+ *   widefield:na=NA,wavelength=L,pixel=P,step=DZ,n=N[,sample_n=NS,depth=D]
+ *                                       scalar diffraction (Born & Wolf
+ *                                       section 8.8), L, P, DZ, D in
+ *                                       micrometres; n the immersion
+ *                                       index; sample_n and depth give the
+ *                                       Gibson & Lanni index-mismatch term
+ *                                       (src/psf_widefield.c)
+ *   file:STACK.tif                      a multi-page bead stack
+ *
  * An uncertain width: gaussian:sigma=auto[,lo=A,hi=B] (default bounds 0.5
  * and 4 pixels) and airy:na=auto[,lo=A,hi=B],wavelength=L,pixel=P (default
  * 0.4 and 1.5) give the width a uniform prior on [lo, hi]; the sampler
@@ -23,8 +36,14 @@
 
 #include <stddef.h>
 #include "pixpost/image.h"
+#include "pixpost/shape.h"
 
-typedef enum pp_psf_kind { PP_PSF_GAUSSIAN, PP_PSF_AIRY, PP_PSF_FILE } pp_psf_kind;
+typedef enum pp_psf_kind {
+    PP_PSF_GAUSSIAN,
+    PP_PSF_AIRY,
+    PP_PSF_FILE,
+    PP_PSF_WIDEFIELD
+} pp_psf_kind;
 
 typedef struct pp_psf_spec {
     pp_psf_kind kind;
@@ -33,6 +52,12 @@ typedef struct pp_psf_spec {
     char path[4096];               /* file */
     int width_auto;                /* sigma=auto / na=auto: width is sampled */
     double width_lo, width_hi;     /* its uniform prior (pixels / NA) */
+    double sigma_z;                /* gaussian, slices; 0 = a 2-D gaussian */
+    double step;                   /* widefield: z-step between slices, um */
+    double n;                      /* widefield: immersion refractive index */
+    double sample_n, depth;        /* widefield: sample index and depth (um)
+                                      below the coverslip; sample_n 0 = the
+                                      sample matches the immersion */
 } pp_psf_spec;
 
 pp_status pp_psf_parse(const char *text, pp_psf_spec *out);
@@ -40,9 +65,26 @@ pp_status pp_psf_parse(const char *text, pp_psf_spec *out);
 /* Writes a canonical spec string (for summary.json) into buf. */
 void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len);
 
+/* 1 when s describes a 3-D PSF (gaussian with sigma_z, widefield); a
+ * file: spec is 3-D when its TIFF has more than one page, which only
+ * pp_psf_make3 reads. */
+int pp_psf_is_3d(const pp_psf_spec *s);
+
+/* Makes a 3-D kernel: *data (nz*ny*nx doubles, slice-major, owned by the
+ * caller, free()) and *shape = {nz, ny, nx}, every extent odd, centred at
+ * the middle voxel, non-negative, summing to 1 over the whole volume.
+ * size and depth are the odd extents in xy and z (0 = from the model:
+ * gaussian radius ceil(4 sigma) and ceil(4 sigma_z); widefield see
+ * src/psf_widefield.c; file its own support). A 2-D spec gives depth 1
+ * (gaussian, airy) or is read as a one-page stack (file). On failure
+ * *data is NULL. (src/psf3.c) */
+pp_status pp_psf_make3(const pp_psf_spec *s, size_t size, size_t depth, pp_shape *shape,
+                       double **data);
+
 /* Makes the kernel. size = 0 chooses the size from the model (gaussian:
  * radius ceil(4 sigma); airy: radius of the 5th dark ring), otherwise size
- * must be odd. A file PSF keeps its own support when size = 0. */
+ * must be odd. A file PSF keeps its own support when size = 0. A 3-D spec
+ * (pp_psf_is_3d) is refused with PP_ERR_UNSUPPORTED: sampling is 2-D. */
 pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out);
 
 /* Refills an existing odd square kernel k with the gaussian or airy model

@@ -28,7 +28,8 @@ static const cli_opt sample_table[] = {
      "sample-plane pixel, camera pixel / magnification) or file:PATH (an image of one bead). "
      "An uncertain width is sampled with "
      "gaussian:sigma=auto[,lo=A,hi=B] (default 0.5..4 px) or airy:na=auto[,lo=A,hi=B],"
-     "wavelength=L,pixel=P (default 0.4..1.5), gibbs or mtc only. Required."},
+     "wavelength=L,pixel=P (default 0.4..1.5), gibbs or mtc only. 3-D PSFs (sigma_z=, "
+     "widefield:) are refused: sampling is 2-D (pixpost psf --help). Required."},
     {"noise", 0, 1, "SPEC",
      "Noise model: gaussian (precision sampled), gaussian:sigma=S (fixed, camera units), "
      "poisson:gain=G,offset=O or camera:gain=G,offset=O,read=R. Required keys: gain G in ADU "
