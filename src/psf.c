@@ -164,14 +164,10 @@ static pp_status parse_width_range(pp_spec *sp, double dlo, double dhi, const ch
  *    a ring of 0.23 px, 99 % at 0.035 px (the camera's own 6.5 um pixel
  *    typed for pixel=). Such a kernel is one pixel and deblurs nothing.
  *  - airy na: (0, 1.7]; dry objectives reach ~0.95, oil immersion ~1.4-1.5,
- *    special immersion media ~1.65 (from memory). */
+ *    special immersion media ~1.65 (from memory).
+ * The optics ranges are checked in src/psf_optics.c (PP_PSF_NA_MAX etc.,
+ * psf_internal.h). */
 #define SIGMA_MIN 0.3
-#define WAVELENGTH_MIN 0.2
-#define WAVELENGTH_MAX 2.0
-#define PIXEL_MIN 0.001
-#define PIXEL_MAX 20.0
-#define RINGS_PER_PIXEL_MIN 0.25
-#define NA_MAX 1.7
 
 static pp_status check_sigma(double sigma, const char *key)
 {
@@ -220,50 +216,6 @@ static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
     return check_sigma(out->sigma, "sigma");
 }
 
-/* Checks the ranges above; for na=auto the narrowest PSF (NA at hi). Shared
- * with widefield (psf_internal.h). */
-pp_status pp_psf_check_optics(const pp_psf_spec *s)
-{
-    const char *m = s->kind == PP_PSF_WIDEFIELD ? "widefield" : "airy";
-    double na = s->width_auto ? s->width_hi : s->na;
-    if (!(s->na > 0 && s->na <= NA_MAX))
-        return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: na=%g must be in (0, 1.7] (a numerical aperture, no unit: "
-                            "dry objectives reach ~0.95, oil immersion ~1.4-1.5)",
-                       m, s->na);
-    if (s->wavelength >= 100)
-        return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: wavelength=%g is in micrometres; that looks like "
-                            "nanometres (e.g. 520 nm is wavelength=0.52)",
-                       m, s->wavelength);
-    if (!(s->wavelength >= WAVELENGTH_MIN && s->wavelength <= WAVELENGTH_MAX))
-        return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: wavelength=%g must be in [%g, %g] micrometres, ultraviolet "
-                            "to near-infrared light (e.g. 520 nm is wavelength=0.52)",
-                       m, s->wavelength, WAVELENGTH_MIN, WAVELENGTH_MAX);
-    if (s->pixel > PIXEL_MAX)
-        return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: pixel=%g is in micrometres, larger than any sample-plane "
-                            "pixel (at most %g); that looks like nanometres (e.g. 65 nm is "
-                            "pixel=0.065)",
-                       m, s->pixel, PIXEL_MAX);
-    if (!(s->pixel >= PIXEL_MIN))
-        return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: pixel=%g must be in [%g, %g] micrometres, the "
-                            "sample-plane pixel sizes of light microscopy (e.g. 65 nm is "
-                            "pixel=0.065)",
-                       m, s->pixel, PIXEL_MIN, PIXEL_MAX);
-    double ring = 0.61 * s->wavelength / na;
-    if (ring < RINGS_PER_PIXEL_MIN * s->pixel)
-        return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: pixel=%g micrometres is %.0f times the Airy first dark-ring "
-                            "radius 0.61 wavelength/na = %.3g um (at most %g): the PSF would "
-                            "fall in one pixel and deblur nothing; pixel is the sample-plane "
-                            "pixel, the camera's pixel / magnification (6.5 um at 100x is "
-                            "pixel=0.065)",
-                       m, s->pixel, s->pixel / ring, ring, 1 / RINGS_PER_PIXEL_MIN);
-    return PP_OK;
-}
 
 static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
 {
@@ -285,7 +237,7 @@ static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
         st = need_number(sp, "pixel", form, &out->pixel);
     if (st == PP_OK)
         st = pp_spec_check_used(sp, WHAT, is_auto ? keys : fixed_keys);
-    if (st == PP_OK && is_auto && out->width_hi > NA_MAX)
+    if (st == PP_OK && is_auto && out->width_hi > PP_PSF_NA_MAX)
         st = pp_fail(PP_ERR_ARG, WHAT " airy: hi=%g must be <= 1.7 (numerical aperture)",
                      out->width_hi);
     return st == PP_OK ? pp_psf_check_optics(out) : st;
@@ -413,22 +365,6 @@ static pp_status make_gaussian(const pp_psf_spec *spec, size_t size, pp_image **
     return PP_OK;
 }
 
-/* Sub-pixels per side for the Airy pixel average. An s-point midpoint rule
- * over a pixel of side p multiplies a spatial frequency f by
- * sin(pi f p) / (s sin(pi f p / s)) instead of the exact box average's
- * sinc(f p); their ratio is about 1 + (pi f p / s)^2 / 6. The Airy intensity
- * has no frequency above 2 NA / lambda (the incoherent cut-off), so keeping
- * the sub-pixel spacing p/s <= lambda / (32 NA) bounds the error at the
- * cut-off by (pi/16)^2/6 = 0.6 % and far less for the low frequencies that
- * carry the energy. For na=1.4, lambda=0.52, pixel=0.065 that gives s = 8
- * (tests/test_psf.c measures 8 vs 64 sub-pixels). */
-int pp_psf_airy_supersampling(const pp_psf_spec *s)
-{
-    double need = ceil(s->pixel * 32.0 * s->na / s->wavelength);
-    if (need < 8)
-        return 8;
-    return need > 64 ? 64 : (int)need;
-}
 
 /* (2 J1(v)/v)^2, equal to 1 at v = 0. */
 static double airy_intensity(double v)

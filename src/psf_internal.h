@@ -30,6 +30,14 @@ void pp_psf_normalise(pp_image *k);
  * (else odd), normalised. *out is owned by the caller. (psf_bead.c) */
 pp_status pp_psf_bead_make(const char *path, size_t size, pp_image **out);
 
+/* Physical ranges of the optics keys (airy, widefield); why these values:
+ * the "Physical ranges" comment in src/psf.c. */
+#define PP_PSF_WAVELENGTH_MIN 0.2
+#define PP_PSF_WAVELENGTH_MAX 2.0
+#define PP_PSF_PIXEL_MIN 0.001
+#define PP_PSF_PIXEL_MAX 20.0
+#define PP_PSF_RINGS_PER_PIXEL_MIN 0.25
+#define PP_PSF_NA_MAX 1.7
 /* The na/wavelength/pixel range checks of airy and widefield, naming the
  * model (psf.c). */
 pp_status pp_psf_check_optics(const pp_psf_spec *s);
