@@ -229,7 +229,7 @@ static pp_status bad(const char *path, const char *what)
 /* A Size attribute: a whole number 1 .. 2^31 - 1, required. */
 static pp_status get_size(const xml_tag *t, const char *path, const char *name, size_t *out)
 {
-    char v[OME_VALUE], why[96];
+    char v[OME_VALUE], why[192];
     int r = attr_value(t, name, v);
     char *end = NULL;
     unsigned long long n = r > 0 && isdigit((unsigned char)v[0]) ? strtoull(v, &end, 10) : 0;
