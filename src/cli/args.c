@@ -107,8 +107,15 @@ static int is_help(const char *s)
 static int store(cli_args *a, int i, const char *value)
 {
     const cli_opt *o = a->opt[i];
-    if (a->value[i])
+    if (a->value[i] && !cli_opt_repeats(o))
         return cli_opt_error(o->name, "given twice (give each option once)");
+    if (a->value[i]) {
+        if (a->nmore == CLI_MAX_REPEAT)
+            return cli_opt_error(o->name, "given more than %d times", CLI_MAX_REPEAT + 1);
+        a->more_opt[a->nmore] = i;
+        a->more[a->nmore++] = value;
+        return 0;
+    }
     a->value[i] = value;
     return 0;
 }
@@ -236,6 +243,24 @@ int cli_given(const cli_args *a, const char *name)
 const char *cli_str(const cli_args *a, const char *name)
 {
     return a->value[index_of(a, name)];
+}
+
+int cli_opt_repeats(const cli_opt *o)
+{
+    size_t n = strlen(o->form);
+    return n >= 4 && strcmp(o->form + n - 4, " ...") == 0;
+}
+
+size_t cli_strs(const cli_args *a, const char *name, const char **out, size_t max)
+{
+    int i = index_of(a, name);
+    size_t n = 0;
+    if (a->value[i] && n < max)
+        out[n++] = a->value[i];
+    for (size_t k = 0; k < a->nmore && n < max; k++)
+        if (a->more_opt[k] == i)
+            out[n++] = a->more[k];
+    return n;
 }
 
 static int bad_value(const cli_args *a, const char *name, const char *v, const char *why,
