@@ -237,6 +237,11 @@ int cli_units_opts(const cli_args *a, cli_sample_opts *o);
  * CLI_EXIT_USAGE with one sentence in msg naming the file or option. */
 int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
                    size_t len);
+/* For batch: the frames path gives (its pages when they are time points
+ * by the OME metadata or given == 't'; 1 for a single page). Other pages
+ * (z-slices, channels, or unknown without --pages) are refused: 0 or
+ * CLI_EXIT_USAGE with one sentence in msg naming the file. */
+int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *msg, size_t len);
 /* Writes OUTDIR/channels.json (role 'c') or OUTDIR/frames.json (role 't')
  * after every unit ran. Returns 0 or CLI_EXIT_USAGE with msg set. */
 int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const char *frame,

@@ -86,21 +86,33 @@ static int ome_role(const pp_ome_meta *m, const char *frame, char *role, char *m
     return 0;
 }
 
+/* The role of the pages of frame: the OME metadata's, else given (--pages;
+ * 0 when not given); a given role that the metadata contradicts is an
+ * error naming both. */
+static int decide_role(char given, const pp_ome_meta *m, unsigned pages, const char *frame,
+                       char *role, int *from_ome, char *msg, size_t len)
+{
+    char ome;
+    int rc = ome_role(m, frame, &ome, msg, len);
+    if (rc)
+        return rc;
+    if (ome && given && given != ome)
+        return fail(msg, len,
+                    "%s: --pages %c conflicts with the file's OME metadata, which says its %u "
+                    "pages are %s (SizeZ %zu, SizeC %zu, SizeT %zu); drop --pages",
+                    frame, given, pages, role_words(ome), m->nz, m->nc, m->nt);
+    *role = ome ? ome : pages > 1 ? given : 0;
+    *from_ome = ome != 0;
+    return 0;
+}
+
 /* The role of the pages: the OME metadata's, --pages, or an error. */
 static int pick_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
                      size_t len)
 {
-    char ome;
-    int rc = ome_role(&u->ome, frame, &ome, msg, len);
+    int rc = decide_role(o->pages, &u->ome, u->pages, frame, &u->role, &u->from_ome, msg, len);
     if (rc)
         return rc;
-    if (ome && o->pages && o->pages != ome)
-        return fail(msg, len,
-                    "%s: --pages %c conflicts with the file's OME metadata, which says its %u "
-                    "pages are %s (SizeZ %zu, SizeC %zu, SizeT %zu); drop --pages",
-                    frame, o->pages, u->pages, role_words(ome), u->ome.nz, u->ome.nc, u->ome.nt);
-    u->role = ome ? ome : u->pages > 1 ? o->pages : 0;
-    u->from_ome = ome != 0;
     if (u->pages > 1 && !u->role && o->plane < 0)
         return fail(msg, len,
                     "%s: %u pages and no OME metadata saying what they are: give --pages z "
@@ -108,6 +120,33 @@ static int pick_role(const cli_sample_opts *o, const char *frame, cli_units *u, 
                     "c (channels, each with its own --psf), or --plane K for one page",
                     frame, u->pages);
     return 0;
+}
+
+int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *msg, size_t len)
+{
+    pp_ome_meta ome;
+    unsigned pages;
+    *frames = 1;
+    if (pp_stack_probe(path, &pages, &ome) != PP_OK)
+        return fail(msg, len, "%s", pp_error_message());
+    *frames = pages ? pages : 1;
+    char role = 0;
+    int from_ome = 0;
+    int rc = decide_role(given, &ome, pages, path, &role, &from_ome, msg, len);
+    if (rc || pages <= 1 || role == 't')
+        return rc;
+    if (!role)
+        return fail(msg, len,
+                    "%s: %u pages and no OME metadata saying what they are: give --pages t to "
+                    "sample each page as a frame (z-slices and channels: pixpost sample --pages "
+                    "z|c on the file)",
+                    path, pages);
+    return fail(msg, len,
+                "%s: its %u pages are %s (%s); batch samples time points only: %s", path, pages,
+                role_words(role), from_ome ? "OME metadata" : "--pages",
+                role == 'z' ? "3-D sampling is not built yet (pixpost sample --plane K takes "
+                              "one slice)"
+                            : "run pixpost sample on the file (each channel with its own --psf)");
 }
 
 static void add(cli_units *u, unsigned page, size_t psf, const char *sub, unsigned k)
