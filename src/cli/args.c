@@ -103,6 +103,14 @@ static int is_help(const char *s)
     return strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0;
 }
 
+/* The length of an option's form without the " ..." of a repeatable one,
+ * for messages ("expected --psf SPEC"). */
+static int form_len(const cli_opt *o)
+{
+    size_t n = strlen(o->form);
+    return (int)(cli_opt_repeats(o) ? n - 4 : n);
+}
+
 /* Stores value for option i, refusing a repeat. shown is how the user wrote it. */
 static int store(cli_args *a, int i, const char *value)
 {
@@ -132,7 +140,8 @@ static int take_value(cli_args *a, int i, const char *inline_value, int argc, ch
     if (inline_value)
         return store(a, i, inline_value);
     if (*k + 1 >= argc || strncmp(argv[*k + 1], "--", 2) == 0)
-        return cli_opt_error(o->name, "needs a value (expected --%s %s)", o->name, o->form);
+        return cli_opt_error(o->name, "needs a value (expected --%s %.*s)", o->name,
+                             form_len(o), o->form);
     (*k)++;
     return store(a, i, argv[*k]);
 }
@@ -267,7 +276,8 @@ static int bad_value(const cli_args *a, const char *name, const char *v, const c
                      const char *expect)
 {
     const cli_opt *o = a->opt[index_of(a, name)];
-    return cli_opt_error(name, "'%s' %s (expected --%s %s, %s)", v, why, name, o->form, expect);
+    return cli_opt_error(name, "'%s' %s (expected --%s %.*s, %s)", v, why, name, form_len(o),
+                         o->form, expect);
 }
 
 /* Digits only, no sign, no spaces. 0 on success, -1 malformed, -2 overflow. */
@@ -452,10 +462,10 @@ int cli_require(const cli_args *a, const char *name)
         return 0;
     const cli_opt *o = a->opt[index_of(a, name)];
     if (o->short_name)
-        return cli_error("%s: -%c %s is required (see 'pixpost %s --help')", a->command,
-                         o->short_name, o->form, a->command);
-    return cli_error("%s: --%s %s is required (see 'pixpost %s --help')", a->command, name, o->form,
-                     a->command);
+        return cli_error("%s: -%c %.*s is required (see 'pixpost %s --help')", a->command,
+                         o->short_name, form_len(o), o->form, a->command);
+    return cli_error("%s: --%s %.*s is required (see 'pixpost %s --help')", a->command, name,
+                     form_len(o), o->form, a->command);
 }
 
 int cli_positionals(const cli_args *a, size_t n, const char *what)
