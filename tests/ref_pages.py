@@ -71,6 +71,11 @@ inputs["badome.tif"] = open(path("badome.tif"), "rb").read()
 refused([path("badome.tif"), "--psf", G1, "--pages", "t"], "h11", ["badome.tif", "malformed OME-XML"],
         "malformed OME-XML")
 
+tifffile.imwrite(path("tc.ome.tif"), np.stack([planes[:2], planes[1:]]), metadata={"axes": "TCYX"})
+inputs["tc.ome.tif"] = open(path("tc.ome.tif"), "rb").read()
+refused([path("tc.ome.tif"), "--psf", G1, "--psf", G2], "h12", ["tc.ome.tif", "2 channels", "2 time points", "split"],
+        "OME file with channels and time points")
+
 # ---- a single page: --pages accepted and ignored --------------------------
 pptest.run(["sample", path("one.tif"), "--psf", G1, "-o", path("one_c"), "--pages", "c"] + Q)
 pptest.run(["sample", path("one.tif"), "--psf", G1, "-o", path("one_plain")] + Q)

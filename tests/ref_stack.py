@@ -120,6 +120,13 @@ for name, (desc, word) in cases.items():
                  "%s: refused, one line naming the file and '%s' (%s)" % (name, word, err.strip()))
     pptest.check(open(p, "rb").read() == before, "%s: input unchanged" % name)
 
+# pages of different sizes cannot make one stack
+p = path("ragged.tif")
+tifffile.imwrite(p, z[0], photometric="minisblack")
+tifffile.imwrite(p, z[0, :5, :6], photometric="minisblack", append=True)
+rc, err = fails(["read", p])
+pptest.check(rc == 1 and p in err and "page 1 is 6x5" in err, "pages of two sizes refused (%s)" % err.strip())
+
 # ---- the parser alone ------------------------------------------------------
 def parse(xml):
     out = pptest.probe("stack", ["parse"], stdin=xml).split()
