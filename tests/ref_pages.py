@@ -138,5 +138,20 @@ p = pptest.run(["batch", bdir, "--psf", G1, "-o", path("bout"), "--pages", "t"] 
 pptest.check(p.returncode == 0 and os.path.exists(path("bout", "s_p1", "mean.tif")) and
              os.path.exists(path("bout", "s_p2", "mean.tif")), "batch --pages t: one frame per page, s_p1, s_p2")
 
+zdir, tdir = path("bz"), path("bt")
+os.makedirs(zdir)
+os.makedirs(tdir)
+tifffile.imwrite(os.path.join(zdir, "v.ome.tif"), planes[:2], metadata={"axes": "ZYX"})
+tifffile.imwrite(os.path.join(tdir, "m.ome.tif"), planes[:2], metadata={"axes": "TYX"})
+p = pptest.run(["batch", zdir, "--psf", G1, "-o", path("bzout"), "--pages", "t"] + Q, check=False)
+pptest.check(p.returncode == 1 and "v.ome.tif" in p.stderr and "conflicts" in p.stderr and not os.path.exists(path("bzout")),
+             "batch --pages t on an OME z-stack: refused naming both (%s)" % p.stderr.strip())
+p = pptest.run(["batch", zdir, "--psf", G1, "-o", path("bzout")] + Q, check=False)
+pptest.check(p.returncode == 1 and "z-slices" in p.stderr and "not built yet" in p.stderr,
+             "batch on an OME z-stack: refused, 3-D not built yet (%s)" % p.stderr.strip())
+p = pptest.run(["batch", tdir, "--psf", G1, "-o", path("btout")] + Q, check=False)
+pptest.check(p.returncode == 0 and os.path.exists(path("btout", "m.ome_p2", "mean.tif")),
+             "batch on an OME time series without --pages: a frame per page")
+
 pptest.check(all(open(path(f), "rb").read() == b for f, b in inputs.items()), "inputs unchanged")
 pptest.done()
