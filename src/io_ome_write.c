@@ -72,13 +72,14 @@ pp_status pp_ome_tiff_write_f32(const char *path, const pp_shape *shape, const d
     size_t count;
     pp_status st = pp_shape_count(shape, sizeof(float), &count);
     if (st != PP_OK || shape->rank < 2)
-        return pp_fail(PP_ERR_ARG, "%s: the OME-TIFF writer takes a frame or a volume (rank 2 "
-                       "or 3)", path);
+        return pp_fail(PP_ERR_ARG,
+                       "%s: the OME-TIFF writer takes a frame or a volume (rank 2 "
+                       "or 3)",
+                       path);
     size_t pages = shape->rank == 3 ? shape->n[0] : 1;
     size_t h = shape->n[shape->rank - 2], w = shape->n[shape->rank - 1];
     if (w > UINT32_MAX || h > UINT32_MAX || pages > 65535)
-        return pp_fail(PP_ERR_LIMIT, "%s: %zu x %zux%zu is too large for TIFF", path, pages, h,
-                       w);
+        return pp_fail(PP_ERR_LIMIT, "%s: %zu x %zux%zu is too large for TIFF", path, pages, h, w);
     size_t len = OME_XML_FIXED + 6 * (name ? strlen(name) : 0);
     char *xml = malloc(len), tmp[PP_PATH_MAX];
     if (!xml)

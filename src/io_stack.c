@@ -6,9 +6,9 @@
  * Cost: the stack of doubles plus one page at a time; each page opens the
  * file and walks the directory chain to it, so P pages cost O(P^2) directory
  * reads (a few hundred pages read in well under a second; a rule of thumb). */
-#include "pixpost/stack.h"
 #include "internal.h"
 #include "io_tiff_internal.h"
+#include "pixpost/stack.h"
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -51,11 +51,11 @@ pp_status pp_stack_probe(const char *path, unsigned *pages, pp_ome_meta *ome)
     if (st != PP_OK || !ome->present)
         return st;
     if (ome->nx != w || ome->ny != h || ome->nz * ome->nc * ome->nt != n) {
-        st = pp_fail(PP_ERR_FORMAT,
-                     "%s: the OME-XML describes SizeZ x SizeC x SizeT = %zu x %zu x %zu planes of "
-                     "%zux%zu, but the file holds %u page(s) of %ux%u; repair the metadata",
-                     path, ome->nz, ome->nc, ome->nt, ome->nx, ome->ny, n, (unsigned)w,
-                     (unsigned)h);
+        st =
+            pp_fail(PP_ERR_FORMAT,
+                    "%s: the OME-XML describes SizeZ x SizeC x SizeT = %zu x %zu x %zu planes of "
+                    "%zux%zu, but the file holds %u page(s) of %ux%u; repair the metadata",
+                    path, ome->nz, ome->nc, ome->nt, ome->nx, ome->ny, n, (unsigned)w, (unsigned)h);
         memset(ome, 0, sizeof *ome);
     }
     return st;
@@ -106,8 +106,8 @@ pp_status pp_stack_read(const char *path, const pp_read_options *opt, pp_stack *
                              : pp_shape_2d(img->height, img->width);
         st = pp_shape_count(&s->shape, sizeof(double), &count);
         if (st != PP_OK)
-            st = pp_fail(PP_ERR_LIMIT, "%s: %u pages of %zux%zu are too many to hold", path,
-                         pages, img->width, img->height);
+            st = pp_fail(PP_ERR_LIMIT, "%s: %u pages of %zux%zu are too many to hold", path, pages,
+                         img->width, img->height);
     }
     if (st == PP_OK && !(s->data = malloc(count * sizeof *s->data)))
         st = pp_fail(PP_ERR_NOMEM, "%s: out of memory for %u pages", path, pages);

@@ -251,9 +251,14 @@ static double unit_um(const char *u)
     static const struct {
         const char *sym;
         double um;
-    } units[] = {{"pm", 1e-6},          {"\xc3\x85", 1e-4} /* Å */, {"nm", 1e-3},
-                 {"\xc2\xb5m", 1.0} /* µm, micro sign */, {"\xce\xbcm", 1.0} /* μm, Greek mu */,
-                 {"um", 1.0},           {"mm", 1e3},        {"cm", 1e4},
+    } units[] = {{"pm", 1e-6},
+                 {"\xc3\x85", 1e-4} /* Å */,
+                 {"nm", 1e-3},
+                 {"\xc2\xb5m", 1.0} /* µm, micro sign */,
+                 {"\xce\xbcm", 1.0} /* μm, Greek mu */,
+                 {"um", 1.0},
+                 {"mm", 1e3},
+                 {"cm", 1e4},
                  {"m", 1e6}};
     for (size_t i = 0; i < sizeof units / sizeof units[0]; i++)
         if (strcmp(u, units[i].sym) == 0)
@@ -280,8 +285,10 @@ static pp_status get_physical(const xml_tag *t, const char *path, char axis, dou
     }
     double f = ru >= 0 ? unit_um(u) : 0.0;
     if (f == 0.0) {
-        snprintf(why, sizeof why, "Pixels %s '%s' is not a length unit pixpost knows (pm, nm, "
-                 "um or \xc2\xb5m, mm, cm, m)", uname, ru >= 0 ? u : "?");
+        snprintf(why, sizeof why,
+                 "Pixels %s '%s' is not a length unit pixpost knows (pm, nm, "
+                 "um or \xc2\xb5m, mm, cm, m)",
+                 uname, ru >= 0 ? u : "?");
         return bad(path, why);
     }
     *um = x * f;
@@ -433,8 +440,11 @@ pp_status pp_ome_format(size_t nz, size_t ny, size_t nx, const double voxel[3], 
                  "http://www.openmicroscopy.org/Schemas/OME/2016-06/ome.xsd\" "
                  "Creator=\"pixpost\"><Image ID=\"Image:0\" Name=\"");
     for (const char *s = name ? name : ""; ok && *s; s++) {
-        const char *esc = *s == '&' ? "&amp;" : *s == '<' ? "&lt;" : *s == '>' ? "&gt;"
-                          : *s == '"' ? "&quot;" : NULL;
+        const char *esc = *s == '&'   ? "&amp;"
+                          : *s == '<' ? "&lt;"
+                          : *s == '>' ? "&gt;"
+                          : *s == '"' ? "&quot;"
+                                      : NULL;
         ok = esc ? put(buf, len, &used, "%s", esc) : put(buf, len, &used, "%c", *s);
     }
     ok = ok && put(buf, len, &used,

@@ -26,8 +26,8 @@ static int fail(pp_status st)
 
 static void print_meta(const pp_ome_meta *m)
 {
-    printf("%d %zu %zu %zu %zu %zu %s %.17g %.17g %.17g\n", m->present, m->nx, m->ny, m->nz,
-           m->nc, m->nt, m->present ? m->order : "-", m->voxel[0], m->voxel[1], m->voxel[2]);
+    printf("%d %zu %zu %zu %zu %zu %s %.17g %.17g %.17g\n", m->present, m->nx, m->ny, m->nz, m->nc,
+           m->nt, m->present ? m->order : "-", m->voxel[0], m->voxel[1], m->voxel[2]);
 }
 
 static int cmd_read(const char *path)

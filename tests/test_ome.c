@@ -48,8 +48,8 @@ static void truncations(void)
         pp_ome_meta m;
         pp_status st = pp_ome_parse(p, "cut", &m);
         accepted += st == PP_OK && m.present;
-        CHECK(st == PP_OK ? !m.present : st == PP_ERR_FORMAT, "prefix of %zu bytes: status %d",
-              k, (int)st);
+        CHECK(st == PP_OK ? !m.present : st == PP_ERR_FORMAT, "prefix of %zu bytes: status %d", k,
+              (int)st);
         free(p);
     }
     CHECK(accepted == 0, "%zu truncated texts accepted as OME", accepted);

@@ -13,16 +13,16 @@
 #ifndef PIXPOST_OME_H
 #define PIXPOST_OME_H
 
-#include <stddef.h>
 #include "pixpost/status.h"
+#include <stddef.h>
 
 typedef struct pp_ome_meta {
-    int present;        /* 1 when the text was OME-XML (the fields below are set) */
-    size_t nx, ny;      /* SizeX (columns), SizeY (rows) */
-    size_t nz, nc, nt;  /* SizeZ, SizeC, SizeT (each >= 1) */
-    char order[6];      /* DimensionOrder, e.g. "XYZCT": X fastest, the last letter slowest */
-    double voxel[3];    /* PhysicalSizeZ, Y, X in micrometres (slowest axis first); 0 when
-                         * the metadata does not give it */
+    int present;       /* 1 when the text was OME-XML (the fields below are set) */
+    size_t nx, ny;     /* SizeX (columns), SizeY (rows) */
+    size_t nz, nc, nt; /* SizeZ, SizeC, SizeT (each >= 1) */
+    char order[6];     /* DimensionOrder, e.g. "XYZCT": X fastest, the last letter slowest */
+    double voxel[3];   /* PhysicalSizeZ, Y, X in micrometres (slowest axis first); 0 when
+                        * the metadata does not give it */
 } pp_ome_meta;
 
 /* Parses the description text xml (NUL-terminated; NULL means no

@@ -41,8 +41,9 @@ int cli_units_opts(const cli_args *a, cli_sample_opts *o)
     if (cli_given(a, "plane"))
         o->plane = (long)plane;
     if (cli_given(a, "voxel") && !(o->voxel[0] > 0 && o->voxel[1] > 0))
-        return cli_opt_error("voxel", "'%s': both sizes must be > 0 (expected --voxel XY,Z in "
-                                      "micrometres, e.g. 0.1,0.3)",
+        return cli_opt_error("voxel",
+                             "'%s': both sizes must be > 0 (expected --voxel XY,Z in "
+                             "micrometres, e.g. 0.1,0.3)",
                              cli_str(a, "voxel"));
     if (o->channel_all && cli_given(a, "plane"))
         return cli_error("--channel all and --plane cannot be used together (--plane picks a "
@@ -141,9 +142,8 @@ int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *
                     "sample each page as a frame (z-slices and channels: pixpost sample --pages "
                     "z|c on the file)",
                     path, pages);
-    return fail(msg, len,
-                "%s: its %u pages are %s (%s); batch samples time points only: %s", path, pages,
-                role_words(role), from_ome ? "OME metadata" : "--pages",
+    return fail(msg, len, "%s: its %u pages are %s (%s); batch samples time points only: %s", path,
+                pages, role_words(role), from_ome ? "OME metadata" : "--pages",
                 role == 'z' ? "3-D sampling is not built yet (pixpost sample --plane K takes "
                               "one slice)"
                             : "run pixpost sample on the file (each channel with its own --psf)");
@@ -178,8 +178,9 @@ static int plan_colour(const cli_sample_opts *o, const char *frame, cli_units *u
         return fail(msg, len, "%s", pp_error_message());
     pp_image_free(img);
     if (!info.was_colour)
-        return fail(msg, len, "%s: --channel all needs a colour (RGB) image, and this one is "
-                              "grayscale; drop --channel",
+        return fail(msg, len,
+                    "%s: --channel all needs a colour (RGB) image, and this one is "
+                    "grayscale; drop --channel",
                     frame);
     u->role = 'c';
     for (unsigned k = 0; k < 3; k++) {
@@ -232,7 +233,7 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
                     "--pages t (time points) or split the file",
                     frame, u->pages, role_words(u->role), CLI_MAX_UNITS);
     for (unsigned k = 0; k < u->pages; k++) {
-        unsigned page = !u->ome.present ? k
+        unsigned page = !u->ome.present  ? k
                         : u->role == 'c' ? (unsigned)pp_ome_page(&u->ome, 0, k, 0)
                                          : (unsigned)pp_ome_page(&u->ome, 0, 0, k);
         add(u, page, u->role == 'c' && o->npsf > 1 ? k : 0, u->role == 'c' ? "c" : "t", k);
@@ -240,16 +241,14 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
     return 0;
 }
 
-int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
-                   size_t len)
+int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
 {
     memset(u, 0, sizeof *u);
     pp_status st = pp_stack_probe(frame, &u->pages, &u->ome);
     if (st != PP_OK)
         return fail(msg, len, "%s", pp_error_message());
     set_voxel(o, u);
-    int rc = o->channel_all ? plan_colour(o, frame, u, msg, len)
-                            : pick_role(o, frame, u, msg, len);
+    int rc = o->channel_all ? plan_colour(o, frame, u, msg, len) : pick_role(o, frame, u, msg, len);
     if (!rc && !o->channel_all)
         rc = plan_pages(o, frame, u, msg, len);
     if (rc)
@@ -269,7 +268,8 @@ int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const ch
                           char *msg, size_t len)
 {
     char path[4200], tmp[4300];
-    snprintf(path, sizeof path, "%s/%s", o->outdir, u->role == 'c' ? "channels.json" : "frames.json");
+    snprintf(path, sizeof path, "%s/%s", o->outdir,
+             u->role == 'c' ? "channels.json" : "frames.json");
     snprintf(tmp, sizeof tmp, "%s.part", path);
     FILE *f = fopen(tmp, "w");
     if (!f)
@@ -279,7 +279,9 @@ int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const ch
     pp_json_write_string(f, frame);
     fprintf(f, ",\n  \"pages_are\": \"%s\",\n  \"decided_by\": \"%s\",\n  \"voxel_um\": ",
             u->role == 'c' ? "channels" : "time points",
-            o->channel_all ? "--channel all" : u->from_ome ? "OME metadata" : "--pages");
+            o->channel_all ? "--channel all"
+            : u->from_ome  ? "OME metadata"
+                           : "--pages");
     if (u->have_voxel) {
         fputs("{\"z\": ", f);
         pp_json_write_number(f, u->voxel[0]);
