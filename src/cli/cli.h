@@ -20,7 +20,6 @@
 #include "pixpost/pixpost.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/ppcheck.h"
-#include "pixpost/stack.h"
 #include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
