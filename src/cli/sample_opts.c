@@ -387,7 +387,10 @@ void cli_sample_help(FILE *fp)
           "Before sampling the frame is checked against the noise model and the PSF (e.g.\n"
           "most pixels below the offset: an error, exit 1); after it, the fit against the\n"
           "frame (standardised residuals, residual.tif): a misfit is a warning naming the\n"
-          "likely cause (README \"Checks of the data and the fit\").\n\n"
+          "likely cause (README \"Checks of the data and the fit\").\n"
+          "A multi-page TIFF needs --pages z|t|c unless its OME metadata says what the pages\n"
+          "are; channels and time points go to OUTDIR/c<k>/ and OUTDIR/t<k>/. Volumes are read\n"
+          "but not sampled yet (2-D only): --plane K samples one slice.\n\n"
           "Options:\n",
           fp);
     cli_print_options(fp, tables, cli_sample_default, NULL);
