@@ -11,6 +11,7 @@
  * per scanline, uncompressed. Page counting walks the directory chain. */
 #include "internal.h"
 #include "io_internal.h"
+#include "io_tiff_internal.h"
 #include "pixpost/io.h"
 #include <errno.h>
 #include <math.h>
@@ -20,12 +21,6 @@
 #include <stdlib.h>
 #include <string.h>
 #include <tiffio.h>
-
-/* The first error libtiff reported on one handle. */
-typedef struct tiff_msg {
-    char text[256];
-    int have;
-} tiff_msg;
 
 static int on_error(TIFF *tif, void *user, const char *module, const char *fmt, va_list ap)
 {
@@ -45,9 +40,7 @@ static int on_warning(TIFF *tif, void *user, const char *module, const char *fmt
     return 1; /* silent */
 }
 
-/* Opens path with silent handlers that write into *m (which must outlive
- * the handle). NULL on failure, with m->text set when libtiff said why. */
-static TIFF *tiff_open(const char *path, const char *mode, tiff_msg *m)
+TIFF *pp_tiff_open_silent(const char *path, const char *mode, tiff_msg *m)
 {
     memset(m, 0, sizeof *m);
     TIFFOpenOptions *o = TIFFOpenOptionsAlloc();
@@ -88,7 +81,7 @@ static pp_status open_reader(const char *path, tiff_msg *m, TIFF **t)
     pp_status st = check_readable(path);
     if (st != PP_OK)
         return st;
-    *t = tiff_open(path, "r", m);
+    *t = pp_tiff_open_silent(path, "r", m);
     if (!*t)
         return pp_fail(PP_ERR_FORMAT, "%s: not a readable TIFF (corrupt or truncated): %s", path,
                        msg_or(m, "libtiff cannot open it"));
@@ -452,7 +445,7 @@ pp_status pp_tiff_write_f32(const char *path, const pp_image *img)
     double bytes = 4.0 * (double)img->width * (double)img->height;
     tiff_msg m;
     errno = 0;
-    TIFF *t = tiff_open(tmp, bytes > 3.5e9 ? "w8" : "w", &m);
+    TIFF *t = pp_tiff_open_silent(tmp, bytes > 3.5e9 ? "w8" : "w", &m);
     if (!t) {
         int e = errno;
         remove(tmp);

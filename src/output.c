@@ -374,6 +374,19 @@ static pp_status write_summary(const char *path, const pp_result *r, const pp_im
     pp_json_write_string(f, info ? info->command_line : NULL);
     fputs(",\n  \"input\": ", f);
     pp_json_write_string(f, info ? info->input_path : NULL);
+    if (info && info->input_part) {
+        fputs(",\n  \"input_part\": ", f);
+        pp_json_write_string(f, info->input_part);
+    }
+    if (info && info->voxel_um) {
+        fputs(",\n  \"voxel_um\": {\"z\": ", f);
+        pp_json_write_number(f, info->voxel_um[0]);
+        fputs(", \"y\": ", f);
+        pp_json_write_number(f, info->voxel_um[1]);
+        fputs(", \"x\": ", f);
+        pp_json_write_number(f, info->voxel_um[2]);
+        fputs("}", f);
+    }
     fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu},\n", frame->width,
             frame->height);
     fprintf(f, "  \"grid\": {\"width\": %zu, \"height\": %zu},\n", r->grid.n[1], r->grid.n[0]);

@@ -71,7 +71,7 @@ indir_before = pptest.tree_digest(indir)
 # plans made by two first runs at once can differ and round differently,
 # which tests/ref_plan_cache.py checks on its own.
 OPTS = ["--no-plan-cache", "--psf", "gaussian:sigma=1.5", "--chains", "2", "--burn", "50", "--iters", "400",
-        "--seed", "11", "--recursive", "--quiet"]
+        "--seed", "11", "--recursive", "--quiet", "--pages", "t"]  # stack.tif: pages are time points
 
 
 def batch(cwd, *extra, check=False):

@@ -61,7 +61,7 @@ OUTPUTS = ["f0", "f1", "f2", "f3", "stack_p1", "stack_p2"]
 # same seed and the same plans (README, "What is reproducible"); measured
 # plans made by two first runs at once can differ and round differently,
 # which tests/ref_plan_cache.py checks on its own.
-BASE = ["--no-plan-cache", "--psf", "gaussian:sigma=1.5", "--chains", "2", "--burn", "30", "--seed", "5", "--quiet"]
+BASE = ["--no-plan-cache", "--psf", "gaussian:sigma=1.5", "--chains", "2", "--burn", "30", "--seed", "5", "--quiet", "--pages", "t"]  # stack.tif: pages are time points
 OPTS = BASE + ["--iters", "200"]
 
 env = dict(os.environ, OMPI_ALLOW_RUN_AS_ROOT="1", OMPI_ALLOW_RUN_AS_ROOT_CONFIRM="1",

@@ -23,6 +23,10 @@
  * string may be NULL. */
 typedef struct pp_run_info {
     const char *input_path;
+    const char *input_part; /* the part of the input sampled, e.g. "page 2" or "channel 1
+                             * (g)": summary.json "input_part"; NULL: the whole input */
+    const double *voxel_um; /* voxel size z, y, x in micrometres: summary.json "voxel_um";
+                             * NULL: not known */
     const char *psf_spec;   /* as given by the user */
     const char *noise_spec;
     const char *prior_spec;

@@ -5,6 +5,8 @@
 #include "pixpost/shape.h"
 #include "pixpost/image.h"
 #include "pixpost/io.h"
+#include "pixpost/ome.h"
+#include "pixpost/stack.h"
 #include "pixpost/rng.h"
 #include "pixpost/fft.h"
 #include "pixpost/spec.h"

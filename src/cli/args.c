@@ -103,12 +103,27 @@ static int is_help(const char *s)
     return strcmp(s, "--help") == 0 || strcmp(s, "-h") == 0;
 }
 
+/* The length of an option's form without the " ..." of a repeatable one,
+ * for messages ("expected --psf SPEC"). */
+static int form_len(const cli_opt *o)
+{
+    size_t n = strlen(o->form);
+    return (int)(cli_opt_repeats(o) ? n - 4 : n);
+}
+
 /* Stores value for option i, refusing a repeat. shown is how the user wrote it. */
 static int store(cli_args *a, int i, const char *value)
 {
     const cli_opt *o = a->opt[i];
-    if (a->value[i])
+    if (a->value[i] && !cli_opt_repeats(o))
         return cli_opt_error(o->name, "given twice (give each option once)");
+    if (a->value[i]) {
+        if (a->nmore == CLI_MAX_REPEAT)
+            return cli_opt_error(o->name, "given more than %d times", CLI_MAX_REPEAT + 1);
+        a->more_opt[a->nmore] = i;
+        a->more[a->nmore++] = value;
+        return 0;
+    }
     a->value[i] = value;
     return 0;
 }
@@ -125,7 +140,8 @@ static int take_value(cli_args *a, int i, const char *inline_value, int argc, ch
     if (inline_value)
         return store(a, i, inline_value);
     if (*k + 1 >= argc || strncmp(argv[*k + 1], "--", 2) == 0)
-        return cli_opt_error(o->name, "needs a value (expected --%s %s)", o->name, o->form);
+        return cli_opt_error(o->name, "needs a value (expected --%s %.*s)", o->name,
+                             form_len(o), o->form);
     (*k)++;
     return store(a, i, argv[*k]);
 }
@@ -238,11 +254,30 @@ const char *cli_str(const cli_args *a, const char *name)
     return a->value[index_of(a, name)];
 }
 
+int cli_opt_repeats(const cli_opt *o)
+{
+    size_t n = strlen(o->form);
+    return n >= 4 && strcmp(o->form + n - 4, " ...") == 0;
+}
+
+size_t cli_strs(const cli_args *a, const char *name, const char **out, size_t max)
+{
+    int i = index_of(a, name);
+    size_t n = 0;
+    if (a->value[i] && n < max)
+        out[n++] = a->value[i];
+    for (size_t k = 0; k < a->nmore && n < max; k++)
+        if (a->more_opt[k] == i)
+            out[n++] = a->more[k];
+    return n;
+}
+
 static int bad_value(const cli_args *a, const char *name, const char *v, const char *why,
                      const char *expect)
 {
     const cli_opt *o = a->opt[index_of(a, name)];
-    return cli_opt_error(name, "'%s' %s (expected --%s %s, %s)", v, why, name, o->form, expect);
+    return cli_opt_error(name, "'%s' %s (expected --%s %.*s, %s)", v, why, name, form_len(o),
+                         o->form, expect);
 }
 
 /* Digits only, no sign, no spaces. 0 on success, -1 malformed, -2 overflow. */
@@ -427,10 +462,10 @@ int cli_require(const cli_args *a, const char *name)
         return 0;
     const cli_opt *o = a->opt[index_of(a, name)];
     if (o->short_name)
-        return cli_error("%s: -%c %s is required (see 'pixpost %s --help')", a->command,
-                         o->short_name, o->form, a->command);
-    return cli_error("%s: --%s %s is required (see 'pixpost %s --help')", a->command, name, o->form,
-                     a->command);
+        return cli_error("%s: -%c %.*s is required (see 'pixpost %s --help')", a->command,
+                         o->short_name, form_len(o), o->form, a->command);
+    return cli_error("%s: --%s %.*s is required (see 'pixpost %s --help')", a->command, name,
+                     form_len(o), o->form, a->command);
 }
 
 int cli_positionals(const cli_args *a, size_t n, const char *what)

@@ -71,9 +71,11 @@ typedef struct batch_ctx {
 
 /* ---- batch_list.c ---- */
 /* Lists the frames of indir (sorted; recursive; pattern NULL = all PNG/TIFF
- * names). *out is malloc'ed (caller frees); *skipped says what was left out
- * by type. Returns 0 or CLI_EXIT_USAGE. */
-int batch_list(const char *indir, int recursive, const char *pattern, uint64_t seed,
+ * names; a multi-page TIFF gives one frame per page when its pages are time
+ * points: pages == 't' (--pages) or its OME metadata, else it is an error).
+ * *out is malloc'ed (caller frees); *skipped says what was left out by type.
+ * Returns 0 or CLI_EXIT_USAGE (printed). */
+int batch_list(const char *indir, int recursive, const char *pattern, char pages, uint64_t seed,
                batch_frame **out, size_t *n, batch_skipped *skipped);
 /* Refuses an outdir that is indir or inside it (symlinks resolved). */
 int batch_check_outdir(const char *indir, const char *outdir);

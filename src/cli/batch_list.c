@@ -112,15 +112,17 @@ static int is_tiff_name(const char *rel)
            (n > 5 && strcasecmp(rel + n - 5, ".tiff") == 0);
 }
 
-/* Pages of a TIFF (1 when it is not a readable TIFF: the worker reports). */
-static unsigned count_pages(const char *indir, const char *rel)
+/* Frames of a TIFF: its pages when they are time points (--pages t or the
+ * OME metadata; units.c), 1 when it is not a readable TIFF (the worker
+ * reports). Other multi-page files are an error (printed). */
+static int count_pages(const char *indir, const char *rel, char given, unsigned *frames)
 {
-    char full[BATCH_PATH * 2];
+    char full[BATCH_PATH * 2], msg[1024];
     snprintf(full, sizeof full, "%s/%s", indir, rel);
-    unsigned pages = 1;
-    if (is_tiff_name(rel) && pp_tiff_count_pages(full, &pages) != PP_OK)
-        pages = 1;
-    return pages ? pages : 1;
+    *frames = 1;
+    if (is_tiff_name(rel) && cli_units_batch_pages(full, given, frames, msg, sizeof msg))
+        return cli_error("batch: %s", msg);
+    return 0;
 }
 
 static void fill_frame(batch_frame *f, const char *rel, unsigned page, unsigned pages,
@@ -175,15 +177,20 @@ static int mark_clashes(batch_frame *f, size_t n)
     return 0;
 }
 
-static int expand_pages(const char *indir, const name_list *l, uint64_t seed, batch_frame **out,
-                        size_t *n)
+static int expand_pages(const char *indir, const name_list *l, char given, uint64_t seed,
+                        batch_frame **out, size_t *n)
 {
     unsigned *pages = malloc((l->n ? l->n : 1) * sizeof *pages);
     if (!pages)
         return cli_error("batch: out of memory");
     size_t total = 0;
-    for (size_t i = 0; i < l->n; i++)
-        total += (pages[i] = count_pages(indir, l->v[i]));
+    for (size_t i = 0; i < l->n; i++) {
+        if (count_pages(indir, l->v[i], given, &pages[i])) {
+            free(pages);
+            return CLI_EXIT_USAGE;
+        }
+        total += pages[i];
+    }
     batch_frame *f = calloc(total ? total : 1, sizeof *f);
     if (!f) {
         free(pages);
@@ -223,7 +230,7 @@ static void describe_skipped(name_list *skip, int recursive, batch_skipped *out)
                  " (names ending in / are folders: add --recursive to take their frames)");
 }
 
-int batch_list(const char *indir, int recursive, const char *pattern, uint64_t seed,
+int batch_list(const char *indir, int recursive, const char *pattern, char pages, uint64_t seed,
                batch_frame **out, size_t *n, batch_skipped *skipped)
 {
     *out = NULL;
@@ -234,7 +241,7 @@ int batch_list(const char *indir, int recursive, const char *pattern, uint64_t s
         describe_skipped(&skip, recursive, skipped);
         if (l.n)
             qsort(l.v, l.n, sizeof *l.v, cmp_name);
-        rc = expand_pages(indir, &l, seed, out, n);
+        rc = expand_pages(indir, &l, pages, seed, out, n);
     }
     free(l.v);
     free(skip.v);

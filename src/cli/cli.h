@@ -47,6 +47,7 @@ typedef struct cli_opt {
 
 #define CLI_MAX_OPTS 64
 #define CLI_MAX_POS 8
+#define CLI_MAX_REPEAT 16 /* later values of repeatable options, all together */
 
 /* What cli_parse() collected. Strings point into argv (not copied). */
 typedef struct cli_args {
@@ -56,6 +57,9 @@ typedef struct cli_args {
     size_t nopts;
     const char *pos[CLI_MAX_POS]; /* positional arguments */
     size_t npos;
+    const char *more[CLI_MAX_REPEAT]; /* second and later values of repeatable options */
+    int more_opt[CLI_MAX_REPEAT];     /* ... and the index of the option of each */
+    size_t nmore;
 } cli_args;
 
 /* Parses argv[1..argc-1] against the NULL-terminated list of tables (so a
@@ -69,8 +73,14 @@ int cli_parse(cli_args *a, const char *command, const cli_opt *const *tables, in
 /* 1 if the option was given. name must be in the tables (else abort: a
  * programming error, caught by any test that runs the command). */
 int cli_given(const cli_args *a, const char *name);
-/* The raw value (NULL when not given). */
+/* The raw value (NULL when not given; the first when repeated). */
 const char *cli_str(const cli_args *a, const char *name);
+/* 1 when the option may be given more than once: its form ends in " ..."
+ * (e.g. "SPEC ..."); its values are kept in the order given. */
+int cli_opt_repeats(const cli_opt *o);
+/* The values of an option in the order given (at most max) into out;
+ * returns their count (0 when not given). */
+size_t cli_strs(const cli_args *a, const char *name, const char **out, size_t max);
 
 /* Typed getters. Each leaves *out unchanged when the option was not given
  * and returns 0, or CLI_EXIT_USAGE after printing a message such as
@@ -146,6 +156,8 @@ typedef enum cli_progress {
     CLI_PROGRESS_NONE
 } cli_progress;
 
+#define CLI_MAX_PSF 16 /* --psf values: one per channel */
+
 typedef struct cli_sample_opts {
     pp_sampler_config cfg;  /* from pp_sampler_defaults, then the options */
     const char *frame;      /* FRAME (sample) or NULL (batch sets its own) */
@@ -167,6 +179,14 @@ typedef struct cli_sample_opts {
     int keep_saturated;     /* --keep-saturated: saturated pixels stay data */
     int noise_auto;         /* --noise auto: estimated per frame (noise_auto.c) */
     int prior_given;        /* --prior was given */
+    /* multi-page and multi-channel input (units.c) */
+    char pages;             /* --pages: 'z', 't' or 'c'; 0 when not given */
+    double voxel[2];        /* --voxel XY,Z in micrometres; 0, 0 when not given */
+    long plane;             /* --plane K (a page, from 0), or -1 */
+    int channel_all;        /* --channel all */
+    size_t npsf;            /* --psf values given, 1 .. CLI_MAX_PSF; psf above is psfs[0] */
+    const char *psf_texts[CLI_MAX_PSF];
+    pp_psf_spec psfs[CLI_MAX_PSF];
 } cli_sample_opts;
 
 /* The flag of each sampler setting (flag_names.c), for
@@ -185,6 +205,50 @@ int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o);
  * 0, CLI_HELP (help printed to stdout) or CLI_EXIT_USAGE. */
 int cli_sample_opts_parse(int argc, char **argv, cli_sample_opts *o);
 void cli_sample_help(FILE *fp);
+
+/* ---- multi-page and multi-channel input (units.c) ------------------- */
+
+#define CLI_MAX_UNITS 64 /* frames one `sample` run takes from one file */
+
+typedef struct cli_unit {
+    unsigned page;       /* TIFF page to read */
+    size_t psf;          /* index into o->psfs */
+    int channel_set;     /* --channel all: channel replaces o->read.channel */
+    pp_channel channel;
+    char sub[16];        /* folder under OUTDIR ("c0", "t3"); "" for OUTDIR itself */
+    /* after the run, for the index */
+    double rhat_max;
+    size_t warnings;
+    char verdict[1024];
+} cli_unit;
+
+typedef struct cli_units {
+    cli_unit unit[CLI_MAX_UNITS];
+    size_t n;
+    char role;          /* 'c', 't' for several units; 0 for one frame */
+    int from_ome;       /* the role came from the OME metadata */
+    unsigned pages;     /* pages of the file */
+    pp_ome_meta ome;
+    double voxel[3];    /* z, y, x in micrometres (OME, else --voxel); NaN unknown */
+    int have_voxel;     /* any of them known */
+} cli_units;
+
+/* Reads --pages, --plane, --voxel and --channel all into o (called by
+ * cli_sample_opts_from_args). Returns 0 or CLI_EXIT_USAGE (printed). */
+int cli_units_opts(const cli_args *a, cli_sample_opts *o);
+/* The units of frame under o's options (see units.c). Returns 0, or
+ * CLI_EXIT_USAGE with one sentence in msg naming the file or option. */
+int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                   size_t len);
+/* For batch: the frames path gives (its pages when they are time points
+ * by the OME metadata or given == 't'; 1 for a single page). Other pages
+ * (z-slices, channels, or unknown without --pages) are refused: 0 or
+ * CLI_EXIT_USAGE with one sentence in msg naming the file. */
+int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *msg, size_t len);
+/* Writes OUTDIR/channels.json (role 'c') or OUTDIR/frames.json (role 't')
+ * after every unit ran. Returns 0 or CLI_EXIT_USAGE with msg set. */
+int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const char *frame,
+                          char *msg, size_t len);
 
 /* ---- --noise auto (noise_auto.c) ------------------------------------ */
 
@@ -239,6 +303,12 @@ int cli_plans_save(const cli_sample_opts *o, cli_plans *p, const pp_sampler *s, 
 typedef struct cli_frame_run {
     const char *frame;        /* input file */
     unsigned page;            /* TIFF page, 0-based (0 for PNG) */
+    const pp_psf_spec *psf;   /* NULL: o->psf (units.c sets one per channel) */
+    const char *psf_text;     /* NULL: o->psf_text */
+    int channel_set;          /* 1: channel replaces o->read.channel (--channel all) */
+    pp_channel channel;
+    const char *part;         /* summary.json "input_part" (e.g. "page 2"); NULL: none */
+    const double *voxel_um;   /* summary.json "voxel_um" (z, y, x); NULL: none */
     const char *outdir;       /* created if missing */
     uint64_t seed;            /* replaces o->cfg.seed */
     int threads;              /* replaces o->cfg.threads */

@@ -5,7 +5,9 @@
  * batch); this file prints the result and a short verdict. */
 #include "cli.h"
 #include "pixpost/diag.h"
+#include "pixpost/output.h"
 #include <math.h>
+#include <stdlib.h>
 #include <stdio.h>
 #include <string.h>
 #include <time.h>
@@ -20,7 +22,7 @@ static void join_args(int argc, char **argv, char *buf, size_t len)
 /* The summary lines: outputs, headline figures, the verdict sentence
  * (pp_convergence_verdict: which part failed, the --iters to ask for),
  * then each warning and note. */
-static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double seconds)
+static void print_verdict(const pp_sampler *s, const char *outdir, double seconds)
 {
     size_t nw = pp_sampler_warning_count(s);
     const pp_trace *t = pp_sampler_trace(s);
@@ -36,7 +38,7 @@ static void print_verdict(const pp_sampler *s, const cli_sample_opts *o, double 
     fprintf(stderr,
             "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse, residual .tif; mean, sd .png; "
             "summary.json; trace.csv; report.html)\n",
-            o->outdir);
+            outdir);
     fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; worst R-hat %.3f, lowest "
                     "bulk-ESS %.0f: %s\n",
             t->chains, t->kept, seconds, cv.rhat_max, cv.ess_bulk_min, count);
@@ -82,17 +84,28 @@ static void print_checks(const cli_frame_run *r)
         fprintf(stderr, "pixpost: note: %s\n", r->predictive_note);
 }
 
-static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec *t0)
+/* Samples one unit of the input (units.c) into outdir, prints its verdict
+ * and keeps it in *u for the index. */
+static int run_unit(const cli_sample_opts *o, const cli_units *us, cli_unit *u,
+                    const char *outdir, const char *cmd, const struct timespec *t0)
 {
-    char cmd[8192];
-    join_args(argc, argv, cmd, sizeof cmd);
+    static const char *const colour[] = {"r", "g", "b"};
+    char part[64];
     cli_frame_run r;
     memset(&r, 0, sizeof r);
-    if (cli_check_outdir(o->outdir, o->overwrite, r.message, sizeof r.message))
-        return cli_error("%s", r.message);
     r.frame = o->frame;
-    r.page = o->read.page;
-    r.outdir = o->outdir;
+    r.page = u->page;
+    r.outdir = outdir;
+    r.psf = &o->psfs[u->psf];
+    r.psf_text = o->psf_texts[u->psf];
+    r.channel_set = u->channel_set;
+    r.channel = u->channel;
+    if (u->channel_set)
+        snprintf(part, sizeof part, "channel %s", colour[(size_t)(u - us->unit) % 3]);
+    else
+        snprintf(part, sizeof part, "page %u", u->page);
+    r.part = us->pages > 1 || u->channel_set ? part : NULL;
+    r.voxel_um = us->have_voxel ? us->voxel : NULL;
     r.seed = o->cfg.seed;
     r.threads = o->cfg.threads;
     r.command_line = cmd;
@@ -107,13 +120,75 @@ static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec 
     if (rc && r.interrupted && *r.stop)
         rc = 128 + (int)*r.stop; /* as a process killed by the signal (and as batch) */
     if (!rc && !o->quiet)
-        print_verdict(r.sampler, o, cli_since(t0));
+        print_verdict(r.sampler, outdir, cli_since(t0));
     if (!rc && !o->quiet)
         print_checks(&r);
-    if (!rc && o->strict && pp_sampler_warning_count(r.sampler) > 0)
+    if (!rc) {
+        pp_convergence cv;
+        pp_sampler_convergence(r.sampler, &cv);
+        pp_convergence_verdict(&cv, u->verdict, sizeof u->verdict);
+        u->rhat_max = cv.rhat_max;
+        u->warnings = pp_sampler_warning_count(r.sampler);
+    }
+    if (!rc && o->strict && u->warnings > 0)
         rc = CLI_EXIT_STRICT;
     pp_sampler_free(r.sampler);
     pp_ppcheck_free(r.predictive);
+    return rc;
+}
+
+/* Several units (channels, time points): each into OUTDIR/<sub>/, the
+ * index after the last. Every folder is checked before any sampling; the
+ * first failure stops the run (the folders written so far are complete),
+ * and the index is written only when every unit ran. */
+static int run_units(const cli_sample_opts *o, cli_units *us, const char *cmd,
+                     const struct timespec *t0)
+{
+    char dirs[CLI_MAX_UNITS][4200], msg[1024];
+    for (size_t k = 0; k < us->n; k++) {
+        snprintf(dirs[k], sizeof dirs[k], "%s/%s", o->outdir, us->unit[k].sub);
+        if (cli_check_outdir(dirs[k], o->overwrite, msg, sizeof msg))
+            return cli_error("%s", msg);
+    }
+    if (cli_make_dirs(o->outdir, msg, sizeof msg))
+        return cli_error("%s", msg);
+    if (pp_output_mark(o->outdir, cmd) != PP_OK)
+        return cli_fail(PP_ERR_IO);
+    if (!o->quiet)
+        fprintf(stderr, "pixpost: %s: %zu %s, sampled one after another into %s/%s0 .. %s%zu\n",
+                o->frame, us->n, us->role == 'c' ? "channels" : "time points", o->outdir,
+                us->unit[0].sub[0] == 'c' ? "c" : "t", us->unit[0].sub[0] == 'c' ? "c" : "t",
+                us->n - 1);
+    int rc = 0, strict = 0;
+    for (size_t k = 0; k < us->n && (!rc || rc == CLI_EXIT_STRICT); k++) {
+        strict |= rc == CLI_EXIT_STRICT;
+        rc = run_unit(o, us, &us->unit[k], dirs[k], cmd, t0);
+    }
+    strict |= rc == CLI_EXIT_STRICT;
+    if (rc && rc != CLI_EXIT_STRICT)
+        return rc;
+    if (cli_units_write_index(o, us, o->frame, msg, sizeof msg))
+        return cli_error("%s", msg);
+    return strict ? CLI_EXIT_STRICT : 0;
+}
+
+static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec *t0)
+{
+    char cmd[8192], msg[1024];
+    join_args(argc, argv, cmd, sizeof cmd);
+    if (cli_check_outdir(o->outdir, o->overwrite, msg, sizeof msg))
+        return cli_error("%s", msg);
+    cli_units *us = malloc(sizeof *us);
+    if (!us)
+        return cli_error("out of memory");
+    int rc = cli_units_plan(o, o->frame, us, msg, sizeof msg);
+    if (rc)
+        cli_error("%s", msg);
+    else if (us->n == 1 && !us->unit[0].sub[0])
+        rc = run_unit(o, us, &us->unit[0], o->outdir, cmd, t0);
+    else
+        rc = run_units(o, us, cmd, t0);
+    free(us);
     return rc;
 }
 

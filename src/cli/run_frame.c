@@ -160,6 +160,8 @@ static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **fra
 {
     pp_read_options ro = o->read;
     ro.page = r->page;
+    if (r->channel_set)
+        ro.channel = r->channel;
     pp_status st = pp_image_read(r->frame, &ro, frame, &r->info);
     if (st != PP_OK)
         return fail_lib(r, st);
@@ -214,6 +216,8 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     cfg.progress = ps->mode == CLI_PROGRESS_NONE ? NULL : show_progress;
     cfg.progress_ctx = ps;
     cfg.stop = r->stop;
+    if (r->psf)
+        cfg.psf = *r->psf;
     pp_status st = pp_sampler_create(&cfg, frame, psf, &r->sampler);
     return st == PP_OK ? 0 : fail_frame(r, st);
 }
@@ -246,7 +250,8 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
         r->predictive = NULL;
         snprintf(r->predictive_note, sizeof r->predictive_note, "%s", pp_error_message());
     }
-    pp_run_info ri = {.input_path = r->frame, .psf_spec = o->psf_text,
+    pp_run_info ri = {.input_path = r->frame, .psf_spec = r->psf_text ? r->psf_text : o->psf_text,
+                      .input_part = r->part, .voxel_um = r->voxel_um,
                       .noise_spec = o->noise_text, .prior_spec = o->prior_text,
                       .command_line = r->command_line, .seconds_total = cli_since(&r->t0),
                       .fft_plans = plans->summary,
@@ -287,7 +292,7 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     int rc = read_frame(o, r, &frame);
     if (!rc)
         rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
-    if (!rc && (st = pp_psf_make(&o->psf, 0, &psf)) != PP_OK)
+    if (!rc && (st = pp_psf_make(r->psf ? r->psf : &o->psf, 0, &psf)) != PP_OK)
         rc = fail_lib(r, st);
     if (!rc)
         rc = check_data(o, r, frame, psf, &na);

@@ -22,8 +22,9 @@ static const cli_opt sample_table[] = {
         "pixpost's marker file .pixpost-output); a folder with other files needs --overwrite. "
         "Required.",
     },
-    {"psf", 0, 1, "SPEC",
-     "Point-spread function: gaussian:sigma=S (pixels, 0.3 to 20), "
+    {"psf", 0, 1, "SPEC ...",
+     "Point-spread function (give it once per channel, in channel order, for multi-channel "
+     "input; one --psf serves every channel): gaussian:sigma=S (pixels, 0.3 to 20), "
      "airy:na=NA,wavelength=L,pixel=P (L 0.2 to 2 and P 0.001 to 20 micrometres; P is the "
      "sample-plane pixel, camera pixel / magnification) or file:PATH (an image of one bead). "
      "An uncertain width is sampled with "
@@ -83,8 +84,23 @@ static const cli_opt sample_table[] = {
      "Gamma(shape A, rate B) hyperprior of the noise precision; A, B >= 0."},
     {"hyper-delta", 0, 1, "A,B",
      "Gamma(shape A, rate B) hyperprior of the prior precision; A, B >= 0."},
-    {"channel", 0, 1, "r|g|b|luma",
-     "Channel to take from a colour image (colour input is refused without it)."},
+    {"channel", 0, 1, "r|g|b|luma|all",
+     "Channel to take from a colour image (colour input is refused without it). all: every "
+     "channel of an RGB image, each sampled as a frame with its own --psf into OUTDIR/c0 (r), "
+     "c1 (g), c2 (b), listed in OUTDIR/channels.json."},
+    {"pages", 0, 1, "z|t|c",
+     "What the pages of a multi-page TIFF are: z (z-slices of one volume; 3-D sampling is not "
+     "built yet, so choose one slice with --plane K), t (time points: each page sampled as a "
+     "frame into OUTDIR/t<k>/) or c (channels: each page with its own --psf into "
+     "OUTDIR/c<k>/). OME-TIFF metadata decides when present (a different --pages is an "
+     "error); a multi-page TIFF with neither is refused. A single-page file is one frame "
+     "whatever --pages says."},
+    {"plane", 0, 1, "K",
+     "Sample only page K (from 0) of a multi-page TIFF, as one frame into OUTDIR (e.g. one "
+     "z-slice of a volume)."},
+    {"voxel", 0, 1, "XY,Z",
+     "Voxel size in micrometres (pixel size in the plane, z spacing) when the OME metadata "
+     "does not give it; recorded in summary.json (\"voxel_um\")."},
     {"max-pixels", 0, 1, "N", "Refuse frames with more than N pixels (whole number >= 1)."},
     {"mask", 0, 1, "FILE",
      "Pixels to ignore: a grayscale PNG or TIFF of the frame's size where NONZERO marks a "
@@ -173,8 +189,12 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
         snprintf(buf, len, "off");
     else if (strcmp(name, "no-plan-cache") == 0 || strcmp(name, "keep-saturated") == 0)
         snprintf(buf, len, "off");
-    else if (strcmp(name, "mask") == 0)
+    else if (strcmp(name, "mask") == 0 || strcmp(name, "plane") == 0)
         snprintf(buf, len, "none");
+    else if (strcmp(name, "pages") == 0)
+        snprintf(buf, len, "from the OME metadata; none for a file without it");
+    else if (strcmp(name, "voxel") == 0)
+        snprintf(buf, len, "from the OME metadata; unknown without it");
 }
 
 /* Runs a library parser on an option's value; prints its message on failure. */
@@ -188,9 +208,14 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
     int rc;
     if ((rc = cli_require(a, "psf")) != 0)
         return rc;
-    o->psf_text = cli_str(a, "psf");
-    if ((rc = lib_check(pp_psf_parse(o->psf_text, &o->psf))) != 0)
-        return rc;
+    o->npsf = cli_strs(a, "psf", o->psf_texts, CLI_MAX_PSF);
+    if (o->npsf == CLI_MAX_PSF && cli_strs(a, "psf", o->psf_texts, CLI_MAX_PSF + 1) > CLI_MAX_PSF)
+        return cli_opt_error("psf", "given more than %d times (one per channel)", CLI_MAX_PSF);
+    for (size_t k = 0; k < o->npsf; k++)
+        if ((rc = lib_check(pp_psf_parse(o->psf_texts[k], &o->psfs[k]))) != 0)
+            return rc;
+    o->psf_text = o->psf_texts[0];
+    o->psf = o->psfs[0];
     o->cfg.psf = o->psf; /* the sampler reads it when the width is sampled */
     o->prior_given = cli_given(a, "prior");
     o->noise_auto = cli_given(a, "noise") && strcmp(cli_str(a, "noise"), "auto") == 0;
@@ -230,10 +255,10 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
     if (cli_given(a, "boundary") &&
         (rc = lib_check(pp_boundary_parse(cli_str(a, "boundary"), &o->cfg.boundary))) != 0)
         return rc;
-    if (cli_given(a, "channel") &&
+    if (cli_given(a, "channel") && strcmp(cli_str(a, "channel"), "all") != 0 &&
         (rc = lib_check(pp_channel_parse(cli_str(a, "channel"), &o->read.channel))) != 0)
         return rc;
-    return 0;
+    return cli_units_opts(a, o);
 }
 
 static int parse_counts(const cli_args *a, cli_sample_opts *o)
@@ -364,7 +389,10 @@ void cli_sample_help(FILE *fp)
           "Before sampling the frame is checked against the noise model and the PSF (e.g.\n"
           "most pixels below the offset: an error, exit 1); after it, the fit against the\n"
           "frame (standardised residuals, residual.tif): a misfit is a warning naming the\n"
-          "likely cause (README \"Checks of the data and the fit\").\n\n"
+          "likely cause (README \"Checks of the data and the fit\").\n"
+          "A multi-page TIFF needs --pages z|t|c unless its OME metadata says what the pages\n"
+          "are; channels and time points go to OUTDIR/c<k>/ and OUTDIR/t<k>/. Volumes are read\n"
+          "but not sampled yet (2-D only): --plane K samples one slice.\n\n"
           "Options:\n",
           fp);
     cli_print_options(fp, tables, cli_sample_default, NULL);

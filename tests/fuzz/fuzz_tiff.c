@@ -1,6 +1,7 @@
 /* pixpost fuzz target — the TIFF reader (pp_tiff_read, first and last page)
  * and the signature dispatch (pp_image_read) on arbitrary bytes; the checks
- * on each read are in fuzz_image.h. Cost: one page count and two or three
+ * on each read are in fuzz_image.h; then the OME-XML of the first page's
+ * description (pp_stack_probe). Cost: one page count and two or three
  * decodes per input. */
 #include "fuzz_image.h"
 
@@ -18,5 +19,10 @@ int LLVMFuzzerTestOneInput(const unsigned char *data, size_t size)
         luma.page = pages - 1;
         fuzz_read_check(pp_tiff_read, &luma);
     }
+    /* the first page's description through the OME-XML reader (stack.h) */
+    pp_ome_meta ome;
+    unsigned probed;
+    if (pp_stack_probe(fuzz_path(), &probed, &ome) != PP_OK && !pp_error_message()[0])
+        abort();
     return 0;
 }

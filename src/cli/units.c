@@ -1,0 +1,316 @@
+/* pixpost command line — what one input file holds: the frames ("units")
+ * that `pixpost sample` runs for it. A single-page grayscale file is one
+ * unit written into OUTDIR itself (as always). A multi-page TIFF's pages are
+ * z-slices, time points or channels: its OME-XML says which when present
+ * (include/pixpost/ome.h), --pages otherwise; time points go to
+ * OUTDIR/t<k>/, channels to OUTDIR/c<k>/ with the k-th --psf, and z-slices
+ * are refused (3-D sampling is not built yet) unless --plane K picks one.
+ * `--channel all` makes the R, G and B of a colour image three channels.
+ * Also the options that say so (--pages, --plane, --voxel, --channel all)
+ * and the index OUTDIR/channels.json (or frames.json) written after all
+ * units succeeded. Cost: reading the file's header and description (and
+ * page 0 once for --channel all); nothing on a hot path. */
+#include "cli.h"
+#include "pixpost/output.h"
+#include "pixpost/stack.h"
+#include <errno.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+int cli_units_opts(const cli_args *a, cli_sample_opts *o)
+{
+    o->plane = -1;
+    o->channel_all = cli_given(a, "channel") && strcmp(cli_str(a, "channel"), "all") == 0;
+    const char *p = cli_str(a, "pages");
+    if (p) {
+        if (strcmp(p, "z") != 0 && strcmp(p, "t") != 0 && strcmp(p, "c") != 0)
+            return cli_opt_error("pages",
+                                 "'%s' is not accepted (expected --pages z, t or c: z-slices of "
+                                 "one volume, time points or channels)",
+                                 p);
+        o->pages = p[0];
+    }
+    unsigned long plane = 0;
+    int rc = cli_get_ulong(a, "plane", 0, 65535, &plane);
+    rc = rc ? rc : cli_get_pair(a, "voxel", 0.0, o->voxel);
+    if (rc)
+        return rc;
+    if (cli_given(a, "plane"))
+        o->plane = (long)plane;
+    if (cli_given(a, "voxel") && !(o->voxel[0] > 0 && o->voxel[1] > 0))
+        return cli_opt_error("voxel",
+                             "'%s': both sizes must be > 0 (expected --voxel XY,Z in "
+                             "micrometres, e.g. 0.1,0.3)",
+                             cli_str(a, "voxel"));
+    if (o->channel_all && cli_given(a, "plane"))
+        return cli_error("--channel all and --plane cannot be used together (--plane picks a "
+                         "page of a multi-page TIFF; --channel all the colours of one image)");
+    return 0;
+}
+
+static int fail(char *msg, size_t len, const char *fmt, ...) CLI_PRINTF(3, 4);
+static int fail(char *msg, size_t len, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, len, fmt, ap);
+    va_end(ap);
+    return CLI_EXIT_USAGE;
+}
+
+static const char *role_words(char role)
+{
+    return role == 'z' ? "z-slices of one volume" : role == 't' ? "time points" : "channels";
+}
+
+/* The role the OME metadata gives the pages: 0 (one plane), 'z', 't', 'c'. */
+static int ome_role(const pp_ome_meta *m, const char *frame, char *role, char *msg, size_t len)
+{
+    *role = 0;
+    if (!m->present)
+        return 0;
+    if (m->nz > 1)
+        *role = 'z';
+    else if (m->nc > 1 && m->nt > 1)
+        return fail(msg, len,
+                    "%s: the OME metadata holds %zu channels at each of %zu time points; pixpost "
+                    "takes channels or time points, not both, from one file (split it by time "
+                    "point)",
+                    frame, m->nc, m->nt);
+    else if (m->nc > 1)
+        *role = 'c';
+    else if (m->nt > 1)
+        *role = 't';
+    return 0;
+}
+
+/* The role of the pages of frame: the OME metadata's, else given (--pages;
+ * 0 when not given); a given role that the metadata contradicts is an
+ * error naming both. */
+static int decide_role(char given, const pp_ome_meta *m, unsigned pages, const char *frame,
+                       char *role, int *from_ome, char *msg, size_t len)
+{
+    char ome;
+    int rc = ome_role(m, frame, &ome, msg, len);
+    if (rc)
+        return rc;
+    if (ome && given && given != ome)
+        return fail(msg, len,
+                    "%s: --pages %c conflicts with the file's OME metadata, which says its %u "
+                    "pages are %s (SizeZ %zu, SizeC %zu, SizeT %zu); drop --pages",
+                    frame, given, pages, role_words(ome), m->nz, m->nc, m->nt);
+    *role = ome ? ome : pages > 1 ? given : 0;
+    *from_ome = ome != 0;
+    return 0;
+}
+
+/* The role of the pages: the OME metadata's, --pages, or an error. */
+static int pick_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                     size_t len)
+{
+    int rc = decide_role(o->pages, &u->ome, u->pages, frame, &u->role, &u->from_ome, msg, len);
+    if (rc)
+        return rc;
+    if (u->pages > 1 && !u->role && o->plane < 0)
+        return fail(msg, len,
+                    "%s: %u pages and no OME metadata saying what they are: give --pages z "
+                    "(z-slices of one volume), --pages t (time points, each a frame) or --pages "
+                    "c (channels, each with its own --psf), or --plane K for one page",
+                    frame, u->pages);
+    return 0;
+}
+
+int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *msg, size_t len)
+{
+    pp_ome_meta ome;
+    unsigned pages;
+    *frames = 1;
+    if (pp_stack_probe(path, &pages, &ome) != PP_OK)
+        return fail(msg, len, "%s", pp_error_message());
+    *frames = pages ? pages : 1;
+    char role = 0;
+    int from_ome = 0;
+    int rc = decide_role(given, &ome, pages, path, &role, &from_ome, msg, len);
+    if (rc || pages <= 1 || role == 't')
+        return rc;
+    if (!role)
+        return fail(msg, len,
+                    "%s: %u pages and no OME metadata saying what they are: give --pages t to "
+                    "sample each page as a frame (z-slices and channels: pixpost sample --pages "
+                    "z|c on the file)",
+                    path, pages);
+    return fail(msg, len, "%s: its %u pages are %s (%s); batch samples time points only: %s", path,
+                pages, role_words(role), from_ome ? "OME metadata" : "--pages",
+                role == 'z' ? "3-D sampling is not built yet (pixpost sample --plane K takes "
+                              "one slice)"
+                            : "run pixpost sample on the file (each channel with its own --psf)");
+}
+
+static void add(cli_units *u, unsigned page, size_t psf, const char *sub, unsigned k)
+{
+    cli_unit *n = &u->unit[u->n++];
+    memset(n, 0, sizeof *n);
+    n->page = page;
+    n->psf = psf;
+    if (sub)
+        snprintf(n->sub, sizeof n->sub, "%s%u", sub, k);
+}
+
+/* --channel all: the frame must be one colour image. */
+static int plan_colour(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                       size_t len)
+{
+    static const pp_channel rgb[3] = {PP_CHANNEL_R, PP_CHANNEL_G, PP_CHANNEL_B};
+    if (u->pages > 1)
+        return fail(msg, len,
+                    "%s: --channel all takes a single-page colour image, and this file has %u "
+                    "pages (use --pages c for channels stored as pages)",
+                    frame, u->pages);
+    pp_read_options ro = o->read;
+    ro.channel = PP_CHANNEL_R;
+    pp_image *img;
+    pp_read_info info;
+    pp_status st = pp_image_read(frame, &ro, &img, &info);
+    if (st != PP_OK)
+        return fail(msg, len, "%s", pp_error_message());
+    pp_image_free(img);
+    if (!info.was_colour)
+        return fail(msg, len,
+                    "%s: --channel all needs a colour (RGB) image, and this one is "
+                    "grayscale; drop --channel",
+                    frame);
+    u->role = 'c';
+    for (unsigned k = 0; k < 3; k++) {
+        add(u, 0, o->npsf > 1 ? k : 0, "c", k);
+        u->unit[k].channel_set = 1;
+        u->unit[k].channel = rgb[k];
+    }
+    return 0;
+}
+
+static void set_voxel(const cli_sample_opts *o, cli_units *u)
+{
+    double given[3] = {o->voxel[1], o->voxel[0], o->voxel[0]}; /* --voxel XY,Z as z, y, x */
+    int any = 0;
+    for (int i = 0; i < 3; i++) {
+        double m = u->ome.present ? u->ome.voxel[i] : 0.0;
+        u->voxel[i] = m > 0 ? m : given[i] > 0 ? given[i] : NAN;
+        any |= !isnan(u->voxel[i]);
+    }
+    u->have_voxel = any;
+}
+
+/* The units of a file whose role is known (pick_role or plan_colour done). */
+static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                      size_t len)
+{
+    if (o->plane >= 0) {
+        if ((unsigned long)o->plane >= u->pages)
+            return fail(msg, len,
+                        "%s: --plane %ld asked for, but the file has %u page(s), counted from 0",
+                        frame, o->plane, u->pages);
+        u->role = 0;
+        add(u, (unsigned)o->plane, 0, NULL, 0);
+        return 0;
+    }
+    if (u->pages <= 1 || !u->role) {
+        u->role = 0;
+        add(u, 0, 0, NULL, 0);
+        return 0;
+    }
+    if (u->role == 'z')
+        return fail(msg, len,
+                    "%s: its %u pages are z-slices of one volume (%s), and 3-D sampling is not "
+                    "built yet; sample one slice with --plane K (0 to %u)%s",
+                    frame, u->pages, u->from_ome ? "OME metadata" : "--pages z", u->pages - 1,
+                    u->from_ome ? "" : ", or each slice as a separate frame with --pages t");
+    if (u->pages > CLI_MAX_UNITS)
+        return fail(msg, len,
+                    "%s: %u %s are more than the %d that sample takes; use pixpost batch "
+                    "--pages t (time points) or split the file",
+                    frame, u->pages, role_words(u->role), CLI_MAX_UNITS);
+    for (unsigned k = 0; k < u->pages; k++) {
+        unsigned page = !u->ome.present  ? k
+                        : u->role == 'c' ? (unsigned)pp_ome_page(&u->ome, 0, k, 0)
+                                         : (unsigned)pp_ome_page(&u->ome, 0, 0, k);
+        add(u, page, u->role == 'c' && o->npsf > 1 ? k : 0, u->role == 'c' ? "c" : "t", k);
+    }
+    return 0;
+}
+
+int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
+{
+    memset(u, 0, sizeof *u);
+    pp_status st = pp_stack_probe(frame, &u->pages, &u->ome);
+    if (st != PP_OK)
+        return fail(msg, len, "%s", pp_error_message());
+    set_voxel(o, u);
+    int rc = o->channel_all ? plan_colour(o, frame, u, msg, len) : pick_role(o, frame, u, msg, len);
+    if (!rc && !o->channel_all)
+        rc = plan_pages(o, frame, u, msg, len);
+    if (rc)
+        return rc;
+    size_t channels = u->role == 'c' ? u->n : 1;
+    if (o->npsf != 1 && o->npsf != channels)
+        return fail(msg, len,
+                    "--psf: given %zu times for %zu channel%s of %s: give one --psf per "
+                    "channel, in channel order, or a single --psf for all",
+                    o->npsf, channels, channels == 1 ? "" : "s", frame);
+    return 0;
+}
+
+/* The index of a multi-unit run: input, what the pages are and why, the
+ * voxel size, and per unit its folder, page, PSF and verdict. */
+int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const char *frame,
+                          char *msg, size_t len)
+{
+    char path[4200], tmp[4300];
+    snprintf(path, sizeof path, "%s/%s", o->outdir,
+             u->role == 'c' ? "channels.json" : "frames.json");
+    snprintf(tmp, sizeof tmp, "%s.part", path);
+    FILE *f = fopen(tmp, "w");
+    if (!f)
+        return fail(msg, len, "%s: cannot write: %s", path, strerror(errno));
+    static const char *const colour[] = {"r", "g", "b"};
+    fputs("{\n  \"input\": ", f);
+    pp_json_write_string(f, frame);
+    fprintf(f, ",\n  \"pages_are\": \"%s\",\n  \"decided_by\": \"%s\",\n  \"voxel_um\": ",
+            u->role == 'c' ? "channels" : "time points",
+            o->channel_all ? "--channel all"
+            : u->from_ome  ? "OME metadata"
+                           : "--pages");
+    if (u->have_voxel) {
+        fputs("{\"z\": ", f);
+        pp_json_write_number(f, u->voxel[0]);
+        fputs(", \"y\": ", f);
+        pp_json_write_number(f, u->voxel[1]);
+        fputs(", \"x\": ", f);
+        pp_json_write_number(f, u->voxel[2]);
+        fputs("}", f);
+    } else
+        fputs("null", f);
+    fprintf(f, ",\n  \"%s\": [\n", u->role == 'c' ? "channels" : "frames");
+    for (size_t k = 0; k < u->n; k++) {
+        const cli_unit *n = &u->unit[k];
+        fprintf(f, "    {\"index\": %zu, \"folder\": \"%s\", \"page\": %u, ", k, n->sub, n->page);
+        if (n->channel_set)
+            fprintf(f, "\"colour\": \"%s\", ", colour[k % 3]);
+        fputs("\"psf\": ", f);
+        pp_json_write_string(f, o->psf_texts[n->psf]);
+        fputs(", \"worst_rhat\": ", f);
+        pp_json_write_number(f, n->rhat_max);
+        fprintf(f, ", \"warnings\": %zu, \"verdict\": ", n->warnings);
+        pp_json_write_string(f, n->verdict);
+        fprintf(f, "}%s\n", k + 1 < u->n ? "," : "");
+    }
+    fputs("  ]\n}\n", f);
+    int bad = ferror(f) | (fclose(f) != 0);
+    if (bad || rename(tmp, path) != 0) {
+        remove(tmp);
+        return fail(msg, len, "%s: cannot write: %s", path, strerror(errno));
+    }
+    return 0;
+}
