@@ -16,7 +16,7 @@
  * Cost: one read, a sort of the faces, three passes.
  */
 #include "internal.h"
-#include "pixpost/tiffstack.h"
+#include "pixpost/stack.h"
 #include "psf_internal.h"
 #include <math.h>
 #include <stdlib.h>
@@ -105,7 +105,17 @@ pp_status pp_psf_bead3_make(const char *path, size_t size, size_t depth, pp_shap
     pp_shape in;
     double *v = NULL, *k = NULL;
     size_t c[3], r, rz;
-    pp_status st = pp_tiff_stack_read(path, &in, &v);
+    pp_read_options opt;
+    pp_read_options_defaults(&opt);
+    pp_stack *stk = NULL;
+    pp_status st = pp_stack_read(path, &opt, &stk, NULL);
+    if (st == PP_OK) {
+        /* a one-page file is a volume of one slice */
+        in = stk->shape.rank == 3 ? stk->shape : pp_shape_3d(1, stk->shape.n[0], stk->shape.n[1]);
+        v = stk->data;
+        stk->data = NULL;
+    }
+    pp_stack_free(stk);
     if (st == PP_OK)
         st = clean(path, &in, v, c);
     if (st == PP_OK) {

@@ -55,6 +55,18 @@ pptest.check(d < 1e-6, "3-D gaussian = numpy's sampled gaussian (%.2g of the pea
 with tifffile.TiffFile(P("g.tif")) as t:
     pptest.check(len(t.pages) == 17 and t.pages[0].dtype == np.float32,
                  "one float32 page per z-slice (%d pages)" % len(t.pages))
+    pptest.check(t.is_ome and t.series[0].axes == "ZYX",
+                 "written as an OME-TIFF volume (tifffile: is_ome %s, axes %s)"
+                 % (t.is_ome, t.series[0].axes))
+
+# the widefield kernel carries its voxel size (pixel, pixel, step) in the
+# OME-XML (tifffile reads the OME standard's PhysicalSize attributes)
+pptest.run(["psf", "widefield:na=1.2,wavelength=0.52,pixel=0.1,step=0.25,n=1.33", "-o",
+            P("w.tif"), "--quiet", "--size", "15", "--depth", "9"])
+with tifffile.TiffFile(P("w.tif")) as t:
+    px = t.ome_metadata
+    pptest.check('PhysicalSizeZ="0.25"' in px and 'PhysicalSizeX="0.1"' in px,
+                 "widefield kernel records PhysicalSizeZ 0.25 and PhysicalSizeX 0.1 um")
 
 # ---- 2. bead stack ------------------------------------------------------------
 rng = np.random.default_rng(31)

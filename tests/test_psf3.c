@@ -1,11 +1,11 @@
 /* Unit tests of the 3-D PSFs (src/psf3.c, src/psf_widefield.c,
- * src/psf_bead3.c, src/io_tiff_stack.c): spec parsing and refusals, the
+ * src/psf_bead3.c): spec parsing and refusals, the
  * refusal of 3-D specs where a 2-D PSF is needed, kernel shapes and sums,
  * the convergence of the widefield pupil quadrature, Gibson & Lanni with
- * matched indices, and the TIFF stack round trip. The comparisons with
+ * matched indices. (The stack round trip is tested in ref_stack.) The comparisons with
  * outside sources are in tests/ref_psf3.py and tests/ref_psf_widefield.py. */
 #include "pixpost/psf.h"
-#include "pixpost/tiffstack.h"
+#include "pixpost/stack.h"
 #include "psf_internal.h"
 #include "testutil.h"
 #include <math.h>
@@ -142,21 +142,6 @@ static void check_matched(void)
     free(b);
 }
 
-static void check_stack_io(void)
-{
-    char path[4096];
-    snprintf(path, sizeof path, "%s/stack.tif", pp_test_tmpdir());
-    pp_shape sh = pp_shape_3d(3, 4, 5), back;
-    double v[60], *r = NULL;
-    for (int i = 0; i < 60; i++)
-        v[i] = i * 0.5;
-    CHECK(pp_tiff_stack_write_f32(path, &sh, v) == PP_OK, "stack written");
-    CHECK(pp_tiff_stack_read(path, &back, &r) == PP_OK && pp_shape_equal(&sh, &back) &&
-              memcmp(v, r, sizeof v) == 0,
-          "stack read back: shape %zux%zux%zu and values", back.n[0], back.n[1], back.n[2]);
-    free(r);
-}
-
 int main(void)
 {
     check_parse();
@@ -164,6 +149,5 @@ int main(void)
     check_shapes();
     check_nodes();
     check_matched();
-    check_stack_io();
     return pp_test_done();
 }

@@ -11,7 +11,6 @@
 #include "pixpost/fft.h"
 #include "pixpost/spec.h"
 #include "pixpost/psf.h"
-#include "pixpost/tiffstack.h"
 #include "pixpost/noise.h"
 #include "pixpost/prior.h"
 #include "pixpost/model.h"

@@ -6,7 +6,7 @@
  * with a measured bead. Cost: one kernel evaluation (airy supersamples).
  */
 #include "cli.h"
-#include "pixpost/tiffstack.h"
+#include "pixpost/stack.h"
 #include <stdlib.h>
 #include <string.h>
 
@@ -96,8 +96,11 @@ static pp_status write_3d(const pp_psf_spec *spec, size_t size, size_t depth, co
     pp_shape shape;
     double *k = NULL;
     pp_status st = pp_psf_make3(spec, size, depth, &shape, &k);
+    /* physical sizes (z, y, x, micrometres) where the spec knows them */
+    double voxel[3] = {spec->step, spec->pixel, spec->pixel};
+    int known = spec->kind == PP_PSF_WIDEFIELD;
     if (st == PP_OK)
-        st = pp_tiff_stack_write_f32(out, &shape, k);
+        st = pp_ome_tiff_write_f32(out, &shape, k, known ? voxel : NULL, "PSF");
     if (st == PP_OK && !quiet) {
         char canon[256];
         pp_psf_format(spec, canon, sizeof canon);
