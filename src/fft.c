@@ -36,10 +36,24 @@
 #include <unistd.h>
 
 struct pp_fft {
-    size_t height, width, half;
+    pp_shape shape;             /* extents, slowest first */
+    size_t height, width, half; /* rows (all axes but the last), last axis, W/2+1 */
     fftw_plan r2c, c2r;
     pp_fft_plans source;
 };
+
+/* "W x H" or "W x H x D": sizes in messages are spoken fastest axis first,
+ * as image sizes are (unchanged from the 2-D messages). */
+static const char *dims(const pp_shape *s, char *buf, size_t len)
+{
+    if (s->rank == 3)
+        snprintf(buf, len, "%zux%zux%zu", s->n[2], s->n[1], s->n[0]);
+    else if (s->rank == 2)
+        snprintf(buf, len, "%zux%zu", s->n[1], s->n[0]);
+    else
+        snprintf(buf, len, "%zu", s->n[0]);
+    return buf;
+}
 
 static pthread_mutex_t planner_lock = PTHREAD_MUTEX_INITIALIZER;
 
@@ -59,13 +73,18 @@ static void destroy_locked(pp_fft *f)
  * f->source can tell loaded plans from newly measured ones. */
 static pp_status plan_locked(pp_fft *f, unsigned flags)
 {
-    int h = (int)f->height, w = (int)f->width;
+    int rank = f->shape.rank, n[PP_MAX_RANK];
+    for (int k = 0; k < rank; k++)
+        n[k] = (int)f->shape.n[k];
     double *r = fftw_alloc_real(f->height * f->width);
     fftw_complex *c = fftw_alloc_complex(f->height * f->half);
     f->source = flags == FFTW_MEASURE ? PP_FFT_PLANS_WISDOM : PP_FFT_PLANS_ESTIMATED;
+    /* fftw_plan_dft_r2c(rank, n, ...) is what FFTW's _2d convenience
+     * planners call (FFTW manual §4.3.3), so rank-2 plans and their wisdom
+     * are those of the earlier 2-D code. */
     if (r && c && flags == FFTW_MEASURE) {
-        f->r2c = fftw_plan_dft_r2c_2d(h, w, r, c, flags | FFTW_WISDOM_ONLY);
-        f->c2r = fftw_plan_dft_c2r_2d(h, w, c, r, flags | FFTW_WISDOM_ONLY);
+        f->r2c = fftw_plan_dft_r2c(rank, n, r, c, flags | FFTW_WISDOM_ONLY);
+        f->c2r = fftw_plan_dft_c2r(rank, n, c, r, flags | FFTW_WISDOM_ONLY);
         if (!f->r2c || !f->c2r) {
             if (f->r2c)
                 fftw_destroy_plan(f->r2c);
@@ -76,40 +95,56 @@ static pp_status plan_locked(pp_fft *f, unsigned flags)
         }
     }
     if (r && c && !f->r2c) {
-        f->r2c = fftw_plan_dft_r2c_2d(h, w, r, c, flags);
-        f->c2r = fftw_plan_dft_c2r_2d(h, w, c, r, flags);
+        f->r2c = fftw_plan_dft_r2c(rank, n, r, c, flags);
+        f->c2r = fftw_plan_dft_c2r(rank, n, c, r, flags);
     }
     fftw_free(r);
     fftw_free(c);
+    char d[96];
     if (!r || !c)
-        return pp_fail(PP_ERR_NOMEM, "out of memory for FFT buffers of %zux%zu", f->width,
-                       f->height);
+        return pp_fail(PP_ERR_NOMEM, "out of memory for FFT buffers of %s",
+                       dims(&f->shape, d, sizeof d));
     if (!f->r2c || !f->c2r)
-        return pp_fail(PP_ERR_NOMEM, "FFTW could not plan a %zux%zu transform", f->width,
-                       f->height);
+        return pp_fail(PP_ERR_NOMEM, "FFTW could not plan a %s transform",
+                       dims(&f->shape, d, sizeof d));
     return PP_OK;
 }
 
 pp_status pp_fft_create(size_t height, size_t width, int effort, pp_fft **out)
 {
+    pp_shape s = pp_shape_2d(height, width);
+    return pp_fft_create_shape(&s, effort, out);
+}
+
+pp_status pp_fft_create_shape(const pp_shape *shape, int effort, pp_fft **out)
+{
     *out = NULL;
     size_t n, half_n, bytes;
-    if (height == 0 || width == 0)
-        return pp_fail(PP_ERR_ARG, "FFT grid %zux%zu: both sides must be at least 1", width,
-                       height);
-    if (height > INT_MAX || width > INT_MAX || !pp_mul_ok(height, width, &n) ||
-        !pp_mul_ok(height, width / 2 + 1, &half_n) ||
-        !pp_mul_ok(half_n, sizeof(fftw_complex), &bytes) || n > (size_t)INT_MAX)
-        return pp_fail(PP_ERR_LIMIT, "FFT grid %zux%zu is larger than FFTW's int sizes", width,
-                       height);
+    char d[96];
+    if (shape->rank < 1 || shape->rank > PP_MAX_RANK)
+        return pp_fail(PP_ERR_ARG, "FFT grid of rank %d: the rank must be 1 to %d", shape->rank,
+                       PP_MAX_RANK);
+    for (int k = 0; k < shape->rank; k++)
+        if (shape->n[k] == 0)
+            return pp_fail(PP_ERR_ARG, "FFT grid %s: every side must be at least 1",
+                           dims(shape, d, sizeof d));
+    pp_status cs = pp_shape_count(shape, 0, &n);
+    int fits = cs == PP_OK && n <= (size_t)INT_MAX;
+    for (int k = 0; k < shape->rank; k++)
+        fits = fits && shape->n[k] <= INT_MAX;
+    half_n = fits ? pp_shape_half_count(shape) : 0;
+    if (!fits || !pp_mul_ok(half_n, sizeof(fftw_complex), &bytes))
+        return pp_fail(PP_ERR_LIMIT, "FFT grid %s is larger than FFTW's int sizes",
+                       dims(shape, d, sizeof d));
     if (effort != PP_FFT_ESTIMATE && effort != PP_FFT_MEASURE)
         return pp_fail(PP_ERR_ARG, "FFT planner effort %d is neither ESTIMATE nor MEASURE", effort);
     pp_fft *f = calloc(1, sizeof *f);
     if (!f)
         return pp_fail(PP_ERR_NOMEM, "out of memory for an FFT plan");
-    f->height = height;
-    f->width = width;
-    f->half = width / 2 + 1;
+    f->shape = *shape;
+    f->width = shape->n[shape->rank - 1];
+    f->height = n / f->width;
+    f->half = f->width / 2 + 1;
     unsigned flags = effort == PP_FFT_MEASURE ? FFTW_MEASURE : FFTW_ESTIMATE;
     pthread_mutex_lock(&planner_lock);
     pp_status st = plan_locked(f, flags);
@@ -130,6 +165,10 @@ void pp_fft_free(pp_fft *f)
     pthread_mutex_unlock(&planner_lock);
 }
 
+pp_shape pp_fft_shape(const pp_fft *f)
+{
+    return f->shape;
+}
 size_t pp_fft_height(const pp_fft *f)
 {
     return f->height;

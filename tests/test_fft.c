@@ -1,8 +1,8 @@
 /* Unit tests of src/fft.c: the forward transform against a direct DFT sum,
  * the round-trip scaling c2r(r2c(x)) = H*W*x, that forward leaves its input
  * alone, good sizes, the padded-grid rule, wisdom files (where plans come
- * from, merged saves), refusals, and planning from several
- * threads at once. */
+ * from, merged saves), refusals, planning from several threads at once,
+ * and rank-3 (and rank-1) plans against the DFT's definition. */
 #include "pixpost/fft.h"
 #include "testutil.h"
 #include <complex.h>
@@ -219,6 +219,77 @@ static void check_threads(void)
     CHECK(fails == 0, "4 threads planning and executing at once: %d failures", fails);
 }
 
+/* A rank-3 grid (and rank 1) against the DFT's definition (FFTW manual
+ * §4.8.1: Y[k] = sum_j X[j] exp(-2 pi i sum_a j_a k_a / n_a), unnormalised),
+ * with unequal odd and even sides so an axis swap or a wrong halved axis
+ * shows, and the round trip c2r(r2c(x)) = N x. Tolerance 1e-10 of the
+ * input's scale: a few hundred terms of double rounding. */
+static void check_rank3(size_t d, size_t h, size_t w)
+{
+    pp_shape sh = pp_shape_3d(d, h, w);
+    pp_fft *f = NULL;
+    CHECK(pp_fft_create_shape(&sh, PP_FFT_ESTIMATE, &f) == PP_OK, "create %zux%zux%zu", w, h, d);
+    if (!f)
+        return;
+    pp_shape back = pp_fft_shape(f);
+    size_t hw = pp_fft_half_width(f), n = d * h * w;
+    CHECK(pp_shape_equal(&back, &sh) && pp_fft_height(f) == d * h && pp_fft_width(f) == w &&
+              hw == w / 2 + 1,
+          "rank-3 plan keeps rows x last axis: rows %zu, width %zu", pp_fft_height(f),
+          pp_fft_width(f));
+    double *x = pp_fft_alloc_real(n), *y = pp_fft_alloc_real(n);
+    pp_complex *c = pp_fft_alloc_complex(d * h * hw);
+    unsigned long long seed = 99;
+    for (size_t i = 0; i < n; i++)
+        x[i] = lcg(&seed);
+    pp_fft_forward(f, x, c);
+    double err = 0.0;
+    for (size_t kz = 0; kz < d; kz++)
+        for (size_t ky = 0; ky < h; ky++)
+            for (size_t kx = 0; kx < hw; kx++) {
+                pp_complex sum = 0;
+                for (size_t z = 0; z < d; z++)
+                    for (size_t yy = 0; yy < h; yy++)
+                        for (size_t xx = 0; xx < w; xx++) {
+                            double ph = TWO_PI * ((double)(kz * z % d) / d +
+                                                  (double)(ky * yy % h) / h +
+                                                  (double)(kx * xx % w) / w);
+                            sum += x[(z * h + yy) * w + xx] * cexp(-I * ph);
+                        }
+                err = fmax(err, cabs(c[(kz * h + ky) * hw + kx] - sum));
+            }
+    CHECK(err < 1e-10, "rank-3 r2c = direct DFT (max error %.3g)", err);
+    pp_fft_inverse(f, c, y);
+    double rt = 0.0;
+    for (size_t i = 0; i < n; i++)
+        rt = fmax(rt, fabs(y[i] / (double)n - x[i]));
+    CHECK(rt < 1e-12, "rank-3 round trip (max error %.3g)", rt);
+    pp_fft_free_buffer(x);
+    pp_fft_free_buffer(y);
+    pp_fft_free_buffer(c);
+    pp_fft_free(f);
+}
+
+/* Rank 1 and the refusals of the shape form. */
+static void check_shape_forms(void)
+{
+    pp_shape one = {.rank = 1, .n = {9, 1, 1}};
+    pp_fft *f = NULL;
+    CHECK(pp_fft_create_shape(&one, PP_FFT_ESTIMATE, &f) == PP_OK && pp_fft_height(f) == 1 &&
+              pp_fft_half_width(f) == 5,
+          "rank 1: one row of 9, 5 half-spectrum entries");
+    pp_fft_free(f);
+    pp_shape bad = {.rank = 4, .n = {2, 2, 2}};
+    f = (pp_fft *)1;
+    CHECK(pp_fft_create_shape(&bad, PP_FFT_ESTIMATE, &f) == PP_ERR_ARG && f == NULL,
+          "rank 4 is refused");
+    pp_shape zero = pp_shape_3d(4, 0, 4);
+    CHECK(pp_fft_create_shape(&zero, PP_FFT_ESTIMATE, &f) == PP_ERR_ARG, "a zero side is refused");
+    pp_shape big = pp_shape_3d((size_t)1 << 12, (size_t)1 << 12, (size_t)1 << 10);
+    CHECK(pp_fft_create_shape(&big, PP_FFT_ESTIMATE, &f) == PP_ERR_LIMIT,
+          "a rank-3 grid beyond int sizes is refused");
+}
+
 int main(void)
 {
     check_grid(6, 10, PP_FFT_ESTIMATE);
@@ -226,6 +297,9 @@ int main(void)
     check_grid(1, 8, PP_FFT_ESTIMATE);
     check_grid(5, 1, PP_FFT_ESTIMATE);
     check_grid(12, 14, PP_FFT_MEASURE);
+    check_rank3(3, 4, 6);
+    check_rank3(4, 5, 7); /* odd last axis: no Nyquist plane */
+    check_shape_forms();
     check_good_size();
     check_good_grid();
     check_wisdom();

@@ -18,6 +18,7 @@
 
 #include <complex.h>
 #include <stddef.h>
+#include "pixpost/shape.h"
 #include "pixpost/status.h"
 
 typedef double _Complex pp_complex;
@@ -34,11 +35,21 @@ typedef enum pp_fft_plans {
     PP_FFT_PLANS_WISDOM
 } pp_fft_plans;
 
+/* Plans of any rank 1..3 (FFTW's rank-n r2c/c2r): a real grid of the given
+ * shape (slowest axis first, include/pixpost/shape.h) and its half
+ * spectrum, the last axis halved to n[rank-1]/2 + 1 (FFTW manual §4.3.4).
+ * Both keep the layout "rows x last axis": a rank-3 grid is n[0]*n[1] rows
+ * of n[2] reals, its spectrum n[0]*n[1] rows of n[2]/2 + 1 entries.
+ * PP_ERR_ARG for a bad rank or a zero side, PP_ERR_LIMIT past FFTW's int
+ * sizes. */
+pp_status pp_fft_create_shape(const pp_shape *shape, int effort, pp_fft **out);
+/* The rank-2 case: pp_fft_create_shape of pp_shape_2d(height, width). */
 pp_status pp_fft_create(size_t height, size_t width, int effort, pp_fft **out);
 void pp_fft_free(pp_fft *f);
 
-size_t pp_fft_height(const pp_fft *f);
-size_t pp_fft_width(const pp_fft *f);
+pp_shape pp_fft_shape(const pp_fft *f);
+size_t pp_fft_height(const pp_fft *f);     /* rows: product of all axes but the last */
+size_t pp_fft_width(const pp_fft *f);      /* W, the last (fastest) axis */
 size_t pp_fft_half_width(const pp_fft *f); /* W/2 + 1 */
 pp_fft_plans pp_fft_plans_source(const pp_fft *f);
 
