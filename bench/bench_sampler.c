@@ -33,7 +33,7 @@
 static pp_image *scene(size_t h, size_t w, const pp_image *psf)
 {
     pp_image *x, *y;
-    if (pp_image_create(w, h, &x) != PP_OK)
+    if (pp_image_create(h, w, &x) != PP_OK)
         return NULL;
     for (size_t r = 0; r < h; r++)
         for (size_t c = 0; c < w; c++)

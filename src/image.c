@@ -5,7 +5,7 @@
 #include "internal.h"
 #include "pixpost/image.h"
 
-pp_status pp_image_create(size_t width, size_t height, pp_image **out)
+pp_status pp_image_create(size_t height, size_t width, pp_image **out)
 {
     *out = NULL;
     if (width == 0 || height == 0)
@@ -31,7 +31,7 @@ pp_status pp_image_create(size_t width, size_t height, pp_image **out)
 
 pp_status pp_image_clone(const pp_image *src, pp_image **out)
 {
-    pp_status st = pp_image_create(src->width, src->height, out);
+    pp_status st = pp_image_create(src->height, src->width, out);
     if (st == PP_OK)
         memcpy((*out)->data, src->data, src->width * src->height * sizeof(double));
     return st;

@@ -133,7 +133,7 @@ static pp_status png_decode(png_structp png, png_infop pi, FILE *fp, const char 
     if (st != PP_OK)
         return st;
     pp_image *im = NULL;
-    st = pp_image_create(p.width, p.height, &im);
+    st = pp_image_create(p.height, p.width, &im);
     if (st != PP_OK)
         return pp_fail(st, "%s: %s", path, pp_error_message());
     img = im;

@@ -140,7 +140,7 @@ pp_status pp_stack_page(const pp_stack *s, size_t k, pp_image **out)
     size_t h = s->shape.n[s->shape.rank - 2], w = s->shape.n[s->shape.rank - 1];
     if (k >= pages)
         return pp_fail(PP_ERR_ARG, "page %zu asked for, but the stack has %zu page(s)", k, pages);
-    pp_status st = pp_image_create(w, h, out);
+    pp_status st = pp_image_create(h, w, out);
     if (st == PP_OK)
         memcpy((*out)->data, s->data + k * w * h, w * h * sizeof *s->data);
     return st;

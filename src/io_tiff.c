@@ -349,7 +349,7 @@ static pp_status tiff_decode(TIFF *t, const char *path, const pp_read_options *o
     if (st != PP_OK)
         return st;
     pp_image *img;
-    st = pp_image_create(L.width, L.height, &img);
+    st = pp_image_create(L.height, L.width, &img);
     if (st != PP_OK)
         return pp_fail(st, "%s: %s", path, pp_error_message());
     st = rgba ? tiff_read_rgba(t, path, &L, img, m) : tiff_read_blocks(t, path, &L, opt, img, m);

@@ -143,7 +143,7 @@ pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b, p
         hg = gs.n[0];
         wg = gs.n[1];
     }
-    if ((st = pp_image_create(x->width, x->height, out)) != PP_OK)
+    if ((st = pp_image_create(x->height, x->width, out)) != PP_OK)
         return st;
     st = blur_on_grid(x, psf, hg, wg, *out);
     if (st != PP_OK) {

@@ -292,7 +292,7 @@ pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out)
     if (!p)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the predictive check");
     pp_image *ax = NULL;
-    pp_status st = pp_image_create(y->width, y->height, &p->residual);
+    pp_status st = pp_image_create(y->height, y->width, &p->residual);
     if (st == PP_OK)
         st = pp_model_blur(m, in->psf, in->boundary, &ax);
     if (st == PP_OK) {

@@ -201,7 +201,7 @@ static pp_status width_figure(page *pg)
 {
     const pp_report_input *in = pg->in;
     pp_image *w = NULL;
-    pp_status st = pp_image_create(in->lo->width, in->lo->height, &w);
+    pp_status st = pp_image_create(in->lo->height, in->lo->width, &w);
     if (st != PP_OK)
         return st;
     for (size_t i = 0; i < w->width * w->height; i++)

@@ -677,7 +677,7 @@ static pp_status pool_estimates(pp_sampler *s)
 {
     pp_image **out[] = {&s->mean, &s->sd, &s->lo, &s->hi};
     for (int i = 0; i < 4; i++) {
-        pp_status st = pp_image_create(s->width, s->height, out[i]);
+        pp_status st = pp_image_create(s->height, s->width, out[i]);
         if (st != PP_OK)
             return st;
     }

@@ -259,9 +259,9 @@ static pp_status pixel_maps(pp_sampler *s)
     double *hm = malloc(2 * nc * sizeof *hm);
     pp_status st = hm ? PP_OK : pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
     if (st == PP_OK)
-        st = pp_image_create(s->width, s->height, &s->rhat_map);
+        st = pp_image_create(s->height, s->width, &s->rhat_map);
     if (st == PP_OK && s->maps_final) /* a round's check needs the R-hat map only */
-        st = pp_image_create(s->width, s->height, &s->mcse_map);
+        st = pp_image_create(s->height, s->width, &s->mcse_map);
     /* The recorded field may be a conditional mean (gibbs, mtc): then the
      * draws' within-chain variance adds the mean conditional variance. */
     double condvar = 0, kept = 0;

@@ -28,7 +28,7 @@ static void print_image(const pp_image *img)
 
 static int read_image(size_t w, size_t h, pp_image **out)
 {
-    if (pp_image_create(w, h, out) != PP_OK)
+    if (pp_image_create(h, w, out) != PP_OK)
         return 0;
     for (size_t i = 0; i < w * h; i++)
         if (scanf("%lf", &(*out)->data[i]) != 1)
@@ -73,7 +73,7 @@ static int do_noise(const char *spec, double mu, size_t n, unsigned long long se
 {
     pp_noise_spec ns;
     pp_image *y = NULL;
-    if (pp_noise_parse(spec, &ns) != PP_OK || pp_image_create(n, 1, &y) != PP_OK)
+    if (pp_noise_parse(spec, &ns) != PP_OK || pp_image_create(1, n, &y) != PP_OK)
         return fail(spec);
     for (size_t i = 0; i < n; i++)
         y->data[i] = mu;

@@ -46,7 +46,7 @@ static double blobs(double r, double c)
 static pp_status make_images(pp_image *im[5], pp_rng *rng)
 {
     for (int i = 0; i < 5; i++) {
-        pp_status st = pp_image_create(W, H, &im[i]);
+        pp_status st = pp_image_create(H, W, &im[i]);
         if (st != PP_OK)
             return st;
     }

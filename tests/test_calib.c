@@ -52,7 +52,7 @@ static void test_series_by_hand(void)
     CHECK(st.frames == 3 && st.pixels == 4 && st.saturated == 0, "counts");
     /* a frame of another size is refused and names both sizes */
     pp_image *big = NULL;
-    pp_image_create(3, 2, &big);
+    pp_image_create(2, 3, &big);
     CHECK(pp_series_add(s, big) == PP_ERR_ARG && strstr(pp_error_message(), "3x2") &&
               strstr(pp_error_message(), "2x2"),
           "size mismatch: %s", pp_error_message());
@@ -186,7 +186,7 @@ static void test_frame_fit(void)
     CHECK(pp_noise_from_frame_fit(&fit, &n) == 0 && n.kind == PP_NOISE_GAUSSIAN && !n.sigma_set,
           "fallback: gaussian with its variance sampled");
     pp_image *small = NULL;
-    pp_image_create(12, 40, &small);
+    pp_image_create(40, 12, &small);
     CHECK(pp_noise_fit_frame(small, NULL, &fit) == PP_ERR_ARG &&
               strstr(pp_error_message(), "16x16"),
           "small: %s", pp_error_message());

@@ -24,7 +24,7 @@
 static pp_image *filled(size_t w, size_t h, double v)
 {
     pp_image *im = NULL;
-    pp_image_create(w, h, &im);
+    pp_image_create(h, w, &im);
     for (size_t i = 0; i < w * h; i++)
         im->data[i] = v;
     return im;
@@ -88,7 +88,7 @@ static void test_ppcheck(void)
     pp_image *psf = NULL, *x = NULL, *ax = NULL;
     pp_psf_parse("gaussian:sigma=1", &ps);
     pp_psf_make(&ps, 0, &psf); /* 9x9 */
-    pp_image_create(w, h, &x);
+    pp_image_create(h, w, &x);
     for (size_t i = 0; i < w * h; i++)
         x->data[i] = 50 + 30 * sin(0.3 * (double)i);
     pp_model_blur(x, psf, PP_BOUNDARY_PERIODIC, &ax);

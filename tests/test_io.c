@@ -140,7 +140,7 @@ static int leftovers(const char *d)
 static void test_png16_round_trip(void)
 {
     pp_image *img, *back;
-    pp_image_create(7, 5, &img);
+    pp_image_create(5, 7, &img);
     for (size_t i = 0; i < 35; i++)
         img->data[i] = (double)((i * 1931) % 65536);
     img->data[3] = 65535, img->data[4] = 0;
@@ -182,7 +182,7 @@ static void test_png16_round_trip(void)
 static void test_tiff_f32_round_trip(void)
 {
     pp_image *img, *back;
-    pp_image_create(9, 4, &img);
+    pp_image_create(4, 9, &img);
     for (size_t i = 0; i < 36; i++)
         img->data[i] = (double)(float)(1e3 * sin(0.7 * (double)i) - 17.0);
     img->data[1] = (double)1e-30f, img->data[2] = -0.0;

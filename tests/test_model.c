@@ -18,7 +18,7 @@ static double lcg(unsigned long long *s)
 static pp_image *random_image(size_t w, size_t h, unsigned long long seed)
 {
     pp_image *img = NULL;
-    pp_image_create(w, h, &img);
+    pp_image_create(h, w, &img);
     for (size_t i = 0; i < w * h; i++)
         img->data[i] = lcg(&seed);
     return img;
@@ -70,7 +70,7 @@ static void check_delta(void)
     pp_psf_spec s = {.kind = PP_PSF_GAUSSIAN, .sigma = 1.3};
     pp_image *k = NULL, *x = NULL, *y = NULL;
     pp_psf_make(&s, 0, &k); /* 13 x 13 */
-    pp_image_create(31, 24, &x);
+    pp_image_create(24, 31, &x);
     x->data[10 * 31 + 17] = 1.0;
     for (int b = 0; b < 2; b++) {
         CHECK(pp_model_blur(x, k, (pp_boundary)b, &y) == PP_OK, "delta blurred");
@@ -176,7 +176,7 @@ static void check_moments(const char *spec, double mu, double mean, double var, 
     pp_noise_spec ns;
     CHECK(pp_noise_parse(spec, &ns) == PP_OK, "noise %s parsed: %s", spec, pp_error_message());
     pp_image *y = NULL;
-    pp_image_create(n, 1, &y);
+    pp_image_create(1, n, &y);
     for (size_t i = 0; i < n; i++)
         y->data[i] = mu;
     pp_rng rng;

@@ -15,7 +15,7 @@
 static pp_image *frame(void)
 {
     pp_image *y = NULL;
-    pp_image_create(20, 24, &y);
+    pp_image_create(24, 20, &y);
     pp_rng r;
     pp_rng_seed(&r, 3, 0);
     for (size_t i = 0; i < 24; i++)

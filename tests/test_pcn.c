@@ -19,7 +19,7 @@
 static pp_image *photon_frame(const pp_image *psf, double level, double gain, double offset)
 {
     pp_image *truth, *y = NULL;
-    pp_image_create(W, H, &truth);
+    pp_image_create(H, W, &truth);
     for (size_t r = 0; r < H; r++)
         for (size_t c = 0; c < W; c++)
             truth->data[r * W + c] = level * (1.0 + 0.6 * sin(0.5 * (double)r) * cos(0.4 * (double)c));
@@ -146,7 +146,7 @@ static void camera_read0_is_poisson(const pp_image *psf, pp_sampler_kind kind, p
 static void gaussian_closed_form(const pp_image *psf, pp_sampler_kind kind)
 {
     pp_image *truth, *y = NULL;
-    pp_image_create(W, H, &truth);
+    pp_image_create(H, W, &truth);
     for (size_t i = 0; i < H * W; i++)
         truth->data[i] = 5.0 + 2.0 * sin(0.3 * (double)i);
     pp_noise_spec nz;

@@ -223,7 +223,7 @@ static void check_refusals(void)
     CHECK(pp_psf_check(k, 10, 10) == PP_ERR_ARG && strstr(pp_error_message(), "odd"),
           "even PSF refused");
     pp_image_free(k);
-    pp_image_create(5, 3, &k);
+    pp_image_create(3, 5, &k);
     k->data[5] = 1;
     CHECK(pp_psf_check(k, 10, 10) == PP_ERR_ARG, "non-square PSF refused");
     pp_image_free(k);
@@ -236,7 +236,7 @@ static void check_file(void)
     snprintf(path, sizeof path, "%s/bead.tif", pp_test_tmpdir());
     snprintf(flat, sizeof flat, "%s/flat.tif", pp_test_tmpdir());
     pp_image *img = NULL, *k = NULL;
-    pp_image_create(20, 16, &img);
+    pp_image_create(16, 20, &img);
     for (size_t i = 0; i < 16; i++)
         for (size_t j = 0; j < 20; j++)
             img->data[i * 20 + j] =
@@ -315,7 +315,7 @@ typedef struct blob {
 static pp_image *spots_image(size_t w, size_t h, const blob *b, size_t nb, double noise)
 {
     pp_image *img = NULL;
-    pp_image_create(w, h, &img);
+    pp_image_create(h, w, &img);
     uint64_t x = 88172645463325252ull;
     for (size_t i = 0; i < h; i++)
         for (size_t j = 0; j < w; j++) {

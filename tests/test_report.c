@@ -35,7 +35,7 @@ static void synth_make(synth *s, size_t w, size_t h, size_t kept, uint64_t seed)
     pp_rng rng;
     pp_rng_seed(&rng, seed, 0);
     for (int i = 0; i < 5; i++)
-        pp_image_create(w, h, &s->im[i]);
+        pp_image_create(h, w, &s->im[i]);
     for (size_t i = 0; i < w * h; i++) {
         s->im[0]->data[i] = 100 + 10 * pp_rng_normal(&rng);
         s->im[1]->data[i] = 100 + 5 * pp_rng_normal(&rng);
@@ -170,7 +170,7 @@ static void test_refusals(const char *dir)
     CHECK(stat(missing, &sb) != 0, "the missing folder was created");
     snprintf(path, sizeof path, "%s/bad.html", dir);
     pp_image *other;
-    pp_image_create(9, 6, &other);
+    pp_image_create(6, 9, &other);
     s.in.sd = other;
     CHECK(pp_report_write(path, &s.in) == PP_ERR_ARG, "size mismatch accepted");
     s.in.sd = s.im[2];

@@ -21,7 +21,7 @@ int main(void)
 {
     const size_t h = 18, w = 14;
     pp_image *y = NULL, *k = NULL;
-    pp_image_create(w, h, &y);
+    pp_image_create(h, w, &y);
     for (size_t i = 0; i < h * w; i++)
         y->data[i] = 10 + (double)(i % 7) + 0.5 * (double)(i % 3);
     pp_psf_spec sp;

@@ -37,7 +37,7 @@
 static pp_image *frame(size_t w, size_t h, int photons)
 {
     pp_image *img;
-    pp_image_create(w, h, &img);
+    pp_image_create(h, w, &img);
     pp_rng r;
     pp_rng_seed(&r, 5, 0);
     for (size_t i = 0; i < w * h; i++) {

@@ -108,7 +108,7 @@ static void priors(void)
 static pp_image *test_frame(size_t w, size_t h)
 {
     pp_image *img;
-    pp_image_create(w, h, &img);
+    pp_image_create(h, w, &img);
     pp_rng r;
     pp_rng_seed(&r, 3, 0);
     for (size_t i = 0; i < w * h; i++)

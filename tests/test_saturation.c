@@ -12,7 +12,7 @@
 static pp_image *ramp(size_t w, size_t h, unsigned m)
 {
     pp_image *f = NULL;
-    if (pp_image_create(w, h, &f) != PP_OK)
+    if (pp_image_create(h, w, &f) != PP_OK)
         return NULL;
     for (size_t i = 0; i < w * h; i++)
         f->data[i] = (double)(i % m);

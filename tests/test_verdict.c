@@ -112,7 +112,7 @@ static char *page(const char *dir, const char *name, const pp_convergence *cv,
                   const char *const *warn, const pp_warning_part *parts, size_t nw)
 {
     pp_image *img = NULL;
-    pp_image_create(8, 6, &img);
+    pp_image_create(6, 8, &img);
     for (size_t i = 0; i < 48; i++)
         img->data[i] = (double)i;
     char verdict[PP_VERDICT_MAX] = "";

@@ -21,9 +21,11 @@ typedef struct pp_image {
  * readers take a per-call limit; this is only the default. */
 #define PP_DEFAULT_MAX_PIXELS ((size_t)1 << 28)
 
-/* A zero-filled width x height image. Fails with PP_ERR_ARG for a zero size
- * and PP_ERR_LIMIT when width*height*sizeof(double) overflows. */
-pp_status pp_image_create(size_t width, size_t height, pp_image **out);
+/* A zero-filled image of height rows and width columns (slowest axis
+ * first, as everywhere: include/pixpost/shape.h; messages still say sizes
+ * as width x height). Fails with PP_ERR_ARG for a zero size and
+ * PP_ERR_LIMIT when width*height*sizeof(double) overflows. */
+pp_status pp_image_create(size_t height, size_t width, pp_image **out);
 
 /* A deep copy of src. */
 pp_status pp_image_clone(const pp_image *src, pp_image **out);
