@@ -6,6 +6,12 @@
  * flags: "--thin", "--iters") gives a table in pp_sampler_config's
  * setting_names, and the same messages (also the warnings kept in the
  * results and summary.json) then use those names.
+ *
+ * The same table, passed as `names` (NULL: the library's words), serves
+ * the checks of the data and of the fit: pp_datacheck_run's argument and
+ * pp_ppcheck_input's setting_names (pp_ppcheck_sampler takes the
+ * sampler's). A message names a setting only through pp_setting_name; no
+ * text is rewritten afterwards.
  */
 #ifndef PIXPOST_SETTING_H
 #define PIXPOST_SETTING_H
@@ -25,6 +31,7 @@ typedef enum pp_setting {
     PP_SET_PSF,         /* cfg.psf */
     PP_SET_BOUNDARY,    /* cfg.boundary */
     PP_SET_BACKGROUND,  /* cfg.background */
+    PP_SET_NOISE,       /* cfg.noise (also pp_datacheck_run, pp_ppcheck_input) */
     PP_SET_COUNT
 } pp_setting;
 
@@ -32,7 +39,7 @@ typedef enum pp_setting {
  * not NULL, else the library's word ("sampler", "chains", "burn-in",
  * "iterations", "thinning", "time cap", "iteration cap", "credible
  * level", "lambda hyperprior", "delta hyperprior", "prior", "PSF",
- * "boundary", "background"); "setting" for k out of
+ * "boundary", "background", "noise model"); "setting" for k out of
  * range. names, when given, has PP_SET_COUNT entries. Static text or the
  * caller's. */
 const char *pp_setting_name(const char *const *names, pp_setting k);
