@@ -10,7 +10,8 @@
  * The same table, passed as `names` (NULL: the library's words), serves
  * the checks of the data and of the fit: pp_datacheck_run's argument and
  * pp_ppcheck_input's setting_names (pp_ppcheck_sampler takes the
- * sampler's). A message names a setting only through pp_setting_name; no
+ * sampler's), and the parsers of a setting's text (pp_sampler_kind_parse,
+ * pp_boundary_parse, pp_channel_parse). A message names a setting only through pp_setting_name; no
  * text is rewritten afterwards.
  */
 #ifndef PIXPOST_SETTING_H
@@ -32,6 +33,7 @@ typedef enum pp_setting {
     PP_SET_BOUNDARY,    /* cfg.boundary */
     PP_SET_BACKGROUND,  /* cfg.background */
     PP_SET_NOISE,       /* cfg.noise (also pp_datacheck_run, pp_ppcheck_input) */
+    PP_SET_CHANNEL,     /* pp_read_options.channel (pp_channel_parse) */
     PP_SET_COUNT
 } pp_setting;
 
@@ -39,7 +41,7 @@ typedef enum pp_setting {
  * not NULL, else the library's word ("sampler", "chains", "burn-in",
  * "iterations", "thinning", "time cap", "iteration cap", "credible
  * level", "lambda hyperprior", "delta hyperprior", "prior", "PSF",
- * "boundary", "background", "noise model"); "setting" for k out of
+ * "boundary", "background", "noise model", "channel"); "setting" for k out of
  * range. names, when given, has PP_SET_COUNT entries. Static text or the
  * caller's. */
 const char *pp_setting_name(const char *const *names, pp_setting k);

@@ -19,4 +19,5 @@ const char *const cli_flag_names[PP_SET_COUNT] = {
     [PP_SET_BOUNDARY] = "--boundary",
     [PP_SET_BACKGROUND] = "--background",
     [PP_SET_NOISE] = "--noise",
+    [PP_SET_CHANNEL] = "--channel",
 };
