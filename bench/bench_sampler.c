@@ -93,8 +93,8 @@ int main(int argc, char **argv)
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0; /* exactly burn + iters */
-    if (pp_sampler_kind_parse(argv[1], &cfg.kind) != PP_OK ||
-        pp_boundary_parse(opt(argc, argv, "boundary", "periodic"), &cfg.boundary) != PP_OK ||
+    if (pp_sampler_kind_parse(argv[1], NULL, &cfg.kind) != PP_OK ||
+        pp_boundary_parse(opt(argc, argv, "boundary", "periodic"), NULL, &cfg.boundary) != PP_OK ||
         pp_prior_parse(opt(argc, argv, "prior", "gmrf2"), &cfg.prior) != PP_OK)
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
     size_t h = strtoul(argv[2], NULL, 10), w = strtoul(argv[3], NULL, 10);

@@ -3,6 +3,7 @@
  * Workload: one frame per run, before the sampler is made. Cost: one copy
  * of the finite pixels and one qsort; the rest is a pass or two. */
 #include "pixpost/datacheck.h"
+#include "pixpost/setting.h"
 #include "internal.h"
 #include "stats.h"
 #include <math.h>
@@ -49,8 +50,10 @@ static const char *model_name(const pp_noise_spec *n)
 
 /* The offset checks of the photon models (datacheck.h: below_offset,
  * impossible, dark_level); v holds the sorted finite pixels. */
-static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double *v, size_t cnt)
+static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double *v, size_t cnt,
+                          const char *const *names)
 {
+    const char *noise = pp_setting_name(names, PP_SET_NOISE);
     double g = n->gain, o = n->offset, r = n->kind == PP_NOISE_CAMERA ? n->read : 0.0;
     double s = sqrt(g * g * r * r + 1.0 / 12.0), low = o - 5 * s - 1;
     size_t below = 0, imposs = 0;
@@ -69,62 +72,66 @@ static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double 
     double limit = 0.5 + fmax(0.1, 2.0 / sqrt(nn));
     if (d->share_below_offset > limit) {
         add(d, PP_CHECK_ERROR, "below_offset",
-            "%.1f %% of the observed pixels are below the offset %g ADU of --noise %s, where "
+            "%.1f %% of the observed pixels are below the offset %g ADU of %s %s, where "
             "at most half can be under that model (a pixel without light reads the offset "
             "plus read noise of %.3g ADU sd): the offset is too high. The darkest 1 %% of "
             "the frame (%.6g ADU) point to an offset of about %.0f: give offset=%.0f in "
-            "--noise (or measure it from dark frames)",
-            100 * d->share_below_offset, o, m, s, d->q01, d->offset_suggested, d->offset_suggested);
+            "%s (or measure it from dark frames)",
+            100 * d->share_below_offset, o, noise, m, s, d->q01, d->offset_suggested,
+            d->offset_suggested, noise);
     } else if (imposs) {
         int err = d->share_impossible > 0.01;
         add(d, err ? PP_CHECK_ERROR : PP_CHECK_WARNING, "impossible",
             "%zu of the observed pixels (%.2f %%, lowest %.6g) are below %.6g ADU, the offset "
             "%g minus 5 read-noise sd (%.3g ADU) and 1 ADU of rounding: impossible under "
-            "--noise %s%s",
-            imposs, 100 * d->share_impossible, v[0], low, o, s, m,
+            "%s %s%s%s%s%s%s",
+            imposs, 100 * d->share_impossible, v[0], low, o, s, noise, m,
             err ? "; the frame is not in raw camera units (background-subtracted, "
                   "normalised or negative values), or the offset is too high, or the gain "
                   "or read noise too small (an inverted gain: data sheets print electrons "
                   "per ADU, give that as e_per_adu=): give the camera's real offset, gain "
-                  "and read noise in --noise, or use --noise gaussian for processed data"
+                  "and read noise in "
                 : "; they look like cold or defect pixels: mask them, or check the offset, "
-                  "gain and read noise");
+                  "gain and read noise",
+            err ? noise : "", err ? ", or use " : "", err ? noise : "",
+            err ? " gaussian for processed data" : "");
     }
     double far = fmax(10 * s, 10 * g);
     if (d->q01 > o + far)
         add(d, PP_CHECK_WARNING, "dark_level",
             "the darkest 1 %% of the pixels read %.6g ADU or more, %.3g ADU above the offset "
-            "%g of --noise %s (more than max(10 read-noise sd, 10 photons)): if the frame "
+            "%g of %s %s (more than max(10 read-noise sd, 10 photons)): if the frame "
             "has areas without light the offset is too low (they would read about the "
             "offset); check it against dark frames",
-            d->q01, d->q01 - o, o, m);
+            d->q01, d->q01 - o, o, noise, m);
 }
 
 /* psf_size (datacheck.h). */
-static void size_checks(pp_datacheck *d, const pp_image *frame, const pp_image *psf, pp_boundary b)
+static void size_checks(pp_datacheck *d, const pp_image *frame, const pp_image *psf, pp_boundary b,
+                        const char *const *names)
 {
+    const char *bname = pp_setting_name(names, PP_SET_BOUNDARY);
     size_t h = frame->height, w = frame->width, kh = psf->height, kw = psf->width;
     if (h < kh || w < kw) {
         add(d, PP_CHECK_ERROR, "psf_size",
             "the frame (%zux%zu pixels) is smaller than the PSF kernel (%zux%zu): the "
             "kernel must fit in the frame; use a larger frame (at least %zux%zu, better "
-            "twice that) or check the --psf units (sigma in pixels; airy pixel= in um)",
-            w, h, kw, kh, kw, kh);
+            "twice that) or check the %s units (sigma in pixels; airy pixel= in um)",
+            w, h, kw, kh, kw, kh, pp_setting_name(names, PP_SET_PSF));
     } else if (h < 2 * kh || w < 2 * kw) {
         add(d, PP_CHECK_WARNING, "psf_size",
             "the frame (%zux%zu pixels) is less than twice the PSF kernel (%zux%zu) "
-            "across: most pixels lie within the PSF's reach of an edge, where %s, so the "
+            "across: most pixels lie within the PSF's reach of an edge, where %s (%s %s), so the "
             "estimate and its bounds rest largely on the prior; use a frame of at least "
             "%zux%zu",
             w, h, kw, kh,
-            b == PP_BOUNDARY_PAD ? "the scene outside the frame is unknown (--boundary pad)"
-                                 : "the frame is assumed to wrap around (--boundary periodic)",
-            2 * kw, 2 * kh);
+            b == PP_BOUNDARY_PAD ? "the scene outside the frame is unknown" : "the frame is assumed to wrap around",
+            bname, b == PP_BOUNDARY_PAD ? "pad" : "periodic", 2 * kw, 2 * kh);
     }
 }
 
 pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, const pp_image *psf,
-                           pp_boundary b, pp_datacheck *out)
+                           pp_boundary b, const char *const *names, pp_datacheck *out)
 {
     memset(out, 0, sizeof *out);
     out->dark_sd = out->share_below_offset = out->share_impossible = NAN;
@@ -141,10 +148,10 @@ pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, co
         free(v);
         return PP_OK;
     }
-    size_checks(out, frame, psf, b);
+    size_checks(out, frame, psf, b, names);
     if (noise->kind == PP_NOISE_POISSON || noise->kind == PP_NOISE_CAMERA) {
         pp_sort_doubles(v, cnt);
-        offset_checks(out, noise, v, cnt);
+        offset_checks(out, noise, v, cnt, names);
     }
     free(v);
     errors_first(out);

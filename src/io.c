@@ -4,6 +4,7 @@
  * io.c -> io_png.c, io_tiff.c -> io_common.c); this file costs one 8-byte
  * read per call. */
 #include "pixpost/io.h"
+#include "pixpost/setting.h"
 #include "internal.h"
 #include "io_internal.h"
 #include <errno.h>
@@ -11,7 +12,7 @@
 #include <string.h>
 #include <strings.h>
 
-pp_status pp_channel_parse(const char *s, pp_channel *out)
+pp_status pp_channel_parse(const char *s, const char *const *setting_names, pp_channel *out)
 {
     static const struct {
         const char *name;
@@ -24,7 +25,8 @@ pp_status pp_channel_parse(const char *s, pp_channel *out)
             return PP_OK;
         }
     }
-    return pp_fail(PP_ERR_ARG, "--channel '%s': expected r, g, b or luma", s ? s : "");
+    return pp_fail(PP_ERR_ARG, "%s '%s': expected r, g, b or luma",
+                   pp_setting_name(setting_names, PP_SET_CHANNEL), s ? s : "");
 }
 
 /* Reads up to 8 leading bytes of path into sig; *n gets the count. */

@@ -14,6 +14,7 @@
  * the linear convolution with the scene taken as zero outside.
  */
 #include "pixpost/model.h"
+#include "pixpost/setting.h"
 #include "internal.h"
 #include "grid.h"
 #include "pixpost/psf.h"
@@ -21,7 +22,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-pp_status pp_boundary_parse(const char *s, pp_boundary *out)
+pp_status pp_boundary_parse(const char *s, const char *const *names, pp_boundary *out)
 {
     if (s && strcmp(s, "pad") == 0) {
         *out = PP_BOUNDARY_PAD;
@@ -31,7 +32,8 @@ pp_status pp_boundary_parse(const char *s, pp_boundary *out)
         *out = PP_BOUNDARY_PERIODIC;
         return PP_OK;
     }
-    return pp_fail(PP_ERR_ARG, "--boundary '%s': expected pad or periodic", s ? s : "");
+    return pp_fail(PP_ERR_ARG, "%s '%s': expected pad or periodic",
+                   pp_setting_name(names, PP_SET_BOUNDARY), s ? s : "");
 }
 
 const char *pp_boundary_name(pp_boundary b)

@@ -5,6 +5,7 @@
  * frame-sized residual and the PSF's transfer function (two r2c), and five
  * passes over the frame. */
 #include "pixpost/ppcheck.h"
+#include "pixpost/setting.h"
 #include "internal.h"
 #include "spectral.h"
 #include <math.h>
@@ -181,19 +182,29 @@ done:
 }
 
 /* "the gain may be ..." by model and direction (the likely causes). */
-static const char *var_cause(const pp_noise_spec *n, int high)
+/* Written into t (n bytes); names: pp_ppcheck_input's setting_names. */
+static const char *var_cause(const pp_noise_spec *n, int high, const char *const *names, char *t,
+                             size_t len)
 {
+    const char *noise = pp_setting_name(names, PP_SET_NOISE);
     if (n->kind == PP_NOISE_GAUSSIAN && n->sigma_set)
-        return high ? "sigma= in --noise is too small" : "sigma= in --noise is too large";
-    if (n->kind == PP_NOISE_GAUSSIAN)
-        return "the noise is not one Gaussian sd over the whole frame (signal-dependent "
-               "photon noise: try --noise camera or poisson)";
-    if (high)
-        return "the gain may be inverted (data sheets print electrons per ADU: give that "
-               "figure as e_per_adu=) or too small, the read noise too small, or the offset "
-               "too high";
-    return "the gain may be too large, the read noise too large, the offset too low or "
-           "--background too high (the model expects more noise than the data show)";
+        snprintf(t, len, "sigma= in %s is too %s", noise, high ? "small" : "large");
+    else if (n->kind == PP_NOISE_GAUSSIAN)
+        snprintf(t, len,
+                 "the noise is not one Gaussian sd over the whole frame (signal-dependent "
+                 "photon noise: try %s camera or poisson)",
+                 noise);
+    else if (high)
+        snprintf(t, len, "%s",
+                 "the gain may be inverted (data sheets print electrons per ADU: give that "
+                 "figure as e_per_adu=) or too small, the read noise too small, or the offset "
+                 "too high");
+    else
+        snprintf(t, len,
+                 "the gain may be too large, the read noise too large, the offset too low or "
+                 "%s too high (the model expects more noise than the data show)",
+                 pp_setting_name(names, PP_SET_BACKGROUND));
+    return t;
 }
 
 /* 1 when the figure x differs from its white-noise value x0 by more than
@@ -205,7 +216,7 @@ static int significant(double x, double x0, double sd)
 
 /* The structure warning (first, as a wrong PSF also inflates the other
  * figures); returns 1 when it fired. */
-static int judge_structure(pp_ppcheck *p)
+static int judge_structure(pp_ppcheck *p, const char *const *names)
 {
     double n = (double)p->used;
     double lag = fmax(p->lag1_row, p->lag1_col);
@@ -223,7 +234,7 @@ static int judge_structure(pp_ppcheck *p)
              "predictive check: residuals structured at the PSF's scale (correlation "
              "with the fitted image's curvature %+.2f, flagged beyond +-%.2g; lag-1 "
              "correlation %.2f along rows, %.2f down columns, flagged above %.2g; power "
-             "in the PSF's band %.2fx white noise's, flagged above %.2g): %s (check --psf "
+             "in the PSF's band %.2fx white noise's, flagged above %.2g): %s (check %s "
              "against a bead image)",
              p->curvature, PP_PPCHECK_CURV, p->lag1_row, p->lag1_col, PP_PPCHECK_LAG1,
              p->band_ratio, PP_PPCHECK_BAND,
@@ -234,7 +245,8 @@ static int judge_structure(pp_ppcheck *p)
                    "the offset may be too low or the background too high (the fit bends to "
                    "absorb them), or the PSF too wide"
                  : "the data are sharper than the model can make them: the PSF may be too "
-                   "wide (or the specimen has detail the prior smooths away)");
+                   "wide (or the specimen has detail the prior smooths away)",
+             pp_setting_name(names, PP_SET_PSF));
     warn(p, t);
     return 1;
 }
@@ -243,7 +255,8 @@ static void judge(const pp_ppcheck_input *in, pp_ppcheck *p)
 {
     double n = (double)p->used;
     char t[640];
-    const char *also = judge_structure(p) ? "; or a consequence of the structure above (a "
+    char cause[320];
+    const char *also = judge_structure(p, in->setting_names) ? "; or a consequence of the structure above (a "
                                             "wrong PSF leaves large residuals at bright "
                                             "detail): fix that first"
                                           : "";
@@ -254,7 +267,8 @@ static void judge(const pp_ppcheck_input *in, pp_ppcheck *p)
                  "predictive check: residual variance %.2fx predicted (1 expected; flagged "
                  "%s %.2g): %s%s",
                  p->var, high ? "above" : "below", high ? PP_PPCHECK_VAR_HI : PP_PPCHECK_VAR_LO,
-                 var_cause(&in->noise, high), high ? also : "");
+                 var_cause(&in->noise, high, in->setting_names, cause, sizeof cause),
+                 high ? also : "");
         warn(p, t);
     }
     if (fabs(p->mean) > PP_PPCHECK_MEAN && significant(p->mean, 0.0, 1 / sqrt(n))) {
@@ -340,7 +354,7 @@ pp_status pp_ppcheck_sampler(const pp_sampler *s, const pp_image *frame, const p
     if (!pp_sampler_mean(s))
         return pp_fail(PP_ERR_ARG, "predictive check: the sampler has not run");
     pp_ppcheck_input in = {frame, pp_sampler_mean(s), psf, c->boundary, c->noise,
-                           NAN,   c->background};
+                           NAN,   c->background,      c->setting_names};
     in.lambda =
         c->noise.sigma_set ? 1.0 / (c->noise.sigma * c->noise.sigma) : column_mean(t, "lambda");
     /* E[A x] over a sampled width is not A x-bar at one width; measured

@@ -47,15 +47,15 @@
 
 static const char *const kind_names[] = {"auto", "gibbs", "mtc", "pcn", "gpcn", "hmc"};
 
-pp_status pp_sampler_kind_parse(const char *text, pp_sampler_kind *out)
+pp_status pp_sampler_kind_parse(const char *text, const char *const *names, pp_sampler_kind *out)
 {
     for (int k = 0; k < 6; k++)
         if (strcmp(text, kind_names[k]) == 0) {
             *out = (pp_sampler_kind)k;
             return PP_OK;
         }
-    return pp_fail(PP_ERR_ARG, "--sampler '%s': unknown sampler (accepted: gibbs, mtc, pcn, gpcn, hmc)",
-                   text);
+    return pp_fail(PP_ERR_ARG, "%s '%s': unknown sampler (accepted: gibbs, mtc, pcn, gpcn, hmc)",
+                   pp_setting_name(names, PP_SET_SAMPLER), text);
 }
 
 const char *pp_sampler_kind_name(pp_sampler_kind k)

@@ -24,7 +24,7 @@ static int cmd_read(int argc, char **argv)
     pp_read_options_defaults(&opt);
     for (int i = 3; i + 1 < argc; i += 2) {
         if (strcmp(argv[i], "--channel") == 0) {
-            pp_status st = pp_channel_parse(argv[i + 1], &opt.channel);
+            pp_status st = pp_channel_parse(argv[i + 1], NULL, &opt.channel);
             if (st != PP_OK)
                 return fail(st);
         } else if (strcmp(argv[i], "--page") == 0) {

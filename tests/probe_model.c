@@ -53,7 +53,7 @@ static int do_blur(const char *boundary)
     pp_boundary b;
     size_t h, w, n;
     pp_image *x = NULL, *k = NULL, *y = NULL;
-    if (pp_boundary_parse(boundary, &b) != PP_OK)
+    if (pp_boundary_parse(boundary, NULL, &b) != PP_OK)
         return fail("boundary");
     if (scanf("%zu %zu", &h, &w) != 2 || !read_image(w, h, &x) || scanf("%zu", &n) != 1 ||
         !read_image(n, n, &k)) {

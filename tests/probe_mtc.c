@@ -34,14 +34,14 @@ static int apply(pp_sampler_config *cfg, const char *kv, const char **prior_text
     const char *v = eq + 1;
     pp_status st = PP_OK;
     if (n == 7 && !strncmp(kv, "sampler", n))
-        st = pp_sampler_kind_parse(v, &cfg->kind);
+        st = pp_sampler_kind_parse(v, NULL, &cfg->kind);
     else if (n == 5 && !strncmp(kv, "prior", n)) {
         st = pp_prior_parse(v, &cfg->prior);
         *prior_text = v;
     } else if (n == 5 && !strncmp(kv, "noise", n))
         st = pp_noise_parse(v, &cfg->noise);
     else if (n == 8 && !strncmp(kv, "boundary", n))
-        st = pp_boundary_parse(v, &cfg->boundary);
+        st = pp_boundary_parse(v, NULL, &cfg->boundary);
     else if (n == 6 && !strncmp(kv, "chains", n))
         cfg->chains = (unsigned)strtoul(v, NULL, 10);
     else if (n == 4 && !strncmp(kv, "burn", n))

@@ -6,6 +6,7 @@
  * libtiff and libpng must stay silent: stderr is captured around the
  * broken-file reads and must stay empty. */
 #include "pixpost/io.h"
+#include "pixpost/setting.h"
 #include "testutil.h"
 #include <dirent.h>
 #include <math.h>
@@ -413,11 +414,20 @@ static void test_failed_writes(void)
 static void test_channel_parse(void)
 {
     pp_channel c = PP_CHANNEL_NONE;
-    CHECK(pp_channel_parse("luma", &c) == PP_OK && c == PP_CHANNEL_LUMA, "luma");
-    CHECK(pp_channel_parse("b", &c) == PP_OK && c == PP_CHANNEL_B, "b");
-    CHECK(pp_channel_parse("red", &c) == PP_ERR_ARG && strstr(pp_error_message(), "red"),
+    CHECK(pp_channel_parse("luma", NULL, &c) == PP_OK && c == PP_CHANNEL_LUMA, "luma");
+    CHECK(pp_channel_parse("b", NULL, &c) == PP_OK && c == PP_CHANNEL_B, "b");
+    CHECK(pp_channel_parse("red", NULL, &c) == PP_ERR_ARG && strstr(pp_error_message(), "red"),
           "red refused: %s", pp_error_message());
-    CHECK(pp_channel_parse("", &c) == PP_ERR_ARG, "empty refused");
+    CHECK(pp_channel_parse("", NULL, &c) == PP_ERR_ARG, "empty refused");
+    /* the library's word without a names table, the caller's name with one
+     * (include/pixpost/setting.h) */
+    CHECK(pp_channel_parse("red", NULL, &c) == PP_ERR_ARG &&
+              strcmp(pp_error_message(), "channel 'red': expected r, g, b or luma") == 0,
+          "library's word: %s", pp_error_message());
+    static const char *const flags[PP_SET_COUNT] = {[PP_SET_CHANNEL] = "--channel"};
+    CHECK(pp_channel_parse("red", flags, &c) == PP_ERR_ARG &&
+              strcmp(pp_error_message(), "--channel 'red': expected r, g, b or luma") == 0,
+          "caller's name: %s", pp_error_message());
 }
 
 int main(void)

@@ -4,6 +4,7 @@
  * simulated noise (fixed seeds; tolerances from the standard errors). */
 #include "pixpost/model.h"
 #include "pixpost/psf.h"
+#include "pixpost/setting.h"
 #include "testutil.h"
 #include <math.h>
 #include <stdio.h>
@@ -146,10 +147,19 @@ static void check_transfer(void)
 static void check_refusals(void)
 {
     pp_boundary b;
-    CHECK(pp_boundary_parse("pad", &b) == PP_OK && b == PP_BOUNDARY_PAD, "pad");
-    CHECK(pp_boundary_parse("periodic", &b) == PP_OK && b == PP_BOUNDARY_PERIODIC, "periodic");
-    CHECK(pp_boundary_parse("mirror", &b) == PP_ERR_ARG && strstr(pp_error_message(), "mirror"),
+    CHECK(pp_boundary_parse("pad", NULL, &b) == PP_OK && b == PP_BOUNDARY_PAD, "pad");
+    CHECK(pp_boundary_parse("periodic", NULL, &b) == PP_OK && b == PP_BOUNDARY_PERIODIC, "periodic");
+    CHECK(pp_boundary_parse("mirror", NULL, &b) == PP_ERR_ARG && strstr(pp_error_message(), "mirror"),
           "unknown boundary refused: %s", pp_error_message());
+    /* the library's word without a names table, the caller's name with one
+     * (include/pixpost/setting.h) */
+    CHECK(pp_boundary_parse("mirror", NULL, &b) == PP_ERR_ARG &&
+              strcmp(pp_error_message(), "boundary 'mirror': expected pad or periodic") == 0,
+          "library's word: %s", pp_error_message());
+    static const char *const flags[PP_SET_COUNT] = {[PP_SET_BOUNDARY] = "--boundary"};
+    CHECK(pp_boundary_parse("mirror", flags, &b) == PP_ERR_ARG &&
+              strcmp(pp_error_message(), "--boundary 'mirror': expected pad or periodic") == 0,
+          "caller's name: %s", pp_error_message());
     CHECK(strcmp(pp_boundary_name(PP_BOUNDARY_PERIODIC), "periodic") == 0, "name");
     pp_image *x = random_image(6, 5, 1), *k = random_image(7, 7, 2), *y = NULL, *even = NULL;
     CHECK(pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, &y) == PP_ERR_LIMIT && !y,

@@ -191,6 +191,15 @@ static void determinism_and_refusals(void)
               strcmp(pp_setting_name(NULL, PP_SET_THIN), "thinning") == 0 &&
               strcmp(pp_setting_name(NULL, PP_SET_COUNT), "setting") == 0,
           "a name the caller leaves NULL is the library's word");
+    pp_sampler_kind kind;
+    CHECK(pp_sampler_kind_parse("nuts", NULL, &kind) == PP_ERR_ARG &&
+              strcmp(pp_error_message(), "sampler 'nuts': unknown sampler (accepted: gibbs, mtc, "
+                                         "pcn, gpcn, hmc)") == 0,
+          "unknown sampler, library's word: %s", pp_error_message());
+    static const char *const sflag[PP_SET_COUNT] = {[PP_SET_SAMPLER] = "--sampler"};
+    CHECK(pp_sampler_kind_parse("nuts", sflag, &kind) == PP_ERR_ARG &&
+              strncmp(pp_error_message(), "--sampler 'nuts': unknown sampler", 33) == 0,
+          "unknown sampler, caller's name: %s", pp_error_message());
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.chains = 0;

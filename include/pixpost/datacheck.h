@@ -78,11 +78,13 @@ typedef struct pp_datacheck {
 } pp_datacheck;
 
 /* Runs the checks above on frame (NaN pixels skipped) under noise, for a
- * kernel psf used with boundary b. All pointers must be valid; nothing is
- * kept. out is overwritten. Fails with PP_ERR_ARG when the frame has no
+ * kernel psf used with boundary b. The findings name the noise model, PSF
+ * and boundary settings by names (a PP_SET_COUNT table, include/pixpost/
+ * setting.h; NULL: the library's words "noise model", "PSF", "boundary").
+ * All other pointers must be valid; nothing is kept. out is overwritten. Fails with PP_ERR_ARG when the frame has no
  * finite pixel, PP_ERR_NOMEM when the sort's copy cannot be allocated;
  * findings are results, not failures (the call succeeds). */
 pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, const pp_image *psf,
-                           pp_boundary b, pp_datacheck *out);
+                           pp_boundary b, const char *const *names, pp_datacheck *out);
 
 #endif

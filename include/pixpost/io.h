@@ -43,8 +43,10 @@ typedef struct pp_read_info {
 
 void pp_read_options_defaults(pp_read_options *opt);
 
-/* Parses "r", "g", "b" or "luma". */
-pp_status pp_channel_parse(const char *s, pp_channel *out);
+/* Parses "r", "g", "b" or "luma"; a refusal names the setting by
+ * setting_names (a PP_SET_COUNT table, include/pixpost/setting.h; NULL:
+ * "channel"). */
+pp_status pp_channel_parse(const char *s, const char *const *setting_names, pp_channel *out);
 
 /* Reads a PNG or TIFF, chosen by the file's signature (not its name). opt
  * may be NULL (defaults); info may be NULL. On failure *out is NULL. */

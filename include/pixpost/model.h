@@ -18,7 +18,9 @@
 
 typedef enum pp_boundary { PP_BOUNDARY_PAD = 0, PP_BOUNDARY_PERIODIC = 1 } pp_boundary;
 
-pp_status pp_boundary_parse(const char *s, pp_boundary *out);
+/* Parses "pad" or "periodic"; a refusal names the setting by names (a
+ * PP_SET_COUNT table, include/pixpost/setting.h; NULL: "boundary"). */
+pp_status pp_boundary_parse(const char *s, const char *const *names, pp_boundary *out);
 const char *pp_boundary_name(pp_boundary b);
 
 /* The transfer function: the PSF zero-padded to height x width with its

@@ -85,6 +85,11 @@ typedef struct pp_ppcheck_input {
     pp_noise_spec noise;
     double lambda;
     double background;
+    /* The names of the noise model, PSF and background settings in the
+     * warnings (a PP_SET_COUNT table, include/pixpost/setting.h); NULL:
+     * the library's words. pp_ppcheck_sampler takes the configuration's
+     * setting_names. */
+    const char *const *setting_names;
 } pp_ppcheck_input;
 
 enum { PP_PPCHECK_MAX_WARNINGS = 4 };

@@ -71,7 +71,10 @@ typedef enum pp_sampler_kind {
     PP_SAMPLER_HMC    /* split Hamiltonian MC on the gpcn reference */
 } pp_sampler_kind;
 
-pp_status pp_sampler_kind_parse(const char *s, pp_sampler_kind *out);
+/* Parses a sampler's name (kind_names in src/sampler.c); a refusal names
+ * the setting by names (a PP_SET_COUNT table, include/pixpost/setting.h;
+ * NULL: "sampler"). */
+pp_status pp_sampler_kind_parse(const char *s, const char *const *names, pp_sampler_kind *out);
 const char *pp_sampler_kind_name(pp_sampler_kind k);
 
 /* How intensities are kept positive (pcn/gpcn/hmc): LOG samples z with the GMRF

@@ -6,6 +6,25 @@
  * flags: "--thin", "--iters") gives a table in pp_sampler_config's
  * setting_names, and the same messages (also the warnings kept in the
  * results and summary.json) then use those names.
+ *
+ * The same table, passed as `names` (NULL: the library's words), serves
+ * the checks of the data and of the fit: pp_datacheck_run's argument and
+ * pp_ppcheck_input's setting_names (pp_ppcheck_sampler takes the
+ * sampler's), and the parsers of a setting's text (pp_sampler_kind_parse,
+ * pp_boundary_parse, pp_channel_parse).
+ *
+ * Not yet converted (they still name a command-line flag to every
+ * caller; each needs a names table passed to it, issue 18 step 0): the
+ * spec parsers' messages ("--psf ..." in psf.c, psf3.c, psf_optics.c,
+ * psf_widefield.c; "--noise ..." in noise.c; "--prior ..." in prior.c),
+ * pp_model_blur's and pp_model_add_noise's ("--boundary pad", "--noise
+ * gaussian"), the readers' ("--channel r|g|b|luma" in io_common.c,
+ * "--max-pixels" in io_tiff.c), observed.c ("--keep-saturated"),
+ * calib_ptc.c ("--saturation"), the output folder's marker text
+ * ("--overwrite", output.c) and the report's ("--boundary pad",
+ * "--strict", "--iters auto" in report.c, report_checks.c,
+ * output_report.c). A message names a setting only through pp_setting_name; no
+ * text is rewritten afterwards.
  */
 #ifndef PIXPOST_SETTING_H
 #define PIXPOST_SETTING_H
@@ -25,6 +44,8 @@ typedef enum pp_setting {
     PP_SET_PSF,         /* cfg.psf */
     PP_SET_BOUNDARY,    /* cfg.boundary */
     PP_SET_BACKGROUND,  /* cfg.background */
+    PP_SET_NOISE,       /* cfg.noise (also pp_datacheck_run, pp_ppcheck_input) */
+    PP_SET_CHANNEL,     /* pp_read_options.channel (pp_channel_parse) */
     PP_SET_COUNT
 } pp_setting;
 
@@ -32,7 +53,7 @@ typedef enum pp_setting {
  * not NULL, else the library's word ("sampler", "chains", "burn-in",
  * "iterations", "thinning", "time cap", "iteration cap", "credible
  * level", "lambda hyperprior", "delta hyperprior", "prior", "PSF",
- * "boundary", "background"); "setting" for k out of
+ * "boundary", "background", "noise model", "channel"); "setting" for k out of
  * range. names, when given, has PP_SET_COUNT entries. Static text or the
  * caller's. */
 const char *pp_setting_name(const char *const *names, pp_setting k);

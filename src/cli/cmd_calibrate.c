@@ -194,7 +194,7 @@ static int parse(int argc, char **argv, calib_opts *o)
         return rc;
     pp_status cst;
     if (cli_given(&a, "channel") &&
-        (cst = pp_channel_parse(cli_str(&a, "channel"), &o->channel)) != PP_OK)
+        (cst = pp_channel_parse(cli_str(&a, "channel"), cli_flag_names, &o->channel)) != PP_OK)
         return cli_fail(cst);
     if (o->frame && (o->dark_given || o->nflat))
         return cli_opt_error("frame", "cannot be used with --dark/--flat (one frame, or darks "

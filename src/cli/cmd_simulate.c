@@ -104,10 +104,10 @@ static int parse(int argc, char **argv, sim_opts *o)
         (rc = cli_get_size(&a, "max-pixels", 1, &o->read.max_pixels)) != 0)
         return rc;
     if (cli_given(&a, "boundary") &&
-        (rc = lib(pp_boundary_parse(cli_str(&a, "boundary"), &o->boundary))) != 0)
+        (rc = lib(pp_boundary_parse(cli_str(&a, "boundary"), cli_flag_names, &o->boundary))) != 0)
         return rc;
     if (cli_given(&a, "channel") &&
-        (rc = lib(pp_channel_parse(cli_str(&a, "channel"), &o->read.channel))) != 0)
+        (rc = lib(pp_channel_parse(cli_str(&a, "channel"), cli_flag_names, &o->read.channel))) != 0)
         return rc;
     return check_out_name(o);
 }

@@ -18,4 +18,6 @@ const char *const cli_flag_names[PP_SET_COUNT] = {
     [PP_SET_PSF] = "--psf",
     [PP_SET_BOUNDARY] = "--boundary",
     [PP_SET_BACKGROUND] = "--background",
+    [PP_SET_NOISE] = "--noise",
+    [PP_SET_CHANNEL] = "--channel",
 };

@@ -189,7 +189,8 @@ static int check_data(const cli_sample_opts *o, cli_frame_run *r, const pp_image
 {
     pp_sampler_config cfg = o->cfg; /* with --noise auto, the model chosen */
     cli_noise_auto_apply(na, &cfg);
-    pp_status st = pp_datacheck_run(frame, &cfg.noise, psf, cfg.boundary, &r->checks);
+    pp_status st = pp_datacheck_run(frame, &cfg.noise, psf, cfg.boundary, cli_flag_names,
+                                    &r->checks);
     if (st != PP_OK)
         return fail_frame(r, st);
     if (r->checks.errors)

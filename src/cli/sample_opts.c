@@ -250,13 +250,13 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
             return cli_opt_error("positivity", "'%s' is not accepted (expected log or none)", p);
     }
     if (cli_given(a, "sampler") &&
-        (rc = lib_check(pp_sampler_kind_parse(cli_str(a, "sampler"), &o->cfg.kind))) != 0)
+        (rc = lib_check(pp_sampler_kind_parse(cli_str(a, "sampler"), cli_flag_names, &o->cfg.kind))) != 0)
         return rc;
     if (cli_given(a, "boundary") &&
-        (rc = lib_check(pp_boundary_parse(cli_str(a, "boundary"), &o->cfg.boundary))) != 0)
+        (rc = lib_check(pp_boundary_parse(cli_str(a, "boundary"), cli_flag_names, &o->cfg.boundary))) != 0)
         return rc;
     if (cli_given(a, "channel") && strcmp(cli_str(a, "channel"), "all") != 0 &&
-        (rc = lib_check(pp_channel_parse(cli_str(a, "channel"), &o->read.channel))) != 0)
+        (rc = lib_check(pp_channel_parse(cli_str(a, "channel"), cli_flag_names, &o->read.channel))) != 0)
         return rc;
     return cli_units_opts(a, o);
 }
