@@ -15,41 +15,19 @@
  * escaped at most 6 bytes per character. */
 #define OME_XML_FIXED 2048
 
-static pp_status failed(const char *path, const tiff_msg *m, int e)
-{
-    return pp_fail(PP_ERR_IO, "%s: write failed: %s%s%s%s", path,
-                   m->text[0] ? m->text : "libtiff error", e ? " (" : "", e ? strerror(e) : "",
-                   e ? ")" : "");
-}
-
 /* Writes page k (h x w floats from data) as the current directory. */
 static pp_status write_page(TIFF *t, const char *path, const double *data, size_t h, size_t w,
                             size_t pages, const char *xml, float *row, const tiff_msg *m)
 {
-    TIFFSetField(t, TIFFTAG_IMAGEWIDTH, (uint32_t)w);
-    TIFFSetField(t, TIFFTAG_IMAGELENGTH, (uint32_t)h);
-    TIFFSetField(t, TIFFTAG_SAMPLESPERPIXEL, 1);
-    TIFFSetField(t, TIFFTAG_BITSPERSAMPLE, 32);
-    TIFFSetField(t, TIFFTAG_SAMPLEFORMAT, SAMPLEFORMAT_IEEEFP);
-    TIFFSetField(t, TIFFTAG_PHOTOMETRIC, PHOTOMETRIC_MINISBLACK);
-    TIFFSetField(t, TIFFTAG_PLANARCONFIG, PLANARCONFIG_CONTIG);
-    TIFFSetField(t, TIFFTAG_COMPRESSION, COMPRESSION_NONE);
-    TIFFSetField(t, TIFFTAG_ROWSPERSTRIP, TIFFDefaultStripSize(t, 0));
-    if (pages > 1) {
+    if (pages > 1)
         TIFFSetField(t, TIFFTAG_SUBFILETYPE, FILETYPE_PAGE);
-    }
     if (xml)
         TIFFSetField(t, TIFFTAG_IMAGEDESCRIPTION, xml);
+    pp_status st = pp_tiff_write_f32_rows(t, path, data, h, w, row, m);
     errno = 0;
-    for (size_t y = 0; y < h; y++) {
-        for (size_t x = 0; x < w; x++)
-            row[x] = (float)data[y * w + x];
-        if (TIFFWriteScanline(t, row, (uint32_t)y, 0) < 0)
-            return failed(path, m, errno);
-    }
-    if (!TIFFWriteDirectory(t))
-        return failed(path, m, errno);
-    return PP_OK;
+    if (st == PP_OK && !TIFFWriteDirectory(t))
+        st = pp_tiff_write_failed(path, m, errno);
+    return st;
 }
 
 static pp_status write_all(TIFF *t, const char *path, const pp_shape *s, const double *data,
@@ -98,7 +76,7 @@ pp_status pp_ome_tiff_write_f32(const char *path, const pp_shape *shape, const d
         int e = errno;
         remove(tmp);
         free(xml);
-        return failed(path, &m, e);
+        return pp_tiff_write_failed(path, &m, e);
     }
     st = write_all(t, path, shape, data, xml, &m);
     TIFFClose(t);

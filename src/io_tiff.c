@@ -397,17 +397,17 @@ pp_status pp_tiff_read(const char *path, const pp_read_options *opt, pp_image **
 /* libtiff's text plus the system's reason (a full disk says "No space left
  * on device", a file-size limit "File too large"); e is errno right after
  * the failing call, 0 when none was set. */
-static pp_status write_failed(const char *path, const tiff_msg *m, int e)
+pp_status pp_tiff_write_failed(const char *path, const tiff_msg *m, int e)
 {
     return pp_fail(PP_ERR_IO, "%s: write failed: %s%s%s%s", path, msg_or(m, "libtiff error"),
                    e ? " (" : "", e ? strerror(e) : "", e ? ")" : "");
 }
 
-/* Writes img into the open handle t, one float scanline at a time. */
-static pp_status tiff_encode(TIFF *t, const char *path, const pp_image *img, const tiff_msg *m)
+pp_status pp_tiff_write_f32_rows(TIFF *t, const char *path, const double *data, size_t h,
+                                 size_t w, float *row, const tiff_msg *m)
 {
-    TIFFSetField(t, TIFFTAG_IMAGEWIDTH, (uint32_t)img->width);
-    TIFFSetField(t, TIFFTAG_IMAGELENGTH, (uint32_t)img->height);
+    TIFFSetField(t, TIFFTAG_IMAGEWIDTH, (uint32_t)w);
+    TIFFSetField(t, TIFFTAG_IMAGELENGTH, (uint32_t)h);
     TIFFSetField(t, TIFFTAG_SAMPLESPERPIXEL, 1);
     TIFFSetField(t, TIFFTAG_BITSPERSAMPLE, 32);
     TIFFSetField(t, TIFFTAG_SAMPLEFORMAT, SAMPLEFORMAT_IEEEFP);
@@ -415,20 +415,27 @@ static pp_status tiff_encode(TIFF *t, const char *path, const pp_image *img, con
     TIFFSetField(t, TIFFTAG_PLANARCONFIG, PLANARCONFIG_CONTIG);
     TIFFSetField(t, TIFFTAG_COMPRESSION, COMPRESSION_NONE);
     TIFFSetField(t, TIFFTAG_ROWSPERSTRIP, TIFFDefaultStripSize(t, 0));
+    errno = 0;
+    for (size_t y = 0; y < h; y++) {
+        for (size_t x = 0; x < w; x++)
+            row[x] = (float)data[y * w + x];
+        if (TIFFWriteScanline(t, row, (uint32_t)y, 0) < 0)
+            return pp_tiff_write_failed(path, m, errno);
+    }
+    return PP_OK;
+}
+
+/* Writes img into the open handle t, one float scanline at a time. */
+static pp_status tiff_encode(TIFF *t, const char *path, const pp_image *img, const tiff_msg *m)
+{
     float *row = malloc(img->width * sizeof *row);
     if (!row)
         return pp_fail(PP_ERR_NOMEM, "%s: out of memory for a TIFF row", path);
-    pp_status st = PP_OK;
-    errno = 0;
-    for (size_t y = 0; y < img->height && st == PP_OK; y++) {
-        for (size_t x = 0; x < img->width; x++)
-            row[x] = (float)img->data[y * img->width + x];
-        if (TIFFWriteScanline(t, row, (uint32_t)y, 0) < 0)
-            st = write_failed(path, m, errno);
-    }
+    pp_status st = pp_tiff_write_f32_rows(t, path, img->data, img->height, img->width, row, m);
     free(row);
+    errno = 0;
     if (st == PP_OK && !TIFFFlush(t))
-        st = write_failed(path, m, errno);
+        st = pp_tiff_write_failed(path, m, errno);
     return st;
 }
 
