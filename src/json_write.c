@@ -27,3 +27,14 @@ void pp_json_write_number(FILE *f, double v)
     else
         fputs("null", f);
 }
+
+void pp_json_write_zyx(FILE *f, const double v[3])
+{
+    fputs("{\"z\": ", f);
+    pp_json_write_number(f, v[0]);
+    fputs(", \"y\": ", f);
+    pp_json_write_number(f, v[1]);
+    fputs(", \"x\": ", f);
+    pp_json_write_number(f, v[2]);
+    fputs("}", f);
+}

@@ -379,13 +379,8 @@ static pp_status write_summary(const char *path, const pp_result *r, const pp_im
         pp_json_write_string(f, info->input_part);
     }
     if (info && info->voxel_um) {
-        fputs(",\n  \"voxel_um\": {\"z\": ", f);
-        pp_json_write_number(f, info->voxel_um[0]);
-        fputs(", \"y\": ", f);
-        pp_json_write_number(f, info->voxel_um[1]);
-        fputs(", \"x\": ", f);
-        pp_json_write_number(f, info->voxel_um[2]);
-        fputs("}", f);
+        fputs(",\n  \"voxel_um\": ", f);
+        pp_json_write_zyx(f, info->voxel_um);
     }
     fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu},\n", frame->width,
             frame->height);

@@ -62,6 +62,8 @@ void pp_json_write_string(FILE *f, const char *s);
 /* Writes v to f as a JSON number with 10 significant digits ("%.10g"), or
  * null when v is not finite. */
 void pp_json_write_number(FILE *f, double v);
+/* A voxel size v = {z, y, x} (micrometres) as {"z": .., "y": .., "x": ..}. */
+void pp_json_write_zyx(FILE *f, const double v[3]);
 
 /* Writes the outputs of the finished run r (pp_sampler_result) into dir;
  * frame is the input frame the run sampled (the report shows it). */

@@ -44,6 +44,15 @@ int cli_opt_error(const char *name, const char *fmt, ...)
     return CLI_EXIT_USAGE;
 }
 
+int cli_refuse(char *msg, size_t len, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, len, fmt, ap);
+    va_end(ap);
+    return CLI_EXIT_USAGE;
+}
+
 int cli_exit_code(pp_status st)
 {
     return st == PP_OK ? CLI_EXIT_OK : CLI_EXIT_USAGE;

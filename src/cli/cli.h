@@ -111,6 +111,9 @@ int cli_positionals(const cli_args *a, size_t n, const char *what);
 int cli_error(const char *fmt, ...) CLI_PRINTF(1, 2);
 /* The same for an option: "pixpost: --name: <text>". */
 int cli_opt_error(const char *name, const char *fmt, ...) CLI_PRINTF(2, 3);
+/* Formats a refusal into msg (len bytes) for the caller to print, and
+ * returns CLI_EXIT_USAGE. */
+int cli_refuse(char *msg, size_t len, const char *fmt, ...) CLI_PRINTF(3, 4);
 /* Prints the library's message for a failed status as one line
  * ("pixpost: <message>") and returns cli_exit_code(st). */
 int cli_fail(pp_status st);

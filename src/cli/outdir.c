@@ -13,19 +13,8 @@
 #include "pixpost/output.h"
 #include <dirent.h>
 #include <errno.h>
-#include <stdarg.h>
 #include <string.h>
 #include <sys/stat.h>
-
-static int refuse(char *msg, size_t len, const char *fmt, ...) CLI_PRINTF(3, 4);
-static int refuse(char *msg, size_t len, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(msg, len, fmt, ap);
-    va_end(ap);
-    return CLI_EXIT_USAGE;
-}
 
 int cli_check_outdir(const char *dir, int overwrite, char *msg, size_t len)
 {
@@ -33,7 +22,7 @@ int cli_check_outdir(const char *dir, int overwrite, char *msg, size_t len)
     if (stat(dir, &sb) != 0)
         return 0; /* missing (created later) or unreachable: cli_make_dirs says why */
     if (!S_ISDIR(sb.st_mode))
-        return refuse(msg, len,
+        return cli_refuse(msg, len,
                       "%s: exists and is not a folder (the output is a folder of files; "
                       "choose a new or empty folder with -o)",
                       dir);
@@ -41,7 +30,7 @@ int cli_check_outdir(const char *dir, int overwrite, char *msg, size_t len)
         return 0;
     DIR *d = opendir(dir);
     if (!d)
-        return refuse(msg, len, "%s: cannot list the output folder: %s", dir, strerror(errno));
+        return cli_refuse(msg, len, "%s: cannot list the output folder: %s", dir, strerror(errno));
     char first[256] = "";
     struct dirent *e;
     while (!first[0] && (e = readdir(d)) != NULL)
@@ -50,7 +39,7 @@ int cli_check_outdir(const char *dir, int overwrite, char *msg, size_t len)
     closedir(d);
     if (!first[0] || overwrite)
         return 0;
-    return refuse(msg, len,
+    return cli_refuse(msg, len,
                   "%s: the output folder holds files pixpost did not write (such as %s); "
                   "choose a new or empty folder, or give --overwrite to write into it "
                   "(pixpost's files of the same names are then replaced, others kept)",

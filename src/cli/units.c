@@ -15,7 +15,6 @@
 #include "pixpost/stack.h"
 #include <errno.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -51,16 +50,6 @@ int cli_units_opts(const cli_args *a, cli_sample_opts *o)
     return 0;
 }
 
-static int fail(char *msg, size_t len, const char *fmt, ...) CLI_PRINTF(3, 4);
-static int fail(char *msg, size_t len, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(msg, len, fmt, ap);
-    va_end(ap);
-    return CLI_EXIT_USAGE;
-}
-
 static const char *role_words(char role)
 {
     return role == 'z' ? "z-slices of one volume" : role == 't' ? "time points" : "channels";
@@ -75,7 +64,7 @@ static int ome_role(const pp_ome_meta *m, const char *frame, char *role, char *m
     if (m->nz > 1)
         *role = 'z';
     else if (m->nc > 1 && m->nt > 1)
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "%s: the OME metadata holds %zu channels at each of %zu time points; pixpost "
                     "takes channels or time points, not both, from one file (split it by time "
                     "point)",
@@ -98,7 +87,7 @@ static int decide_role(char given, const pp_ome_meta *m, unsigned pages, const c
     if (rc)
         return rc;
     if (ome && given && given != ome)
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "%s: --pages %c conflicts with the file's OME metadata, which says its %u "
                     "pages are %s (SizeZ %zu, SizeC %zu, SizeT %zu); drop --pages",
                     frame, given, pages, role_words(ome), m->nz, m->nc, m->nt);
@@ -115,7 +104,7 @@ static int pick_role(const cli_sample_opts *o, const char *frame, cli_units *u, 
     if (rc)
         return rc;
     if (u->pages > 1 && !u->role && o->plane < 0)
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "%s: %u pages and no OME metadata saying what they are: give --pages z "
                     "(z-slices of one volume), --pages t (time points, each a frame) or --pages "
                     "c (channels, each with its own --psf), or --plane K for one page",
@@ -129,7 +118,7 @@ int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *
     unsigned pages;
     *frames = 1;
     if (pp_stack_probe(path, &pages, &ome) != PP_OK)
-        return fail(msg, len, "%s", pp_error_message());
+        return cli_refuse(msg, len, "%s", pp_error_message());
     *frames = pages ? pages : 1;
     char role = 0;
     int from_ome = 0;
@@ -137,12 +126,12 @@ int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *
     if (rc || pages <= 1 || role == 't')
         return rc;
     if (!role)
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "%s: %u pages and no OME metadata saying what they are: give --pages t to "
                     "sample each page as a frame (z-slices and channels: pixpost sample --pages "
                     "z|c on the file)",
                     path, pages);
-    return fail(msg, len, "%s: its %u pages are %s (%s); batch samples time points only: %s", path,
+    return cli_refuse(msg, len, "%s: its %u pages are %s (%s); batch samples time points only: %s", path,
                 pages, role_words(role), from_ome ? "OME metadata" : "--pages",
                 role == 'z' ? "3-D sampling is not built yet (pixpost sample --plane K takes "
                               "one slice)"
@@ -165,7 +154,7 @@ static int plan_colour(const cli_sample_opts *o, const char *frame, cli_units *u
 {
     static const pp_channel rgb[3] = {PP_CHANNEL_R, PP_CHANNEL_G, PP_CHANNEL_B};
     if (u->pages > 1)
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "%s: --channel all takes a single-page colour image, and this file has %u "
                     "pages (use --pages c for channels stored as pages)",
                     frame, u->pages);
@@ -175,10 +164,10 @@ static int plan_colour(const cli_sample_opts *o, const char *frame, cli_units *u
     pp_read_info info;
     pp_status st = pp_image_read(frame, &ro, &img, &info);
     if (st != PP_OK)
-        return fail(msg, len, "%s", pp_error_message());
+        return cli_refuse(msg, len, "%s", pp_error_message());
     pp_image_free(img);
     if (!info.was_colour)
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "%s: --channel all needs a colour (RGB) image, and this one is "
                     "grayscale; drop --channel",
                     frame);
@@ -209,7 +198,7 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
 {
     if (o->plane >= 0) {
         if ((unsigned long)o->plane >= u->pages)
-            return fail(msg, len,
+            return cli_refuse(msg, len,
                         "%s: --plane %ld asked for, but the file has %u page(s), counted from 0",
                         frame, o->plane, u->pages);
         u->role = 0;
@@ -222,13 +211,13 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
         return 0;
     }
     if (u->role == 'z')
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "%s: its %u pages are z-slices of one volume (%s), and 3-D sampling is not "
                     "built yet; sample one slice with --plane K (0 to %u)%s",
                     frame, u->pages, u->from_ome ? "OME metadata" : "--pages z", u->pages - 1,
                     u->from_ome ? "" : ", or each slice as a separate frame with --pages t");
     if (u->pages > CLI_MAX_UNITS)
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "%s: %u %s are more than the %d that sample takes; use pixpost batch "
                     "--pages t (time points) or split the file",
                     frame, u->pages, role_words(u->role), CLI_MAX_UNITS);
@@ -246,7 +235,7 @@ int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, ch
     memset(u, 0, sizeof *u);
     pp_status st = pp_stack_probe(frame, &u->pages, &u->ome);
     if (st != PP_OK)
-        return fail(msg, len, "%s", pp_error_message());
+        return cli_refuse(msg, len, "%s", pp_error_message());
     set_voxel(o, u);
     int rc = o->channel_all ? plan_colour(o, frame, u, msg, len) : pick_role(o, frame, u, msg, len);
     if (!rc && !o->channel_all)
@@ -255,7 +244,7 @@ int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, ch
         return rc;
     size_t channels = u->role == 'c' ? u->n : 1;
     if (o->npsf != 1 && o->npsf != channels)
-        return fail(msg, len,
+        return cli_refuse(msg, len,
                     "--psf: given %zu times for %zu channel%s of %s: give one --psf per "
                     "channel, in channel order, or a single --psf for all",
                     o->npsf, channels, channels == 1 ? "" : "s", frame);
@@ -273,7 +262,7 @@ int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const ch
     snprintf(tmp, sizeof tmp, "%s.part", path);
     FILE *f = fopen(tmp, "w");
     if (!f)
-        return fail(msg, len, "%s: cannot write: %s", path, strerror(errno));
+        return cli_refuse(msg, len, "%s: cannot write: %s", path, strerror(errno));
     static const char *const colour[] = {"r", "g", "b"};
     fputs("{\n  \"input\": ", f);
     pp_json_write_string(f, frame);
@@ -282,15 +271,9 @@ int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const ch
             o->channel_all ? "--channel all"
             : u->from_ome  ? "OME metadata"
                            : "--pages");
-    if (u->have_voxel) {
-        fputs("{\"z\": ", f);
-        pp_json_write_number(f, u->voxel[0]);
-        fputs(", \"y\": ", f);
-        pp_json_write_number(f, u->voxel[1]);
-        fputs(", \"x\": ", f);
-        pp_json_write_number(f, u->voxel[2]);
-        fputs("}", f);
-    } else
+    if (u->have_voxel)
+        pp_json_write_zyx(f, u->voxel);
+    else
         fputs("null", f);
     fprintf(f, ",\n  \"%s\": [\n", u->role == 'c' ? "channels" : "frames");
     for (size_t k = 0; k < u->n; k++) {
@@ -310,7 +293,7 @@ int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const ch
     int bad = ferror(f) | (fclose(f) != 0);
     if (bad || rename(tmp, path) != 0) {
         remove(tmp);
-        return fail(msg, len, "%s: cannot write: %s", path, strerror(errno));
+        return cli_refuse(msg, len, "%s: cannot write: %s", path, strerror(errno));
     }
     return 0;
 }
