@@ -289,14 +289,6 @@ pp_status pp_psf_parse(const char *text, pp_psf_spec *out)
     return st;
 }
 
-/* Shortest %g form that reads back as the same double. */
-static void fmt_number(char *buf, size_t len, double v)
-{
-    snprintf(buf, len, "%.15g", v);
-    if (strtod(buf, NULL) != v)
-        snprintf(buf, len, "%.17g", v);
-}
-
 void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len)
 {
     char a[32], b[32], c[32];
@@ -304,28 +296,28 @@ void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len)
         return;
     switch (s->kind) {
     case PP_PSF_GAUSSIAN:
-        fmt_number(a, sizeof a, s->sigma);
+        pp_psf_format_number(a, sizeof a, s->sigma);
         if (s->width_auto) {
-            fmt_number(b, sizeof b, s->width_lo);
-            fmt_number(c, sizeof c, s->width_hi);
+            pp_psf_format_number(b, sizeof b, s->width_lo);
+            pp_psf_format_number(c, sizeof c, s->width_hi);
             snprintf(buf, len, "gaussian:sigma=auto,lo=%s,hi=%s", b, c);
         } else {
             snprintf(buf, len, "gaussian:sigma=%s", a);
             if (s->sigma_z > 0) {
                 size_t used = strlen(buf);
-                fmt_number(b, sizeof b, s->sigma_z);
+                pp_psf_format_number(b, sizeof b, s->sigma_z);
                 snprintf(buf + used, len - used, ",sigma_z=%s", b);
             }
         }
         break;
     case PP_PSF_AIRY:
-        fmt_number(a, sizeof a, s->na);
-        fmt_number(b, sizeof b, s->wavelength);
-        fmt_number(c, sizeof c, s->pixel);
+        pp_psf_format_number(a, sizeof a, s->na);
+        pp_psf_format_number(b, sizeof b, s->wavelength);
+        pp_psf_format_number(c, sizeof c, s->pixel);
         if (s->width_auto) {
             char d[32], e[32];
-            fmt_number(d, sizeof d, s->width_lo);
-            fmt_number(e, sizeof e, s->width_hi);
+            pp_psf_format_number(d, sizeof d, s->width_lo);
+            pp_psf_format_number(e, sizeof e, s->width_hi);
             snprintf(buf, len, "airy:na=auto,lo=%s,hi=%s,wavelength=%s,pixel=%s", d, e, b, c);
         } else {
             snprintf(buf, len, "airy:na=%s,wavelength=%s,pixel=%s", a, b, c);

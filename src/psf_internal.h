@@ -65,4 +65,8 @@ pp_status pp_psf_widefield_extent(const pp_psf_spec *s, size_t size, size_t dept
 pp_status pp_psf_bead3_make(const char *path, size_t size, size_t depth, pp_shape *shape,
                             double **data);
 
+/* The shortest %g form of v that reads back as the same double (spec
+ * strings written back by pp_psf_format; psf_kernel.c). */
+void pp_psf_format_number(char *buf, size_t len, double v);
+
 #endif

@@ -1,10 +1,12 @@
-/* pixpost — the kernel size rule and normalisation shared by the PSF
+/* pixpost — the kernel size rule, normalisation and number format shared by the PSF
  * models (src/psf.c) and the bead kernels (src/psf_bead.c); declared in
  * psf_internal.h. Kept apart from psf.c so that calls point one way:
  * psf.c -> psf_bead.c -> this file. Cost: one pass over the kernel. */
 #include "internal.h"
 #include "psf_internal.h"
 #include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
 
 /* Radius from an explicit size (must be odd) or the model's default. */
 pp_status pp_psf_pick_radius(size_t size, double model_radius, size_t *radius)
@@ -36,4 +38,11 @@ void pp_psf_normalise(pp_image *k)
         sum += k->data[i];
     for (size_t i = 0; i < n; i++)
         k->data[i] /= sum;
+}
+
+void pp_psf_format_number(char *buf, size_t len, double v)
+{
+    snprintf(buf, len, "%.15g", v);
+    if (strtod(buf, NULL) != v)
+        snprintf(buf, len, "%.17g", v);
 }

@@ -167,26 +167,19 @@ pp_status pp_psf_widefield_parse(pp_spec *sp, pp_psf_spec *out)
     return PP_OK;
 }
 
-static void fmt(char *b, size_t len, double v)
-{
-    snprintf(b, len, "%.15g", v);
-    if (strtod(b, NULL) != v)
-        snprintf(b, len, "%.17g", v);
-}
-
 void pp_psf_widefield_format(const pp_psf_spec *s, char *buf, size_t len)
 {
     char a[32], b[32], c[32], d[32], e[32], f[32], g[32];
-    fmt(a, sizeof a, s->na);
-    fmt(b, sizeof b, s->wavelength);
-    fmt(c, sizeof c, s->pixel);
-    fmt(d, sizeof d, s->step);
-    fmt(e, sizeof e, s->n);
+    pp_psf_format_number(a, sizeof a, s->na);
+    pp_psf_format_number(b, sizeof b, s->wavelength);
+    pp_psf_format_number(c, sizeof c, s->pixel);
+    pp_psf_format_number(d, sizeof d, s->step);
+    pp_psf_format_number(e, sizeof e, s->n);
     int n =
         snprintf(buf, len, "widefield:na=%s,wavelength=%s,pixel=%s,step=%s,n=%s", a, b, c, d, e);
     if (s->sample_n > 0 && n >= 0 && (size_t)n < len) {
-        fmt(f, sizeof f, s->sample_n);
-        fmt(g, sizeof g, s->depth);
+        pp_psf_format_number(f, sizeof f, s->sample_n);
+        pp_psf_format_number(g, sizeof g, s->depth);
         snprintf(buf + n, len - (size_t)n, ",sample_n=%s,depth=%s", f, g);
     }
 }
