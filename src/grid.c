@@ -64,12 +64,6 @@ void pp_grid_place_kernel(double *grid, const pp_shape *gs, const double *kernel
                     kernel[(a * ky + b) * kx + c];
 }
 
-int pp_grid_half_weight(const pp_shape *s, size_t k)
-{
-    size_t n = s->n[s->rank - 1];
-    return k == 0 || (n % 2 == 0 && k == n / 2) ? 1 : 2;
-}
-
 void pp_grid_hermitian_column(pp_complex *half, const pp_shape *s, size_t col)
 {
     int k = s->rank;

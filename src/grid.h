@@ -56,12 +56,6 @@ void pp_grid_get_box(const double *grid, const pp_shape *gs, double *frame,
 void pp_grid_place_kernel(double *grid, const pp_shape *gs, const double *kernel,
                           const pp_shape *ks);
 
-/* Weight of half-spectrum entries with last-axis index k in a sum over the
- * full spectrum of a real grid of shape *s: 1 on the edge columns (k = 0
- * and, n[rank-1] even, k = n[rank-1]/2), 2 elsewhere. Summed over the half
- * spectrum the weights give the full-spectrum count. */
-int pp_grid_half_weight(const pp_shape *s, size_t k);
-
 /* Makes edge column `col` (0 or, n[rank-1] even, n[rank-1]/2) of the half
  * spectrum `half` of a real grid of shape *s (rank 2 or 3) Hermitian, in
  * the way the samplers draw white noise there: an entry whose mirror

@@ -15,6 +15,7 @@
  * -(n // 2), axis) on every axis, with np.roll's definition (numpy.roll
  * docs: out[(i + shift) mod G] = in[i]) written out one axis at a time. */
 #include "grid.h"
+#include "spectral.h"
 #include "pixpost/fft.h"
 #include "testutil.h"
 #include <complex.h>
@@ -128,14 +129,15 @@ int main(void)
     for (int i = 0; i < 12; i++) ok &= back[i] == fr[i];
     CHECK(ok, "rank-2 get_box");
 
-    /* half-spectrum weights sum to the full count */
+    /* the half-spectrum weights (spectral.h, used by every sampler) sum to
+     * the full count, rank 2 and 3 */
     pp_shape ws[4] = {pp_shape_2d(5, 8), pp_shape_2d(6, 7), pp_shape_3d(3, 4, 9),
                       pp_shape_3d(2, 5, 10)};
     for (int t = 0; t < 4; t++) {
         pp_shape *w = &ws[t];
         size_t nl = w->n[w->rank - 1], rows = pp_shape_half_count(w) / (nl / 2 + 1), sum = 0;
         for (size_t r = 0; r < rows; r++)
-            for (size_t k = 0; k <= nl / 2; k++) sum += (size_t)pp_grid_half_weight(w, k);
+            for (size_t k = 0; k <= nl / 2; k++) sum += (size_t)pp_half_weight(k, nl);
         size_t full = 0;
         pp_shape_count(w, 0, &full);
         CHECK(sum == full, "half-spectrum weights sum to the full-spectrum count");
