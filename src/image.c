@@ -5,35 +5,63 @@
 #include "internal.h"
 #include "pixpost/image.h"
 
-pp_status pp_image_create(size_t height, size_t width, pp_image **out)
+pp_status pp_image_create3(size_t depth, size_t height, size_t width, pp_image **out)
 {
     *out = NULL;
-    if (width == 0 || height == 0)
-        return pp_fail(PP_ERR_ARG, "image size %zux%zu: both sides must be at least 1",
-                       width, height);
+    if (width == 0 || height == 0 || depth == 0) {
+        if (depth == 1)
+            return pp_fail(PP_ERR_ARG, "image size %zux%zu: both sides must be at least 1",
+                           width, height);
+        return pp_fail(PP_ERR_ARG, "volume size %zux%zux%zu: every side must be at least 1",
+                       width, height, depth);
+    }
     size_t n, bytes;
-    if (!pp_mul_ok(width, height, &n) || !pp_mul_ok(n, sizeof(double), &bytes))
-        return pp_fail(PP_ERR_LIMIT, "image size %zux%zu is too large to address", width,
-                       height);
+    if (!pp_mul_ok(width, height, &n) || !pp_mul_ok(n, depth, &n) ||
+        !pp_mul_ok(n, sizeof(double), &bytes)) {
+        if (depth == 1)
+            return pp_fail(PP_ERR_LIMIT, "image size %zux%zu is too large to address", width,
+                           height);
+        return pp_fail(PP_ERR_LIMIT, "volume size %zux%zux%zu is too large to address", width,
+                       height, depth);
+    }
     pp_image *img = malloc(sizeof *img);
-    if (!img)
-        return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zu image", width, height);
-    img->data = calloc(n, sizeof(double));
-    if (!img->data) {
+    if (img)
+        img->data = calloc(n, sizeof(double));
+    if (!img || !img->data) {
         free(img);
-        return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zu image", width, height);
+        if (depth == 1)
+            return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zu image", width, height);
+        return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zux%zu volume", width, height,
+                       depth);
     }
     img->width = width;
     img->height = height;
+    img->depth = depth;
     *out = img;
     return PP_OK;
 }
 
+pp_status pp_image_create(size_t height, size_t width, pp_image **out)
+{
+    return pp_image_create3(1, height, width, out);
+}
+
+size_t pp_image_count(const pp_image *img)
+{
+    return img->depth * img->height * img->width;
+}
+
+pp_shape pp_image_shape(const pp_image *img)
+{
+    return img->depth > 1 ? pp_shape_3d(img->depth, img->height, img->width)
+                          : pp_shape_2d(img->height, img->width);
+}
+
 pp_status pp_image_clone(const pp_image *src, pp_image **out)
 {
-    pp_status st = pp_image_create(src->height, src->width, out);
+    pp_status st = pp_image_create3(src->depth, src->height, src->width, out);
     if (st == PP_OK)
-        memcpy((*out)->data, src->data, src->width * src->height * sizeof(double));
+        memcpy((*out)->data, src->data, pp_image_count(src) * sizeof(double));
     return st;
 }
 
@@ -47,7 +75,7 @@ void pp_image_free(pp_image *img)
 
 size_t pp_image_range(const pp_image *img, double *lo, double *hi)
 {
-    size_t n = img->width * img->height, bad = 0;
+    size_t n = pp_image_count(img), bad = 0;
     double a = INFINITY, b = -INFINITY;
     for (size_t i = 0; i < n; i++) {
         double v = img->data[i];

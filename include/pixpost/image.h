@@ -1,7 +1,9 @@
-/* pixpost — a frame of doubles.
+/* pixpost — a frame (or a volume) of doubles.
  *
- * Layout: row-major, no padding: pixel (row r, column c) is
- * data[r * width + c]. Values are camera units (ADU) or whatever the file
+ * Layout: row-major, no padding, slowest axis first: pixel (row r, column
+ * c) of slice z is data[(z * height + r) * width + c]. A frame has depth 1;
+ * a volume (a z-stack) has depth > 1 slices of height x width. Functions
+ * that handle frames only say so and refuse a volume (PP_ERR_ARG). Values are camera units (ADU) or whatever the file
  * held; nothing is rescaled on reading. The struct is plain so callers can
  * index it; create and free it only through these functions.
  */
@@ -9,12 +11,14 @@
 #define PIXPOST_IMAGE_H
 
 #include <stddef.h>
+#include "pixpost/shape.h"
 #include "pixpost/status.h"
 
 typedef struct pp_image {
     size_t width;
     size_t height;
-    double *data; /* width * height values, owned by the image */
+    double *data; /* depth * height * width values, owned by the image */
+    size_t depth; /* z-slices: 1 for a frame (pp_image_create) */
 } pp_image;
 
 /* Largest frame accepted by default, in pixels (2^28: 2 GiB of doubles). The
@@ -27,7 +31,18 @@ typedef struct pp_image {
  * PP_ERR_LIMIT when width*height*sizeof(double) overflows. */
 pp_status pp_image_create(size_t height, size_t width, pp_image **out);
 
-/* A deep copy of src. */
+/* A zero-filled volume of depth slices of height x width (depth 1 gives a
+ * frame, as pp_image_create). Same failures. */
+pp_status pp_image_create3(size_t depth, size_t height, size_t width, pp_image **out);
+
+/* Elements of img: depth * height * width. */
+size_t pp_image_count(const pp_image *img);
+
+/* The shape of img: rank 2 {height, width} for a frame (depth 1), rank 3
+ * {depth, height, width} for a volume. */
+pp_shape pp_image_shape(const pp_image *img);
+
+/* A deep copy of src (frame or volume). */
 pp_status pp_image_clone(const pp_image *src, pp_image **out);
 
 /* Frees the image and its data; NULL is accepted. */

@@ -133,6 +133,12 @@ typedef struct pp_sampler_config {
      * PP_SET_COUNT names kept by the caller while the sampler lives, e.g.
      * a command line's flags; NULL (default): the library's words. */
     const char *const *setting_names;
+    /* Voxel size of a volume (a frame with depth > 1), micrometres, slowest
+     * axis first: {z step, y, x}. The prior weighs its increments along each
+     * axis by (x spacing / that axis' spacing)^2, so roughness is measured in
+     * physical units with the x pixel as the unit of length. 0 (default): not
+     * known, taken as cubic voxels {1, 1, 1}. Frames ignore it. */
+    double voxel[3];
 } pp_sampler_config;
 
 void pp_sampler_defaults(pp_sampler_config *cfg);
