@@ -52,10 +52,7 @@ refused([path("plain3.tif"), "--psf", G1], "h1", ["plain3.tif", "3 pages", "--pa
         "multi-page without OME or --pages")
 refused([path("z.ome.tif"), "--psf", G1, "--pages", "t"], "h2", ["z.ome.tif", "--pages t", "OME metadata", "z-slices"],
         "--pages t against OME SizeZ")
-refused([path("z.ome.tif"), "--psf", G1], "h3", ["z.ome.tif", "3-D sampling is not built yet", "--plane K"],
-        "OME z-stack")
-refused([path("plain3.tif"), "--psf", G1, "--pages", "z"], "h4", ["plain3.tif", "not built yet", "--plane K", "--pages t"],
-        "--pages z")
+# (z-stacks sampled as volumes: ref_volume_cli.py)
 refused([path("c.ome.tif"), "--psf", G1, "--psf", G2, "--psf", G1], "h5", ["--psf", "3 times", "2 channels", "c.ome.tif"],
         "three --psf for two channels")
 refused([path("one.tif"), "--psf", G1, "--psf", G2], "h6", ["--psf", "2 times", "1 channel"],
@@ -146,9 +143,6 @@ tifffile.imwrite(os.path.join(tdir, "m.ome.tif"), planes[:2], metadata={"axes": 
 p = pptest.run(["batch", zdir, "--psf", G1, "-o", path("bzout"), "--pages", "t"] + Q, check=False)
 pptest.check(p.returncode == 1 and "v.ome.tif" in p.stderr and "conflicts" in p.stderr and not os.path.exists(path("bzout")),
              "batch --pages t on an OME z-stack: refused naming both (%s)" % p.stderr.strip())
-p = pptest.run(["batch", zdir, "--psf", G1, "-o", path("bzout")] + Q, check=False)
-pptest.check(p.returncode == 1 and "z-slices" in p.stderr and "not built yet" in p.stderr,
-             "batch on an OME z-stack: refused, 3-D not built yet (%s)" % p.stderr.strip())
 p = pptest.run(["batch", tdir, "--psf", G1, "-o", path("btout")] + Q, check=False)
 pptest.check(p.returncode == 0 and os.path.exists(path("btout", "m.ome_p2", "mean.tif")),
              "batch on an OME time series without --pages: a frame per page")

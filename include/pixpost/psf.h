@@ -11,9 +11,9 @@
  * Every kernel is odd-sized (2R+1 square), centred at (R, R), finite,
  * non-negative and normalised to sum 1.
  *
- * 3-D PSFs (volumes, slowest axis first {nz, ny, nx}; not yet usable for
- * sampling, which is 2-D today: pp_psf_make refuses them, pp_psf_make3
- * builds them, `pixpost psf` writes them as multi-page float TIFF):
+ * 3-D PSFs (volumes, slowest axis first {nz, ny, nx}; they blur volumes,
+ * not frames: pp_psf_make refuses them, pp_psf_make3 builds them, `pixpost
+ * psf` writes them as multi-page float TIFF):
  *   gaussian:sigma=S,sigma_z=Z          sigma_z in slices (z-steps)
  *   widefield:na=NA,wavelength=L,pixel=P,step=DZ,n=N[,sample_n=NS,depth=D]
  *                                       scalar diffraction (Born & Wolf
@@ -84,7 +84,8 @@ pp_status pp_psf_make3(const pp_psf_spec *s, size_t size, size_t depth, pp_shape
 /* Makes the kernel. size = 0 chooses the size from the model (gaussian:
  * radius ceil(4 sigma); airy: radius of the 5th dark ring), otherwise size
  * must be odd. A file PSF keeps its own support when size = 0. A 3-D spec
- * (pp_psf_is_3d) is refused with PP_ERR_UNSUPPORTED: sampling is 2-D. */
+ * (pp_psf_is_3d) is refused with PP_ERR_UNSUPPORTED: it blurs volumes,
+ * and this makes a frame's kernel (pp_psf_make3 makes a volume's). */
 pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out);
 
 /* Refills an existing odd square kernel k with the gaussian or airy model

@@ -15,6 +15,7 @@
  * sampling.
  */
 #include "batch.h"
+#include "pixpost/stack.h"
 #include <errno.h>
 #include <math.h>
 #include <signal.h>
@@ -49,6 +50,19 @@ void batch_do_frame(const batch_ctx *c, size_t i, batch_row *r)
     memset(&fr, 0, sizeof fr);
     fr.frame = in;
     fr.page = f->page;
+    fr.volume = f->volume;
+    /* the voxel size as sample finds it (units.c): summary.json and the prior */
+    double voxel[3];
+    char note[512];
+    pp_ome_meta ome;
+    unsigned npages;
+    if (pp_stack_probe(in, &npages, &ome) != PP_OK)
+        ome.present = 0; /* the read below says what is wrong */
+    if (cli_voxel_resolve(c->opts, &ome, f->volume ? &c->opts->psf : NULL, voxel, note,
+                          sizeof note))
+        fr.voxel_um = voxel;
+    if (note[0] && !c->opts->quiet)
+        fprintf(stderr, "pixpost: %s: warning: %s\n", f->stem, note);
     fr.outdir = out;
     fr.seed = f->seed;
     fr.threads = c->threads_per_frame;

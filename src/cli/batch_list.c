@@ -114,21 +114,25 @@ static int is_tiff_name(const char *rel)
 
 /* Frames of a TIFF: its pages when they are time points (--pages t or the
  * OME metadata; units.c), 1 when it is not a readable TIFF (the worker
- * reports). Other multi-page files are an error (printed). */
-static int count_pages(const char *indir, const char *rel, char given, unsigned *frames)
+ * reports) or a volume (*volume = 1: z-slices by --pages z or the
+ * metadata). Other multi-page files are an error (printed). */
+static int count_pages(const char *indir, const char *rel, char given, unsigned *frames,
+                       int *volume)
 {
     char full[BATCH_PATH * 2], msg[1024];
     snprintf(full, sizeof full, "%s/%s", indir, rel);
     *frames = 1;
-    if (is_tiff_name(rel) && cli_units_batch_pages(full, given, frames, msg, sizeof msg))
+    *volume = 0;
+    if (is_tiff_name(rel) && cli_units_batch_pages(full, given, frames, volume, msg, sizeof msg))
         return cli_error("batch: %s", msg);
     return 0;
 }
 
-static void fill_frame(batch_frame *f, const char *rel, unsigned page, unsigned pages,
+static void fill_frame(batch_frame *f, const char *rel, unsigned page, unsigned pages, int volume,
                        uint64_t seed)
 {
     memset(f, 0, sizeof *f);
+    f->volume = volume;
     snprintf(f->rel, sizeof f->rel, "%s", rel);
     f->page = page;
     f->pages = pages;
@@ -181,12 +185,17 @@ static int expand_pages(const char *indir, const name_list *l, char given, uint6
                         batch_frame **out, size_t *n)
 {
     unsigned *pages = malloc((l->n ? l->n : 1) * sizeof *pages);
-    if (!pages)
+    int *volume = malloc((l->n ? l->n : 1) * sizeof *volume);
+    if (!pages || !volume) {
+        free(pages);
+        free(volume);
         return cli_error("batch: out of memory");
+    }
     size_t total = 0;
     for (size_t i = 0; i < l->n; i++) {
-        if (count_pages(indir, l->v[i], given, &pages[i])) {
+        if (count_pages(indir, l->v[i], given, &pages[i], &volume[i])) {
             free(pages);
+            free(volume);
             return CLI_EXIT_USAGE;
         }
         total += pages[i];
@@ -194,13 +203,15 @@ static int expand_pages(const char *indir, const name_list *l, char given, uint6
     batch_frame *f = calloc(total ? total : 1, sizeof *f);
     if (!f) {
         free(pages);
+        free(volume);
         return cli_error("batch: out of memory (%zu frames)", total);
     }
     size_t k = 0;
     for (size_t i = 0; i < l->n; i++)
         for (unsigned p = 0; p < pages[i]; p++)
-            fill_frame(&f[k++], l->v[i], p, pages[i], seed);
+            fill_frame(&f[k++], l->v[i], p, pages[i], volume[i], seed);
     free(pages);
+    free(volume);
     *out = f;
     *n = total;
     return mark_clashes(f, total);

@@ -187,8 +187,10 @@ typedef struct cli_sample_opts {
     double voxel[2];        /* --voxel XY,Z in micrometres; 0, 0 when not given */
     long plane;             /* --plane K (a page, from 0), or -1 */
     int channel_all;        /* --channel all */
-    size_t npsf;            /* --psf values given, 1 .. CLI_MAX_PSF; psf above is psfs[0] */
+    size_t npsf;            /* --psf values given, 1 .. CLI_MAX_PSF; psf above is psfs[0]
+                             * (one spec with wavelength=L1/L2/..: one per wavelength) */
     const char *psf_texts[CLI_MAX_PSF];
+    char psf_bufs[CLI_MAX_PSF][512]; /* the texts of a wavelength list, one per channel */
     pp_psf_spec psfs[CLI_MAX_PSF];
 } cli_sample_opts;
 
@@ -214,7 +216,9 @@ void cli_sample_help(FILE *fp);
 #define CLI_MAX_UNITS 64 /* frames one `sample` run takes from one file */
 
 typedef struct cli_unit {
-    unsigned page;       /* TIFF page to read */
+    unsigned page;       /* TIFF page to read (a frame) */
+    int volume;          /* 1: the z-slices at channel c, time point t, as one volume */
+    unsigned c, t;
     size_t psf;          /* index into o->psfs */
     int channel_set;     /* --channel all: channel replaces o->read.channel */
     pp_channel channel;
@@ -232,8 +236,9 @@ typedef struct cli_units {
     int from_ome;       /* the role came from the OME metadata */
     unsigned pages;     /* pages of the file */
     pp_ome_meta ome;
-    double voxel[3];    /* z, y, x in micrometres (OME, else --voxel); NaN unknown */
+    double voxel[3];    /* z, y, x in micrometres (cli_voxel_resolve); NaN unknown */
     int have_voxel;     /* any of them known */
+    char voxel_note[512]; /* the PSF spec's sampling disagrees with voxel ("" when not) */
 } cli_units;
 
 /* Reads --pages, --plane, --voxel and --channel all into o (called by
@@ -243,11 +248,23 @@ int cli_units_opts(const cli_args *a, cli_sample_opts *o);
  * CLI_EXIT_USAGE with one sentence in msg naming the file or option. */
 int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
                    size_t len);
-/* For batch: the frames path gives (its pages when they are time points
- * by the OME metadata or given == 't'; 1 for a single page). Other pages
- * (z-slices, channels, or unknown without --pages) are refused: 0 or
- * CLI_EXIT_USAGE with one sentence in msg naming the file. */
-int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *msg, size_t len);
+/* The voxel size {z, y, x} in micrometres of a file with OME metadata ome
+ * (may be NULL) sampled with the PSF psf, per axis from the first that
+ * gives it: the OME metadata, --voxel, the PSF spec (widefield pixel= and
+ * step=, airy pixel=); NaN where none does. Returns 1 when any axis is
+ * known. note (len bytes, may be NULL) gets a sentence when the spec's
+ * sampling differs from the size taken from the metadata or --voxel by more
+ * than 1 % ("" otherwise): the kernel is then made for another grid. */
+int cli_voxel_resolve(const cli_sample_opts *o, const pp_ome_meta *ome, const pp_psf_spec *psf,
+                      double out[3], char *note, size_t len);
+/* For batch: the units path gives. *frames: its pages when they are time
+ * points by the OME metadata or given == 't' (1 for a single page); 1 with
+ * *volume = 1 when its pages are the z-slices of one volume (OME SizeZ, or
+ * given == 'z' without metadata). Other pages (channels, z-slices of
+ * several channels or time points, or unknown without --pages) are
+ * refused: 0 or CLI_EXIT_USAGE with one sentence in msg naming the file. */
+int cli_units_batch_pages(const char *path, char given, unsigned *frames, int *volume, char *msg,
+                          size_t len);
 /* Writes OUTDIR/channels.json (role 'c') or OUTDIR/frames.json (role 't')
  * after every unit ran. Returns 0 or CLI_EXIT_USAGE with msg set. */
 int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const char *frame,
@@ -305,7 +322,10 @@ int cli_plans_save(const cli_sample_opts *o, cli_plans *p, const pp_sampler *s, 
  * back. The caller fills the inputs; the outputs are set by the call. */
 typedef struct cli_frame_run {
     const char *frame;        /* input file */
-    unsigned page;            /* TIFF page, 0-based (0 for PNG) */
+    unsigned page;            /* TIFF page, 0-based (0 for PNG); unused for a volume */
+    int volume;               /* 1: every z-slice (of channel vol_c at time point vol_t when
+                               * the OME metadata has several) read as one volume */
+    unsigned vol_c, vol_t;
     const pp_psf_spec *psf;   /* NULL: o->psf (units.c sets one per channel) */
     const char *psf_text;     /* NULL: o->psf_text */
     int channel_set;          /* 1: channel replaces o->read.channel (--channel all) */

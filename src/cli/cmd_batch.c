@@ -56,7 +56,9 @@ static void batch_help(FILE *fp)
           "       mpirun -n R pixpost batch ...   (MPI builds: rank 0 hands frames out)\n\n"
           "Samples every PNG/TIFF frame of INDIR (sorted by path; a multi-page TIFF whose pages\n"
           "are time points, by --pages t or its OME metadata, gives one frame per page, named\n"
-          "<stem>_p<page> with pages counted from 1; other multi-page TIFFs are refused) into\n"
+          "<stem>_p<page> with pages counted from 1; one whose pages are z-slices, by --pages z\n"
+          "or its OME metadata, is one volume, named <stem>; other multi-page TIFFs are\n"
+          "refused) into\n"
           "OUTDIR/<relative stem>/, exactly as 'pixpost sample' writes it, then writes the\n"
           "completion marker .done last. Each frame's seed is a hash of --seed and its\n"
           "relative path, so results do not depend on order, jobs, shards or ranks.\n"
@@ -431,13 +433,14 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
     rc = rc ? rc : batch_check_outdir(a->pos[0], o->outdir);
     if (rc)
         return rc;
-    if (o->pages == 'z' || o->pages == 'c' || o->plane >= 0 || o->channel_all || o->npsf > 1)
+    if (o->pages == 'c' || o->plane >= 0 || o->channel_all || o->npsf > 1)
         return cli_error("batch: %s is for pixpost sample (batch takes --pages t: each page of "
-                         "a multi-page TIFF a frame, and one --psf)",
-                         o->pages == 'z' || o->pages == 'c' ? (o->pages == 'z' ? "--pages z"
-                                                                              : "--pages c")
-                         : o->plane >= 0 ? "--plane" : o->channel_all ? "--channel all"
-                                                                      : "more than one --psf");
+                         "a multi-page TIFF a frame, or --pages z: each file one volume; and one "
+                         "--psf)",
+                         o->pages == 'c'    ? "--pages c"
+                         : o->plane >= 0    ? "--plane"
+                         : o->channel_all   ? "--channel all"
+                                            : "more than one --psf");
     char msg[BATCH_MSG];
     if (cli_check_outdir(o->outdir, o->overwrite, msg, sizeof msg) != 0)
         return cli_error("%s", msg);

@@ -95,6 +95,9 @@ static int run_unit(const cli_sample_opts *o, const cli_units *us, cli_unit *u,
     memset(&r, 0, sizeof r);
     r.frame = o->frame;
     r.page = u->page;
+    r.volume = u->volume;
+    r.vol_c = u->c;
+    r.vol_t = u->t;
     r.outdir = outdir;
     r.psf = &o->psfs[u->psf];
     r.psf_text = o->psf_texts[u->psf];
@@ -102,9 +105,12 @@ static int run_unit(const cli_sample_opts *o, const cli_units *us, cli_unit *u,
     r.channel = u->channel;
     if (u->channel_set)
         snprintf(part, sizeof part, "channel %s", colour[(size_t)(u - us->unit) % 3]);
+    else if (u->volume)
+        snprintf(part, sizeof part, "%s %u (its z-slices)", us->role == 'c' ? "channel" : "time point",
+                 us->role == 'c' ? u->c : u->t);
     else
         snprintf(part, sizeof part, "page %u", u->page);
-    r.part = us->pages > 1 || u->channel_set ? part : NULL;
+    r.part = (us->pages > 1 && !(u->volume && !us->role)) || u->channel_set ? part : NULL;
     r.voxel_um = us->have_voxel ? us->voxel : NULL;
     r.seed = o->cfg.seed;
     r.threads = o->cfg.threads;
@@ -182,6 +188,8 @@ static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec 
     if (!us)
         return cli_error("out of memory");
     int rc = cli_units_plan(o, o->frame, us, msg, sizeof msg);
+    if (!rc && us->voxel_note[0] && !o->quiet)
+        fprintf(stderr, "pixpost: warning: %s\n", us->voxel_note);
     if (rc)
         cli_error("%s", msg);
     else if (us->n == 1 && !us->unit[0].sub[0])

@@ -1,15 +1,19 @@
-/* pixpost command line — what one input file holds: the frames ("units")
- * that `pixpost sample` runs for it. A single-page grayscale file is one
- * unit written into OUTDIR itself (as always). A multi-page TIFF's pages are
- * z-slices, time points or channels: its OME-XML says which when present
- * (include/pixpost/ome.h), --pages otherwise; time points go to
- * OUTDIR/t<k>/, channels to OUTDIR/c<k>/ with the k-th --psf, and z-slices
- * are refused (3-D sampling is not built yet) unless --plane K picks one.
+/* pixpost command line — what one input file holds: the frames and volumes
+ * ("units") that `pixpost sample` runs for it. A single-page grayscale file
+ * is one unit written into OUTDIR itself (as always). A multi-page TIFF's
+ * pages are z-slices, time points or channels: its OME-XML says which when
+ * present (include/pixpost/ome.h), --pages otherwise. z-slices are one
+ * volume sampled as a whole into OUTDIR (with OME metadata of several
+ * channels or time points, each channel's or time point's volume into
+ * OUTDIR/c<k>/ or OUTDIR/t<k>/); time points go to OUTDIR/t<k>/, channels
+ * to OUTDIR/c<k>/ with the k-th --psf; --plane K picks one page as a frame.
+ * Channels and time points together (SizeC and SizeT > 1) are refused.
  * `--channel all` makes the R, G and B of a colour image three channels.
- * Also the options that say so (--pages, --plane, --voxel, --channel all)
- * and the index OUTDIR/channels.json (or frames.json) written after all
- * units succeeded. Cost: reading the file's header and description (and
- * page 0 once for --channel all); nothing on a hot path. */
+ * Also the options that say so (--pages, --plane, --voxel, --channel all),
+ * the voxel size (OME metadata, else --voxel, else the PSF spec) and the
+ * index OUTDIR/channels.json (or frames.json) written after all units
+ * succeeded. Cost: reading the file's header and description (and page 0
+ * once for --channel all); nothing on a hot path. */
 #include "cli.h"
 #include "pixpost/output.h"
 #include "pixpost/stack.h"
@@ -61,14 +65,14 @@ static int ome_role(const pp_ome_meta *m, const char *frame, char *role, char *m
     *role = 0;
     if (!m->present)
         return 0;
-    if (m->nz > 1)
-        *role = 'z';
-    else if (m->nc > 1 && m->nt > 1)
+    if (m->nc > 1 && m->nt > 1)
         return cli_refuse(msg, len,
                     "%s: the OME metadata holds %zu channels at each of %zu time points; pixpost "
-                    "takes channels or time points, not both, from one file (split it by time "
-                    "point)",
+                    "takes channels or time points from one file, not both: split it into one "
+                    "file per time point",
                     frame, m->nc, m->nt);
+    if (m->nz > 1)
+        *role = 'z';
     else if (m->nc > 1)
         *role = 'c';
     else if (m->nt > 1)
@@ -112,11 +116,13 @@ static int pick_role(const cli_sample_opts *o, const char *frame, cli_units *u, 
     return 0;
 }
 
-int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *msg, size_t len)
+int cli_units_batch_pages(const char *path, char given, unsigned *frames, int *volume, char *msg,
+                          size_t len)
 {
     pp_ome_meta ome;
     unsigned pages;
     *frames = 1;
+    *volume = 0;
     if (pp_stack_probe(path, &pages, &ome) != PP_OK)
         return cli_refuse(msg, len, "%s", pp_error_message());
     *frames = pages ? pages : 1;
@@ -128,14 +134,24 @@ int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *
     if (!role)
         return cli_refuse(msg, len,
                     "%s: %u pages and no OME metadata saying what they are: give --pages t to "
-                    "sample each page as a frame (z-slices and channels: pixpost sample --pages "
-                    "z|c on the file)",
+                    "sample each page as a frame or --pages z to sample the file as one volume "
+                    "(channels: pixpost sample --pages c on the file)",
                     path, pages);
-    return cli_refuse(msg, len, "%s: its %u pages are %s (%s); batch samples time points only: %s", path,
-                pages, role_words(role), from_ome ? "OME metadata" : "--pages",
-                role == 'z' ? "3-D sampling is not built yet (pixpost sample --plane K takes "
-                              "one slice)"
-                            : "run pixpost sample on the file (each channel with its own --psf)");
+    if (role == 'z' && ome.nc <= 1 && ome.nt <= 1) {
+        *frames = 1;
+        *volume = 1;
+        return 0;
+    }
+    if (role == 'z')
+        return cli_refuse(msg, len,
+                    "%s: its %u pages are the z-slices of %zu %s (OME metadata); batch takes one "
+                    "volume per file: run pixpost sample on the file (each into OUTDIR/%s<k>/)",
+                    path, pages, ome.nc > 1 ? ome.nc : ome.nt,
+                    ome.nc > 1 ? "channels" : "time points", ome.nc > 1 ? "c" : "t");
+    return cli_refuse(msg, len,
+                "%s: its %u pages are channels (%s); batch takes time points or one volume "
+                "per file: run pixpost sample on the file (each channel with its own --psf)",
+                path, pages, from_ome ? "OME metadata" : "--pages");
 }
 
 static void add(cli_units *u, unsigned page, size_t psf, const char *sub, unsigned k)
@@ -143,7 +159,7 @@ static void add(cli_units *u, unsigned page, size_t psf, const char *sub, unsign
     cli_unit *n = &u->unit[u->n++];
     memset(n, 0, sizeof *n);
     n->page = page;
-    n->psf = psf;
+    n->psf = psf < CLI_MAX_PSF ? psf : 0;
     if (sub)
         snprintf(n->sub, sizeof n->sub, "%s%u", sub, k);
 }
@@ -180,16 +196,63 @@ static int plan_colour(const cli_sample_opts *o, const char *frame, cli_units *u
     return 0;
 }
 
-static void set_voxel(const cli_sample_opts *o, cli_units *u)
+/* The sampling a PSF spec is made for, {z, y, x} micrometres, 0 unknown. */
+static void spec_voxel(const pp_psf_spec *p, double v[3])
 {
+    v[0] = v[1] = v[2] = 0;
+    if (p && (p->kind == PP_PSF_WIDEFIELD || p->kind == PP_PSF_AIRY))
+        v[1] = v[2] = p->pixel;
+    if (p && p->kind == PP_PSF_WIDEFIELD)
+        v[0] = p->step;
+}
+
+int cli_voxel_resolve(const cli_sample_opts *o, const pp_ome_meta *ome, const pp_psf_spec *psf,
+                      double out[3], char *note, size_t len)
+{
+    static const char axis[3] = {'z', 'y', 'x'};
     double given[3] = {o->voxel[1], o->voxel[0], o->voxel[0]}; /* --voxel XY,Z as z, y, x */
+    double spec[3];
+    spec_voxel(psf, spec);
     int any = 0;
+    if (note && len)
+        note[0] = '\0';
     for (int i = 0; i < 3; i++) {
-        double m = u->ome.present ? u->ome.voxel[i] : 0.0;
-        u->voxel[i] = m > 0 ? m : given[i] > 0 ? given[i] : NAN;
-        any |= !isnan(u->voxel[i]);
+        double m = ome && ome->present ? ome->voxel[i] : 0.0;
+        out[i] = m > 0 ? m : given[i] > 0 ? given[i] : spec[i] > 0 ? spec[i] : NAN;
+        any |= !isnan(out[i]);
+        double from = m > 0 ? m : given[i];
+        if (note && len && !note[0] && from > 0 && spec[i] > 0 &&
+            fabs(spec[i] - from) > 0.01 * from)
+            snprintf(note, len,
+                     "--psf: made for a %s of %g um in %c, but %s gives %g um: the kernel "
+                     "does not match the data's sampling; make the spec's %s= agree",
+                     i ? "pixel" : "z-step", spec[i], axis[i],
+                     m > 0 ? "the file's OME metadata" : "--voxel", from, i ? "pixel" : "step");
     }
-    u->have_voxel = any;
+    return any;
+}
+
+/* A volume per channel or time point of the metadata (one without them):
+ * its z-slices as one unit; into OUTDIR itself when it is the only one. */
+static int plan_volumes(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                        size_t len)
+{
+    size_t nc = u->ome.present ? u->ome.nc : 1, nt = u->ome.present ? u->ome.nt : 1;
+    size_t n = nc > 1 ? nc : nt;
+    if (n > CLI_MAX_UNITS)
+        return cli_refuse(msg, len,
+                    "%s: %zu volumes (one per %s) are more than the %d that sample takes; "
+                    "split the file",
+                    frame, n, nc > 1 ? "channel" : "time point", CLI_MAX_UNITS);
+    u->role = nc > 1 ? 'c' : nt > 1 ? 't' : 0;
+    for (size_t k = 0; k < n; k++) {
+        add(u, 0, nc > 1 && o->npsf > 1 ? k : 0, u->role ? (nc > 1 ? "c" : "t") : NULL,
+            (unsigned)k);
+        u->unit[k].volume = 1;
+        u->unit[k].c = nc > 1 ? (unsigned)k : 0;
+        u->unit[k].t = nt > 1 ? (unsigned)k : 0;
+    }
+    return 0;
 }
 
 /* The units of a file whose role is known (pick_role or plan_colour done). */
@@ -211,11 +274,7 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
         return 0;
     }
     if (u->role == 'z')
-        return cli_refuse(msg, len,
-                    "%s: its %u pages are z-slices of one volume (%s), and 3-D sampling is not "
-                    "built yet; sample one slice with --plane K (0 to %u)%s",
-                    frame, u->pages, u->from_ome ? "OME metadata" : "--pages z", u->pages - 1,
-                    u->from_ome ? "" : ", or each slice as a separate frame with --pages t");
+        return plan_volumes(o, frame, u, msg, len);
     if (u->pages > CLI_MAX_UNITS)
         return cli_refuse(msg, len,
                     "%s: %u %s are more than the %d that sample takes; use pixpost batch "
@@ -236,18 +295,31 @@ int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, ch
     pp_status st = pp_stack_probe(frame, &u->pages, &u->ome);
     if (st != PP_OK)
         return cli_refuse(msg, len, "%s", pp_error_message());
-    set_voxel(o, u);
     int rc = o->channel_all ? plan_colour(o, frame, u, msg, len) : pick_role(o, frame, u, msg, len);
     if (!rc && !o->channel_all)
         rc = plan_pages(o, frame, u, msg, len);
     if (rc)
         return rc;
     size_t channels = u->role == 'c' ? u->n : 1;
+    if (o->npsf != 1 && o->npsf != channels && o->psf_texts[0] == o->psf_bufs[0])
+        return cli_refuse(msg, len,
+                    "--psf: wavelength= lists %zu wavelengths for %zu channel%s of %s: give one "
+                    "wavelength per channel, in channel order",
+                    o->npsf, channels, channels == 1 ? "" : "s", frame);
     if (o->npsf != 1 && o->npsf != channels)
         return cli_refuse(msg, len,
                     "--psf: given %zu times for %zu channel%s of %s: give one --psf per "
                     "channel, in channel order, or a single --psf for all",
                     o->npsf, channels, channels == 1 ? "" : "s", frame);
+    /* the PSF spec's sampling counts for volumes only: a frame's summary.json
+     * keeps the size the metadata or --voxel gave, as before volumes */
+    int vol = u->n && u->unit[0].volume;
+    u->have_voxel = cli_voxel_resolve(o, &u->ome, vol ? &o->psfs[0] : NULL, u->voxel,
+                                      u->voxel_note, sizeof u->voxel_note);
+    for (size_t k = 1; vol && k < o->npsf && !u->voxel_note[0]; k++) {
+        double v[3];
+        cli_voxel_resolve(o, &u->ome, &o->psfs[k], v, u->voxel_note, sizeof u->voxel_note);
+    }
     return 0;
 }
 
@@ -278,7 +350,12 @@ int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const ch
     fprintf(f, ",\n  \"%s\": [\n", u->role == 'c' ? "channels" : "frames");
     for (size_t k = 0; k < u->n; k++) {
         const cli_unit *n = &u->unit[k];
-        fprintf(f, "    {\"index\": %zu, \"folder\": \"%s\", \"page\": %u, ", k, n->sub, n->page);
+        if (n->volume) /* every page of its channel or time point: a volume */
+            fprintf(f, "    {\"index\": %zu, \"folder\": \"%s\", \"page\": null, \"z_slices\": %zu, ",
+                    k, n->sub, u->ome.nz);
+        else
+            fprintf(f, "    {\"index\": %zu, \"folder\": \"%s\", \"page\": %u, ", k, n->sub,
+                    n->page);
         if (n->channel_set)
             fprintf(f, "\"colour\": \"%s\", ", colour[k % 3]);
         fputs("\"psf\": ", f);
