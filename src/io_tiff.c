@@ -394,6 +394,36 @@ pp_status pp_tiff_read(const char *path, const pp_read_options *opt, pp_image **
     return st;
 }
 
+pp_status pp_tiff_read_pages(const char *path, const pp_read_options *opt, pp_tiff_page_fn fn,
+                             void *ctx)
+{
+    pp_read_options o = pp_io_options(opt);
+    tiff_msg m;
+    TIFF *t;
+    pp_status st = open_reader(path, &m, &t);
+    if (st != PP_OK)
+        return st;
+    unsigned pages = TIFFNumberOfDirectories(t);
+    for (unsigned k = 0; st == PP_OK && k < pages; k++) {
+        if (k > 0 && !TIFFReadDirectory(t)) {
+            st = pp_fail(PP_ERR_FORMAT, "%s: cannot read page %u: %s", path, k,
+                         msg_or(&m, "bad directory"));
+            break;
+        }
+        pp_read_info info;
+        pp_io_info_clear(&info);
+        info.pages = pages;
+        pp_image *img = NULL;
+        o.page = k;
+        st = tiff_decode(t, path, &o, &img, &info, &m);
+        if (st == PP_OK)
+            st = fn(ctx, k, img, &info);
+        pp_image_free(img);
+    }
+    TIFFClose(t);
+    return st;
+}
+
 /* libtiff's text plus the system's reason (a full disk says "No space left
  * on device", a file-size limit "File too large"); e is errno right after
  * the failing call, 0 when none was set. */
