@@ -223,7 +223,7 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
         o->noise_text = "auto";
     else if (cli_given(a, "noise")) {
         o->noise_text = cli_str(a, "noise");
-        if ((rc = lib_check(pp_noise_parse(o->noise_text, &o->cfg.noise))) != 0)
+        if ((rc = lib_check(pp_noise_parse(o->noise_text, cli_flag_names, &o->cfg.noise))) != 0)
             return rc;
         if (o->cfg.noise.kind == PP_NOISE_NONE)
             return cli_opt_error("noise", "'none' is for simulate only (expected gaussian, "
