@@ -89,7 +89,7 @@ static int parse(int argc, char **argv, sim_opts *o)
         (rc = cli_require(&a, "noise")) != 0 || (rc = cli_require(&a, "output")) != 0)
         return rc;
     memset(o, 0, sizeof *o);
-    pp_read_options_defaults(&o->read);
+    cli_read_defaults(&o->read);
     o->truth = a.pos[0];
     o->out = cli_str(&a, "output");
     o->psf_text = cli_str(&a, "psf");

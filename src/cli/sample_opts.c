@@ -357,7 +357,7 @@ int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o)
     memset(o, 0, sizeof *o);
     pp_sampler_defaults(&o->cfg);
     o->cfg.setting_names = cli_flag_names; /* messages name the flags */
-    pp_read_options_defaults(&o->read);
+    cli_read_defaults(&o->read);
     pp_noise_format(&o->cfg.noise, o->noise_buf, sizeof o->noise_buf);
     pp_prior_format(&o->cfg.prior, o->prior_buf, sizeof o->prior_buf);
     o->noise_text = o->noise_buf;
