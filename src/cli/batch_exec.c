@@ -53,16 +53,15 @@ void batch_do_frame(const batch_ctx *c, size_t i, batch_row *r)
     fr.volume = f->volume;
     /* the voxel size as sample finds it (units.c): summary.json and the prior */
     double voxel[3];
-    char note[512];
+    int known = 0;
     pp_ome_meta ome;
     unsigned npages;
     if (pp_stack_probe(in, &npages, &ome) != PP_OK)
         ome.present = 0; /* the read below says what is wrong */
-    if (cli_voxel_resolve(c->opts, &ome, f->volume ? &c->opts->psf : NULL, voxel, note,
-                          sizeof note))
-        fr.voxel_um = voxel;
-    if (note[0] && !c->opts->quiet)
-        fprintf(stderr, "pixpost: %s: warning: %s\n", f->stem, note);
+    if (cli_voxel_resolve(c->opts, &ome, f->volume ? &c->opts->psf : NULL, in, voxel, &known,
+                          r->message, sizeof r->message))
+        return;
+    fr.voxel_um = known ? voxel : NULL;
     fr.outdir = out;
     fr.seed = f->seed;
     fr.threads = c->threads_per_frame;

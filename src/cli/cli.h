@@ -241,7 +241,6 @@ typedef struct cli_units {
     pp_ome_meta ome;
     double voxel[3];    /* z, y, x in micrometres (cli_voxel_resolve); NaN unknown */
     int have_voxel;     /* any of them known */
-    char voxel_note[512]; /* the PSF spec's sampling disagrees with voxel ("" when not) */
 } cli_units;
 
 /* Reads --pages, --plane, --voxel and --channel all into o (called by
@@ -251,15 +250,24 @@ int cli_units_opts(const cli_args *a, cli_sample_opts *o);
  * CLI_EXIT_USAGE with one sentence in msg naming the file or option. */
 int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
                    size_t len);
-/* The voxel size {z, y, x} in micrometres of a file with OME metadata ome
- * (may be NULL) sampled with the PSF psf, per axis from the first that
- * gives it: the OME metadata, --voxel, the PSF spec (widefield pixel= and
- * step=, airy pixel=); NaN where none does. Returns 1 when any axis is
- * known. note (len bytes, may be NULL) gets a sentence when the spec's
- * sampling differs from the size taken from the metadata or --voxel by more
- * than 1 % ("" otherwise): the kernel is then made for another grid. */
+/* The voxel size {z, y, x} in micrometres of file frame with OME metadata
+ * ome (may be NULL) sampled with the PSF psf (may be NULL), per axis from
+ * the first that gives it: the OME metadata, --voxel, the PSF spec
+ * (widefield pixel= and step=, airy pixel=); NaN where none does, *known
+ * = 1 when any axis is known. A spec whose pixel= or step= differs from the
+ * size the metadata or --voxel gives (relative 1e-6) is refused: the
+ * kernel would be made on another grid. Returns 0, or CLI_EXIT_USAGE with
+ * one sentence in msg naming --psf, the file and the key to give. */
 int cli_voxel_resolve(const cli_sample_opts *o, const pp_ome_meta *ome, const pp_psf_spec *psf,
-                      double out[3], char *note, size_t len);
+                      const char *frame, double out[3], int *known, char *msg, size_t len);
+/* What the pages of frame are, without planning units (simulate, which
+ * takes one frame or one volume): u's pages, OME metadata, voxel size
+ * (metadata, else --voxel) and role ('z', 't', 'c'; 0 for one page; with
+ * --plane K the file's role, the caller picks the page). --channel all
+ * leaves the role 0. Returns 0, or CLI_EXIT_USAGE with one sentence in msg
+ * as cli_units_plan. */
+int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                   size_t len);
 /* For batch: the units path gives. *frames: its pages when they are time
  * points by the OME metadata or given == 't' (1 for a single page); 1 with
  * *volume = 1 when its pages are the z-slices of one volume (OME SizeZ, or

@@ -188,8 +188,6 @@ static int run(cli_sample_opts *o, int argc, char **argv, const struct timespec 
     if (!us)
         return cli_error("out of memory");
     int rc = cli_units_plan(o, o->frame, us, msg, sizeof msg);
-    if (!rc && us->voxel_note[0] && !o->quiet)
-        fprintf(stderr, "pixpost: warning: %s\n", us->voxel_note);
     if (rc)
         cli_error("%s", msg);
     else if (us->n == 1 && !us->unit[0].sub[0])

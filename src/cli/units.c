@@ -207,29 +207,26 @@ static void spec_voxel(const pp_psf_spec *p, double v[3])
 }
 
 int cli_voxel_resolve(const cli_sample_opts *o, const pp_ome_meta *ome, const pp_psf_spec *psf,
-                      double out[3], char *note, size_t len)
+                      const char *frame, double out[3], int *known, char *msg, size_t len)
 {
-    static const char axis[3] = {'z', 'y', 'x'};
+    static const char *const axis[3] = {"z step", "y pixel size", "x pixel size"};
+    static const char *const key[3] = {"step", "pixel", "pixel"};
     double given[3] = {o->voxel[1], o->voxel[0], o->voxel[0]}; /* --voxel XY,Z as z, y, x */
     double spec[3];
     spec_voxel(psf, spec);
-    int any = 0;
-    if (note && len)
-        note[0] = '\0';
+    *known = 0;
     for (int i = 0; i < 3; i++) {
-        double m = ome && ome->present ? ome->voxel[i] : 0.0;
-        out[i] = m > 0 ? m : given[i] > 0 ? given[i] : spec[i] > 0 ? spec[i] : NAN;
-        any |= !isnan(out[i]);
-        double from = m > 0 ? m : given[i];
-        if (note && len && !note[0] && from > 0 && spec[i] > 0 &&
-            fabs(spec[i] - from) > 0.01 * from)
-            snprintf(note, len,
-                     "--psf: made for a %s of %g um in %c, but %s gives %g um: the kernel "
-                     "does not match the data's sampling; make the spec's %s= agree",
-                     i ? "pixel" : "z-step", spec[i], axis[i],
-                     m > 0 ? "the file's OME metadata" : "--voxel", from, i ? "pixel" : "step");
+        double m = ome && ome->present ? ome->voxel[i] : 0.0, from = m > 0 ? m : given[i];
+        if (from > 0 && spec[i] > 0 && fabs(spec[i] - from) > 1e-6 * from)
+            return cli_refuse(msg, len,
+                        "--psf: %s=%g, but %s has a %s of %g micrometres (%s); a PSF must be "
+                        "made on the volume's grid: give %s=%g",
+                        key[i], spec[i], frame, axis[i], from,
+                        m > 0 ? "OME metadata" : "--voxel", key[i], from);
+        out[i] = from > 0 ? from : spec[i] > 0 ? spec[i] : NAN;
+        *known |= !isnan(out[i]);
     }
-    return any;
+    return 0;
 }
 
 /* A volume per channel or time point of the metadata (one without them):
@@ -289,15 +286,22 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
     return 0;
 }
 
-int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
+int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                   size_t len)
 {
     memset(u, 0, sizeof *u);
     pp_status st = pp_stack_probe(frame, &u->pages, &u->ome);
     if (st != PP_OK)
         return cli_refuse(msg, len, "%s", pp_error_message());
-    int rc = o->channel_all ? plan_colour(o, frame, u, msg, len) : pick_role(o, frame, u, msg, len);
-    if (!rc && !o->channel_all)
-        rc = plan_pages(o, frame, u, msg, len);
+    int rc = cli_voxel_resolve(o, &u->ome, NULL, frame, u->voxel, &u->have_voxel, msg, len);
+    return rc ? rc : o->channel_all ? 0 : pick_role(o, frame, u, msg, len);
+}
+
+int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
+{
+    int rc = cli_units_role(o, frame, u, msg, len);
+    if (!rc)
+        rc = o->channel_all ? plan_colour(o, frame, u, msg, len) : plan_pages(o, frame, u, msg, len);
     if (rc)
         return rc;
     size_t channels = u->role == 'c' ? u->n : 1;
@@ -313,12 +317,15 @@ int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, ch
                     o->npsf, channels, channels == 1 ? "" : "s", frame);
     /* the PSF spec's sampling counts for volumes only: a frame's summary.json
      * keeps the size the metadata or --voxel gave, as before volumes */
-    int vol = u->n && u->unit[0].volume;
-    u->have_voxel = cli_voxel_resolve(o, &u->ome, vol ? &o->psfs[0] : NULL, u->voxel,
-                                      u->voxel_note, sizeof u->voxel_note);
-    for (size_t k = 1; vol && k < o->npsf && !u->voxel_note[0]; k++) {
+    for (size_t k = 0; u->n && u->unit[0].volume && k < o->npsf; k++) {
         double v[3];
-        cli_voxel_resolve(o, &u->ome, &o->psfs[k], v, u->voxel_note, sizeof u->voxel_note);
+        int known;
+        if ((rc = cli_voxel_resolve(o, &u->ome, &o->psfs[k], frame, v, &known, msg, len)) != 0)
+            return rc;
+        if (k == 0) {
+            memcpy(u->voxel, v, sizeof v);
+            u->have_voxel = known;
+        }
     }
     return 0;
 }
