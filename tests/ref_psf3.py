@@ -18,9 +18,10 @@ where sampling needs a 2-D one.
    the rest, 2 x 0.028; the kept voxels' noise adds ~0.01. The same
    measure between the true kernel and itself shifted by one voxel in x is
    printed and must exceed the tolerance (the check can fail).
-3. sample and simulate refuse a 3-D PSF for a frame (exit 1, one line
-   naming --psf and saying it is a 3-D PSF), and sample refuses a bead
-   stack for a frame instead of taking its first page; a widefield spec without step= is
+3. sample and simulate refuse a 3-D PSF for a single frame (exit 1, one
+   line naming --psf and saying a 3-D PSF blurs a z-stack; volumes:
+   tests/ref_volume_cli.py, tests/ref_simulate3d.py), and sample refuses a
+   bead stack for a frame instead of taking its first page; a widefield spec without step= is
    refused naming step=; a kernel above 2^27 voxels is refused.
 """
 import os
@@ -122,7 +123,7 @@ for cmd in (["sample", P("frame.tif"), "-o", P("o")],
         p = pptest.run(cmd + ["--psf", spec], check=False)
         lines = p.stderr.strip().splitlines()
         pptest.check(p.returncode == 1 and len(lines) == 1 and "--psf" in p.stderr
-                     and "3-D PSF" in p.stderr,
+                     and "3-D PSF" in p.stderr and "z-stack" in p.stderr,
                      "%s refuses %s (exit %d): %s" % (cmd[0], spec.split(":")[0], p.returncode, p.stderr.strip()))
 p = pptest.run(["sample", P("frame.tif"), "--psf", "file:" + P("bead.tif"), "-o", P("o2")], check=False)
 pptest.check(p.returncode == 1 and "bead.tif" in p.stderr and "3-D bead stack" in p.stderr

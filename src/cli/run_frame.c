@@ -251,9 +251,9 @@ static int make_psf(const cli_sample_opts *o, cli_frame_run *r, const pp_image *
     const char *text = r->psf_text ? r->psf_text : o->psf_text;
     pp_status st;
     if (frame->depth == 1 && pp_psf_is_3d(spec))
-        return fail_msg(r, "--psf %s: a 3-D PSF, but %s is sampled as one frame; give a 2-D "
-                           "PSF (gaussian:sigma=S, airy:..., file: of one bead image), or sample "
-                           "the z-stack as a volume (--pages z)",
+        return fail_msg(r, "--psf %s: a 3-D PSF, and %s is sampled as one frame; a 3-D PSF "
+                           "blurs a volume: sample a z-stack as a volume (--pages z) or give a "
+                           "2-D PSF (gaussian:sigma=S, airy:..., file: of one bead image)",
                         text, r->frame);
     if (frame->depth == 1 || (!pp_psf_is_3d(spec) && spec->kind != PP_PSF_FILE)) {
         st = pp_psf_make(spec, 0, psf);
