@@ -52,7 +52,7 @@ refused([path("plain3.tif"), "--psf", G1], "h1", ["plain3.tif", "3 pages", "--pa
         "multi-page without OME or --pages")
 refused([path("z.ome.tif"), "--psf", G1, "--pages", "t"], "h2", ["z.ome.tif", "--pages t", "OME metadata", "z-slices"],
         "--pages t against OME SizeZ")
-# (z-stacks sampled as volumes: ref_volume_cli.py)
+# (z-stacks sampled as volumes: ref_pages_volume.py)
 refused([path("c.ome.tif"), "--psf", G1, "--psf", G2, "--psf", G1], "h5", ["--psf", "3 times", "2 channels", "c.ome.tif"],
         "three --psf for two channels")
 refused([path("one.tif"), "--psf", G1, "--psf", G2], "h6", ["--psf", "2 times", "1 channel"],

@@ -20,7 +20,7 @@ where sampling needs a 2-D one.
    printed and must exceed the tolerance (the check can fail).
 3. sample and simulate refuse a 3-D PSF for a single frame (exit 1, one
    line naming --psf and saying a 3-D PSF blurs a z-stack; volumes:
-   tests/ref_volume_cli.py, tests/ref_simulate3d.py), and sample refuses a
+   tests/ref_pages_volume.py, tests/ref_simulate3d.py), and sample refuses a
    bead stack for a frame instead of taking its first page; a widefield spec without step= is
    refused naming step=; a kernel above 2^27 voxels is refused.
 """
