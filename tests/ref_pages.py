@@ -147,5 +147,26 @@ p = pptest.run(["batch", tdir, "--psf", G1, "-o", path("btout")] + Q, check=Fals
 pptest.check(p.returncode == 0 and os.path.exists(path("btout", "m.ome_p2", "mean.tif")),
              "batch on an OME time series without --pages: a frame per page")
 
+# batch: channels, one frame per channel with the k-th --psf (or a wavelength list)
+cdir = path("bc")
+os.makedirs(cdir)
+tifffile.imwrite(os.path.join(cdir, "c.ome.tif"), planes[:2], metadata={"axes": "CYX"})
+tifffile.imwrite(os.path.join(cdir, "p.tif"), planes[1:], photometric="minisblack")
+p = pptest.run(["batch", cdir, "--psf", G1, "--psf", G2, "-o", path("bcout")] + Q, check=False)
+pptest.check(p.returncode == 1 and "p.tif" in p.stderr and "--pages c" in p.stderr and not os.path.exists(path("bcout")),
+             "batch: a plain 2-page TIFF beside an OME channel file needs --pages c (%s)" % p.stderr.strip())
+pptest.run(["batch", cdir, "--psf", G1, "--psf", G2, "--pages", "c", "-o", path("bcout")] + Q)
+got = {d: json.load(open(path("bcout", d, "summary.json")))["psf"] for d in ("c.ome_c0", "c.ome_c1", "p_c0", "p_c1")}
+pptest.check(got == {"c.ome_c0": G1, "c.ome_c1": G2, "p_c0": G1, "p_c1": G2},
+             "batch --pages c: <stem>_c<k> with the k-th --psf (%s)" % got)
+AW = "airy:na=1.2,wavelength=0.5/0.6,pixel=0.2"
+pptest.run(["batch", cdir, "--psf", AW, "--pages", "c", "-o", path("bcw")] + Q)
+pptest.check(json.load(open(path("bcw", "p_c1", "summary.json")))["psf"] == "airy:na=1.2,wavelength=0.6,pixel=0.2",
+             "batch: one --psf with wavelength=0.5/0.6 gives channel 1 wavelength 0.6")
+tifffile.imwrite(os.path.join(cdir, "one.tif"), planes[0])
+p = pptest.run(["batch", cdir, "--psf", G1, "--psf", G2, "--pages", "c", "-o", path("bcone")] + Q, check=False)
+pptest.check(p.returncode == 1 and "one.tif" in p.stderr and "2 PSFs" in p.stderr and not os.path.exists(path("bcone")),
+             "batch with two --psf refuses a one-page file (%s)" % p.stderr.strip())
+
 pptest.check(all(open(path(f), "rb").read() == b for f, b in inputs.items()), "inputs unchanged")
 pptest.done()

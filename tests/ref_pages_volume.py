@@ -101,8 +101,8 @@ os.makedirs(bz)
 tifffile.imwrite(os.path.join(bz, "zc.ome.tif"), two, metadata={"axes": "ZCYX"})
 refused([bz, "--psf", G3], "r10", ["batch", "zc.ome.tif", "2 channels", "pixpost sample"],
         "batch on a file of several volumes", cmd="batch")
-refused([bz, "--psf", G3, "--pages", "c"], "r11", ["batch", "--pages c", "pixpost sample"],
-        "batch --pages c", cmd="batch")
+refused([bz, "--psf", G3, "--pages", "c"], "r11", ["batch", "zc.ome.tif", "--pages c", "conflicts"],
+        "batch --pages c on OME z-slices", cmd="batch")
 
 # ---- 2. voxel size: OME > --voxel > the PSF spec, per axis ------------------------
 pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "--voxel", "0.2,0.5", "-o", path("v_ome")] + Q)

@@ -269,13 +269,15 @@ int cli_voxel_resolve(const cli_sample_opts *o, const pp_ome_meta *ome, const pp
 int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
                    size_t len);
 /* For batch: the units path gives. *frames: its pages when they are time
- * points by the OME metadata or given == 't' (1 for a single page); 1 with
- * *volume = 1 when its pages are the z-slices of one volume (OME SizeZ, or
- * given == 'z' without metadata). Other pages (channels, z-slices of
- * several channels or time points, or unknown without --pages) are
- * refused: 0 or CLI_EXIT_USAGE with one sentence in msg naming the file. */
-int cli_units_batch_pages(const char *path, char given, unsigned *frames, int *volume, char *msg,
-                          size_t len);
+ * points (*kind 0) or channels (*kind 'c': page k is channel k, with the
+ * k-th PSF when npsf > 1), by the OME metadata or given (--pages); 1 for a
+ * single page (*kind 0); 1 with *kind 'z' when its pages are the z-slices of
+ * one volume (OME SizeZ, or given == 'z' without metadata). Refused: z-slices
+ * of several channels or time points, multi-page files without either, and
+ * npsf > 1 PSFs for a file without that many channels: 0 or CLI_EXIT_USAGE
+ * with one sentence in msg naming the file. */
+int cli_units_batch_pages(const char *path, char given, size_t npsf, unsigned *frames,
+                          char *kind, char *msg, size_t len);
 /* Writes OUTDIR/channels.json (role 'c') or OUTDIR/frames.json (role 't')
  * after every unit ran. Returns 0 or CLI_EXIT_USAGE with msg set. */
 int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const char *frame,

@@ -116,42 +116,48 @@ static int pick_role(const cli_sample_opts *o, const char *frame, cli_units *u, 
     return 0;
 }
 
-int cli_units_batch_pages(const char *path, char given, unsigned *frames, int *volume, char *msg,
-                          size_t len)
+int cli_units_batch_pages(const char *path, char given, size_t npsf, unsigned *frames,
+                          char *kind, char *msg, size_t len)
 {
     pp_ome_meta ome;
     unsigned pages;
     *frames = 1;
-    *volume = 0;
+    *kind = 0;
     if (pp_stack_probe(path, &pages, &ome) != PP_OK)
         return cli_refuse(msg, len, "%s", pp_error_message());
     *frames = pages ? pages : 1;
     char role = 0;
     int from_ome = 0;
     int rc = decide_role(given, &ome, pages, path, &role, &from_ome, msg, len);
-    if (rc || pages <= 1 || role == 't')
+    if (rc)
         return rc;
-    if (!role)
+    if (pages > 1 && !role)
         return cli_refuse(msg, len,
                     "%s: %u pages and no OME metadata saying what they are: give --pages t to "
-                    "sample each page as a frame or --pages z to sample the file as one volume "
-                    "(channels: pixpost sample --pages c on the file)",
+                    "sample each page as a frame, --pages z to sample the file as one volume "
+                    "or --pages c for channels",
                     path, pages);
-    if (role == 'z' && ome.nc <= 1 && ome.nt <= 1) {
-        *frames = 1;
-        *volume = 1;
-        return 0;
-    }
-    if (role == 'z')
+    size_t nc = ome.present ? ome.nc : 1, nt = ome.present ? ome.nt : 1;
+    if (role == 'z' && (nc > 1 || nt > 1))
         return cli_refuse(msg, len,
                     "%s: its %u pages are the z-slices of %zu %s (OME metadata); batch takes one "
                     "volume per file: run pixpost sample on the file (each into OUTDIR/%s<k>/)",
-                    path, pages, ome.nc > 1 ? ome.nc : ome.nt,
-                    ome.nc > 1 ? "channels" : "time points", ome.nc > 1 ? "c" : "t");
-    return cli_refuse(msg, len,
-                "%s: its %u pages are channels (%s); batch takes time points or one volume "
-                "per file: run pixpost sample on the file (each channel with its own --psf)",
-                path, pages, from_ome ? "OME metadata" : "--pages");
+                    path, pages, nc > 1 ? nc : nt, nc > 1 ? "channels" : "time points",
+                    nc > 1 ? "c" : "t");
+    size_t channels = pages > 1 && role == 'c' ? pages : 1;
+    if (npsf > 1 && npsf != channels)
+        return cli_refuse(msg, len,
+                    "%s: %zu channel%s (%s), and --psf gives %zu PSFs: in a batch with one PSF "
+                    "per channel every file must have that many channels (or give one --psf)",
+                    path, channels, channels == 1 ? "" : "s",
+                    channels > 1 ? (from_ome ? "OME metadata" : "--pages c")
+                                 : pages > 1 ? "its pages are not channels" : "one page",
+                    npsf);
+    if (pages > 1 && role == 'z')
+        *frames = 1;
+    if (pages > 1)
+        *kind = role == 'z' ? 'z' : role == 'c' ? 'c' : 0;
+    return 0;
 }
 
 static void add(cli_units *u, unsigned page, size_t psf, const char *sub, unsigned k)
