@@ -1,8 +1,9 @@
 /* pixpost command line — sample one frame into a folder: read the frame (a
- * chosen page; or every z-slice as one volume, with a 3-D PSF, a bead
- * stack or a 2-D PSF that blurs each slice alone), mark its masked and saturated pixels unobserved (NaN;
- * unobserved.c), make the PSF, create and run the sampler (with an optional
- * progress display and a stop flag), write the outputs with pp_output_write.
+ * chosen page; or every z-slice as one volume, blurred by a 3-D PSF, a bead
+ * stack or a 2-D PSF that blurs each slice alone), mark its masked and
+ * saturated pixels unobserved (NaN; unobserved.c), make the PSF, create and
+ * run the sampler (with an optional progress display and a stop flag),
+ * write the outputs with pp_output_write.
  * Before the sampler is made the data are checked against the model
  * (datacheck.h: an error stops the frame), after the run the fit is
  * (ppcheck.h: warnings and residual.tif).
@@ -19,7 +20,6 @@
 #include "pixpost/output.h"
 #include "pixpost/stack.h"
 #include <errno.h>
-#include <math.h>
 #include <signal.h>
 #include <stdarg.h>
 #include <stdio.h>
@@ -163,7 +163,8 @@ int cli_make_dirs(const char *path, char *msg, size_t len)
 /* The z-slices of r->frame as one volume: every page, or with OME metadata
  * of several channels or time points the slices of channel vol_c at time
  * point vol_t (pp_ome_page). --max-pixels counts voxels, checked on the
- * first page's size before the stack is read. */
+ * first page's size before the stack is read (so page 0 is read twice, a
+ * small cost beside the stack's). Peak memory: the stack and the volume. */
 static int read_volume(const cli_sample_opts *o, cli_frame_run *r, pp_image **out)
 {
     pp_read_options ro = o->read;
