@@ -40,7 +40,8 @@ static const cli_opt sample_table[] = {
      "per electron (or e_per_adu=E, the electrons per ADU that camera data sheets print; "
      "G = 1/E), offset O the camera's dark level in ADU, read R the read noise in electrons. "
      "auto: estimated from the frame (camera:gain,offset,read by the single-frame fit of "
-     "'pixpost calibrate --frame'; gaussian when the noise does not grow with the signal); "
+     "'pixpost calibrate --frame'; gaussian when the noise does not grow with the signal; "
+     "frames only, a volume is refused); "
      "the estimate is printed and recorded in summary.json (\"noise_estimate\")."},
     {"prior", 0, 1, "SPEC",
      "Prior: adaptive[:nu=V,block=B] (a GMRF whose precision varies over the frame: "
