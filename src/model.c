@@ -219,11 +219,12 @@ pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b, p
     if (b == PP_BOUNDARY_PERIODIC && !fits) {
         char a[96], c[96];
         ks = pp_image_shape(psf);
+        describe(&fs, c, sizeof c);
         return pp_fail(PP_ERR_LIMIT,
-                       "the PSF (%s) is larger than the %s %s; periodic blur "
+                       "the PSF (%s) is larger than the %s%s%s; periodic blur "
                        "needs it to fit (use --boundary pad)",
-                       describe(&ks, a, sizeof a), describe(&fs, c, sizeof c),
-                       fs.rank == 3 ? "volume" : "frame");
+                       describe(&ks, a, sizeof a), fs.rank == 3 ? "volume (" : "", c,
+                       fs.rank == 3 ? ")" : " frame");
     }
     blur_grid(x, psf, b, &gs);
     if ((st = pp_image_create3(x->depth, x->height, x->width, out)) != PP_OK)
