@@ -18,7 +18,8 @@
 static const cli_opt simulate_table[] = {
     {"output", 'o', 1, "OUT",
      "Output frame: .tif/.tiff (32-bit float, values as simulated) or .png (16-bit; values "
-     "rounded, stored as is when they fit 0..65535, else rescaled with a note). Required."},
+     "rounded, stored as is when they fit 0..65535, else rescaled with a note). A volume: "
+     ".tif/.tiff only (a multi-page 32-bit float OME-TIFF). Required."},
     {"psf", 0, 1, "SPEC",
      "Point-spread function: gaussian:sigma=S (pixels, 0.3 to 20), "
      "airy:na=NA,wavelength=L,pixel=P (L 0.2 to 2 and P 0.001 to 20 micrometres; P is the "
