@@ -341,7 +341,7 @@ static void check_volume(void)
 {
     check_direct3(6, 7, 9, 3, 5, 7);
     check_direct3(5, 8, 6, 5, 7, 3);
-    check_direct3(4, 9, 8, 7, 3, 5); /* deeper than the volume: pad only */
+    check_direct3(4, 9, 8, 7, 3, 5);  /* deeper than the volume: pad only */
     check_direct3(7, 6, 10, 1, 5, 3); /* one slice: each slice alone */
     /* a delta in slice 2 of a 5-slice volume blurred by a 1-slice kernel
      * stays in slice 2 */

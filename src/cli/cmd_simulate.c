@@ -50,7 +50,8 @@ static const cli_opt simulate_table[] = {
      "OME metadata does not give it; written into OUT's OME-XML. A PSF spec that names its "
      "pixel or step must agree with it. Default: from the OME metadata, else the PSF spec "
      "(pixel=, step=), else not recorded."},
-    {"max-pixels", 0, 1, "N", "Refuse a TRUTH with more than N pixels (per page). Default: 268435456."},
+    {"max-pixels", 0, 1, "N",
+     "Refuse a TRUTH with more than N pixels (per page). Default: 268435456."},
     {"quiet", 0, 0, "", "Do not print what was written. Default: off."},
     {"overwrite", 0, 0, "",
      "Replace OUT when it exists (without it, an existing OUT is refused and left as it "
@@ -143,9 +144,8 @@ static int settle_voxel(sim_opts *o)
                                  "%s=%g, but TRUTH %s has a %s of %g micrometres (%s); a PSF "
                                  "must be made on the volume's grid: give %s=%g",
                                  key[i], spec[i], o->truth, axis[i], t,
-                                 o->units.ome.present && o->units.ome.voxel[i] > 0
-                                     ? "OME metadata"
-                                     : "--voxel",
+                                 o->units.ome.present && o->units.ome.voxel[i] > 0 ? "OME metadata"
+                                                                                   : "--voxel",
                                  key[i], t);
         o->voxel[i] = !isnan(t) ? t : spec[i];
     }
@@ -170,7 +170,9 @@ static int decide_truth(sim_opts *o)
         return cli_error("%s: its %u pages are %s (%s); simulate takes one frame or one volume: "
                          "pick one page with --plane K (0 to %u)",
                          o->truth, u->pages, u->role == 't' ? "time points" : "channels",
-                         u->from_ome ? "OME metadata" : u->role == 't' ? "--pages t" : "--pages c",
+                         u->from_ome      ? "OME metadata"
+                         : u->role == 't' ? "--pages t"
+                                          : "--pages c",
                          u->pages - 1);
     }
     if (o->volume && u->ome.present && u->ome.nz * u->ome.nc * u->ome.nt != u->ome.nz)
