@@ -111,6 +111,16 @@ for shape, ome, boundary in [((9, 20, 24), False, "pad"), ((8, 21, 17), True, "p
     pptest.check("%d slices of %dx%d" % (shape[0], shape[2], shape[1]) in p.stdout,
                  "says what it wrote: %s" % p.stdout.strip())
 
+# pad takes a PSF wider and deeper than the volume (41 x 41 x 25 on 6 x 12 x 14)
+truth = (rng.random((6, 12, 14)) * 100).astype(np.float32)
+tifffile.imwrite(P("small.tif"), truth)
+pptest.run(["simulate", P("small.tif"), "--pages", "z", "--psf", "gaussian:sigma=5,sigma_z=3",
+            "--noise", "none", "-o", P("ysmall.tif")])
+ref = scipy.ndimage.convolve(truth.astype(np.float64), gauss3(5, 3), mode="constant", cval=0.0)
+e = rel(tifffile.imread(P("ysmall.tif")).astype(np.float64), ref)
+pptest.check(e < 1e-6, "pad with a PSF larger than the volume on every axis == scipy constant "
+             "(rel err %.1e)" % e)
+
 # a 2-D PSF blurs each slice alone
 truth = (rng.random((6, 19, 23)) * 100).astype(np.float32)
 tifffile.imwrite(P("t2.tif"), truth)
