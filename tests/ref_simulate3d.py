@@ -11,7 +11,8 @@ checked against scipy, its noise against its stated model, and the refusals.
    normalised to sum 1 (the rule of src/psf3.c; tests/ref_psf3.py checks
    that `pixpost psf` makes the same). Tolerance 1e-6 of the largest value:
    OUT is float32 (rounding 6e-8 relative), the blur itself is exact to
-   1e-15 (tests/ref_model3d.py). A 2-D PSF on a volume equals
+   1e-15 (tests/ref_model3d.py). Pad with a PSF wider and deeper than the
+   volume equals scipy's constant mode too. A 2-D PSF on a volume equals
    scipy.signal.convolve2d per slice; a bead stack (file:) uses the same
    cleaned kernel that `pixpost psf file:` writes.
 2. Noise (two seeds, 64 x 64 x 16 voxels): r = y - A x with A x from scipy.
