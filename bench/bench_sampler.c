@@ -40,7 +40,7 @@ static pp_image *scene(size_t h, size_t w, const pp_image *psf)
             x->data[r * w + c] = 50 + 20 * sin((double)r / 9) * cos((double)c / 13) +
                                  (((r / 16) + (c / 16)) % 3 == 0 ? 30 : 0);
     pp_noise_spec ns;
-    pp_noise_parse("gaussian:sigma=1", &ns);
+    pp_noise_parse("gaussian:sigma=1", NULL, &ns);
     if (pp_model_simulate(x, psf, PP_BOUNDARY_PERIODIC, &ns, 9, &y) != PP_OK)
         y = NULL;
     pp_image_free(x);

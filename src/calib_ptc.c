@@ -36,7 +36,7 @@ static pp_status check_level(const pp_series_stats *dark, const pp_series_stats 
     if ((double)L->saturated > MAX_SATURATED_SHARE * all)
         return pp_fail(PP_ERR_ARG,
                        "flat level %zu: %.1f %% of its pixels are saturated (at the format's "
-                       "maximum or --saturation); lower the exposure or the light for that level",
+                       "maximum or the saturation level given); lower the exposure or the light for that level",
                        i + 1, 100.0 * (double)L->saturated / all);
     double x = L->mean - dark->mean, se = hypot(L->mean_se, dark->mean_se);
     if (!(x > 5 * se))

@@ -4,6 +4,7 @@
 #include "pixpost/io.h"
 #include "internal.h"
 #include "io_internal.h"
+#include "pixpost/setting.h"
 #include <string.h>
 
 void pp_read_options_defaults(pp_read_options *opt)
@@ -11,6 +12,7 @@ void pp_read_options_defaults(pp_read_options *opt)
     opt->channel = PP_CHANNEL_NONE;
     opt->max_pixels = PP_DEFAULT_MAX_PIXELS;
     opt->page = 0;
+    opt->setting_names = NULL;
 }
 
 pp_read_options pp_io_options(const pp_read_options *opt)
@@ -40,10 +42,11 @@ pp_status pp_io_check_size(const char *path, size_t width, size_t height, size_t
     return PP_OK;
 }
 
-pp_status pp_io_colour_weights(const char *path, const char *kind, pp_channel channel, double w[3])
+pp_status pp_io_colour_weights(const char *path, const char *kind, const pp_read_options *opt,
+                               double w[3])
 {
     w[0] = w[1] = w[2] = 0.0;
-    switch (channel) {
+    switch (opt->channel) {
     case PP_CHANNEL_R:
         w[0] = 1.0;
         break;
@@ -59,9 +62,12 @@ pp_status pp_io_colour_weights(const char *path, const char *kind, pp_channel ch
         w[2] = 0.0722;
         break;
     default:
-        return pp_fail(PP_ERR_UNSUPPORTED,
-                       "%s: colour image (%s); choose a channel with --channel r|g|b|luma", path,
-                       kind);
+        if (!opt->setting_names)
+            return pp_fail(PP_ERR_UNSUPPORTED,
+                           "%s: colour image (%s); choose a channel to read (r, g, b or luma)",
+                           path, kind);
+        return pp_fail(PP_ERR_UNSUPPORTED, "%s: colour image (%s); choose a channel with %s r|g|b|luma",
+                       path, kind, pp_setting_name(opt->setting_names, PP_SET_CHANNEL));
     }
     return PP_OK;
 }

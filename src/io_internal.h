@@ -16,9 +16,11 @@ pp_read_options pp_io_options(const pp_read_options *opt);
 pp_status pp_io_check_size(const char *path, size_t width, size_t height, size_t max_pixels);
 
 /* Weights for samples 0, 1, 2 (R, G, B) of a colour image: fills w[3] for
- * the chosen channel, or refuses with PP_ERR_UNSUPPORTED naming path and the
- * colour kind (e.g. "RGB", "palette") when channel is PP_CHANNEL_NONE. */
-pp_status pp_io_colour_weights(const char *path, const char *kind, pp_channel channel, double w[3]);
+ * the channel opt->channel, or refuses with PP_ERR_UNSUPPORTED naming path,
+ * the colour kind (e.g. "RGB", "palette") and the setting (by
+ * opt->setting_names) when it is PP_CHANNEL_NONE. */
+pp_status pp_io_colour_weights(const char *path, const char *kind, const pp_read_options *opt,
+                               double w[3]);
 
 /* Clears *info (when not NULL) and sets pages = 1. */
 void pp_io_info_clear(pp_read_info *info);

@@ -69,7 +69,7 @@ static pp_status png_setup(png_structp png, png_infop pi, const char *path,
         info->bits = (unsigned)depth;
     if (type & PNG_COLOR_MASK_COLOR) {
         st = pp_io_colour_weights(path, type == PNG_COLOR_TYPE_PALETTE ? "palette" : "RGB",
-                                  opt->channel, p->w);
+                                  opt, p->w);
         if (st != PP_OK)
             return st;
         if (info)

@@ -1,11 +1,10 @@
 /* pixpost — reading every page of a multi-page TIFF into a stack, with the
  * OME-XML of its first page (include/pixpost/stack.h). The pages are decoded
- * one at a time by the single-page reader (pp_tiff_read, io_tiff.c), so
- * every sample type, layout and check it has applies to each page; the
- * metadata comes from the first page's ImageDescription (ome.c).
- * Cost: the stack of doubles plus one page at a time; each page opens the
- * file and walks the directory chain to it, so P pages cost O(P^2) directory
- * reads (a few hundred pages read in well under a second; a rule of thumb). */
+ * one at a time by the single-page decoder (io_tiff.c), so every sample
+ * type, layout and check it has applies to each page; the metadata comes
+ * from the first page's ImageDescription (ome.c).
+ * Cost: the stack of doubles plus one page at a time, in one pass over the
+ * file's directory chain (pp_tiff_read_pages). */
 #include "internal.h"
 #include "io_tiff_internal.h"
 #include "pixpost/stack.h"
@@ -82,6 +81,20 @@ static pp_status put_page(pp_stack *s, const char *path, unsigned k, const pp_im
     return PP_OK;
 }
 
+/* Where pp_tiff_read_pages puts the pages of a multi-page file. */
+typedef struct stack_fill {
+    pp_stack *s;
+    const char *path;
+    size_t nonfinite;
+} stack_fill;
+
+static pp_status fill_page(void *ctx, unsigned k, const pp_image *img, const pp_read_info *info)
+{
+    stack_fill *f = ctx;
+    f->nonfinite += info->nonfinite;
+    return put_page(f->s, f->path, k, img);
+}
+
 pp_status pp_stack_read(const char *path, const pp_read_options *opt, pp_stack **out,
                         pp_read_info *info)
 {
@@ -97,7 +110,7 @@ pp_status pp_stack_read(const char *path, const pp_read_options *opt, pp_stack *
         return pp_fail(PP_ERR_NOMEM, "%s: out of memory", path);
     pp_status st = pp_stack_probe(path, &pages, &s->ome);
     pp_image *img = NULL;
-    pp_read_info first, each;
+    pp_read_info first;
     if (st == PP_OK)
         st = pp_image_read(path, &o, &img, &first);
     size_t count = 0;
@@ -111,18 +124,14 @@ pp_status pp_stack_read(const char *path, const pp_read_options *opt, pp_stack *
     }
     if (st == PP_OK && !(s->data = malloc(count * sizeof *s->data)))
         st = pp_fail(PP_ERR_NOMEM, "%s: out of memory for %u pages", path, pages);
-    if (st == PP_OK)
+    if (st == PP_OK && pages == 1)
         st = put_page(s, path, 0, img);
-    for (unsigned k = 1; st == PP_OK && k < pages; k++) {
-        pp_image_free(img);
-        img = NULL;
-        o.page = k;
-        st = pp_tiff_read(path, &o, &img, &each);
-        if (st == PP_OK)
-            st = put_page(s, path, k, img);
-        first.nonfinite += st == PP_OK ? each.nonfinite : 0;
-    }
     pp_image_free(img);
+    if (st == PP_OK && pages > 1) {
+        stack_fill f = {s, path, 0};
+        st = pp_tiff_read_pages(path, &o, fill_page, &f);
+        first.nonfinite = f.nonfinite;
+    }
     if (st != PP_OK) {
         pp_stack_free(s);
         return st;

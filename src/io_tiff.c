@@ -171,13 +171,13 @@ static pp_status tiff_block_shape(TIFF *t, const char *path, const tiff_layout *
         return pp_fail(PP_ERR_FORMAT, "%s: bad %s layout (%ux%u)", path,
                        B->tiled ? "tile" : "strip", (unsigned)B->bw, (unsigned)B->bh);
     /* One decoded block may not take more memory than the largest frame
-     * allowed (8 bytes per pixel of --max-pixels): a header with thousands
+     * allowed (8 bytes per pixel of the limit): a header with thousands
      * of samples per pixel would otherwise ask for gigabytes (found by
      * fuzz_tiff: 8449 samples of 16 bits, a 4.75 GB strip). */
     if (!pp_mul_ok(opt->max_pixels, sizeof(double), &budget) || B->bufbytes > budget)
         return pp_fail(PP_ERR_LIMIT,
                        "%s: one TIFF %s decodes to %zu bytes (%u samples per pixel), more than "
-                       "the --max-pixels budget of %zu bytes",
+                       "the pixel limit allows (%zu bytes: 8 per pixel of the limit)",
                        path, B->tiled ? "tile" : "strip", B->bufbytes, (unsigned)L->spp, budget);
     return PP_OK;
 }
@@ -314,7 +314,7 @@ static pp_status tiff_layout_get(TIFF *t, const char *path, const pp_read_option
         L->nw = 1; /* stored values as they are; extra samples (alpha) are ignored */
         L->w[0] = 1.0;
     } else {
-        st = pp_io_colour_weights(path, photometric_name(photo), opt->channel, L->w);
+        st = pp_io_colour_weights(path, photometric_name(photo), opt, L->w);
         if (st != PP_OK)
             return st;
         if (info)
@@ -390,6 +390,36 @@ pp_status pp_tiff_read(const char *path, const pp_read_options *opt, pp_image **
                      msg_or(&m, "bad directory"));
     else
         st = tiff_decode(t, path, &o, out, info, &m);
+    TIFFClose(t);
+    return st;
+}
+
+pp_status pp_tiff_read_pages(const char *path, const pp_read_options *opt, pp_tiff_page_fn fn,
+                             void *ctx)
+{
+    pp_read_options o = pp_io_options(opt);
+    tiff_msg m;
+    TIFF *t;
+    pp_status st = open_reader(path, &m, &t);
+    if (st != PP_OK)
+        return st;
+    unsigned pages = TIFFNumberOfDirectories(t);
+    for (unsigned k = 0; st == PP_OK && k < pages; k++) {
+        if (k > 0 && !TIFFReadDirectory(t)) {
+            st = pp_fail(PP_ERR_FORMAT, "%s: cannot read page %u: %s", path, k,
+                         msg_or(&m, "bad directory"));
+            break;
+        }
+        pp_read_info info;
+        pp_io_info_clear(&info);
+        info.pages = pages;
+        pp_image *img = NULL;
+        o.page = k;
+        st = tiff_decode(t, path, &o, &img, &info, &m);
+        if (st == PP_OK)
+            st = fn(ctx, k, img, &info);
+        pp_image_free(img);
+    }
     TIFFClose(t);
     return st;
 }

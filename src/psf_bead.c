@@ -7,15 +7,15 @@
  * two beads, which the background handling alone would turn into a
  * "kernel" without a word. Criterion, on the background-subtracted image
  * scaled to peak 1 with the border's robust noise sd s (bead_clean):
- *  1. One spot. Pixels at or above t = max(0.2, 4 s) are "bright" (a fifth
+ *  1. One spot (frames and bead stacks). Pixels at or above t = max(0.2, 4 s) are "bright" (a fifth
  *     of the peak, and clear of the noise: a pure-noise pixel exceeds 4 sd
  *     with probability 3e-5). The bright pixels 8-connected to the
  *     brightest one must hold at least 90 % of the bright pixels' summed
- *     value. A second bead as bright as the first leaves 50 %; a field of
+ *     value (26-connected in a stack). A second bead as bright as the first leaves 50 %; a field of
  *     nuclei a few %; a stray noise pixel or an Airy ring (its first ring
  *     peaks at 1.75 % of the centre, a textbook value, below t) costs
  *     nothing.
- *  2. Compact. The spot's width at half its peak, 2 sqrt(A / pi) with A the
+ *  2. Compact (frames only). The spot's width at half its peak, 2 sqrt(A / pi) with A the
  *     number of its pixels at or above 0.5, must be at most
  *     MAX_WIDTH (47 px, the FWHM of the widest gaussian PSF accepted,
  *     sigma 20 px). An in-focus bead sampled at the Nyquist pixel is about
@@ -55,39 +55,39 @@ typedef struct spot {
     size_t half; /* its pixels at or above half the peak */
 } spot;
 
-/* Flood-fills the 8-connected bright pixels from `seed`, marking them in
- * mark[]; stack holds w*h indices. */
+/* Flood-fills the connected bright pixels from `seed` (8-connected in a
+ * frame, 26-connected in a volume), marking them in mark[]; stack holds
+ * one index per element. */
 static spot fill(const pp_image *img, double t, size_t seed, uint8_t *mark, size_t *stack)
 {
-    size_t w = img->width, h = img->height, top = 0;
+    size_t w = img->width, h = img->height, d = img->depth, top = 0;
+    int zr = d > 1; /* look at the slices above and below */
     spot s = {0.0, 0};
     mark[seed] = 1;
     stack[top++] = seed;
     while (top) {
-        size_t p = stack[--top], i = p / w, j = p % w;
+        size_t p = stack[--top], z = p / (w * h), i = (p / w) % h, j = p % w;
         s.sum += img->data[p];
         s.half += img->data[p] >= 0.5;
-        for (int di = -1; di <= 1; di++)
-            for (int dj = -1; dj <= 1; dj++) {
-                if ((di < 0 && i == 0) || (dj < 0 && j == 0) || (di > 0 && i + 1 == h) ||
-                    (dj > 0 && j + 1 == w))
-                    continue;
-                size_t q = (size_t)((long)p + di * (long)w + dj);
-                if (!mark[q] && img->data[q] >= t) {
-                    mark[q] = 1;
-                    stack[top++] = q;
+        for (int dz = -zr; dz <= zr; dz++)
+            for (int di = -1; di <= 1; di++)
+                for (int dj = -1; dj <= 1; dj++) {
+                    if ((dz < 0 && z == 0) || (dz > 0 && z + 1 == d) || (di < 0 && i == 0) ||
+                        (dj < 0 && j == 0) || (di > 0 && i + 1 == h) || (dj > 0 && j + 1 == w))
+                        continue;
+                    size_t q = (size_t)((long)p + (dz * (long)h + di) * (long)w + dj);
+                    if (!mark[q] && img->data[q] >= t) {
+                        mark[q] = 1;
+                        stack[top++] = q;
+                    }
                 }
-            }
     }
     return s;
 }
 
-/* Checks that img (background-subtracted, maximum 1) holds one
- * compact spot, by the criterion at the top of this file; noise_sd is the
- * border's robust noise sd on img's scale. Does not modify img. */
-static pp_status one_spot(const pp_image *img, double noise_sd, const char *path)
+pp_status pp_psf_one_spot(const pp_image *img, double noise_sd, const char *path)
 {
-    size_t n = img->width * img->height, peak = 0, spots = 0;
+    size_t n = pp_image_count(img), peak = 0, spots = 0;
     for (size_t p = 1; p < n; p++)
         if (img->data[p] > img->data[peak])
             peak = p;
@@ -110,6 +110,15 @@ static pp_status one_spot(const pp_image *img, double noise_sd, const char *path
     free(mark);
     free(stack);
     double share = main.sum / all, width = 2.0 * sqrt((double)main.half / PP_PI);
+    size_t plane = img->width * img->height, z = peak / plane, rc = peak % plane;
+    if (share < ONE_SPOT_SHARE && img->depth > 1)
+        return pp_fail(PP_ERR_FORMAT,
+                       "%s: the PSF stack is not one bead: its voxels above %.2g of the peak "
+                       "form %zu separate spots, and the one at the brightest voxel (slice %zu, "
+                       "row %zu, column %zu, from 0) holds %.0f %% of their light (one bead: at "
+                       "least %.0f %%); crop a single bead with dark background around it",
+                       path, t, spots, z, rc / img->width, rc % img->width, 100.0 * share,
+                       100.0 * ONE_SPOT_SHARE);
     if (share < ONE_SPOT_SHARE)
         return pp_fail(PP_ERR_FORMAT,
                        "%s: the PSF image is not one bead: its pixels above %.2g of the peak "
@@ -118,6 +127,8 @@ static pp_status one_spot(const pp_image *img, double noise_sd, const char *path
                        "crop a single bead with dark background around it",
                        path, t, spots, peak / img->width, peak % img->width, 100.0 * share,
                        100.0 * ONE_SPOT_SHARE);
+    if (img->depth > 1)
+        return PP_OK; /* compactness: frames only (see psf_bead3.c) */
     if (width > MAX_WIDTH)
         return pp_fail(PP_ERR_FORMAT,
                        "%s: the PSF image's spot is %.0f pixels across at half its peak, wider "
@@ -276,7 +287,7 @@ static pp_status bead_clean(pp_image *img, const char *path, size_t *ci, size_t 
                        "median, within 5 noise sds of the border (sd %.3g); is it a bead image?",
                        path, peak, 1.4826 * mad);
     double noise_sd = 1.4826 * mad / peak;
-    if ((st = one_spot(img, noise_sd, path)) != PP_OK ||
+    if ((st = pp_psf_one_spot(img, noise_sd, path)) != PP_OK ||
         (st = bead_support(img, noise_sd, 1.2533 * noise_sd / sqrt((double)border_count(img)),
                            bright_threshold(noise_sd))) != PP_OK)
         return st;

@@ -11,8 +11,13 @@
  *  - the kernel is centred on the voxel nearest the centroid, its extent
  *    the stack's own support around it (size/depth 0) or the odd size and
  *    depth asked for, and it is normalised to sum 1 over the volume.
- * Not (yet) carried over from 2-D: the one-spot and compactness checks and
- * the ring-wise support; a stack with two beads is not refused here.
+ *  - the stack must be one bead: the one-spot test of psf_bead.c
+ *    (pp_psf_one_spot) on the background-subtracted stack scaled to peak 1,
+ *    with bright voxels 26-connected; two beads, or a stack of a cell, are
+ *    refused.
+ * Not carried over from 2-D: the compactness check (a bead stack's extent
+ * along z depends on the NA and the step, so the 2-D width bound does not
+ * apply as it is) and the ring-wise support.
  * Cost: one read, a sort of the faces, three passes.
  */
 #include "internal.h"
@@ -80,6 +85,15 @@ static pp_status clean(const char *path, const pp_shape *s, double *v, size_t c[
                        "%s: the brightest voxel of the PSF stack is only %.3g above the median "
                        "of its outer faces, within 5 noise sds (sd %.3g); is it a bead stack?",
                        path, peak, sd);
+    pp_image *scaled = NULL;
+    if ((st = pp_image_create3(s->n[0], s->n[1], s->n[2], &scaled)) != PP_OK)
+        return st;
+    for (size_t i = 0; i < n; i++)
+        scaled->data[i] = v[i] / peak;
+    st = pp_psf_one_spot(scaled, sd / peak, path);
+    pp_image_free(scaled);
+    if (st != PP_OK)
+        return st;
     double sum = 0, m[3] = {0, 0, 0};
     for (size_t i = 0; i < n; i++) {
         if (v[i] < 3.0 * sd || v[i] < 0)

@@ -61,6 +61,13 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
 /* The default kernel extents of a widefield spec (odd; psf_widefield.c). */
 pp_status pp_psf_widefield_extent(const pp_psf_spec *s, size_t size, size_t depth, pp_shape *shape);
 
+/* Checks that img (background-subtracted, maximum 1; a frame or a volume)
+ * holds one spot and, a frame, a compact one, by the criteria at the top of
+ * psf_bead.c; noise_sd is the background's robust noise sd on img's scale.
+ * PP_ERR_FORMAT naming path and what was found. Does not modify img.
+ * (psf_bead.c) */
+pp_status pp_psf_one_spot(const pp_image *img, double noise_sd, const char *path);
+
 /* The 3-D bead stack at path, cleaned and centred (psf_bead3.c). */
 pp_status pp_psf_bead3_make(const char *path, size_t size, size_t depth, pp_shape *shape,
                             double **data);

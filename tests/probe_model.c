@@ -105,7 +105,7 @@ static int do_noise(const char *spec, double mu, size_t n, unsigned long long se
 {
     pp_noise_spec ns;
     pp_image *y = NULL;
-    if (pp_noise_parse(spec, &ns) != PP_OK || pp_image_create(1, n, &y) != PP_OK)
+    if (pp_noise_parse(spec, NULL, &ns) != PP_OK || pp_image_create(1, n, &y) != PP_OK)
         return fail(spec);
     for (size_t i = 0; i < n; i++)
         y->data[i] = mu;

@@ -39,7 +39,7 @@ static int apply(pp_sampler_config *cfg, const char *kv, const char **prior_text
         st = pp_prior_parse(v, &cfg->prior);
         *prior_text = v;
     } else if (n == 5 && !strncmp(kv, "noise", n))
-        st = pp_noise_parse(v, &cfg->noise);
+        st = pp_noise_parse(v, NULL, &cfg->noise);
     else if (n == 8 && !strncmp(kv, "boundary", n))
         st = pp_boundary_parse(v, NULL, &cfg->boundary);
     else if (n == 6 && !strncmp(kv, "chains", n))

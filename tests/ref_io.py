@@ -99,8 +99,15 @@ a, *_ = pp_read(path("pil_rgb.png"), "--channel", "luma")
 pptest.check(np.max(np.abs(a - luma)) < 1e-9, "Pillow RGB PNG luma = Rec. 709 weighted sum")
 rc, err = pp_fails(path("pil_rgb.png"))
 pptest.check(rc == 1 and path("pil_rgb.png") in err and "colour image (RGB)" in err
-             and "--channel r|g|b|luma" in err and err.count("\n") == 1,
-             "RGB without a channel refused in one line: %s" % err.strip())
+             and "choose a channel to read (r, g, b or luma)" in err and "--" not in err
+             and err.count("\n") == 1,
+             "RGB without a channel refused in one line, in the library's words: %s" % err.strip())
+# the command line names its flag (cli_read_defaults)
+p = pptest.run(["sample", path("pil_rgb.png"), "--psf", "gaussian:sigma=1", "-o", path("o_rgb")],
+               check=False)
+pptest.check(p.returncode != 0 and "choose a channel with --channel r|g|b|luma" in p.stderr
+             and len(p.stderr.strip().splitlines()) == 1,
+             "pixpost sample names --channel for an RGB frame: %s" % p.stderr.strip())
 
 Image.fromarray(rgb, mode="RGB").convert("P", palette=Image.ADAPTIVE, colors=16).save(
     path("pil_P.png"))  # Pillow palette PNG

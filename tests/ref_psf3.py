@@ -101,6 +101,21 @@ pptest.check(p.returncode == 1 and "noise.tif" in p.stderr and "bead stack" in p
              and not os.path.exists(P("n.tif")),
              "a noise stack is refused (exit %d): %s" % (p.returncode, p.stderr.strip()))
 
+# two beads are refused, naming the file and the brightest voxel (the 2-D
+# one-spot rule of psf_bead.c, 26-connected in 3-D): side by side in one
+# slice, and one above the other along z (the case a per-slice test misses)
+for name, c2 in (("two_xy.tif", (9, 14, 10)), ("two_z.tif", (20, 14, 27))):
+    two = 100 + 1000 * (bead + 0.8 * gauss3(1.5, 2.0, centre=c2, shape=shape)) \
+        + 5 * rng.standard_normal(shape)
+    tifffile.imwrite(P(name), two.astype(np.float32))
+    p = pptest.run(["psf", "file:" + P(name), "-o", P("t.tif"), "--size", 13, "--depth", 9],
+                   check=False)
+    pptest.check(p.returncode == 1 and name in p.stderr and "not one bead" in p.stderr
+                 and "slice 9, row 14, column 27" in p.stderr
+                 and len(p.stderr.strip().splitlines()) == 1 and not os.path.exists(P("t.tif")),
+                 "a stack of two beads (%s) is refused (exit %d): %s"
+                 % (name, p.returncode, p.stderr.strip()))
+
 # ---- 3. refusals ----------------------------------------------------------------
 tifffile.imwrite(P("frame.tif"), (100 + 5 * rng.standard_normal((32, 32))).astype(np.float32))
 for cmd in (["sample", P("frame.tif"), "-o", P("o")],

@@ -240,8 +240,15 @@ static void test_png8_and_colour(void)
     CHECK(read_quiet(cp, &opt, &img, &quiet) == PP_ERR_UNSUPPORTED && img == NULL,
           "colour without channel refused");
     CHECK(strstr(pp_error_message(), cp) && strstr(pp_error_message(), "colour image (RGB)") &&
-              strstr(pp_error_message(), "--channel r|g|b|luma"),
-          "colour message: %s", pp_error_message());
+              strstr(pp_error_message(), "choose a channel to read (r, g, b or luma)") &&
+              !strstr(pp_error_message(), "--"),
+          "colour message in the library's words: %s", pp_error_message());
+    static const char *const flags[PP_SET_COUNT] = {[PP_SET_CHANNEL] = "--channel"};
+    opt.setting_names = flags;
+    CHECK(read_quiet(cp, &opt, &img, &quiet) == PP_ERR_UNSUPPORTED &&
+              strstr(pp_error_message(), "choose a channel with --channel r|g|b|luma"),
+          "colour message naming the caller's flag: %s", pp_error_message());
+    opt.setting_names = NULL;
     const pp_channel ch[4] = {PP_CHANNEL_R, PP_CHANNEL_G, PP_CHANNEL_B, PP_CHANNEL_LUMA};
     const double want0[4] = {10, 20, 30, 0.2126 * 10 + 0.7152 * 20 + 0.0722 * 30};
     const double want1[4] = {200, 100, 0, 0.2126 * 200 + 0.7152 * 100};

@@ -90,7 +90,7 @@ static void check_config(const char *name, pp_sampler_kind kind, pp_boundary b, 
     cfg.threads = threads;
     cfg.burn = 0;
     cfg.iters = 4;
-    pp_noise_parse("gaussian", &cfg.noise);
+    pp_noise_parse("gaussian", NULL, &cfg.noise);
     int fd[2];
     if (pipe(fd) != 0) {
         CHECK(0, "%s: pipe", name);

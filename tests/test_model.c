@@ -185,7 +185,7 @@ static void check_moments(const char *spec, double mu, double mean, double var, 
 {
     const size_t n = 200000;
     pp_noise_spec ns;
-    CHECK(pp_noise_parse(spec, &ns) == PP_OK, "noise %s parsed: %s", spec, pp_error_message());
+    CHECK(pp_noise_parse(spec, NULL, &ns) == PP_OK, "noise %s parsed: %s", spec, pp_error_message());
     pp_image *y = NULL;
     pp_image_create(1, n, &y);
     for (size_t i = 0; i < n; i++)
@@ -226,23 +226,23 @@ static void check_noise(void)
     pp_image_create(8, 8, &y);
     for (size_t i = 0; i < 64; i++)
         y->data[i] = -3.0;
-    pp_noise_parse("poisson:gain=2,offset=7", &ns);
+    pp_noise_parse("poisson:gain=2,offset=7", NULL, &ns);
     pp_model_add_noise(y, &ns, &rng);
     int all_offset = 1;
     for (size_t i = 0; i < 64; i++)
         all_offset &= y->data[i] == 7.0;
     CHECK(all_offset, "negative expected photons are clipped to 0 (offset only)");
-    pp_noise_parse("gaussian", &ns);
+    pp_noise_parse("gaussian", NULL, &ns);
     y->data[0] = 1.5;
     CHECK(pp_model_add_noise(y, &ns, &rng) == PP_ERR_ARG && y->data[0] == 1.5 &&
               strstr(pp_error_message(), "sigma="),
           "gaussian without sigma refused, y unchanged: %s", pp_error_message());
-    pp_noise_parse("poisson:gain=1,offset=0", &ns);
+    pp_noise_parse("poisson:gain=1,offset=0", NULL, &ns);
     y->data[5] = NAN;
     y->data[0] = 1.5;
     CHECK(pp_model_add_noise(y, &ns, &rng) == PP_ERR_NUMERIC && y->data[0] == 1.5,
           "NaN expected value refused before anything changes");
-    pp_noise_parse("none", &ns);
+    pp_noise_parse("none", NULL, &ns);
     y->data[5] = 2;
     CHECK(pp_model_add_noise(y, &ns, &rng) == PP_OK && y->data[0] == 1.5 && y->data[5] == 2,
           "none leaves y alone");
@@ -257,14 +257,14 @@ static void check_simulate(void)
     for (size_t i = 0; i < 17 * 12; i++)
         x->data[i] *= 50;
     pp_noise_spec ns;
-    pp_noise_parse("camera:gain=2,offset=100,read=1.5", &ns);
+    pp_noise_parse("camera:gain=2,offset=100,read=1.5", NULL, &ns);
     CHECK(pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, &a) == PP_OK, "simulated");
     pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, &b);
     pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 12, &c);
     CHECK(memcmp(a->data, b->data, 17 * 12 * sizeof(double)) == 0, "same seed, same frame");
     CHECK(memcmp(a->data, c->data, 17 * 12 * sizeof(double)) != 0, "other seed, other frame");
     pp_image *d = NULL;
-    pp_noise_parse("gaussian", &ns);
+    pp_noise_parse("gaussian", NULL, &ns);
     CHECK(pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, &d) == PP_ERR_ARG && !d,
           "simulate refuses gaussian without sigma");
     pp_image_free(x);

@@ -26,7 +26,7 @@ static pp_image *photon_frame(const pp_image *psf, double level, double gain, do
     pp_noise_spec nz;
     char spec[128];
     snprintf(spec, sizeof spec, "poisson:gain=%g,offset=%g", gain, offset);
-    pp_noise_parse(spec, &nz);
+    pp_noise_parse(spec, NULL, &nz);
     pp_model_simulate(truth, psf, PP_BOUNDARY_PERIODIC, &nz, 3, &y);
     pp_image_free(truth);
     return y;
@@ -108,9 +108,9 @@ static void camera_read0_is_poisson(const pp_image *psf, pp_sampler_kind kind, p
     cfg.iters = 80;
     cfg.chains = 2;
     pp_prior_parse("matern:range=4,nu=1", &cfg.prior);
-    pp_noise_parse("poisson:gain=0.5,offset=100", &cfg.noise);
+    pp_noise_parse("poisson:gain=0.5,offset=100", NULL, &cfg.noise);
     pp_sampler *p = run(&cfg, y, psf);
-    pp_noise_parse("camera:gain=0.5,offset=100,read=0", &cfg.noise);
+    pp_noise_parse("camera:gain=0.5,offset=100,read=0", NULL, &cfg.noise);
     cfg.threads = 1;
     pp_sampler *c = run(&cfg, y, psf);
     if (p && c) {
@@ -150,7 +150,7 @@ static void gaussian_closed_form(const pp_image *psf, pp_sampler_kind kind)
     for (size_t i = 0; i < H * W; i++)
         truth->data[i] = 5.0 + 2.0 * sin(0.3 * (double)i);
     pp_noise_spec nz;
-    pp_noise_parse("gaussian:sigma=0.5", &nz);
+    pp_noise_parse("gaussian:sigma=0.5", NULL, &nz);
     pp_model_simulate(truth, psf, PP_BOUNDARY_PERIODIC, &nz, 4, &y);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
@@ -210,7 +210,7 @@ static void refusals(const pp_image *psf)
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
-    pp_noise_parse("poisson:gain=1,offset=0", &cfg.noise);
+    pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise);
     cfg.kind = PP_SAMPLER_GIBBS;
     pp_sampler *s = NULL;
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG && !s &&
@@ -241,7 +241,7 @@ static void short_burn_warned(const pp_image *psf)
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
-    pp_noise_parse("poisson:gain=1,offset=0", &cfg.noise);
+    pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise);
     pp_prior_parse("matern:range=4,nu=1", &cfg.prior);
     cfg.kind = PP_SAMPLER_GPCN;
     cfg.chains = 1;

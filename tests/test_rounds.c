@@ -160,7 +160,7 @@ static void extendable(void)
     cfg.boundary = PP_BOUNDARY_PERIODIC;
     rounds_equal_one_run("adaptive gibbs periodic thin 2", cfg, y, psf);
     pp_sampler_defaults(&cfg);
-    pp_noise_parse("poisson:gain=1,offset=0", &cfg.noise);
+    pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise);
     rounds_equal_one_run("hmc adaptive", cfg, yp, psf); /* the default for photons */
     pp_prior_parse("gmrf1", &cfg.prior);
     rounds_equal_one_run("hmc gmrf1", cfg, yp, psf);
@@ -260,7 +260,7 @@ int main(void)
     pp_sampler_defaults(&cfg); /* adaptive gibbs: records the draws x */
     cfg.boundary = PP_BOUNDARY_PERIODIC;
     unequal_halves("adaptive gibbs", cfg, y, psf);
-    pp_noise_parse("poisson:gain=1,offset=0", &cfg.noise);
+    pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise);
     pp_prior_parse("gmrf1", &cfg.prior);
     cfg.positivity = PP_POSITIVITY_NONE; /* x = z: the moments are of the probes' values */
     cfg.kind = PP_SAMPLER_HMC;

@@ -96,11 +96,11 @@ static void priors(void)
     CHECK(pp_prior_parse("gmrf3", &p) == PP_ERR_ARG && strstr(pp_error_message(), "gmrf3"),
           "unknown prior named");
     pp_noise_spec n;
-    CHECK(pp_noise_parse("camera:gain=0.5,offset=100,read=1.6", &n) == PP_OK &&
+    CHECK(pp_noise_parse("camera:gain=0.5,offset=100,read=1.6", NULL, &n) == PP_OK &&
               n.kind == PP_NOISE_CAMERA && n.read == 1.6,
           "camera spec");
-    CHECK(pp_noise_parse("gaussian:sigma=0", &n) == PP_ERR_ARG, "sigma 0 refused");
-    CHECK(pp_noise_parse("poisson:gain=1,read=2", &n) == PP_ERR_ARG &&
+    CHECK(pp_noise_parse("gaussian:sigma=0", NULL, &n) == PP_ERR_ARG, "sigma 0 refused");
+    CHECK(pp_noise_parse("poisson:gain=1,read=2", NULL, &n) == PP_ERR_ARG &&
               strstr(pp_error_message(), "read"),
           "poisson has no read key");
 }

@@ -5,9 +5,14 @@
 #include "pixpost/noise.h"
 #include "pixpost/prior.h"
 #include "pixpost/psf.h"
+#include "pixpost/setting.h"
 #include "pixpost/spec.h"
 #include "testutil.h"
 #include <string.h>
+
+/* A program's names for the settings, as the command line gives them
+ * (src/cli/flag_names.c): the parsers that take a names table use it. */
+static const char *const flags[PP_SET_COUNT] = {[PP_SET_NOISE] = "--noise"};
 
 /* Parses text with the parser for `what` (--psf, --noise, --prior). */
 static pp_status parse_any(const char *what, const char *text)
@@ -18,7 +23,7 @@ static pp_status parse_any(const char *what, const char *text)
     if (strcmp(what, "--psf") == 0)
         return pp_psf_parse(text, &psf);
     if (strcmp(what, "--noise") == 0)
-        return pp_noise_parse(text, &noise);
+        return pp_noise_parse(text, flags, &noise);
     return pp_prior_parse(text, &prior);
 }
 
@@ -102,15 +107,24 @@ static void check_photon_keys(void)
     refused("--noise", "poisson:gain=2,offset=100,read=1", "unknown key 'read'", NULL, NULL, NULL);
     pp_noise_spec n;
     char buf[128];
-    CHECK(pp_noise_parse("camera:e_per_adu=0.25,offset=100,read=1.6", &n) == PP_OK &&
+    CHECK(pp_noise_parse("camera:e_per_adu=0.25,offset=100,read=1.6", NULL, &n) == PP_OK &&
               n.gain == 4.0 && n.offset == 100 && n.read == 1.6,
           "e_per_adu=0.25 gives gain 4: %s", pp_error_message());
     pp_noise_format(&n, buf, sizeof buf);
     CHECK(strcmp(buf, "camera:gain=4,offset=100,read=1.6") == 0,
           "canonical text keeps the gain= form: %s", buf);
-    CHECK(pp_noise_parse("poisson:gain=0.5,offset=0", &n) == PP_OK && n.gain == 0.5 &&
+    CHECK(pp_noise_parse("poisson:gain=0.5,offset=0", NULL, &n) == PP_OK && n.gain == 0.5 &&
               n.offset == 0,
           "an explicit offset=0 is accepted");
+    /* a library caller without a names table gets the library's words */
+    const char *bad[] = {"poisson:offset=1", "gaussian:sigma=0", "camera:gain=1,offset=0,read=-1",
+                         "gauss", "gaussian:sigam=1", "gaussian:sigma=x"};
+    for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+        pp_status st = pp_noise_parse(bad[i], NULL, &n);
+        const char *m = pp_error_message();
+        CHECK(st == PP_ERR_ARG && strstr(m, "noise model") && !strstr(m, "--"),
+              "'%s' refused in the library's words: %s", bad[i], m);
+    }
 }
 
 int main(void)

@@ -31,6 +31,10 @@ typedef struct pp_read_options {
     pp_channel channel; /* what to take from a colour image */
     size_t max_pixels;  /* refuse larger frames (default PP_DEFAULT_MAX_PIXELS) */
     unsigned page;      /* TIFF page (directory) to read, 0-based */
+    /* How messages name the settings (include/pixpost/setting.h): a
+     * PP_SET_COUNT table kept by the caller, e.g. a command line's flags;
+     * NULL (default): the library's words. */
+    const char *const *setting_names;
 } pp_read_options;
 
 typedef struct pp_read_info {

@@ -35,7 +35,9 @@ typedef struct pp_noise_spec {
     double read;    /* electrons rms (camera) */
 } pp_noise_spec;
 
-pp_status pp_noise_parse(const char *text, pp_noise_spec *out);
+/* Parses a noise spec. A refusal names the setting by names (PP_SET_NOISE,
+ * include/pixpost/setting.h; NULL: the library's words, "noise model"). */
+pp_status pp_noise_parse(const char *text, const char *const *names, pp_noise_spec *out);
 void pp_noise_format(const pp_noise_spec *s, char *buf, size_t len);
 
 #endif

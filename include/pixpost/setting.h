@@ -11,16 +11,16 @@
  * the checks of the data and of the fit: pp_datacheck_run's argument and
  * pp_ppcheck_input's setting_names (pp_ppcheck_sampler takes the
  * sampler's), and the parsers of a setting's text (pp_sampler_kind_parse,
- * pp_boundary_parse, pp_channel_parse).
+ * pp_boundary_parse, pp_channel_parse, pp_noise_parse), and the frame
+ * readers (pp_read_options.setting_names: the colour-frame refusal names
+ * the channel setting).
  *
  * Not yet converted (they still name a command-line flag to every
  * caller; each needs a names table passed to it, issue 18 step 0): the
  * spec parsers' messages ("--psf ..." in psf.c, psf3.c, psf_optics.c,
- * psf_widefield.c; "--noise ..." in noise.c; "--prior ..." in prior.c),
+ * psf_widefield.c; "--prior ..." in prior.c),
  * pp_model_blur's and pp_model_add_noise's ("--boundary pad", "--noise
- * gaussian"), the readers' ("--channel r|g|b|luma" in io_common.c,
- * "--max-pixels" in io_tiff.c), observed.c ("--keep-saturated"),
- * calib_ptc.c ("--saturation"), the output folder's marker text
+ * gaussian"), observed.c ("--keep-saturated"), the output folder's marker text
  * ("--overwrite", output.c) and the report's ("--boundary pad",
  * "--strict", "--iters auto" in report.c, report_checks.c,
  * output_report.c). A message names a setting only through pp_setting_name; no

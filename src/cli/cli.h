@@ -195,6 +195,9 @@ typedef struct cli_sample_opts {
 /* The flag of each sampler setting (flag_names.c), for
  * pp_sampler_config.setting_names: the library's messages name the flags. */
 extern const char *const cli_flag_names[PP_SET_COUNT];
+/* The readers' defaults (pp_read_options_defaults) with the command line's
+ * names for the settings, so a reader's refusal names the flag. */
+void cli_read_defaults(pp_read_options *o);
 
 /* The sample options table (NULL-terminated). */
 const cli_opt *cli_sample_table(void);

@@ -235,7 +235,7 @@ static int add_file(const calib_opts *o, const char *file, const char *what, pp_
                     size_t *frames, frame_size *size)
 {
     pp_read_options ro;
-    pp_read_options_defaults(&ro);
+    cli_read_defaults(&ro);
     ro.channel = o->channel;
     unsigned pages = 1;
     for (unsigned p = 0; p < pages; p++) {
@@ -371,7 +371,7 @@ static int run_frame_fit(const calib_opts *o, pp_noise_spec *spec, pp_noise_fit 
     pp_read_info info;
     pp_image *img = NULL;
     pp_read_options ro;
-    pp_read_options_defaults(&ro);
+    cli_read_defaults(&ro);
     ro.channel = o->channel;
     pp_status st = pp_image_read(o->frame, &ro, &img, &info);
     if (st != PP_OK)

@@ -201,7 +201,7 @@ static int parse(int argc, char **argv, sim_opts *o)
         (rc = cli_require(&a, "noise")) != 0 || (rc = cli_require(&a, "output")) != 0)
         return rc;
     memset(o, 0, sizeof *o);
-    pp_read_options_defaults(&o->read);
+    cli_read_defaults(&o->read);
     o->truth = a.pos[0];
     o->out = cli_str(&a, "output");
     o->psf_text = cli_str(&a, "psf");
@@ -211,7 +211,7 @@ static int parse(int argc, char **argv, sim_opts *o)
     o->quiet = cli_given(&a, "quiet");
     o->overwrite = cli_given(&a, "overwrite");
     if ((rc = lib(pp_psf_parse(o->psf_text, &o->psf))) != 0 ||
-        (rc = lib(pp_noise_parse(o->noise_text, &o->noise))) != 0 ||
+        (rc = lib(pp_noise_parse(o->noise_text, cli_flag_names, &o->noise))) != 0 ||
         (rc = cli_get_u64(&a, "seed", &o->seed)) != 0 ||
         (rc = cli_get_size(&a, "max-pixels", 1, &o->read.max_pixels)) != 0)
         return rc;

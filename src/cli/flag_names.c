@@ -21,3 +21,9 @@ const char *const cli_flag_names[PP_SET_COUNT] = {
     [PP_SET_NOISE] = "--noise",
     [PP_SET_CHANNEL] = "--channel",
 };
+
+void cli_read_defaults(pp_read_options *o)
+{
+    pp_read_options_defaults(o);
+    o->setting_names = cli_flag_names;
+}

@@ -223,7 +223,7 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
         o->noise_text = "auto";
     else if (cli_given(a, "noise")) {
         o->noise_text = cli_str(a, "noise");
-        if ((rc = lib_check(pp_noise_parse(o->noise_text, &o->cfg.noise))) != 0)
+        if ((rc = lib_check(pp_noise_parse(o->noise_text, cli_flag_names, &o->cfg.noise))) != 0)
             return rc;
         if (o->cfg.noise.kind == PP_NOISE_NONE)
             return cli_opt_error("noise", "'none' is for simulate only (expected gaussian, "
@@ -357,7 +357,7 @@ int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o)
     memset(o, 0, sizeof *o);
     pp_sampler_defaults(&o->cfg);
     o->cfg.setting_names = cli_flag_names; /* messages name the flags */
-    pp_read_options_defaults(&o->read);
+    cli_read_defaults(&o->read);
     pp_noise_format(&o->cfg.noise, o->noise_buf, sizeof o->noise_buf);
     pp_prior_format(&o->cfg.prior, o->prior_buf, sizeof o->prior_buf);
     o->noise_text = o->noise_buf;

@@ -18,7 +18,7 @@ static int mask_fail(cli_frame_run *r, const char *fmt, const char *a, const cha
 static int apply_mask(const char *path, cli_frame_run *r, pp_image *frame)
 {
     pp_read_options ro;
-    pp_read_options_defaults(&ro);
+    cli_read_defaults(&ro);
     pp_image *m = NULL;
     pp_status st = pp_image_read(path, &ro, &m, NULL);
     if (st == PP_ERR_UNSUPPORTED && strstr(pp_error_message(), "colour"))

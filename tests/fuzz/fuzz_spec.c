@@ -30,13 +30,13 @@ static void fuzz_psf(const char *text)
 static void fuzz_noise(const char *text)
 {
     pp_noise_spec s, t;
-    pp_status st = pp_noise_parse(text, &s);
+    pp_status st = pp_noise_parse(text, NULL, &s);
     check_fail(st);
     if (st != PP_OK)
         return;
     char buf[1024];
     pp_noise_format(&s, buf, sizeof buf);
-    if (pp_noise_parse(buf, &t) != PP_OK || t.kind != s.kind)
+    if (pp_noise_parse(buf, NULL, &t) != PP_OK || t.kind != s.kind)
         abort();
 }
 
