@@ -368,7 +368,7 @@ static void check_volume(void)
      * every slice gets noise (none left at exactly 0) */
     memset(x->data, 0, 5 * 64 * sizeof(double));
     pp_noise_spec ns;
-    pp_noise_parse("gaussian:sigma=2", &ns);
+    pp_noise_parse("gaussian:sigma=2", NULL, &ns);
     pp_rng rng;
     pp_rng_seed(&rng, 3, 0);
     CHECK(pp_model_add_noise(x, &ns, &rng) == PP_OK, "noise on a volume");
