@@ -230,16 +230,22 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
     return 0;
 }
 
-int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
+int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
 {
     memset(u, 0, sizeof *u);
     pp_status st = pp_stack_probe(frame, &u->pages, &u->ome);
     if (st != PP_OK)
         return cli_refuse(msg, len, "%s", pp_error_message());
     set_voxel(o, u);
-    int rc = o->channel_all ? plan_colour(o, frame, u, msg, len) : pick_role(o, frame, u, msg, len);
-    if (!rc && !o->channel_all)
-        rc = plan_pages(o, frame, u, msg, len);
+    return o->channel_all ? 0 : pick_role(o, frame, u, msg, len);
+}
+
+int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
+{
+    int rc = cli_units_role(o, frame, u, msg, len);
+    if (!rc)
+        rc =
+            o->channel_all ? plan_colour(o, frame, u, msg, len) : plan_pages(o, frame, u, msg, len);
     if (rc)
         return rc;
     size_t channels = u->role == 'c' ? u->n : 1;
