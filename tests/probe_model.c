@@ -5,6 +5,10 @@
  *   probe_model psf SPEC SIZE           side n, then the n*n kernel values
  *   probe_model blur pad|periodic       stdin: H W, H*W scene values, n,
  *                                       n*n PSF values; prints H*W values
+ *   probe_model blur3 pad|periodic      stdin: D H W, D*H*W scene values,
+ *                                       KD KH KW, KD*KH*KW PSF values (a
+ *                                       volume, slowest axis first; D or KD
+ *                                       1 makes a frame); prints D*H*W values
  *   probe_model noise SPEC MU N SEED    N noisy copies of the level MU
  *                                       (pp_model_add_noise, stream 0)
  */
@@ -22,18 +26,23 @@ static int fail(const char *what)
 
 static void print_image(const pp_image *img)
 {
-    for (size_t i = 0; i < img->width * img->height; i++)
+    for (size_t i = 0; i < pp_image_count(img); i++)
         printf("%.17g\n", img->data[i]);
+}
+
+static int read_volume(size_t d, size_t h, size_t w, pp_image **out)
+{
+    if (pp_image_create3(d, h, w, out) != PP_OK)
+        return 0;
+    for (size_t i = 0; i < d * w * h; i++)
+        if (scanf("%lf", &(*out)->data[i]) != 1)
+            return 0;
+    return 1;
 }
 
 static int read_image(size_t w, size_t h, pp_image **out)
 {
-    if (pp_image_create(h, w, out) != PP_OK)
-        return 0;
-    for (size_t i = 0; i < w * h; i++)
-        if (scanf("%lf", &(*out)->data[i]) != 1)
-            return 0;
-    return 1;
+    return read_volume(1, h, w, out);
 }
 
 static int do_psf(const char *spec, const char *size)
@@ -61,6 +70,29 @@ static int do_blur(const char *boundary)
         return 1;
     }
     int rc = pp_model_blur(x, k, b, &y) == PP_OK ? 0 : fail("blur");
+    if (!rc)
+        print_image(y);
+    pp_image_free(x);
+    pp_image_free(k);
+    pp_image_free(y);
+    return rc;
+}
+
+static int do_blur3(const char *boundary)
+{
+    pp_boundary b;
+    size_t d, h, w, kd, kh, kw;
+    pp_image *x = NULL, *k = NULL, *y = NULL;
+    if (pp_boundary_parse(boundary, NULL, &b) != PP_OK)
+        return fail("boundary");
+    if (scanf("%zu %zu %zu", &d, &h, &w) != 3 || !read_volume(d, h, w, &x) ||
+        scanf("%zu %zu %zu", &kd, &kh, &kw) != 3 || !read_volume(kd, kh, kw, &k)) {
+        fprintf(stderr, "probe_model: malformed input on stdin\n");
+        pp_image_free(x);
+        pp_image_free(k);
+        return 1;
+    }
+    int rc = pp_model_blur(x, k, b, &y) == PP_OK ? 0 : fail("blur3");
     if (!rc)
         print_image(y);
     pp_image_free(x);
@@ -97,10 +129,12 @@ int main(int argc, char **argv)
         return do_psf(argv[2], argv[3]);
     if (argc == 3 && strcmp(argv[1], "blur") == 0)
         return do_blur(argv[2]);
+    if (argc == 3 && strcmp(argv[1], "blur3") == 0)
+        return do_blur3(argv[2]);
     if (argc == 6 && strcmp(argv[1], "noise") == 0)
         return do_noise(argv[2], strtod(argv[3], NULL), strtoul(argv[4], NULL, 10),
                         strtoull(argv[5], NULL, 10));
     fprintf(stderr, "usage: probe_model j1 X... | psf SPEC SIZE | blur pad|periodic < data |"
-                    " noise SPEC MU N SEED\n");
+                    " blur3 pad|periodic < data | noise SPEC MU N SEED\n");
     return 2;
 }

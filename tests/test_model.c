@@ -1,7 +1,8 @@
 /* Unit tests of src/model.c: boundary names, the transfer function, the
  * blur against a direct convolution sum for both boundaries, the blur of a
  * delta, where periodic and pad may differ, refusals, and the moments of
- * simulated noise (fixed seeds; tolerances from the standard errors). */
+ * simulated noise (fixed seeds; tolerances from the standard errors);
+ * volumes against a direct 3-D sum. */
 #include "pixpost/model.h"
 #include "pixpost/psf.h"
 #include "pixpost/setting.h"
@@ -273,6 +274,121 @@ static void check_simulate(void)
     pp_image_free(c);
 }
 
+/* Volumes: a direct sum over a 3-D kernel of sides 3 x 5 x 7 (random, so
+ * asymmetric on every axis), periodic wrapping every axis and pad taking
+ * the volume as zero outside, on odd and even sides; a delta gives the
+ * kernel around it; a one-slice kernel leaves the slices apart; the noise
+ * functions take every element of a volume. */
+static pp_image *random_volume(size_t d, size_t h, size_t w, unsigned long long seed)
+{
+    pp_image *img = NULL;
+    pp_image_create3(d, h, w, &img);
+    for (size_t i = 0; i < d * h * w; i++)
+        img->data[i] = lcg(&seed);
+    return img;
+}
+
+static double direct3(const pp_image *x, const pp_image *k, long z0, long r0, long c0, int wrap)
+{
+    long d = (long)x->depth, h = (long)x->height, w = (long)x->width;
+    long kd = (long)k->depth, kh = (long)k->height, kw = (long)k->width;
+    double s = 0;
+    for (long a = 0; a < kd; a++)
+        for (long b = 0; b < kh; b++)
+            for (long c = 0; c < kw; c++) {
+                long z = z0 - (a - kd / 2), r = r0 - (b - kh / 2), q = c0 - (c - kw / 2);
+                if (wrap) {
+                    z = ((z % d) + d) % d;
+                    r = ((r % h) + h) % h;
+                    q = ((q % w) + w) % w;
+                } else if (z < 0 || r < 0 || q < 0 || z >= d || r >= h || q >= w) {
+                    continue;
+                }
+                s += k->data[(a * kh + b) * kw + c] * x->data[(z * h + r) * w + q];
+            }
+    return s;
+}
+
+static void check_direct3(size_t d, size_t h, size_t w, size_t kd, size_t kh, size_t kw)
+{
+    pp_image *x = random_volume(d, h, w, 17), *k = random_volume(kd, kh, kw, 23), *y = NULL;
+    int fits = kd <= d && kh <= h && kw <= w;
+    for (int wrap = 0; wrap < 1 + fits; wrap++) {
+        pp_boundary b = wrap ? PP_BOUNDARY_PERIODIC : PP_BOUNDARY_PAD;
+        CHECK(pp_model_blur(x, k, b, &y) == PP_OK && y && y->depth == d, "blur3 %s: %s",
+              pp_boundary_name(b), pp_error_message());
+        if (!y)
+            continue;
+        double err = 0;
+        for (size_t z = 0; z < d; z++)
+            for (size_t i = 0; i < h; i++)
+                for (size_t j = 0; j < w; j++)
+                    err = fmax(err, fabs(y->data[(z * h + i) * w + j] -
+                                         direct3(x, k, (long)z, (long)i, (long)j, wrap)));
+        CHECK(err < 1e-12, "%s blur of %zux%zux%zu by %zux%zux%zu equals the direct sum (%.1e)",
+              pp_boundary_name(b), d, h, w, kd, kh, kw, err);
+        pp_image_free(y);
+    }
+    if (!fits)
+        CHECK(pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, &y) == PP_ERR_LIMIT && !y &&
+                  strstr(pp_error_message(), "slices"),
+              "periodic refuses a kernel larger than the volume: %s", pp_error_message());
+    pp_image_free(x);
+    pp_image_free(k);
+}
+
+static void check_volume(void)
+{
+    check_direct3(6, 7, 9, 3, 5, 7);
+    check_direct3(5, 8, 6, 5, 7, 3);
+    check_direct3(4, 9, 8, 7, 3, 5);  /* deeper than the volume: pad only */
+    check_direct3(7, 6, 10, 1, 5, 3); /* one slice: each slice alone */
+    /* a delta in slice 2 of a 5-slice volume blurred by a 1-slice kernel
+     * stays in slice 2 */
+    pp_image *x = NULL, *k = random_volume(1, 3, 3, 5), *y = NULL;
+    pp_image_create3(5, 8, 8, &x);
+    x->data[(2 * 8 + 4) * 8 + 4] = 1.0;
+    pp_model_blur(x, k, PP_BOUNDARY_PAD, &y);
+    double other = 0;
+    for (size_t i = 0; i < 5 * 64; i++)
+        other += i / 64 == 2 ? 0 : fabs(y->data[i]);
+    CHECK(other < 1e-13, "a one-slice kernel leaves the other slices at 0 to rounding (%.1e)",
+          other);
+    pp_image_free(y);
+    /* a 3-D kernel on one frame is refused; a NaN in slice 3 is located */
+    pp_image *f = random_image(8, 8, 3), *k3 = random_volume(3, 3, 3, 9);
+    CHECK(pp_model_blur(f, k3, PP_BOUNDARY_PAD, &y) == PP_ERR_ARG && !y &&
+              strstr(pp_error_message(), "3-D"),
+          "3-D kernel on a frame refused: %s", pp_error_message());
+    x->data[(3 * 8 + 1) * 8 + 2] = NAN;
+    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PAD, &y) == PP_ERR_NUMERIC &&
+              strstr(pp_error_message(), "(3, 1, 2)"),
+          "NaN voxel named by slice, row, column: %s", pp_error_message());
+    /* noise over the whole volume: gaussian sd 2 on 5 x 64 voxels of 0;
+     * every slice gets noise (none left at exactly 0) */
+    memset(x->data, 0, 5 * 64 * sizeof(double));
+    pp_noise_spec ns;
+    pp_noise_parse("gaussian:sigma=2", NULL, &ns);
+    pp_rng rng;
+    pp_rng_seed(&rng, 3, 0);
+    CHECK(pp_model_add_noise(x, &ns, &rng) == PP_OK, "noise on a volume");
+    size_t zeros = 0;
+    for (size_t i = 0; i < 5 * 64; i++)
+        zeros += x->data[i] == 0;
+    CHECK(zeros == 0, "every voxel of every slice got noise (%zu left at 0)", zeros);
+    pp_image *a = NULL, *b = NULL;
+    CHECK(pp_model_simulate(x, k3, PP_BOUNDARY_PERIODIC, &ns, 4, &a) == PP_OK &&
+              pp_model_simulate(x, k3, PP_BOUNDARY_PERIODIC, &ns, 4, &b) == PP_OK &&
+              a->depth == 5 && memcmp(a->data, b->data, 5 * 64 * sizeof(double)) == 0,
+          "simulate of a volume is reproducible for a seed");
+    pp_image_free(a);
+    pp_image_free(b);
+    pp_image_free(x);
+    pp_image_free(k);
+    pp_image_free(f);
+    pp_image_free(k3);
+}
+
 int main(void)
 {
     check_direct(45, 37, 9); /* non-square, not a power of two */
@@ -284,5 +400,6 @@ int main(void)
     check_refusals();
     check_noise();
     check_simulate();
+    check_volume();
     return pp_test_done();
 }

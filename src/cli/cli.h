@@ -246,6 +246,13 @@ typedef struct cli_units {
 /* Reads --pages, --plane, --voxel and --channel all into o (called by
  * cli_sample_opts_from_args). Returns 0 or CLI_EXIT_USAGE (printed). */
 int cli_units_opts(const cli_args *a, cli_sample_opts *o);
+/* What the pages of frame are, without planning units (simulate, which
+ * takes one frame or one volume): u's pages, OME metadata, voxel size and
+ * role ('z', 't', 'c'; 0 for one page; with --plane K the file's role, the
+ * caller picks the page). --channel all leaves the role 0. Returns 0, or
+ * CLI_EXIT_USAGE with one sentence in msg as cli_units_plan. */
+int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                   size_t len);
 /* The units of frame under o's options (see units.c). Returns 0, or
  * CLI_EXIT_USAGE with one sentence in msg naming the file or option. */
 int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
