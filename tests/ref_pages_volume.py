@@ -34,7 +34,7 @@ T = pptest.tmpdir()
 rng = np.random.default_rng(20261204)
 Q = ["--iters", "40", "--burn", "40", "--chains", "2", "--seed", "5", "--quiet", "--no-plan-cache",
      "--noise", "gaussian:sigma=5", "--prior", "gmrf1"]
-G3 = "gaussian:sigma=1,sigma_z=0.7"   # a 3-D gaussian: 9 x 9 in the plane, 5 slices
+G3 = "gaussian:sigma=1,sigma_z=0.7"   # a 3-D gaussian: 9 x 9 in the plane, 7 slices
 AIRY = "airy:na=1.2,wavelength=0.5,pixel=0.2"
 
 
