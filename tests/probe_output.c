@@ -1,7 +1,7 @@
 /* probe_output — a hand-made run result through pp_output_write, for
  * tests/ref_output_volume.py.
  *
- *   probe_output write OUTDIR RAWDIR DEPTH HEIGHT WIDTH [--voxel Z,Y,X]
+ *   probe_output write OUTDIR RAWDIR DEPTH HEIGHT WIDTH [--voxel Z,Y,X] [--bad-shape]
  *       builds a pp_result by hand (no sampler): the input and the mean,
  *       sd, lo, hi, rhat and mcse maps of DEPTH x HEIGHT x WIDTH (DEPTH 1:
  *       a frame, rank 2; DEPTH > 1: a volume, rank 3) from integer
@@ -13,7 +13,8 @@
  *       little-endian doubles RAWDIR/<name>.f64 (input, mean, sd, lo, hi,
  *       rhat, mcse) so the check can compare the files with the values.
  *       --voxel sets config.voxel ({z, y, x} micrometres; default 0 0 0,
- *       unknown). Prints OUTDIR.
+ *       unknown). --bad-shape: the result's frame claims one slice more
+ *       than its maps have (pp_output_write must refuse it). Prints OUTDIR.
  * Errors: "probe_output: <status name>: <message>" on stderr, exit 1. */
 #include "pixpost/diag.h"
 #include "pixpost/output.h"
@@ -102,7 +103,7 @@ int main(int argc, char **argv)
 {
     if (argc < 7 || strcmp(argv[1], "write") != 0) {
         fprintf(stderr, "usage: probe_output write OUTDIR RAWDIR DEPTH HEIGHT WIDTH "
-                        "[--voxel Z,Y,X]\n");
+                        "[--voxel Z,Y,X] [--bad-shape]\n");
         return 2;
     }
     size_t d = strtoul(argv[4], NULL, 10), h = strtoul(argv[5], NULL, 10),
@@ -115,10 +116,16 @@ int main(int argc, char **argv)
     c.iters = KEPT;
     c.thin = 1;
     c.seed = 7;
-    if (argc == 9 && strcmp(argv[7], "--voxel") == 0 &&
-        sscanf(argv[8], "%lf,%lf,%lf", &c.voxel[0], &c.voxel[1], &c.voxel[2]) != 3) {
-        fprintf(stderr, "probe_output: --voxel Z,Y,X\n");
-        return 2;
+    int bad_shape = 0;
+    for (int i = 7; i < argc; i++) {
+        if (strcmp(argv[i], "--bad-shape") == 0) {
+            bad_shape = 1;
+        } else if (!(strcmp(argv[i], "--voxel") == 0 && i + 1 < argc &&
+                     sscanf(argv[++i], "%lf,%lf,%lf", &c.voxel[0], &c.voxel[1], &c.voxel[2]) ==
+                         3)) {
+            fprintf(stderr, "probe_output: bad option '%s'\n", argv[i]);
+            return 2;
+        }
     }
     pp_image *im[NMAP] = {NULL};
     pp_status st = PP_OK;
@@ -145,7 +152,7 @@ int main(int argc, char **argv)
     pp_result r;
     memset(&r, 0, sizeof r);
     r.config = c;
-    r.frame = d > 1 ? pp_shape_3d(d, h, w) : pp_shape_2d(h, w);
+    r.frame = d > 1 ? pp_shape_3d(d + (size_t)bad_shape, h, w) : pp_shape_2d(h, w);
     r.grid = d > 1 ? pp_shape_3d(d + 4, h + 8, w + 8) : pp_shape_2d(h + 8, w + 8);
     r.mean = im[1], r.sd = im[2], r.lo = im[3], r.hi = im[4];
     r.rhat_map = im[5], r.mcse_map = im[6];
