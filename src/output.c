@@ -597,7 +597,7 @@ static pp_status check_shapes(const pp_result *r, const pp_image *frame, const p
     static const char *const names[8] = {"mean", "sd", "lo", "hi", "rhat", "mcse", "input",
                                          "residual"};
     for (int i = 0; i < 8; i++) {
-        if (!im[i] && i >= 4)
+        if (!im[i] && (i >= 6 || (i >= 4 && !r->rhat_map))) /* optional, or no R-hat maps */
             continue;
         pp_shape s = im[i] ? pp_image_shape(im[i]) : pp_shape_2d(0, 0);
         if (!im[i] || !pp_shape_equal(&s, &r->frame))
