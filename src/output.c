@@ -548,19 +548,19 @@ static pp_status write_f32(const char *path, const pp_image *img, const pp_resul
     return pp_ome_tiff_write_f32(path, &s, img->data, r->config.voxel, name);
 }
 
+/* Output k to path; png: the images the PNGs show (mean and sd, or their
+ * projections). */
 static pp_status write_one(int k, const char *path, const pp_result *r, const pp_image *frame,
-                           const pp_run_info *info, const png_scales *ps, const pp_image *mip[2])
+                           const pp_run_info *info, const png_scales *ps, const pp_image *png[2])
 {
     const pp_image *tif[6] = {r->mean, r->sd, r->lo, r->hi, r->rhat_map, r->mcse_map};
     static const char *const tif_names[6] = {"mean", "sd", "lo", "hi", "rhat", "mcse"};
     if (k <= OUT_MCSE)
         return write_f32(path, tif[k], r, tif_names[k]);
     if (k == OUT_MEAN_PNG || k == OUT_MEAN_MIP)
-        return pp_png_write16(path, k == OUT_MEAN_MIP ? mip[0] : r->mean, ps->mean_offset,
-                              ps->mean_scale);
+        return pp_png_write16(path, png[0], ps->mean_offset, ps->mean_scale);
     if (k == OUT_SD_PNG || k == OUT_SD_MIP)
-        return pp_png_write16(path, k == OUT_SD_MIP ? mip[1] : r->sd, ps->sd_offset,
-                              ps->sd_scale);
+        return pp_png_write16(path, png[1], ps->sd_offset, ps->sd_scale);
     if (k == OUT_TRACE)
         return write_trace(path, r);
     if (k == OUT_SUMMARY)
@@ -575,17 +575,19 @@ static pp_status write_one(int k, const char *path, const pp_result *r, const pp
 static pp_status project_max(const pp_image *v, pp_image **out)
 {
     pp_status st = pp_image_create(v->height, v->width, out);
+    if (st != PP_OK)
+        return st;
     size_t n = v->height * v->width;
-    for (size_t i = 0; st == PP_OK && i < n; i++) {
-        double m = NAN;
-        for (size_t z = 0; z < v->depth; z++) {
+    double *m = (*out)->data;
+    for (size_t i = 0; i < n; i++)
+        m[i] = NAN;
+    for (size_t z = 0; z < v->depth; z++)
+        for (size_t i = 0; i < n; i++) {
             double x = v->data[z * n + i];
-            if (isfinite(x) && !(x <= m))
-                m = x;
+            if (isfinite(x) && !(x <= m[i])) /* also when m[i] is still NaN */
+                m[i] = x;
         }
-        (*out)->data[i] = m;
-    }
-    return st;
+    return PP_OK;
 }
 
 /* Every map of r (and the input and the residual, when given) has the
@@ -596,6 +598,10 @@ static pp_status check_shapes(const pp_result *r, const pp_image *frame, const p
                              info && info->predictive ? info->predictive->residual : NULL};
     static const char *const names[8] = {"mean", "sd", "lo", "hi", "rhat", "mcse", "input",
                                          "residual"};
+    if (r->frame.rank != 2 && r->frame.rank != 3)
+        return pp_fail(PP_ERR_ARG, "outputs: the result's frame has rank %d (a frame has 2, a "
+                                   "volume 3)",
+                       r->frame.rank);
     for (int i = 0; i < 8; i++) {
         if (!im[i] && (i >= 6 || (i >= 4 && !r->rhat_map))) /* optional, or no R-hat maps */
             continue;

@@ -499,8 +499,8 @@ static void head(page *pg, const char *title)
             CSS, first_image(pg->in) && first_image(pg->in)->depth > 1 ? PP_REPORT_VOLUME_CSS : "");
     pp_report_escape(f, title);
     if (any && any->depth > 1)
-        fprintf(f, " &middot; %zu&times;%zu&times;%zu voxels (x, y, z)", any->width,
-                any->height, any->depth);
+        fprintf(f, " &middot; %zu&times;%zu&times;%zu voxels (x, y, z)", any->width, any->height,
+                any->depth);
     else if (any)
         fprintf(f, " &middot; %zu&times;%zu pixels", any->width, any->height);
     if (strcmp(pg->units, pg->frame_units) != 0) {
@@ -549,8 +549,8 @@ static pp_status validate(const char *path, const pp_report_input *in)
                  im[i]->depth != ref->depth)
             return pp_fail(PP_ERR_ARG,
                            "%s: report images differ in size (%zux%zux%zu vs %zux%zux%zu, x y z)",
-                           path, im[i]->width, im[i]->height, im[i]->depth, ref->width,
-                           ref->height, ref->depth);
+                           path, im[i]->width, im[i]->height, im[i]->depth, ref->width, ref->height,
+                           ref->depth);
     }
     if (!(in->level > 0 && in->level < 1))
         return pp_fail(PP_ERR_ARG, "%s: credible level must be in (0, 1), got %g", path, in->level);

@@ -135,8 +135,8 @@ pp_status pp_report_png_uri_grey8(FILE *f, const unsigned char *px, size_t w, si
  * as on the page. */
 #define PP_REPORT_VOL_MAX_SLICES 128
 #define PP_REPORT_VOL_MAX_VOXELS ((size_t)1 << 20)
-pp_status pp_report_volume_section(FILE *f, const struct pp_report_input *in,
-                                   const char *units, const char *frame_units);
+pp_status pp_report_volume_section(FILE *f, const struct pp_report_input *in, const char *units,
+                                   const char *frame_units);
 /* The CSS rules of those views (the page's <style> gains them for a volume). */
 extern const char PP_REPORT_VOLUME_CSS[];
 

@@ -179,8 +179,8 @@ static void map_row(const void *ctx, size_t br, size_t w, unsigned char *row)
 {
     const mapped *m = ctx;
     for (size_t bc = 0; bc < w; bc++) {
-        double v = m->k == 1 ? m->img->data[br * m->img->width + bc]
-                             : block_mean(m->img, m->k, br, bc);
+        double v =
+            m->k == 1 ? m->img->data[br * m->img->width + bc] : block_mean(m->img, m->k, br, bc);
         double t = (v - m->lo) / (m->hi - m->lo);
         if (m->colour)
             pp_report_ramp(t, row + 3 * bc);

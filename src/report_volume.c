@@ -32,16 +32,19 @@
 #define MIN_Z_SHARE 0.15
 
 typedef struct volplan {
-    size_t n[3];    /* the volume: depth, height, width */
-    size_t k[3];    /* block sides along z, y, x */
-    size_t s[3];    /* the shown volume: ceil(n / k) */
-    size_t cols;    /* tiles per row of the atlas */
-    double vox[3];  /* voxel z, y, x in micrometres; 0: not known */
-    double css[3];  /* CSS pixels of the shown volume's extent along z, y, x */
-    int stretched;  /* the z views are drawn wider than the voxel's aspect */
+    size_t n[3];   /* the volume: depth, height, width */
+    size_t k[3];   /* block sides along z, y, x */
+    size_t s[3];   /* the shown volume: ceil(n / k) */
+    size_t cols;   /* tiles per row of the atlas */
+    double vox[3]; /* voxel z, y, x in micrometres; 0: not known */
+    double css[3]; /* CSS pixels of the shown volume's extent along z, y, x */
+    int stretched; /* the z views are drawn wider than the voxel's aspect */
 } volplan;
 
-static size_t ceil_div(size_t a, size_t b) { return (a + b - 1) / b; }
+static size_t ceil_div(size_t a, size_t b)
+{
+    return (a + b - 1) / b;
+}
 
 static void plan(const pp_image *im, const double *voxel, volplan *p)
 {
@@ -74,8 +77,8 @@ static void plan(const pp_image *im, const double *voxel, volplan *p)
 /* The atlas of img: its shown slices (block means of the finite voxels,
  * NaN where none) mapped to grey levels over lo..hi, tiled p->cols to a
  * row; *w x *h bytes, unused tiles 0. NULL when out of memory. */
-static unsigned char *atlas(const pp_image *img, const volplan *p, double lo, double hi,
-                            size_t *w, size_t *h)
+static unsigned char *atlas(const pp_image *img, const volplan *p, double lo, double hi, size_t *w,
+                            size_t *h)
 {
     size_t ns = p->s[0] * p->s[1] * p->s[2];
     double *sum = calloc(ns, sizeof *sum);
@@ -156,9 +159,8 @@ static pp_status figure(FILE *f, const quantity *q, const volplan *p)
         pp_report_svg_colourbar(f, id, lo, hi, q->units);
     }
     fprintf(f, "<figcaption><b>%s</b>%s%s %s, linear from %.4g (%s) to %.4g (%s) ", q->title,
-            q->explain ? ": " : ".", q->explain ? q->explain : "",
-            q->colour ? "Colour" : "Grey", lo, q->colour ? "darkest" : "black", hi,
-            q->colour ? "brightest" : "white");
+            q->explain ? ": " : ".", q->explain ? q->explain : "", q->colour ? "Colour" : "Grey",
+            lo, q->colour ? "darkest" : "black", hi, q->colour ? "brightest" : "white");
     pp_report_escape(f, q->units);
     fprintf(f,
             " (the %.1fth and %.1fth percentiles of this volume; values beyond are clipped)."
@@ -192,14 +194,14 @@ static void intro(FILE *f, const volplan *p)
                 p->k[0], p->k[0] > 1 ? "s" : "", p->k[1], p->k[2], p->s[2], p->s[1], p->s[0],
                 (size_t)PP_REPORT_VOL_MAX_SLICES, (size_t)PP_REPORT_VOL_MAX_VOXELS);
     if (p->stretched)
-        fprintf(f, " The z views are drawn stretched (to %.0f %% of the plane's larger side) "
-                   "so that they can be seen.",
+        fprintf(f,
+                " The z views are drawn stretched (to %.0f %% of the plane's larger side) "
+                "so that they can be seen.",
                 100 * MIN_Z_SHARE);
     fprintf(f,
             "</p>\n<div class=\"controls\" id=\"volume-controls\" data-n=\"%zu,%zu,%zu\" "
             "data-k=\"%zu,%zu,%zu\" data-voxel=\"%.17g,%.17g,%.17g\">\n",
-            p->n[0], p->n[1], p->n[2], p->k[0], p->k[1], p->k[2], p->vox[0], p->vox[1],
-            p->vox[2]);
+            p->n[0], p->n[1], p->n[2], p->k[0], p->k[1], p->k[2], p->vox[0], p->vox[1], p->vox[2]);
     static const char axes[3] = {'z', 'y', 'x'};
     for (int a = 0; a < 3; a++)
         fprintf(f,
@@ -222,7 +224,8 @@ static const char SCRIPT[] =
     "  function el(id) { return document.getElementById(id); }\n"
     "  A.forEach(function (a) { N[a] = +el('vol-' + a).max + 1; S[a] = +el('vol-' + a).value; });\n"
     "  for (var i = 0; i < 256; i++)\n"
-    "    ramp.push([0, 2, 4].map(function (o) { return parseInt(RAMP.substr(6 * i + o, 2), 16); }));\n"
+    "    ramp.push([0, 2, 4].map(function (o) { return parseInt(RAMP.substr(6 * i + o, 2), 16); "
+    "}));\n"
     "  function paint(c, w, h, at, colour) {\n"
     "    var g = c.getContext('2d'), im = g.createImageData(w, h), p = im.data;\n"
     "    for (var j = 0; j < h; j++)\n"
@@ -236,9 +239,12 @@ static const char SCRIPT[] =
     "    var W = N.x, H = N.y, D = N.z;\n"
     "    vols.forEach(function (q) {\n"
     "      var v = q.v;\n"
-    "      paint(el(q.key + '-xy'), W, H, function (i, j) { return v[(S.z * H + j) * W + i]; }, q.colour);\n"
-    "      paint(el(q.key + '-xz'), W, D, function (i, j) { return v[(j * H + S.y) * W + i]; }, q.colour);\n"
-    "      paint(el(q.key + '-yz'), D, H, function (i, j) { return v[(i * H + j) * W + S.x]; }, q.colour);\n"
+    "      paint(el(q.key + '-xy'), W, H, function (i, j) { return v[(S.z * H + j) * W + i]; }, "
+    "q.colour);\n"
+    "      paint(el(q.key + '-xz'), W, D, function (i, j) { return v[(j * H + S.y) * W + i]; }, "
+    "q.colour);\n"
+    "      paint(el(q.key + '-yz'), D, H, function (i, j) { return v[(i * H + j) * W + S.x]; }, "
+    "q.colour);\n"
     "    });\n"
     "    document.querySelectorAll('.view').forEach(function (e) {\n"
     "      var h = e.dataset.h, v = e.dataset.v;\n"
@@ -264,7 +270,8 @@ static const char SCRIPT[] =
     "      for (var z = 0; z < D; z++)\n"
     "        for (var y = 0; y < H; y++)\n"
     "          for (var x = 0; x < W; x++)\n"
-    "            v[(z * H + y) * W + x] = p[4 * ((((z / cols) | 0) * H + y) * c.width + (z % cols) * W + x)];\n"
+    "            v[(z * H + y) * W + x] = p[4 * ((((z / cols) | 0) * H + y) * c.width + (z % cols) "
+    "* W + x)];\n"
     "      vols.push({v: v, key: im.dataset.key, colour: im.dataset.colour === '1'});\n"
     "    });\n"
     "    draw();\n"
@@ -274,9 +281,12 @@ static const char SCRIPT[] =
     "  });\n"
     "  document.querySelectorAll('.view canvas').forEach(function (c) {\n"
     "    c.addEventListener('click', function (ev) {\n"
-    "      var r = c.getBoundingClientRect(), h = c.parentNode.dataset.h, v = c.parentNode.dataset.v;\n"
-    "      S[h] = Math.max(0, Math.min(N[h] - 1, Math.floor((ev.clientX - r.left) / r.width * N[h])));\n"
-    "      S[v] = Math.max(0, Math.min(N[v] - 1, Math.floor((ev.clientY - r.top) / r.height * N[v])));\n"
+    "      var r = c.getBoundingClientRect(), h = c.parentNode.dataset.h, v = "
+    "c.parentNode.dataset.v;\n"
+    "      S[h] = Math.max(0, Math.min(N[h] - 1, Math.floor((ev.clientX - r.left) / r.width * "
+    "N[h])));\n"
+    "      S[v] = Math.max(0, Math.min(N[v] - 1, Math.floor((ev.clientY - r.top) / r.height * "
+    "N[v])));\n"
     "      draw();\n"
     "    });\n"
     "  });\n"

@@ -146,8 +146,8 @@ int main(int argc, char **argv)
     pp_diag_scalar dg[NCOL];
     memset(dg, 0, sizeof dg);
     for (int j = 0; j < NCOL; j++)
-        dg[j] = (pp_diag_scalar){1.002 + j / 1000.0, 1.001, 1.002, 310 - 20 * j, 280, 300,
-                                 1e-4 * (j + 1), tv[j], 0.01 * (j + 1)};
+        dg[j] = (pp_diag_scalar){1.002 + j / 1000.0, 1.001, 1.002,         310 - 20 * j, 280, 300,
+                                 1e-4 * (j + 1),     tv[j], 0.01 * (j + 1)};
     pp_chain_moves moves[CHAINS] = {{0, 0}, {0, 0}};
     pp_result r;
     memset(&r, 0, sizeof r);

@@ -134,8 +134,7 @@ int main(void)
     pp_sampler_defaults(&r.config);
     r.frame = pp_shape_3d(2, 64, 64);
     r.mean = r.sd = r.lo = r.hi = r.rhat_map = m;
-    CHECK(pp_output_write(dir, &r, NULL, NULL) == PP_ERR_ARG &&
-              strstr(pp_error_message(), "mcse"),
+    CHECK(pp_output_write(dir, &r, NULL, NULL) == PP_ERR_ARG && strstr(pp_error_message(), "mcse"),
           "a missing MCSE map is refused: %s", pp_error_message());
     CHECK(dir_empty(dir), "nothing written for the refused result");
     pp_image_free(f);
