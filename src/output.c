@@ -17,6 +17,7 @@
 #include "pixpost/psf.h"
 #include "pixpost/result.h"
 #include "pixpost/saturation.h"
+#include "pixpost/stack.h"
 
 /* "run_length": what pp_sampler_run did about its length (sampler.h). */
 static void json_run_length(FILE *f, const pp_result *r)
@@ -84,7 +85,7 @@ static pp_status json_hyper(FILE *f, const char *name, const pp_result *r, size_
 /* 50th/99th percentile and maximum of the finite values of a map. */
 static void json_map_percentiles(FILE *f, const char *name, const pp_image *m)
 {
-    size_t n = m->width * m->height, k = 0;
+    size_t n = pp_image_count(m), k = 0;
     double *v = malloc(n * sizeof *v);
     if (!v) {
         fprintf(f, "\"%s\": null", name);
@@ -359,8 +360,8 @@ static void json_missing(FILE *f, const pp_result *r, const pp_run_info *info)
     fputs("},\n", f);
 }
 
-static pp_status write_summary(const char *path, const pp_result *r, const pp_image *frame,
-                               const pp_run_info *info, const png_scales *ps)
+static pp_status write_summary(const char *path, const pp_result *r, const pp_run_info *info,
+                               const png_scales *ps)
 {
     const pp_sampler_config *c = &r->config;
     char tmp[PP_PATH_MAX], noise[256], prior[256];
@@ -378,13 +379,25 @@ static pp_status write_summary(const char *path, const pp_result *r, const pp_im
         fputs(",\n  \"input_part\": ", f);
         pp_json_write_string(f, info->input_part);
     }
-    if (info && info->voxel_um) {
+    int volume = r->frame.rank == 3;
+    double vox[3];
+    for (int i = 0; i < 3; i++) /* a volume's voxel: the run's (0: not known, null) */
+        vox[i] = r->config.voxel[i] > 0 ? r->config.voxel[i] : NAN;
+    const double *voxel = volume ? vox : info ? info->voxel_um : NULL;
+    if (voxel) {
         fputs(",\n  \"voxel_um\": ", f);
-        pp_json_write_zyx(f, info->voxel_um);
+        pp_json_write_zyx(f, voxel);
     }
-    fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu},\n", frame->width,
-            frame->height);
-    fprintf(f, "  \"grid\": {\"width\": %zu, \"height\": %zu},\n", r->grid.n[1], r->grid.n[0]);
+    const pp_shape *fs = &r->frame, *gs = &r->grid;
+    fprintf(f, ",\n  \"frame\": {\"width\": %zu, \"height\": %zu", fs->n[fs->rank - 1],
+            fs->n[fs->rank - 2]);
+    if (volume)
+        fprintf(f, ", \"depth\": %zu", fs->n[0]);
+    fprintf(f, "},\n  \"grid\": {\"width\": %zu, \"height\": %zu", gs->n[gs->rank - 1],
+            gs->n[gs->rank - 2]);
+    if (volume)
+        fprintf(f, ", \"depth\": %zu", gs->n[0]);
+    fputs("},\n", f);
     static const char *const plans[] = {"estimated", "measured", "measured, from wisdom"};
     fputs("  \"fft_plans\": ", f);
     pp_json_write_string(f, info && info->fft_plans ? info->fft_plans
@@ -450,8 +463,13 @@ static pp_status write_summary(const char *path, const pp_result *r, const pp_im
     pp_json_write_number(f, r->seconds / (double)iters * (double)c->chains);
     fprintf(f, "},\n  \"png_scale\": {\"formula\": \"value = offset + stored * scale\", "
                "\"mean\": {\"offset\": %.10g, \"scale\": %.10g}, "
-               "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}},\n",
+               "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}",
             ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
+    if (volume)
+        fputs(", \"images\": \"mean_mip.png, sd_mip.png: maximum-intensity projections over "
+              "z (the largest finite value of each (y, x) column of the volume)\"",
+              f);
+    fputs("},\n", f);
     if (c->kind == PP_SAMPLER_PCN || c->kind == PP_SAMPLER_GPCN || c->kind == PP_SAMPLER_HMC)
         json_pcn(f, r);
     if (c->kind == PP_SAMPLER_MTC && !r->pad_scheme)
@@ -509,30 +527,93 @@ static pp_status join(char *buf, const char *dir, const char *name)
 /* The outputs of a run. Each is first written (itself atomically) under a
  * staged name ".<name>.part" in the folder; only when every one succeeded
  * are they renamed onto their final names, so a failed re-run (full disk,
- * say) leaves the earlier run's files complete and consistent. */
+ * say) leaves the earlier run's files complete and consistent. A frame
+ * writes mean.png and sd.png, a volume their projections mean_mip.png and
+ * sd_mip.png instead (and the other's are removed as stale). */
 enum { OUT_MEAN, OUT_SD, OUT_LO, OUT_HI, OUT_RHAT, OUT_MCSE, OUT_MEAN_PNG, OUT_SD_PNG,
-       OUT_TRACE, OUT_SUMMARY, OUT_REPORT, OUT_RESIDUAL, OUT_COUNT };
+       OUT_TRACE, OUT_SUMMARY, OUT_REPORT, OUT_RESIDUAL, OUT_MEAN_MIP, OUT_SD_MIP, OUT_COUNT };
 static const char *const out_names[OUT_COUNT] = {
     "mean.tif", "sd.tif", "lo.tif", "hi.tif", "rhat.tif", "mcse.tif", "mean.png", "sd.png",
-    "trace.csv", "summary.json", "report.html", "residual.tif"};
+    "trace.csv", "summary.json", "report.html", "residual.tif", "mean_mip.png", "sd_mip.png"};
 
+/* A float TIFF of a map: one page for a frame; for a volume a multi-page
+ * OME-TIFF, one page per z-slice, with the run's voxel size (where known)
+ * and the map's name. */
+static pp_status write_f32(const char *path, const pp_image *img, const pp_result *r,
+                           const char *name)
+{
+    if (img->depth == 1)
+        return pp_tiff_write_f32(path, img);
+    pp_shape s = pp_image_shape(img);
+    return pp_ome_tiff_write_f32(path, &s, img->data, r->config.voxel, name);
+}
+
+/* Output k to path; png: the images the PNGs show (mean and sd, or their
+ * projections). */
 static pp_status write_one(int k, const char *path, const pp_result *r, const pp_image *frame,
-                           const pp_run_info *info, const png_scales *ps)
+                           const pp_run_info *info, const png_scales *ps, const pp_image *png[2])
 {
     const pp_image *tif[6] = {r->mean, r->sd, r->lo, r->hi, r->rhat_map, r->mcse_map};
+    static const char *const tif_names[6] = {"mean", "sd", "lo", "hi", "rhat", "mcse"};
     if (k <= OUT_MCSE)
-        return pp_tiff_write_f32(path, tif[k]);
-    if (k == OUT_MEAN_PNG)
-        return pp_png_write16(path, r->mean, ps->mean_offset, ps->mean_scale);
-    if (k == OUT_SD_PNG)
-        return pp_png_write16(path, r->sd, ps->sd_offset, ps->sd_scale);
+        return write_f32(path, tif[k], r, tif_names[k]);
+    if (k == OUT_MEAN_PNG || k == OUT_MEAN_MIP)
+        return pp_png_write16(path, png[0], ps->mean_offset, ps->mean_scale);
+    if (k == OUT_SD_PNG || k == OUT_SD_MIP)
+        return pp_png_write16(path, png[1], ps->sd_offset, ps->sd_scale);
     if (k == OUT_TRACE)
         return write_trace(path, r);
     if (k == OUT_SUMMARY)
-        return write_summary(path, r, frame, info, ps);
+        return write_summary(path, r, info, ps);
     if (k == OUT_RESIDUAL)
-        return pp_tiff_write_f32(path, info->predictive->residual);
+        return write_f32(path, info->predictive->residual, r, "residual");
     return pp_output_report(path, r, frame, info);
+}
+
+/* The maximum-intensity projection of a volume over z: per (y, x) the
+ * largest finite value of the column, NaN when it has none. */
+static pp_status project_max(const pp_image *v, pp_image **out)
+{
+    pp_status st = pp_image_create(v->height, v->width, out);
+    if (st != PP_OK)
+        return st;
+    size_t n = v->height * v->width;
+    double *m = (*out)->data;
+    for (size_t i = 0; i < n; i++)
+        m[i] = NAN;
+    for (size_t z = 0; z < v->depth; z++)
+        for (size_t i = 0; i < n; i++) {
+            double x = v->data[z * n + i];
+            if (isfinite(x) && !(x <= m[i])) /* also when m[i] is still NaN */
+                m[i] = x;
+        }
+    return PP_OK;
+}
+
+/* Every map of r (and the input and the residual, when given) has the
+ * frame's shape. */
+static pp_status check_shapes(const pp_result *r, const pp_image *frame, const pp_run_info *info)
+{
+    const pp_image *im[8] = {r->mean, r->sd, r->lo, r->hi, r->rhat_map, r->mcse_map, frame,
+                             info && info->predictive ? info->predictive->residual : NULL};
+    static const char *const names[8] = {"mean", "sd", "lo", "hi", "rhat", "mcse", "input",
+                                         "residual"};
+    if (r->frame.rank != 2 && r->frame.rank != 3)
+        return pp_fail(PP_ERR_ARG, "outputs: the result's frame has rank %d (a frame has 2, a "
+                                   "volume 3)",
+                       r->frame.rank);
+    for (int i = 0; i < 8; i++) {
+        if (!im[i] && (i >= 6 || (i >= 4 && !r->rhat_map))) /* optional, or no R-hat maps */
+            continue;
+        pp_shape s = im[i] ? pp_image_shape(im[i]) : pp_shape_2d(0, 0);
+        if (!im[i] || !pp_shape_equal(&s, &r->frame))
+            return pp_fail(PP_ERR_ARG,
+                           "outputs: the %s map is missing or its shape differs from the "
+                           "result's frame (%zu x %zu x %zu, z y x)",
+                           names[i], r->frame.rank == 3 ? r->frame.n[0] : 1,
+                           r->frame.n[r->frame.rank - 2], r->frame.n[r->frame.rank - 1]);
+    }
+    return PP_OK;
 }
 
 /* A writer's message names the staged file; say the final name instead. */
@@ -583,30 +664,46 @@ int pp_output_is_marked(const char *dir)
 pp_status pp_output_write(const char *dir, const pp_result *r, const pp_image *frame,
                           const pp_run_info *info)
 {
+    pp_status st = check_shapes(r, frame, info);
+    if (st != PP_OK)
+        return st;
     /* the marker first: any output of this run found later comes with it */
     pp_status mst = pp_output_mark(dir, info ? info->command_line : NULL);
     if (mst != PP_OK)
         return mst;
+    int volume = r->frame.rank == 3;
+    pp_image *mip[2] = {NULL, NULL}; /* a volume's PNGs: projections over z */
+    if (volume && (st = project_max(r->mean, &mip[0])) == PP_OK)
+        st = project_max(r->sd, &mip[1]);
+    if (st != PP_OK) {
+        pp_image_free(mip[0]);
+        return st;
+    }
+    const pp_image *shown[2] = {volume ? mip[0] : r->mean, volume ? mip[1] : r->sd};
     png_scales ps;
-    pp_png_auto_scale(r->mean, &ps.mean_offset, &ps.mean_scale);
+    pp_png_auto_scale(shown[0], &ps.mean_offset, &ps.mean_scale);
     double lo, hi;
-    pp_image_range(r->sd, &lo, &hi);
+    pp_image_range(shown[1], &lo, &hi);
     ps.sd_offset = 0;
     ps.sd_scale = hi > 0 ? hi / 65535.0 : 1.0;
     char staged[OUT_COUNT][PP_PATH_MAX], path[PP_PATH_MAX], part[80];
     int made[OUT_COUNT] = {0};
-    pp_status st = PP_OK;
     for (int k = 0; k < OUT_COUNT && st == PP_OK; k++) {
         if ((k == OUT_RHAT || k == OUT_MCSE) && !r->rhat_map)
             continue;
         if (k == OUT_RESIDUAL && !(info && info->predictive))
             continue;
+        if ((volume && (k == OUT_MEAN_PNG || k == OUT_SD_PNG)) ||
+            (!volume && (k == OUT_MEAN_MIP || k == OUT_SD_MIP)))
+            continue;
         snprintf(part, sizeof part, ".%s.part", out_names[k]);
         if ((st = join(staged[k], dir, part)) == PP_OK &&
-            (st = write_one(k, staged[k], r, frame, info, &ps)) != PP_OK)
+            (st = write_one(k, staged[k], r, frame, info, &ps, shown)) != PP_OK)
             st = name_final(st, staged[k], dir, out_names[k]);
         made[k] = st == PP_OK;
     }
+    pp_image_free(mip[0]);
+    pp_image_free(mip[1]);
     for (int k = 0; k < OUT_COUNT; k++) {
         if (st != PP_OK) {
             if (made[k])

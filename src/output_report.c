@@ -11,7 +11,7 @@
 #include "pixpost/ppcheck.h"
 #include "pixpost/report.h"
 
-enum { NSET = 13, NSET_MAX = 14 };
+enum { NSET = 13, NSET_MAX = 15 };
 
 pp_status pp_output_report(const char *path, const pp_result *r, const pp_image *frame,
                            const pp_run_info *info)
@@ -20,11 +20,23 @@ pp_status pp_output_report(const char *path, const pp_result *r, const pp_image 
     static const char *const keys[NSET_MAX] = {
         "input", "sampler", "chains", "burn-in / iterations / thin", "seed", "boundary",
         "grid", "PSF", "noise", "prior", "hyperpriors Gamma(shape, rate)", "bounds",
-        "unobserved pixels", "noise estimate"};
+        "unobserved pixels", "noise estimate", "voxel size (z, y, x)"};
+    const char *key[NSET_MAX];
+    for (size_t i = 0; i < NSET_MAX; i++)
+        key[i] = keys[i];
     char val[NSET_MAX][600];
     size_t nset = NSET;
     if (info && info->noise_note) /* --noise auto: what was estimated and chosen */
         snprintf(val[nset++], sizeof val[0], "%s", info->noise_note);
+    const double *vx = c->voxel;
+    int volume = r->frame.rank == 3;
+    if (volume) { /* a volume: its voxel size, as the run used it */
+        key[nset] = keys[NSET_MAX - 1];
+        if (vx[0] > 0 && vx[1] > 0 && vx[2] > 0)
+            snprintf(val[nset++], sizeof val[0], "%g, %g, %g \xc2\xb5m", vx[0], vx[1], vx[2]);
+        else
+            snprintf(val[nset++], sizeof val[0], "not known (cubic voxels assumed)");
+    }
     snprintf(val[0], sizeof val[0], "%s", info && info->input_path ? info->input_path : "-");
     snprintf(val[1], sizeof val[1], "%s", pp_sampler_kind_name(c->kind));
     snprintf(val[2], sizeof val[2], "%u (kept %zu draws each)", c->chains, r->trace.kept);
@@ -33,8 +45,12 @@ pp_status pp_output_report(const char *path, const pp_result *r, const pp_image 
              L->iters_auto ? "--iters auto" : "fixed", pp_stop_reason_name(L->stop));
     snprintf(val[4], sizeof val[4], "%llu", (unsigned long long)c->seed);
     snprintf(val[5], sizeof val[5], "%s", pp_boundary_name(c->boundary));
-    snprintf(val[6], sizeof val[6], "%zu x %zu (frame %zu x %zu)", r->grid.n[1], r->grid.n[0],
-             r->frame.n[1], r->frame.n[0]);
+    if (volume) /* x, y, z as the frames' width x height */
+        snprintf(val[6], sizeof val[6], "%zu x %zu x %zu (volume %zu x %zu x %zu)", r->grid.n[2],
+                 r->grid.n[1], r->grid.n[0], r->frame.n[2], r->frame.n[1], r->frame.n[0]);
+    else
+        snprintf(val[6], sizeof val[6], "%zu x %zu (frame %zu x %zu)", r->grid.n[1],
+                 r->grid.n[0], r->frame.n[1], r->frame.n[0]);
     snprintf(val[7], sizeof val[7], "%s", info && info->psf_spec ? info->psf_spec : "-");
     pp_noise_format(&c->noise, val[8], sizeof val[8]);
     pp_prior_format(&c->prior, val[9], sizeof val[9]);
@@ -66,13 +82,14 @@ pp_status pp_output_report(const char *path, const pp_result *r, const pp_image 
     in.sd = r->sd;
     in.lo = r->lo;
     in.hi = r->hi;
+    in.voxel = volume ? vx : NULL;
     in.trace = &r->trace;
     in.lambda_fixed = c->noise.kind != PP_NOISE_GAUSSIAN || c->noise.sigma_set;
     in.delta_fixed = c->prior.delta_set;
     in.scalars = rows;
     in.nscalars = r->trace.ncols;
     in.chains = c->chains;
-    in.settings_keys = keys;
+    in.settings_keys = key;
     in.settings_values = vals;
     in.nsettings = nset;
     in.warnings = r->warnings;

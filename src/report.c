@@ -19,8 +19,8 @@
 #define PIXPOST_VERSION "unknown"
 #endif
 
-#define ROBUST_LO 0.5 /* percentiles of the image mappings */
-#define ROBUST_HI 99.5
+#define ROBUST_LO PP_REPORT_ROBUST_LO /* percentiles of the image mappings */
+#define ROBUST_HI PP_REPORT_ROBUST_HI
 #define RHAT_MAX 1.01 /* Vehtari et al. 2021, section 4 (from memory) */
 #define ESS_PER_CHAIN 100.0
 
@@ -110,18 +110,6 @@ typedef struct page {
     unsigned chains;         /* for the ESS threshold */
 } page;
 
-/* Mapping range of an image: robust percentiles, widened when constant. */
-static pp_status image_range(const pp_image *img, double *lo, double *hi)
-{
-    pp_status st = pp_report_percentiles(img, ROBUST_LO, ROBUST_HI, lo, hi);
-    if (st == PP_OK && !(*hi > *lo)) {
-        double d = *lo != 0 ? fabs(*lo) * 1e-3 : 1.0;
-        *lo -= d;
-        *hi += d;
-    }
-    return st;
-}
-
 static void block_note(FILE *f, const pp_image *img)
 {
     size_t k = pp_report_block(img);
@@ -147,7 +135,7 @@ static void caption_end(page *pg, const pp_image *img, const char *units, const 
 static pp_status figure_image(page *pg, const char *id, const pp_image *img, const char *what,
                               int colour, double *lo, double *hi)
 {
-    pp_status st = image_range(img, lo, hi);
+    pp_status st = pp_report_range(img, lo, hi);
     if (st != PP_OK)
         return st;
     fprintf(pg->f,
@@ -215,11 +203,23 @@ static pp_status width_figure(page *pg)
     return st;
 }
 
+/* The first image of the page (it fixes the size), or NULL. */
+static const pp_image *first_image(const pp_report_input *in)
+{
+    const pp_image *im[6] = {in->frame, in->mean, in->sd, in->lo, in->hi, in->residual};
+    for (int i = 0; i < 6; i++)
+        if (im[i])
+            return im[i];
+    return NULL;
+}
+
 static pp_status images_section(page *pg)
 {
     const pp_report_input *in = pg->in;
     if (!in->frame && !in->mean && !in->sd && !(in->lo && in->hi))
         return PP_OK;
+    if (first_image(in)->depth > 1)
+        return pp_report_volume_section(pg->f, in, pg->units, pg->frame_units);
     fputs("<section id=\"images\"><h2>Images</h2>\n<div class=\"images\">\n", pg->f);
     pp_status st = PP_OK;
     if (in->frame)
@@ -492,13 +492,16 @@ static void head(page *pg, const char *title)
           "<title>pixpost report: ",
           f);
     pp_report_escape(f, title);
-    fprintf(f,
-            "</title>\n<style>\n%s</style>\n</head>\n<body>\n<header>\n"
-            "<h1>Posterior reconstruction report</h1>\n<p class=\"sub\" id=\"title\">",
-            CSS);
-    pp_report_escape(f, title);
     const pp_image *any = pg->in->frame ? pg->in->frame : pg->in->mean;
-    if (any)
+    fprintf(f,
+            "</title>\n<style>\n%s%s</style>\n</head>\n<body>\n<header>\n"
+            "<h1>Posterior reconstruction report</h1>\n<p class=\"sub\" id=\"title\">",
+            CSS, first_image(pg->in) && first_image(pg->in)->depth > 1 ? PP_REPORT_VOLUME_CSS : "");
+    pp_report_escape(f, title);
+    if (any && any->depth > 1)
+        fprintf(f, " &middot; %zu&times;%zu&times;%zu voxels (x, y, z)", any->width, any->height,
+                any->depth);
+    else if (any)
         fprintf(f, " &middot; %zu&times;%zu pixels", any->width, any->height);
     if (strcmp(pg->units, pg->frame_units) != 0) {
         fputs(" &middot; frame in ", f);
@@ -542,9 +545,12 @@ static pp_status validate(const char *path, const pp_report_input *in)
             return pp_fail(PP_ERR_ARG, "%s: report image %d is empty", path, i);
         if (!ref)
             ref = im[i];
-        else if (im[i]->width != ref->width || im[i]->height != ref->height)
-            return pp_fail(PP_ERR_ARG, "%s: report images differ in size (%zux%zu vs %zux%zu)",
-                           path, im[i]->width, im[i]->height, ref->width, ref->height);
+        else if (im[i]->width != ref->width || im[i]->height != ref->height ||
+                 im[i]->depth != ref->depth)
+            return pp_fail(PP_ERR_ARG,
+                           "%s: report images differ in size (%zux%zux%zu vs %zux%zux%zu, x y z)",
+                           path, im[i]->width, im[i]->height, im[i]->depth, ref->width, ref->height,
+                           ref->depth);
     }
     if (!(in->level > 0 && in->level < 1))
         return pp_fail(PP_ERR_ARG, "%s: credible level must be in (0, 1), got %g", path, in->level);

@@ -94,10 +94,21 @@ void pp_report_ramp(double t, unsigned char rgb[3]);
 void pp_report_ramp_stop(int k, double *pos, unsigned char rgb[3]);
 
 /* Percentiles plo, phi (in [0, 100], linear interpolation between order
- * statistics as numpy's default) of the finite pixels. Fails with
- * PP_ERR_NOMEM, or PP_ERR_NUMERIC when no pixel is finite. */
+ * statistics as numpy's default) of the finite pixels (of every slice of a
+ * volume). Fails with PP_ERR_NOMEM, or PP_ERR_NUMERIC when no pixel is
+ * finite. */
 pp_status pp_report_percentiles(const pp_image *img, double plo, double phi, double *lo,
                                 double *hi);
+
+/* The mapping range of an image on the page: the PP_REPORT_ROBUST_LO and
+ * _HI percentiles, widened around the value when they are equal. */
+#define PP_REPORT_ROBUST_LO 0.5
+#define PP_REPORT_ROBUST_HI 99.5
+pp_status pp_report_range(const pp_image *img, double *lo, double *hi);
+
+/* The grey level of t = (v - lo) / (hi - lo): round(255 t) clipped to
+ * 0..255; 0 when t is not finite (NaN pixels show black). */
+unsigned char pp_report_grey(double t);
 
 /* Pixels of the longest side shown; larger images are shown as block means. */
 #define PP_REPORT_MAX_SIDE 1024
@@ -108,5 +119,25 @@ size_t pp_report_block(const pp_image *img);
  * hi -> 255 (clipped; NaN shown as 0 / the ramp's start): grey when
  * colour == 0, the ramp otherwise. hi must be > lo. */
 pp_status pp_report_png_uri(FILE *f, const pp_image *img, double lo, double hi, int colour);
+
+/* Writes "data:image/png;base64,..." of w x h grey bytes px (row by row),
+ * as they are. */
+pp_status pp_report_png_uri_grey8(FILE *f, const unsigned char *px, size_t w, size_t h);
+
+/* ---- Volumes (src/report_volume.c) -------------------------------------- */
+/* The images section of a volume's page (in's images have depth > 1, all
+ * of one shape): per image (input, mean, sd, interval width, residual) the
+ * orthogonal views XY, XZ and YZ through one cursor (z, y, x), sliders over
+ * z, y and x, and the one small inline script that draws the views from an
+ * embedded atlas of the XY slices. Volumes past PP_REPORT_VOL_MAX_SLICES
+ * slices or PP_REPORT_VOL_MAX_VOXELS voxels are shown as block means (z
+ * blocks first, then square blocks in the plane). units and frame_units
+ * as on the page. */
+#define PP_REPORT_VOL_MAX_SLICES 128
+#define PP_REPORT_VOL_MAX_VOXELS ((size_t)1 << 20)
+pp_status pp_report_volume_section(FILE *f, const struct pp_report_input *in, const char *units,
+                                   const char *frame_units);
+/* The CSS rules of those views (the page's <style> gains them for a volume). */
+extern const char PP_REPORT_VOLUME_CSS[];
 
 #endif

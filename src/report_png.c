@@ -67,7 +67,7 @@ static double percentile_sorted(const double *v, size_t n, double p)
 
 pp_status pp_report_percentiles(const pp_image *img, double plo, double phi, double *lo, double *hi)
 {
-    size_t n = img->width * img->height, m = 0;
+    size_t n = pp_image_count(img), m = 0;
     double *v = malloc((n ? n : 1) * sizeof *v);
     if (!v)
         return pp_fail(PP_ERR_NOMEM, "report: out of memory for percentiles");
@@ -83,6 +83,23 @@ pp_status pp_report_percentiles(const pp_image *img, double plo, double phi, dou
     *hi = percentile_sorted(v, m, phi);
     free(v);
     return PP_OK;
+}
+
+pp_status pp_report_range(const pp_image *img, double *lo, double *hi)
+{
+    pp_status st = pp_report_percentiles(img, PP_REPORT_ROBUST_LO, PP_REPORT_ROBUST_HI, lo, hi);
+    if (st == PP_OK && !(*hi > *lo)) {
+        double d = *lo != 0 ? fabs(*lo) * 1e-3 : 1.0;
+        *lo -= d;
+        *hi += d;
+    }
+    return st;
+}
+
+unsigned char pp_report_grey(double t)
+{
+    double s = isfinite(t) ? round(255.0 * t) : 0.0;
+    return (unsigned char)(s < 0 ? 0 : s > 255 ? 255 : s);
 }
 
 size_t pp_report_block(const pp_image *img)
@@ -148,27 +165,42 @@ static double block_mean(const pp_image *img, size_t k, size_t br, size_t bc)
     return cnt ? sum / (double)cnt : NAN;
 }
 
-/* Fills one output row (w pixels, 1 or 3 bytes each). */
-static void map_row(const pp_image *img, size_t k, size_t br, size_t w, double lo, double hi,
-                    int colour, unsigned char *row)
+/* The rows of an image mapped for the page: img shown as k x k block means
+ * (k = pp_report_block), linear from lo to hi, grey or the ramp. */
+typedef struct mapped {
+    const pp_image *img;
+    size_t k;
+    double lo, hi;
+    int colour;
+} mapped;
+
+/* Fills output row br (w pixels, 1 or 3 bytes each) of a mapped image. */
+static void map_row(const void *ctx, size_t br, size_t w, unsigned char *row)
 {
+    const mapped *m = ctx;
     for (size_t bc = 0; bc < w; bc++) {
-        double v = k == 1 ? img->data[br * img->width + bc] : block_mean(img, k, br, bc);
-        double t = (v - lo) / (hi - lo);
-        if (colour) {
+        double v =
+            m->k == 1 ? m->img->data[br * m->img->width + bc] : block_mean(m->img, m->k, br, bc);
+        double t = (v - m->lo) / (m->hi - m->lo);
+        if (m->colour)
             pp_report_ramp(t, row + 3 * bc);
-        } else {
-            double s = isfinite(t) ? round(255.0 * t) : 0.0;
-            row[bc] = (unsigned char)(s < 0 ? 0 : s > 255 ? 255 : s);
-        }
+        else
+            row[bc] = pp_report_grey(t);
     }
 }
 
-/* Encodes the mapped image into b (b->data owned by the caller after). */
-static pp_status encode(const pp_image *img, double lo, double hi, int colour, membuf *b)
+/* Row br of w grey bytes stored row by row. */
+static void copy_row(const void *ctx, size_t br, size_t w, unsigned char *row)
 {
-    size_t k = pp_report_block(img);
-    size_t w = (img->width + k - 1) / k, h = (img->height + k - 1) / k;
+    memcpy(row, (const unsigned char *)ctx + br * w, w);
+}
+
+typedef void (*row_fn)(const void *ctx, size_t r, size_t w, unsigned char *row);
+
+/* Encodes a w x h 8-bit PNG (grey, or RGB when colour) whose rows fill()
+ * makes, into b (b->data owned by the caller after). */
+static pp_status encode(size_t w, size_t h, int colour, row_fn fill, const void *ctx, membuf *b)
+{
     png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, NULL, on_error, on_warning);
     png_infop pi = png ? png_create_info_struct(png) : NULL;
     unsigned char *volatile row = NULL;
@@ -190,7 +222,7 @@ static pp_status encode(const pp_image *img, double lo, double hi, int colour, m
     if (!row)
         png_error(png, "out of memory");
     for (size_t r = 0; r < h; r++) {
-        map_row(img, k, r, w, lo, hi, colour, row);
+        fill(ctx, r, w, row);
         png_write_row(png, row);
     }
     png_write_end(png, pi);
@@ -214,16 +246,29 @@ static void base64(FILE *f, const unsigned char *d, size_t n)
     }
 }
 
-pp_status pp_report_png_uri(FILE *f, const pp_image *img, double lo, double hi, int colour)
+/* Writes the data URI of the PNG that encode() makes. */
+static pp_status write_uri(FILE *f, size_t w, size_t h, int colour, row_fn fill, const void *ctx)
 {
-    if (!(hi > lo))
-        return pp_fail(PP_ERR_ARG, "report: image mapping needs hi > lo (got %g, %g)", lo, hi);
     membuf b = {NULL, 0, 0};
-    pp_status st = encode(img, lo, hi, colour, &b);
+    pp_status st = encode(w, h, colour, fill, ctx, &b);
     if (st == PP_OK) {
         fputs("data:image/png;base64,", f);
         base64(f, b.data, b.len);
     }
     free(b.data);
     return st;
+}
+
+pp_status pp_report_png_uri(FILE *f, const pp_image *img, double lo, double hi, int colour)
+{
+    if (!(hi > lo))
+        return pp_fail(PP_ERR_ARG, "report: image mapping needs hi > lo (got %g, %g)", lo, hi);
+    size_t k = pp_report_block(img);
+    mapped m = {img, k, lo, hi, colour};
+    return write_uri(f, (img->width + k - 1) / k, (img->height + k - 1) / k, colour, map_row, &m);
+}
+
+pp_status pp_report_png_uri_grey8(FILE *f, const unsigned char *px, size_t w, size_t h)
+{
+    return write_uri(f, w, h, 0, copy_row, px);
 }

@@ -11,6 +11,21 @@
  *   .pixpost-output                 the folder marker (PP_OUTPUT_MARKER),
  *                                   written first
  * The folder must exist. Nothing in it other than these names is touched.
+ *
+ * A volume (r->frame of rank 3, every map of depth > 1) gets the same files
+ * with three differences: every float TIFF above (mean, sd, lo, hi, rhat,
+ * mcse, residual) is a multi-page 32-bit float OME-TIFF, one page per
+ * z-slice, whose OME-XML carries r->config.voxel as PhysicalSizeZ/Y/X
+ * (axes with voxel 0, not known, are left out: pp_ome_tiff_write_f32);
+ * the PNGs are maximum-intensity projections over z named mean_mip.png
+ * and sd_mip.png (mean.png and sd.png are not written, and removed when an
+ * earlier run left them; a frame likewise removes the _mip files);
+ * summary.json's "frame" and "grid" gain "depth", "voxel_um" is
+ * r->config.voxel (null where 0; info->voxel_um is not used for a volume)
+ * and "png_scale" says the PNGs are projections. report.html shows the
+ * volume as orthogonal views with sliders (include/pixpost/report.h).
+ * A result whose maps (or frame, or residual) do not have r->frame's shape
+ * is refused (PP_ERR_ARG) before anything is written.
  */
 #ifndef PIXPOST_OUTPUT_H
 #define PIXPOST_OUTPUT_H
@@ -65,8 +80,9 @@ void pp_json_write_number(FILE *f, double v);
 /* A voxel size v = {z, y, x} (micrometres) as {"z": .., "y": .., "x": ..}. */
 void pp_json_write_zyx(FILE *f, const double v[3]);
 
-/* Writes the outputs of the finished run r (pp_sampler_result) into dir;
- * frame is the input frame the run sampled (the report shows it). */
+/* Writes the outputs of the finished run r (pp_sampler_result, or a
+ * pp_result filled by hand) into dir; frame is the input frame or volume
+ * the run sampled (the report shows it; NULL: not shown). */
 pp_status pp_output_write(const char *dir, const pp_result *r, const pp_image *frame,
                           const pp_run_info *info);
 

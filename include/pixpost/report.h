@@ -1,7 +1,8 @@
 /* pixpost — the run report: one self-contained HTML page (report.html).
  *
- * The page holds everything inline (no network, scripts, fonts or linked
- * images): the input frame and the posterior mean in grey, the sd map and
+ * The page holds everything inline (no network, fonts or linked images; a
+ * frame's page has no script): the input frame and the posterior mean in
+ * grey, the sd map and
  * the credible-bound width map (hi - lo) in pixpost's own dark-blue to
  * yellow colour ramp with SVG colour bars labelled in input units, trace and
  * autocorrelation plots per chain for every trace column (inline SVG),
@@ -12,6 +13,15 @@
  * warnings right under it when there are any.
  * Images are 8-bit PNGs made in memory with libpng and embedded as base64
  * data URIs; every string from the caller is HTML-escaped.
+ *
+ * Volumes (images of depth > 1): the images section shows, per image, the
+ * orthogonal views XY at the chosen z, XZ at the chosen y and YZ at the
+ * chosen x, with sliders over z, y and x (a click on a view moves the
+ * cursor too), drawn by one small inline script from one embedded PNG per
+ * image that tiles its XY slices (8-bit, the same mappings as a frame's);
+ * large volumes are shown as block means (src/report_internal.h,
+ * PP_REPORT_VOL_MAX_*), so a 64 x 256 x 256 volume gives a page of a few
+ * MB. The page works offline and loads nothing.
  *
  * The input is plain data, so the report does not depend on sampler
  * internals. Nothing here is kept after the call; the caller owns every
@@ -35,10 +45,14 @@ typedef struct pp_report_scalar {
 
 typedef struct pp_report_input {
     const char *title; /* e.g. the input file name; NULL: "pixpost run" */
-    /* Frame-sized images (all of the same size as the first non-NULL one);
-     * any may be NULL and its section is then omitted. The width map needs
-     * both lo and hi. */
+    /* Frame-sized images, or volumes (all of the same size and depth as
+     * the first non-NULL one); any may be NULL and its section is then
+     * omitted. The width map needs both lo and hi. */
     const pp_image *frame, *mean, *sd, *lo, *hi;
+    /* A volume's voxel size {z, y, x} in micrometres (the views' aspect
+     * ratios, the cursor's position); NULL or any entry <= 0: not known,
+     * the voxels are drawn as cubes. Frames ignore it. */
+    const double *voxel;
     /* Per-chain traces (values[(chain*kept + i)*ncols + col], column names
      * "lambda", "delta", "loglik", "p_<r>_<c>"...); NULL: no trace plots. */
     const pp_trace *trace;
@@ -74,7 +88,8 @@ typedef struct pp_report_input {
     /* The checks of the data and of the fit (include/pixpost/datacheck.h,
      * ppcheck.h): the standardised residual map (frame-sized, NaN where left
      * out; NULL: no panel), their warnings (plain sentences) and one
-     * sentence of the predictive check's figures (NULL: none). Shown in a
+     * sentence of the predictive check's figures (NULL: none); the residual
+     * has the images' shape. Shown in a
      * section "Checks of the data and the fit" (id "checks") after the
      * warnings; never counted in the verdict banner. */
     const pp_image *residual;
