@@ -132,9 +132,9 @@ static pp_status check_width(const pp_sampler_config *cfg)
     return PP_OK;
 }
 
-/* What volumes (frame depth > 1) support today: gibbs and mtc with a
- * stationary prior and gaussian noise, a fixed PSF (sampler.h "Volumes").
- * Everything else is refused here, saying what to use instead. */
+/* What volumes (frame depth > 1) support today: every sampler with a
+ * stationary prior and a fixed PSF (sampler.h "Volumes"). The rest is
+ * refused here, saying what to use instead. */
 static pp_status check_volume(const pp_sampler_config *cfg)
 {
     if (cfg->prior.kind == PP_PRIOR_ADAPTIVE)
@@ -142,17 +142,6 @@ static pp_status check_volume(const pp_sampler_config *cfg)
                                    "sampling has the stationary priors only); use %s gmrf1 (or "
                                    "gmrf2, matern)",
                        NAME(PP_SET_PRIOR), NAME(PP_SET_PRIOR));
-    if (cfg->noise.kind != PP_NOISE_GAUSSIAN)
-        return pp_fail(PP_ERR_ARG, "%s: the photon-counting models (poisson, camera) are not "
-                                   "available for volumes (they need pcn, gpcn or hmc, which "
-                                   "are 2-D only); use gaussian noise",
-                       NAME(PP_SET_NOISE));
-    if (cfg->kind == PP_SAMPLER_PCN || cfg->kind == PP_SAMPLER_GPCN ||
-        cfg->kind == PP_SAMPLER_HMC)
-        return pp_fail(PP_ERR_ARG, "%s %s: not available for volumes (pcn, gpcn and hmc are "
-                                   "2-D only); use %s gibbs or mtc",
-                       NAME(PP_SET_SAMPLER), pp_sampler_kind_name(cfg->kind),
-                       NAME(PP_SET_SAMPLER));
     if (cfg->psf.width_auto)
         return pp_fail(PP_ERR_ARG, "%s ...=auto: sampling the PSF width is not available for "
                                    "volumes; give the width (sigma=S, na=NA)",

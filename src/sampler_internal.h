@@ -208,6 +208,17 @@ struct pp_sampler {
     int ran;
 };
 
+/* The grid row (of gw entries) that holds frame row fr, 0 <= fr < depth *
+ * height: row fr % height of slice fr / height (a frame: fr itself). */
+static inline size_t pp_frame_row(const struct pp_sampler *s, size_t fr)
+{
+    return fr / s->height * s->gh + fr % s->height;
+}
+/* The grid index of a probe voxel. */
+static inline size_t pp_probe_index(const struct pp_sampler *s, size_t p)
+{
+    return (s->probe_z[p] * s->gh + s->probe_r[p]) * s->gw + s->probe_c[p];
+}
 
 /* Adds the frame box of a grid-sized field (rows s->gw apart) to the
  * moments of chain c, freezing their mean in c->mean1 when the count

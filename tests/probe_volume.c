@@ -7,7 +7,7 @@
  *       FRAME: D*H*W doubles, slice-major (D = 1: a frame); PSF: KD*KH*KW
  *       doubles (KD = 1: a 2-D kernel). Keys: sampler, prior, noise,
  *       boundary, chains, burn, iters, thin, seed, threads, level,
- *       voxel=Z,Y,X (µm). A fixed-length run (no rounds). Writes
+ *       background, hyper_delta=SHAPE,RATE, voxel=Z,Y,X (µm). A fixed-length run (no rounds). Writes
  *       OUT.mean, OUT.sd, OUT.lo, OUT.hi (and OUT.rhat, OUT.mcse when
  *       made) as raw doubles and OUT.trace (a header line of column names,
  *       then one line per kept draw, chain-major); prints "kind K",
@@ -95,6 +95,10 @@ static int apply(pp_sampler_config *cfg, const char *kv)
         cfg->level = strtod(v, NULL);
     else if (KEY("psf")) /* a model for sigma=auto (refusal checks) */
         st = pp_psf_parse(v, &cfg->psf);
+    else if (KEY("hyper_delta"))
+        return sscanf(v, "%lf,%lf", &cfg->hyper_delta[0], &cfg->hyper_delta[1]) == 2;
+    else if (KEY("background"))
+        cfg->background = strtod(v, NULL);
     else if (KEY("voxel"))
         return sscanf(v, "%lf,%lf,%lf", &cfg->voxel[0], &cfg->voxel[1], &cfg->voxel[2]) == 3;
     else

@@ -65,18 +65,21 @@ static void refusals(void)
     refused("default (adaptive) prior", &cfg, v, k3, PP_ERR_ARG,
             (const char *[]){"adaptive", "not available for volumes", "gmrf1", NULL});
 
-    stationary(&cfg);
-    cfg.noise.kind = PP_NOISE_POISSON;
-    refused("poisson noise", &cfg, v, k3, PP_ERR_ARG,
-            (const char *[]){"photon-counting", "not available for volumes", "gaussian", NULL});
+    pp_sampler_defaults(&cfg); /* the adaptive prior with hmc (photon counts) too */
+    cfg.kind = PP_SAMPLER_HMC;
+    refused("adaptive prior, hmc", &cfg, v, k3, PP_ERR_ARG,
+            (const char *[]){"adaptive", "not available for volumes", "gmrf1", NULL});
 
+    /* pcn, gpcn and hmc run on volumes */
     const pp_sampler_kind pcn[] = {PP_SAMPLER_PCN, PP_SAMPLER_GPCN, PP_SAMPLER_HMC};
     for (int i = 0; i < 3; i++) {
         stationary(&cfg);
         cfg.kind = pcn[i];
-        refused(pp_sampler_kind_name(pcn[i]), &cfg, v, k3, PP_ERR_ARG,
-                (const char *[]){pp_sampler_kind_name(pcn[i]), "not available for volumes",
-                                 "gibbs or mtc", NULL});
+        pp_sampler *s = NULL;
+        CHECK(pp_sampler_create(&cfg, v, k3, &s) == PP_OK && pp_sampler_run(s) == PP_OK &&
+                  pp_sampler_mean(s)->depth == 5,
+              "%s on a volume: %s", pp_sampler_kind_name(pcn[i]), pp_error_message());
+        pp_sampler_free(s);
     }
 
     stationary(&cfg);

@@ -49,10 +49,10 @@
  * pp_sampler_run_length().
  *
  * Volumes. A frame with depth > 1 (a z-stack, pp_image_create3) is sampled
- * on a rank-3 grid: gibbs and mtc (AUTO picks them as for a frame), the
- * stationary priors (gmrf1, gmrf2, matern: pp_prior_eigen_shape, increments
- * weighted by cfg.voxel, Matern alpha = nu + 3/2), gaussian noise, a fixed
- * PSF, either boundary (pad adds the kernel's radius on every axis, its z
+ * on a rank-3 grid by every sampler (gibbs, mtc, pcn, gpcn, hmc; AUTO picks
+ * as for a frame) with every noise model, the stationary priors (gmrf1,
+ * gmrf2, matern: pp_prior_eigen_shape, increments weighted by cfg.voxel,
+ * Matern alpha = nu + 3/2), a fixed PSF, either boundary (pad adds the kernel's radius on every axis, its z
  * radius along z) and NaN voxels as missing data. The PSF is a volume of
  * odd extents with odd square slices no larger than the frame's (its depth
  * no larger than the volume's with periodic boundaries; any odd depth with
@@ -66,11 +66,12 @@
  * Not built for volumes, refused by pp_sampler_create with PP_ERR_ARG and
  * a message saying what to use instead: the adaptive prior, which is the
  * default (cfg.prior must be set to a stationary prior: the library cannot
- * tell a default from a choice, so it never swaps a prior silently); pcn,
- * gpcn and hmc and with them the photon-counting noise models; sampling
- * the PSF width (psf.width_auto). The padding scale move of gibbs with pad
- * and gmrf1 (src/padscale.h) is 2-D: a volume runs without it (exact, only
- * slower mixing of delta).
+ * tell a default from a choice, so it never swaps a prior silently);
+ * sampling the PSF width (psf.width_auto). The padding scale move of gibbs
+ * with pad and gmrf1 (src/padscale.h) is 2-D: a volume runs without it
+ * (exact, only slower mixing of delta). The photon models' smoothing of
+ * their delta move's weights (src/hyper_photon.c) is the same Gaussian, in
+ * voxels, along z.
  */
 #ifndef PIXPOST_SAMPLER_H
 #define PIXPOST_SAMPLER_H
