@@ -15,6 +15,7 @@ increments along axis a by w_a = (0.5 / spacing_a)^2 (include/pixpost/prior.h).
      mean  mu = ifftn( lam conj(A) Y / p ),  p = lam |A|^2 + del q,
      var   v  = mean_k 1 / p   (the same at every voxel),
    q(k) = sum_a w_a (2 - 2 cos(2 pi k_a / n_a)) for gmrf1 (Rue & Held 2005),
+   its square for gmrf2,
    (kappa^2 + q)^(nu + 3/2) for matern (Lindgren, Rue & Lindstrom 2011:
    alpha = nu + d/2, d = 3), kappa = sqrt(8 nu) / range, q(0) = 0 for a
    free mean. With fixed hyperparameters the Rao-Blackwellised mean and the
@@ -103,6 +104,7 @@ fixed = ["noise=gaussian:sigma=%g" % SIGMA, "boundary=periodic", voxel, "chains=
 
 priors = {
     "gmrf1": ("gmrf1:delta=%g" % DEL, lap((D, H, W), VOX)),
+    "gmrf2": ("gmrf2:delta=%g" % DEL, lap((D, H, W), VOX) ** 2),
     "matern": ("matern:range=3,nu=1,delta=%g" % DEL,
                (8 * 1.0 / 9 + lap((D, H, W), VOX)) ** (1.0 + 1.5)),
 }
