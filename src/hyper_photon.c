@@ -187,15 +187,13 @@ void pp_hphot_reference(const pp_sampler *s, pp_chain *c, pp_hphot *hp, const pp
     exp_into(hp->c, x, gn);
     blur(s, c, x, ax);
     memset(r, 0, gn * sizeof(double));
-    for (size_t row = 0; row < s->height; row++)
-        for (size_t col = 0; col < s->width; col++) {
-            size_t i = row * s->gw + col;
-            if (!s->obs[i]) /* a missing pixel (NaN): no data there */
-                continue;
-            r[i] = 1.0 / fmax(ax[i] + shift, 1e-12);
-        }
+    for (size_t i = 0; i < s->gn; i++) { /* observed pixels lie in the frame box */
+        if (!s->obs[i]) /* padding or a missing pixel (NaN): no data there */
+            continue;
+        r[i] = 1.0 / fmax(ax[i] + shift, 1e-12);
+    }
     double s2 = 0, qmin = INFINITY;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
+    for (size_t k1 = 0; k1 < s->grows; k1++)
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             s2 += pp_half_weight(k2, s->gw) * s->otf2[i];
@@ -212,14 +210,18 @@ void pp_hphot_reference(const pp_sampler *s, pp_chain *c, pp_hphot *hp, const pp
         double f = x[i] * x[i] * s2 * fmax(r[i], 0.0);
         hp->om[i] = f0 / (f0 + f);
     }
-    /* smooth omega: Gaussian of sd PP_HPHOT_SMOOTH pixels */
+    /* smooth omega: Gaussian of sd PP_HPHOT_SMOOTH pixels (a volume: voxels,
+     * the same sd in slices along z) */
     const double g = 2.0 * PP_PI * PP_PI * PP_HPHOT_SMOOTH * PP_HPHOT_SMOOTH;
     pp_fft_forward(s->fft, hp->om, c->cbuf);
-    for (size_t k1 = 0; k1 < s->gh; k1++) {
+    for (size_t kr = 0; kr < s->grows; kr++) {
+        size_t kz = kr / s->gh, k1 = kr % s->gh;
+        double fz = (double)(kz <= s->gd / 2 ? kz : s->gd - kz) / (double)s->gd;
         double f1 = (double)(k1 <= s->gh / 2 ? k1 : s->gh - k1) / (double)s->gh;
+        double fz2 = fz * fz; /* 0 for a frame: the sum below is the 2-D one */
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             double f2 = (double)k2 / (double)s->gw;
-            c->cbuf[k1 * s->gwh + k2] *= exp(-g * (f1 * f1 + f2 * f2)) * invn;
+            c->cbuf[kr * s->gwh + k2] *= exp(-g * (fz2 + f1 * f1 + f2 * f2)) * invn;
         }
     }
     pp_fft_inverse(s->fft, c->cbuf, hp->om);
@@ -240,7 +242,7 @@ void pp_hphot_reference(const pp_sampler *s, pp_chain *c, pp_hphot *hp, const pp
     }
     /* frequency weights, as sampler_pcn.c's delta_move */
     double jac = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
+    for (size_t k1 = 0; k1 < s->grows; k1++)
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             double pq = dref * s->q[i];

@@ -16,7 +16,7 @@ double pp_observed_mean(const pp_image *frame)
 {
     double sum = 0;
     size_t n = 0;
-    for (size_t i = 0; i < frame->height * frame->width; i++)
+    for (size_t i = 0; i < pp_image_count(frame); i++)
         if (isfinite(frame->data[i])) {
             sum += frame->data[i];
             n++;
@@ -27,7 +27,7 @@ double pp_observed_mean(const pp_image *frame)
 pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
 {
     size_t inf = 0, nan = 0;
-    for (size_t i = 0; i < s->height * s->width; i++) {
+    for (size_t i = 0; i < s->npix; i++) {
         double v = frame->data[i];
         inf += isinf(v);
         nan += isnan(v);
@@ -37,7 +37,7 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
                        "the frame has %zu infinite pixels; set them to NaN to mark them "
                        "unobserved, or repair them",
                        inf);
-    size_t n = s->height * s->width, need = pp_observed_min(n);
+    size_t n = s->npix, need = pp_observed_min(n);
     if (n - nan < need)
         return pp_fail(
             PP_ERR_ARG,
@@ -47,9 +47,11 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
             n - nan, n, need);
     if (!(s->obs = calloc(s->gn, 1)))
         return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
-    for (size_t r = 0; r < s->height; r++)
-        for (size_t c = 0; c < s->width; c++)
-            s->obs[r * s->gw + c] = !isnan(frame->data[r * s->width + c]);
+    for (size_t z = 0; z < s->depth; z++)
+        for (size_t r = 0; r < s->height; r++)
+            for (size_t c = 0; c < s->width; c++)
+                s->obs[(z * s->gh + r) * s->gw + c] =
+                    !isnan(frame->data[(z * s->height + r) * s->width + c]);
     s->nobs = n - nan;
     s->nmissing = nan;
     s->augment = s->cfg.boundary == PP_BOUNDARY_PAD || nan > 0;

@@ -115,27 +115,67 @@ void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len)
     }
 }
 
-pp_status pp_prior_eigen(const pp_prior_spec *s, size_t height, size_t width, double *q,
-                         double *rank)
+pp_status pp_prior_eigen_shape(const pp_prior_spec *s, const pp_shape *shape,
+                               const double *spacing, double *q, double *rank)
 {
-    size_t wh = width / 2 + 1;
-    double *cr = malloc(height * sizeof *cr), *cc = malloc(wh * sizeof *cc);
-    if (!cr || !cc) {
+    const int d = shape->rank;
+    if (d < 1 || d > PP_MAX_RANK)
+        return pp_fail(PP_ERR_ARG, "pp_prior_eigen_shape: rank %d (1 to %d)", d, PP_MAX_RANK);
+    /* the weight of each axis' increments: (x spacing / its spacing)^2 */
+    double w[PP_MAX_RANK];
+    for (int a = 0; a < d; a++) {
+        double sa = spacing ? spacing[a] : 0, sx = spacing ? spacing[d - 1] : 0;
+        w[a] = sa > 0 && sx > 0 ? (sx / sa) * (sx / sa) : 1.0;
+        if (!isfinite(w[a]))
+            return pp_fail(PP_ERR_ARG, "voxel size: axis %d's spacing %g gives no finite weight",
+                           a, sa);
+    }
+    size_t rows = 1, sum = 0;
+    for (int a = 0; a + 1 < d; a++) {
+        rows *= shape->n[a];
+        sum += shape->n[a];
+    }
+    const size_t width = shape->n[d - 1], wh = width / 2 + 1;
+    double *ax = malloc((sum ? sum : 1) * sizeof *ax), *cr = malloc(rows * sizeof *cr),
+           *cc = malloc(wh * sizeof *cc);
+    if (!ax || !cr || !cc) {
+        free(ax);
         free(cr);
         free(cc);
         return pp_fail(PP_ERR_NOMEM, "out of memory for the prior eigenvalues");
     }
-    for (size_t i = 0; i < height; i++)
-        cr[i] = 2.0 - 2.0 * cos(2.0 * PP_PI * (double)i / (double)height);
+    /* per axis but the last: its weighted 1-D Laplacian eigenvalues; per row
+     * (every index but the last) their sum, slowest axis first (rank 2: the
+     * row axis' alone, so a frame's eigenvalues are those of before) */
+    double *axa[PP_MAX_RANK];
+    size_t off = 0;
+    for (int a = 0; a + 1 < d; a++) {
+        axa[a] = ax + off;
+        for (size_t i = 0; i < shape->n[a]; i++)
+            axa[a][i] = w[a] * (2.0 - 2.0 * cos(2.0 * PP_PI * (double)i / (double)shape->n[a]));
+        off += shape->n[a];
+    }
+    for (size_t r = 0; r < rows; r++) {
+        size_t rem = r, idx[PP_MAX_RANK] = {0};
+        for (int a = d - 2; a >= 0; a--) {
+            idx[a] = rem % shape->n[a];
+            rem /= shape->n[a];
+        }
+        double v = 0;
+        for (int a = 0; a + 1 < d; a++)
+            v = a == 0 ? axa[0][idx[0]] : v + axa[a][idx[a]];
+        cr[r] = v;
+    }
     for (size_t j = 0; j < wh; j++)
-        cc[j] = 2.0 - 2.0 * cos(2.0 * PP_PI * (double)j / (double)width);
+        cc[j] = w[d - 1] * (2.0 - 2.0 * cos(2.0 * PP_PI * (double)j / (double)width));
+    /* Matern: alpha = nu + d/2 (Lindgren, Rue & Lindstrom 2011, eq. 2) */
     double kappa2 = 0, alpha = 1;
     if (s->kind == PP_PRIOR_MATERN) {
         double kappa = sqrt(8.0 * s->nu) / s->range;
         kappa2 = kappa * kappa;
-        alpha = s->nu + 1.0;
+        alpha = s->nu + 0.5 * (double)d;
     }
-    for (size_t i = 0; i < height; i++)
+    for (size_t i = 0; i < rows; i++)
         for (size_t j = 0; j < wh; j++) {
             double lap = cr[i] + cc[j];
             double v = lap;
@@ -145,11 +185,22 @@ pp_status pp_prior_eigen(const pp_prior_spec *s, size_t height, size_t width, do
                 v = pow(kappa2 + lap, alpha);
             q[i * wh + j] = v;
         }
+    free(ax);
     free(cr);
     free(cc);
     int free_mean = !(s->kind == PP_PRIOR_MATERN && s->mean_set);
     if (free_mean)
         q[0] = 0.0;
-    *rank = (double)height * (double)width - (free_mean ? 1.0 : 0.0);
+    double n = 1;
+    for (int a = 0; a < d; a++)
+        n *= (double)shape->n[a];
+    *rank = n - (free_mean ? 1.0 : 0.0);
     return PP_OK;
+}
+
+pp_status pp_prior_eigen(const pp_prior_spec *s, size_t height, size_t width, double *q,
+                         double *rank)
+{
+    pp_shape sh = pp_shape_2d(height, width);
+    return pp_prior_eigen_shape(s, &sh, NULL, q, rank);
 }

@@ -35,11 +35,18 @@ void pp_squant_free(pp_squant *q)
 void pp_squant_add(const pp_squant_law *law, pp_squant *q, const double *v, size_t rows,
                    size_t cols, size_t stride, const struct pp_moments *m)
 {
+    pp_squant_add_box(law, q, v, 1, rows, cols, stride, 0, m);
+}
+
+void pp_squant_add_box(const pp_squant_law *law, pp_squant *q, const double *v, size_t slices,
+                       size_t rows, size_t cols, size_t stride, size_t slice_stride,
+                       const struct pp_moments *m)
+{
     double t = (double)m->count, zq = law->zq;
-    for (size_t r = 0; r < rows; r++)
+    for (size_t r = 0; r < slices * rows; r++)
         for (size_t col = 0; col < cols; col++) {
             size_t i = r * cols + col;
-            double zv = v[r * stride + col];
+            double zv = v[r / rows * slice_stride + r % rows * stride + col];
             double sd = t > 1 ? sqrt(m->m2[i] / (t - 1)) : 0.0, mu = m->mean[i];
             if (t <= PP_SQUANT_WARM) {
                 q->qlo[i] = mu - zq * sd;

@@ -42,6 +42,11 @@ void pp_squant_free(pp_squant *q); /* accepts a zeroed struct */
  * whose running moments m already include it (m->count draws so far). */
 void pp_squant_add(const pp_squant_law *law, pp_squant *q, const double *v, size_t rows,
                    size_t cols, size_t stride, const struct pp_moments *m);
+/* The same for a slices x rows x cols box whose slices are slice_stride
+ * apart (a volume's frame box in its grid; slices 1: pp_squant_add). */
+void pp_squant_add_box(const pp_squant_law *law, pp_squant *q, const double *v, size_t slices,
+                       size_t rows, size_t cols, size_t stride, size_t slice_stride,
+                       const struct pp_moments *m);
 
 /* Gives each of the nchains chains a pp_squant of n pixels as its kstate;
  * pp_squant_release_chains frees them (also after a partial failure). */

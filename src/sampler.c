@@ -132,8 +132,70 @@ static pp_status check_width(const pp_sampler_config *cfg)
     return PP_OK;
 }
 
-static pp_status check_config(pp_sampler_config *cfg, int missing)
+/* What volumes (frame depth > 1) support today: every sampler with a
+ * stationary prior and a fixed PSF (sampler.h "Volumes"). The rest is
+ * refused here, saying what to use instead. */
+static pp_status check_volume(const pp_sampler_config *cfg)
 {
+    if (cfg->prior.kind == PP_PRIOR_ADAPTIVE)
+        return pp_fail(PP_ERR_ARG, "%s adaptive (the default): not available for volumes (3-D "
+                                   "sampling has the stationary priors only); use %s gmrf1 (or "
+                                   "gmrf2, matern)",
+                       NAME(PP_SET_PRIOR), NAME(PP_SET_PRIOR));
+    if (cfg->psf.width_auto)
+        return pp_fail(PP_ERR_ARG, "%s ...=auto: sampling the PSF width is not available for "
+                                   "volumes; give the width (sigma=S, na=NA)",
+                       NAME(PP_SET_PSF));
+    for (int a = 0; a < 3; a++)
+        if (!(cfg->voxel[a] >= 0 && isfinite(cfg->voxel[a])))
+            return pp_fail(PP_ERR_ARG, "voxel size: each spacing must be finite and >= 0 "
+                                       "micrometres (0: unknown, taken as cubic), not %g",
+                           cfg->voxel[a]);
+    return PP_OK;
+}
+
+/* A kernel for a volume: odd extents on every axis, its slices no larger
+ * than the frame's, its depth no larger than the volume's with periodic
+ * boundaries (pad adds its z radius to the grid, so any odd depth fits);
+ * finite, non-negative, a positive sum; normalised to sum 1 in place. A
+ * frame-like kernel (depth 1) blurs within each slice only. */
+static pp_status check_volume_psf(const pp_sampler_config *cfg, pp_image *k,
+                                  const pp_shape *fs)
+{
+    if (k->width != k->height || k->width % 2 == 0 || k->depth % 2 == 0)
+        return pp_fail(PP_ERR_ARG, "the PSF is %zux%zux%zu; a volume's PSF needs an odd square "
+                                   "slice (2R+1) and an odd number of slices",
+                       k->width, k->height, k->depth);
+    if (k->width > fs->n[1] || k->width > fs->n[2])
+        return pp_fail(PP_ERR_LIMIT, "the PSF (%zux%zu) is larger than the %zux%zu slices",
+                       k->width, k->height, fs->n[2], fs->n[1]);
+    if (k->depth > fs->n[0] && cfg->boundary == PP_BOUNDARY_PERIODIC)
+        return pp_fail(PP_ERR_LIMIT, "the PSF has %zu slices, more than the volume's %zu: "
+                                     "with %s periodic it would wrap onto itself; use %s pad",
+                       k->depth, fs->n[0], NAME(PP_SET_BOUNDARY), NAME(PP_SET_BOUNDARY));
+    size_t n = pp_image_count(k);
+    double sum = 0;
+    for (size_t i = 0; i < n; i++) {
+        double v = k->data[i];
+        if (!isfinite(v) || v < 0)
+            return pp_fail(isfinite(v) ? PP_ERR_ARG : PP_ERR_NUMERIC,
+                           "the PSF has a %s value %g at voxel (%zu, %zu, %zu)",
+                           isfinite(v) ? "negative" : "non-finite", v, i / (k->height * k->width),
+                           i / k->width % k->height, i % k->width);
+        sum += v;
+    }
+    if (!(sum > 0) || !isfinite(sum))
+        return pp_fail(PP_ERR_NUMERIC, "the PSF sums to %g; it needs a positive finite sum", sum);
+    for (size_t i = 0; i < n; i++)
+        k->data[i] /= sum;
+    return PP_OK;
+}
+
+static pp_status check_config(pp_sampler_config *cfg, int missing, int volume)
+{
+    pp_status st = volume ? check_volume(cfg) : PP_OK;
+    if (st != PP_OK)
+        return st;
     /* Gaussian noise, periodic: mtc (ESS/s of delta 6.2-6.8x gibbs's at 256^2
      * to 1024^2, bench/mtc_bench.py); pad or missing pixels keep gibbs (mtc
      * would fall back). */
@@ -204,14 +266,14 @@ static int cmp_double(const void *a, const void *b)
  * with an unobserved (NaN) pixel are left out. */
 static double robust_noise_sd(const pp_image *y)
 {
-    size_t n = y->height * (y->width - 1);
+    size_t rows = pp_image_count(y) / y->width, n = rows * (y->width - 1);
     if (y->width < 2 || n < 2)
         return 0;
     double *d = malloc(n * sizeof *d);
     if (!d)
         return 0;
     size_t k = 0;
-    for (size_t r = 0; r < y->height; r++)
+    for (size_t r = 0; r < rows; r++)
         for (size_t c = 0; c + 1 < y->width; c++) {
             double v = y->data[r * y->width + c + 1] - y->data[r * y->width + c];
             if (!isnan(v))
@@ -243,7 +305,7 @@ static void rough_scales(pp_sampler *s, const pp_image *frame)
                                         : 1.0 / (sd * sd);
     /* y'Qy minus its expected noise part tr(Q)/lambda, floored. */
     double qy = 0, trq = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
+    for (size_t k1 = 0; k1 < s->grows; k1++)
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             double w = pp_half_weight(k2, s->gw);
@@ -259,21 +321,54 @@ static void rough_scales(pp_sampler *s, const pp_image *frame)
                                        : (signal > 0 ? s->rank / signal : 1.0);
 }
 
+/* The grid: the frame's shape, or with pad the PSF's margin added on every
+ * axis (PP_GRID_PAD_SCENE; a volume's z axis by the kernel's own z radius,
+ * none for a depth-1 kernel). A frame keeps its rank-2 plans. */
 static pp_status plan_grid(pp_sampler *s, const pp_image *psf)
 {
-    size_t r = psf->width / 2;
-    pp_shape fs = pp_shape_2d(s->height, s->width), gs = fs;
-    if (s->cfg.boundary == PP_BOUNDARY_PAD)
+    size_t r = psf->width / 2, rz = psf->depth / 2;
+    pp_shape fs = s->fshape, gs = fs;
+    if (s->cfg.boundary == PP_BOUNDARY_PAD) {
         pp_grid_padded(&fs, r, PP_GRID_PAD_SCENE, &gs);
-    s->gh = gs.n[0];
-    s->gw = gs.n[1];
+        if (fs.rank == 3) {
+            pp_shape gz;
+            pp_grid_padded(&fs, rz, PP_GRID_PAD_SCENE, &gz);
+            gs.n[0] = gz.n[0];
+        }
+    }
+    s->gshape = gs;
+    int k = gs.rank;
+    s->gd = k == 3 ? gs.n[0] : 1;
+    s->gh = gs.n[k - 2];
+    s->gw = gs.n[k - 1];
+    s->grows = s->gd * s->gh;
     s->gwh = s->gw / 2 + 1;
-    s->gn = s->gh * s->gw;
-    s->gm = s->gh * s->gwh;
     size_t bytes;
-    if (!pp_mul_ok(s->gn, 64, &bytes))
-        return pp_fail(PP_ERR_LIMIT, "frame %zux%zu is too large", s->width, s->height);
-    return pp_fft_create(s->gh, s->gw, s->cfg.fft_effort, &s->fft);
+    if (pp_shape_count(&gs, 64, &bytes) != PP_OK)
+        return k == 2 ? pp_fail(PP_ERR_LIMIT, "frame %zux%zu is too large", s->width, s->height)
+                      : pp_fail(PP_ERR_LIMIT, "volume %zux%zux%zu is too large", s->width,
+                                s->height, s->depth);
+    s->gn = s->grows * s->gw;
+    s->gm = s->grows * s->gwh;
+    if (k == 2)
+        return pp_fft_create(s->gh, s->gw, s->cfg.fft_effort, &s->fft);
+    return pp_fft_create_shape(&gs, s->cfg.fft_effort, &s->fft);
+}
+
+/* A volume's transfer function: the kernel (depth 1 for a blur within each
+ * slice) placed with its centre at the grid's origin and transformed. (A
+ * frame's is pp_psf_transfer, the same steps at rank 2.) */
+static pp_status volume_transfer(pp_sampler *s, const pp_image *psf)
+{
+    double *grid = pp_fft_alloc_real(s->gn);
+    if (!grid)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zux%zu transfer function",
+                       s->gw, s->gh, s->gd);
+    pp_shape ks = pp_shape_3d(psf->depth, psf->height, psf->width);
+    pp_grid_place_kernel(grid, &s->gshape, psf->data, &ks);
+    pp_fft_forward(s->fft, grid, s->otf);
+    pp_fft_free_buffer(grid);
+    return PP_OK;
 }
 
 static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image *psf)
@@ -285,7 +380,8 @@ static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image 
     s->yhat = pp_fft_alloc_complex(s->gm);
     if (!s->otf || !s->otf2 || !s->q || !s->ygrid || !s->yhat)
         return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
-    pp_status st = pp_psf_transfer(psf, s->fft, s->otf);
+    pp_status st =
+        s->depth > 1 ? volume_transfer(s, psf) : pp_psf_transfer(psf, s->fft, s->otf);
     if (st != PP_OK)
         return st;
     size_t zeros = 0;
@@ -299,38 +395,49 @@ static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image 
                             "half-spectrum frequencies: there the data say nothing and the "
                             "estimate comes from the prior alone",
                             zeros, s->gm);
-    if ((st = pp_prior_eigen(&s->cfg.prior, s->gh, s->gw, s->q, &s->rank)) != PP_OK)
+    if ((st = pp_prior_eigen_shape(&s->cfg.prior, &s->gshape,
+                                   s->depth > 1 ? s->cfg.voxel : NULL, s->q, &s->rank)) != PP_OK)
         return st;
     s->mean_dc = s->cfg.prior.mean_set ? s->cfg.prior.mean * (double)s->gn : 0.0;
     /* Embed the frame at the grid's origin; the latent pixels (padding,
      * missing pixels) start at the mean of the observed ones. */
     double fill = pp_observed_mean(frame);
-    for (size_t r = 0; r < s->gh; r++)
-        for (size_t c = 0; c < s->gw; c++)
-            s->ygrid[r * s->gw + c] = s->obs[r * s->gw + c] ? frame->data[r * s->width + c] : fill;
+    pp_grid_put_box(s->ygrid, &s->gshape, frame->data, &s->fshape);
+    for (size_t i = 0; i < s->gn; i++)
+        if (!s->obs[i])
+            s->ygrid[i] = fill;
     pp_fft_forward(s->fft, s->ygrid, s->yhat);
     return PP_OK;
 }
 
-/* A fixed 3 x 3 spread of probe pixels at the quarter points of the frame,
- * with their twiddle tables for direct half-spectrum evaluation. */
+/* A fixed 3 x 3 spread of probe pixels at the quarter points of the frame
+ * (of a volume: of its middle slice, z = (depth - 1) / 2, the slice least
+ * touched by the z boundary), with their twiddle tables for direct
+ * half-spectrum evaluation. */
 static pp_status plan_probes(pp_sampler *s)
 {
     s->nprobe = 0;
     for (int a = 1; a <= 3; a++)
         for (int b = 1; b <= 3; b++) {
+            s->probe_z[s->nprobe] = (s->depth - 1) / 2;
             s->probe_r[s->nprobe] = (size_t)a * (s->height - 1) / 4;
             s->probe_c[s->nprobe] = (size_t)b * (s->width - 1) / 4;
             s->nprobe++;
         }
-    s->tw_row = malloc(s->nprobe * s->gh * sizeof(pp_complex));
+    s->tw_row = malloc(s->nprobe * s->grows * sizeof(pp_complex));
     s->tw_col = malloc(s->nprobe * s->gwh * sizeof(pp_complex));
     if (!s->tw_row || !s->tw_col)
         return pp_fail(PP_ERR_NOMEM, "out of memory for probe tables");
     for (size_t p = 0; p < s->nprobe; p++) {
-        for (size_t k = 0; k < s->gh; k++) {
-            double th = 2 * PP_PI * (double)((k * s->probe_r[p]) % s->gh) / (double)s->gh;
-            s->tw_row[p * s->gh + k] = cos(th) + I * sin(th);
+        for (size_t kz = 0; kz < s->gd; kz++) {
+            /* 0 for a frame: e^0 = 1 exactly, so its twiddles are the 2-D ones */
+            double tz = 2 * PP_PI * (double)((kz * s->probe_z[p]) % s->gd) / (double)s->gd;
+            pp_complex wz = s->gd > 1 ? cos(tz) + I * sin(tz) : 1.0;
+            for (size_t k = 0; k < s->gh; k++) {
+                double th = 2 * PP_PI * (double)((k * s->probe_r[p]) % s->gh) / (double)s->gh;
+                pp_complex w = cos(th) + I * sin(th);
+                s->tw_row[p * s->grows + kz * s->gh + k] = s->gd > 1 ? wz * w : w;
+            }
         }
         for (size_t k = 0; k < s->gwh; k++) {
             double th = 2 * PP_PI * (double)((k * s->probe_c[p]) % s->gw) / (double)s->gw;
@@ -378,6 +485,9 @@ static pp_status plan_trace(pp_sampler *s)
             snprintf(buf, sizeof buf, "kappa");
         else if ((long)i == s->col_level)
             snprintf(buf, sizeof buf, "level");
+        else if (s->depth > 1) /* a volume's probes: p_<z>_<r>_<c> */
+            snprintf(buf, sizeof buf, "p_%zu_%zu_%zu", s->probe_z[i - s->col_probe0],
+                     s->probe_r[i - s->col_probe0], s->probe_c[i - s->col_probe0]);
         else
             snprintf(buf, sizeof buf, "p_%zu_%zu", s->probe_r[i - s->col_probe0],
                      s->probe_c[i - s->col_probe0]);
@@ -419,10 +529,10 @@ static pp_status plan_chains(pp_sampler *s)
     }
     for (unsigned k = 0; k < s->cfg.chains; k++) {
         pp_chain *c = &s->chain[k];
-        pp_status st = pp_moments_init(&c->mom, s->height * s->width);
+        pp_status st = pp_moments_init(&c->mom, s->npix);
         if (st != PP_OK)
             return st;
-        if (!(c->mean1 = malloc(s->height * s->width * sizeof(float))))
+        if (!(c->mean1 = malloc(s->npix * sizeof(float))))
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
         c->trace = s->trace_values + (size_t)k * s->trace_cap * s->trace.ncols;
         c->otf = s->otf;
@@ -446,13 +556,21 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
     s->cfg = *cfg;
     s->height = frame->height;
     s->width = frame->width;
+    s->depth = frame->depth;
+    s->npix = pp_image_count(frame);
+    s->fshape = pp_image_shape(frame);
     int missing = 0;
-    for (size_t i = 0; i < s->height * s->width && !missing; i++)
+    for (size_t i = 0; i < s->npix && !missing; i++)
         missing = isnan(frame->data[i]);
-    pp_status st = check_config(&s->cfg, missing);
+    pp_status st = check_config(&s->cfg, missing, s->depth > 1);
     pp_image *kernel = NULL;
     if (st == PP_OK && (st = pp_image_clone(psf, &kernel)) == PP_OK)
-        st = pp_psf_check(kernel, s->height, s->width);
+        st = s->depth > 1 ? check_volume_psf(&s->cfg, kernel, &s->fshape)
+                          : psf->depth > 1 ? pp_fail(PP_ERR_ARG, "the PSF is 3-D (%zu slices) "
+                                                                 "but the frame is 2-D: a 3-D PSF "
+                                                                 "needs a volume (a z-stack)",
+                                                     psf->depth)
+                                           : pp_psf_check(kernel, s->height, s->width);
     if (st == PP_OK)
         s->psf_size = kernel->width;
     if (st == PP_OK)
@@ -677,12 +795,12 @@ static pp_status pool_estimates(pp_sampler *s)
 {
     pp_image **out[] = {&s->mean, &s->sd, &s->lo, &s->hi};
     for (int i = 0; i < 4; i++) {
-        pp_status st = pp_image_create(s->height, s->width, out[i]);
+        pp_status st = pp_image_create3(s->depth, s->height, s->width, out[i]);
         if (st != PP_OK)
             return st;
     }
     /* The chains' moments pooled in chain order, straight into mean/sd. */
-    size_t n = s->height * s->width, bad = 0;
+    size_t n = s->npix, bad = 0;
     pp_moments pool = {n, 0, s->mean->data, s->sd->data}, *acc = &pool;
     double condvar = 0;
     unsigned long long kept = 0;
@@ -883,7 +1001,7 @@ static double max_seconds(const pp_sampler *s)
 {
     if (s->cfg.max_seconds > 0)
         return s->cfg.max_seconds;
-    double mp = (double)s->height * (double)s->width * 1e-6;
+    double mp = (double)s->depth * (double)s->height * (double)s->width * 1e-6;
     return fmax(PP_MAX_SECONDS_FLOOR, PP_MAX_SECONDS_PER_MP * mp);
 }
 

@@ -54,7 +54,7 @@ static map_check check_map(const pp_sampler *s)
     map_check m = {0, 0, 0, 0};
     if (!s->rhat_map)
         return m;
-    m.n = s->height * s->width;
+    m.n = s->npix;
     for (size_t i = 0; i < m.n; i++) {
         double r = s->rhat_map->data[i];
         if (!isfinite(r))
@@ -250,7 +250,7 @@ static void warn_scalars(pp_sampler *s, const char *adv)
  * from 2 x chains batch means, is tens of per cent. */
 static pp_status pixel_maps(pp_sampler *s)
 {
-    size_t nc = s->cfg.chains, npix = s->height * s->width;
+    size_t nc = s->cfg.chains, npix = s->npix;
     pp_image_free(s->rhat_map);
     pp_image_free(s->mcse_map);
     s->rhat_map = s->mcse_map = NULL;
@@ -259,9 +259,9 @@ static pp_status pixel_maps(pp_sampler *s)
     double *hm = malloc(2 * nc * sizeof *hm);
     pp_status st = hm ? PP_OK : pp_fail(PP_ERR_NOMEM, "out of memory for the pixel maps");
     if (st == PP_OK)
-        st = pp_image_create(s->height, s->width, &s->rhat_map);
+        st = pp_image_create3(s->depth, s->height, s->width, &s->rhat_map);
     if (st == PP_OK && s->maps_final) /* a round's check needs the R-hat map only */
-        st = pp_image_create(s->height, s->width, &s->mcse_map);
+        st = pp_image_create3(s->depth, s->height, s->width, &s->mcse_map);
     /* The recorded field may be a conditional mean (gibbs, mtc): then the
      * draws' within-chain variance adds the mean conditional variance. */
     double condvar = 0, kept = 0;

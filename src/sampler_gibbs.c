@@ -152,7 +152,7 @@ static inline void probe_entry(const pp_sampler *s, probe_acc *pa, size_t col, c
 static void probe_row_end(const pp_sampler *s, probe_acc *pa, size_t k1)
 {
     for (size_t p = 0; p < s->nprobe; p++) {
-        const double *tr = (const double *)(s->tw_row + p * s->gh + k1);
+        const double *tr = (const double *)(s->tw_row + p * s->grows + k1);
         pa->acc[p] += pa->re[pa->which[p]] * tr[0] - pa->im[pa->which[p]] * tr[1];
     }
     for (size_t u = 0; u < pa->nu; u++)
@@ -256,14 +256,15 @@ PP_VECTOR_CLONES static void fused_block(const pp_sampler *s, const pp_chain *c,
 }
 
 /* The edge columns' noise (0 and, W even, W/2: row k1 pairs with row H-k1
- * as complex conjugates; rows 0 and H/2 are real with variance N), into
- * cbuf, exactly as pp_half_noise draws them (src/spectral.c; the pairing
- * is pp_grid_hermitian_column, src/grid.h). */
+ * as complex conjugates; rows 0 and H/2 are real with variance N; in a
+ * volume row (kz, k1) pairs with (-kz, -k1)), into cbuf, exactly as
+ * pp_half_noise draws them for a frame (src/spectral.c; the pairing is
+ * pp_grid_hermitian_column, src/grid.h, any rank). */
 static void edge_noise(const pp_sampler *s, pp_chain *c, size_t ncol)
 {
-    const size_t h = s->gh, wh = s->gwh;
+    const size_t h = s->grows, wh = s->gwh;
     const double sc = sqrt((double)s->gn / 2.0);
-    const pp_shape gs = pp_shape_2d(s->gh, s->gw);
+    const pp_shape gs = s->gshape;
     double g[2 * NOISE_BLOCK];
     for (size_t e = 0; e < ncol; e++) {
         size_t col = e == 0 ? 0 : wh - 1;
@@ -298,7 +299,7 @@ fused_sums pp_gibbs_fused_pass(const pp_sampler *s, pp_chain *c, int want_ax, in
         probe_setup(s, pa);
     edge_noise(s, c, last < wh ? 2 : 1);
     row_sums edge = {0, 0, 0, 0, 0}, in = {0, 0, 0, 0, 0};
-    for (size_t k1 = 0; k1 < s->gh; k1++) {
+    for (size_t k1 = 0; k1 < s->grows; k1++) {
         size_t i = k1 * wh;
         fused_entry(s, c, i, k1 == 0 ? s->mean_dc : 0.0, want_ax, invn, &edge, x);
         if (k1 == 0)
@@ -361,7 +362,7 @@ static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
 {
     probe_acc pa;
     probe_setup(s, &pa);
-    for (size_t k1 = 0; k1 < s->gh; k1++) {
+    for (size_t k1 = 0; k1 < s->grows; k1++) {
         const double *row = (const double *)(xh + k1 * s->gwh);
         for (size_t u = 0; u < pa.nu; u++)
             row_dot(row, (const double *)(s->tw_col + pa.ucol[u] * s->gwh), s->gwh, &pa.re[u],
@@ -384,7 +385,7 @@ static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss
     pp_rng_normals(&c->rng, e, s->gn - s->nobs);
     double so = 0, sp = 0;
     size_t k = 0;
-    for (size_t r = 0; r < s->gh; r++) {
+    for (size_t r = 0; r < s->grows; r++) {
         const double *ax = c->rbuf + r * s->gw, *y = s->ygrid + r * s->gw;
         const unsigned char *ob = s->obs + r * s->gw;
         double *ya = c->yaug + r * s->gw;
@@ -433,7 +434,7 @@ static double cond_logp(const pp_sampler *s, const pp_chain *c, const pp_complex
     (void)otf2;
     (void)ctx;
     double ss = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
+    for (size_t k1 = 0; k1 < s->grows; k1++)
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             pp_complex r = otf[i] * c->cbuf2[i] - c->yhat[i];
@@ -522,15 +523,13 @@ static void asis_delta_pad(const pp_sampler *s, pp_chain *c, int keep, double xs
     const double invn = 1.0 / (double)s->gn;
     double cst = s->q[0] > 0 ? s->mean_dc * invn : xsum * invn;
     double v0 = 0, c0 = 0;
-    for (size_t r = 0; r < s->height; r++)
-        for (size_t col = 0; col < s->width; col++) {
-            size_t i = r * s->gw + col;
-            if (!s->obs[i])
-                continue;
-            double g = c->rbuf[i] * invn - cst;
-            v0 += g * g;
-            c0 += g * (s->ygrid[i] - cst);
-        }
+    for (size_t i = 0; i < s->gn; i++) { /* observed pixels lie in the frame box */
+        if (!s->obs[i])
+            continue;
+        double g = c->rbuf[i] * invn - cst;
+        v0 += g * g;
+        c0 += g * (s->ygrid[i] - cst);
+    }
     double s1 = 1.0 / sqrt(c->delta), V = v0 / (s1 * s1), C = c0 / s1;
     if (!(V > 0) || !isfinite(V) || !isfinite(C))
         return;
@@ -638,7 +637,7 @@ static pp_status gibbs_prepare(pp_sampler *s)
 {
     const pp_sampler_config *cfg = &s->cfg;
     if (cfg->boundary != PP_BOUNDARY_PAD || cfg->prior.delta_set ||
-        cfg->prior.kind != PP_PRIOR_GMRF1)
+        cfg->prior.kind != PP_PRIOR_GMRF1 || s->depth > 1) /* src/padscale.h is 2-D */
         return PP_OK;
     for (unsigned b = 0; b < s->nslots; b++) {
         pp_padscale *p;

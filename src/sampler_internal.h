@@ -129,8 +129,18 @@ struct pp_sampler {
     pp_sampler_config cfg;
     const pp_kernel *kernel;
     void *kshared;              /* the kernel's shared state */
-    size_t height, width;       /* frame */
-    size_t gh, gw, gwh, gn, gm; /* grid rows, cols, half cols, pixels, half size */
+    size_t height, width;       /* frame (one slice of a volume) */
+    size_t gh, gw, gwh, gn, gm; /* grid rows (of one slice), cols, half cols, elements
+                                 * (all slices), half-spectrum size (all slices) */
+    /* Volumes (frame depth > 1): the sampler's grid is rank 3, slices of
+     * gh x gw. Every array on the grid or its half spectrum keeps the
+     * layout "rows x last axis" (include/pixpost/fft.h): grows = gd * gh
+     * rows of gw reals, or of gwh half-spectrum entries, so a loop over
+     * the half spectrum runs k1 < grows, k2 < gwh whatever the rank. A
+     * frame has depth = gd = 1 and grows = gh. */
+    size_t depth, gd, grows;
+    size_t npix;                /* frame elements: depth * height * width */
+    pp_shape fshape, gshape;    /* the frame's and the grid's shape (rank 2 or 3) */
     pp_fft *fft;
     pp_complex *otf;  /* transfer function, gm */
     double *otf2;     /* |otf|^2, gm */
@@ -151,8 +161,9 @@ struct pp_sampler {
                          * (pad, or missing pixels): yaug, per-chain yhat */
     double lambda0, delta0; /* rough scale estimates for dispersed starts */
     size_t nprobe;
-    size_t probe_r[PP_MAX_PROBES], probe_c[PP_MAX_PROBES];
-    pp_complex *tw_row; /* nprobe x gh twiddles e^{+2 pi i k1 r / gh} */
+    size_t probe_z[PP_MAX_PROBES], probe_r[PP_MAX_PROBES], probe_c[PP_MAX_PROBES];
+    pp_complex *tw_row; /* nprobe x grows twiddles e^{+2 pi i (kz z / gd + k1 r / gh)}
+                         * (row kz * gh + k1) */
     pp_complex *tw_col; /* nprobe x gwh twiddles e^{+2 pi i k2 c / gw}, weighted */
     pp_chain *chain;
     pp_slot *slot;  /* nslots sets of working buffers, one per thread of the run */
@@ -197,8 +208,19 @@ struct pp_sampler {
     int ran;
 };
 
+/* The grid row (of gw entries) that holds frame row fr, 0 <= fr < depth *
+ * height: row fr % height of slice fr / height (a frame: fr itself). */
+static inline size_t pp_frame_row(const struct pp_sampler *s, size_t fr)
+{
+    return fr / s->height * s->gh + fr % s->height;
+}
+/* The grid index of a probe voxel. */
+static inline size_t pp_probe_index(const struct pp_sampler *s, size_t p)
+{
+    return (s->probe_z[p] * s->gh + s->probe_r[p]) * s->gw + s->probe_c[p];
+}
 
-/* Adds the frame block of a grid-sized field (rows s->gw apart) to the
+/* Adds the frame box of a grid-sized field (rows s->gw apart) to the
  * moments of chain c, freezing their mean in c->mean1 when the count
  * reaches s->freeze_at (a fixed run: floor(kept / 2); a run in rounds also
  * copies it at each round's end). Call once per kept draw. */

@@ -290,7 +290,7 @@ static pp_status mtc_prepare(pp_sampler *s)
         return pp_fail(PP_ERR_NOMEM, "out of memory");
     const double invn = 1.0 / (double)s->gn;
     size_t n = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
+    for (size_t k1 = 0; k1 < s->grows; k1++)
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             if (!(s->q[i] > 0))

@@ -205,7 +205,8 @@ static double phi_of(const pp_sampler *s, const pcn_shared *sh, const double *ax
     double acc = 0;
     if (!sh->gauss) {
         int bad = 0;
-        for (size_t r = 0; r < s->height && !bad; r++) {
+        for (size_t fr = 0; fr < s->depth * s->height && !bad; fr++) {
+            size_t r = pp_frame_row(s, fr);
             const unsigned char *ob = s->obs + r * s->gw;
             for (size_t c0 = 0, c1; c0 < s->width; c0 = c1) {
                 for (; c0 < s->width && !ob[c0]; c0++)
@@ -219,7 +220,8 @@ static double phi_of(const pp_sampler *s, const pcn_shared *sh, const double *ax
         }
         return bad || !isfinite(acc) ? INFINITY : acc;
     }
-    for (size_t r = 0; r < s->height; r++) {
+    for (size_t fr = 0; fr < s->depth * s->height; fr++) {
+        size_t r = pp_frame_row(s, fr);
         const double *a = ax + r * s->gw, *d = sh->data + r * s->gw;
         for (size_t c = 0; c < s->width; c++) {
             if (!s->obs[r * s->gw + c])
@@ -319,7 +321,7 @@ static double half_form(const pp_sampler *s, const pcn_shared *sh, const pp_comp
                         double b)
 {
     double acc = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
+    for (size_t k1 = 0; k1 < s->grows; k1++)
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             if (i == 0 && sh->free_dc)
@@ -359,9 +361,9 @@ static double field_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
 {
     const double b = k->beta, rho = sqrt(fmax(0.0, 1.0 - b * b)), del = c->delta;
     const double fi = fisher_of(sh, c), invn = 1.0 / (double)s->gn;
-    pp_half_noise(&c->rng, s->gh, s->gw, c->cbuf);
+    pp_half_noise_shape(&c->rng, &s->gshape, c->cbuf);
     double g_cur = 0, g_new = 0; /* log prior - log N(.; a, P^-1), times 2N */
-    for (size_t k1 = 0; k1 < s->gh; k1++)
+    for (size_t k1 = 0; k1 < s->grows; k1++)
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             if (i == 0 && sh->free_dc) {
@@ -406,7 +408,7 @@ static double scale_u(const pp_sampler *s, const pcn_shared *sh, pcn_chain *k, d
                       double ls, double *quad, double *quadn)
 {
     double ljac = 0;
-    for (size_t k1 = 0; k1 < s->gh; k1++)
+    for (size_t k1 = 0; k1 < s->grows; k1++)
         for (size_t k2 = 0; k2 < s->gwh; k2++) {
             size_t i = k1 * s->gwh + k2;
             if (i == 0 && sh->free_dc) {
@@ -552,18 +554,16 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
     const double invn = 1.0 / (double)s->gn;
     double *r = c->rbuf;
     memset(r, 0, s->gn * sizeof(double));
-    for (size_t row = 0; row < s->height; row++)
-        for (size_t col = 0; col < s->width; col++) {
-            size_t i = row * s->gw + col;
-            if (!s->obs[i])
-                continue;
-            if (sh->gauss) {
-                r[i] = c->lambda * (ax[i] - sh->data[i]);
-                continue;
-            }
-            double mu = fmax(ax[i] + sh->shift, 1e-300);
-            r[i] = 1.0 - sh->data[i] / mu;
+    for (size_t i = 0; i < s->gn; i++) { /* observed pixels lie in the frame box */
+        if (!s->obs[i])
+            continue;
+        if (sh->gauss) {
+            r[i] = c->lambda * (ax[i] - sh->data[i]);
+            continue;
         }
+        double mu = fmax(ax[i] + sh->shift, 1e-300);
+        r[i] = 1.0 - sh->data[i] / mu;
+    }
     pp_fft_forward(s->fft, r, out);
     for (size_t i = 0; i < s->gm; i++)
         out[i] *= conj(s->otf[i]);
@@ -662,7 +662,7 @@ static double hmc_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, p
         steps = 1;
     if (steps > HMC_MAX_STEPS)
         steps = HMC_MAX_STEPS;
-    pp_half_noise(&c->rng, s->gh, s->gw, k->v);
+    pp_half_noise_shape(&c->rng, &s->gshape, k->v);
     for (size_t i = 0; i < s->gm; i++)
         k->v[i] /= sqrt(del * s->q[i] + fi * s->otf2[i]);
     if (sh->free_dc)
@@ -706,8 +706,9 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
         z_of(s, c, k->u, k->m, k->z); /* x = z */
     const double *x = sh->logx ? k->x : k->z;
     pp_chain_add_draw(s, c, x);
-    pp_moments_add_block(&k->zm, k->z, s->height, s->width, s->gw);
-    pp_squant_add(&sh->law, c->kstate, k->z, s->height, s->width, s->gw, &k->zm);
+    pp_moments_add_box(&k->zm, k->z, s->depth, s->height, s->width, s->gw, s->gh * s->gw);
+    pp_squant_add_box(&sh->law, c->kstate, k->z, s->depth, s->height, s->width, s->gw,
+                      s->gh * s->gw, &k->zm);
     double *row = c->trace + c->kept * s->trace.ncols;
     row[PP_COL_LAMBDA] = sh->gauss ? c->lambda : NAN;
     row[PP_COL_DELTA] = c->delta;
@@ -717,7 +718,7 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
     if (s->col_level >= 0)
         row[s->col_level] = k->m;
     for (size_t p = 0; p < s->nprobe; p++)
-        row[s->col_probe0 + p] = x[s->probe_r[p] * s->gw + s->probe_c[p]];
+        row[s->col_probe0 + p] = x[pp_probe_index(s, p)];
     c->kept++;
 }
 
@@ -916,14 +917,13 @@ static pp_status plan_likelihood(pp_sampler *s, pcn_shared *sh)
             v = fmax(0.0, (v - nz->offset) / nz->gain + r2);
         sh->data[i] = v;
     }
-    for (size_t r = 0; r < s->height; r++)
-        for (size_t c = 0; c < s->width; c++) {
-            if (!s->obs[r * s->gw + c])
-                continue;
-            double v = sh->data[r * s->gw + c];
-            sum += v;
-            lg -= sh->gauss ? 0.0 : lgamma(v + 1.0);
-        }
+    for (size_t i = 0; i < s->gn; i++) { /* observed pixels lie in the frame box */
+        if (!s->obs[i])
+            continue;
+        double v = sh->data[i];
+        sum += v;
+        lg -= sh->gauss ? 0.0 : lgamma(v + 1.0);
+    }
     double nobs = (double)s->nobs;
     sh->shift = b + r2;
     sh->lgam = lg;
@@ -1033,7 +1033,7 @@ static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
         if (!k->wh || !k->wv)
             return fail_nomem();
     }
-    return pp_moments_init(&k->zm, s->height * s->width);
+    return pp_moments_init(&k->zm, s->npix);
 }
 
 static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
@@ -1072,7 +1072,7 @@ static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
     if (st == PP_OK)
         st = plan_start(s, sh);
     if (st == PP_OK)
-        st = pp_squant_plan_chains(s->chain, cfg->chains, s->height * s->width);
+        st = pp_squant_plan_chains(s->chain, cfg->chains, s->npix);
     for (unsigned b = 0; st == PP_OK && b < s->nslots; b++)
         st = plan_work(s, sh, &s->slot[b]);
     return st;
@@ -1097,7 +1097,7 @@ static pp_status prepare_hmc(pp_sampler *s)
 static pp_status pcn_finish(pp_sampler *s)
 {
     const pcn_shared *sh = s->kshared;
-    pp_squant_pool(s->chain, s->cfg.chains, s->height * s->width, sh->logx, s->lo->data,
+    pp_squant_pool(s->chain, s->cfg.chains, s->npix, sh->logx, s->lo->data,
                    s->hi->data);
     for (unsigned j = 0; j < s->cfg.chains; j++)
         if (s->chain[j].acceptance < LOW_ACCEPT)

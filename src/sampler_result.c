@@ -19,8 +19,8 @@ pp_status pp_sampler_result(const pp_sampler *s, pp_result *out)
         moves[k] = (pp_chain_moves){s->chain[k].acceptance, s->chain[k].step};
     pp_result r = {0};
     r.config = s->cfg;
-    r.frame = pp_shape_2d(s->height, s->width);
-    r.grid = pp_shape_2d(s->gh, s->gw);
+    r.frame = s->fshape;
+    r.grid = s->gshape;
     r.mean = s->mean;
     r.sd = s->sd;
     r.lo = s->lo;

@@ -19,7 +19,7 @@ void pp_chain_freeze_mean(pp_chain *c)
 
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
 {
-    pp_moments_add_block(&c->mom, grid, s->height, s->width, s->gw);
+    pp_moments_add_box(&c->mom, grid, s->depth, s->height, s->width, s->gw, s->gh * s->gw);
     if (c->mom.count == s->freeze_at)
         pp_chain_freeze_mean(c);
 }

@@ -20,5 +20,8 @@ static inline double pp_half_weight(size_t col, size_t width)
  * entries with real and imaginary parts of variance N/2, Hermitian pairs in
  * the self-conjugate columns, real entries of variance N where k = -k. */
 void pp_half_noise(pp_rng *rng, size_t height, size_t width, pp_complex *out);
+/* The same for a real field of any shape (rank 1 to 3; out: the rows of
+ * all but the last axis times n[last]/2 + 1); rank 2 is pp_half_noise. */
+void pp_half_noise_shape(pp_rng *rng, const pp_shape *shape, pp_complex *out);
 
 #endif

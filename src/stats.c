@@ -26,20 +26,27 @@ void pp_moments_free(pp_moments *m)
     m->mean = m->m2 = NULL;
 }
 
-void pp_moments_add_block(pp_moments *m, const double *x, size_t rows, size_t cols,
-                          size_t stride)
+void pp_moments_add_box(pp_moments *m, const double *x, size_t slices, size_t rows,
+                        size_t cols, size_t stride, size_t slice_stride)
 {
     m->count++;
     double inv = 1.0 / (double)m->count;
-    for (size_t r = 0; r < rows; r++) {
-        const double *xr = x + r * stride;
-        double *mean = m->mean + r * cols, *m2 = m->m2 + r * cols;
-        for (size_t c = 0; c < cols; c++) {
-            double d = xr[c] - mean[c];
-            mean[c] += d * inv;
-            m2[c] += d * (xr[c] - mean[c]);
+    for (size_t z = 0; z < slices; z++)
+        for (size_t r = 0; r < rows; r++) {
+            const double *xr = x + z * slice_stride + r * stride;
+            double *mean = m->mean + (z * rows + r) * cols, *m2 = m->m2 + (z * rows + r) * cols;
+            for (size_t c = 0; c < cols; c++) {
+                double d = xr[c] - mean[c];
+                mean[c] += d * inv;
+                m2[c] += d * (xr[c] - mean[c]);
+            }
         }
-    }
+}
+
+void pp_moments_add_block(pp_moments *m, const double *x, size_t rows, size_t cols,
+                          size_t stride)
+{
+    pp_moments_add_box(m, x, 1, rows, cols, stride, 0);
 }
 
 void pp_moments_add(pp_moments *m, const double *x) { pp_moments_add_block(m, x, 1, m->len, 0); }

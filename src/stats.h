@@ -20,6 +20,10 @@ void pp_moments_add(pp_moments *m, const double *x);
 /* Adds a rows x cols block of a grid whose rows are `stride` apart. */
 void pp_moments_add_block(pp_moments *m, const double *x, size_t rows, size_t cols,
                           size_t stride);
+/* Adds a slices x rows x cols box of a grid whose rows are `stride` apart
+ * and whose slices are `slice_stride` apart (slices 1: add_block). */
+void pp_moments_add_box(pp_moments *m, const double *x, size_t slices, size_t rows,
+                        size_t cols, size_t stride, size_t slice_stride);
 /* acc += other (Chan, Golub & LeVeque's pairwise update). */
 void pp_moments_merge(pp_moments *acc, const pp_moments *other);
 /* Standard normal quantile by Newton steps on erfc (|error| < 1e-14). */

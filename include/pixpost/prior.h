@@ -22,6 +22,7 @@
 #define PIXPOST_PRIOR_H
 
 #include <stddef.h>
+#include "pixpost/shape.h"
 #include "pixpost/status.h"
 
 typedef enum pp_prior_kind {
@@ -44,9 +45,25 @@ typedef struct pp_prior_spec {
 pp_status pp_prior_parse(const char *text, pp_prior_spec *out);
 void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len);
 
-/* Eigenvalues of Q on the H x (W/2+1) half spectrum, row-major. Entry
- * (0,0) is 0 when the mean is free. *rank receives the number of non-zero
- * eigenvalues over the FULL spectrum (N-1 or N). */
+/* Eigenvalues of Q on the half spectrum of a grid of the given shape
+ * (rank 1 to 3, slowest axis first; the last axis halved to n/2 + 1, as
+ * FFTW's r2c), row-major. The Laplacian behind every stationary prior is
+ *   L(k) = sum_a w_a (2 - 2 cos(2 pi k_a / n_a)),
+ * with increments along axis a weighted w_a = (spacing[last] / spacing[a])^2
+ * (the x pixel is the unit of length, so an axis sampled more coarsely, the
+ * z step of a z-stack, is coupled more weakly): gmrf1 L, gmrf2 L^2, matern
+ * (kappa^2 + L)^alpha with alpha = nu + d/2 for a rank-d grid (Lindgren,
+ * Rue & Lindstrom 2011: the SPDE's exponent; nu + 1 for a frame).
+ * spacing: `rank` positive spacings in any one unit (a volume's voxel size
+ * {z, y, x}); NULL, or an entry <= 0, counts as 1 (unknown: cubic). Entry
+ * 0 is 0 when the mean is free. *rank receives the number of non-zero
+ * eigenvalues over the FULL spectrum (N-1 or N). The adaptive prior's
+ * eigenvalues here are gmrf1's. PP_ERR_ARG for a bad rank. */
+pp_status pp_prior_eigen_shape(const pp_prior_spec *s, const pp_shape *shape,
+                               const double *spacing, double *q, double *rank);
+
+/* The rank-2 case with unit spacing: H x (W/2+1) half spectrum of an
+ * H x W frame (pp_prior_eigen_shape of pp_shape_2d(height, width)). */
 pp_status pp_prior_eigen(const pp_prior_spec *s, size_t height, size_t width,
                          double *q, double *rank);
 

@@ -11,9 +11,10 @@
  * Every kernel is odd-sized (2R+1 square), centred at (R, R), finite,
  * non-negative and normalised to sum 1.
  *
- * 3-D PSFs (volumes, slowest axis first {nz, ny, nx}; they blur volumes,
- * not frames: pp_psf_make refuses them, pp_psf_make3 builds them, `pixpost
- * psf` writes them as multi-page float TIFF):
+ * 3-D PSFs (volumes, slowest axis first {nz, ny, nx}; pp_psf_make refuses
+ * them, pp_psf_make3 builds them, `pixpost psf` writes them as multi-page
+ * float TIFF; pp_sampler_create samples a volume with one given as a
+ * pp_image of that depth, include/pixpost/sampler.h "Volumes"):
  *   gaussian:sigma=S,sigma_z=Z          sigma_z in slices (z-steps)
  *   widefield:na=NA,wavelength=L,pixel=P,step=DZ,n=N[,sample_n=NS,depth=D]
  *                                       scalar diffraction (Born & Wolf

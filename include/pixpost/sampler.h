@@ -47,6 +47,31 @@
  * chains than threads, a chain's working state waits in a park store
  * between rounds (bytes per pixel: README "Limits"). What the run did is in
  * pp_sampler_run_length().
+ *
+ * Volumes. A frame with depth > 1 (a z-stack, pp_image_create3) is sampled
+ * on a rank-3 grid by every sampler (gibbs, mtc, pcn, gpcn, hmc; AUTO picks
+ * as for a frame) with every noise model, the stationary priors (gmrf1,
+ * gmrf2, matern: pp_prior_eigen_shape, increments weighted by cfg.voxel,
+ * Matern alpha = nu + 3/2), a fixed PSF, either boundary (pad adds the kernel's radius on every axis, its z
+ * radius along z) and NaN voxels as missing data. The PSF is a volume of
+ * odd extents with odd square slices no larger than the frame's (its depth
+ * no larger than the volume's with periodic boundaries; any odd depth with
+ * pad), or a frame-like kernel of depth 1, which blurs within each slice
+ * only (no light crosses between slices). A 3-D PSF with a 2-D frame is
+ * refused. The estimates, R-hat and MCSE maps are volumes
+ * ({depth, height, width}, pp_result's frame and grid have rank 3); the 9
+ * probe voxels sit at the quarter points of the middle slice z =
+ * (depth - 1) / 2, trace columns "p_<z>_<r>_<c>". A frame (depth 1) gives
+ * the same bytes as before volumes existed.
+ * Not built for volumes, refused by pp_sampler_create with PP_ERR_ARG and
+ * a message saying what to use instead: the adaptive prior, which is the
+ * default (cfg.prior must be set to a stationary prior: the library cannot
+ * tell a default from a choice, so it never swaps a prior silently);
+ * sampling the PSF width (psf.width_auto). The padding scale move of gibbs
+ * with pad and gmrf1 (src/padscale.h) is 2-D: a volume runs without it
+ * (exact, only slower mixing of delta). The photon models' smoothing of
+ * their delta move's weights (src/hyper_photon.c) is the same Gaussian, in
+ * voxels, along z.
  */
 #ifndef PIXPOST_SAMPLER_H
 #define PIXPOST_SAMPLER_H
@@ -137,7 +162,8 @@ typedef struct pp_sampler_config {
      * axis first: {z step, y, x}. The prior weighs its increments along each
      * axis by (x spacing / that axis' spacing)^2, so roughness is measured in
      * physical units with the x pixel as the unit of length. 0 (default): not
-     * known, taken as cubic voxels {1, 1, 1}. Frames ignore it. */
+     * known, taken as cubic voxels {1, 1, 1}; negative or not finite:
+     * refused. Frames ignore it. See "Volumes" above. */
     double voxel[3];
 } pp_sampler_config;
 
