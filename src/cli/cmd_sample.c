@@ -36,9 +36,9 @@ static void print_verdict(const pp_sampler *s, const char *outdir, int volume, d
                  nw == 1 ? "" : "s", cv.hyper_warnings, cv.pixel_warnings,
                  nw - cv.hyper_warnings - cv.pixel_warnings);
     fprintf(stderr,
-            "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse, residual .tif%s; %s .png; "
+            "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse%s .tif; %s .png; "
             "summary.json; trace.csv; report.html)\n",
-            outdir, volume ? ", multi-page" : "",
+            outdir, volume ? ", multi-page" : ", residual",
             volume ? "mean_mip, sd_mip (maximum over z)" : "mean, sd");
     fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; worst R-hat %.3f, lowest "
                     "bulk-ESS %.0f: %s\n",
