@@ -355,22 +355,6 @@ static pp_status plan_grid(pp_sampler *s, const pp_image *psf)
     return pp_fft_create_shape(&gs, s->cfg.fft_effort, &s->fft);
 }
 
-/* A volume's transfer function: the kernel (depth 1 for a blur within each
- * slice) placed with its centre at the grid's origin and transformed. (A
- * frame's is pp_psf_transfer, the same steps at rank 2.) */
-static pp_status volume_transfer(pp_sampler *s, const pp_image *psf)
-{
-    double *grid = pp_fft_alloc_real(s->gn);
-    if (!grid)
-        return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zux%zu transfer function",
-                       s->gw, s->gh, s->gd);
-    pp_shape ks = pp_shape_3d(psf->depth, psf->height, psf->width);
-    pp_grid_place_kernel(grid, &s->gshape, psf->data, &ks);
-    pp_fft_forward(s->fft, grid, s->otf);
-    pp_fft_free_buffer(grid);
-    return PP_OK;
-}
-
 static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image *psf)
 {
     s->otf = pp_fft_alloc_complex(s->gm);
@@ -380,8 +364,7 @@ static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image 
     s->yhat = pp_fft_alloc_complex(s->gm);
     if (!s->otf || !s->otf2 || !s->q || !s->ygrid || !s->yhat)
         return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
-    pp_status st =
-        s->depth > 1 ? volume_transfer(s, psf) : pp_psf_transfer(psf, s->fft, s->otf);
+    pp_status st = pp_psf_transfer(psf, s->fft, s->otf);
     if (st != PP_OK)
         return st;
     size_t zeros = 0;

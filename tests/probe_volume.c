@@ -76,7 +76,7 @@ static int apply(pp_sampler_config *cfg, const char *kv)
     else if (KEY("prior"))
         st = pp_prior_parse(v, &cfg->prior);
     else if (KEY("noise"))
-        st = pp_noise_parse(v, &cfg->noise);
+        st = pp_noise_parse(v, NULL, &cfg->noise);
     else if (KEY("boundary"))
         st = pp_boundary_parse(v, NULL, &cfg->boundary);
     else if (KEY("chains"))
