@@ -136,7 +136,7 @@ pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, co
     memset(out, 0, sizeof *out);
     out->dark_sd = out->share_below_offset = out->share_impossible = NAN;
     out->q001 = out->q01 = out->offset_suggested = NAN;
-    size_t n = frame->width * frame->height, cnt = 0;
+    size_t n = pp_image_count(frame), cnt = 0; /* every voxel of a volume */
     double *v = malloc((n ? n : 1) * sizeof *v);
     if (!v)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the data checks");

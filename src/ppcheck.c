@@ -295,6 +295,9 @@ pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out)
 {
     *out = NULL;
     const pp_image *y = in->frame, *m = in->mean;
+    if (y->depth > 1 || m->depth > 1 || in->psf->depth > 1) /* image.h: frames only say so */
+        return pp_fail(PP_ERR_UNSUPPORTED,
+                       "the predictive check is made for frames only, not yet for volumes");
     if (y->width != m->width || y->height != m->height)
         return pp_fail(PP_ERR_ARG,
                        "predictive check: the frame (%zux%zu) and the mean "

@@ -435,9 +435,9 @@ pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
         char canon[256];
         pp_psf_format(s, canon, sizeof canon);
         return pp_fail(PP_ERR_UNSUPPORTED,
-                       WHAT " %s: a 3-D PSF, but sampling is 2-D only (3-D sampling is not "
-                            "built yet); use a 2-D PSF for a frame (gaussian:sigma=S or airy:...), "
-                            "or write this one with `pixpost psf` to inspect it",
+                       WHAT " %s: a 3-D PSF, which blurs a volume (a z-stack), not a frame; use a "
+                            "2-D PSF for a frame (gaussian:sigma=S or airy:...), or write this one "
+                            "with `pixpost psf` to inspect it",
                        canon);
     }
     switch (s->kind) {

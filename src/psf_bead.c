@@ -340,8 +340,8 @@ pp_status pp_psf_bead_make(const char *path, size_t size, pp_image **out)
     if (info.pages > 1) { /* a bead stack: 3-D, never squashed to its first page */
         pp_image_free(img);
         return pp_fail(PP_ERR_UNSUPPORTED,
-                       "%s: the PSF image has %u pages, a 3-D bead stack, but sampling is 2-D "
-                       "only (3-D sampling is not built yet); give one in-focus page as its "
+                       "%s: the PSF image has %u pages, a 3-D bead stack, which blurs a volume "
+                       "(a z-stack), not a frame; for a frame give one in-focus page as its "
                        "own file, or inspect the stack with `pixpost psf file:...`",
                        path, info.pages);
     }

@@ -6,8 +6,8 @@
 /* Pixels of frame equal to v. */
 static size_t count_equal(const pp_image *f, double v)
 {
-    size_t n = 0;
-    for (size_t i = 0; i < f->width * f->height; i++)
+    size_t n = 0, count = pp_image_count(f); /* every voxel of a volume */
+    for (size_t i = 0; i < count; i++)
         n += f->data[i] == v;
     return n;
 }
@@ -16,7 +16,8 @@ static size_t count_equal(const pp_image *f, double v)
 static double max_below(const pp_image *f, double below)
 {
     double m = -INFINITY;
-    for (size_t i = 0; i < f->width * f->height; i++) {
+    size_t count = pp_image_count(f);
+    for (size_t i = 0; i < count; i++) {
         double v = f->data[i];
         if (isfinite(v) && v < below && v > m)
             m = v;
@@ -27,7 +28,8 @@ static double max_below(const pp_image *f, double below)
 void pp_saturation_find(const pp_image *frame, unsigned bits, int is_float, pp_saturation *out)
 {
     *out = (pp_saturation){PP_SAT_NONE, 0, 0, 0};
-    for (size_t i = 0; i < frame->width * frame->height; i++)
+    size_t count = pp_image_count(frame);
+    for (size_t i = 0; i < count; i++)
         out->finite += isfinite(frame->data[i]) != 0;
     if (!out->finite)
         return;
@@ -60,8 +62,8 @@ size_t pp_saturation_mark(pp_image *frame, const pp_saturation *sat)
 {
     if (sat->rule == PP_SAT_NONE)
         return 0;
-    size_t n = 0;
-    for (size_t i = 0; i < frame->width * frame->height; i++)
+    size_t n = 0, count = pp_image_count(frame);
+    for (size_t i = 0; i < count; i++)
         if (frame->data[i] == sat->level) {
             frame->data[i] = NAN;
             n++;

@@ -52,10 +52,7 @@ refused([path("plain3.tif"), "--psf", G1], "h1", ["plain3.tif", "3 pages", "--pa
         "multi-page without OME or --pages")
 refused([path("z.ome.tif"), "--psf", G1, "--pages", "t"], "h2", ["z.ome.tif", "--pages t", "OME metadata", "z-slices"],
         "--pages t against OME SizeZ")
-refused([path("z.ome.tif"), "--psf", G1], "h3", ["z.ome.tif", "3-D sampling is not built yet", "--plane K"],
-        "OME z-stack")
-refused([path("plain3.tif"), "--psf", G1, "--pages", "z"], "h4", ["plain3.tif", "not built yet", "--plane K", "--pages t"],
-        "--pages z")
+# (z-stacks sampled as volumes: ref_pages_volume.py)
 refused([path("c.ome.tif"), "--psf", G1, "--psf", G2, "--psf", G1], "h5", ["--psf", "3 times", "2 channels", "c.ome.tif"],
         "three --psf for two channels")
 refused([path("one.tif"), "--psf", G1, "--psf", G2], "h6", ["--psf", "2 times", "1 channel"],
@@ -146,12 +143,30 @@ tifffile.imwrite(os.path.join(tdir, "m.ome.tif"), planes[:2], metadata={"axes": 
 p = pptest.run(["batch", zdir, "--psf", G1, "-o", path("bzout"), "--pages", "t"] + Q, check=False)
 pptest.check(p.returncode == 1 and "v.ome.tif" in p.stderr and "conflicts" in p.stderr and not os.path.exists(path("bzout")),
              "batch --pages t on an OME z-stack: refused naming both (%s)" % p.stderr.strip())
-p = pptest.run(["batch", zdir, "--psf", G1, "-o", path("bzout")] + Q, check=False)
-pptest.check(p.returncode == 1 and "z-slices" in p.stderr and "not built yet" in p.stderr,
-             "batch on an OME z-stack: refused, 3-D not built yet (%s)" % p.stderr.strip())
 p = pptest.run(["batch", tdir, "--psf", G1, "-o", path("btout")] + Q, check=False)
 pptest.check(p.returncode == 0 and os.path.exists(path("btout", "m.ome_p2", "mean.tif")),
              "batch on an OME time series without --pages: a frame per page")
+
+# batch: channels, one frame per channel with the k-th --psf (or a wavelength list)
+cdir = path("bc")
+os.makedirs(cdir)
+tifffile.imwrite(os.path.join(cdir, "c.ome.tif"), planes[:2], metadata={"axes": "CYX"})
+tifffile.imwrite(os.path.join(cdir, "p.tif"), planes[1:], photometric="minisblack")
+p = pptest.run(["batch", cdir, "--psf", G1, "--psf", G2, "-o", path("bcout")] + Q, check=False)
+pptest.check(p.returncode == 1 and "p.tif" in p.stderr and "--pages c" in p.stderr and not os.path.exists(path("bcout")),
+             "batch: a plain 2-page TIFF beside an OME channel file needs --pages c (%s)" % p.stderr.strip())
+pptest.run(["batch", cdir, "--psf", G1, "--psf", G2, "--pages", "c", "-o", path("bcout")] + Q)
+got = {d: json.load(open(path("bcout", d, "summary.json")))["psf"] for d in ("c.ome_c0", "c.ome_c1", "p_c0", "p_c1")}
+pptest.check(got == {"c.ome_c0": G1, "c.ome_c1": G2, "p_c0": G1, "p_c1": G2},
+             "batch --pages c: <stem>_c<k> with the k-th --psf (%s)" % got)
+AW = "airy:na=1.2,wavelength=0.5/0.6,pixel=0.2"
+pptest.run(["batch", cdir, "--psf", AW, "--pages", "c", "-o", path("bcw")] + Q)
+pptest.check(json.load(open(path("bcw", "p_c1", "summary.json")))["psf"] == "airy:na=1.2,wavelength=0.6,pixel=0.2",
+             "batch: one --psf with wavelength=0.5/0.6 gives channel 1 wavelength 0.6")
+tifffile.imwrite(os.path.join(cdir, "one.tif"), planes[0])
+p = pptest.run(["batch", cdir, "--psf", G1, "--psf", G2, "--pages", "c", "-o", path("bcone")] + Q, check=False)
+pptest.check(p.returncode == 1 and "one.tif" in p.stderr and "2 PSFs" in p.stderr and not os.path.exists(path("bcone")),
+             "batch with two --psf refuses a one-page file (%s)" % p.stderr.strip())
 
 pptest.check(all(open(path(f), "rb").read() == b for f, b in inputs.items()), "inputs unchanged")
 pptest.done()

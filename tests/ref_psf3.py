@@ -18,11 +18,10 @@ where sampling needs a 2-D one.
    the rest, 2 x 0.028; the kept voxels' noise adds ~0.01. The same
    measure between the true kernel and itself shifted by one voxel in x is
    printed and must exceed the tolerance (the check can fail).
-3. sample refuses a 3-D PSF (exit 1, one line naming --psf and saying 3-D
-   sampling is not built yet) and simulate refuses one for a single frame
-   (one line naming --psf and saying a 3-D PSF needs a z-stack; volumes:
-   tests/ref_simulate3d.py), and sample refuses a bead stack instead of
-   taking its first page; a widefield spec without step= is
+3. sample and simulate refuse a 3-D PSF for a single frame (exit 1, one
+   line naming --psf and saying a 3-D PSF blurs a z-stack; volumes:
+   tests/ref_pages_volume.py, tests/ref_simulate3d.py), and sample refuses a
+   bead stack for a frame instead of taking its first page; a widefield spec without step= is
    refused naming step=; a kernel above 2^27 voxels is refused.
 """
 import os
@@ -123,12 +122,11 @@ for cmd in (["sample", P("frame.tif"), "-o", P("o")],
     for spec in ("gaussian:sigma=1,sigma_z=2", "widefield:na=1.4,wavelength=0.52,pixel=0.065,step=0.2,n=1.515"):
         p = pptest.run(cmd + ["--psf", spec], check=False)
         lines = p.stderr.strip().splitlines()
-        why = "3-D sampling is not built yet" if cmd[0] == "sample" else "z-stack"
         pptest.check(p.returncode == 1 and len(lines) == 1 and "--psf" in p.stderr
-                     and why in p.stderr,
+                     and "3-D PSF" in p.stderr and "z-stack" in p.stderr,
                      "%s refuses %s (exit %d): %s" % (cmd[0], spec.split(":")[0], p.returncode, p.stderr.strip()))
 p = pptest.run(["sample", P("frame.tif"), "--psf", "file:" + P("bead.tif"), "-o", P("o2")], check=False)
-pptest.check(p.returncode == 1 and "bead.tif" in p.stderr and "3-D sampling is not built yet" in p.stderr
+pptest.check(p.returncode == 1 and "bead.tif" in p.stderr and "3-D bead stack" in p.stderr
              and len(p.stderr.strip().splitlines()) == 1,
              "sample refuses a bead stack instead of using its first page: %s" % p.stderr.strip())
 p = pptest.run(["psf", "gaussian:sigma=20,sigma_z=20", "--size", 4001, "-o", P("big.tif")], check=False)

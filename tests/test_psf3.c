@@ -66,7 +66,7 @@ static void check_refuse_2d(void)
         if (st == PP_OK)
             st = pp_psf_make(&s, 0, &k);
         const char *m = pp_error_message();
-        CHECK(st == PP_ERR_UNSUPPORTED && k == NULL && strstr(m, "3-D sampling is not built yet"),
+        CHECK(st == PP_ERR_UNSUPPORTED && k == NULL && strstr(m, "3-D PSF, which blurs a volume"),
               "%s refused by pp_psf_make: %s", specs[i], m);
     }
 }

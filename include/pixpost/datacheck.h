@@ -3,7 +3,9 @@
  * pp_datacheck_run() looks at the frame, the noise spec and the PSF kernel
  * and lists what makes the run meaningless (an error: do not sample) or
  * doubtful (a warning: sample, but say so). Non-finite pixels (NaN: the
- * shared convention for unobserved pixels) are skipped everywhere. Saturated
+ * shared convention for unobserved pixels) are skipped everywhere; a volume's
+ * voxels all count, and psf_size compares the slices with the kernel's
+ * slices (the sampler checks the depth). Saturated
  * pixels are not checked here (the missing-data helper's module does that).
  *
  * The checks and their rules (README "Checks of the data"; "our rule"

@@ -108,7 +108,8 @@ typedef struct pp_ppcheck {
 
 /* Computes the figures and warnings into a new *out (free with
  * pp_ppcheck_free). Fails with PP_ERR_ARG when the images differ in size,
- * the kernel does not fit or fewer than 16 pixels are left; PP_ERR_NOMEM.
+ * the kernel does not fit or fewer than 16 pixels are left; PP_ERR_NOMEM;
+ * PP_ERR_UNSUPPORTED for a volume (depth > 1): frames only.
  * Nothing is kept from in. Cost: one blur (two FFTs of the frame's size or
  * a padded grid), one r2c for the band power, a few passes. */
 pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out);

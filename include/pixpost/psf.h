@@ -85,7 +85,8 @@ pp_status pp_psf_make3(const pp_psf_spec *s, size_t size, size_t depth, pp_shape
 /* Makes the kernel. size = 0 chooses the size from the model (gaussian:
  * radius ceil(4 sigma); airy: radius of the 5th dark ring), otherwise size
  * must be odd. A file PSF keeps its own support when size = 0. A 3-D spec
- * (pp_psf_is_3d) is refused with PP_ERR_UNSUPPORTED: sampling is 2-D. */
+ * (pp_psf_is_3d) is refused with PP_ERR_UNSUPPORTED: it blurs volumes,
+ * and this makes a frame's kernel (pp_psf_make3 makes a volume's). */
 pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out);
 
 /* Refills an existing odd square kernel k with the gaussian or airy model

@@ -2,7 +2,8 @@
  *
  * A clipped pixel is not data about the intensity (the truth is only known
  * to be at least the clip level), so pixpost treats it as unobserved (NaN,
- * see pp_sampler_create) rather than as a measurement. Two rules, the first
+ * see pp_sampler_create) rather than as a measurement. A volume is taken
+ * as a whole (every voxel, one level for all slices). Two rules, the first
  * that applies:
  *   1. format maximum (integer input only): the value 2^bits - 1 of the
  *      file's sample format (255 for 8-bit, 65535 for 16-bit). Any pixel

@@ -9,7 +9,6 @@
  * metadata says it when present (pp_ome_page maps (z, c, t) to a page), the
  * caller otherwise. Limits: every page is checked against max_pixels as a
  * frame is, and the whole stack against size_t overflow before allocation.
- * Volumes are read but not yet sampled: the samplers are 2-D (README).
  */
 #ifndef PIXPOST_STACK_H
 #define PIXPOST_STACK_H

@@ -14,12 +14,17 @@
 #define BATCH_PATH 2048
 #define BATCH_MSG 1024
 
-/* One frame of the batch: a file, or one page of a multi-page TIFF. */
+/* One frame of the batch: a file, one page of a multi-page TIFF of time
+ * points or channels, or a multi-page TIFF of z-slices as one volume. */
 typedef struct batch_frame {
     char rel[BATCH_PATH];  /* path relative to INDIR, e.g. "sub/a.tif" */
     char stem[BATCH_PATH]; /* output folder relative to OUTDIR: "sub/a" or "sub/a_p2" */
     unsigned page;         /* 0-based page read */
-    unsigned pages;        /* pages of the file (1 for PNG or unreadable TIFFs) */
+    unsigned pages;        /* frames of the file: its pages when they are time points or
+                            * channels, else 1 (PNG, unreadable TIFFs, a volume) */
+    char kind;             /* 0 a frame (page), 'c' channel `page` with PSF psf, 'z' every
+                            * page: the z-slices of one volume */
+    size_t psf;            /* index into opts->psfs */
     uint64_t seed;         /* pp_hash_string(--seed, rel or rel + "#p<page+1>") */
     char clash[BATCH_MSG]; /* non-empty: the frame cannot run (same output as another) */
 } batch_frame;
@@ -72,11 +77,13 @@ typedef struct batch_ctx {
 /* ---- batch_list.c ---- */
 /* Lists the frames of indir (sorted; recursive; pattern NULL = all PNG/TIFF
  * names; a multi-page TIFF gives one frame per page when its pages are time
- * points: pages == 't' (--pages) or its OME metadata, else it is an error).
+ * points or channels (<stem>_c<k>, the k-th PSF when npsf > 1): pages ==
+ * 't' or 'c' (--pages) or its OME metadata; one volume when they are
+ * z-slices: pages == 'z' or the metadata; else it is an error).
  * *out is malloc'ed (caller frees); *skipped says what was left out by type.
  * Returns 0 or CLI_EXIT_USAGE (printed). */
-int batch_list(const char *indir, int recursive, const char *pattern, char pages, uint64_t seed,
-               batch_frame **out, size_t *n, batch_skipped *skipped);
+int batch_list(const char *indir, int recursive, const char *pattern, char pages, size_t npsf,
+               uint64_t seed, batch_frame **out, size_t *n, batch_skipped *skipped);
 /* Refuses an outdir that is indir or inside it (symlinks resolved). */
 int batch_check_outdir(const char *indir, const char *outdir);
 

@@ -15,6 +15,7 @@
  * sampling.
  */
 #include "batch.h"
+#include "pixpost/stack.h"
 #include <errno.h>
 #include <math.h>
 #include <signal.h>
@@ -49,6 +50,20 @@ void batch_do_frame(const batch_ctx *c, size_t i, batch_row *r)
     memset(&fr, 0, sizeof fr);
     fr.frame = in;
     fr.page = f->page;
+    fr.volume = f->kind == 'z';
+    fr.psf = &c->opts->psfs[f->psf];
+    fr.psf_text = c->opts->psf_texts[f->psf];
+    /* the voxel size as sample finds it (units.c): summary.json and the prior */
+    double voxel[3];
+    int known = 0;
+    pp_ome_meta ome;
+    unsigned npages;
+    if (pp_stack_probe(in, &npages, &ome) != PP_OK)
+        ome.present = 0; /* the read below says what is wrong */
+    if (cli_voxel_resolve(c->opts, &ome, fr.volume ? fr.psf : NULL, in, voxel, &known,
+                          r->message, sizeof r->message))
+        return;
+    fr.voxel_um = known ? voxel : NULL;
     fr.outdir = out;
     fr.seed = f->seed;
     fr.threads = c->threads_per_frame;

@@ -112,23 +112,34 @@ static int is_tiff_name(const char *rel)
            (n > 5 && strcasecmp(rel + n - 5, ".tiff") == 0);
 }
 
-/* Frames of a TIFF: its pages when they are time points (--pages t or the
- * OME metadata; units.c), 1 when it is not a readable TIFF (the worker
- * reports). Other multi-page files are an error (printed). */
-static int count_pages(const char *indir, const char *rel, char given, unsigned *frames)
+/* Frames of a TIFF: its pages when they are time points or channels
+ * (--pages t or c, or the OME metadata; units.c), 1 when it is not a
+ * readable TIFF (the worker reports) or a volume (*kind 'z': z-slices by
+ * --pages z or the metadata). Other multi-page files are an error
+ * (printed). */
+static int count_pages(const char *indir, const char *rel, char given, size_t npsf,
+                       unsigned *frames, char *kind)
 {
     char full[BATCH_PATH * 2], msg[1024];
     snprintf(full, sizeof full, "%s/%s", indir, rel);
     *frames = 1;
-    if (is_tiff_name(rel) && cli_units_batch_pages(full, given, frames, msg, sizeof msg))
+    *kind = 0;
+    if (!is_tiff_name(rel) && npsf > 1)
+        return cli_error("batch: %s: one frame, and --psf gives %zu PSFs (one per channel): "
+                         "give one --psf, or put only multi-channel TIFFs in the folder",
+                         full, npsf);
+    if (is_tiff_name(rel) &&
+        cli_units_batch_pages(full, given, npsf, frames, kind, msg, sizeof msg))
         return cli_error("batch: %s", msg);
     return 0;
 }
 
-static void fill_frame(batch_frame *f, const char *rel, unsigned page, unsigned pages,
-                       uint64_t seed)
+static void fill_frame(batch_frame *f, const char *rel, unsigned page, unsigned pages, char kind,
+                       size_t npsf, uint64_t seed)
 {
     memset(f, 0, sizeof *f);
+    f->kind = kind;
+    f->psf = kind == 'c' && npsf > 1 ? page : 0;
     snprintf(f->rel, sizeof f->rel, "%s", rel);
     f->page = page;
     f->pages = pages;
@@ -137,7 +148,10 @@ static void fill_frame(batch_frame *f, const char *rel, unsigned page, unsigned 
     char *dot = strrchr(stem, '.'), *slash = strrchr(stem, '/');
     if (dot && (!slash || dot > slash))
         *dot = '\0';
-    if (pages > 1) {
+    if (pages > 1 && kind == 'c') { /* channels counted from 0, as sample's c<k> */
+        snprintf(key, sizeof key, "%s#c%u", rel, page);
+        snprintf(f->stem, sizeof f->stem, "%.*s_c%u", BATCH_PATH - 16, stem, page);
+    } else if (pages > 1) {
         snprintf(key, sizeof key, "%s#p%u", rel, page + 1);
         snprintf(f->stem, sizeof f->stem, "%.*s_p%u", BATCH_PATH - 16, stem, page + 1);
     } else {
@@ -177,16 +191,21 @@ static int mark_clashes(batch_frame *f, size_t n)
     return 0;
 }
 
-static int expand_pages(const char *indir, const name_list *l, char given, uint64_t seed,
-                        batch_frame **out, size_t *n)
+static int expand_pages(const char *indir, const name_list *l, char given, size_t npsf,
+                        uint64_t seed, batch_frame **out, size_t *n)
 {
     unsigned *pages = malloc((l->n ? l->n : 1) * sizeof *pages);
-    if (!pages)
+    char *kind = malloc(l->n ? l->n : 1);
+    if (!pages || !kind) {
+        free(pages);
+        free(kind);
         return cli_error("batch: out of memory");
+    }
     size_t total = 0;
     for (size_t i = 0; i < l->n; i++) {
-        if (count_pages(indir, l->v[i], given, &pages[i])) {
+        if (count_pages(indir, l->v[i], given, npsf, &pages[i], &kind[i])) {
             free(pages);
+            free(kind);
             return CLI_EXIT_USAGE;
         }
         total += pages[i];
@@ -194,13 +213,15 @@ static int expand_pages(const char *indir, const name_list *l, char given, uint6
     batch_frame *f = calloc(total ? total : 1, sizeof *f);
     if (!f) {
         free(pages);
+        free(kind);
         return cli_error("batch: out of memory (%zu frames)", total);
     }
     size_t k = 0;
     for (size_t i = 0; i < l->n; i++)
         for (unsigned p = 0; p < pages[i]; p++)
-            fill_frame(&f[k++], l->v[i], p, pages[i], seed);
+            fill_frame(&f[k++], l->v[i], p, pages[i], kind[i], npsf, seed);
     free(pages);
+    free(kind);
     *out = f;
     *n = total;
     return mark_clashes(f, total);
@@ -230,8 +251,8 @@ static void describe_skipped(name_list *skip, int recursive, batch_skipped *out)
                  " (names ending in / are folders: add --recursive to take their frames)");
 }
 
-int batch_list(const char *indir, int recursive, const char *pattern, char pages, uint64_t seed,
-               batch_frame **out, size_t *n, batch_skipped *skipped)
+int batch_list(const char *indir, int recursive, const char *pattern, char pages, size_t npsf,
+               uint64_t seed, batch_frame **out, size_t *n, batch_skipped *skipped)
 {
     *out = NULL;
     *n = 0;
@@ -241,7 +262,7 @@ int batch_list(const char *indir, int recursive, const char *pattern, char pages
         describe_skipped(&skip, recursive, skipped);
         if (l.n)
             qsort(l.v, l.n, sizeof *l.v, cmp_name);
-        rc = expand_pages(indir, &l, pages, seed, out, n);
+        rc = expand_pages(indir, &l, pages, npsf, seed, out, n);
     }
     free(l.v);
     free(skip.v);

@@ -187,8 +187,10 @@ typedef struct cli_sample_opts {
     double voxel[2];        /* --voxel XY,Z in micrometres; 0, 0 when not given */
     long plane;             /* --plane K (a page, from 0), or -1 */
     int channel_all;        /* --channel all */
-    size_t npsf;            /* --psf values given, 1 .. CLI_MAX_PSF; psf above is psfs[0] */
+    size_t npsf;            /* --psf values given, 1 .. CLI_MAX_PSF; psf above is psfs[0]
+                             * (one spec with wavelength=L1/L2/..: one per wavelength) */
     const char *psf_texts[CLI_MAX_PSF];
+    char psf_bufs[CLI_MAX_PSF][512]; /* the texts of a wavelength list, one per channel */
     pp_psf_spec psfs[CLI_MAX_PSF];
 } cli_sample_opts;
 
@@ -217,7 +219,9 @@ void cli_sample_help(FILE *fp);
 #define CLI_MAX_UNITS 64 /* frames one `sample` run takes from one file */
 
 typedef struct cli_unit {
-    unsigned page;       /* TIFF page to read */
+    unsigned page;       /* TIFF page to read (a frame) */
+    int volume;          /* 1: the z-slices at channel c, time point t, as one volume */
+    unsigned c, t;
     size_t psf;          /* index into o->psfs */
     int channel_set;     /* --channel all: channel replaces o->read.channel */
     pp_channel channel;
@@ -235,7 +239,7 @@ typedef struct cli_units {
     int from_ome;       /* the role came from the OME metadata */
     unsigned pages;     /* pages of the file */
     pp_ome_meta ome;
-    double voxel[3];    /* z, y, x in micrometres (OME, else --voxel); NaN unknown */
+    double voxel[3];    /* z, y, x in micrometres (cli_voxel_resolve); NaN unknown */
     int have_voxel;     /* any of them known */
 } cli_units;
 
@@ -253,11 +257,34 @@ int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, ch
  * CLI_EXIT_USAGE with one sentence in msg naming the file or option. */
 int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
                    size_t len);
-/* For batch: the frames path gives (its pages when they are time points
- * by the OME metadata or given == 't'; 1 for a single page). Other pages
- * (z-slices, channels, or unknown without --pages) are refused: 0 or
- * CLI_EXIT_USAGE with one sentence in msg naming the file. */
-int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *msg, size_t len);
+/* The voxel size {z, y, x} in micrometres of file frame with OME metadata
+ * ome (may be NULL) sampled with the PSF psf (may be NULL), per axis from
+ * the first that gives it: the OME metadata, --voxel, the PSF spec
+ * (widefield pixel= and step=, airy pixel=); NaN where none does, *known
+ * = 1 when any axis is known. A spec whose pixel= or step= differs from the
+ * size the metadata or --voxel gives (relative 1e-6) is refused: the
+ * kernel would be made on another grid. Returns 0, or CLI_EXIT_USAGE with
+ * one sentence in msg naming --psf, the file and the key to give. */
+int cli_voxel_resolve(const cli_sample_opts *o, const pp_ome_meta *ome, const pp_psf_spec *psf,
+                      const char *frame, double out[3], int *known, char *msg, size_t len);
+/* What the pages of frame are, without planning units (simulate, which
+ * takes one frame or one volume): u's pages, OME metadata, voxel size
+ * (metadata, else --voxel) and role ('z', 't', 'c'; 0 for one page; with
+ * --plane K the file's role, the caller picks the page). --channel all
+ * leaves the role 0. Returns 0, or CLI_EXIT_USAGE with one sentence in msg
+ * as cli_units_plan. */
+int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                   size_t len);
+/* For batch: the units path gives. *frames: its pages when they are time
+ * points (*kind 0) or channels (*kind 'c': page k is channel k, with the
+ * k-th PSF when npsf > 1), by the OME metadata or given (--pages); 1 for a
+ * single page (*kind 0); 1 with *kind 'z' when its pages are the z-slices of
+ * one volume (OME SizeZ, or given == 'z' without metadata). Refused: z-slices
+ * of several channels or time points, multi-page files without either, and
+ * npsf > 1 PSFs for a file without that many channels: 0 or CLI_EXIT_USAGE
+ * with one sentence in msg naming the file. */
+int cli_units_batch_pages(const char *path, char given, size_t npsf, unsigned *frames,
+                          char *kind, char *msg, size_t len);
 /* Writes OUTDIR/channels.json (role 'c') or OUTDIR/frames.json (role 't')
  * after every unit ran. Returns 0 or CLI_EXIT_USAGE with msg set. */
 int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const char *frame,
@@ -315,7 +342,10 @@ int cli_plans_save(const cli_sample_opts *o, cli_plans *p, const pp_sampler *s, 
  * back. The caller fills the inputs; the outputs are set by the call. */
 typedef struct cli_frame_run {
     const char *frame;        /* input file */
-    unsigned page;            /* TIFF page, 0-based (0 for PNG) */
+    unsigned page;            /* TIFF page, 0-based (0 for PNG); unused for a volume */
+    int volume;               /* 1: every z-slice (of channel vol_c at time point vol_t when
+                               * the OME metadata has several) read as one volume */
+    unsigned vol_c, vol_t;
     const pp_psf_spec *psf;   /* NULL: o->psf (units.c sets one per channel) */
     const char *psf_text;     /* NULL: o->psf_text */
     int channel_set;          /* 1: channel replaces o->read.channel (--channel all) */

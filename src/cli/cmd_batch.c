@@ -56,7 +56,10 @@ static void batch_help(FILE *fp)
           "       mpirun -n R pixpost batch ...   (MPI builds: rank 0 hands frames out)\n\n"
           "Samples every PNG/TIFF frame of INDIR (sorted by path; a multi-page TIFF whose pages\n"
           "are time points, by --pages t or its OME metadata, gives one frame per page, named\n"
-          "<stem>_p<page> with pages counted from 1; other multi-page TIFFs are refused) into\n"
+          "<stem>_p<page> with pages counted from 1; one whose pages are channels, by --pages c\n"
+          "or its OME metadata, one frame per channel named <stem>_c<k> (from 0) with the k-th\n"
+          "--psf when several are given; one whose pages are z-slices, by --pages z or its OME\n"
+          "metadata, is one volume, named <stem>; other multi-page TIFFs are refused) into\n"
           "OUTDIR/<relative stem>/, exactly as 'pixpost sample' writes it, then writes the\n"
           "completion marker .done last. Each frame's seed is a hash of --seed and its\n"
           "relative path, so results do not depend on order, jobs, shards or ranks.\n"
@@ -151,6 +154,8 @@ static void settings_text(const cli_args *a, const cli_sample_opts *o, char *buf
             used +=
                 (size_t)snprintf(buf + used, len - used, "--%s=%s\n", t->name, cli_str(a, t->name));
     }
+    for (size_t k = 1; k < o->npsf && used < len; k++) /* one PSF per channel */
+        used += (size_t)snprintf(buf + used, len - used, "psf%zu %s\n", k, o->psf_texts[k]);
     if (o->mask && used < len) { /* a mask edited in place changes every frame's result */
         struct stat sb;
         memset(&sb, 0, sizeof sb);
@@ -431,13 +436,11 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
     rc = rc ? rc : batch_check_outdir(a->pos[0], o->outdir);
     if (rc)
         return rc;
-    if (o->pages == 'z' || o->pages == 'c' || o->plane >= 0 || o->channel_all || o->npsf > 1)
+    if (o->plane >= 0 || o->channel_all)
         return cli_error("batch: %s is for pixpost sample (batch takes --pages t: each page of "
-                         "a multi-page TIFF a frame, and one --psf)",
-                         o->pages == 'z' || o->pages == 'c' ? (o->pages == 'z' ? "--pages z"
-                                                                              : "--pages c")
-                         : o->plane >= 0 ? "--plane" : o->channel_all ? "--channel all"
-                                                                      : "more than one --psf");
+                         "a multi-page TIFF a frame, --pages c: each page a channel, or --pages "
+                         "z: each file one volume)",
+                         o->plane >= 0 ? "--plane" : "--channel all");
     char msg[BATCH_MSG];
     if (cli_check_outdir(o->outdir, o->overwrite, msg, sizeof msg) != 0)
         return cli_error("%s", msg);
@@ -451,8 +454,8 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
     c->outdir = o->outdir;
     recorded_command(argc, argv, c->command_line, sizeof c->command_line);
     settings_text(a, o, c->settings, sizeof c->settings);
-    if ((rc = batch_list(c->indir, ro->recursive, ro->pattern, o->pages, o->cfg.seed, &c->frames,
-                         &c->nframes, &c->skipped)) != 0)
+    if ((rc = batch_list(c->indir, ro->recursive, ro->pattern, o->pages, o->npsf, o->cfg.seed,
+                         &c->frames, &c->nframes, &c->skipped)) != 0)
         return rc;
     if (c->nframes == 0)
         return cli_error("%s: no PNG or TIFF frames found%s%s%s%s%s", c->indir,

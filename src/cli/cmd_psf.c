@@ -44,7 +44,7 @@ void cli_psf_help(FILE *fp)
           "Born & Wolf) with optional sample_n=NS,depth=D (the sample's index and the\n"
           "depth below the coverslip in micrometres: Gibson & Lanni's index mismatch);\n"
           "file:STACK.tif with more than one page (a bead stack: background removed,\n"
-          "centred). Sampling is 2-D today: sample and simulate refuse 3-D PSFs.\n\n"
+          "centred). pixpost sample takes them for z-stacks sampled as volumes (--pages z).\n\n"
           "Options:\n",
           fp);
     cli_print_options(fp, tables, NULL, NULL);

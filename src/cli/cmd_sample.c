@@ -22,7 +22,7 @@ static void join_args(int argc, char **argv, char *buf, size_t len)
 /* The summary lines: outputs, headline figures, the verdict sentence
  * (pp_convergence_verdict: which part failed, the --iters to ask for),
  * then each warning and note. */
-static void print_verdict(const pp_sampler *s, const char *outdir, double seconds)
+static void print_verdict(const pp_sampler *s, const char *outdir, int volume, double seconds)
 {
     size_t nw = pp_sampler_warning_count(s);
     const pp_trace *t = pp_sampler_trace(s);
@@ -36,9 +36,10 @@ static void print_verdict(const pp_sampler *s, const char *outdir, double second
                  nw == 1 ? "" : "s", cv.hyper_warnings, cv.pixel_warnings,
                  nw - cv.hyper_warnings - cv.pixel_warnings);
     fprintf(stderr,
-            "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse, residual .tif; mean, sd .png; "
+            "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse%s .tif; %s .png; "
             "summary.json; trace.csv; report.html)\n",
-            outdir);
+            outdir, volume ? ", multi-page" : ", residual",
+            volume ? "mean_mip, sd_mip (maximum over z)" : "mean, sd");
     fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; worst R-hat %.3f, lowest "
                     "bulk-ESS %.0f: %s\n",
             t->chains, t->kept, seconds, cv.rhat_max, cv.ess_bulk_min, count);
@@ -95,6 +96,9 @@ static int run_unit(const cli_sample_opts *o, const cli_units *us, cli_unit *u,
     memset(&r, 0, sizeof r);
     r.frame = o->frame;
     r.page = u->page;
+    r.volume = u->volume;
+    r.vol_c = u->c;
+    r.vol_t = u->t;
     r.outdir = outdir;
     r.psf = &o->psfs[u->psf];
     r.psf_text = o->psf_texts[u->psf];
@@ -102,9 +106,12 @@ static int run_unit(const cli_sample_opts *o, const cli_units *us, cli_unit *u,
     r.channel = u->channel;
     if (u->channel_set)
         snprintf(part, sizeof part, "channel %s", colour[(size_t)(u - us->unit) % 3]);
+    else if (u->volume)
+        snprintf(part, sizeof part, "%s %u (its z-slices)", us->role == 'c' ? "channel" : "time point",
+                 us->role == 'c' ? u->c : u->t);
     else
         snprintf(part, sizeof part, "page %u", u->page);
-    r.part = us->pages > 1 || u->channel_set ? part : NULL;
+    r.part = (us->pages > 1 && !(u->volume && !us->role)) || u->channel_set ? part : NULL;
     r.voxel_um = us->have_voxel ? us->voxel : NULL;
     r.seed = o->cfg.seed;
     r.threads = o->cfg.threads;
@@ -120,7 +127,7 @@ static int run_unit(const cli_sample_opts *o, const cli_units *us, cli_unit *u,
     if (rc && r.interrupted && *r.stop)
         rc = 128 + (int)*r.stop; /* as a process killed by the signal (and as batch) */
     if (!rc && !o->quiet)
-        print_verdict(r.sampler, outdir, cli_since(t0));
+        print_verdict(r.sampler, outdir, u->volume, cli_since(t0));
     if (!rc && !o->quiet)
         print_checks(&r);
     if (!rc) {

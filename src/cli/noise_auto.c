@@ -27,6 +27,14 @@ int cli_noise_auto_run(const cli_sample_opts *o, const char *path, const pp_imag
     memset(na, 0, sizeof *na);
     if (!o->noise_auto)
         return 0;
+    if (frame->depth > 1) {
+        snprintf(msg, len,
+                 "%s: --noise auto fits the noise of one frame, and this is a volume; fit one "
+                 "slice (pixpost sample %s --plane K --noise auto prints the model) and give "
+                 "that model here (--noise camera:...)",
+                 path, path);
+        return CLI_EXIT_USAGE;
+    }
     na->used = 1;
     pp_frame_fit_config cfg;
     pp_frame_fit_defaults(&cfg);

@@ -1,7 +1,9 @@
 /* pixpost command line — sample one frame into a folder: read the frame (a
- * chosen page), mark its masked and saturated pixels unobserved (NaN;
- * unobserved.c), make the PSF, create and run the sampler (with an optional
- * progress display and a stop flag), write the outputs with pp_output_write.
+ * chosen page; or every z-slice as one volume, blurred by a 3-D PSF, a bead
+ * stack or a 2-D PSF that blurs each slice alone), mark its masked and
+ * saturated pixels unobserved (NaN; unobserved.c), make the PSF, create and
+ * run the sampler (with an optional progress display and a stop flag),
+ * write the outputs with pp_output_write.
  * Before the sampler is made the data are checked against the model
  * (datacheck.h: an error stops the frame), after the run the fit is
  * (ppcheck.h: warnings and residual.tif).
@@ -16,10 +18,12 @@
  */
 #include "cli.h"
 #include "pixpost/output.h"
+#include "pixpost/stack.h"
 #include <errno.h>
 #include <signal.h>
 #include <stdarg.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
 #include <time.h>
@@ -156,17 +160,73 @@ int cli_make_dirs(const char *path, char *msg, size_t len)
     return 0;
 }
 
-static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **frame)
+/* The z-slices of r->frame as one volume: every page, or with OME metadata
+ * of several channels or time points the slices of channel vol_c at time
+ * point vol_t (pp_ome_page). --max-pixels counts voxels, checked on the
+ * first page's size before the stack is read (so page 0 is read twice, a
+ * small cost beside the stack's). Peak memory: the stack and the volume. */
+static int read_volume(const cli_sample_opts *o, cli_frame_run *r, pp_image **out)
 {
     pp_read_options ro = o->read;
-    ro.page = r->page;
+    ro.page = 0;
     if (r->channel_set)
         ro.channel = r->channel;
-    pp_status st = pp_image_read(r->frame, &ro, frame, &r->info);
+    pp_image *first = NULL;
+    pp_ome_meta ome;
+    unsigned pages;
+    pp_status st = pp_stack_probe(r->frame, &pages, &ome);
+    if (st == PP_OK)
+        st = pp_image_read(r->frame, &ro, &first, &r->info);
     if (st != PP_OK)
         return fail_lib(r, st);
-    if (r->info.pages > 1 && r->announce_pages)
-        fprintf(stderr, "pixpost: %s: %u pages; using page %u\n", r->frame, r->info.pages, r->page);
+    size_t h = first->height, w = first->width, nz = ome.present ? ome.nz : pages;
+    pp_image_free(first);
+    if (nz < 2)
+        return fail_msg(r, "%s: one z-slice only, not a volume; sample it as a frame (drop "
+                           "--pages z)", r->frame);
+    if (h * w > o->read.max_pixels / nz)
+        return fail_msg(r, "%s: a volume of %zu z-slices of %zux%zu pixels, more voxels than "
+                           "--max-pixels %zu; raise --max-pixels, or sample one slice with "
+                           "--plane K",
+                        r->frame, nz, w, h, o->read.max_pixels);
+    pp_stack *s = NULL;
+    if ((st = pp_stack_read(r->frame, &ro, &s, &r->info)) != PP_OK)
+        return fail_lib(r, st);
+    if ((st = pp_image_create3(nz, h, w, out)) != PP_OK) {
+        pp_stack_free(s);
+        return fail_lib(r, st);
+    }
+    for (size_t z = 0; z < nz; z++) {
+        size_t page = ome.present ? pp_ome_page(&ome, z, r->vol_c, r->vol_t) : z;
+        memcpy((*out)->data + z * h * w, s->data + page * h * w, h * w * sizeof *s->data);
+    }
+    pp_stack_free(s);
+    double lo, hi;
+    r->info.nonfinite = pp_image_range(*out, &lo, &hi); /* of these slices only */
+    if (r->announce_pages)
+        fprintf(stderr, "pixpost: %s: %zu z-slices of %zux%zu, sampled as one volume\n",
+                r->frame, nz, w, h);
+    return 0;
+}
+
+static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **frame)
+{
+    pp_status st;
+    if (r->volume) {
+        int rc = read_volume(o, r, frame);
+        if (rc)
+            return rc;
+    } else {
+        pp_read_options ro = o->read;
+        ro.page = r->page;
+        if (r->channel_set)
+            ro.channel = r->channel;
+        if ((st = pp_image_read(r->frame, &ro, frame, &r->info)) != PP_OK)
+            return fail_lib(r, st);
+        if (r->info.pages > 1 && r->announce_pages)
+            fprintf(stderr, "pixpost: %s: %u pages; using page %u\n", r->frame, r->info.pages,
+                    r->page);
+    }
     if (r->info.nonfinite)
         return fail_msg(r, "%s: %zu pixels are NaN or infinite; repair them, or mark them "
                            "with --mask FILE (nonzero = ignore) after setting them to a number",
@@ -175,10 +235,41 @@ static int read_frame(const cli_sample_opts *o, cli_frame_run *r, pp_image **fra
     if (rc)
         return rc;
     char line[512];
-    cli_unobserved_line(r, (*frame)->width * (*frame)->height, line, sizeof line);
+    cli_unobserved_line(r, pp_image_count(*frame), line, sizeof line);
     if (line[0] && r->announce_pages && !o->quiet)
         fprintf(stderr, "pixpost: %s: note: %s\n", r->frame, line);
     return 0;
+}
+
+/* The kernel for the frame: a 2-D spec as always (for a volume: one slice
+ * deep, no blur across z); for a volume a 3-D spec or a file: (a bead
+ * stack, or one page: one slice deep) by pp_psf_make3. A 3-D spec for a
+ * frame is refused here, naming both ways on. */
+static int make_psf(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
+                    pp_image **psf)
+{
+    const pp_psf_spec *spec = r->psf ? r->psf : &o->psf;
+    const char *text = r->psf_text ? r->psf_text : o->psf_text;
+    pp_status st;
+    if (frame->depth == 1 && pp_psf_is_3d(spec))
+        return fail_msg(r, "--psf %s: a 3-D PSF, and %s is sampled as one frame; a 3-D PSF "
+                           "blurs a volume: sample a z-stack as a volume (--pages z) or give a "
+                           "2-D PSF (gaussian:sigma=S, airy:..., file: of one bead image)",
+                        text, r->frame);
+    if (frame->depth == 1 || (!pp_psf_is_3d(spec) && spec->kind != PP_PSF_FILE)) {
+        st = pp_psf_make(spec, 0, psf);
+        return st == PP_OK ? 0 : fail_lib(r, st);
+    }
+    pp_shape sh;
+    double *k = NULL;
+    if ((st = pp_psf_make3(spec, 0, 0, &sh, &k)) != PP_OK)
+        return fail_lib(r, st);
+    size_t nz = sh.rank == 3 ? sh.n[0] : 1;
+    st = pp_image_create3(nz, sh.n[sh.rank - 2], sh.n[sh.rank - 1], psf);
+    if (st == PP_OK)
+        memcpy((*psf)->data, k, pp_image_count(*psf) * sizeof *k);
+    free(k);
+    return st == PP_OK ? 0 : fail_lib(r, st);
 }
 
 /* The checks of the data before sampling (include/pixpost/datacheck.h):
@@ -219,6 +310,8 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     cfg.stop = r->stop;
     if (r->psf)
         cfg.psf = *r->psf;
+    for (int i = 0; i < 3; i++) /* {z, y, x} micrometres; 0 unknown (NaN here) */
+        cfg.voxel[i] = r->voxel_um && r->voxel_um[i] > 0 ? r->voxel_um[i] : 0.0;
     pp_status st = pp_sampler_create(&cfg, frame, psf, &r->sampler);
     return st == PP_OK ? 0 : fail_frame(r, st);
 }
@@ -279,7 +372,6 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
 int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
 {
     pp_image *frame = NULL, *psf = NULL;
-    pp_status st;
     r->sampler = NULL;
     r->predictive = NULL;
     r->predictive_note[0] = '\0';
@@ -293,8 +385,8 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     int rc = read_frame(o, r, &frame);
     if (!rc)
         rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
-    if (!rc && (st = pp_psf_make(r->psf ? r->psf : &o->psf, 0, &psf)) != PP_OK)
-        rc = fail_lib(r, st);
+    if (!rc)
+        rc = make_psf(o, r, frame, &psf);
     if (!rc)
         rc = check_data(o, r, frame, psf, &na);
     if (!rc)

@@ -29,22 +29,26 @@ static const cli_opt sample_table[] = {
      "sample-plane pixel, camera pixel / magnification) or file:PATH (an image of one bead). "
      "An uncertain width is sampled with "
      "gaussian:sigma=auto[,lo=A,hi=B] (default 0.5..4 px) or airy:na=auto[,lo=A,hi=B],"
-     "wavelength=L,pixel=P (default 0.4..1.5), gibbs or mtc only. 3-D PSFs (sigma_z=, "
-     "widefield:) are refused: sampling is 2-D (pixpost psf --help). Required."},
+     "wavelength=L,pixel=P (default 0.4..1.5), gibbs or mtc only. Volumes (--pages z) also "
+     "take 3-D PSFs: gaussian:sigma=S,sigma_z=Z (slices), widefield:na=NA,wavelength=L,"
+     "pixel=P,step=DZ,n=N or file:STACK (a bead stack); a 2-D PSF blurs each z-slice alone "
+     "(pixpost psf --help). One spec with wavelength=L1/L2/.. (airy, widefield) stands for "
+     "one per channel, in order. Required."},
     {"noise", 0, 1, "SPEC",
      "Noise model: gaussian (precision sampled), gaussian:sigma=S (fixed, camera units), "
      "poisson:gain=G,offset=O or camera:gain=G,offset=O,read=R. Required keys: gain G in ADU "
      "per electron (or e_per_adu=E, the electrons per ADU that camera data sheets print; "
      "G = 1/E), offset O the camera's dark level in ADU, read R the read noise in electrons. "
      "auto: estimated from the frame (camera:gain,offset,read by the single-frame fit of "
-     "'pixpost calibrate --frame'; gaussian when the noise does not grow with the signal); "
+     "'pixpost calibrate --frame'; gaussian when the noise does not grow with the signal; "
+     "frames only, a volume is refused); "
      "the estimate is printed and recorded in summary.json (\"noise_estimate\")."},
     {"prior", 0, 1, "SPEC",
      "Prior: adaptive[:nu=V,block=B] (a GMRF whose precision varies over the frame: "
      "Student-t increments with nu degrees of freedom times one log-precision per B x B "
      "block; gibbs, and hmc for photon counts), or the stationary gmrf1, gmrf2 or "
      "matern:range=R,nu=V, each of which also takes delta=D to fix the prior precision "
-     "(README, \"Which prior\")."},
+     "(README, \"Which prior\"). A volume (--pages z) takes the stationary ones only."},
     {"positivity", 0, 1, "log|none",
      "pcn/gpcn/hmc: log samples the log intensity z (x = exp(z) > 0; default for poisson/camera), "
      "none samples x itself (default for gaussian). With log, the prior and mean=M apply to z."},
@@ -89,10 +93,10 @@ static const cli_opt sample_table[] = {
      "channel of an RGB image, each sampled as a frame with its own --psf into OUTDIR/c0 (r), "
      "c1 (g), c2 (b), listed in OUTDIR/channels.json."},
     {"pages", 0, 1, "z|t|c",
-     "What the pages of a multi-page TIFF are: z (z-slices of one volume; 3-D sampling is not "
-     "built yet, so choose one slice with --plane K), t (time points: each page sampled as a "
-     "frame into OUTDIR/t<k>/) or c (channels: each page with its own --psf into "
-     "OUTDIR/c<k>/). OME-TIFF metadata decides when present (a different --pages is an "
+     "What the pages of a multi-page TIFF are: z (z-slices of one volume, sampled as a whole "
+     "into OUTDIR; with OME channels or time points, one volume each into OUTDIR/c<k>/ or "
+     "t<k>/), t (time points: each page sampled as a frame into OUTDIR/t<k>/) or c "
+     "(channels: each page with its own --psf into OUTDIR/c<k>/). OME-TIFF metadata decides when present (a different --pages is an "
      "error); a multi-page TIFF with neither is refused. A single-page file is one frame "
      "whatever --pages says."},
     {"plane", 0, 1, "K",
@@ -100,12 +104,17 @@ static const cli_opt sample_table[] = {
      "z-slice of a volume)."},
     {"voxel", 0, 1, "XY,Z",
      "Voxel size in micrometres (pixel size in the plane, z spacing) when the OME metadata "
-     "does not give it; recorded in summary.json (\"voxel_um\")."},
-    {"max-pixels", 0, 1, "N", "Refuse frames with more than N pixels (whole number >= 1)."},
+     "does not give it (a volume without either takes the PSF spec's pixel= and step=); "
+     "weighs the prior's increments along each axis of a volume; recorded in summary.json "
+     "(\"voxel_um\")."},
+    {"max-pixels", 0, 1, "N",
+     "Refuse frames with more than N pixels, volumes with more than N voxels (whole number "
+     ">= 1)."},
     {"mask", 0, 1, "FILE",
      "Pixels to ignore: a grayscale PNG or TIFF of the frame's size where NONZERO marks a "
      "pixel that is not data (a hot pixel, a scratch, a saturated nucleus) and zero a pixel "
-     "that is. Ignored pixels are unobserved: left out of the likelihood, still estimated "
+     "that is; for a volume one page (the same pixels in every z-slice) or one page per "
+     "z-slice. Ignored pixels are unobserved: left out of the likelihood, still estimated "
      "(from their neighbours, with wider bounds)."},
     {"keep-saturated", 0, 0, "",
      "Use saturated pixels as data. Without it, pixels at the format's maximum (255 for "
@@ -203,6 +212,42 @@ static int lib_check(pp_status st)
     return st == PP_OK ? 0 : cli_fail(st);
 }
 
+/* One --psf whose wavelength= is a list L1/L2/.. (our own syntax) stands
+ * for one spec per channel, in order, each with one of the wavelengths:
+ * o->psf_texts then point at o->psf_bufs. Nothing to do without a '/'
+ * in the value of a wavelength= key. */
+static int expand_wavelengths(cli_sample_opts *o)
+{
+    const char *t = o->psf_texts[0], *key = strstr(t, "wavelength=");
+    while (key && key > t && key[-1] != ':' && key[-1] != ',')
+        key = strstr(key + 1, "wavelength=");
+    if (!key)
+        return 0;
+    const char *v = key + strlen("wavelength="), *end = strchr(v, ',');
+    size_t vlen = end ? (size_t)(end - v) : strlen(v);
+    if (!memchr(v, '/', vlen))
+        return 0;
+    if (strlen(t) >= sizeof o->psf_bufs[0])
+        return cli_opt_error("psf", "'%.60s...' is too long for a wavelength list", t);
+    size_t n = 0;
+    for (const char *a = v; a <= v + vlen; n++) {
+        const char *b = memchr(a, '/', (size_t)(v + vlen - a));
+        size_t alen = b ? (size_t)(b - a) : (size_t)(v + vlen - a);
+        if (!alen || n == CLI_MAX_PSF)
+            return cli_opt_error("psf",
+                                 "'%s': wavelength=%.*s is not a list of up to %d wavelengths "
+                                 "(expected wavelength=L1/L2/..., one per channel in channel "
+                                 "order, e.g. 0.52/0.61)",
+                                 t, (int)vlen, v, CLI_MAX_PSF);
+        snprintf(o->psf_bufs[n], sizeof o->psf_bufs[n], "%.*s%.*s%s", (int)(v - t), t, (int)alen,
+                 a, v + vlen);
+        o->psf_texts[n] = o->psf_bufs[n];
+        a += alen + 1;
+    }
+    o->npsf = n;
+    return 0;
+}
+
 static int parse_specs(const cli_args *a, cli_sample_opts *o)
 {
     int rc;
@@ -211,6 +256,8 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
     o->npsf = cli_strs(a, "psf", o->psf_texts, CLI_MAX_PSF);
     if (o->npsf == CLI_MAX_PSF && cli_strs(a, "psf", o->psf_texts, CLI_MAX_PSF + 1) > CLI_MAX_PSF)
         return cli_opt_error("psf", "given more than %d times (one per channel)", CLI_MAX_PSF);
+    if (o->npsf == 1 && (rc = expand_wavelengths(o)) != 0)
+        return rc;
     for (size_t k = 0; k < o->npsf; k++)
         if ((rc = lib_check(pp_psf_parse(o->psf_texts[k], &o->psfs[k]))) != 0)
             return rc;
@@ -391,8 +438,8 @@ void cli_sample_help(FILE *fp)
           "frame (standardised residuals, residual.tif): a misfit is a warning naming the\n"
           "likely cause (README \"Checks of the data and the fit\").\n"
           "A multi-page TIFF needs --pages z|t|c unless its OME metadata says what the pages\n"
-          "are; channels and time points go to OUTDIR/c<k>/ and OUTDIR/t<k>/. Volumes are read\n"
-          "but not sampled yet (2-D only): --plane K samples one slice.\n\n"
+          "are; channels and time points go to OUTDIR/c<k>/ and OUTDIR/t<k>/; z-slices are\n"
+          "sampled as one volume (--plane K samples one slice as a frame).\n\n"
           "Options:\n",
           fp);
     cli_print_options(fp, tables, cli_sample_default, NULL);

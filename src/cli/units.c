@@ -1,15 +1,19 @@
-/* pixpost command line — what one input file holds: the frames ("units")
- * that `pixpost sample` runs for it. A single-page grayscale file is one
- * unit written into OUTDIR itself (as always). A multi-page TIFF's pages are
- * z-slices, time points or channels: its OME-XML says which when present
- * (include/pixpost/ome.h), --pages otherwise; time points go to
- * OUTDIR/t<k>/, channels to OUTDIR/c<k>/ with the k-th --psf, and z-slices
- * are refused (3-D sampling is not built yet) unless --plane K picks one.
+/* pixpost command line — what one input file holds: the frames and volumes
+ * ("units") that `pixpost sample` runs for it. A single-page grayscale file
+ * is one unit written into OUTDIR itself (as always). A multi-page TIFF's
+ * pages are z-slices, time points or channels: its OME-XML says which when
+ * present (include/pixpost/ome.h), --pages otherwise. z-slices are one
+ * volume sampled as a whole into OUTDIR (with OME metadata of several
+ * channels or time points, each channel's or time point's volume into
+ * OUTDIR/c<k>/ or OUTDIR/t<k>/); time points go to OUTDIR/t<k>/, channels
+ * to OUTDIR/c<k>/ with the k-th --psf; --plane K picks one page as a frame.
+ * Channels and time points together (SizeC and SizeT > 1) are refused.
  * `--channel all` makes the R, G and B of a colour image three channels.
- * Also the options that say so (--pages, --plane, --voxel, --channel all)
- * and the index OUTDIR/channels.json (or frames.json) written after all
- * units succeeded. Cost: reading the file's header and description (and
- * page 0 once for --channel all); nothing on a hot path. */
+ * Also the options that say so (--pages, --plane, --voxel, --channel all),
+ * the voxel size (OME metadata, else --voxel, else the PSF spec) and the
+ * index OUTDIR/channels.json (or frames.json) written after all units
+ * succeeded. Cost: reading the file's header and description (and page 0
+ * once for --channel all); nothing on a hot path. */
 #include "cli.h"
 #include "pixpost/output.h"
 #include "pixpost/stack.h"
@@ -61,14 +65,14 @@ static int ome_role(const pp_ome_meta *m, const char *frame, char *role, char *m
     *role = 0;
     if (!m->present)
         return 0;
-    if (m->nz > 1)
-        *role = 'z';
-    else if (m->nc > 1 && m->nt > 1)
+    if (m->nc > 1 && m->nt > 1)
         return cli_refuse(msg, len,
                     "%s: the OME metadata holds %zu channels at each of %zu time points; pixpost "
-                    "takes channels or time points, not both, from one file (split it by time "
-                    "point)",
+                    "takes channels or time points from one file, not both: split it into one "
+                    "file per time point",
                     frame, m->nc, m->nt);
+    if (m->nz > 1)
+        *role = 'z';
     else if (m->nc > 1)
         *role = 'c';
     else if (m->nt > 1)
@@ -112,30 +116,48 @@ static int pick_role(const cli_sample_opts *o, const char *frame, cli_units *u, 
     return 0;
 }
 
-int cli_units_batch_pages(const char *path, char given, unsigned *frames, char *msg, size_t len)
+int cli_units_batch_pages(const char *path, char given, size_t npsf, unsigned *frames,
+                          char *kind, char *msg, size_t len)
 {
     pp_ome_meta ome;
     unsigned pages;
     *frames = 1;
+    *kind = 0;
     if (pp_stack_probe(path, &pages, &ome) != PP_OK)
         return cli_refuse(msg, len, "%s", pp_error_message());
     *frames = pages ? pages : 1;
     char role = 0;
     int from_ome = 0;
     int rc = decide_role(given, &ome, pages, path, &role, &from_ome, msg, len);
-    if (rc || pages <= 1 || role == 't')
+    if (rc)
         return rc;
-    if (!role)
+    if (pages > 1 && !role)
         return cli_refuse(msg, len,
                     "%s: %u pages and no OME metadata saying what they are: give --pages t to "
-                    "sample each page as a frame (z-slices and channels: pixpost sample --pages "
-                    "z|c on the file)",
+                    "sample each page as a frame, --pages z to sample the file as one volume "
+                    "or --pages c for channels",
                     path, pages);
-    return cli_refuse(msg, len, "%s: its %u pages are %s (%s); batch samples time points only: %s", path,
-                pages, role_words(role), from_ome ? "OME metadata" : "--pages",
-                role == 'z' ? "3-D sampling is not built yet (pixpost sample --plane K takes "
-                              "one slice)"
-                            : "run pixpost sample on the file (each channel with its own --psf)");
+    size_t nc = ome.present ? ome.nc : 1, nt = ome.present ? ome.nt : 1;
+    if (role == 'z' && (nc > 1 || nt > 1))
+        return cli_refuse(msg, len,
+                    "%s: its %u pages are the z-slices of %zu %s (OME metadata); batch takes one "
+                    "volume per file: run pixpost sample on the file (each into OUTDIR/%s<k>/)",
+                    path, pages, nc > 1 ? nc : nt, nc > 1 ? "channels" : "time points",
+                    nc > 1 ? "c" : "t");
+    size_t channels = pages > 1 && role == 'c' ? pages : 1;
+    if (npsf > 1 && npsf != channels)
+        return cli_refuse(msg, len,
+                    "%s: %zu channel%s (%s), and --psf gives %zu PSFs: in a batch with one PSF "
+                    "per channel every file must have that many channels (or give one --psf)",
+                    path, channels, channels == 1 ? "" : "s",
+                    channels > 1 ? (from_ome ? "OME metadata" : "--pages c")
+                                 : pages > 1 ? "its pages are not channels" : "one page",
+                    npsf);
+    if (pages > 1 && role == 'z')
+        *frames = 1;
+    if (pages > 1)
+        *kind = role == 'z' ? 'z' : role == 'c' ? 'c' : 0;
+    return 0;
 }
 
 static void add(cli_units *u, unsigned page, size_t psf, const char *sub, unsigned k)
@@ -143,7 +165,7 @@ static void add(cli_units *u, unsigned page, size_t psf, const char *sub, unsign
     cli_unit *n = &u->unit[u->n++];
     memset(n, 0, sizeof *n);
     n->page = page;
-    n->psf = psf;
+    n->psf = psf < CLI_MAX_PSF ? psf : 0;
     if (sub)
         snprintf(n->sub, sizeof n->sub, "%s%u", sub, k);
 }
@@ -180,16 +202,60 @@ static int plan_colour(const cli_sample_opts *o, const char *frame, cli_units *u
     return 0;
 }
 
-static void set_voxel(const cli_sample_opts *o, cli_units *u)
+/* The sampling a PSF spec is made for, {z, y, x} micrometres, 0 unknown. */
+static void spec_voxel(const pp_psf_spec *p, double v[3])
 {
+    v[0] = v[1] = v[2] = 0;
+    if (p && (p->kind == PP_PSF_WIDEFIELD || p->kind == PP_PSF_AIRY))
+        v[1] = v[2] = p->pixel;
+    if (p && p->kind == PP_PSF_WIDEFIELD)
+        v[0] = p->step;
+}
+
+int cli_voxel_resolve(const cli_sample_opts *o, const pp_ome_meta *ome, const pp_psf_spec *psf,
+                      const char *frame, double out[3], int *known, char *msg, size_t len)
+{
+    static const char *const axis[3] = {"z step", "y pixel size", "x pixel size"};
+    static const char *const key[3] = {"step", "pixel", "pixel"};
     double given[3] = {o->voxel[1], o->voxel[0], o->voxel[0]}; /* --voxel XY,Z as z, y, x */
-    int any = 0;
+    double spec[3];
+    spec_voxel(psf, spec);
+    *known = 0;
     for (int i = 0; i < 3; i++) {
-        double m = u->ome.present ? u->ome.voxel[i] : 0.0;
-        u->voxel[i] = m > 0 ? m : given[i] > 0 ? given[i] : NAN;
-        any |= !isnan(u->voxel[i]);
+        double m = ome && ome->present ? ome->voxel[i] : 0.0, from = m > 0 ? m : given[i];
+        if (from > 0 && spec[i] > 0 && fabs(spec[i] - from) > 1e-6 * from)
+            return cli_refuse(msg, len,
+                        "--psf: %s=%g, but %s has a %s of %g micrometres (%s); a PSF must be "
+                        "made on the volume's grid: give %s=%g",
+                        key[i], spec[i], frame, axis[i], from,
+                        m > 0 ? "OME metadata" : "--voxel", key[i], from);
+        out[i] = from > 0 ? from : spec[i] > 0 ? spec[i] : NAN;
+        *known |= !isnan(out[i]);
     }
-    u->have_voxel = any;
+    return 0;
+}
+
+/* A volume per channel or time point of the metadata (one without them):
+ * its z-slices as one unit; into OUTDIR itself when it is the only one. */
+static int plan_volumes(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                        size_t len)
+{
+    size_t nc = u->ome.present ? u->ome.nc : 1, nt = u->ome.present ? u->ome.nt : 1;
+    size_t n = nc > 1 ? nc : nt;
+    if (n > CLI_MAX_UNITS)
+        return cli_refuse(msg, len,
+                    "%s: %zu volumes (one per %s) are more than the %d that sample takes; "
+                    "split the file",
+                    frame, n, nc > 1 ? "channel" : "time point", CLI_MAX_UNITS);
+    u->role = nc > 1 ? 'c' : nt > 1 ? 't' : 0;
+    for (size_t k = 0; k < n; k++) {
+        add(u, 0, nc > 1 && o->npsf > 1 ? k : 0, u->role ? (nc > 1 ? "c" : "t") : NULL,
+            (unsigned)k);
+        u->unit[k].volume = 1;
+        u->unit[k].c = nc > 1 ? (unsigned)k : 0;
+        u->unit[k].t = nt > 1 ? (unsigned)k : 0;
+    }
+    return 0;
 }
 
 /* The units of a file whose role is known (pick_role or plan_colour done). */
@@ -211,11 +277,7 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
         return 0;
     }
     if (u->role == 'z')
-        return cli_refuse(msg, len,
-                    "%s: its %u pages are z-slices of one volume (%s), and 3-D sampling is not "
-                    "built yet; sample one slice with --plane K (0 to %u)%s",
-                    frame, u->pages, u->from_ome ? "OME metadata" : "--pages z", u->pages - 1,
-                    u->from_ome ? "" : ", or each slice as a separate frame with --pages t");
+        return plan_volumes(o, frame, u, msg, len);
     if (u->pages > CLI_MAX_UNITS)
         return cli_refuse(msg, len,
                     "%s: %u %s are more than the %d that sample takes; use pixpost batch "
@@ -230,30 +292,47 @@ static int plan_pages(const cli_sample_opts *o, const char *frame, cli_units *u,
     return 0;
 }
 
-int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
+int cli_units_role(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg,
+                   size_t len)
 {
     memset(u, 0, sizeof *u);
     pp_status st = pp_stack_probe(frame, &u->pages, &u->ome);
     if (st != PP_OK)
         return cli_refuse(msg, len, "%s", pp_error_message());
-    set_voxel(o, u);
-    return o->channel_all ? 0 : pick_role(o, frame, u, msg, len);
+    int rc = cli_voxel_resolve(o, &u->ome, NULL, frame, u->voxel, &u->have_voxel, msg, len);
+    return rc ? rc : o->channel_all ? 0 : pick_role(o, frame, u, msg, len);
 }
 
 int cli_units_plan(const cli_sample_opts *o, const char *frame, cli_units *u, char *msg, size_t len)
 {
     int rc = cli_units_role(o, frame, u, msg, len);
     if (!rc)
-        rc =
-            o->channel_all ? plan_colour(o, frame, u, msg, len) : plan_pages(o, frame, u, msg, len);
+        rc = o->channel_all ? plan_colour(o, frame, u, msg, len) : plan_pages(o, frame, u, msg, len);
     if (rc)
         return rc;
     size_t channels = u->role == 'c' ? u->n : 1;
+    if (o->npsf != 1 && o->npsf != channels && o->psf_texts[0] == o->psf_bufs[0])
+        return cli_refuse(msg, len,
+                    "--psf: wavelength= lists %zu wavelengths for %zu channel%s of %s: give one "
+                    "wavelength per channel, in channel order",
+                    o->npsf, channels, channels == 1 ? "" : "s", frame);
     if (o->npsf != 1 && o->npsf != channels)
         return cli_refuse(msg, len,
                     "--psf: given %zu times for %zu channel%s of %s: give one --psf per "
                     "channel, in channel order, or a single --psf for all",
                     o->npsf, channels, channels == 1 ? "" : "s", frame);
+    /* the PSF spec's sampling counts for volumes only: a frame's summary.json
+     * keeps the size the metadata or --voxel gave, as before volumes */
+    for (size_t k = 0; u->n && u->unit[0].volume && k < o->npsf; k++) {
+        double v[3];
+        int known;
+        if ((rc = cli_voxel_resolve(o, &u->ome, &o->psfs[k], frame, v, &known, msg, len)) != 0)
+            return rc;
+        if (k == 0) {
+            memcpy(u->voxel, v, sizeof v);
+            u->have_voxel = known;
+        }
+    }
     return 0;
 }
 
@@ -284,7 +363,12 @@ int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const ch
     fprintf(f, ",\n  \"%s\": [\n", u->role == 'c' ? "channels" : "frames");
     for (size_t k = 0; k < u->n; k++) {
         const cli_unit *n = &u->unit[k];
-        fprintf(f, "    {\"index\": %zu, \"folder\": \"%s\", \"page\": %u, ", k, n->sub, n->page);
+        if (n->volume) /* every page of its channel or time point: a volume */
+            fprintf(f, "    {\"index\": %zu, \"folder\": \"%s\", \"page\": null, \"z_slices\": %zu, ",
+                    k, n->sub, u->ome.nz);
+        else
+            fprintf(f, "    {\"index\": %zu, \"folder\": \"%s\", \"page\": %u, ", k, n->sub,
+                    n->page);
         if (n->channel_set)
             fprintf(f, "\"colour\": \"%s\", ", colour[k % 3]);
         fputs("\"psf\": ", f);

@@ -1,9 +1,12 @@
 /* pixpost command line — the pixels of a frame that are not data: --mask
  * FILE (nonzero = ignore the pixel) and the saturated pixels the library
  * finds (pixpost/saturation.h). Both become NaN, which the sampler treats as
- * unobserved (pixpost/sampler.h, pp_sampler_create). Cost: one read of the
- * mask and a few passes over the frame. */
+ * unobserved (pixpost/sampler.h, pp_sampler_create). For a volume the mask
+ * is one page of the slice's size (the same pixels in every z-slice, e.g.
+ * a camera's defects) or one page per z-slice. Cost: one read of the mask
+ * and a few passes over the frame. */
 #include "cli.h"
+#include "pixpost/stack.h"
 #include <math.h>
 #include <stdio.h>
 #include <string.h>
@@ -19,8 +22,8 @@ static int apply_mask(const char *path, cli_frame_run *r, pp_image *frame)
 {
     pp_read_options ro;
     cli_read_defaults(&ro);
-    pp_image *m = NULL;
-    pp_status st = pp_image_read(path, &ro, &m, NULL);
+    pp_stack *m = NULL;
+    pp_status st = pp_stack_read(path, &ro, &m, NULL);
     if (st == PP_ERR_UNSUPPORTED && strstr(pp_error_message(), "colour"))
         return mask_fail(r,
                          "--mask %s: a colour image; save the mask as a one-channel "
@@ -31,21 +34,32 @@ static int apply_mask(const char *path, cli_frame_run *r, pp_image *frame)
                          "--mask %s: cannot be read (%s); give a grayscale PNG or TIFF of "
                          "the frame's size, nonzero = ignore the pixel",
                          path, pp_error_message());
-    if (m->width != frame->width || m->height != frame->height) {
-        char dims[128];
-        snprintf(dims, sizeof dims, "%zux%zu pixels but the frame %s is %zux%zu", m->width,
-                 m->height, r->frame, frame->width, frame->height);
-        pp_image_free(m);
-        return mask_fail(r, "--mask %s: %s; give a mask of the frame's size (width x height)", path,
-                         dims);
+    const pp_shape *sh = &m->shape;
+    size_t pages = sh->rank == 3 ? sh->n[0] : 1, h = sh->n[sh->rank - 2], w = sh->n[sh->rank - 1];
+    size_t slice = frame->width * frame->height;
+    char dims[256];
+    if (frame->depth == 1 && (w != frame->width || h != frame->height || pages != 1)) {
+        snprintf(dims, sizeof dims, "%zux%zu pixels%s but the frame %s is %zux%zu", w, h,
+                 pages > 1 ? " in several pages" : "", r->frame, frame->width, frame->height);
+        pp_stack_free(m);
+        return mask_fail(r, "--mask %s: %s; give a one-page mask of the frame's size (width x "
+                            "height)", path, dims);
     }
-    size_t n = 0;
-    for (size_t i = 0; i < m->width * m->height; i++)
-        if (m->data[i] != 0) {
+    if (w != frame->width || h != frame->height || (pages != 1 && pages != frame->depth)) {
+        snprintf(dims, sizeof dims, "%zu page%s of %zux%zu pixels but the volume %s is %zu "
+                 "z-slices of %zux%zu", pages, pages == 1 ? "" : "s", w, h, r->frame,
+                 frame->depth, frame->width, frame->height);
+        pp_stack_free(m);
+        return mask_fail(r, "--mask %s: %s; give one page of the slice's size (the same pixels "
+                            "in every slice) or one page per z-slice", path, dims);
+    }
+    size_t n = 0, count = pp_image_count(frame);
+    for (size_t i = 0; i < count; i++)
+        if (m->data[pages == 1 ? i % slice : i] != 0) {
             n += !isnan(frame->data[i]);
             frame->data[i] = NAN;
         }
-    pp_image_free(m);
+    pp_stack_free(m);
     r->masked = n;
     return 0;
 }
