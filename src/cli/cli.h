@@ -246,6 +246,10 @@ typedef struct cli_units {
 /* Reads --pages, --plane, --voxel and --channel all into o (called by
  * cli_sample_opts_from_args). Returns 0 or CLI_EXIT_USAGE (printed). */
 int cli_units_opts(const cli_args *a, cli_sample_opts *o);
+/* 1 when spec is a 3-D PSF: a 3-D model (pp_psf_is_3d) or a file: spec
+ * naming a TIFF of more than one page (a bead stack). (units.c) */
+int cli_psf_is_3d(const pp_psf_spec *spec);
+
 /* What the pages of frame are, without planning units (simulate, which
  * takes one frame or one volume): u's pages, OME metadata, voxel size and
  * role ('z', 't', 'c'; 0 for one page; with --plane K the file's role, the

@@ -80,15 +80,6 @@ static int parse(int argc, char **argv, const char **spec, size_t *size, size_t 
     return cli_check_parent_dir(*out);
 }
 
-/* 1 when spec is 3-D, or a file: spec naming a TIFF of more than one page. */
-static int wants_3d(const pp_psf_spec *spec)
-{
-    unsigned pages = 0;
-    if (spec->kind == PP_PSF_FILE)
-        return pp_tiff_count_pages(spec->path, &pages) == PP_OK && pages > 1;
-    return pp_psf_is_3d(spec);
-}
-
 /* Makes and writes the 3-D kernel. */
 static pp_status write_3d(const pp_psf_spec *spec, size_t size, size_t depth, const char *out,
                           int quiet)
@@ -128,7 +119,7 @@ int cli_cmd_psf(int argc, char **argv)
         return rc;
     if (st == PP_OK && (rc = cli_check_outfile(out, overwrite)) != 0)
         return rc;
-    if (st == PP_OK && (depth || wants_3d(&spec))) {
+    if (st == PP_OK && (depth || cli_psf_is_3d(&spec))) {
         st = write_3d(&spec, size, depth, out, quiet);
         return st == PP_OK ? CLI_EXIT_OK : cli_fail(st);
     }

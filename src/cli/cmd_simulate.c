@@ -115,40 +115,19 @@ static int check_out_name(const sim_opts *o)
     return rc ? rc : cli_check_outfile(o->out, o->overwrite);
 }
 
-/* 1 when the PSF spec is 3-D: a 3-D model, or a file: naming a TIFF of
- * more than one page (a bead stack; pp_psf_make3 reads it). */
-static int spec_is_3d(const pp_psf_spec *spec)
-{
-    unsigned pages = 0;
-    if (spec->kind == PP_PSF_FILE)
-        return pp_tiff_count_pages(spec->path, &pages) == PP_OK && pages > 1;
-    return pp_psf_is_3d(spec);
-}
-
 /* The voxel size written with a volume (z, y, x micrometres; 0 unknown):
- * the truth's (OME metadata, else --voxel), else what the PSF spec says
- * (its pixel, a widefield's step). A spec that disagrees with the truth's
- * size would blur on the wrong grid: refused. */
+ * the truth's (OME metadata, else --voxel), else what the PSF spec says;
+ * a spec that disagrees with the truth's size is refused, by sample's rule
+ * (cli_voxel_resolve). */
 static int settle_voxel(sim_opts *o)
 {
-    const pp_psf_spec *p = &o->psf;
-    int has_pixel = p->kind == PP_PSF_AIRY || p->kind == PP_PSF_WIDEFIELD;
-    double spec[3] = {p->kind == PP_PSF_WIDEFIELD ? p->step : 0, has_pixel ? p->pixel : 0,
-                      has_pixel ? p->pixel : 0};
-    static const char *const axis[3] = {"z step", "y pixel size", "x pixel size"};
-    static const char *const key[3] = {"step", "pixel", "pixel"};
-    for (int i = 0; i < 3; i++) {
-        double t = o->units.voxel[i];
-        if (!isnan(t) && spec[i] > 0 && fabs(spec[i] - t) > 1e-6 * t)
-            return cli_opt_error("psf",
-                                 "%s=%g, but TRUTH %s has a %s of %g micrometres (%s); a PSF "
-                                 "must be made on the volume's grid: give %s=%g",
-                                 key[i], spec[i], o->truth, axis[i], t,
-                                 o->units.ome.present && o->units.ome.voxel[i] > 0 ? "OME metadata"
-                                                                                   : "--voxel",
-                                 key[i], t);
-        o->voxel[i] = !isnan(t) ? t : spec[i];
-    }
+    char msg[1024];
+    int known;
+    if (cli_voxel_resolve(&o->pages, &o->units.ome, &o->psf, o->truth, o->voxel, &known, msg,
+                          sizeof msg))
+        return cli_error("%s", msg);
+    for (int i = 0; i < 3; i++)
+        o->voxel[i] = isnan(o->voxel[i]) ? 0.0 : o->voxel[i];
     return 0;
 }
 
@@ -161,7 +140,7 @@ static int decide_truth(sim_opts *o)
     if (cli_units_role(&o->pages, o->truth, &o->units, msg, sizeof msg))
         return cli_error("%s", msg);
     const cli_units *u = &o->units;
-    o->psf_3d = spec_is_3d(&o->psf);
+    o->psf_3d = cli_psf_is_3d(&o->psf);
     if (o->pages.plane >= 0) {
         o->read.page = (unsigned)o->pages.plane;
     } else if (u->role == 'z') {

@@ -387,3 +387,11 @@ int cli_units_write_index(const cli_sample_opts *o, const cli_units *u, const ch
     }
     return 0;
 }
+
+int cli_psf_is_3d(const pp_psf_spec *spec)
+{
+    unsigned pages = 0;
+    if (spec->kind == PP_PSF_FILE)
+        return pp_tiff_count_pages(spec->path, &pages) == PP_OK && pages > 1;
+    return pp_psf_is_3d(spec);
+}
