@@ -41,7 +41,7 @@ static pp_image *scene(size_t h, size_t w, const pp_image *psf)
                                  (((r / 16) + (c / 16)) % 3 == 0 ? 30 : 0);
     pp_noise_spec ns;
     pp_noise_parse("gaussian:sigma=1", NULL, &ns);
-    if (pp_model_simulate(x, psf, PP_BOUNDARY_PERIODIC, &ns, 9, &y) != PP_OK)
+    if (pp_model_simulate(x, psf, PP_BOUNDARY_PERIODIC, &ns, 9, NULL, &y) != PP_OK)
         y = NULL;
     pp_image_free(x);
     return y;
@@ -95,7 +95,7 @@ int main(int argc, char **argv)
     cfg.iters_auto = 0; /* exactly burn + iters */
     if (pp_sampler_kind_parse(argv[1], NULL, &cfg.kind) != PP_OK ||
         pp_boundary_parse(opt(argc, argv, "boundary", "periodic"), NULL, &cfg.boundary) != PP_OK ||
-        pp_prior_parse(opt(argc, argv, "prior", "gmrf2"), &cfg.prior) != PP_OK)
+        pp_prior_parse(opt(argc, argv, "prior", "gmrf2"), NULL, &cfg.prior) != PP_OK)
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
     size_t h = strtoul(argv[2], NULL, 10), w = strtoul(argv[3], NULL, 10);
     cfg.thin = strtoul(opt(argc, argv, "thin", "1"), NULL, 10);
@@ -112,7 +112,7 @@ int main(int argc, char **argv)
         cfg.hyper_lambda[0] = cfg.hyper_lambda[1] = cfg.hyper_delta[0] = cfg.hyper_delta[1] = 0;
     pp_psf_spec ps;
     pp_image *psf;
-    pp_psf_parse("gaussian:sigma=1.5", &ps);
+    pp_psf_parse("gaussian:sigma=1.5", NULL, &ps);
     if (pp_psf_make(&ps, 0, &psf) != PP_OK)
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
     pp_image *y = scene(h, w, psf);

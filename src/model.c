@@ -196,7 +196,8 @@ static void blur_grid(const pp_image *x, const pp_image *psf, pp_boundary b, pp_
 }
 
 /* x and psf are read only; *out is new (NULL on failure). */
-pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b, pp_image **out)
+pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b,
+                        const char *const *names, pp_image **out)
 {
     *out = NULL;
     pp_status st = kernel_shape_ok(psf);
@@ -222,9 +223,9 @@ pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b, p
         describe(&fs, c, sizeof c);
         return pp_fail(PP_ERR_LIMIT,
                        "the PSF (%s) is larger than the %s%s%s; periodic blur "
-                       "needs it to fit (use --boundary pad)",
+                       "needs it to fit (use %s pad)",
                        describe(&ks, a, sizeof a), fs.rank == 3 ? "volume (" : "", c,
-                       fs.rank == 3 ? ")" : " frame");
+                       fs.rank == 3 ? ")" : " frame", pp_setting_name(names, PP_SET_BOUNDARY));
     }
     blur_grid(x, psf, b, &gs);
     if ((st = pp_image_create3(x->depth, x->height, x->width, out)) != PP_OK)
@@ -242,17 +243,21 @@ pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b, p
 #define MAX_PHOTONS 4503599627370496.0
 
 /* Refuses before anything is written, so a failure leaves y unchanged. */
-static pp_status noise_input_ok(const pp_image *y, const pp_noise_spec *noise)
+static pp_status noise_input_ok(const pp_image *y, const pp_noise_spec *noise,
+                                const char *const *names)
 {
+    const char *what = pp_setting_name(names, PP_SET_NOISE);
     if (noise->kind == PP_NOISE_GAUSSIAN && !noise->sigma_set)
-        return pp_fail(PP_ERR_ARG, "--noise gaussian: simulating needs a fixed sd; give "
-                                   "gaussian:sigma=S");
+        return pp_fail(PP_ERR_ARG,
+                       "%s gaussian: simulating needs a fixed sd; give "
+                       "gaussian:sigma=S",
+                       what);
     if (noise->kind == PP_NOISE_GAUSSIAN && !(noise->sigma >= 0 && isfinite(noise->sigma)))
-        return pp_fail(PP_ERR_ARG, "--noise gaussian: sigma=%g must be >= 0", noise->sigma);
+        return pp_fail(PP_ERR_ARG, "%s gaussian: sigma=%g must be >= 0", what, noise->sigma);
     int photons = noise->kind == PP_NOISE_POISSON || noise->kind == PP_NOISE_CAMERA;
     if (photons && !(noise->gain > 0 && isfinite(noise->gain) && isfinite(noise->offset) &&
                      noise->read >= 0 && isfinite(noise->read)))
-        return pp_fail(PP_ERR_ARG, "--noise: gain must be > 0, offset finite, read >= 0");
+        return pp_fail(PP_ERR_ARG, "%s: gain must be > 0, offset finite, read >= 0", what);
     char b[80];
     for (size_t i = 0; i < pp_image_count(y); i++) {
         double v = y->data[i];
@@ -266,9 +271,10 @@ static pp_status noise_input_ok(const pp_image *y, const pp_noise_spec *noise)
 /* Negative expected photon counts (possible only if the scene or the PSF
  * has negative values) are clipped to 0: a Poisson mean cannot be
  * negative. */
-pp_status pp_model_add_noise(pp_image *y, const pp_noise_spec *noise, pp_rng *rng)
+pp_status pp_model_add_noise(pp_image *y, const pp_noise_spec *noise, const char *const *names,
+                             pp_rng *rng)
 {
-    pp_status st = noise_input_ok(y, noise);
+    pp_status st = noise_input_ok(y, noise, names);
     if (st != PP_OK)
         return st;
     size_t n = pp_image_count(y);
@@ -295,14 +301,15 @@ pp_status pp_model_add_noise(pp_image *y, const pp_noise_spec *noise, pp_rng *rn
 }
 
 pp_status pp_model_simulate(const pp_image *truth, const pp_image *psf, pp_boundary b,
-                            const pp_noise_spec *noise, uint64_t seed, pp_image **out)
+                            const pp_noise_spec *noise, uint64_t seed, const char *const *names,
+                            pp_image **out)
 {
-    pp_status st = pp_model_blur(truth, psf, b, out);
+    pp_status st = pp_model_blur(truth, psf, b, names, out);
     if (st != PP_OK)
         return st;
     pp_rng rng;
     pp_rng_seed(&rng, seed, 0);
-    st = pp_model_add_noise(*out, noise, &rng);
+    st = pp_model_add_noise(*out, noise, names, &rng);
     if (st != PP_OK) {
         pp_image_free(*out);
         *out = NULL;

@@ -2,6 +2,7 @@
 #include "observed.h"
 
 #include "internal.h"
+#include "pixpost/setting.h"
 #include "sampler_internal.h"
 #include <math.h>
 #include <stdlib.h>
@@ -38,13 +39,16 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
                        "unobserved, or repair them",
                        inf);
     size_t n = s->npix, need = pp_observed_min(n);
+    /* the caller's way to keep saturated pixels as data, when it names one */
+    const char *const *names = s->cfg.setting_names;
+    const char *keep = names ? names[PP_SET_KEEP_SATURATED] : NULL;
     if (n - nan < need)
         return pp_fail(
             PP_ERR_ARG,
             "only %zu of the frame's %zu pixels are observed (not NaN: masked or "
             "saturated pixels are unobserved); at least %zu are needed: mask fewer pixels (or use "
-            "saturated ones as data, --keep-saturated)",
-            n - nan, n, need);
+            "saturated ones as data%s%s)",
+            n - nan, n, need, keep ? ", " : "", keep ? keep : "");
     if (!(s->obs = calloc(s->gn, 1)))
         return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
     for (size_t z = 0; z < s->depth; z++)

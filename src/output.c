@@ -638,6 +638,8 @@ pp_status pp_output_mark(const char *dir, const char *writer)
         return st;
     fprintf(f, "%s\nwritten by pixpost %s: %s\n", PP_OUTPUT_MARKER_LINE, PIXPOST_VERSION,
             writer && writer[0] ? writer : "(not recorded)");
+    /* Says what the pixpost command does with this folder (src/cli/outdir.c
+     * reads the marker), whoever wrote it: so it names that command's flag. */
     fputs("pixpost writes into this folder again without --overwrite and replaces its own "
           "outputs here (mean.tif, summary.json, ...); other files are kept. Delete this "
           "file to make pixpost treat the folder as not its own.\n",

@@ -10,6 +10,7 @@
 #include "pixpost/output.h"
 #include "pixpost/ppcheck.h"
 #include "pixpost/report.h"
+#include "pixpost/setting.h"
 
 enum { NSET = 13, NSET_MAX = 15 };
 
@@ -41,8 +42,17 @@ pp_status pp_output_report(const char *path, const pp_result *r, const pp_image 
     snprintf(val[1], sizeof val[1], "%s", pp_sampler_kind_name(c->kind));
     snprintf(val[2], sizeof val[2], "%u (kept %zu draws each)", c->chains, r->trace.kept);
     const pp_run_length *L = &r->length; /* the lengths used (--iters auto chooses them) */
-    snprintf(val[3], sizeof val[3], "%lu / %lu / %lu (%s: %s)", L->burn, L->iters, c->thin,
-             L->iters_auto ? "--iters auto" : "fixed", pp_stop_reason_name(L->stop));
+    /* automatic lengths by the caller's name of the setting ("--iters auto"),
+     * when it gave names (include/pixpost/setting.h) */
+    char how[64];
+    if (!L->iters_auto)
+        snprintf(how, sizeof how, "fixed");
+    else if (c->setting_names && c->setting_names[PP_SET_ITERS])
+        snprintf(how, sizeof how, "%s auto", c->setting_names[PP_SET_ITERS]);
+    else
+        snprintf(how, sizeof how, "automatic");
+    snprintf(val[3], sizeof val[3], "%lu / %lu / %lu (%s: %s)", L->burn, L->iters, c->thin, how,
+             pp_stop_reason_name(L->stop));
     snprintf(val[4], sizeof val[4], "%llu", (unsigned long long)c->seed);
     snprintf(val[5], sizeof val[5], "%s", pp_boundary_name(c->boundary));
     if (volume) /* x, y, z as the frames' width x height */
@@ -89,6 +99,7 @@ pp_status pp_output_report(const char *path, const pp_result *r, const pp_image 
     in.scalars = rows;
     in.nscalars = r->trace.ncols;
     in.chains = c->chains;
+    in.setting_names = c->setting_names;
     in.settings_keys = key;
     in.settings_values = vals;
     in.nsettings = nset;

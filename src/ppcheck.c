@@ -311,7 +311,7 @@ pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out)
     pp_image *ax = NULL;
     pp_status st = pp_image_create(y->height, y->width, &p->residual);
     if (st == PP_OK)
-        st = pp_model_blur(m, in->psf, in->boundary, &ax);
+        st = pp_model_blur(m, in->psf, in->boundary, in->setting_names, &ax);
     if (st == PP_OK) {
         p->quantised = in->noise.kind == PP_NOISE_CAMERA && whole_numbers(y);
         residuals(in, ax, p);

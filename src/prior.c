@@ -8,57 +8,57 @@
 #include <string.h>
 #include "internal.h"
 #include "pixpost/prior.h"
+#include "pixpost/setting.h"
 #include "pixpost/spec.h"
 
-#define WHAT "--prior"
-
-static pp_status common_keys(pp_spec *s, pp_prior_spec *out, int allow_mean)
+static pp_status common_keys(pp_spec *s, const char *what, pp_prior_spec *out, int allow_mean)
 {
     pp_status st;
-    out->delta_set = pp_spec_number(s, "delta", WHAT, &out->delta, NULL, &st);
+    out->delta_set = pp_spec_number(s, "delta", what, &out->delta, NULL, &st);
     if (st != PP_OK)
         return st;
     if (out->delta_set && !(out->delta > 0))
-        return pp_fail(PP_ERR_ARG, WHAT " %s: delta must be > 0 (prior precision)", s->name);
+        return pp_fail(PP_ERR_ARG, "%s %s: delta must be > 0 (prior precision)", what, s->name);
     if (allow_mean) {
-        out->mean_set = pp_spec_number(s, "mean", WHAT, &out->mean, NULL, &st);
+        out->mean_set = pp_spec_number(s, "mean", what, &out->mean, NULL, &st);
         if (st != PP_OK)
             return st;
     }
     return PP_OK;
 }
 
-pp_status pp_prior_parse(const char *text, pp_prior_spec *out)
+pp_status pp_prior_parse(const char *text, const char *const *names, pp_prior_spec *out)
 {
+    const char *what = pp_setting_name(names, PP_SET_PRIOR);
     memset(out, 0, sizeof *out);
     pp_spec s;
-    pp_status st = pp_spec_split(text, WHAT, 0, &s);
+    pp_status st = pp_spec_split(text, what, 0, &s);
     if (st != PP_OK)
         return st;
     if (strcmp(s.name, "gmrf1") == 0 || strcmp(s.name, "gmrf2") == 0) {
         static const char *const gmrf_keys[] = {"delta", NULL};
         out->kind = s.name[4] == '1' ? PP_PRIOR_GMRF1 : PP_PRIOR_GMRF2;
-        if ((st = pp_spec_check_known(&s, WHAT, gmrf_keys)) != PP_OK)
+        if ((st = pp_spec_check_known(&s, what, gmrf_keys)) != PP_OK)
             return st;
-        return common_keys(&s, out, 0);
+        return common_keys(&s, what, out, 0);
     }
     if (strcmp(s.name, "matern") == 0) {
         static const char *const matern_keys[] = {"range", "nu", "mean", "delta", NULL};
         out->kind = PP_PRIOR_MATERN;
         out->range = 6.0;
         out->nu = 1.0;
-        if ((st = pp_spec_check_known(&s, WHAT, matern_keys)) != PP_OK)
+        if ((st = pp_spec_check_known(&s, what, matern_keys)) != PP_OK)
             return st;
-        if (pp_spec_number(&s, "range", WHAT, &out->range, NULL, &st), st != PP_OK)
+        if (pp_spec_number(&s, "range", what, &out->range, NULL, &st), st != PP_OK)
             return st;
-        if (pp_spec_number(&s, "nu", WHAT, &out->nu, NULL, &st), st != PP_OK)
+        if (pp_spec_number(&s, "nu", what, &out->nu, NULL, &st), st != PP_OK)
             return st;
-        if ((st = common_keys(&s, out, 1)) != PP_OK)
+        if ((st = common_keys(&s, what, out, 1)) != PP_OK)
             return st;
         if (!(out->range > 0))
-            return pp_fail(PP_ERR_ARG, WHAT " matern: range must be > 0 (pixels)");
+            return pp_fail(PP_ERR_ARG, "%s matern: range must be > 0 (pixels)", what);
         if (!(out->nu > 0 && out->nu <= 8))
-            return pp_fail(PP_ERR_ARG, WHAT " matern: nu must be in (0, 8] (smoothness)");
+            return pp_fail(PP_ERR_ARG, "%s matern: nu must be in (0, 8] (smoothness)", what);
         return PP_OK;
     }
     if (strcmp(s.name, "adaptive") == 0) {
@@ -66,28 +66,31 @@ pp_status pp_prior_parse(const char *text, pp_prior_spec *out)
         out->kind = PP_PRIOR_ADAPTIVE;
         out->nu = 2.0;
         double block = 8;
-        if ((st = pp_spec_check_known(&s, WHAT, adaptive_keys)) != PP_OK)
+        if ((st = pp_spec_check_known(&s, what, adaptive_keys)) != PP_OK)
             return st;
-        if (pp_spec_number(&s, "nu", WHAT, &out->nu, NULL, &st), st != PP_OK)
+        if (pp_spec_number(&s, "nu", what, &out->nu, NULL, &st), st != PP_OK)
             return st;
-        if (pp_spec_number(&s, "block", WHAT, &block, NULL, &st), st != PP_OK)
+        if (pp_spec_number(&s, "block", what, &block, NULL, &st), st != PP_OK)
             return st;
         if (!(out->nu >= 0.5 && out->nu <= 100))
-            return pp_fail(PP_ERR_ARG, WHAT " adaptive: nu must be in [0.5, 100] (Student-t "
-                                            "degrees of freedom of the local weights)");
+            return pp_fail(PP_ERR_ARG,
+                           "%s adaptive: nu must be in [0.5, 100] (Student-t degrees of "
+                           "freedom of the local weights)",
+                           what);
         if (!(block >= 2 && block <= 256 && block == floor(block)))
-            return pp_fail(PP_ERR_ARG, WHAT " adaptive: block must be a whole number of pixels "
-                                            "in [2, 256]");
+            return pp_fail(PP_ERR_ARG,
+                           "%s adaptive: block must be a whole number of pixels in [2, 256]", what);
         out->block = (size_t)block;
         return PP_OK;
     }
     static const char *const priors[] = {"adaptive", "gmrf1", "gmrf2", "matern", NULL};
     const char *near = pp_spec_closest(s.name, priors);
     return pp_fail(PP_ERR_ARG,
-                   WHAT " '%s': unknown prior '%s' (%s%s%saccepted: gmrf1, gmrf2, "
-                        "matern:range=R,nu=V, each may add ,delta=D; adaptive:nu=V,block=B, "
-                        "the default)",
-                   text, s.name, near ? "did you mean " : "", near ? near : "", near ? "? " : "");
+                   "%s '%s': unknown prior '%s' (%s%s%saccepted: gmrf1, gmrf2, "
+                   "matern:range=R,nu=V, each may add ,delta=D; adaptive:nu=V,block=B, "
+                   "the default)",
+                   what, text, s.name, near ? "did you mean " : "", near ? near : "",
+                   near ? "? " : "");
 }
 
 void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len)

@@ -21,6 +21,7 @@
 #include "pixpost/psf.h"
 #include "internal.h"
 #include "pixpost/io.h"
+#include "pixpost/setting.h"
 #include "pixpost/spec.h"
 #include "psf_internal.h"
 #include <errno.h>
@@ -29,7 +30,10 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define WHAT "--psf"
+/* Messages name the setting: `what` (pp_setting_name of the parser's names:
+ * "--psf" from the command line) while parsing; the library's word "PSF"
+ * when a made spec is checked (pp_psf_make, pp_psf_fill take no names). */
+#define LIB_WHAT pp_setting_name(NULL, PP_SET_PSF)
 #define ACCEPTED_MODELS                                                                            \
     "gaussian:sigma=S (or sigma=auto[,lo=A,hi=B]), airy:na=NA,wavelength=L,pixel=P (or "           \
     "na=auto[,lo=A,hi=B]), widefield:na=NA,wavelength=L,pixel=P,step=DZ,n=N[,sample_n=NS,"         \
@@ -111,29 +115,30 @@ double pp_bessel_j1(double x)
 
 /* ------------------------------------------------------------- specs ---- */
 
-static pp_status need_number(pp_spec *sp, const char *key, const char *form, double *v)
+static pp_status need_number(pp_spec *sp, const char *what, const char *key, const char *form,
+                             double *v)
 {
     pp_status st;
-    if (!pp_spec_number(sp, key, WHAT, v, NULL, &st))
-        return pp_fail(PP_ERR_ARG, WHAT " %s: missing %s= (expected %s)", sp->name, key, form);
+    if (!pp_spec_number(sp, key, what, v, NULL, &st))
+        return pp_fail(PP_ERR_ARG, "%s %s: missing %s= (expected %s)", what, sp->name, key, form);
     return st;
 }
 
 /* sigma=auto / na=auto: optional lo=, hi= bounds of the width's uniform
  * prior (defaults dlo, dhi); the starting width is their midpoint. */
-static pp_status parse_width_range(pp_spec *sp, double dlo, double dhi, const char *unit,
-                                   pp_psf_spec *out, double *width)
+static pp_status parse_width_range(pp_spec *sp, const char *what, double dlo, double dhi,
+                                   const char *unit, pp_psf_spec *out, double *width)
 {
     pp_status st;
     out->width_auto = 1;
     out->width_lo = dlo;
     out->width_hi = dhi;
-    if (pp_spec_number(sp, "lo", WHAT, &out->width_lo, NULL, &st), st != PP_OK)
+    if (pp_spec_number(sp, "lo", what, &out->width_lo, NULL, &st), st != PP_OK)
         return st;
-    if (pp_spec_number(sp, "hi", WHAT, &out->width_hi, NULL, &st), st != PP_OK)
+    if (pp_spec_number(sp, "hi", what, &out->width_hi, NULL, &st), st != PP_OK)
         return st;
     if (!(out->width_lo > 0 && out->width_hi > out->width_lo && isfinite(out->width_hi)))
-        return pp_fail(PP_ERR_ARG, WHAT " %s: lo=%g, hi=%g must satisfy 0 < lo < hi (%s)",
+        return pp_fail(PP_ERR_ARG, "%s %s: lo=%g, hi=%g must satisfy 0 < lo < hi (%s)", what,
                        sp->name, out->width_lo, out->width_hi, unit);
     *width = 0.5 * (out->width_lo + out->width_hi);
     return PP_OK;
@@ -169,26 +174,26 @@ static pp_status parse_width_range(pp_spec *sp, double dlo, double dhi, const ch
  * psf_internal.h). */
 #define SIGMA_MIN 0.3
 
-static pp_status check_sigma(double sigma, const char *key)
+static pp_status check_sigma(const char *what, double sigma, const char *key)
 {
     if (!(sigma > 0))
-        return pp_fail(PP_ERR_ARG, WHAT " gaussian: %s=%g must be > 0 (pixels)", key, sigma);
+        return pp_fail(PP_ERR_ARG, "%s gaussian: %s=%g must be > 0 (pixels)", what, key, sigma);
     if (sigma < SIGMA_MIN)
         return pp_fail(PP_ERR_ARG,
-                       WHAT " gaussian: %s=%g pixels is below %g: the kernel would be one "
-                            "pixel and deblur nothing (sigma is in pixels, not micrometres: "
-                            "divide a width in micrometres by the pixel size)",
-                       key, sigma, SIGMA_MIN);
+                       "%s gaussian: %s=%g pixels is below %g: the kernel would be one "
+                       "pixel and deblur nothing (sigma is in pixels, not micrometres: "
+                       "divide a width in micrometres by the pixel size)",
+                       what, key, sigma, SIGMA_MIN);
     if (sigma > PP_PSF_SIGMA_MAX)
         return pp_fail(PP_ERR_ARG,
-                       WHAT " gaussian: %s=%g pixels is above %g, wider than any microscope "
-                            "PSF sampled for deblurring (sigma is in pixels, not nanometres: "
-                            "80 nm at 65 nm pixels is sigma=1.2)",
-                       key, sigma, PP_PSF_SIGMA_MAX);
+                       "%s gaussian: %s=%g pixels is above %g, wider than any microscope "
+                       "PSF sampled for deblurring (sigma is in pixels, not nanometres: "
+                       "80 nm at 65 nm pixels is sigma=1.2)",
+                       what, key, sigma, PP_PSF_SIGMA_MAX);
     return PP_OK;
 }
 
-static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
+static pp_status parse_gaussian(pp_spec *sp, const char *what, pp_psf_spec *out)
 {
     static const char form[] = "gaussian:sigma=S[,sigma_z=Z] or gaussian:sigma=auto[,lo=A,hi=B], "
                                "in pixels (sigma_z in slices)";
@@ -197,94 +202,96 @@ static pp_status parse_gaussian(pp_spec *sp, pp_psf_spec *out)
     static const char *const auto_keys[] = {"sigma", "lo", "hi", NULL};
     int is_auto = 0;
     pp_status st;
-    if ((st = pp_spec_check_known(sp, WHAT, keys)) != PP_OK)
+    if ((st = pp_spec_check_known(sp, what, keys)) != PP_OK)
         return st;
-    if (!pp_spec_number(sp, "sigma", WHAT, &out->sigma, &is_auto, &st))
-        return pp_fail(PP_ERR_ARG, WHAT " %s: missing sigma= (expected %s)", sp->name, form);
+    if (!pp_spec_number(sp, "sigma", what, &out->sigma, &is_auto, &st))
+        return pp_fail(PP_ERR_ARG, "%s %s: missing sigma= (expected %s)", what, sp->name, form);
     if (st == PP_OK && is_auto)
-        st = parse_width_range(sp, 0.5, 4.0, "pixels", out, &out->sigma);
-    if (st == PP_OK && !is_auto && pp_spec_number(sp, "sigma_z", WHAT, &out->sigma_z, NULL, &st) &&
-        st == PP_OK && (st = check_sigma(out->sigma_z, "sigma_z")) != PP_OK)
+        st = parse_width_range(sp, what, 0.5, 4.0, "pixels", out, &out->sigma);
+    if (st == PP_OK && !is_auto && pp_spec_number(sp, "sigma_z", what, &out->sigma_z, NULL, &st) &&
+        st == PP_OK && (st = check_sigma(what, out->sigma_z, "sigma_z")) != PP_OK)
         return st;
     if (st != PP_OK)
         return st;
-    if ((st = pp_spec_check_used(sp, WHAT, is_auto ? auto_keys : fixed_keys)) != PP_OK)
+    if ((st = pp_spec_check_used(sp, what, is_auto ? auto_keys : fixed_keys)) != PP_OK)
         return st;
     if (is_auto)
-        return (st = check_sigma(out->width_lo, "lo")) != PP_OK ? st
-                                                                : check_sigma(out->width_hi, "hi");
-    return check_sigma(out->sigma, "sigma");
+        return (st = check_sigma(what, out->width_lo, "lo")) != PP_OK
+                   ? st
+                   : check_sigma(what, out->width_hi, "hi");
+    return check_sigma(what, out->sigma, "sigma");
 }
 
-
-static pp_status parse_airy(pp_spec *sp, pp_psf_spec *out)
+static pp_status parse_airy(pp_spec *sp, const char *what, pp_psf_spec *out)
 {
     static const char form[] = "airy:na=NA,wavelength=L,pixel=P (or na=auto[,lo=A,hi=B]), "
                                "L and P in micrometres";
     static const char *const keys[] = {"na", "wavelength", "pixel", "lo", "hi", NULL};
     static const char *const fixed_keys[] = {"na", "wavelength", "pixel", NULL};
     int is_auto = 0;
-    pp_status st = pp_spec_check_known(sp, WHAT, keys);
+    pp_status st = pp_spec_check_known(sp, what, keys);
     if (st != PP_OK)
         return st;
-    if (!pp_spec_number(sp, "na", WHAT, &out->na, &is_auto, &st))
-        return pp_fail(PP_ERR_ARG, WHAT " %s: missing na= (expected %s)", sp->name, form);
+    if (!pp_spec_number(sp, "na", what, &out->na, &is_auto, &st))
+        return pp_fail(PP_ERR_ARG, "%s %s: missing na= (expected %s)", what, sp->name, form);
     if (st == PP_OK && is_auto)
-        st = parse_width_range(sp, 0.4, 1.5, "numerical aperture", out, &out->na);
+        st = parse_width_range(sp, what, 0.4, 1.5, "numerical aperture", out, &out->na);
     if (st == PP_OK)
-        st = need_number(sp, "wavelength", form, &out->wavelength);
+        st = need_number(sp, what, "wavelength", form, &out->wavelength);
     if (st == PP_OK)
-        st = need_number(sp, "pixel", form, &out->pixel);
+        st = need_number(sp, what, "pixel", form, &out->pixel);
     if (st == PP_OK)
-        st = pp_spec_check_used(sp, WHAT, is_auto ? keys : fixed_keys);
+        st = pp_spec_check_used(sp, what, is_auto ? keys : fixed_keys);
     if (st == PP_OK && is_auto && out->width_hi > PP_PSF_NA_MAX)
-        st = pp_fail(PP_ERR_ARG, WHAT " airy: hi=%g must be <= 1.7 (numerical aperture)",
+        st = pp_fail(PP_ERR_ARG, "%s airy: hi=%g must be <= 1.7 (numerical aperture)", what,
                      out->width_hi);
-    return st == PP_OK ? pp_psf_check_optics(out) : st;
+    return st == PP_OK ? pp_psf_check_optics(out, what) : st;
 }
 
 /* Dispatches on the model name of an already split spec. */
-static pp_status parse_kind(pp_spec *sp, const char *text, int is_file, pp_psf_spec *out)
+static pp_status parse_kind(pp_spec *sp, const char *what, const char *text, int is_file,
+                            pp_psf_spec *out)
 {
     if (is_file) {
         out->kind = PP_PSF_FILE;
         if (strlen(sp->value[0]) >= sizeof out->path)
-            return pp_fail(PP_ERR_ARG, WHAT " file: the path is too long");
+            return pp_fail(PP_ERR_ARG, "%s file: the path is too long", what);
         strcpy(out->path, sp->value[0]);
         return PP_OK;
     }
     if (strcmp(sp->name, "gaussian") == 0) {
         out->kind = PP_PSF_GAUSSIAN;
-        return parse_gaussian(sp, out);
+        return parse_gaussian(sp, what, out);
     }
     if (strcmp(sp->name, "airy") == 0) {
         out->kind = PP_PSF_AIRY;
-        return parse_airy(sp, out);
+        return parse_airy(sp, what, out);
     }
     if (strcmp(sp->name, "widefield") == 0) {
         out->kind = PP_PSF_WIDEFIELD;
-        return pp_psf_widefield_parse(sp, out);
+        return pp_psf_widefield_parse(sp, what, out);
     }
     if (strcmp(sp->name, "file") == 0)
-        return pp_fail(PP_ERR_ARG, WHAT " '%s': missing the path (expected file:PATH)", text);
+        return pp_fail(PP_ERR_ARG, "%s '%s': missing the path (expected file:PATH)", what, text);
     static const char *const models[] = {"gaussian", "airy", "widefield", "file", NULL};
     const char *near = pp_spec_closest(sp->name, models);
-    return pp_fail(PP_ERR_ARG, WHAT " '%s': unknown PSF model '%s' (%s%s%saccepted: %s)", text,
+    return pp_fail(PP_ERR_ARG, "%s '%s': unknown PSF model '%s' (%s%s%saccepted: %s)", what, text,
                    sp->name, near ? "did you mean " : "", near ? near : "", near ? "? " : "",
                    ACCEPTED_MODELS);
 }
 
 /* text may be NULL (refused). On failure *out is zeroed but for the kind. */
-pp_status pp_psf_parse(const char *text, pp_psf_spec *out)
+pp_status pp_psf_parse(const char *text, const char *const *names, pp_psf_spec *out)
 {
+    const char *what = pp_setting_name(names, PP_SET_PSF);
     memset(out, 0, sizeof *out);
     int is_file = text && strncmp(text, "file:", 5) == 0;
     pp_spec *sp = malloc(sizeof *sp); /* ~66 KiB: too big for a thread stack */
     if (!sp)
-        return pp_fail(PP_ERR_NOMEM, "out of memory parsing " WHAT);
-    pp_status st = pp_spec_split(text, WHAT, is_file, sp);
+        return pp_fail(PP_ERR_NOMEM, "out of memory parsing %s", what);
+    pp_status st = pp_spec_split(text, what, is_file, sp);
     if (st == PP_OK)
-        st = parse_kind(sp, text, is_file, out);
+        st = parse_kind(sp, what, text, is_file, out);
     free(sp);
     return st;
 }
@@ -396,7 +403,7 @@ static void fill_airy(const pp_psf_spec *spec, pp_image *img)
 
 static pp_status make_airy(const pp_psf_spec *spec, size_t size, pp_image **out)
 {
-    pp_status st = pp_psf_check_optics(spec);
+    pp_status st = pp_psf_check_optics(spec, LIB_WHAT);
     if (st != PP_OK)
         return st;
     double na = spec->width_auto ? spec->width_lo : spec->na; /* widest: smallest NA */
@@ -415,11 +422,13 @@ pp_status pp_psf_fill(const pp_psf_spec *s, pp_image *k)
         return pp_fail(PP_ERR_ARG, "pp_psf_fill: the kernel must be an odd square");
     if (s->kind == PP_PSF_GAUSSIAN && s->sigma > 0 && s->sigma_z == 0)
         fill_gaussian(s->sigma, k);
-    else if (s->kind == PP_PSF_AIRY && pp_psf_check_optics(s) == PP_OK)
+    else if (s->kind == PP_PSF_AIRY && pp_psf_check_optics(s, LIB_WHAT) == PP_OK)
         fill_airy(s, k);
     else
-        return pp_fail(PP_ERR_ARG, WHAT ": only gaussian and airy models can be refilled "
-                                   "at a new width (sigma/na > 0)");
+        return pp_fail(PP_ERR_ARG,
+                       "%s: only gaussian and airy models can be refilled at a "
+                       "new width (sigma/na > 0)",
+                       LIB_WHAT);
     return PP_OK;
 }
 
@@ -435,15 +444,15 @@ pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
         char canon[256];
         pp_psf_format(s, canon, sizeof canon);
         return pp_fail(PP_ERR_UNSUPPORTED,
-                       WHAT " %s: a 3-D PSF, which blurs a volume (a z-stack), not a frame; use a "
-                            "2-D PSF for a frame (gaussian:sigma=S or airy:...), or write this one "
-                            "with `pixpost psf` to inspect it",
-                       canon);
+                       "%s %s: a 3-D PSF, which blurs a volume (a z-stack), not a frame; use a "
+                       "2-D PSF for a frame (gaussian:sigma=S or airy:...), or pp_psf_make3 "
+                       "for a volume's kernel",
+                       LIB_WHAT, canon);
     }
     switch (s->kind) {
     case PP_PSF_GAUSSIAN:
         if (!(s->sigma > 0))
-            return pp_fail(PP_ERR_ARG, WHAT " gaussian: sigma=%g must be > 0", s->sigma);
+            return pp_fail(PP_ERR_ARG, "%s gaussian: sigma=%g must be > 0", LIB_WHAT, s->sigma);
         return make_gaussian(s, size, out);
     case PP_PSF_AIRY:
         return make_airy(s, size, out);
@@ -452,7 +461,7 @@ pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
     case PP_PSF_WIDEFIELD:
         break;
     }
-    return pp_fail(PP_ERR_ARG, WHAT ": unknown PSF kind %d", (int)s->kind);
+    return pp_fail(PP_ERR_ARG, "%s: unknown PSF kind %d", LIB_WHAT, (int)s->kind);
 }
 
 pp_status pp_psf_check(pp_image *psf, size_t height, size_t width)

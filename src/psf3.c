@@ -8,6 +8,7 @@
  * voxel.
  */
 #include "internal.h"
+#include "pixpost/setting.h"
 #include "psf_internal.h"
 #include <math.h>
 #include <stdlib.h>
@@ -15,8 +16,10 @@
 
 /* The largest 3-D kernel made: 2^27 voxels (1 GiB of doubles), far beyond
  * a useful PSF (a 257 x 257 x 2033 stack); a default size above it comes
- * from a fine pixel at a low NA, and --size/--depth bound it. */
+ * from a fine pixel at a low NA, and the size and depth arguments bound it.
+ * Messages name the spec in the library's word (no names table here). */
 #define MAX_VOXELS ((size_t)1 << 27)
+#define LIB_WHAT pp_setting_name(NULL, PP_SET_PSF)
 
 static pp_status alloc_volume(const pp_shape *s, double **data)
 {
@@ -26,9 +29,9 @@ static pp_status alloc_volume(const pp_shape *s, double **data)
         return st;
     if (count > MAX_VOXELS)
         return pp_fail(PP_ERR_LIMIT,
-                       "--psf: the 3-D PSF would be %zu slices of %zux%zu, above the limit of "
-                       "%zu voxels; give a smaller --size and --depth",
-                       s->n[0], s->n[2], s->n[1], MAX_VOXELS);
+                       "%s: the 3-D kernel would be %zu slices of %zux%zu, above the limit of "
+                       "%zu voxels; give a smaller size and depth",
+                       LIB_WHAT, s->n[0], s->n[2], s->n[1], MAX_VOXELS);
     if (!(*data = calloc(count, sizeof **data)))
         return pp_fail(PP_ERR_NOMEM, "out of memory for a %zux%zux%zu PSF", s->n[0], s->n[1],
                        s->n[2]);
@@ -86,9 +89,9 @@ static pp_status make_flat(const pp_psf_spec *s, size_t size, size_t depth, pp_s
 {
     if (depth > 1)
         return pp_fail(PP_ERR_ARG,
-                       "--psf: a 2-D PSF has one slice; depth %zu needs a 3-D "
+                       "%s: a 2-D PSF has one slice; depth %zu needs a 3-D "
                        "spec (gaussian:...,sigma_z=Z or widefield:...)",
-                       depth);
+                       LIB_WHAT, depth);
     pp_image *k = NULL;
     pp_status st = pp_psf_make(s, size, &k);
     if (st == PP_OK)
@@ -109,7 +112,7 @@ pp_status pp_psf_make3(const pp_psf_spec *s, size_t size, size_t depth, pp_shape
     switch (s->kind) {
     case PP_PSF_GAUSSIAN:
         if (!(s->sigma > 0))
-            return pp_fail(PP_ERR_ARG, "--psf gaussian: sigma=%g must be > 0", s->sigma);
+            return pp_fail(PP_ERR_ARG, "%s gaussian: sigma=%g must be > 0", LIB_WHAT, s->sigma);
         return s->sigma_z > 0 ? make_gaussian3(s, size, depth, shape, data)
                               : make_flat(s, size, depth, shape, data);
     case PP_PSF_WIDEFIELD:
@@ -119,5 +122,5 @@ pp_status pp_psf_make3(const pp_psf_spec *s, size_t size, size_t depth, pp_shape
     case PP_PSF_AIRY:
         return make_flat(s, size, depth, shape, data);
     }
-    return pp_fail(PP_ERR_ARG, "--psf: unknown PSF kind %d", (int)s->kind);
+    return pp_fail(PP_ERR_ARG, "%s: unknown PSF kind %d", LIB_WHAT, (int)s->kind);
 }

@@ -39,15 +39,17 @@ pp_status pp_psf_bead_make(const char *path, size_t size, pp_image **out);
 #define PP_PSF_RINGS_PER_PIXEL_MIN 0.25
 #define PP_PSF_NA_MAX 1.7
 /* The na/wavelength/pixel range checks of airy and widefield, naming the
- * model (psf.c). */
-pp_status pp_psf_check_optics(const pp_psf_spec *s);
+ * setting (what: "--psf", "PSF", see pp_psf_parse) and the model
+ * (psf_optics.c). */
+pp_status pp_psf_check_optics(const pp_psf_spec *s, const char *what);
 
 /* Sub-pixels per side of the Airy pixel average (psf.c, where the rule is
  * explained); widefield uses the same rule. */
 int pp_psf_airy_supersampling(const pp_psf_spec *s);
 
-/* Parses the keys of a widefield: spec (psf_widefield.c). */
-pp_status pp_psf_widefield_parse(pp_spec *sp, pp_psf_spec *out);
+/* Parses the keys of a widefield: spec, messages naming the setting by
+ * what (psf_widefield.c). */
+pp_status pp_psf_widefield_parse(pp_spec *sp, const char *what, pp_psf_spec *out);
 
 /* Canonical widefield spec string (psf_widefield.c). */
 void pp_psf_widefield_format(const pp_psf_spec *s, char *buf, size_t len);

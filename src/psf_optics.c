@@ -6,50 +6,48 @@
 #include "internal.h"
 #include "psf_internal.h"
 
-#define WHAT "--psf"
-
 /* Checks the optics ranges (psf.c explains them); for na=auto the narrowest PSF (NA at hi). Shared
  * with widefield (psf_internal.h). */
-pp_status pp_psf_check_optics(const pp_psf_spec *s)
+pp_status pp_psf_check_optics(const pp_psf_spec *s, const char *what)
 {
     const char *m = s->kind == PP_PSF_WIDEFIELD ? "widefield" : "airy";
     double na = s->width_auto ? s->width_hi : s->na;
     if (!(s->na > 0 && s->na <= PP_PSF_NA_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: na=%g must be in (0, 1.7] (a numerical aperture, no unit: "
-                            "dry objectives reach ~0.95, oil immersion ~1.4-1.5)",
-                       m, s->na);
+                       "%s %s: na=%g must be in (0, 1.7] (a numerical aperture, no unit: "
+                       "dry objectives reach ~0.95, oil immersion ~1.4-1.5)",
+                       what, m, s->na);
     if (s->wavelength >= 100)
         return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: wavelength=%g is in micrometres; that looks like "
-                            "nanometres (e.g. 520 nm is wavelength=0.52)",
-                       m, s->wavelength);
+                       "%s %s: wavelength=%g is in micrometres; that looks like "
+                       "nanometres (e.g. 520 nm is wavelength=0.52)",
+                       what, m, s->wavelength);
     if (!(s->wavelength >= PP_PSF_WAVELENGTH_MIN && s->wavelength <= PP_PSF_WAVELENGTH_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: wavelength=%g must be in [%g, %g] micrometres, ultraviolet "
-                            "to near-infrared light (e.g. 520 nm is wavelength=0.52)",
-                       m, s->wavelength, PP_PSF_WAVELENGTH_MIN, PP_PSF_WAVELENGTH_MAX);
+                       "%s %s: wavelength=%g must be in [%g, %g] micrometres, ultraviolet "
+                       "to near-infrared light (e.g. 520 nm is wavelength=0.52)",
+                       what, m, s->wavelength, PP_PSF_WAVELENGTH_MIN, PP_PSF_WAVELENGTH_MAX);
     if (s->pixel > PP_PSF_PIXEL_MAX)
         return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: pixel=%g is in micrometres, larger than any sample-plane "
-                            "pixel (at most %g); that looks like nanometres (e.g. 65 nm is "
-                            "pixel=0.065)",
-                       m, s->pixel, PP_PSF_PIXEL_MAX);
+                       "%s %s: pixel=%g is in micrometres, larger than any sample-plane "
+                       "pixel (at most %g); that looks like nanometres (e.g. 65 nm is "
+                       "pixel=0.065)",
+                       what, m, s->pixel, PP_PSF_PIXEL_MAX);
     if (!(s->pixel >= PP_PSF_PIXEL_MIN))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: pixel=%g must be in [%g, %g] micrometres, the "
-                            "sample-plane pixel sizes of light microscopy (e.g. 65 nm is "
-                            "pixel=0.065)",
-                       m, s->pixel, PP_PSF_PIXEL_MIN, PP_PSF_PIXEL_MAX);
+                       "%s %s: pixel=%g must be in [%g, %g] micrometres, the "
+                       "sample-plane pixel sizes of light microscopy (e.g. 65 nm is "
+                       "pixel=0.065)",
+                       what, m, s->pixel, PP_PSF_PIXEL_MIN, PP_PSF_PIXEL_MAX);
     double ring = 0.61 * s->wavelength / na;
     if (ring < PP_PSF_RINGS_PER_PIXEL_MIN * s->pixel)
         return pp_fail(PP_ERR_ARG,
-                       WHAT " %s: pixel=%g micrometres is %.0f times the Airy first dark-ring "
-                            "radius 0.61 wavelength/na = %.3g um (at most %g): the PSF would "
-                            "fall in one pixel and deblur nothing; pixel is the sample-plane "
-                            "pixel, the camera's pixel / magnification (6.5 um at 100x is "
-                            "pixel=0.065)",
-                       m, s->pixel, s->pixel / ring, ring, 1 / PP_PSF_RINGS_PER_PIXEL_MIN);
+                       "%s %s: pixel=%g micrometres is %.0f times the Airy first dark-ring "
+                       "radius 0.61 wavelength/na = %.3g um (at most %g): the PSF would "
+                       "fall in one pixel and deblur nothing; pixel is the sample-plane "
+                       "pixel, the camera's pixel / magnification (6.5 um at 100x is "
+                       "pixel=0.065)",
+                       what, m, s->pixel, s->pixel / ring, ring, 1 / PP_PSF_RINGS_PER_PIXEL_MIN);
     return PP_OK;
 }
 

@@ -69,6 +69,7 @@
  * memory O(nz (nodes + table length)) besides the kernel.
  */
 #include "internal.h"
+#include "pixpost/setting.h"
 #include "psf_internal.h"
 #include <complex.h>
 #include <math.h>
@@ -76,7 +77,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-#define WHAT "--psf"
+/* Make-time messages (the kernel's fill) name the setting in the library's
+ * word; the parser's take `what` (pp_psf_parse). */
+#define LIB_WHAT pp_setting_name(NULL, PP_SET_PSF)
 #define V_STEP 0.01
 /* 5th zero of J1 (as psf.c): the in-focus radius of the default kernel. */
 #define J1_ZERO5 16.470630050877633
@@ -94,76 +97,79 @@
 
 /* ------------------------------------------------------------- spec ---- */
 
-static pp_status need(pp_spec *sp, const char *key, double *v)
+static pp_status need(pp_spec *sp, const char *what, const char *key, double *v)
 {
     pp_status st;
-    if (!pp_spec_number(sp, key, WHAT, v, NULL, &st))
+    if (!pp_spec_number(sp, key, what, v, NULL, &st))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " widefield: missing %s= (expected widefield:na=NA,wavelength=L,"
-                            "pixel=P,step=DZ,n=N[,sample_n=NS,depth=D], lengths in micrometres)",
-                       key);
+                       "%s widefield: missing %s= (expected widefield:na=NA,wavelength=L,"
+                       "pixel=P,step=DZ,n=N[,sample_n=NS,depth=D], lengths in micrometres)",
+                       what, key);
     return st;
 }
 
-static pp_status check_index(double v, const char *key)
+static pp_status check_index(const char *what, double v, const char *key)
 {
     if (!(v >= INDEX_MIN && v <= INDEX_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " widefield: %s=%g must be a refractive index in [%g, %g] (air 1.0, "
-                            "water 1.33, glycerol 1.47, immersion oil 1.515)",
-                       key, v, INDEX_MIN, INDEX_MAX);
+                       "%s widefield: %s=%g must be a refractive index in [%g, %g] (air 1.0, "
+                       "water 1.33, glycerol 1.47, immersion oil 1.515)",
+                       what, key, v, INDEX_MIN, INDEX_MAX);
     return PP_OK;
 }
 
 /* Ranges: step in [0.001, 50] um (piezo steps of nanometres to coarse
  * stacks; a nanometre value typed lands above); indices [1, 2] (air to
  * the densest immersion media, from memory); depth [0, 1000] um. */
-pp_status pp_psf_widefield_parse(pp_spec *sp, pp_psf_spec *out)
+pp_status pp_psf_widefield_parse(pp_spec *sp, const char *what, pp_psf_spec *out)
 {
     static const char *const keys[] = {"na", "wavelength", "pixel", "step",
                                        "n",  "sample_n",   "depth", NULL};
-    pp_status st = pp_spec_check_known(sp, WHAT, keys);
+    pp_status st = pp_spec_check_known(sp, what, keys);
     if (st == PP_OK)
-        st = need(sp, "na", &out->na);
+        st = need(sp, what, "na", &out->na);
     if (st == PP_OK)
-        st = need(sp, "wavelength", &out->wavelength);
+        st = need(sp, what, "wavelength", &out->wavelength);
     if (st == PP_OK)
-        st = need(sp, "pixel", &out->pixel);
+        st = need(sp, what, "pixel", &out->pixel);
     if (st == PP_OK)
-        st = need(sp, "step", &out->step);
+        st = need(sp, what, "step", &out->step);
     if (st == PP_OK)
-        st = need(sp, "n", &out->n);
+        st = need(sp, what, "n", &out->n);
     if (st != PP_OK)
         return st;
-    int has_ns = pp_spec_number(sp, "sample_n", WHAT, &out->sample_n, NULL, &st);
+    int has_ns = pp_spec_number(sp, "sample_n", what, &out->sample_n, NULL, &st);
     if (st != PP_OK)
         return st;
-    int has_d = pp_spec_number(sp, "depth", WHAT, &out->depth, NULL, &st);
-    if (st != PP_OK || (st = pp_spec_check_used(sp, WHAT, keys)) != PP_OK)
+    int has_d = pp_spec_number(sp, "depth", what, &out->depth, NULL, &st);
+    if (st != PP_OK || (st = pp_spec_check_used(sp, what, keys)) != PP_OK)
         return st;
     if (has_ns != has_d)
-        return pp_fail(PP_ERR_ARG, WHAT " widefield: sample_n= and depth= go together (the "
-                                        "sample's refractive index and the depth in micrometres "
-                                        "below the coverslip); give both or neither");
-    if ((st = pp_psf_check_optics(out)) != PP_OK || (st = check_index(out->n, "n")) != PP_OK)
+        return pp_fail(PP_ERR_ARG,
+                       "%s widefield: sample_n= and depth= go together (the sample's "
+                       "refractive index and the depth in micrometres below the coverslip); "
+                       "give both or neither",
+                       what);
+    if ((st = pp_psf_check_optics(out, what)) != PP_OK ||
+        (st = check_index(what, out->n, "n")) != PP_OK)
         return st;
-    if (has_ns && (st = check_index(out->sample_n, "sample_n")) != PP_OK)
+    if (has_ns && (st = check_index(what, out->sample_n, "sample_n")) != PP_OK)
         return st;
     if (!(out->na < out->n))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " widefield: na=%g must be below the immersion index n=%g (NA = n "
-                            "sin(angle))",
-                       out->na, out->n);
+                       "%s widefield: na=%g must be below the immersion index n=%g (NA = n "
+                       "sin(angle))",
+                       what, out->na, out->n);
     if (!(out->step >= STEP_MIN && out->step <= STEP_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " widefield: step=%g must be in [%g, %g] micrometres, the distance "
-                            "between slices (e.g. 200 nm is step=0.2)",
-                       out->step, STEP_MIN, STEP_MAX);
+                       "%s widefield: step=%g must be in [%g, %g] micrometres, the distance "
+                       "between slices (e.g. 200 nm is step=0.2)",
+                       what, out->step, STEP_MIN, STEP_MAX);
     if (has_d && !(out->depth >= 0 && out->depth <= DEPTH_MAX))
         return pp_fail(PP_ERR_ARG,
-                       WHAT " widefield: depth=%g must be in [0, %g] micrometres below the "
-                            "coverslip",
-                       out->depth, DEPTH_MAX);
+                       "%s widefield: depth=%g must be in [0, %g] micrometres below the "
+                       "coverslip",
+                       what, out->depth, DEPTH_MAX);
     return PP_OK;
 }
 
@@ -376,11 +382,10 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
     double need = (double)len * (nodes > 0 ? nodes : 32 + ceil(vmax + phimax));
     if (need > MAX_TABLE)
         return pp_fail(PP_ERR_LIMIT,
-                       WHAT
-                       " widefield: a %zux%zu kernel over %zu slices needs a pupil "
-                       "quadrature of %.3g Bessel values (at most %.3g); give a smaller --size "
-                       "or --depth",
-                       nx, nx, nz, need, MAX_TABLE);
+                       "%s widefield: a %zux%zu kernel over %zu slices needs a pupil "
+                       "quadrature of %.3g Bessel values (at most %.3g); give a smaller size "
+                       "or depth",
+                       LIB_WHAT, nx, nx, nz, need, MAX_TABLE);
     if (nodes <= 0)
         nodes = 32 + (int)ceil(vmax + phimax);
     /* Radius by radius: one row of J0 values, used by every slice; the
@@ -391,8 +396,8 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
     double complex *e = malloc(nz * (size_t)nodes * sizeof *e);
     if (!x || !w || !row || !tab || !e) {
         free(x), free(w), free(row), free(tab), free(e);
-        return pp_fail(PP_ERR_NOMEM, WHAT " widefield: out of memory for %zu slices of %zu radii",
-                       nz, len);
+        return pp_fail(PP_ERR_NOMEM, "%s widefield: out of memory for %zu slices of %zu radii",
+                       LIB_WHAT, nz, len);
     }
     pupil_rule(s, nodes, x, w);
     for (size_t p = 0; p < nz; p++)
@@ -420,7 +425,7 @@ pp_status pp_psf_widefield_fill(const pp_psf_spec *s, const pp_shape *shape, int
     }
     free(x), free(w), free(row), free(tab), free(e);
     if (!(total > 0) || !isfinite(total))
-        return pp_fail(PP_ERR_NUMERIC, WHAT " widefield: the PSF sums to %g", total);
+        return pp_fail(PP_ERR_NUMERIC, "%s widefield: the PSF sums to %g", LIB_WHAT, total);
     for (size_t i = 0; i < nz * nx * nx; i++)
         data[i] /= total;
     return PP_OK;

@@ -10,6 +10,7 @@
  * removes the temporary and leaves nothing under the final name. */
 #include "pixpost/report.h"
 #include "internal.h"
+#include "pixpost/setting.h"
 #include "report_internal.h"
 #include <math.h>
 #include <stdlib.h>
@@ -233,13 +234,17 @@ static pp_status images_section(page *pg)
                            pg->units);
     if (st == PP_OK && in->lo && in->hi)
         st = width_figure(pg);
-    if (st == PP_OK && in->residual)
-        st = colour_figure(pg, "residual", in->residual, "Standardised residual",
-                           "(y &minus; E[y | mean]) / &radic;Var[y | mean], the predictive "
-                           "check's residual (section &ldquo;Checks&rdquo;): noise without "
-                           "pattern when the model fits; blank where left out (the frame's "
-                           "edges with --boundary pad, unobserved pixels).",
-                           "sd");
+    if (st == PP_OK && in->residual) {
+        char b[64], explain[512];
+        pp_report_escape_str(b, sizeof b, pp_setting_name(in->setting_names, PP_SET_BOUNDARY));
+        snprintf(explain, sizeof explain,
+                 "(y &minus; E[y | mean]) / &radic;Var[y | mean], the predictive check's "
+                 "residual (section &ldquo;Checks&rdquo;): noise without pattern when the "
+                 "model fits; blank where left out (the frame's edges with %s pad, "
+                 "unobserved pixels).",
+                 b);
+        st = colour_figure(pg, "residual", in->residual, "Standardised residual", explain, "sd");
+    }
     fputs("</div></section>\n", pg->f);
     return st;
 }

@@ -4,6 +4,7 @@
  * checks' warnings. The residual map itself is a panel among the images
  * (src/report.c). Cost: a few lines of text. */
 #include "pixpost/report.h"
+#include "pixpost/setting.h"
 #include "report_internal.h"
 
 void pp_report_checks_section(FILE *f, const pp_report_input *in)
@@ -30,7 +31,14 @@ void pp_report_checks_section(FILE *f, const pp_report_input *in)
         }
         fputs("</ul>\n", f);
     }
+    /* the caller's exit status on an unconverged run, when it names one */
+    const char *strict = in->setting_names ? in->setting_names[PP_SET_STRICT] : NULL;
     fputs("<p>These are checks of the model, not of convergence: they do not change the "
-          "verdict above or the exit status under --strict.</p>\n</section>\n",
+          "verdict above",
           f);
+    if (strict) {
+        fputs(" or the exit status under ", f);
+        pp_report_escape(f, strict);
+    }
+    fputs(".</p>\n</section>\n", f);
 }

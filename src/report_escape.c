@@ -60,3 +60,18 @@ void pp_report_escape(FILE *f, const char *s)
         p++;
     }
 }
+
+void pp_report_escape_str(char *buf, size_t len, const char *s)
+{
+    if (len == 0)
+        return;
+    buf[0] = '\0';
+    FILE *m = len > 1 ? fmemopen(buf, len, "w") : NULL;
+    if (!m)
+        return;
+    setvbuf(m, NULL, _IONBF, 0); /* a write past the end fails at once */
+    pp_report_escape(m, s);
+    long n = ftell(m);
+    fclose(m);
+    buf[n > 0 && (size_t)n < len ? (size_t)n : (n > 0 ? len - 1 : 0)] = '\0';
+}

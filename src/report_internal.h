@@ -15,6 +15,9 @@
 /* Writes s HTML-escaped (& < > " ' as entities; invalid UTF-8 bytes and
  * control characters other than tab and newline as U+FFFD). NULL: nothing. */
 void pp_report_escape(FILE *f, const char *s);
+/* The same into buf (len bytes, always NUL-terminated when len > 0; a
+ * longer result is cut, possibly inside an entity). */
+void pp_report_escape_str(char *buf, size_t len, const char *s);
 
 /* ---- Verdict and warnings (src/report_verdict.c) ------------------------ */
 struct pp_report_input;

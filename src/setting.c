@@ -6,7 +6,7 @@ static const char *const own[PP_SET_COUNT] = {
     "sampler",  "chains",        "burn-in",         "iterations",        "thinning",
     "time cap", "iteration cap", "credible level", "lambda hyperprior", "delta hyperprior",
     "prior",    "PSF",           "boundary",        "background",
-    "noise model", "channel"};
+    "noise model", "channel", "keeping saturated pixels", "strict exit status"};
 
 const char *pp_setting_name(const char *const *names, pp_setting k)
 {

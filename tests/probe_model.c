@@ -49,7 +49,8 @@ static int do_psf(const char *spec, const char *size)
 {
     pp_psf_spec s;
     pp_image *k = NULL;
-    if (pp_psf_parse(spec, &s) != PP_OK || pp_psf_make(&s, strtoul(size, NULL, 10), &k) != PP_OK)
+    if (pp_psf_parse(spec, NULL, &s) != PP_OK ||
+        pp_psf_make(&s, strtoul(size, NULL, 10), &k) != PP_OK)
         return fail(spec);
     printf("%zu\n", k->width);
     print_image(k);
@@ -69,7 +70,7 @@ static int do_blur(const char *boundary)
         fprintf(stderr, "probe_model: malformed input on stdin\n");
         return 1;
     }
-    int rc = pp_model_blur(x, k, b, &y) == PP_OK ? 0 : fail("blur");
+    int rc = pp_model_blur(x, k, b, NULL, &y) == PP_OK ? 0 : fail("blur");
     if (!rc)
         print_image(y);
     pp_image_free(x);
@@ -92,7 +93,7 @@ static int do_blur3(const char *boundary)
         pp_image_free(k);
         return 1;
     }
-    int rc = pp_model_blur(x, k, b, &y) == PP_OK ? 0 : fail("blur3");
+    int rc = pp_model_blur(x, k, b, NULL, &y) == PP_OK ? 0 : fail("blur3");
     if (!rc)
         print_image(y);
     pp_image_free(x);
@@ -111,7 +112,7 @@ static int do_noise(const char *spec, double mu, size_t n, unsigned long long se
         y->data[i] = mu;
     pp_rng rng;
     pp_rng_seed(&rng, seed, 0);
-    int rc = pp_model_add_noise(y, &ns, &rng) == PP_OK ? 0 : fail("noise");
+    int rc = pp_model_add_noise(y, &ns, NULL, &rng) == PP_OK ? 0 : fail("noise");
     if (!rc)
         print_image(y);
     pp_image_free(y);

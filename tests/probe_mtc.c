@@ -36,7 +36,7 @@ static int apply(pp_sampler_config *cfg, const char *kv, const char **prior_text
     if (n == 7 && !strncmp(kv, "sampler", n))
         st = pp_sampler_kind_parse(v, NULL, &cfg->kind);
     else if (n == 5 && !strncmp(kv, "prior", n)) {
-        st = pp_prior_parse(v, &cfg->prior);
+        st = pp_prior_parse(v, NULL, &cfg->prior);
         *prior_text = v;
     } else if (n == 5 && !strncmp(kv, "noise", n))
         st = pp_noise_parse(v, NULL, &cfg->noise);
@@ -64,7 +64,7 @@ static int load(const char *frame_path, const char *psf_text, pp_image **frame,
 {
     if (pp_image_read(frame_path, NULL, frame, NULL) != PP_OK)
         return fail(frame_path);
-    if (pp_psf_parse(psf_text, spec) != PP_OK || pp_psf_make(spec, 0, psf) != PP_OK)
+    if (pp_psf_parse(psf_text, NULL, spec) != PP_OK || pp_psf_make(spec, 0, psf) != PP_OK)
         return fail(psf_text);
     return 0;
 }
@@ -84,7 +84,7 @@ static int do_logmarg(int argc, char **argv)
     cfg.burn = 0;
     if (load(argv[0], argv[1], &frame, &cfg.psf, &psf))
         return 1;
-    if (pp_prior_parse(argv[2], &cfg.prior) != PP_OK)
+    if (pp_prior_parse(argv[2], NULL, &cfg.prior) != PP_OK)
         return fail(argv[2]);
     if (pp_sampler_create(&cfg, frame, psf, &s) != PP_OK)
         return fail("create");

@@ -74,7 +74,7 @@ static int apply(pp_sampler_config *cfg, const char *kv)
     if (KEY("sampler"))
         st = pp_sampler_kind_parse(v, NULL, &cfg->kind);
     else if (KEY("prior"))
-        st = pp_prior_parse(v, &cfg->prior);
+        st = pp_prior_parse(v, NULL, &cfg->prior);
     else if (KEY("noise"))
         st = pp_noise_parse(v, NULL, &cfg->noise);
     else if (KEY("boundary"))
@@ -94,7 +94,7 @@ static int apply(pp_sampler_config *cfg, const char *kv)
     else if (KEY("level"))
         cfg->level = strtod(v, NULL);
     else if (KEY("psf")) /* a model for sigma=auto (refusal checks) */
-        st = pp_psf_parse(v, &cfg->psf);
+        st = pp_psf_parse(v, NULL, &cfg->psf);
     else if (KEY("hyper_delta"))
         return sscanf(v, "%lf,%lf", &cfg->hyper_delta[0], &cfg->hyper_delta[1]) == 2;
     else if (KEY("background"))

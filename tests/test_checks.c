@@ -129,12 +129,12 @@ static void test_ppcheck(void)
     size_t w = 24, h = 20;
     pp_psf_spec ps;
     pp_image *psf = NULL, *x = NULL, *ax = NULL;
-    pp_psf_parse("gaussian:sigma=1", &ps);
+    pp_psf_parse("gaussian:sigma=1", NULL, &ps);
     pp_psf_make(&ps, 0, &psf); /* 9x9 */
     pp_image_create(h, w, &x);
     for (size_t i = 0; i < w * h; i++)
         x->data[i] = 50 + 30 * sin(0.3 * (double)i);
-    pp_model_blur(x, psf, PP_BOUNDARY_PERIODIC, &ax);
+    pp_model_blur(x, psf, PP_BOUNDARY_PERIODIC, NULL, &ax);
     double sigma = 2.0;
     for (size_t i = 0; i < h; i++)
         for (size_t j = 0; j < w; j++)

@@ -106,7 +106,7 @@ static void test_beads(void)
     /* DBL_MAX-scale values: the old centroid sums overflowed to inf */
     write_bead(path_of("huge.tif"), 13, 13, huge_bead);
     snprintf(spec, sizeof spec, "file:%s", path_of("huge.tif"));
-    CHECK(pp_psf_parse(spec, &s) == PP_OK, "parse %s", spec);
+    CHECK(pp_psf_parse(spec, NULL, &s) == PP_OK, "parse %s", spec);
     pp_status st = pp_psf_make(&s, 0, &k);
     CHECK(st == PP_OK && k, "huge-valued bead accepted: %s", pp_error_message());
     if (k) {
@@ -119,7 +119,7 @@ static void test_beads(void)
 
     write_bead(path_of("negative.tif"), 13, 13, negative_bead);
     snprintf(spec, sizeof spec, "file:%s", path_of("negative.tif"));
-    pp_psf_parse(spec, &s);
+    pp_psf_parse(spec, NULL, &s);
     st = pp_psf_make(&s, 0, &k);
     CHECK(st == PP_ERR_FORMAT && !k && strstr(pp_error_message(), "negative.tif") &&
               strstr(pp_error_message(), "bead"),
@@ -127,7 +127,7 @@ static void test_beads(void)
 
     write_bead(path_of("noise.tif"), 15, 15, noise_bead);
     snprintf(spec, sizeof spec, "file:%s", path_of("noise.tif"));
-    pp_psf_parse(spec, &s);
+    pp_psf_parse(spec, NULL, &s);
     st = pp_psf_make(&s, 0, &k);
     CHECK(st == PP_ERR_FORMAT && !k && strstr(pp_error_message(), "noise.tif"),
           "pure-noise 'bead' refused naming the file: %s", pp_error_message());
@@ -135,7 +135,7 @@ static void test_beads(void)
     /* off-centre bead: the kernel is re-centred on the centroid */
     write_bead(path_of("offcentre.tif"), 20, 12, offcentre_bead);
     snprintf(spec, sizeof spec, "file:%s", path_of("offcentre.tif"));
-    pp_psf_parse(spec, &s);
+    pp_psf_parse(spec, NULL, &s);
     st = pp_psf_make(&s, 0, &k);
     CHECK(st == PP_OK && k && k->width % 2 == 1 && k->width == k->height,
           "off-centre bead accepted as an odd square: %s", pp_error_message());

@@ -129,7 +129,7 @@ int main(void)
     pp_sampler_return_memory(); /* as the pixpost command does */
     pp_image *y = NULL, *psf = NULL;
     pp_psf_spec ps;
-    pp_psf_parse("gaussian:sigma=1.5", &ps);
+    pp_psf_parse("gaussian:sigma=1.5", NULL, &ps);
     if (pp_image_create(SIDE, SIDE, &y) != PP_OK || pp_psf_make(&ps, 0, &psf) != PP_OK) {
         CHECK(0, "setup: %s", pp_error_message());
         return pp_test_done();

@@ -51,7 +51,7 @@ static void check_direct(size_t w, size_t h, size_t ksize)
     int fits = ksize <= w && ksize <= h; /* else periodic is refused (checked below) */
     for (int wrap = 0; wrap < 1 + fits; wrap++) {
         pp_boundary b = wrap ? PP_BOUNDARY_PERIODIC : PP_BOUNDARY_PAD;
-        CHECK(pp_model_blur(x, k, b, &y) == PP_OK && y, "blur %zux%zu %s", w, h,
+        CHECK(pp_model_blur(x, k, b, NULL, &y) == PP_OK && y, "blur %zux%zu %s", w, h,
               pp_boundary_name(b));
         if (!y)
             continue;
@@ -75,7 +75,7 @@ static void check_delta(void)
     pp_image_create(24, 31, &x);
     x->data[10 * 31 + 17] = 1.0;
     for (int b = 0; b < 2; b++) {
-        CHECK(pp_model_blur(x, k, (pp_boundary)b, &y) == PP_OK, "delta blurred");
+        CHECK(pp_model_blur(x, k, (pp_boundary)b, NULL, &y) == PP_OK, "delta blurred");
         double err = 0, outside = 0;
         for (size_t i = 0; i < 24; i++)
             for (size_t j = 0; j < 31; j++) {
@@ -99,8 +99,8 @@ static void check_borders(void)
     pp_image *x = random_image(40, 33, 3), *k = NULL, *p = NULL, *q = NULL;
     pp_psf_spec s = {.kind = PP_PSF_GAUSSIAN, .sigma = 1.0}; /* R = 4 */
     pp_psf_make(&s, 0, &k);
-    pp_model_blur(x, k, PP_BOUNDARY_PAD, &p);
-    pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, &q);
+    pp_model_blur(x, k, PP_BOUNDARY_PAD, NULL, &p);
+    pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, NULL, &q);
     double inner = 0, border = 0, sx = 0, sq = 0;
     for (size_t i = 0; i < 33; i++)
         for (size_t j = 0; j < 40; j++) {
@@ -163,16 +163,21 @@ static void check_refusals(void)
           "caller's name: %s", pp_error_message());
     CHECK(strcmp(pp_boundary_name(PP_BOUNDARY_PERIODIC), "periodic") == 0, "name");
     pp_image *x = random_image(6, 5, 1), *k = random_image(7, 7, 2), *y = NULL, *even = NULL;
-    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, &y) == PP_ERR_LIMIT && !y,
-          "periodic blur with a PSF larger than the frame refused");
-    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PAD, &y) == PP_OK && y,
+    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, NULL, &y) == PP_ERR_LIMIT && !y &&
+              strstr(pp_error_message(), "(use boundary pad)") && !strstr(pp_error_message(), "--"),
+          "periodic blur with a PSF larger than the frame refused, in the library's words: %s",
+          pp_error_message());
+    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, flags, &y) == PP_ERR_LIMIT && !y &&
+              strstr(pp_error_message(), "(use --boundary pad)"),
+          "... and by the caller's name: %s", pp_error_message());
+    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PAD, NULL, &y) == PP_OK && y,
           "pad blur takes a PSF larger than the frame");
     pp_image_free(y);
     check_direct(6, 5, 7); /* ... and gets it right */
     pp_image_create(4, 4, &even);
-    CHECK(pp_model_blur(x, even, PP_BOUNDARY_PAD, &y) == PP_ERR_ARG, "even PSF refused");
+    CHECK(pp_model_blur(x, even, PP_BOUNDARY_PAD, NULL, &y) == PP_ERR_ARG, "even PSF refused");
     x->data[3] = NAN;
-    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PAD, &y) == PP_ERR_NUMERIC, "NaN scene refused");
+    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PAD, NULL, &y) == PP_ERR_NUMERIC, "NaN scene refused");
     pp_image_free(x);
     pp_image_free(k);
     pp_image_free(even);
@@ -192,7 +197,7 @@ static void check_moments(const char *spec, double mu, double mean, double var, 
         y->data[i] = mu;
     pp_rng rng;
     pp_rng_seed(&rng, 2024, 3);
-    CHECK(pp_model_add_noise(y, &ns, &rng) == PP_OK, "noise added");
+    CHECK(pp_model_add_noise(y, &ns, NULL, &rng) == PP_OK, "noise added");
     double m = 0, v = 0;
     for (size_t i = 0; i < n; i++)
         m += y->data[i];
@@ -227,24 +232,31 @@ static void check_noise(void)
     for (size_t i = 0; i < 64; i++)
         y->data[i] = -3.0;
     pp_noise_parse("poisson:gain=2,offset=7", NULL, &ns);
-    pp_model_add_noise(y, &ns, &rng);
+    pp_model_add_noise(y, &ns, NULL, &rng);
     int all_offset = 1;
     for (size_t i = 0; i < 64; i++)
         all_offset &= y->data[i] == 7.0;
     CHECK(all_offset, "negative expected photons are clipped to 0 (offset only)");
     pp_noise_parse("gaussian", NULL, &ns);
     y->data[0] = 1.5;
-    CHECK(pp_model_add_noise(y, &ns, &rng) == PP_ERR_ARG && y->data[0] == 1.5 &&
-              strstr(pp_error_message(), "sigma="),
-          "gaussian without sigma refused, y unchanged: %s", pp_error_message());
+    CHECK(pp_model_add_noise(y, &ns, NULL, &rng) == PP_ERR_ARG && y->data[0] == 1.5 &&
+              strstr(pp_error_message(), "sigma=") &&
+              strncmp(pp_error_message(), "noise model gaussian:", 21) == 0 &&
+              !strstr(pp_error_message(), "--"),
+          "gaussian without sigma refused, y unchanged, in the library's words: %s",
+          pp_error_message());
+    static const char *const flags[PP_SET_COUNT] = {[PP_SET_NOISE] = "--noise"};
+    CHECK(pp_model_add_noise(y, &ns, flags, &rng) == PP_ERR_ARG && y->data[0] == 1.5 &&
+              strncmp(pp_error_message(), "--noise gaussian:", 17) == 0,
+          "... and by the caller's name: %s", pp_error_message());
     pp_noise_parse("poisson:gain=1,offset=0", NULL, &ns);
     y->data[5] = NAN;
     y->data[0] = 1.5;
-    CHECK(pp_model_add_noise(y, &ns, &rng) == PP_ERR_NUMERIC && y->data[0] == 1.5,
+    CHECK(pp_model_add_noise(y, &ns, NULL, &rng) == PP_ERR_NUMERIC && y->data[0] == 1.5,
           "NaN expected value refused before anything changes");
     pp_noise_parse("none", NULL, &ns);
     y->data[5] = 2;
-    CHECK(pp_model_add_noise(y, &ns, &rng) == PP_OK && y->data[0] == 1.5 && y->data[5] == 2,
+    CHECK(pp_model_add_noise(y, &ns, NULL, &rng) == PP_OK && y->data[0] == 1.5 && y->data[5] == 2,
           "none leaves y alone");
     pp_image_free(y);
 }
@@ -258,14 +270,14 @@ static void check_simulate(void)
         x->data[i] *= 50;
     pp_noise_spec ns;
     pp_noise_parse("camera:gain=2,offset=100,read=1.5", NULL, &ns);
-    CHECK(pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, &a) == PP_OK, "simulated");
-    pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, &b);
-    pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 12, &c);
+    CHECK(pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, NULL, &a) == PP_OK, "simulated");
+    pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, NULL, &b);
+    pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 12, NULL, &c);
     CHECK(memcmp(a->data, b->data, 17 * 12 * sizeof(double)) == 0, "same seed, same frame");
     CHECK(memcmp(a->data, c->data, 17 * 12 * sizeof(double)) != 0, "other seed, other frame");
     pp_image *d = NULL;
     pp_noise_parse("gaussian", NULL, &ns);
-    CHECK(pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, &d) == PP_ERR_ARG && !d,
+    CHECK(pp_model_simulate(x, k, PP_BOUNDARY_PAD, &ns, 11, NULL, &d) == PP_ERR_ARG && !d,
           "simulate refuses gaussian without sigma");
     pp_image_free(x);
     pp_image_free(k);
@@ -315,7 +327,7 @@ static void check_direct3(size_t d, size_t h, size_t w, size_t kd, size_t kh, si
     int fits = kd <= d && kh <= h && kw <= w;
     for (int wrap = 0; wrap < 1 + fits; wrap++) {
         pp_boundary b = wrap ? PP_BOUNDARY_PERIODIC : PP_BOUNDARY_PAD;
-        CHECK(pp_model_blur(x, k, b, &y) == PP_OK && y && y->depth == d, "blur3 %s: %s",
+        CHECK(pp_model_blur(x, k, b, NULL, &y) == PP_OK && y && y->depth == d, "blur3 %s: %s",
               pp_boundary_name(b), pp_error_message());
         if (!y)
             continue;
@@ -330,7 +342,7 @@ static void check_direct3(size_t d, size_t h, size_t w, size_t kd, size_t kh, si
         pp_image_free(y);
     }
     if (!fits)
-        CHECK(pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, &y) == PP_ERR_LIMIT && !y &&
+        CHECK(pp_model_blur(x, k, PP_BOUNDARY_PERIODIC, NULL, &y) == PP_ERR_LIMIT && !y &&
                   strstr(pp_error_message(), "slices"),
               "periodic refuses a kernel larger than the volume: %s", pp_error_message());
     pp_image_free(x);
@@ -348,7 +360,7 @@ static void check_volume(void)
     pp_image *x = NULL, *k = random_volume(1, 3, 3, 5), *y = NULL;
     pp_image_create3(5, 8, 8, &x);
     x->data[(2 * 8 + 4) * 8 + 4] = 1.0;
-    pp_model_blur(x, k, PP_BOUNDARY_PAD, &y);
+    pp_model_blur(x, k, PP_BOUNDARY_PAD, NULL, &y);
     double other = 0;
     for (size_t i = 0; i < 5 * 64; i++)
         other += i / 64 == 2 ? 0 : fabs(y->data[i]);
@@ -357,11 +369,11 @@ static void check_volume(void)
     pp_image_free(y);
     /* a 3-D kernel on one frame is refused; a NaN in slice 3 is located */
     pp_image *f = random_image(8, 8, 3), *k3 = random_volume(3, 3, 3, 9);
-    CHECK(pp_model_blur(f, k3, PP_BOUNDARY_PAD, &y) == PP_ERR_ARG && !y &&
+    CHECK(pp_model_blur(f, k3, PP_BOUNDARY_PAD, NULL, &y) == PP_ERR_ARG && !y &&
               strstr(pp_error_message(), "3-D"),
           "3-D kernel on a frame refused: %s", pp_error_message());
     x->data[(3 * 8 + 1) * 8 + 2] = NAN;
-    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PAD, &y) == PP_ERR_NUMERIC &&
+    CHECK(pp_model_blur(x, k, PP_BOUNDARY_PAD, NULL, &y) == PP_ERR_NUMERIC &&
               strstr(pp_error_message(), "(3, 1, 2)"),
           "NaN voxel named by slice, row, column: %s", pp_error_message());
     /* noise over the whole volume: gaussian sd 2 on 5 x 64 voxels of 0;
@@ -371,14 +383,14 @@ static void check_volume(void)
     pp_noise_parse("gaussian:sigma=2", NULL, &ns);
     pp_rng rng;
     pp_rng_seed(&rng, 3, 0);
-    CHECK(pp_model_add_noise(x, &ns, &rng) == PP_OK, "noise on a volume");
+    CHECK(pp_model_add_noise(x, &ns, NULL, &rng) == PP_OK, "noise on a volume");
     size_t zeros = 0;
     for (size_t i = 0; i < 5 * 64; i++)
         zeros += x->data[i] == 0;
     CHECK(zeros == 0, "every voxel of every slice got noise (%zu left at 0)", zeros);
     pp_image *a = NULL, *b = NULL;
-    CHECK(pp_model_simulate(x, k3, PP_BOUNDARY_PERIODIC, &ns, 4, &a) == PP_OK &&
-              pp_model_simulate(x, k3, PP_BOUNDARY_PERIODIC, &ns, 4, &b) == PP_OK &&
+    CHECK(pp_model_simulate(x, k3, PP_BOUNDARY_PERIODIC, &ns, 4, NULL, &a) == PP_OK &&
+              pp_model_simulate(x, k3, PP_BOUNDARY_PERIODIC, &ns, 4, NULL, &b) == PP_OK &&
               a->depth == 5 && memcmp(a->data, b->data, 5 * 64 * sizeof(double)) == 0,
           "simulate of a volume is reproducible for a seed");
     pp_image_free(a);

@@ -54,12 +54,13 @@ static pp_sampler *run(const pp_sampler_config *c, const pp_image *y, const pp_i
 static void test_refusals(const pp_image *y, const pp_image *k)
 {
     pp_psf_spec sp;
-    CHECK(pp_psf_parse("gaussian:sigma=auto,lo=0,hi=2", &sp) == PP_ERR_ARG, "lo=0 refused");
-    CHECK(pp_psf_parse("gaussian:sigma=auto,lo=2,hi=1", &sp) == PP_ERR_ARG, "lo>hi refused");
-    CHECK(pp_psf_parse("airy:na=auto,hi=1.9,wavelength=0.5,pixel=0.1", &sp) == PP_ERR_ARG,
+    CHECK(pp_psf_parse("gaussian:sigma=auto,lo=0,hi=2", NULL, &sp) == PP_ERR_ARG, "lo=0 refused");
+    CHECK(pp_psf_parse("gaussian:sigma=auto,lo=2,hi=1", NULL, &sp) == PP_ERR_ARG, "lo>hi refused");
+    CHECK(pp_psf_parse("airy:na=auto,hi=1.9,wavelength=0.5,pixel=0.1", NULL, &sp) == PP_ERR_ARG,
           "NA above 1.7 refused");
-    CHECK(pp_psf_parse("gaussian:sigma=2,lo=1", &sp) == PP_ERR_ARG, "lo without auto refused");
-    CHECK(pp_psf_parse("gaussian:sigma=auto", &sp) == PP_OK && sp.width_auto &&
+    CHECK(pp_psf_parse("gaussian:sigma=2,lo=1", NULL, &sp) == PP_ERR_ARG,
+          "lo without auto refused");
+    CHECK(pp_psf_parse("gaussian:sigma=auto", NULL, &sp) == PP_OK && sp.width_auto &&
               sp.width_lo == 0.5 && sp.width_hi == 4.0 && sp.sigma == 2.25,
           "sigma=auto: default range 0.5..4, start at the midpoint");
     char buf[256];
@@ -124,7 +125,7 @@ static void test_fixed(const pp_image *y, const pp_image *k)
 static void test_threads_and_width(const pp_image *y, const pp_image *k)
 {
     pp_sampler_config c = base(PP_SAMPLER_MTC);
-    pp_psf_parse("gaussian:sigma=auto,lo=0.8,hi=2", &c.psf);
+    pp_psf_parse("gaussian:sigma=auto,lo=0.8,hi=2", NULL, &c.psf);
     pp_sampler *a = run(&c, y, k);
     c.threads = 2;
     pp_sampler *b = run(&c, y, k);
@@ -201,7 +202,7 @@ int main(void)
 {
     pp_image *y = frame(), *k = NULL;
     pp_psf_spec sp;
-    pp_psf_parse("gaussian:sigma=1.2", &sp);
+    pp_psf_parse("gaussian:sigma=1.2", NULL, &sp);
     pp_psf_make(&sp, 9, &k);
     test_refusals(y, k);
     test_pad_fallback(y, k);

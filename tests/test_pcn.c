@@ -27,7 +27,7 @@ static pp_image *photon_frame(const pp_image *psf, double level, double gain, do
     char spec[128];
     snprintf(spec, sizeof spec, "poisson:gain=%g,offset=%g", gain, offset);
     pp_noise_parse(spec, NULL, &nz);
-    pp_model_simulate(truth, psf, PP_BOUNDARY_PERIODIC, &nz, 3, &y);
+    pp_model_simulate(truth, psf, PP_BOUNDARY_PERIODIC, &nz, 3, NULL, &y);
     pp_image_free(truth);
     return y;
 }
@@ -107,7 +107,7 @@ static void camera_read0_is_poisson(const pp_image *psf, pp_sampler_kind kind, p
     cfg.burn = 60;
     cfg.iters = 80;
     cfg.chains = 2;
-    pp_prior_parse("matern:range=4,nu=1", &cfg.prior);
+    pp_prior_parse("matern:range=4,nu=1", NULL, &cfg.prior);
     pp_noise_parse("poisson:gain=0.5,offset=100", NULL, &cfg.noise);
     pp_sampler *p = run(&cfg, y, psf);
     pp_noise_parse("camera:gain=0.5,offset=100,read=0", NULL, &cfg.noise);
@@ -151,7 +151,7 @@ static void gaussian_closed_form(const pp_image *psf, pp_sampler_kind kind)
         truth->data[i] = 5.0 + 2.0 * sin(0.3 * (double)i);
     pp_noise_spec nz;
     pp_noise_parse("gaussian:sigma=0.5", NULL, &nz);
-    pp_model_simulate(truth, psf, PP_BOUNDARY_PERIODIC, &nz, 4, &y);
+    pp_model_simulate(truth, psf, PP_BOUNDARY_PERIODIC, &nz, 4, NULL, &y);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0; /* exactly burn + iters */
@@ -161,7 +161,7 @@ static void gaussian_closed_form(const pp_image *psf, pp_sampler_kind kind)
     cfg.noise = nz;
     cfg.burn = 500;
     cfg.iters = 3000;
-    pp_prior_parse("matern:range=4,nu=1,mean=5,delta=0.5", &cfg.prior);
+    pp_prior_parse("matern:range=4,nu=1,mean=5,delta=0.5", NULL, &cfg.prior);
     /* The closed form from the sampler's own transfer function and prior
      * eigenvalues, taken before the run (which frees them). */
     pp_sampler *s = NULL;
@@ -242,7 +242,7 @@ static void short_burn_warned(const pp_image *psf)
     cfg.iters_auto = 0; /* exactly burn + iters */
     cfg.prior.kind = PP_PRIOR_GMRF1; /* a stationary prior: these check its samplers */
     pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise);
-    pp_prior_parse("matern:range=4,nu=1", &cfg.prior);
+    pp_prior_parse("matern:range=4,nu=1", NULL, &cfg.prior);
     cfg.kind = PP_SAMPLER_GPCN;
     cfg.chains = 1;
     cfg.iters = 20;
@@ -263,7 +263,7 @@ int main(void)
 {
     pp_psf_spec ps;
     pp_image *psf = NULL;
-    pp_psf_parse("gaussian:sigma=1.2", &ps);
+    pp_psf_parse("gaussian:sigma=1.2", NULL, &ps);
     pp_psf_make(&ps, 7, &psf);
     camera_read0_is_poisson(psf, PP_SAMPLER_PCN, PP_BOUNDARY_PERIODIC);
     camera_read0_is_poisson(psf, PP_SAMPLER_GPCN, PP_BOUNDARY_PAD);

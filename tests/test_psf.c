@@ -3,6 +3,7 @@
  * files, pp_psf_check's refusals and J1 against an independent quadrature. */
 #include "pixpost/io.h"
 #include "pixpost/psf.h"
+#include "pixpost/setting.h"
 #include "testutil.h"
 #include <math.h>
 #include <stdint.h>
@@ -11,32 +12,43 @@
 
 #define PI 3.14159265358979323846
 
+/* A program's name for the PSF setting (as src/cli/flag_names.c's). */
+static const char *const flags[PP_SET_COUNT] = {[PP_SET_PSF] = "--psf"};
+
+/* spec is refused naming the setting and needle: in the library's word
+ * "PSF" without names (no command-line flag: no "--"), and by the
+ * caller's name with a names table. */
 static void refused(const char *spec, const char *needle)
 {
     pp_psf_spec s;
-    pp_status st = pp_psf_parse(spec, &s);
+    pp_status st = pp_psf_parse(spec, NULL, &s);
     const char *m = pp_error_message();
-    CHECK(st == PP_ERR_ARG && strstr(m, "--psf") && strstr(m, needle),
-          "'%s' refused with a message naming --psf and '%s': %s", spec, needle, m);
+    CHECK(st == PP_ERR_ARG && strncmp(m, "PSF", 3) == 0 && !strstr(m, "--") && strstr(m, needle),
+          "'%s' refused without names, in the library's words and naming '%s': %s", spec, needle,
+          m);
+    st = pp_psf_parse(spec, flags, &s);
+    m = pp_error_message();
+    CHECK(st == PP_ERR_ARG && strncmp(m, "--psf", 5) == 0 && strstr(m, needle),
+          "'%s' refused with a names table, naming --psf and '%s': %s", spec, needle, m);
 }
 
 static void check_parse(void)
 {
     pp_psf_spec s, t;
     char buf[256];
-    CHECK(pp_psf_parse("gaussian:sigma=1.6", &s) == PP_OK && s.kind == PP_PSF_GAUSSIAN &&
+    CHECK(pp_psf_parse("gaussian:sigma=1.6", NULL, &s) == PP_OK && s.kind == PP_PSF_GAUSSIAN &&
               s.sigma == 1.6,
           "gaussian parsed");
     pp_psf_format(&s, buf, sizeof buf);
     CHECK(strcmp(buf, "gaussian:sigma=1.6") == 0, "gaussian formatted: %s", buf);
-    CHECK(pp_psf_parse("airy:pixel=0.065,na=1.4,wavelength=0.52", &s) == PP_OK &&
+    CHECK(pp_psf_parse("airy:pixel=0.065,na=1.4,wavelength=0.52", NULL, &s) == PP_OK &&
               s.kind == PP_PSF_AIRY && s.na == 1.4 && s.wavelength == 0.52 && s.pixel == 0.065,
           "airy parsed, keys in any order");
     pp_psf_format(&s, buf, sizeof buf);
-    CHECK(pp_psf_parse(buf, &t) == PP_OK && t.na == s.na && t.wavelength == s.wavelength &&
+    CHECK(pp_psf_parse(buf, NULL, &t) == PP_OK && t.na == s.na && t.wavelength == s.wavelength &&
               t.pixel == s.pixel,
           "airy format round-trips: %s", buf);
-    CHECK(pp_psf_parse("file:/data/bead:1.tif", &s) == PP_OK && s.kind == PP_PSF_FILE &&
+    CHECK(pp_psf_parse("file:/data/bead:1.tif", NULL, &s) == PP_OK && s.kind == PP_PSF_FILE &&
               strcmp(s.path, "/data/bead:1.tif") == 0,
           "file path kept whole");
     pp_psf_format(&s, buf, sizeof buf);
@@ -301,7 +313,8 @@ static void check_units(void)
                         "airy:na=auto,wavelength=0.52,pixel=0.065"};
     for (size_t i = 0; i < sizeof ok / sizeof ok[0]; i++) {
         pp_psf_spec s;
-        CHECK(pp_psf_parse(ok[i], &s) == PP_OK, "'%s' accepted: %s", ok[i], pp_error_message());
+        CHECK(pp_psf_parse(ok[i], NULL, &s) == PP_OK, "'%s' accepted: %s", ok[i],
+              pp_error_message());
     }
 }
 

@@ -10,6 +10,7 @@
  * percentiles, colour ramp, escaping) on cases worked out by hand. */
 #include "pixpost/report.h"
 #include "pixpost/rng.h"
+#include "pixpost/setting.h"
 #include "report_internal.h"
 #include "testutil.h"
 #include <dirent.h>
@@ -372,8 +373,50 @@ static void test_helpers(void)
     CHECK(mono, "ramp luminance not monotone");
 }
 
+/* The page's own sentences name settings by the caller's names (issue 18):
+ * in the library's words without a table, by the table's names (escaped)
+ * with one; the strict exit status only when the caller names it. */
+static void test_setting_names(const char *dir)
+{
+    synth s;
+    synth_make(&s, 40, 30, 300, 9);
+    s.in.residual = s.in.sd;
+    s.in.checks_summary = "a summary";
+    char path[4200];
+    snprintf(path, sizeof path, "%s/names.html", dir);
+    static const char *const flags[PP_SET_COUNT] = {
+        [PP_SET_BOUNDARY] = "--boundary", [PP_SET_STRICT] = "--strict"};
+    static const char *const odd[PP_SET_COUNT] = {[PP_SET_BOUNDARY] = "<b>"};
+    for (int k = 0; k < 3; k++) {
+        s.in.setting_names = k == 0 ? NULL : k == 1 ? flags : odd;
+        CHECK(pp_report_write(path, &s.in) == PP_OK, "write: %s", pp_error_message());
+        char *html = pp_test_slurp(path);
+        if (k == 0)
+            CHECK(has(html, "the frame's edges with boundary pad, unobserved pixels") &&
+                      has(html, "they do not change the verdict above.</p>") &&
+                      !has(html, "--boundary") && !has(html, "--strict"),
+                  "no names: the library's words");
+        else if (k == 1)
+            CHECK(has(html, "the frame's edges with --boundary pad, unobserved pixels") &&
+                      has(html, "the verdict above or the exit status under --strict.</p>"),
+                  "the command line's names");
+        else
+            CHECK(has(html, "edges with &lt;b&gt; pad") && !has(html, "<b> pad") &&
+                      has(html, "the verdict above.</p>"),
+                  "a caller's name escaped; no strict name, no exit status");
+        free(html);
+    }
+    remove(path);
+    synth_free(&s);
+}
+
 static void test_escape(const char *dir)
 {
+    char cut[8];
+    pp_report_escape_str(cut, sizeof cut, "a<b");
+    CHECK(strcmp(cut, "a&lt;b") == 0, "escape into a buffer: \"%s\"", cut);
+    pp_report_escape_str(cut, 4, "a<b");
+    CHECK(strcmp(cut, "a&l") == 0, "cut to the buffer: \"%s\"", cut);
     char path[4200];
     snprintf(path, sizeof path, "%s/esc.txt", dir);
     FILE *f = fopen(path, "wb");
@@ -405,6 +448,7 @@ int main(void)
     test_ticks();
     test_helpers();
     test_escape(d[0]);
+    test_setting_names(d[0]);
     test_units(d[2]);
     return pp_test_done();
 }

@@ -25,7 +25,7 @@ int main(void)
     for (size_t i = 0; i < h * w; i++)
         y->data[i] = 10 + (double)(i % 7) + 0.5 * (double)(i % 3);
     pp_psf_spec sp;
-    pp_psf_parse("gaussian:sigma=1.2", &sp);
+    pp_psf_parse("gaussian:sigma=1.2", NULL, &sp);
     pp_psf_make(&sp, 7, &k);
     pp_sampler_config c;
     pp_sampler_defaults(&c);
@@ -86,6 +86,22 @@ int main(void)
     CHECK(has(js, pp_sampler_bound_method(s)) && !has(js, "hand-made") && !has(js, "pad_scheme"),
           "summary.json from the sampler's result has the sampler's wording");
     free(js);
+    /* the report's settings name automatic lengths by the caller's name of
+     * the iterations setting, or in the library's words (issue 18) */
+    static const char *const flags[PP_SET_COUNT] = {[PP_SET_ITERS] = "--iters"};
+    char rpath[512];
+    snprintf(rpath, sizeof rpath, "%s/report.html", dir);
+    hand = r;
+    hand.length.iters_auto = 1;
+    for (int named = 0; named < 2; named++) {
+        hand.config.setting_names = named ? flags : NULL;
+        CHECK(pp_output_write(dir, &hand, y, NULL) == PP_OK, "write: %s", pp_error_message());
+        char *html = pp_test_slurp(rpath);
+        CHECK(named ? has(html, "(--iters auto: ")
+                    : has(html, "(automatic: ") && !has(html, "--iters"),
+              "automatic lengths %s", named ? "by the caller's name" : "in the library's words");
+        free(html);
+    }
     pp_result_free(&r);
     CHECK(r.chain == NULL, "pp_result_free clears the per-chain array");
     pp_result_free(&r);

@@ -141,11 +141,11 @@ static void extendable(void)
 {
     pp_image *y = frame(24, 20, 0), *yp = frame(24, 20, 1), *psf;
     pp_psf_spec ps;
-    pp_psf_parse("gaussian:sigma=1.2", &ps);
+    pp_psf_parse("gaussian:sigma=1.2", NULL, &ps);
     pp_psf_make(&ps, 0, &psf);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);
-    pp_prior_parse("gmrf1", &cfg.prior);
+    pp_prior_parse("gmrf1", NULL, &cfg.prior);
     cfg.kind = PP_SAMPLER_GIBBS;
     cfg.boundary = PP_BOUNDARY_PERIODIC;
     rounds_equal_one_run("gibbs periodic", cfg, y, psf);
@@ -162,7 +162,7 @@ static void extendable(void)
     pp_sampler_defaults(&cfg);
     pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise);
     rounds_equal_one_run("hmc adaptive", cfg, yp, psf); /* the default for photons */
-    pp_prior_parse("gmrf1", &cfg.prior);
+    pp_prior_parse("gmrf1", NULL, &cfg.prior);
     rounds_equal_one_run("hmc gmrf1", cfg, yp, psf);
     cfg.kind = PP_SAMPLER_PCN;
     rounds_equal_one_run("pcn gmrf1", cfg, yp, psf);
@@ -254,14 +254,14 @@ int main(void)
     extendable();
     pp_image *y = frame(24, 20, 0), *yp = frame(24, 20, 1), *psf;
     pp_psf_spec ps;
-    pp_psf_parse("gaussian:sigma=1.2", &ps);
+    pp_psf_parse("gaussian:sigma=1.2", NULL, &ps);
     pp_psf_make(&ps, 0, &psf);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg); /* adaptive gibbs: records the draws x */
     cfg.boundary = PP_BOUNDARY_PERIODIC;
     unequal_halves("adaptive gibbs", cfg, y, psf);
     pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise);
-    pp_prior_parse("gmrf1", &cfg.prior);
+    pp_prior_parse("gmrf1", NULL, &cfg.prior);
     cfg.positivity = PP_POSITIVITY_NONE; /* x = z: the moments are of the probes' values */
     cfg.kind = PP_SAMPLER_HMC;
     unequal_halves("hmc", cfg, yp, psf);

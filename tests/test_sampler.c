@@ -80,20 +80,22 @@ static void priors(void)
 {
     pp_prior_spec p;
     double q[6 * 4], rank;
-    CHECK(pp_prior_parse("gmrf1", &p) == PP_OK && p.kind == PP_PRIOR_GMRF1, "gmrf1");
+    CHECK(pp_prior_parse("gmrf1", NULL, &p) == PP_OK && p.kind == PP_PRIOR_GMRF1, "gmrf1");
     pp_prior_eigen(&p, 6, 6, q, &rank);
     CHECK(q[0] == 0 && rank == 35, "gmrf1: free mean, rank N-1");
     CHECK(fabs(q[3 * 4 + 3] - 8) < 1e-12, "gmrf1 largest eigenvalue 8 at (H/2, W/2)");
-    CHECK(pp_prior_parse("gmrf2:delta=3", &p) == PP_OK && p.delta_set && p.delta == 3, "gmrf2");
+    CHECK(pp_prior_parse("gmrf2:delta=3", NULL, &p) == PP_OK && p.delta_set && p.delta == 3,
+          "gmrf2");
     pp_prior_eigen(&p, 6, 6, q, &rank);
     CHECK(fabs(q[3 * 4 + 3] - 64) < 1e-12, "gmrf2 = q^2");
-    CHECK(pp_prior_parse("matern:range=2,nu=1,mean=5", &p) == PP_OK && p.mean_set, "matern");
+    CHECK(pp_prior_parse("matern:range=2,nu=1,mean=5", NULL, &p) == PP_OK && p.mean_set, "matern");
     pp_prior_eigen(&p, 6, 6, q, &rank);
     CHECK(fabs(q[0] - 4.0) < 1e-12 && rank == 36, "matern with mean: q(0) = kappa^4 = 4, full rank");
-    CHECK(pp_prior_parse("matern:range=-1", &p) == PP_ERR_ARG, "negative range refused");
-    CHECK(pp_prior_parse("gmrf1:mean=3", &p) == PP_ERR_ARG && strstr(pp_error_message(), "mean"),
+    CHECK(pp_prior_parse("matern:range=-1", NULL, &p) == PP_ERR_ARG, "negative range refused");
+    CHECK(pp_prior_parse("gmrf1:mean=3", NULL, &p) == PP_ERR_ARG &&
+              strstr(pp_error_message(), "mean"),
           "gmrf1 has no mean key: %s", pp_error_message());
-    CHECK(pp_prior_parse("gmrf3", &p) == PP_ERR_ARG && strstr(pp_error_message(), "gmrf3"),
+    CHECK(pp_prior_parse("gmrf3", NULL, &p) == PP_ERR_ARG && strstr(pp_error_message(), "gmrf3"),
           "unknown prior named");
     pp_noise_spec n;
     CHECK(pp_noise_parse("camera:gain=0.5,offset=100,read=1.6", NULL, &n) == PP_OK &&
@@ -134,7 +136,7 @@ static void determinism_and_refusals(void)
 {
     pp_image *y = test_frame(30, 22), *psf;
     pp_psf_spec ps;
-    pp_psf_parse("gaussian:sigma=1.2", &ps);
+    pp_psf_parse("gaussian:sigma=1.2", NULL, &ps);
     pp_psf_make(&ps, 0, &psf);
     for (int b = 0; b < 2; b++) {
         pp_sampler_config cfg;
@@ -226,8 +228,17 @@ static void determinism_and_refusals(void)
     y->data[0] = 1.0;
     char want[64];
     snprintf(want, sizeof want, "only 1 of the frame's %zu pixels are observed", npix);
-    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG && strstr(pp_error_message(), want),
-          "a frame with 1 observed pixel refused: %s", pp_error_message());
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG && strstr(pp_error_message(), want) &&
+              strstr(pp_error_message(), "(or use saturated ones as data)") &&
+              !strstr(pp_error_message(), "--"),
+          "a frame with 1 observed pixel refused, in the library's words: %s", pp_error_message());
+    /* a caller that names its way to keep saturated pixels gets it named */
+    static const char *const keep[PP_SET_COUNT] = {[PP_SET_KEEP_SATURATED] = "--keep-saturated"};
+    cfg.setting_names = keep;
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG && strstr(pp_error_message(), want) &&
+              strstr(pp_error_message(), "(or use saturated ones as data, --keep-saturated)"),
+          "... and by the caller's name: %s", pp_error_message());
+    cfg.setting_names = NULL;
     pp_image *tiny = test_frame(5, 5);
     CHECK(pp_sampler_create(&cfg, tiny, psf, &s) != PP_OK, "PSF larger than the frame refused");
     pp_image_free(tiny);
@@ -246,7 +257,7 @@ static void transfer_zeros_are_a_note(void)
 {
     pp_image *y = test_frame(32, 32), *psf;
     pp_psf_spec ps;
-    pp_psf_parse("gaussian:sigma=2", &ps);
+    pp_psf_parse("gaussian:sigma=2", NULL, &ps);
     pp_psf_make(&ps, 0, &psf);
     pp_sampler_config cfg;
     pp_sampler_defaults(&cfg);

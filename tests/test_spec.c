@@ -12,7 +12,8 @@
 
 /* A program's names for the settings, as the command line gives them
  * (src/cli/flag_names.c): the parsers that take a names table use it. */
-static const char *const flags[PP_SET_COUNT] = {[PP_SET_NOISE] = "--noise"};
+static const char *const flags[PP_SET_COUNT] = {
+    [PP_SET_NOISE] = "--noise", [PP_SET_PSF] = "--psf", [PP_SET_PRIOR] = "--prior"};
 
 /* Parses text with the parser for `what` (--psf, --noise, --prior). */
 static pp_status parse_any(const char *what, const char *text)
@@ -21,10 +22,10 @@ static pp_status parse_any(const char *what, const char *text)
     pp_noise_spec noise;
     pp_prior_spec prior;
     if (strcmp(what, "--psf") == 0)
-        return pp_psf_parse(text, &psf);
+        return pp_psf_parse(text, flags, &psf);
     if (strcmp(what, "--noise") == 0)
         return pp_noise_parse(text, flags, &noise);
-    return pp_prior_parse(text, &prior);
+    return pp_prior_parse(text, flags, &prior);
 }
 
 /* text is refused with a message holding every one of the needles (up to
@@ -127,6 +128,41 @@ static void check_photon_keys(void)
     }
 }
 
+/* Without names the spec parsers speak the library's words: each refusal
+ * starts with the setting's word and names no command-line flag ("--",
+ * which every one of them had before issue 18). */
+static void check_library_words(void)
+{
+    static const struct {
+        const char *what, *text, *word;
+    } cases[] = {
+        {"psf", "gaussian:sigam=1.6", "PSF gaussian: unknown key 'sigam'"},
+        {"psf", "airy:na=1.4,wavelength=520,pixel=0.065", "PSF airy: wavelength=520"},
+        {"psf", "widefield:na=1.4,wavelength=0.52,pixel=0.065,n=1.515",
+         "PSF widefield: missing step="},
+        {"psf", "lorentz:gamma=2", "PSF 'lorentz:gamma=2': unknown PSF model"},
+        {"prior", "gmrf3", "prior 'gmrf3': unknown prior"},
+        {"prior", "matern:range=-1", "prior matern: range must be > 0"},
+        {"prior", "adaptive:block=1", "prior adaptive: block must be"},
+        {"prior", "gmrf1:delta=0", "prior gmrf1: delta must be > 0"},
+        {"prior", "gmrf1:mean=3", "prior gmrf1: unknown key 'mean'"},
+        {"noise", "camera:gain=1,offset=0", "noise model camera: missing read="},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        pp_psf_spec psf;
+        pp_prior_spec prior;
+        pp_noise_spec noise;
+        const char *w = cases[i].what;
+        pp_status st = strcmp(w, "psf") == 0     ? pp_psf_parse(cases[i].text, NULL, &psf)
+                       : strcmp(w, "prior") == 0 ? pp_prior_parse(cases[i].text, NULL, &prior)
+                                                 : pp_noise_parse(cases[i].text, NULL, &noise);
+        const char *m = pp_error_message();
+        CHECK(st == PP_ERR_ARG && strncmp(m, cases[i].word, strlen(cases[i].word)) == 0 &&
+                  !strstr(m, "--"),
+              "%s '%s' without names: '%s...', no flag: %s", w, cases[i].text, cases[i].word, m);
+    }
+}
+
 int main(void)
 {
     pp_spec s;
@@ -191,5 +227,6 @@ int main(void)
     CHECK(pp_spec_number(&s, "sigma", "--psf", &v, &is_auto, &st) == 1 && is_auto, "auto seen");
     check_typos();
     check_photon_keys();
+    check_library_words();
     return pp_test_done();
 }

@@ -84,7 +84,7 @@ static void refusals(void)
 
     stationary(&cfg);
     cfg.kind = PP_SAMPLER_GIBBS;
-    CHECK(pp_psf_parse("gaussian:sigma=auto", &cfg.psf) == PP_OK, "parse sigma=auto");
+    CHECK(pp_psf_parse("gaussian:sigma=auto", NULL, &cfg.psf) == PP_OK, "parse sigma=auto");
     refused("sigma=auto", &cfg, v, k3, PP_ERR_ARG,
             (const char *[]){"PSF width", "not available for volumes", "sigma=S", NULL});
 

@@ -38,19 +38,24 @@ const char *pp_boundary_name(pp_boundary b);
  * a 3-D kernel needs a rank-3 grid. */
 pp_status pp_psf_transfer(const pp_image *psf, const pp_fft *f, pp_complex *otf);
 
+/* In the three functions below, names (a PP_SET_COUNT table,
+ * include/pixpost/setting.h; NULL: the library's words "boundary", "noise
+ * model") is how a refusal names the boundary and noise settings. */
+
 /* out = A x with the given boundary; *out is a new image of x's size
  * (frame or volume). Periodic needs the PSF to fit the scene on every
  * axis; pad takes any size. */
 pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b,
-                        pp_image **out);
+                        const char *const *names, pp_image **out);
 
 /* Adds noise in place: y holds the noiseless A x in photons for
  * poisson/camera (the result is in ADU) or in camera units for gaussian. */
-pp_status pp_model_add_noise(pp_image *y, const pp_noise_spec *noise, pp_rng *rng);
+pp_status pp_model_add_noise(pp_image *y, const pp_noise_spec *noise, const char *const *names,
+                             pp_rng *rng);
 
 /* simulate: blur then add noise with stream 0 of seed. */
-pp_status pp_model_simulate(const pp_image *truth, const pp_image *psf,
-                            pp_boundary b, const pp_noise_spec *noise,
-                            uint64_t seed, pp_image **out);
+pp_status pp_model_simulate(const pp_image *truth, const pp_image *psf, pp_boundary b,
+                            const pp_noise_spec *noise, uint64_t seed, const char *const *names,
+                            pp_image **out);
 
 #endif

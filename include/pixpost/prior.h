@@ -42,7 +42,10 @@ typedef struct pp_prior_spec {
     int delta_set;
 } pp_prior_spec;
 
-pp_status pp_prior_parse(const char *text, pp_prior_spec *out);
+/* Parses a spec (the forms above). A refusal names the setting by names
+ * (a PP_SET_COUNT table, include/pixpost/setting.h, e.g. a command line's
+ * "--prior"; NULL: the library's word "prior"). */
+pp_status pp_prior_parse(const char *text, const char *const *names, pp_prior_spec *out);
 void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len);
 
 /* Eigenvalues of Q on the half spectrum of a grid of the given shape

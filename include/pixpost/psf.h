@@ -61,7 +61,13 @@ typedef struct pp_psf_spec {
                                       sample matches the immersion */
 } pp_psf_spec;
 
-pp_status pp_psf_parse(const char *text, pp_psf_spec *out);
+/* Parses a spec (the forms above); text may be NULL (refused). A refusal
+ * names the setting by names (a PP_SET_COUNT table, include/pixpost/
+ * setting.h, e.g. a command line's "--psf"; NULL: the library's word
+ * "PSF"). The functions below take no names: their refusals (of a spec
+ * that parsed, at make time) say "PSF". On failure *out is zeroed but for
+ * the kind. */
+pp_status pp_psf_parse(const char *text, const char *const *names, pp_psf_spec *out);
 
 /* Writes a canonical spec string (for summary.json) into buf. */
 void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len);

@@ -96,6 +96,10 @@ typedef struct pp_report_input {
     const char *const *checks;
     size_t nchecks;
     const char *checks_summary;
+    /* How the page's own sentences name settings (a PP_SET_COUNT table,
+     * include/pixpost/setting.h, e.g. a command line's flags: "--boundary
+     * pad", "--strict"; NULL: the library's words). */
+    const char *const *setting_names;
 } pp_report_input;
 
 /* Zeroes *in and sets level = 0.95. */

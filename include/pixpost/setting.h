@@ -10,21 +10,23 @@
  * The same table, passed as `names` (NULL: the library's words), serves
  * the checks of the data and of the fit: pp_datacheck_run's argument and
  * pp_ppcheck_input's setting_names (pp_ppcheck_sampler takes the
- * sampler's), and the parsers of a setting's text (pp_sampler_kind_parse,
- * pp_boundary_parse, pp_channel_parse, pp_noise_parse), and the frame
- * readers (pp_read_options.setting_names: the colour-frame refusal names
- * the channel setting).
+ * sampler's), the parsers of a setting's text (pp_sampler_kind_parse,
+ * pp_boundary_parse, pp_channel_parse, pp_noise_parse, pp_psf_parse,
+ * pp_prior_parse), the forward model (pp_model_blur, pp_model_add_noise,
+ * pp_model_simulate), the frame readers (pp_read_options.setting_names:
+ * the colour-frame refusal names the channel setting) and the report
+ * (pp_report_input.setting_names; the output writers pass the result's
+ * config.setting_names, so a command line's report.html says "--boundary
+ * pad", "--iters auto", "--strict", and a library caller's "boundary pad",
+ * "automatic" and nothing about an exit status).
  *
- * Not yet converted (they still name a command-line flag to every
- * caller; each needs a names table passed to it, issue 18 step 0): the
- * spec parsers' messages ("--psf ..." in psf.c, psf3.c, psf_optics.c,
- * psf_widefield.c; "--prior ..." in prior.c),
- * pp_model_blur's and pp_model_add_noise's ("--boundary pad", "--noise
- * gaussian"), observed.c ("--keep-saturated"), the output folder's marker text
- * ("--overwrite", output.c) and the report's ("--boundary pad",
- * "--strict", "--iters auto" in report.c, report_checks.c,
- * output_report.c). A message names a setting only through pp_setting_name; no
- * text is rewritten afterwards.
+ * Kept in the library's word "PSF", with no names argument: the refusals
+ * of an already parsed spec when a kernel is made or refilled
+ * (pp_psf_make, pp_psf_make3, pp_psf_fill; their size and depth arguments
+ * are named as such). The output folder's marker text (output.c) names
+ * "--overwrite" on purpose: it says what the pixpost command does with the
+ * folder, whoever wrote it. A message names a setting only through this
+ * table; no text is rewritten afterwards.
  */
 #ifndef PIXPOST_SETTING_H
 #define PIXPOST_SETTING_H
@@ -46,6 +48,16 @@ typedef enum pp_setting {
     PP_SET_BACKGROUND,  /* cfg.background */
     PP_SET_NOISE,       /* cfg.noise (also pp_datacheck_run, pp_ppcheck_input) */
     PP_SET_CHANNEL,     /* pp_read_options.channel (pp_channel_parse) */
+
+    /* Choices of the caller that the library's texts mention but that have
+     * no field in the library; a text names them only when the caller's
+     * table does (names[k] not NULL), and otherwise says what they mean.
+     * KEEP_SATURATED: saturated pixels kept as data (the caller skips
+     * pp_saturation_mark), in pp_sampler_create's refusal of a frame with
+     * too few observed pixels. STRICT: an unconverged run fails the
+     * caller's exit status, in the report's checks section. */
+    PP_SET_KEEP_SATURATED,
+    PP_SET_STRICT,
     PP_SET_COUNT
 } pp_setting;
 
@@ -53,9 +65,9 @@ typedef enum pp_setting {
  * not NULL, else the library's word ("sampler", "chains", "burn-in",
  * "iterations", "thinning", "time cap", "iteration cap", "credible
  * level", "lambda hyperprior", "delta hyperprior", "prior", "PSF",
- * "boundary", "background", "noise model", "channel"); "setting" for k out of
- * range. names, when given, has PP_SET_COUNT entries. Static text or the
- * caller's. */
+ * "boundary", "background", "noise model", "channel", "keeping saturated
+ * pixels", "strict exit status"); "setting" for k out of range. names,
+ * when given, has PP_SET_COUNT entries. Static text or the caller's. */
 const char *pp_setting_name(const char *const *names, pp_setting k);
 
 #endif

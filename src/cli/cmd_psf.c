@@ -114,7 +114,7 @@ int cli_cmd_psf(int argc, char **argv)
         return rc;
     pp_psf_spec spec;
     pp_image *k = NULL;
-    pp_status st = pp_psf_parse(text, &spec);
+    pp_status st = pp_psf_parse(text, cli_flag_names, &spec);
     if (st == PP_OK && spec.kind == PP_PSF_FILE && (rc = cli_check_not_same(out, spec.path)))
         return rc;
     if (st == PP_OK && (rc = cli_check_outfile(out, overwrite)) != 0)

@@ -189,7 +189,7 @@ static int parse(int argc, char **argv, sim_opts *o)
     o->boundary = PP_BOUNDARY_PAD;
     o->quiet = cli_given(&a, "quiet");
     o->overwrite = cli_given(&a, "overwrite");
-    if ((rc = lib(pp_psf_parse(o->psf_text, &o->psf))) != 0 ||
+    if ((rc = lib(pp_psf_parse(o->psf_text, cli_flag_names, &o->psf))) != 0 ||
         (rc = lib(pp_noise_parse(o->noise_text, cli_flag_names, &o->noise))) != 0 ||
         (rc = cli_get_u64(&a, "seed", &o->seed)) != 0 ||
         (rc = cli_get_size(&a, "max-pixels", 1, &o->read.max_pixels)) != 0)
@@ -267,7 +267,7 @@ static pp_status simulate_volume(const sim_opts *o)
     if (st == PP_OK)
         st = make_volume_psf(o, &psf);
     if (st == PP_OK)
-        st = pp_model_simulate(truth, psf, o->boundary, &o->noise, o->seed, &y);
+        st = pp_model_simulate(truth, psf, o->boundary, &o->noise, o->seed, cli_flag_names, &y);
     pp_shape shape = y ? pp_image_shape(y) : pp_shape_2d(1, 1);
     if (st == PP_OK)
         st = pp_ome_tiff_write_f32(o->out, &shape, y->data, o->voxel, "pixpost simulate");
@@ -305,7 +305,7 @@ static pp_status simulate(const sim_opts *o)
     if (st == PP_OK)
         st = pp_psf_check(psf, truth->height, truth->width);
     if (st == PP_OK)
-        st = pp_model_simulate(truth, psf, o->boundary, &o->noise, o->seed, &y);
+        st = pp_model_simulate(truth, psf, o->boundary, &o->noise, o->seed, cli_flag_names, &y);
     if (st == PP_OK)
         st = write_out(o, y);
     if (st == PP_OK && !o->quiet) {

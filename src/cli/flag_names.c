@@ -20,6 +20,8 @@ const char *const cli_flag_names[PP_SET_COUNT] = {
     [PP_SET_BACKGROUND] = "--background",
     [PP_SET_NOISE] = "--noise",
     [PP_SET_CHANNEL] = "--channel",
+    [PP_SET_KEEP_SATURATED] = "--keep-saturated",
+    [PP_SET_STRICT] = "--strict",
 };
 
 void cli_read_defaults(pp_read_options *o)

@@ -50,7 +50,7 @@ int cli_noise_auto_run(const cli_sample_opts *o, const char *path, const pp_imag
     pp_noise_format(&na->spec, na->noise_text, sizeof na->noise_text);
     na->prior_text[0] = '\0';
     if (na->camera && !o->prior_given) { /* as parse_specs does for a camera spec */
-        if ((st = pp_prior_parse("matern", &na->prior)) != PP_OK) {
+        if ((st = pp_prior_parse("matern", cli_flag_names, &na->prior)) != PP_OK) {
             snprintf(msg, len, "%s", pp_error_message());
             return CLI_EXIT_USAGE;
         }

@@ -259,7 +259,7 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
     if (o->npsf == 1 && (rc = expand_wavelengths(o)) != 0)
         return rc;
     for (size_t k = 0; k < o->npsf; k++)
-        if ((rc = lib_check(pp_psf_parse(o->psf_texts[k], &o->psfs[k]))) != 0)
+        if ((rc = lib_check(pp_psf_parse(o->psf_texts[k], cli_flag_names, &o->psfs[k]))) != 0)
             return rc;
     o->psf_text = o->psf_texts[0];
     o->psf = o->psfs[0];
@@ -278,12 +278,12 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
     }
     if (cli_given(a, "prior")) {
         o->prior_text = cli_str(a, "prior");
-        if ((rc = lib_check(pp_prior_parse(o->prior_text, &o->cfg.prior))) != 0)
+        if ((rc = lib_check(pp_prior_parse(o->prior_text, cli_flag_names, &o->cfg.prior))) != 0)
             return rc;
     }
     if (!cli_given(a, "prior") && o->cfg.noise.kind != PP_NOISE_GAUSSIAN) {
         /* photon models: a proper Matern field by default (pCN needs one) */
-        if ((rc = lib_check(pp_prior_parse("matern", &o->cfg.prior))) != 0)
+        if ((rc = lib_check(pp_prior_parse("matern", cli_flag_names, &o->cfg.prior))) != 0)
             return rc;
         pp_prior_format(&o->cfg.prior, o->prior_buf, sizeof o->prior_buf);
     }

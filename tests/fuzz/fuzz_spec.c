@@ -17,13 +17,13 @@ static void check_fail(pp_status st)
 static void fuzz_psf(const char *text)
 {
     pp_psf_spec s, t;
-    pp_status st = pp_psf_parse(text, &s);
+    pp_status st = pp_psf_parse(text, NULL, &s);
     check_fail(st);
     if (st != PP_OK)
         return;
     char buf[8192];
     pp_psf_format(&s, buf, sizeof buf);
-    if (pp_psf_parse(buf, &t) != PP_OK || t.kind != s.kind)
+    if (pp_psf_parse(buf, NULL, &t) != PP_OK || t.kind != s.kind)
         abort();
 }
 
@@ -43,13 +43,13 @@ static void fuzz_noise(const char *text)
 static void fuzz_prior(const char *text)
 {
     pp_prior_spec s, t;
-    pp_status st = pp_prior_parse(text, &s);
+    pp_status st = pp_prior_parse(text, NULL, &s);
     check_fail(st);
     if (st != PP_OK)
         return;
     char buf[1024];
     pp_prior_format(&s, buf, sizeof buf);
-    if (pp_prior_parse(buf, &t) != PP_OK || t.kind != s.kind)
+    if (pp_prior_parse(buf, NULL, &t) != PP_OK || t.kind != s.kind)
         abort();
     /* the eigenvalues of a small grid must be finite and >= 0 */
     double q[4 * 3], rank = 0;
