@@ -322,7 +322,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
         cfg.psf = *r->psf;
     const char *vp = volume_prior(o, frame);
     if (vp) {
-        pp_status pst = pp_prior_parse(vp, &cfg.prior);
+        pp_status pst = pp_prior_parse(vp, cli_flag_names, &cfg.prior);
         if (pst != PP_OK)
             return fail_frame(r, pst);
         if (!o->quiet)
