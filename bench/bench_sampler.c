@@ -1,7 +1,12 @@
 /* pixpost bench — time, memory and effective sample size of one sampler run
- * through the library API, on a synthetic frame.
+ * through the library API, on a synthetic frame or volume.
  * Usage: bench_sampler KIND H W [key=value ...], keys (defaults):
  *   boundary=periodic thin=1 chains=1 threads=1 iters=50 burn=0 seed=1
+ *   depth=1 (D > 1: a D x H x W volume blurred by a 3-D gaussian PSF,
+ *   sigma 1.5 px, sigma_z 1 slice, cubic voxels)
+ *   noise=SPEC (pp_noise_parse; default: simulated with gaussian:sigma=1,
+ *   sampled with the default gaussian; e.g. poisson: the scene in photons,
+ *   about 0-115 per pixel, simulated and sampled with it)
  *   prior=gmrf2 jeffreys=1 (hyperpriors Gamma(0,0), scikit-image's model)
  *   measure=0 (1: FFTW_MEASURE) frame=PATH psf=PATH (write them as TIFF)
  *   wisdom=PATH (FFTW wisdom loaded before planning, saved after, as the
@@ -22,7 +27,9 @@
  *             ess_pmin / ess_pmed: smallest and median over the probes;
  *   auto=1:   stop, rounds, burn_used, iters_used (pp_sampler_run_length).
  * The frame is a smooth scene blurred by a Gaussian PSF (sigma 1.5) with
- * Gaussian noise (sd 1): invented data, for timing only. Cost: the run. */
+ * Gaussian noise (sd 1): invented data, for timing only. A volume's slice z
+ * is that scene plus 15 sin(z / 5) (so the slices differ), blurred by the
+ * 3-D PSF. Cost: the run. */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -30,18 +37,20 @@
 #include "pixpost/diag.h"
 #include "pixpost/pixpost.h"
 
-static pp_image *scene(size_t h, size_t w, const pp_image *psf)
+static pp_image *scene(size_t d, size_t h, size_t w, const pp_image *psf,
+                       const pp_noise_spec *ns)
 {
     pp_image *x, *y;
-    if (pp_image_create(h, w, &x) != PP_OK)
+    if (pp_image_create3(d, h, w, &x) != PP_OK)
         return NULL;
-    for (size_t r = 0; r < h; r++)
-        for (size_t c = 0; c < w; c++)
-            x->data[r * w + c] = 50 + 20 * sin((double)r / 9) * cos((double)c / 13) +
-                                 (((r / 16) + (c / 16)) % 3 == 0 ? 30 : 0);
-    pp_noise_spec ns;
-    pp_noise_parse("gaussian:sigma=1", NULL, &ns);
-    if (pp_model_simulate(x, psf, PP_BOUNDARY_PERIODIC, &ns, 9, NULL, &y) != PP_OK)
+    for (size_t z = 0; z < d; z++)
+        for (size_t r = 0; r < h; r++)
+            for (size_t c = 0; c < w; c++)
+                x->data[(z * h + r) * w + c] =
+                    50 + 20 * sin((double)r / 9) * cos((double)c / 13) +
+                    (((r / 16) + (c / 16)) % 3 == 0 ? 30 : 0) +
+                    (d > 1 ? 15 * sin((double)z / 5) : 0);
+    if (pp_model_simulate(x, psf, PP_BOUNDARY_PERIODIC, ns, 9, NULL, &y) != PP_OK)
         y = NULL;
     pp_image_free(x);
     return y;
@@ -110,12 +119,33 @@ int main(int argc, char **argv)
         cfg.fft_effort = PP_FFT_MEASURE;
     if (atoi(opt(argc, argv, "jeffreys", "1")))
         cfg.hyper_lambda[0] = cfg.hyper_lambda[1] = cfg.hyper_delta[0] = cfg.hyper_delta[1] = 0;
-    pp_psf_spec ps;
-    pp_image *psf;
-    pp_psf_parse("gaussian:sigma=1.5", NULL, &ps);
-    if (pp_psf_make(&ps, 0, &psf) != PP_OK)
+    size_t d = strtoul(opt(argc, argv, "depth", "1"), NULL, 10);
+    /* noise=SPEC: simulate with it and sample with it; default: simulate
+     * with sd 1, sample with the default gaussian (lambda sampled) */
+    const char *nz = opt(argc, argv, "noise", NULL);
+    pp_noise_spec ns;
+    if (pp_noise_parse(nz ? nz : "gaussian:sigma=1", NULL, &ns) != PP_OK)
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
-    pp_image *y = scene(h, w, psf);
+    if (nz)
+        cfg.noise = ns;
+    pp_psf_spec ps;
+    pp_image *psf = NULL;
+    if (d > 1) { /* a 3-D gaussian kernel (radius ceil(4 sigma) on each axis) */
+        pp_shape ks;
+        double *kd;
+        pp_psf_parse("gaussian:sigma=1.5,sigma_z=1", NULL, &ps);
+        if (pp_psf_make3(&ps, 0, 0, &ks, &kd) != PP_OK)
+            return fprintf(stderr, "%s\n", pp_error_message()), 1;
+        if (pp_image_create3(ks.n[0], ks.n[1], ks.n[2], &psf) == PP_OK)
+            memcpy(psf->data, kd, pp_image_count(psf) * sizeof *kd);
+        free(kd);
+    } else {
+        pp_psf_parse("gaussian:sigma=1.5", NULL, &ps);
+        pp_psf_make(&ps, 0, &psf);
+    }
+    if (!psf)
+        return fprintf(stderr, "%s\n", pp_error_message()), 1;
+    pp_image *y = scene(d, h, w, psf, &ns);
     const char *fp = opt(argc, argv, "frame", NULL), *pp = opt(argc, argv, "psf", NULL);
     if (!y || (fp && pp_image_write(fp, y) != PP_OK) || (pp && pp_image_write(pp, psf) != PP_OK))
         return fprintf(stderr, "%s\n", pp_error_message()), 1;
