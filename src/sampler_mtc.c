@@ -397,6 +397,9 @@ static void laplace(const pp_sampler *s, mtc_chain *k)
         f = fn;
         d1 = e1;
         d2 = e2;
+        if (d2 < 0 && fabs(step) * sqrt(-d2) < 1e-5)
+            break; /* a halved step below 1e-5 sd: rounding in the sums (a volume
+                    * of ~1e6 voxels holds the gradient at ~3e-5 sd), not progress */
     }
     k->mode = r;
     k->sd = d2 < 0 && isfinite(d2) ? 1.0 / sqrt(-d2) : 1.0;
