@@ -20,7 +20,8 @@ struct pp_padscale {
     double *x0;  /* grid: x on the frame, c_P on the padding */
     double *g;   /* grid: d, then A d */
     pp_complex *spec;
-    double a0, a1, a2; /* Σ a_e², Σ a_e b_e, Σ b_e² over the 2N increments */
+    double a0, a1, a2; /* Σ w a_e², Σ w a_e b_e, Σ w b_e² over the increments (2N on a
+                        * frame, 3N on a volume), each with its axis' weight w */
     double dsum;       /* Σ d over the grid */
     int ready;
 };
@@ -52,8 +53,8 @@ void pp_padscale_free(pp_padscale *p)
     free(p);
 }
 
-/* The frame index (row or column) nearest to grid index i around a period
- * of n whose first m indices are the frame. */
+/* The frame index (along one axis) nearest to grid index i around a
+ * period of n whose first m indices are the frame. */
 static size_t nearest(size_t i, size_t m, size_t n)
 {
     if (i < m)
@@ -61,43 +62,67 @@ static size_t nearest(size_t i, size_t m, size_t n)
     return i - (m - 1) <= n - i ? m - 1 : 0;
 }
 
+/* The prior's weight of the increments along each axis (z, y, x; a frame:
+ * 1, 1, 1), the rule of pp_prior_eigen_shape (include/pixpost/prior.h):
+ * w_a = (spacing_x / spacing_a)^2, 1 where a spacing is not known; the
+ * sampler gives it cfg.voxel for volumes only (sampler.c). */
+static void axis_weights(const pp_sampler *s, double w[3])
+{
+    for (int a = 0; a < 3; a++) {
+        double sa = s->cfg.voxel[a], sx = s->cfg.voxel[2];
+        w[a] = s->depth > 1 && sa > 0 && sx > 0 ? (sx / sa) * (sx / sa) : 1.0;
+    }
+}
+
 void pp_padscale_prepare(pp_padscale *p, const pp_sampler *s, const pp_chain *c,
                          const pp_complex *xhat)
 {
-    const size_t gh = s->gh, gw = s->gw;
+    const size_t gd = s->gd, gh = s->gh, gw = s->gw;
     const double invn = 1.0 / (double)s->gn;
     memcpy(p->spec, xhat, s->gm * sizeof *p->spec);
     pp_fft_inverse(s->fft, p->spec, p->x0);
     for (size_t i = 0; i < s->gn; i++)
         p->x0[i] *= invn;
-    /* c_P from the frame's edge (read before any padding value is replaced:
-     * nearest() only points into the frame) */
+    /* c_P from the frame's edge, the nearest frame voxel along every axis
+     * (read before any padding value is replaced: nearest() only points
+     * into the frame box) */
     double dsum = 0;
-    for (size_t r = 0; r < gh; r++)
-        for (size_t col = 0; col < gw; col++) {
-            size_t i = r * gw + col;
-            if (r < s->height && col < s->width) {
-                p->g[i] = 0;
-                continue;
+    for (size_t z = 0; z < gd; z++)
+        for (size_t r = 0; r < gh; r++)
+            for (size_t col = 0; col < gw; col++) {
+                size_t i = (z * gh + r) * gw + col;
+                if (z < s->depth && r < s->height && col < s->width) {
+                    p->g[i] = 0;
+                    continue;
+                }
+                size_t j = (nearest(z, s->depth, gd) * gh + nearest(r, s->height, gh)) * gw +
+                           nearest(col, s->width, gw);
+                double anchor = p->x0[j];
+                p->g[i] = p->x0[i] - anchor;
+                p->x0[i] = anchor;
+                dsum += p->g[i];
             }
-            double anchor = p->x0[nearest(r, s->height, gh) * gw + nearest(col, s->width, gw)];
-            p->g[i] = p->x0[i] - anchor;
-            p->x0[i] = anchor;
-            dsum += p->g[i];
-        }
+    /* the increments along every axis, periodic, each with its axis'
+     * weight (a frame: gd = 1, so the z increment of a slice is with itself,
+     * 0, and the weights are 1: the sums of the 2-D move, bit for bit) */
+    double w[3];
+    axis_weights(s, w);
     double a0 = 0, a1 = 0, a2 = 0;
-    for (size_t r = 0; r < gh; r++) {
-        const double *x = p->x0 + r * gw, *xd = p->x0 + ((r + 1) % gh) * gw;
-        const double *d = p->g + r * gw, *dd = p->g + ((r + 1) % gh) * gw;
-        for (size_t col = 0; col < gw; col++) {
-            size_t cr = col + 1 < gw ? col + 1 : 0;
-            double ah = x[cr] - x[col], bh = d[cr] - d[col];
-            double av = xd[col] - x[col], bv = dd[col] - d[col];
-            a0 += ah * ah + av * av;
-            a1 += ah * bh + av * bv;
-            a2 += bh * bh + bv * bv;
+    for (size_t z = 0; z < gd; z++)
+        for (size_t r = 0; r < gh; r++) {
+            size_t row = z * gh + r, rd = z * gh + (r + 1) % gh, rz = ((z + 1) % gd) * gh + r;
+            const double *x = p->x0 + row * gw, *xd = p->x0 + rd * gw, *xz = p->x0 + rz * gw;
+            const double *d = p->g + row * gw, *dd = p->g + rd * gw, *dz = p->g + rz * gw;
+            for (size_t col = 0; col < gw; col++) {
+                size_t cr = col + 1 < gw ? col + 1 : 0;
+                double ah = x[cr] - x[col], bh = d[cr] - d[col];
+                double av = xd[col] - x[col], bv = dd[col] - d[col];
+                double az = xz[col] - x[col], bz = dz[col] - d[col];
+                a0 += w[2] * ah * ah + w[1] * av * av + w[0] * az * az;
+                a1 += w[2] * ah * bh + w[1] * av * bv + w[0] * az * bz;
+                a2 += w[2] * bh * bh + w[1] * bv * bv + w[0] * bz * bz;
+            }
         }
-    }
     p->a0 = a0, p->a1 = a1, p->a2 = a2, p->dsum = dsum;
     /* A d on the grid */
     pp_fft_forward(s->fft, p->g, p->spec);
@@ -123,15 +148,15 @@ int pp_padscale_move(pp_padscale *p, const pp_sampler *s, pp_chain *c, double *s
         return 0;
     p->ready = 0;
     const size_t gw = s->gw;
-    /* np: the padding pixels (whose x is scaled); nobs: the observed ones
-     * (the frame's pixels but missing ones, NaN, whose data are latent and
+    /* np: the padding voxels (whose x is scaled); nobs: the observed ones
+     * (the frame's voxels but missing ones, NaN, whose data are latent and
      * move with x like the padding's, their noise held) */
     const double invn = 1.0 / (double)s->gn, nobs = (double)s->nobs;
-    const double np = (double)s->gn - (double)s->height * (double)s->width;
+    const double np = (double)s->gn - (double)s->npix;
     double g1 = 0, g2 = 0;
-    for (size_t r = 0; r < s->height; r++)
+    for (size_t fr = 0; fr < s->depth * s->height; fr++)
         for (size_t col = 0; col < s->width; col++) {
-            size_t i = r * gw + col;
+            size_t i = pp_frame_row(s, fr) * gw + col;
             if (!s->obs[i])
                 continue;
             g1 += p->g[i] * (c->rbuf[i] * invn - s->ygrid[i]);
@@ -153,13 +178,11 @@ int pp_padscale_move(pp_padscale *p, const pp_sampler *s, pp_chain *c, double *s
         return acc;
     double em = exp(rho) - 1, fn = em * (double)s->gn;
     c->delta *= exp(-2 * rho);
-    for (size_t r = 0; r < s->gh; r++)
-        for (size_t col = 0; col < gw; col++) {
-            size_t i = r * gw + col;
-            c->rbuf[i] += fn * p->g[i];
-            if (!s->obs[i])
-                c->yaug[i] += em * p->g[i];
-        }
+    for (size_t i = 0; i < s->gn; i++) {
+        c->rbuf[i] += fn * p->g[i];
+        if (!s->obs[i])
+            c->yaug[i] += em * p->g[i];
+    }
     double d_obs = 2 * em * g1 + em * em * g2;
     *ss_obs += d_obs;
     *ss += d_obs;

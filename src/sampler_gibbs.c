@@ -637,7 +637,7 @@ static pp_status gibbs_prepare(pp_sampler *s)
 {
     const pp_sampler_config *cfg = &s->cfg;
     if (cfg->boundary != PP_BOUNDARY_PAD || cfg->prior.delta_set ||
-        cfg->prior.kind != PP_PRIOR_GMRF1 || s->depth > 1) /* src/padscale.h is 2-D */
+        cfg->prior.kind != PP_PRIOR_GMRF1)
         return PP_OK;
     for (unsigned b = 0; b < s->nslots; b++) {
         pp_padscale *p;

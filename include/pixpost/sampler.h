@@ -68,8 +68,8 @@
  * default (cfg.prior must be set to a stationary prior: the library cannot
  * tell a default from a choice, so it never swaps a prior silently);
  * sampling the PSF width (psf.width_auto). The padding scale move of gibbs
- * with pad and gmrf1 (src/padscale.h) is 2-D: a volume runs without it
- * (exact, only slower mixing of delta). The photon models' smoothing of
+ * with pad and gmrf1 (src/padscale.h) runs on volumes too, its increments
+ * weighted by cfg.voxel as the prior's. The photon models' smoothing of
  * their delta move's weights (src/hyper_photon.c) is the same Gaussian, in
  * voxels, along z.
  */
