@@ -174,14 +174,14 @@ for name, noise, seed in [("demo_gaussian.tif", "gaussian:sigma=2.5", "101"),
        "stand-in demo frame " + name)
 # the z-stack: a small OME z-stack truth and its volume, as tools/make_demo_stack.py
 # makes them (settings as in src/cli/cmd_demo.c)
-zz, yy, xx = np.mgrid[:6, :20, :20]
+zz, yy, xx = np.mgrid[:14, :20, :20]
 stack = 2 + sum(100 * np.exp(-((zz - z) ** 2 / 2 + (yy - r) ** 2 + (xx - c) ** 2) / 3)
-                for z, r, c in rng.uniform(1, 18, (4, 3)) * [0.25, 1, 1])
+                for z, r, c in rng.uniform(1, 18, (4, 3)) * [0.7, 1, 1])
 tifffile.imwrite(os.path.join(img, "stack_truth.tif"), stack.astype(np.float32), ome=True,
                  metadata={"axes": "ZYX", "PhysicalSizeX": 0.065, "PhysicalSizeY": 0.065,
                            "PhysicalSizeZ": 0.2})
 ok(["simulate", os.path.join(img, "stack_truth.tif"), "--psf", "gaussian:sigma=1.2,sigma_z=1.5",
-    "--noise", "gaussian:sigma=1.5", "--seed", "103", "--boundary", "pad", "--quiet", "-o",
+    "--noise", "gaussian:sigma=1.5", "--seed", "103", "--boundary", "periodic", "--quiet", "-o",
     os.path.join(img, "demo_stack_gaussian.tif")], "stand-in demo z-stack")
 dout = P("demo_new")
 ok(["demo", "--images", img, "-o", dout], "demo -o a missing folder")

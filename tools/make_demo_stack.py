@@ -19,7 +19,7 @@ PhysicalSizeZ 0.2 um, then blurred and made noisy by `pixpost simulate`
 itself:
 
   demo_stack_gaussian.tif  --psf gaussian:sigma=1.2,sigma_z=1.5
-                           --noise gaussian:sigma=1.5 --seed 103 --boundary pad
+                           --noise gaussian:sigma=1.5 --seed 103 --boundary periodic
 
 The PSF is a 3-D gaussian whose central lobe has the widths of a 1.4 NA oil
 objective at 520 nm (n 1.515): in the plane sigma = 0.21 lambda/NA = 78 nm
@@ -120,7 +120,7 @@ def main():
           "%.2f um long)" % (truth, DEPTH, WIDTH, HEIGHT, vol.min(), vol.max(), vol.sum(), length))
     for name, noise, seed in STACKS:
         cmd = [pixpost, "simulate", truth, "--psf", PSF, "--noise", noise, "--seed", seed,
-               "--boundary", "pad", "--overwrite", "-o", os.path.join(outdir, name)]
+               "--boundary", "periodic", "--overwrite", "-o", os.path.join(outdir, name)]
         print("$ " + " ".join(cmd[1:]).replace(outdir + "/", "images/"))
         subprocess.run(cmd, check=True)
 
