@@ -76,7 +76,8 @@ static pp_status check_readable(const char *path)
 
 /* Opens path for reading after the cheap checks (exists, not empty); m
  * collects libtiff's messages for as long as *t is open. */
-static pp_status open_reader(const char *path, tiff_msg *m, TIFF **t)
+/* Opens path for reading and counts its pages (directories). */
+static pp_status open_reader(const char *path, tiff_msg *m, TIFF **t, unsigned *pages)
 {
     pp_status st = check_readable(path);
     if (st != PP_OK)
@@ -85,6 +86,7 @@ static pp_status open_reader(const char *path, tiff_msg *m, TIFF **t)
     if (!*t)
         return pp_fail(PP_ERR_FORMAT, "%s: not a readable TIFF (corrupt or truncated): %s", path,
                        msg_or(m, "libtiff cannot open it"));
+    *pages = TIFFNumberOfDirectories(*t);
     return PP_OK;
 }
 
@@ -93,10 +95,9 @@ pp_status pp_tiff_count_pages(const char *path, unsigned *pages)
     *pages = 0;
     tiff_msg m;
     TIFF *t;
-    pp_status st = open_reader(path, &m, &t);
+    pp_status st = open_reader(path, &m, &t, pages);
     if (st != PP_OK)
         return st;
-    *pages = TIFFNumberOfDirectories(t);
     TIFFClose(t);
     return PP_OK;
 }
@@ -374,10 +375,10 @@ pp_status pp_tiff_read(const char *path, const pp_read_options *opt, pp_image **
     pp_read_options o = pp_io_options(opt);
     tiff_msg m;
     TIFF *t;
-    pp_status st = open_reader(path, &m, &t);
+    unsigned pages;
+    pp_status st = open_reader(path, &m, &t, &pages);
     if (st != PP_OK)
         return st;
-    unsigned pages = TIFFNumberOfDirectories(t);
     if (info)
         info->pages = pages;
     if (o.page >= pages)
@@ -400,10 +401,10 @@ pp_status pp_tiff_read_pages(const char *path, const pp_read_options *opt, pp_ti
     pp_read_options o = pp_io_options(opt);
     tiff_msg m;
     TIFF *t;
-    pp_status st = open_reader(path, &m, &t);
+    unsigned pages;
+    pp_status st = open_reader(path, &m, &t, &pages);
     if (st != PP_OK)
         return st;
-    unsigned pages = TIFFNumberOfDirectories(t);
     for (unsigned k = 0; st == PP_OK && k < pages; k++) {
         if (k > 0 && !TIFFReadDirectory(t)) {
             st = pp_fail(PP_ERR_FORMAT, "%s: cannot read page %u: %s", path, k,
