@@ -37,6 +37,7 @@ import subprocess
 import numpy as np
 
 import pptest
+import volref
 
 tmp = pptest.tmpdir()
 rng = np.random.default_rng(4)
@@ -81,24 +82,7 @@ gd, gh, gw = r["grid"]
 pptest.check(gd >= D + 2 and gh >= H + 2 and gw >= W + 2,
              "pad grid %s covers the volume plus the PSF radius 1 on every axis" % r["grid"])
 n = gd * gh * gw
-idx = lambda z, a, b: ((z % gd) * gh + a % gh) * gw + b % gw
-A = np.zeros((n, n))
-Q = np.zeros((n, n))
-w = [(VOX[2] / v) ** 2 for v in VOX]
-for z in range(gd):
-    for a in range(gh):
-        for b in range(gw):
-            i = idx(z, a, b)
-            for dz in range(3):
-                for da in range(3):
-                    for db in range(3):
-                        A[i, idx(z - dz + 1, a - da + 1, b - db + 1)] += psf[dz, da, db]
-            for ax, wa in enumerate(w):
-                for sgn in (1, -1):
-                    d = [0, 0, 0]
-                    d[ax] = sgn
-                    Q[i, i] += wa
-                    Q[i, idx(z + d[0], a + d[1], b + d[2])] -= wa
+A, Q, idx = volref.dense_model((gd, gh, gw), psf, VOX)
 obs = [(idx(z, a, b), y[z, a, b]) for z in range(D) for a in range(H) for b in range(W)
        if not np.isnan(y[z, a, b])]
 S = np.zeros((len(obs), n))

@@ -44,6 +44,7 @@ import subprocess
 import numpy as np
 
 import pptest
+import volref
 
 tmp = pptest.tmpdir()
 rng = np.random.default_rng(11)
@@ -79,24 +80,7 @@ with open(out + ".trace") as f:
     tr = np.loadtxt(f, ndmin=2)
 
 n = gd * gh * gw
-idx = lambda z, a, b: ((z % gd) * gh + a % gh) * gw + b % gw
-A = np.zeros((n, n))
-Q = np.zeros((n, n))
-w = [(VOX[2] / v) ** 2 for v in VOX]
-for z in range(gd):
-    for a in range(gh):
-        for b in range(gw):
-            i = idx(z, a, b)
-            for dz in range(3):
-                for da in range(3):
-                    for db in range(3):
-                        A[i, idx(z - dz + 1, a - da + 1, b - db + 1)] += psf[dz, da, db]
-            for ax, wa in enumerate(w):
-                for sgn in (1, -1):
-                    d = [0, 0, 0]
-                    d[ax] = sgn
-                    Q[i, i] += wa
-                    Q[i, idx(z + d[0], a + d[1], b + d[2])] -= wa
+A, Q, idx = volref.dense_model((gd, gh, gw), psf, VOX)
 obs = [(idx(z, a, b), y[z, a, b]) for z in range(D) for a in range(H) for b in range(W)
        if not np.isnan(y[z, a, b])]
 B = A[[i for i, _ in obs]]

@@ -1,0 +1,36 @@
+"""The dense model of a volume on its padded grid, shared by
+tests/ref_volume_pad.py and tests/ref_volume_pad_hyper.py: the circular
+3 x 3 x 3 blur A and the first-order prior precision Q on a gd x gh x gw
+grid (row-major, slowest axis first), increments along axis a weighted
+(voxel_x / voxel_a)^2 as include/pixpost/prior.h says for volumes.
+"""
+import numpy as np
+
+
+def dense_model(grid, psf, vox):
+    """Returns (A, Q, idx): n x n matrices for n = gd gh gw, and idx(z, a, b)
+    the flat index of a grid voxel (wrapping)."""
+    gd, gh, gw = grid
+    n = gd * gh * gw
+
+    def idx(z, a, b):
+        return ((z % gd) * gh + a % gh) * gw + b % gw
+
+    A = np.zeros((n, n))
+    Q = np.zeros((n, n))
+    w = [(vox[2] / v) ** 2 for v in vox]
+    for z in range(gd):
+        for a in range(gh):
+            for b in range(gw):
+                i = idx(z, a, b)
+                for dz in range(3):
+                    for da in range(3):
+                        for db in range(3):
+                            A[i, idx(z - dz + 1, a - da + 1, b - db + 1)] += psf[dz, da, db]
+                for ax, wa in enumerate(w):
+                    for sgn in (1, -1):
+                        d = [0, 0, 0]
+                        d[ax] = sgn
+                        Q[i, i] += wa
+                        Q[i, idx(z + d[0], a + d[1], b + d[2])] -= wa
+    return A, Q, idx
