@@ -24,28 +24,32 @@ void pp_grid_padded(const pp_shape *frame, size_t r, pp_grid_pad kind, pp_shape 
         out->n[0] = pp_fft_good_size(least_side(frame->n[0], r, kind));
 }
 
-/* Rows (runs along the last axis) of the frame box: frame row q of a
- * rank-r shape is grid row (z, y) with the grid's row stride. */
-void pp_grid_put_box(double *grid, const pp_shape *gs, const double *frame,
-                     const pp_shape *fs)
+/* Copies the rows (runs along the last axis) of the frame box from src to
+ * dst: frame row q of a rank-r shape is grid row (z, y) with the grid's row
+ * stride. to_grid: src is the frame and dst the grid, else the other way. */
+static void copy_box(double *dst, const double *src, const pp_shape *gs, const pp_shape *fs,
+                     int to_grid)
 {
     int k = fs->rank;
     size_t nz = k == 3 ? fs->n[0] : 1, ny = fs->n[k - 2], nx = fs->n[k - 1];
     size_t gy = gs->n[k - 2], gx = gs->n[k - 1];
     for (size_t z = 0; z < nz; z++)
-        for (size_t y = 0; y < ny; y++)
-            memcpy(grid + (z * gy + y) * gx, frame + (z * ny + y) * nx, nx * sizeof *grid);
+        for (size_t y = 0; y < ny; y++) {
+            size_t g = (z * gy + y) * gx, f = (z * ny + y) * nx;
+            memcpy(dst + (to_grid ? g : f), src + (to_grid ? f : g), nx * sizeof *dst);
+        }
+}
+
+void pp_grid_put_box(double *grid, const pp_shape *gs, const double *frame,
+                     const pp_shape *fs)
+{
+    copy_box(grid, frame, gs, fs, 1);
 }
 
 void pp_grid_get_box(const double *grid, const pp_shape *gs, double *frame,
                      const pp_shape *fs)
 {
-    int k = fs->rank;
-    size_t nz = k == 3 ? fs->n[0] : 1, ny = fs->n[k - 2], nx = fs->n[k - 1];
-    size_t gy = gs->n[k - 2], gx = gs->n[k - 1];
-    for (size_t z = 0; z < nz; z++)
-        for (size_t y = 0; y < ny; y++)
-            memcpy(frame + (z * ny + y) * nx, grid + (z * gy + y) * gx, nx * sizeof *frame);
+    copy_box(frame, grid, gs, fs, 0);
 }
 
 void pp_grid_place_kernel(double *grid, const pp_shape *gs, const double *kernel,

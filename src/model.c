@@ -138,10 +138,7 @@ static pp_status blur_on_grid(const pp_image *x, const pp_image *psf, const pp_s
         memset(grid, 0, ng * sizeof *grid);
         pp_grid_put_box(grid, gs, x->data, &fs);
         pp_fft_forward(f, grid, spec);
-        double cells = 1.0; /* FFTW is unnormalised */
-        for (int i = 0; i < gs->rank; i++)
-            cells *= (double)gs->n[i];
-        double scale = 1.0 / cells;
+        double scale = 1.0 / (double)ng; /* FFTW is unnormalised; ng: the grid's cells */
         for (size_t k = 0; k < nc; k++)
             spec[k] *= otf[k] * scale;
         pp_fft_inverse(f, spec, grid);
