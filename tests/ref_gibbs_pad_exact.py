@@ -92,21 +92,5 @@ lam_s, del_s = tr[:, head.index("lambda")], tr[:, head.index("delta")]
 # against posterior sds of ~0.2 and ~0.5 there.
 gl = np.linspace(np.log(1e-3), np.log(1e1), 241)
 gd = np.linspace(np.log(1e-4), np.log(1e7), 241)
-LP = np.array([[log_post(a, b) for b in gd] for a in gl])
-Pm = np.exp(LP - LP.max())
-Pm /= Pm.sum()
-pptest.check(max(Pm[0].max(), Pm[-1].max(), Pm[:, 0].max(), Pm[:, -1].max()) < 1e-5,
-             "the integration grid holds the whole posterior")
-Lg = np.exp(gl)[:, None] * np.ones_like(Pm)
-Dg = np.exp(gd)[None, :] * np.ones_like(Pm)
-
-for name, d, G in (("lambda", lam_s, Lg), ("delta", del_s, Dg)):
-    m_ex = np.sum(Pm * G)
-    s_ex = np.sqrt(np.sum(Pm * G ** 2) - m_ex ** 2)
-    tol = 4 * pptest.batch_se(d, 4) + 0.01 * m_ex
-    pptest.check(abs(d.mean() - m_ex) < tol,
-                 "pad: %s posterior mean %.5g vs exact dense marginal %.5g (tol %.2g)"
-                 % (name, d.mean(), m_ex, tol))
-    pptest.check(abs(d.std() - s_ex) < 0.15 * s_ex,
-                 "pad: %s posterior sd %.4g vs exact %.4g (within 15 %%)" % (name, d.std(), s_ex))
+pptest.check_hyper_marginal("pad", log_post, gl, gd, lam_s, del_s)
 pptest.done()

@@ -43,27 +43,13 @@ import subprocess
 import numpy as np
 
 import pptest
+import volref
 
 tmp = pptest.tmpdir()
 rng = np.random.default_rng(20261204)
 D, H, W = 7, 10, 12
 VOX = (1.5, 0.4, 0.5)
 LAM, DEL, SIGMA = 4.0, 0.8, 0.5
-
-
-def centred(psf, shape):
-    pad = np.zeros(shape)
-    pad[tuple(slice(0, n) for n in psf.shape)] = psf
-    return np.roll(pad, tuple(-(n // 2) for n in psf.shape), axis=tuple(range(len(shape))))
-
-
-def lap(shape, vox):
-    """sum_a w_a (2 - 2 cos(2 pi k_a / n_a)), w_a = (vox_x / vox_a)^2."""
-    q = np.zeros(shape)
-    for a, n in enumerate(shape):
-        k = np.arange(n).reshape([-1 if b == a else 1 for b in range(len(shape))])
-        q = q + (vox[-1] / vox[a]) ** 2 * (2 - 2 * np.cos(2 * np.pi * k / n))
-    return q
 
 
 def run(frame, psf, name, *keys, ok=True):
@@ -94,7 +80,7 @@ def run(frame, psf, name, *keys, ok=True):
 psf = rng.uniform(0.1, 1.0, (3, 5, 5))
 psf[0] *= 0.3  # stronger asymmetry along z
 psf /= psf.sum()
-A = np.fft.fftn(centred(psf, (D, H, W)))
+A = np.fft.fftn(pptest.centred_kernel(psf, (D, H, W)))
 truth = 20 + 10 * rng.standard_normal((D, H, W)).cumsum(1).cumsum(2) / 30
 y = np.real(np.fft.ifftn(A * np.fft.fftn(truth))) + SIGMA * rng.standard_normal((D, H, W))
 Y = np.fft.fftn(y)
@@ -103,10 +89,10 @@ fixed = ["noise=gaussian:sigma=%g" % SIGMA, "boundary=periodic", voxel, "chains=
          "burn=5", "iters=600", "seed=7"]
 
 priors = {
-    "gmrf1": ("gmrf1:delta=%g" % DEL, lap((D, H, W), VOX)),
-    "gmrf2": ("gmrf2:delta=%g" % DEL, lap((D, H, W), VOX) ** 2),
+    "gmrf1": ("gmrf1:delta=%g" % DEL, volref.lap((D, H, W), VOX)),
+    "gmrf2": ("gmrf2:delta=%g" % DEL, volref.lap((D, H, W), VOX) ** 2),
     "matern": ("matern:range=3,nu=1,delta=%g" % DEL,
-               (8 * 1.0 / 9 + lap((D, H, W), VOX)) ** (1.0 + 1.5)),
+               (8 * 1.0 / 9 + volref.lap((D, H, W), VOX)) ** (1.0 + 1.5)),
 }
 for pname, (ptext, q) in priors.items():
     q = q.copy()
@@ -144,11 +130,11 @@ for pname, (ptext, q) in priors.items():
         # the test's power: each flipped axis of the PSF, or swapped voxel
         # weights, moves the closed form by far more than the tolerance
         for ax in range(3):
-            Af = np.fft.fftn(centred(np.flip(psf, ax), (D, H, W)))
+            Af = np.fft.fftn(pptest.centred_kernel(np.flip(psf, ax), (D, H, W)))
             muf = np.real(np.fft.ifftn(LAM * np.conj(Af) * Y / (LAM * np.abs(Af) ** 2 + DEL * q)))
             dd = np.max(np.abs(muf - mu)) / np.max(np.abs(mu))
             pptest.check(dd > 1e-3, "PSF flipped on axis %d moves the closed form by %.2e" % (ax, dd))
-        qs = lap((D, H, W), VOX[::-1])
+        qs = volref.lap((D, H, W), VOX[::-1])
         qs.flat[0] = 0
         mus = np.real(np.fft.ifftn(LAM * np.conj(A) * Y / (LAM * np.abs(A) ** 2 + DEL * qs)))
         dd = np.max(np.abs(mus - mu)) / np.max(np.abs(mu))
@@ -168,8 +154,8 @@ r2 = run(y2, psf2, "slices2", "sampler=gibbs", "prior=gmrf1:delta=%.17g" % (DEL 
          "burn=5", "iters=50", "seed=3")
 pptest.check("grid 7 10 12" in r3["stdout"] and "grid 10 12" in r2["stdout"],
              "identical slices: a depth-1 PSF adds no z padding; the 2-D run is rank 2")
-A2 = np.fft.fft2(centred(psf2, (H, W)))
-q2 = lap((H, W), (1, 1))
+A2 = np.fft.fft2(pptest.centred_kernel(psf2, (H, W)))
+q2 = volref.lap((H, W), (1, 1))
 q2[0, 0] = 0
 mu2 = np.real(np.fft.ifft2(LAM * np.conj(A2) * np.fft.fft2(y2) / (LAM * np.abs(A2) ** 2 + DEL * q2)))
 e2 = np.max(np.abs(r2["mean"] - mu2)) / np.max(np.abs(mu2))

@@ -40,6 +40,7 @@ import subprocess
 import numpy as np
 
 import pptest
+import volref
 
 tmp = pptest.tmpdir()
 D, H, W = 8, 16, 16
@@ -61,18 +62,8 @@ def gauss3(sig, sig_z):
 PSF = gauss3(1.2, 1.0)
 
 
-def centred(psf, shape):
-    pad = np.zeros(shape)
-    pad[tuple(slice(0, n) for n in psf.shape)] = psf
-    return np.roll(pad, tuple(-(n // 2) for n in psf.shape), axis=(0, 1, 2))
-
-
 def matern_q(shape):
-    L = np.zeros(shape)
-    for a, n in enumerate(shape):
-        k = np.arange(n).reshape([-1 if b == a else 1 for b in range(3)])
-        L = L + (VOX[2] / VOX[a]) ** 2 * (2 - 2 * np.cos(2 * np.pi * k / n))
-    return (8 * NU / RANGE ** 2 + L) ** (NU + 1.5)
+    return (8 * NU / RANGE ** 2 + volref.lap(shape, VOX)) ** (NU + 1.5)
 
 
 def run(y, name, *keys):
@@ -97,14 +88,14 @@ def draw(shape, seed):
     rng = np.random.default_rng(seed)
     qm = matern_q(shape)
     x = M + np.real(np.fft.ifftn(np.fft.fftn(rng.standard_normal(shape)) / np.sqrt(DELTA * qm)))
-    A = np.fft.fftn(centred(PSF, shape))
+    A = np.fft.fftn(pptest.centred_kernel(PSF, shape))
     y = np.real(np.fft.ifftn(A * np.fft.fftn(x))) + SIGMA * rng.standard_normal(shape)
     return x, y
 
 
 # the exact per-volume coverage sd (periodic, fixed hyperparameters)
 shape = (D, H, W)
-A = np.fft.fftn(centred(PSF, shape))
+A = np.fft.fftn(pptest.centred_kernel(PSF, shape))
 qm = matern_q(shape)
 p = LAM * np.abs(A) ** 2 + DELTA * qm
 v = np.mean(1 / p)

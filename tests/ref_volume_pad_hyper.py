@@ -104,21 +104,5 @@ lam_s, del_s = tr[:, head.index("lambda")], tr[:, head.index("delta")]
 # being right), 241 points per axis
 gl = np.linspace(np.log(1e-3), np.log(1e3), 241)
 gdl = np.linspace(np.log(1e-5), np.log(1e5), 241)
-LP = np.array([[log_post(a, b) for b in gdl] for a in gl])
-Pm = np.exp(LP - LP.max())
-Pm /= Pm.sum()
-pptest.check(max(Pm[0].max(), Pm[-1].max(), Pm[:, 0].max(), Pm[:, -1].max()) < 1e-5,
-             "the integration grid holds the whole posterior")
-Lg = np.exp(gl)[:, None] * np.ones_like(Pm)
-Dg = np.exp(gdl)[None, :] * np.ones_like(Pm)
-for name, d, G in (("lambda", lam_s, Lg), ("delta", del_s, Dg)):
-    m_ex = np.sum(Pm * G)
-    s_ex = np.sqrt(np.sum(Pm * G ** 2) - m_ex ** 2)
-    tol = 4 * pptest.batch_se(d, 4) + 0.01 * m_ex
-    pptest.check(abs(d.mean() - m_ex) < tol,
-                 "volume pad: %s posterior mean %.5g vs exact dense marginal %.5g (tol %.2g)"
-                 % (name, d.mean(), m_ex, tol))
-    pptest.check(abs(d.std() - s_ex) < 0.15 * s_ex,
-                 "volume pad: %s posterior sd %.4g vs exact %.4g (within 15 %%)"
-                 % (name, d.std(), s_ex))
+pptest.check_hyper_marginal("volume pad", log_post, gl, gdl, lam_s, del_s)
 pptest.done()

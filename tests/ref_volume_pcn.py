@@ -48,23 +48,10 @@ import subprocess
 import numpy as np
 
 import pptest
+import volref
 
 tmp = pptest.tmpdir()
 VOX = (1.5, 0.4, 0.5)
-
-
-def centred(psf, shape):
-    pad = np.zeros(shape)
-    pad[tuple(slice(0, n) for n in psf.shape)] = psf
-    return np.roll(pad, tuple(-(n // 2) for n in psf.shape), axis=(0, 1, 2))
-
-
-def lap(shape):
-    q = np.zeros(shape)
-    for a, n in enumerate(shape):
-        k = np.arange(n).reshape([-1 if b == a else 1 for b in range(3)])
-        q = q + (VOX[2] / VOX[a]) ** 2 * (2 - 2 * np.cos(2 * np.pi * k / n))
-    return q
 
 
 def run(y, psf, name, *keys, maps=("mean", "sd", "lo", "hi", "mcse")):
@@ -90,10 +77,10 @@ LAM, DEL, SIGMA = 4.0, 0.8, 0.5
 psf = rng.uniform(0.1, 1.0, (3, 5, 5))
 psf[0] *= 0.3
 psf /= psf.sum()
-A = np.fft.fftn(centred(psf, (D, H, W)))
+A = np.fft.fftn(pptest.centred_kernel(psf, (D, H, W)))
 truth = 20 + 10 * rng.standard_normal((D, H, W)).cumsum(1).cumsum(2) / 30
 y = np.real(np.fft.ifftn(A * np.fft.fftn(truth))) + SIGMA * rng.standard_normal((D, H, W))
-q = lap((D, H, W))
+q = volref.lap((D, H, W), VOX)
 q.flat[0] = 0
 p = LAM * np.abs(A) ** 2 + DEL * q
 mu = np.real(np.fft.ifftn(LAM * np.conj(A) * np.fft.fftn(y) / p))
@@ -131,10 +118,10 @@ kpsf = gauss3(1.2, 0.8)
 
 
 def draw(shape, rng, dlt=DLT):
-    qm = (8 * NU / RANGE ** 2 + lap(shape)) ** (NU + 1.5)
+    qm = (8 * NU / RANGE ** 2 + volref.lap(shape, VOX)) ** (NU + 1.5)
     z = M + np.real(np.fft.ifftn(np.fft.fftn(rng.standard_normal(shape)) / np.sqrt(dlt * qm)))
     x = np.exp(z)
-    Ak = np.fft.fftn(centred(kpsf, shape))
+    Ak = np.fft.fftn(pptest.centred_kernel(kpsf, shape))
     n = rng.poisson(np.maximum(np.real(np.fft.ifftn(Ak * np.fft.fftn(x))), 0) + B)
     return x, n.astype(np.float64)
 

@@ -1,10 +1,23 @@
-"""The dense model of a volume on its padded grid, shared by
-tests/ref_volume_pad.py and tests/ref_volume_pad_hyper.py: the circular
+"""Shared by the volume checks (tests/ref_volume_*.py): the weighted
+Laplacian's eigenvalues (lap), and the dense model of a volume on its padded
+grid (dense_model, for ref_volume_pad.py and ref_volume_pad_hyper.py): the circular
 3 x 3 x 3 blur A and the first-order prior precision Q on a gd x gh x gw
 grid (row-major, slowest axis first), increments along axis a weighted
 (voxel_x / voxel_a)^2 as include/pixpost/prior.h says for volumes.
 """
 import numpy as np
+
+
+def lap(shape, vox):
+    """Eigenvalues of the periodic first-order precision on a grid of any
+    rank, full spectrum: sum_a w_a (2 - 2 cos(2 pi k_a / n_a)), w_a =
+    (vox_x / vox_a)^2 (include/pixpost/prior.h; Rue & Held 2005 for the
+    unweighted 2-D case)."""
+    q = np.zeros(shape)
+    for a, n in enumerate(shape):
+        k = np.arange(n).reshape([-1 if b == a else 1 for b in range(len(shape))])
+        q = q + (vox[-1] / vox[a]) ** 2 * (2 - 2 * np.cos(2 * np.pi * k / n))
+    return q
 
 
 def dense_model(grid, psf, vox):
