@@ -464,23 +464,40 @@ pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out)
     return pp_fail(PP_ERR_ARG, "%s: unknown PSF kind %d", LIB_WHAT, (int)s->kind);
 }
 
+/* Where element i of a kernel is, for messages: "(row, col)" of a frame
+ * kernel, "(slice, row, col)" of a 3-D one. */
+static const char *kernel_at(const pp_image *k, size_t i, char *buf, size_t len)
+{
+    size_t plane = k->width * k->height, j = i % plane;
+    if (k->depth > 1)
+        snprintf(buf, len, "(%zu, %zu, %zu)", i / plane, j / k->width, j % k->width);
+    else
+        snprintf(buf, len, "(%zu, %zu)", j / k->width, j % k->width);
+    return buf;
+}
+
 pp_status pp_psf_check(pp_image *psf, size_t height, size_t width)
 {
-    size_t w = psf->width, h = psf->height;
+    size_t w = psf->width, h = psf->height, d = psf->depth;
+    if (d > 1 && (w != h || w % 2 == 0 || d % 2 == 0))
+        return pp_fail(PP_ERR_ARG, "the PSF is %zux%zux%zu; a volume's PSF needs an odd square "
+                                   "slice (2R+1) and an odd number of slices",
+                       w, h, d);
     if (w != h || w % 2 == 0)
         return pp_fail(PP_ERR_ARG, "the PSF is %zux%zu; it must be an odd square (2R+1)", w, h);
     if (w > height || w > width)
-        return pp_fail(PP_ERR_LIMIT, "the PSF (%zux%zu) is larger than the %zux%zu frame", w, h,
-                       width, height);
+        return pp_fail(PP_ERR_LIMIT, "the PSF (%zux%zu) is larger than the %zux%zu %s", w, h,
+                       width, height, d > 1 ? "slices" : "frame");
     double sum = 0;
-    for (size_t i = 0; i < w * h; i++) {
+    char at[80];
+    for (size_t i = 0; i < pp_image_count(psf); i++) {
         double v = psf->data[i];
         if (!isfinite(v))
-            return pp_fail(PP_ERR_NUMERIC, "the PSF has a NaN/Inf value at (%zu, %zu)", i / w,
-                           i % w);
+            return pp_fail(PP_ERR_NUMERIC, "the PSF has a NaN/Inf value at %s",
+                           kernel_at(psf, i, at, sizeof at));
         if (v < 0)
-            return pp_fail(PP_ERR_ARG, "the PSF has a negative value %g at (%zu, %zu)", v, i / w,
-                           i % w);
+            return pp_fail(PP_ERR_ARG, "the PSF has a negative value %g at %s", v,
+                           kernel_at(psf, i, at, sizeof at));
         sum += v;
     }
     if (!(sum > 0) || !isfinite(sum))

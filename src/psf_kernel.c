@@ -32,7 +32,7 @@ pp_status pp_psf_pick_radius(size_t size, double model_radius, size_t *radius)
 
 void pp_psf_normalise(pp_image *k)
 {
-    size_t n = k->width * k->height;
+    size_t n = pp_image_count(k);
     double sum = 0;
     for (size_t i = 0; i < n; i++)
         sum += k->data[i];

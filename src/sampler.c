@@ -154,40 +154,16 @@ static pp_status check_volume(const pp_sampler_config *cfg)
     return PP_OK;
 }
 
-/* A kernel for a volume: odd extents on every axis, its slices no larger
- * than the frame's, its depth no larger than the volume's with periodic
- * boundaries (pad adds its z radius to the grid, so any odd depth fits);
- * finite, non-negative, a positive sum; normalised to sum 1 in place. A
- * frame-like kernel (depth 1) blurs within each slice only. */
-static pp_status check_volume_psf(const pp_sampler_config *cfg, pp_image *k,
+/* A volume's kernel beyond pp_psf_check: with periodic boundaries no deeper
+ * than the volume (pad adds its z radius to the grid, so any odd depth
+ * fits). A frame-like kernel (depth 1) blurs within each slice only. */
+static pp_status check_volume_psf(const pp_sampler_config *cfg, const pp_image *k,
                                   const pp_shape *fs)
 {
-    if (k->width != k->height || k->width % 2 == 0 || k->depth % 2 == 0)
-        return pp_fail(PP_ERR_ARG, "the PSF is %zux%zux%zu; a volume's PSF needs an odd square "
-                                   "slice (2R+1) and an odd number of slices",
-                       k->width, k->height, k->depth);
-    if (k->width > fs->n[1] || k->width > fs->n[2])
-        return pp_fail(PP_ERR_LIMIT, "the PSF (%zux%zu) is larger than the %zux%zu slices",
-                       k->width, k->height, fs->n[2], fs->n[1]);
     if (k->depth > fs->n[0] && cfg->boundary == PP_BOUNDARY_PERIODIC)
         return pp_fail(PP_ERR_LIMIT, "the PSF has %zu slices, more than the volume's %zu: "
                                      "with %s periodic it would wrap onto itself; use %s pad",
                        k->depth, fs->n[0], NAME(PP_SET_BOUNDARY), NAME(PP_SET_BOUNDARY));
-    size_t n = pp_image_count(k);
-    double sum = 0;
-    for (size_t i = 0; i < n; i++) {
-        double v = k->data[i];
-        if (!isfinite(v) || v < 0)
-            return pp_fail(isfinite(v) ? PP_ERR_ARG : PP_ERR_NUMERIC,
-                           "the PSF has a %s value %g at voxel (%zu, %zu, %zu)",
-                           isfinite(v) ? "negative" : "non-finite", v, i / (k->height * k->width),
-                           i / k->width % k->height, i % k->width);
-        sum += v;
-    }
-    if (!(sum > 0) || !isfinite(sum))
-        return pp_fail(PP_ERR_NUMERIC, "the PSF sums to %g; it needs a positive finite sum", sum);
-    for (size_t i = 0; i < n; i++)
-        k->data[i] /= sum;
     return PP_OK;
 }
 
@@ -548,12 +524,13 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
     pp_status st = check_config(&s->cfg, missing, s->depth > 1);
     pp_image *kernel = NULL;
     if (st == PP_OK && (st = pp_image_clone(psf, &kernel)) == PP_OK)
-        st = s->depth > 1 ? check_volume_psf(&s->cfg, kernel, &s->fshape)
-                          : psf->depth > 1 ? pp_fail(PP_ERR_ARG, "the PSF is 3-D (%zu slices) "
-                                                                 "but the frame is 2-D: a 3-D PSF "
-                                                                 "needs a volume (a z-stack)",
-                                                     psf->depth)
-                                           : pp_psf_check(kernel, s->height, s->width);
+        st = s->depth == 1 && psf->depth > 1
+                 ? pp_fail(PP_ERR_ARG, "the PSF is 3-D (%zu slices) but the frame is 2-D: a "
+                                       "3-D PSF needs a volume (a z-stack)",
+                           psf->depth)
+                 : pp_psf_check(kernel, s->height, s->width);
+    if (st == PP_OK && s->depth > 1)
+        st = check_volume_psf(&s->cfg, kernel, &s->fshape);
     if (st == PP_OK)
         s->psf_size = kernel->width;
     if (st == PP_OK)

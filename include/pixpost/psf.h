@@ -100,9 +100,11 @@ pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out);
  * can call it per proposed width. PP_ERR_ARG for a file spec. */
 pp_status pp_psf_fill(const pp_psf_spec *s, pp_image *k);
 
-/* Checks a kernel for use on a frame: finite, non-negative, non-zero sum,
- * odd square, not larger than the frame (height x width). Normalises to
- * sum 1 in place. */
+/* Checks a kernel for use on a frame, or on a volume whose slices are
+ * height x width: finite, non-negative, non-zero sum, odd square (slices),
+ * an odd number of slices, not larger than the frame (slice) in the plane.
+ * Normalises to sum 1 in place. Whether a 3-D kernel suits the data (a
+ * volume, its depth) is the caller's to check. */
 pp_status pp_psf_check(pp_image *psf, size_t height, size_t width);
 
 /* Bessel function of the first kind, order 1 (rational approximations of
