@@ -38,6 +38,7 @@
 #include "sampler_internal.h"
 #include "spectral.h"
 #include "stats.h"
+#include "pixpost/regions.h"
 #include "pixpost/psf.h"
 #if defined(__GLIBC__)
 #include <malloc.h>
@@ -454,6 +455,15 @@ static pp_status plan_trace(pp_sampler *s)
         if (!s->names[i])
             return pp_fail(PP_ERR_NOMEM, "out of memory");
     }
+    if (s->cfg.regions) {
+        if (!pp_regions_fit(s->cfg.regions, s->depth, s->height, s->width))
+            return pp_fail(PP_ERR_ARG, "the regions were planned for another frame size");
+        s->nreg = pp_regions_count(s->cfg.regions);
+        if (!pp_mul_ok(rows, s->nreg, &n) || !pp_mul_ok(n, sizeof(double), &n))
+            return pp_fail(PP_ERR_LIMIT, "the regions' draws would not fit in memory");
+        if (!(s->reg_values = calloc(rows * s->nreg, sizeof(double))))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' draws");
+    }
     s->trace = (pp_trace){s->cfg.chains, kept, ncols, (const char *const *)s->names,
                           s->trace_values};
     s->trace_cap = kept;
@@ -483,7 +493,9 @@ static pp_status plan_chains(pp_sampler *s)
         b->rbuf = pp_fft_alloc_real(s->gn);
         b->yhat = pad ? pp_fft_alloc_complex(s->gm) : NULL;
         b->yaug = pad ? pp_fft_alloc_real(s->gn) : NULL;
-        if (!b->cbuf || !b->cbuf2 || !b->rbuf || (pad && (!b->yhat || !b->yaug)))
+        b->xcopy = pad && s->nreg ? pp_fft_alloc_complex(s->gm) : NULL;
+        if (!b->cbuf || !b->cbuf2 || !b->rbuf || (pad && (!b->yhat || !b->yaug)) ||
+            (pad && s->nreg && !b->xcopy))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the buffers of thread %u", k + 1);
     }
     for (unsigned k = 0; k < s->cfg.chains; k++) {
@@ -494,6 +506,7 @@ static pp_status plan_chains(pp_sampler *s)
         if (!(c->mean1 = malloc(s->npix * sizeof(float))))
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
         c->trace = s->trace_values + (size_t)k * s->trace_cap * s->trace.ncols;
+        c->regs = s->reg_values ? s->reg_values + (size_t)k * s->trace_cap * s->nreg : NULL;
         c->otf = s->otf;
         c->otf2 = s->otf2;
         if (s->cfg.psf.width_auto) {
@@ -548,6 +561,7 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
         st = plan_chains(s);
     if (st == PP_OK) {
         s->kernel = kernel_for(s->cfg.kind, s->cfg.prior.kind);
+        s->records_mean = s->kernel == &pp_kernel_gibbs || s->kernel == &pp_kernel_mtc;
         if (s->kernel->prepare)
             st = s->kernel->prepare(s);
     }
@@ -589,6 +603,7 @@ static void bind_chain(pp_sampler *s, pp_chain *c, const pp_slot *b)
     c->yaug = b->yaug;
     c->yhat = b->yhat ? b->yhat : s->yhat;
     c->kwork = b->kwork;
+    c->xcopy = b->xcopy;
 }
 
 /* Chain k's first iteration: a dispersed start, the rough scales times a
@@ -714,6 +729,7 @@ static void free_slots(pp_sampler *s)
         pp_fft_free_buffer(b->rbuf);
         pp_fft_free_buffer(b->yhat);
         pp_fft_free_buffer(b->yaug);
+        pp_fft_free_buffer(b->xcopy);
         if (s->kernel && s->kernel->free_work)
             s->kernel->free_work(b->kwork);
     }
@@ -826,6 +842,7 @@ static pp_status run_segment(pp_sampler *s, unsigned long t_end)
             c->cbuf = c->cbuf2 = c->yhat = NULL; /* the slot passes to the next chain */
             c->rbuf = c->yaug = NULL;
             c->kwork = NULL;
+            c->xcopy = NULL;
         }
     pp_status res = PP_OK;
     for (unsigned k = 0; k < nc && res == PP_OK; k++)
@@ -854,10 +871,23 @@ static pp_status grow_trace(pp_sampler *s, size_t rows)
         memmove(v + k * rows * ncols, v + k * s->trace_cap * ncols,
                 s->trace_cap * ncols * sizeof(double));
     s->trace_values = v;
-    s->trace_cap = rows;
     s->trace.values = v;
     for (size_t k = 0; k < nc; k++)
         s->chain[k].trace = v + k * rows * ncols;
+    if (s->nreg) {
+        size_t nr = s->nreg, m;
+        if (!pp_mul_ok(rows, nc * nr, &m) || !pp_mul_ok(m, sizeof(double), &m))
+            return pp_fail(PP_ERR_LIMIT, "the regions' draws would not fit in memory");
+        double *g = realloc(s->reg_values, m);
+        if (!g)
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' draws");
+        for (size_t k = nc; k-- > 0;)
+            memmove(g + k * rows * nr, g + k * s->trace_cap * nr, s->trace_cap * nr * sizeof(double));
+        s->reg_values = g;
+        for (size_t k = 0; k < nc; k++)
+            s->chain[k].regs = g + k * rows * nr;
+    }
+    s->trace_cap = rows;
     return PP_OK;
 }
 
@@ -1105,6 +1135,12 @@ void pp_sampler_observed(const pp_sampler *s, size_t *observed, size_t *missing)
     *missing = s->nmissing;
 }
 const pp_trace *pp_sampler_trace(const pp_sampler *s) { return &s->trace; }
+
+const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap)
+{
+    *cap = s->trace_cap;
+    return s->reg_values;
+}
 const char *pp_sampler_bound_method(const pp_sampler *s) { return s->bound_method; }
 double pp_sampler_seconds(const pp_sampler *s) { return s->seconds; }
 pp_fft_plans pp_sampler_fft_plans(const pp_sampler *s) { return pp_fft_plans_source(s->fft); }
@@ -1140,6 +1176,7 @@ void pp_sampler_free(pp_sampler *s)
     free(s->tw_row);
     free(s->tw_col);
     free(s->trace_values);
+    free(s->reg_values);
     for (size_t i = 0; i < 5 + PP_MAX_PROBES; i++)
         free(s->names[i]);
     for (size_t i = 0; i < s->nwarnings; i++)

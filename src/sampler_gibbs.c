@@ -66,6 +66,7 @@
 #include "sampler_internal.h"
 #include "spectral.h"
 #include "vmath.h"
+#include "pixpost/regions.h"
 
 typedef pp_fused_sums fused_sums;
 
@@ -408,11 +409,13 @@ static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss
  * row (whose probe columns are already filled when probes_done: by the pass,
  * or in pad mode from x-hat). */
 void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const fused_sums *f, double loglik,
-                     int probes_done)
+                     int probes_done, int regions_hat)
 {
     /* c2r of mu/N gives mu on the grid; keep the frame block. */
     pp_fft_inverse(s->fft, c->cbuf, c->rbuf);
     pp_chain_add_draw(s, c, c->rbuf);
+    if (regions_hat && s->nreg) /* cbuf is free after its c2r */
+        pp_chain_add_regions_hat(s, c, c->cbuf2, c->cbuf);
     c->condvar_sum += f->cvar;
     double *row = c->trace + c->kept * s->trace.ncols;
     row[PP_COL_LAMBDA] = c->lambda;
@@ -461,6 +464,8 @@ static void pad_step(const pp_sampler *s, pp_chain *c, int keep, int have_xhat, 
     if (keep) {
         double *row = c->trace + c->kept * s->trace.ncols;
         probes_fast(s, c->cbuf2, row + s->col_probe0);
+        if (s->nreg)
+            pp_chain_add_regions_hat(s, c, c->cbuf2, c->xcopy);
     }
     /* A x-hat goes to the c2r's input after the probes (the c2r destroys it). */
     if (have_xhat)
@@ -548,6 +553,11 @@ static void asis_delta_pad(const pp_sampler *s, pp_chain *c, int keep, double xs
         double *row = c->trace + c->kept * s->trace.ncols + s->col_probe0;
         for (size_t p = 0; p < s->nprobe; p++)
             row[p] = cst + (row[p] - cst) * ratio;
+        double *reg = s->nreg ? c->regs + c->kept * s->nreg : NULL;
+        for (size_t j = 0; j < s->nreg; j++) { /* totals: n_j cst + ratio (T_j - n_j cst) */
+            double base = cst * (double)pp_regions_pixels(s->cfg.regions, j);
+            reg[j] = base + (reg[j] - base) * ratio;
+        }
     }
 }
 
@@ -584,7 +594,7 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
         int keep = t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0;
         /* a kept periodic draw without width sampling needs x-hat only for
          * its probes: the pass sums them and x-hat is never stored */
-        int direct = keep && !pad && !width;
+        int direct = keep && !pad && !width && !s->nreg;
         int want_xhat = (keep && !direct) || width;
         int mode = pad ? !(want_xhat || ps) : want_xhat ? 0 : -1;
         double *probe = direct ? c->trace + c->kept * s->trace.ncols + s->col_probe0 : NULL;
@@ -622,7 +632,7 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
         if (keep) {
             double n = pad ? nobs : (double)s->gn;
             double ll = 0.5 * n * log(c->lambda / (2 * PP_PI)) - 0.5 * c->lambda * ss_obs;
-            pp_gibbs_record(s, c, &f, ll, pad || direct);
+            pp_gibbs_record(s, c, &f, ll, pad || direct, !pad);
         }
         if (pp_sampler_tick(s))
             return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");

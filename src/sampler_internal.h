@@ -32,6 +32,7 @@ typedef struct pp_slot {
     pp_complex *cbuf, *cbuf2, *yhat; /* yhat: augment only */
     double *rbuf, *yaug;             /* yaug: augment only */
     void *kwork;                     /* the kernel's working state (kernel->prepare) */
+    pp_complex *xcopy;               /* regions with augment: a copy of x-hat for its c2r */
     long resident;                   /* the chain whose state the slot holds (rounds) */
 } pp_slot;
 
@@ -55,6 +56,8 @@ typedef struct pp_chain {
                         * only (sampler_diag.c says why single precision is enough) */
     double condvar_sum; /* sum over kept draws of the conditional variance */
     double *trace;     /* kept x ncols rows inside the sampler's trace */
+    double *regs;      /* regions: kept x nreg totals inside s->reg_values, else NULL */
+    pp_complex *xcopy; /* lent by the slot (regions with augment), else NULL */
     size_t kept;
     void *kstate;      /* the kernel's own per-chain state (kernel->prepare) */
     void *kwork;       /* its working state, lent by the slot while the chain runs */
@@ -189,6 +192,11 @@ struct pp_sampler {
     pp_image *rhat_map, *mcse_map;   /* per-pixel split-R-hat and MCSE, or NULL */
     char *names[6 + PP_MAX_PROBES]; /* 3 scalars, psf_width, kappa, level, probes */
     double *trace_values;
+    size_t nreg;          /* regions (cfg.regions), else 0 */
+    double *reg_values;   /* chains x trace_cap x nreg kept draws' region totals */
+    int records_mean;     /* the kernel records the conditional mean in
+                           * pp_chain_add_draw (gibbs, mtc): the region totals of
+                           * the draw come from pp_chain_add_regions_hat */
     pp_image *mean, *sd, *lo, *hi;
     char bound_method[256];
     char likelihood[256]; /* pcn/gpcn/hmc: the likelihood used, for summary.json ("" else) */
@@ -225,6 +233,11 @@ static inline size_t pp_probe_index(const struct pp_sampler *s, size_t p)
  * reaches s->freeze_at (a fixed run: floor(kept / 2); a run in rounds also
  * copies it at each round's end). Call once per kept draw. */
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
+/* The region totals of a kept draw given by its half spectrum x-hat (not
+ * normalised: its c2r is N x), into chain c's row c->kept; copies x-hat to
+ * tmp (gm entries, may be c->cbuf when free) and uses c->rbuf. */
+void pp_chain_add_regions_hat(const pp_sampler *s, pp_chain *c, const pp_complex *xhat,
+                              pp_complex *tmp);
 /* c->mean1 = c->mom.mean (in single precision): the maps' first half ends
  * here. */
 void pp_chain_freeze_mean(pp_chain *c);

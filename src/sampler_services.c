@@ -10,6 +10,7 @@
 #include <string.h>
 #include "sampler_internal.h"
 #include "stats.h"
+#include "pixpost/regions.h"
 
 void pp_chain_freeze_mean(pp_chain *c)
 {
@@ -20,8 +21,19 @@ void pp_chain_freeze_mean(pp_chain *c)
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
 {
     pp_moments_add_box(&c->mom, grid, s->depth, s->height, s->width, s->gw, s->gh * s->gw);
+    if (s->nreg && !s->records_mean)
+        pp_regions_sum(s->cfg.regions, grid, s->gw, s->gh * s->gw, 1.0, c->regs + c->kept * s->nreg);
     if (c->mom.count == s->freeze_at)
         pp_chain_freeze_mean(c);
+}
+
+void pp_chain_add_regions_hat(const pp_sampler *s, pp_chain *c, const pp_complex *xhat,
+                              pp_complex *tmp)
+{
+    memcpy(tmp, xhat, s->gm * sizeof *tmp);
+    pp_fft_inverse(s->fft, tmp, c->rbuf);
+    pp_regions_sum(s->cfg.regions, c->rbuf, s->gw, s->gh * s->gw, 1.0 / (double)s->gn,
+                   c->regs + c->kept * s->nreg);
 }
 
 /* Appends a formatted sentence to a list of at most max (dropped when full

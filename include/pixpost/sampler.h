@@ -165,6 +165,11 @@ typedef struct pp_sampler_config {
      * known, taken as cubic voxels {1, 1, 1}; negative or not finite:
      * refused. Frames ignore it. See "Volumes" above. */
     double voxel[3];
+    /* Regions (include/pixpost/regions.h), planned for the frame's size, or
+     * NULL (default): the total of every kept draw over each region is
+     * recorded (pp_sampler_region_draws). Not owned; must outlive the
+     * sampler. */
+    const struct pp_regions *regions;
 } pp_sampler_config;
 
 void pp_sampler_defaults(pp_sampler_config *cfg);
@@ -255,6 +260,11 @@ typedef struct pp_trace {
 } pp_trace;
 
 const pp_trace *pp_sampler_trace(const pp_sampler *s);
+/* With cfg.regions, after pp_sampler_run: each kept draw's totals over the
+ * regions, totals[(c * cap + i) * nregions + j] for chain c, kept draw i <
+ * kept (the trace's kept), region j; NULL without regions. Points into the
+ * sampler. */
+const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap);
 /* The trace columns every sampler has, first in every row. PP_COL_PROBE0
  * is the column after them: the optional psf_width, kappa and level
  * columns start there when present, then the probe pixels. */

@@ -331,6 +331,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
                     "default adaptive prior is for frames); give --prior to choose another\n",
                     r->frame, vp);
     }
+    cfg.regions = r->regions;
     for (int i = 0; i < 3; i++) /* {z, y, x} micrometres; 0 unknown (NaN here) */
         cfg.voxel[i] = r->voxel_um && r->voxel_um[i] > 0 ? r->voxel_um[i] : 0.0;
     pp_status st = pp_sampler_create(&cfg, frame, psf, &r->sampler);
@@ -388,7 +389,7 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     pp_result_free(&res);
     if (st != PP_OK)
         return fail_lib(r, st);
-    return 0;
+    return cli_regions_write(o, r);
 }
 
 int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
@@ -404,7 +405,10 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     progress_state ps;
     cli_plans plans;
     cli_noise_auto na;
+    r->regions = NULL;
     int rc = read_frame(o, r, &frame);
+    if (!rc)
+        rc = cli_regions_load(o, r, frame);
     if (!rc)
         rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
     if (!rc)
@@ -421,5 +425,7 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
         rc = sample_and_write(o, r, frame, psf, &ps, &plans, &na);
     pp_image_free(psf);
     pp_image_free(frame);
+    pp_regions_free(r->regions); /* the sampler has run: it reads them no more */
+    r->regions = NULL;
     return rc;
 }
