@@ -75,10 +75,14 @@ int cli_regions_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image 
     const pp_shape *sh = &m->shape;
     size_t pages = sh->rank == 3 ? sh->n[0] : 1, h = sh->n[sh->rank - 2], w = sh->n[sh->rank - 1];
     if (pages != frame->depth || h != frame->height || w != frame->width) {
-        char dims[256];
-        snprintf(dims, sizeof dims, "%zu page%s of %zux%zu pixels but the %s %s is %zu x %zux%zu",
-                 pages, pages == 1 ? "" : "s", w, h, frame->depth > 1 ? "volume" : "frame",
-                 r->frame, frame->depth, frame->width, frame->height);
+        char dims[256], of[96];
+        if (frame->depth > 1)
+            snprintf(of, sizeof of, "%zu z-slices of %zux%zu", frame->depth, frame->width,
+                     frame->height);
+        else
+            snprintf(of, sizeof of, "%zux%zu", frame->width, frame->height);
+        snprintf(dims, sizeof dims, "%zu page%s of %zux%zu pixels but the %s %s is %s", pages,
+                 pages == 1 ? "" : "s", w, h, frame->depth > 1 ? "volume" : "frame", r->frame, of);
         pp_stack_free(m);
         return regions_fail(r, "--regions %s: %s; give labels of the frame's size (a volume: "
                                "one page per z-slice)", o->regions, dims);
