@@ -464,6 +464,15 @@ static pp_status plan_trace(pp_sampler *s)
         if (!(s->reg_values = calloc(rows * s->nreg, sizeof(double))))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' draws");
     }
+    if (s->cfg.nabove > PP_MAX_ABOVE || (s->cfg.nabove && !s->cfg.above))
+        return pp_fail(PP_ERR_ARG, "at most %d thresholds for the above maps", PP_MAX_ABOVE);
+    s->nabove = s->cfg.nabove;
+    for (size_t t = 0; t < s->nabove; t++)
+        if (!isfinite(s->above_t[t] = s->cfg.above[t]))
+            return pp_fail(PP_ERR_ARG, "an above map's threshold is not finite");
+    s->cfg.above = NULL; /* not kept: the thresholds are copied here */
+    s->cfg.nabove = 0;
+    s->draw_stats = s->nreg || s->nabove;
     s->trace = (pp_trace){s->cfg.chains, kept, ncols, (const char *const *)s->names,
                           s->trace_values};
     s->trace_cap = kept;
@@ -493,9 +502,11 @@ static pp_status plan_chains(pp_sampler *s)
         b->rbuf = pp_fft_alloc_real(s->gn);
         b->yhat = pad ? pp_fft_alloc_complex(s->gm) : NULL;
         b->yaug = pad ? pp_fft_alloc_real(s->gn) : NULL;
-        b->xcopy = pad && s->nreg ? pp_fft_alloc_complex(s->gm) : NULL;
+        int dpad = pad && s->draw_stats;
+        b->xcopy = dpad ? pp_fft_alloc_complex(s->gm) : NULL;
+        b->xdraw = dpad ? pp_fft_alloc_real(s->gn) : NULL;
         if (!b->cbuf || !b->cbuf2 || !b->rbuf || (pad && (!b->yhat || !b->yaug)) ||
-            (pad && s->nreg && !b->xcopy))
+            (dpad && (!b->xcopy || !b->xdraw)))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the buffers of thread %u", k + 1);
     }
     for (unsigned k = 0; k < s->cfg.chains; k++) {
@@ -507,6 +518,8 @@ static pp_status plan_chains(pp_sampler *s)
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
         c->trace = s->trace_values + (size_t)k * s->trace_cap * s->trace.ncols;
         c->regs = s->reg_values ? s->reg_values + (size_t)k * s->trace_cap * s->nreg : NULL;
+        if (s->nabove && !(c->above_n = calloc(s->nabove * s->npix, sizeof(double))))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the above maps of chain %u", k + 1);
         c->otf = s->otf;
         c->otf2 = s->otf2;
         if (s->cfg.psf.width_auto) {
@@ -604,6 +617,7 @@ static void bind_chain(pp_sampler *s, pp_chain *c, const pp_slot *b)
     c->yhat = b->yhat ? b->yhat : s->yhat;
     c->kwork = b->kwork;
     c->xcopy = b->xcopy;
+    c->xdraw = b->xdraw;
 }
 
 /* Chain k's first iteration: a dispersed start, the rough scales times a
@@ -630,13 +644,15 @@ static void start_chain(pp_sampler *s, unsigned k)
 }
 
 /* Forgets chain c's kept draws (a fresh start of its kept phase). */
-static void clear_kept(pp_chain *c)
+static void clear_kept(const pp_sampler *s, pp_chain *c)
 {
     c->kept = 0;
     c->condvar_sum = 0;
     c->mom.count = 0;
     memset(c->mom.mean, 0, c->mom.len * sizeof(double));
     memset(c->mom.m2, 0, c->mom.len * sizeof(double));
+    if (c->above_n)
+        memset(c->above_n, 0, s->nabove * s->npix * sizeof(double));
 }
 
 /* The regions of slot b that hold its running chain's state: the kernel's
@@ -730,6 +746,7 @@ static void free_slots(pp_sampler *s)
         pp_fft_free_buffer(b->yhat);
         pp_fft_free_buffer(b->yaug);
         pp_fft_free_buffer(b->xcopy);
+        pp_fft_free_buffer(b->xdraw);
         if (s->kernel && s->kernel->free_work)
             s->kernel->free_work(b->kwork);
     }
@@ -764,7 +781,31 @@ static void free_moments(pp_sampler *s)
         pp_moments_free(&s->chain[k].mom);
         free(s->chain[k].mean1);
         s->chain[k].mean1 = NULL;
+        free(s->chain[k].above_n);
+        s->chain[k].above_n = NULL;
     }
+}
+
+/* P(x_i > T): the kept draws above each threshold, over all chains. */
+static pp_status pool_above(pp_sampler *s)
+{
+    double kept = 0;
+    for (unsigned k = 0; k < s->cfg.chains; k++)
+        kept += (double)s->chain[k].kept;
+    for (size_t t = 0; t < s->nabove; t++) {
+        pp_status st = pp_image_create3(s->depth, s->height, s->width, &s->above[t]);
+        if (st != PP_OK)
+            return st;
+        double *m = s->above[t]->data;
+        for (unsigned k = 0; k < s->cfg.chains; k++) {
+            const double *n = s->chain[k].above_n + t * s->npix;
+            for (size_t i = 0; i < s->npix; i++)
+                m[i] += n[i];
+        }
+        for (size_t i = 0; i < s->npix; i++)
+            m[i] /= kept;
+    }
+    return PP_OK;
 }
 
 static pp_status pool_estimates(pp_sampler *s)
@@ -843,6 +884,7 @@ static pp_status run_segment(pp_sampler *s, unsigned long t_end)
             c->rbuf = c->yaug = NULL;
             c->kwork = NULL;
             c->xcopy = NULL;
+            c->xdraw = NULL;
         }
     pp_status res = PP_OK;
     for (unsigned k = 0; k < nc && res == PP_OK; k++)
@@ -922,7 +964,7 @@ static void extend_burn(pp_sampler *s, unsigned long first)
 {
     s->keep_from = s->chain[0].t;
     for (unsigned k = 0; k < s->cfg.chains; k++)
-        clear_kept(&s->chain[k]);
+        clear_kept(s, &s->chain[k]);
     s->trace.kept = 0;
     s->freeze_at = first / s->cfg.thin / 2;
     s->half_n = s->freeze_at;
@@ -950,11 +992,14 @@ static pp_status end_run(pp_sampler *s, pp_status res, double t0)
     L->kept = s->trace.kept;
     L->iters = s->chain[0].t > s->keep_from ? s->chain[0].t - s->keep_from : 0;
     release_grid(s);
+    s->cfg.regions = NULL; /* read no more: the caller may free them */
     for (size_t i = s->nwarn_setup; i < s->nwarnings; i++)
         free(s->warnings[i]);
     s->nwarnings = s->nwarn_setup < s->nwarnings ? s->nwarn_setup : s->nwarnings;
     if (res == PP_OK)
         res = pool_estimates(s);
+    if (res == PP_OK)
+        res = pool_above(s);
     if (res == PP_OK && s->kernel->finish)
         res = s->kernel->finish(s);
     size_t keep = s->nwarnings; /* finish's warnings stay */
@@ -1141,6 +1186,11 @@ const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap)
     *cap = s->trace_cap;
     return s->reg_values;
 }
+
+const pp_image *pp_sampler_above_map(const pp_sampler *s, size_t t)
+{
+    return t < s->nabove ? s->above[t] : NULL;
+}
 const char *pp_sampler_bound_method(const pp_sampler *s) { return s->bound_method; }
 double pp_sampler_seconds(const pp_sampler *s) { return s->seconds; }
 pp_fft_plans pp_sampler_fft_plans(const pp_sampler *s) { return pp_fft_plans_source(s->fft); }
@@ -1177,6 +1227,8 @@ void pp_sampler_free(pp_sampler *s)
     free(s->tw_col);
     free(s->trace_values);
     free(s->reg_values);
+    for (size_t t = 0; t < s->nabove; t++)
+        pp_image_free(s->above[t]);
     for (size_t i = 0; i < 5 + PP_MAX_PROBES; i++)
         free(s->names[i]);
     for (size_t i = 0; i < s->nwarnings; i++)

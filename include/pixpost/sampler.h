@@ -167,10 +167,17 @@ typedef struct pp_sampler_config {
     double voxel[3];
     /* Regions (include/pixpost/regions.h), planned for the frame's size, or
      * NULL (default): the total of every kept draw over each region is
-     * recorded (pp_sampler_region_draws). Not owned; must outlive the
-     * sampler. */
+     * recorded (pp_sampler_region_draws). Not owned; read until
+     * pp_sampler_run returns (pp_sampler_config_used then shows NULL). */
     const struct pp_regions *regions;
+    /* Thresholds T (nabove of them, at most PP_MAX_ABOVE; not owned, read by
+     * pp_sampler_create, which copies them; pp_sampler_config_used shows
+     * none): the posterior probability map P(x_i > T), the share of kept
+     * draws above T at each pixel (pp_sampler_above_map). */
+    const double *above;
+    size_t nabove;
 } pp_sampler_config;
+#define PP_MAX_ABOVE 16
 
 void pp_sampler_defaults(pp_sampler_config *cfg);
 
@@ -265,6 +272,10 @@ const pp_trace *pp_sampler_trace(const pp_sampler *s);
  * kept (the trace's kept), region j; NULL without regions. Points into the
  * sampler. */
 const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap);
+/* With cfg.above, after pp_sampler_run: the map P(x_i > above[t]) (the
+ * frame's shape), pooled over every chain's kept draws; NULL else. Points
+ * into the sampler. */
+const pp_image *pp_sampler_above_map(const pp_sampler *s, size_t t);
 /* The trace columns every sampler has, first in every row. PP_COL_PROBE0
  * is the column after them: the optional psf_width, kappa and level
  * columns start there when present, then the probe pixels. */

@@ -196,6 +196,9 @@ typedef struct cli_sample_opts {
     const char *regions;    /* --regions FILE (a label image) or NULL */
     size_t ncompare;        /* --compare A/B values given */
     pp_region_pair compare[CLI_MAX_REPEAT + 1];
+    size_t nabove;          /* --above T values given */
+    double above[CLI_MAX_REPEAT + 1];
+    int rsd;                /* --rsd */
 } cli_sample_opts;
 
 /* The flag of each sampler setting (flag_names.c), for
@@ -403,6 +406,11 @@ int cli_regions_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image 
 int cli_regions_write(const cli_sample_opts *o, cli_frame_run *r);
 /* Parses --regions and --compare into o; 0 or CLI_EXIT_USAGE (printed). */
 int cli_regions_parse(const cli_args *a, cli_sample_opts *o);
+/* --above T and --rsd (maps_cli.c): parses them into o (0 or
+ * CLI_EXIT_USAGE, printed); writes OUTDIR/above_<T>.tif and rsd.tif after
+ * a run (0 or CLI_EXIT_USAGE with r->message set). */
+int cli_maps_parse(const cli_args *a, cli_sample_opts *o);
+int cli_maps_write(const cli_sample_opts *o, cli_frame_run *r);
 /* One line on the unobserved pixels of a run (masked and saturated, the
  * share of the frame), into buf; "" when none. */
 void cli_unobserved_line(const cli_frame_run *r, size_t npix, char *buf, size_t len);

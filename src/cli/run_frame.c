@@ -332,6 +332,8 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
                     r->frame, vp);
     }
     cfg.regions = r->regions;
+    cfg.above = o->above;
+    cfg.nabove = o->nabove;
     for (int i = 0; i < 3; i++) /* {z, y, x} micrometres; 0 unknown (NaN here) */
         cfg.voxel[i] = r->voxel_um && r->voxel_um[i] > 0 ? r->voxel_um[i] : 0.0;
     pp_status st = pp_sampler_create(&cfg, frame, psf, &r->sampler);
@@ -389,7 +391,8 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     pp_result_free(&res);
     if (st != PP_OK)
         return fail_lib(r, st);
-    return cli_regions_write(o, r);
+    rc = cli_regions_write(o, r);
+    return rc ? rc : cli_maps_write(o, r);
 }
 
 int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)

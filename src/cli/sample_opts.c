@@ -124,6 +124,12 @@ static const cli_opt sample_table[] = {
     {"compare", 0, 1, "A/B ...",
      "With --regions: the posterior of mean_A - mean_B and mean_A / mean_B and P(mean_A > "
      "mean_B) for labels A and B, as rows of regions.csv (repeatable)."},
+    {"above", 0, 1, "T ...",
+     "Posterior probability map P(x > T) per pixel, the share of kept draws above T, in "
+     "OUTDIR/above_<T>.tif (T written as %g; repeatable, at most 16)."},
+    {"rsd", 0, 0, "",
+     "Also write OUTDIR/rsd.tif, the relative uncertainty sd / mean where the mean is "
+     "positive (NaN elsewhere)."},
     {"keep-saturated", 0, 0, "",
      "Use saturated pixels as data. Without it, pixels at the format's maximum (255 for "
      "8-bit, 65535 for 16-bit integer input) or on a flat top of the histogram (README, "
@@ -204,10 +210,12 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
     else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0 ||
              strcmp(name, "overwrite") == 0)
         snprintf(buf, len, "off");
-    else if (strcmp(name, "no-plan-cache") == 0 || strcmp(name, "keep-saturated") == 0)
+    else if (strcmp(name, "no-plan-cache") == 0 || strcmp(name, "keep-saturated") == 0 ||
+             strcmp(name, "rsd") == 0)
         snprintf(buf, len, "off");
     else if (strcmp(name, "mask") == 0 || strcmp(name, "plane") == 0 ||
-             strcmp(name, "regions") == 0 || strcmp(name, "compare") == 0)
+             strcmp(name, "regions") == 0 || strcmp(name, "compare") == 0 ||
+             strcmp(name, "above") == 0)
         snprintf(buf, len, "none");
     else if (strcmp(name, "pages") == 0)
         snprintf(buf, len, "from the OME metadata; none for a file without it");
@@ -386,6 +394,8 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
     if (o->mask && !o->mask[0])
         return cli_opt_error("mask", "empty file name (expected --mask FILE)");
     int rc = cli_regions_parse(a, o);
+    if (!rc)
+        rc = cli_maps_parse(a, o);
     if (rc)
         return rc;
     /* MEASURE plans unless turned off; cli_plans_load may still fall back
