@@ -66,7 +66,8 @@ static pp_status write_row(FILE *f, const char *kind, long a, long b, size_t pix
 }
 
 pp_status pp_regions_write_csv(const char *path, const pp_regions *r, const double *totals,
-                               size_t chains, size_t kept, size_t cap, double level,
+                               size_t chains, size_t kept, size_t cap, size_t stride,
+                               double level,
                                const pp_region_pair *pairs, size_t npairs)
 {
     size_t nreg = pp_regions_count(r), s = chains * kept;
@@ -98,7 +99,7 @@ pp_status pp_regions_write_csv(const char *path, const pp_regions *r, const doub
         double np = (double)pp_regions_pixels(r, j);
         for (size_t c = 0; c < chains; c++)
             for (size_t i = 0; i < kept; i++) {
-                x[c * kept + i] = totals[(c * cap + i) * nreg + j];
+                x[c * kept + i] = totals[(c * cap + i) * stride + j];
                 y[c * kept + i] = x[c * kept + i] / np;
             }
         long lab = pp_regions_label(r, j);
@@ -112,7 +113,7 @@ pp_status pp_regions_write_csv(const char *path, const pp_regions *r, const doub
         double na = (double)pp_regions_pixels(r, ja), nb = (double)pp_regions_pixels(r, jb);
         for (size_t c = 0; c < chains; c++)
             for (size_t i = 0; i < kept; i++) {
-                const double *row = totals + (c * cap + i) * nreg;
+                const double *row = totals + (c * cap + i) * stride;
                 double ma = row[ja] / na, mb = row[jb] / nb;
                 x[c * kept + i] = ma - mb;
                 y[c * kept + i] = ma / mb;

@@ -38,6 +38,7 @@
 #include "sampler_internal.h"
 #include "spectral.h"
 #include "stats.h"
+#include "pixpost/profiles.h"
 #include "pixpost/regions.h"
 #include "pixpost/psf.h"
 #if defined(__GLIBC__)
@@ -455,14 +456,19 @@ static pp_status plan_trace(pp_sampler *s)
         if (!s->names[i])
             return pp_fail(PP_ERR_NOMEM, "out of memory");
     }
-    if (s->cfg.regions) {
-        if (!pp_regions_fit(s->cfg.regions, s->depth, s->height, s->width))
-            return pp_fail(PP_ERR_ARG, "the regions were planned for another frame size");
-        s->nreg = pp_regions_count(s->cfg.regions);
-        if (!pp_mul_ok(rows, s->nreg, &n) || !pp_mul_ok(n, sizeof(double), &n))
-            return pp_fail(PP_ERR_LIMIT, "the regions' draws would not fit in memory");
-        if (!(s->reg_values = calloc(rows * s->nreg, sizeof(double))))
-            return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' draws");
+    if (s->cfg.regions && !pp_regions_fit(s->cfg.regions, s->depth, s->height, s->width))
+        return pp_fail(PP_ERR_ARG, "the regions were planned for another frame size");
+    if (s->cfg.profiles && (s->depth > 1 || !pp_profiles_fit(s->cfg.profiles, s->height, s->width)))
+        return pp_fail(PP_ERR_ARG, "the profiles were planned for another frame size (or the "
+                                   "frame is a volume: profiles are for frames)");
+    s->nreg = s->cfg.regions ? pp_regions_count(s->cfg.regions) : 0;
+    s->nfun = s->nreg + (s->cfg.profiles ? pp_profiles_points(s->cfg.profiles) : 0);
+    if (s->nfun) {
+        if (!pp_mul_ok(rows, s->nfun, &n) || !pp_mul_ok(n, sizeof(double), &n))
+            return pp_fail(PP_ERR_LIMIT, "the regions' and profiles' draws would not fit in "
+                                         "memory");
+        if (!(s->reg_values = calloc(rows * s->nfun, sizeof(double))))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' and profiles' draws");
     }
     if (s->cfg.nabove > PP_MAX_ABOVE || (s->cfg.nabove && !s->cfg.above))
         return pp_fail(PP_ERR_ARG, "at most %d thresholds for the above maps", PP_MAX_ABOVE);
@@ -472,7 +478,7 @@ static pp_status plan_trace(pp_sampler *s)
             return pp_fail(PP_ERR_ARG, "an above map's threshold is not finite");
     s->cfg.above = NULL; /* not kept: the thresholds are copied here */
     s->cfg.nabove = 0;
-    s->draw_stats = s->nreg || s->nabove;
+    s->draw_stats = s->nfun || s->nabove;
     s->trace = (pp_trace){s->cfg.chains, kept, ncols, (const char *const *)s->names,
                           s->trace_values};
     s->trace_cap = kept;
@@ -517,7 +523,7 @@ static pp_status plan_chains(pp_sampler *s)
         if (!(c->mean1 = malloc(s->npix * sizeof(float))))
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
         c->trace = s->trace_values + (size_t)k * s->trace_cap * s->trace.ncols;
-        c->regs = s->reg_values ? s->reg_values + (size_t)k * s->trace_cap * s->nreg : NULL;
+        c->regs = s->reg_values ? s->reg_values + (size_t)k * s->trace_cap * s->nfun : NULL;
         if (s->nabove && !(c->above_n = calloc(s->nabove * s->npix, sizeof(double))))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the above maps of chain %u", k + 1);
         c->otf = s->otf;
@@ -916,13 +922,14 @@ static pp_status grow_trace(pp_sampler *s, size_t rows)
     s->trace.values = v;
     for (size_t k = 0; k < nc; k++)
         s->chain[k].trace = v + k * rows * ncols;
-    if (s->nreg) {
-        size_t nr = s->nreg, m;
+    if (s->nfun) {
+        size_t nr = s->nfun, m;
         if (!pp_mul_ok(rows, nc * nr, &m) || !pp_mul_ok(m, sizeof(double), &m))
-            return pp_fail(PP_ERR_LIMIT, "the regions' draws would not fit in memory");
+            return pp_fail(PP_ERR_LIMIT, "the regions' and profiles' draws would not fit in "
+                                         "memory");
         double *g = realloc(s->reg_values, m);
         if (!g)
-            return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' draws");
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' and profiles' draws");
         for (size_t k = nc; k-- > 0;)
             memmove(g + k * rows * nr, g + k * s->trace_cap * nr, s->trace_cap * nr * sizeof(double));
         s->reg_values = g;
@@ -993,6 +1000,7 @@ static pp_status end_run(pp_sampler *s, pp_status res, double t0)
     L->iters = s->chain[0].t > s->keep_from ? s->chain[0].t - s->keep_from : 0;
     release_grid(s);
     s->cfg.regions = NULL; /* read no more: the caller may free them */
+    s->cfg.profiles = NULL;
     for (size_t i = s->nwarn_setup; i < s->nwarnings; i++)
         free(s->warnings[i]);
     s->nwarnings = s->nwarn_setup < s->nwarnings ? s->nwarn_setup : s->nwarnings;
@@ -1181,9 +1189,10 @@ void pp_sampler_observed(const pp_sampler *s, size_t *observed, size_t *missing)
 }
 const pp_trace *pp_sampler_trace(const pp_sampler *s) { return &s->trace; }
 
-const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap)
+const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap, size_t *stride)
 {
     *cap = s->trace_cap;
+    *stride = s->nfun;
     return s->reg_values;
 }
 

@@ -57,7 +57,7 @@ typedef struct pp_chain {
                         * only (sampler_diag.c says why single precision is enough) */
     double condvar_sum; /* sum over kept draws of the conditional variance */
     double *trace;     /* kept x ncols rows inside the sampler's trace */
-    double *regs;      /* regions: kept x nreg totals inside s->reg_values, else NULL */
+    double *regs;      /* kept x nfun rows inside s->reg_values (regions, profiles) */
     double *above_n;   /* nabove x npix: kept draws above each threshold, else NULL */
     pp_complex *xcopy; /* lent by the slot (draw statistics with augment), else NULL */
     double *xdraw;     /* lent by the slot, likewise */
@@ -196,7 +196,9 @@ struct pp_sampler {
     char *names[6 + PP_MAX_PROBES]; /* 3 scalars, psf_width, kappa, level, probes */
     double *trace_values;
     size_t nreg;          /* regions (cfg.regions), else 0 */
-    double *reg_values;   /* chains x trace_cap x nreg kept draws' region totals */
+    size_t nfun;          /* nreg + the profiles' points: values per kept draw */
+    double *reg_values;   /* chains x trace_cap x nfun: each kept draw's region totals,
+                           * then its profile points */
     int records_mean;     /* the kernel records the conditional mean in
                            * pp_chain_add_draw (gibbs, mtc): the draw statistics
                            * come from pp_chain_draw_stats(_hat) instead */

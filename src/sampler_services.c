@@ -10,6 +10,7 @@
 #include <string.h>
 #include "sampler_internal.h"
 #include "stats.h"
+#include "pixpost/profiles.h"
 #include "pixpost/regions.h"
 
 void pp_chain_freeze_mean(pp_chain *c)
@@ -31,7 +32,9 @@ void pp_chain_draw_stats(const pp_sampler *s, pp_chain *c, const double *f, doub
 {
     if (s->nreg)
         pp_regions_sum(s->cfg.regions, f, s->gw, s->gh * s->gw, scale,
-                       c->regs + c->kept * s->nreg);
+                       c->regs + c->kept * s->nfun);
+    if (s->cfg.profiles)
+        pp_profiles_eval(s->cfg.profiles, f, s->gw, scale, c->regs + c->kept * s->nfun + s->nreg);
     const size_t plane = s->height * s->width;
     for (size_t t = 0; t < s->nabove; t++) {
         double *n = c->above_n + t * s->npix, thr = s->above_t[t];

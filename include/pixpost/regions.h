@@ -64,13 +64,14 @@ typedef struct pp_region_pair {
 
 /* Writes regions.csv (path): for every region its total and mean, for every
  * pair the difference and ratio of the means and P(mean_a > mean_b), from
- * the draws' totals: totals[(c * cap + i) * nreg + j] for chain c < chains,
+ * the draws' totals: totals[(c * cap + i) * stride + j] for chain c < chains,
  * kept draw i < kept, region j (pp_sampler_region_draws). Columns and rows
  * are documented in README ("Regions, profiles and probability maps").
  * Written atomically. Errors: PP_ERR_ARG (a pair's label absent, fewer
  * than 2 draws), PP_ERR_IO, PP_ERR_NOMEM. */
 pp_status pp_regions_write_csv(const char *path, const pp_regions *r, const double *totals,
-                               size_t chains, size_t kept, size_t cap, double level,
+                               size_t chains, size_t kept, size_t cap, size_t stride,
+                               double level,
                                const pp_region_pair *pairs, size_t npairs);
 
 #endif

@@ -20,6 +20,7 @@
 #include "pixpost/pixpost.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/ppcheck.h"
+#include "pixpost/profiles.h"
 #include "pixpost/regions.h"
 #include <stddef.h>
 #include <stdint.h>
@@ -199,6 +200,8 @@ typedef struct cli_sample_opts {
     size_t nabove;          /* --above T values given */
     double above[CLI_MAX_REPEAT + 1];
     int rsd;                /* --rsd */
+    size_t nprofiles;       /* --profile values given */
+    double profile_lines[4 * (CLI_MAX_REPEAT + 1)]; /* r0, c0, r1, c1 each */
 } cli_sample_opts;
 
 /* The flag of each sampler setting (flag_names.c), for
@@ -385,6 +388,7 @@ typedef struct cli_frame_run {
     size_t masked;       /* pixels --mask made unobserved */
     pp_saturation sat;   /* the saturated pixels found (rule NONE with --keep-saturated) */
     pp_regions *regions; /* --regions planned for the frame (during cli_run_frame only) */
+    pp_profiles *profiles; /* --profile planned for the frame (likewise) */
 } cli_frame_run;
 
 /* Samples r->frame into r->outdir (DESIGN.md section 6 outputs). Returns 0,
@@ -411,6 +415,13 @@ int cli_regions_parse(const cli_args *a, cli_sample_opts *o);
  * a run (0 or CLI_EXIT_USAGE with r->message set). */
 int cli_maps_parse(const cli_args *a, cli_sample_opts *o);
 int cli_maps_write(const cli_sample_opts *o, cli_frame_run *r);
+/* --profile (profiles_cli.c): parses the lines into o (0 or CLI_EXIT_USAGE,
+ * printed); plans them for the frame into r->profiles (NULL without) and
+ * writes OUTDIR/profile_<k>.csv after the run: 0 or CLI_EXIT_USAGE with
+ * r->message naming --profile. */
+int cli_profiles_parse(const cli_args *a, cli_sample_opts *o);
+int cli_profiles_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame);
+int cli_profiles_write(cli_frame_run *r);
 /* One line on the unobserved pixels of a run (masked and saturated, the
  * share of the frame), into buf; "" when none. */
 void cli_unobserved_line(const cli_frame_run *r, size_t npix, char *buf, size_t len);

@@ -113,12 +113,12 @@ int cli_regions_write(const cli_sample_opts *o, cli_frame_run *r)
 {
     if (!r->regions)
         return 0;
-    size_t cap;
-    const double *t = pp_sampler_region_draws(r->sampler, &cap);
+    size_t cap, stride;
+    const double *t = pp_sampler_region_draws(r->sampler, &cap, &stride);
     const pp_trace *tr = pp_sampler_trace(r->sampler);
     char path[4096];
     snprintf(path, sizeof path, "%s/regions.csv", r->outdir);
-    pp_status st = pp_regions_write_csv(path, r->regions, t, tr->chains, tr->kept, cap,
+    pp_status st = pp_regions_write_csv(path, r->regions, t, tr->chains, tr->kept, cap, stride,
                                         pp_sampler_config_used(r->sampler)->level, o->compare,
                                         o->ncompare);
     if (st != PP_OK)

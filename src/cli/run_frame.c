@@ -332,6 +332,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
                     r->frame, vp);
     }
     cfg.regions = r->regions;
+    cfg.profiles = r->profiles;
     cfg.above = o->above;
     cfg.nabove = o->nabove;
     for (int i = 0; i < 3; i++) /* {z, y, x} micrometres; 0 unknown (NaN here) */
@@ -392,6 +393,8 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     if (st != PP_OK)
         return fail_lib(r, st);
     rc = cli_regions_write(o, r);
+    if (!rc)
+        rc = cli_profiles_write(r);
     return rc ? rc : cli_maps_write(o, r);
 }
 
@@ -409,9 +412,12 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     cli_plans plans;
     cli_noise_auto na;
     r->regions = NULL;
+    r->profiles = NULL;
     int rc = read_frame(o, r, &frame);
     if (!rc)
         rc = cli_regions_load(o, r, frame);
+    if (!rc)
+        rc = cli_profiles_load(o, r, frame);
     if (!rc)
         rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
     if (!rc)
@@ -429,6 +435,8 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     pp_image_free(psf);
     pp_image_free(frame);
     pp_regions_free(r->regions); /* the sampler has run: it reads them no more */
+    pp_profiles_free(r->profiles);
     r->regions = NULL;
+    r->profiles = NULL;
     return rc;
 }

@@ -124,6 +124,11 @@ static const cli_opt sample_table[] = {
     {"compare", 0, 1, "A/B ...",
      "With --regions: the posterior of mean_A - mean_B and mean_A / mean_B and P(mean_A > "
      "mean_B) for labels A and B, as rows of regions.csv (repeatable)."},
+    {"profile", 0, 1, "R0,C0,R1,C1 ...",
+     "Intensity along the line from row R0, column C0 to R1, C1 (from 0; fractions allowed; "
+     "frames only): one point per pixel step, bilinear between pixels, with the posterior "
+     "mean, sd and interval at --level from every kept draw in OUTDIR/profile_<k>.csv (k "
+     "from 1 in the order given; repeatable)."},
     {"above", 0, 1, "T ...",
      "Posterior probability map P(x > T) per pixel, the share of kept draws above T, in "
      "OUTDIR/above_<T>.tif (T written as %g; repeatable, at most 16)."},
@@ -215,7 +220,7 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
         snprintf(buf, len, "off");
     else if (strcmp(name, "mask") == 0 || strcmp(name, "plane") == 0 ||
              strcmp(name, "regions") == 0 || strcmp(name, "compare") == 0 ||
-             strcmp(name, "above") == 0)
+             strcmp(name, "above") == 0 || strcmp(name, "profile") == 0)
         snprintf(buf, len, "none");
     else if (strcmp(name, "pages") == 0)
         snprintf(buf, len, "from the OME metadata; none for a file without it");
@@ -396,6 +401,8 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
     int rc = cli_regions_parse(a, o);
     if (!rc)
         rc = cli_maps_parse(a, o);
+    if (!rc)
+        rc = cli_profiles_parse(a, o);
     if (rc)
         return rc;
     /* MEASURE plans unless turned off; cli_plans_load may still fall back
