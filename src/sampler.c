@@ -458,7 +458,8 @@ static pp_status plan_trace(pp_sampler *s)
     }
     if (s->cfg.regions && !pp_regions_fit(s->cfg.regions, s->depth, s->height, s->width))
         return pp_fail(PP_ERR_ARG, "the regions were planned for another frame size");
-    if (s->cfg.profiles && (s->depth > 1 || !pp_profiles_fit(s->cfg.profiles, s->height, s->width)))
+    if (s->cfg.profiles &&
+        (s->depth > 1 || !pp_profiles_fit(s->cfg.profiles, s->height, s->width)))
         return pp_fail(PP_ERR_ARG, "the profiles were planned for another frame size (or the "
                                    "frame is a volume: profiles are for frames)");
     s->nreg = s->cfg.regions ? pp_regions_count(s->cfg.regions) : 0;
@@ -902,41 +903,42 @@ static pp_status run_segment(pp_sampler *s, unsigned long t_end)
     return res;
 }
 
-/* Room in the trace for `rows` kept draws per chain (chain-major: each
- * chain's block moves up, last chain first). */
-static pp_status grow_trace(pp_sampler *s, size_t rows)
+/* A chain-major store of ncols values per kept draw, with room for cap rows
+ * per chain, made room for `rows` (each chain's block moves up, last chain
+ * first); *store is unchanged on failure. */
+static pp_status grow_store(const pp_sampler *s, double **store, size_t ncols, size_t rows)
 {
-    if (rows <= s->trace_cap)
-        return PP_OK;
-    size_t nc = s->cfg.chains, ncols = s->trace.ncols, n;
+    size_t nc = s->cfg.chains, n;
     if (!pp_mul_ok(rows, nc * ncols, &n) || !pp_mul_ok(n, sizeof(double), &n))
         return pp_fail(PP_ERR_LIMIT, "%s: the trace would not fit in memory",
                        pp_setting_name(s->cfg.setting_names, PP_SET_MAX_ITERS));
-    double *v = realloc(s->trace_values, n);
+    double *v = realloc(*store, n);
     if (!v)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the traces (%zu rows)", rows * nc);
     for (size_t k = nc; k-- > 0;)
         memmove(v + k * rows * ncols, v + k * s->trace_cap * ncols,
                 s->trace_cap * ncols * sizeof(double));
-    s->trace_values = v;
-    s->trace.values = v;
-    for (size_t k = 0; k < nc; k++)
-        s->chain[k].trace = v + k * rows * ncols;
-    if (s->nfun) {
-        size_t nr = s->nfun, m;
-        if (!pp_mul_ok(rows, nc * nr, &m) || !pp_mul_ok(m, sizeof(double), &m))
-            return pp_fail(PP_ERR_LIMIT, "the regions' and profiles' draws would not fit in "
-                                         "memory");
-        double *g = realloc(s->reg_values, m);
-        if (!g)
-            return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' and profiles' draws");
-        for (size_t k = nc; k-- > 0;)
-            memmove(g + k * rows * nr, g + k * s->trace_cap * nr, s->trace_cap * nr * sizeof(double));
-        s->reg_values = g;
-        for (size_t k = 0; k < nc; k++)
-            s->chain[k].regs = g + k * rows * nr;
-    }
+    *store = v;
+    return PP_OK;
+}
+
+/* Room in the trace, and in the regions' and profiles' store, for `rows`
+ * kept draws per chain. */
+static pp_status grow_trace(pp_sampler *s, size_t rows)
+{
+    if (rows <= s->trace_cap)
+        return PP_OK;
+    pp_status st = grow_store(s, &s->trace_values, s->trace.ncols, rows);
+    if (st == PP_OK && s->nfun)
+        st = grow_store(s, &s->reg_values, s->nfun, rows);
+    if (st != PP_OK)
+        return st; /* the run fails: the stores are not read again */
     s->trace_cap = rows;
+    s->trace.values = s->trace_values;
+    for (size_t k = 0; k < s->cfg.chains; k++) {
+        s->chain[k].trace = s->trace_values + k * rows * s->trace.ncols;
+        s->chain[k].regs = s->reg_values ? s->reg_values + k * rows * s->nfun : NULL;
+    }
     return PP_OK;
 }
 
