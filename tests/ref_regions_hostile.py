@@ -50,6 +50,8 @@ cases = [
      ["--regions", "whole numbers", "-1"], "negative labels"),
     (["--regions", save("nan.tif", np.where(lab > 0, np.nan, 0).astype(np.float32))],
      ["--regions", "whole numbers"], "NaN labels"),
+    (["--regions", save("big.tif", np.where(lab > 0, 4000000000, 0).astype(np.uint32))],
+     ["--regions", "4e+09", "2^31 - 1"], "a 32-bit label above 2^31 - 1"),
     (["--regions", save("zero.tif", np.zeros((H, W), np.uint8))],
      ["--regions", "no labelled pixel"], "all-zero labels"),
     (["--regions", P("missing.tif")], ["--regions", "cannot be read"], "missing label file"),
@@ -79,6 +81,15 @@ forms = {"u16.tif": (save("u16.tif", lab), lab), "u8.tif": (save("u8.tif", lab8)
          "u32.tif": (save("u32.tif", lab.astype(np.uint32)), lab),
          "f32.tif": (save("f32.tif", lab.astype(np.float32)), lab),
          "l8.png": (P("l8.png"), lab8), "l16.png": (P("l16.png"), lab)}
+# the largest label accepted: 2^31 - 1 in a 32-bit TIFF
+big = np.where(lab == 9, 2147483647, lab).astype(np.uint32)
+pptest.run(["sample", frame, "-o", P("ok_big"), "--regions", save("bigok.tif", big), "--compare",
+            "2147483647/5", "--seed", "3"] + RUN)
+with open(os.path.join(P("ok_big"), "regions.csv")) as fh:
+    rows = list(csv.DictReader(fh))
+pptest.check([r["label"] for r in rows if r["quantity"] == "total"] == ["5", "300", "2147483647"]
+             and rows[-1]["label"] == "2147483647" and rows[-1]["label_b"] == "5",
+             "label 2^31 - 1 accepted and compared")
 totals = {}
 for name, (path, want) in forms.items():
     out = P("ok_" + name)
