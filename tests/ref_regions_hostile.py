@@ -3,7 +3,9 @@ gives exit 1, one stderr line naming the option and the fix, and writes
 nothing (the labels are checked before the output folder is made). Also:
 label images as 8/16/32-bit TIFF, 8/16-bit PNG (Pillow) and a float TIFF
 of whole numbers are accepted with the same regions, and a volume takes one
-label page per z-slice (tifffile writes the files; Pillow the PNGs)."""
+label page per z-slice (tifffile writes the files; Pillow the PNGs).
+`batch --resume` sees a second --above and labels edited in place as other
+settings."""
 import csv
 import os
 
@@ -132,4 +134,23 @@ p = pptest.run(["sample", P("vol.tif"), "-o", P("out"), "--regions", P("ok.tif")
 pptest.check(p.returncode == 1 and "--regions" in p.stderr and "one page per z-slice" in p.stderr
              and not os.path.exists(P("out")), "volume with one label page: refused (%r)"
              % p.stderr.strip())
+# batch --resume: a second --above, or labels edited in place, are other settings
+os.makedirs(P("bin"))
+tifffile.imwrite(P("bin", "a.tif"), tifffile.imread(frame))
+tifffile.imwrite(P("bin", "b.tif"), tifffile.imread(frame)[::-1].copy())
+BATCH = ["batch", P("bin"), "-o", P("bout"), "--regions", P("ok.tif"), "--above", "100"] + RUN
+pptest.run(BATCH)
+pptest.check(all(os.path.exists(P("bout", f, "regions.csv")) for f in ("a", "b")),
+             "batch with --regions: regions.csv for every frame")
+pr = pptest.run(BATCH + ["--resume"], check=False)
+pptest.check(pr.returncode == 0 and "other settings" not in pr.stderr,
+             "batch --resume with the same options: nothing to redo")
+pr = pptest.run(BATCH + ["--above", "101", "--resume"], check=False)
+pptest.check(pr.returncode == 1 and "other settings" in pr.stderr,
+             "batch --resume with a second --above: other settings (%r)" % pr.stderr.strip())
+os.utime(P("ok.tif"), None)
+pr = pptest.run(BATCH + ["--resume"], check=False)
+pptest.check(pr.returncode == 1 and "other settings" in pr.stderr,
+             "batch --resume after the labels were touched: a changed input (%r)"
+             % pr.stderr.strip())
 pptest.done()
