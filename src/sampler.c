@@ -38,6 +38,8 @@
 #include "sampler_internal.h"
 #include "spectral.h"
 #include "stats.h"
+#include "pixpost/profiles.h"
+#include "pixpost/regions.h"
 #include "pixpost/psf.h"
 #if defined(__GLIBC__)
 #include <malloc.h>
@@ -454,6 +456,30 @@ static pp_status plan_trace(pp_sampler *s)
         if (!s->names[i])
             return pp_fail(PP_ERR_NOMEM, "out of memory");
     }
+    if (s->cfg.regions && !pp_regions_fit(s->cfg.regions, s->depth, s->height, s->width))
+        return pp_fail(PP_ERR_ARG, "the regions were planned for another frame size");
+    if (s->cfg.profiles &&
+        (s->depth > 1 || !pp_profiles_fit(s->cfg.profiles, s->height, s->width)))
+        return pp_fail(PP_ERR_ARG, "the profiles were planned for another frame size (or the "
+                                   "frame is a volume: profiles are for frames)");
+    s->nreg = s->cfg.regions ? pp_regions_count(s->cfg.regions) : 0;
+    s->nfun = s->nreg + (s->cfg.profiles ? pp_profiles_points(s->cfg.profiles) : 0);
+    if (s->nfun) {
+        if (!pp_mul_ok(rows, s->nfun, &n) || !pp_mul_ok(n, sizeof(double), &n))
+            return pp_fail(PP_ERR_LIMIT, "the regions' and profiles' draws would not fit in "
+                                         "memory");
+        if (!(s->reg_values = calloc(rows * s->nfun, sizeof(double))))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the regions' and profiles' draws");
+    }
+    if (s->cfg.nabove > PP_MAX_ABOVE || (s->cfg.nabove && !s->cfg.above))
+        return pp_fail(PP_ERR_ARG, "at most %d thresholds for the above maps", PP_MAX_ABOVE);
+    s->nabove = s->cfg.nabove;
+    for (size_t t = 0; t < s->nabove; t++)
+        if (!isfinite(s->above_t[t] = s->cfg.above[t]))
+            return pp_fail(PP_ERR_ARG, "an above map's threshold is not finite");
+    s->cfg.above = NULL; /* not kept: the thresholds are copied here */
+    s->cfg.nabove = 0;
+    s->draw_stats = s->nfun || s->nabove;
     s->trace = (pp_trace){s->cfg.chains, kept, ncols, (const char *const *)s->names,
                           s->trace_values};
     s->trace_cap = kept;
@@ -483,7 +509,11 @@ static pp_status plan_chains(pp_sampler *s)
         b->rbuf = pp_fft_alloc_real(s->gn);
         b->yhat = pad ? pp_fft_alloc_complex(s->gm) : NULL;
         b->yaug = pad ? pp_fft_alloc_real(s->gn) : NULL;
-        if (!b->cbuf || !b->cbuf2 || !b->rbuf || (pad && (!b->yhat || !b->yaug)))
+        int dpad = pad && s->draw_stats;
+        b->xcopy = dpad ? pp_fft_alloc_complex(s->gm) : NULL;
+        b->xdraw = dpad ? pp_fft_alloc_real(s->gn) : NULL;
+        if (!b->cbuf || !b->cbuf2 || !b->rbuf || (pad && (!b->yhat || !b->yaug)) ||
+            (dpad && (!b->xcopy || !b->xdraw)))
             return pp_fail(PP_ERR_NOMEM, "out of memory for the buffers of thread %u", k + 1);
     }
     for (unsigned k = 0; k < s->cfg.chains; k++) {
@@ -494,6 +524,9 @@ static pp_status plan_chains(pp_sampler *s)
         if (!(c->mean1 = malloc(s->npix * sizeof(float))))
             return pp_fail(PP_ERR_NOMEM, "out of memory for chain %u", k + 1);
         c->trace = s->trace_values + (size_t)k * s->trace_cap * s->trace.ncols;
+        c->regs = s->reg_values ? s->reg_values + (size_t)k * s->trace_cap * s->nfun : NULL;
+        if (s->nabove && !(c->above_n = calloc(s->nabove * s->npix, sizeof(double))))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the above maps of chain %u", k + 1);
         c->otf = s->otf;
         c->otf2 = s->otf2;
         if (s->cfg.psf.width_auto) {
@@ -548,6 +581,7 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
         st = plan_chains(s);
     if (st == PP_OK) {
         s->kernel = kernel_for(s->cfg.kind, s->cfg.prior.kind);
+        s->records_mean = s->kernel == &pp_kernel_gibbs || s->kernel == &pp_kernel_mtc;
         if (s->kernel->prepare)
             st = s->kernel->prepare(s);
     }
@@ -589,6 +623,8 @@ static void bind_chain(pp_sampler *s, pp_chain *c, const pp_slot *b)
     c->yaug = b->yaug;
     c->yhat = b->yhat ? b->yhat : s->yhat;
     c->kwork = b->kwork;
+    c->xcopy = b->xcopy;
+    c->xdraw = b->xdraw;
 }
 
 /* Chain k's first iteration: a dispersed start, the rough scales times a
@@ -615,13 +651,15 @@ static void start_chain(pp_sampler *s, unsigned k)
 }
 
 /* Forgets chain c's kept draws (a fresh start of its kept phase). */
-static void clear_kept(pp_chain *c)
+static void clear_kept(const pp_sampler *s, pp_chain *c)
 {
     c->kept = 0;
     c->condvar_sum = 0;
     c->mom.count = 0;
     memset(c->mom.mean, 0, c->mom.len * sizeof(double));
     memset(c->mom.m2, 0, c->mom.len * sizeof(double));
+    if (c->above_n)
+        memset(c->above_n, 0, s->nabove * s->npix * sizeof(double));
 }
 
 /* The regions of slot b that hold its running chain's state: the kernel's
@@ -714,6 +752,8 @@ static void free_slots(pp_sampler *s)
         pp_fft_free_buffer(b->rbuf);
         pp_fft_free_buffer(b->yhat);
         pp_fft_free_buffer(b->yaug);
+        pp_fft_free_buffer(b->xcopy);
+        pp_fft_free_buffer(b->xdraw);
         if (s->kernel && s->kernel->free_work)
             s->kernel->free_work(b->kwork);
     }
@@ -748,7 +788,31 @@ static void free_moments(pp_sampler *s)
         pp_moments_free(&s->chain[k].mom);
         free(s->chain[k].mean1);
         s->chain[k].mean1 = NULL;
+        free(s->chain[k].above_n);
+        s->chain[k].above_n = NULL;
     }
+}
+
+/* P(x_i > T): the kept draws above each threshold, over all chains. */
+static pp_status pool_above(pp_sampler *s)
+{
+    double kept = 0;
+    for (unsigned k = 0; k < s->cfg.chains; k++)
+        kept += (double)s->chain[k].kept;
+    for (size_t t = 0; t < s->nabove; t++) {
+        pp_status st = pp_image_create3(s->depth, s->height, s->width, &s->above[t]);
+        if (st != PP_OK)
+            return st;
+        double *m = s->above[t]->data;
+        for (unsigned k = 0; k < s->cfg.chains; k++) {
+            const double *n = s->chain[k].above_n + t * s->npix;
+            for (size_t i = 0; i < s->npix; i++)
+                m[i] += n[i];
+        }
+        for (size_t i = 0; i < s->npix; i++)
+            m[i] /= kept;
+    }
+    return PP_OK;
 }
 
 static pp_status pool_estimates(pp_sampler *s)
@@ -826,6 +890,8 @@ static pp_status run_segment(pp_sampler *s, unsigned long t_end)
             c->cbuf = c->cbuf2 = c->yhat = NULL; /* the slot passes to the next chain */
             c->rbuf = c->yaug = NULL;
             c->kwork = NULL;
+            c->xcopy = NULL;
+            c->xdraw = NULL;
         }
     pp_status res = PP_OK;
     for (unsigned k = 0; k < nc && res == PP_OK; k++)
@@ -837,27 +903,42 @@ static pp_status run_segment(pp_sampler *s, unsigned long t_end)
     return res;
 }
 
-/* Room in the trace for `rows` kept draws per chain (chain-major: each
- * chain's block moves up, last chain first). */
-static pp_status grow_trace(pp_sampler *s, size_t rows)
+/* A chain-major store of ncols values per kept draw, with room for cap rows
+ * per chain, made room for `rows` (each chain's block moves up, last chain
+ * first); *store is unchanged on failure. */
+static pp_status grow_store(const pp_sampler *s, double **store, size_t ncols, size_t rows)
 {
-    if (rows <= s->trace_cap)
-        return PP_OK;
-    size_t nc = s->cfg.chains, ncols = s->trace.ncols, n;
+    size_t nc = s->cfg.chains, n;
     if (!pp_mul_ok(rows, nc * ncols, &n) || !pp_mul_ok(n, sizeof(double), &n))
         return pp_fail(PP_ERR_LIMIT, "%s: the trace would not fit in memory",
                        pp_setting_name(s->cfg.setting_names, PP_SET_MAX_ITERS));
-    double *v = realloc(s->trace_values, n);
+    double *v = realloc(*store, n);
     if (!v)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the traces (%zu rows)", rows * nc);
     for (size_t k = nc; k-- > 0;)
         memmove(v + k * rows * ncols, v + k * s->trace_cap * ncols,
                 s->trace_cap * ncols * sizeof(double));
-    s->trace_values = v;
+    *store = v;
+    return PP_OK;
+}
+
+/* Room in the trace, and in the regions' and profiles' store, for `rows`
+ * kept draws per chain. */
+static pp_status grow_trace(pp_sampler *s, size_t rows)
+{
+    if (rows <= s->trace_cap)
+        return PP_OK;
+    pp_status st = grow_store(s, &s->trace_values, s->trace.ncols, rows);
+    if (st == PP_OK && s->nfun)
+        st = grow_store(s, &s->reg_values, s->nfun, rows);
+    if (st != PP_OK)
+        return st; /* the run fails: the stores are not read again */
     s->trace_cap = rows;
-    s->trace.values = v;
-    for (size_t k = 0; k < nc; k++)
-        s->chain[k].trace = v + k * rows * ncols;
+    s->trace.values = s->trace_values;
+    for (size_t k = 0; k < s->cfg.chains; k++) {
+        s->chain[k].trace = s->trace_values + k * rows * s->trace.ncols;
+        s->chain[k].regs = s->reg_values ? s->reg_values + k * rows * s->nfun : NULL;
+    }
     return PP_OK;
 }
 
@@ -892,7 +973,7 @@ static void extend_burn(pp_sampler *s, unsigned long first)
 {
     s->keep_from = s->chain[0].t;
     for (unsigned k = 0; k < s->cfg.chains; k++)
-        clear_kept(&s->chain[k]);
+        clear_kept(s, &s->chain[k]);
     s->trace.kept = 0;
     s->freeze_at = first / s->cfg.thin / 2;
     s->half_n = s->freeze_at;
@@ -920,11 +1001,15 @@ static pp_status end_run(pp_sampler *s, pp_status res, double t0)
     L->kept = s->trace.kept;
     L->iters = s->chain[0].t > s->keep_from ? s->chain[0].t - s->keep_from : 0;
     release_grid(s);
+    s->cfg.regions = NULL; /* read no more: the caller may free them */
+    s->cfg.profiles = NULL;
     for (size_t i = s->nwarn_setup; i < s->nwarnings; i++)
         free(s->warnings[i]);
     s->nwarnings = s->nwarn_setup < s->nwarnings ? s->nwarn_setup : s->nwarnings;
     if (res == PP_OK)
         res = pool_estimates(s);
+    if (res == PP_OK)
+        res = pool_above(s);
     if (res == PP_OK && s->kernel->finish)
         res = s->kernel->finish(s);
     size_t keep = s->nwarnings; /* finish's warnings stay */
@@ -1105,6 +1190,18 @@ void pp_sampler_observed(const pp_sampler *s, size_t *observed, size_t *missing)
     *missing = s->nmissing;
 }
 const pp_trace *pp_sampler_trace(const pp_sampler *s) { return &s->trace; }
+
+const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap, size_t *stride)
+{
+    *cap = s->trace_cap;
+    *stride = s->nfun;
+    return s->reg_values;
+}
+
+const pp_image *pp_sampler_above_map(const pp_sampler *s, size_t t)
+{
+    return t < s->nabove ? s->above[t] : NULL;
+}
 const char *pp_sampler_bound_method(const pp_sampler *s) { return s->bound_method; }
 double pp_sampler_seconds(const pp_sampler *s) { return s->seconds; }
 pp_fft_plans pp_sampler_fft_plans(const pp_sampler *s) { return pp_fft_plans_source(s->fft); }
@@ -1140,6 +1237,9 @@ void pp_sampler_free(pp_sampler *s)
     free(s->tw_row);
     free(s->tw_col);
     free(s->trace_values);
+    free(s->reg_values);
+    for (size_t t = 0; t < s->nabove; t++)
+        pp_image_free(s->above[t]);
     for (size_t i = 0; i < 5 + PP_MAX_PROBES; i++)
         free(s->names[i]);
     for (size_t i = 0; i < s->nwarnings; i++)

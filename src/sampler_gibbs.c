@@ -408,11 +408,13 @@ static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss
  * row (whose probe columns are already filled when probes_done: by the pass,
  * or in pad mode from x-hat). */
 void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const fused_sums *f, double loglik,
-                     int probes_done)
+                     int probes_done, int regions_hat)
 {
     /* c2r of mu/N gives mu on the grid; keep the frame block. */
     pp_fft_inverse(s->fft, c->cbuf, c->rbuf);
     pp_chain_add_draw(s, c, c->rbuf);
+    if (regions_hat && s->draw_stats) /* cbuf is free after its c2r */
+        pp_chain_draw_stats_hat(s, c, c->cbuf2, c->cbuf, c->rbuf);
     c->condvar_sum += f->cvar;
     double *row = c->trace + c->kept * s->trace.ncols;
     row[PP_COL_LAMBDA] = c->lambda;
@@ -461,6 +463,10 @@ static void pad_step(const pp_sampler *s, pp_chain *c, int keep, int have_xhat, 
     if (keep) {
         double *row = c->trace + c->kept * s->trace.ncols;
         probes_fast(s, c->cbuf2, row + s->col_probe0);
+        if (s->draw_stats) { /* the draw, kept until the interweaving step has moved it */
+            memcpy(c->xcopy, c->cbuf2, s->gm * sizeof *c->xcopy);
+            pp_fft_inverse(s->fft, c->xcopy, c->xdraw);
+        }
     }
     /* A x-hat goes to the c2r's input after the probes (the c2r destroys it). */
     if (have_xhat)
@@ -515,7 +521,8 @@ static double asis_delta(const pp_sampler *s, pp_chain *c, fused_sums *f)
  * rescaled (its grid mean for an intrinsic prior, the prior mean M
  * otherwise; A c = c as the PSF sums to 1). Needs A x on the grid (rbuf,
  * times N, from pad_step); updates the padding in yaug, *ss_obs and *ss,
- * and a kept draw's probe values (linear in x). One grid pass. */
+ * and a kept draw's probe values (linear in x) and its copy in xdraw. One
+ * grid pass. */
 static void asis_delta_pad(const pp_sampler *s, pp_chain *c, int keep, double xsum,
                            double *ss_obs, double *ss)
 {
@@ -548,6 +555,9 @@ static void asis_delta_pad(const pp_sampler *s, pp_chain *c, int keep, double xs
         double *row = c->trace + c->kept * s->trace.ncols + s->col_probe0;
         for (size_t p = 0; p < s->nprobe; p++)
             row[p] = cst + (row[p] - cst) * ratio;
+        if (s->draw_stats) /* the draw kept by pad_step (times N) moves too */
+            for (size_t i = 0; i < s->gn; i++)
+                c->xdraw[i] = cst * (double)s->gn + (c->xdraw[i] - cst * (double)s->gn) * ratio;
     }
 }
 
@@ -584,7 +594,7 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
         int keep = t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0;
         /* a kept periodic draw without width sampling needs x-hat only for
          * its probes: the pass sums them and x-hat is never stored */
-        int direct = keep && !pad && !width;
+        int direct = keep && !pad && !width && !s->draw_stats;
         int want_xhat = (keep && !direct) || width;
         int mode = pad ? !(want_xhat || ps) : want_xhat ? 0 : -1;
         double *probe = direct ? c->trace + c->kept * s->trace.ncols + s->col_probe0 : NULL;
@@ -619,10 +629,12 @@ static pp_status gibbs_run_chain(pp_sampler *s, pp_chain *c)
                            t + 1, c->lambda, c->delta);
         if (pad)
             pp_fft_forward(s->fft, c->yaug, c->yhat);
+        if (keep && pad && s->draw_stats)
+            pp_chain_draw_stats(s, c, c->xdraw, 1.0 / (double)s->gn);
         if (keep) {
             double n = pad ? nobs : (double)s->gn;
             double ll = 0.5 * n * log(c->lambda / (2 * PP_PI)) - 0.5 * c->lambda * ss_obs;
-            pp_gibbs_record(s, c, &f, ll, pad || direct);
+            pp_gibbs_record(s, c, &f, ll, pad || direct, !pad);
         }
         if (pp_sampler_tick(s))
             return pp_fail(PP_ERR_INTERRUPTED, "sampling stopped at the caller's request");

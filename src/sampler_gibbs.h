@@ -24,8 +24,10 @@ pp_fused_sums pp_gibbs_fused_pass(const pp_sampler *s, pp_chain *c, int want_ax,
                                   double *probes);
 /* Stores a kept draw: one c2r of mu (moments), the conditional variance,
  * the trace row (lambda, delta, loglik, width; probes from cbuf2 = x-hat
- * unless probes_done). Increments c->kept. */
+ * unless probes_done), with regions_hat and draw statistics those of x-hat
+ * in cbuf2 (pp_chain_draw_stats_hat: one more c2r, through cbuf).
+ * Increments c->kept. */
 void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const pp_fused_sums *f, double loglik,
-                     int probes_done);
+                     int probes_done, int regions_hat);
 
 #endif

@@ -32,6 +32,8 @@ typedef struct pp_slot {
     pp_complex *cbuf, *cbuf2, *yhat; /* yhat: augment only */
     double *rbuf, *yaug;             /* yaug: augment only */
     void *kwork;                     /* the kernel's working state (kernel->prepare) */
+    pp_complex *xcopy;               /* draw statistics with augment: x-hat for its c2r */
+    double *xdraw;                   /* ... and the draw on the grid, times N */
     long resident;                   /* the chain whose state the slot holds (rounds) */
 } pp_slot;
 
@@ -55,6 +57,10 @@ typedef struct pp_chain {
                         * only (sampler_diag.c says why single precision is enough) */
     double condvar_sum; /* sum over kept draws of the conditional variance */
     double *trace;     /* kept x ncols rows inside the sampler's trace */
+    double *regs;      /* kept x nfun rows inside s->reg_values (regions, profiles) */
+    double *above_n;   /* nabove x npix: kept draws above each threshold, else NULL */
+    pp_complex *xcopy; /* lent by the slot (draw statistics with augment), else NULL */
+    double *xdraw;     /* lent by the slot, likewise */
     size_t kept;
     void *kstate;      /* the kernel's own per-chain state (kernel->prepare) */
     void *kwork;       /* its working state, lent by the slot while the chain runs */
@@ -189,6 +195,17 @@ struct pp_sampler {
     pp_image *rhat_map, *mcse_map;   /* per-pixel split-R-hat and MCSE, or NULL */
     char *names[6 + PP_MAX_PROBES]; /* 3 scalars, psf_width, kappa, level, probes */
     double *trace_values;
+    size_t nreg;          /* regions (cfg.regions), else 0 */
+    size_t nfun;          /* nreg + the profiles' points: values per kept draw */
+    double *reg_values;   /* chains x trace_cap x nfun: each kept draw's region totals,
+                           * then its profile points */
+    int records_mean;     /* the kernel records the conditional mean in
+                           * pp_chain_add_draw (gibbs, mtc): the draw statistics
+                           * come from pp_chain_draw_stats(_hat) instead */
+    int draw_stats;       /* regions or above maps: statistics of each kept draw */
+    size_t nabove;
+    double above_t[PP_MAX_ABOVE];
+    pp_image *above[PP_MAX_ABOVE]; /* the pooled maps, after the run */
     pp_image *mean, *sd, *lo, *hi;
     char bound_method[256];
     char likelihood[256]; /* pcn/gpcn/hmc: the likelihood used, for summary.json ("" else) */
@@ -225,6 +242,16 @@ static inline size_t pp_probe_index(const struct pp_sampler *s, size_t p)
  * reaches s->freeze_at (a fixed run: floor(kept / 2); a run in rounds also
  * copies it at each round's end). Call once per kept draw. */
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid);
+/* The statistics of a kept draw x = scale * f (f on the grid): its region
+ * totals into chain c's row c->kept, its pixels above each threshold into
+ * c->above_n. pp_chain_add_draw calls it for the kernels whose field is
+ * the draw; gibbs and mtc call it (or the _hat form) themselves. */
+void pp_chain_draw_stats(const pp_sampler *s, pp_chain *c, const double *f, double scale);
+/* The same from the draw's half spectrum x-hat (not normalised: its c2r is
+ * N x): copies x-hat to tmp (gm entries, may be c->cbuf when free) and
+ * transforms it into out (gn reals, e.g. c->rbuf). */
+void pp_chain_draw_stats_hat(const pp_sampler *s, pp_chain *c, const pp_complex *xhat,
+                             pp_complex *tmp, double *out);
 /* c->mean1 = c->mom.mean (in single precision): the maps' first half ends
  * here. */
 void pp_chain_freeze_mean(pp_chain *c);

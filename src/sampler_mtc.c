@@ -499,9 +499,10 @@ static double width_logp(const pp_sampler *s, const pp_chain *c, const pp_comple
 static void conditional_draw(const pp_sampler *s, pp_chain *c)
 {
     double *probe = c->trace + c->kept * s->trace.ncols + s->col_probe0;
-    pp_fused_sums f = pp_gibbs_fused_pass(s, c, -1, 1, probe);
+    /* with draw statistics (regions, above maps) x-hat is kept in cbuf2 */
+    pp_fused_sums f = pp_gibbs_fused_pass(s, c, s->draw_stats ? 0 : -1, 1, probe);
     double ll = 0.5 * (double)s->gn * log(c->lambda / (2 * PP_PI)) - 0.5 * c->lambda * f.resid;
-    pp_gibbs_record(s, c, &f, ll, 1);
+    pp_gibbs_record(s, c, &f, ll, 1, 1);
 }
 
 /* Which (lambda, delta) move the chain makes. */

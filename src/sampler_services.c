@@ -10,6 +10,8 @@
 #include <string.h>
 #include "sampler_internal.h"
 #include "stats.h"
+#include "pixpost/profiles.h"
+#include "pixpost/regions.h"
 
 void pp_chain_freeze_mean(pp_chain *c)
 {
@@ -20,8 +22,38 @@ void pp_chain_freeze_mean(pp_chain *c)
 void pp_chain_add_draw(const pp_sampler *s, pp_chain *c, const double *grid)
 {
     pp_moments_add_box(&c->mom, grid, s->depth, s->height, s->width, s->gw, s->gh * s->gw);
+    if (s->draw_stats && !s->records_mean)
+        pp_chain_draw_stats(s, c, grid, 1.0);
     if (c->mom.count == s->freeze_at)
         pp_chain_freeze_mean(c);
+}
+
+void pp_chain_draw_stats(const pp_sampler *s, pp_chain *c, const double *f, double scale)
+{
+    if (s->nreg)
+        pp_regions_sum(s->cfg.regions, f, s->gw, s->gh * s->gw, scale,
+                       c->regs + c->kept * s->nfun);
+    if (s->cfg.profiles)
+        pp_profiles_eval(s->cfg.profiles, f, s->gw, scale, c->regs + c->kept * s->nfun + s->nreg);
+    const size_t plane = s->height * s->width;
+    for (size_t t = 0; t < s->nabove; t++) {
+        double *n = c->above_n + t * s->npix, thr = s->above_t[t];
+        for (size_t z = 0; z < s->depth; z++)
+            for (size_t r = 0; r < s->height; r++) {
+                const double *fr = f + (z * s->gh + r) * s->gw;
+                double *nr = n + z * plane + r * s->width;
+                for (size_t x = 0; x < s->width; x++)
+                    nr[x] += scale * fr[x] > thr;
+            }
+    }
+}
+
+void pp_chain_draw_stats_hat(const pp_sampler *s, pp_chain *c, const pp_complex *xhat,
+                             pp_complex *tmp, double *out)
+{
+    memcpy(tmp, xhat, s->gm * sizeof *tmp);
+    pp_fft_inverse(s->fft, tmp, out);
+    pp_chain_draw_stats(s, c, out, 1.0 / (double)s->gn);
 }
 
 /* Appends a formatted sentence to a list of at most max (dropped when full

@@ -165,7 +165,23 @@ typedef struct pp_sampler_config {
      * known, taken as cubic voxels {1, 1, 1}; negative or not finite:
      * refused. Frames ignore it. See "Volumes" above. */
     double voxel[3];
+    /* Regions (include/pixpost/regions.h), planned for the frame's size, or
+     * NULL (default): the total of every kept draw over each region is
+     * recorded (pp_sampler_region_draws). Not owned; read until
+     * pp_sampler_run returns (pp_sampler_config_used then shows NULL). */
+    const struct pp_regions *regions;
+    /* Profiles (include/pixpost/profiles.h) planned for the frame (2-D
+     * only), or NULL: each kept draw's values at their points are recorded
+     * after the region totals. Not owned; read as the regions are. */
+    const struct pp_profiles *profiles;
+    /* Thresholds T (nabove of them, at most PP_MAX_ABOVE; not owned, read by
+     * pp_sampler_create, which copies them; pp_sampler_config_used shows
+     * none): the posterior probability map P(x_i > T), the share of kept
+     * draws above T at each pixel (pp_sampler_above_map). */
+    const double *above;
+    size_t nabove;
 } pp_sampler_config;
+#define PP_MAX_ABOVE 16
 
 void pp_sampler_defaults(pp_sampler_config *cfg);
 
@@ -255,6 +271,16 @@ typedef struct pp_trace {
 } pp_trace;
 
 const pp_trace *pp_sampler_trace(const pp_sampler *s);
+/* With cfg.regions or cfg.profiles, after pp_sampler_run: each kept draw's
+ * totals over the regions, then its values at the profiles' points:
+ * v[(c * cap + i) * stride + j] for chain c, kept draw i < kept (the
+ * trace's kept), j < stride = regions + profile points (regions first);
+ * NULL without either. Points into the sampler. */
+const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap, size_t *stride);
+/* With cfg.above, after pp_sampler_run: the map P(x_i > above[t]) (the
+ * frame's shape), pooled over every chain's kept draws; NULL else. Points
+ * into the sampler. */
+const pp_image *pp_sampler_above_map(const pp_sampler *s, size_t t);
 /* The trace columns every sampler has, first in every row. PP_COL_PROBE0
  * is the column after them: the optional psf_width, kappa and level
  * columns start there when present, then the probe pixels. */

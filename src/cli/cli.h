@@ -20,6 +20,8 @@
 #include "pixpost/pixpost.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/ppcheck.h"
+#include "pixpost/profiles.h"
+#include "pixpost/regions.h"
 #include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -192,6 +194,14 @@ typedef struct cli_sample_opts {
     const char *psf_texts[CLI_MAX_PSF];
     char psf_bufs[CLI_MAX_PSF][512]; /* the texts of a wavelength list, one per channel */
     pp_psf_spec psfs[CLI_MAX_PSF];
+    const char *regions;    /* --regions FILE (a label image) or NULL */
+    size_t ncompare;        /* --compare A/B values given */
+    pp_region_pair compare[CLI_MAX_REPEAT + 1];
+    size_t nabove;          /* --above T values given */
+    double above[CLI_MAX_REPEAT + 1];
+    int rsd;                /* --rsd */
+    size_t nprofiles;       /* --profile values given */
+    double profile_lines[4 * (CLI_MAX_REPEAT + 1)]; /* r0, c0, r1, c1 each */
 } cli_sample_opts;
 
 /* The flag of each sampler setting (flag_names.c), for
@@ -377,6 +387,8 @@ typedef struct cli_frame_run {
     char message[1024];  /* the failure, one sentence naming the file */
     size_t masked;       /* pixels --mask made unobserved */
     pp_saturation sat;   /* the saturated pixels found (rule NONE with --keep-saturated) */
+    pp_regions *regions; /* --regions planned for the frame (during cli_run_frame only) */
+    pp_profiles *profiles; /* --profile planned for the frame (likewise) */
 } cli_frame_run;
 
 /* Samples r->frame into r->outdir (DESIGN.md section 6 outputs). Returns 0,
@@ -389,6 +401,27 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r);
  * r->sat. Returns 0, or CLI_EXIT_USAGE with r->message naming --mask's file
  * (unreadable, colour, not the frame's size). */
 int cli_mark_unobserved(const cli_sample_opts *o, cli_frame_run *r, pp_image *frame);
+/* --regions (regions_cli.c): reads o->regions' label image for the frame
+ * into r->regions (NULL without --regions) and checks --compare's labels;
+ * 0, or CLI_EXIT_USAGE with r->message naming the option and the fix. */
+int cli_regions_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame);
+/* Writes OUTDIR/regions.csv from the sampler's region draws (nothing
+ * without --regions); 0 or CLI_EXIT_USAGE with r->message set. */
+int cli_regions_write(const cli_sample_opts *o, cli_frame_run *r);
+/* Parses --regions and --compare into o; 0 or CLI_EXIT_USAGE (printed). */
+int cli_regions_parse(const cli_args *a, cli_sample_opts *o);
+/* --above T and --rsd (maps_cli.c): parses them into o (0 or
+ * CLI_EXIT_USAGE, printed); writes OUTDIR/above_<T>.tif and rsd.tif after
+ * a run (0 or CLI_EXIT_USAGE with r->message set). */
+int cli_maps_parse(const cli_args *a, cli_sample_opts *o);
+int cli_maps_write(const cli_sample_opts *o, cli_frame_run *r);
+/* --profile (profiles_cli.c): parses the lines into o (0 or CLI_EXIT_USAGE,
+ * printed); plans them for the frame into r->profiles (NULL without) and
+ * writes OUTDIR/profile_<k>.csv after the run: 0 or CLI_EXIT_USAGE with
+ * r->message naming --profile. */
+int cli_profiles_parse(const cli_args *a, cli_sample_opts *o);
+int cli_profiles_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame);
+int cli_profiles_write(cli_frame_run *r);
 /* One line on the unobserved pixels of a run (masked and saturated, the
  * share of the frame), into buf; "" when none. */
 void cli_unobserved_line(const cli_frame_run *r, size_t npix, char *buf, size_t len);

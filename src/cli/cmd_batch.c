@@ -156,6 +156,21 @@ static void settings_text(const cli_args *a, const cli_sample_opts *o, char *buf
     }
     for (size_t k = 1; k < o->npsf && used < len; k++) /* one PSF per channel */
         used += (size_t)snprintf(buf + used, len - used, "psf%zu %s\n", k, o->psf_texts[k]);
+    static const char *const more[] = {"compare", "above", "profile"}; /* repeatable */
+    for (size_t m = 0; m < sizeof more / sizeof *more; m++) {
+        const char *v[CLI_MAX_REPEAT + 1];
+        size_t n = cli_strs(a, more[m], v, CLI_MAX_REPEAT + 1);
+        for (size_t k = 1; k < n && used < len; k++) /* the first is among the options above */
+            used += (size_t)snprintf(buf + used, len - used, "--%s=%s\n", more[m], v[k]);
+    }
+    if (o->regions && used < len) { /* labels edited in place change every frame's regions */
+        struct stat sb;
+        memset(&sb, 0, sizeof sb);
+        stat(o->regions, &sb);
+        used += (size_t)snprintf(buf + used, len - used, "regions %llu %lld.%09ld\n",
+                                 (unsigned long long)sb.st_size, (long long)sb.st_mtim.tv_sec,
+                                 (long)sb.st_mtim.tv_nsec);
+    }
     if (o->mask && used < len) { /* a mask edited in place changes every frame's result */
         struct stat sb;
         memset(&sb, 0, sizeof sb);

@@ -331,6 +331,10 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
                     "default adaptive prior is for frames); give --prior to choose another\n",
                     r->frame, vp);
     }
+    cfg.regions = r->regions;
+    cfg.profiles = r->profiles;
+    cfg.above = o->above;
+    cfg.nabove = o->nabove;
     for (int i = 0; i < 3; i++) /* {z, y, x} micrometres; 0 unknown (NaN here) */
         cfg.voxel[i] = r->voxel_um && r->voxel_um[i] > 0 ? r->voxel_um[i] : 0.0;
     pp_status st = pp_sampler_create(&cfg, frame, psf, &r->sampler);
@@ -388,7 +392,10 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     pp_result_free(&res);
     if (st != PP_OK)
         return fail_lib(r, st);
-    return 0;
+    rc = cli_regions_write(o, r);
+    if (!rc)
+        rc = cli_profiles_write(r);
+    return rc ? rc : cli_maps_write(o, r);
 }
 
 int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
@@ -404,7 +411,13 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     progress_state ps;
     cli_plans plans;
     cli_noise_auto na;
+    r->regions = NULL;
+    r->profiles = NULL;
     int rc = read_frame(o, r, &frame);
+    if (!rc)
+        rc = cli_regions_load(o, r, frame);
+    if (!rc)
+        rc = cli_profiles_load(o, r, frame);
     if (!rc)
         rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
     if (!rc)
@@ -421,5 +434,9 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
         rc = sample_and_write(o, r, frame, psf, &ps, &plans, &na);
     pp_image_free(psf);
     pp_image_free(frame);
+    pp_regions_free(r->regions); /* the sampler has run: it reads them no more */
+    pp_profiles_free(r->profiles);
+    r->regions = NULL;
+    r->profiles = NULL;
     return rc;
 }

@@ -116,6 +116,25 @@ static const cli_opt sample_table[] = {
      "that is; for a volume one page (the same pixels in every z-slice) or one page per "
      "z-slice. Ignored pixels are unobserved: left out of the likelihood, still estimated "
      "(from their neighbours, with wider bounds)."},
+    {"regions", 0, 1, "FILE",
+     "Integer label image of the frame's size (PNG or 8/16/32-bit TIFF; a volume: one page "
+     "per z-slice), 0 = no region: for every label the posterior of its total and mean "
+     "intensity from every kept draw (mean, sd, interval at --level, R-hat, ESS, MCSE) in "
+     "OUTDIR/regions.csv (README, \"Regions, profiles and probability maps\")."},
+    {"compare", 0, 1, "A/B ...",
+     "With --regions: the posterior of mean_A - mean_B and mean_A / mean_B and P(mean_A > "
+     "mean_B) for labels A and B, as rows of regions.csv (repeatable)."},
+    {"profile", 0, 1, "R0,C0,R1,C1 ...",
+     "Intensity along the line from row R0, column C0 to R1, C1 (from 0; fractions allowed; "
+     "frames only): one point per pixel step, bilinear between pixels, with the posterior "
+     "mean, sd and interval at --level from every kept draw in OUTDIR/profile_<k>.csv (k "
+     "from 1 in the order given; repeatable)."},
+    {"above", 0, 1, "T ...",
+     "Posterior probability map P(x > T) per pixel, the share of kept draws above T, in "
+     "OUTDIR/above_<T>.tif (T written as %g; repeatable, at most 16)."},
+    {"rsd", 0, 0, "",
+     "Also write OUTDIR/rsd.tif, the relative uncertainty sd / mean where the mean is "
+     "positive (NaN elsewhere)."},
     {"keep-saturated", 0, 0, "",
      "Use saturated pixels as data. Without it, pixels at the format's maximum (255 for "
      "8-bit, 65535 for 16-bit integer input) or on a flat top of the histogram (README, "
@@ -196,9 +215,12 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
     else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0 ||
              strcmp(name, "overwrite") == 0)
         snprintf(buf, len, "off");
-    else if (strcmp(name, "no-plan-cache") == 0 || strcmp(name, "keep-saturated") == 0)
+    else if (strcmp(name, "no-plan-cache") == 0 || strcmp(name, "keep-saturated") == 0 ||
+             strcmp(name, "rsd") == 0)
         snprintf(buf, len, "off");
-    else if (strcmp(name, "mask") == 0 || strcmp(name, "plane") == 0)
+    else if (strcmp(name, "mask") == 0 || strcmp(name, "plane") == 0 ||
+             strcmp(name, "regions") == 0 || strcmp(name, "compare") == 0 ||
+             strcmp(name, "above") == 0 || strcmp(name, "profile") == 0)
         snprintf(buf, len, "none");
     else if (strcmp(name, "pages") == 0)
         snprintf(buf, len, "from the OME metadata; none for a file without it");
@@ -376,6 +398,13 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
         return cli_opt_error("wisdom", "empty file name (expected --wisdom FILE)");
     if (o->mask && !o->mask[0])
         return cli_opt_error("mask", "empty file name (expected --mask FILE)");
+    int rc = cli_regions_parse(a, o);
+    if (!rc)
+        rc = cli_maps_parse(a, o);
+    if (!rc)
+        rc = cli_profiles_parse(a, o);
+    if (rc)
+        return rc;
     /* MEASURE plans unless turned off; cli_plans_load may still fall back
      * to ESTIMATE for one run when the cache cannot be read */
     o->cfg.fft_effort = o->wisdom || !o->no_plan_cache ? PP_FFT_MEASURE : PP_FFT_ESTIMATE;
