@@ -113,6 +113,11 @@ m = subprocess.run(["man", "-l", man], capture_output=True, text=True, env=env)
 text = re.sub(r".\x08", "", m.stdout)
 pptest.check(m.returncode == 0 and "NAME" in text and "EXIT STATUS" in text,
              "man -l: exit 0, NAME and EXIT STATUS sections")
+version = v.stdout.split()[1] if v.stdout.split()[1:] else "?"
+with open(man) as f:
+    th = next((line for line in f if line.startswith(".TH ")), "")
+pptest.check('"pixpost %s"' % version in th,
+             "man page's .TH names the version --version prints (%s): %s" % (version, th.strip()))
 
 
 def section(text, name):
