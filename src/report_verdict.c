@@ -1,6 +1,7 @@
 /* pixpost — what a reader of report.html sees first: the verdict banner
  * (converged or not, the count of warnings split by part, the sentence of
- * pp_convergence_verdict and the --iters to ask for) and the warnings
+ * pp_convergence_verdict and the --iters to ask for; a run that converged
+ * with no warning gets one quiet green line instead) and the warnings
  * section, grouped by part (hyperparameters, pixel estimates, other), then
  * the notes. src/report.c places them: the banner under the header, the
  * warnings right after it when there are any, else near the end.
@@ -37,6 +38,15 @@ void pp_report_verdict_banner(FILE *f, const pp_report_input *in)
     const pp_convergence *cv = in->convergence;
     if (!cv)
         return;
+    if (cv->converged && cv->warnings == 0) { /* nothing to do: one quiet line */
+        fputs("<p id=\"verdict\" class=\"verdict-quiet\" data-converged=\"true\" "
+              "data-warnings=\"0\"><span id=\"verdict-word\">Converged</span>, <span "
+              "id=\"verdict-count\">no warnings</span>: ",
+              f);
+        pp_report_escape(f, in->verdict);
+        fputs("</p>\n", f);
+        return;
+    }
     size_t other = cv->warnings - cv->hyper_warnings - cv->pixel_warnings;
     fprintf(f,
             "<div id=\"verdict\" class=\"verdict %s\" data-converged=\"%s\" "

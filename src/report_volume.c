@@ -125,12 +125,13 @@ typedef struct quantity {
     const char *key, *title, *explain, *units;
     const pp_image *img;
     int colour;
+    double level; /* the credible level (the width's plain sentence) */
 } quantity;
 
 static pp_status figure(FILE *f, const quantity *q, const volplan *p)
 {
     double lo, hi;
-    pp_status st = pp_report_range(q->img, &lo, &hi);
+    pp_status st = pp_display_range(q->img, &lo, &hi);
     if (st != PP_OK)
         return st;
     size_t aw, ah;
@@ -158,14 +159,16 @@ static pp_status figure(FILE *f, const quantity *q, const volplan *p)
         snprintf(id, sizeof id, "%s-colourbar", q->key);
         pp_report_svg_colourbar(f, id, lo, hi, q->units);
     }
-    fprintf(f, "<figcaption><b>%s</b>%s%s %s, linear from %.4g (%s) to %.4g (%s) ", q->title,
+    fputs("<figcaption>", f);
+    pp_report_plain(f, q->key, q->level, 1);
+    fprintf(f, "<b>%s</b>%s%s %s, linear from %.4g (%s) to %.4g (%s) ", q->title,
             q->explain ? ": " : ".", q->explain ? q->explain : "", q->colour ? "Colour" : "Grey",
             lo, q->colour ? "darkest" : "black", hi, q->colour ? "brightest" : "white");
     pp_report_escape(f, q->units);
     fprintf(f,
             " (the %.1fth and %.1fth percentiles of this volume; values beyond are clipped)."
             "</figcaption></figure>\n",
-            PP_REPORT_ROBUST_LO, PP_REPORT_ROBUST_HI);
+            PP_DISPLAY_LO, PP_DISPLAY_HI);
     return PP_OK;
 }
 
@@ -336,16 +339,16 @@ pp_status pp_report_volume_section(FILE *f, const pp_report_input *in, const cha
              "hi &minus; lo, the width of the central %.4g%% credible interval of each voxel.",
              100.0 * in->level);
     const quantity qs[5] = {
-        {"frame", "Input volume", NULL, frame_units, in->frame, 0},
-        {"mean", "Posterior mean", NULL, units, in->mean, 0},
+        {"frame", "Input volume", NULL, frame_units, in->frame, 0, in->level},
+        {"mean", "Posterior mean", NULL, units, in->mean, 0, in->level},
         {"sd", "Posterior standard deviation",
          in->sd_caption ? in->sd_caption : "the spread of the posterior of each voxel.", units,
-         in->sd, 1},
-        {"width", "Credible-interval width", wexplain, units, width, 1},
+         in->sd, 1, in->level},
+        {"width", "Credible-interval width", wexplain, units, width, 1, in->level},
         {"residual", "Standardised residual",
          "(y &minus; E[y | mean]) / &radic;Var[y | mean], the predictive check's residual "
          "(section &ldquo;Checks&rdquo;); blank where left out.",
-         "sd", in->residual, 1},
+         "sd", in->residual, 1, in->level},
     };
     intro(f, &p);
     for (int i = 0; i < 5 && st == PP_OK; i++)

@@ -94,6 +94,11 @@ int main(void)
           "atlas PNG 55 x 60 (11 x 10 tiles of 5 x 6), got %u x %u", aw, ah);
     CHECK(page && count(page, "<script>") == 1 && strstr(page, "voxel size not known"),
           "a volume's page: one script; the voxel size is said to be unknown");
+    /* issue #19: the map's plain sentence; no frame overlay */
+    CHECK(page && strstr(page, "<span class=\"plain\" id=\"mean-plain\">") &&
+              strstr(page, "The reconstruction: the average of the sampled sharp images") &&
+              !strstr(page, "class=\"marks\""),
+          "a volume's mean has its plain sentence and no frame marks");
     free(page);
     pp_image_free(m);
 
