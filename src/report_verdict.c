@@ -8,6 +8,7 @@
  * Cost: a few lines of HTML per warning. */
 #include "pixpost/report.h"
 #include "report_internal.h"
+#include <string.h>
 
 static const char *plural(size_t n)
 {
@@ -43,7 +44,8 @@ void pp_report_verdict_banner(FILE *f, const pp_report_input *in)
               "data-warnings=\"0\"><span id=\"verdict-word\">Converged</span>, <span "
               "id=\"verdict-count\">no warnings</span>: ",
               f);
-        pp_report_escape(f, in->verdict);
+        const char *v = in->verdict ? in->verdict : ""; /* without its own "converged: " */
+        pp_report_escape(f, strncmp(v, "converged: ", 11) == 0 ? v + 11 : v);
         fputs("</p>\n", f);
         return;
     }
