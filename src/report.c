@@ -73,7 +73,7 @@ static const char CSS[] =
     "figcaption{font-size:13px;color:#333;margin-top:4px}\n"
     ".plain{display:block;font-size:14px;color:#1d1d1d;margin-bottom:2px}\n"
     ".pic{position:relative;border:1px solid #999}.pic img{border:0}\n"
-    ".pic svg.marks{position:absolute;left:0;top:0;width:100%;"
+    "svg.marks{position:absolute;left:0;top:0;width:100%;"
     "height:100%;max-width:none;pointer-events:none;overflow:visible}\n"
     "svg.marks text{fill:#7ff3ff;stroke:#000;paint-order:stroke;font-weight:bold}\n"
     "svg.marks circle{fill:none;stroke:#19e3ff;stroke-width:2px;"
@@ -166,7 +166,7 @@ static pp_status figure_image(page *pg, const char *key, const pp_image *img, co
     fputs("\">", pg->f);
     char id[64];
     snprintf(id, sizeof id, "%s-marks", key);
-    pp_report_marks(pg->f, id, img->width, img->height, pg->in->trace, pixel_um(pg->in));
+    pp_report_marks(pg->f, id, img->width, img->height, pg->in->trace, pixel_um(pg->in), 0.0);
     fputs("</div>\n", pg->f);
     return PP_OK;
 }

@@ -37,12 +37,14 @@ void pp_report_plain(FILE *f, const char *key, double level, int volume);
 
 /* ---- Marks on a frame's images (src/report_marks.c) -------------------- */
 /* An SVG laid over a w x h image (inside the figure's <div class="pic">,
- * after the <img>): a circle and the name at each probe pixel (trace
- * columns named "p_<row>_<column>"; NULL trace: none) and, when
- * pixel_um > 0, a scale bar of a round length (1, 2 or 5 x 10^k um, about
- * a fifth of the width). Nothing when there is neither. id: the SVG's id. */
+ * after the <img>, or a volume's XY view): a circle and the name at each
+ * probe pixel (trace columns named "p_<row>_<column>"; NULL trace: none)
+ * and, when pixel_um > 0, a scale bar of a round length (1, 2 or 5 x 10^k
+ * um, about a fifth of the width). Nothing when there is neither. id: the
+ * SVG's id; css_width: the CSS pixels the image is drawn across, which
+ * keeps text and circles one size on screen (0: a frame's image column). */
 void pp_report_marks(FILE *f, const char *id, size_t w, size_t h, const struct pp_trace *trace,
-                     double pixel_um);
+                     double pixel_um, double css_width);
 /* The scale bar's length in um for an image w pixels of pixel_um wide: the
  * largest 1, 2 or 5 x 10^k not above w * pixel_um / 5. */
 double pp_report_bar_um(size_t w, double pixel_um);

@@ -10,6 +10,10 @@
 #include <math.h>
 #include <stdio.h>
 
+/* CSS pixels a frame's image is about shown across (a column of the
+ * images' two-column grid on a page up to 1220 px wide). */
+#define FRAME_CSS 600.0
+
 double pp_report_bar_um(size_t w, double pixel_um)
 {
     double target = (double)w * pixel_um / 5.0;
@@ -71,7 +75,7 @@ static void bar(FILE *f, const char *id, size_t w, size_t h, double pixel_um, do
 }
 
 void pp_report_marks(FILE *f, const char *id, size_t w, size_t h, const pp_trace *trace,
-                     double pixel_um)
+                     double pixel_um, double css_width)
 {
     int any = 0;
     unsigned r, c;
@@ -82,7 +86,9 @@ void pp_report_marks(FILE *f, const char *id, size_t w, size_t h, const pp_trace
     int scale = pixel_um > 0 && isfinite(pixel_um);
     if (!any && !scale)
         return;
-    double u = (double)w / 100.0; /* one hundredth of the shown width */
+    /* u: one hundredth of the width of an image shown FRAME_CSS wide, so
+     * the marks keep their size on screen whatever the image's */
+    double u = (double)w / 100.0 * (css_width > 0 ? FRAME_CSS / css_width : 1.0);
     fprintf(f,
             "<svg class=\"marks\" id=\"%s\" viewBox=\"0 0 %zu %zu\" preserveAspectRatio=\"none\" "
             "style=\"font-size:%.2fpx;stroke-width:%.2fpx\" aria-hidden=\"true\">\n",

@@ -110,15 +110,20 @@ static unsigned char *atlas(const pp_image *img, const volplan *p, double lo, do
 }
 
 /* One view: a canvas of w x h shown pixels drawn cw x ch CSS pixels; its
- * horizontal and vertical axes (for the cursor lines and clicks). */
+ * horizontal and vertical axes (for the cursor lines and clicks); a scale
+ * bar over it when pixel_um (of a shown pixel along its width) is > 0. */
 static void view(FILE *f, const char *key, const char *name, char ah, char av, size_t w, size_t h,
-                 double cw, double ch)
+                 double cw, double ch, double pixel_um)
 {
     fprintf(f,
             "<div class=\"view\" data-h=\"%c\" data-v=\"%c\"><canvas id=\"%s-%s\" width=\"%zu\" "
             "height=\"%zu\" style=\"width:%.1fpx;height:%.1fpx\"></canvas><i class=\"ch\"></i>"
-            "<i class=\"cv\"></i></div>\n",
+            "<i class=\"cv\"></i>",
             ah, av, key, name, w, h, cw, ch);
+    char id[64];
+    snprintf(id, sizeof id, "%s-%s-marks", key, name);
+    pp_report_marks(f, id, w, h, NULL, pixel_um, cw);
+    fputs("</div>\n", f);
 }
 
 typedef struct quantity {
@@ -150,9 +155,11 @@ static pp_status figure(FILE *f, const quantity *q, const volplan *p)
         return st;
     fprintf(f, "\">\n<div class=\"ortho\" style=\"grid-template-columns:%.1fpx %.1fpx\">\n",
             p->css[2], p->css[0]);
-    view(f, q->key, "xy", 'x', 'y', p->s[2], p->s[1], p->css[2], p->css[1]);
-    view(f, q->key, "yz", 'z', 'y', p->s[0], p->s[1], p->css[0], p->css[1]);
-    view(f, q->key, "xz", 'x', 'z', p->s[2], p->s[0], p->css[2], p->css[0]);
+    /* the scale bar on the XY view only: its pixels are square */
+    view(f, q->key, "xy", 'x', 'y', p->s[2], p->s[1], p->css[2], p->css[1],
+         p->vox[1] > 0 && p->vox[1] == p->vox[2] ? p->vox[2] * (double)p->k[2] : 0.0);
+    view(f, q->key, "yz", 'z', 'y', p->s[0], p->s[1], p->css[0], p->css[1], 0.0);
+    view(f, q->key, "xz", 'x', 'z', p->s[2], p->s[0], p->css[2], p->css[0], 0.0);
     fputs("</div>\n", f);
     if (q->colour) {
         char id[64];

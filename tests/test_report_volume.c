@@ -98,7 +98,7 @@ int main(void)
     CHECK(page && strstr(page, "<span class=\"plain\" id=\"mean-plain\">") &&
               strstr(page, "The reconstruction: the average of the sampled sharp images") &&
               !strstr(page, "class=\"marks\""),
-          "a volume's mean has its plain sentence and no frame marks");
+          "a volume's mean has its plain sentence and, voxel size unknown, no scale bar");
     free(page);
     pp_image_free(m);
 
@@ -111,6 +111,13 @@ int main(void)
     page = pp_test_slurp(path);
     CHECK(page && strstr(page, "drawn stretched") && strstr(page, "data-k=\"1,1,1\""),
           "2 slices of 64 x 64: the z views are drawn stretched, no blocks");
+    /* 1 um voxels, 64 wide: a fifth is 12.8 um, the bar 10 um = 10 pixels,
+     * on the XY view only */
+    CHECK(page && strstr(page, "<svg class=\"marks\" id=\"mean-xy-marks\" viewBox=\"0 0 64 64\"") &&
+              strstr(page, "<g class=\"scalebar\" id=\"mean-xy-marks-bar\" data-um=\"10\" "
+                           "data-pixels=\"10\">") &&
+              !strstr(page, "id=\"mean-xz-marks\"") && !strstr(page, "id=\"mean-yz-marks\""),
+          "a 10 um scale bar over the XY view only");
     free(page);
 
     /* images of different depths: refused, no file */
