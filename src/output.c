@@ -6,6 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include "display.h"
 #include "internal.h"
 #include "output_internal.h"
 #include "stats.h"
@@ -345,6 +346,25 @@ typedef struct png_scales {
     double mean_offset, mean_scale, sd_offset, sd_scale;
 } png_scales;
 
+/* The 16-bit PNG's offset and scale for img: its display range
+ * (src/display.h, the report's grey scale) onto 0..65535, clipped beyond;
+ * offset 0, scale 1 when no pixel is finite. */
+static pp_status png_scale(const pp_image *img, double *offset, double *scale)
+{
+    double lo, hi;
+    pp_status st = pp_display_range(img, &lo, &hi);
+    if (st == PP_ERR_NUMERIC) {
+        lo = 0.0;
+        hi = 65535.0;
+        st = PP_OK;
+    }
+    /* divided first so that hi - lo cannot overflow for extreme values */
+    double s = hi / 65535.0 - lo / 65535.0;
+    *offset = lo;
+    *scale = s > 0.0 && isfinite(s) ? s : 1.0;
+    return st;
+}
+
 /* "missing_data": the frame's observed and unobserved (NaN) pixels, and
  * the caller's reasons for the latter (pixpost/saturation.h, --mask). */
 static void json_missing(FILE *f, const pp_result *r, const pp_run_info *info)
@@ -461,10 +481,12 @@ static pp_status write_summary(const char *path, const pp_result *r, const pp_ru
     pp_json_write_number(f, r->seconds);
     fputs(", \"seconds_per_iteration\": ", f);
     pp_json_write_number(f, r->seconds / (double)iters * (double)c->chains);
-    fprintf(f, "},\n  \"png_scale\": {\"formula\": \"value = offset + stored * scale\", "
+    fprintf(f, "},\n  \"png_scale\": {\"formula\": \"value = offset + stored * scale; the "
+               "%gth to %gth percentiles span 0..65535, values beyond are clipped (the "
+               "report's grey scale)\", "
                "\"mean\": {\"offset\": %.10g, \"scale\": %.10g}, "
                "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}",
-            ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
+            PP_DISPLAY_LO, PP_DISPLAY_HI, ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
     if (volume)
         fputs(", \"images\": \"mean_mip.png, sd_mip.png: maximum-intensity projections over "
               "z (the largest finite value of each (y, x) column of the volume)\"",
@@ -683,11 +705,15 @@ pp_status pp_output_write(const char *dir, const pp_result *r, const pp_image *f
     }
     const pp_image *shown[2] = {volume ? mip[0] : r->mean, volume ? mip[1] : r->sd};
     png_scales ps;
-    pp_png_auto_scale(shown[0], &ps.mean_offset, &ps.mean_scale);
-    double lo, hi;
-    pp_image_range(shown[1], &lo, &hi);
-    ps.sd_offset = 0;
-    ps.sd_scale = hi > 0 ? hi / 65535.0 : 1.0;
+    if (st == PP_OK)
+        st = png_scale(shown[0], &ps.mean_offset, &ps.mean_scale);
+    if (st == PP_OK)
+        st = png_scale(shown[1], &ps.sd_offset, &ps.sd_scale);
+    if (st != PP_OK) {
+        pp_image_free(mip[0]);
+        pp_image_free(mip[1]);
+        return st;
+    }
     char staged[OUT_COUNT][PP_PATH_MAX], path[PP_PATH_MAX], part[80];
     int made[OUT_COUNT] = {0};
     for (int k = 0; k < OUT_COUNT && st == PP_OK; k++) {

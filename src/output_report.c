@@ -92,7 +92,10 @@ pp_status pp_output_report(const char *path, const pp_result *r, const pp_image 
     in.sd = r->sd;
     in.lo = r->lo;
     in.hi = r->hi;
-    in.voxel = volume ? vx : NULL;
+    /* a frame's pixel for the scale bar: the run's (--voxel, the file's
+     * metadata), else the PSF's pixel= (airy, widefield); 0: no bar */
+    double px[3] = {0, 0, vx[2] > 0 ? vx[2] : c->psf.pixel > 0 ? c->psf.pixel : 0.0};
+    in.voxel = volume ? vx : px;
     in.trace = &r->trace;
     in.lambda_fixed = c->noise.kind != PP_NOISE_GAUSSIAN || c->noise.sigma_set;
     in.delta_fixed = c->prior.delta_set;

@@ -20,8 +20,6 @@
 #define PIXPOST_VERSION "unknown"
 #endif
 
-#define ROBUST_LO PP_REPORT_ROBUST_LO /* percentiles of the image mappings */
-#define ROBUST_HI PP_REPORT_ROBUST_HI
 #define RHAT_MAX 1.01 /* Vehtari et al. 2021, section 4 (from memory) */
 #define ESS_PER_CHAIN 100.0
 
@@ -73,6 +71,16 @@ static const char CSS[] =
     "figure{margin:0}figure img{width:100%;height:auto;image-rendering:pixelated;"
     "border:1px solid #999;display:block}\n"
     "figcaption{font-size:13px;color:#333;margin-top:4px}\n"
+    ".plain{display:block;font-size:14px;color:#1d1d1d;margin-bottom:2px}\n"
+    ".pic{position:relative;border:1px solid #999}.pic img{border:0}\n"
+    "svg.marks{position:absolute;left:0;top:0;width:100%;"
+    "height:100%;max-width:none;pointer-events:none;overflow:visible}\n"
+    "svg.marks text{fill:#7ff3ff;stroke:#000;paint-order:stroke;font-weight:bold}\n"
+    "svg.marks circle{fill:none;stroke:#19e3ff;stroke-width:2px;"
+    "vector-effect:non-scaling-stroke}\n"
+    "svg.marks .scalebar "
+    "rect{fill:#fff;stroke:#000;stroke-width:1px;vector-effect:non-scaling-stroke}"
+    "svg.marks .scalebar text{fill:#fff}\n"
     ".pair{display:flex;flex-wrap:wrap;gap:10px;margin:6px 0 14px}\n"
     "svg{max-width:100%;height:auto}svg text{font-family:sans-serif;fill:#222}\n"
     "svg .tick{font-size:10px}svg .label{font-size:11px}svg .ptitle{font-size:12px;"
@@ -91,6 +99,8 @@ static const char CSS[] =
     ".verdict{margin:14px 0 4px;padding:10px 16px;border-radius:6px;border:2px solid}\n"
     ".verdict.ok{background:#e6f2e8;border-color:#3c7a4a}"
     ".verdict.bad{background:#fbeadf;border-color:#b0492a}\n"
+    ".verdict-quiet{margin:10px 0 4px;color:#245c31}.verdict-quiet #verdict-word"
+    "{font-weight:bold;margin-right:0}\n"
     ".verdict-head{margin:0 0 4px;font-size:1.15em}#verdict-word{font-weight:bold;"
     "margin-right:8px}.verdict.ok #verdict-word{color:#245c31}"
     ".verdict.bad #verdict-word{color:#8c2f14}\n"
@@ -125,39 +135,55 @@ static void caption_end(page *pg, const pp_image *img, const char *units, const 
     FILE *f = pg->f;
     pp_report_escape(f, units);
     fprintf(f, " (the %.1fth and %.1fth percentiles of this %s; values beyond are clipped).",
-            ROBUST_LO, ROBUST_HI, what);
+            PP_DISPLAY_LO, PP_DISPLAY_HI, what);
     block_note(f, img);
     fputs("</figcaption></figure>\n", f);
 }
 
+/* The size of a frame's pixel in um for the scale bar, 0 when not known. */
+static double pixel_um(const pp_report_input *in)
+{
+    return in->voxel && in->voxel[2] > 0 ? in->voxel[2] : 0.0;
+}
+
 /* Opens a figure with img's picture (grey, or the colour ramp) mapped over
- * its robust range *lo..*hi, which the data-<end> attributes record; the
- * caller closes the img tag. */
-static pp_status figure_image(page *pg, const char *id, const pp_image *img, const char *what,
+ * its display range *lo..*hi (src/display.h), which the data-<end>
+ * attributes record, and the probe pixels and scale bar over it. */
+static pp_status figure_image(page *pg, const char *key, const pp_image *img, const char *what,
                               int colour, double *lo, double *hi)
 {
-    pp_status st = pp_report_range(img, lo, hi);
+    pp_status st = pp_display_range(img, lo, hi);
     if (st != PP_OK)
         return st;
     fprintf(pg->f,
-            "<figure><img id=\"%s\" alt=\"%s\" width=\"%zu\" height=\"%zu\" "
-            "data-%s=\"%.17g\" data-%s=\"%.17g\" src=\"",
-            id, what, img->width, img->height, colour ? "low" : "black", *lo,
+            "<figure><div class=\"pic\"><img id=\"%s-image\" alt=\"%s\" width=\"%zu\" "
+            "height=\"%zu\" data-%s=\"%.17g\" data-%s=\"%.17g\" src=\"",
+            key, what, img->width, img->height, colour ? "low" : "black", *lo,
             colour ? "high" : "white", *hi);
-    return pp_report_png_uri(pg->f, img, *lo, *hi, colour);
+    st = pp_report_png_uri(pg->f, img, *lo, *hi, colour);
+    if (st != PP_OK)
+        return st;
+    fputs("\">", pg->f);
+    char id[64];
+    snprintf(id, sizeof id, "%s-marks", key);
+    pp_report_marks(pg->f, id, img->width, img->height, pg->in->trace, pixel_um(pg->in), 0.0);
+    fputs("</div>\n", pg->f);
+    return PP_OK;
 }
 
 /* One grey figure: frame or mean. */
-static pp_status grey_figure(page *pg, const char *id, const pp_image *img, const char *what,
+static pp_status grey_figure(page *pg, const char *key, const pp_image *img, const char *what,
                              const char *units)
 {
     FILE *f = pg->f;
     double lo, hi;
-    pp_status st = figure_image(pg, id, img, what, 0, &lo, &hi);
+    pp_status st = figure_image(pg, key, img, what, 0, &lo, &hi);
     if (st != PP_OK)
         return st;
+    fputs("<figcaption>", f);
+    pp_report_plain(f, key, pg->in->level, 0);
     fprintf(f,
-            "\"><figcaption><b>%s</b> (%zu&times;%zu pixels). Grey, linear: black = %.4g, "
+            "<b>%s</b> (%zu&times;%zu pixels). Grey, linear: black = %.4g, "
             "white = %.4g ",
             what, img->width, img->height, lo, hi);
     caption_end(pg, img, units, "image, so each grey image has its own scale");
@@ -170,16 +196,16 @@ static pp_status colour_figure(page *pg, const char *key, const pp_image *img, c
 {
     FILE *f = pg->f;
     double lo, hi;
-    char id[64];
-    snprintf(id, sizeof id, "%s-image", key);
-    pp_status st = figure_image(pg, id, img, what, 1, &lo, &hi);
+    pp_status st = figure_image(pg, key, img, what, 1, &lo, &hi);
     if (st != PP_OK)
         return st;
-    fputs("\">\n", f);
+    char id[64];
     snprintf(id, sizeof id, "%s-colourbar", key);
     pp_report_svg_colourbar(f, id, lo, hi, units);
+    fputs("<figcaption>", f);
+    pp_report_plain(f, key, pg->in->level, 0);
     fprintf(f,
-            "<figcaption><b>%s</b>: %s Colour, linear from %.4g (darkest) to %.4g "
+            "<b>%s</b>: %s Colour, linear from %.4g (darkest) to %.4g "
             "(brightest) ",
             what, explain, lo, hi);
     caption_end(pg, img, units, "map");
@@ -224,9 +250,9 @@ static pp_status images_section(page *pg)
     fputs("<section id=\"images\"><h2>Images</h2>\n<div class=\"images\">\n", pg->f);
     pp_status st = PP_OK;
     if (in->frame)
-        st = grey_figure(pg, "frame-image", in->frame, "Input frame", pg->frame_units);
+        st = grey_figure(pg, "frame", in->frame, "Input frame", pg->frame_units);
     if (st == PP_OK && in->mean)
-        st = grey_figure(pg, "mean-image", in->mean, "Posterior mean", pg->units);
+        st = grey_figure(pg, "mean", in->mean, "Posterior mean", pg->units);
     if (st == PP_OK && in->sd)
         st = colour_figure(pg, "sd", in->sd, "Posterior standard deviation",
                            in->sd_caption ? in->sd_caption

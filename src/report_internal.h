@@ -6,6 +6,7 @@
 #ifndef PIXPOST_REPORT_INTERNAL_H
 #define PIXPOST_REPORT_INTERNAL_H
 
+#include "display.h"
 #include "pixpost/image.h"
 #include "pixpost/status.h"
 #include <stddef.h>
@@ -21,11 +22,32 @@ void pp_report_escape_str(char *buf, size_t len, const char *s);
 
 /* ---- Verdict and warnings (src/report_verdict.c) ------------------------ */
 struct pp_report_input;
+struct pp_trace;
 /* The verdict banner (nothing when in->convergence is NULL). */
 void pp_report_verdict_banner(FILE *f, const struct pp_report_input *in);
 /* The warnings section (grouped by in->warning_parts when given), then
  * the notes. */
 void pp_report_warnings_section(FILE *f, const struct pp_report_input *in);
+
+/* ---- Plain words (src/report_plain.c) ----------------------------------- */
+/* Writes <span class="plain" id="<key>-plain">one sentence</span> saying in
+ * plain words what the map key shows ("frame", "mean", "sd", "width" (at
+ * credible level), "residual"; volume: says voxel for pixel). */
+void pp_report_plain(FILE *f, const char *key, double level, int volume);
+
+/* ---- Marks on a frame's images (src/report_marks.c) -------------------- */
+/* An SVG laid over a w x h image (inside the figure's <div class="pic">,
+ * after the <img>, or a volume's XY view): a circle and the name at each
+ * probe pixel (trace columns named "p_<row>_<column>"; NULL trace: none)
+ * and, when pixel_um > 0, a scale bar of a round length (1, 2 or 5 x 10^k
+ * um, about a fifth of the width). Nothing when there is neither. id: the
+ * SVG's id; css_width: the CSS pixels the image is drawn across, which
+ * keeps text and circles one size on screen (0: a frame's image column). */
+void pp_report_marks(FILE *f, const char *id, size_t w, size_t h, const struct pp_trace *trace,
+                     double pixel_um, double css_width);
+/* The scale bar's length in um for an image w pixels of pixel_um wide: the
+ * largest 1, 2 or 5 x 10^k not above w * pixel_um / 5. */
+double pp_report_bar_um(size_t w, double pixel_um);
 
 /* ---- Checks of the data and the fit (src/report_checks.c) -------------- */
 /* The section "checks": the predictive check's figures, the checks'
@@ -95,19 +117,6 @@ int pp_report_acf(const double *y, size_t n, size_t stride, size_t maxlag, doubl
 void pp_report_ramp(double t, unsigned char rgb[3]);
 /* Control point k: position in [0, 1] and colour. */
 void pp_report_ramp_stop(int k, double *pos, unsigned char rgb[3]);
-
-/* Percentiles plo, phi (in [0, 100], linear interpolation between order
- * statistics as numpy's default) of the finite pixels (of every slice of a
- * volume). Fails with PP_ERR_NOMEM, or PP_ERR_NUMERIC when no pixel is
- * finite. */
-pp_status pp_report_percentiles(const pp_image *img, double plo, double phi, double *lo,
-                                double *hi);
-
-/* The mapping range of an image on the page: the PP_REPORT_ROBUST_LO and
- * _HI percentiles, widened around the value when they are equal. */
-#define PP_REPORT_ROBUST_LO 0.5
-#define PP_REPORT_ROBUST_HI 99.5
-pp_status pp_report_range(const pp_image *img, double *lo, double *hi);
 
 /* The grey level of t = (v - lo) / (hi - lo): round(255 t) clipped to
  * 0..255; 0 when t is not finite (NaN pixels show black). */

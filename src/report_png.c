@@ -1,10 +1,11 @@
 /* pixpost — the report's images: 8-bit PNGs encoded in memory with libpng
  * (png_set_write_fn into a growing buffer) and written as base64 data URIs,
- * robust percentiles for the grey mapping, and pixpost's own colour ramp.
+ * mapped over the robust range of src/display.h, and pixpost's own colour
+ * ramp.
  *
- * Cost per image: one copy and sort of the finite pixels (percentiles), one
- * pass to map and encode; memory: the encoded PNG plus one row. Images with
- * a side longer than PP_REPORT_MAX_SIDE are shown as block means. libpng
+ * Cost per image: one pass to map and encode; memory: the encoded PNG plus
+ * one row. Images with a side longer than PP_REPORT_MAX_SIDE are shown as
+ * block means. libpng
  * reports errors by longjmp: the encoder keeps its allocations in volatile
  * locals and frees them on that path. */
 #include "internal.h"
@@ -48,52 +49,6 @@ void pp_report_ramp(double t, unsigned char rgb[3])
         double v = ramp[k].rgb[c] + u * (ramp[k + 1].rgb[c] - ramp[k].rgb[c]);
         rgb[c] = (unsigned char)lround(v);
     }
-}
-
-static int cmp_double(const void *a, const void *b)
-{
-    double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
-}
-
-/* numpy's default ("linear", type 7) percentile of sorted v. */
-static double percentile_sorted(const double *v, size_t n, double p)
-{
-    double h = (double)(n - 1) * (p / 100.0);
-    size_t lo = (size_t)floor(h);
-    size_t hi = lo + 1 < n ? lo + 1 : lo;
-    return v[lo] + (h - (double)lo) * (v[hi] - v[lo]);
-}
-
-pp_status pp_report_percentiles(const pp_image *img, double plo, double phi, double *lo, double *hi)
-{
-    size_t n = pp_image_count(img), m = 0;
-    double *v = malloc((n ? n : 1) * sizeof *v);
-    if (!v)
-        return pp_fail(PP_ERR_NOMEM, "report: out of memory for percentiles");
-    for (size_t i = 0; i < n; i++)
-        if (isfinite(img->data[i]))
-            v[m++] = img->data[i];
-    if (m == 0) {
-        free(v);
-        return pp_fail(PP_ERR_NUMERIC, "report: an image has no finite pixel");
-    }
-    qsort(v, m, sizeof *v, cmp_double);
-    *lo = percentile_sorted(v, m, plo);
-    *hi = percentile_sorted(v, m, phi);
-    free(v);
-    return PP_OK;
-}
-
-pp_status pp_report_range(const pp_image *img, double *lo, double *hi)
-{
-    pp_status st = pp_report_percentiles(img, PP_REPORT_ROBUST_LO, PP_REPORT_ROBUST_HI, lo, hi);
-    if (st == PP_OK && !(*hi > *lo)) {
-        double d = *lo != 0 ? fabs(*lo) * 1e-3 : 1.0;
-        *lo -= d;
-        *hi += d;
-    }
-    return st;
 }
 
 unsigned char pp_report_grey(double t)

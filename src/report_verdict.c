@@ -1,12 +1,14 @@
 /* pixpost — what a reader of report.html sees first: the verdict banner
  * (converged or not, the count of warnings split by part, the sentence of
- * pp_convergence_verdict and the --iters to ask for) and the warnings
+ * pp_convergence_verdict and the --iters to ask for; a run that converged
+ * with no warning gets one quiet green line instead) and the warnings
  * section, grouped by part (hyperparameters, pixel estimates, other), then
  * the notes. src/report.c places them: the banner under the header, the
  * warnings right after it when there are any, else near the end.
  * Cost: a few lines of HTML per warning. */
 #include "pixpost/report.h"
 #include "report_internal.h"
+#include <string.h>
 
 static const char *plural(size_t n)
 {
@@ -37,6 +39,16 @@ void pp_report_verdict_banner(FILE *f, const pp_report_input *in)
     const pp_convergence *cv = in->convergence;
     if (!cv)
         return;
+    if (cv->converged && cv->warnings == 0) { /* nothing to do: one quiet line */
+        fputs("<p id=\"verdict\" class=\"verdict-quiet\" data-converged=\"true\" "
+              "data-warnings=\"0\"><span id=\"verdict-word\">Converged</span>, <span "
+              "id=\"verdict-count\">no warnings</span>: ",
+              f);
+        const char *v = in->verdict ? in->verdict : ""; /* without its own "converged: " */
+        pp_report_escape(f, strncmp(v, "converged: ", 11) == 0 ? v + 11 : v);
+        fputs("</p>\n", f);
+        return;
+    }
     size_t other = cv->warnings - cv->hyper_warnings - cv->pixel_warnings;
     fprintf(f,
             "<div id=\"verdict\" class=\"verdict %s\" data-converged=\"%s\" "

@@ -110,27 +110,33 @@ static unsigned char *atlas(const pp_image *img, const volplan *p, double lo, do
 }
 
 /* One view: a canvas of w x h shown pixels drawn cw x ch CSS pixels; its
- * horizontal and vertical axes (for the cursor lines and clicks). */
+ * horizontal and vertical axes (for the cursor lines and clicks); a scale
+ * bar over it when pixel_um (of a shown pixel along its width) is > 0. */
 static void view(FILE *f, const char *key, const char *name, char ah, char av, size_t w, size_t h,
-                 double cw, double ch)
+                 double cw, double ch, double pixel_um)
 {
     fprintf(f,
             "<div class=\"view\" data-h=\"%c\" data-v=\"%c\"><canvas id=\"%s-%s\" width=\"%zu\" "
             "height=\"%zu\" style=\"width:%.1fpx;height:%.1fpx\"></canvas><i class=\"ch\"></i>"
-            "<i class=\"cv\"></i></div>\n",
+            "<i class=\"cv\"></i>",
             ah, av, key, name, w, h, cw, ch);
+    char id[64];
+    snprintf(id, sizeof id, "%s-%s-marks", key, name);
+    pp_report_marks(f, id, w, h, NULL, pixel_um, cw);
+    fputs("</div>\n", f);
 }
 
 typedef struct quantity {
     const char *key, *title, *explain, *units;
     const pp_image *img;
     int colour;
+    double level; /* the credible level (the width's plain sentence) */
 } quantity;
 
 static pp_status figure(FILE *f, const quantity *q, const volplan *p)
 {
     double lo, hi;
-    pp_status st = pp_report_range(q->img, &lo, &hi);
+    pp_status st = pp_display_range(q->img, &lo, &hi);
     if (st != PP_OK)
         return st;
     size_t aw, ah;
@@ -149,23 +155,27 @@ static pp_status figure(FILE *f, const quantity *q, const volplan *p)
         return st;
     fprintf(f, "\">\n<div class=\"ortho\" style=\"grid-template-columns:%.1fpx %.1fpx\">\n",
             p->css[2], p->css[0]);
-    view(f, q->key, "xy", 'x', 'y', p->s[2], p->s[1], p->css[2], p->css[1]);
-    view(f, q->key, "yz", 'z', 'y', p->s[0], p->s[1], p->css[0], p->css[1]);
-    view(f, q->key, "xz", 'x', 'z', p->s[2], p->s[0], p->css[2], p->css[0]);
+    /* the scale bar on the XY view only: its pixels are square */
+    view(f, q->key, "xy", 'x', 'y', p->s[2], p->s[1], p->css[2], p->css[1],
+         p->vox[1] > 0 && p->vox[1] == p->vox[2] ? p->vox[2] * (double)p->k[2] : 0.0);
+    view(f, q->key, "yz", 'z', 'y', p->s[0], p->s[1], p->css[0], p->css[1], 0.0);
+    view(f, q->key, "xz", 'x', 'z', p->s[2], p->s[0], p->css[2], p->css[0], 0.0);
     fputs("</div>\n", f);
     if (q->colour) {
         char id[64];
         snprintf(id, sizeof id, "%s-colourbar", q->key);
         pp_report_svg_colourbar(f, id, lo, hi, q->units);
     }
-    fprintf(f, "<figcaption><b>%s</b>%s%s %s, linear from %.4g (%s) to %.4g (%s) ", q->title,
+    fputs("<figcaption>", f);
+    pp_report_plain(f, q->key, q->level, 1);
+    fprintf(f, "<b>%s</b>%s%s %s, linear from %.4g (%s) to %.4g (%s) ", q->title,
             q->explain ? ": " : ".", q->explain ? q->explain : "", q->colour ? "Colour" : "Grey",
             lo, q->colour ? "darkest" : "black", hi, q->colour ? "brightest" : "white");
     pp_report_escape(f, q->units);
     fprintf(f,
             " (the %.1fth and %.1fth percentiles of this volume; values beyond are clipped)."
             "</figcaption></figure>\n",
-            PP_REPORT_ROBUST_LO, PP_REPORT_ROBUST_HI);
+            PP_DISPLAY_LO, PP_DISPLAY_HI);
     return PP_OK;
 }
 
@@ -336,16 +346,16 @@ pp_status pp_report_volume_section(FILE *f, const pp_report_input *in, const cha
              "hi &minus; lo, the width of the central %.4g%% credible interval of each voxel.",
              100.0 * in->level);
     const quantity qs[5] = {
-        {"frame", "Input volume", NULL, frame_units, in->frame, 0},
-        {"mean", "Posterior mean", NULL, units, in->mean, 0},
+        {"frame", "Input volume", NULL, frame_units, in->frame, 0, in->level},
+        {"mean", "Posterior mean", NULL, units, in->mean, 0, in->level},
         {"sd", "Posterior standard deviation",
          in->sd_caption ? in->sd_caption : "the spread of the posterior of each voxel.", units,
-         in->sd, 1},
-        {"width", "Credible-interval width", wexplain, units, width, 1},
+         in->sd, 1, in->level},
+        {"width", "Credible-interval width", wexplain, units, width, 1, in->level},
         {"residual", "Standardised residual",
          "(y &minus; E[y | mean]) / &radic;Var[y | mean], the predictive check's residual "
          "(section &ldquo;Checks&rdquo;); blank where left out.",
-         "sd", in->residual, 1},
+         "sd", in->residual, 1, in->level},
     };
     intro(f, &p);
     for (int i = 0; i < 5 && st == PP_OK; i++)

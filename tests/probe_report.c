@@ -2,14 +2,16 @@
  * tests/ref_report_chromium.py.
  *
  *   probe_report write DIR [--title T] [--kept N] [--fixed-delta] [--no-diag]
+ *                          [--converged]
  *       writes DIR/report.html from a synthetic run (fixed seed): a 64x48
  *       frame of Gaussian blobs on a background of 100 plus noise, a mean,
  *       sd, lo = mean - 1.96 sd, hi = mean + 1.96 sd, and a trace of 4 AR(1)
  *       chains (lambda, delta, loglik, two probe pixels); the images are also
  *       written as DIR/{frame,mean,sd,lo,hi}.tif (32-bit float) so the check
  *       can recompute the page's pixel mapping; a verdict banner of two
- *       warnings (one on the hyperparameters, one other); prints the
- *       report path.
+ *       warnings (one on the hyperparameters, one other), or with
+ *       --converged none and the quiet verdict line; 0.1 um pixels (a
+ *       scale bar); prints the report path.
  *   probe_report acf MAXLAG
  *       reads numbers from stdin, prints the autocorrelation at lags
  *       0..MAXLAG (one per line, %.17g), or "constant".
@@ -101,7 +103,7 @@ static int cmd_write(int argc, char **argv)
 {
     const char *title = "synthetic frame.tif";
     size_t kept = 400;
-    int fixed_delta = 0, diag = 1;
+    int fixed_delta = 0, diag = 1, converged = 0;
     for (int i = 3; i < argc; i++) {
         if (strcmp(argv[i], "--title") == 0 && i + 1 < argc)
             title = argv[++i];
@@ -111,6 +113,8 @@ static int cmd_write(int argc, char **argv)
             fixed_delta = 1;
         else if (strcmp(argv[i], "--no-diag") == 0)
             diag = 0;
+        else if (strcmp(argv[i], "--converged") == 0)
+            converged = 1; /* no warning: the quiet verdict line */
     }
     pp_rng rng;
     pp_rng_seed(&rng, 20240611, 0);
@@ -139,6 +143,11 @@ static int cmd_write(int argc, char **argv)
         cv.pixels_converged = 1, cv.iters_suggested = 2000;
         cv.iters_name = "--iters"; /* as the command line names it */
         snprintf(cv.hyper_failing, sizeof cv.hyper_failing, "lambda");
+        if (converged) {
+            memset(&cv, 0, sizeof cv);
+            cv.converged = cv.hyper_converged = cv.pixels_converged = 1;
+            cv.rhat_max = 1.004, cv.ess_bulk_min = 1500;
+        }
         char verdict[PP_VERDICT_MAX];
         pp_convergence_verdict(&cv, verdict, sizeof verdict);
         pp_report_input in;
@@ -149,7 +158,9 @@ static int cmd_write(int argc, char **argv)
         in.delta_fixed = fixed_delta;
         in.scalars = sc, in.nscalars = diag ? 3 : 0;
         in.settings_keys = keys, in.settings_values = vals, in.nsettings = 3;
-        in.warnings = warn, in.nwarnings = 2, in.warning_parts = parts;
+        in.warnings = warn, in.nwarnings = converged ? 0 : 2, in.warning_parts = parts;
+        const double pixel[3] = {0, 0, 0.1}; /* 0.1 um pixels: a scale bar */
+        in.voxel = pixel;
         in.convergence = &cv, in.verdict = verdict;
         in.units = "camera units (ADU)";
         char path[4200];

@@ -17,8 +17,15 @@ shows as float TIFFs. Then:
      ":CONSOLE" line) must stay silent for the page -- and must catch the
      errors of a deliberately broken control page, so we know it listens.
      The verdict banner (issue 16) is laid out first, with a non-zero box,
-     above the warnings section, which is above the images.
-  4. A screenshot (1280x2400) for a person to look at; its path is printed.
+     above the warnings section, which is above the images, and ends within
+     the first 900 px. Issue #19: probe p_30_44's circle is drawn over its
+     pixel of the mean and the scale bar is 10/64 of the image wide (1 um
+     of 0.1 um pixels), measured on the laid-out page.
+  4. The first screen (1280x900 screenshot): the warning banner's colour
+     fills a large area for the run with warnings and no pixel for a run
+     that converged without one (probe_report --converged), which shows
+     the quiet verdict line instead, loads every image, and stays silent.
+  5. A screenshot (1280x2400) for a person to look at; its path is printed.
 If chromium is missing the check FAILS (CI installs it through .ci/run).
 """
 import base64
@@ -43,7 +50,9 @@ IDS = ["frame-image", "mean-image", "sd-image", "sd-colourbar", "width-image",
        "trace-loglik", "trace-p_12_15", "acf-p_30_44", "hist-lambda", "hist-delta",
        "diag-table", "settings-table", "warnings-list", "cautions", "cautions-text",
        "verdict", "verdict-word", "verdict-count", "verdict-hyper", "verdict-pixels",
-       "verdict-text", "verdict-iters", "warnings-hyper", "warnings-other"]
+       "verdict-text", "verdict-iters", "warnings-hyper", "warnings-other",
+       "frame-marks", "mean-marks", "sd-marks", "width-marks", "mean-marks-bar",
+       "frame-plain", "mean-plain", "sd-plain", "width-plain"]
 CAUTIONS = ("A reconstruction is a model-based estimate. Its error bars hold only under the "
             "stated model \u2014 the PSF, the noise model and the prior. pixpost is not a "
             "diagnostic device; for clinical or forensic use, follow local rules and practice.")
@@ -161,7 +170,18 @@ INJECT = """<script>
       var e = document.getElementById(id), r = e ? e.getBoundingClientRect() : null;
       return r ? [r.top, r.height] : null;
     };
-    pre.textContent = JSON.stringify({imgs: imgs.length, bad: bad, svgs: svgs.length,
+    // issue #19: where the browser draws probe p_30_44's circle and the
+    // scale bar over the mean, against the mean image's own box
+    var img = document.getElementById('mean-image'), ib = img ? img.getBoundingClientRect() : null;
+    var circ = document.querySelector('#mean-marks g.probe[data-row="30"][data-col="44"] circle');
+    var cb = circ ? circ.getBoundingClientRect() : null;
+    var bar = document.querySelector('#mean-marks-bar rect'), bb = bar ? bar.getBoundingClientRect() : null;
+    var marks = ib && cb && bb ? {img: [ib.left, ib.top, ib.width, ib.height],
+                                   circle: [cb.left + cb.width / 2, cb.top + cb.height / 2],
+                                   bar: bb.width} : null;
+    pre.textContent = JSON.stringify({imgs: imgs.length, marks: marks,
+                                      quiet: !!document.querySelector('.verdict-quiet'),
+                                      banner: !!document.querySelector('.verdict.bad, .verdict.ok'), bad: bad, svgs: svgs.length,
                                       flat: flat, errors: errs, verdict: box('verdict'),
                                       warnings: box('warnings'), images: box('images'),
                                       scrollWidth: document.documentElement.scrollWidth});
@@ -206,6 +226,22 @@ def check_browser(exe, tmp, report):
     pptest.check(v and w and i and v[1] > 0 and w[1] > 0 and v[0] < w[0] < i[0] and v[0] < 300,
                  "laid out: the verdict banner near the top (y %s), then the warnings, then the "
                  "images (boxes %s %s %s)" % (v and v[0], v, w, i))
+    pptest.check(v and v[0] + v[1] <= 900,
+                 "the whole banner is in the first screen of 900 px (bottom at %s)"
+                 % (v and v[0] + v[1]))
+    mk = res.get("marks") or {}
+    ib, cc = mk.get("img", [0, 0, 0, 0]), mk.get("circle", [0, 0])
+    # p_30_44 is row 30, column 44 of the 64x48 image: its centre is at
+    # (44.5/64, 30.5/48) of the image's box, wherever the page puts it
+    want = (ib[0] + ib[2] * 44.5 / 64, ib[1] + ib[3] * 30.5 / 48)
+    err = max(abs(cc[0] - want[0]), abs(cc[1] - want[1])) if mk else 1e9
+    pptest.check(err < 0.5,
+                 "probe p_30_44's circle drawn over its pixel on the mean (off by %.3g px)" % err)
+    # 64 pixels of 0.1 um: a fifth is 1.28 um, the bar 1 um = 10 pixels of the 64
+    bw, want_bw = mk.get("bar", 0), ib[2] * 10 / 64
+    pptest.check(mk and abs(bw - want_bw) < 0.5,
+                 "scale bar 1 um drawn 10/64 of the image wide (%.2f px, want %.2f)" % (bw, want_bw))
+    pptest.check(res.get("banner") and not res.get("quiet"), "a run with warnings: the banner box")
     pptest.check(0 < res.get("scrollWidth", 1e9) <= 1280,
                  "no horizontal overflow at 1280 px (scrollWidth %s)" % res.get("scrollWidth"))
 
@@ -226,6 +262,49 @@ def check_browser(exe, tmp, report):
     pptest.check(ok and arr.shape == (2400, 1280) and arr.std() > 10,
                  "screenshot 1280x2400 written and not blank (sd of grey %.1f)" % arr.std())
     print("screenshot for a person to look at: " + shot)
+
+
+def banner_pixels(exe, tmp, name, url):
+    """A 1280x900 screenshot (the first screen) and how many of its pixels
+    have the warning banner's background, #fbeadf (report.c's CSS)."""
+    shot = os.path.join(tmp, name + "_first_screen.png")
+    browse(exe, tmp, name, url, ["--screenshot=" + shot, "--window-size=1280,900"])
+    if not os.path.exists(shot):
+        return shot, -1
+    rgb = np.asarray(Image.open(shot).convert("RGB")).astype(int)
+    return shot, int((np.abs(rgb - [0xfb, 0xea, 0xdf]).max(axis=2) <= 2).sum())
+
+
+def check_first_screen(exe, tmp, report):
+    """Issue #19: the warning banner is in the first screen for a run with
+    warnings and absent for a run that converged without any (one quiet
+    line instead)."""
+    shot, n = banner_pixels(exe, tmp, "warn", "file://" + report)
+    # the banner box is ~1200 x 150 px; a tenth of that is plenty to say it is shown
+    pptest.check(n > 20000, "run with warnings: the banner's colour covers %d px of the first "
+                            "screen (1280x900), > 20000; %s" % (n, shot))
+    qdir = os.path.join(tmp, "quiet")
+    os.makedirs(qdir, exist_ok=True)
+    quiet = pptest.probe("report", ["write", qdir, "--converged"]).strip()
+    shot, n = banner_pixels(exe, tmp, "quiet", "file://" + quiet)
+    pptest.check(n == 0, "converged run: no pixel of the banner's colour in the first screen "
+                         "(%d); %s" % (n, shot))
+    with open(quiet, encoding="utf-8") as f:
+        probed = f.read().replace("</body>", INJECT + "</body>")
+    copy = os.path.join(tmp, "quiet_probe.html")
+    with open(copy, "w", encoding="utf-8") as f:
+        f.write(probed)
+    p, console = browse(exe, tmp, "quietprobe", "file://" + copy,
+                        ["--dump-dom", "--window-size=1280,900"])
+    m = re.search(r'<pre id="probe-result">(.*?)</pre>', p.stdout, re.S)
+    res = json.loads(m.group(1).replace("&quot;", '"')) if m else {}
+    v = res.get("verdict")
+    pptest.check(res.get("quiet") and not res.get("banner") and v and v[0] < 300
+                 and res.get("bad") == [] and res.get("errors") == [] and not console,
+                 "converged run: the quiet verdict line at y %s, no banner box, every image "
+                 "loaded, no console output" % (v and v[0]))
+    print("first screens for a person to look at: %s_first_screen.png, %s_first_screen.png"
+          % (os.path.join(tmp, "warn"), os.path.join(tmp, "quiet")))
 
 
 def main():
@@ -250,6 +329,7 @@ def main():
     check_images(parse(raw), tmp)
     check_acf()
     check_browser(exe, tmp, report)
+    check_first_screen(exe, tmp, report)
     pptest.done()
 
 

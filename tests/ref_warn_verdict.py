@@ -30,8 +30,9 @@ text, on small fixed-seed runs.
 * report.html: the verdict banner is the first thing after the title, with
   the number of warnings split by part in its text and data attributes and
   the suggested --iters; with warnings, the warnings section comes right
-  after it (before the images), grouped by part; a converged run's banner
-  says so and its warnings section stays near the end.
+  after it (before the images), grouped by part; a converged run gets one
+  quiet line instead of the banner box (issue #19)
+  and its warnings section stays near the end.
 * A converged run (mtc, periodic, 1000 iterations): failed null,
   iters_suggested null, the verdict starts "converged:".
 * A run too short for anything (30 iterations): both parts fail, the
@@ -170,10 +171,12 @@ pptest.check("pixpost: verdict: converged: " in err, "sample prints 'verdict: co
 with open(P("conv", "report.html")) as f:
     html = f.read()
 pos = lambda t: html.find(t) if t in html else 10 ** 9
-pptest.check('class="verdict ok" data-converged="true" data-warnings="0"' in html and
+pptest.check('<p id="verdict" class="verdict-quiet" data-converged="true" data-warnings="0">'
+             in html and 'class="verdict ' not in html and
              pos('id="verdict"') < pos('<section id="images"') < pos('<section id="settings"')
              < pos('<section id="warnings"') < 10 ** 9,
-             "converged report: a 'converged' banner, the warnings section after the settings")
+             "converged report: one quiet 'converged' line, no banner box (issue #19), the "
+             "warnings section after the settings")
 
 # ---- far too short: both parts ------------------------------------------------------
 s, err = sample("short", "--boundary", "periodic", "--sampler", "gibbs", "--iters", "30", "--seed", "1")

@@ -349,7 +349,7 @@ static void test_helpers(void)
         im->data[i] = 99 - i;
     im->data[5] = NAN; /* value 94 dropped: 0..93, 95..99 remain */
     double lo, hi;
-    CHECK(pp_report_percentiles(im, 0.5, 99.5, &lo, &hi) == PP_OK, "percentiles");
+    CHECK(pp_display_percentiles(im, 0.5, 99.5, &lo, &hi) == PP_OK, "percentiles");
     /* 99 finite values; h = 98 * 0.995 = 97.51 -> 98 + 0.51 * (99 - 98) */
     CHECK(fabs(lo - 0.49) < 1e-12 && fabs(hi - 98.51) < 1e-12, "percentiles %g %g", lo, hi);
     pp_image_free(im);
@@ -431,6 +431,69 @@ static void test_escape(const char *dir)
     remove(path);
 }
 
+/* Issue #19 item 4: a sentence in plain words under each map; the probe
+ * pixel p_3_5 circled at its pixel's centre (column 5 + 0.5, row 3 + 0.5 in
+ * the image's own coordinates) on every image; a scale bar only when the
+ * pixel size is known, of the round length pp_report_bar_um picks. */
+static void test_marks(const char *dir)
+{
+    synth s;
+    synth_make(&s, 40, 30, 50, 11);
+    char path[4200];
+    snprintf(path, sizeof path, "%s/marks.html", dir);
+    CHECK(pp_report_write(path, &s.in) == PP_OK, "report write failed: %s", pp_error_message());
+    char *html = pp_test_slurp(path);
+    static const char *const keys[4] = {"frame", "mean", "sd", "width"};
+    for (int k = 0; k < 4; k++) {
+        char id[64];
+        snprintf(id, sizeof id, "<span class=\"plain\" id=\"%s-plain\">", keys[k]);
+        CHECK(has(html, id), "no plain sentence for %s", keys[k]);
+        snprintf(id, sizeof id, "<svg class=\"marks\" id=\"%s-marks\" viewBox=\"0 0 40 30\"",
+                 keys[k]);
+        CHECK(has(html, id), "no marks over %s", keys[k]);
+    }
+    CHECK(has(html, "How far the sharp image may plausibly be from the mean at each pixel, "
+                    "under the model"),
+          "the sd's plain sentence");
+    CHECK(has(html, "with 95% probability at each pixel"), "the width's sentence gives the level");
+    CHECK(has(html, "<g class=\"probe\" data-row=\"3\" data-col=\"5\"><circle cx=\"5.50\" "
+                    "cy=\"3.50\""),
+          "probe p_3_5 circled at its pixel");
+    CHECK(has(html, ">p_3_5</text>"), "probe named as in the traces");
+    CHECK(!has(html, "class=\"scalebar\""), "a scale bar without a pixel size");
+    free(html);
+    /* 40 pixels of 0.1 um: a fifth is 0.8 um, the bar 0.5 um = 5 pixels */
+    double vox[3] = {0, 0, 0.1};
+    s.in.voxel = vox;
+    CHECK(pp_report_write(path, &s.in) == PP_OK, "report write failed: %s", pp_error_message());
+    html = pp_test_slurp(path);
+    CHECK(has(html,
+              "<g class=\"scalebar\" id=\"mean-marks-bar\" data-um=\"0.5\" data-pixels=\"5\">") &&
+              has(html, ">500 nm</text>"),
+          "scale bar of 0.5 um = 5 pixels on the mean");
+    free(html);
+    /* no probe inside the image and no pixel size: no overlay at all */
+    static const char *const far[NCOL] = {"lambda", "delta", "loglik", "p_300_5"};
+    s.t.names = far;
+    s.in.voxel = NULL;
+    CHECK(pp_report_write(path, &s.in) == PP_OK, "report write failed: %s", pp_error_message());
+    html = pp_test_slurp(path);
+    CHECK(html && !has(html, "class=\"marks\""), "an overlay with nothing on it");
+    free(html);
+    synth_free(&s);
+    /* round lengths: the largest 1, 2 or 5 x 10^k um not above a fifth of the width */
+    static const struct {
+        size_t w;
+        double px, want;
+    } bars[] = {{192, 0.065, 2},  {100, 1, 20}, {64, 0.065, 0.5}, {512, 0.1, 10},
+                {1000, 0.05, 10}, {50, 0.1, 1}, {10, 0, 0},       {10, -1, 0}};
+    for (size_t i = 0; i < sizeof bars / sizeof *bars; i++) {
+        double got = pp_report_bar_um(bars[i].w, bars[i].px);
+        CHECK(fabs(got - bars[i].want) <= 1e-12 * bars[i].want, "bar of %zu x %g um: %g, want %g",
+              bars[i].w, bars[i].px, got, bars[i].want);
+    }
+}
+
 int main(void)
 {
     const char *base = pp_test_tmpdir();
@@ -450,5 +513,6 @@ int main(void)
     test_escape(d[0]);
     test_setting_names(d[0]);
     test_units(d[2]);
+    test_marks(d[2]);
     return pp_test_done();
 }

@@ -94,6 +94,11 @@ int main(void)
           "atlas PNG 55 x 60 (11 x 10 tiles of 5 x 6), got %u x %u", aw, ah);
     CHECK(page && count(page, "<script>") == 1 && strstr(page, "voxel size not known"),
           "a volume's page: one script; the voxel size is said to be unknown");
+    /* issue #19: the map's plain sentence; no frame overlay */
+    CHECK(page && strstr(page, "<span class=\"plain\" id=\"mean-plain\">") &&
+              strstr(page, "The reconstruction: the average of the sampled sharp images") &&
+              !strstr(page, "class=\"marks\""),
+          "a volume's mean has its plain sentence and, voxel size unknown, no scale bar");
     free(page);
     pp_image_free(m);
 
@@ -106,6 +111,13 @@ int main(void)
     page = pp_test_slurp(path);
     CHECK(page && strstr(page, "drawn stretched") && strstr(page, "data-k=\"1,1,1\""),
           "2 slices of 64 x 64: the z views are drawn stretched, no blocks");
+    /* 1 um voxels, 64 wide: a fifth is 12.8 um, the bar 10 um = 10 pixels,
+     * on the XY view only */
+    CHECK(page && strstr(page, "<svg class=\"marks\" id=\"mean-xy-marks\" viewBox=\"0 0 64 64\"") &&
+              strstr(page, "<g class=\"scalebar\" id=\"mean-xy-marks-bar\" data-um=\"10\" "
+                           "data-pixels=\"10\">") &&
+              !strstr(page, "id=\"mean-xz-marks\"") && !strstr(page, "id=\"mean-yz-marks\""),
+          "a 10 um scale bar over the XY view only");
     free(page);
 
     /* images of different depths: refused, no file */

@@ -2,7 +2,10 @@
  *
  * pp_output_write() writes, each atomically (temporary name, then rename):
  *   mean.tif sd.tif lo.tif hi.tif   32-bit float, input units, frame size
- *   mean.png sd.png                 16-bit, linear scale in summary.json
+ *   mean.png sd.png                 16-bit, linear scale in summary.json:
+ *                                   the 0.5th..99.5th percentiles on
+ *                                   0..65535, clipped (the report's grey
+ *                                   scale, src/display.h)
  *   summary.json                    settings, hyperparameter posteriors,
  *                                   bound method, timings, warnings
  *   trace.csv                       chain,iter,lambda,delta,loglik,p_<r>_<c>...

@@ -9,8 +9,14 @@
  * pooled histograms of lambda and delta, a diagnostics table coloured by
  * thresholds, the settings, the warnings, the checks of the data and the
  * fit with the standardised residual map, and a cautions paragraph; at the
- * top a verdict banner (converged or not, warnings per part), with the
- * warnings right under it when there are any.
+ * top a verdict banner (converged or not, warnings per part, what to do),
+ * with the warnings right under it when there are any (a run that
+ * converged with no warning gets one quiet line instead). Every map has a
+ * sentence in plain words under it; a frame's images carry the probe
+ * pixels (circles with their trace names) and, when the pixel size is
+ * known, a scale bar. Grey and colour scales run over each image's 0.5th
+ * to 99.5th percentiles, the same rule as mean.png and sd.png
+ * (src/display.h).
  * Images are 8-bit PNGs made in memory with libpng and embedded as base64
  * data URIs; every string from the caller is HTML-escaped.
  *
@@ -51,7 +57,8 @@ typedef struct pp_report_input {
     const pp_image *frame, *mean, *sd, *lo, *hi;
     /* A volume's voxel size {z, y, x} in micrometres (the views' aspect
      * ratios, the cursor's position); NULL or any entry <= 0: not known,
-     * the voxels are drawn as cubes. Frames ignore it. */
+     * the voxels are drawn as cubes. A frame's images take the x entry
+     * (square pixels) for a scale bar; <= 0: no bar. */
     const double *voxel;
     /* Per-chain traces (values[(chain*kept + i)*ncols + col], column names
      * "lambda", "delta", "loglik", "p_<r>_<c>"...); NULL: no trace plots. */
