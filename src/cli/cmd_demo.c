@@ -9,7 +9,8 @@
  * truth again with the frame's settings and report the relative difference
  * to the bundled frame, 0 when this build reproduces it), then `sample` on
  * each frame, into OUTDIR/<frame stem>/: the Gaussian frame with noise and
- * prior precision sampled (auto: gibbs, padded boundary), the camera frame
+ * prior precision sampled (auto: gibbs, padded boundary; --iters auto, the
+ * default, so it runs until it converges), the camera frame
  * with its camera noise model and the default matern prior on log
  * intensity (auto: hmc), the z-stack as one volume with its 3-D PSF and
  * the gmrf1 prior (gibbs, padded in z too). Cost on the 2-core machine: see
@@ -44,7 +45,7 @@ typedef struct demo_frame {
 #define DEMO_PSF "airy:na=1.4,wavelength=0.52,pixel=0.065"
 static const demo_frame demo_frames[] = {
     {"scene_truth.tif", "demo_gaussian.tif", DEMO_PSF, "gaussian:sigma=2.5", "101",
-     {"--noise", "gaussian", "--prior", "gmrf1"}, "500", "4000", "pad"},
+     {"--noise", "gaussian", "--prior", "gmrf1"}, "200", "auto", "pad"},
     {"scene_truth.tif", "demo_photons.tif", DEMO_PSF, "camera:gain=0.5,offset=100,read=1.6", "102",
      {"--noise", "camera:gain=0.5,offset=100,read=1.6", NULL, NULL}, "300", "700", "pad"},
     /* a z-stack (tools/make_demo_stack.py): its OME metadata says the pages
