@@ -1,0 +1,144 @@
+"""The adaptive-prior Gibbs sampler on a volume (issue 18: the adaptive
+prior in 3-D with anisotropic voxels; src/sampler_adaptive.c on a rank-3
+grid) against a long independent numpy reference chain, as
+tests/ref_adaptive_chain.py does for a frame.
+
+Outside sources: numpy / scipy.linalg (tests/adaptref.py's reference chain,
+written from src/adaptive.h's joint density, here with depth: increments
+along x, y and z weighted c_a e^{s} tau, c = (spacing_x / spacing_a)^2;
+x | W, lambda by a dense Cholesky factor of lambda A'A + D'WD, A built with
+numpy.fft.fftn; s by random-walk Metropolis with tau integrated out; tau,
+kappa, lambda exact), Geyer's initial monotone sequence ESS (Geyer,
+Statist. Sci. 7, 1992; pptest.geyer_ess). pixpost runs through
+tests/probe_volume (the library on raw float64 files).
+
+Volume 4 x 5 x 6, periodic, an asymmetric random 3 x 3 x 3 PSF, a bright
+box and a bright voxel, Gaussian noise sd 1. Voxel {z, y, x} = {0.2, 0.1,
+0.1} um: c_z = 0.25 and the blocks' z extent B_z = round(3 x 0.1 / 0.2) =
+2 slices (src/adaptive.h's rule), so adaptive:block=3 gives 2 x 2 x 2 = 8
+blocks with z neighbours in the block GMRF. lambda ~ Gamma(1, rate 1e-4);
+delta = e^L ~ Gamma(1, rate 1) (hyper_delta=1,1, as
+tests/ref_adaptive_pad_chain.py and for its reason: a field this small has
+a second, minute mode at large delta with the default rate).
+
+Compared (posterior means and sds, z = (pixpost - numpy) / sqrt(se_pp^2 +
+se_np^2), the standard errors of tests/ref_adaptive_chain.py: Geyer ESS per
+chain, summed; voxel means: pixpost's MCSE map; voxel sds: the delta method
+with the numpy chain's kurtosis): lambda, delta, kappa and every voxel.
+6 + 2 x 120 comparisons, each |z| < 4.2: two-sided P(|Z| > 4.2) = 2.7e-5,
+so a correct sampler fails one with probability below 246 x 2.7e-5 = 0.7 %
+(Bonferroni). Fixed seeds.
+"""
+import os
+
+os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+import subprocess
+
+import numpy as np
+
+import adaptref
+import pptest
+
+SCALE = int(os.environ.get("PP_REF_SCALE", "1"))
+D, H, W = 4, 5, 6
+BLOCK, BZ = 3, 2
+VOX = (0.2, 0.1, 0.1)
+CA = tuple((VOX[2] / v) ** 2 for v in VOX)
+NP_BURN, NP_ITERS = 2000, 30000 * SCALE
+PP_CHAINS, PP_BURN, PP_ITERS = 8, 1000, 8000 * SCALE
+ZMAX = 4.2
+
+tmp = pptest.tmpdir()
+rng = np.random.default_rng(20261204)
+N = D * H * W
+psf = rng.uniform(0.1, 1.0, (3, 3, 3))
+psf /= psf.sum()
+T = np.fft.fftn(pptest.centred_kernel(psf, (D, H, W)))
+eye = np.eye(N).reshape(N, D, H, W)
+A = np.real(np.fft.ifftn(T[None] * np.fft.fftn(eye, axes=(1, 2, 3)), axes=(1, 2, 3)))
+A = A.reshape(N, N).T
+truth = np.zeros((D, H, W))
+truth[1:3, 1:4, 2:5] = 10.0
+truth[3, 4, 0] = 20.0
+y = A @ truth.ravel() + rng.standard_normal(N)
+
+
+def numpy_chain(seed):
+    """Returns (hyper draws: n x 3 lambda, delta, kappa; voxel draws n x N)."""
+    m = adaptref.Model(H, W, BLOCK, hyper=(1.0, 1.0), depth=D, bz=BZ, ca=CA)
+    r = np.random.default_rng(seed)
+    AtA, Aty = A.T @ A, A.T @ y
+    lam, kappa, s = 1.0, 2.0, np.full(m.nb, np.log(0.1))
+    x = np.linalg.solve(AtA + 0.1 * m.laplacian(m.ce, np.zeros((N, N))), Aty)
+    hyp, xs, acc = np.zeros((NP_ITERS, 3)), np.zeros((NP_ITERS, N)), 0
+    for t in range(NP_BURN + NP_ITERS):
+        d2 = m.incr(x) ** 2 * m.ce
+        acc += m.s_sweep(s, d2, kappa, r, 0.5, True, 0.4)
+        tau = m.draw_tau(s, d2, r)
+        kappa = m.draw_kappa(s, r)
+        x = adaptref.draw_gaussian(m.laplacian(m.ce * np.exp(s[m.be]) * tau, lam * AtA),
+                                   lam * Aty, r)
+        res = A @ x - y
+        lam = r.gamma(1.0 + 0.5 * N, 1.0 / (1e-4 + 0.5 * res @ res))
+        if t >= NP_BURN:
+            hyp[t - NP_BURN] = lam, np.exp(m.level(s)), kappa
+            xs[t - NP_BURN] = x
+    print("numpy chain: %d iterations, %d blocks (%d pairs), block acceptance %.2f"
+          % (NP_BURN + NP_ITERS, m.nb, len(m.pairs), acc / ((NP_BURN + NP_ITERS) * m.nb)))
+    return hyp, xs
+
+
+def pixpost_run():
+    fp, pp = os.path.join(tmp, "y.f64"), os.path.join(tmp, "psf.f64")
+    y.astype("<f8").tofile(fp)
+    psf.astype("<f8").tofile(pp)
+    out = os.path.join(tmp, "post")
+    keys = ["prior=adaptive:block=%d" % BLOCK, "boundary=periodic", "chains=%d" % PP_CHAINS,
+            "burn=%d" % PP_BURN, "iters=%d" % PP_ITERS, "seed=5", "threads=2",
+            "hyper_delta=1,1", "voxel=%g,%g,%g" % VOX]
+    args = ["run", fp, D, H, W, pp, 3, 3, 3, out] + keys
+    p = subprocess.run([os.path.join(pptest.PROBES, "probe_volume")] + [str(a) for a in args],
+                       capture_output=True, text=True)
+    if p.returncode != 0:
+        raise AssertionError("probe_volume failed: " + p.stderr)
+    print(p.stdout.strip())
+    rd = lambda e: np.fromfile(out + "." + e, "<f8")
+    with open(out + ".trace") as f:
+        head = f.readline().split()
+        tr = np.loadtxt(f, ndmin=2)
+    return p.stdout, rd("mean"), rd("sd"), rd("mcse"), head, tr
+
+
+stdout, pmean, psd, pmcse, head, tr = pixpost_run()
+pptest.check("kind gibbs" in stdout and "grid 4 5 6" in stdout,
+             "pixpost ran gibbs on the 4 x 5 x 6 periodic grid")
+hyp, xs = numpy_chain(77)
+ch = np.repeat(np.arange(PP_CHAINS), PP_ITERS)  # chain-major rows
+pptest.check(len(tr) == PP_CHAINS * PP_ITERS, "trace: %d rows" % len(tr))
+
+for k, name in enumerate(("lambda", "delta", "kappa")):
+    col = tr[:, head.index(name)]
+    pm, psd_, pse_m, pse_s, pess = adaptref.mean_sd_se([col[ch == c] for c in range(PP_CHAINS)])
+    nm, nsd, nse_m, nse_s, ness = adaptref.mean_sd_se([hyp[:, k]])
+    zm = (pm - nm) / np.hypot(pse_m, nse_m)
+    zsd = (psd_ - nsd) / np.hypot(pse_s, nse_s)
+    pptest.check(abs(zm) < ZMAX and abs(zsd) < ZMAX,
+                 "%s: pixpost mean %.5g sd %.5g (ESS %.0f) vs numpy %.5g sd %.5g (ESS %.0f): "
+                 "z mean %.2f, z sd %.2f (|z| < %g)" % (name, pm, psd_, pess, nm, nsd, ness, zm,
+                                                         zsd, ZMAX))
+
+pz = adaptref.pixel_z_arrays(pmean, psd, pmcse, xs, tr, head, ch)
+z_mean, z_sd, ess, ess2, ratio = (pz[k] for k in ("z_mean", "z_sd", "ess", "ess2", "ratio"))
+print("voxel means: mean z^2 %.2f; voxel sds: mean z^2 %.2f; sd ratio pixpost/numpy %.3f..%.3f"
+      % ((z_mean ** 2).mean(), (z_sd ** 2).mean(), (psd / pz["nsd"]).min(),
+         (psd / pz["nsd"]).max()))
+zm, im = np.abs(z_mean).max(), int(np.abs(z_mean).argmax())
+zd, idd = np.abs(z_sd).max(), int(np.abs(z_sd).argmax())
+pptest.check(zm < ZMAX, "all %d voxel means within %g se of the numpy chain (worst |z| %.2f at "
+             "voxel %s)" % (N, ZMAX, zm, np.unravel_index(im, (D, H, W))))
+pptest.check(zd < ZMAX, "all %d voxel sds within %g se of the numpy chain (worst |z| %.2f at "
+             "voxel %s)" % (N, ZMAX, zd, np.unravel_index(idd, (D, H, W))))
+pptest.check(ess.min() > 1000 and ess2.min() > 500 and ratio > 0.2,
+             "Monte Carlo errors rest on enough effective draws (numpy voxel ESS min %.0f, "
+             "squared deviations %.0f; probe ratio %.2f)" % (ess.min(), ess2.min(), ratio))
+pptest.done()
