@@ -142,7 +142,7 @@ static pp_status check_volume(const pp_sampler_config *cfg)
     if (cfg->prior.kind == PP_PRIOR_ADAPTIVE &&
         (cfg->noise.kind != PP_NOISE_GAUSSIAN ||
          (cfg->kind != PP_SAMPLER_AUTO && cfg->kind != PP_SAMPLER_GIBBS)))
-        return pp_fail(PP_ERR_ARG, "%s adaptive (the default): on volumes available with "
+        return pp_fail(PP_ERR_ARG, "%s adaptive: on volumes available with "
                                    "gaussian noise and the gibbs sampler only; use %s gmrf1 (or "
                                    "gmrf2, matern)",
                        NAME(PP_SET_PRIOR), NAME(PP_SET_PRIOR));
