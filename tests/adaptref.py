@@ -176,27 +176,29 @@ def draw_gaussian(P, b, rng):
     return mean + scipy.linalg.solve_triangular(L.T, rng.standard_normal(len(b)), lower=False)
 
 
-def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters):
+def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters, bz=1, ca=(1.0, 1.0, 1.0)):
     """A numpy Gibbs chain for the adaptive prior with Gaussian noise, only
     the observed pixels SA = A[rows] (rows: the observed grid pixels, y their
     values) in the likelihood, so every other grid pixel (padding, masked)
     is integrated out exactly; lambda ~ Gamma(1, 1e-4) as pixpost's default.
-    grid = (GH, GW), frame = (H, W); frame_px: the grid indices of the frame
-    pixels. Per sweep: s (Model.s_sweep), tau, kappa, x | rest by a dense
+    grid = (GH, GW), frame = (H, W) (a volume: (GD, GH, GW), (D, H, W), with
+    the blocks' z extent bz and the axes' weight factors ca = (c_z, c_y,
+    c_x), Model's); frame_px: the grid indices of the frame pixels. Per sweep: s (Model.s_sweep), tau, kappa, x | rest by a dense
     Cholesky draw, lambda | rest. Returns (iters x 3 draws of lambda, delta,
     kappa; iters x H*W draws of the frame pixels)."""
-    m = Model(grid[0], grid[1], block, hyper=(1.0, 1.0), frame=frame)
+    depth = grid[0] if len(grid) == 3 else 1
+    m = Model(grid[-2], grid[-1], block, hyper=(1.0, 1.0), frame=frame, depth=depth, bz=bz, ca=ca)
     r = np.random.default_rng(seed)
     AtA, Aty = SA.T @ SA, SA.T @ y
     lam, kappa, s = 1.0, 2.0, np.full(m.nb, np.log(0.1))
-    x = np.linalg.solve(AtA + 0.1 * m.laplacian(np.ones(2 * m.N), np.zeros((m.N, m.N))), Aty)
+    x = np.linalg.solve(AtA + 0.1 * m.laplacian(m.ce, np.zeros((m.N, m.N))), Aty)
     hyp, xs = np.zeros((iters, 3)), np.zeros((iters, len(frame_px)))
     for t in range(burn + iters):
-        d2 = m.incr(x) ** 2
+        d2 = m.incr(x) ** 2 * m.ce  # ce = 1 on a frame and for cubic voxels
         m.s_sweep(s, d2, kappa, r, 0.5, True, 0.4)
         tau = m.draw_tau(s, d2, r)
         kappa = m.draw_kappa(s, r)
-        x = draw_gaussian(m.laplacian(np.exp(s[m.be]) * tau, lam * AtA), lam * Aty, r)
+        x = draw_gaussian(m.laplacian(m.ce * np.exp(s[m.be]) * tau, lam * AtA), lam * Aty, r)
         res = SA @ x - y
         lam = r.gamma(1.0 + 0.5 * len(y), 1.0 / (1e-4 + 0.5 * res @ res))
         if t >= burn:
