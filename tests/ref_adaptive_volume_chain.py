@@ -37,6 +37,9 @@ Measured (fixed seeds): periodic: worst |z| 1.95 (hyperparameters), 2.72
 chains) 1.21, 2.65, 2.63 and mean z^2 0.99 / 1.00 (1.69 / 2.19 at scale 1:
 no growth with length, so no bias the test can see). pad: 1.65, 4.01 (a
 corner voxel of the frame beside the padding), 2.76.
+Can fail (measured, a binary built from a temporary edit of src/adaptive.c):
+the ridge move's Gamma shape of a frame, N (nu + 1/2), left on volumes for
+N (3 nu + 2) / 2: |z| 53 on lambda, 17 on delta, 59 on a voxel mean.
 Runtime ~1 CPU minute per boundary on an idle machine.
 """
 import os
