@@ -413,11 +413,6 @@ void pp_adapt_geometry(const pp_adapt *a, size_t *side, size_t *mh, size_t *mw)
     *side = a->bs, *mh = a->mh, *mw = a->mw;
 }
 
-void pp_adapt_geometry3(const pp_adapt *a, size_t *depth, size_t *md)
-{
-    *depth = a->bz, *md = a->md;
-}
-
 double pp_adapt_block_dlogp(const pp_adapt *a, size_t b, double ds)
 {
     double mean, m = (double)block_nbrs(a, b, &mean), t0 = a->s[b] - mean, t1 = t0 + ds;

@@ -101,13 +101,11 @@ void pp_adapt_shift(pp_adapt *a, double dl, double *wz, double *wh, double *wv);
  * follow the prior alone, wander slowly and say nothing about the frame). */
 double pp_adapt_level(const pp_adapt *a);
 
-/* Block geometry: side, block rows and columns (blocks are numbered row
- * by row, block b covering pixel rows (b / mw % mh) * side ... and columns
- * (b % mw) * side ..., clipped to the grid), and on a volume the blocks' z
- * extent and layers (block b covering slices (b / (mh mw)) * depth ...;
- * a frame: 1, 1). */
+/* Block geometry in the plane: side, block rows and columns (blocks are
+ * numbered row by row, block b covering pixel rows (b / mw % mh) * side ...
+ * and columns (b % mw) * side ..., clipped to the grid; on a volume, slices
+ * (b / (mh mw)) * B_z ..., the layers of blocks slowest). */
 void pp_adapt_geometry(const pp_adapt *a, size_t *side, size_t *mh, size_t *mw);
-void pp_adapt_geometry3(const pp_adapt *a, size_t *depth, size_t *md);
 /* log p at s_B + ds − log p at s_B of the factors of the joint that hold
  * s_B but not the increments: e^{n_B s_B / 2}, the block field's GMRF
  * p(s | κ) and the level's hyperprior p(L) (src/fieldscale.c's move). */
