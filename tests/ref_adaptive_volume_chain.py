@@ -36,7 +36,8 @@ Measured (fixed seeds): periodic: worst |z| 1.95 (hyperparameters), 2.72
 (voxel means), 3.23 (voxel sds); with PP_REF_SCALE=3 (three times longer
 chains) 1.21, 2.65, 2.63 and mean z^2 0.99 / 1.00 (1.69 / 2.19 at scale 1:
 no growth with length, so no bias the test can see). pad: 1.65, 4.01 (a
-corner voxel of the frame beside the padding), 2.76.
+corner voxel of the frame beside the padding), 2.76; at PP_REF_SCALE=3 (pad
+alone, so other noise draws) 1.27, 3.21, 2.74, mean z^2 1.11 / 1.50.
 Can fail (measured, a binary built from a temporary edit of src/adaptive.c):
 the ridge move's Gamma shape of a frame, N (nu + 1/2), left on volumes for
 N (3 nu + 2) / 2: |z| 53 on lambda, 17 on delta, 59 on a voxel mean.
