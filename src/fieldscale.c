@@ -160,7 +160,7 @@ static int block_move(pp_fieldscale *f, pp_adapt *a, size_t b, size_t mw, double
         }
     }
     *ss_obs += dss;
-    pp_adapt_block_shift(a, b, -2 * rho, wh, wv);
+    pp_adapt_block_shift(a, b, -2 * rho, NULL, wh, wv); /* frames only: no wz */
     return 1;
 }
 

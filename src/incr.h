@@ -1,45 +1,55 @@
 /* pixpost — weighted first-order increments on a periodic grid (internal).
  *
- * D maps an H x W field x (row-major, axis order (y, x)) to its 2N
- * increments, N = H*W, wrapping at the edges:
- *   horizontal  dh[i][j] = x[i][(j+1) % W] - x[i][j]
- *   vertical    dv[i][j] = x[(i+1) % H][j] - x[i][j]
- * and W = diag(wh, wv) holds one weight per increment (wh, wv: N each,
- * indexed like the increment's first pixel). Dᵀ W D is the precision of an
- * intrinsic GMRF with per-increment weights (bench/adaptive/NOTES.md §6);
- * its null space holds the constant field.
+ * D maps a d x h x w field x (row-major, axis order (z, y, x); a frame is
+ * d = 1) to its increments, wrapping at the edges:
+ *   horizontal  dh[k][i][j] = x[k][i][(j+1) % w] - x[k][i][j]
+ *   vertical    dv[k][i][j] = x[k][(i+1) % h][j] - x[k][i][j]
+ *   along z     dz[k][i][j] = x[(k+1) % d][i][j] - x[k][i][j]   (d > 1 only)
+ * 2N increments on a frame, 3N on a volume (N = d*h*w), and W =
+ * diag(wz, wh, wv) holds one weight per increment (N each, indexed like
+ * the increment's first voxel; wz is not read when d = 1 and may then be
+ * NULL). Dᵀ W D is the precision of an intrinsic GMRF with per-increment
+ * weights (bench/adaptive/NOTES.md §6); its null space holds the constant
+ * field. Anisotropic voxels are the caller's: their factors are part of
+ * the weights (src/adaptive.h).
  *
- * Every function is one pass over the grid; none allocates. H, W >= 2
- * (on a side of 1 an increment would join a pixel to itself). No argument
- * may alias another unless stated.
+ * Every function is one pass over the grid; none allocates. h, w >= 2
+ * (on a side of 1 an increment would join a pixel to itself), d >= 1
+ * (d = 2 is allowed: the two z increments of a column then join the same
+ * pair, as the stationary prior's eigenvalues 2 - 2cos(pi) = 4 say). No
+ * argument may alias another unless stated. On a frame every function does
+ * the same arithmetic in the same order as before volumes existed.
  */
 #ifndef PIXPOST_INCR_H
 #define PIXPOST_INCR_H
 
 #include <stddef.h>
 
-/* out = Dᵀ diag(wh, wv) D x. out must not alias x. */
-void pp_incr_apply(size_t h, size_t w, const double *wh, const double *wv, const double *x,
-                   double *out);
+/* out = Dᵀ diag(wz, wh, wv) D x. out must not alias x. */
+void pp_incr_apply(size_t d, size_t h, size_t w, const double *wz, const double *wh,
+                   const double *wv, const double *x, double *out);
 
-/* out += Dᵀ diag(wh, wv) D x (the same sums as pp_incr_apply, added to what
- * out holds: a gradient that already holds another term). out must not
- * alias x. */
-void pp_incr_apply_add(size_t h, size_t w, const double *wh, const double *wv, const double *x,
-                       double *out);
+/* out += Dᵀ W D x (the same sums as pp_incr_apply, added to what out holds:
+ * a gradient that already holds another term). out must not alias x. */
+void pp_incr_apply_add(size_t d, size_t h, size_t w, const double *wz, const double *wh,
+                       const double *wv, const double *x, double *out);
 
-/* The quadratic form xᵀ Dᵀ W D x = Σ wh dh² + Σ wv dv². */
-double pp_incr_quad(size_t h, size_t w, const double *wh, const double *wv, const double *x);
+/* The quadratic form xᵀ Dᵀ W D x = Σ wh dh² + Σ wv dv² (+ Σ wz dz²). */
+double pp_incr_quad(size_t d, size_t h, size_t w, const double *wz, const double *wh,
+                    const double *wv, const double *x);
 
-/* out = Dᵀ (sqrt(w) ⊙ ξ) with ξ = (xi_h, xi_v), 2N values (for ξ ~ N(0, I)
- * this is the prior part of a perturbation–optimisation right-hand side,
- * covariance Dᵀ W D). out must not alias xi_h or xi_v. */
-void pp_incr_perturb(size_t h, size_t w, const double *wh, const double *wv, const double *xi_h,
+/* out = Dᵀ (sqrt(w) ⊙ ξ) with ξ = (xi_h, xi_v[, xi_z]), 2N (3N) values (for
+ * ξ ~ N(0, I) this is the prior part of a perturbation–optimisation
+ * right-hand side, covariance Dᵀ W D). xi_z is not read when d = 1. out
+ * must not alias the ξ's. */
+void pp_incr_perturb(size_t d, size_t h, size_t w, const double *wz, const double *wh,
+                     const double *wv, const double *xi_z, const double *xi_h,
                      const double *xi_v, double *out);
 
-/* d[i] = sum of the four weights touching pixel i (its own wh, wv and
- * the left neighbour's wh, the upper neighbour's wv): the diagonal of
- * Dᵀ W D. */
-void pp_incr_diag(size_t h, size_t w, const double *wh, const double *wv, double *d);
+/* d[i] = sum of the weights touching voxel i (its own wh, wv, wz and the
+ * left neighbour's wh, the upper neighbour's wv, the previous slice's wz):
+ * the diagonal of Dᵀ W D. */
+void pp_incr_diag(size_t d, size_t h, size_t w, const double *wz, const double *wh,
+                  const double *wv, double *out);
 
 #endif

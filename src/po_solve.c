@@ -6,11 +6,14 @@
  *
  * Preconditioner "scal" (NOTES.md §4, bench/adaptive/proto.py make_prec):
  *   M⁻¹ = S^{-1/2} F* diag(1/C(k)) F S^{-1/2},
- *   C(k) = λ|Â(k)|² + c q(k),  q(k) = 4 − 2cos(2πk₁/H) − 2cos(2πk₂/W),
- *   c = δ × geometric mean of the 2N weights,
- *   S = diag(P)/diag(C): diag(P)_i = λ a₂ + δ(sum of the 4 weights touching
- *   pixel i), diag(C) = λ a₂ + 4c, a₂ = mean over the full spectrum of
- *   |Â|² (= Σ psf², the diagonal of AᵀA).
+ *   C(k) = λ|Â(k)|² + c q(k),  q(k) = Σ_a c_a (2 − 2cos(2πk_a/n_a)) (a frame:
+ *   4 − 2cos(2πk₁/H) − 2cos(2πk₂/W)), c_a the axes' weight factors,
+ *   c = δ × geometric mean of the 2N (volume: 3N) weights w_e / c_a(e),
+ *   S = diag(P)/diag(C): diag(P)_i = λ a₂ + δ(sum of the 4 (6) weights
+ *   touching voxel i), diag(C) = λ a₂ + 2c Σ_a c_a (a frame: 4c), a₂ =
+ *   mean over the full spectrum of |Â|² (= Σ psf², the diagonal of AᵀA).
+ * On a volume the same preconditioner on the rank-3 transform: the weights'
+ * axis factors are in q(k), so strongly anisotropic voxels stay balanced.
  * q(0) = 0, so C(0) = λ|Â(0)|², which pp_po_draw requires to be > 0.
  * Measured in the prototype (48², first-order Student-t weights, tol 1e-6):
  * 16–33 iterations per draw, 1.3–4× fewer than the plain Fourier operator.
@@ -38,9 +41,11 @@
 #define TWO_PI 6.283185307179586476925
 
 struct pp_po {
-    size_t h, w, n, hw, nh; /* grid, N = h*w, half width, half-spectrum size */
+    size_t d, h, w, n, hw, nh; /* grid, N = d*h*w, half width, half-spectrum size */
+    double ca[3];              /* the axes' weight factors {z, y, x} */
     pp_fft *fft;
     double *b, *r, *z, *p, *q, *t, *si; /* real grids (si = S^{-1/2}) */
+    double *u;                          /* volume only: ε₂'s z third */
     pp_complex *spec;                   /* half spectrum scratch */
     double *qk, *pm, *cinv;             /* half: q(k), λ|Â|²/N, 1/(N C(k)) */
     const volatile sig_atomic_t *stop;  /* see pp_po_set_stop */
@@ -52,7 +57,8 @@ void pp_po_free(pp_po *po)
 {
     if (!po)
         return;
-    double *reals[] = {po->b, po->r, po->z, po->p, po->q, po->t, po->si, po->qk, po->pm, po->cinv};
+    double *reals[] = {po->b,  po->r,  po->z,  po->p,    po->q, po->t,
+                       po->si, po->qk, po->pm, po->cinv, po->u};
     for (size_t i = 0; i < sizeof reals / sizeof *reals; i++)
         pp_fft_free_buffer(reals[i]);
     pp_fft_free_buffer(po->spec);
@@ -60,20 +66,30 @@ void pp_po_free(pp_po *po)
     free(po);
 }
 
-pp_status pp_po_create(size_t h, size_t w, int effort, pp_po **out)
+pp_status pp_po_create(const pp_shape *shape, const double axis[3], int effort, pp_po **out)
 {
     *out = NULL;
-    if (h < 2 || w < 2)
-        return pp_fail(PP_ERR_ARG, "PO solver grid %zux%zu: both sides must be at least 2", w, h);
+    int rk = shape->rank;
+    size_t d = rk == 3 ? shape->n[0] : 1, h = rk >= 2 ? shape->n[rk - 2] : 0, w = shape->n[rk - 1];
+    double ca[3] = {1.0, 1.0, 1.0};
+    for (int i = 0; axis && i < 3; i++)
+        ca[i] = axis[i];
+    if ((rk != 2 && rk != 3) || h < 2 || w < 2 || d < 1)
+        return pp_fail(PP_ERR_ARG, "PO solver grid %zux%zux%zu: both in-plane sides must be at "
+                                   "least 2", w, h, d);
+    if (!(ca[0] > 0 && ca[1] > 0 && ca[2] > 0 && isfinite(ca[0] + ca[1] + ca[2])))
+        return pp_fail(PP_ERR_ARG, "PO solver: axis weights must be positive and finite");
     pp_po *po = calloc(1, sizeof *po);
     if (!po)
-        return pp_fail(PP_ERR_NOMEM, "out of memory for the PO solver of %zux%zu", w, h);
-    pp_status st = pp_fft_create(h, w, effort, &po->fft);
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the PO solver of %zux%zux%zu", w, h, d);
+    pp_status st = pp_fft_create_shape(shape, effort, &po->fft);
     if (st != PP_OK) {
         free(po);
         return st;
     }
-    po->h = h, po->w = w, po->n = h * w, po->hw = w / 2 + 1, po->nh = h * (w / 2 + 1);
+    po->d = d, po->h = h, po->w = w, po->n = d * h * w, po->hw = w / 2 + 1;
+    po->nh = d * h * (w / 2 + 1);
+    po->ca[0] = ca[0], po->ca[1] = ca[1], po->ca[2] = ca[2];
     double **grids[] = {&po->b, &po->r, &po->z, &po->p, &po->q, &po->t, &po->si};
     for (size_t i = 0; i < sizeof grids / sizeof *grids; i++)
         *grids[i] = pp_fft_alloc_real(po->n);
@@ -81,17 +97,25 @@ pp_status pp_po_create(size_t h, size_t w, int effort, pp_po **out)
     po->pm = pp_fft_alloc_real(po->nh);
     po->cinv = pp_fft_alloc_real(po->nh);
     po->spec = pp_fft_alloc_complex(po->nh);
-    int ok = po->qk && po->pm && po->cinv && po->spec;
+    if (d > 1)
+        po->u = pp_fft_alloc_real(po->n);
+    int ok = po->qk && po->pm && po->cinv && po->spec && (d == 1 || po->u);
     for (size_t i = 0; i < sizeof grids / sizeof *grids; i++)
         ok = ok && *grids[i];
     if (!ok) {
         pp_po_free(po);
-        return pp_fail(PP_ERR_NOMEM, "out of memory for the PO solver of %zux%zu", w, h);
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the PO solver of %zux%zux%zu", w, h, d);
     }
-    for (size_t k1 = 0; k1 < h; k1++)
-        for (size_t k2 = 0; k2 < po->hw; k2++)
-            po->qk[k1 * po->hw + k2] = 4.0 - 2.0 * cos(TWO_PI * (double)k1 / (double)h) -
-                                       2.0 * cos(TWO_PI * (double)k2 / (double)w);
+    /* q(k), written so that a frame (c = 1, k0 = 0) rounds as 4 − 2cos − 2cos */
+    const double cz = ca[0], cy = ca[1], cx = ca[2];
+    for (size_t k0 = 0; k0 < d; k0++)
+        for (size_t k1 = 0; k1 < h; k1++)
+            for (size_t k2 = 0; k2 < po->hw; k2++) {
+                double qz = d > 1 ? cz * (2.0 - 2.0 * cos(TWO_PI * (double)k0 / (double)d)) : 0.0;
+                double q = (2.0 * cy + 2.0 * cx) - 2.0 * cy * cos(TWO_PI * (double)k1 / (double)h) -
+                           2.0 * cx * cos(TWO_PI * (double)k2 / (double)w);
+                po->qk[(k0 * h + k1) * po->hw + k2] = d > 1 ? q + qz : q;
+            }
     *out = po;
     return PP_OK;
 }
@@ -107,11 +131,11 @@ static void fourier_mul(pp_po *po, const double *in, const double *m, double *ou
 }
 
 /* out = P v = λAᵀA v + δ Dᵀ W D v (uses po->t). */
-static void apply_p(pp_po *po, double delta, const double *wh, const double *wv, const double *v,
-                    double *out)
+static void apply_p(pp_po *po, double delta, const double *wz, const double *wh, const double *wv,
+                    const double *v, double *out)
 {
     fourier_mul(po, v, po->pm, out);
-    pp_incr_apply(po->h, po->w, wh, wv, v, po->t);
+    pp_incr_apply(po->d, po->h, po->w, wz, wh, wv, v, po->t);
     for (size_t i = 0; i < po->n; i++)
         out[i] += delta * po->t[i];
 }
@@ -129,18 +153,28 @@ static void apply_minv(pp_po *po, const double *r, double *z)
 /* Per-draw setup: checks the weights, builds λ|Â|²/N, 1/(N C(k)) and
  * S^{-1/2}. Two passes over the grid, one over the half spectrum. */
 static pp_status prepare(pp_po *po, const pp_complex *otf, double lam, double delta,
-                         const double *wh, const double *wv)
+                         const double *wz, const double *wh, const double *wv)
 {
     double logsum = 0.0;
+    const int vol = po->d > 1;
     for (size_t i = 0; i < po->n; i++) {
-        if (!(wh[i] > 0 && wv[i] > 0 && isfinite(wh[i]) && isfinite(wv[i])))
+        if (!(wh[i] > 0 && wv[i] > 0 && isfinite(wh[i]) && isfinite(wv[i]) &&
+              (!vol || (wz[i] > 0 && isfinite(wz[i])))))
             return pp_fail(PP_ERR_ARG,
                            "PO solver: increment weight at pixel %zu is not a "
                            "positive finite number",
                            i);
         logsum += log(wh[i]) + log(wv[i]);
+        if (vol)
+            logsum += log(wz[i]);
     }
-    double c = delta * exp(logsum / (2.0 * (double)po->n)), nn = (double)po->n, a2 = 0.0;
+    /* the weights' geometric mean without the axis factors (a frame's are 1:
+     * nothing to take out) */
+    const double kinc = vol ? 3.0 : 2.0, cz = po->ca[0], cy = po->ca[1], cx = po->ca[2];
+    double lca = log(cy) + log(cx) + (vol ? log(cz) : 0.0);
+    if (lca != 0.0)
+        logsum -= (double)po->n * lca;
+    double c = delta * exp(logsum / (kinc * (double)po->n)), nn = (double)po->n, a2 = 0.0;
     for (size_t k = 0; k < po->nh; k++) {
         size_t k2 = k % po->hw; /* half-spectrum columns other than 0 and W/2 count twice */
         double m = cabs(otf[k]) * cabs(otf[k]), twice = (k2 == 0 || 2 * k2 == po->w) ? 1.0 : 2.0;
@@ -160,8 +194,8 @@ static pp_status prepare(pp_po *po, const pp_complex *otf, double lam, double de
      * ratio of prior to data precision (1e49 on a frame of values ~1e-27). */
     po->cinv[0] = 0.0;
     a2 /= nn;
-    double dc = lam * a2 + 4.0 * c;
-    pp_incr_diag(po->h, po->w, wh, wv, po->si);
+    double dc = lam * a2 + (2.0 * cy + 2.0 * cx + (vol ? 2.0 * cz : 0.0)) * c;
+    pp_incr_diag(po->d, po->h, po->w, wz, wh, wv, po->si);
     for (size_t i = 0; i < po->n; i++)
         po->si[i] = sqrt(dc / (lam * a2 + delta * po->si[i]));
     return PP_OK;
@@ -169,11 +203,14 @@ static pp_status prepare(pp_po *po, const pp_complex *otf, double lam, double de
 
 /* b = η = λAᵀ(y + λ^{-1/2}ε₁) + δ^{1/2}Dᵀ(√w ⊙ ε₂). One FFT pair. */
 static void perturbed_rhs(pp_po *po, const pp_complex *otf, const double *y, double lam,
-                          double delta, const double *wh, const double *wv, pp_rng *rng)
+                          double delta, const double *wz, const double *wh, const double *wv,
+                          pp_rng *rng)
 {
     pp_rng_normals(rng, po->z, po->n); /* ε₁ */
-    pp_rng_normals(rng, po->p, po->n); /* ε₂, horizontal half */
-    pp_rng_normals(rng, po->q, po->n); /* ε₂, vertical half */
+    pp_rng_normals(rng, po->p, po->n); /* ε₂, horizontal part */
+    pp_rng_normals(rng, po->q, po->n); /* ε₂, vertical part */
+    if (po->d > 1)
+        pp_rng_normals(rng, po->u, po->n); /* ε₂, z part (volumes) */
     double s = 1.0 / sqrt(lam), scale = lam / (double)po->n;
     for (size_t i = 0; i < po->n; i++)
         po->t[i] = y[i] + s * po->z[i];
@@ -181,7 +218,7 @@ static void perturbed_rhs(pp_po *po, const pp_complex *otf, const double *y, dou
     for (size_t k = 0; k < po->nh; k++)
         po->spec[k] *= conj(otf[k]) * scale;
     pp_fft_inverse(po->fft, po->spec, po->b);
-    pp_incr_perturb(po->h, po->w, wh, wv, po->p, po->q, po->t);
+    pp_incr_perturb(po->d, po->h, po->w, wz, wh, wv, po->u, po->p, po->q, po->t);
     double sd = sqrt(delta);
     for (size_t i = 0; i < po->n; i++)
         po->b[i] += sd * po->t[i];
@@ -212,18 +249,18 @@ static double dot(const double *a, const double *b, size_t n)
 }
 
 pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double lam, double delta,
-                     const double *wh, const double *wv, pp_rng *rng, double tol, size_t cap,
-                     double *x, pp_po_stats *stats)
+                     const double *wz, const double *wh, const double *wv, pp_rng *rng,
+                     double tol, size_t cap, double *x, pp_po_stats *stats)
 {
     if (!(lam > 0 && delta > 0 && tol > 0 && isfinite(lam) && isfinite(delta) && isfinite(tol)))
         return pp_fail(PP_ERR_ARG,
                        "PO solver: lambda %g, delta %g and tolerance %g must be "
                        "positive and finite",
                        lam, delta, tol);
-    pp_status st = prepare(po, otf, lam, delta, wh, wv);
+    pp_status st = prepare(po, otf, lam, delta, wz, wh, wv);
     if (st != PP_OK)
         return st;
-    perturbed_rhs(po, otf, y, lam, delta, wh, wv, rng);
+    perturbed_rhs(po, otf, y, lam, delta, wz, wh, wv, rng);
     size_t n = po->n, k = 0;
     double rn;
     /* P is block-diagonal between the constant field and its orthogonal
@@ -242,7 +279,7 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
     double xbar_new = bbar / (lam * (creal(otf[0]) * creal(otf[0]) + cimag(otf[0]) * cimag(otf[0])));
     for (size_t i = 0; i < n; i++)
         x[i] += xbar_new - xbar;
-    apply_p(po, delta, wh, wv, x, po->r);
+    apply_p(po, delta, wz, wh, wv, x, po->r);
     for (size_t i = 0; i < n; i++)
         po->r[i] = po->b[i] - po->r[i];
     center(po->r, n);
@@ -262,7 +299,7 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
             break;
         if (po->stop && *po->stop)
             return pp_fail(PP_ERR_INTERRUPTED, "PO solver: stopped at the caller's request");
-        apply_p(po, delta, wh, wv, po->p, po->q);
+        apply_p(po, delta, wz, wh, wv, po->p, po->q);
         double pq = dot(po->p, po->q, n);
         if (!(pq > 0))
             return pp_fail(PP_ERR_NUMERIC,

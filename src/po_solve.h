@@ -1,11 +1,12 @@
 /* pixpost — x | W, λ, δ by perturbation–optimisation with PCG (internal).
  *
- * Model (Gaussian noise, periodic H x W grid, PSF as its transfer
- * function): precision P = λ AᵀA + δ Dᵀ W D, with A the periodic
- * convolution whose half spectrum is otf (FFTW's r2c layout, H x (W/2+1),
- * otf[0] the DC gain), D, W as in incr.h. One draw (Orieux, Féron &
- * Giovannelli, IEEE SPL 2012): η = λ Aᵀ(y + λ^{-1/2} ε₁) + δ^{1/2} Dᵀ(√w ⊙ ε₂),
- * ε₁ ~ N(0, I_N), ε₂ ~ N(0, I_2N); solve P x = η; then x ~ N(P⁻¹λAᵀy, P⁻¹)
+ * Model (Gaussian noise, periodic H x W grid or D x H x W volume, PSF as
+ * its transfer function): precision P = λ AᵀA + δ Dᵀ W D, with A the
+ * periodic convolution whose half spectrum is otf (FFTW's r2c layout,
+ * (D·H) x (W/2+1), otf[0] the DC gain), D, W as in incr.h. One draw
+ * (Orieux, Féron & Giovannelli, IEEE SPL 2012): η = λ Aᵀ(y + λ^{-1/2} ε₁)
+ * + δ^{1/2} Dᵀ(√w ⊙ ε₂), ε₁ ~ N(0, I_N), ε₂ ~ N(0, I_kN) (k = 2 increments
+ * per voxel on a frame, 3 on a volume); solve P x = η; then x ~ N(P⁻¹λAᵀy, P⁻¹)
  * up to the solver tolerance. Preconditioner "scal" of
  * bench/adaptive/NOTES.md §4 (see po_solve.c).
  *
@@ -23,11 +24,15 @@
 
 typedef struct pp_po pp_po;
 
-/* Workspace for an h x w grid (h, w >= 2), FFT plans of the given effort
- * (PP_FFT_ESTIMATE / PP_FFT_MEASURE). Memory: 7 real grids + one half
- * spectrum (complex) + three real half spectra ≈ 76 B/px. *out is NULL on
- * failure (PP_ERR_ARG, PP_ERR_NOMEM). */
-pp_status pp_po_create(size_t h, size_t w, int effort, pp_po **out);
+/* Workspace for a grid of the given shape (rank 2: h x w, rank 3: d x h x
+ * w; h, w >= 2, d >= 1), the axes' weight factors axis = {c_z, c_y, c_x}
+ * of src/adaptive.h (NULL: all 1; they shape the preconditioner only, the
+ * weights passed to pp_po_draw already hold them), FFT plans of the given
+ * effort (PP_FFT_ESTIMATE / PP_FFT_MEASURE). Memory: 7 real grids (8 on
+ * a volume) + one half spectrum (complex) + three real half spectra ≈
+ * 76 B/px (84 B/voxel). *out is NULL on failure (PP_ERR_ARG,
+ * PP_ERR_NOMEM). */
+pp_status pp_po_create(const pp_shape *shape, const double axis[3], int effort, pp_po **out);
 
 /* Accepts NULL. */
 void pp_po_free(pp_po *po);
@@ -45,10 +50,11 @@ typedef struct pp_po_stats {
     double relres;
 } pp_po_stats;
 
-/* One draw of x | W, λ, δ into x (N = h*w reals), warm-started at the x
- * passed in. otf: h*(w/2+1) values (not modified); y: the frame, N reals;
- * lam, delta > 0; wh, wv: N positive finite weights each; rng advanced by
- * 3N normals (ε₁ then ε₂'s horizontal then vertical half); tol > 0: stop
+/* One draw of x | W, λ, δ into x (N = d*h*w reals), warm-started at the x
+ * passed in. otf: d*h*(w/2+1) values (not modified); y: the frame, N reals;
+ * lam, delta > 0; wz, wh, wv: N positive finite weights each (wz on a
+ * volume only, may be NULL on a frame); rng advanced by 3N normals (ε₁ then
+ * ε₂'s horizontal then vertical part; a volume: 4N, then ε₂'s z part); tol > 0: stop
  * at ‖r‖₂ ≤ tol‖η − η̄‖₂; cap: most iterations. Needs λ|otf[0]|² > 0 (the
  * constant field is fixed by the data alone, Dᵀ W D being blind to it).
  * None of the arrays may alias x. stats may be NULL.
@@ -60,7 +66,7 @@ typedef struct pp_po_stats {
  * then holds the last iterate). Cost: 2 FFT pairs per CG iteration + 3 per draw (see
  * po_solve.c). */
 pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double lam, double delta,
-                     const double *wh, const double *wv, pp_rng *rng, double tol, size_t cap,
-                     double *x, pp_po_stats *stats);
+                     const double *wz, const double *wh, const double *wv, pp_rng *rng,
+                     double tol, size_t cap, double *x, pp_po_stats *stats);
 
 #endif

@@ -1,5 +1,8 @@
 /* pixpost — Gibbs sampler for Gaussian noise under the adaptive prior
- * (`--prior adaptive`, src/adaptive.h), periodic or padded grid.
+ * (`--prior adaptive`, src/adaptive.h), periodic or padded grid, a frame
+ * or a volume (rank-3 grid: the increments along z, y and x, weighted by
+ * the voxel spacing as the stationary priors are; blocks B x B x B_z,
+ * src/adaptive.h).
  *
  * One iteration, given the weights W (which carry the global level) and λ:
  *   1. x | W, λ, y ~ N(P⁻¹λAᵀy, P⁻¹), P = λAᵀA + DᵀWD, by perturbation–
@@ -23,8 +26,13 @@
  * probes.
  * Cost per iteration: the CG draw (2 FFT pairs per CG iteration + 3) and
  * one pair for A x, plus 2N Gamma and 3N normal draws.
- * Memory per thread: the solver (≈ 76 B/px) + x, wh, wv (24 B/px) on top
- * of gibbs's buffers; shared: the frame on the grid (periodic, 8 B/px).
+ * Memory per thread: the solver (≈ 76 B/px, 84 B/voxel) + x, wh, wv (24
+ * B/px; a volume adds wz, 8 B/voxel) on top of gibbs's buffers; shared:
+ * the frame on the grid (periodic, 8 B/px).
+ * Volumes: the block field-scale move (src/fieldscale.h) is built for
+ * frames and is left out (its moves are an addition to the conditionals
+ * above, which alone leave the posterior invariant; without it the level
+ * δ mixes more slowly on flat regions).
  */
 #include <math.h>
 #include <stdlib.h>
@@ -43,8 +51,9 @@
 typedef struct {
     pp_po *po;
     pp_adapt *ad;
-    pp_fieldscale *fs; /* the block field-scale move (NULL on tiny grids) */
+    pp_fieldscale *fs; /* the block field-scale move (NULL on tiny grids and volumes) */
     double *x, *wh, *wv;
+    double *wz; /* volumes: the z increments' weights (NULL on a frame) */
 } adapt_work;
 
 typedef struct {
@@ -64,6 +73,7 @@ static void free_work(void *p)
     pp_fft_free_buffer(k->x);
     pp_fft_free_buffer(k->wh);
     pp_fft_free_buffer(k->wv);
+    pp_fft_free_buffer(k->wz);
     free(k);
 }
 
@@ -77,6 +87,18 @@ static void release(pp_sampler *s)
     pp_squant_release_chains(s->chain, s->cfg.chains);
 }
 
+/* The axes' weight factors {z, y, x}: (spacing_x / spacing_a)², 1 where a
+ * spacing is not known and on a frame (as pp_prior_eigen_shape weights the
+ * stationary priors' increments; the sampler gives it cfg.voxel for
+ * volumes only). */
+static void axis_weights(const pp_sampler *s, double ca[3])
+{
+    for (int a = 0; a < 3; a++) {
+        double sa = s->cfg.voxel[a], sx = s->cfg.voxel[2];
+        ca[a] = s->depth > 1 && sa > 0 && sx > 0 ? (sx / sa) * (sx / sa) : 1.0;
+    }
+}
+
 static pp_status prepare(pp_sampler *s)
 {
     if (s->gh < 2 || s->gw < 2)
@@ -87,7 +109,9 @@ static pp_status prepare(pp_sampler *s)
         return pp_fail(PP_ERR_NOMEM, "out of memory");
     s->kshared = sh;
     pp_squant_law_init(&sh->law, s->cfg.level);
-    pp_status st = pp_squant_plan_chains(s->chain, s->cfg.chains, s->height * s->width);
+    pp_status st = pp_squant_plan_chains(s->chain, s->cfg.chains, s->npix);
+    double ca[3];
+    axis_weights(s, ca);
     if (st != PP_OK)
         return st;
     if (!s->augment) {
@@ -100,11 +124,11 @@ static pp_status prepare(pp_sampler *s)
         if (!k)
             return pp_fail(PP_ERR_NOMEM, "out of memory");
         s->slot[b].kwork = k;
-        pp_status st = pp_po_create(s->gh, s->gw, s->cfg.fft_effort, &k->po);
+        pp_status st = pp_po_create(&s->gshape, ca, s->cfg.fft_effort, &k->po);
         if (st == PP_OK)
-            st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block,
+            st = pp_adapt_create(&s->gshape, &s->fshape, s->cfg.prior.block, ca,
                                  s->cfg.prior.nu, s->cfg.hyper_delta, &k->ad);
-        if (st == PP_OK)
+        if (st == PP_OK && s->gd == 1)
             st = pp_fieldscale_create(s->gh, s->gw, s->psf_size,
                                       s->cfg.prior.block, s->otf, s->fft, &k->fs);
         if (st != PP_OK)
@@ -112,6 +136,8 @@ static pp_status prepare(pp_sampler *s)
         k->x = pp_fft_alloc_real(s->gn);
         k->wh = pp_fft_alloc_real(s->gn);
         k->wv = pp_fft_alloc_real(s->gn);
+        if (s->gd > 1 && !(k->wz = pp_fft_alloc_real(s->gn)))
+            return pp_fail(PP_ERR_NOMEM, "out of memory for the adaptive prior's buffers");
         if (!k->x || !k->wh || !k->wv)
             return pp_fail(PP_ERR_NOMEM, "out of memory for the adaptive prior's buffers");
     }
@@ -143,13 +169,15 @@ static double residual(const pp_sampler *s, pp_chain *c, const double *x, const 
         c->cbuf[i] *= c->otf[i] * invn;
     pp_fft_inverse(s->fft, c->cbuf, c->rbuf);
     double so = 0;
-    for (size_t r = 0; r < s->height; r++)
+    for (size_t fr = 0; fr < s->depth * s->height; fr++) {
+        const size_t o = pp_frame_row(s, fr) * s->gw;
         for (size_t col = 0; col < s->width; col++) {
-            if (!s->obs[r * s->gw + col])
+            if (!s->obs[o + col])
                 continue;
-            double d = c->rbuf[r * s->gw + col] - y[r * s->gw + col];
+            double d = c->rbuf[o + col] - y[o + col];
             so += d * d;
         }
+    }
     return so;
 }
 
@@ -182,17 +210,15 @@ static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const do
     if (!(sp > 0) || !(log(u) < 2.0 * log(s1 / sp) + pp_adapt_level_dlogp(k->ad, -2.0 * log(sp / s1))))
         return;
     double ratio = sp / s1, so = 0;
-    for (size_t r = 0; r < s->gh; r++)
-        for (size_t col = 0; col < s->gw; col++) {
-            size_t i = r * s->gw + col;
-            k->x[i] = cm + ratio * (k->x[i] - cm);
-            c->rbuf[i] = cm * a0 + ratio * (c->rbuf[i] - cm * a0);
-            double d = c->rbuf[i] - y[i];
-            if (s->obs[i])
-                so += d * d;
-        }
+    for (size_t i = 0; i < n; i++) {
+        k->x[i] = cm + ratio * (k->x[i] - cm);
+        c->rbuf[i] = cm * a0 + ratio * (c->rbuf[i] - cm * a0);
+        double d = c->rbuf[i] - y[i];
+        if (s->obs[i])
+            so += d * d;
+    }
     *obs = so;
-    pp_adapt_shift(k->ad, -2.0 * log(ratio), k->wh, k->wv);
+    pp_adapt_shift(k->ad, -2.0 * log(ratio), k->wz, k->wh, k->wv);
     c->delta = pp_adapt_level(k->ad);
 }
 
@@ -238,7 +264,7 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     if (c->t == 0) {
         start_field(s, c, k->x);
         pp_adapt_start(k->ad, c->delta);
-        pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
+        pp_adapt_update(k->ad, k->x, k->wz, k->wh, k->wv, &c->rng);
         if (pad) {
             residual(s, c, k->x, y, &xmean);
             augment(s, c);
@@ -249,8 +275,8 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
         pp_po_stats ps = {0, 0};
         pp_status st = range_check(c, t);
         if (st == PP_OK)
-            st = pp_po_draw(k->po, c->otf, y, c->lambda, 1.0, k->wh, k->wv, &c->rng, PO_TOL,
-                            PO_CAP, k->x, &ps);
+            st = pp_po_draw(k->po, c->otf, y, c->lambda, 1.0, k->wz, k->wh, k->wv, &c->rng,
+                            PO_TOL, PO_CAP, k->x, &ps);
         if (st == PP_ERR_INTERRUPTED)
             return pp_fail(st, "sampling stopped at the caller's request");
         if (st == PP_ERR_NUMERIC || st == PP_ERR_ARG) /* CG broke down: the same cause */
@@ -270,13 +296,14 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
         ss = ss_obs + (pad ? augment(s, c) : 0.0); /* periodic: the frame is the grid */
         if (!fix_l)
             c->lambda = pp_rng_gamma(&c->rng, shape_l, cfg->hyper_lambda[1] + 0.5 * ss);
-        pp_adapt_update(k->ad, k->x, k->wh, k->wv, &c->rng);
+        pp_adapt_update(k->ad, k->x, k->wz, k->wh, k->wv, &c->rng);
         pp_fieldscale_sweep(k->fs, k->ad, k->x, c->rbuf, y, k->wh, k->wv, c->lambda,
                             pad ? s->obs : NULL, &c->rng, &ss_obs);
         c->delta = pp_adapt_level(k->ad);
         if (keep) {
             pp_chain_add_draw(s, c, k->x);
-            pp_squant_add(&sh->law, c->kstate, k->x, s->height, s->width, s->gw, &c->mom);
+            pp_squant_add_box(&sh->law, c->kstate, k->x, s->depth, s->height, s->width, s->gw,
+                              s->gh * s->gw, &c->mom);
             double *row = c->trace + c->kept * s->trace.ncols;
             row[PP_COL_LAMBDA] = c->lambda;
             row[PP_COL_DELTA] = c->delta;
@@ -285,7 +312,7 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
                 0.5 * c->lambda * ss_obs;
             row[s->col_kappa] = pp_adapt_kappa(k->ad);
             for (size_t p = 0; p < s->nprobe; p++)
-                row[s->col_probe0 + p] = k->x[s->probe_r[p] * s->gw + s->probe_c[p]];
+                row[s->col_probe0 + p] = k->x[pp_probe_index(s, p)];
             c->kept++;
         }
         if (pp_sampler_tick(s))
@@ -303,11 +330,13 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
 static size_t state(const pp_sampler *s, void *kwork, pp_region *out)
 {
     adapt_work *k = kwork;
-    size_t g = s->gn * sizeof(double);
+    size_t g = s->gn * sizeof(double), n = 3;
     out[0] = (pp_region){k->x, g};
     out[1] = (pp_region){k->wh, g};
     out[2] = (pp_region){k->wv, g};
-    return 3 + pp_adapt_state(k->ad, out + 3);
+    if (k->wz) /* a volume's (every slot's alike) */
+        out[n++] = (pp_region){k->wz, g};
+    return n + pp_adapt_state(k->ad, out + n);
 }
 
 /* Pooled bounds: the chains' streaming quantiles averaged (the draws are
@@ -316,7 +345,7 @@ static size_t state(const pp_sampler *s, void *kwork, pp_region *out)
  * 0.674 sd covered 0.519 and the draws' own quartiles 0.487). */
 static pp_status finish(pp_sampler *s)
 {
-    pp_squant_pool(s->chain, s->cfg.chains, s->height * s->width, 0, s->lo->data, s->hi->data);
+    pp_squant_pool(s->chain, s->cfg.chains, s->npix, 0, s->lo->data, s->hi->data);
     snprintf(s->bound_method, sizeof s->bound_method,
              "streaming quantiles: per pixel and chain, Robbins-Monro recursion q += g (p - "
              "1{x <= q}), g = sd/(phi(z_p) t), started from the Gaussian guess after %d kept "

@@ -498,15 +498,15 @@ static double adapt_level_move(const pp_sampler *s, const pcn_shared *sh, pp_cha
     double ljac = scale_u(s, sh, k, fi, ls, NULL, NULL);
     field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
     double ssn = 0, phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
-    double quad = pp_incr_quad(s->gh, s->gw, k->wh, k->wv, k->z);
-    double quadn = pp_incr_quad(s->gh, s->gw, k->wh, k->wv, k->zp);
+    double quad = pp_incr_quad(1, s->gh, s->gw, NULL, k->wh, k->wv, k->z);
+    double quadn = pp_incr_quad(1, s->gh, s->gw, NULL, k->wh, k->wv, k->zp);
     double loga = k->phi - phin + 0.5 * (double)s->gn * dl - 0.5 * (exp(dl) * quadn - quad) + ljac +
                   pp_adapt_level_dlogp(k->ad, dl);
     double alpha = loga >= 0 ? 1.0 : exp(loga);
     if (!isfinite(phin) || !(pp_rng_uniform(&c->rng) < alpha))
         return isfinite(phin) && isfinite(loga) ? alpha : 0.0;
     take_proposal(k, phin, ssn);
-    pp_adapt_shift(k->ad, dl, k->wh, k->wv);
+    pp_adapt_shift(k->ad, dl, NULL, k->wh, k->wv);
     c->delta = ref_delta(k);
     return alpha;
 }
@@ -516,7 +516,7 @@ static double adapt_level_move(const pp_sampler *s, const pcn_shared *sh, pp_cha
 static void adapt_weights(const pp_sampler *s, pp_chain *c, pcn_chain *k)
 {
     (void)s;
-    pp_adapt_update(k->ad, k->z, k->wh, k->wv, &c->rng);
+    pp_adapt_update(k->ad, k->z, NULL, k->wh, k->wv, &c->rng);
     c->delta = ref_delta(k);
 }
 
@@ -574,10 +574,10 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
         for (size_t i = 0; i < s->gn; i++)
             r[i] *= x[i];
         if (sh->adaptive)
-            pp_incr_apply_add(s->gh, s->gw, k->wh, k->wv, z, r);
+            pp_incr_apply_add(1, s->gh, s->gw, NULL, k->wh, k->wv, z, r);
         pp_fft_forward(s->fft, r, out);
     } else if (sh->adaptive) {
-        pp_incr_apply(s->gh, s->gw, k->wh, k->wv, z, r);
+        pp_incr_apply(1, s->gh, s->gw, NULL, k->wh, k->wv, z, r);
         pp_fft_forward(s->fft, r, c->cbuf);
         for (size_t i = 0; i < s->gm; i++)
             out[i] += c->cbuf[i];
@@ -637,7 +637,7 @@ static double hmc_quad(const pp_sampler *s, const pcn_shared *sh, const pp_chain
                        const pcn_chain *k, const pp_complex *u, const double *z,
                        const pp_complex *v)
 {
-    double prior = sh->adaptive ? pp_incr_quad(s->gh, s->gw, k->wh, k->wv, z)
+    double prior = sh->adaptive ? pp_incr_quad(1, s->gh, s->gw, NULL, k->wh, k->wv, z)
                                 : half_form(s, sh, u, c->delta, 0.0);
     return prior + half_form(s, sh, v, c->delta, fisher_of(sh, c));
 }
@@ -1024,7 +1024,8 @@ static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
         pp_hphot_create(s->gn, s->gm, &k->hp) != PP_OK)
         return fail_nomem();
     if (sh->adaptive) {
-        pp_status st = pp_adapt_create(s->gh, s->gw, s->height, s->width, s->cfg.prior.block,
+        /* frames only (sampler.c refuses the adaptive prior with hmc on a volume) */
+        pp_status st = pp_adapt_create(&s->gshape, &s->fshape, s->cfg.prior.block, NULL,
                                        s->cfg.prior.nu, s->cfg.hyper_delta, &k->ad);
         if (st != PP_OK)
             return st;

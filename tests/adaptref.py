@@ -40,30 +40,43 @@ KAPPA_SHAPE, KAPPA_RATE = 1.0, 0.5  # src/adaptive.h: kappa ~ Gamma(1, rate 0.5)
 
 
 class Model:
-    """Index tables of the adaptive prior on an H x W periodic grid."""
+    """Index tables of the adaptive prior on an H x W periodic grid, or a
+    depth x H x W volume (depth > 1: increments along z too, 3N of them, z
+    last; blocks of block x block in-plane by bz slices, 6 neighbours;
+    ca = (c_z, c_y, c_x) the axes' fixed weight factors of src/adaptive.h,
+    in self.ce per increment: the weights are ce e^{s} tau and every d^2
+    of the model reads ce d^2, which the caller applies)."""
 
-    def __init__(self, H, W, block, nu=2.0, hyper=(1.0, 1e-4), frame=None):
-        """frame: (fh, fw) when the observed frame is the top-left corner of
-        the grid (--boundary pad): the level L is then the mean of s over
-        the blocks that hold frame pixels (src/adaptive.h)."""
-        self.H, self.W, self.N, self.block, self.nu = H, W, H * W, block, nu
+    def __init__(self, H, W, block, nu=2.0, hyper=(1.0, 1e-4), frame=None, depth=1, bz=1,
+                 ca=(1.0, 1.0, 1.0)):
+        """frame: (fh, fw) (a volume: (fd, fh, fw)) when the observed frame is
+        the first corner of the grid (--boundary pad): the level L is then
+        the mean of s over the blocks that hold frame pixels
+        (src/adaptive.h)."""
+        self.H, self.W, self.N, self.block, self.nu = H, W, depth * H * W, block, nu
         self.hyper = hyper  # pixpost's default --hyper-delta (shape, rate)
-        ii, jj = np.meshgrid(np.arange(H), np.arange(W), indexing="ij")
-        p = (ii * W + jj).ravel()
-        qh = (ii * W + (jj + 1) % W).ravel()
-        qv = (((ii + 1) % H) * W + jj).ravel()
-        self.p = np.concatenate([p, p])
-        self.q = np.concatenate([qh, qv])
+        kk, ii, jj = np.meshgrid(np.arange(depth), np.arange(H), np.arange(W), indexing="ij")
+        p = ((kk * H + ii) * W + jj).ravel()
+        qh = ((kk * H + ii) * W + (jj + 1) % W).ravel()
+        qv = ((kk * H + (ii + 1) % H) * W + jj).ravel()
+        qz = ((((kk + 1) % depth) * H + ii) * W + jj).ravel()
+        ax = 3 if depth > 1 else 2
+        self.p = np.concatenate([p] * ax)
+        self.q = np.concatenate([qh, qv, qz][:ax])
+        self.ce = np.concatenate([np.full(self.N, c) for c in (ca[2], ca[1], ca[0])][:ax])
+        self.md = -(-depth // bz)
         self.mh, self.mw = -(-H // block), -(-W // block)
-        self.nb = self.mh * self.mw
-        bpix = ((ii // block) * self.mw + jj // block).ravel()
+        self.nb = self.md * self.mh * self.mw
+        bpix = (((kk // bz) * self.mh + ii // block) * self.mw + jj // block).ravel()
         self.bpix = bpix
-        self.be = np.concatenate([bpix, bpix])  # block of each increment
+        self.be = np.concatenate([bpix] * ax)  # block of each increment
         self.nB = np.bincount(bpix, minlength=self.nb).astype(float)
-        bi, bj = np.divmod(np.arange(self.nb), self.mw)
-        self.colour = (bi + bj) % 2
+        bk, rem = np.divmod(np.arange(self.nb), self.mh * self.mw)
+        bi, bj = np.divmod(rem, self.mw)
+        self.colour = (bk + bi + bj) % 2
         pairs = [(b, b + 1) for b in range(self.nb) if bj[b] + 1 < self.mw]
         pairs += [(b, b + self.mw) for b in range(self.nb) if bi[b] + 1 < self.mh]
+        pairs += [(b, b + self.mh * self.mw) for b in range(self.nb) if bk[b] + 1 < self.md]
         self.pairs = np.array(pairs)
         nbr = np.zeros((self.nb, self.nb))
         for a, b in pairs:
@@ -71,16 +84,16 @@ class Model:
         self.nbr = nbr
         self.deg = nbr.sum(axis=1)
         self.diag_idx = np.arange(self.N) * (self.N + 1)
-        fh, fw = frame if frame else (H, W)
+        fd, fh, fw = ((1,) + tuple(frame) if len(frame) == 2 else frame) if frame else (depth, H, W)
         self.fblocks = np.array([b for b in range(self.nb)
-                                 if bi[b] * block < fh and bj[b] * block < fw])
+                                 if bk[b] * bz < fd and bi[b] * block < fh and bj[b] * block < fw])
 
     def level(self, s):
         """L: the mean of s over the blocks holding frame pixels."""
         return s[self.fblocks].mean()
 
     def incr(self, x):
-        """The 2N increments of the flat field x."""
+        """The 2N (volume: 3N) increments of the flat field x."""
         return x[self.q] - x[self.p]
 
     def laplacian(self, w, base):
@@ -163,27 +176,29 @@ def draw_gaussian(P, b, rng):
     return mean + scipy.linalg.solve_triangular(L.T, rng.standard_normal(len(b)), lower=False)
 
 
-def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters):
+def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters, bz=1, ca=(1.0, 1.0, 1.0)):
     """A numpy Gibbs chain for the adaptive prior with Gaussian noise, only
     the observed pixels SA = A[rows] (rows: the observed grid pixels, y their
     values) in the likelihood, so every other grid pixel (padding, masked)
     is integrated out exactly; lambda ~ Gamma(1, 1e-4) as pixpost's default.
-    grid = (GH, GW), frame = (H, W); frame_px: the grid indices of the frame
-    pixels. Per sweep: s (Model.s_sweep), tau, kappa, x | rest by a dense
+    grid = (GH, GW), frame = (H, W) (a volume: (GD, GH, GW), (D, H, W), with
+    the blocks' z extent bz and the axes' weight factors ca = (c_z, c_y,
+    c_x), Model's); frame_px: the grid indices of the frame pixels. Per sweep: s (Model.s_sweep), tau, kappa, x | rest by a dense
     Cholesky draw, lambda | rest. Returns (iters x 3 draws of lambda, delta,
     kappa; iters x H*W draws of the frame pixels)."""
-    m = Model(grid[0], grid[1], block, hyper=(1.0, 1.0), frame=frame)
+    depth = grid[0] if len(grid) == 3 else 1
+    m = Model(grid[-2], grid[-1], block, hyper=(1.0, 1.0), frame=frame, depth=depth, bz=bz, ca=ca)
     r = np.random.default_rng(seed)
     AtA, Aty = SA.T @ SA, SA.T @ y
     lam, kappa, s = 1.0, 2.0, np.full(m.nb, np.log(0.1))
-    x = np.linalg.solve(AtA + 0.1 * m.laplacian(np.ones(2 * m.N), np.zeros((m.N, m.N))), Aty)
+    x = np.linalg.solve(AtA + 0.1 * m.laplacian(m.ce, np.zeros((m.N, m.N))), Aty)
     hyp, xs = np.zeros((iters, 3)), np.zeros((iters, len(frame_px)))
     for t in range(burn + iters):
-        d2 = m.incr(x) ** 2
+        d2 = m.incr(x) ** 2 * m.ce  # ce = 1 on a frame and for cubic voxels
         m.s_sweep(s, d2, kappa, r, 0.5, True, 0.4)
         tau = m.draw_tau(s, d2, r)
         kappa = m.draw_kappa(s, r)
-        x = draw_gaussian(m.laplacian(np.exp(s[m.be]) * tau, lam * AtA), lam * Aty, r)
+        x = draw_gaussian(m.laplacian(m.ce * np.exp(s[m.be]) * tau, lam * AtA), lam * Aty, r)
         res = SA @ x - y
         lam = r.gamma(1.0 + 0.5 * len(y), 1.0 / (1e-4 + 0.5 * res @ res))
         if t >= burn:
@@ -212,8 +227,15 @@ def mean_sd_se(chains):
 
 
 def pixel_z(out, xs, tr, head, ch):
-    """z-scores of pixpost's pixel means and sds (mean.tif, sd.tif, mcse.tif
-    in out; the trace rows tr with columns head and chain numbers ch) against
+    """pixel_z_arrays of the output folder out's mean.tif, sd.tif and
+    mcse.tif."""
+    rd = lambda n: tifffile.imread(os.path.join(out, n)).astype(np.float64).ravel()
+    return pixel_z_arrays(rd("mean.tif"), rd("sd.tif"), rd("mcse.tif"), xs, tr, head, ch)
+
+
+def pixel_z_arrays(pmean, psd, pmcse, xs, tr, head, ch):
+    """z-scores of pixpost's pixel means and sds (pmean, psd, pmcse: flat
+    arrays of its mean, sd and MCSE maps; the trace rows tr with columns head and chain numbers ch) against
     the numpy draws xs (draws x pixels). The se of a mean joins pixpost's
     MCSE and numpy's sd / sqrt(Geyer ESS); that of an sd uses the kurtosis
     of the numpy draws and an ESS of the squared deviations, pixpost's taken
@@ -221,8 +243,6 @@ def pixel_z(out, xs, tr, head, ch):
     ESS. Returns a dict: z_mean, z_sd, psd and nsd (pixpost's and numpy's
     sds), pmcse, ess and ess2 (numpy's Geyer ESS of the draws and of their
     squared deviations) and ratio (the probe ESS ratio used)."""
-    rd = lambda n: tifffile.imread(os.path.join(out, n)).astype(np.float64).ravel()
-    pmean, psd, pmcse = rd("mean.tif"), rd("sd.tif"), rd("mcse.tif")
     nmean, nsd = xs.mean(axis=0), xs.std(axis=0, ddof=1)
     dev2 = (xs - nmean) ** 2
     npix = xs.shape[1]

@@ -1,11 +1,15 @@
 /* Probe for tests/ref_po_dense.py: runs src/po_solve.c's pp_po_draw on a
  * problem written by Python and writes what the draws did.
  *
- *   probe_po IN OUT
+ *   probe_po IN OUT [D CZ CY CX]
  *
  * IN (float64, native order): H W lambda delta tol cap ndraw seed keep,
  * then y (H*W), otf (H*(W/2+1) complex as re, im pairs), wh (H*W),
- * wv (H*W), x0 (H*W). Every draw starts from x0 (independent draws) and
+ * wv (H*W), x0 (H*W). With D (a volume of D slices of H x W, the grid
+ * rank 3; tests/ref_adaptive_volume_dense.py) every H*W above reads
+ * D*H*W, the otf D*H*(W/2+1), and wz (D*H*W) follows x0; CZ CY CX are the
+ * axes' weight factors given to pp_po_create (the preconditioner's).
+ * Every draw starts from x0 (independent draws) and
  * uses one rng, pp_rng_seed(seed, 0), in sequence.
  * OUT (float64): per draw (iterations, final relative residual, status),
  * then the pixel means (H*W) and variances (H*W, divisor ndraw - 1), then
@@ -31,22 +35,26 @@ static double *read_n(FILE *f, size_t n)
 
 int main(int argc, char **argv)
 {
-    if (argc != 3) {
-        fprintf(stderr, "usage: probe_po IN OUT\n");
+    if (argc != 3 && argc != 7) {
+        fprintf(stderr, "usage: probe_po IN OUT [D CZ CY CX]\n");
         return 1;
     }
+    size_t dep = argc == 7 ? (size_t)strtoul(argv[3], NULL, 10) : 1;
+    double axis[3] = {1.0, 1.0, 1.0};
+    for (int a = 0; argc == 7 && a < 3; a++)
+        axis[a] = strtod(argv[4 + a], NULL);
     FILE *f = fopen(argv[1], "rb");
     double hd[9];
     if (!f || fread(hd, sizeof *hd, 9, f) != 9) {
         fprintf(stderr, "probe_po: %s: cannot read the header\n", argv[1]);
         return 1;
     }
-    size_t h = (size_t)hd[0], w = (size_t)hd[1], n = h * w, nh = h * (w / 2 + 1);
+    size_t h = (size_t)hd[0], w = (size_t)hd[1], n = dep * h * w, nh = dep * h * (w / 2 + 1);
     size_t cap = (size_t)hd[5], ndraw = (size_t)hd[6], keep = hd[8] != 0;
     double *y = read_n(f, n), *otf = read_n(f, 2 * nh), *wh = read_n(f, n), *wv = read_n(f, n);
-    double *x0 = read_n(f, n);
+    double *x0 = read_n(f, n), *wz = dep > 1 ? read_n(f, n) : NULL;
     fclose(f);
-    if (!y || !otf || !wh || !wv || !x0 || ndraw < 2) {
+    if (!y || !otf || !wh || !wv || !x0 || (dep > 1 && !wz) || ndraw < 2) {
         fprintf(stderr, "probe_po: %s: short file or fewer than 2 draws\n", argv[1]);
         return 1;
     }
@@ -56,7 +64,8 @@ int main(int argc, char **argv)
     double *all = keep ? malloc(ndraw * n * sizeof *all) : NULL;
     pp_po *po = NULL;
     if (!ot || !x || !mean || !m2 || !info || (keep && !all) ||
-        pp_po_create(h, w, PP_FFT_ESTIMATE, &po) != PP_OK) {
+        pp_po_create(dep > 1 ? &(pp_shape){3, {dep, h, w}} : &(pp_shape){2, {h, w, 1}}, axis,
+                     PP_FFT_ESTIMATE, &po) != PP_OK) {
         fprintf(stderr, "probe_po: %s\n", pp_error_message());
         return 1;
     }
@@ -67,7 +76,7 @@ int main(int argc, char **argv)
     for (size_t d = 0; d < ndraw; d++) {
         memcpy(x, x0, n * sizeof *x);
         pp_po_stats st = {0, 0.0};
-        pp_status s = pp_po_draw(po, ot, y, hd[2], hd[3], wh, wv, &rng, hd[4], cap, x, &st);
+        pp_status s = pp_po_draw(po, ot, y, hd[2], hd[3], wz, wh, wv, &rng, hd[4], cap, x, &st);
         if (s != PP_OK && s != PP_ERR_LIMIT) {
             fprintf(stderr, "probe_po: draw %zu: %s\n", d, pp_error_message());
             return 1;
@@ -92,6 +101,6 @@ int main(int argc, char **argv)
     }
     pp_po_free(po);
     free(ot), free(x), free(mean), free(m2), free(info), free(all);
-    free(y), free(otf), free(wh), free(wv), free(x0);
+    free(y), free(otf), free(wh), free(wv), free(x0), free(wz);
     return 0;
 }

@@ -167,26 +167,30 @@ pptest.run(["sample", path("c1.tif"), "--pages", "z", "--psf", "airy:na=1.2,wave
             "-o", path("c1")] + Q)
 pptest.check(np.array_equal(tifffile.imread(path("zc", "c1", "mean.tif")), tifffile.imread(path("c1", "mean.tif"))),
              "channel 1 of the ZCYX file = its slices as a plain ZYX stack (same seed and PSF)")
-# no --prior: a volume takes gmrf1 (the default adaptive prior is for frames),
-# says so on stderr and in summary.json, and gives the same mean as --prior gmrf1
+# no --prior: a Gaussian-noise volume takes the adaptive prior, as a frame
+# does (src/sampler_adaptive.c on the rank-3 grid), without a note, and
+# gives the same mean as --prior adaptive (same seed)
 p = pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "-o", path("dflt")]
                + [a for a in Q[:-2] if a != "--quiet"])
 with open(path("dflt", "summary.json")) as f:
     prior_used = json.load(f)["prior"]
-pptest.check(prior_used == "gmrf1" and "--prior gmrf1" in p.stderr and "adaptive" in p.stderr,
-             "a volume without --prior runs gmrf1 and says so (summary %s; %s)"
+pptest.check(prior_used.startswith("adaptive") and "prior" not in p.stderr,
+             "a volume without --prior runs the adaptive prior, as a frame (summary %s; stderr %r)"
              % (prior_used, p.stderr.strip()))
-pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "-o", path("expl")] + Q)
+pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "-o", path("expl")] + Q[:-2]
+           + ["--prior", "adaptive"])
 pptest.check(np.array_equal(tifffile.imread(path("dflt", "mean.tif")),
                             tifffile.imread(path("expl", "mean.tif"))),
-             "the volume's default equals --prior gmrf1 (same seed)")
-# an explicit --prior adaptive is the library's refusal, one line naming the file
-p = pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "-o", path("lib")] + Q[:-2]
-               + ["--prior", "adaptive"], check=False)
+             "the volume's default equals --prior adaptive (same seed)")
+# with photon counts an explicit --prior adaptive is the library's refusal
+# (hmc's adaptive kernel is for frames), one line naming the file
+p = pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "-o", path("lib")] + Q[:-4]
+               + ["--noise", "poisson:gain=1,offset=0", "--prior", "adaptive"], check=False)
 err = p.stderr.strip()
 pptest.check(p.returncode == 1 and err.count("\n") == 0 and "z.ome.tif" in err and "adaptive" in err
              and "volume" in err and not os.path.exists(path("lib")),
-             "the library's refusal of --prior adaptive for volumes: one line naming the file (%s)" % err)
+             "the library's refusal of --prior adaptive for photon-count volumes: one line naming "
+             "the file (%s)" % err)
 
 pptest.check(all(open(path(f), "rb").read() == b for f, b in inputs.items()), "inputs unchanged")
 pptest.done()

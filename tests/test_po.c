@@ -34,7 +34,7 @@ static pp_status draw(pp_po *po, double lam, double delta, double tol, double *x
 {
     pp_rng rng;
     pp_rng_seed(&rng, 15, 0);
-    return pp_po_draw(po, otf, y, lam, delta, wh, wv, &rng, tol, 500, x, st);
+    return pp_po_draw(po, otf, y, lam, delta, NULL, wh, wv, &rng, tol, 500, x, st);
 }
 
 static void refused(pp_po *po, double lam, double delta, double tol, const char *word,
@@ -57,10 +57,11 @@ int main(void)
 {
     setup();
     pp_po *po = NULL;
-    CHECK(pp_po_create(1, 8, PP_FFT_ESTIMATE, &po) == PP_ERR_ARG && po == NULL,
+    pp_shape thin = pp_shape_2d(1, 8), grid = pp_shape_2d(H, W);
+    CHECK(pp_po_create(&thin, NULL, PP_FFT_ESTIMATE, &po) == PP_ERR_ARG && po == NULL,
           "a 8x1 grid is refused");
     CHECK(strstr(pp_error_message(), "at least 2") != NULL, "message: %s", pp_error_message());
-    CHECK(pp_po_create(H, W, PP_FFT_ESTIMATE, &po) == PP_OK && po, "create %dx%d", W, H);
+    CHECK(pp_po_create(&grid, NULL, PP_FFT_ESTIMATE, &po) == PP_OK && po, "create %dx%d", W, H);
     if (!po)
         return pp_test_done();
     refused(po, 0.0, 1.0, 1e-8, "lambda", "lambda 0");

@@ -1,5 +1,6 @@
 /* Unit tests of the sampler's volume contract (include/pixpost/sampler.h
- * "Volumes"): what a volume (frame depth > 1) is refused with, and the
+ * "Volumes"): what a volume (frame depth > 1) is refused with (the adaptive
+ * prior runs with gaussian noise and gibbs only), and the
  * rank-3 prior eigenvalues (src/prior.c). The numbers of 3-D sampling are
  * checked against numpy in tests/ref_volume_*.py. */
 #include <math.h>
@@ -61,14 +62,22 @@ static void refusals(void)
     CHECK(v && f && k3 && k1, "images");
     pp_sampler_config cfg;
 
-    pp_sampler_defaults(&cfg); /* the default prior is adaptive */
-    refused("default (adaptive) prior", &cfg, v, k3, PP_ERR_ARG,
-            (const char *[]){"adaptive", "not available for volumes", "gmrf1", NULL});
+    /* the default prior, adaptive, runs on volumes with gaussian noise */
+    pp_sampler_defaults(&cfg);
+    cfg.iters_auto = 0, cfg.chains = 1, cfg.burn = 2, cfg.iters = 4;
+    {
+        pp_sampler *s = NULL;
+        CHECK(cfg.prior.kind == PP_PRIOR_ADAPTIVE && pp_sampler_create(&cfg, v, k3, &s) == PP_OK &&
+                  pp_sampler_run(s) == PP_OK && pp_sampler_mean(s)->depth == 5,
+              "the adaptive prior (gibbs) on a volume: %s", pp_error_message());
+        pp_sampler_free(s);
+    }
 
-    pp_sampler_defaults(&cfg); /* the adaptive prior with hmc (photon counts) too */
+    pp_sampler_defaults(&cfg); /* not with hmc (photon counts: its kernel is for frames) */
     cfg.kind = PP_SAMPLER_HMC;
     refused("adaptive prior, hmc", &cfg, v, k3, PP_ERR_ARG,
-            (const char *[]){"adaptive", "not available for volumes", "gmrf1", NULL});
+            (const char *[]){"adaptive", "gaussian noise and the gibbs sampler only", "gmrf1",
+                             NULL});
 
     /* pcn, gpcn and hmc run on volumes */
     const pp_sampler_kind pcn[] = {PP_SAMPLER_PCN, PP_SAMPLER_GPCN, PP_SAMPLER_HMC};
@@ -96,6 +105,7 @@ static void refusals(void)
     const char *names[PP_SET_COUNT] = {0};
     names[PP_SET_PRIOR] = "PRIOR-SETTING";
     pp_sampler_defaults(&cfg);
+    cfg.kind = PP_SAMPLER_HMC;
     cfg.setting_names = names;
     refused("named settings", &cfg, v, k3, PP_ERR_ARG,
             (const char *[]){"PRIOR-SETTING adaptive", "use PRIOR-SETTING gmrf1", NULL});

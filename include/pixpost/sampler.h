@@ -52,7 +52,10 @@
  * on a rank-3 grid by every sampler (gibbs, mtc, pcn, gpcn, hmc; AUTO picks
  * as for a frame) with every noise model, the stationary priors (gmrf1,
  * gmrf2, matern: pp_prior_eigen_shape, increments weighted by cfg.voxel,
- * Matern alpha = nu + 3/2), a fixed PSF, either boundary (pad adds the kernel's radius on every axis, its z
+ * Matern alpha = nu + 3/2), the adaptive prior with gaussian noise (gibbs:
+ * increments along z, y and x weighted by cfg.voxel as the stationary
+ * priors', blocks of B x B pixels by round(B voxel_x / voxel_z) slices,
+ * src/adaptive.h; the block field-scale move is for frames only), a fixed PSF, either boundary (pad adds the kernel's radius on every axis, its z
  * radius along z) and NaN voxels as missing data. The PSF is a volume of
  * odd extents with odd square slices no larger than the frame's (its depth
  * no larger than the volume's with periodic boundaries; any odd depth with
@@ -64,10 +67,10 @@
  * (depth - 1) / 2, trace columns "p_<z>_<r>_<c>". A frame (depth 1) gives
  * the same bytes as before volumes existed.
  * Not built for volumes, refused by pp_sampler_create with PP_ERR_ARG and
- * a message saying what to use instead: the adaptive prior, which is the
- * default (cfg.prior must be set to a stationary prior: the library cannot
- * tell a default from a choice, so it never swaps a prior silently);
- * sampling the PSF width (psf.width_auto). The padding scale move of gibbs
+ * a message saying what to use instead: the adaptive prior with photon
+ * counts or any sampler but gibbs (hmc's adaptive kernel is for frames;
+ * the library never swaps a prior silently); sampling the PSF width
+ * (psf.width_auto). The padding scale move of gibbs
  * with pad and gmrf1 (src/padscale.h) runs on volumes too, its increments
  * weighted by cfg.voxel as the prior's. The photon models' smoothing of
  * their delta move's weights (src/hyper_photon.c) is the same Gaussian, in

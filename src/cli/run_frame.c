@@ -289,16 +289,6 @@ static int check_data(const cli_sample_opts *o, cli_frame_run *r, const pp_image
     return 0;
 }
 
-/* The prior a volume runs with when --prior was not given: the default
- * adaptive prior is built for frames only (the library refuses it for a
- * volume), so a volume takes gmrf1, the first-order stationary prior
- * (README, "Volumes"). NULL when the run keeps o's prior. */
-static const char *volume_prior(const cli_sample_opts *o, const pp_image *frame)
-{
-    int given = o->prior_text != o->prior_buf;
-    return frame->depth > 1 && !given && o->cfg.prior.kind == PP_PRIOR_ADAPTIVE ? "gmrf1" : NULL;
-}
-
 static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,
                         const pp_image *psf, progress_state *ps, int fft_effort,
                         const cli_noise_auto *na)
@@ -320,17 +310,6 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     cfg.stop = r->stop;
     if (r->psf)
         cfg.psf = *r->psf;
-    const char *vp = volume_prior(o, frame);
-    if (vp) {
-        pp_status pst = pp_prior_parse(vp, cli_flag_names, &cfg.prior);
-        if (pst != PP_OK)
-            return fail_frame(r, pst);
-        if (!o->quiet)
-            fprintf(stderr,
-                    "pixpost: %s: note: a volume takes a stationary prior: --prior %s (the "
-                    "default adaptive prior is for frames); give --prior to choose another\n",
-                    r->frame, vp);
-    }
     cfg.regions = r->regions;
     cfg.profiles = r->profiles;
     cfg.above = o->above;
@@ -372,7 +351,7 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     pp_run_info ri = {.input_path = r->frame, .psf_spec = r->psf_text ? r->psf_text : o->psf_text,
                       .input_part = r->part, .voxel_um = r->voxel_um,
                       .noise_spec = o->noise_text,
-                      .prior_spec = volume_prior(o, frame) ? volume_prior(o, frame) : o->prior_text,
+                      .prior_spec = o->prior_text,
                       .command_line = r->command_line, .seconds_total = cli_since(&r->t0),
                       .fft_plans = plans->summary,
                       .masked = r->masked, .saturated = r->sat.count,
