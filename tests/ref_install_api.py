@@ -7,6 +7,7 @@ there; binutils' `nm -D --defined-only` and `readelf -d` read the shared
 library's dynamic symbol table and soname; tifffile reads the TIFFs.
 
 Checks:
+- the umbrella header pixpost.h includes every other public header;
 - the prefix holds lib/libpixpost.so.MAJOR (soname libpixpost.so.MAJOR,
   MAJOR the project version's), the .so link, libpixpost.a, every public
   header of include/pixpost/ (byte-identical), pixpost.pc and the CMake
@@ -82,6 +83,12 @@ pptest.check(headers == inst, "the prefix holds the %d public headers (installed
 same = all(open(os.path.join(src, "include/pixpost", h), "rb").read()
            == open(os.path.join(prefix, "include/pixpost", h), "rb").read() for h in headers if h in inst)
 pptest.check(same, "installed headers are byte-identical to include/pixpost/")
+
+umbrella = set(re.findall(r'#include "pixpost/([a-z0-9_]+\.h)"',
+                          open(os.path.join(src, "include/pixpost/pixpost.h")).read()))
+pptest.check(umbrella == set(headers) - {"pixpost.h"},
+             "pixpost.h includes every public header (missing: %s)"
+             % sorted(set(headers) - {"pixpost.h"} - umbrella))
 
 # ---- one version --------------------------------------------------------------
 pcenv = {"PKG_CONFIG_PATH": os.path.join(lib, "pkgconfig")}
