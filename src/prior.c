@@ -115,7 +115,19 @@ void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len)
     case PP_PRIOR_ADAPTIVE:
         snprintf(buf, len, "adaptive:nu=%.15g,block=%zu", s->nu, s->block);
         break;
+    case PP_PRIOR_DEFAULT:
+        snprintf(buf, len, "default");
+        break;
     }
+}
+
+void pp_prior_resolve(pp_prior_spec *p, const pp_noise_spec *noise)
+{
+    if (p->kind != PP_PRIOR_DEFAULT)
+        return;
+    int photon = noise && (noise->kind == PP_NOISE_POISSON || noise->kind == PP_NOISE_CAMERA);
+    /* the parser's own defaults for each form (cannot fail) */
+    pp_prior_parse(photon ? "matern" : "adaptive", NULL, p);
 }
 
 pp_status pp_prior_eigen_shape(const pp_prior_spec *s, const pp_shape *shape,
@@ -124,6 +136,9 @@ pp_status pp_prior_eigen_shape(const pp_prior_spec *s, const pp_shape *shape,
     const int d = shape->rank;
     if (d < 1 || d > PP_MAX_RANK)
         return pp_fail(PP_ERR_ARG, "pp_prior_eigen_shape: rank %d (1 to %d)", d, PP_MAX_RANK);
+    if (s->kind == PP_PRIOR_DEFAULT)
+        return pp_fail(PP_ERR_ARG, "pp_prior_eigen_shape: the default prior is not resolved "
+                                   "(pp_prior_resolve it for the noise model first)");
     /* the weight of each axis' increments: (x spacing / its spacing)^2 */
     double w[PP_MAX_RANK];
     for (int a = 0; a < d; a++) {

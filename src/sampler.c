@@ -79,9 +79,7 @@ void pp_sampler_defaults(pp_sampler_config *cfg)
     cfg->level = 0.95;
     cfg->noise.kind = PP_NOISE_GAUSSIAN;
     cfg->noise.gain = 1.0;
-    cfg->prior.kind = PP_PRIOR_ADAPTIVE; /* README "Which prior": why it is the default */
-    cfg->prior.nu = 2.0;
-    cfg->prior.block = 8;
+    cfg->prior.kind = PP_PRIOR_DEFAULT; /* pp_prior_resolve in check_config */
     cfg->hyper_lambda[0] = cfg->hyper_delta[0] = 1.0;
     cfg->hyper_lambda[1] = cfg->hyper_delta[1] = 1e-4;
     cfg->fft_effort = PP_FFT_ESTIMATE;
@@ -175,6 +173,7 @@ static pp_status check_volume_psf(const pp_sampler_config *cfg, const pp_image *
 
 static pp_status check_config(pp_sampler_config *cfg, int missing, int volume)
 {
+    pp_prior_resolve(&cfg->prior, &cfg->noise); /* the default prior, by noise model */
     pp_status st = volume ? check_volume(cfg) : PP_OK;
     if (st != PP_OK)
         return st;

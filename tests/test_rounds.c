@@ -161,7 +161,8 @@ static void extendable(void)
     rounds_equal_one_run("adaptive gibbs periodic thin 2", cfg, y, psf);
     pp_sampler_defaults(&cfg);
     pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise);
-    rounds_equal_one_run("hmc adaptive", cfg, yp, psf); /* the default for photons */
+    pp_prior_parse("adaptive", NULL, &cfg.prior); /* (the default for photons is matern) */
+    rounds_equal_one_run("hmc adaptive", cfg, yp, psf);
     pp_prior_parse("gmrf1", NULL, &cfg.prior);
     rounds_equal_one_run("hmc gmrf1", cfg, yp, psf);
     cfg.kind = PP_SAMPLER_PCN;

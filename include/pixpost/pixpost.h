@@ -1,6 +1,7 @@
 /* pixpost — Bayesian deconvolution with uncertainty, by MCMC. One include. */
 #ifndef PIXPOST_H
 #define PIXPOST_H
+#include "pixpost/version.h"
 #include "pixpost/status.h"
 #include "pixpost/shape.h"
 #include "pixpost/image.h"
@@ -20,5 +21,11 @@
 #include "pixpost/datacheck.h"
 #include "pixpost/ppcheck.h"
 #include "pixpost/calib.h"
-#define PP_VERSION_STRING "0.1.0"
+#include "pixpost/setting.h"
+#include "pixpost/diag.h"
+#include "pixpost/regions.h"
+#include "pixpost/profiles.h"
+#include "pixpost/probmaps.h"
+#include "pixpost/output.h"
+#include "pixpost/report.h"
 #endif

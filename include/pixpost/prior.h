@@ -13,6 +13,12 @@
  *                         itself a first-order GMRF (src/adaptive.h). Its
  *                         eigenvalues here are gmrf1's (the stationary
  *                         reference that starts the chains).
+ *   (default)             PP_PRIOR_DEFAULT, what pp_sampler_defaults sets:
+ *                         no prior of its own but "the library's choice for
+ *                         the noise model", resolved by pp_prior_resolve
+ *                         (pp_sampler_create calls it, and the sampler's
+ *                         used configuration, pp_sampler_config_used, and so
+ *                         the result's summary name the prior that ran).
  * Keys for the stationary priors: delta=D fixes delta instead of sampling it; matern
  * also takes mean=M, a known prior mean. Without mean=M the zero frequency
  * carries no prior weight (the mean level is left to the data), so an
@@ -22,6 +28,7 @@
 #define PIXPOST_PRIOR_H
 
 #include <stddef.h>
+#include "pixpost/noise.h"
 #include "pixpost/shape.h"
 #include "pixpost/status.h"
 
@@ -29,7 +36,8 @@ typedef enum pp_prior_kind {
     PP_PRIOR_GMRF1,
     PP_PRIOR_GMRF2,
     PP_PRIOR_MATERN,
-    PP_PRIOR_ADAPTIVE
+    PP_PRIOR_ADAPTIVE,
+    PP_PRIOR_DEFAULT    /* the library's choice, see pp_prior_resolve */
 } pp_prior_kind;
 
 typedef struct pp_prior_spec {
@@ -46,7 +54,21 @@ typedef struct pp_prior_spec {
  * (a PP_SET_COUNT table, include/pixpost/setting.h, e.g. a command line's
  * "--prior"; NULL: the library's word "prior"). */
 pp_status pp_prior_parse(const char *text, const char *const *names, pp_prior_spec *out);
+/* Writes the spec in the form pp_prior_parse reads ("default" for
+ * PP_PRIOR_DEFAULT, which pp_prior_parse does not take). */
 void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len);
+
+/* The default prior, decided here once for every caller (the command line
+ * asks this too). When p->kind is PP_PRIOR_DEFAULT, *p becomes the prior
+ * for the noise model, frames and volumes alike:
+ *   gaussian                       adaptive:nu=2,block=8 (README "Which
+ *                                  prior": edges kept, noise smoothed);
+ *   photon counts (poisson, camera) matern:range=6,nu=1 (a proper field:
+ *                                  pcn and gpcn need one, and hmc's log-
+ *                                  intensity moves are tuned on it).
+ * Any other kind is left as it is. noise may be NULL: taken as gaussian.
+ * Never fails; thread-safe (touches *p only). */
+void pp_prior_resolve(pp_prior_spec *p, const pp_noise_spec *noise);
 
 /* Eigenvalues of Q on the half spectrum of a grid of the given shape
  * (rank 1 to 3, slowest axis first; the last axis halved to n/2 + 1, as
@@ -61,7 +83,8 @@ void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len);
  * {z, y, x}); NULL, or an entry <= 0, counts as 1 (unknown: cubic). Entry
  * 0 is 0 when the mean is free. *rank receives the number of non-zero
  * eigenvalues over the FULL spectrum (N-1 or N). The adaptive prior's
- * eigenvalues here are gmrf1's. PP_ERR_ARG for a bad rank. */
+ * eigenvalues here are gmrf1's. PP_ERR_ARG for a bad rank or an
+ * unresolved PP_PRIOR_DEFAULT (pp_prior_resolve it first). */
 pp_status pp_prior_eigen_shape(const pp_prior_spec *s, const pp_shape *shape,
                                const double *spacing, double *q, double *rank);
 

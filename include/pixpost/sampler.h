@@ -142,7 +142,8 @@ typedef struct pp_sampler_config {
     int threads;            /* 0 = OpenMP's default */
     double level;           /* credible level of the bounds (default 0.95) */
     pp_noise_spec noise;    /* default gaussian, lambda sampled */
-    pp_prior_spec prior;    /* default adaptive:nu=2,block=8 */
+    pp_prior_spec prior;    /* default PP_PRIOR_DEFAULT: pp_prior_resolve (adaptive for
+                             * gaussian, matern for photon counts) */
     double hyper_lambda[2]; /* Gamma shape, rate for lambda (default 1, 1e-4) */
     double hyper_delta[2];  /* Gamma shape, rate for delta (default 1, 1e-4) */
     int fft_effort;         /* PP_FFT_ESTIMATE (default) or PP_FFT_MEASURE; the

@@ -141,7 +141,7 @@ static void settings_text(const cli_args *a, const cli_sample_opts *o, char *buf
         "pixpost %s\npsf %s\nnoise %s\nprior %s\nsampler %s\nchains %u\nburn %lu\n"
         "iters %lu\nthin %lu\nseed %llu\nboundary %s\nlevel %.17g\nhl %.17g %.17g\n"
         "hd %.17g %.17g\nchannel %d\nmax_pixels %zu\nfft %d\nauto %d %.17g %lu\n",
-        PP_VERSION_STRING, o->psf_text, noise, prior, pp_sampler_kind_name(c->kind), c->chains,
+        pp_version(), o->psf_text, noise, prior, pp_sampler_kind_name(c->kind), c->chains,
         c->burn, c->iters, c->thin, (unsigned long long)c->seed, pp_boundary_name(c->boundary),
         c->level, c->hyper_lambda[0], c->hyper_lambda[1], c->hyper_delta[0], c->hyper_delta[1],
         (int)o->read.channel, o->read.max_pixels, c->fft_effort, c->iters_auto, c->max_seconds,

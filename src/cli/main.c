@@ -27,8 +27,8 @@ static const command commands[] = {
 
 static void usage(FILE *fp)
 {
-    fputs("pixpost " PP_VERSION_STRING " - posterior sampling for deblurring microscopy frames\n\n"
-          "Usage: pixpost <command> [options]\n"
+    fprintf(fp, "pixpost %s - posterior sampling for deblurring microscopy frames\n\n", pp_version());
+    fputs("Usage: pixpost <command> [options]\n"
           "       pixpost <command> --help   options of one command, with their defaults\n"
           "       pixpost --version\n\nCommands:\n",
           fp);
@@ -61,7 +61,7 @@ int main(int argc, char **argv)
         return CLI_EXIT_OK;
     }
     if (strcmp(name, "--version") == 0) {
-        printf("pixpost %s (GPL-3.0-or-later)\nMPI: %s\n", PP_VERSION_STRING, cli_mpi_support());
+        printf("pixpost %s (GPL-3.0-or-later)\nMPI: %s\n", pp_version(), cli_mpi_support());
         return CLI_EXIT_OK;
     }
     for (const command *c = commands; c->name; c++)

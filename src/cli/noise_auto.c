@@ -49,11 +49,9 @@ int cli_noise_auto_run(const cli_sample_opts *o, const char *path, const pp_imag
     pp_noise_round(&na->spec);
     pp_noise_format(&na->spec, na->noise_text, sizeof na->noise_text);
     na->prior_text[0] = '\0';
-    if (na->camera && !o->prior_given) { /* as parse_specs does for a camera spec */
-        if ((st = pp_prior_parse("matern", cli_flag_names, &na->prior)) != PP_OK) {
-            snprintf(msg, len, "%s", pp_error_message());
-            return CLI_EXIT_USAGE;
-        }
+    if (na->camera && !o->prior_given) { /* the library's default for the chosen model */
+        na->prior.kind = PP_PRIOR_DEFAULT;
+        pp_prior_resolve(&na->prior, &na->spec);
         pp_prior_format(&na->prior, na->prior_text, sizeof na->prior_text);
     }
     const pp_noise_fit *f = &na->fit;

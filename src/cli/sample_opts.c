@@ -168,10 +168,19 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
     buf[0] = '\0';
     if (strcmp(name, "noise") == 0)
         pp_noise_format(&d.noise, buf, len);
-    else if (strcmp(name, "prior") == 0) {
-        pp_prior_format(&d.prior, buf, len);
+    else if (strcmp(name, "prior") == 0) { /* the library's default for each noise model */
+        pp_prior_spec g = d.prior, p = d.prior;
+        pp_noise_spec photon = d.noise;
+        photon.kind = PP_NOISE_POISSON;
+        pp_prior_resolve(&g, &d.noise);
+        pp_prior_resolve(&p, &photon);
+        pp_prior_format(&g, buf, len);
         size_t used = strlen(buf);
-        snprintf(buf + used, len - used, " for gaussian, matern:range=6,nu=1 for poisson/camera");
+        used += (size_t)snprintf(buf + used, len - used, " for gaussian, ");
+        if (used < len)
+            pp_prior_format(&p, buf + used, len - used);
+        used = strlen(buf);
+        snprintf(buf + used, len - used, " for poisson/camera");
     }
     else if (strcmp(name, "positivity") == 0)
         snprintf(buf, len, "log for poisson/camera, none for gaussian");
@@ -303,10 +312,8 @@ static int parse_specs(const cli_args *a, cli_sample_opts *o)
         if ((rc = lib_check(pp_prior_parse(o->prior_text, cli_flag_names, &o->cfg.prior))) != 0)
             return rc;
     }
-    if (!cli_given(a, "prior") && o->cfg.noise.kind != PP_NOISE_GAUSSIAN) {
-        /* photon models: a proper Matern field by default (pCN needs one) */
-        if ((rc = lib_check(pp_prior_parse("matern", cli_flag_names, &o->cfg.prior))) != 0)
-            return rc;
+    if (!cli_given(a, "prior")) { /* the library's default for the noise model */
+        pp_prior_resolve(&o->cfg.prior, &o->cfg.noise);
         pp_prior_format(&o->cfg.prior, o->prior_buf, sizeof o->prior_buf);
     }
     if (cli_given(a, "positivity")) {
