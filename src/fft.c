@@ -23,6 +23,7 @@
  */
 #include "pixpost/fft.h"
 #include "internal.h"
+#include "pp_assert.h"
 #include <complex.h> /* before fftw3.h: fftw_complex becomes double _Complex */
 #include <errno.h>
 #include <fcntl.h>
@@ -145,6 +146,7 @@ pp_status pp_fft_create_shape(const pp_shape *shape, int effort, pp_fft **out)
     f->width = shape->n[shape->rank - 1];
     f->height = n / f->width;
     f->half = f->width / 2 + 1;
+    PP_ASSERT(f->height * f->width == n && f->height * f->half == half_n); /* the plan's shape */
     unsigned flags = effort == PP_FFT_MEASURE ? FFTW_MEASURE : FFTW_ESTIMATE;
     pthread_mutex_lock(&planner_lock);
     pp_status st = plan_locked(f, flags);
@@ -190,11 +192,13 @@ pp_fft_plans pp_fft_plans_source(const pp_fft *f)
  * default is to preserve the input, so casting away const is safe. */
 void pp_fft_forward(const pp_fft *f, const double *in, pp_complex *out)
 {
+    PP_ASSERT((const void *)in != (const void *)out); /* out of place, as planned */
     fftw_execute_dft_r2c(f->r2c, (double *)in, out);
 }
 
 void pp_fft_inverse(const pp_fft *f, pp_complex *in, double *out)
 {
+    PP_ASSERT((const void *)in != (const void *)out); /* out of place, as planned */
     fftw_execute_dft_c2r(f->c2r, in, out);
 }
 

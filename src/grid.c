@@ -2,6 +2,7 @@
  * frame-box copies, rank 2 and 3. */
 #include "grid.h"
 #include "pixpost/fft.h"
+#include "pp_assert.h"
 #include <math.h>
 #include <string.h>
 
@@ -22,6 +23,8 @@ void pp_grid_padded(const pp_shape *frame, size_t r, pp_grid_pad kind, pp_shape 
                      &out->n[a], &out->n[a + 1]);
     if (frame->rank == 3)
         out->n[0] = pp_fft_good_size(least_side(frame->n[0], r, kind));
+    for (int k = 0; k < frame->rank; k++) /* the grid holds the frame and its margin */
+        PP_ASSERT(out->n[k] >= least_side(frame->n[k], r, kind));
 }
 
 /* Copies the rows (runs along the last axis) of the frame box from src to
@@ -33,6 +36,7 @@ static void copy_box(double *dst, const double *src, const pp_shape *gs, const p
     int k = fs->rank;
     size_t nz = k == 3 ? fs->n[0] : 1, ny = fs->n[k - 2], nx = fs->n[k - 1];
     size_t gy = gs->n[k - 2], gx = gs->n[k - 1];
+    PP_ASSERT(gs->rank == k && ny <= gy && nx <= gx && (k < 3 || nz <= gs->n[0]));
     for (size_t z = 0; z < nz; z++)
         for (size_t y = 0; y < ny; y++) {
             size_t g = (z * gy + y) * gx, f = (z * ny + y) * nx;
@@ -61,6 +65,8 @@ void pp_grid_place_kernel(double *grid, const pp_shape *gs, const double *kernel
     size_t kz = k == 3 ? ks->n[0] : 1, ky = ks->n[k - 2], kx = ks->n[k - 1];
     size_t gz = k == 3 ? gs->n[0] : 1, gy = gs->n[k - 2], gx = gs->n[k - 1];
     size_t rz = kz / 2, ry = ky / 2, rx = kx / 2;
+    PP_ASSERT(kz % 2 == 1 && ky % 2 == 1 && kx % 2 == 1); /* centred kernels */
+    PP_ASSERT(rz < gz && ry < gy && rx < gx);              /* one wrap at most */
     for (size_t a = 0; a < kz; a++)
         for (size_t b = 0; b < ky; b++)
             for (size_t c = 0; c < kx; c++) /* centre goes to the origin, with wrap */

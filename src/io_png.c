@@ -207,9 +207,9 @@ static pp_status png_encode(FILE *fp, const char *path, const pp_image *img, dou
     png_msg m = {"", ""};
     png_structp png = png_create_write_struct(PNG_LIBPNG_VER_STRING, &m, on_error, on_warning);
     png_infop pi = png ? png_create_info_struct(png) : NULL;
-    unsigned char *volatile row = NULL;
-    if (!pi) {
-        png_destroy_write_struct(&png, NULL);
+    unsigned char *volatile row = pi ? malloc(2 * img->width) : NULL;
+    if (!row) { /* before libpng's error path, which reports I/O errors */
+        png_destroy_write_struct(&png, pi ? &pi : NULL);
         return pp_fail(PP_ERR_NOMEM, "%s: out of memory for the PNG writer", path);
     }
     if (setjmp(png_jmpbuf(png))) {
@@ -222,9 +222,6 @@ static pp_status png_encode(FILE *fp, const char *path, const pp_image *img, dou
                  PNG_COLOR_TYPE_GRAY, PNG_INTERLACE_NONE, PNG_COMPRESSION_TYPE_DEFAULT,
                  PNG_FILTER_TYPE_DEFAULT);
     png_write_info(png, pi);
-    row = malloc(2 * img->width);
-    if (!row)
-        png_error(png, "out of memory");
     for (size_t y = 0; y < img->height; y++) {
         const double *src = img->data + y * img->width;
         for (size_t x = 0; x < img->width; x++) {

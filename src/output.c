@@ -84,14 +84,12 @@ static pp_status json_hyper(FILE *f, const char *name, const pp_result *r, size_
 }
 
 /* 50th/99th percentile and maximum of the finite values of a map. */
-static void json_map_percentiles(FILE *f, const char *name, const pp_image *m)
+static pp_status json_map_percentiles(FILE *f, const char *name, const pp_image *m)
 {
     size_t n = pp_image_count(m), k = 0;
     double *v = malloc(n * sizeof *v);
-    if (!v) {
-        fprintf(f, "\"%s\": null", name);
-        return;
-    }
+    if (!v)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the percentiles of the %s map", name);
     for (size_t i = 0; i < n; i++)
         if (isfinite(m->data[i]))
             v[k++] = m->data[i];
@@ -108,11 +106,13 @@ static void json_map_percentiles(FILE *f, const char *name, const pp_image *m)
     }
     fprintf(f, ", \"nonfinite\": %zu}", n - k);
     free(v);
+    return PP_OK;
 }
 
 /* The diagnostics block: every trace column, the pixel maps, thresholds. */
-static void json_diagnostics(FILE *f, const pp_result *r)
+static pp_status json_diagnostics(FILE *f, const pp_result *r)
 {
+    pp_status st = PP_OK;
     const pp_trace *t = &r->trace;
     fputs("  \"diagnostics\": {\n    \"method\": \"rank-normalised split-R-hat, bulk- and "
           "tail-ESS (Vehtari et al. 2021); MCSE = sd/sqrt(ESS)\",\n"
@@ -131,9 +131,11 @@ static void json_diagnostics(FILE *f, const pp_result *r)
     fputs("\n    },\n    \"pixel_maps\": ", f);
     if (r->rhat_map) {
         fputs("{", f);
-        json_map_percentiles(f, "rhat", r->rhat_map);
+        if ((st = json_map_percentiles(f, "rhat", r->rhat_map)) != PP_OK)
+            return st;
         fputs(", ", f);
-        json_map_percentiles(f, "mcse", r->mcse_map);
+        if ((st = json_map_percentiles(f, "mcse", r->mcse_map)) != PP_OK)
+            return st;
         fputs(", \"method\": \"classic split-R-hat of the draws (Rao-Blackwellised where "
               "the sampler has a conditional mean) and batch-means MCSE of the posterior-mean "
               "estimate, over the 2 x chains half-chains\"}",
@@ -142,6 +144,7 @@ static void json_diagnostics(FILE *f, const pp_result *r)
         fputs("null", f);
     }
     fputs("\n  },\n", f);
+    return st;
 }
 
 /* Per-chain acceptance rate (after burn-in) and step of the sampler's
@@ -498,7 +501,8 @@ static pp_status write_summary(const char *path, const pp_result *r, const pp_ru
         json_mtc(f, r);
     if (c->kind == PP_SAMPLER_GIBBS && c->prior.kind == PP_PRIOR_ADAPTIVE)
         json_adaptive(f, r);
-    json_diagnostics(f, r);
+    if (st == PP_OK)
+        st = json_diagnostics(f, r);
     json_convergence(f, r);
     json_sentences(f, "notes", r->notes, r->nnotes);
     fputs(",\n", f);

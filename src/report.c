@@ -317,12 +317,14 @@ static void legend(FILE *f, unsigned chains)
 
 /* The autocorrelation plot of column col; acf has room for maxlag + 1 per
  * chain. */
-static void acf_plot(FILE *f, const pp_trace *t, size_t col, const char *idf, const char *dn,
-                     size_t maxlag, double *acf)
+static pp_status acf_plot(FILE *f, const pp_trace *t, size_t col, const char *idf,
+                          const char *dn, size_t maxlag, double *acf)
 {
     pp_series *sr = calloc(t->chains, sizeof *sr);
+    if (!sr)
+        return pp_fail(PP_ERR_NOMEM, "report: out of memory for the autocorrelation plots");
     size_t ns = 0;
-    for (unsigned c = 0; sr && c < t->chains; c++) {
+    for (unsigned c = 0; c < t->chains; c++) {
         double *out = acf + (size_t)c * (maxlag + 1);
         const double *y = t->values + (size_t)c * t->kept * t->ncols + col;
         if (pp_report_acf(y, t->kept, t->ncols, maxlag, out))
@@ -334,6 +336,7 @@ static void acf_plot(FILE *f, const pp_trace *t, size_t col, const char *idf, co
     pp_plot p = {id, title, "lag (kept draws)", "autocorrelation", 400, 210, sr, ns, 1, -0.2, 1.0};
     pp_report_svg_lines(f, &p);
     free(sr);
+    return PP_OK;
 }
 
 static pp_status trace_pair(page *pg, size_t col, size_t maxlag, double *acf)
@@ -364,9 +367,9 @@ static pp_status trace_pair(page *pg, size_t col, size_t maxlag, double *acf)
     fputs("<div class=\"pair\">\n", f);
     pp_report_svg_lines(f, &p);
     free(sr);
-    acf_plot(f, t, col, idf, dn, maxlag, acf);
+    pp_status st = acf_plot(f, t, col, idf, dn, maxlag, acf);
     fputs("</div>\n", f);
-    return PP_OK;
+    return st;
 }
 
 static pp_status traces_section(page *pg)

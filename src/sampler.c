@@ -244,7 +244,7 @@ static int cmp_double(const void *a, const void *b)
 
 /* Noise sd from the median absolute deviation of horizontal differences
  * (a robust estimate; common practice for smooth, blurred frames); pairs
- * with an unobserved (NaN) pixel are left out. */
+ * with an unobserved (NaN) pixel are left out. -1 when out of memory. */
 static double robust_noise_sd(const pp_image *y)
 {
     size_t rows = pp_image_count(y) / y->width, n = rows * (y->width - 1);
@@ -252,7 +252,7 @@ static double robust_noise_sd(const pp_image *y)
         return 0;
     double *d = malloc(n * sizeof *d);
     if (!d)
-        return 0;
+        return -1;
     size_t k = 0;
     for (size_t r = 0; r < rows; r++)
         for (size_t c = 0; c + 1 < y->width; c++) {
@@ -275,11 +275,13 @@ static double robust_noise_sd(const pp_image *y)
 }
 
 /* Rough lambda and delta for the chains' dispersed starts. */
-static void rough_scales(pp_sampler *s, const pp_image *frame)
+static pp_status rough_scales(pp_sampler *s, const pp_image *frame)
 {
     double lo, hi;
     pp_image_range(frame, &lo, &hi);
     double sd = robust_noise_sd(frame);
+    if (sd == -1)
+        return pp_fail(PP_ERR_NOMEM, "out of memory for the noise estimate of the starts");
     if (!(sd > 0))
         sd = 1e-3 * (hi - lo) + 1e-12;
     s->lambda0 = s->cfg.noise.sigma_set ? 1.0 / (s->cfg.noise.sigma * s->cfg.noise.sigma)
@@ -300,6 +302,7 @@ static void rough_scales(pp_sampler *s, const pp_image *frame)
         signal = 0.1 * qy;
     s->delta0 = s->cfg.prior.delta_set ? s->cfg.prior.delta
                                        : (signal > 0 ? s->rank / signal : 1.0);
+    return PP_OK;
 }
 
 /* The grid: the frame's shape, or with pad the PSF's margin added on every
@@ -588,11 +591,14 @@ pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
         if (s->kernel->prepare)
             st = s->kernel->prepare(s);
     }
+    if (st == PP_OK)
+        st = rough_scales(s, frame);
+    if (st == PP_OK && s->lost_sentence)
+        st = pp_fail(PP_ERR_NOMEM, "out of memory for the sampler's warnings");
     if (st != PP_OK) {
         pp_sampler_free(s);
         return st;
     }
-    rough_scales(s, frame);
     s->nwarn_setup = s->nwarnings;
     /* The chains read the data in one form only: the spectrum (periodic),
      * or the embedded frame from which each chain with latent pixels starts
@@ -1021,6 +1027,8 @@ static pp_status end_run(pp_sampler *s, pp_status res, double t0)
         s->maps_final = 1;
         res = pp_sampler_diagnose(s);
     }
+    if (res == PP_OK && s->lost_sentence)
+        res = pp_fail(PP_ERR_NOMEM, "out of memory for the run's warnings");
     free_moments(s); /* they have served the estimates and the maps */
     return res;
 }

@@ -60,6 +60,7 @@
 #include <math.h>
 #include "internal.h"
 #include "grid.h"
+#include "pp_assert.h"
 #include "padscale.h"
 #include "psfwidth.h"
 #include "sampler_gibbs.h"
@@ -416,6 +417,7 @@ void pp_gibbs_record(const pp_sampler *s, pp_chain *c, const fused_sums *f, doub
     if (regions_hat && s->draw_stats) /* cbuf is free after its c2r */
         pp_chain_draw_stats_hat(s, c, c->cbuf2, c->cbuf, c->rbuf);
     c->condvar_sum += f->cvar;
+    PP_ASSERT(c->kept < s->trace_cap); /* the row is inside this chain's store */
     double *row = c->trace + c->kept * s->trace.ncols;
     row[PP_COL_LAMBDA] = c->lambda;
     row[PP_COL_DELTA] = c->delta;

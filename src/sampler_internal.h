@@ -220,6 +220,8 @@ struct pp_sampler {
     size_t nwarnings;
     char *notes[PP_MAX_NOTES]; /* information about the data, not warnings */
     size_t nnotes;
+    int lost_sentence; /* a warning or note could not be stored (out of memory):
+                        * pp_sampler_create / pp_sampler_run then fail */
     double seconds;
     unsigned long long progress_done;
     int ran;

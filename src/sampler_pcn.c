@@ -118,6 +118,7 @@
 #include "hyper_photon.h"
 #include "incr.h"
 #include "internal.h"
+#include "pp_assert.h"
 #include "quantiles.h"
 #include "sampler_internal.h"
 #include "spectral.h"
@@ -709,6 +710,7 @@ static void record(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *
     pp_moments_add_box(&k->zm, k->z, s->depth, s->height, s->width, s->gw, s->gh * s->gw);
     pp_squant_add_box(&sh->law, c->kstate, k->z, s->depth, s->height, s->width, s->gw,
                       s->gh * s->gw, &k->zm);
+    PP_ASSERT(c->kept < s->trace_cap); /* the row is inside this chain's store */
     double *row = c->trace + c->kept * s->trace.ncols;
     row[PP_COL_LAMBDA] = sh->gauss ? c->lambda : NAN;
     row[PP_COL_DELTA] = c->delta;

@@ -56,9 +56,12 @@ void pp_chain_draw_stats_hat(const pp_sampler *s, pp_chain *c, const pp_complex 
     pp_chain_draw_stats(s, c, out, 1.0 / (double)s->gn);
 }
 
-/* Appends a formatted sentence to a list of at most max (dropped when full
- * or out of memory: a lost sentence must not fail a finished run). */
-static void add_sentence(char **list, size_t *n, size_t max, const char *fmt, va_list ap)
+/* Appends a formatted sentence to a list of at most max (dropped when
+ * full). Out of memory sets *lost: the sampler then fails with
+ * PP_ERR_NOMEM at the end of pp_sampler_create or pp_sampler_run, as a
+ * result must never come without a warning that qualifies it. */
+static void add_sentence(char **list, size_t *n, size_t max, int *lost, const char *fmt,
+                         va_list ap)
 {
     if (*n == max)
         return;
@@ -67,6 +70,8 @@ static void add_sentence(char **list, size_t *n, size_t max, const char *fmt, va
     list[*n] = strdup(buf);
     if (list[*n])
         ++*n;
+    else
+        *lost = 1;
 }
 
 void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
@@ -75,7 +80,7 @@ void pp_sampler_warn(pp_sampler *s, const char *fmt, ...)
     va_start(ap, fmt);
     if (s->nwarnings < PP_MAX_WARNINGS)
         s->warning_part[s->nwarnings] = PP_WARN_OTHER;
-    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
+    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, &s->lost_sentence, fmt, ap);
     va_end(ap);
 }
 
@@ -85,7 +90,7 @@ void pp_sampler_warn_part(pp_sampler *s, pp_warning_part part, const char *fmt, 
     va_start(ap, fmt);
     if (s->nwarnings < PP_MAX_WARNINGS)
         s->warning_part[s->nwarnings] = part;
-    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, fmt, ap);
+    add_sentence(s->warnings, &s->nwarnings, PP_MAX_WARNINGS, &s->lost_sentence, fmt, ap);
     va_end(ap);
 }
 
@@ -93,7 +98,7 @@ void pp_sampler_add_note(pp_sampler *s, const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
-    add_sentence(s->notes, &s->nnotes, PP_MAX_NOTES, fmt, ap);
+    add_sentence(s->notes, &s->nnotes, PP_MAX_NOTES, &s->lost_sentence, fmt, ap);
     va_end(ap);
 }
 

@@ -5,6 +5,7 @@
 #include <stdlib.h>
 #include "internal.h"
 #include "stats.h"
+#include "pp_assert.h"
 
 pp_status pp_moments_init(pp_moments *m, size_t len)
 {
@@ -29,6 +30,8 @@ void pp_moments_free(pp_moments *m)
 void pp_moments_add_box(pp_moments *m, const double *x, size_t slices, size_t rows,
                         size_t cols, size_t stride, size_t slice_stride)
 {
+    PP_ASSERT(slices * rows * cols == m->len); /* the box is the moments' shape */
+    PP_ASSERT(cols <= stride || rows == 1);
     m->count++;
     double inv = 1.0 / (double)m->count;
     for (size_t z = 0; z < slices; z++)
@@ -55,6 +58,7 @@ void pp_moments_merge(pp_moments *acc, const pp_moments *o)
 {
     if (o->count == 0)
         return;
+    PP_ASSERT(acc->len == o->len); /* moments of the same quantity */
     double na = (double)acc->count, nb = (double)o->count, n = na + nb;
     for (size_t i = 0; i < acc->len; i++) {
         double d = o->mean[i] - acc->mean[i];
