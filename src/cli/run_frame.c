@@ -18,6 +18,7 @@
  */
 #include "cli.h"
 #include "pixpost/output.h"
+#include "pixpost/report.h"
 #include "pixpost/stack.h"
 #include <errno.h>
 #include <signal.h>
@@ -385,6 +386,15 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
         ri.noise_spec = na->noise_text;
         if (na->prior_text[0])
             ri.prior_spec = na->prior_text;
+    }
+    pp_report_regions rg = {.regions = r->regions, .pairs = o->compare,
+                            .npairs = r->regions ? o->ncompare : 0, .profiles = r->profiles};
+    if (r->regions || r->profiles) { /* the report shows them (report_regions.c) */
+        const pp_trace *tr = pp_sampler_trace(r->sampler);
+        rg.draws = pp_sampler_region_draws(r->sampler, &rg.cap, &rg.stride);
+        rg.chains = tr->chains;
+        rg.kept = tr->kept;
+        ri.regions = &rg;
     }
     pp_result res;
     if ((st = pp_sampler_result(r->sampler, &res)) == PP_OK)
