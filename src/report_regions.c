@@ -159,7 +159,7 @@ static pp_status profile_plot(FILE *f, const pp_report_input *in, const pp_repor
 {
     const pp_profiles *p = g->profiles;
     size_t n = pp_profiles_line_points(p, k), first = pp_profiles_line_first(p, k);
-    size_t off = g->stride - pp_profiles_points(p); /* after the regions' totals */
+    size_t off = g->regions ? pp_regions_count(g->regions) : 0; /* after the regions' totals */
     double *v = malloc(3 * n * sizeof *v);
     if (!v)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the report's profiles");

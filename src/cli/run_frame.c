@@ -19,6 +19,7 @@
 #include "cli.h"
 #include "pixpost/output.h"
 #include "pixpost/report.h"
+#include "pixpost/spots.h"
 #include "pixpost/stack.h"
 #include <errno.h>
 #include <signal.h>
@@ -334,6 +335,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     }
     cfg.regions = r->regions;
     cfg.profiles = r->profiles;
+    cfg.spots = r->spots;
     cfg.above = o->above;
     cfg.nabove = o->nabove;
     for (int i = 0; i < 3; i++) /* {z, y, x} micrometres; 0 unknown (NaN here) */
@@ -405,6 +407,8 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     rc = cli_regions_write(o, r);
     if (!rc)
         rc = cli_profiles_write(r);
+    if (!rc)
+        rc = cli_spots_write(r);
     return rc ? rc : cli_maps_write(o, r);
 }
 
@@ -423,11 +427,14 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     cli_noise_auto na;
     r->regions = NULL;
     r->profiles = NULL;
+    r->spots = NULL;
     int rc = read_frame(o, r, &frame);
     if (!rc)
         rc = cli_regions_load(o, r, frame);
     if (!rc)
         rc = cli_profiles_load(o, r, frame);
+    if (!rc)
+        rc = cli_spots_load(o, r, frame);
     if (!rc)
         rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
     if (!rc)
@@ -446,7 +453,9 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     pp_image_free(frame);
     pp_regions_free(r->regions); /* the sampler has run: it reads them no more */
     pp_profiles_free(r->profiles);
+    pp_spots_free(r->spots);
     r->regions = NULL;
     r->profiles = NULL;
+    r->spots = NULL;
     return rc;
 }
