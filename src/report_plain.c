@@ -32,6 +32,11 @@ void pp_report_plain(FILE *f, const char *key, double level, int volume)
               "brightness plausibly lies in under the model; a comparison says how sure the "
               "model is that one region is brighter than another. ",
               f);
+    else if (strcmp(key, "spots") == 0)
+        fputs("For each bright spot found in the data, the probability that it is really "
+              "brighter than the ring of pixels around it, under the model: near 1 a real "
+              "peak, near 0.5 the data cannot tell. ",
+              f);
     else if (strcmp(key, "profile") == 0)
         fputs("The brightness along the line drawn on the mean image: the line is the best "
               "guess, the shaded band the range it plausibly lies in under the model. ",

@@ -24,13 +24,17 @@ const char PP_REPORT_REGIONS_CSS[] =
     "svg.regions line{stroke:#ff4fd8;stroke-width:2px;vector-effect:non-scaling-stroke}\n"
     "svg.regions text.pline{fill:#ff9be9}\n"
     "svg .band{fill:#9db8e6;fill-opacity:0.55;stroke:none}svg .mid{stroke-width:1.6}\n"
+    "svg.regions .spot circle{fill:none;stroke-width:1.5px;vector-effect:non-scaling-stroke}"
+    "svg.regions .spot.real circle{stroke:#4dff88}svg.regions .spot.unsure circle"
+    "{stroke:#4dff88;stroke-dasharray:2 2;stroke-opacity:0.6}"
+    "svg.regions .spot text{fill:#8dffb0;font-size:0.8em}\n"
     "#regions td.warn,#compare-table td.warn{background:#fbe3d6}\n";
 
 /* The region data when there is something to show, else NULL. */
 static const pp_report_regions *shown(const pp_report_input *in)
 {
     const pp_report_regions *g = in->regions;
-    if (!g || (!g->regions && !g->profiles) || !g->draws || g->kept < 2 || !g->chains)
+    if (!g || (!g->regions && !g->profiles && !g->spots) || !g->draws || g->kept < 2 || !g->chains)
         return NULL;
     return g;
 }
@@ -196,6 +200,55 @@ static pp_status profile_plot(FILE *f, const pp_report_input *in, const pp_repor
     return PP_OK;
 }
 
+/* P(C > 0) of spot k: the share of draws with a positive contrast. */
+static double spot_p(const pp_report_regions *g, size_t k)
+{
+    size_t off = g->stride - pp_spots_count(g->spots), n = 0;
+    for (size_t c = 0; c < g->chains; c++)
+        for (size_t i = 0; i < g->kept; i++)
+            n += g->draws[(c * g->cap + i) * g->stride + off + k] > 0;
+    return (double)n / (double)(g->chains * g->kept);
+}
+
+static pp_status spot_table(FILE *f, const pp_report_input *in, const pp_report_regions *g,
+                            double *x, double ess_min)
+{
+    const pp_spots *sp = g->spots;
+    size_t n = pp_spots_count(sp), off = g->stride - n, flagged = 0, real = 0;
+    fputs("<h3>Spots</h3>\n<p>", f);
+    pp_report_plain(f, "spots", in->level, 0);
+    fprintf(f,
+            "Candidates: the local maxima of the input frame (3&times;3 box mean) that stand "
+            "above the ring of pixels %g from them; contrast C = centre &minus; ring mean in "
+            "every kept draw (spots.csv; README, &ldquo;Regions, profiles and probability "
+            "maps&rdquo;). Marked on the mean image: a circle of the ring's radius and the "
+            "spot's number where P(C &gt; 0) &ge; 0.95, a small dashed circle elsewhere.</p>\n",
+            pp_spots_radius(sp));
+    if (!n) {
+        fputs("<p id=\"spots-none\">No candidate spot in this frame.</p>\n", f);
+        return PP_OK;
+    }
+    fprintf(f, "<table id=\"spots-table\">\n<tr><th>spot</th><th>row, column</th>"
+               "<th>P(C &gt; 0)</th>%s", HEAD_CELLS);
+    for (size_t k = 0; k < n; k++) {
+        pp_series_summary m;
+        gather(g, off + k, 1.0, x);
+        pp_status st = pp_series_summarise(x, g->chains, g->kept, in->level, &m);
+        if (st != PP_OK)
+            return st;
+        double p = spot_p(g, k);
+        real += p >= 0.95;
+        fprintf(f, "<tr class=\"spot\" data-spot=\"%zu\"><td>%zu</td><td>%zu, %zu</td>"
+                   "<td class=\"num\">%.4g</td>",
+                k + 1, k + 1, pp_spots_row(sp, k), pp_spots_col(sp, k), p);
+        flagged += summary_cells(f, &m, ess_min, 1);
+        fputs("</tr>\n", f);
+    }
+    fprintf(f, "</table>\n<p id=\"spots-count\">%zu of %zu candidates with P(C &gt; 0) "
+               "&ge; 0.95; %zu rows flagged.</p>\n", real, n, flagged);
+    return PP_OK;
+}
+
 pp_status pp_report_regions_section(FILE *f, const pp_report_input *in)
 {
     const pp_report_regions *g = shown(in);
@@ -225,6 +278,8 @@ pp_status pp_report_regions_section(FILE *f, const pp_report_input *in)
         if (st == PP_OK)
             fprintf(f, "<p id=\"regions-count\">%zu of %zu rows flagged.</p>\n", flagged, rows);
     }
+    if (g->spots && st == PP_OK)
+        st = spot_table(f, in, g, x, ess_min);
     if (g->profiles && st == PP_OK) {
         fputs("<div class=\"plots\">\n", f);
         for (size_t k = 0; k < pp_profiles_lines(g->profiles) && st == PP_OK; k++)
@@ -247,13 +302,17 @@ void pp_report_regions_marks(FILE *f, const pp_report_input *in, size_t w, size_
     const pp_profiles *p = g->profiles;
     if (p && !pp_profiles_fit(p, h, w))
         p = NULL;
-    if (!r && !p)
+    const pp_spots *sp = g->spots;
+    if (sp && !pp_spots_fit(sp, h, w))
+        sp = NULL;
+    if (!r && !p && !sp)
         return;
     double u = (double)w / 100.0; /* as the probe marks (src/report_marks.c) */
     fprintf(f,
             "<svg class=\"marks regions\" id=\"mean-regions\" viewBox=\"0 0 %zu %zu\" "
-            "preserveAspectRatio=\"none\" style=\"font-size:%.2fpx\" aria-hidden=\"true\">\n",
-            w, h, 2.6 * u);
+            "preserveAspectRatio=\"none\" style=\"font-size:%.2fpx;stroke-width:%.2fpx\" "
+            "aria-hidden=\"true\">\n",
+            w, h, 2.6 * u, 0.6 * u);
     size_t nr = r ? pp_regions_count(r) : 0;
     double *cen = nr ? calloc(3 * nr, sizeof *cen) : NULL;
     if (r) {
@@ -298,6 +357,19 @@ void pp_report_regions_marks(FILE *f, const pp_report_input *in, size_t w, size_
                 "text-anchor=\"middle\">P%zu</text>\n",
                 k + 1, c0 + 0.5, r0 + 0.5, c1 + 0.5, r1 + 0.5, c0 + 0.5,
                 r0 + 0.5 < 4 * u ? r0 + 0.5 + 3.2 * u : r0 + 0.5 - 1.2 * u, k + 1);
+    }
+    for (size_t k = 0; sp && k < pp_spots_count(sp); k++) {
+        double pr = spot_p(g, k), cx = (double)pp_spots_col(sp, k) + 0.5,
+               cy = (double)pp_spots_row(sp, k) + 0.5, rad = pp_spots_radius(sp);
+        int real = pr >= 0.95; /* the others: a small dashed circle, no number */
+        fprintf(f,
+                "<g class=\"spot %s\" data-spot=\"%zu\" data-p=\"%.4g\"><circle cx=\"%.2f\" "
+                "cy=\"%.2f\" r=\"%.2f\"/>",
+                real ? "real" : "unsure", k + 1, pr, cx, cy, real ? rad : 0.6);
+        if (real)
+            fprintf(f, "<text x=\"%.2f\" y=\"%.2f\">%zu</text>", cx + 0.75 * rad,
+                    cy - 0.75 * rad, k + 1);
+        fputs("</g>\n", f);
     }
     fputs("</svg>", f);
 }

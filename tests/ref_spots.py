@@ -19,11 +19,13 @@ closed-form P; 4.5 sigma keeps a false failure unlikely over ~100 spots
 independent draws, ESS ~ the number of draws.
 Then: a frame with beads gives P > 0.99 at every candidate within 1 pixel
 of a bead's centre; a frame of pure noise gives far fewer P > 0.95 (the
-share is printed). Bad --spots values exit 1 naming --spots.
+share is printed). report.html lists and marks every spot with spots.csv's
+P. Bad --spots values exit 1 naming --spots.
 """
 import csv
 import math
 import os
+import re
 
 import numpy as np
 import tifffile
@@ -117,6 +119,19 @@ def run(name, truth, seed):
     pptest.check(not bad, "%s: every spot's contrast mean, sd and P(C > 0) agree with the "
                           "closed form within 4.5 Monte Carlo errors (failures %s)"
                  % (name, bad[:4]))
+    # the report: one table row and one mark per spot, P(C > 0) as in spots.csv
+    with open(os.path.join(out, "report.html")) as fh:
+        html = fh.read()
+    tp = re.findall(r'<tr class="spot" data-spot="(\d+)"><td>\d+</td><td>(\d+), (\d+)</td>'
+                    r'<td class="num">([^<]+)</td>', html)
+    marks = re.findall(r'<g class="spot (real|unsure)" data-spot="(\d+)" data-p="([^"]+)">', html)
+    ok = len(tp) == len(rows) == len(marks) and all(
+        (int(a), int(b)) == (int(r["row"]), int(r["col"])) and
+        abs(float(pv) - float("%.4g" % float(r["p_real"]))) < 1e-9 and
+        (cls == "real") == (float(r["p_real"]) >= 0.95)
+        for (_, a, b, pv), (cls, _, _), r in zip(tp, marks, rows))
+    pptest.check(ok, "%s: report.html has one row and one mark per spot, with spots.csv's "
+                     "place and P (marks solid exactly when P >= 0.95)" % name)
     return ps
 
 

@@ -41,6 +41,7 @@
 #include "pixpost/image.h"
 #include "pixpost/profiles.h"
 #include "pixpost/regions.h"
+#include "pixpost/spots.h"
 #include "pixpost/sampler.h"
 #include <stddef.h>
 
@@ -60,6 +61,7 @@ typedef struct pp_report_regions {
     const pp_region_pair *pairs; /* comparisons of two regions' means */
     size_t npairs;
     const pp_profiles *profiles; /* NULL: none */
+    const pp_spots *spots;       /* NULL: none; their contrasts come last */
     const double *draws;
     size_t chains, kept, cap, stride;
 } pp_report_regions;
@@ -122,12 +124,12 @@ typedef struct pp_report_input {
      * include/pixpost/setting.h, e.g. a command line's flags: "--boundary
      * pad", "--strict"; NULL: the library's words). */
     const char *const *setting_names;
-    /* Regions and profiles (NULL: none): a section "Regions and profiles"
-     * (id "regions") after the images, with the posterior of every
-     * region's total and mean, of the comparisons, and a plot of every
-     * profile (mean and credible band at level), rows flagged as the
-     * diagnostics table's; the outlines, labels and lines over the mean
-     * image of a frame. */
+    /* Regions, profiles and spots (NULL: none): a section "Regions and
+     * profiles" (id "regions") after the images, with the posterior of
+     * every region's total and mean, of the comparisons, a plot of every
+     * profile (mean and credible band at level) and the spots' contrasts
+     * and P(contrast > 0), rows flagged as the diagnostics table's; the
+     * outlines, labels, lines and spots over the mean image of a frame. */
     const pp_report_regions *regions;
 } pp_report_input;
 

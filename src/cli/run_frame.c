@@ -390,8 +390,9 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
             ri.prior_spec = na->prior_text;
     }
     pp_report_regions rg = {.regions = r->regions, .pairs = o->compare,
-                            .npairs = r->regions ? o->ncompare : 0, .profiles = r->profiles};
-    if (r->regions || r->profiles) { /* the report shows them (report_regions.c) */
+                            .npairs = r->regions ? o->ncompare : 0, .profiles = r->profiles,
+                            .spots = r->spots};
+    if (r->regions || r->profiles || r->spots) { /* the report shows them (report_regions.c) */
         const pp_trace *tr = pp_sampler_trace(r->sampler);
         rg.draws = pp_sampler_region_draws(r->sampler, &rg.cap, &rg.stride);
         rg.chains = tr->chains;
