@@ -18,13 +18,14 @@
  * P(C > 0), are exact Monte Carlo from the draws. At most PP_SPOTS_MAX
  * candidates are kept, those of largest pilot contrast.
  *
- * What this follows: the local maximum plus a background annulus is the
- * classical spot test (a maximum kept when its intensity exceeds the local
- * background measured around it), compared with other detectors by Smal,
- * Loog, Niessen and Meijering, "Quantitative comparison of spot detection
- * methods in fluorescence microscopy", IEEE Trans. Med. Imaging 29(2),
- * 2010 (from memory; the abstract was read, not the paper's exact
- * formulas). Those methods threshold the contrast of one image; here the
+ * What this follows: a local maximum tested against the local background
+ * measured around it is the classical family of spot detectors compared
+ * by Smal, Loog, Niessen and Meijering, "Quantitative comparison of spot
+ * detection methods in fluorescence microscopy", IEEE Trans. Med. Imaging
+ * 29(2), 2010, and reviewed by Mabaso, Withey and Twala, Image Anal.
+ * Stereol. 37 (2018) 173-190. Read: their abstracts only; the one-pixel
+ * ring as the background is from memory (common practice), not a formula
+ * of either paper. Those methods threshold the contrast of one image; here the
  * contrast of every posterior draw is kept, so the threshold is replaced by
  * the posterior probability P(C > 0) under the model (the noise, PSF and
  * prior of the run). P(C > 0) near 1: the peak stands above its ring in
