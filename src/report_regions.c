@@ -260,7 +260,8 @@ pp_status pp_report_regions_section(FILE *f, const pp_report_input *in)
     double *x = malloc(g->chains * g->kept * sizeof *x);
     if (!x)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the report's regions");
-    fputs("<section id=\"regions\"><h2>Regions and profiles</h2>\n", f);
+    fprintf(f, "<section id=\"regions\"><h2>%s</h2>\n",
+            g->spots ? "Regions, profiles and spots" : "Regions and profiles");
     pp_status st = PP_OK;
     size_t flagged = 0, rows = 0;
     if (g->regions) {
