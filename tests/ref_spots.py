@@ -20,7 +20,8 @@ independent draws, ESS ~ the number of draws.
 Then: a frame with beads gives P > 0.99 at every candidate within 1 pixel
 of a bead's centre; a frame of pure noise gives far fewer P > 0.95 (the
 share is printed). report.html lists and marks every spot with spots.csv's
-P. Bad --spots values exit 1 naming --spots.
+P. With --mask the candidates again equal numpy's (no unobserved pixel is
+a candidate or in a ring). Bad --spots values exit 1 naming --spots.
 """
 import csv
 import math
@@ -29,11 +30,13 @@ import re
 
 import numpy as np
 import tifffile
+import warnings
 from scipy import ndimage
 from scipy.stats import norm
 
 import pptest
 
+warnings.filterwarnings("ignore", "Mean of empty slice")  # nanmean of an all-NaN box: NaN, as wanted
 tmp = pptest.tmpdir()
 H = W = 40
 N = H * W
@@ -152,6 +155,51 @@ print("pure noise: %d candidates, median P(C > 0) %.3f, share above 0.95 %.3f"
 pptest.check(len(ps0) > 10 and share < 0.2,
              "pure noise: few candidates are called real (share with P > 0.95 = %.3f < 0.2)"
              % share)
+
+# unobserved pixels (--mask): never candidates, left out of the pilot's box means and the rings
+mask = np.zeros((H, W), np.uint8)
+mask[8:14, 20:27] = 1
+mask[30, :] = 1
+tifffile.imwrite(os.path.join(tmp, "mask.tif"), mask)
+ym = tifffile.imread(os.path.join(tmp, "beads_y.tif")).astype(np.float64)
+ym[mask > 0] = np.nan
+outm = os.path.join(tmp, "masked")
+pptest.run(["sample", os.path.join(tmp, "beads_y.tif"), "--mask", os.path.join(tmp, "mask.tif"),
+            "--psf", "gaussian:sigma=1.3", "--noise", "gaussian:sigma=%g" % SIG, "--prior",
+            "gmrf1:delta=%g" % DLT, "--boundary", "periodic", "--sampler", "gibbs", "--chains",
+            "2", "--burn", "10", "--iters", "100", "--seed", "3", "--spots", "%g" % R, "--quiet",
+            "-o", outm])
+with open(os.path.join(outm, "spots.csv")) as fh:
+    mrows = list(csv.DictReader(fh))
+
+
+def candidates_masked(y):
+    pilot = ndimage.generic_filter(y, np.nanmean, size=3, mode="constant", cval=np.nan)
+    pilot[np.isnan(y)] = np.nan
+    out = []
+    offs = ring_offsets(R)
+    for r in range(H):
+        for c in range(W):
+            v = pilot[r, c]
+            if np.isnan(v):
+                continue
+            ok = all(not (pilot[r + dr, c + dc] > v or (pilot[r + dr, c + dc] == v and
+                                                         (dr < 0 or (dr == 0 and dc < 0))))
+                     for dr in (-1, 0, 1) for dc in (-1, 0, 1)
+                     if (dr, dc) != (0, 0) and 0 <= r + dr < H and 0 <= c + dc < W)
+            ring = [(r + a, c + b) for a, b in offs if 0 <= r + a < H and 0 <= c + b < W
+                    and not np.isnan(pilot[r + a, c + b])]
+            if ok and ring and v - np.mean([pilot[i, j] for i, j in ring]) > 0:
+                out.append((-(v - np.mean([pilot[i, j] for i, j in ring])), r, c, len(ring)))
+    out.sort(key=lambda t: (t[0], t[1], t[2]))
+    return out[:256]
+
+
+cm = candidates_masked(ym)
+pptest.check([(int(r["row"]), int(r["col"]), int(r["ring_pixels"])) for r in mrows]
+             == [(t[1], t[2], t[3]) for t in cm] and not any(mask[t[1], t[2]] for t in cm),
+             "masked frame: spots.csv lists numpy's %d candidates (none on an unobserved pixel, "
+             "rings without them; %d rows)" % (len(cm), len(mrows)))
 
 for bad in ["0", "x", "60"]:
     pr = pptest.run(["sample", os.path.join(tmp, "noise_y.tif"), "--psf", "gaussian:sigma=1.3",
