@@ -222,8 +222,11 @@ static pp_status spot_table(FILE *f, const pp_report_input *in, const pp_report_
             "above the ring of pixels %g from them; contrast C = centre &minus; ring mean in "
             "every kept draw (spots.csv; README, &ldquo;Regions, profiles and probability "
             "maps&rdquo;). Marked on the mean image: a circle of the ring's radius and the "
-            "spot's number where P(C &gt; 0) &ge; 0.95, a small dashed circle elsewhere.</p>\n",
+            "spot's number where P(C &gt; 0) &ge; 0.95, a small dashed circle elsewhere. The "
+            "columns after P(C &gt; 0) describe the contrast C, in ",
             pp_spots_radius(sp));
+    pp_report_escape(f, in->units ? in->units : "input units");
+    fputs(".</p>\n", f);
     if (!n) {
         fputs("<p id=\"spots-none\">No candidate spot in this frame.</p>\n", f);
         return PP_OK;
