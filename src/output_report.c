@@ -103,6 +103,7 @@ pp_status pp_output_report(const char *path, const pp_result *r, const pp_image 
     in.nscalars = r->trace.ncols;
     in.chains = c->chains;
     in.setting_names = c->setting_names;
+    in.regions = info ? info->regions : NULL;
     in.settings_keys = key;
     in.settings_values = vals;
     in.nsettings = nset;

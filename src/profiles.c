@@ -97,6 +97,12 @@ size_t pp_profiles_lines(const pp_profiles *p) { return p->nlines; }
 size_t pp_profiles_points(const pp_profiles *p) { return p->npts; }
 size_t pp_profiles_line_points(const pp_profiles *p, size_t k) { return p->count[k]; }
 size_t pp_profiles_line_first(const pp_profiles *p, size_t k) { return p->first[k]; }
+void pp_profiles_point(const pp_profiles *p, size_t j, double *row, double *col, double *dist)
+{
+    *row = p->pt[j].r;
+    *col = p->pt[j].c;
+    *dist = p->pt[j].dist;
+}
 int pp_profiles_fit(const pp_profiles *p, size_t height, size_t width)
 {
     return p->height == height && p->width == width;

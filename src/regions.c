@@ -105,6 +105,8 @@ int pp_regions_fit(const pp_regions *r, size_t depth, size_t height, size_t widt
     return r->depth == depth && r->height == height && r->width == width;
 }
 
+long pp_regions_at(const pp_regions *r, size_t i) { return (long)r->of[i] - 1; }
+
 long pp_regions_find(const pp_regions *r, long label)
 {
     size_t lo = 0, hi = r->n;

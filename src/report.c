@@ -20,8 +20,6 @@
 #define PIXPOST_VERSION "unknown"
 #endif
 
-#define RHAT_MAX 1.01 /* Vehtari et al. 2021, section 4 (from memory) */
-#define ESS_PER_CHAIN 100.0
 
 static const char CAUTIONS[] =
     "A reconstruction is a model-based estimate. Its error bars hold only under the stated "
@@ -167,6 +165,8 @@ static pp_status figure_image(page *pg, const char *key, const pp_image *img, co
     char id[64];
     snprintf(id, sizeof id, "%s-marks", key);
     pp_report_marks(pg->f, id, img->width, img->height, pg->in->trace, pixel_um(pg->in), 0.0);
+    if (strcmp(key, "mean") == 0)
+        pp_report_regions_marks(pg->f, pg->in, img->width, img->height);
     fputs("</div>\n", pg->f);
     return PP_OK;
 }
@@ -463,7 +463,7 @@ static void diagnostics_section(page *pg)
 {
     const pp_report_input *in = pg->in;
     FILE *f = pg->f;
-    double ess_min = ESS_PER_CHAIN * pg->chains;
+    double ess_min = PP_REPORT_ESS_PER_CHAIN * pg->chains;
     fprintf(f,
             "<section id=\"diagnostics\"><h2>Convergence diagnostics</h2>\n"
             "<p>Rank-normalised split-R&#770;, bulk and tail effective sample sizes (ESS) "
@@ -471,7 +471,7 @@ static void diagnostics_section(page *pg)
             "R&#770; &gt; %.2f, or ESS &lt; %.0f per chain (here &lt; %.0f for %u "
             "chains). These thresholds are common practice (Vehtari et al., Bayesian "
             "Analysis 2021).</p>\n",
-            RHAT_MAX, ESS_PER_CHAIN, ess_min, pg->chains);
+            PP_REPORT_RHAT_MAX, PP_REPORT_ESS_PER_CHAIN, ess_min, pg->chains);
     if (in->nscalars == 0) {
         fputs("<p id=\"diag-none\">Diagnostics were not computed for this run.</p></section>\n", f);
         return;
@@ -482,7 +482,7 @@ static void diagnostics_section(page *pg)
           f);
     for (size_t i = 0; i < in->nscalars; i++) {
         const pp_report_scalar *s = &in->scalars[i];
-        int wr = s->rhat > RHAT_MAX, wb = s->ess_bulk < ess_min, wt = s->ess_tail < ess_min;
+        int wr = s->rhat > PP_REPORT_RHAT_MAX, wb = s->ess_bulk < ess_min, wt = s->ess_tail < ess_min;
         flagged += wr || wb || wt;
         fputs("<tr><td>", f);
         pp_report_escape(f, s->name);
@@ -528,9 +528,10 @@ static void head(page *pg, const char *title)
     pp_report_escape(f, title);
     const pp_image *any = pg->in->frame ? pg->in->frame : pg->in->mean;
     fprintf(f,
-            "</title>\n<style>\n%s%s</style>\n</head>\n<body>\n<header>\n"
+            "</title>\n<style>\n%s%s%s</style>\n</head>\n<body>\n<header>\n"
             "<h1>Posterior reconstruction report</h1>\n<p class=\"sub\" id=\"title\">",
-            CSS, first_image(pg->in) && first_image(pg->in)->depth > 1 ? PP_REPORT_VOLUME_CSS : "");
+            CSS, first_image(pg->in) && first_image(pg->in)->depth > 1 ? PP_REPORT_VOLUME_CSS : "",
+            pg->in->regions ? PP_REPORT_REGIONS_CSS : "");
     pp_report_escape(f, title);
     if (any && any->depth > 1)
         fprintf(f, " &middot; %zu&times;%zu&times;%zu voxels (x, y, z)", any->width, any->height,
@@ -548,11 +549,12 @@ static void head(page *pg, const char *title)
     int warn_first = pg->in->nwarnings > 0;
     int checks = pg->in->residual || pg->in->checks_summary || pg->in->nchecks;
     fprintf(f,
-            "</p>\n<nav>%s%s<a href=\"#images\">images</a><a href=\"#traces\">traces</a>"
+            "</p>\n<nav>%s%s<a href=\"#images\">images</a>%s<a href=\"#traces\">traces</a>"
             "<a href=\"#histograms\">hyperparameters</a><a href=\"#diagnostics\">diagnostics</a>"
             "<a href=\"#settings\">settings</a>%s<a href=\"#cautions\">cautions</a></nav>\n",
             warn_first ? "<a href=\"#warnings\">warnings</a>" : "",
             checks ? "<a href=\"#checks\">checks</a>" : "",
+            pg->in->regions ? "<a href=\"#regions\">regions</a>" : "",
             warn_first ? "" : "<a href=\"#warnings\">warnings</a>");
     pp_report_verdict_banner(f, pg->in);
     fputs("</header>\n", f);
@@ -622,6 +624,8 @@ pp_status pp_report_write(const char *path, const pp_report_input *in)
         pp_report_warnings_section(pg.f, in);
     pp_report_checks_section(pg.f, in);
     st = images_section(&pg);
+    if (st == PP_OK)
+        st = pp_report_regions_section(pg.f, in);
     if (st == PP_OK)
         st = traces_section(&pg);
     if (st == PP_OK) {

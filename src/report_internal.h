@@ -12,6 +12,12 @@
 #include <stddef.h>
 #include <stdio.h>
 
+/* The flags of the diagnostics tables: R-hat above PP_REPORT_RHAT_MAX
+ * (Vehtari et al. 2021, section 4, from memory) or an ESS below
+ * PP_REPORT_ESS_PER_CHAIN per chain (common practice). */
+#define PP_REPORT_RHAT_MAX 1.01
+#define PP_REPORT_ESS_PER_CHAIN 100.0
+
 /* ---- Text (src/report_escape.c) ----------------------------------------- */
 /* Writes s HTML-escaped (& < > " ' as entities; invalid UTF-8 bytes and
  * control characters other than tab and newline as U+FFFD). NULL: nothing. */
@@ -48,6 +54,19 @@ void pp_report_marks(FILE *f, const char *id, size_t w, size_t h, const struct p
 /* The scale bar's length in um for an image w pixels of pixel_um wide: the
  * largest 1, 2 or 5 x 10^k not above w * pixel_um / 5. */
 double pp_report_bar_um(size_t w, double pixel_um);
+
+/* ---- Regions and profiles (src/report_regions.c) ----------------------- */
+/* The section "regions" (nothing when in->regions is NULL or holds neither
+ * regions nor profiles): the table of the regions' totals and means and
+ * of the comparisons, then one plot per profile. PP_ERR_NOMEM. */
+pp_status pp_report_regions_section(FILE *f, const struct pp_report_input *in);
+/* An SVG over a frame's mean image (w x h): each region's outline and
+ * label at its centroid, each profile's line and number (nothing when
+ * in->regions is NULL or the regions were planned for another size). */
+void pp_report_regions_marks(FILE *f, const struct pp_report_input *in, size_t w, size_t h);
+/* The CSS rules of the section and the marks (the page's <style> gains
+ * them when in->regions is given). */
+extern const char PP_REPORT_REGIONS_CSS[];
 
 /* ---- Checks of the data and the fit (src/report_checks.c) -------------- */
 /* The section "checks": the predictive check's figures, the checks'
@@ -92,6 +111,11 @@ typedef struct pp_plot {
     double y_floor, y_ceil; /* NAN: from the data */
 } pp_plot;
 void pp_report_svg_lines(FILE *f, const pp_plot *p);
+
+/* A line with a shaded band: p's first series (no decimation: meant for
+ * profiles of up to a few thousand points) over the band lo[i]..hi[i]
+ * (i < that series' n, at its x), the y axis covering both. */
+void pp_report_svg_band(FILE *f, const pp_plot *p, const double *lo, const double *hi);
 
 /* Histogram of y[i * stride], i < n (non-finite values skipped), with
  * clamp(ceil(sqrt(n)), 10, 50) equal bins. */

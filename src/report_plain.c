@@ -27,6 +27,20 @@ void pp_report_plain(FILE *f, const char *key, double level, int volume)
                 "The range in which the sharp image's value lies with %.4g%% probability at "
                 "each %s, under the model: a wide range means an uncertain value.",
                 100.0 * level, px);
+    else if (strcmp(key, "regions") == 0)
+        fputs("How bright each outlined region is in the reconstruction, with the range its "
+              "brightness plausibly lies in under the model; a comparison says how sure the "
+              "model is that one region is brighter than another. ",
+              f);
+    else if (strcmp(key, "spots") == 0)
+        fputs("For each bright spot found in the data, the probability that it is really "
+              "brighter than the ring of pixels around it, under the model: near 1 a real "
+              "peak, near 0.5 the data cannot tell. ",
+              f);
+    else if (strcmp(key, "profile") == 0)
+        fputs("The brightness along the line drawn on the mean image: the line is the best "
+              "guess, the shaded band the range it plausibly lies in under the model. ",
+              f);
     else if (strcmp(key, "residual") == 0)
         fputs("What the reconstruction leaves unexplained in the data, in units of the "
               "expected noise: plain speckle when the model fits; shapes of objects here "

@@ -235,6 +235,39 @@ void pp_report_svg_lines(FILE *f, const pp_plot *p)
     fputs("</svg>\n", f);
 }
 
+void pp_report_svg_band(FILE *f, const pp_plot *p, const double *lo, const double *hi)
+{
+    const pp_series *q = &p->series[0];
+    double xlo, xhi, ylo, yhi;
+    if (!series_range(p, &xlo, &xhi, &ylo, &yhi)) {
+        xlo = ylo = 0;
+        xhi = yhi = 1;
+    }
+    for (size_t i = 0; i < q->n; i++) {
+        if (isfinite(lo[i]))
+            ylo = fmin(ylo, lo[i]);
+        if (isfinite(hi[i]))
+            yhi = fmax(yhi, hi[i]);
+    }
+    frame fr;
+    plot_frame(p->width, p->height, &fr);
+    pp_report_ticks(xlo, xhi, 6, &fr.tx);
+    pp_report_ticks(ylo, yhi, 5, &fr.ty);
+    svg_axes(f, p->id, p->width, p->height, &fr, p->title, p->xlabel, p->ylabel);
+    fputs("<polygon class=\"band\" points=\"", f);
+    for (size_t i = 0; i < q->n; i++)
+        if (isfinite(lo[i]))
+            fprintf(f, "%.1f,%.1f ", px(&fr, q->x0 + (double)i * q->dx), py(&fr, lo[i]));
+    for (size_t i = q->n; i-- > 0;)
+        if (isfinite(hi[i]))
+            fprintf(f, "%.1f,%.1f ", px(&fr, q->x0 + (double)i * q->dx), py(&fr, hi[i]));
+    fputs("\"/>\n<polyline class=\"series mid\" stroke=\"#1f4e99\" points=\"", f);
+    for (size_t i = 0; i < q->n; i++)
+        if (isfinite(q->y[i * q->stride]))
+            point(f, &fr, q, i);
+    fputs("\"/>\n</svg>\n", f);
+}
+
 void pp_report_svg_hist(FILE *f, const char *id, const char *xlabel, const double *y, size_t n,
                         size_t stride)
 {

@@ -40,6 +40,7 @@
 #include "stats.h"
 #include "pixpost/profiles.h"
 #include "pixpost/regions.h"
+#include "pixpost/spots.h"
 #include "pixpost/psf.h"
 #if defined(__GLIBC__)
 #include <malloc.h>
@@ -468,8 +469,12 @@ static pp_status plan_trace(pp_sampler *s)
         (s->depth > 1 || !pp_profiles_fit(s->cfg.profiles, s->height, s->width)))
         return pp_fail(PP_ERR_ARG, "the profiles were planned for another frame size (or the "
                                    "frame is a volume: profiles are for frames)");
+    if (s->cfg.spots && (s->depth > 1 || !pp_spots_fit(s->cfg.spots, s->height, s->width)))
+        return pp_fail(PP_ERR_ARG, "the spots were planned for another frame size (or the "
+                                   "frame is a volume: spots are for frames)");
     s->nreg = s->cfg.regions ? pp_regions_count(s->cfg.regions) : 0;
-    s->nfun = s->nreg + (s->cfg.profiles ? pp_profiles_points(s->cfg.profiles) : 0);
+    s->nprof = s->cfg.profiles ? pp_profiles_points(s->cfg.profiles) : 0;
+    s->nfun = s->nreg + s->nprof + (s->cfg.spots ? pp_spots_count(s->cfg.spots) : 0);
     if (s->nfun) {
         if (!pp_mul_ok(rows, s->nfun, &n) || !pp_mul_ok(n, sizeof(double), &n))
             return pp_fail(PP_ERR_LIMIT, "the regions' and profiles' draws would not fit in "
@@ -1012,6 +1017,7 @@ static pp_status end_run(pp_sampler *s, pp_status res, double t0)
     release_grid(s);
     s->cfg.regions = NULL; /* read no more: the caller may free them */
     s->cfg.profiles = NULL;
+    s->cfg.spots = NULL;
     for (size_t i = s->nwarn_setup; i < s->nwarnings; i++)
         free(s->warnings[i]);
     s->nwarnings = s->nwarn_setup < s->nwarnings ? s->nwarn_setup : s->nwarnings;

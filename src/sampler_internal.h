@@ -196,7 +196,8 @@ struct pp_sampler {
     char *names[6 + PP_MAX_PROBES]; /* 3 scalars, psf_width, kappa, level, probes */
     double *trace_values;
     size_t nreg;          /* regions (cfg.regions), else 0 */
-    size_t nfun;          /* nreg + the profiles' points: values per kept draw */
+    size_t nprof;         /* the profiles' points (cfg.profiles), else 0 */
+    size_t nfun;          /* nreg + nprof + the spots: values per kept draw */
     double *reg_values;   /* chains x trace_cap x nfun: each kept draw's region totals,
                            * then its profile points */
     int records_mean;     /* the kernel records the conditional mean in

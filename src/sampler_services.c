@@ -12,6 +12,7 @@
 #include "stats.h"
 #include "pixpost/profiles.h"
 #include "pixpost/regions.h"
+#include "pixpost/spots.h"
 
 void pp_chain_freeze_mean(pp_chain *c)
 {
@@ -35,6 +36,9 @@ void pp_chain_draw_stats(const pp_sampler *s, pp_chain *c, const double *f, doub
                        c->regs + c->kept * s->nfun);
     if (s->cfg.profiles)
         pp_profiles_eval(s->cfg.profiles, f, s->gw, scale, c->regs + c->kept * s->nfun + s->nreg);
+    if (s->cfg.spots)
+        pp_spots_eval(s->cfg.spots, f, s->gw, scale,
+                      c->regs + c->kept * s->nfun + s->nreg + s->nprof);
     const size_t plane = s->height * s->width;
     for (size_t t = 0; t < s->nabove; t++) {
         double *n = c->above_n + t * s->npix, thr = s->above_t[t];

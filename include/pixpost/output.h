@@ -71,6 +71,9 @@ typedef struct pp_run_info {
     const pp_noise_fit *noise_estimate;
     const pp_noise_spec *noise_chosen;
     const char *noise_note;
+    /* The regions' and profiles' draws (include/pixpost/report.h), shown
+     * in the report; NULL: none. */
+    const struct pp_report_regions *regions;
 } pp_run_info;
 
 /* Writes s (NULL: "") to f as a JSON string literal: quotes, with '"' and

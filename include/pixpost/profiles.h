@@ -32,6 +32,8 @@ size_t pp_profiles_lines(const pp_profiles *p);
 size_t pp_profiles_points(const pp_profiles *p);
 size_t pp_profiles_line_points(const pp_profiles *p, size_t k);
 size_t pp_profiles_line_first(const pp_profiles *p, size_t k);
+/* Point j's row, column and distance from its line's start (pixels). */
+void pp_profiles_point(const pp_profiles *p, size_t j, double *row, double *col, double *dist);
 /* 1 when planned for a height x width frame. */
 int pp_profiles_fit(const pp_profiles *p, size_t height, size_t width);
 

@@ -37,6 +37,9 @@ size_t pp_regions_count(const pp_regions *r);
 long pp_regions_label(const pp_regions *r, size_t j);
 size_t pp_regions_pixels(const pp_regions *r, size_t j);
 long pp_regions_find(const pp_regions *r, long label);
+/* The region holding pixel i of the frame (i = (z * height + y) * width
+ * + x), -1 when none. */
+long pp_regions_at(const pp_regions *r, size_t i);
 /* 1 when the regions were planned for a frame of depth x height x width. */
 int pp_regions_fit(const pp_regions *r, size_t depth, size_t height, size_t width);
 

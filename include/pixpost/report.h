@@ -39,6 +39,9 @@
 #define PIXPOST_REPORT_H
 
 #include "pixpost/image.h"
+#include "pixpost/profiles.h"
+#include "pixpost/regions.h"
+#include "pixpost/spots.h"
 #include "pixpost/sampler.h"
 #include <stddef.h>
 
@@ -48,6 +51,20 @@ typedef struct pp_report_scalar {
     const char *name;
     double mean, sd, rhat, ess_bulk, ess_tail, mcse;
 } pp_report_scalar;
+
+/* What a run recorded of its regions and profiles at every kept draw
+ * (pp_sampler_region_draws): draws[(c * cap + i) * stride + j] for chain
+ * c < chains, kept draw i < kept, the regions' totals first (j <
+ * pp_regions_count), then the profiles' points. */
+typedef struct pp_report_regions {
+    const pp_regions *regions;   /* NULL: none */
+    const pp_region_pair *pairs; /* comparisons of two regions' means */
+    size_t npairs;
+    const pp_profiles *profiles; /* NULL: none */
+    const pp_spots *spots;       /* NULL: none; their contrasts come last */
+    const double *draws;
+    size_t chains, kept, cap, stride;
+} pp_report_regions;
 
 typedef struct pp_report_input {
     const char *title; /* e.g. the input file name; NULL: "pixpost run" */
@@ -107,6 +124,13 @@ typedef struct pp_report_input {
      * include/pixpost/setting.h, e.g. a command line's flags: "--boundary
      * pad", "--strict"; NULL: the library's words). */
     const char *const *setting_names;
+    /* Regions, profiles and spots (NULL: none): a section "Regions and
+     * profiles" (id "regions") after the images, with the posterior of
+     * every region's total and mean, of the comparisons, a plot of every
+     * profile (mean and credible band at level) and the spots' contrasts
+     * and P(contrast > 0), rows flagged as the diagnostics table's; the
+     * outlines, labels, lines and spots over the mean image of a frame. */
+    const pp_report_regions *regions;
 } pp_report_input;
 
 /* Zeroes *in and sets level = 0.95. */

@@ -178,6 +178,10 @@ typedef struct pp_sampler_config {
      * only), or NULL: each kept draw's values at their points are recorded
      * after the region totals. Not owned; read as the regions are. */
     const struct pp_profiles *profiles;
+    /* Spots (include/pixpost/spots.h) planned for the frame (2-D only), or
+     * NULL: each kept draw's spot contrasts are recorded after the
+     * profiles' points. Not owned; read as the regions are. */
+    const struct pp_spots *spots;
     /* Thresholds T (nabove of them, at most PP_MAX_ABOVE; not owned, read by
      * pp_sampler_create, which copies them; pp_sampler_config_used shows
      * none): the posterior probability map P(x_i > T), the share of kept
@@ -275,11 +279,11 @@ typedef struct pp_trace {
 } pp_trace;
 
 const pp_trace *pp_sampler_trace(const pp_sampler *s);
-/* With cfg.regions or cfg.profiles, after pp_sampler_run: each kept draw's
- * totals over the regions, then its values at the profiles' points:
- * v[(c * cap + i) * stride + j] for chain c, kept draw i < kept (the
- * trace's kept), j < stride = regions + profile points (regions first);
- * NULL without either. Points into the sampler. */
+/* With cfg.regions, cfg.profiles or cfg.spots, after pp_sampler_run: each
+ * kept draw's totals over the regions, then its values at the profiles'
+ * points, then its spot contrasts: v[(c * cap + i) * stride + j] for chain
+ * c, kept draw i < kept (the trace's kept), j < stride = regions + profile
+ * points + spots (in that order); NULL without any. Points into the sampler. */
 const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap, size_t *stride);
 /* With cfg.above, after pp_sampler_run: the map P(x_i > above[t]) (the
  * frame's shape), pooled over every chain's kept draws; NULL else. Points

@@ -202,6 +202,7 @@ typedef struct cli_sample_opts {
     int rsd;                /* --rsd */
     size_t nprofiles;       /* --profile values given */
     double profile_lines[4 * (CLI_MAX_REPEAT + 1)]; /* r0, c0, r1, c1 each */
+    double spots_radius;    /* --spots R (the ring's radius in pixels), or 0 */
 } cli_sample_opts;
 
 /* The flag of each sampler setting (flag_names.c), for
@@ -389,6 +390,7 @@ typedef struct cli_frame_run {
     pp_saturation sat;   /* the saturated pixels found (rule NONE with --keep-saturated) */
     pp_regions *regions; /* --regions planned for the frame (during cli_run_frame only) */
     pp_profiles *profiles; /* --profile planned for the frame (likewise) */
+    struct pp_spots *spots; /* --spots planned for the frame (likewise) */
 } cli_frame_run;
 
 /* Samples r->frame into r->outdir (DESIGN.md section 6 outputs). Returns 0,
@@ -422,6 +424,13 @@ int cli_maps_write(const cli_sample_opts *o, cli_frame_run *r);
 int cli_profiles_parse(const cli_args *a, cli_sample_opts *o);
 int cli_profiles_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame);
 int cli_profiles_write(cli_frame_run *r);
+/* --spots R (spots_cli.c): parses the radius into o (0 or CLI_EXIT_USAGE,
+ * printed); plans the candidates from the frame into r->spots (NULL
+ * without) and writes OUTDIR/spots.csv after the run: 0 or CLI_EXIT_USAGE
+ * with r->message naming --spots. */
+int cli_spots_parse(const cli_args *a, cli_sample_opts *o);
+int cli_spots_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame);
+int cli_spots_write(cli_frame_run *r);
 /* One line on the unobserved pixels of a run (masked and saturated, the
  * share of the frame), into buf; "" when none. */
 void cli_unobserved_line(const cli_frame_run *r, size_t npix, char *buf, size_t len);

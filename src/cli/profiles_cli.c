@@ -57,7 +57,7 @@ int cli_profiles_write(cli_frame_run *r)
     size_t cap, stride;
     const double *v = pp_sampler_region_draws(r->sampler, &cap, &stride);
     const pp_trace *tr = pp_sampler_trace(r->sampler);
-    size_t offset = stride - pp_profiles_points(r->profiles); /* after the region totals */
+    size_t offset = r->regions ? pp_regions_count(r->regions) : 0; /* after the region totals */
     double level = pp_sampler_config_used(r->sampler)->level;
     for (size_t k = 0; k < pp_profiles_lines(r->profiles); k++) {
         pp_status st = pp_profiles_write_csv(r->outdir, r->profiles, k, v, tr->chains, tr->kept,

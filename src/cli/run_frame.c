@@ -18,6 +18,8 @@
  */
 #include "cli.h"
 #include "pixpost/output.h"
+#include "pixpost/report.h"
+#include "pixpost/spots.h"
 #include "pixpost/stack.h"
 #include <errno.h>
 #include <signal.h>
@@ -312,6 +314,7 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
         cfg.psf = *r->psf;
     cfg.regions = r->regions;
     cfg.profiles = r->profiles;
+    cfg.spots = r->spots;
     cfg.above = o->above;
     cfg.nabove = o->nabove;
     for (int i = 0; i < 3; i++) /* {z, y, x} micrometres; 0 unknown (NaN here) */
@@ -365,6 +368,16 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
         if (na->prior_text[0])
             ri.prior_spec = na->prior_text;
     }
+    pp_report_regions rg = {.regions = r->regions, .pairs = o->compare,
+                            .npairs = r->regions ? o->ncompare : 0, .profiles = r->profiles,
+                            .spots = r->spots};
+    if (r->regions || r->profiles || r->spots) { /* the report shows them (report_regions.c) */
+        const pp_trace *tr = pp_sampler_trace(r->sampler);
+        rg.draws = pp_sampler_region_draws(r->sampler, &rg.cap, &rg.stride);
+        rg.chains = tr->chains;
+        rg.kept = tr->kept;
+        ri.regions = &rg;
+    }
     pp_result res;
     if ((st = pp_sampler_result(r->sampler, &res)) == PP_OK)
         st = pp_output_write(r->outdir, &res, frame, &ri);
@@ -374,6 +387,8 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
     rc = cli_regions_write(o, r);
     if (!rc)
         rc = cli_profiles_write(r);
+    if (!rc)
+        rc = cli_spots_write(r);
     return rc ? rc : cli_maps_write(o, r);
 }
 
@@ -392,11 +407,14 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     cli_noise_auto na;
     r->regions = NULL;
     r->profiles = NULL;
+    r->spots = NULL;
     int rc = read_frame(o, r, &frame);
     if (!rc)
         rc = cli_regions_load(o, r, frame);
     if (!rc)
         rc = cli_profiles_load(o, r, frame);
+    if (!rc)
+        rc = cli_spots_load(o, r, frame);
     if (!rc)
         rc = cli_noise_auto_run(o, r->frame, frame, &r->info, &na, r->message, sizeof r->message);
     if (!rc)
@@ -415,7 +433,9 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     pp_image_free(frame);
     pp_regions_free(r->regions); /* the sampler has run: it reads them no more */
     pp_profiles_free(r->profiles);
+    pp_spots_free(r->spots);
     r->regions = NULL;
     r->profiles = NULL;
+    r->spots = NULL;
     return rc;
 }

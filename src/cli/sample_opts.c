@@ -129,6 +129,12 @@ static const cli_opt sample_table[] = {
      "frames only): one point per pixel step, bilinear between pixels, with the posterior "
      "mean, sd and interval at --level from every kept draw in OUTDIR/profile_<k>.csv (k "
      "from 1 in the order given; repeatable)."},
+    {"spots", 0, 1, "R",
+     "Candidate spots (beads, puncta): the local maxima of the frame's 3x3 box mean that "
+     "stand above the ring of pixels R from them (R in pixels, 1 to 50, about the PSF's "
+     "width or the spot's size; frames only); for each, the posterior of its contrast C = "
+     "centre - ring mean from every kept draw and P(C > 0), the probability that it is a "
+     "real peak above its surroundings, in OUTDIR/spots.csv and marked in the report."},
     {"above", 0, 1, "T ...",
      "Posterior probability map P(x > T) per pixel, the share of kept draws above T, in "
      "OUTDIR/above_<T>.tif (T written as %g; repeatable, at most 16)."},
@@ -229,7 +235,8 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
         snprintf(buf, len, "off");
     else if (strcmp(name, "mask") == 0 || strcmp(name, "plane") == 0 ||
              strcmp(name, "regions") == 0 || strcmp(name, "compare") == 0 ||
-             strcmp(name, "above") == 0 || strcmp(name, "profile") == 0)
+             strcmp(name, "above") == 0 || strcmp(name, "profile") == 0 ||
+             strcmp(name, "spots") == 0)
         snprintf(buf, len, "none");
     else if (strcmp(name, "pages") == 0)
         snprintf(buf, len, "from the OME metadata; none for a file without it");
@@ -410,6 +417,8 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
         rc = cli_maps_parse(a, o);
     if (!rc)
         rc = cli_profiles_parse(a, o);
+    if (!rc)
+        rc = cli_spots_parse(a, o);
     if (rc)
         return rc;
     /* MEASURE plans unless turned off; cli_plans_load may still fall back
