@@ -67,7 +67,8 @@ static void refusals(void)
     cfg.iters_auto = 0, cfg.chains = 1, cfg.burn = 2, cfg.iters = 4;
     {
         pp_sampler *s = NULL;
-        CHECK(cfg.prior.kind == PP_PRIOR_ADAPTIVE && pp_sampler_create(&cfg, v, k3, &s) == PP_OK &&
+        CHECK(pp_sampler_create(&cfg, v, k3, &s) == PP_OK &&
+                  pp_sampler_config_used(s)->prior.kind == PP_PRIOR_ADAPTIVE &&
                   pp_sampler_run(s) == PP_OK && pp_sampler_mean(s)->depth == 5,
               "the adaptive prior (gibbs) on a volume: %s", pp_error_message());
         pp_sampler_free(s);
