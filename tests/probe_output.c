@@ -110,6 +110,8 @@ int main(int argc, char **argv)
            w = strtoul(argv[6], NULL, 10);
     pp_sampler_config c;
     pp_sampler_defaults(&c);
+    pp_prior_resolve(&c.prior, &c.noise); /* as pp_sampler_create does: the result
+                                            * records the prior that ran */
     c.kind = PP_SAMPLER_GIBBS;
     c.chains = CHAINS;
     c.burn = 20;

@@ -79,7 +79,8 @@ int main(void)
     static const unsigned long ends[3] = {10, 20, 40};
     for (int b = 0; b < 2; b++) {
         pp_sampler_config cfg;
-        pp_sampler_defaults(&cfg); /* the adaptive prior, gibbs */
+        pp_sampler_defaults(&cfg); /* the default prior: adaptive for gaussian noise */
+        pp_prior_resolve(&cfg.prior, &cfg.noise);
         cfg.boundary = b ? PP_BOUNDARY_PERIODIC : PP_BOUNDARY_PAD;
         cfg.voxel[0] = 0.3, cfg.voxel[1] = 0.1, cfg.voxel[2] = 0.1;
         cfg.iters_auto = 0, cfg.chains = 4, cfg.burn = 10, cfg.iters = 40, cfg.threads = 1;

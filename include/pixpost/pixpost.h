@@ -26,6 +26,7 @@
 #include "pixpost/regions.h"
 #include "pixpost/profiles.h"
 #include "pixpost/probmaps.h"
+#include "pixpost/spots.h"
 #include "pixpost/output.h"
 #include "pixpost/report.h"
 #endif
