@@ -1,0 +1,249 @@
+#!/usr/bin/env python3
+"""The pixpost Python module (python/pixpost, ctypes over libpixpost.so).
+
+Checks: (1) every ctypes mirror of a C struct has the C compiler's sizeof
+and field offsets (a small C program compiled here against include/), and
+pp_result fits the module's opaque buffer; (2) the module's mean, sd, lo,
+hi, rhat and mcse equal the CLI's mean.tif ... byte for byte (the library's
+doubles rounded to float32 as pp_tiff_write_f32 stores them; tifffile reads
+the CLI's files) for the same seed and settings, with --threads 1: a 2-D
+float frame with gaussian noise and the default prior, a 16-bit camera frame
+(photon noise, default prior) and a 3-slice z-stack (--pages z); its trace
+equals trace.csv's columns; (3) a bad PSF spec raises PixpostError carrying
+the library's message; (4) the progress callback sees increasing counts
+ending at the total, and returning False stops the run (status
+"interrupted"); (5) another Python thread runs while the library samples
+(ctypes.CDLL releases the GIL); (6) `pip install --no-build-isolation
+--no-index ./python` works offline in a venv made by Debian's python3 -m
+venv --system-site-packages, and the installed module imports and runs.
+"""
+import csv
+import os
+import subprocess
+import sys
+import threading
+
+import numpy as np
+import tifffile
+
+import pptest
+
+LIB = os.environ.get("PIXPOST_LIBRARY")
+pptest.check(LIB and os.path.exists(LIB), "PIXPOST_LIBRARY names the built libpixpost.so")
+PYDIR = os.path.join(pptest.SOURCE, "python")
+sys.path.insert(0, PYDIR)
+import pixpost  # noqa: E402
+from pixpost import _lib  # noqa: E402
+
+TMP = pptest.tmpdir()
+
+# (1) struct mirrors against the C compiler
+prog = ["#include <pixpost/pixpost.h>", "#include <stdio.h>", "#include <stddef.h>",
+        "int main(void) {"]
+for cname, cls in _lib.MIRRORED.items():
+    prog.append('printf("%s %%zu\\n", sizeof(%s));' % (cname, cname))
+    for fname, _ in cls._fields_:
+        prog.append('printf("%s.%s %%zu\\n", offsetof(%s, %s));' % (cname, fname, cname, fname))
+prog.append('printf("pp_result %zu\\n", sizeof(pp_result));')
+prog.append("return 0; }")
+src = os.path.join(TMP, "sizes.c")
+exe = os.path.join(TMP, "sizes")
+with open(src, "w") as f:
+    f.write("\n".join(prog) + "\n")
+subprocess.run(["cc", "-std=c11", "-I", os.path.join(pptest.SOURCE, "include"), "-o", exe, src],
+               check=True)
+c_layout = dict(line.split() for line in subprocess.run([exe], check=True, capture_output=True,
+                                                        text=True).stdout.splitlines())
+bad = []
+for cname, cls in _lib.MIRRORED.items():
+    import ctypes
+    if int(c_layout[cname]) != ctypes.sizeof(cls):
+        bad.append("sizeof(%s) C %s, ctypes %d" % (cname, c_layout[cname], ctypes.sizeof(cls)))
+    for fname, _ in cls._fields_:
+        off = getattr(cls, fname).offset
+        if int(c_layout[cname + "." + fname]) != off:
+            bad.append("%s.%s C %s, ctypes %d" % (cname, fname, c_layout[cname + "." + fname], off))
+pptest.check(not bad, "ctypes mirrors match the C layout of %d structs (%s)"
+             % (len(_lib.MIRRORED), "; ".join(bad) or "sizes and offsets equal"))
+pptest.check(int(c_layout["pp_result"]) <= _lib.RESULT_BUFFER,
+             "sizeof(pp_result) %s fits the module's %d-byte buffer"
+             % (c_layout["pp_result"], _lib.RESULT_BUFFER))
+pptest.check(pixpost.version() == subprocess.run([pptest.BIN, "--version"], capture_output=True,
+                                                 text=True).stdout.split()[1],
+             "pixpost.version() %s is the CLI's version" % pixpost.version())
+
+
+# (2) byte-identity with the CLI
+def cli_vs_module(label, path, arr, psf, noise, extra_cli, **kw):
+    out = os.path.join(TMP, "cli_" + label)
+    args = ["sample", path, "--psf", psf, "--noise", noise, "-o", out, "--seed", "11",
+            "--iters", "60", "--burn", "40", "--chains", "2", "--threads", "1", "--quiet",
+            "--overwrite", "--no-plan-cache"] + extra_cli
+    pptest.run(args)
+    r = pixpost.sample(arr, psf=psf, noise=noise, seed=11, iters=60, burn=40, chains=2,
+                       threads=1, **kw)
+    for name, attr in (("mean", "mean"), ("sd", "sd"), ("lo", "lo"), ("hi", "hi"),
+                       ("rhat", "rhat"), ("mcse", "mcse")):
+        cli = tifffile.imread(os.path.join(out, name + ".tif"))
+        mod = getattr(r, attr)
+        pptest.check(mod is not None and mod.shape == arr.shape and cli.shape == arr.shape
+                     and mod.astype(np.float32).tobytes() == cli.astype(np.float32).tobytes(),
+                     "%s: module %s equals the CLI's %s.tif byte for byte (shape %s)"
+                     % (label, attr, name, arr.shape))
+    with open(os.path.join(out, "trace.csv")) as f:
+        rows = list(csv.reader(f))
+    head, body = rows[0], np.array(rows[1:], dtype=float)
+    same = len(body) == len(r.trace)
+    worst = 0.0
+    if same:  # chain and iter count from 1 in the CSV, from 0 in the module
+        same = (np.array_equal(body[:, 0] - 1, r.trace["chain"])
+                and np.array_equal(body[:, 1] - 1, r.trace["draw"])
+                and list(head[2:]) == list(r.trace.dtype.names[2:]))
+    for j, col in enumerate(head[2:], start=2):
+        if not same:
+            break
+        a, b = body[:, j], r.trace[col].astype(float)
+        if not np.array_equal(np.isnan(a), np.isnan(b)):
+            same = False
+            break
+        ok = ~np.isnan(a)
+        if ok.any():
+            d = np.max(np.abs(a[ok] - b[ok]) / np.maximum(np.abs(b[ok]), 1e-300))
+            worst = max(worst, d)
+    # trace.csv prints 10+ significant digits (relative rounding <= 5e-10)
+    pptest.check(same and worst <= 1e-9,
+                 "%s: trace equals trace.csv (%d rows, worst relative difference %.1e <= 1e-9)"
+                 % (label, len(body), worst))
+    with open(os.path.join(out, "summary.json")) as f:
+        import json
+        cs = json.load(f)
+    pptest.check(r.summary["chains"] == cs["chains"] and r.summary["seed"] == cs["seed"]
+                 and r.summary["sampler"] == cs["sampler"] and r.summary["prior"] == cs["prior"],
+                 "%s: summary dict has the CLI's sampler %s, prior %s, seed, chains"
+                 % (label, cs["sampler"], cs["prior"]))
+    return r
+
+
+rng = np.random.default_rng(20)
+truth = np.full((28, 30), 20.0)
+truth[8:18, 6:14] += 80
+truth[20:24, 18:26] += 50
+blur = pixpost.simulate(truth, psf="gaussian:sigma=1.4", noise="gaussian:sigma=3", seed=5)
+frame = blur.astype(np.float32)
+fpath = os.path.join(TMP, "frame.tif")
+tifffile.imwrite(fpath, frame)
+cli_vs_module("2-D gaussian, default prior", fpath, frame, "gaussian:sigma=1.4", "gaussian", [])
+r_path = pixpost.sample(fpath, psf="gaussian:sigma=1.4", noise="gaussian", seed=11, iters=60,
+                        burn=40, chains=2, threads=1)
+pptest.check(r_path.mean.astype(np.float32).tobytes()
+             == tifffile.imread(os.path.join(TMP, "cli_2-D gaussian, default prior",
+                                             "mean.tif")).tobytes(),
+             "2-D frame given as a path: mean equals the CLI's mean.tif byte for byte")
+
+# camera frame: photons = truth / 10, ADU = 0.5 e- + 100 offset, 16-bit
+photons = rng.poisson(truth / 4.0)
+adu = np.clip(np.round(photons * 2.0 + 100 + rng.normal(0, 1.6 * 2.0, truth.shape)), 0, 65535)
+cam = adu.astype(np.uint16)
+cpath = os.path.join(TMP, "camera.tif")
+tifffile.imwrite(cpath, cam)
+cli_vs_module("2-D camera", cpath, cam, "gaussian:sigma=1.4",
+              "camera:gain=2,offset=100,read=1.6", [])
+
+# z-stack: 3 slices, 3-D gaussian PSF, sampled as one volume
+vol_truth = np.stack([truth * s for s in (0.6, 1.0, 0.7)])
+vol = pixpost.simulate(vol_truth, psf="gaussian:sigma=1.3,sigma_z=0.8",
+                       noise="gaussian:sigma=3", seed=9).astype(np.float32)
+vpath = os.path.join(TMP, "stack.tif")
+tifffile.imwrite(vpath, vol, photometric="minisblack")
+cli_vs_module("z-stack", vpath, vol, "gaussian:sigma=1.3,sigma_z=0.8", "gaussian",
+              ["--pages", "z"])
+
+# (3) errors carry the library's message
+try:
+    pixpost.sample(frame, psf="gaussian:sigma=-2")
+    pptest.check(False, "a bad PSF spec raises PixpostError")
+except pixpost.PixpostError as e:
+    cli = subprocess.run([pptest.BIN, "sample", fpath, "--psf", "gaussian:sigma=-2", "-o",
+                          os.path.join(TMP, "bad")], capture_output=True, text=True)
+    core = e.message.replace("PSF", "").strip()
+    pptest.check(e.status == 1 and e.status_name == "bad argument" and e.message
+                 and "sigma" in e.message and cli.returncode != 0,
+                 "bad PSF spec: PixpostError status %d (%s): %r (CLI said %r)"
+                 % (e.status, e.status_name, e.message, cli.stderr.strip()))
+    pptest.check(str(e).startswith("psf: "), "the exception's text names the psf argument")
+
+# (4) progress and stop
+seen = []
+pixpost.sample(frame, psf="gaussian:sigma=1.4", iters=60, burn=40, chains=2, threads=1,
+               progress=lambda d, t: seen.append((d, t)))
+dones = [d for d, _ in seen]
+pptest.check(len(seen) >= 3 and all(a <= b for a, b in zip(dones, dones[1:]))
+             and dones[-1] == seen[-1][1] == 200,
+             "progress: %d calls, counts non-decreasing, last %s of %s (2 chains x 100)"
+             % (len(seen), dones[-1] if dones else None, seen[-1][1] if seen else None))
+calls = []
+try:
+    pixpost.sample(frame, psf="gaussian:sigma=1.4", iters=2000, burn=100, chains=2, threads=1,
+                   progress=lambda d, t: calls.append(d) or len(calls) < 2)
+    pptest.check(False, "returning False from progress stops the run")
+except pixpost.PixpostError as e:
+    pptest.check(e.status == 8 and calls[-1] < 4200,
+                 "progress returning False stops the run: %s after %d of 4200 iterations"
+                 % (e.status_name, calls[-1]))
+ev = threading.Event()
+ev.set()
+try:
+    pixpost.sample(frame, psf="gaussian:sigma=1.4", iters=2000, burn=100, chains=2, threads=1,
+                   stop=ev)
+    pptest.check(False, "a set stop event stops the run")
+except pixpost.PixpostError as e:
+    pptest.check(e.status == 8, "a set stop event stops the run (%s)" % e.status_name)
+
+# (5) the GIL is released while sampling: a counting thread advances during
+# pp_sampler_run (with the GIL held it could not run at all; no callback)
+count = [0]
+halt = threading.Event()
+
+
+def spin():
+    while not halt.is_set():
+        count[0] += 1
+
+
+th = threading.Thread(target=spin)
+th.start()
+before = count[0]
+pixpost.sample(frame, psf="gaussian:sigma=1.4", iters=1500, burn=100, chains=2, threads=1)
+during = count[0] - before
+halt.set()
+th.join()
+pptest.check(during > 10000, "another Python thread ran while sampling (%d increments)" % during)
+
+# (6) offline pip install into a venv
+venv = os.path.join(TMP, "venv")
+subprocess.run(["/usr/bin/python3", "-m", "venv", "--system-site-packages", "--clear", venv],
+               check=True)
+vpy = os.path.join(venv, "bin", "python")
+pip = subprocess.run([vpy, "-m", "pip", "install", "--no-build-isolation", "--no-index",
+                      PYDIR], capture_output=True, text=True,
+                     env=dict(os.environ, PIP_NO_INDEX="1", PIP_DISABLE_PIP_VERSION_CHECK="1"),
+                     cwd=TMP)
+pptest.check(pip.returncode == 0, "pip install --no-index ./python in a venv: %s"
+             % (pip.stdout.strip().splitlines()[-1:] if pip.returncode == 0 else pip.stderr))
+code = ("import pixpost, numpy as np; "
+        "assert pixpost.__file__.startswith(%r), pixpost.__file__; "
+        "r = pixpost.sample(np.load(%r), psf='gaussian:sigma=1.4', iters=60, burn=40, "
+        "chains=2, threads=1, seed=11); print(pixpost.version(), "
+        "r.mean.astype(np.float32).tobytes().hex())") % (venv, os.path.join(TMP, "frame.npy"))
+np.save(os.path.join(TMP, "frame.npy"), frame)
+run = subprocess.run([vpy, "-c", code], capture_output=True, text=True, cwd=TMP,
+                     env=dict(os.environ, PYTHONPATH=""))
+ref = tifffile.imread(os.path.join(TMP, "cli_2-D gaussian, default prior", "mean.tif"))
+pptest.check(run.returncode == 0 and run.stdout.split()[-1] == ref.tobytes().hex(),
+             "the installed module (in the venv) imports from the venv and its mean equals "
+             "the CLI's mean.tif: %s" % (run.stderr.strip()[-300:] or "yes"))
+nolib = subprocess.run([vpy, "-c", "import pixpost"], capture_output=True, text=True, cwd=TMP,
+                       env=dict(os.environ, PYTHONPATH="", PIXPOST_LIBRARY="/nonexistent/lib.so"))
+pptest.check(nolib.returncode != 0 and "PIXPOST_LIBRARY" in nolib.stderr,
+             "a wrong PIXPOST_LIBRARY fails with a message naming it")
+pptest.done()
