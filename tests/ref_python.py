@@ -140,6 +140,31 @@ pptest.check(r_path.mean.astype(np.float32).tobytes()
                                              "mean.tif")).tobytes(),
              "2-D frame given as a path: mean equals the CLI's mean.tif byte for byte")
 
+# a float64 C-contiguous array is lent to the library without a copy; it is
+# never written to, also when saturated pixels are marked (a flat top of
+# 3 % of the pixels at the maximum: the "flat top" rule of saturation.h)
+f64 = frame.astype(np.float64)
+before = f64.copy()
+r64 = pixpost.sample(f64, psf="gaussian:sigma=1.4", noise="gaussian", seed=11, iters=60,
+                     burn=40, chains=2, threads=1)
+pptest.check(r64.mean.astype(np.float32).tobytes()
+             == tifffile.imread(os.path.join(TMP, "cli_2-D gaussian, default prior",
+                                             "mean.tif")).tobytes()
+             and np.array_equal(f64, before),
+             "2-D frame as float64 (no copy): mean equals the CLI's, the array is unchanged")
+flat = f64.copy()
+top = np.argsort(flat, axis=None)[-int(0.03 * flat.size):]
+flat.flat[top] = flat.max()
+flat_before = flat.copy()
+rs = pixpost.sample(flat, psf="gaussian:sigma=1.4", noise="gaussian", seed=11, iters=60,
+                    burn=40, chains=2, threads=1)
+nsat = rs.summary["missing_data"]["saturated"]
+pptest.check(np.array_equal(flat, flat_before, equal_nan=False) and nsat == len(top)
+             and rs.summary["missing_data"]["unobserved"] == len(top)
+             and rs.summary["psf"] == "gaussian:sigma=1.4",
+             "saturated pixels marked on a copy: the caller's array is unchanged, summary "
+             "counts %d saturated of %d set, psf %r" % (nsat, len(top), rs.summary["psf"]))
+
 # camera frame: photons = truth / 10, ADU = 0.5 e- + 100 offset, 16-bit
 photons = rng.poisson(truth / 4.0)
 adu = np.clip(np.round(photons * 2.0 + 100 + rng.normal(0, 1.6 * 2.0, truth.shape)), 0, 65535)

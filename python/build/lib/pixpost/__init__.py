@@ -59,6 +59,20 @@ def _to_image(arr):
     return p
 
 
+def _view_image(arr):
+    """(pointer to a pp_image, owned): a float64 C-contiguous array is lent to
+    the library without a copy (a pp_image made here over its buffer, never
+    passed to pp_image_free: owned False); any other array is copied."""
+    a = np.asarray(arr)
+    if a.dtype == np.float64 and a.flags.c_contiguous and a.ndim in (2, 3):
+        d, h, w = (1,) + a.shape if a.ndim == 2 else a.shape
+        im = _lib.Image(width=w, height=h, depth=d,
+                        data=a.ctypes.data_as(ctypes.POINTER(ctypes.c_double)))
+        im._keep = a
+        return ctypes.pointer(im), False
+    return _to_image(a), True
+
+
 def _from_image(p):
     """A numpy copy of a pp_image: (height, width) or (depth, height, width)."""
     if not p:
@@ -137,7 +151,7 @@ def simulate(truth, psf="gaussian:sigma=1.5", noise="gaussian:sigma=1", seed=1,
              boundary="pad"):
     """A noisy blurred image of truth (pp_model_simulate: blur by the PSF, then
     noise from stream 0 of seed), float64 of truth's shape."""
-    t = _to_image(truth)
+    t, owned = _view_image(truth)
     k = None
     out = ctypes.POINTER(_lib.Image)()
     try:
@@ -151,7 +165,8 @@ def simulate(truth, psf="gaussian:sigma=1.5", noise="gaussian:sigma=1", seed=1,
     finally:
         _L.pp_image_free(out)
         _L.pp_image_free(k)
-        _L.pp_image_free(t)
+        if owned:
+            _L.pp_image_free(t)
 
 
 class Result:
@@ -238,6 +253,7 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
             cfg.voxel[i] = voxel[i] if voxel[i] and voxel[i] > 0 else 0.0
 
     img = ctypes.POINTER(_lib.Image)()
+    owned = True
     kern = None
     s = ctypes.c_void_p()
     res = ctypes.create_string_buffer(_lib.RESULT_BUFFER)
@@ -260,11 +276,13 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
             if not np.all(np.isfinite(a)):
                 raise PixpostError(1, "frame: %d pixels are NaN or infinite" %
                                    int(np.sum(~np.isfinite(a))))
-            img = _to_image(a)
+            img, owned = _view_image(a)
             bits, is_float = a.dtype.itemsize * 8, int(a.dtype.kind == "f")
+        sat = _lib.Saturation()
         if saturation:
-            sat = _lib.Saturation()
             _L.pp_saturation_find(img, bits, is_float, ctypes.byref(sat))
+            if sat.count and not owned:  # marking writes NaN: never into the caller's array
+                img, owned = _to_image(a), True
             _L.pp_saturation_mark(img, ctypes.byref(sat))
         volume = img.contents.depth > 1
         kern, ps = _kernel(psf, volume)
@@ -309,7 +327,14 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
         else:
             os.makedirs(outputs, exist_ok=True)
             out_dir = outputs
-        _check(_L.pp_output_write(os.fsencode(out_dir), res, img, None), "outputs")
+        ri = _lib.RunInfo(saturated=sat.count, saturation_level=sat.level,
+                          saturation_rule=sat.rule)
+        if isinstance(frame, (str, bytes, os.PathLike)):
+            ri.input_path = os.fsencode(frame)
+        for field, spec in (("psf_spec", psf), ("noise_spec", noise), ("prior_spec", prior)):
+            if isinstance(spec, (str, bytes)):
+                setattr(ri, field, _enc(spec))
+        _check(_L.pp_output_write(os.fsencode(out_dir), res, img, ctypes.byref(ri)), "outputs")
         with open(os.path.join(out_dir, "summary.json")) as f:
             r.summary = json.load(f)
         r.warnings = list(r.summary.get("warnings") or [])
@@ -320,6 +345,7 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
             _L.pp_result_free(res)
         _L.pp_sampler_free(s)
         _L.pp_image_free(kern)
-        _L.pp_image_free(img)
+        if owned:
+            _L.pp_image_free(img)
         if tmp:
             shutil.rmtree(tmp, ignore_errors=True)

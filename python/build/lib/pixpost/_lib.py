@@ -89,7 +89,18 @@ class Trace(ctypes.Structure):  # pp_trace (sampler.h)
                 ("names", ctypes.POINTER(c_char_p)), ("values", ctypes.POINTER(c_double))]
 
 
-MIRRORED = {"pp_image": Image, "pp_shape": Shape, "pp_noise_spec": NoiseSpec,
+class RunInfo(ctypes.Structure):  # pp_run_info (output.h); pointers we never set as void*
+    _fields_ = [("input_path", c_char_p), ("input_part", c_char_p),
+                ("voxel_um", ctypes.POINTER(c_double)), ("psf_spec", c_char_p),
+                ("noise_spec", c_char_p), ("prior_spec", c_char_p), ("command_line", c_char_p),
+                ("seconds_total", c_double), ("fft_plans", c_char_p), ("masked", c_size_t),
+                ("saturated", c_size_t), ("saturation_level", c_double),
+                ("saturation_rule", c_int), ("data_checks", c_void_p), ("predictive", c_void_p),
+                ("noise_estimate", c_void_p), ("noise_chosen", c_void_p),
+                ("noise_note", c_char_p), ("regions", c_void_p)]
+
+
+MIRRORED = {"pp_run_info": RunInfo, "pp_image": Image, "pp_shape": Shape, "pp_noise_spec": NoiseSpec,
             "pp_prior_spec": PriorSpec, "pp_psf_spec": PsfSpec,
             "pp_sampler_config": SamplerConfig, "pp_read_options": ReadOptions,
             "pp_read_info": ReadInfo, "pp_saturation": Saturation, "pp_trace": Trace}
@@ -153,7 +164,7 @@ def load():
         "pp_sampler_trace": (P(Trace), [c_void_p]),
         "pp_sampler_result": (c_int, [c_void_p, c_void_p]),
         "pp_result_free": (None, [c_void_p]),
-        "pp_output_write": (c_int, [c_char_p, c_void_p, P(Image), c_void_p]),
+        "pp_output_write": (c_int, [c_char_p, c_void_p, P(Image), P(RunInfo)]),
     }
     for name, (res, args) in protos.items():
         f = getattr(lib, name)
