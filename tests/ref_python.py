@@ -9,7 +9,9 @@ doubles rounded to float32 as pp_tiff_write_f32 stores them; tifffile reads
 the CLI's files) for the same seed and settings, with --threads 1: a 2-D
 float frame with gaussian noise and the default prior, a 16-bit camera frame
 (photon noise, default prior) and a 3-slice z-stack (--pages z); its trace
-equals trace.csv's columns; (3) a bad PSF spec raises PixpostError carrying
+equals trace.csv's columns; pixpost.psf and pixpost.simulate equal
+`pixpost psf` and `pixpost simulate` byte for byte; a float64 frame is not
+copied and the caller's array is never written; (3) a bad PSF spec raises PixpostError carrying
 the library's message; (4) the progress callback sees increasing counts
 ending at the total, and returning False stops the run (status
 "interrupted"); (5) another Python thread runs while the library samples
@@ -182,6 +184,26 @@ vpath = os.path.join(TMP, "stack.tif")
 tifffile.imwrite(vpath, vol, photometric="minisblack")
 cli_vs_module("z-stack", vpath, vol, "gaussian:sigma=1.3,sigma_z=0.8", "gaussian",
               ["--pages", "z"])
+
+# pixpost.psf and pixpost.simulate against `pixpost psf` and `pixpost simulate`
+for i, (spec, shape) in enumerate((("gaussian:sigma=1.7", None), ("airy:na=1.2,wavelength=0.5,pixel=0.1", 15),
+                    ("gaussian:sigma=1.3,sigma_z=0.8", None))):
+    kp = os.path.join(TMP, "k%d.tif" % i)
+    pptest.run(["psf", spec, "-o", kp] + (["--size", str(shape)] if shape else []))
+    cli = tifffile.imread(kp)
+    mod = pixpost.psf(spec, shape)
+    pptest.check(mod.shape == cli.shape and mod.astype(np.float32).tobytes() == cli.tobytes(),
+                 "pixpost.psf(%r, %s) equals `pixpost psf`'s kernel byte for byte (%s)"
+                 % (spec, shape, mod.shape))
+t32 = truth.astype(np.float32)
+tifffile.imwrite(os.path.join(TMP, "truth.tif"), t32)
+sp = os.path.join(TMP, "sim.tif")
+pptest.run(["simulate", os.path.join(TMP, "truth.tif"), "--psf", "gaussian:sigma=1.4", "--noise",
+            "camera:gain=2,offset=100,read=1.6", "--seed", "4", "-o", sp])
+ms = pixpost.simulate(t32, psf="gaussian:sigma=1.4", noise="camera:gain=2,offset=100,read=1.6",
+                      seed=4)
+pptest.check(ms.astype(np.float32).tobytes() == tifffile.imread(sp).tobytes(),
+             "pixpost.simulate equals `pixpost simulate`'s frame byte for byte (camera noise)")
 
 # (3) errors carry the library's message
 try:
