@@ -201,7 +201,7 @@ def _trace_array(tp):
 def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *, seed=1,
            iters=None, burn=None, chains=None, thin=None, boundary="pad", sampler="auto",
            threads=1, level=None, background=None, voxel=None, saturation=True,
-           progress=None, stop=None, outputs=None):
+           regions=None, progress=None, stop=None, outputs=None):
     """Samples the posterior of frame (a 2-D array, a 3-D array (depth, height,
     width) sampled as one volume, or the path of a PNG/TIFF frame) and
     returns a Result.
@@ -212,6 +212,11 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
     iters iterations per chain (as --iters N). seed, burn, chains, thin,
     boundary, sampler, threads, level, background, voxel ((z, y, x) in
     micrometres) as the command's flags; None keeps the library's default.
+    regions: an integer label array of the frame's shape (0 = no region):
+    Result.regions is then a dict with "labels" (increasing), "pixels" (per
+    region) and "totals", a (chains, draws, regions) array of each kept
+    draw's total over each region (as `--regions FILE`; regions.csv's
+    summaries are not computed here).
     saturation True marks saturated pixels unobserved as the CLI does (the
     format maximum from an integer array's dtype, or a flat top).
     progress(done, total): called now and then during sampling (from the
@@ -254,6 +259,7 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
 
     img = ctypes.POINTER(_lib.Image)()
     owned = True
+    reg = ctypes.c_void_p()
     kern = None
     s = ctypes.c_void_p()
     res = ctypes.create_string_buffer(_lib.RESULT_BUFFER)
@@ -289,6 +295,16 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
         if ps is not None:
             cfg.psf = ps
 
+        if regions is not None:
+            lab, lab_owned = _view_image(regions)
+            try:
+                im = img.contents
+                _check(_L.pp_regions_plan(lab, im.depth, im.height, im.width,
+                                          ctypes.byref(reg)), "regions")
+            finally:
+                if lab_owned:
+                    _L.pp_image_free(lab)
+            cfg.regions = reg
         flag = ctypes.c_int(0)
         cfg.stop = ctypes.pointer(flag)
         errors = []
@@ -319,6 +335,18 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
         r.rhat = _from_image(_L.pp_sampler_rhat_map(s))
         r.mcse = _from_image(_L.pp_sampler_mcse_map(s))
         r.trace = _trace_array(_L.pp_sampler_trace(s))
+        r.regions = None
+        if reg:
+            cap, stride = ctypes.c_size_t(), ctypes.c_size_t()
+            v = _L.pp_sampler_region_draws(s, ctypes.byref(cap), ctypes.byref(stride))
+            t = _L.pp_sampler_trace(s).contents
+            nreg = _L.pp_regions_count(reg)
+            allv = np.ctypeslib.as_array(v, shape=(t.chains * cap.value * stride.value,))
+            allv = allv.reshape(t.chains, cap.value, stride.value)
+            r.regions = {
+                "labels": np.array([_L.pp_regions_label(reg, j) for j in range(nreg)]),
+                "pixels": np.array([_L.pp_regions_pixels(reg, j) for j in range(nreg)]),
+                "totals": allv[:, :t.kept, :nreg].copy()}
         _check(_L.pp_sampler_result(s, res))
         have_res = True
         if outputs is None:
@@ -344,6 +372,7 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
         if have_res:
             _L.pp_result_free(res)
         _L.pp_sampler_free(s)
+        _L.pp_regions_free(reg)
         _L.pp_image_free(kern)
         if owned:
             _L.pp_image_free(img)

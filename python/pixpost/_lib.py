@@ -164,6 +164,12 @@ def load():
         "pp_sampler_trace": (P(Trace), [c_void_p]),
         "pp_sampler_result": (c_int, [c_void_p, c_void_p]),
         "pp_result_free": (None, [c_void_p]),
+        "pp_regions_plan": (c_int, [P(Image), c_size_t, c_size_t, c_size_t, P(c_void_p)]),
+        "pp_regions_free": (None, [c_void_p]),
+        "pp_regions_count": (c_size_t, [c_void_p]),
+        "pp_regions_label": (ctypes.c_long, [c_void_p, c_size_t]),
+        "pp_regions_pixels": (c_size_t, [c_void_p, c_size_t]),
+        "pp_sampler_region_draws": (P(c_double), [c_void_p, P(c_size_t), P(c_size_t)]),
         "pp_output_write": (c_int, [c_char_p, c_void_p, P(Image), P(RunInfo)]),
     }
     for name, (res, args) in protos.items():
