@@ -247,6 +247,18 @@ except pixpost.PixpostError as e:
                  % (e.status, e.status_name, e.message, cli.stderr.strip()))
     pptest.check(str(e).startswith("psf: "), "the exception's text names the psf argument")
 
+try:
+    pixpost.sample(frame, psf="gaussian:sigma=1.4", iters=-5)
+    pptest.check(False, "iters=-5 is refused")
+except ValueError as e:
+    pptest.check("iters=-5" in str(e), "iters=-5 is refused before the library: %s" % e)
+try:
+    pixpost.sample(frame, psf="gaussian:sigma=1.4", iters=60, burn=40, chains=0)
+    pptest.check(False, "chains=0 is refused")
+except pixpost.PixpostError as e:
+    pptest.check(e.status == 1 and "chain" in e.message,
+                 "chains=0: the library's refusal: %s" % e.message)
+
 # (4) progress and stop
 seen = []
 pixpost.sample(frame, psf="gaussian:sigma=1.4", iters=60, burn=40, chains=2, threads=1,

@@ -64,7 +64,7 @@ def _view_image(arr):
     the library without a copy (a pp_image made here over its buffer, never
     passed to pp_image_free: owned False); any other array is copied."""
     a = np.asarray(arr)
-    if a.dtype == np.float64 and a.flags.c_contiguous and a.ndim in (2, 3):
+    if a.dtype == np.float64 and a.flags.c_contiguous and a.ndim in (2, 3) and a.size:
         d, h, w = (1,) + a.shape if a.ndim == 2 else a.shape
         im = _lib.Image(width=w, height=h, depth=d,
                         data=a.ctypes.data_as(ctypes.POINTER(ctypes.c_double)))
@@ -98,7 +98,7 @@ def _parse_noise(spec):
 def _make_psf(spec_struct, size=0, depth=0, volume=False):
     """The kernel of a parsed spec as a new pp_image: 3-D specs (and files for a
     volume) through pp_psf_make3, others through pp_psf_make (as the CLI does)."""
-    if _L.pp_psf_is_3d(ctypes.byref(spec_struct)) or (volume and spec_struct.kind == 2) \
+    if _L.pp_psf_is_3d(ctypes.byref(spec_struct)) or (volume and spec_struct.kind == _lib.PP_PSF_FILE) \
             or depth:
         sh = _lib.Shape()
         data = ctypes.POINTER(ctypes.c_double)()
@@ -198,6 +198,15 @@ def _trace_array(tp):
     return out
 
 
+def _count(name, v, lo, hi):
+    """v as an int in lo..hi; ValueError naming the option otherwise (a C
+    unsigned field would silently wrap a negative number)."""
+    if isinstance(v, bool) or int(v) != v or not lo <= int(v) <= hi:
+        raise ValueError("pixpost: %s=%r: expected a whole number from %d to %d"
+                         % (name, v, lo, hi))
+    return int(v)
+
+
 def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *, seed=1,
            iters=None, burn=None, chains=None, thin=None, boundary="pad", sampler="auto",
            threads=1, level=None, background=None, voxel=None, saturation=True,
@@ -238,17 +247,17 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
     k = ctypes.c_int()
     _check(_L.pp_sampler_kind_parse(_enc(sampler), None, ctypes.byref(k)), "sampler")
     cfg.kind = k.value
-    cfg.seed = seed
-    cfg.threads = threads
+    cfg.seed = _count("seed", seed, 0, 2**64 - 1)
+    cfg.threads = _count("threads", threads, 0, 4096)
     if iters is not None and iters != "auto":
-        cfg.iters = iters
+        cfg.iters = _count("iters", iters, 0, 2**32 - 1)
         cfg.iters_auto = 0
     if burn is not None:
-        cfg.burn = burn
+        cfg.burn = _count("burn", burn, 0, 2**32 - 1)
     if chains is not None:
-        cfg.chains = chains
+        cfg.chains = _count("chains", chains, 0, 2**32 - 1)
     if thin is not None:
-        cfg.thin = thin
+        cfg.thin = _count("thin", thin, 0, 2**32 - 1)
     if level is not None:
         cfg.level = level
     if background is not None:

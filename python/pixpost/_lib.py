@@ -43,6 +43,9 @@ class PriorSpec(ctypes.Structure):  # pp_prior_spec (prior.h)
                 ("delta", c_double), ("delta_set", c_int)]
 
 
+PP_PSF_FILE = 2  # pp_psf_kind (psf.h): GAUSSIAN, AIRY, FILE, WIDEFIELD
+
+
 class PsfSpec(ctypes.Structure):  # pp_psf_spec (psf.h)
     _fields_ = [("kind", c_int), ("sigma", c_double), ("na", c_double),
                 ("wavelength", c_double), ("pixel", c_double),
