@@ -277,6 +277,17 @@ except pixpost.PixpostError as e:
     pptest.check(e.status == 8 and calls[-1] < 4200,
                  "progress returning False stops the run: %s after %d of 4200 iterations"
                  % (e.status_name, calls[-1]))
+def boom(d, t):
+    raise RuntimeError("callback failed at %d" % d)
+
+
+try:
+    pixpost.sample(frame, psf="gaussian:sigma=1.4", iters=2000, burn=100, chains=2, threads=1,
+                   progress=boom)
+    pptest.check(False, "an exception in progress reaches the caller")
+except RuntimeError as e:
+    pptest.check(str(e).startswith("callback failed at"),
+                 "an exception raised in progress stops the run and reaches the caller: %s" % e)
 ev = threading.Event()
 ev.set()
 try:
