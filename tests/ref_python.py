@@ -35,6 +35,20 @@ import pptest
 
 LIB = os.environ.get("PIXPOST_LIBRARY")
 pptest.check(LIB and os.path.exists(LIB), "PIXPOST_LIBRARY names the built libpixpost.so")
+
+# A library built with PIXPOST_SANITIZE (CI's sanitizer job) needs the ASan
+# runtime loaded before anything else, which a Python interpreter is not
+# linked with: run this script again with the runtime preloaded (leak
+# checking off: the interpreter keeps its own objects to the end by design).
+if (LIB and "libasan" in subprocess.run(["readelf", "-d", LIB], capture_output=True,
+                                         text=True).stdout
+        and "libasan" not in os.environ.get("LD_PRELOAD", "")):
+    rt = subprocess.run(["cc", "-print-file-name=libasan.so"], capture_output=True,
+                        text=True).stdout.strip()
+    env = dict(os.environ, LD_PRELOAD=rt,
+               ASAN_OPTIONS="detect_leaks=0:" + os.environ.get("ASAN_OPTIONS", ""))
+    sys.stdout.flush()
+    os.execve(sys.executable, [sys.executable] + sys.argv, env)
 PYDIR = os.path.join(pptest.SOURCE, "python")
 sys.path.insert(0, PYDIR)
 import pixpost  # noqa: E402
