@@ -134,6 +134,32 @@ def gmrf1_q(H, W):
     return 4 - 2 * np.cos(2 * np.pi * k1 / H) - 2 * np.cos(2 * np.pi * k2 / W)
 
 
+def gmrf1_frame_posterior(tmp, truth, sim_seed, lam=4.0, dlt=0.8):
+    """A frame simulated by pixpost from `truth` (gaussian:sigma=1.3 PSF,
+    gaussian:sigma=0.5 noise, periodic, seed sim_seed; written to
+    tmp/y.tif, the PSF to tmp/psf.tif) and its closed-form posterior under
+    gmrf1 with fixed lam, dlt (periodic: diagonal in the DFT basis,
+    precision p = lam |A|^2 + dlt q): returns (y, A, p, mu), mu =
+    ifft2(lam conj(A) fft2(y) / p). The posterior covariance is
+    ifft2(1/p) shifted; what the region, profile and probability checks
+    compare against."""
+    import os
+    import numpy as np
+    import tifffile
+    H, W = truth.shape
+    tifffile.imwrite(os.path.join(tmp, "truth.tif"), truth.astype(np.float32))
+    run(["psf", "gaussian:sigma=1.3", "-o", os.path.join(tmp, "psf.tif")])
+    run(["simulate", os.path.join(tmp, "truth.tif"), "--psf", "gaussian:sigma=1.3",
+         "--noise", "gaussian:sigma=0.5", "--boundary", "periodic", "--seed", str(sim_seed),
+         "-o", os.path.join(tmp, "y.tif")])
+    y = tifffile.imread(os.path.join(tmp, "y.tif")).astype(np.float64)
+    psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
+    A = transfer(psf, (H, W))
+    p = lam * np.abs(A) ** 2 + dlt * gmrf1_q(H, W)
+    mu = np.real(np.fft.ifft2(lam * np.conj(A) * np.fft.fft2(y) / p))
+    return y, A, p, mu
+
+
 def geyer_ess(x, monotone=True):
     """Effective sample size of one chain `x` (1-D) by Geyer's initial
     sequence estimators (Geyer, Statist. Sci. 7, 1992): autocorrelations

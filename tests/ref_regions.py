@@ -50,18 +50,8 @@ rng = np.random.default_rng(20261204)
 H, W = 30, 26
 N = H * W
 truth = 20 + 10 * rng.standard_normal((H, W)).cumsum(axis=0).cumsum(axis=1) / 30
-tifffile.imwrite(os.path.join(tmp, "truth.tif"), truth.astype(np.float32))
-pptest.run(["psf", "gaussian:sigma=1.3", "-o", os.path.join(tmp, "psf.tif")])
-pptest.run(["simulate", os.path.join(tmp, "truth.tif"), "--psf", "gaussian:sigma=1.3",
-            "--noise", "gaussian:sigma=0.5", "--boundary", "periodic", "--seed", "5",
-            "-o", os.path.join(tmp, "y.tif")])
-y = tifffile.imread(os.path.join(tmp, "y.tif")).astype(np.float64)
-psf = tifffile.imread(os.path.join(tmp, "psf.tif")).astype(np.float64)
-A = pptest.transfer(psf, (H, W))
-q = pptest.gmrf1_q(H, W)
 lam, dlt = 4.0, 0.8
-p = lam * np.abs(A) ** 2 + dlt * q
-mu = np.real(np.fft.ifft2(lam * np.conj(A) * np.fft.fft2(y) / p))
+y, A, p, mu = pptest.gmrf1_frame_posterior(tmp, truth, 5, lam, dlt)
 
 # Labels: a rectangle, an irregular blob touching the right edge (wraps under
 # periodic boundaries), a single pixel, a 1-pixel-wide line; label values
