@@ -447,18 +447,6 @@ static void histograms_section(page *pg)
 
 /* ---- Tables ------------------------------------------------------------- */
 
-static void num_cell(FILE *f, double v, int warn, const char *flag)
-{
-    fprintf(f, "<td class=\"num%s\">", warn ? " warn" : "");
-    if (isfinite(v))
-        fprintf(f, "%.4g", v);
-    else
-        fputs("&ndash;", f);
-    if (warn)
-        fprintf(f, " <span class=\"flag\">%s</span>", flag);
-    fputs("</td>", f);
-}
-
 static void diagnostics_section(page *pg)
 {
     const pp_report_input *in = pg->in;
@@ -487,12 +475,12 @@ static void diagnostics_section(page *pg)
         fputs("<tr><td>", f);
         pp_report_escape(f, s->name);
         fputs("</td>", f);
-        num_cell(f, s->mean, 0, "");
-        num_cell(f, s->sd, 0, "");
-        num_cell(f, s->mcse, 0, "");
-        num_cell(f, s->rhat, wr, "high");
-        num_cell(f, s->ess_bulk, wb, "low");
-        num_cell(f, s->ess_tail, wt, "low");
+        pp_report_num_cell(f, s->mean, 0, "");
+        pp_report_num_cell(f, s->sd, 0, "");
+        pp_report_num_cell(f, s->mcse, 0, "");
+        pp_report_num_cell(f, s->rhat, wr, "high");
+        pp_report_num_cell(f, s->ess_bulk, wb, "low");
+        pp_report_num_cell(f, s->ess_tail, wt, "low");
         fputs("</tr>\n", f);
     }
     fprintf(f, "</table>\n<p id=\"diag-count\">%zu of %zu quantities flagged.</p></section>\n",

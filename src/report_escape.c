@@ -1,8 +1,9 @@
 /* pixpost — HTML escaping of caller strings for the report files
  * (src/report*.c): every writer of report.html escapes through here, so the
  * escaping rule (and its UTF-8 check) is defined once. One pass, no
- * allocation. */
+ * allocation. Also the numeric table cell every report table writes. */
 #include "report_internal.h"
+#include <math.h>
 #include <stdio.h>
 
 /* Length of the valid UTF-8 sequence at p (1..4), or 0 if it is not one. */
@@ -74,4 +75,16 @@ void pp_report_escape_str(char *buf, size_t len, const char *s)
     long n = ftell(m);
     fclose(m);
     buf[n > 0 && (size_t)n < len ? (size_t)n : (n > 0 ? len - 1 : 0)] = '\0';
+}
+
+void pp_report_num_cell(FILE *f, double v, int warn, const char *flag)
+{
+    fprintf(f, "<td class=\"num%s\">", warn ? " warn" : "");
+    if (isfinite(v))
+        fprintf(f, "%.4g", v);
+    else
+        fputs("&ndash;", f);
+    if (warn)
+        fprintf(f, " <span class=\"flag\">%s</span>", flag);
+    fputs("</td>", f);
 }

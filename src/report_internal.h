@@ -25,6 +25,10 @@ void pp_report_escape(FILE *f, const char *s);
 /* The same into buf (len bytes, always NUL-terminated when len > 0; a
  * longer result is cut, possibly inside an entity). */
 void pp_report_escape_str(char *buf, size_t len, const char *s);
+/* One numeric table cell: v as %.4g (an en dash when not finite), marked
+ * "warn" with the flag word (a fixed word, not escaped) when warn is set.
+ * The diagnostics table and the regions' tables share it. */
+void pp_report_num_cell(FILE *f, double v, int warn, const char *flag);
 
 /* ---- Verdict and warnings (src/report_verdict.c) ------------------------ */
 struct pp_report_input;

@@ -47,34 +47,22 @@ static void gather(const pp_report_regions *g, size_t j, double scale, double *x
             x[c * g->kept + i] = scale * g->draws[(c * g->cap + i) * g->stride + j];
 }
 
-static void cell(FILE *f, double v, int warn, const char *flag)
-{
-    fprintf(f, "<td class=\"num%s\">", warn ? " warn" : "");
-    if (isfinite(v))
-        fprintf(f, "%.4g", v);
-    else
-        fputs("&ndash;", f);
-    if (warn)
-        fprintf(f, " <span class=\"flag\">%s</span>", flag);
-    fputs("</td>", f);
-}
-
 /* The summary's cells (mean, sd, interval, R-hat, ESS, MCSE); returns 1
  * when flagged. interval 0: a probability, the interval shown as a dash. */
 static int summary_cells(FILE *f, const pp_series_summary *m, double ess_min, int interval)
 {
     int wr = m->diag.rhat > PP_REPORT_RHAT_MAX, wb = m->diag.ess_bulk < ess_min,
         wt = m->diag.ess_tail < ess_min;
-    cell(f, m->mean, 0, "");
-    cell(f, m->sd, 0, "");
+    pp_report_num_cell(f, m->mean, 0, "");
+    pp_report_num_cell(f, m->sd, 0, "");
     if (interval && isfinite(m->lo))
         fprintf(f, "<td class=\"num\">%.4g &ndash; %.4g</td>", m->lo, m->hi);
     else
         fputs("<td class=\"num\">&ndash;</td>", f);
-    cell(f, m->diag.rhat, wr, "high");
-    cell(f, m->diag.ess_bulk, wb, "low");
-    cell(f, m->diag.ess_tail, wt, "low");
-    cell(f, m->diag.mcse_mean, 0, "");
+    pp_report_num_cell(f, m->diag.rhat, wr, "high");
+    pp_report_num_cell(f, m->diag.ess_bulk, wb, "low");
+    pp_report_num_cell(f, m->diag.ess_tail, wt, "low");
+    pp_report_num_cell(f, m->diag.mcse_mean, 0, "");
     return wr || wb || wt;
 }
 
