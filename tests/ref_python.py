@@ -46,9 +46,18 @@ if (LIB and "libasan" in subprocess.run(["readelf", "-d", LIB], capture_output=T
     rt = subprocess.run(["cc", "-print-file-name=libasan.so"], capture_output=True,
                         text=True).stdout.strip()
     env = dict(os.environ, LD_PRELOAD=rt,
-               ASAN_OPTIONS="detect_leaks=0:" + os.environ.get("ASAN_OPTIONS", ""))
+               ASAN_OPTIONS=os.environ.get("ASAN_OPTIONS", "") + ":detect_leaks=0")  # last wins
     sys.stdout.flush()
     os.execve(sys.executable, [sys.executable] + sys.argv, env)
+# Once loaded, the runtime must not reach the programs this script starts (the
+# C compiler, the CLI): they are not ASan programs, or are linked with it.
+# Python children that load the library (the venv check below) get it back
+# through PY_ENV.
+PY_ENV = {}
+if "libasan" in os.environ.get("LD_PRELOAD", ""):
+    PY_ENV = {"LD_PRELOAD": os.environ.pop("LD_PRELOAD"),
+              "ASAN_OPTIONS": os.environ["ASAN_OPTIONS"]}
+    os.environ["ASAN_OPTIONS"] = os.environ["ASAN_OPTIONS"][:-len(":detect_leaks=0")]
 PYDIR = os.path.join(pptest.SOURCE, "python")
 sys.path.insert(0, PYDIR)
 import pixpost  # noqa: E402
@@ -379,13 +388,14 @@ code = ("import pixpost, numpy as np; "
         "r.mean.astype(np.float32).tobytes().hex())") % (venv, os.path.join(TMP, "frame.npy"))
 np.save(os.path.join(TMP, "frame.npy"), frame)
 run = subprocess.run([vpy, "-c", code], capture_output=True, text=True, cwd=TMP,
-                     env=dict(os.environ, PYTHONPATH=""))
+                     env=dict(os.environ, PYTHONPATH="", **PY_ENV))
 ref = tifffile.imread(os.path.join(TMP, "cli_2-D gaussian, default prior", "mean.tif"))
 pptest.check(run.returncode == 0 and run.stdout.split()[-1] == ref.tobytes().hex(),
              "the installed module (in the venv) imports from the venv and its mean equals "
              "the CLI's mean.tif: %s" % (run.stderr.strip()[-300:] or "yes"))
 nolib = subprocess.run([vpy, "-c", "import pixpost"], capture_output=True, text=True, cwd=TMP,
-                       env=dict(os.environ, PYTHONPATH="", PIXPOST_LIBRARY="/nonexistent/lib.so"))
+                       env=dict(os.environ, PYTHONPATH="", PIXPOST_LIBRARY="/nonexistent/lib.so",
+                                **PY_ENV))
 pptest.check(nolib.returncode != 0 and "PIXPOST_LIBRARY" in nolib.stderr,
              "a wrong PIXPOST_LIBRARY fails with a message naming it")
 pptest.done()

@@ -278,8 +278,11 @@ int cli_cmd_demo(int argc, char **argv)
     if (st != PP_OK)
         return cli_fail(st);
     printf("pixpost demo: bundled frames from %s\n", images);
-    for (size_t i = 0; i < DEMO_NFRAMES && rc == 0; i++)
+    fflush(stdout); /* seen at once when piped (`pixpost demo | tee log`) */
+    for (size_t i = 0; i < DEMO_NFRAMES && rc == 0; i++) {
         rc = run_frame(images, outdir, &demo_frames[i], overwrite);
+        fflush(stdout);
+    }
     if (rc == 0)
         printf("outputs are in %s/\n", outdir);
     return rc;
