@@ -203,7 +203,8 @@ typedef struct cli_sample_opts {
     size_t nprofiles;       /* --profile values given */
     double profile_lines[6 * (CLI_MAX_REPEAT + 1)]; /* z0, r0, c0, z1, r1, c1 each */
     int profile_3d[CLI_MAX_REPEAT + 1]; /* 1: given with z (six numbers) */
-    double spots_radius;    /* --spots R[,RZ] (the ring's radius in pixels), or 0 */
+    double spots_radius;    /* --spots R[,RZ] (the ring's radius in pixels), -1 for
+                             * --spots auto (from the PSF), or 0 */
     double spots_radius_z;  /* its RZ (slices, volumes), or 0: from the voxel size */
 } cli_sample_opts;
 
