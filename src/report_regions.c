@@ -187,7 +187,7 @@ static pp_status profile_plot(FILE *f, const pp_report_input *in, const pp_repor
     fprintf(f, "<figure class=\"profile\" id=\"profile-%zu-figure\">", k + 1);
     pp_report_svg_band(f, &pl, lo, hi);
     fputs("<figcaption>", f);
-    pp_report_plain(f, "profile", in->level, 0);
+    pp_report_plain(f, "profile", in->level, vol);
     fprintf(f,
             "<b>Profile %zu</b> (%zu points, one per %s step, %s between %ss; "
             "profile_%zu.csv): line, the posterior mean; band, the central %.4g%% credible "
