@@ -1,5 +1,5 @@
 /* pixpost — the robust range that maps every picture pixpost writes to
- * grey or colour (src/display.h): the PNG outputs (src/output.c) and the
+ * grey or colour (src/display.h), for levels and for spreads: the PNG outputs (src/output.c) and the
  * report's images (src/report*.c) take it from here.
  * Cost: one copy and qsort of the finite pixels per call. */
 #include "display.h"
@@ -51,5 +51,15 @@ pp_status pp_display_range(const pp_image *img, double *lo, double *hi)
         *lo -= d;
         *hi += d;
     }
+    return st;
+}
+
+pp_status pp_display_spread_range(const pp_image *img, double *lo, double *hi)
+{
+    double p0;
+    pp_status st = pp_display_percentiles(img, PP_DISPLAY_LO, PP_DISPLAY_HI, &p0, hi);
+    *lo = 0.0;
+    if (st == PP_OK && !(*hi > 0.0))
+        *hi = 1.0;
     return st;
 }

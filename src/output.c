@@ -350,12 +350,14 @@ typedef struct png_scales {
 } png_scales;
 
 /* The 16-bit PNG's offset and scale for img: its display range
- * (src/display.h, the report's grey scale) onto 0..65535, clipped beyond;
- * offset 0, scale 1 when no pixel is finite. */
-static pp_status png_scale(const pp_image *img, double *offset, double *scale)
+ * (src/display.h, the report's grey scales: the robust range, or 0 to the
+ * top percentile for a spread map such as the sd) onto 0..65535, clipped
+ * beyond; offset 0, scale 1 when no pixel is finite. */
+static pp_status png_scale(const pp_image *img, int spread, double *offset, double *scale)
 {
     double lo, hi;
-    pp_status st = pp_display_range(img, &lo, &hi);
+    pp_status st = spread ? pp_display_spread_range(img, &lo, &hi)
+                          : pp_display_range(img, &lo, &hi);
     if (st == PP_ERR_NUMERIC) {
         lo = 0.0;
         hi = 65535.0;
@@ -484,12 +486,15 @@ static pp_status write_summary(const char *path, const pp_result *r, const pp_ru
     pp_json_write_number(f, r->seconds);
     fputs(", \"seconds_per_iteration\": ", f);
     pp_json_write_number(f, r->seconds / (double)iters * (double)c->chains);
-    fprintf(f, "},\n  \"png_scale\": {\"formula\": \"value = offset + stored * scale; the "
-               "%gth to %gth percentiles span 0..65535, values beyond are clipped (the "
-               "report's grey scale)\", "
-               "\"mean\": {\"offset\": %.10g, \"scale\": %.10g}, "
-               "\"sd\": {\"offset\": %.10g, \"scale\": %.10g}",
-            PP_DISPLAY_LO, PP_DISPLAY_HI, ps->mean_offset, ps->mean_scale, ps->sd_offset, ps->sd_scale);
+    fprintf(f, "},\n  \"png_scale\": {\"formula\": \"value = offset + stored * scale; "
+               "range (0..65535) as each image's 'range' says, values beyond are clipped (the "
+               "report's grey scales)\", "
+               "\"mean\": {\"offset\": %.10g, \"scale\": %.10g, \"range\": \"the %gth to "
+               "%gth percentiles\"}, "
+               "\"sd\": {\"offset\": %.10g, \"scale\": %.10g, \"range\": \"0 to the %gth "
+               "percentile, so grey is proportional to the sd\"}",
+            ps->mean_offset, ps->mean_scale, PP_DISPLAY_LO, PP_DISPLAY_HI, ps->sd_offset,
+            ps->sd_scale, PP_DISPLAY_HI);
     if (volume)
         fputs(", \"images\": \"mean_mip.png, sd_mip.png: maximum-intensity projections over "
               "z (the largest finite value of each (y, x) column of the volume)\"",
@@ -710,9 +715,9 @@ pp_status pp_output_write(const char *dir, const pp_result *r, const pp_image *f
     const pp_image *shown[2] = {volume ? mip[0] : r->mean, volume ? mip[1] : r->sd};
     png_scales ps;
     if (st == PP_OK)
-        st = png_scale(shown[0], &ps.mean_offset, &ps.mean_scale);
+        st = png_scale(shown[0], 0, &ps.mean_offset, &ps.mean_scale);
     if (st == PP_OK)
-        st = png_scale(shown[1], &ps.sd_offset, &ps.sd_scale);
+        st = png_scale(shown[1], 1, &ps.sd_offset, &ps.sd_scale);
     if (st != PP_OK) {
         pp_image_free(mip[0]);
         pp_image_free(mip[1]);

@@ -127,13 +127,20 @@ static void block_note(FILE *f, const pp_image *img)
 }
 
 /* The end of a figure's caption: the units, where the mapping's ends come
- * from ("of this <what>"), the block-mean note, and the closing tags. */
-static void caption_end(page *pg, const pp_image *img, const char *units, const char *what)
+ * from ("of this <what>": its robust range, or 0 to its top percentile for
+ * a spread map, src/display.h), the block-mean note, and the closing tags. */
+static void caption_end(page *pg, const pp_image *img, const char *units, const char *what,
+                        int spread)
 {
     FILE *f = pg->f;
     pp_report_escape(f, units);
-    fprintf(f, " (the %.1fth and %.1fth percentiles of this %s; values beyond are clipped).",
-            PP_DISPLAY_LO, PP_DISPLAY_HI, what);
+    if (spread)
+        fprintf(f, " (0 and the %.1fth percentile of this %s, so the shade is proportional to "
+                   "the value and a nearly constant map looks flat; values beyond are clipped).",
+                PP_DISPLAY_HI, what);
+    else
+        fprintf(f, " (the %.1fth and %.1fth percentiles of this %s; values beyond are clipped).",
+                PP_DISPLAY_LO, PP_DISPLAY_HI, what);
     block_note(f, img);
     fputs("</figcaption></figure>\n", f);
 }
@@ -145,12 +152,13 @@ static double pixel_um(const pp_report_input *in)
 }
 
 /* Opens a figure with img's picture (grey, or the colour ramp) mapped over
- * its display range *lo..*hi (src/display.h), which the data-<end>
- * attributes record, and the probe pixels and scale bar over it. */
+ * its display range *lo..*hi (src/display.h; spread: 0 to the top
+ * percentile), which the data-<end> attributes record, and the probe pixels
+ * and scale bar over it. */
 static pp_status figure_image(page *pg, const char *key, const pp_image *img, const char *what,
-                              int colour, double *lo, double *hi)
+                              int colour, int spread, double *lo, double *hi)
 {
-    pp_status st = pp_display_range(img, lo, hi);
+    pp_status st = spread ? pp_display_spread_range(img, lo, hi) : pp_display_range(img, lo, hi);
     if (st != PP_OK)
         return st;
     fprintf(pg->f,
@@ -177,7 +185,7 @@ static pp_status grey_figure(page *pg, const char *key, const pp_image *img, con
 {
     FILE *f = pg->f;
     double lo, hi;
-    pp_status st = figure_image(pg, key, img, what, 0, &lo, &hi);
+    pp_status st = figure_image(pg, key, img, what, 0, 0, &lo, &hi);
     if (st != PP_OK)
         return st;
     fputs("<figcaption>", f);
@@ -186,17 +194,18 @@ static pp_status grey_figure(page *pg, const char *key, const pp_image *img, con
             "<b>%s</b> (%zu&times;%zu pixels). Grey, linear: black = %.4g, "
             "white = %.4g ",
             what, img->width, img->height, lo, hi);
-    caption_end(pg, img, units, "image, so each grey image has its own scale");
+    caption_end(pg, img, units, "image, so each grey image has its own scale", 0);
     return PP_OK;
 }
 
-/* One colour figure with its colour bar in units: sd, width or residual. */
+/* One colour figure with its colour bar in units: sd or width (spread maps,
+ * spread 1), or residual. */
 static pp_status colour_figure(page *pg, const char *key, const pp_image *img, const char *what,
-                               const char *explain, const char *units)
+                               const char *explain, const char *units, int spread)
 {
     FILE *f = pg->f;
     double lo, hi;
-    pp_status st = figure_image(pg, key, img, what, 1, &lo, &hi);
+    pp_status st = figure_image(pg, key, img, what, 1, spread, &lo, &hi);
     if (st != PP_OK)
         return st;
     char id[64];
@@ -208,7 +217,7 @@ static pp_status colour_figure(page *pg, const char *key, const pp_image *img, c
             "<b>%s</b>: %s Colour, linear from %.4g (darkest) to %.4g "
             "(brightest) ",
             what, explain, lo, hi);
-    caption_end(pg, img, units, "map");
+    caption_end(pg, img, units, "map", spread);
     return PP_OK;
 }
 
@@ -225,7 +234,7 @@ static pp_status width_figure(page *pg)
     snprintf(explain, sizeof explain,
              "hi &minus; lo, the width of the central %.4g%% credible interval of each pixel.",
              100.0 * in->level);
-    st = colour_figure(pg, "width", w, "Credible-interval width", explain, pg->units);
+    st = colour_figure(pg, "width", w, "Credible-interval width", explain, pg->units, 1);
     pp_image_free(w);
     return st;
 }
@@ -257,7 +266,7 @@ static pp_status images_section(page *pg)
         st = colour_figure(pg, "sd", in->sd, "Posterior standard deviation",
                            in->sd_caption ? in->sd_caption
                                           : "the spread of the posterior of each pixel.",
-                           pg->units);
+                           pg->units, 1);
     if (st == PP_OK && in->lo && in->hi)
         st = width_figure(pg);
     if (st == PP_OK && in->residual) {
@@ -269,7 +278,7 @@ static pp_status images_section(page *pg)
                  "model fits; blank where left out (the frame's edges with %s pad, "
                  "unobserved pixels).",
                  b);
-        st = colour_figure(pg, "residual", in->residual, "Standardised residual", explain, "sd");
+        st = colour_figure(pg, "residual", in->residual, "Standardised residual", explain, "sd", 0);
     }
     fputs("</div></section>\n", pg->f);
     return st;

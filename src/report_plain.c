@@ -38,9 +38,10 @@ void pp_report_plain(FILE *f, const char *key, double level, int volume)
               "peak, near 0.5 the data cannot tell. ",
               f);
     else if (strcmp(key, "profile") == 0)
-        fputs("The brightness along the line drawn on the mean image: the line is the best "
-              "guess, the shaded band the range it plausibly lies in under the model. ",
-              f);
+        fprintf(f,
+                "The brightness along the line %s: the line is the best guess, the shaded "
+                "band the range it plausibly lies in under the model. ",
+                volume ? "given with --profile through the volume" : "drawn on the mean image");
     else if (strcmp(key, "residual") == 0)
         fputs("What the reconstruction leaves unexplained in the data, in units of the "
               "expected noise: plain speckle when the model fits; shapes of objects here "

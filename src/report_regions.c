@@ -155,7 +155,7 @@ static pp_status profile_plot(FILE *f, const pp_report_input *in, const pp_repor
     double *v = malloc(3 * n * sizeof *v);
     if (!v)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the report's profiles");
-    double *lo = v + n, *hi = v + 2 * n, r0, c0, r1, c1, d0, len;
+    double *lo = v + n, *hi = v + 2 * n, a[3], b[3], d0, len, d0um, len_um;
     for (size_t i = 0; i < n; i++) {
         pp_series_summary m;
         gather(g, off + first + i, 1.0, x);
@@ -166,24 +166,35 @@ static pp_status profile_plot(FILE *f, const pp_report_input *in, const pp_repor
         }
         v[i] = m.mean, lo[i] = m.lo, hi[i] = m.hi;
     }
-    pp_profiles_point(p, first, &r0, &c0, &d0);
-    pp_profiles_point(p, first + n - 1, &r1, &c1, &len);
-    char id[48], title[200];
+    pp_profiles_point(p, first, a, &d0, &d0um);
+    pp_profiles_point(p, first + n - 1, b, &len, &len_um);
+    int vol = in->mean && in->mean->depth > 1, um = vol && isfinite(len_um);
+    char id[48], title[240];
     snprintf(id, sizeof id, "profile-%zu", k + 1);
-    snprintf(title, sizeof title, "Profile %zu: row %g, column %g to row %g, column %g", k + 1, r0,
-             c0, r1, c1);
-    pp_series s = {v, n, 1, 0.0, n > 1 ? len / (double)(n - 1) : 1.0};
-    pp_plot pl = {id, title, "distance from the start (pixels)", units, 560, 240, &s, 1, 0, NAN,
-                  NAN};
+    if (vol)
+        snprintf(title, sizeof title,
+                 "Profile %zu: slice %g, row %g, column %g to slice %g, row %g, column %g", k + 1,
+                 a[0], a[1], a[2], b[0], b[1], b[2]);
+    else
+        snprintf(title, sizeof title, "Profile %zu: row %g, column %g to row %g, column %g",
+                 k + 1, a[1], a[2], b[1], b[2]);
+    double span = um ? len_um : len;
+    pp_series s = {v, n, 1, 0.0, n > 1 ? span / (double)(n - 1) : 1.0};
+    pp_plot pl = {id,  title, um ? "distance from the start (\u00b5m)"
+                                 : vol ? "distance from the start (voxel steps)"
+                                       : "distance from the start (pixels)",
+                  units, 560, 240, &s, 1, 0, NAN, NAN};
     fprintf(f, "<figure class=\"profile\" id=\"profile-%zu-figure\">", k + 1);
     pp_report_svg_band(f, &pl, lo, hi);
     fputs("<figcaption>", f);
-    pp_report_plain(f, "profile", in->level, 0);
+    pp_report_plain(f, "profile", in->level, vol);
     fprintf(f,
-            "<b>Profile %zu</b> (%zu points, one per pixel step, bilinear between pixels; "
+            "<b>Profile %zu</b> (%zu points, one per %s step, %s between %ss; "
             "profile_%zu.csv): line, the posterior mean; band, the central %.4g%% credible "
-            "interval at each point, both from the kept draws.</figcaption></figure>\n",
-            k + 1, n, k + 1, 100.0 * in->level);
+            "interval at each point, both from the kept draws.%s</figcaption></figure>\n",
+            k + 1, n, vol ? "voxel" : "pixel", vol ? "trilinear" : "bilinear",
+            vol ? "voxel" : "pixel", k + 1, 100.0 * in->level,
+            vol ? " Not drawn on the volume's views." : "");
     free(v);
     return PP_OK;
 }
@@ -203,24 +214,35 @@ static pp_status spot_table(FILE *f, const pp_report_input *in, const pp_report_
 {
     const pp_spots *sp = g->spots;
     size_t n = pp_spots_count(sp), off = g->stride - n, flagged = 0, real = 0;
+    int vol = pp_spots_radius_z(sp) > 0;
     fputs("<h3>Spots</h3>\n<p>", f);
     pp_report_plain(f, "spots", in->level, 0);
-    fprintf(f,
-            "Candidates: the local maxima of the input frame (3&times;3 box mean) that stand "
-            "above the ring of pixels %g from them; contrast C = centre &minus; ring mean in "
-            "every kept draw (spots.csv; README, &ldquo;Regions, profiles and probability "
-            "maps&rdquo;). Marked on the mean image: a circle of the ring's radius and the "
-            "spot's number where P(C &gt; 0) &ge; 0.95, a small dashed circle elsewhere. The "
-            "columns after P(C &gt; 0) describe the contrast C, in ",
-            pp_spots_radius(sp));
+    if (vol)
+        fprintf(f,
+                "Candidates: the local maxima of the input volume (3&times;3&times;3 box mean) "
+                "that stand above the shell of voxels %g pixels from them in the plane and %g "
+                "slices along z; contrast C = centre &minus; shell mean in every kept draw "
+                "(spots.csv; README, &ldquo;Regions, profiles and probability maps&rdquo;). Not "
+                "drawn on the volume's views. The columns after P(C &gt; 0) describe the "
+                "contrast C, in ",
+                pp_spots_radius(sp), pp_spots_radius_z(sp));
+    else
+        fprintf(f,
+                "Candidates: the local maxima of the input frame (3&times;3 box mean) that stand "
+                "above the ring of pixels %g from them; contrast C = centre &minus; ring mean in "
+                "every kept draw (spots.csv; README, &ldquo;Regions, profiles and probability "
+                "maps&rdquo;). Marked on the mean image: a circle of the ring's radius and the "
+                "spot's number where P(C &gt; 0) &ge; 0.95, a small dashed circle elsewhere. The "
+                "columns after P(C &gt; 0) describe the contrast C, in ",
+                pp_spots_radius(sp));
     pp_report_escape(f, in->units ? in->units : "input units");
     fputs(".</p>\n", f);
     if (!n) {
         fputs("<p id=\"spots-none\">No candidate spot in this frame.</p>\n", f);
         return PP_OK;
     }
-    fprintf(f, "<table id=\"spots-table\">\n<tr><th>spot</th><th>row, column</th>"
-               "<th>P(C &gt; 0)</th>%s", HEAD_CELLS);
+    fprintf(f, "<table id=\"spots-table\">\n<tr><th>spot</th><th>%s</th>"
+               "<th>P(C &gt; 0)</th>%s", vol ? "slice, row, column" : "row, column", HEAD_CELLS);
     for (size_t k = 0; k < n; k++) {
         pp_series_summary m;
         gather(g, off + k, 1.0, x);
@@ -229,9 +251,11 @@ static pp_status spot_table(FILE *f, const pp_report_input *in, const pp_report_
             return st;
         double p = spot_p(g, k);
         real += p >= 0.95;
-        fprintf(f, "<tr class=\"spot\" data-spot=\"%zu\"><td>%zu</td><td>%zu, %zu</td>"
-                   "<td class=\"num\">%.4g</td>",
-                k + 1, k + 1, pp_spots_row(sp, k), pp_spots_col(sp, k), p);
+        fprintf(f, "<tr class=\"spot\" data-spot=\"%zu\"><td>%zu</td><td>", k + 1, k + 1);
+        if (vol)
+            fprintf(f, "%zu, ", pp_spots_z(sp, k));
+        fprintf(f, "%zu, %zu</td><td class=\"num\">%.4g</td>", pp_spots_row(sp, k),
+                pp_spots_col(sp, k), p);
         flagged += summary_cells(f, &m, ess_min, 1);
         fputs("</tr>\n", f);
     }
@@ -292,10 +316,10 @@ void pp_report_regions_marks(FILE *f, const pp_report_input *in, size_t w, size_
     if (r && !pp_regions_fit(r, 1, h, w))
         r = NULL;
     const pp_profiles *p = g->profiles;
-    if (p && !pp_profiles_fit(p, h, w))
+    if (p && !pp_profiles_fit(p, 1, h, w))
         p = NULL;
     const pp_spots *sp = g->spots;
-    if (sp && !pp_spots_fit(sp, h, w))
+    if (sp && !pp_spots_fit(sp, 1, h, w))
         sp = NULL;
     if (!r && !p && !sp)
         return;
@@ -340,9 +364,10 @@ void pp_report_regions_marks(FILE *f, const pp_report_input *in, size_t w, size_
     free(cen);
     for (size_t k = 0; p && k < pp_profiles_lines(p); k++) {
         size_t first = pp_profiles_line_first(p, k), n = pp_profiles_line_points(p, k);
-        double r0, c0, r1, c1, d;
-        pp_profiles_point(p, first, &r0, &c0, &d);
-        pp_profiles_point(p, first + n - 1, &r1, &c1, &d);
+        double a[3], b[3], d, du;
+        pp_profiles_point(p, first, a, &d, &du);
+        pp_profiles_point(p, first + n - 1, b, &d, &du);
+        double r0 = a[1], c0 = a[2], r1 = b[1], c1 = b[2];
         fprintf(f,
                 "<line class=\"pline\" data-profile=\"%zu\" x1=\"%.2f\" y1=\"%.2f\" x2=\"%.2f\" "
                 "y2=\"%.2f\"/><text class=\"pline\" x=\"%.2f\" y=\"%.2f\" "

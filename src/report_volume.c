@@ -6,7 +6,8 @@
  *
  * What is embedded: per image one 8-bit grey PNG (data URI) that tiles its
  * XY slices in rows, mapped as a frame's images are (grey: black to white
- * over the 0.5th..99.5th percentiles of the whole volume; the colour maps
+ * over the 0.5th..99.5th percentiles of the whole volume (the sd and the
+ * width from 0 to the 99.5th, src/display.h); the colour maps
  * store the same 8-bit level and the script looks the colour up in a
  * 256-entry table of pixpost's ramp). The script reads each tile set back
  * from a canvas once and draws any slice, row or column from it, so the
@@ -131,12 +132,14 @@ typedef struct quantity {
     const pp_image *img;
     int colour;
     double level; /* the credible level (the width's plain sentence) */
+    int spread;   /* a spread map: mapped from 0 (src/display.h) */
 } quantity;
 
 static pp_status figure(FILE *f, const quantity *q, const volplan *p)
 {
     double lo, hi;
-    pp_status st = pp_display_range(q->img, &lo, &hi);
+    pp_status st = q->spread ? pp_display_spread_range(q->img, &lo, &hi)
+                             : pp_display_range(q->img, &lo, &hi);
     if (st != PP_OK)
         return st;
     size_t aw, ah;
@@ -172,10 +175,17 @@ static pp_status figure(FILE *f, const quantity *q, const volplan *p)
             q->explain ? ": " : ".", q->explain ? q->explain : "", q->colour ? "Colour" : "Grey",
             lo, q->colour ? "darkest" : "black", hi, q->colour ? "brightest" : "white");
     pp_report_escape(f, q->units);
-    fprintf(f,
-            " (the %.1fth and %.1fth percentiles of this volume; values beyond are clipped)."
-            "</figcaption></figure>\n",
-            PP_DISPLAY_LO, PP_DISPLAY_HI);
+    if (q->spread)
+        fprintf(f,
+                " (0 and the %.1fth percentile of this volume, so the shade is proportional to "
+                "the value and a nearly constant map looks flat; values beyond are clipped)."
+                "</figcaption></figure>\n",
+                PP_DISPLAY_HI);
+    else
+        fprintf(f,
+                " (the %.1fth and %.1fth percentiles of this volume; values beyond are clipped)."
+                "</figcaption></figure>\n",
+                PP_DISPLAY_LO, PP_DISPLAY_HI);
     return PP_OK;
 }
 
@@ -194,7 +204,8 @@ static void intro(FILE *f, const volplan *p)
           "(top left); YZ, the column at x through every slice (right, z to the right); XZ, "
           "the row at y through every slice (below, z downwards). Move the sliders, or click a "
           "view, to move the point (the thin lines). Each image is mapped over its own 0.5th "
-          "to 99.5th percentiles of the whole volume.",
+          "to 99.5th percentiles of the whole volume, the sd and the interval width from 0 "
+          "to their 99.5th percentile.",
           f);
     if (p->k[0] > 1 || p->k[1] > 1)
         fprintf(f,
@@ -346,16 +357,16 @@ pp_status pp_report_volume_section(FILE *f, const pp_report_input *in, const cha
              "hi &minus; lo, the width of the central %.4g%% credible interval of each voxel.",
              100.0 * in->level);
     const quantity qs[5] = {
-        {"frame", "Input volume", NULL, frame_units, in->frame, 0, in->level},
-        {"mean", "Posterior mean", NULL, units, in->mean, 0, in->level},
+        {"frame", "Input volume", NULL, frame_units, in->frame, 0, in->level, 0},
+        {"mean", "Posterior mean", NULL, units, in->mean, 0, in->level, 0},
         {"sd", "Posterior standard deviation",
          in->sd_caption ? in->sd_caption : "the spread of the posterior of each voxel.", units,
-         in->sd, 1, in->level},
-        {"width", "Credible-interval width", wexplain, units, width, 1, in->level},
+         in->sd, 1, in->level, 1},
+        {"width", "Credible-interval width", wexplain, units, width, 1, in->level, 1},
         {"residual", "Standardised residual",
          "(y &minus; E[y | mean]) / &radic;Var[y | mean], the predictive check's residual "
          "(section &ldquo;Checks&rdquo;); blank where left out.",
-         "sd", in->residual, 1, in->level},
+         "sd", in->residual, 1, in->level, 0},
     };
     intro(f, &p);
     for (int i = 0; i < 5 && st == PP_OK; i++)

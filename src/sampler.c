@@ -465,13 +465,10 @@ static pp_status plan_trace(pp_sampler *s)
     }
     if (s->cfg.regions && !pp_regions_fit(s->cfg.regions, s->depth, s->height, s->width))
         return pp_fail(PP_ERR_ARG, "the regions were planned for another frame size");
-    if (s->cfg.profiles &&
-        (s->depth > 1 || !pp_profiles_fit(s->cfg.profiles, s->height, s->width)))
-        return pp_fail(PP_ERR_ARG, "the profiles were planned for another frame size (or the "
-                                   "frame is a volume: profiles are for frames)");
-    if (s->cfg.spots && (s->depth > 1 || !pp_spots_fit(s->cfg.spots, s->height, s->width)))
-        return pp_fail(PP_ERR_ARG, "the spots were planned for another frame size (or the "
-                                   "frame is a volume: spots are for frames)");
+    if (s->cfg.profiles && !pp_profiles_fit(s->cfg.profiles, s->depth, s->height, s->width))
+        return pp_fail(PP_ERR_ARG, "the profiles were planned for another frame size");
+    if (s->cfg.spots && !pp_spots_fit(s->cfg.spots, s->depth, s->height, s->width))
+        return pp_fail(PP_ERR_ARG, "the spots were planned for another frame size");
     s->nreg = s->cfg.regions ? pp_regions_count(s->cfg.regions) : 0;
     s->nprof = s->cfg.profiles ? pp_profiles_points(s->cfg.profiles) : 0;
     s->nfun = s->nreg + s->nprof + (s->cfg.spots ? pp_spots_count(s->cfg.spots) : 0);

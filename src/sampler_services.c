@@ -35,9 +35,10 @@ void pp_chain_draw_stats(const pp_sampler *s, pp_chain *c, const double *f, doub
         pp_regions_sum(s->cfg.regions, f, s->gw, s->gh * s->gw, scale,
                        c->regs + c->kept * s->nfun);
     if (s->cfg.profiles)
-        pp_profiles_eval(s->cfg.profiles, f, s->gw, scale, c->regs + c->kept * s->nfun + s->nreg);
+        pp_profiles_eval(s->cfg.profiles, f, s->gw, s->gh * s->gw, scale,
+                         c->regs + c->kept * s->nfun + s->nreg);
     if (s->cfg.spots)
-        pp_spots_eval(s->cfg.spots, f, s->gw, scale,
+        pp_spots_eval(s->cfg.spots, f, s->gw, s->gh * s->gw, scale,
                       c->regs + c->kept * s->nfun + s->nreg + s->nprof);
     const size_t plane = s->height * s->width;
     for (size_t t = 0; t < s->nabove; t++) {

@@ -1,8 +1,8 @@
 /* pixpost — spots (include/pixpost/spots.h): the candidates of a pilot
- * frame (strict 3 x 3 local maxima with a positive ring contrast), their
- * rings, a draw's contrasts, and spots.csv. Cost: planning O(frame x m +
- * K log K); a draw O(K m) for K spots of m ring pixels; writing O(S log S)
- * per spot for S draws. */
+ * frame or volume (strict 3 x 3 or 3 x 3 x 3 local maxima with a positive
+ * ring contrast), their rings, a draw's contrasts, and spots.csv. Cost:
+ * planning O(image x m + K log K); a draw O(K m) for K spots of m ring
+ * pixels; writing O(S log S) per spot for S draws. */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -12,15 +12,15 @@
 #include "pixpost/spots.h"
 
 typedef struct spot {
-    size_t r, c, first, m; /* ring: m offsets from ring[first] */
-    double pilot;          /* the pilot's contrast */
+    size_t z, r, c, first, m; /* ring: m offsets from ring[first] */
+    double pilot;             /* the pilot's contrast */
 } spot;
 
 struct pp_spots {
-    size_t height, width, n;
-    double radius;
+    size_t depth, height, width, n;
+    double radius, radius_z;
     spot *s;
-    size_t *ring; /* frame indices (row * width + col) */
+    size_t *ring; /* image indices ((z * height + row) * width + col) */
 };
 
 void pp_spots_free(pp_spots *s)
@@ -33,46 +33,67 @@ void pp_spots_free(pp_spots *s)
 }
 
 size_t pp_spots_count(const pp_spots *s) { return s->n; }
+size_t pp_spots_z(const pp_spots *s, size_t k) { return s->s[k].z; }
 size_t pp_spots_row(const pp_spots *s, size_t k) { return s->s[k].r; }
 size_t pp_spots_col(const pp_spots *s, size_t k) { return s->s[k].c; }
 double pp_spots_pilot(const pp_spots *s, size_t k) { return s->s[k].pilot; }
 size_t pp_spots_ring(const pp_spots *s, size_t k) { return s->s[k].m; }
 double pp_spots_radius(const pp_spots *s) { return s->radius; }
-int pp_spots_fit(const pp_spots *s, size_t height, size_t width)
+double pp_spots_radius_z(const pp_spots *s) { return s->depth > 1 ? s->radius_z : 0.0; }
+int pp_spots_fit(const pp_spots *s, size_t depth, size_t height, size_t width)
 {
-    return s->height == height && s->width == width;
+    return s->depth == depth && s->height == height && s->width == width;
 }
 
-/* 1 when pixel (r, c) of f (h x w) is a strict local maximum of its 3 x 3
- * neighbourhood, ties going to the first in row order. */
-static int local_max(const double *f, size_t h, size_t w, size_t r, size_t c)
+/* The image value at (z, r, c) when inside, else NaN. */
+static double at(const pp_image *f, long z, long r, long c)
 {
-    double v = f[r * w + c];
+    if (z < 0 || r < 0 || c < 0 || z >= (long)f->depth || r >= (long)f->height ||
+        c >= (long)f->width)
+        return NAN;
+    return f->data[((size_t)z * f->height + (size_t)r) * f->width + (size_t)c];
+}
+
+/* 1 when voxel (z, r, c) of f is a strict local maximum of its 3 x 3 (x 3
+ * on a volume) neighbourhood, ties going to the first in (slice, row,
+ * column) order. */
+static int local_max(const pp_image *f, size_t z, size_t r, size_t c)
+{
+    double v = at(f, (long)z, (long)r, (long)c);
     if (!isfinite(v))
         return 0;
-    for (long dr = -1; dr <= 1; dr++)
-        for (long dc = -1; dc <= 1; dc++) {
-            long rr = (long)r + dr, cc = (long)c + dc;
-            if ((!dr && !dc) || rr < 0 || cc < 0 || rr >= (long)h || cc >= (long)w)
-                continue;
-            double u = f[(size_t)rr * w + (size_t)cc];
-            if (u > v || (u == v && (dr < 0 || (dr == 0 && dc < 0))))
-                return 0;
-        }
+    long e = f->depth > 1;
+    for (long dz = -e; dz <= e; dz++)
+        for (long dr = -1; dr <= 1; dr++)
+            for (long dc = -1; dc <= 1; dc++) {
+                if (!dz && !dr && !dc)
+                    continue;
+                double u = at(f, (long)z + dz, (long)r + dr, (long)c + dc);
+                if (u > v ||
+                    (u == v && (dz < 0 || (dz == 0 && (dr < 0 || (dr == 0 && dc < 0))))))
+                    return 0;
+            }
     return 1;
 }
 
-/* The ring offsets of radius R: (dr, dc) with R - 1/2 <= |d| < R + 1/2. */
-static size_t ring_offsets(double R, long *dr, long *dc, size_t max)
+/* The ring offsets of radius R (axial Rz, slices; ez 0 on a frame): (dz,
+ * dr, dc) with R - 1/2 <= d < R + 1/2, d = sqrt((dz R / Rz)^2 + dr^2 +
+ * dc^2). Counts them when off is NULL. */
+static size_t ring_offsets(double R, double Rz, long ez, long *off)
 {
     long e = (long)ceil(R + 0.5);
     size_t n = 0;
-    for (long a = -e; a <= e; a++)
-        for (long b = -e; b <= e; b++) {
-            double d = sqrt((double)(a * a + b * b));
-            if (d >= R - 0.5 && d < R + 0.5 && n < max)
-                dr[n] = a, dc[n++] = b;
-        }
+    for (long z = -ez; z <= ez; z++)
+        for (long a = -e; a <= e; a++)
+            for (long b = -e; b <= e; b++) {
+                double sz = ez ? (double)z * R / Rz : 0.0;
+                double d = sqrt(sz * sz + (double)(a * a + b * b));
+                if (d >= R - 0.5 && d < R + 0.5) {
+                    if (off)
+                        off[3 * n] = z, off[3 * n + 1] = a, off[3 * n + 2] = b;
+                    n++;
+                }
+            }
     return n;
 }
 
@@ -81,92 +102,101 @@ static int by_pilot(const void *a, const void *b)
     const spot *x = a, *y = b;
     if (x->pilot != y->pilot)
         return x->pilot < y->pilot ? 1 : -1;
+    if (x->z != y->z)
+        return (x->z > y->z) - (x->z < y->z);
     size_t i = x->r, j = y->r;
     return i != j ? (i > j) - (i < j) : (x->c > y->c) - (x->c < y->c);
 }
 
-pp_status pp_spots_plan(const pp_image *pilot, double radius, pp_spots **out)
+pp_status pp_spots_plan(const pp_image *pilot, double radius, double radius_z, pp_spots **out)
 {
     *out = NULL;
-    if (!pilot || pilot->depth > 1)
-        return pp_fail(PP_ERR_ARG, "spots are for frames; sample one slice of a volume");
+    if (!pilot)
+        return pp_fail(PP_ERR_ARG, "spots: no pilot image");
     if (!(radius >= 1 && radius <= 50))
         return pp_fail(PP_ERR_ARG, "the spots' ring radius %g is out of range; give 1 to 50 "
                                    "pixels (about the PSF's width or the spot's size)", radius);
-    size_t h = pilot->height, w = pilot->width, cap = 4 * ((size_t)ceil(radius) + 2) * 8;
-    long *dr = malloc(cap * sizeof *dr), *dc = malloc(cap * sizeof *dc);
+    int vol = pilot->depth > 1;
+    if (vol && !(radius_z >= 1 && radius_z <= 50))
+        return pp_fail(PP_ERR_ARG, "the spots' axial ring radius %g is out of range; give 1 to "
+                                   "50 slices (about the PSF's axial width or the spot's depth)",
+                       radius_z);
+    size_t d = pilot->depth, h = pilot->height, w = pilot->width;
+    long ez = vol ? (long)ceil(radius_z * (radius + 0.5) / radius) : 0;
+    size_t m0 = ring_offsets(radius, radius_z, ez, NULL);
+    long *off = malloc((3 * m0 + 3) * sizeof *off);
     pp_spots *s = calloc(1, sizeof *s);
     spot *all = NULL;
     size_t nall = 0;
-    if (!dr || !dc || !s)
+    if (!off || !s)
         goto nomem;
-    size_t m0 = ring_offsets(radius, dr, dc, cap);
-    for (size_t r = 0; r < h; r++)
-        for (size_t c = 0; c < w; c++)
-            nall += local_max(pilot->data, h, w, r, c);
+    ring_offsets(radius, radius_z, ez, off);
+    for (size_t z = 0; z < d; z++)
+        for (size_t r = 0; r < h; r++)
+            for (size_t c = 0; c < w; c++)
+                nall += local_max(pilot, z, r, c);
     all = malloc((nall + 1) * sizeof *all);
     if (!all)
         goto nomem;
     nall = 0;
-    for (size_t r = 0; r < h; r++)
-        for (size_t c = 0; c < w; c++) {
-            if (!local_max(pilot->data, h, w, r, c))
-                continue;
-            double sum = 0;
-            size_t m = 0;
-            for (size_t j = 0; j < m0; j++) {
-                long rr = (long)r + dr[j], cc = (long)c + dc[j];
-                if (rr < 0 || cc < 0 || rr >= (long)h || cc >= (long)w)
+    for (size_t z = 0; z < d; z++)
+        for (size_t r = 0; r < h; r++)
+            for (size_t c = 0; c < w; c++) {
+                if (!local_max(pilot, z, r, c))
                     continue;
-                double u = pilot->data[(size_t)rr * w + (size_t)cc];
-                if (isfinite(u))
-                    sum += u, m++;
+                double sum = 0;
+                size_t m = 0;
+                for (size_t j = 0; j < m0; j++) {
+                    double u = at(pilot, (long)z + off[3 * j], (long)r + off[3 * j + 1],
+                                  (long)c + off[3 * j + 2]);
+                    if (isfinite(u))
+                        sum += u, m++;
+                }
+                double con = m ? at(pilot, (long)z, (long)r, (long)c) - sum / (double)m : NAN;
+                if (con > 0)
+                    all[nall++] = (spot){z, r, c, 0, m, con};
             }
-            double con = m ? pilot->data[r * w + c] - sum / (double)m : NAN;
-            if (con > 0)
-                all[nall++] = (spot){r, c, 0, m, con};
-        }
     qsort(all, nall, sizeof *all, by_pilot);
     s->n = nall < PP_SPOTS_MAX ? nall : PP_SPOTS_MAX;
-    s->height = h, s->width = w, s->radius = radius, s->s = all;
+    s->depth = d, s->height = h, s->width = w, s->radius = radius, s->radius_z = radius_z;
+    s->s = all;
     all = NULL;
     if (!(s->ring = malloc((s->n * m0 + 1) * sizeof *s->ring)))
         goto nomem;
-    size_t at = 0;
+    size_t n_at = 0;
     for (size_t k = 0; k < s->n; k++) {
         spot *q = &s->s[k];
-        q->first = at;
+        q->first = n_at;
         for (size_t j = 0; j < m0; j++) {
-            long rr = (long)q->r + dr[j], cc = (long)q->c + dc[j];
-            if (rr < 0 || cc < 0 || rr >= (long)h || cc >= (long)w ||
-                !isfinite(pilot->data[(size_t)rr * w + (size_t)cc]))
-                continue;
-            s->ring[at++] = (size_t)rr * w + (size_t)cc;
+            long zz = (long)q->z + off[3 * j], rr = (long)q->r + off[3 * j + 1],
+                 cc = (long)q->c + off[3 * j + 2];
+            if (!isfinite(at(pilot, zz, rr, cc)))
+                continue; /* outside, or NaN */
+            s->ring[n_at++] = ((size_t)zz * h + (size_t)rr) * w + (size_t)cc;
         }
     }
-    free(dr);
-    free(dc);
+    free(off);
     *out = s;
     return PP_OK;
 nomem:
-    free(dr);
-    free(dc);
+    free(off);
     free(all);
     pp_spots_free(s);
     return pp_fail(PP_ERR_NOMEM, "out of memory for the spots");
 }
 
-void pp_spots_eval(const pp_spots *s, const double *f, size_t row, double scale, double *out)
+void pp_spots_eval(const pp_spots *s, const double *f, size_t row, size_t slice, double scale,
+                   double *out)
 {
-    size_t w = s->width;
+    size_t w = s->width, plane = s->height * s->width;
     for (size_t k = 0; k < s->n; k++) {
         const spot *q = &s->s[k];
         double sum = 0;
         for (size_t j = 0; j < q->m; j++) {
-            size_t i = s->ring[q->first + j];
-            sum += f[i / w * row + i % w];
+            size_t i = s->ring[q->first + j], yx = i % plane;
+            sum += f[i / plane * slice + yx / w * row + yx % w];
         }
-        out[k] = scale * (f[q->r * row + q->c] - sum / (double)q->m);
+        out[k] = scale * (f[q->z * slice + q->r * row + q->c] - sum / (double)q->m);
     }
 }
 
@@ -186,8 +216,12 @@ pp_status pp_spots_write_csv(const char *path, const pp_spots *s, const pp_image
         free(x);
         return st;
     }
-    fputs("spot,row,col,ring_pixels,mean_intensity,mean_local_max,contrast_mean,contrast_sd,"
+    int vol = s->depth > 1;
+    fputs(vol ? "spot,z,row,col,ring_voxels," : "spot,row,col,ring_pixels,", f);
+    fputs("mean_intensity,mean_local_max,contrast_mean,contrast_sd,"
           "contrast_lo,contrast_hi,p_real,p_real_mcse,rhat,ess_bulk,ess_tail,mcse_mean\n", f);
+    int fits = mean && mean->depth == s->depth && mean->width == s->width &&
+               mean->height == s->height;
     for (size_t k = 0; k < s->n && st == PP_OK; k++) {
         for (size_t c = 0; c < chains; c++)
             for (size_t d = 0; d < kept; d++) {
@@ -201,12 +235,15 @@ pp_status pp_spots_write_csv(const char *path, const pp_spots *s, const pp_image
         if (st != PP_OK)
             break;
         const spot *q = &s->s[k];
-        int mx = mean && mean->width == s->width && mean->height == s->height
-                     ? local_max(mean->data, s->height, s->width, q->r, q->c)
-                     : 0;
-        fprintf(f, "%zu,%zu,%zu,%zu,%.10g,%d,%.10g,%.10g,%.10g,%.10g,%.6g,%.6g,%.6g,%.6g,%.6g,"
+        int mx = fits ? local_max(mean, q->z, q->r, q->c) : 0;
+        if (vol)
+            fprintf(f, "%zu,%zu,", k + 1, q->z);
+        else
+            fprintf(f, "%zu,", k + 1);
+        fprintf(f, "%zu,%zu,%zu,%.10g,%d,%.10g,%.10g,%.10g,%.10g,%.6g,%.6g,%.6g,%.6g,%.6g,"
                    "%.6g\n",
-                k + 1, q->r, q->c, q->m, mean ? mean->data[q->r * s->width + q->c] : NAN, mx,
+                q->r, q->c, q->m,
+                fits ? mean->data[(q->z * s->height + q->r) * s->width + q->c] : NAN, mx,
                 m.mean, m.sd, m.lo, m.hi, p.mean, p.diag.mcse_mean, m.diag.rhat, m.diag.ess_bulk,
                 m.diag.ess_tail, m.diag.mcse_mean);
     }

@@ -10,7 +10,8 @@ pp_output_write, and the maps as raw doubles. Then:
      probe; the version string replaced by "VERSION"), so the 2-D outputs
      are byte-identical -- but for what issue #19 item 4 changed on
      purpose: mean.png and sd.png (now the report's grey scale, checked
-     against numpy's percentiles and Pillow), summary.json's png_scale
+     against numpy's percentiles and Pillow; sd.png from 0 to its 99.5th
+     percentile since the spread scale), summary.json's png_scale
      line (put back as the old rule wrote it before hashing) and
      report.html (not pinned). Its report has no script and no slider.
   2. A 12x40x52 volume, voxel 0.5 x 0.1 x 0.1 um: mean/sd/lo/hi/rhat/mcse.tif
@@ -104,14 +105,24 @@ def digest(path, version, old_png_scale=None):
     return hashlib.sha256(b).hexdigest()
 
 
-def png_scale_of(v):
-    """The PNGs' grey scale (src/display.c): numpy's 0.5th and 99.5th
+def display_range(v, spread=False):
+    """The grey scales of src/display.c: numpy's 0.5th and 99.5th
     percentiles (linear interpolation, numpy's default) of the finite
-    values onto 0..65535, widened by 1e-3 |value| (1 at 0) when equal."""
+    values, widened by 1e-3 |value| (1 at 0) when equal; for a spread map
+    (the sd, the interval width) 0 to the 99.5th percentile (1 when that
+    is not above 0)."""
     lo, hi = np.percentile(v[np.isfinite(v)], [0.5, 99.5])
+    if spread:
+        return 0.0, hi if hi > 0 else 1.0
     if not hi > lo:
         d = abs(lo) * 1e-3 if lo != 0 else 1.0
         lo, hi = lo - d, hi + d
+    return lo, hi
+
+
+def png_scale_of(v, spread=False):
+    """The PNGs' offset and scale: display_range onto 0..65535."""
+    lo, hi = display_range(v, spread)
     return lo, hi / 65535.0 - lo / 65535.0
 
 
@@ -137,7 +148,7 @@ def check_frame(tmp):
     with open(os.path.join(out, "summary.json")) as f:
         ps = json.load(f)["png_scale"]
     for key in ("mean", "sd"):
-        o, sc = png_scale_of(vals[key])
+        o, sc = png_scale_of(vals[key], key == "sd")
         got_o, got_s = ps[key]["offset"], ps[key]["scale"]
         img = np.asarray(Image.open(os.path.join(out, key + ".png"))).astype(np.int64)
         want = png_store(vals[key], got_o, got_s).astype(np.int64)
@@ -147,7 +158,8 @@ def check_frame(tmp):
         diff = np.abs(img - want)
         pptest.check(abs(got_o - o) <= 1e-9 * abs(o) and abs(got_s - sc) <= 1e-9 * sc
                      and img.shape == want.shape and diff.max() <= 1 and (diff == 0).mean() > 0.99,
-                     "%s.png: png_scale %.10g, %.10g = numpy percentiles 0.5/99.5 (%.10g, %.10g), "
+                     "%s.png: png_scale %.10g, %.10g = numpy percentiles (mean 0.5/99.5, sd 0/99.5: "
+                     "%.10g, %.10g), "
                      "pixels = the stored rule on them (Pillow), max diff %d, %.4f exact"
                      % (key, got_o, got_s, o, sc, diff.max(), (diff == 0).mean()))
     pptest.check(page.tags.get("script", 0) == 0 and page.tags.get("input", 0) == 0
@@ -201,13 +213,14 @@ def check_volume(tmp):
     mip_mean = np.nanmax(vals["mean"], axis=0)  # numpy: the largest finite value of each column
     mip_sd = np.nanmax(vals["sd"], axis=0)
     off, sc = png_scale_of(mip_mean)
-    sd_off, sd_sc = png_scale_of(mip_sd)
+    sd_off, sd_sc = png_scale_of(mip_sd, True)
     pptest.check(abs(ps["mean"]["offset"] - off) <= 1e-9 * abs(off)
                  and abs(ps["mean"]["scale"] - sc) <= 1e-9 * sc
                  and abs(ps["sd"]["offset"] - sd_off) <= 1e-9 * abs(sd_off)
                  and abs(ps["sd"]["scale"] - sd_sc) <= 1e-9 * sd_sc
                  and "maximum-intensity projections" in ps.get("images", ""),
-                 "png_scale of the projections = numpy's percentiles 0.5/99.5 of the nanmax "
+                 "png_scale of the projections = numpy's percentiles (mean 0.5/99.5, sd 0 to "
+                 "99.5) of the nanmax "
                  "over z: %s" % ps)
     for key, mip, o, s in (("mean", mip_mean, ps["mean"]["offset"], ps["mean"]["scale"]),
                            ("sd", mip_sd, ps["sd"]["offset"], ps["sd"]["scale"])):
@@ -301,12 +314,12 @@ def check_atlases(page, vals, k):
     for key, src, black in (("mean", vals["mean"], "data-black"), ("sd", vals["sd"], "data-low"),
                             ("frame", vals["input"], "data-black")):
         a, img = atlas_of(page.imgs, key)
-        fin = src[np.isfinite(src)]
-        lo, hi = np.percentile(fin, [0.5, 99.5])  # numpy default: linear interpolation
+        lo, hi = display_range(src, key == "sd")  # numpy default: linear interpolation
         white = "data-white" if black == "data-black" else "data-high"
         b, w = float(a[black]), float(a[white])
         pptest.check(abs(b - lo) <= 1e-12 * abs(lo) and abs(w - hi) <= 1e-12 * abs(hi),
-                     "%s atlas range %.6g..%.6g = numpy.percentile 0.5/99.5 of the volume "
+                     "%s atlas range %.6g..%.6g = numpy.percentile 0.5/99.5 of the volume (sd: "
+                     "0/99.5) "
                      "%.6g..%.6g" % (key, b, w, lo, hi))
         shown = block_mean(src, k) if k > 1 else src
         t = (shown - lo) / (hi - lo)

@@ -6,7 +6,8 @@ shows as float TIFFs. Then:
   1. Pillow decodes every embedded PNG; the grey images must equal the
      stated linear mapping recomputed with numpy from the TIFFs (tifffile),
      the stated black/white points must be numpy.percentile(.., [0.5, 99.5]);
-     the colour maps must rise in luminance with the mapped value.
+     the colour maps must rise in luminance with the mapped value, and the
+     spread maps (sd, interval width) run from 0 to numpy's 99.5th.
   2. The autocorrelation used for the plots equals numpy's direct sum.
   3. Headless Chromium (Debian package chromium), network closed by flags:
      --dump-dom must contain the expected element ids, and no <script>
@@ -127,6 +128,10 @@ def check_images(page, tmp):
         rgb = np.asarray(Image.open(io.BytesIO(base64.b64decode(a["src"].split(",", 1)[1]))))
         lum = rgb[..., :3] @ np.array([0.2126, 0.7152, 0.0722])  # Rec. 709 weights
         lo, hi = float(a["data-low"]), float(a["data-high"])
+        top = np.percentile(v, 99.5)  # numpy default: linear interpolation
+        pptest.check(lo == 0 and abs(hi - top) <= 1e-12 * abs(top),
+                     "%s map (a spread) mapped from 0 to numpy.percentile 99.5 %.6g: got "
+                     "%.6g..%.6g" % (key, top, lo, hi))
         inside = (v > lo) & (v < hi)
         rho = stats.spearmanr(v[inside], lum[inside]).correlation
         pptest.check(rgb.shape == v.shape + (3,) and rho > 0.99,

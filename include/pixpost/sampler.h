@@ -174,11 +174,11 @@ typedef struct pp_sampler_config {
      * recorded (pp_sampler_region_draws). Not owned; read until
      * pp_sampler_run returns (pp_sampler_config_used then shows NULL). */
     const struct pp_regions *regions;
-    /* Profiles (include/pixpost/profiles.h) planned for the frame (2-D
-     * only), or NULL: each kept draw's values at their points are recorded
+    /* Profiles (include/pixpost/profiles.h) planned for the frame or
+     * volume, or NULL: each kept draw's values at their points are recorded
      * after the region totals. Not owned; read as the regions are. */
     const struct pp_profiles *profiles;
-    /* Spots (include/pixpost/spots.h) planned for the frame (2-D only), or
+    /* Spots (include/pixpost/spots.h) planned for the frame or volume, or
      * NULL: each kept draw's spot contrasts are recorded after the
      * profiles' points. Not owned; read as the regions are. */
     const struct pp_spots *spots;

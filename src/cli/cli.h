@@ -201,8 +201,11 @@ typedef struct cli_sample_opts {
     double above[CLI_MAX_REPEAT + 1];
     int rsd;                /* --rsd */
     size_t nprofiles;       /* --profile values given */
-    double profile_lines[4 * (CLI_MAX_REPEAT + 1)]; /* r0, c0, r1, c1 each */
-    double spots_radius;    /* --spots R (the ring's radius in pixels), or 0 */
+    double profile_lines[6 * (CLI_MAX_REPEAT + 1)]; /* z0, r0, c0, z1, r1, c1 each */
+    int profile_3d[CLI_MAX_REPEAT + 1]; /* 1: given with z (six numbers) */
+    double spots_radius;    /* --spots R[,RZ] (the ring's radius in pixels), -1 for
+                             * --spots auto (from the PSF), or 0 */
+    double spots_radius_z;  /* its RZ (slices, volumes), or 0: from the voxel size */
 } cli_sample_opts;
 
 /* The flag of each sampler setting (flag_names.c), for
@@ -424,7 +427,7 @@ int cli_maps_write(const cli_sample_opts *o, cli_frame_run *r);
 int cli_profiles_parse(const cli_args *a, cli_sample_opts *o);
 int cli_profiles_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame);
 int cli_profiles_write(cli_frame_run *r);
-/* --spots R (spots_cli.c): parses the radius into o (0 or CLI_EXIT_USAGE,
+/* --spots R[,RZ] (spots_cli.c): parses the radii into o (0 or CLI_EXIT_USAGE,
  * printed); plans the candidates from the frame into r->spots (NULL
  * without) and writes OUTDIR/spots.csv after the run: 0 or CLI_EXIT_USAGE
  * with r->message naming --spots. */

@@ -1,8 +1,9 @@
-/* pixpost command line — --profile r0,c0,r1,c1 (repeatable): the lines
- * parsed, planned against the frame (include/pixpost/profiles.h; frames
- * only) and OUTDIR/profile_<k>.csv written from the values the sampler
- * recorded at every kept draw. Cost: O(points) to plan; the summaries'
- * O(S log S) per point at the end. */
+/* pixpost command line — --profile r0,c0,r1,c1 on a frame, or
+ * z0,r0,c0,z1,r1,c1 on a volume (repeatable): the lines parsed, planned
+ * against the image (include/pixpost/profiles.h) and
+ * OUTDIR/profile_<k>.csv written from the values the sampler recorded at
+ * every kept draw. Cost: O(points) to plan; the summaries' O(S log S) per
+ * point at the end. */
 #include "cli.h"
 #include "pixpost/profiles.h"
 #include <math.h>
@@ -15,17 +16,35 @@ int cli_profiles_parse(const cli_args *a, cli_sample_opts *o)
     o->nprofiles = cli_strs(a, "profile", v, CLI_MAX_REPEAT + 1);
     for (size_t k = 0; k < o->nprofiles; k++) {
         const char *p = v[k];
-        for (int e = 0; e < 4; e++) {
+        double x[6];
+        int n = 0;
+        for (;;) {
             char *end;
-            double x = strtod(p, &end);
-            if (end == p || !isfinite(x) || *end != (e < 3 ? ',' : '\0'))
+            x[n] = strtod(p, &end);
+            if (end == p || !isfinite(x[n]) || (*end != ',' && *end != '\0') || ++n > 6 ||
+                (*end == ',' && n == 6))
                 return cli_opt_error("profile",
-                                     "'%s' is not accepted (expected --profile r0,c0,r1,c1: "
-                                     "the two ends' row and column, from 0, e.g. 10,5,10,60)",
+                                     "'%s' is not accepted (expected --profile r0,c0,r1,c1 on a "
+                                     "frame, the two ends' row and column from 0, e.g. "
+                                     "10,5,10,60; or z0,r0,c0,z1,r1,c1 on a volume, slices "
+                                     "from 0)",
                                      v[k]);
-            o->profile_lines[4 * k + e] = x;
+            if (*end == '\0')
+                break;
             p = end + 1;
         }
+        if (n != 4 && n != 6)
+            return cli_opt_error("profile",
+                                 "'%s' has %d numbers (expected four, r0,c0,r1,c1, on a frame; "
+                                 "six, z0,r0,c0,z1,r1,c1, on a volume)",
+                                 v[k], n);
+        double *l = o->profile_lines + 6 * k;
+        o->profile_3d[k] = n == 6;
+        if (n == 6)
+            for (int e = 0; e < 6; e++)
+                l[e] = x[e];
+        else
+            l[0] = 0, l[1] = x[0], l[2] = x[1], l[3] = 0, l[4] = x[2], l[5] = x[3];
     }
     return 0;
 }
@@ -35,14 +54,24 @@ int cli_profiles_load(const cli_sample_opts *o, cli_frame_run *r, const pp_image
     r->profiles = NULL;
     if (!o->nprofiles)
         return 0;
-    if (frame->depth > 1) {
-        snprintf(r->message, sizeof r->message,
-                 "--profile: %s is a volume; profiles are for frames (sample one slice with "
-                 "--plane K)", r->frame);
-        return CLI_EXIT_USAGE;
-    }
-    pp_status st = pp_profiles_plan(o->profile_lines, o->nprofiles, frame->height, frame->width,
-                                    &r->profiles);
+    int vol = frame->depth > 1;
+    for (size_t k = 0; k < o->nprofiles; k++)
+        if (o->profile_3d[k] != vol) {
+            const double *l = o->profile_lines + 6 * k;
+            if (vol)
+                snprintf(r->message, sizeof r->message,
+                         "--profile %g,%g,%g,%g: %s is a volume of %zu slices; give the ends' "
+                         "slices too, z0,r0,c0,z1,r1,c1 (slices from 0)",
+                         l[1], l[2], l[4], l[5], r->frame, frame->depth);
+            else
+                snprintf(r->message, sizeof r->message,
+                         "--profile %g,%g,%g,%g,%g,%g: %s is a frame; give r0,c0,r1,c1 (four "
+                         "numbers, no slices)",
+                         l[0], l[1], l[2], l[3], l[4], l[5], r->frame);
+            return CLI_EXIT_USAGE;
+        }
+    pp_status st = pp_profiles_plan(o->profile_lines, o->nprofiles, frame->depth, frame->height,
+                                    frame->width, r->voxel_um, &r->profiles);
     if (st != PP_OK) {
         snprintf(r->message, sizeof r->message, "--profile: %s", pp_error_message());
         return CLI_EXIT_USAGE;

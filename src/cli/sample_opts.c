@@ -125,16 +125,20 @@ static const cli_opt sample_table[] = {
      "With --regions: the posterior of mean_A - mean_B and mean_A / mean_B and P(mean_A > "
      "mean_B) for labels A and B, as rows of regions.csv (repeatable)."},
     {"profile", 0, 1, "R0,C0,R1,C1 ...",
-     "Intensity along the line from row R0, column C0 to R1, C1 (from 0; fractions allowed; "
-     "frames only): one point per pixel step, bilinear between pixels, with the posterior "
-     "mean, sd and interval at --level from every kept draw in OUTDIR/profile_<k>.csv (k "
-     "from 1 in the order given; repeatable)."},
-    {"spots", 0, 1, "R",
+     "Intensity along the line from row R0, column C0 to R1, C1 (from 0; fractions allowed); "
+     "on a volume Z0,R0,C0,Z1,R1,C1 with the slices: one point per pixel (voxel) step along "
+     "the longest axis, bilinear (trilinear) between pixels, with the posterior mean, sd and "
+     "interval at --level from every kept draw in OUTDIR/profile_<k>.csv (k from 1 in the "
+     "order given; repeatable)."},
+    {"spots", 0, 1, "R[,RZ]|auto",
      "Candidate spots (beads, puncta): the local maxima of the frame's 3x3 box mean that "
      "stand above the ring of pixels R from them (R in pixels, 1 to 50, about the PSF's "
-     "width or the spot's size; frames only); for each, the posterior of its contrast C = "
-     "centre - ring mean from every kept draw and P(C > 0), the probability that it is a "
-     "real peak above its surroundings, in OUTDIR/spots.csv and marked in the report."},
+     "width or the spot's size); on a volume the 3x3x3 box mean's maxima and a shell of "
+     "axial radius RZ slices (default R x pixel / z-step, a sphere in um; R when the voxel "
+     "size is not known); auto: R = 3 sds of the PSF (and RZ = 3 axial sds of a 3-D PSF). "
+     "For each, the posterior of its contrast C = centre - ring mean from every kept draw "
+     "and P(C > 0), the probability that it is a real peak above its surroundings, in "
+     "OUTDIR/spots.csv and in the report."},
     {"above", 0, 1, "T ...",
      "Posterior probability map P(x > T) per pixel, the share of kept draws above T, in "
      "OUTDIR/above_<T>.tif (T written as %g; repeatable, at most 16)."},
