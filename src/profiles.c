@@ -9,6 +9,7 @@
 #include "internal.h"
 #include "pixpost/profiles.h"
 #include "pixpost/regions.h"
+#include "pixpost/regions_extra.h"
 
 typedef struct profile_point {
     double r, c, dist;

@@ -10,6 +10,7 @@
 #include "internal.h"
 #include "pixpost/regions.h"
 #include "pixpost/spots.h"
+#include "pixpost/regions_extra.h"
 
 typedef struct spot {
     size_t r, c, first, m; /* ring: m offsets from ring[first] */

@@ -1,10 +1,11 @@
 /* pixpost command line — --profile r0,c0,r1,c1 (repeatable): the lines
- * parsed, planned against the frame (include/pixpost/profiles.h; frames
+ * parsed, planned against the frame (src/pixpost/profiles.h; frames
  * only) and OUTDIR/profile_<k>.csv written from the values the sampler
  * recorded at every kept draw. Cost: O(points) to plan; the summaries'
  * O(S log S) per point at the end. */
 #include "cli.h"
 #include "pixpost/profiles.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

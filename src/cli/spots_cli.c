@@ -1,11 +1,12 @@
 /* pixpost command line — --spots R: the candidate spots planned from the
  * input frame before sampling (its 3 x 3 box mean is the pilot, so the
  * candidates never depend on the draws that judge them;
- * include/pixpost/spots.h), recorded at every kept draw, and
+ * src/pixpost/spots.h), recorded at every kept draw, and
  * OUTDIR/spots.csv written after the run. Frames only. Cost: O(frame x
  * ring) to plan; the summaries' O(S log S) per spot at the end. */
 #include "cli.h"
 #include "pixpost/spots.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
