@@ -227,9 +227,9 @@ typedef struct pp_sampler pp_sampler;
  * the setting (by cfg->setting_names) and what to change: PP_ERR_ARG (a
  * setting out of range, a combination not built, a PSF that does not suit
  * the frame), PP_ERR_NUMERIC (an infinite pixel; a NaN/Inf PSF value),
- * PP_ERR_LIMIT (a grid too large), PP_ERR_NOMEM. Thread-safe (FFT planning
- * is serialised inside; several samplers may be created and run at once
- * from different threads). */
+ * PP_ERR_LIMIT (a PSF larger than the frame, a grid too large),
+ * PP_ERR_NOMEM. Thread-safe (FFT planning is serialised inside; several
+ * samplers may be created and run at once from different threads). */
 pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
                             const pp_image *psf, pp_sampler **out);
 /* Runs every chain of s (not NULL) on OpenMP threads (cfg.threads), then
