@@ -9,6 +9,9 @@
  *   probe_stack copy IN OUT [VZ VY VX]
  *       reads IN as a stack and writes it with pp_ome_tiff_write_f32, voxel
  *       size from IN's metadata or the three numbers (micrometres).
+ *   probe_stack volume FILE C T
+ *       pp_volume_read of channel C at time point T: prints "depth height
+ *       width", "vz vy vx", "nonfinite", then every value as %.17g.
  *   probe_stack parse
  *       parses OME-XML from stdin (file name "stdin"); prints as `read`
  *       does the metadata line.
@@ -65,6 +68,23 @@ static int cmd_copy(int argc, char **argv)
     return st == PP_OK ? 0 : fail(st);
 }
 
+static int cmd_volume(char **argv)
+{
+    pp_image *v;
+    double voxel[3];
+    pp_read_info info;
+    pp_status st = pp_volume_read(argv[2], NULL, strtoul(argv[3], NULL, 10),
+                                  strtoul(argv[4], NULL, 10), &v, voxel, &info);
+    if (st != PP_OK)
+        return fail(st);
+    printf("%zu %zu %zu\n%.17g %.17g %.17g\n%zu\n", v->depth, v->height, v->width, voxel[0],
+           voxel[1], voxel[2], info.nonfinite);
+    for (size_t i = 0; i < v->depth * v->height * v->width; i++)
+        printf("%.17g\n", v->data[i]);
+    pp_image_free(v);
+    return 0;
+}
+
 static int cmd_parse(void)
 {
     static char buf[1 << 16];
@@ -84,8 +104,11 @@ int main(int argc, char **argv)
         return cmd_read(argv[2]);
     if ((argc == 4 || argc == 7) && strcmp(argv[1], "copy") == 0)
         return cmd_copy(argc, argv);
+    if (argc == 5 && strcmp(argv[1], "volume") == 0)
+        return cmd_volume(argv);
     if (argc == 2 && strcmp(argv[1], "parse") == 0)
         return cmd_parse();
-    fputs("usage: probe_stack read FILE | copy IN OUT [VZ VY VX] | parse < XML\n", stderr);
+    fputs("usage: probe_stack read FILE | copy IN OUT [VZ VY VX] | volume FILE C T | "
+          "parse < XML\n", stderr);
     return 2;
 }

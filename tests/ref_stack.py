@@ -74,10 +74,43 @@ pptest.check((m["nz"], m["nc"], m["nt"]) == (2, 1, 4), "TZYX: SizeZ 2, SizeT 4")
 pptest.check(all(np.array_equal(a[pages[(k, 0, t)]], tz[t, k]) for t in range(4) for k in range(2)),
              "TZYX uint8: plane (z, t) is tifffile's tz[t, z]")
 
+
+
+def pp_volume(p, c, t):
+    """pp_volume_read (the public API's one-call z-stack reader): (volume, voxel, nonfinite)."""
+    out = pptest.probe("stack", ["volume", p, str(c), str(t)]).split("\n")
+    shape = tuple(map(int, out[0].split()))
+    voxel = tuple(map(float, out[1].split()))
+    vals = np.array([float(v) for v in out[3:3 + int(np.prod(shape))]])
+    return vals.reshape(shape), voxel, int(out[2])
+
+
+for c in range(2):
+    v, vox, nf = pp_volume(path("cz.ome.tif"), c, 0)
+    pptest.check(v.shape == (3, 4, 5) and np.array_equal(v, cz[c].astype(np.float64))
+                 and abs(vox[0] - 0.3) < 1e-12 and nf == 0,
+                 "pp_volume_read CZYX channel %d: tifffile's cz[%d] as a 3 x 4 x 5 volume, "
+                 "voxel z 0.3 um" % (c, c))
+v, vox, _ = pp_volume(path("tz.ome.tif"), 0, 3)
+pptest.check(np.array_equal(v, tz[3].astype(np.float64)),
+             "pp_volume_read TZYX time point 3: tifffile's tz[3]")
+v, vox, _ = pp_volume(path("z.ome.tif"), 0, 0)
+pptest.check(np.array_equal(v, z) and np.allclose(vox, (0.5, 0.125, 0.1), rtol=1e-12),
+             "pp_volume_read ZYX: the whole stack, voxel (0.5, 0.125, 0.1) um")
+rc, err = fails(["volume", path("cz.ome.tif"), "2", "0"])
+pptest.check(rc == 1 and "cz.ome.tif" in err and "2 channel(s)" in err,
+             "pp_volume_read: a channel past SizeC is refused naming the file: %s" % err.strip())
+
 plain = rng.integers(0, 4000, size=(3, 4, 6)).astype(np.uint32)
 tifffile.imwrite(path("plain.tif"), plain, photometric="minisblack")  # no OME: tifffile's JSON description
 a, m, _ = pp_read(path("plain.tif"))
 pptest.check(m["present"] == 0 and np.array_equal(a, plain), "multi-page uint32 without OME: pages read, no metadata")
+v, vox, _ = pp_volume(path("plain.tif"), 0, 0)
+pptest.check(np.array_equal(v, plain) and vox == (0.0, 0.0, 0.0),
+             "pp_volume_read without OME: every page a slice, voxel size unknown (0)")
+rc, err = fails(["volume", path("plain.tif"), "1", "0"])
+pptest.check(rc == 1 and "no OME metadata" in err,
+             "pp_volume_read without OME: channel 1 refused: %s" % err.strip())
 
 # ---- pixpost's OME-TIFF read in tifffile ------------------------------------
 out = path("written.ome.tif")

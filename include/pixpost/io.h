@@ -71,6 +71,26 @@ pp_status pp_channel_parse(const char *s, const char *const *setting_names, pp_c
 pp_status pp_image_read(const char *path, const pp_read_options *opt,
                         pp_image **out, pp_read_info *info);
 
+/* Reads a z-stack (a multi-page TIFF; OME-TIFF metadata when present) as one
+ * volume: *out receives a new depth x height x width image owned by the
+ * caller (pp_image_free), NULL on failure. With OME metadata the slices
+ * are the planes z = 0 .. SizeZ - 1 of the given channel and time point
+ * (both counted from 0) in the file's DimensionOrder; without it every page
+ * is a slice in file order and channel and time must be 0. A PNG or a
+ * one-page TIFF gives depth 1. opt as pp_image_read's (opt->page is
+ * ignored; max_pixels applies to each page) and may be NULL. voxel (may be
+ * NULL) receives the OME physical sizes z, y, x in micrometres, 0 where the
+ * file does not give them. info (may be NULL) describes page 0, except
+ * `nonfinite`, which counts NaN/Inf over the volume's slices. The file is
+ * only read. Errors, naming path: those of pp_image_read, PP_ERR_FORMAT
+ * (pages of different sizes, OME sizes that disagree with the pages),
+ * PP_ERR_ARG (channel or time point past the metadata's counts, or not 0
+ * without metadata), PP_ERR_LIMIT (the volume's size overflows),
+ * PP_ERR_NOMEM. Peak memory: the file's pages plus the volume. Thread-safe
+ * as pp_image_read. */
+pp_status pp_volume_read(const char *path, const pp_read_options *opt, size_t channel,
+                         size_t time, pp_image **out, double voxel[3], pp_read_info *info);
+
 /* Writes img (not NULL) to path (not NULL) as a 32-bit float, single page,
  * uncompressed TIFF (values as they are, NaN kept), atomically: a
  * temporary file in path's folder renamed over path, so path holds either

@@ -191,20 +191,9 @@ static int read_volume(const cli_sample_opts *o, cli_frame_run *r, pp_image **ou
                            "--max-pixels %zu; raise --max-pixels, or sample one slice with "
                            "--plane K",
                         r->frame, nz, w, h, o->read.max_pixels);
-    pp_stack *s = NULL;
-    if ((st = pp_stack_read(r->frame, &ro, &s, &r->info)) != PP_OK)
+    if ((st = pp_volume_read(r->frame, &ro, ome.present ? r->vol_c : 0,
+                             ome.present ? r->vol_t : 0, out, NULL, &r->info)) != PP_OK)
         return fail_lib(r, st);
-    if ((st = pp_image_create3(nz, h, w, out)) != PP_OK) {
-        pp_stack_free(s);
-        return fail_lib(r, st);
-    }
-    for (size_t z = 0; z < nz; z++) {
-        size_t page = ome.present ? pp_ome_page(&ome, z, r->vol_c, r->vol_t) : z;
-        memcpy((*out)->data + z * h * w, s->data + page * h * w, h * w * sizeof *s->data);
-    }
-    pp_stack_free(s);
-    double lo, hi;
-    r->info.nonfinite = pp_image_range(*out, &lo, &hi); /* of these slices only */
     if (r->announce_pages)
         fprintf(stderr, "pixpost: %s: %zu z-slices of %zux%zu, sampled as one volume\n",
                 r->frame, nz, w, h);
