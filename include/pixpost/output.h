@@ -74,6 +74,9 @@ typedef struct pp_run_info {
     /* The regions' and profiles' draws (include/pixpost/report.h), shown
      * in the report; NULL: none. */
     const struct pp_report_regions *regions;
+    /* How the saturated pixels were treated (summary.json "missing_data"
+     * "saturated_as"): "censored", "missing" or "data"; NULL: omitted. */
+    const char *saturated_as;
 } pp_run_info;
 
 /* Writes s (NULL: "") to f as a JSON string literal: quotes, with '"' and

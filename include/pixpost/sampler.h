@@ -188,6 +188,14 @@ typedef struct pp_sampler_config {
      * draws above T at each pixel (pp_sampler_above_map). */
     const double *above;
     size_t nabove;
+    /* Censored pixels (saturated ones, pixpost/saturation.h): NULL (default)
+     * or one byte per frame pixel (voxel), not owned, read by
+     * pp_sampler_create; nonzero marks a NaN pixel whose true value is known
+     * only to be at least censor_level (finite). See "Censoring" at
+     * pp_sampler_create. Nonzero bytes at pixels that are not NaN are
+     * refused (PP_ERR_ARG). pp_sampler_config_used shows NULL. */
+    const unsigned char *censored;
+    double censor_level;
 } pp_sampler_config;
 #define PP_MAX_ABOVE 16
 
@@ -210,7 +218,18 @@ typedef struct pp_sampler pp_sampler;
  * (not mtc) and mtc runs the gibbs chain (with a warning). Refused:
  * an infinite pixel (PP_ERR_NUMERIC), and fewer observed pixels than 1 %
  * of the frame or 2 (PP_ERR_ARG: the message gives the counts). A frame
- * without NaN gives the same bytes as before this rule. */
+ * without NaN gives the same bytes as before this rule.
+ * Censoring: a NaN pixel marked in cfg.censored (a saturated pixel) is not
+ * only unobserved: its value is known to be >= cfg.censor_level, and its
+ * likelihood is P(y_i >= censor_level | x) instead of nothing. gibbs, mtc
+ * (which then runs the gibbs chain) and the adaptive prior's gibbs redraw
+ * it each iteration from N(Ax, 1/lambda) truncated to [censor_level, inf)
+ * (data augmentation, Tanner & Wong, JASA 82, 1987: an exact Gibbs step;
+ * src/truncnorm.h), and the moves that carry latent data along with x
+ * (the delta interweaving step, the padding scale move) reject a move that
+ * would take one below the level. pcn, gpcn and hmc do not build it yet:
+ * they treat censored pixels as missing and add a note saying so (as do
+ * the photon models, whose samplers are these). */
 pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
                             const pp_image *psf, pp_sampler **out);
 pp_status pp_sampler_run(pp_sampler *s);
