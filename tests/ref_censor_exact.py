@@ -30,6 +30,10 @@ well above the missing-data posterior's (checked: by more than 10 sd of
 pixpost's MCSE), and the censored run of --saturated-missing must match
 the missing-data posterior m, C instead (the old behaviour kept).
 pcn with censored pixels treats them as missing and says so (a note).
+Last, delta sampled (see reference_delta below): the interweaving step
+that carries the imputed censored data along with x must keep them above
+s; pixel means and sds with the same tolerances, and the posterior mean of
+delta within 4.5 sqrt(MCSE^2 + SE_ref^2).
 """
 import json
 import os
@@ -151,4 +155,65 @@ summ = json.load(open(os.path.join(out, "summary.json")))
 txt = json.dumps(summ)
 pptest.check("censoring of saturated pixels is built for gibbs and mtc only" in txt,
              "pcn: censored pixels treated as missing, with a note")
+# Delta sampled (--prior gmrf1, Gamma(1, 1e-4) hyperprior, pixpost's
+# default), periodic: gibbs then also runs its delta interweaving step,
+# which moves the imputed censored data along with x and must reject a move
+# that takes one below s. Reference: the same numpy data augmentation with a
+# delta step, all in Fourier space (periodic: every frame pixel is observed
+# or imputed, so the posterior precision lam |A|^2 + delta q is diagonal),
+# delta | x ~ Gamma(1 + rank / 2, 1e-4 + x'Qx / 2), rank = H W - 1
+# (Bardsley 2012's conditional, as in src/sampler_gibbs.c but written
+# independently here); 2000 chains x 600 iterations, the first 100 dropped.
+def reference_delta(chains=2000, iters=600, burn=100):
+    Af = pptest.transfer(psf, (H, W))
+    q = pptest.gmrf1_q(H, W)
+    lam, n = 1.0 / SIGMA ** 2, H * W
+    r = np.random.default_rng(4048)
+    yaug = np.repeat(y[None], chains, axis=0)
+    yaug[:, cens] = s
+    delta = np.full(chains, DELTA)
+    s1 = np.zeros((chains, H, W))
+    s2 = np.zeros((chains, H, W))
+    d1 = np.zeros(chains)
+    for t in range(iters):
+        p = lam * np.abs(Af) ** 2 + delta[:, None, None] * q
+        xh = lam * np.conj(Af) * np.fft.fft2(yaug) / p + np.fft.fft2(r.standard_normal((chains, H, W))) / np.sqrt(p)
+        x = np.real(np.fft.ifft2(xh))
+        quad = np.sum(q * np.abs(np.fft.fft2(x)) ** 2, axis=(1, 2)) / n
+        delta = r.gamma(1.0 + 0.5 * (n - 1), 1.0 / (1e-4 + 0.5 * quad))
+        mu = np.real(np.fft.ifft2(np.fft.fft2(x) * Af))[:, cens]
+        yaug[:, cens] = st.truncnorm.rvs((s - mu) / SIGMA, np.inf, loc=mu, scale=SIGMA, random_state=r)
+        if t >= burn:
+            s1 += x
+            s2 += x ** 2
+            d1 += delta
+    m = iters - burn
+    cm = s1 / m
+    mean = cm.mean(axis=0)
+    sd = np.sqrt(s2.sum(axis=0) / (m * chains) - mean ** 2)
+    se = cm.std(axis=0, ddof=1) / np.sqrt(chains)
+    dm = d1 / m
+    return mean, sd, se, dm.mean(), dm.std(ddof=1) / np.sqrt(chains)
+
+
+out = os.path.join(tmp, "delta")
+pptest.run(["sample", frame, "-o", out, "--psf", PSF, "--noise", "gaussian:sigma=%g" % SIGMA, "--prior", "gmrf1",
+            "--sampler", "gibbs", "--boundary", "periodic", "--chains", "4", "--seed", "7", "--quiet",
+            "--burn", "500", "--iters", "8000"])
+summ = json.load(open(os.path.join(out, "summary.json")))
+m_c, s_c, se_c, d_ref, d_se = reference_delta()
+mean = tifffile.imread(os.path.join(out, "mean.tif")).astype(np.float64)
+sd = tifffile.imread(os.path.join(out, "sd.tif")).astype(np.float64)
+mcse = tifffile.imread(os.path.join(out, "mcse.tif")).astype(np.float64)
+z = np.abs(mean - m_c) / (4.5 * np.sqrt(mcse ** 2 + se_c ** 2) + 0.01 * s_c)
+pptest.check(z.max() < 1, "delta sampled: mean within 4.5 sqrt(MCSE^2 + SE_ref^2) + 1 %% sd of the reference at "
+             "every pixel (worst %.2f of the tolerance; censored pixels' worst %.2f)" % (z.max(), z[cens].max()))
+ratio = sd / s_c
+pptest.check(np.abs(ratio - 1).max() < 0.10 and abs(ratio[cens].mean() - 1) < 0.04,
+             "delta sampled: sd / reference sd in [%.3f, %.3f] (within 10 %%), censored pixels' mean %.3f (within 4 %%)"
+             % (ratio.min(), ratio.max(), ratio[cens].mean()))
+hd = summ["hyper"]["delta"]
+pptest.check(abs(hd["mean"] - d_ref) < 4.5 * np.hypot(hd["mcse"], d_se),
+             "delta sampled: posterior mean of delta %.4f vs reference %.4f (within 4.5 sqrt(MCSE^2 + SE_ref^2) = %.4f)"
+             % (hd["mean"], d_ref, 4.5 * np.hypot(hd["mcse"], d_se)))
 pptest.done()
