@@ -74,13 +74,15 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
     s->nobs = n - nan;
     s->nmissing = nan;
     s->cfg.censored = NULL; /* read no more: the caller may free it */
+    /* built: gibbs and mtc (gaussian), pcn, gpcn and hmc under the photon models */
     int gibbs = s->cfg.kind == PP_SAMPLER_GIBBS || s->cfg.kind == PP_SAMPLER_MTC;
-    if (ncens && !gibbs)
-        pp_sampler_add_note(s, "censoring of saturated pixels is built for gibbs and mtc only: "
-                               "%s treats the %zu censored pixels as missing (the bound they "
-                               "give, at least the level, is not used)",
+    int built = gibbs || s->cfg.noise.kind != PP_NOISE_GAUSSIAN;
+    if (ncens && !built)
+        pp_sampler_add_note(s, "censoring of saturated pixels is built for gibbs and mtc under "
+                               "gaussian noise: %s treats the %zu censored pixels as missing (the "
+                               "bound they give, at least the level, is not used)",
                             pp_sampler_kind_name(s->cfg.kind), ncens);
-    if (ncens && gibbs) {
+    if (ncens && built) {
         if (!(s->cens = calloc(s->gn, 1)))
             return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
         for (size_t z = 0; z < s->depth; z++)

@@ -12,7 +12,9 @@
  * latent too, and marked in s->cens for the Gibbs family, which redraws
  * them from the truncated normal (pp_censored_draw); the moves that carry
  * the latent data along with x keep them above the level
- * (pp_censored_range). The pCN family treats them as missing (a note).
+ * (pp_censored_range). The pCN family uses them under the photon models
+ * (src/sampler_pcn.c, src/poisson_tail.h) and treats them as missing under
+ * gaussian noise (a note).
  * Cost: one grid pass at planning; 1 byte per grid pixel (2 with censored
  * pixels). */
 #ifndef PIXPOST_OBSERVED_H

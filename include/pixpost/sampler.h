@@ -227,9 +227,12 @@ typedef struct pp_sampler pp_sampler;
  * (data augmentation, Tanner & Wong, JASA 82, 1987: an exact Gibbs step;
  * src/truncnorm.h), and the moves that carry latent data along with x
  * (the delta interweaving step, the padding scale move) reject a move that
- * would take one below the level. pcn, gpcn and hmc do not build it yet:
- * they treat censored pixels as missing and add a note saying so (as do
- * the photon models, whose samplers are these). */
+ * would take one below the level. Under the photon models pcn, gpcn and
+ * hmc add -log P(Y >= a | A x + b) to the negative log-likelihood and its
+ * gradient (a the level in counts, (level - offset) / gain + read^2 for
+ * the camera model's shifted counts; the regularised incomplete gamma,
+ * src/poisson_tail.h). Not built: pcn, gpcn and hmc under gaussian noise
+ * treat censored pixels as missing and add a note saying so. */
 pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
                             const pp_image *psf, pp_sampler **out);
 pp_status pp_sampler_run(pp_sampler *s);
