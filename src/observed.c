@@ -79,9 +79,9 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
     int built = gibbs || s->cfg.noise.kind != PP_NOISE_GAUSSIAN;
     if (ncens && !built)
         pp_sampler_add_note(s, "censoring of saturated pixels is built for gibbs and mtc under "
-                               "gaussian noise: %s treats the %zu censored pixels as missing (the "
-                               "bound they give, at least the level, is not used)",
-                            pp_sampler_kind_name(s->cfg.kind), ncens);
+                               "gaussian noise: pcn, gpcn and hmc treat the %zu censored pixels as "
+                               "missing (the bound they give, at least the level, is not used)",
+                            ncens);
     if (ncens && built) {
         if (!(s->cens = calloc(s->gn, 1)))
             return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
@@ -109,7 +109,8 @@ void pp_censored_range(const pp_sampler *s, const double *yaug, const double *g,
     for (size_t i = 0; s->cens && i < s->gn; i++) {
         if (!s->cens[i])
             continue;
-        double d = g[i] * gs - off, slack = yaug[i] - s->censor_level; /* slack >= 0 */
+        /* slack >= 0 up to the rounding of an earlier move: t = 0 stays inside */
+        double d = g[i] * gs - off, slack = fmax(0.0, yaug[i] - s->censor_level);
         if (d > 0)
             l = fmax(l, -slack / d);
         else if (d < 0)

@@ -232,10 +232,14 @@ static double augment(const pp_sampler *s, pp_chain *c)
     double sp = 0;
     for (size_t i = 0; i < s->gn; i++)
         if (!s->obs[i]) {
-            double e = s->cens && s->cens[i] /* censored: truncated at its level */
-                           ? pp_censored_draw(s, &c->rng, c->rbuf[i], sd) - c->rbuf[i]
-                           : sd * pp_rng_normal(&c->rng);
-            c->yaug[i] = c->rbuf[i] + e;
+            double e;
+            if (s->cens && s->cens[i]) { /* censored: truncated at its level */
+                c->yaug[i] = pp_censored_draw(s, &c->rng, c->rbuf[i], sd);
+                e = c->yaug[i] - c->rbuf[i];
+            } else {
+                e = sd * pp_rng_normal(&c->rng);
+                c->yaug[i] = c->rbuf[i] + e;
+            }
             sp += e * e;
         }
     return sp;

@@ -399,9 +399,12 @@ static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss
                 continue;
             }
             double en = sd * e[k++];
-            if (s->cens && s->cens[r * s->gw + col]) /* censored: truncated at its level */
-                en = pp_censored_draw(s, &c->rng, ax[col] * invn, sd) - ax[col] * invn;
-            ya[col] = ax[col] * invn + en;
+            if (s->cens && s->cens[r * s->gw + col]) { /* censored: truncated at its level */
+                ya[col] = pp_censored_draw(s, &c->rng, ax[col] * invn, sd);
+                en = ya[col] - ax[col] * invn;
+            } else {
+                ya[col] = ax[col] * invn + en;
+            }
             sp += en * en;
         }
     }

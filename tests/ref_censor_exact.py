@@ -153,7 +153,7 @@ out = os.path.join(tmp, "pcn")
 pptest.run(["sample", frame, "-o", out, "--sampler", "pcn", "--burn", "50", "--iters", "100"] + common[:-4])
 summ = json.load(open(os.path.join(out, "summary.json")))
 txt = json.dumps(summ)
-pptest.check("censoring of saturated pixels is built for gibbs and mtc only" in txt,
+pptest.check("censoring of saturated pixels is built for gibbs and mtc under gaussian noise" in txt,
              "pcn: censored pixels treated as missing, with a note")
 # Delta sampled (--prior gmrf1, Gamma(1, 1e-4) hyperprior, pixpost's
 # default), periodic: gibbs then also runs its delta interweaving step,

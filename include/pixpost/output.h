@@ -75,7 +75,8 @@ typedef struct pp_run_info {
      * in the report; NULL: none. */
     const struct pp_report_regions *regions;
     /* How the saturated pixels were treated (summary.json "missing_data"
-     * "saturated_as"): "censored", "missing" or "data"; NULL: omitted. */
+     * "saturated_as", written when some were found or for "data"):
+     * "censored", "missing" or "data"; NULL: omitted. */
     const char *saturated_as;
 } pp_run_info;
 
