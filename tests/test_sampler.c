@@ -226,7 +226,8 @@ static void determinism_and_refusals(void)
     cz[5] = 1;
     cfg.censored = cz;
     cfg.censor_level = 3.0;
-    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_OK && pp_sampler_config_used(s)->censored == NULL,
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_OK &&
+              pp_sampler_config_used(s)->censored == NULL,
           "a censored NaN pixel is accepted, the marks not kept: %s", pp_error_message());
     pp_sampler_free(s);
     cz[6] = 1;
