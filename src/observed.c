@@ -4,6 +4,7 @@
 #include "internal.h"
 #include "pixpost/setting.h"
 #include "sampler_internal.h"
+#include "truncnorm.h"
 #include <math.h>
 #include <stdlib.h>
 
@@ -42,6 +43,20 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
     /* the caller's way to keep saturated pixels as data, when it names one */
     const char *const *names = s->cfg.setting_names;
     const char *keep = names ? names[PP_SET_KEEP_SATURATED] : NULL;
+    const unsigned char *cz = s->cfg.censored;
+    size_t ncens = 0;
+    for (size_t i = 0; cz && i < n; i++)
+        if (cz[i]) {
+            if (!isnan(frame->data[i]))
+                return pp_fail(PP_ERR_ARG, "censored pixel %zu is not NaN; mark a censored "
+                                           "pixel unobserved (NaN) too",
+                               i);
+            ncens++;
+        }
+    if (ncens && !isfinite(s->cfg.censor_level))
+        return pp_fail(PP_ERR_ARG, "the censoring level %g is not finite; give the saturation "
+                                   "level of the censored pixels",
+                       s->cfg.censor_level);
     if (n - nan < need)
         return pp_fail(
             PP_ERR_ARG,
@@ -58,6 +73,49 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
                     !isnan(frame->data[(z * s->height + r) * s->width + c]);
     s->nobs = n - nan;
     s->nmissing = nan;
+    s->cfg.censored = NULL; /* read no more: the caller may free it */
+    /* built: gibbs and mtc (gaussian), pcn, gpcn and hmc under the photon models */
+    int gibbs = s->cfg.kind == PP_SAMPLER_GIBBS || s->cfg.kind == PP_SAMPLER_MTC;
+    int built = gibbs || s->cfg.noise.kind != PP_NOISE_GAUSSIAN;
+    if (ncens && !built)
+        pp_sampler_add_note(s, "censoring of saturated pixels is built for gibbs and mtc under "
+                               "gaussian noise: pcn, gpcn and hmc treat the %zu censored pixels as "
+                               "missing (the bound they give, at least the level, is not used)",
+                            ncens);
+    if (ncens && built) {
+        if (!(s->cens = calloc(s->gn, 1)))
+            return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
+        for (size_t z = 0; z < s->depth; z++)
+            for (size_t r = 0; r < s->height; r++)
+                for (size_t c = 0; c < s->width; c++)
+                    s->cens[(z * s->gh + r) * s->gw + c] =
+                        cz[(z * s->height + r) * s->width + c] != 0;
+        s->ncensored = ncens;
+        s->censor_level = s->cfg.censor_level;
+    }
     s->augment = s->cfg.boundary == PP_BOUNDARY_PAD || nan > 0;
     return PP_OK;
+}
+
+double pp_censored_draw(const pp_sampler *s, pp_rng *r, double m, double sd)
+{
+    return pp_truncnorm_above(r, m, sd, s->censor_level);
+}
+
+void pp_censored_range(const pp_sampler *s, const double *yaug, const double *g, double gs,
+                       double off, double *lo, double *hi)
+{
+    double l = -INFINITY, h = INFINITY;
+    for (size_t i = 0; s->cens && i < s->gn; i++) {
+        if (!s->cens[i])
+            continue;
+        /* slack >= 0 up to the rounding of an earlier move: t = 0 stays inside */
+        double d = g[i] * gs - off, slack = fmax(0.0, yaug[i] - s->censor_level);
+        if (d > 0)
+            l = fmax(l, -slack / d);
+        else if (d < 0)
+            h = fmin(h, slack / -d);
+    }
+    *lo = l;
+    *hi = h;
 }

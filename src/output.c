@@ -388,6 +388,10 @@ static void json_missing(FILE *f, const pp_result *r, const pp_run_info *info)
     fputs(", \"saturation_rule\": ", f);
     pp_json_write_string(f, pp_sat_rule_name(info ? (pp_sat_rule)info->saturation_rule
                                                   : PP_SAT_NONE));
+    if (info && info->saturated_as && (info->saturated || !strcmp(info->saturated_as, "data"))) {
+        fputs(", \"saturated_as\": ", f);
+        pp_json_write_string(f, info->saturated_as);
+    }
     fputs("},\n", f);
 }
 

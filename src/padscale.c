@@ -3,6 +3,7 @@
 #include "padscale.h"
 #include "internal.h"
 #include "sampler_internal.h"
+#include "observed.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -164,11 +165,17 @@ int pp_padscale_move(pp_padscale *p, const pp_sampler *s, pp_chain *c, double *s
         }
     const double k = 2 * s->cfg.hyper_delta[0] + s->rank - np, hb = s->cfg.hyper_delta[1];
     const double sd = STEP_SCALE / sqrt(2 * nobs);
+    /* censored latent data move too (by em g): em must keep them above their
+     * level, else the target is 0 (src/observed.h) */
+    double em_lo, em_hi;
+    pp_censored_range(s, c->yaug, p->g, 1.0, 0.0, &em_lo, &em_hi);
     double rho = 0, cur = log_f(p, 0, k, hb, c->delta, c->lambda, g1, g2);
     int acc = 0;
     for (int t = 0; t < STEPS; t++) {
         double prop = rho + sd * pp_rng_normal(&c->rng);
         double lf = log_f(p, prop, k, hb, c->delta, c->lambda, g1, g2);
+        if (s->cens && !(exp(prop) - 1 >= em_lo && exp(prop) - 1 <= em_hi))
+            lf = -INFINITY;
         if (log(pp_rng_uniform(&c->rng)) < lf - cur && isfinite(lf)) {
             rho = prop, cur = lf;
             acc++;

@@ -379,8 +379,8 @@ static pp_status plan_data(pp_sampler *s, const pp_image *frame, const pp_image 
     double fill = pp_observed_mean(frame);
     pp_grid_put_box(s->ygrid, &s->gshape, frame->data, &s->fshape);
     for (size_t i = 0; i < s->gn; i++)
-        if (!s->obs[i])
-            s->ygrid[i] = fill;
+        if (!s->obs[i]) /* a censored pixel starts at its level (inside its support) */
+            s->ygrid[i] = s->cens && s->cens[i] ? fmax(fill, s->censor_level) : fill;
     pp_fft_forward(s->fft, s->ygrid, s->yhat);
     return PP_OK;
 }
@@ -791,7 +791,8 @@ static void release_grid(pp_sampler *s)
     pp_fft_free_buffer(s->ygrid);
     pp_fft_free_buffer(s->yhat);
     free(s->obs);
-    s->obs = NULL;
+    free(s->cens);
+    s->obs = s->cens = NULL;
     s->otf = NULL;
     s->otf2 = s->q = s->ygrid = NULL;
     s->yhat = NULL;

@@ -41,6 +41,7 @@
 #include "adaptive.h"
 #include "fieldscale.h"
 #include "internal.h"
+#include "observed.h"
 #include "po_solve.h"
 #include "quantiles.h"
 #include "sampler_internal.h"
@@ -232,8 +233,14 @@ static double augment(const pp_sampler *s, pp_chain *c)
     double sp = 0;
     for (size_t i = 0; i < s->gn; i++)
         if (!s->obs[i]) {
-            double e = sd * pp_rng_normal(&c->rng);
-            c->yaug[i] = c->rbuf[i] + e;
+            double e;
+            if (s->cens && s->cens[i]) { /* censored: truncated at its level */
+                c->yaug[i] = pp_censored_draw(s, &c->rng, c->rbuf[i], sd);
+                e = c->yaug[i] - c->rbuf[i];
+            } else {
+                e = sd * pp_rng_normal(&c->rng);
+                c->yaug[i] = c->rbuf[i] + e;
+            }
             sp += e * e;
         }
     return sp;

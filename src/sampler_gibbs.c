@@ -60,6 +60,7 @@
 #include <math.h>
 #include "internal.h"
 #include "grid.h"
+#include "observed.h"
 #include "pp_assert.h"
 #include "padscale.h"
 #include "psfwidth.h"
@@ -375,7 +376,8 @@ static void probes_fast(const pp_sampler *s, const pp_complex *xh, double *out)
 }
 
 /* Pad: from A x (rbuf, times N) redraw the latent pixels of yaug (padding,
- * missing pixels); returns the observed residual sum of squares in *ss_obs
+ * missing pixels; censored ones from the normal truncated at their level,
+ * src/observed.h); returns the observed residual sum of squares in *ss_obs
  * and the latent one in *ss_pad. */
 static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss_pad)
 {
@@ -397,7 +399,12 @@ static void augment(const pp_sampler *s, pp_chain *c, double *ss_obs, double *ss
                 continue;
             }
             double en = sd * e[k++];
-            ya[col] = ax[col] * invn + en;
+            if (s->cens && s->cens[r * s->gw + col]) { /* censored: truncated at its level */
+                ya[col] = pp_censored_draw(s, &c->rng, ax[col] * invn, sd);
+                en = ya[col] - ax[col] * invn;
+            } else {
+                ya[col] = ax[col] * invn + en;
+            }
             sp += en * en;
         }
     }
@@ -546,6 +553,13 @@ static void asis_delta_pad(const pp_sampler *s, pp_chain *c, int keep, double xs
     double u = pp_rng_uniform(&c->rng);
     if (!(sp > 0) || !(log(u) < log_prior_s(a, b, sp) - log_prior_s(a, b, s1)))
         return;
+    if (s->cens) { /* censored data must stay at or above their level: else the
+                    * target is 0 there and the move is rejected */
+        double lo, hi;
+        pp_censored_range(s, c->yaug, c->rbuf, invn, cst, &lo, &hi);
+        if (!(sp / s1 - 1 >= lo && sp / s1 - 1 <= hi))
+            return;
+    }
     double ratio = sp / s1, d_obs = (sp * sp - s1 * s1) * V - 2 * (sp - s1) * C;
     *ss_obs += d_obs;
     *ss += d_obs;

@@ -162,7 +162,11 @@ struct pp_sampler {
                          * pixel), 0 for the latent ones (padding, NaN pixels);
                          * src/observed.h */
     size_t nobs;        /* observed pixels */
-    size_t nmissing;    /* frame pixels that are NaN (unobserved) */
+    size_t nmissing;    /* frame pixels that are NaN (unobserved), censored ones included */
+    unsigned char *cens; /* gn: 1 at censored grid pixels (latent, value >= censor_level;
+                          * gibbs family only), or NULL: none; src/observed.h */
+    size_t ncensored;
+    double censor_level;
     int augment;        /* the grid has latent pixels that the Gibbs family redraws
                          * (pad, or missing pixels): yaug, per-chain yhat */
     double lambda0, delta0; /* rough scale estimates for dispersed starts */

@@ -118,6 +118,7 @@
 #include "hyper_photon.h"
 #include "incr.h"
 #include "internal.h"
+#include "poisson_tail.h"
 #include "pp_assert.h"
 #include "quantiles.h"
 #include "sampler_internal.h"
@@ -140,6 +141,9 @@ typedef struct pcn_shared {
     double *data;    /* grid: photons (+R^2, clamped at 0) or y (gaussian) */
     double shift;    /* b + R^2 added to A x (photon models) */
     double lgam;     /* -sum lgamma(n + 1) over observed pixels (photon) */
+    double cens_a;   /* photon models with censored pixels (s->cens): their level in
+                      * counts, (level - offset) / gain + R^2; each adds
+                      * -log P(Y >= cens_a | mu) to Phi (src/poisson_tail.h) */
     double fisher;   /* I_F for photon models */
     double *zstart;  /* grid: the start field */
     double x0;       /* data level: mean photons - b - R^2 (log/none photon models) */
@@ -219,6 +223,13 @@ static double phi_of(const pp_sampler *s, const pcn_shared *sh, const double *ax
                     acc += poisson_row(ax + r * s->gw + c0, sh->data + r * s->gw + c0, c1 - c0,
                                        scale, add + sh->shift, sh->logx, &bad);
             }
+        }
+        for (size_t i = 0; s->cens && i < s->gn && !bad; i++) {
+            if (!s->cens[i])
+                continue;
+            double v = scale * ax[i] + add + sh->shift;
+            bad += v != v || (!(v > 0) && !sh->logx);
+            acc -= pp_poisson_logtail(sh->cens_a, v > 0 ? v : 1e-300, NULL);
         }
         return bad || !isfinite(acc) ? INFINITY : acc;
     }
@@ -565,6 +576,13 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
         }
         double mu = fmax(ax[i] + sh->shift, 1e-300);
         r[i] = 1.0 - sh->data[i] / mu;
+    }
+    for (size_t i = 0; s->cens && i < s->gn; i++) { /* censored: d/dmu of -log P(Y >= a) */
+        if (!s->cens[i])
+            continue;
+        double slope;
+        pp_poisson_logtail(sh->cens_a, fmax(ax[i] + sh->shift, 1e-300), &slope);
+        r[i] = -slope;
     }
     pp_fft_forward(s->fft, r, out);
     for (size_t i = 0; i < s->gm; i++)
@@ -930,6 +948,7 @@ static pp_status plan_likelihood(pp_sampler *s, pcn_shared *sh)
     double nobs = (double)s->nobs;
     sh->shift = b + r2;
     sh->lgam = lg;
+    sh->cens_a = (s->censor_level - nz->offset) / nz->gain + r2;
     double x0 = fmax(sum / nobs - sh->shift, 1e-3 * (sum / nobs) + 1e-9);
     sh->x0 = x0;
     sh->fisher = sh->logx ? x0 * x0 / (x0 + sh->shift) : 1.0 / (x0 + sh->shift);

@@ -8,6 +8,8 @@ import json
 import os
 
 import numpy as np
+import scipy.special as sp
+import scipy.stats as st
 import tifffile
 
 import pptest
@@ -19,12 +21,17 @@ H = W = 12
 RANGE = 3.0
 
 
-def scenario(root, label, M, DLT, B, C, burn, iters, runs, seed, masked=False):
+def scenario(root, label, M, DLT, B, C, burn, iters, runs, seed, masked=False, censored=False):
     """One frame in root/label: MALA reference, then each (kind, kept
     iterations, thin) of runs checked against it. masked: 12 pixels (a 3 x 3
     block and 3 single pixels inside rows) are given to pixpost as --mask and
     left out of the reference's likelihood and gradient (obs = 0 there);
-    without, obs = 1 everywhere (a product by 1.0: the same numbers)."""
+    without, obs = 1 everywhere (a product by 1.0: the same numbers).
+    censored: the counts at or above the 8th largest, s, are clipped to s (a
+    flat top: pixpost censors them by default); the reference's likelihood
+    there is log P(Y >= s | mu) = log scipy.special.gammainc(s, mu), its
+    slope scipy.stats.gamma(s).pdf(mu) / gammainc(s, mu). Returns the
+    reference (mean, sd, se) and the censored pixels."""
     tmp = os.path.join(root, label)
     os.makedirs(tmp)
     pptest.run(["psf", "gaussian:sigma=1.0", "--size", "7", "-o", os.path.join(tmp, "psf.tif")])
@@ -40,6 +47,13 @@ def scenario(root, label, M, DLT, B, C, burn, iters, runs, seed, masked=False):
     n = rng.poisson(mu_true).astype(np.float64)
     tifffile.imwrite(os.path.join(tmp, "y.tif"), n.astype(np.float32))
     obs = np.ones((H, W))
+    cens = np.zeros((H, W), bool)
+    if censored:
+        s_lev = np.sort(n.ravel())[-8]
+        cens = n >= s_lev
+        n = np.minimum(n, s_lev)
+        obs[cens] = 0
+        tifffile.imwrite(os.path.join(tmp, "y.tif"), n.astype(np.float32))
     mask_args = []
     if masked:
         obs[4:7, 5:8] = 0
@@ -58,7 +72,12 @@ def scenario(root, label, M, DLT, B, C, burn, iters, runs, seed, masked=False):
         d = z - M
         qd = np.real(np.fft.ifft2(q * np.fft.fft2(d, axes=(-2, -1)), axes=(-2, -1)))
         lp = np.sum(obs * (n * np.log(mu) - mu), axis=(-2, -1)) - 0.5 * DLT * np.sum(d * qd, axis=(-2, -1))
-        g = x * blur(obs * (n / mu - 1), adj=True) - DLT * qd
+        r = obs * (n / mu - 1)
+        if censored:
+            lt = np.log(sp.gammainc(s_lev, mu[..., cens]))
+            lp = lp + np.sum(lt, axis=-1)
+            r[..., cens] = np.exp(st.gamma(s_lev).logpdf(mu[..., cens]) - lt)
+        g = x * blur(r, adj=True) - DLT * qd
         return lp, g
 
 
@@ -105,6 +124,11 @@ def scenario(root, label, M, DLT, B, C, burn, iters, runs, seed, masked=False):
         name = "%s %s" % (label, kind) if masked else kind
         if masked:
             pptest.check(s["missing_data"]["masked"] == 12, "%s: 12 masked pixels" % name)
+        if censored:
+            name = "%s %s censored" % (label, kind)
+            pptest.check(s["missing_data"]["saturated"] == int(cens.sum()) and
+                         s["missing_data"]["saturated_as"] == "censored",
+                         "%s: %d censored pixels (%s)" % (name, cens.sum(), s["missing_data"]))
         pptest.check("poisson" in s["likelihood"] and s["positivity"] == "log",
                      "%s summary names the likelihood and log positivity" % name)
         head, tr = read_trace(os.path.join(out, "trace.csv"))
@@ -125,5 +149,9 @@ def scenario(root, label, M, DLT, B, C, burn, iters, runs, seed, masked=False):
             print("%s masked pixels: worst %.2f se (mean), sd ratio %.3f (observed: %.3f)"
                   % (name, np.max(np.abs(mean - ref_mean)[m0] / se_m[m0]), (sd / ref_sd)[m0].mean(),
                      (sd / ref_sd)[~m0].mean()))
+        if censored:
+            print("%s censored pixels: worst %.2f se (mean), sd ratio %.3f"
+                  % (name, np.max(np.abs(mean - ref_mean)[cens] / se_m[cens]), (sd / ref_sd)[cens].mean()))
         pptest.check(zm < 5, "%s mean.tif vs numpy MALA reference: worst %.2f combined se" % (name, zm))
         pptest.check(zs < 5, "%s sd.tif vs numpy MALA reference: worst %.2f combined se" % (name, zs))
+    return ref_mean, ref_sd, ref_se, cens

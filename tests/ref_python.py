@@ -190,6 +190,21 @@ pptest.check(np.array_equal(flat, flat_before, equal_nan=False) and nsat == len(
              and rs.summary["psf"] == "gaussian:sigma=1.4",
              "saturated pixels marked on a copy: the caller's array is unchanged, summary "
              "counts %d saturated of %d set, psf %r" % (nsat, len(top), rs.summary["psf"]))
+# censored by default, as the CLI (the same frame written as a float TIFF
+# gives the same bytes); saturation="missing" is the CLI's --saturated-missing
+flat_tif = os.path.join(TMP, "flat.tif")
+tifffile.imwrite(flat_tif, flat)
+for tag, kw, extra in (("censored", {}, []), ("missing", {"saturation": "missing"}, ["--saturated-missing"])):
+    rp = pixpost.sample(flat, psf="gaussian:sigma=1.4", noise="gaussian", seed=11, iters=60,
+                        burn=40, chains=2, threads=1, **kw)
+    out = os.path.join(TMP, "cli_flat_" + tag)
+    pptest.run(["sample", flat_tif, "-o", out, "--psf", "gaussian:sigma=1.4", "--noise", "gaussian", "--seed",
+                "11", "--iters", "60", "--burn", "40", "--chains", "2", "--threads", "1", "--quiet",
+                "--no-plan-cache"] + extra)
+    pptest.check(rp.summary["missing_data"].get("saturated_as") == tag and
+                 rp.mean.astype(np.float32).tobytes() ==
+                 tifffile.imread(os.path.join(out, "mean.tif")).tobytes(),
+                 "saturated pixels %s (saturation=%r): summary says so, mean equals the CLI's" % (tag, kw))
 
 # regions: each kept draw's total over each label, against the CLI's
 # regions.csv (mean of the totals, printed with 10 significant digits)

@@ -222,6 +222,29 @@ static void determinism_and_refusals(void)
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_OK, "a NaN pixel is accepted (unobserved): %s",
           pp_error_message());
     pp_sampler_free(s);
+    /* censored pixels (sampler.h "Censoring"): a marked NaN pixel with a
+     * finite level is accepted and the marks are not kept; a marked pixel
+     * that is not NaN, or a level that is not finite, is refused */
+    unsigned char *cz = calloc(y->width * y->height, 1);
+    CHECK(cz != NULL, "censoring marks allocated");
+    cz[5] = 1;
+    cfg.censored = cz;
+    cfg.censor_level = 3.0;
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_OK &&
+              pp_sampler_config_used(s)->censored == NULL,
+          "a censored NaN pixel is accepted, the marks not kept: %s", pp_error_message());
+    pp_sampler_free(s);
+    cz[6] = 1;
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG &&
+              strstr(pp_error_message(), "censored pixel 6 is not NaN"),
+          "a censored pixel that is not NaN refused: %s", pp_error_message());
+    cz[6] = 0;
+    cfg.censor_level = NAN;
+    CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_ARG &&
+              strstr(pp_error_message(), "censoring level nan is not finite"),
+          "a censoring level that is not finite refused: %s", pp_error_message());
+    cfg.censored = NULL;
+    free(cz);
     y->data[5] = INFINITY;
     CHECK(pp_sampler_create(&cfg, y, psf, &s) == PP_ERR_NUMERIC &&
               strstr(pp_error_message(), "1 infinite pixels"),

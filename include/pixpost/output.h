@@ -74,6 +74,10 @@ typedef struct pp_run_info {
     /* The regions' and profiles' draws (src/pixpost/report.h), shown
      * in the report; NULL: none. */
     const struct pp_report_regions *regions;
+    /* How the saturated pixels were treated (summary.json "missing_data"
+     * "saturated_as", written when some were found or for "data"):
+     * "censored", "missing" or "data"; NULL: omitted. */
+    const char *saturated_as;
 } pp_run_info;
 
 /* Writes the outputs of the finished run r (pp_sampler_result, or a

@@ -192,6 +192,14 @@ typedef struct pp_sampler_config {
      * draws above T at each pixel (pp_sampler_above_map). */
     const double *above;
     size_t nabove;
+    /* Censored pixels (saturated ones, pixpost/saturation.h): NULL (default)
+     * or one byte per frame pixel (voxel), not owned, read by
+     * pp_sampler_create; nonzero marks a NaN pixel whose true value is known
+     * only to be at least censor_level (finite). See "Censoring" at
+     * pp_sampler_create. Nonzero bytes at pixels that are not NaN are
+     * refused (PP_ERR_ARG). pp_sampler_config_used shows NULL. */
+    const unsigned char *censored;
+    double censor_level;
 } pp_sampler_config;
 #define PP_MAX_ABOVE 16
 
@@ -219,6 +227,20 @@ typedef struct pp_sampler pp_sampler;
  * an infinite pixel (PP_ERR_NUMERIC), and fewer observed pixels than 1 %
  * of the frame or 2 (PP_ERR_ARG: the message gives the counts). A frame
  * without NaN gives the same bytes as before this rule.
+ * Censoring: a NaN pixel marked in cfg.censored (a saturated pixel) is not
+ * only unobserved: its value is known to be >= cfg.censor_level, and its
+ * likelihood is P(y_i >= censor_level | x) instead of nothing. gibbs, mtc
+ * (which then runs the gibbs chain) and the adaptive prior's gibbs redraw
+ * it each iteration from N(Ax, 1/lambda) truncated to [censor_level, inf)
+ * (data augmentation, Tanner & Wong, JASA 82, 1987: an exact Gibbs step;
+ * src/truncnorm.h), and the moves that carry latent data along with x
+ * (the delta interweaving step, the padding scale move) reject a move that
+ * would take one below the level. Under the photon models pcn, gpcn and
+ * hmc add -log P(Y >= a | A x + b) to the negative log-likelihood and its
+ * gradient (a the level in counts, (level - offset) / gain + read^2 for
+ * the camera model's shifted counts; the regularised incomplete gamma,
+ * src/poisson_tail.h). Not built: pcn, gpcn and hmc under gaussian noise
+ * treat censored pixels as missing and add a note saying so.
  * Contract: cfg, frame, psf, out not NULL; cfg is copied, but what its
  * pointers point to is not: cfg->setting_names must outlive the sampler,
  * cfg->regions / profiles / spots must live until pp_sampler_run returns

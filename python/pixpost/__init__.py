@@ -226,8 +226,10 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
     region) and "totals", a (chains, draws, regions) array of each kept
     draw's total over each region (as `--regions FILE`; regions.csv's
     summaries are not computed here).
-    saturation True marks saturated pixels unobserved as the CLI does (the
-    format maximum from an integer array's dtype, or a flat top).
+    saturation True censors saturated pixels as the CLI does (the format
+    maximum from an integer array's dtype, or a flat top: their value is
+    known to be at least the level); "missing" treats them as missing (the
+    CLI's --saturated-missing); False uses them as data.
     progress(done, total): called now and then during sampling (from the
     sampling thread, holding the GIL); returning False asks the run to stop.
     stop: an object with is_set() (threading.Event), checked at each
@@ -294,10 +296,19 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
             img, owned = _view_image(a)
             bits, is_float = a.dtype.itemsize * 8, int(a.dtype.kind == "f")
         sat = _lib.Saturation()
+        censored = None
+        if saturation is not True and saturation not in (False, "missing"):
+            raise ValueError("saturation must be True, False or 'missing', not %r" % (saturation,))
         if saturation:
             _L.pp_saturation_find(img, bits, is_float, ctypes.byref(sat))
             if sat.count and not owned:  # marking writes NaN: never into the caller's array
                 img, owned = _to_image(a), True
+            if sat.count and saturation is True:  # one byte per pixel, 1 = censored
+                im = img.contents
+                vals = np.ctypeslib.as_array(im.data, shape=(im.width * im.height * im.depth,))
+                censored = (vals == sat.level).astype(np.uint8)
+                cfg.censored = censored.ctypes.data
+                cfg.censor_level = sat.level
             _L.pp_saturation_mark(img, ctypes.byref(sat))
         volume = img.contents.depth > 1
         kern, ps = _kernel(psf, volume)
@@ -365,7 +376,9 @@ def sample(frame, psf="gaussian:sigma=1.5", noise="gaussian", prior="default", *
             os.makedirs(outputs, exist_ok=True)
             out_dir = outputs
         ri = _lib.RunInfo(saturated=sat.count, saturation_level=sat.level,
-                          saturation_rule=sat.rule)
+                          saturation_rule=sat.rule,
+                          saturated_as=b"censored" if saturation is True else
+                          b"missing" if saturation else b"data")
         if isinstance(frame, (str, bytes, os.PathLike)):
             ri.input_path = os.fsencode(frame)
         for field, spec in (("psf_spec", psf), ("noise_spec", noise), ("prior_spec", prior)):

@@ -69,7 +69,8 @@ class SamplerConfig(ctypes.Structure):  # pp_sampler_config (sampler.h)
                 ("progress_ctx", c_void_p), ("stop", ctypes.POINTER(c_int)),
                 ("setting_names", c_void_p), ("voxel", c_double * 3), ("regions", c_void_p),
                 ("profiles", c_void_p), ("spots", c_void_p),
-                ("above", ctypes.POINTER(c_double)), ("nabove", c_size_t)]
+                ("above", ctypes.POINTER(c_double)), ("nabove", c_size_t),
+                ("censored", c_void_p), ("censor_level", c_double)]
 
 
 class ReadOptions(ctypes.Structure):  # pp_read_options (io.h)
@@ -100,7 +101,8 @@ class RunInfo(ctypes.Structure):  # pp_run_info (output.h); pointers we never se
                 ("saturated", c_size_t), ("saturation_level", c_double),
                 ("saturation_rule", c_int), ("data_checks", c_void_p), ("predictive", c_void_p),
                 ("noise_estimate", c_void_p), ("noise_chosen", c_void_p),
-                ("noise_note", c_char_p), ("regions", c_void_p)]
+                ("noise_note", c_char_p), ("regions", c_void_p),
+                ("saturated_as", c_char_p)]
 
 
 MIRRORED = {"pp_run_info": RunInfo, "pp_image": Image, "pp_shape": Shape, "pp_noise_spec": NoiseSpec,

@@ -185,6 +185,7 @@ typedef struct cli_sample_opts {
     int overwrite;          /* --overwrite */
     const char *mask;       /* --mask FILE (nonzero = unobserved) or NULL */
     int keep_saturated;     /* --keep-saturated: saturated pixels stay data */
+    int saturated_missing;  /* --saturated-missing: missing, not censored */
     int noise_auto;         /* --noise auto: estimated per frame (noise_auto.c) */
     int prior_given;        /* --prior was given */
     /* multi-page and multi-channel input (units.c) */
@@ -394,6 +395,9 @@ typedef struct cli_frame_run {
     char message[1024];  /* the failure, one sentence naming the file */
     size_t masked;       /* pixels --mask made unobserved */
     pp_saturation sat;   /* the saturated pixels found (rule NONE with --keep-saturated) */
+    unsigned char *censored; /* one byte per pixel, 1 = censored at sat.level (the
+                              * sampler's cfg.censored), or NULL: none; freed by
+                              * cli_run_frame */
     pp_regions *regions; /* --regions planned for the frame (during cli_run_frame only) */
     pp_profiles *profiles; /* --profile planned for the frame (likewise) */
     struct pp_spots *spots; /* --spots planned for the frame (likewise) */
@@ -406,8 +410,10 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r);
 /* Marks the unobserved pixels of a frame just read (unobserved.c): NaN
  * where o->mask is nonzero, then at the saturated pixels
  * (pp_saturation_find) unless o->keep_saturated; counts in r->masked and
- * r->sat. Returns 0, or CLI_EXIT_USAGE with r->message naming --mask's file
- * (unreadable, colour, not the frame's size). */
+ * r->sat; unless o->saturated_missing the saturated ones are also marked
+ * censored in r->censored (allocated). Returns 0, or CLI_EXIT_USAGE with
+ * r->message naming --mask's file (unreadable, colour, not the frame's
+ * size) or saying memory ran out. */
 int cli_mark_unobserved(const cli_sample_opts *o, cli_frame_run *r, pp_image *frame);
 /* --regions (regions_cli.c): reads o->regions' label image for the frame
  * into r->regions (NULL without --regions) and checks --compare's labels;

@@ -306,6 +306,8 @@ static int make_sampler(const cli_sample_opts *o, cli_frame_run *r, const pp_ima
     cfg.spots = r->spots;
     cfg.above = o->above;
     cfg.nabove = o->nabove;
+    cfg.censored = r->censored;
+    cfg.censor_level = r->sat.level;
     for (int i = 0; i < 3; i++) /* {z, y, x} micrometres; 0 unknown (NaN here) */
         cfg.voxel[i] = r->voxel_um && r->voxel_um[i] > 0 ? r->voxel_um[i] : 0.0;
     pp_status st = pp_sampler_create(&cfg, frame, psf, &r->sampler);
@@ -348,7 +350,10 @@ static int sample_and_write(const cli_sample_opts *o, cli_frame_run *r, const pp
                       .fft_plans = plans->summary,
                       .masked = r->masked, .saturated = r->sat.count,
                       .saturation_level = r->sat.level, .saturation_rule = r->sat.rule,
-                      .data_checks = &r->checks, .predictive = r->predictive};
+                      .data_checks = &r->checks, .predictive = r->predictive,
+                      .saturated_as = o->keep_saturated      ? "data"
+                                      : o->saturated_missing ? "missing"
+                                                             : "censored"};
     if (na->used) { /* --noise auto: the estimate and the sentence saying what was chosen */
         ri.noise_estimate = &na->fit;
         ri.noise_chosen = &na->spec;
@@ -397,6 +402,7 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     r->regions = NULL;
     r->profiles = NULL;
     r->spots = NULL;
+    r->censored = NULL;
     int rc = read_frame(o, r, &frame);
     if (!rc)
         rc = cli_regions_load(o, r, frame);
@@ -423,8 +429,10 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     pp_regions_free(r->regions); /* the sampler has run: it reads them no more */
     pp_profiles_free(r->profiles);
     pp_spots_free(r->spots);
+    free(r->censored); /* read by pp_sampler_create only */
     r->regions = NULL;
     r->profiles = NULL;
     r->spots = NULL;
+    r->censored = NULL;
     return rc;
 }

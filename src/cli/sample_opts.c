@@ -148,7 +148,13 @@ static const cli_opt sample_table[] = {
     {"keep-saturated", 0, 0, "",
      "Use saturated pixels as data. Without it, pixels at the format's maximum (255 for "
      "8-bit, 65535 for 16-bit integer input) or on a flat top of the histogram (README, "
-     "\"Saturated pixels\") are unobserved, and their count is reported."},
+     "\"Saturated pixels\") are censored (their value is only known to be at least the "
+     "level), and their count is reported."},
+    {"saturated-missing", 0, 0, "",
+     "Treat saturated pixels as missing (no information, like --mask) instead of censored "
+     "(at least the saturation level; censoring is built for gibbs and mtc under gaussian "
+     "noise and for every sampler under the photon models; pcn, gpcn and hmc under gaussian "
+     "noise treat them as missing anyway)."},
     {"wisdom", 0, 1, "FILE",
      "FFTW wisdom file used instead of the plan cache: loaded if present, saved after new "
      "plans were measured."},
@@ -235,7 +241,7 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
              strcmp(name, "overwrite") == 0)
         snprintf(buf, len, "off");
     else if (strcmp(name, "no-plan-cache") == 0 || strcmp(name, "keep-saturated") == 0 ||
-             strcmp(name, "rsd") == 0)
+             strcmp(name, "saturated-missing") == 0 || strcmp(name, "rsd") == 0)
         snprintf(buf, len, "off");
     else if (strcmp(name, "mask") == 0 || strcmp(name, "plane") == 0 ||
              strcmp(name, "regions") == 0 || strcmp(name, "compare") == 0 ||
@@ -412,6 +418,10 @@ static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
     o->no_plan_cache = cli_given(a, "no-plan-cache");
     o->mask = cli_str(a, "mask");
     o->keep_saturated = cli_given(a, "keep-saturated");
+    o->saturated_missing = cli_given(a, "saturated-missing");
+    if (o->keep_saturated && o->saturated_missing)
+        return cli_opt_error("saturated-missing", "cannot be given with --keep-saturated "
+                                                  "(saturated pixels are either data or missing)");
     if (o->wisdom && !o->wisdom[0])
         return cli_opt_error("wisdom", "empty file name (expected --wisdom FILE)");
     if (o->mask && !o->mask[0])

@@ -1,7 +1,9 @@
 /* pixpost command line — the pixels of a frame that are not data: --mask
  * FILE (nonzero = ignore the pixel) and the saturated pixels the library
  * finds (pixpost/saturation.h). Both become NaN, which the sampler treats as
- * unobserved (pixpost/sampler.h, pp_sampler_create). For a volume the mask
+ * unobserved (pixpost/sampler.h, pp_sampler_create); the saturated ones are
+ * also marked censored (known to be at least the level) unless
+ * --saturated-missing. For a volume the mask
  * is one page of the slice's size (the same pixels in every z-slice, e.g.
  * a camera's defects) or one page per z-slice. Cost: one read of the mask
  * and a few passes over the frame. */
@@ -9,6 +11,7 @@
 #include "pixpost/stack.h"
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 static int mask_fail(cli_frame_run *r, const char *fmt, const char *a, const char *b)
@@ -75,6 +78,16 @@ int cli_mark_unobserved(const cli_sample_opts *o, cli_frame_run *r, pp_image *fr
     }
     if (!o->keep_saturated) {
         pp_saturation_find(frame, r->info.bits, r->info.is_float, &r->sat);
+        size_t count = pp_image_count(frame);
+        if (r->sat.count && !o->saturated_missing) { /* censored (masked ones are NaN) */
+            if (!(r->censored = malloc(count))) {
+                snprintf(r->message, sizeof r->message, "%s: out of memory marking %zu "
+                         "saturated pixels", r->frame, r->sat.count);
+                return CLI_EXIT_USAGE;
+            }
+            for (size_t i = 0; i < count; i++)
+                r->censored[i] = frame->data[i] == r->sat.level;
+        }
         pp_saturation_mark(frame, &r->sat);
     }
     return 0;
@@ -91,10 +104,19 @@ void cli_unobserved_line(const cli_frame_run *r, size_t npix, char *buf, size_t 
             snprintf(why, sizeof why, "the %u-bit format's maximum", r->info.bits);
         else
             snprintf(why, sizeof why, "a flat top of the histogram");
-        used += (size_t)snprintf(buf, len,
-                                 "%zu pixels (%.1f %%) are saturated at %.10g (%s); they are "
-                                 "treated as unobserved (--keep-saturated to use them as data)",
-                                 r->sat.count, pc * (double)r->sat.count, r->sat.level, why);
+        if (r->censored)
+            used += (size_t)snprintf(buf, len,
+                                     "%zu pixels (%.1f %%) are saturated at %.10g (%s); they are "
+                                     "censored (their value is taken to be at least %.10g; "
+                                     "--saturated-missing to treat them as missing, "
+                                     "--keep-saturated to use them as data)",
+                                     r->sat.count, pc * (double)r->sat.count, r->sat.level, why,
+                                     r->sat.level);
+        else
+            used += (size_t)snprintf(buf, len,
+                                     "%zu pixels (%.1f %%) are saturated at %.10g (%s); they are "
+                                     "treated as missing (--keep-saturated to use them as data)",
+                                     r->sat.count, pc * (double)r->sat.count, r->sat.level, why);
     }
     if (r->masked && used < len)
         snprintf(buf + used, len - used, "%s%zu pixels (%.1f %%) are masked (--mask)%s",
