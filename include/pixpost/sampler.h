@@ -197,7 +197,7 @@ typedef struct pp_sampler_config {
      * pp_sampler_create; nonzero marks a NaN pixel whose true value is known
      * only to be at least censor_level (finite). See "Censoring" at
      * pp_sampler_create. Nonzero bytes at pixels that are not NaN are
-     * refused (PP_ERR_ARG). pp_sampler_config_used shows NULL. */
+     * refused (PP_ERR_ARG). pp_result.config then shows NULL. */
     const unsigned char *censored;
     double censor_level;
 } pp_sampler_config;
