@@ -77,7 +77,7 @@ int main(void)
     refused(po, 1.0, 1.0, 1e-8, "otf[0]", "otf[0] = 0");
     otf[0] = dc;
     double a[N] = {0}, b[N] = {0};
-    pp_po_stats st = {0, -1.0}, st2 = {0, -1.0};
+    pp_po_stats st = {0, -1.0, 0, 0.0}, st2 = {0, -1.0, 0, 0.0};
     CHECK(draw(po, 100.0, 2.0, 1e-9, a, &st) == PP_OK, "a draw converges: %s", pp_error_message());
     CHECK(st.iters > 0 && st.iters <= N && st.relres >= 0 && st.relres <= 1e-9,
           "stats: %zu iterations (CG on N = %d unknowns), relres %g <= 1e-9", st.iters, N,

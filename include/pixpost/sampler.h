@@ -410,6 +410,7 @@ const char *pp_convergence_failed(const pp_convergence *cv);
 typedef struct pp_solver_stats {
     unsigned long long draws, iterations, capped;
     size_t most;
+    unsigned long long accepted; /* draws whose Metropolis-Hastings move was accepted */
 } pp_solver_stats;
 void pp_sampler_solver_stats(const pp_sampler *s, pp_solver_stats *out);
 
