@@ -292,7 +292,8 @@ static double dot(const double *a, const double *b, size_t n)
  * Tichý, ETNA 13, 2002: ‖e_k‖²_P = Σ_{j≥k} α_j r_jᵀM⁻¹r_j in exact
  * arithmetic), is ≤ eps², or at cap iterations. *iters, *rn: iterations
  * done and the final recursive ‖r‖₂. PP_OK, or PP_ERR_NUMERIC /
- * PP_ERR_INTERRUPTED (v then holds the last iterate). */
+ * PP_ERR_INTERRUPTED (v then holds the last iterate). Also stops when
+ * rᵀM⁻¹r is no longer positive (r = 0: solved exactly). */
 #define ENERGY_WINDOW 10
 static pp_status pcg(pp_po *po, double delta, const double *wz, const double *wh,
                      const double *wv, double *v, double bn, double tol, double eps, size_t cap,
@@ -313,8 +314,8 @@ static pp_status pcg(pp_po *po, double delta, const double *wz, const double *wh
                            "PO solver: CG residual is not finite after %zu "
                            "iterations",
                            k);
-        if ((tol > 0 && rn <= tol * bn) || k == cap ||
-            (eps > 0 && (k >= ENERGY_WINDOW || rz <= 0) && wsum <= eps * eps))
+        if ((tol > 0 && rn <= tol * bn) || k == cap || !(rz > 0) ||
+            (eps > 0 && k >= ENERGY_WINDOW && wsum <= eps * eps))
             break;
         if (po->stop && *po->stop)
             return pp_fail(PP_ERR_INTERRUPTED, "PO solver: stopped at the caller's request");
@@ -412,6 +413,11 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
                    cap, rel, tol);
 }
 
+/* CG's relative residual below which its steps are rounding noise: the
+ * reversible-jump solve stops there too, whatever eps asks (a rule that
+ * reads z's iterates only, so the move stays an involution). */
+#define RJ_FLOOR 1e-14
+
 pp_status pp_po_draw_rj(pp_po *po, const pp_complex *otf, const double *y, double lam,
                         double delta, const double *wz, const double *wh, const double *wv,
                         pp_rng *rng, double alpha, double eps, size_t cap, double *x,
@@ -440,7 +446,7 @@ pp_status pp_po_draw_rj(pp_po *po, const pp_complex *otf, const double *y, doubl
     }
     size_t k = 0;
     double rn;
-    st = pcg(po, delta, wz, wh, wv, po->g, zn, 0.0, eps, cap, &k, &rn);
+    st = pcg(po, delta, wz, wh, wv, po->g, zn, RJ_FLOOR, eps, cap, &k, &rn);
     if (st != PP_OK)
         return st; /* x untouched */
     /* the true residual r = z − P G (not CG's recursive one), then
