@@ -78,7 +78,8 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
  * 2015; acceptance ratio derived in po_solve.c): z = (2 − α)Px + αλAᵀy +
  * √(α(2 − α)) η₀ with η₀ ~ N(0, P), G ≈ P⁻¹z by PCG from a start that does
  * not depend on x, stopped once the last 10 steps lowered the squared
- * P-norm of the error by ≤ eps² (or at cap), proposal x' = G − x accepted
+ * P-norm of the error by ≤ eps² (or at relative residual 1e-14, or at
+ * cap), proposal x' = G − x accepted
  * with probability min(1, exp((x' − x)ᵀ(z − PG)/α)). Leaves N(P⁻¹λAᵀy,
  * P⁻¹) invariant whatever eps and cap are (they set the cost and the
  * acceptance: about 2Φ(−‖e‖_P/√2) at α = 1, e = G − P⁻¹z, i.e. ≈ 0.94 at
