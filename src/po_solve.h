@@ -77,7 +77,7 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
  * perturbation–optimisation (Gilavert, Moussaoui & Idier, IEEE TSP 63,
  * 2015; acceptance ratio derived in po_solve.c): z = (2 − α)Px + αλAᵀy +
  * √(α(2 − α)) η₀ with η₀ ~ N(0, P), G ≈ P⁻¹z by PCG from a start that does
- * not depend on x, stopped once the last 10 steps lowered the squared
+ * not depend on x (twice the Fourier operator's posterior mean), stopped once the last 10 steps lowered the squared
  * P-norm of the error by ≤ eps² (or at relative residual 1e-14, or at
  * cap), proposal x' = G − x accepted
  * with probability min(1, exp((x' − x)ᵀ(z − PG)/α)). Leaves N(P⁻¹λAᵀy,
@@ -91,8 +91,8 @@ pp_status pp_po_draw(pp_po *po, const pp_complex *otf, const double *y, double l
  * when CG stopped at cap (the move is still made and still exact, but
  * costly: the caller counts it), PP_ERR_ARG (also alpha outside (0, 2)),
  * PP_ERR_NUMERIC, PP_ERR_INTERRUPTED (x untouched in all three). Cost:
- * 2 FFT pairs per CG iteration + 4 per draw (η's data term, P x, M⁻¹r₀,
- * the true residual P G). */
+ * 2 FFT pairs per CG iteration + 6 per draw (η's data term, P x, the
+ * start, P G₀, M⁻¹r₀, the true residual P G). */
 pp_status pp_po_draw_rj(pp_po *po, const pp_complex *otf, const double *y, double lam,
                         double delta, const double *wz, const double *wh, const double *wv,
                         pp_rng *rng, double alpha, double eps, size_t cap, double *x,

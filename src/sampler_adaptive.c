@@ -12,11 +12,11 @@
  *      Moussaoui & Idier, IEEE TSP 2015 for the correction): preconditioned
  *      CG on P G = z stopped at a loose error (PO_EPS), the proposal G − x
  *      accepted with probability min(1, exp((G − 2x)ᵀ(z − PG))). Exact at
- *      any tolerance: the solve's accuracy sets the acceptance (about 0.92
+ *      any tolerance: the solve's accuracy sets the acceptance (about 0.89
  *      on the demo frame), not the target. CG cannot start at the previous
- *      x (that would break the move's reversibility): it starts at 0. A
- *      draw that reaches the iteration cap is still exact but counted and
- *      warned about.
+ *      x (that would break the move's reversibility): it starts at twice
+ *      the Fourier operator's posterior mean. A draw that reaches the
+ *      iteration cap is still exact but counted and warned about.
  *   2. pad or missing pixels (NaN, src/observed.h): the latent pixels of the
  *      augmented frame redrawn from N(Ax, 1/λ) (data augmentation, as
  *      gibbs); then
@@ -28,7 +28,7 @@
  * mean in closed form: the variance is the draws' variance alone).
  * Trace: lambda, delta (= exp(mean s), the global level), loglik, kappa,
  * probes.
- * Cost per iteration: the CG draw (2 FFT pairs per CG iteration + 4) and
+ * Cost per iteration: the CG draw (2 FFT pairs per CG iteration + 6) and
  * one pair for A x, plus 2N Gamma and 3N normal draws.
  * Memory per thread: the solver (≈ 84 B/px, 92 B/voxel) + x, wh, wv (24
  * B/px; a volume adds wz, 8 B/voxel) on top of gibbs's buffers; shared:
