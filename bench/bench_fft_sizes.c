@@ -14,6 +14,7 @@
 #include <time.h>
 #include "bench_time.h"
 #include "pixpost/pixpost.h"
+#include "pixpost/fft.h"
 
 /* Median seconds of one pair over 15 timings of >= 10 ms each (values are not
  * rescaled between pairs, as in bench_floor: only the time matters). */

@@ -9,6 +9,9 @@
 #include <time.h>
 #include "bench_time.h"
 #include "pixpost/pixpost.h"
+#include "pixpost/shape_extra.h"
+#include "pixpost/fft.h"
+#include "pixpost/rng.h"
 
 int main(int argc, char **argv)
 {

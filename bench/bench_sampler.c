@@ -36,6 +36,9 @@
 #include <string.h>
 #include "pixpost/diag.h"
 #include "pixpost/pixpost.h"
+#include "pixpost/diag_extra.h"
+#include "pixpost/io_extra.h"
+#include "pixpost/sampler_extra.h"
 
 static pp_image *scene(size_t d, size_t h, size_t w, const pp_image *psf,
                        const pp_noise_spec *ns)

@@ -7,7 +7,7 @@
  * of the smooth coefficients by their approximation value, and a maximum-
  * likelihood fit of the level sets' (mean, sd) pairs (they also model
  * clipping, which we leave to the saturation value). Contract and method
- * summary in include/pixpost/calib.h.
+ * summary in src/pixpost/calib.h.
  *
  * Our choices, each measured on simulated camera frames (README,
  * "Calibrating the camera"; bench/calib_frame.py):

@@ -1,10 +1,11 @@
 /* pixpost — camera calibrations as JSON: the file `pixpost calibrate -o`
  * writes and the "noise_estimate" object of summary.json (contract in
- * include/pixpost/calib.h). Numbers with 10 significant digits; a value
+ * src/pixpost/calib.h). Numbers with 10 significant digits; a value
  * that is not finite is null. Cost: a few hundred bytes of text. */
 #include "internal.h"
 #include "pixpost/calib.h"
 #include "pixpost/output.h"
+#include "pixpost/output_extra.h"
 #include <math.h>
 
 /* ",\n<indent>\"key\": value" */

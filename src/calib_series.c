@@ -1,6 +1,6 @@
 /* pixpost — per-pixel temporal statistics of a series of frames taken at
  * one light level (darks, or flats at one exposure), for the photon transfer
- * fit (include/pixpost/calib.h).
+ * fit (src/pixpost/calib.h).
  *
  * Each frame's own mean m_l (over its usable pixels) is subtracted first and
  * the per-pixel residuals r_l(p) = y_l(p) - m_l are accumulated with

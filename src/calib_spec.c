@@ -1,5 +1,5 @@
 /* pixpost — the --noise spec `--noise auto` takes from a single-frame fit
- * (contract in include/pixpost/calib.h). One frame gives var = a y + b;
+ * (contract in src/pixpost/calib.h). One frame gives var = a y + b;
  * the camera model's var = K (y - O) + K^2 R^2 needs a split of b into
  * offset and read noise, which one frame cannot make: we put the offset at
  * the darkest smooth part of the frame (not below the zero-signal level)

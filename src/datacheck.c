@@ -1,5 +1,5 @@
 /* pixpost — checks of a frame against the stated model before sampling
- * (include/pixpost/datacheck.h states every rule and its threshold).
+ * (src/pixpost/datacheck.h states every rule and its threshold).
  * Workload: one frame per run, before the sampler is made. Cost: one copy
  * of the finite pixels and one qsort; the rest is a pass or two. */
 #include "pixpost/datacheck.h"
@@ -7,6 +7,7 @@
 #include "pixpost/setting.h"
 #include "internal.h"
 #include "stats.h"
+#include "pixpost/setting_extra.h"
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>

@@ -20,6 +20,7 @@
 #include "internal.h"
 #include "stats.h"
 #include "pixpost/fft.h"
+#include "pixpost/diag_extra.h"
 #include <float.h>
 #include <math.h>
 #include <stdlib.h>

@@ -22,6 +22,7 @@
  * valid arguments.
  */
 #include "pixpost/fft.h"
+#include "pixpost/shape_extra.h"
 #include "internal.h"
 #include "pp_assert.h"
 #include <complex.h> /* before fftw3.h: fftw_complex becomes double _Complex */

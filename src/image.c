@@ -4,6 +4,7 @@
 #include <string.h>
 #include "internal.h"
 #include "pixpost/image.h"
+#include "pixpost/image_extra.h"
 
 pp_status pp_image_create3(size_t depth, size_t height, size_t width, pp_image **out)
 {

@@ -7,6 +7,8 @@
 #include "pixpost/setting.h"
 #include "internal.h"
 #include "io_internal.h"
+#include "pixpost/io_extra.h"
+#include "pixpost/setting_extra.h"
 #include <errno.h>
 #include <stdio.h>
 #include <string.h>

@@ -5,6 +5,7 @@
 #include "internal.h"
 #include "io_internal.h"
 #include "pixpost/setting.h"
+#include "pixpost/setting_extra.h"
 #include <string.h>
 
 void pp_read_options_defaults(pp_read_options *opt)

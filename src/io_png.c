@@ -10,6 +10,7 @@
 #include "internal.h"
 #include "io_internal.h"
 #include "pixpost/io.h"
+#include "pixpost/io_extra.h"
 #include <errno.h>
 #include <math.h>
 #include <png.h>

@@ -1,5 +1,5 @@
 /* pixpost — reading every page of a multi-page TIFF into a stack, with the
- * OME-XML of its first page (include/pixpost/stack.h). The pages are decoded
+ * OME-XML of its first page (src/pixpost/stack.h). The pages are decoded
  * one at a time by the single-page decoder (io_tiff.c), so every sample
  * type, layout and check it has applies to each page; the metadata comes
  * from the first page's ImageDescription (ome.c).
@@ -8,6 +8,7 @@
 #include "internal.h"
 #include "io_tiff_internal.h"
 #include "pixpost/stack.h"
+#include "pixpost/io_extra.h"
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>

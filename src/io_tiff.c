@@ -13,6 +13,7 @@
 #include "io_internal.h"
 #include "io_tiff_internal.h"
 #include "pixpost/io.h"
+#include "pixpost/io_extra.h"
 #include <errno.h>
 #include <math.h>
 #include <stdarg.h>

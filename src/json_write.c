@@ -5,6 +5,7 @@
 #include <math.h>
 #include <stdio.h>
 #include "pixpost/output.h"
+#include "pixpost/output_extra.h"
 
 void pp_json_write_string(FILE *f, const char *s)
 {

@@ -21,6 +21,8 @@
 #include "internal.h"
 #include "grid.h"
 #include "pixpost/psf.h"
+#include "pixpost/model_extra.h"
+#include "pixpost/setting_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

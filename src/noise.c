@@ -3,6 +3,7 @@
 #include "internal.h"
 #include "pixpost/setting.h"
 #include "pixpost/spec.h"
+#include "pixpost/setting_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <string.h>

@@ -10,6 +10,7 @@
 #include "internal.h"
 #include "output_internal.h"
 #include "stats.h"
+#include "pixpost/calib.h"
 #include "pixpost/datacheck.h"
 #include "pixpost/diag.h"
 #include "pixpost/io.h"
@@ -19,6 +20,11 @@
 #include "pixpost/result.h"
 #include "pixpost/saturation.h"
 #include "pixpost/stack.h"
+#include "pixpost/io_extra.h"
+#include "pixpost/output_extra.h"
+#include "pixpost/sampler_extra.h"
+#include "pixpost/saturation_extra.h"
+#include "pixpost/shape_extra.h"
 
 /* "run_length": what pp_sampler_run did about its length (sampler.h). */
 static void json_run_length(FILE *f, const pp_result *r)
@@ -275,7 +281,7 @@ static void json_sentences(FILE *f, const char *key, const char *const *list, si
 }
 
 /* "data_checks": the findings before sampling and their figures
- * (include/pixpost/datacheck.h); null when not made. */
+ * (src/pixpost/datacheck.h); null when not made. */
 static void json_data_checks(FILE *f, const pp_datacheck *d)
 {
     fputs("  \"data_checks\": ", f);
@@ -306,7 +312,7 @@ static void json_data_checks(FILE *f, const pp_datacheck *d)
 }
 
 /* "predictive": the posterior predictive check's figures, thresholds,
- * verdict and warnings (include/pixpost/ppcheck.h); null when not made. */
+ * verdict and warnings (src/pixpost/ppcheck.h); null when not made. */
 static void json_predictive(FILE *f, const pp_ppcheck *p)
 {
     fputs("  \"predictive\": ", f);

@@ -11,6 +11,7 @@
 #include "pixpost/ppcheck.h"
 #include "pixpost/report.h"
 #include "pixpost/setting.h"
+#include "pixpost/sampler_extra.h"
 
 enum { NSET = 13, NSET_MAX = 15 };
 

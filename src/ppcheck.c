@@ -1,4 +1,4 @@
-/* pixpost — the posterior predictive check (include/pixpost/ppcheck.h has
+/* pixpost — the posterior predictive check (src/pixpost/ppcheck.h has
  * the formulas, the figures and the thresholds with where they come from).
  * Workload: once per run, after sampling. Cost: pp_model_blur (three
  * transforms on the frame's grid or its padded grid), one r2c of the
@@ -8,6 +8,9 @@
 #include "pixpost/setting.h"
 #include "internal.h"
 #include "spectral.h"
+#include "pixpost/model_extra.h"
+#include "pixpost/sampler_extra.h"
+#include "pixpost/setting_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

@@ -10,6 +10,8 @@
 #include "pixpost/prior.h"
 #include "pixpost/setting.h"
 #include "pixpost/spec.h"
+#include "pixpost/prior_extra.h"
+#include "pixpost/setting_extra.h"
 
 static pp_status common_keys(pp_spec *s, const char *what, pp_prior_spec *out, int allow_mean)
 {

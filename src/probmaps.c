@@ -1,4 +1,4 @@
-/* pixpost — maps answering a question per pixel (include/pixpost/probmaps.h):
+/* pixpost — maps answering a question per pixel (src/pixpost/probmaps.h):
  * the relative uncertainty map, the above maps' file names, and the float
  * TIFF writer both use. Cost: one pass over the map. */
 #include <math.h>

@@ -1,4 +1,4 @@
-/* pixpost — intensity profiles along lines (include/pixpost/profiles.h):
+/* pixpost — intensity profiles along lines (src/pixpost/profiles.h):
  * the points and their bilinear (frame) or trilinear (volume) weights, a
  * draw's values at them, and the profile_<k>.csv files. Cost: O(points)
  * per draw; writing O(S log S) per point for S draws (the sort behind the
@@ -10,6 +10,7 @@
 #include "internal.h"
 #include "pixpost/profiles.h"
 #include "pixpost/regions.h"
+#include "pixpost/regions_extra.h"
 
 typedef struct profile_point {
     double z, r, c, dist, dist_um;

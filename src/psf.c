@@ -24,6 +24,8 @@
 #include "pixpost/setting.h"
 #include "pixpost/spec.h"
 #include "psf_internal.h"
+#include "pixpost/psf_extra.h"
+#include "pixpost/setting_extra.h"
 #include <errno.h>
 #include <math.h>
 #include <stdio.h>

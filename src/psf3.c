@@ -10,6 +10,7 @@
 #include "internal.h"
 #include "pixpost/setting.h"
 #include "psf_internal.h"
+#include "pixpost/setting_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>

@@ -71,6 +71,7 @@
 #include "internal.h"
 #include "pixpost/setting.h"
 #include "psf_internal.h"
+#include "pixpost/setting_extra.h"
 #include <complex.h>
 #include <math.h>
 #include <stdio.h>

@@ -20,6 +20,7 @@
 #include "psfwidth.h"
 #include "sampler_internal.h"
 #include "pixpost/psf.h"
+#include "pixpost/psf_extra.h"
 
 struct pp_width {
     pp_psf_spec spec;   /* the model; its sigma/na is set to each width built */

@@ -7,6 +7,7 @@
 #include <string.h>
 #include "internal.h"
 #include "pixpost/regions.h"
+#include "pixpost/regions_extra.h"
 
 struct pp_regions {
     size_t depth, height, width;

@@ -12,6 +12,8 @@
 #include "internal.h"
 #include "stats.h"
 #include "pixpost/regions.h"
+#include "pixpost/diag_extra.h"
+#include "pixpost/regions_extra.h"
 
 static int cmp_double(const void *a, const void *b)
 {

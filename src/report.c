@@ -12,6 +12,7 @@
 #include "internal.h"
 #include "pixpost/setting.h"
 #include "report_internal.h"
+#include "pixpost/setting_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>

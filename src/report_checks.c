@@ -1,5 +1,5 @@
 /* pixpost — report.html's section on the checks of the data before
- * sampling and of the fit after it (include/pixpost/datacheck.h,
+ * sampling and of the fit after it (src/pixpost/datacheck.h,
  * ppcheck.h): one sentence of the predictive check's figures and the
  * checks' warnings. The residual map itself is a panel among the images
  * (src/report.c). Cost: a few lines of text. */

@@ -9,6 +9,8 @@
 #include "display.h"
 #include "pixpost/image.h"
 #include "pixpost/status.h"
+#include "pixpost/calib.h"
+#include "pixpost/report.h"
 #include <stddef.h>
 #include <stdio.h>
 

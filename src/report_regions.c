@@ -13,6 +13,7 @@
 #include "pixpost/report.h"
 #include "internal.h"
 #include "report_internal.h"
+#include "pixpost/regions_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>

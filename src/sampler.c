@@ -42,6 +42,13 @@
 #include "pixpost/regions.h"
 #include "pixpost/spots.h"
 #include "pixpost/psf.h"
+#include "pixpost/image_extra.h"
+#include "pixpost/model_extra.h"
+#include "pixpost/prior_extra.h"
+#include "pixpost/psf_extra.h"
+#include "pixpost/regions_extra.h"
+#include "pixpost/sampler_extra.h"
+#include "pixpost/setting_extra.h"
 #if defined(__GLIBC__)
 #include <malloc.h>
 #endif

@@ -44,6 +44,7 @@
 #include "po_solve.h"
 #include "quantiles.h"
 #include "sampler_internal.h"
+#include "pixpost/setting_extra.h"
 
 #define PO_TOL 1e-6
 #define PO_CAP 2000

@@ -19,6 +19,9 @@
 #include "sampler_diag.h"
 #include "sampler_internal.h"
 #include "pixpost/diag.h"
+#include "pixpost/diag_extra.h"
+#include "pixpost/sampler_extra.h"
+#include "pixpost/setting_extra.h"
 
 #define RHAT_LIMIT 1.01
 #define ESS_PER_CHAIN 100.0

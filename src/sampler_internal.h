@@ -140,7 +140,7 @@ struct pp_sampler {
                                  * (all slices), half-spectrum size (all slices) */
     /* Volumes (frame depth > 1): the sampler's grid is rank 3, slices of
      * gh x gw. Every array on the grid or its half spectrum keeps the
-     * layout "rows x last axis" (include/pixpost/fft.h): grows = gd * gh
+     * layout "rows x last axis" (src/pixpost/fft.h): grows = gd * gh
      * rows of gw reals, or of gwh half-spectrum entries, so a loop over
      * the half spectrum runs k1 < grows, k2 < gwh whatever the rank. A
      * frame has depth = gd = 1 and grows = gh. */

@@ -68,6 +68,7 @@
 #include "sampler_mtc.h"
 #include "spectral.h"
 #include "vmath.h"
+#include "pixpost/setting_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>

@@ -124,6 +124,7 @@
 #include "spectral.h"
 #include "stats.h"
 #include "vmath.h"
+#include "pixpost/setting_extra.h"
 
 #define T_FIELD 0.25 /* target acceptance of the field move (common practice) */
 #define T_HMC 0.65   /* hmc target (Beskos, Pillai, Roberts, Sanz-Serna & Stuart 2013) */

@@ -6,6 +6,7 @@
 #include "internal.h"
 #include "sampler_internal.h"
 #include "pixpost/result.h"
+#include "pixpost/sampler_extra.h"
 
 pp_status pp_sampler_result(const pp_sampler *s, pp_result *out)
 {

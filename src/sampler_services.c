@@ -13,6 +13,8 @@
 #include "pixpost/profiles.h"
 #include "pixpost/regions.h"
 #include "pixpost/spots.h"
+#include "pixpost/regions_extra.h"
+#include "pixpost/sampler_extra.h"
 
 void pp_chain_freeze_mean(pp_chain *c)
 {

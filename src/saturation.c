@@ -1,5 +1,6 @@
 /* pixpost — saturated pixels (see pixpost/saturation.h for the rules). */
 #include "pixpost/saturation.h"
+#include "pixpost/saturation_extra.h"
 
 #include <math.h>
 

@@ -1,6 +1,7 @@
 /* pixpost — the library's words for the sampler's settings in messages,
  * or the caller's (include/pixpost/setting.h). */
 #include "pixpost/setting.h"
+#include "pixpost/setting_extra.h"
 
 static const char *const own[PP_SET_COUNT] = {
     "sampler",  "chains",        "burn-in",         "iterations",        "thinning",

@@ -1,5 +1,6 @@
 /* pixpost — grid shapes (include/pixpost/shape.h). */
 #include "pixpost/shape.h"
+#include "pixpost/shape_extra.h"
 
 #include <stdint.h>
 

@@ -1,4 +1,4 @@
-/* pixpost — spots (include/pixpost/spots.h): the candidates of a pilot
+/* pixpost — spots (src/pixpost/spots.h): the candidates of a pilot
  * frame or volume (strict 3 x 3 or 3 x 3 x 3 local maxima with a positive
  * ring contrast), their rings, a draw's contrasts, and spots.csv. Cost:
  * planning O(image x m + K log K); a draw O(K m) for K spots of m ring
@@ -10,6 +10,7 @@
 #include "internal.h"
 #include "pixpost/regions.h"
 #include "pixpost/spots.h"
+#include "pixpost/regions_extra.h"
 
 typedef struct spot {
     size_t z, r, c, first, m; /* ring: m offsets from ring[first] */

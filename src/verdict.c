@@ -6,6 +6,7 @@
  * the plain struct, so every writer words a verdict the same way.
  * Cost: a few snprintf calls. */
 #include "pixpost/sampler.h"
+#include "pixpost/sampler_extra.h"
 #include <stdio.h>
 #include <string.h>
 

@@ -5,8 +5,13 @@
 Fails when
   - the include graph of src/, src/cli/ and include/pixpost/ (#include "...")
     has a cycle;
-  - a library file (src/*.c, src/*.h, include/pixpost/*.h) includes a header
-    of the command-line front end (src/cli/);
+  - a library file (src/*.c, src/*.h, src/pixpost/*.h, include/pixpost/*.h)
+    includes a header of the command-line front end (src/cli/);
+  - a public header (include/pixpost/*.h, installed) includes anything but
+    another public header or a system header: an internal header
+    (src/pixpost/*.h, src/*.h; docs/developers.md "Public API") is not
+    installed, so a public header including one would not compile for a
+    caller of the installed library;
   - the call graph of the library's objects has a cycle between two source
     files: object A uses a symbol object B defines and B (perhaps through
     others) uses one A defines. The graph comes from `nm` of the static
@@ -82,7 +87,8 @@ def source_files(root):
     """Relative paths of the C sources and headers of the library, the CLI
     and the public headers."""
     out = []
-    for sub in ("src", os.path.join("src", "cli"), os.path.join("include", "pixpost")):
+    for sub in ("src", os.path.join("src", "cli"), os.path.join("src", "pixpost"),
+                os.path.join("include", "pixpost")):
         d = os.path.join(root, sub)
         if not os.path.isdir(d):
             continue
@@ -90,6 +96,10 @@ def source_files(root):
             if name.endswith((".c", ".h", ".inc")):
                 out.append(os.path.join(sub, name))
     return out
+
+
+def is_public(rel):
+    return rel.startswith(os.path.join("include", "pixpost") + os.sep)
 
 
 def is_library(rel):
@@ -101,7 +111,7 @@ def include_graph(root):
     relative to root, resolved as the build does: the including file's
     folder, then include/, then src/ for library files; src/cli/ is on the
     path of the CLI only); problems lists library files including a CLI
-    header."""
+    header or a public header including a header that is not public."""
     graph, problems = {}, []
     for rel in source_files(root):
         with open(os.path.join(root, rel), encoding="utf-8", errors="replace") as fh:
@@ -116,6 +126,9 @@ def include_graph(root):
                 if os.path.isfile(os.path.join(root, cand)):
                     target = cand
                     break
+            if is_public(rel) and (target is None or not is_public(target)):
+                problems.append("%s includes \"%s\", which is not a public header (include/pixpost/)"
+                                % (rel, name))
             if target is None:
                 cli = os.path.normpath(os.path.join("src", "cli", name))
                 if is_library(rel) and os.path.isfile(os.path.join(root, cli)):
@@ -177,14 +190,20 @@ def self_check():
     with tempfile.TemporaryDirectory() as root:
         os.makedirs(os.path.join(root, "src", "cli"))
         os.makedirs(os.path.join(root, "include", "pixpost"))
+        os.makedirs(os.path.join(root, "src", "pixpost"))
         files = {"src/a.c": '#include "a.h"\n#include "cli.h"\n', "src/a.h": '#include "b.h"\n',
-                 "src/b.h": '#include "a.h"\n', "src/cli/cli.h": "", "src/cli/main.c": '#include "cli.h"\n#include "a.h"\n'}
+                 "src/b.h": '#include "a.h"\n', "src/cli/cli.h": "", "src/cli/main.c": '#include "cli.h"\n#include "a.h"\n',
+                 "include/pixpost/p.h": '#include "pixpost/q.h"\n#include "pixpost/r.h"\n',
+                 "include/pixpost/q.h": "", "src/pixpost/r.h": '#include "pixpost/q.h"\n'}
         for rel, text in files.items():
             with open(os.path.join(root, rel), "w") as fh:
                 fh.write(text)
         g, problems = include_graph(root)
-        pptest.check(problems == ['src/a.c includes "cli.h", a header of the CLI (src/cli/)'],
-                     "self-check: a library file including a CLI header is found (the CLI including a library header is fine)")
+        pptest.check(sorted(problems) == ['include/pixpost/p.h includes "pixpost/r.h", which is not a public header (include/pixpost/)',
+                                  'src/a.c includes "cli.h", a header of the CLI (src/cli/)'],
+                     "self-check: a library file including a CLI header and a public header including an "
+                     "internal one (src/pixpost/r.h) are found (the CLI including a library header, an "
+                     "internal header including a public one are fine)")
         pptest.check(cycles(g) == [["src/a.h", "src/b.h"]], "self-check: an include cycle a.h <-> b.h is found")
 
 
@@ -198,7 +217,8 @@ def main():
     pptest.check(len(graph) > 50, "the include graph covers the sources (%d files)" % len(graph))
     for p in problems:
         print("   " + p)
-    pptest.check(not problems, "no library file includes a CLI header (src/cli/)")
+    pptest.check(not problems, "no library file includes a CLI header (src/cli/), no public header "
+                 "an internal one")
     comps = cycles(graph)
     for c in comps:
         print("   include cycle:\n" + describe(c, graph))

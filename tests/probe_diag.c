@@ -11,6 +11,7 @@
  */
 #include "stats.h"
 #include "pixpost/diag.h"
+#include "pixpost/diag_extra.h"
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>

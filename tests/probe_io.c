@@ -8,6 +8,7 @@
  *       (by extension); prints the PNG "offset scale" used (auto scale).
  * Errors: "probe_io: <status name>: <message>" on stderr, exit 1. */
 #include "pixpost/io.h"
+#include "pixpost/io_extra.h"
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>

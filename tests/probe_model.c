@@ -14,6 +14,8 @@
  */
 #include "pixpost/model.h"
 #include "pixpost/psf.h"
+#include "pixpost/model_extra.h"
+#include "pixpost/psf_extra.h"
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>

@@ -17,6 +17,7 @@
 #include "pixpost/io.h"
 #include "pixpost/output.h"
 #include "pixpost/psf.h"
+#include "pixpost/sampler_extra.h"
 
 static int fail(const char *what)
 {

@@ -20,6 +20,7 @@
 #include "pixpost/report.h"
 #include "pixpost/rng.h"
 #include "report_internal.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

@@ -277,7 +277,7 @@ pptest.check(p.returncode == 0, "a folder batch wrote is resumed without --overw
 # A 64 x 64 crop of scikit-image's "camera" scene (skimage.data), scaled to
 # 1-301 photons and simulated by `pixpost simulate` under camera noise of
 # gain 2 ADU/e-, given to batch with the gain inverted (0.5): the gain check
-# (include/pixpost/datacheck.h) fires before sampling, and the line names it;
+# (src/pixpost/datacheck.h) fires before sampling, and the line names it;
 # a folder of the right gain names no gain warning.
 cin = os.path.join(tmp, "cam_in")
 os.makedirs(cin)

@@ -1,4 +1,4 @@
-"""The checks of the data before sampling (include/pixpost/datacheck.h),
+"""The checks of the data before sampling (src/pixpost/datacheck.h),
 through `pixpost sample`: every wrong setting of issue 17's list that they
 cover is caught, with its message asserted by text and exit code, and
 nothing is written. (8-bit saturation is the missing-data helper's.)

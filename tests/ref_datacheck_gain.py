@@ -1,4 +1,4 @@
-"""The gain check before sampling (include/pixpost/datacheck.h, "gain"):
+"""The gain check before sampling (src/pixpost/datacheck.h, "gain"):
 the stated gain against the single-frame Poisson-Gaussian fit (Foi,
 Trimeche, Katkovnik & Egiazarian, IEEE TIP 17(10), 2008; pp_noise_fit_frame,
 the fit `pixpost calibrate --frame` reports), through `pixpost sample` with

@@ -15,10 +15,17 @@ Checks:
 - `pkg-config --modversion pixpost`, the installed `pixpost --version` and
   pp_version() (printed by the example) are the project version of
   CMakeLists.txt;
+- no internal header (src/pixpost/*.h, docs/developers.md "Public API")
+  is installed, and every installed header compiles on its own (cc
+  -fsyntax-only -Werror with the prefix's include folder only), so no
+  public header leans on one that is not installed;
 - `nm -D --defined-only` of the installed .so lists only pp_ names, exactly
   the functions the public headers declare (parsed here, comments
   stripped), and none of the library's internal pp_ functions (those
-  libpixpost.a defines beyond them, e.g. pp_fail);
+  libpixpost.a defines beyond them, e.g. pp_fail, and every function the
+  internal headers declare);
+- every pp_ function the Python module (python/pixpost/_lib.py, ctypes)
+  binds and examples/sample_frame.c calls is exported;
 - examples/sample_frame.c, copied out of the tree, builds with
   `cc $(pkg-config --cflags --libs pixpost)` (PKG_CONFIG_PATH at the
   prefix) and with a CMake project using find_package(pixpost) and
@@ -49,10 +56,10 @@ prefix = os.path.join(tmp, "prefix")
 cmake = shutil.which("cmake") or "cmake"
 
 
-def sh(args, env=None, cwd=None):
+def sh(args, env=None, cwd=None, input_text=None):
     e = dict(os.environ)
     e.update(env or {})
-    return subprocess.run(args, capture_output=True, text=True, env=e, cwd=cwd)
+    return subprocess.run(args, capture_output=True, text=True, env=e, cwd=cwd, input=input_text)
 
 
 p = sh([cmake, "--install", build, "--prefix", prefix])
@@ -83,6 +90,26 @@ pptest.check(headers == inst, "the prefix holds the %d public headers (installed
 same = all(open(os.path.join(src, "include/pixpost", h), "rb").read()
            == open(os.path.join(prefix, "include/pixpost", h), "rb").read() for h in headers if h in inst)
 pptest.check(same, "installed headers are byte-identical to include/pixpost/")
+
+internal_headers = sorted(os.path.basename(h) for h in glob.glob(os.path.join(src, "src/pixpost/*.h")))
+pptest.check(len(internal_headers) > 0 and not (set(internal_headers) & set(inst)),
+             "none of the %d internal headers (src/pixpost/) is installed (installed: %s)"
+             % (len(internal_headers), sorted(set(internal_headers) & set(inst))))
+# the system's headers but not /usr/local/include, which may hold another
+# pixpost's headers (an earlier install) that would hide a missing one
+gcc_inc = sh(["cc", "-print-file-name=include"]).stdout.strip()
+multiarch = sh(["cc", "-print-multiarch"]).stdout.strip()
+sysinc = ["-nostdinc", "-isystem", gcc_inc] + (["-isystem", "/usr/include/" + multiarch] if multiarch else []) \
+    + ["-isystem", "/usr/include"]
+alone = []
+for h in inst:
+    p = sh(["cc", "-std=c11", "-Wall", "-Wextra", "-Werror", "-fsyntax-only"] + sysinc
+           + ["-I", os.path.join(prefix, "include"), "-x", "c", "-"],
+           cwd=tmp, input_text='#include "pixpost/%s"\n' % h)
+    if p.returncode != 0:
+        alone.append("%s: %s" % (h, p.stderr.strip()[-200:]))
+pptest.check(not alone, "each of the %d installed headers compiles on its own against the prefix "
+             "(failed: %s)" % (len(inst), alone[:3]))
 
 umbrella = set(re.findall(r'#include "pixpost/([a-z0-9_]+\.h)"',
                           open(os.path.join(src, "include/pixpost/pixpost.h")).read()))
@@ -115,6 +142,25 @@ pptest.check(not other, "the shared library exports only pp_ names (others: %s)"
 pptest.check(exported == declared, "exports = the %d functions the public headers declare "
              "(not declared: %s; declared, not exported: %s)"
              % (len(declared), sorted(exported - declared)[:8], sorted(declared - exported)[:8]))
+callers = {}
+for rel in ["python/pixpost/_lib.py", "examples/sample_frame.c"]:
+    text = open(os.path.join(src, rel)).read()
+    if rel.endswith(".c"):
+        text = re.sub(r"/\*.*?\*/", " ", text, flags=re.S)
+        callers[rel] = set(re.findall(r"\b(pp_[a-z0-9_]+)\s*\(", text))
+    else:  # ctypes: the prototypes table, "pp_name": (restype, [argtypes])
+        callers[rel] = set(re.findall(r"\"(pp_[a-z0-9_]+)\":\s*\(", text))
+for rel, names in callers.items():
+    pptest.check(len(names) >= 5 and names <= exported,
+                 "the %d pp_ functions %s calls are exported (not exported: %s)"
+                 % (len(names), rel, sorted(names - exported)))
+internal_decl = set()
+for h in glob.glob(os.path.join(src, "src/pixpost/*.h")):
+    text = re.sub(r"/\*.*?\*/", " ", open(h).read(), flags=re.S)
+    internal_decl |= set(re.findall(r"[\s*](pp_[a-z0-9_]+)\s*\(", text))
+pptest.check(len(internal_decl) > 50 and not (internal_decl & exported),
+             "none of the %d functions the internal headers (src/pixpost/) declare is exported "
+             "(exported: %s)" % (len(internal_decl), sorted(internal_decl & exported)[:8]))
 p = sh(["nm", "--defined-only", os.path.join(lib, "libpixpost.a")])
 internal = set(l.split()[-1] for l in p.stdout.splitlines()
                if re.match(r"^[0-9a-f]+ [TDRB] pp_", l)) - declared

@@ -1,4 +1,4 @@
-"""The posterior predictive check (include/pixpost/ppcheck.h) through
+"""The posterior predictive check (src/pixpost/ppcheck.h) through
 `pixpost sample`.
 
 1. Its figures recomputed independently from the files it wrote: the

@@ -1,4 +1,4 @@
-"""Spots (--spots R, include/pixpost/spots.h) against the closed form, with
+"""Spots (--spots R, src/pixpost/spots.h) against the closed form, with
 numpy and scipy.
 
 The candidates: strict 3x3 local maxima (ties to the first in row order)

@@ -14,6 +14,7 @@
 #include "pixpost/pixpost.h"
 #include "sampler_internal.h"
 #include "testutil.h"
+#include "pixpost/image_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>

@@ -28,6 +28,7 @@
 #include "alloc_fault.h"
 #include "pixpost/output.h"
 #include "pixpost/pixpost.h"
+#include "pixpost/rng.h"
 #include "testutil.h"
 
 #if defined(__SANITIZE_ADDRESS__)

@@ -1,4 +1,4 @@
-/* Unit tests of the calibration library (include/pixpost/calib.h): the
+/* Unit tests of the calibration library (src/pixpost/calib.h): the
  * series statistics on hand-computed frames, the photon transfer fit on
  * exact (noise-free) statistics and its refusals, the single-frame fit's
  * refusals and its unobserved (NaN) pixels, and the spec chosen from a fit.

@@ -6,6 +6,8 @@
  * resolves it and pp_sampler_config_used shows the prior that runs. */
 #include "pixpost/pixpost.h"
 #include "testutil.h"
+#include "pixpost/prior_extra.h"
+#include "pixpost/sampler_extra.h"
 #include <string.h>
 
 static int same_prior(const pp_prior_spec *a, const pp_prior_spec *b)

@@ -14,6 +14,7 @@
 #include "pixpost/diag.h"
 #include "pixpost/rng.h"
 #include "testutil.h"
+#include "pixpost/diag_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>

@@ -5,6 +5,7 @@
  * and rank-3 (and rank-1) plans against the DFT's definition. */
 #include "pixpost/fft.h"
 #include "testutil.h"
+#include "pixpost/shape_extra.h"
 #include <complex.h>
 #include <math.h>
 #include <pthread.h>

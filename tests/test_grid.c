@@ -18,6 +18,7 @@
 #include "spectral.h"
 #include "pixpost/fft.h"
 #include "testutil.h"
+#include "pixpost/shape_extra.h"
 #include <complex.h>
 #include <math.h>
 

@@ -8,6 +8,7 @@
 #include "pixpost/io.h"
 #include "pixpost/setting.h"
 #include "testutil.h"
+#include "pixpost/io_extra.h"
 #include <dirent.h>
 #include <math.h>
 #include <png.h>

@@ -7,6 +7,7 @@
 #include "pixpost/psf.h"
 #include "pixpost/setting.h"
 #include "testutil.h"
+#include "pixpost/model_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <string.h>

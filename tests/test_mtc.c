@@ -8,6 +8,7 @@
 #include "sampler_mtc.h"
 #include "pixpost/psf.h"
 #include "testutil.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <string.h>
 

@@ -11,6 +11,8 @@
 #include "pixpost/diag.h"
 #include "pixpost/pixpost.h"
 #include "testutil.h"
+#include "pixpost/diag_extra.h"
+#include "pixpost/sampler_extra.h"
 
 #define H 12
 #define W 14

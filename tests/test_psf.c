@@ -5,6 +5,8 @@
 #include "pixpost/psf.h"
 #include "pixpost/setting.h"
 #include "testutil.h"
+#include "pixpost/io_extra.h"
+#include "pixpost/psf_extra.h"
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>

@@ -14,6 +14,7 @@
 #include "pixpost/diag.h"
 #include "pixpost/output.h"
 #include "testutil.h"
+#include "pixpost/sampler_extra.h"
 
 static int has(const char *s, const char *sub) { return s && strstr(s, sub) != NULL; }
 

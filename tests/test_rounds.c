@@ -28,6 +28,8 @@
 #include "pixpost/psf.h"
 #include "pixpost/rng.h"
 #include "testutil.h"
+#include "pixpost/image_extra.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>

@@ -9,6 +9,10 @@
 #include "stats.h"
 #include "pixpost/pixpost.h"
 #include "testutil.h"
+#include "pixpost/image_extra.h"
+#include "pixpost/prior_extra.h"
+#include "pixpost/sampler_extra.h"
+#include "pixpost/setting_extra.h"
 
 /* The half-spectrum noise must be the DFT of real white noise: c2r of it,
  * divided by N, is a field of independent N(0,1) values. Tolerances: the

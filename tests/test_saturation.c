@@ -5,6 +5,7 @@
 #include "pixpost/image.h"
 #include "pixpost/saturation.h"
 #include "testutil.h"
+#include "pixpost/saturation_extra.h"
 #include <math.h>
 #include <string.h>
 

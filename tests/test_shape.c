@@ -4,6 +4,7 @@
  * refusal of bad shapes and of overflowing counts. */
 #include "pixpost/shape.h"
 #include "testutil.h"
+#include "pixpost/shape_extra.h"
 #include <stdint.h>
 
 int main(void)

@@ -16,6 +16,7 @@
 #include "pixpost/report.h"
 #include "pixpost/sampler.h"
 #include "testutil.h"
+#include "pixpost/sampler_extra.h"
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>

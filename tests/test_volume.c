@@ -9,6 +9,8 @@
 #include "pixpost/pixpost.h"
 #include "pixpost/result.h"
 #include "testutil.h"
+#include "pixpost/prior_extra.h"
+#include "pixpost/sampler_extra.h"
 
 static pp_image *volume(size_t d, size_t h, size_t w, unsigned seed)
 {

@@ -27,29 +27,34 @@ typedef struct pp_image {
 
 /* A zero-filled image of height rows and width columns (slowest axis
  * first, as everywhere: include/pixpost/shape.h; messages still say sizes
- * as width x height). Fails with PP_ERR_ARG for a zero size and
- * PP_ERR_LIMIT when width*height*sizeof(double) overflows. */
+ * as width x height). *out (not NULL) receives a new image owned by the
+ * caller (pp_image_free); it is NULL on failure. Errors (message by
+ * pp_error_message): PP_ERR_ARG for a zero size, PP_ERR_LIMIT when
+ * width*height*sizeof(double) overflows, PP_ERR_NOMEM. Thread-safe. */
 pp_status pp_image_create(size_t height, size_t width, pp_image **out);
 
 /* A zero-filled volume of depth slices of height x width (depth 1 gives a
- * frame, as pp_image_create). Same failures. */
+ * frame, as pp_image_create). Same ownership, failures and thread safety. */
 pp_status pp_image_create3(size_t depth, size_t height, size_t width, pp_image **out);
 
-/* Elements of img: depth * height * width. */
+/* Elements of img (not NULL): depth * height * width. Never fails; reads
+ * img only (thread-safe while nobody writes img). */
 size_t pp_image_count(const pp_image *img);
 
-/* The shape of img: rank 2 {height, width} for a frame (depth 1), rank 3
- * {depth, height, width} for a volume. */
+/* The shape of img (not NULL): rank 2 {height, width} for a frame (depth
+ * 1), rank 3 {depth, height, width} for a volume. As pp_image_count. */
 pp_shape pp_image_shape(const pp_image *img);
 
-/* A deep copy of src (frame or volume). */
-pp_status pp_image_clone(const pp_image *src, pp_image **out);
-
-/* Frees the image and its data; NULL is accepted. */
+/* Frees the image and its data; img may be NULL (nothing happens). Only
+ * for images the library made (pp_image_create*, readers, accessors that
+ * say the caller frees); never for an image an accessor points into a
+ * sampler with. Not concurrently with any use of img. */
 void pp_image_free(pp_image *img);
 
-/* Smallest and largest finite value; returns the number of non-finite
- * pixels (NaN/Inf), which are ignored. An all-non-finite image gives 0, 0. */
+/* Smallest and largest finite value into *lo and *hi (img, lo, hi not
+ * NULL); returns the number of non-finite pixels (NaN/Inf), which are
+ * ignored. An all-non-finite image gives 0, 0. Never fails; reads img
+ * only. */
 size_t pp_image_range(const pp_image *img, double *lo, double *hi);
 
 #endif

@@ -45,39 +45,41 @@ typedef struct pp_read_info {
     size_t nonfinite;      /* NaN/Inf pixels found (float TIFF) */
 } pp_read_info;
 
+/* Fills *opt (not NULL) with the defaults: grayscale only, max_pixels
+ * PP_DEFAULT_MAX_PIXELS, page 0, the library's words. Never fails;
+ * thread-safe. */
 void pp_read_options_defaults(pp_read_options *opt);
 
-/* Parses "r", "g", "b" or "luma"; a refusal names the setting by
- * setting_names (a PP_SET_COUNT table, include/pixpost/setting.h; NULL:
- * "channel"). */
+/* Parses "r", "g", "b" or "luma" into *out (not NULL). s may be NULL
+ * (refused). Errors: PP_ERR_ARG, *out unchanged, the message naming the
+ * setting by setting_names (a PP_SET_COUNT table, include/pixpost/
+ * setting.h; NULL: "channel") and the accepted words. Thread-safe. */
 pp_status pp_channel_parse(const char *s, const char *const *setting_names, pp_channel *out);
 
-/* Reads a PNG or TIFF, chosen by the file's signature (not its name). opt
- * may be NULL (defaults); info may be NULL. On failure *out is NULL. */
+/* Reads page opt->page of a PNG or TIFF, chosen by the file's signature
+ * (not its name), as a frame (depth 1; a z-stack's pages one at a time).
+ * path, out: not NULL; opt may be NULL (defaults); info may be NULL (not
+ * reported). *out receives a new image owned by the caller (pp_image_free),
+ * NULL on failure. The file is only read. Errors, the message naming path
+ * and what to do: PP_ERR_IO (cannot open or read), PP_ERR_FORMAT (empty,
+ * not PNG or TIFF, corrupt), PP_ERR_ARG (opt->page past the file's pages:
+ * info->pages still says how many), PP_ERR_UNSUPPORTED (colour
+ * without opt->channel, a sample format not listed above), PP_ERR_LIMIT
+ * (over opt->max_pixels, checked before the pixels are allocated),
+ * PP_ERR_NOMEM. Thread-safe (libtiff and libpng are used with per-call
+ * state only). */
 pp_status pp_image_read(const char *path, const pp_read_options *opt,
                         pp_image **out, pp_read_info *info);
-pp_status pp_png_read(const char *path, const pp_read_options *opt,
-                      pp_image **out, pp_read_info *info);
-pp_status pp_tiff_read(const char *path, const pp_read_options *opt,
-                       pp_image **out, pp_read_info *info);
 
-/* Number of pages (directories) of a TIFF file. */
-pp_status pp_tiff_count_pages(const char *path, unsigned *pages);
-
-/* 32-bit float, single page, uncompressed TIFF, atomically. */
+/* Writes img (not NULL) to path (not NULL) as a 32-bit float, single page,
+ * uncompressed TIFF (values as they are, NaN kept), atomically: a
+ * temporary file in path's folder renamed over path, so path holds either
+ * its old content or the whole new file. A volume's first slice only
+ * (pp_output_write writes volumes as OME-TIFF). Errors, naming path:
+ * PP_ERR_LIMIT (a side over 2^32 - 1), PP_ERR_IO (cannot create, write or
+ * rename; the temporary file is removed), PP_ERR_NOMEM. Thread-safe for
+ * different paths. */
 pp_status pp_tiff_write_f32(const char *path, const pp_image *img);
 
-/* 16-bit grayscale PNG with stored = round((v - offset)/scale), atomically.
- * scale must be > 0. */
-pp_status pp_png_write16(const char *path, const pp_image *img,
-                         double offset, double scale);
-
-/* The scale that maps [lo, hi] of the finite values onto 0..65535
- * (offset = lo; scale = (hi - lo)/65535, or 1 for a constant image). */
-void pp_png_auto_scale(const pp_image *img, double *offset, double *scale);
-
-/* Writes img as .tif (float) or .png (16-bit, auto scale) by the path's
- * extension; refuses other extensions. */
-pp_status pp_image_write(const char *path, const pp_image *img);
 
 #endif

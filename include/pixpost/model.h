@@ -19,41 +19,34 @@
 
 #include <stddef.h>
 #include <stdint.h>
-#include "pixpost/fft.h"
 #include "pixpost/image.h"
 #include "pixpost/noise.h"
-#include "pixpost/rng.h"
 
 typedef enum pp_boundary { PP_BOUNDARY_PAD = 0, PP_BOUNDARY_PERIODIC = 1 } pp_boundary;
 
-/* Parses "pad" or "periodic"; a refusal names the setting by names (a
- * PP_SET_COUNT table, include/pixpost/setting.h; NULL: "boundary"). */
+/* Parses "pad" or "periodic" into *out (not NULL); s may be NULL
+ * (refused). Errors: PP_ERR_ARG, *out unchanged, the message naming the
+ * setting by names (a PP_SET_COUNT table, include/pixpost/setting.h; NULL:
+ * "boundary"). Thread-safe. */
 pp_status pp_boundary_parse(const char *s, const char *const *names, pp_boundary *out);
+/* "pad" or "periodic" (static text, never NULL; any value other than
+ * PP_BOUNDARY_PERIODIC gives "pad"). Thread-safe. */
 const char *pp_boundary_name(pp_boundary b);
 
-/* The transfer function: the PSF zero-padded to f's grid with its centre
- * element moved to the origin, transformed by f (r2c). otf has
- * pp_fft_height(f) * pp_fft_half_width(f) entries. The PSF must fit in the
- * grid; a frame kernel on a rank-3 grid is its slice 0 (a per-slice blur),
- * a 3-D kernel needs a rank-3 grid. */
-pp_status pp_psf_transfer(const pp_image *psf, const pp_fft *f, pp_complex *otf);
-
-/* In the three functions below, names (a PP_SET_COUNT table,
+/* Simulates a frame (or volume) from a scene: out = A truth with boundary
+ * b, then noise from *noise drawn from stream 0 of seed (the same seed
+ * gives the same bytes on every machine and thread count). truth, psf,
+ * noise, out: not NULL; names may be NULL (a PP_SET_COUNT table,
  * include/pixpost/setting.h; NULL: the library's words "boundary", "noise
- * model") is how a refusal names the boundary and noise settings. */
-
-/* out = A x with the given boundary; *out is a new image of x's size
- * (frame or volume). Periodic needs the PSF to fit the scene on every
- * axis; pad takes any size. */
-pp_status pp_model_blur(const pp_image *x, const pp_image *psf, pp_boundary b,
-                        const char *const *names, pp_image **out);
-
-/* Adds noise in place: y holds the noiseless A x in photons for
- * poisson/camera (the result is in ADU) or in camera units for gaussian. */
-pp_status pp_model_add_noise(pp_image *y, const pp_noise_spec *noise, const char *const *names,
-                             pp_rng *rng);
-
-/* simulate: blur then add noise with stream 0 of seed. */
+ * model": how a refusal names the boundary and noise settings). For
+ * poisson/camera, truth is in photons and *out in ADU; for gaussian both
+ * in camera units; noise none: the blur only. *out receives a new image of
+ * truth's size owned by the caller (pp_image_free), NULL on failure.
+ * Errors: PP_ERR_ARG (a PSF side even, a 3-D PSF with a frame, a bad
+ * noise parameter), PP_ERR_LIMIT (with periodic boundaries, a PSF larger
+ * than the scene; a grid too large), PP_ERR_NUMERIC (a NaN or infinite
+ * value in truth, psf or the noiseless image), PP_ERR_NOMEM. Thread-safe
+ * (FFT planning is serialised inside). */
 pp_status pp_model_simulate(const pp_image *truth, const pp_image *psf, pp_boundary b,
                             const pp_noise_spec *noise, uint64_t seed, const char *const *names,
                             pp_image **out);

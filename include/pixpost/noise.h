@@ -35,9 +35,16 @@ typedef struct pp_noise_spec {
     double read;    /* electrons rms (camera) */
 } pp_noise_spec;
 
-/* Parses a noise spec. A refusal names the setting by names (PP_SET_NOISE,
- * include/pixpost/setting.h; NULL: the library's words, "noise model"). */
+/* Parses a noise spec (the forms above) into *out (not NULL; cleared
+ * first, so on failure it holds no half-parsed model). text may be NULL or
+ * empty (refused). Errors: PP_ERR_ARG, the message naming the setting by
+ * names (PP_SET_NOISE, include/pixpost/setting.h; NULL: the library's
+ * words, "noise model"), the key and the accepted form. Thread-safe. */
 pp_status pp_noise_parse(const char *text, const char *const *names, pp_noise_spec *out);
+
+/* Writes s (not NULL) in the form pp_noise_parse reads into buf, at most
+ * len bytes with the NUL (truncated when short; buf, len >= 1, the
+ * caller's). Never fails; thread-safe. */
 void pp_noise_format(const pp_noise_spec *s, char *buf, size_t len);
 
 #endif

@@ -26,7 +26,7 @@
  * summary.json's "frame" and "grid" gain "depth", "voxel_um" is
  * r->config.voxel (null where 0; info->voxel_um is not used for a volume)
  * and "png_scale" says the PNGs are projections. report.html shows the
- * volume as orthogonal views with sliders (include/pixpost/report.h).
+ * volume as orthogonal views with sliders (src/pixpost/report.h).
  * A result whose maps (or frame, or residual) do not have r->frame's shape
  * is refused (PP_ERR_ARG) before anything is written.
  */
@@ -35,7 +35,7 @@
 
 #include <stdio.h>
 #include "pixpost/result.h"
-#include "pixpost/calib.h"
+#include "pixpost/noise.h"
 
 /* What the caller knows about the run that the sampler does not. Every
  * string may be NULL. */
@@ -68,27 +68,27 @@ typedef struct pp_run_info {
     /* --noise auto (NULL otherwise): the single-frame fit, the model chosen
      * from it and the sentence saying so; summary.json's "noise_estimate"
      * and a line of the report's settings. */
-    const pp_noise_fit *noise_estimate;
+    const struct pp_noise_fit *noise_estimate;
     const pp_noise_spec *noise_chosen;
     const char *noise_note;
-    /* The regions' and profiles' draws (include/pixpost/report.h), shown
+    /* The regions' and profiles' draws (src/pixpost/report.h), shown
      * in the report; NULL: none. */
     const struct pp_report_regions *regions;
 } pp_run_info;
 
-/* Writes s (NULL: "") to f as a JSON string literal: quotes, with '"' and
- * '\\' escaped and control characters as \u00XX; other bytes (UTF-8) as
- * they are. Shared by summary.json and the batch manifest. */
-void pp_json_write_string(FILE *f, const char *s);
-/* Writes v to f as a JSON number with 10 significant digits ("%.10g"), or
- * null when v is not finite. */
-void pp_json_write_number(FILE *f, double v);
-/* A voxel size v = {z, y, x} (micrometres) as {"z": .., "y": .., "x": ..}. */
-void pp_json_write_zyx(FILE *f, const double v[3]);
-
 /* Writes the outputs of the finished run r (pp_sampler_result, or a
  * pp_result filled by hand) into dir; frame is the input frame or volume
- * the run sampled (the report shows it; NULL: not shown). */
+ * the run sampled (the report shows it; NULL: not shown).
+ * Contract: dir (an existing folder) and r: not NULL; frame and info may
+ * be NULL (info NULL: nothing known beyond r); everything is only read.
+ * The marker is written first; then every file goes to a temporary name in
+ * dir and all are renamed into place only once all are written, so a
+ * failure leaves the earlier files of dir as they were (a file of these
+ * names that this run does not produce, e.g. an old residual.tif, is
+ * removed). Errors, the message naming the file: PP_ERR_ARG (a map whose
+ * shape is not r->frame's), PP_ERR_IO (dir missing or not writable, a
+ * write or rename failed), PP_ERR_LIMIT, PP_ERR_NOMEM. Thread-safe for
+ * different folders; r's sampler must not be freed meanwhile. */
 pp_status pp_output_write(const char *dir, const pp_result *r, const pp_image *frame,
                           const pp_run_info *info);
 
@@ -98,16 +98,5 @@ pp_status pp_output_write(const char *dir, const pp_result *r, const pp_image *f
  * pixpost's to replace; a user's folder does not have it. */
 #define PP_OUTPUT_MARKER ".pixpost-output"
 #define PP_OUTPUT_MARKER_LINE "pixpost output folder"
-
-/* Writes dir/PP_OUTPUT_MARKER atomically (replacing an earlier one); writer
- * says what wrote the folder, e.g. a command line (NULL: not recorded).
- * pp_output_write() calls it before writing any output, so a folder holding
- * any file of a run, even an interrupted write, holds the marker. */
-pp_status pp_output_mark(const char *dir, const char *writer);
-
-/* 1 if dir/PP_OUTPUT_MARKER is a regular file whose first line is
- * PP_OUTPUT_MARKER_LINE; 0 otherwise (missing, unreadable, or a file of
- * that name with other content). Only reads. */
-int pp_output_is_marked(const char *dir);
 
 #endif

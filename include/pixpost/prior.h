@@ -17,7 +17,7 @@
  *                         no prior of its own but "the library's choice for
  *                         the noise model", resolved by pp_prior_resolve
  *                         (pp_sampler_create calls it, and the sampler's
- *                         used configuration, pp_sampler_config_used, and so
+ *                         used configuration, pp_result.config, and so
  *                         the result's summary name the prior that ran).
  * Keys for the stationary priors: delta=D fixes delta instead of sampling it; matern
  * also takes mean=M, a known prior mean. Without mean=M the zero frequency
@@ -50,12 +50,16 @@ typedef struct pp_prior_spec {
     int delta_set;
 } pp_prior_spec;
 
-/* Parses a spec (the forms above). A refusal names the setting by names
- * (a PP_SET_COUNT table, include/pixpost/setting.h, e.g. a command line's
- * "--prior"; NULL: the library's word "prior"). */
+/* Parses a spec (the forms above) into *out (not NULL; cleared first).
+ * text may be NULL or empty (refused). Errors: PP_ERR_ARG, the message
+ * naming the setting by names (a PP_SET_COUNT table, include/pixpost/
+ * setting.h, e.g. a command line's "--prior"; NULL: the library's word
+ * "prior"), the key and the accepted form. Thread-safe. */
 pp_status pp_prior_parse(const char *text, const char *const *names, pp_prior_spec *out);
-/* Writes the spec in the form pp_prior_parse reads ("default" for
- * PP_PRIOR_DEFAULT, which pp_prior_parse does not take). */
+/* Writes the spec s (not NULL) in the form pp_prior_parse reads
+ * ("default" for PP_PRIOR_DEFAULT, which pp_prior_parse does not take)
+ * into buf, at most len bytes with the NUL (truncated when short; buf,
+ * len >= 1, the caller's). Never fails; thread-safe. */
 void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len);
 
 /* The default prior, decided here once for every caller (the command line
@@ -69,28 +73,5 @@ void pp_prior_format(const pp_prior_spec *s, char *buf, size_t len);
  * Any other kind is left as it is. noise may be NULL: taken as gaussian.
  * Never fails; thread-safe (touches *p only). */
 void pp_prior_resolve(pp_prior_spec *p, const pp_noise_spec *noise);
-
-/* Eigenvalues of Q on the half spectrum of a grid of the given shape
- * (rank 1 to 3, slowest axis first; the last axis halved to n/2 + 1, as
- * FFTW's r2c), row-major. The Laplacian behind every stationary prior is
- *   L(k) = sum_a w_a (2 - 2 cos(2 pi k_a / n_a)),
- * with increments along axis a weighted w_a = (spacing[last] / spacing[a])^2
- * (the x pixel is the unit of length, so an axis sampled more coarsely, the
- * z step of a z-stack, is coupled more weakly): gmrf1 L, gmrf2 L^2, matern
- * (kappa^2 + L)^alpha with alpha = nu + d/2 for a rank-d grid (Lindgren,
- * Rue & Lindstrom 2011: the SPDE's exponent; nu + 1 for a frame).
- * spacing: `rank` positive spacings in any one unit (a volume's voxel size
- * {z, y, x}); NULL, or an entry <= 0, counts as 1 (unknown: cubic). Entry
- * 0 is 0 when the mean is free. *rank receives the number of non-zero
- * eigenvalues over the FULL spectrum (N-1 or N). The adaptive prior's
- * eigenvalues here are gmrf1's. PP_ERR_ARG for a bad rank or an
- * unresolved PP_PRIOR_DEFAULT (pp_prior_resolve it first). */
-pp_status pp_prior_eigen_shape(const pp_prior_spec *s, const pp_shape *shape,
-                               const double *spacing, double *q, double *rank);
-
-/* The rank-2 case with unit spacing: H x (W/2+1) half spectrum of an
- * H x W frame (pp_prior_eigen_shape of pp_shape_2d(height, width)). */
-pp_status pp_prior_eigen(const pp_prior_spec *s, size_t height, size_t width,
-                         double *q, double *rank);
 
 #endif

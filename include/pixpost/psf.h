@@ -61,20 +61,25 @@ typedef struct pp_psf_spec {
                                       sample matches the immersion */
 } pp_psf_spec;
 
-/* Parses a spec (the forms above); text may be NULL (refused). A refusal
- * names the setting by names (a PP_SET_COUNT table, include/pixpost/
- * setting.h, e.g. a command line's "--psf"; NULL: the library's word
- * "PSF"). The functions below take no names: their refusals (of a spec
- * that parsed, at make time) say "PSF". On failure *out is zeroed but for
- * the kind. */
+/* Parses a spec (the forms above) into *out (not NULL); text may be NULL
+ * or empty (refused). Only parses: a file: spec's file is not opened here
+ * (pp_psf_make does). Errors: PP_ERR_ARG, the message naming the setting
+ * by names (a PP_SET_COUNT table, include/pixpost/setting.h, e.g. a
+ * command line's "--psf"; NULL: the library's word "PSF"), the key and the
+ * accepted form; PP_ERR_NOMEM. The functions below take no names: their
+ * refusals (of a spec that parsed, at make time) say "PSF". On failure
+ * *out is zeroed but for the kind. Thread-safe. */
 pp_status pp_psf_parse(const char *text, const char *const *names, pp_psf_spec *out);
 
-/* Writes a canonical spec string (for summary.json) into buf. */
+/* Writes a canonical spec string of s (not NULL; for summary.json) into
+ * buf, at most len bytes with the NUL (truncated when short; buf NULL or
+ * len 0: nothing). Never fails; thread-safe. */
 void pp_psf_format(const pp_psf_spec *s, char *buf, size_t len);
 
-/* 1 when s describes a 3-D PSF (gaussian with sigma_z, widefield); a
- * file: spec is 3-D when its TIFF has more than one page, which only
- * pp_psf_make3 reads. */
+/* 1 when s (not NULL) describes a 3-D PSF (gaussian with sigma_z,
+ * widefield), else 0; a file: spec counts as 2-D here (its TIFF is not
+ * opened: it is 3-D when it has more than one page, which only
+ * pp_psf_make3 reads). Never fails; thread-safe. */
 int pp_psf_is_3d(const pp_psf_spec *s);
 
 /* Makes a 3-D kernel: *data (nz*ny*nx doubles, slice-major, owned by the
@@ -83,8 +88,12 @@ int pp_psf_is_3d(const pp_psf_spec *s);
  * size and depth are the odd extents in xy and z (0 = from the model:
  * gaussian radius ceil(4 sigma) and ceil(4 sigma_z); widefield see
  * src/psf_widefield.c; file its own support). A 2-D spec gives depth 1
- * (gaussian, airy) or is read as a one-page stack (file). On failure
- * *data is NULL. (src/psf3.c) */
+ * (gaussian, airy) or is read as a one-page stack (file). s, shape, data:
+ * not NULL. On failure *data is NULL (*shape undefined). Errors: PP_ERR_ARG
+ * (even size or depth, a bad parameter of s), PP_ERR_LIMIT (a kernel past
+ * the size limit), for file: the reader's errors (pp_image_read, naming
+ * the file) and PP_ERR_FORMAT when the stack is not one compact bead;
+ * PP_ERR_NOMEM. Thread-safe. (src/psf3.c) */
 pp_status pp_psf_make3(const pp_psf_spec *s, size_t size, size_t depth, pp_shape *shape,
                        double **data);
 
@@ -92,23 +101,10 @@ pp_status pp_psf_make3(const pp_psf_spec *s, size_t size, size_t depth, pp_shape
  * radius ceil(4 sigma); airy: radius of the 5th dark ring), otherwise size
  * must be odd. A file PSF keeps its own support when size = 0. A 3-D spec
  * (pp_psf_is_3d) is refused with PP_ERR_UNSUPPORTED: it blurs volumes,
- * and this makes a frame's kernel (pp_psf_make3 makes a volume's). */
+ * and this makes a frame's kernel (pp_psf_make3 makes a volume's). s, out:
+ * not NULL; *out receives a new kernel owned by the caller
+ * (pp_image_free), NULL on failure. Other errors as pp_psf_make3's.
+ * Thread-safe. */
 pp_status pp_psf_make(const pp_psf_spec *s, size_t size, pp_image **out);
-
-/* Refills an existing odd square kernel k with the gaussian or airy model
- * of s at k's size (normalised to sum 1); allocates nothing, so a sampler
- * can call it per proposed width. PP_ERR_ARG for a file spec. */
-pp_status pp_psf_fill(const pp_psf_spec *s, pp_image *k);
-
-/* Checks a kernel for use on a frame, or on a volume whose slices are
- * height x width: finite, non-negative, non-zero sum, odd square (slices),
- * an odd number of slices, not larger than the frame (slice) in the plane.
- * Normalises to sum 1 in place. Whether a 3-D kernel suits the data (a
- * volume, its depth) is the caller's to check. */
-pp_status pp_psf_check(pp_image *psf, size_t height, size_t width);
-
-/* Bessel function of the first kind, order 1 (rational approximations of
- * the Cephes library's j1, accurate to ~1e-15 absolute). */
-double pp_bessel_j1(double x);
 
 #endif

@@ -20,7 +20,7 @@
 #define PIXPOST_RESULT_H
 
 #include <stddef.h>
-#include "pixpost/fft.h"
+#include "pixpost/fft_plans.h"
 #include "pixpost/image.h"
 #include "pixpost/sampler.h"
 #include "pixpost/shape.h"
@@ -74,12 +74,16 @@ typedef struct pp_result {
 
 /* Fills *out from s after a successful pp_sampler_run (PP_ERR_ARG before:
  * "the sampler has not run"); PP_ERR_NOMEM when the per-chain array cannot
- * be allocated. *out is cleared first, so on failure it holds nothing and
- * pp_result_free on it does nothing. */
+ * be allocated (messages by pp_error_message). s and out: not NULL. *out
+ * is cleared first, so on failure it holds nothing and pp_result_free on
+ * it does nothing. Ownership as above: free the result (pp_result_free)
+ * before or after the sampler, but use it only while the sampler lives.
+ * Only reads s: thread-safe on a sampler that has finished running. */
 pp_status pp_sampler_result(const pp_sampler *s, pp_result *out);
 
 /* Frees what pp_sampler_result allocated (the per-chain array) and clears
- * the pointer; r may be NULL. */
+ * the pointer; r may be NULL, and a result freed once may be freed again.
+ * Not concurrently with other uses of r. */
 void pp_result_free(pp_result *r);
 
 #endif

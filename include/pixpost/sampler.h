@@ -46,7 +46,7 @@
  * always runs on the working buffers of thread k % threads; with more
  * chains than threads, a chain's working state waits in a park store
  * between rounds (bytes per pixel: README "Limits"). What the run did is in
- * pp_sampler_run_length().
+ * pp_result.length (include/pixpost/result.h).
  *
  * Volumes. A frame with depth > 1 (a z-stack, pp_image_create3) is sampled
  * on a rank-3 grid by every sampler (gibbs, mtc, pcn, gpcn, hmc; AUTO picks
@@ -99,10 +99,14 @@ typedef enum pp_sampler_kind {
     PP_SAMPLER_HMC    /* split Hamiltonian MC on the gpcn reference */
 } pp_sampler_kind;
 
-/* Parses a sampler's name (kind_names in src/sampler.c); a refusal names
- * the setting by names (a PP_SET_COUNT table, include/pixpost/setting.h;
- * NULL: "sampler"). */
+/* Parses a sampler's name ("auto", "gibbs", "mtc", "pcn", "gpcn", "hmc")
+ * into *out. s and out: not NULL. Errors: PP_ERR_ARG, *out unchanged, the
+ * message naming the setting by names (a PP_SET_COUNT table,
+ * include/pixpost/setting.h; NULL: "sampler") and the accepted names.
+ * Thread-safe. */
 pp_status pp_sampler_kind_parse(const char *s, const char *const *names, pp_sampler_kind *out);
+/* The name pp_sampler_kind_parse reads ("unknown" out of range): static
+ * text, never NULL. Thread-safe. */
 const char *pp_sampler_kind_name(pp_sampler_kind k);
 
 /* How intensities are kept positive (pcn/gpcn/hmc): LOG samples z with the GMRF
@@ -172,18 +176,18 @@ typedef struct pp_sampler_config {
     /* Regions (include/pixpost/regions.h), planned for the frame's size, or
      * NULL (default): the total of every kept draw over each region is
      * recorded (pp_sampler_region_draws). Not owned; read until
-     * pp_sampler_run returns (pp_sampler_config_used then shows NULL). */
+     * pp_sampler_run returns (pp_result.config then shows NULL). */
     const struct pp_regions *regions;
-    /* Profiles (include/pixpost/profiles.h) planned for the frame or
+    /* Profiles (src/pixpost/profiles.h) planned for the frame or
      * volume, or NULL: each kept draw's values at their points are recorded
      * after the region totals. Not owned; read as the regions are. */
     const struct pp_profiles *profiles;
-    /* Spots (include/pixpost/spots.h) planned for the frame or volume, or
+    /* Spots (src/pixpost/spots.h) planned for the frame or volume, or
      * NULL: each kept draw's spot contrasts are recorded after the
      * profiles' points. Not owned; read as the regions are. */
     const struct pp_spots *spots;
     /* Thresholds T (nabove of them, at most PP_MAX_ABOVE; not owned, read by
-     * pp_sampler_create, which copies them; pp_sampler_config_used shows
+     * pp_sampler_create, which copies them; pp_result.config shows
      * none): the posterior probability map P(x_i > T), the share of kept
      * draws above T at each pixel (pp_sampler_above_map). */
     const double *above;
@@ -191,6 +195,10 @@ typedef struct pp_sampler_config {
 } pp_sampler_config;
 #define PP_MAX_ABOVE 16
 
+/* Fills *cfg (not NULL) with the defaults named field by field above
+ * (every pointer NULL, the prior PP_PRIOR_DEFAULT: the library decides it
+ * from the noise model). Start every configuration here, then change
+ * fields. Never fails; thread-safe. */
 void pp_sampler_defaults(pp_sampler_config *cfg);
 
 /* The default time cap of a run in rounds: max(FLOOR, PER_MP x megapixels). */
@@ -210,14 +218,35 @@ typedef struct pp_sampler pp_sampler;
  * (not mtc) and mtc runs the gibbs chain (with a warning). Refused:
  * an infinite pixel (PP_ERR_NUMERIC), and fewer observed pixels than 1 %
  * of the frame or 2 (PP_ERR_ARG: the message gives the counts). A frame
- * without NaN gives the same bytes as before this rule. */
+ * without NaN gives the same bytes as before this rule.
+ * Contract: cfg, frame, psf, out not NULL; cfg is copied, but what its
+ * pointers point to is not: cfg->setting_names must outlive the sampler,
+ * cfg->regions / profiles / spots must live until pp_sampler_run returns
+ * (cfg->above is copied here). *out receives a new sampler owned by the
+ * caller (pp_sampler_free), NULL on failure. Errors, the message naming
+ * the setting (by cfg->setting_names) and what to change: PP_ERR_ARG (a
+ * setting out of range, a combination not built, a PSF that does not suit
+ * the frame), PP_ERR_NUMERIC (an infinite pixel; a NaN/Inf PSF value),
+ * PP_ERR_LIMIT (a PSF larger than the frame, a grid too large),
+ * PP_ERR_NOMEM. Thread-safe (FFT planning is serialised inside; several
+ * samplers may be created and run at once from different threads). */
 pp_status pp_sampler_create(const pp_sampler_config *cfg, const pp_image *frame,
                             const pp_image *psf, pp_sampler **out);
+/* Runs every chain of s (not NULL) on OpenMP threads (cfg.threads), then
+ * computes the estimates, maps and diagnostics the accessors below return.
+ * A sampler runs once: a second call fails (PP_ERR_ARG). cfg.progress is
+ * called from inside now and then; cfg.stop, when it turns non-zero, ends
+ * the run soon with PP_ERR_INTERRUPTED. Errors: PP_ERR_ARG (run twice),
+ * PP_ERR_INTERRUPTED, PP_ERR_NUMERIC (the chains produced NaN/Inf
+ * estimates; the message counts the pixels), PP_ERR_NOMEM. After a
+ * failure only pp_sampler_free is meaningful. Not to be called on one
+ * sampler from two threads; other samplers may run at the same time. */
 pp_status pp_sampler_run(pp_sampler *s);
+/* Frees s and everything it owns (the estimates, maps, traces, warnings
+ * the accessors point into: they become invalid); s may be NULL. Not
+ * concurrently with any other use of s. */
 void pp_sampler_free(pp_sampler *s);
 
-/* The configuration actually used (kind resolved from AUTO, etc.). */
-const pp_sampler_config *pp_sampler_config_used(const pp_sampler *s);
 
 /* Optional, for programs, once at start before any sampler: makes glibc hand
  * every frame-sized buffer back to the system as soon as it is freed (fixes
@@ -227,7 +256,9 @@ const pp_sampler_config *pp_sampler_config_used(const pp_sampler *s);
  * per pixel more at the peak of a 4-chain run (bench/NOTES.md). The library
  * never calls it itself, as it changes the whole process's allocator; it
  * allocates only while planning, so the extra system calls cost nothing
- * measurable. The pixpost command calls it. */
+ * measurable. The pixpost command calls it. Never fails. Not thread-safe
+ * in spirit: it changes the process's allocator, so call it before other
+ * threads allocate. */
 void pp_sampler_return_memory(void);
 
 /* What a run did about its length (valid after pp_sampler_run; zero before). */
@@ -237,7 +268,8 @@ typedef enum pp_stop_reason {
     PP_STOP_MAX_TIME,  /* cfg.max_seconds (or its default) reached first */
     PP_STOP_MAX_ITERS  /* cfg.max_iters reached first */
 } pp_stop_reason;
-/* "fixed", "converged", "max-time", "max-iters" ("unknown" out of range). */
+/* "fixed", "converged", "max-time", "max-iters" ("unknown" out of range):
+ * static text, never NULL. Thread-safe. */
 const char *pp_stop_reason_name(pp_stop_reason r);
 
 typedef struct pp_run_length {
@@ -259,15 +291,21 @@ typedef struct pp_run_length {
     char failed[160];
     unsigned long iters_needed;
 } pp_run_length;
-const pp_run_length *pp_sampler_run_length(const pp_sampler *s);
 
-/* Estimates, frame-sized; valid after a successful run (NULL before). */
+/* The accessors below (s not NULL; pp_sampler_result gathers all of them
+ * and more into one pp_result) never fail and never allocate: what they
+ * return points into the sampler, is read only, valid until
+ * pp_sampler_free(s), and is never freed by the caller. They only read s:
+ * several threads may call them at once on a sampler that has finished
+ * running. */
+
+/* Estimates with the frame's shape (a volume's for a volume): posterior
+ * mean, pixelwise sd, and the central credible bounds at cfg.level; valid
+ * after a successful pp_sampler_run, NULL before. */
 const pp_image *pp_sampler_mean(const pp_sampler *s);
 const pp_image *pp_sampler_sd(const pp_sampler *s);
 const pp_image *pp_sampler_lo(const pp_sampler *s);
 const pp_image *pp_sampler_hi(const pp_sampler *s);
-/* Frame pixels that were observed (finite) and unobserved (NaN). */
-void pp_sampler_observed(const pp_sampler *s, size_t *observed, size_t *missing);
 
 /* Scalar traces: values[(chain * kept + i) * ncols + col]. */
 typedef struct pp_trace {
@@ -278,48 +316,30 @@ typedef struct pp_trace {
     const double *values;
 } pp_trace;
 
+/* The scalar traces: never NULL; their values are meaningful after a
+ * successful run only. */
 const pp_trace *pp_sampler_trace(const pp_sampler *s);
 /* With cfg.regions, cfg.profiles or cfg.spots, after pp_sampler_run: each
  * kept draw's totals over the regions, then its values at the profiles'
  * points, then its spot contrasts: v[(c * cap + i) * stride + j] for chain
  * c, kept draw i < kept (the trace's kept), j < stride = regions + profile
- * points + spots (in that order); NULL without any. Points into the sampler. */
+ * points + spots (in that order); NULL without any. cap and stride: not
+ * NULL, always written. Points into the sampler. */
 const double *pp_sampler_region_draws(const pp_sampler *s, size_t *cap, size_t *stride);
 /* With cfg.above, after pp_sampler_run: the map P(x_i > above[t]) (the
- * frame's shape), pooled over every chain's kept draws; NULL else. Points
- * into the sampler. */
+ * frame's shape), pooled over every chain's kept draws; NULL when t >=
+ * cfg.nabove or before the run. Points into the sampler. */
 const pp_image *pp_sampler_above_map(const pp_sampler *s, size_t t);
 /* The trace columns every sampler has, first in every row. PP_COL_PROBE0
  * is the column after them: the optional psf_width, kappa and level
  * columns start there when present, then the probe pixels. */
 enum { PP_COL_LAMBDA = 0, PP_COL_DELTA = 1, PP_COL_LOGLIK = 2, PP_COL_PROBE0 = 3 };
 
-/* Convergence diagnostics (valid after a successful run): one
- * pp_diag_scalar (include/pixpost/diag.h) per trace column, in column
- * order; per-pixel split-R-hat and MCSE of the mean maps, frame-sized, or
- * NULL when a half-chain kept fewer than 2 draws. */
-struct pp_diag_scalar;
-const struct pp_diag_scalar *pp_sampler_diagnostics(const pp_sampler *s);
+/* Per-pixel split-R-hat and MCSE of the mean, the frame's shape (valid
+ * after a successful run); NULL before, or when a half-chain kept fewer
+ * than 2 draws. */
 const pp_image *pp_sampler_rhat_map(const pp_sampler *s);
 const pp_image *pp_sampler_mcse_map(const pp_sampler *s);
-
-/* Short text naming how the bounds were computed (for summary.json). */
-const char *pp_sampler_bound_method(const pp_sampler *s);
-
-/* Timings of the last run, seconds. */
-double pp_sampler_seconds(const pp_sampler *s);
-
-/* Where the grid's FFT plans came from (cfg.fft_effort and the wisdom
- * loaded before pp_sampler_create; include/pixpost/fft.h). */
-pp_fft_plans pp_sampler_fft_plans(const pp_sampler *s);
-
-/* Warnings raised while setting up or sampling (plain sentences): R-hat,
- * ESS, acceptance, a burn-in too short to adapt, a hyperprior that outweighs
- * the data. Each says the results are less trustworthy than they look; the
- * command line's --strict exits 3 when there is any. Count and i-th (NULL
- * when i >= count); the strings live until pp_sampler_free(). */
-size_t pp_sampler_warning_count(const pp_sampler *s);
-const char *pp_sampler_warning(const pp_sampler *s, size_t i);
 
 /* What a warning is about. PP_WARN_HYPER: a global trace column (lambda,
  * delta, the log-likelihood, psf_width, kappa: one number for the whole
@@ -332,27 +352,7 @@ typedef enum pp_warning_part {
     PP_WARN_HYPER,
     PP_WARN_PIXELS
 } pp_warning_part;
-/* The part of the i-th warning (PP_WARN_OTHER when i >= count). */
-pp_warning_part pp_sampler_warning_part(const pp_sampler *s, size_t i);
 
-/* The number of iterations after burn-in (--iters) to ask for so that every
- * convergence criterion that failed would pass, or 0 when none failed (or
- * before a successful run). An estimate, from two rules:
- *  - ESS: past burn-in, a chain's ESS grows about linearly with its number
- *    of draws, so a failing bulk- or tail-ESS (of any trace column or probe
- *    pixel) reaches 100 per chain after about iters * 100 * chains / ESS
- *    iterations; the largest such figure, times a margin for the ESS
- *    estimate's own error (src/sampler_diag.c), is taken.
- *  - R-hat (a column, or the pixel map's rule): chains that disagree need
- *    more draws by an amount no diagnostic predicts; the common practice
- *    of at least doubling the run is taken.
- * The larger of the two, rounded up to two significant digits. While the
- * chains disagree the ESS per draw of a short run looks better than it is,
- * so the figure is then a lower bound (measured in src/sampler_diag.c). "iters"
- * here is what the diagnostics saw: kept draws per chain times --thin.
- * Reads only the finished diagnostics (pp_sampler_diagnostics and the
- * R-hat map); cost: one pass over the trace columns and the map. */
-unsigned long pp_sampler_iters_suggested(const pp_sampler *s);
 
 /* A run's headline convergence figures: what `sample` prints, what
  * summary.json records under "convergence" and what a batch manifest lists.
@@ -360,7 +360,7 @@ unsigned long pp_sampler_iters_suggested(const pp_sampler *s);
  * every trace column (lambda, delta, log-likelihood, probe pixels; NaN
  * columns ignored; NaN when no column has a finite value, e.g. before a
  * successful run or with too few kept draws); warnings is
- * pp_sampler_warning_count(s); converged is 1 exactly when warnings is 0
+ * the number of warnings (pp_result.nwarnings); converged is 1 exactly when warnings is 0
  * (so `--strict` fails exactly the runs that are not converged).
  * The two parts (pp_warning_part): hyper_warnings and pixel_warnings count the
  * warnings of each part (the rest, warnings minus both, are
@@ -383,24 +383,7 @@ typedef struct pp_convergence {
      * suggestion; NULL when the caller gave no names. */
     const char *iters_name;
 } pp_convergence;
-void pp_sampler_convergence(const pp_sampler *s, pp_convergence *out);
 
-/* One plain sentence saying whether the run converged and, when not, which
- * part failed (the hyperparameters, the pixel estimates, both, or only
- * other warnings), what that means for the pixel bounds (when only global
- * columns fail, the pixel bounds are sound as far as the diagnostics can
- * tell) and the --iters to ask for. Written into buf (always
- * NUL-terminated, truncated to len - 1 bytes; len >= 1); PP_VERDICT_MAX
- * bytes always suffice. Reads only *cv, so every program holding the
- * figures words them the same way. */
-#define PP_VERDICT_MAX 512
-void pp_convergence_verdict(const pp_convergence *cv, char *buf, size_t len);
-
-/* Which part kept the run from converging, as a short label for tables
- * (batch manifests): "" when converged, else "hyperparameters", "pixels",
- * "hyperparameters and pixels", or "other" (only warnings of neither part).
- * Static text. */
-const char *pp_convergence_failed(const pp_convergence *cv);
 
 /* The inner linear solver of gibbs under the adaptive prior (conjugate
  * gradients of the x-draws), summed over chains: draws made (burn-in
@@ -411,15 +394,6 @@ typedef struct pp_solver_stats {
     unsigned long long draws, iterations, capped;
     size_t most;
 } pp_solver_stats;
-void pp_sampler_solver_stats(const pp_sampler *s, pp_solver_stats *out);
 
-/* Notes (plain sentences): information about the data or the model that
- * does not make a run less trustworthy, e.g. that the PSF's transfer
- * function is zero at some frequencies (every Gaussian PSF of sigma above
- * about 1.5 px), where the estimate comes from the prior. Never counted as
- * warnings. Valid after pp_sampler_create(); same lifetime and NULL rule as
- * the warnings. */
-size_t pp_sampler_note_count(const pp_sampler *s);
-const char *pp_sampler_note(const pp_sampler *s, size_t i);
 
 #endif

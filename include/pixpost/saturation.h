@@ -43,14 +43,15 @@ typedef struct pp_saturation {
 
 /* Finds the saturated pixels of frame (NaN pixels are ignored). bits and
  * is_float describe the file's samples (pp_read_info); rule 1 applies when
- * !is_float and 1 <= bits <= 32. Never fails; out is filled. */
+ * !is_float and 1 <= bits <= 32. frame and out: not NULL; frame is only
+ * read. Never fails, allocates nothing; *out is filled in full.
+ * Thread-safe. */
 void pp_saturation_find(const pp_image *frame, unsigned bits, int is_float, pp_saturation *out);
 
 /* Sets the pixels found by pp_saturation_find (value == sat->level) to NaN
- * (unobserved); returns how many were set. Nothing when rule is NONE. */
+ * (unobserved), in place; returns how many were set. Nothing when rule is
+ * NONE. frame (modified) and sat: not NULL. Never fails. Not concurrently
+ * with other uses of frame. */
 size_t pp_saturation_mark(pp_image *frame, const pp_saturation *sat);
-
-/* A short name of the rule: "format maximum", "flat top", "none". */
-const char *pp_sat_rule_name(pp_sat_rule r);
 
 #endif

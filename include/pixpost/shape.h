@@ -24,23 +24,20 @@ typedef struct pp_shape {
     size_t n[PP_MAX_RANK];   /* extents, slowest first; 1 past the rank */
 } pp_shape;
 
-/* A frame: height rows of width columns. */
+/* A frame: height rows of width columns. Never fails (the extents are not
+ * checked: pp_shape_count does); pure, thread-safe. */
 pp_shape pp_shape_2d(size_t height, size_t width);
 
-/* A volume: depth slices of height x width. */
+/* A volume: depth slices of height x width. As pp_shape_2d. */
 pp_shape pp_shape_3d(size_t depth, size_t height, size_t width);
 
 /* Checks the shape (rank in 1..PP_MAX_RANK, every extent >= 1, extents past
  * the rank equal to 1) and writes the element count to *count. Fails with
- * PP_ERR_ARG for a bad shape and PP_ERR_LIMIT when the count times `size`
- * bytes would overflow size_t (size 0 counts elements only). */
+ * PP_ERR_ARG for a bad shape (or s or count NULL) and PP_ERR_LIMIT when the
+ * count times `size` bytes would overflow size_t (size 0 counts elements
+ * only); on failure *count is unchanged and, unlike other functions, NO
+ * message is set (the caller knows what it was counting). Pure,
+ * thread-safe. */
 pp_status pp_shape_count(const pp_shape *s, size_t size, size_t *count);
-
-/* 1 when the two shapes have the same rank and extents. */
-int pp_shape_equal(const pp_shape *a, const pp_shape *b);
-
-/* Elements of the half spectrum of a real grid of this shape: the product
- * of the extents with the last one replaced by n[rank-1]/2 + 1. */
-size_t pp_shape_half_count(const pp_shape *s);
 
 #endif

@@ -21,11 +21,16 @@ typedef enum pp_status {
     PP_ERR_INTERRUPTED  /* stopped by the caller's stop flag */
 } pp_status;
 
-/* The message of the last failure on this thread ("" if none). The pointer
- * stays valid until the next failing call on the same thread. */
+/* The message of the last failure on this thread ("" if none): never
+ * NULL, owned by the library (thread-local storage, not to be freed). The
+ * pointer stays valid, and the text unchanged, until the next failing call
+ * on the same thread; copy it to keep it. A successful call does not clear
+ * it. Thread-safe: each thread sees its own. */
 const char *pp_error_message(void);
 
-/* A short fixed name for a status ("bad argument", "I/O error", ...). */
+/* A short fixed name for a status ("bad argument", "I/O error", ...; a
+ * value outside the enum has a name too). Static text: never NULL, never
+ * freed. Thread-safe. */
 const char *pp_status_name(pp_status s);
 
 #endif

@@ -5,6 +5,7 @@
  * the option and its accepted form. Cost: O(argc * options), negligible.
  */
 #include "cli.h"
+#include "pixpost/spec.h"
 #include <ctype.h>
 #include <errno.h>
 #include <limits.h>

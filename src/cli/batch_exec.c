@@ -16,6 +16,7 @@
  */
 #include "batch.h"
 #include "pixpost/stack.h"
+#include "pixpost/sampler_extra.h"
 #include <errno.h>
 #include <math.h>
 #include <signal.h>

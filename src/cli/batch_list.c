@@ -11,6 +11,7 @@
  * Cost: one readdir per folder and one TIFF directory count per TIFF file.
  */
 #include "batch.h"
+#include "pixpost/rng.h"
 #include <dirent.h>
 #include <errno.h>
 #include <fnmatch.h>

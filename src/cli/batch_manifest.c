@@ -13,6 +13,9 @@
  */
 #include "batch.h"
 #include "pixpost/output.h"
+#include "pixpost/output_extra.h"
+#include "pixpost/sampler_extra.h"
+#include "pixpost/rng.h"
 #include <dirent.h>
 #include <errno.h>
 #include <math.h>

@@ -22,6 +22,9 @@
 #include "pixpost/ppcheck.h"
 #include "pixpost/profiles.h"
 #include "pixpost/regions.h"
+#include "pixpost/calib.h"
+#include "pixpost/ome.h"
+#include "pixpost/spots.h"
 #include <stddef.h>
 #include <stdint.h>
 #include <stdio.h>

@@ -16,6 +16,7 @@
  */
 #include "batch.h"
 #include "pixpost/output.h"
+#include "pixpost/output_extra.h"
 #include <dirent.h>
 #include <errno.h>
 #include <math.h>

@@ -19,6 +19,8 @@
 #include "cli.h"
 #include "pixpost/output.h"
 #include "pixpost/stack.h"
+#include "pixpost/output_extra.h"
+#include "pixpost/shape_extra.h"
 #include <errno.h>
 #include <limits.h>
 #include <math.h>

@@ -7,6 +7,7 @@
  */
 #include "cli.h"
 #include "pixpost/stack.h"
+#include "pixpost/psf_extra.h"
 #include <stdlib.h>
 #include <string.h>
 

@@ -6,6 +6,8 @@
 #include "cli.h"
 #include "pixpost/diag.h"
 #include "pixpost/output.h"
+#include "pixpost/output_extra.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <stdio.h>

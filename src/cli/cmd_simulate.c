@@ -11,6 +11,8 @@
  */
 #include "cli.h"
 #include "pixpost/stack.h"
+#include "pixpost/io_extra.h"
+#include "pixpost/psf_extra.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>

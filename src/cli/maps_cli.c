@@ -1,9 +1,10 @@
 /* pixpost command line — --above T (repeatable) and --rsd: the posterior
  * probability maps P(x_i > T) the sampler counts (OUTDIR/above_<T>.tif) and
  * the relative uncertainty sd / mean (OUTDIR/rsd.tif), written after the
- * run's other outputs (include/pixpost/probmaps.h). Cost: one pass per map. */
+ * run's other outputs (src/pixpost/probmaps.h). Cost: one pass per map. */
 #include "cli.h"
 #include "pixpost/probmaps.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

@@ -11,6 +11,7 @@
  */
 #include "cli.h"
 #include "pixpost/output.h"
+#include "pixpost/output_extra.h"
 #include <dirent.h>
 #include <errno.h>
 #include <string.h>

@@ -21,6 +21,7 @@
  * Cost: one small file read and, after a new measurement, written.
  */
 #include "cli.h"
+#include "pixpost/sampler_extra.h"
 #include <errno.h>
 #include <stdarg.h>
 #include <stdlib.h>

@@ -1,11 +1,12 @@
 /* pixpost command line — --profile r0,c0,r1,c1 on a frame, or
  * z0,r0,c0,z1,r1,c1 on a volume (repeatable): the lines parsed, planned
- * against the image (include/pixpost/profiles.h) and
+ * against the image (src/pixpost/profiles.h) and
  * OUTDIR/profile_<k>.csv written from the values the sampler recorded at
  * every kept draw. Cost: O(points) to plan; the summaries' O(S log S) per
  * point at the end. */
 #include "cli.h"
 #include "pixpost/profiles.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

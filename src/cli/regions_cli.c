@@ -6,6 +6,7 @@
  * summaries' O(S log S) per row at the end. */
 #include "cli.h"
 #include "pixpost/stack.h"
+#include "pixpost/sampler_extra.h"
 #include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>

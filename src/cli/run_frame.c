@@ -274,7 +274,7 @@ static int make_psf(const cli_sample_opts *o, cli_frame_run *r, const pp_image *
     return st == PP_OK ? 0 : fail_lib(r, st);
 }
 
-/* The checks of the data before sampling (include/pixpost/datacheck.h):
+/* The checks of the data before sampling (src/pixpost/datacheck.h):
  * an error fails the frame before anything is written; warnings stay in
  * r->checks for the summary, the report and the end-of-run lines. */
 static int check_data(const cli_sample_opts *o, cli_frame_run *r, const pp_image *frame,

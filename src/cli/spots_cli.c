@@ -1,7 +1,7 @@
 /* pixpost command line — --spots R[,RZ] or --spots auto: the candidate
  * spots planned from the input frame or volume before sampling (its 3 x 3
  * (x 3) box mean is the pilot, so the candidates never depend on the draws
- * that judge them; include/pixpost/spots.h), recorded at every kept draw,
+ * that judge them; src/pixpost/spots.h), recorded at every kept draw,
  * and OUTDIR/spots.csv written after the run. On a volume the ring is a
  * shell of lateral radius R (pixels) and axial radius RZ (slices; default
  * R x pixel / z-step when the voxel size is known, else R). auto: R = 3
@@ -10,6 +10,7 @@
  * end. */
 #include "cli.h"
 #include "pixpost/spots.h"
+#include "pixpost/sampler_extra.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>

@@ -2,7 +2,7 @@
  * ("units") that `pixpost sample` runs for it. A single-page grayscale file
  * is one unit written into OUTDIR itself (as always). A multi-page TIFF's
  * pages are z-slices, time points or channels: its OME-XML says which when
- * present (include/pixpost/ome.h), --pages otherwise. z-slices are one
+ * present (src/pixpost/ome.h), --pages otherwise. z-slices are one
  * volume sampled as a whole into OUTDIR (with OME metadata of several
  * channels or time points, each channel's or time point's volume into
  * OUTDIR/c<k>/ or OUTDIR/t<k>/); time points go to OUTDIR/t<k>/, channels
@@ -17,6 +17,8 @@
 #include "cli.h"
 #include "pixpost/output.h"
 #include "pixpost/stack.h"
+#include "pixpost/io_extra.h"
+#include "pixpost/output_extra.h"
 #include <errno.h>
 #include <math.h>
 #include <stdio.h>

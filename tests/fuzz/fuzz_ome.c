@@ -4,6 +4,7 @@
  * DimensionOrder and non-negative voxel sizes, and its last plane maps to
  * the last page. Cost: one pass over the text per input. */
 #include "pixpost/pixpost.h"
+#include "pixpost/ome.h"
 #include <stdlib.h>
 #include <string.h>
 

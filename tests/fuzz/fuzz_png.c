@@ -2,6 +2,7 @@
  * dispatch (pp_image_read) on arbitrary bytes; the checks on each read are
  * in fuzz_image.h. Cost: two decodes per input. */
 #include "fuzz_image.h"
+#include "pixpost/io_extra.h"
 
 int LLVMFuzzerTestOneInput(const unsigned char *data, size_t size)
 {

@@ -5,6 +5,7 @@
  * a canonical string that parses again to the same spec kind (the
  * summary.json round trip). Cost: microseconds per input. */
 #include "pixpost/pixpost.h"
+#include "pixpost/prior_extra.h"
 #include <stdlib.h>
 #include <string.h>
 

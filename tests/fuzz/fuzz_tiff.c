@@ -4,6 +4,9 @@
  * description (pp_stack_probe). Cost: one page count and two or three
  * decodes per input. */
 #include "fuzz_image.h"
+#include "pixpost/io_extra.h"
+#include "pixpost/ome.h"
+#include "pixpost/stack.h"
 
 int LLVMFuzzerTestOneInput(const unsigned char *data, size_t size)
 {

@@ -1,4 +1,5 @@
-/* pixpost — FFTW plans for one grid size.
+/* pixpost — FFTW plans for one grid size (internal: src/pixpost/, not
+ * installed, not exported; docs/developers.md "Public API").
  *
  * A pp_fft holds one r2c and one c2r plan for an H x W real grid whose half
  * spectrum is H x (W/2 + 1) complex values (FFTW's layout and unnormalised
@@ -18,22 +19,15 @@
 
 #include <complex.h>
 #include <stddef.h>
+#include "pixpost/fft_plans.h"
 #include "pixpost/shape.h"
 #include "pixpost/status.h"
 
 typedef double _Complex pp_complex;
 typedef struct pp_fft pp_fft;
 
-enum { PP_FFT_ESTIMATE = 0, PP_FFT_MEASURE = 1 };
-
-/* Where a pp_fft's plans came from: ESTIMATE planning, MEASURE planning
- * now, or MEASURE wisdom already loaded (pp_fft_wisdom_load) or made
- * earlier in this process. */
-typedef enum pp_fft_plans {
-    PP_FFT_PLANS_ESTIMATED = 0,
-    PP_FFT_PLANS_MEASURED,
-    PP_FFT_PLANS_WISDOM
-} pp_fft_plans;
+/* PP_FFT_ESTIMATE, PP_FFT_MEASURE, pp_fft_plans and the wisdom functions:
+ * include/pixpost/fft_plans.h (public). */
 
 /* Plans of any rank 1..3 (FFTW's rank-n r2c/c2r): a real grid of the given
  * shape (slowest axis first, include/pixpost/shape.h) and its half
@@ -62,16 +56,6 @@ void pp_fft_inverse(const pp_fft *f, pp_complex *in, double *out);
 double *pp_fft_alloc_real(size_t n);
 pp_complex *pp_fft_alloc_complex(size_t n);
 void pp_fft_free_buffer(void *p);
-
-/* Load FFTW wisdom into this process (a missing or empty file is not an
- * error; PP_ERR_IO when it cannot be read, PP_ERR_FORMAT when it is not
- * wisdom of this FFTW build). */
-pp_status pp_fft_wisdom_load(const char *path);
-/* Saves this process's wisdom merged with what path already holds, under a
- * POSIX lock on path, through a temporary file renamed over it: safe when
- * several processes save to one file at once (none loses its plans, a
- * reader never sees a partial file). The folder must exist. */
-pp_status pp_fft_wisdom_save(const char *path);
 
 /* Smallest even n' >= n whose prime factors are all in {2, 3, 5, 7} (1 for
  * n <= 1). Used for 1-D lengths (diag.c's autocovariances). */

@@ -109,7 +109,7 @@ typedef struct pp_report_input {
     const char *frame_units; /* of the input frame, e.g. "ADU"; NULL: as units */
     const char *sd_caption;  /* what the sd map shows under this model (a sentence);
                               * NULL: a generic one */
-    /* The checks of the data and of the fit (include/pixpost/datacheck.h,
+    /* The checks of the data and of the fit (src/pixpost/datacheck.h,
      * ppcheck.h): the standardised residual map (frame-sized, NaN where left
      * out; NULL: no panel), their warnings (plain sentences) and one
      * sentence of the predictive check's figures (NULL: none); the residual

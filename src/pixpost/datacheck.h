@@ -35,7 +35,7 @@
  *                 offset. (A frame lit everywhere fires it too: hence a
  *                 warning.)
  *   gain          the single-frame Poisson-Gaussian fit (pp_noise_fit_frame,
- *                 include/pixpost/calib.h; Foi et al. 2008) on a 2-D frame
+ *                 src/pixpost/calib.h; Foi et al. 2008) on a 2-D frame
  *                 gives the gain a +- se. When the stated gain G and a
  *                 differ by more than 2x either way AND G lies outside
  *                 a +- 2.576 se (99 %), a warning names both, the interval,
