@@ -3,6 +3,7 @@
  * Workload: one frame per run, before the sampler is made. Cost: one copy
  * of the finite pixels and one qsort; the rest is a pass or two. */
 #include "pixpost/datacheck.h"
+#include "pixpost/calib.h"
 #include "pixpost/setting.h"
 #include "internal.h"
 #include "stats.h"
@@ -107,6 +108,41 @@ static void offset_checks(pp_datacheck *d, const pp_noise_spec *n, const double 
             d->q01, d->q01 - o, o, noise, m);
 }
 
+/* gain (datacheck.h): the stated gain against the single-frame fit's. */
+static void gain_check(pp_datacheck *d, const pp_image *frame, const pp_noise_spec *n,
+                       const char *const *names)
+{
+    pp_noise_fit fit;
+    if (frame->depth > 1 || pp_noise_fit_frame(frame, NULL, &fit) != PP_OK)
+        return; /* a volume, too small a frame or too few smooth patches: no word */
+    if (!fit.gain_determined || !(fit.a > 0) || !isfinite(fit.a_se))
+        return;
+    double g = n->gain, lo = fit.a - 2.576 * fit.a_se, hi = fit.a + 2.576 * fit.a_se;
+    d->gain_fit = fit.a;
+    d->gain_fit_se = fit.a_se;
+    double ratio = g / fit.a;
+    if ((ratio <= 2 && ratio >= 0.5) || (g >= lo && g <= hi))
+        return;
+    const char *noise = pp_setting_name(names, PP_SET_NOISE);
+    char cause[160];
+    if (1.0 / g >= lo && 1.0 / g <= hi)
+        snprintf(cause, sizeof cause,
+                 "Its inverse, %.3g, lies within the interval: the gain was likely entered "
+                 "upside down",
+                 1.0 / g);
+    else
+        snprintf(cause, sizeof cause, "Likely cause: the gain entered upside down or wrong");
+    add(d, PP_CHECK_WARNING, "gain",
+        "the stated gain %g ADU per electron of %s %s is %.3g times %s the frame's noise "
+        "shows: it grows with the signal by %.3g ADU per electron (99 %% interval %.3g to "
+        "%.3g; single-frame fit of Foi et al. 2008). %s. The gain is ADU per electron; if "
+        "your data sheet gives electrons per ADU use e_per_adu=%g in %s instead of gain=%g, "
+        "or measure the gain with pixpost calibrate; else the error bars are %s",
+        g, noise, model_name(n), ratio > 1 ? ratio : 1.0 / ratio,
+        ratio > 1 ? "what" : "smaller than what", fit.a, lo, hi, cause, g, noise, g,
+        ratio > 1 ? "too wide" : "too narrow");
+}
+
 /* psf_size (datacheck.h). */
 static void size_checks(pp_datacheck *d, const pp_image *frame, const pp_image *psf, pp_boundary b,
                         const char *const *names)
@@ -137,6 +173,7 @@ pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, co
     memset(out, 0, sizeof *out);
     out->dark_sd = out->share_below_offset = out->share_impossible = NAN;
     out->q001 = out->q01 = out->offset_suggested = NAN;
+    out->gain_fit = out->gain_fit_se = NAN;
     size_t n = pp_image_count(frame), cnt = 0; /* every voxel of a volume */
     double *v = malloc((n ? n : 1) * sizeof *v);
     if (!v)
@@ -153,6 +190,7 @@ pp_status pp_datacheck_run(const pp_image *frame, const pp_noise_spec *noise, co
     if (noise->kind == PP_NOISE_POISSON || noise->kind == PP_NOISE_CAMERA) {
         pp_sort_doubles(v, cnt);
         offset_checks(out, noise, v, cnt, names);
+        gain_check(out, frame, noise, names);
     }
     free(v);
     errors_first(out);

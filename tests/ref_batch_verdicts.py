@@ -20,6 +20,10 @@ items 1, 6 and 8), asserted by text and exit status.
 * Entries skipped because of their type (.txt, .jpg, a subfolder without
   --recursive) are named once at the start.
 * Each frame's progress: a line per 10 % naming the frame.
+* The per-frame line names the checks' warnings (issue 17): "data checks:
+  <names>" as summary.json's data_checks warnings, "predictive check: N
+  warnings" as its predictive warnings; on a frame with the gain inverted
+  the gain check is among them, with the right gain it is not.
 * Frames finished with other settings are replaced only with --overwrite;
   without it one line names the folder, the count and --overwrite, exit 1,
   and nothing in OUTDIR changes.
@@ -41,7 +45,9 @@ import re
 import subprocess
 
 import numpy as np
+import tifffile  # Debian python3-tifffile
 from PIL import Image  # Debian python3-pil
+from skimage import data as skdata  # Debian python3-skimage: its "camera" scene
 
 import pptest
 
@@ -267,4 +273,34 @@ pptest.check(p.returncode == 0 and os.path.exists(os.path.join(mine, ".pixpost-o
 p = batch("mine", *POOR, "--pattern", "a.png", "--resume")
 pptest.check(p.returncode == 0, "a folder batch wrote is resumed without --overwrite (%d, %r)"
              % (p.returncode, p.stderr[-200:]))
+# ---- issue 17: the per-frame line names the checks' warnings -------------------
+# A 64 x 64 crop of scikit-image's "camera" scene (skimage.data), scaled to
+# 1-301 photons and simulated by `pixpost simulate` under camera noise of
+# gain 2 ADU/e-, given to batch with the gain inverted (0.5): the gain check
+# (src/pixpost/datacheck.h) fires before sampling, and the line names it;
+# a folder of the right gain names no gain warning.
+cin = os.path.join(tmp, "cam_in")
+os.makedirs(cin)
+tifffile.imwrite(os.path.join(tmp, "cam_truth.tif"),
+                 (skdata.camera()[100:164, 200:264] / 255.0 * 300 + 1).astype(np.float32))
+pptest.run(["simulate", os.path.join(tmp, "cam_truth.tif"), "--psf", "gaussian:sigma=1.5", "--noise",
+            "camera:gain=2,offset=100,read=1.5", "--seed", "1", "--quiet", "-o",
+            os.path.join(cin, "cam.png")])
+for gain, tag in [("0.5", "inv"), ("2", "right")]:
+    p = subprocess.run([pptest.BIN, "batch", cin, "-o", os.path.join(tmp, "cam_" + tag), "--psf",
+                        "gaussian:sigma=1.5", "--noise", "camera:gain=%s,offset=100,read=1.5" % gain,
+                        "--chains", "2", "--burn", "20", "--iters", "30", "--seed", "1",
+                        "--progress", "none"], capture_output=True, text=True)
+    line = [ln for ln in p.stderr.splitlines() if "] cam: done" in ln]
+    summ = summary("cam_" + tag, "cam") if p.returncode == 0 else {}
+    names = [f["check"] for f in summ.get("data_checks", {}).get("findings", [])
+             if f["severity"] == "warning"]
+    npred = len((summ.get("predictive") or {}).get("warnings", []))
+    want = ("data checks: " + ", ".join(names)) if names else ""
+    pptest.check(p.returncode == 0 and len(line) == 1 and (not want or want in line[0])
+                 and (("gain" in names) == (tag == "inv"))
+                 and (npred == 0 or "predictive check: %d warning" % npred in line[0])
+                 and (names or npred or "; " not in line[0]),
+                 "gain %s: the frame's line names summary.json's data-check warnings %s and %d "
+                 "predictive warnings (%r)" % (gain, names, npred, line))
 pptest.done()

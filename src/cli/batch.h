@@ -51,6 +51,7 @@ typedef struct batch_row {
     int converged;                 /* pp_convergence: 1, 0, or -1 unknown */
     char failed[32];               /* pp_convergence_failed: "" converged or unknown */
     unsigned long iters_suggested; /* pp_convergence: 0 none (or unknown) */
+    char checks[192];              /* batch_row_checks: "" none (or unknown) */
     char message[BATCH_MSG];
 } batch_row;
 
@@ -110,9 +111,13 @@ void batch_clean_folder(const char *dir);
 void batch_read_summary(const char *dir, int convergence, batch_row *r);
 /* Fills the row's convergence fields from the run's figures. */
 void batch_row_convergence(batch_row *r, const pp_convergence *cv);
+/* Names the checks' warnings in the row: "data checks: gain, dark_level;
+ * predictive check: 2 warnings" (either part left out when it has none;
+ * d or p may be NULL). */
+void batch_row_checks(batch_row *r, const pp_datacheck *d, const pp_ppcheck *p);
 /* The per-frame line's verdict: "N warnings, converged", or "N warnings,
  * not converged (<part>): run about K iterations: --iters K"; just the
- * warnings when unknown. */
+ * warnings when unknown; then "; " and the row's checks when any. */
 void batch_row_verdict(const batch_row *r, char *buf, size_t len);
 /* --strict: a complete row (done or skipped) that is not converged becomes
  * BATCH_FAILED_STRICT with a message saying so. No-op otherwise. */

@@ -77,8 +77,10 @@ void batch_do_frame(const batch_ctx *c, size_t i, batch_row *r)
     clock_gettime(CLOCK_MONOTONIC, &fr.t0);
     int rc = cli_run_frame(c->opts, &fr);
     pp_convergence cv;
-    if (!rc)
+    if (!rc) {
         pp_sampler_convergence(fr.sampler, &cv); /* the figures summary.json holds */
+        batch_row_checks(r, &fr.checks, fr.predictive);
+    }
     pp_sampler_free(fr.sampler);
     pp_ppcheck_free(fr.predictive);
     if (!rc)

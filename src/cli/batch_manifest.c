@@ -63,20 +63,38 @@ void batch_row_convergence(batch_row *r, const pp_convergence *cv)
     r->iters_suggested = cv->iters_suggested;
 }
 
+void batch_row_checks(batch_row *r, const pp_datacheck *d, const pp_ppcheck *p)
+{
+    char *b = r->checks;
+    size_t len = sizeof r->checks, used = 0;
+    b[0] = '\0';
+    for (size_t i = 0; d && i < d->count && used < len; i++)
+        if (d->finding[i].severity == PP_CHECK_WARNING)
+            used += (size_t)snprintf(b + used, len - used, "%s%s",
+                                     used ? ", " : "data checks: ", d->finding[i].check);
+    if (p && p->nwarnings && used < len)
+        snprintf(b + used, len - used, "%spredictive check: %zu warning%s", used ? "; " : "",
+                 p->nwarnings, p->nwarnings == 1 ? "" : "s");
+}
+
 void batch_row_verdict(const batch_row *r, char *buf, size_t len)
 {
     char warn[32] = "no warnings";
     if (r->warnings > 0)
         snprintf(warn, sizeof warn, "%d warning%s", r->warnings, r->warnings == 1 ? "" : "s");
+    size_t used;
     if (r->converged > 0)
-        snprintf(buf, len, "%s, converged", warn);
+        used = (size_t)snprintf(buf, len, "%s, converged", warn);
     else if (r->converged == 0 && r->iters_suggested)
-        snprintf(buf, len, "%s, not converged (%s): run about %lu iterations: --iters %lu", warn,
-                 r->failed, r->iters_suggested, r->iters_suggested);
+        used = (size_t)snprintf(buf, len,
+                                "%s, not converged (%s): run about %lu iterations: --iters %lu",
+                                warn, r->failed, r->iters_suggested, r->iters_suggested);
     else if (r->converged == 0)
-        snprintf(buf, len, "%s, not converged (%s)", warn, r->failed);
+        used = (size_t)snprintf(buf, len, "%s, not converged (%s)", warn, r->failed);
     else
-        snprintf(buf, len, "%s", warn);
+        used = (size_t)snprintf(buf, len, "%s", warn);
+    if (r->checks[0] && used < len)
+        snprintf(buf + used, len - used, "; %s", r->checks);
 }
 
 void batch_apply_strict(const batch_ctx *c, batch_row *r)

@@ -227,7 +227,7 @@ static void on_done(void *ctx, size_t idx, const batch_row *row)
         batch_write_manifest(s->c->outdir, s->base, s->rows, s->nsel, s->c->indir, s->shard);
         clock_gettime(CLOCK_MONOTONIC, &s->last_write);
     }
-    char warn[256];
+    char warn[512];
     batch_row_verdict(row, warn, sizeof warn);
     if (!s->quiet && row->status == BATCH_DONE)
         fprintf(stderr, "pixpost: [%zu/%zu] %s: done, %s (%.1f s)\n", s->finished, s->ntodo,

@@ -34,6 +34,19 @@
  *                 a frame with areas without light has pixels at the
  *                 offset. (A frame lit everywhere fires it too: hence a
  *                 warning.)
+ *   gain          the single-frame Poisson-Gaussian fit (pp_noise_fit_frame,
+ *                 src/pixpost/calib.h; Foi et al. 2008) on a 2-D frame
+ *                 gives the gain a +- se. When the stated gain G and a
+ *                 differ by more than 2x either way AND G lies outside
+ *                 a +- 2.576 se (99 %), a warning names both, the interval,
+ *                 the likely cause (an inverted gain: data sheets print
+ *                 electrons per ADU) and the fixes (e_per_adu=, pixpost
+ *                 calibrate) (our rule). No word when the fit fails (frame
+ *                 under 16x16, too few smooth patches), cannot separate
+ *                 gain and offset (a < 3 se), or on a volume. The fit
+ *                 overestimates the gain on sharp scenes (up to 4x, no
+ *                 blur): hence the 2x margin; false alarms measured in
+ *                 tests/ref_datacheck_gain.py.
  * For every noise model:
  *   psf_size      the frame smaller than the PSF kernel in either
  *                 direction: an error (the kernel must fit; the same rule
@@ -42,7 +55,8 @@
  *                 either direction: a warning (most pixels then lie within
  *                 the PSF's reach of an edge, where the scene outside the
  *                 frame is unknown; our rule).
- * Cost: one copy and one sort of the observed pixels.
+ * Cost: one copy and one sort of the observed pixels, and the gain fit (a
+ * few passes over the frame and one sort of its smooth blocks).
  */
 #ifndef PIXPOST_DATACHECK_H
 #define PIXPOST_DATACHECK_H
@@ -55,7 +69,7 @@
 typedef enum pp_check_severity { PP_CHECK_WARNING = 1, PP_CHECK_ERROR = 2 } pp_check_severity;
 
 /* One finding: its severity, a short name of the check ("below_offset",
- * "impossible", "dark_level", "psf_size") and one plain sentence with the
+ * "impossible", "dark_level", "gain", "psf_size") and one plain sentence with the
  * numbers and the fix. */
 typedef struct pp_check_finding {
     pp_check_severity severity;
@@ -77,6 +91,8 @@ typedef struct pp_datacheck {
     double share_impossible; /* below offset - 5 s - 1 */
     double q001, q01;        /* 0.1 % and 1 % quantiles of the frame */
     double offset_suggested; /* 1st percentile + 2.33 s */
+    double gain_fit, gain_fit_se; /* the gain check's single-frame fit, ADU per
+                                   * electron; NaN when it gave no gain */
 } pp_datacheck;
 
 /* Runs the checks above on frame (NaN pixels skipped) under noise, for a
