@@ -26,6 +26,21 @@ double pp_observed_mean(const pp_image *frame)
     return n ? sum / (double)n : 0.0;
 }
 
+/* A grid-sized byte mask (0 in the padding), NULL when out of memory: on
+ * the frame's pixels 1 where f is not NaN (f given) or where m is nonzero
+ * (m given, frame layout). */
+static unsigned char *grid_mask(const pp_sampler *s, const double *f, const unsigned char *m)
+{
+    unsigned char *g = calloc(s->gn, 1);
+    for (size_t z = 0; g && z < s->depth; z++)
+        for (size_t r = 0; r < s->height; r++)
+            for (size_t c = 0; c < s->width; c++) {
+                size_t i = (z * s->height + r) * s->width + c;
+                g[(z * s->gh + r) * s->gw + c] = f ? !isnan(f[i]) : m[i] != 0;
+            }
+    return g;
+}
+
 pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
 {
     size_t inf = 0, nan = 0;
@@ -64,13 +79,8 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
             "saturated pixels are unobserved); at least %zu are needed: mask fewer pixels (or use "
             "saturated ones as data%s%s)",
             n - nan, n, need, keep ? ", " : "", keep ? keep : "");
-    if (!(s->obs = calloc(s->gn, 1)))
+    if (!(s->obs = grid_mask(s, frame->data, NULL)))
         return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
-    for (size_t z = 0; z < s->depth; z++)
-        for (size_t r = 0; r < s->height; r++)
-            for (size_t c = 0; c < s->width; c++)
-                s->obs[(z * s->gh + r) * s->gw + c] =
-                    !isnan(frame->data[(z * s->height + r) * s->width + c]);
     s->nobs = n - nan;
     s->nmissing = nan;
     s->cfg.censored = NULL; /* read no more: the caller may free it */
@@ -83,13 +93,8 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
                                "missing (the bound they give, at least the level, is not used)",
                             ncens);
     if (ncens && built) {
-        if (!(s->cens = calloc(s->gn, 1)))
+        if (!(s->cens = grid_mask(s, NULL, cz)))
             return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
-        for (size_t z = 0; z < s->depth; z++)
-            for (size_t r = 0; r < s->height; r++)
-                for (size_t c = 0; c < s->width; c++)
-                    s->cens[(z * s->gh + r) * s->gw + c] =
-                        cz[(z * s->height + r) * s->width + c] != 0;
         s->ncensored = ncens;
         s->censor_level = s->cfg.censor_level;
     }
