@@ -124,6 +124,21 @@ def transfer(psf, shape):
     return np.fft.fft2(centred_kernel(psf, shape))
 
 
+def blurred_frame(tmp, truth, psf_spec, sigma, rng):
+    """truth blurred periodically by pixpost's PSF `psf_spec` (written by
+    `pixpost psf` to tmp/psf.tif; the blur by numpy's FFT) plus N(0, sigma^2)
+    noise from rng: returns (psf, A, y), A the transfer function, y float64."""
+    import os
+    import numpy as np
+    import tifffile
+    psf_path = os.path.join(tmp, "psf.tif")
+    run(["psf", psf_spec, "-o", psf_path])
+    psf = tifffile.imread(psf_path).astype(np.float64)
+    A = transfer(psf, truth.shape)
+    y = np.real(np.fft.ifft2(np.fft.fft2(truth) * A)) + sigma * rng.standard_normal(truth.shape)
+    return psf, A, y
+
+
 def gmrf1_q(H, W):
     """Eigenvalues of the periodic 5-point Laplacian on an H x W grid (the
     gmrf1 precision up to delta; Rue & Held 2005), full spectrum:

@@ -50,11 +50,7 @@ H, W = 12, 12
 yy, xx = np.mgrid[0:H, 0:W]
 truth = 10 + 4 * np.sin(xx / 2.0) + 3 * np.cos(yy / 3.0) + 8 * np.exp(-((yy - 6) ** 2 + (xx - 5) ** 2) / 4.0)
 SIGMA, DELTA, PSF = 1.0, 0.5, "gaussian:sigma=1.0"
-psf_path = os.path.join(tmp, "psf.tif")
-pptest.run(["psf", PSF, "-o", psf_path])
-psf = tifffile.imread(psf_path).astype(np.float64)
-A_f = pptest.transfer(psf, (H, W))
-y = np.real(np.fft.ifft2(np.fft.fft2(truth) * A_f)) + SIGMA * rng.standard_normal((H, W))
+psf, A_f, y = pptest.blurred_frame(tmp, truth, PSF, SIGMA, rng)
 y = y.astype(np.float32)
 s = np.sort(y.ravel())[-8]
 y = np.minimum(y, s)
@@ -165,7 +161,7 @@ pptest.check("censoring of saturated pixels is built for gibbs and mtc under gau
 # (Bardsley 2012's conditional, as in src/sampler_gibbs.c but written
 # independently here); 2000 chains x 600 iterations, the first 100 dropped.
 def reference_delta(chains=2000, iters=600, burn=100):
-    Af = pptest.transfer(psf, (H, W))
+    Af = A_f  # the transfer function of the frame above
     q = pptest.gmrf1_q(H, W)
     lam, n = 1.0 / SIGMA ** 2, H * W
     r = np.random.default_rng(4048)

@@ -40,11 +40,7 @@ H, W = 12, 12
 yy, xx = np.mgrid[0:H, 0:W]
 truth = 10 + 4 * np.sin(xx / 2.0) + 3 * np.cos(yy / 3.0)
 SIGMA, DELTA, PSF = 1.0, 0.5, "gaussian:sigma=1.0"
-psf_path = os.path.join(tmp, "psf.tif")
-pptest.run(["psf", PSF, "-o", psf_path])
-psf = tifffile.imread(psf_path).astype(np.float64)
-A_f = pptest.transfer(psf, (H, W))
-y = np.real(np.fft.ifft2(np.fft.fft2(truth) * A_f)) + SIGMA * rng.standard_normal((H, W))
+psf, A_f, y = pptest.blurred_frame(tmp, truth, PSF, SIGMA, rng)
 frame = os.path.join(tmp, "y.tif")
 tifffile.imwrite(frame, y.astype(np.float32))
 y = tifffile.imread(frame).astype(np.float64)
