@@ -415,6 +415,7 @@ typedef struct pp_convergence {
 typedef struct pp_solver_stats {
     unsigned long long draws, iterations, capped;
     size_t most;
+    unsigned long long accepted; /* draws whose Metropolis-Hastings move was accepted */
 } pp_solver_stats;
 
 
