@@ -226,8 +226,8 @@ static void json_adaptive(FILE *f, const pp_result *r)
     pp_json_write_number(f, ss.draws ? (double)ss.accepted / (double)ss.draws : NAN);
     fputs(", \"cg_iterations_mean\": ", f);
     pp_json_write_number(f, ss.draws ? (double)ss.iterations / (double)ss.draws : NAN);
-    fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu},\n", ss.most,
-            ss.capped);
+    fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu, \"converged_solve_draws\": %llu},\n",
+            ss.most, ss.capped, ss.fallback);
     json_chain_moves(f, r); /* acceptance of the block log-precision moves */
 }
 

@@ -52,6 +52,7 @@ typedef struct pp_po_stats {
     double relres;
     int accepted;
     double logratio;
+    int unresolved; /* pp_po_draw_rj: the ratio was below its rounding (see po_solve.c) */
 } pp_po_stats;
 
 /* One draw of x | W, λ, δ into x (N = d*h*w reals), warm-started at the x

@@ -40,7 +40,6 @@
  */
 #include <math.h>
 #include <stdlib.h>
-#include <stdio.h>
 #include <string.h>
 #include "adaptive.h"
 #include "fieldscale.h"
@@ -58,6 +57,12 @@
  * acceptance 0.94 / 0.92 / 0.61; 0.3 needs the fewest per accepted move. */
 #define PO_EPS 0.3
 #define PO_CAP 2000
+/* The fallback when the move's log ratio is below its rounding (po_solve.c:
+ * weights spanning more decades than doubles resolve, as on a constant
+ * frame): a draw by CG run to ‖r‖ ≤ 1e-6‖η‖ from the current x, within
+ * 1.5e-4 conditional sd of the exact draw (tests/ref_po_dense.py) — the
+ * method before the reversible-jump move. */
+#define PO_TOL 1e-6
 
 typedef struct {
     pp_po *po;
@@ -289,11 +294,19 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     }
     for (unsigned long t = c->t; t < s->t_end; t++) {
         int keep = t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0;
-        pp_po_stats ps = {0, 0, 0, 0};
+        pp_po_stats ps = {0, 0, 0, 0, 0};
         pp_status st = range_check(c, t);
         if (st == PP_OK)
             st = pp_po_draw_rj(k->po, c->otf, y, c->lambda, 1.0, k->wz, k->wh, k->wv, &c->rng,
                                PO_ALPHA, PO_EPS, PO_CAP, k->x, &ps);
+        if (st == PP_OK && ps.unresolved) {
+            /* the move's ratio drowned in rounding: the converged draw (see above) */
+            size_t rj_iters = ps.iters;
+            st = pp_po_draw(k->po, c->otf, y, c->lambda, 1.0, k->wz, k->wh, k->wv, &c->rng,
+                            PO_TOL, PO_CAP, k->x, &ps);
+            ps.iters += rj_iters;
+            c->solver_fallback++;
+        }
         if (st == PP_ERR_INTERRUPTED)
             return pp_fail(st, "sampling stopped at the caller's request");
         if (st == PP_ERR_NUMERIC || st == PP_ERR_ARG) /* CG broke down: the same cause */

@@ -84,7 +84,7 @@ int main(int argc, char **argv)
     pp_rng_seed(&rng, (uint64_t)hd[7], 0);
     memcpy(x, x0, n * sizeof *x);
     for (size_t d = 0; d < ndraw; d++) {
-        pp_po_stats st = {0, 0.0, 0, 0.0};
+        pp_po_stats st = {0, 0.0, 0, 0.0, 0};
         pp_status s;
         if (rj)
             s = pp_po_draw_rj(po, ot, y, hd[2], hd[3], wz, wh, wv, &rng, ralpha, hd[4], cap, x,

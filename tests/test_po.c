@@ -83,7 +83,7 @@ int main(void)
     refused(po, 1.0, 1.0, 1e-8, "otf[0]", "otf[0] = 0");
     otf[0] = dc;
     double a[N] = {0}, b[N] = {0};
-    pp_po_stats st = {0, -1.0, 0, 0.0}, st2 = {0, -1.0, 0, 0.0};
+    pp_po_stats st = {0, -1.0, 0, 0.0, 0}, st2 = {0, -1.0, 0, 0.0, 0};
     CHECK(draw(po, 100.0, 2.0, 1e-9, a, &st) == PP_OK, "a draw converges: %s", pp_error_message());
     CHECK(st.iters > 0 && st.iters <= N && st.relres >= 0 && st.relres <= 1e-9,
           "stats: %zu iterations (CG on N = %d unknowns), relres %g <= 1e-9", st.iters, N,
@@ -105,7 +105,7 @@ int main(void)
               "rj: relaxation %g refused, x untouched (%s)", bad ? 2.0 : 0.0, pp_error_message());
     }
     pp_rng_seed(&rng, 15, 0);
-    pp_po_stats sr = {0, -1.0, -1, 1.0};
+    pp_po_stats sr = {0, -1.0, -1, 1.0, -1};
     CHECK(pp_po_draw_rj(po, otf, y, 100.0, 2.0, NULL, wh, wv, &rng, 1.0, 1e-9, 500, xr, &sr) ==
               PP_OK,
           "rj: a tight move converges: %s", pp_error_message());
