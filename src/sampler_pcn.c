@@ -632,8 +632,8 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
 
 /* gpcn/hmc, burn-in only: moves the centre a towards the Gauss-Newton point
  * of the current state, u - (delta Q u + grad Phi) / P, with weight w.
- * Transforms: 3 (log) or 1 (none). For a Gaussian likelihood the point is
- * the exact posterior mean from any state. */
+ * Transforms: 3 (log) or 1 (none). For a Gaussian likelihood without
+ * censored pixels the point is the exact posterior mean from any state. */
 static void newton_centre(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k,
                           double w)
 {
