@@ -38,7 +38,7 @@ BIN = os.environ.get("PP_BIN", "build/pixpost")
 tmp = tempfile.mkdtemp()
 csv = open(args.rows, "w") if args.rows else None
 if csv:
-    csv.write("blur,size,kind,K,read,lo,hi,a,a_lo95,a_hi95,gain_determined\n")
+    csv.write("blur,size,kind,K,read,lo,hi,a,a_lo95,a_hi95,gain_determined,smooth_fraction\n")
 for blur in [float(b) for b in args.blurs.split(",")]:
     for n in [int(s) for s in args.sizes.split(",")]:
         rng = np.random.default_rng(args.seed)
@@ -55,13 +55,14 @@ for blur in [float(b) for b in args.blurs.split(",")]:
             if p.returncode:
                 rows.append((kind, np.nan, False, np.nan))
                 if csv:
-                    csv.write("%g,%d,%s,%.6g,%.6g,%.6g,%.6g,,,,\n" % (blur, n, kind, K, R, lo, hi))
+                    csv.write("%g,%d,%s,%.6g,%.6g,%.6g,%.6g,,,,,\n" % (blur, n, kind, K, R, lo, hi))
                 continue
             s = json.load(open(j))["single_frame"]
             lo95, hi95 = s["a_ci95"]
             if csv:
-                csv.write("%g,%d,%s,%.6g,%.6g,%.6g,%.6g,%.6g,%.6g,%.6g,%d\n"
-                          % (blur, n, kind, K, R, lo, hi, s["a"], lo95, hi95, s["gain_determined"]))
+                csv.write("%g,%d,%s,%.6g,%.6g,%.6g,%.6g,%.6g,%.6g,%.6g,%d,%.4f\n"
+                          % (blur, n, kind, K, R, lo, hi, s["a"], lo95, hi95, s["gain_determined"],
+                             s["smooth_blocks"] / s["blocks"]))
             rows.append((kind, s["a"] / K - 1, lo95 <= K <= hi95, s["a_se"] / K))
         rel = np.array([r[1] for r in rows])
         cov = np.array([r[2] for r in rows])

@@ -28,11 +28,23 @@
  *   5x5 neighbourhood kept fewer blocks and gave wider intervals (median
  *   relative standard error of the gain 3.9 % against 2.3 % on 48
  *   simulated 256^2 frames in our numpy prototype) without less bias;
+ * - and the detail test (detail_quiet): the plane test passes texture and
+ *   edges at the pixel scale (an unblurred photograph), whose finest
+ *   details then inflate the variance. The 48 blocks around (7x7, the
+ *   block left out, so its own D stays unselected) must have their D^2
+ *   sum below the 95 % chi^2 point of the noise. On unblurred 256^2
+ *   frames of 14 kinds (bench/calib_frame.py --kinds dev, 112 frames) the
+ *   gain came within 10 % in 44 % of them (34 % before; the worst errors
+ *   of 4-23x became refusals of grass and gravel); 5x5 at 99 % or a test
+ *   on the largest neighbouring D^2 did no better; blurred frames as
+ *   before (README). What is left on photographs is their own grain
+ *   (bench/NOTES.md, 2026-12-05);
  * - the level sets' variances by plain means of D^2 (efficient); the first
  *   pass, before any block is judged, uses the robust 1.4826 median |D|;
  * - the line by iteratively reweighted least squares on the variances
  *   (not their maximum likelihood on standard deviations).
- * Cost: four passes over the frame, one sort of the blocks (n log n), and
+ * Cost: five passes over the frame (the detail test reads 48 details per
+ * block in three of them), one sort of the blocks (n log n) per pass, and
  * a sort per level set for the robust first pass.
  */
 #include "calib_internal.h"
