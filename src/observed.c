@@ -84,15 +84,7 @@ pp_status pp_observed_plan(pp_sampler *s, const pp_image *frame)
     s->nobs = n - nan;
     s->nmissing = nan;
     s->cfg.censored = NULL; /* read no more: the caller may free it */
-    /* built: gibbs and mtc (gaussian), pcn, gpcn and hmc under the photon models */
-    int gibbs = s->cfg.kind == PP_SAMPLER_GIBBS || s->cfg.kind == PP_SAMPLER_MTC;
-    int built = gibbs || s->cfg.noise.kind != PP_NOISE_GAUSSIAN;
-    if (ncens && !built)
-        pp_sampler_add_note(s, "censoring of saturated pixels is built for gibbs and mtc under "
-                               "gaussian noise: pcn, gpcn and hmc treat the %zu censored pixels as "
-                               "missing (the bound they give, at least the level, is not used)",
-                            ncens);
-    if (ncens && built) {
+    if (ncens) { /* every sampler censors (observed.h) */
         if (!(s->cens = grid_mask(s, NULL, cz)))
             return pp_fail(PP_ERR_NOMEM, "out of memory planning a %zux%zu grid", s->gw, s->gh);
         s->ncensored = ncens;

@@ -9,12 +9,13 @@
  * order and skip the observed ones, which visits the padding in the order
  * the padding-only loops did (so a frame without NaN gives the same bytes).
  * Censored pixels (cfg.censored: saturated, value >= cfg.censor_level) are
- * latent too, and marked in s->cens for the Gibbs family, which redraws
- * them from the truncated normal (pp_censored_draw); the moves that carry
- * the latent data along with x keep them above the level
- * (pp_censored_range). The pCN family uses them under the photon models
- * (src/sampler_pcn.c, src/poisson_tail.h) and treats them as missing under
- * gaussian noise (a note).
+ * latent too, and marked in s->cens for every sampler. The Gibbs family
+ * redraws them from the truncated normal (pp_censored_draw); the moves that
+ * carry the latent data along with x keep them above the level
+ * (pp_censored_range). The pCN family adds their log tail probability to
+ * the likelihood (src/sampler_pcn.c: src/poisson_tail.h under the photon
+ * models, src/truncnorm.h under gaussian noise, whose lambda step draws
+ * them by pp_censored_draw).
  * Cost: one grid pass at planning; 1 byte per grid pixel (2 with censored
  * pixels). */
 #ifndef PIXPOST_OBSERVED_H

@@ -12,8 +12,12 @@
  * n + R^2 ~ Poisson(A x + b + R^2) (Snyder, Hammoud & White, JOSA A 10, 1993:
  * it matches the first two moments; with R = 0 it is exactly poisson);
  * gaussian: y ~ N(A x, 1/lambda). Phi(z) is the negative log-likelihood summed
- * over the OBSERVED pixels only (the frame block of the grid but its NaN,
- * missing pixels: s->obs, src/observed.h).
+ * over the OBSERVED pixels (the frame block of the grid but its NaN,
+ * missing pixels: s->obs, src/observed.h), plus, at each censored pixel
+ * (s->cens, saturated: y >= level), -log P(Y >= level | mu): the Poisson
+ * tail of src/poisson_tail.h, or under gaussian noise -log Q((level - mu)
+ * sqrt(lambda)), Q = 1 - Phi (src/truncnorm.h), slope -sqrt(lambda) times
+ * the normal hazard at that point.
  *
  * Moves per iteration:
  *   1. field: pcn  u' = sqrt(1-beta^2) u + beta xi,  xi ~ N(0, (delta Q)^-1),
@@ -37,7 +41,9 @@
  *   2. delta (when free): log random walk, partially non-centred: u
  *      rescaled per frequency by how much the prior dominates it there.
  *   3. m (when free): random walk, flat prior (z shifted, x rescaled).
- *   4. lambda (gaussian, sigma free): exact Gamma draw given ||Ax - y||^2.
+ *   4. lambda (gaussian, sigma free): exact Gamma draw given ||Ax - y||^2;
+ *      with censored pixels, after drawing their latent values from the
+ *      truncated normal (data augmentation: lambda_censored).
  *   5. delta (when free) again, centred: its exact Gamma draw given u.
  * Photon models with log positivity and a stationary prior (issue 16):
  * move 2 is src/hyper_photon.c's delta move (the field scaled per pixel
@@ -118,12 +124,14 @@
 #include "hyper_photon.h"
 #include "incr.h"
 #include "internal.h"
+#include "observed.h"
 #include "poisson_tail.h"
 #include "pp_assert.h"
 #include "quantiles.h"
 #include "sampler_internal.h"
 #include "spectral.h"
 #include "stats.h"
+#include "truncnorm.h"
 #include "vmath.h"
 #include "pixpost/setting_extra.h"
 
@@ -201,9 +209,22 @@ PP_VECTOR_CLONES static double poisson_row(const double *restrict a, const doubl
     return pp_lanes_total(acc);
 }
 
+/* Gaussian noise, censored pixels: sum of -log Q((level - mu) sqrt(lambda))
+ * over them, mu = scale ax + add, Q = 1 - Phi (src/truncnorm.h). */
+static double gauss_cens_phi(const pp_sampler *s, const double *ax, double scale, double add,
+                             double lambda)
+{
+    const double sl = sqrt(lambda);
+    double acc = 0;
+    for (size_t i = 0; i < s->gn; i++)
+        if (s->cens[i])
+            acc -= pp_normal_logsf((s->censor_level - (scale * ax[i] + add)) * sl);
+    return acc;
+}
+
 /* Phi = negative log-likelihood of the mean image ax (grid) over the
- * observed pixels; *ss receives ||ax - y||^2 (gaussian). INFINITY when not
- * defined. A row's Poisson sum goes by its runs of observed pixels (one run,
+ * observed pixels and the censored ones; *ss receives ||ax - y||^2 over the
+ * observed pixels (gaussian). INFINITY when not defined. A row's Poisson sum goes by its runs of observed pixels (one run,
  * the whole row, when none is missing). */
 static double phi_of(const pp_sampler *s, const pcn_shared *sh, const double *ax, double scale,
                      double add, double lambda, double *ss)
@@ -243,10 +264,10 @@ static double phi_of(const pp_sampler *s, const pcn_shared *sh, const double *ax
             acc += e * e;
         }
     }
-    if (sh->gauss) {
-        *ss = acc;
-        acc *= 0.5 * lambda;
-    }
+    *ss = acc;
+    acc *= 0.5 * lambda;
+    if (s->cens)
+        acc += gauss_cens_phi(s, ax, scale, add, lambda);
     return isfinite(acc) ? acc : INFINITY;
 }
 
@@ -577,9 +598,14 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
         double mu = fmax(ax[i] + sh->shift, 1e-300);
         r[i] = 1.0 - sh->data[i] / mu;
     }
+    const double sl = sqrt(c->lambda);
     for (size_t i = 0; s->cens && i < s->gn; i++) { /* censored: d/dmu of -log P(Y >= a) */
         if (!s->cens[i])
             continue;
+        if (sh->gauss) { /* -log Q((level - mu) sl): slope -sl phi / Q */
+            r[i] = -sl * pp_normal_hazard((s->censor_level - ax[i]) * sl);
+            continue;
+        }
         double slope;
         pp_poisson_logtail(sh->cens_a, fmax(ax[i] + sh->shift, 1e-300), &slope);
         r[i] = -slope;
@@ -606,8 +632,8 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
 
 /* gpcn/hmc, burn-in only: moves the centre a towards the Gauss-Newton point
  * of the current state, u - (delta Q u + grad Phi) / P, with weight w.
- * Transforms: 3 (log) or 1 (none). For a Gaussian likelihood the point is
- * the exact posterior mean from any state. */
+ * Transforms: 3 (log) or 1 (none). For a Gaussian likelihood without
+ * censored pixels the point is the exact posterior mean from any state. */
 static void newton_centre(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k,
                           double w)
 {
@@ -773,6 +799,33 @@ static pp_hphot_view hp_view(pp_chain *c, pcn_chain *k, const hp_ctx *h)
 
 /* ---- chain ------------------------------------------------------------ */
 
+/* lambda (gaussian, sigma free) with censored pixels, whose likelihood
+ * Q((level - mu) sqrt(lambda)) is not conjugate to the Gamma prior: data
+ * augmentation (Tanner & Wong, JASA 82, 1987). The joint of (x, lambda)
+ * and latent data y_c ~ N(mu_c, 1/lambda) restricted to y_c >= level has
+ * the censored posterior as its marginal; drawing y_c | x, lambda
+ * (truncated normal, src/observed.h) and then lambda | x, y_o, y_c ~
+ * Gamma(a + (nobs + ncens)/2, b + (||A x - y||^2_obs + sum (y_c - mu_c)^2)/2)
+ * are two exact Gibbs steps of that joint, and y_c is dropped after: the
+ * pair leaves the posterior of (x, lambda) invariant. Phi is then
+ * recomputed at the new lambda (one pass over the grid). */
+static void lambda_censored(const pp_sampler *s, pp_chain *c, pcn_chain *k)
+{
+    const pp_sampler_config *cfg = &s->cfg;
+    const double sd = 1.0 / sqrt(c->lambda);
+    double ssc = 0;
+    for (size_t i = 0; i < s->gn; i++) {
+        if (!s->cens[i])
+            continue;
+        double e = pp_censored_draw(s, &c->rng, k->ax[i], sd) - k->ax[i];
+        ssc += e * e;
+    }
+    c->lambda = pp_rng_gamma(&c->rng,
+                             cfg->hyper_lambda[0] + 0.5 * ((double)s->nobs + (double)s->ncensored),
+                             cfg->hyper_lambda[1] + 0.5 * (k->ss + ssc));
+    k->phi = 0.5 * c->lambda * k->ss + gauss_cens_phi(s, k->ax, 1.0, 0.0, c->lambda);
+}
+
 static void clear_zm(pcn_chain *k)
 {
     k->zm.count = 0;
@@ -868,7 +921,9 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
             if (burn)
                 k->hp->lstep = adapt(k->hp->lstep, al, T_SCALAR, t, 1e300);
         }
-        if (!fix_l) {
+        if (!fix_l && s->cens) {
+            lambda_censored(s, c, k);
+        } else if (!fix_l) {
             c->lambda = pp_rng_gamma(&c->rng, cfg->hyper_lambda[0] + 0.5 * nobs,
                                      cfg->hyper_lambda[1] + 0.5 * k->ss);
             k->phi = 0.5 * c->lambda * k->ss;

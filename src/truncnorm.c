@@ -27,15 +27,28 @@ double pp_truncnorm_above(pp_rng *r, double m, double sd, double lo)
     return x < lo ? lo : x;
 }
 
+/* Q(a) phi(a)^-1 a = 1 - 1/a^2 + 3/a^4 - 15/a^6 + 105/a^8 ... (A & S
+ * 26.2.12): at a >= 30 the terms after the fifth are below 1e-14 of it. */
+static double mills_series(double a)
+{
+    double t = 1.0 / (a * a);
+    return 1.0 + t * (-1.0 + t * (3.0 + t * (-15.0 + t * (105.0 - 945.0 * t))));
+}
+
+#define LOG_SQRT_2PI 0.91893853320467274178
+
 double pp_normal_logsf(double a)
 {
     if (a < 0.0) /* Q near 1: log1p of minus the lower tail Phi(a) */
         return log1p(-0.5 * erfc(-a / sqrt(2.0)));
     if (a < 30.0)
         return log(0.5 * erfc(a / sqrt(2.0)));
-    /* Q(a) = phi(a)/a (1 - 1/a^2 + 3/a^4 - 15/a^6 + 105/a^8 ...): at a >= 30
-     * the terms after the fifth are below 1e-14 of the sum. */
-    double t = 1.0 / (a * a);
-    double s = 1.0 + t * (-1.0 + t * (3.0 + t * (-15.0 + t * (105.0 - 945.0 * t))));
-    return -0.5 * a * a - log(a) - 0.91893853320467274178 /* log sqrt(2 pi) */ + log(s);
+    return -0.5 * a * a - log(a) - LOG_SQRT_2PI + log(mills_series(a));
+}
+
+double pp_normal_hazard(double a)
+{
+    if (a >= 30.0) /* phi / Q = a / series: no cancellation of a^2 / 2 terms */
+        return a / mills_series(a);
+    return exp(-0.5 * a * a - LOG_SQRT_2PI - pp_normal_logsf(a));
 }

@@ -14,7 +14,9 @@
  * The log of the upper tail probability, log Q(a) = log(1 - Phi(a)), is
  * computed from erfc for a < 30 (as log1p(-Phi(a)) for a < 0) and from the asymptotic (Mills ratio)
  * series beyond (Abramowitz & Stegun 26.2.12), so it stays finite and
- * accurate to a few ulp far into the tail. Cost: O(1) per call. */
+ * accurate to a few ulp far into the tail; its slope gives the hazard
+ * phi(a)/Q(a) (pp_normal_hazard), used by the censored pixels of pcn, gpcn
+ * and hmc under gaussian noise. Cost: O(1) per call. */
 #ifndef PIXPOST_TRUNCNORM_H
 #define PIXPOST_TRUNCNORM_H
 
@@ -29,5 +31,10 @@ double pp_truncnorm_above(pp_rng *r, double m, double sd, double lo);
 
 /* log(1 - Phi(a)) for finite a (the log survival function of N(0, 1)). */
 double pp_normal_logsf(double a);
+
+/* The hazard phi(a) / (1 - Phi(a)) for finite a (the inverse Mills ratio),
+ * minus the slope d/da of pp_normal_logsf: from the log tail for a < 30
+ * (relative error ~1e-13 there), a over the Mills series beyond. */
+double pp_normal_hazard(double a);
 
 #endif

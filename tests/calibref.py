@@ -14,6 +14,12 @@ import numpy as np
 
 IMAGES = ["camera", "moon", "coins", "cell", "astronaut", "brick"]
 KINDS = ["gradient", "blobs"] + IMAGES
+# Unblurred (sharp) scenes: more of skimage.data's photographs and textures.
+# SHARP_DEV: the kinds the single-frame fit was developed on
+# (bench/calib_frame.py); SHARP_HELD: kinds kept back, looked at only once the
+# method was fixed (the README's held-back row).
+SHARP_DEV = KINDS + ["text", "grass", "gravel", "hubble_deep_field", "chelsea", "coffee"]
+SHARP_HELD = ["rocket", "clock", "page", "immunohistochemistry", "retina", "face"]
 
 
 def camera(x, K, O, R, rng):
@@ -33,10 +39,7 @@ def scene(kind, n, rng, lo, hi, blur=1.5):
             s = rng.uniform(0.03, 0.12)
             t += rng.uniform(0.2, 1) * np.exp(-((xx - cx) ** 2 + (yy - cy) ** 2) / (2 * s * s))
     else:
-        import skimage.data
-        img = getattr(skimage.data, kind)().astype(float)
-        if img.ndim == 3:
-            img = img.mean(axis=2)
+        img = photograph(kind)
         r0 = rng.integers(0, img.shape[0] - n + 1)
         c0 = rng.integers(0, img.shape[1] - n + 1)
         t = img[r0:r0 + n, c0:c0 + n]
@@ -45,6 +48,27 @@ def scene(kind, n, rng, lo, hi, blur=1.5):
     p1, p99 = np.percentile(t, [1, 99])
     t = np.clip((t - p1) / max(p99 - p1, 1e-12), 0, 1)
     return lo + (hi - lo) * t
+
+
+def photograph(kind):
+    """skimage.data's image of that name (scipy.misc's for "face"), grey,
+    as float; images smaller than 256 on a side mirrored out to 256."""
+    if kind == "face":
+        import warnings
+        import scipy.misc
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            img = scipy.misc.face()
+    else:
+        import skimage.data
+        img = getattr(skimage.data, kind)()
+    img = img.astype(float)
+    if img.ndim == 3:
+        img = img[..., :3].mean(axis=2)
+    short = [max(0, 256 - s) for s in img.shape]
+    if any(short):
+        img = np.pad(img, [(0, short[0]), (0, short[1])], mode="symmetric")
+    return img
 
 
 def draw_camera(rng):

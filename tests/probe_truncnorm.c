@@ -3,6 +3,7 @@
  *
  *   probe_truncnorm draw  SEED N A     (N draws of N(0,1) given >= A)
  *   probe_truncnorm logsf A [A ...]    (log(1 - Phi(A)) for each A)
+ *   probe_truncnorm hazard A [A ...]   (phi(A) / (1 - Phi(A)) for each A)
  */
 #include "truncnorm.h"
 #include <stdio.h>
@@ -25,6 +26,11 @@ int main(int argc, char **argv)
             printf("%.17g\n", pp_normal_logsf(strtod(argv[i], NULL)));
         return 0;
     }
-    fprintf(stderr, "usage: probe_truncnorm draw SEED N A | logsf A [A ...]\n");
+    if (argc >= 3 && strcmp(argv[1], "hazard") == 0) {
+        for (int i = 2; i < argc; i++)
+            printf("%.17g\n", pp_normal_hazard(strtod(argv[i], NULL)));
+        return 0;
+    }
+    fprintf(stderr, "usage: probe_truncnorm draw SEED N A | logsf A [A ...] | hazard A [A ...]\n");
     return 1;
 }

@@ -27,11 +27,12 @@ interval a +- 2.576 a_se, 2.576 the normal law's 99.5 % point, scipy.stats).
    error; the 20 silent frames are all fits that gave no gain: dim or
    low-contrast 128 x 128 crops of moon and cell, and dim ones of camera).
 3. Gain 2x wrong (alternately 2G and G/2): how often caught is printed, no
-   target (the rule needs more than 2x; measured 19 of 60).
+   target (the rule needs more than 2x; measured 17 of 60, 19 before the
+   fit's detail test).
 4. Sharp scenes (PSF sigma 0.3 px, next to no blur; the fit's known weakness
    is to overestimate the gain there): the false alarms are printed, no
-   target (measured 2 of 20, both fits 2.3x and 3.1x above the truth at a
-   peak of 1000 photons).
+   target (measured 0 of 20; 2 before the fit's detail test, fits 2.3x and
+   3.1x above the truth at a peak of 1000 photons).
 Fixed seeds: deterministic.
 """
 import json

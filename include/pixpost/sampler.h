@@ -239,8 +239,10 @@ typedef struct pp_sampler pp_sampler;
  * hmc add -log P(Y >= a | A x + b) to the negative log-likelihood and its
  * gradient (a the level in counts, (level - offset) / gain + read^2 for
  * the camera model's shifted counts; the regularised incomplete gamma,
- * src/poisson_tail.h). Not built: pcn, gpcn and hmc under gaussian noise
- * treat censored pixels as missing and add a note saying so.
+ * src/poisson_tail.h); under gaussian noise they add
+ * -log Q((censor_level - (A x)_i) sqrt(lambda)), Q = 1 - Phi, and, when
+ * lambda is sampled, draw the censored data from the truncated normal
+ * before lambda's Gamma step (data augmentation, exact).
  * Contract: cfg, frame, psf, out not NULL; cfg is copied, but what its
  * pointers point to is not: cfg->setting_names must outlive the sampler,
  * cfg->regions / profiles / spots must live until pp_sampler_run returns

@@ -152,9 +152,7 @@ static const cli_opt sample_table[] = {
      "level), and their count is reported."},
     {"saturated-missing", 0, 0, "",
      "Treat saturated pixels as missing (no information, like --mask) instead of censored "
-     "(at least the saturation level; censoring is built for gibbs and mtc under gaussian "
-     "noise and for every sampler under the photon models; pcn, gpcn and hmc under gaussian "
-     "noise treat them as missing anyway)."},
+     "(at least the saturation level; every sampler censors, under every noise model)."},
     {"wisdom", 0, 1, "FILE",
      "FFTW wisdom file used instead of the plan cache: loaded if present, saved after new "
      "plans were measured."},

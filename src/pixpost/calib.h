@@ -171,7 +171,10 @@ typedef struct pp_noise_fit {
  * block of true level mu. A block is smooth when a plane fits the means A
  * of its 8 neighbouring blocks within the noise (residual sum of squares
  * below the 99.5 % point of chi^2 with 5 degrees of freedom, the noise from
- * a first, robust fit). Smooth blocks are sorted by their neighbours' mean
+ * a first, robust fit) and the details D of the 48 blocks around it (7x7,
+ * the block left out) sum in squares below the 95 % point of chi^2 with 48
+ * degrees of freedom times the noise (texture and edges at the pixel
+ * scale); selection and fit alternate 3 times. Smooth blocks are sorted by their neighbours' mean
  * (not their own A, whose noise would flatten the slope) into equal-count
  * level sets; each gives (mean A, mean D^2); the line is fitted by
  * iteratively reweighted

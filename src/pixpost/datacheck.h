@@ -44,9 +44,10 @@
  *                 calibrate) (our rule). No word when the fit fails (frame
  *                 under 16x16, too few smooth patches), cannot separate
  *                 gain and offset (a < 3 se), or on a volume. The fit
- *                 overestimates the gain on sharp scenes (up to 4x, no
- *                 blur): hence the 2x margin; false alarms measured in
- *                 tests/ref_datacheck_gain.py.
+ *                 overestimates the gain on sharp scenes (unblurred
+ *                 photographs: median +12 %, worst about 2x; README,
+ *                 "Calibrating the camera"): hence the 2x margin; false
+ *                 alarms measured in tests/ref_datacheck_gain.py.
  * For every noise model:
  *   psf_size      the frame smaller than the PSF kernel in either
  *                 direction: an error (the kernel must fit; the same rule
