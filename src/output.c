@@ -218,13 +218,16 @@ static void json_mtc(FILE *f, const pp_result *r)
 static void json_adaptive(FILE *f, const pp_result *r)
 {
     const pp_solver_stats ss = r->solver;
-    fputs("  \"x_solver\": {\"method\": \"perturbation-optimisation, conjugate gradients "
-          "with a Fourier preconditioner scaled by the weights\", \"draws\": ",
+    fputs("  \"x_solver\": {\"method\": \"reversible-jump perturbation-optimisation (exact: "
+          "Metropolis-Hastings on a truncated solve), conjugate gradients with a Fourier "
+          "preconditioner scaled by the weights\", \"draws\": ",
           f);
-    fprintf(f, "%llu, \"cg_iterations_mean\": ", ss.draws);
+    fprintf(f, "%llu, \"acceptance\": ", ss.draws);
+    pp_json_write_number(f, ss.draws ? (double)ss.accepted / (double)ss.draws : NAN);
+    fputs(", \"cg_iterations_mean\": ", f);
     pp_json_write_number(f, ss.draws ? (double)ss.iterations / (double)ss.draws : NAN);
-    fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu},\n", ss.most,
-            ss.capped);
+    fprintf(f, ", \"cg_iterations_max\": %zu, \"capped_after_burn_in\": %llu, \"converged_solve_draws\": %llu},\n",
+            ss.most, ss.capped, ss.fallback);
     json_chain_moves(f, r); /* acceptance of the block log-precision moves */
 }
 

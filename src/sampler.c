@@ -653,7 +653,8 @@ static void start_chain(pp_sampler *s, unsigned k)
     pp_rng_seed(&c->rng, s->cfg.seed, 1000 + (uint64_t)k);
     c->lambda = s->lambda0 * (s->cfg.noise.sigma_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
     c->delta = s->delta0 * (s->cfg.prior.delta_set ? 1.0 : exp(pp_rng_normal(&c->rng)));
-    c->solver_draws = c->solver_iters = c->solver_capped = 0;
+    c->solver_draws = c->solver_iters = c->solver_capped = c->solver_accepted = 0;
+    c->solver_fallback = 0;
     c->solver_max = 0;
     if (c->yaug) {
         memcpy(c->yaug, s->ygrid, s->gn * sizeof(double));

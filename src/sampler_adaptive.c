@@ -5,14 +5,18 @@
  * src/adaptive.h).
  *
  * One iteration, given the weights W (which carry the global level) and λ:
- *   1. x | W, λ, y ~ N(P⁻¹λAᵀy, P⁻¹), P = λAᵀA + DᵀWD, by perturbation–
- *      optimisation with preconditioned CG warm-started at the previous x
- *      (src/po_solve.h; Orieux, Féron & Giovannelli, IEEE SPL 2012). Not
- *      Fourier-diagonal any more, so not exact: CG stops at ‖r‖ ≤ tol‖η‖,
- *      tol = 1e-6, which keeps a draw within about 1e-3 conditional sd of
- *      the exact draw with the same noise (bench/adaptive/NOTES.md §4;
- *      tests/ref_adaptive_dense.py repeats it). A draw that reaches the
- *      iteration cap is counted and warned about, never hidden.
+ *   1. x | W, λ, y ~ N(P⁻¹λAᵀy, P⁻¹), P = λAᵀA + DᵀWD, by one exact
+ *      Metropolis–Hastings move of reversible-jump perturbation–
+ *      optimisation (src/po_solve.h, pp_po_draw_rj; Orieux, Féron &
+ *      Giovannelli, IEEE SPL 2012 for the perturbation; Gilavert,
+ *      Moussaoui & Idier, IEEE TSP 2015 for the correction): preconditioned
+ *      CG on P G = z stopped at a loose error (PO_EPS), the proposal G − x
+ *      accepted with probability min(1, exp((G − 2x)ᵀ(z − PG))). Exact at
+ *      any tolerance: the solve's accuracy sets the acceptance (about 0.89
+ *      on the demo frame), not the target. CG cannot start at the previous
+ *      x (that would break the move's reversibility): it starts at twice
+ *      the Fourier operator's posterior mean. A draw that reaches the
+ *      iteration cap is still exact but counted and warned about.
  *   2. pad or missing pixels (NaN, src/observed.h): the latent pixels of the
  *      augmented frame redrawn from N(Ax, 1/λ) (data augmentation, as
  *      gibbs); then
@@ -24,9 +28,9 @@
  * mean in closed form: the variance is the draws' variance alone).
  * Trace: lambda, delta (= exp(mean s), the global level), loglik, kappa,
  * probes.
- * Cost per iteration: the CG draw (2 FFT pairs per CG iteration + 3) and
+ * Cost per iteration: the CG draw (2 FFT pairs per CG iteration + 6) and
  * one pair for A x, plus 2N Gamma and 3N normal draws.
- * Memory per thread: the solver (≈ 76 B/px, 84 B/voxel) + x, wh, wv (24
+ * Memory per thread: the solver (≈ 84 B/px, 92 B/voxel) + x, wh, wv (24
  * B/px; a volume adds wz, 8 B/voxel) on top of gibbs's buffers; shared:
  * the frame on the grid (periodic, 8 B/px).
  * Volumes: the block field-scale move (src/fieldscale.h) is built for
@@ -36,7 +40,6 @@
  */
 #include <math.h>
 #include <stdlib.h>
-#include <stdio.h>
 #include <string.h>
 #include "adaptive.h"
 #include "fieldscale.h"
@@ -47,8 +50,19 @@
 #include "sampler_internal.h"
 #include "pixpost/setting_extra.h"
 
-#define PO_TOL 1e-6
+#define PO_ALPHA 1.0 /* reversible-jump PO: no over-relaxation (x' independent of x) */
+/* The solve's stop: the last 10 CG steps lowered the error's squared P-norm
+ * by <= PO_EPS² (po_solve.h). Demo frame (bench/NOTES.md, 2026-12-04 RJPO):
+ * eps 0.1 / 0.3 / 1.0 gave 155 / 130 / 105 CG iterations per draw at
+ * acceptance 0.94 / 0.92 / 0.61; 0.3 needs the fewest per accepted move. */
+#define PO_EPS 0.3
 #define PO_CAP 2000
+/* The fallback when the move's log ratio is below its rounding (po_solve.c:
+ * weights spanning more decades than doubles resolve, as on a constant
+ * frame): a draw by CG run to ‖r‖ ≤ 1e-6‖η‖ from the current x, within
+ * 1.5e-4 conditional sd of the exact draw (tests/ref_po_dense.py) — the
+ * method before the reversible-jump move. */
+#define PO_TOL 1e-6
 
 typedef struct {
     pp_po *po;
@@ -280,11 +294,19 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     }
     for (unsigned long t = c->t; t < s->t_end; t++) {
         int keep = t >= s->keep_from && (t - s->keep_from + 1) % cfg->thin == 0;
-        pp_po_stats ps = {0, 0};
+        pp_po_stats ps = {0, 0, 0, 0, 0};
         pp_status st = range_check(c, t);
         if (st == PP_OK)
+            st = pp_po_draw_rj(k->po, c->otf, y, c->lambda, 1.0, k->wz, k->wh, k->wv, &c->rng,
+                               PO_ALPHA, PO_EPS, PO_CAP, k->x, &ps);
+        if (st == PP_OK && ps.unresolved) {
+            /* the move's ratio drowned in rounding: the converged draw (see above) */
+            size_t rj_iters = ps.iters;
             st = pp_po_draw(k->po, c->otf, y, c->lambda, 1.0, k->wz, k->wh, k->wv, &c->rng,
                             PO_TOL, PO_CAP, k->x, &ps);
+            ps.iters += rj_iters;
+            c->solver_fallback++;
+        }
         if (st == PP_ERR_INTERRUPTED)
             return pp_fail(st, "sampling stopped at the caller's request");
         if (st == PP_ERR_NUMERIC || st == PP_ERR_ARG) /* CG broke down: the same cause */
@@ -294,6 +316,7 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
         if (st != PP_OK && st != PP_ERR_LIMIT)
             return st;
         c->solver_draws++;
+        c->solver_accepted += (unsigned long long)ps.accepted;
         c->solver_iters += ps.iters;
         if (ps.iters > c->solver_max)
             c->solver_max = ps.iters;

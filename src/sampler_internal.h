@@ -79,7 +79,8 @@ typedef struct pp_chain {
     /* The adaptive prior's inner solver (gibbs: CG of the x-draws; 0 else):
      * draws made, CG iterations in total and at most, and kept-phase draws
      * that stopped at the iteration cap. */
-    unsigned long long solver_draws, solver_iters, solver_capped;
+    unsigned long long solver_draws, solver_iters, solver_capped, solver_accepted;
+    unsigned long long solver_fallback; /* adaptive x-draws made by the converged solve */
     size_t solver_max;
 } pp_chain;
 

@@ -127,12 +127,14 @@ int pp_sampler_tick(pp_sampler *s)
 
 void pp_sampler_solver_stats(const pp_sampler *s, pp_solver_stats *out)
 {
-    *out = (pp_solver_stats){0, 0, 0, 0};
+    *out = (pp_solver_stats){0, 0, 0, 0, 0, 0};
     for (unsigned k = 0; s->chain && k < s->cfg.chains; k++) {
         const pp_chain *c = &s->chain[k];
         out->draws += c->solver_draws;
         out->iterations += c->solver_iters;
         out->capped += c->solver_capped;
+        out->accepted += c->solver_accepted;
+        out->fallback += c->solver_fallback;
         out->most = c->solver_max > out->most ? c->solver_max : out->most;
     }
 }

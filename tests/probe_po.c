@@ -1,7 +1,11 @@
 /* Probe for tests/ref_po_dense.py: runs src/po_solve.c's pp_po_draw on a
  * problem written by Python and writes what the draws did.
  *
- *   probe_po IN OUT [D CZ CY CX]
+ *   probe_po [rj ALPHA] IN OUT [D CZ CY CX]
+ *
+ * With "rj ALPHA": pp_po_draw_rj with relaxation ALPHA and eps = the
+ * header's tol, the draws a Markov chain started at x0 (each move from the
+ * last state), and a fourth number per draw in OUT (1 when accepted).
  *
  * IN (float64, native order): H W lambda delta tol cap ndraw seed keep,
  * then y (H*W), otf (H*(W/2+1) complex as re, im pairs), wh (H*W),
@@ -35,8 +39,13 @@ static double *read_n(FILE *f, size_t n)
 
 int main(int argc, char **argv)
 {
+    int rj = argc >= 3 && strcmp(argv[1], "rj") == 0;
+    double ralpha = rj ? strtod(argv[2], NULL) : 0.0;
+    if (rj)
+        argc -= 2, argv += 2;
+    const size_t ni = rj ? 4 : 3;
     if (argc != 3 && argc != 7) {
-        fprintf(stderr, "usage: probe_po IN OUT [D CZ CY CX]\n");
+        fprintf(stderr, "usage: probe_po [rj ALPHA] IN OUT [D CZ CY CX]\n");
         return 1;
     }
     size_t dep = argc == 7 ? (size_t)strtoul(argv[3], NULL, 10) : 1;
@@ -60,7 +69,7 @@ int main(int argc, char **argv)
     }
     pp_complex *ot = malloc(nh * sizeof *ot);
     double *x = malloc(n * sizeof *x), *mean = calloc(n, sizeof *mean);
-    double *m2 = calloc(n, sizeof *m2), *info = malloc(3 * ndraw * sizeof *info);
+    double *m2 = calloc(n, sizeof *m2), *info = malloc(ni * ndraw * sizeof *info);
     double *all = keep ? malloc(ndraw * n * sizeof *all) : NULL;
     pp_po *po = NULL;
     if (!ot || !x || !mean || !m2 || !info || (keep && !all) ||
@@ -73,15 +82,24 @@ int main(int argc, char **argv)
         ot[k] = otf[2 * k] + I * otf[2 * k + 1];
     pp_rng rng;
     pp_rng_seed(&rng, (uint64_t)hd[7], 0);
+    memcpy(x, x0, n * sizeof *x);
     for (size_t d = 0; d < ndraw; d++) {
-        memcpy(x, x0, n * sizeof *x);
-        pp_po_stats st = {0, 0.0};
-        pp_status s = pp_po_draw(po, ot, y, hd[2], hd[3], wz, wh, wv, &rng, hd[4], cap, x, &st);
+        pp_po_stats st = {0, 0.0, 0, 0.0, 0};
+        pp_status s;
+        if (rj)
+            s = pp_po_draw_rj(po, ot, y, hd[2], hd[3], wz, wh, wv, &rng, ralpha, hd[4], cap, x,
+                              &st);
+        else {
+            memcpy(x, x0, n * sizeof *x);
+            s = pp_po_draw(po, ot, y, hd[2], hd[3], wz, wh, wv, &rng, hd[4], cap, x, &st);
+        }
         if (s != PP_OK && s != PP_ERR_LIMIT) {
             fprintf(stderr, "probe_po: draw %zu: %s\n", d, pp_error_message());
             return 1;
         }
-        info[3 * d] = (double)st.iters, info[3 * d + 1] = st.relres, info[3 * d + 2] = (double)s;
+        info[ni * d] = (double)st.iters, info[ni * d + 1] = st.relres, info[ni * d + 2] = (double)s;
+        if (rj)
+            info[ni * d + 3] = (double)st.accepted;
         for (size_t i = 0; i < n; i++) { /* Welford's running mean and M2 */
             double e = x[i] - mean[i];
             mean[i] += e / (double)(d + 1);
@@ -93,7 +111,7 @@ int main(int argc, char **argv)
     for (size_t i = 0; i < n; i++)
         m2[i] /= (double)(ndraw - 1);
     FILE *o = fopen(argv[2], "wb");
-    if (!o || fwrite(info, sizeof *info, 3 * ndraw, o) != 3 * ndraw ||
+    if (!o || fwrite(info, sizeof *info, ni * ndraw, o) != ni * ndraw ||
         fwrite(mean, sizeof *mean, n, o) != n || fwrite(m2, sizeof *m2, n, o) != n ||
         (keep && fwrite(all, sizeof *all, ndraw * n, o) != ndraw * n) || fclose(o) != 0) {
         fprintf(stderr, "probe_po: %s: cannot write\n", argv[2]);

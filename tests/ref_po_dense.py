@@ -28,6 +28,21 @@ Checks (fixed seeds):
    and 1.0-1.4e-4 at tol 1e-7, so the bounds asserted are 2e-3 at 1e-6 (the
    measured value plus a quarter, a regression guard) and the 1e-3 of
    NOTES.md at 1e-7 (ten times the measured value).
+4. Reversible-jump PO (pp_po_draw_rj, what the adaptive sampler runs): the
+   8x8 problem of check 1, chains of 20000 moves from x0 = 0 (the first
+   1000 dropped), at the sampler's eps 0.1 with alpha 1 and at a loose eps
+   (3.0) with alpha 1.5 and 1.0, where a third to a half of the moves are
+   rejected, so a wrong acceptance ratio would show (a numpy prototype of
+   the same move with the ratio's sign flipped was off by 16-60 standard
+   errors). Pixel means and variances (about the dense mean) against the
+   dense posterior, standard errors from 50 batch means (the chain is
+   autocorrelated: rejected moves repeat x): max |z| < 4.5 over the 64
+   means and over the 64 variances (with the batch-means t of 49 degrees
+   of freedom, P(|t| > 4.5) ~ 4e-5, times 128 ~ 5e-3). The acceptance at
+   eps 0.1 must be >= 0.85 (the header of po_solve.h: about 0.94 when the
+   energy estimate is right; a regression guard, measured here), and at
+   the loose eps below 0.8 (otherwise those chains would not test the
+   correction).
 """
 import os
 
@@ -65,18 +80,18 @@ def dense_ops(h, w, psf):
     return A, D, T[:, : w // 2 + 1]
 
 
-def run_probe(tag, h, w, lam, delta, tol, cap, ndraw, seed, keep, y, otf, wh, wv, x0):
+def run_probe(tag, h, w, lam, delta, tol, cap, ndraw, seed, keep, y, otf, wh, wv, x0, rj=None):
     d = pptest.tmpdir() if tag == "first" else os.environ.get("PP_TMP", "/tmp/pp_ref")
     fin, fout = os.path.join(d, tag + ".in"), os.path.join(d, tag + ".out")
     hd = np.array([h, w, lam, delta, tol, cap, ndraw, seed, keep], float)
     oz = np.stack([otf.real, otf.imag], -1).ravel()
     np.concatenate([hd, y.ravel(), oz, wh.ravel(), wv.ravel(), x0.ravel()]).tofile(fin)
-    pptest.probe("po", [fin, fout])
+    pptest.probe("po", (["rj", repr(rj)] if rj else []) + [fin, fout])
     out = np.fromfile(fout)
-    n = h * w
-    info = out[: 3 * ndraw].reshape(ndraw, 3)
-    mean, var = out[3 * ndraw: 3 * ndraw + n], out[3 * ndraw + n: 3 * ndraw + 2 * n]
-    draws = out[3 * ndraw + 2 * n:].reshape(-1, n) if keep else None
+    n, ni = h * w, 4 if rj else 3
+    info = out[: ni * ndraw].reshape(ndraw, ni)
+    mean, var = out[ni * ndraw: ni * ndraw + n], out[ni * ndraw + n: ni * ndraw + 2 * n]
+    draws = out[ni * ndraw + 2 * n:].reshape(-1, n) if keep else None
     return info, mean, var, draws
 
 
@@ -144,7 +159,44 @@ def main():
             pptest.check(dev.max() <= bound, "32x32 w 1e%d..1e%d: tol %g draws within %.2e "
                          "conditional sd of the tol 1e-12 draws (rms %.2e; bound %g)"
                          % (lo, hi, t, dev.max(), np.sqrt((dev ** 2).mean()), bound))
+    check_rj()
     pptest.done()
+
+
+def batch_z(x, target, nb=50):
+    """z of the chain's average of x (rows: draws) against target, per
+    column, standard error from nb batch means."""
+    m = x[: len(x) // nb * nb].reshape(nb, -1, x.shape[1]).mean(1)
+    return (m.mean(0) - target) / (m.std(0, ddof=1) / np.sqrt(nb))
+
+
+def check_rj():
+    h = w = 8
+    lam, delta, ndraw, burn = 1e4, 0.5, 20000, 1000
+    A, D, otf, y, wh, wv = problem(h, w, seed=15)
+    mu, C = dense_posterior(A, D, lam, delta, wh, wv, y)
+    x0 = np.zeros(h * w)
+    for eps, alpha, seed in ((0.1, 1.0, 21), (3.0, 1.5, 22), (3.0, 1.0, 23)):
+        info, _, _, dr = run_probe("rj", h, w, lam, delta, eps, 1000, ndraw, seed, 1, y, otf, wh,
+                                   wv, x0, rj=alpha)
+        it, acc = info[burn:, 0], info[burn:, 3].mean()
+        tag = "rj eps %g alpha %g" % (eps, alpha)
+        print("8x8 %s: CG iterations min %d median %d max %d, acceptance %.3f"
+              % (tag, it.min(), np.median(it), it.max(), acc))
+        pptest.check(np.all(info[:, 2] == PP_OK), "8x8 %s: every move returned PP_OK" % tag)
+        x = dr[burn:]
+        zm = batch_z(x, mu)
+        zv = batch_z((x - mu) ** 2, np.diag(C))
+        vr = ((x - mu) ** 2).mean(0) / np.diag(C)
+        pptest.check(np.abs(zm).max() < 4.5 and np.abs(zv).max() < 4.5,
+                     "8x8 %s: max |z| of the 64 means %.2f, of the 64 variances %.2f (< 4.5; "
+                     "variance ratios %.3f..%.3f)" % (tag, np.abs(zm).max(), np.abs(zv).max(),
+                                                      vr.min(), vr.max()))
+        if eps == 0.1:
+            pptest.check(acc >= 0.85, "8x8 %s: acceptance %.3f >= 0.85" % (tag, acc))
+        else:
+            pptest.check(acc < 0.8, "8x8 %s: acceptance %.3f < 0.8 (the ratio is doing work)"
+                         % (tag, acc))
 
 
 if __name__ == "__main__":

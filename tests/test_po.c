@@ -5,7 +5,13 @@
  * the mean (otf[0] = 0, which leaves the constant field without
  * precision) are refused with PP_ERR_ARG, a message naming the problem
  * and x untouched; a converged draw reports its iterations and a relative
- * residual within the tolerance; the same seed gives the same draw. */
+ * residual within the tolerance; the same seed gives the same draw.
+ * pp_po_draw_rj: relaxation 0 or 2 refused with x untouched; at a tight
+ * eps the move is accepted with a log ratio near 0 and x' = G − x is the
+ * exact over-relaxed draw (α = 1: the same as pp_po_draw's with the same
+ * noise, up to the solves' errors); at cap 1 it returns PP_ERR_LIMIT and
+ * x is either the old state (rejected) or G − x (accepted), never a
+ * half-updated field. */
 #include "po_solve.h"
 #include "testutil.h"
 #include <complex.h>
@@ -77,7 +83,7 @@ int main(void)
     refused(po, 1.0, 1.0, 1e-8, "otf[0]", "otf[0] = 0");
     otf[0] = dc;
     double a[N] = {0}, b[N] = {0};
-    pp_po_stats st = {0, -1.0}, st2 = {0, -1.0};
+    pp_po_stats st = {0, -1.0, 0, 0.0, 0}, st2 = {0, -1.0, 0, 0.0, 0};
     CHECK(draw(po, 100.0, 2.0, 1e-9, a, &st) == PP_OK, "a draw converges: %s", pp_error_message());
     CHECK(st.iters > 0 && st.iters <= N && st.relres >= 0 && st.relres <= 1e-9,
           "stats: %zu iterations (CG on N = %d unknowns), relres %g <= 1e-9", st.iters, N,
@@ -85,6 +91,40 @@ int main(void)
     CHECK(draw(po, 100.0, 2.0, 1e-9, b, &st2) == PP_OK && memcmp(a, b, sizeof a) == 0 &&
               st2.iters == st.iters,
           "same seed, same start: the same draw");
+    /* reversible-jump move */
+    double xr[N], x0[N];
+    for (size_t i = 0; i < N; i++)
+        xr[i] = x0[i] = 0.125;
+    pp_rng rng;
+    pp_rng_seed(&rng, 15, 0);
+    for (int bad = 0; bad < 2; bad++) {
+        pp_status s = pp_po_draw_rj(po, otf, y, 100.0, 2.0, NULL, wh, wv, &rng, bad ? 2.0 : 0.0,
+                                    0.1, 500, xr, NULL);
+        CHECK(s == PP_ERR_ARG && memcmp(xr, x0, sizeof xr) == 0 &&
+                  strstr(pp_error_message(), "relaxation") != NULL,
+              "rj: relaxation %g refused, x untouched (%s)", bad ? 2.0 : 0.0, pp_error_message());
+    }
+    pp_rng_seed(&rng, 15, 0);
+    pp_po_stats sr = {0, -1.0, -1, 1.0, -1};
+    CHECK(pp_po_draw_rj(po, otf, y, 100.0, 2.0, NULL, wh, wv, &rng, 1.0, 1e-9, 500, xr, &sr) ==
+              PP_OK,
+          "rj: a tight move converges: %s", pp_error_message());
+    double dmax = 0.0;
+    for (size_t i = 0; i < N; i++) /* same seed: the same ε as draw() above */
+        dmax = fmax(dmax, fabs(xr[i] - a[i]));
+    CHECK(sr.accepted == 1 && fabs(sr.logratio) < 1e-6 && dmax < 1e-6,
+          "rj at eps 1e-9: accepted (%d), log ratio %.2e, x' within %.2e of pp_po_draw's draw "
+          "with the same noise",
+          sr.accepted, sr.logratio, dmax);
+    for (size_t i = 0; i < N; i++)
+        x0[i] = xr[i];
+    CHECK(pp_po_draw_rj(po, otf, y, 100.0, 2.0, NULL, wh, wv, &rng, 1.0, 1e-9, 1, xr, &sr) ==
+              PP_ERR_LIMIT && sr.iters == 1,
+          "rj at cap 1: PP_ERR_LIMIT after 1 iteration (accepted %d, log ratio %.3g)",
+          sr.accepted, sr.logratio);
+    int same = memcmp(xr, x0, sizeof xr) == 0;
+    CHECK(sr.accepted ? !same : same, "rj at cap 1: x moved iff accepted (accepted %d)",
+          sr.accepted);
     pp_po_free(po);
     pp_po_free(NULL);
     return pp_test_done();

@@ -417,6 +417,9 @@ typedef struct pp_convergence {
 typedef struct pp_solver_stats {
     unsigned long long draws, iterations, capped;
     size_t most;
+    unsigned long long accepted; /* draws whose Metropolis-Hastings move was accepted */
+    unsigned long long fallback; /* draws whose move ratio was below its rounding, made by
+                                  * the converged solve instead (counted as accepted) */
 } pp_solver_stats;
 
 
