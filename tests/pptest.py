@@ -139,6 +139,28 @@ def blurred_frame(tmp, truth, psf_spec, sigma, rng):
     return psf, A, y
 
 
+def clipped_frame(tmp, rng, psf_spec="gaussian:sigma=1.0", sigma=1.0, clip=8):
+    """The 12 x 12 test frame of the censoring checks (ref_censor_exact,
+    ref_censor_gauss_pcn): a smooth scene with one bump, blurred_frame's
+    blur and noise, rounded to float32 and clipped at its clip-th largest
+    value, written to tmp/y.tif. Returns (psf, A, y, s, cens, path): y the
+    clipped frame as float64, s the clip level, cens the clipped pixels."""
+    import os
+    import numpy as np
+    import tifffile
+    yy, xx = np.mgrid[0:12, 0:12]
+    truth = (10 + 4 * np.sin(xx / 2.0) + 3 * np.cos(yy / 3.0)
+             + 8 * np.exp(-((yy - 6) ** 2 + (xx - 5) ** 2) / 4.0))
+    psf, A, y = blurred_frame(tmp, truth, psf_spec, sigma, rng)
+    y = y.astype(np.float32)
+    s = np.sort(y.ravel())[-clip]
+    y = np.minimum(y, s)
+    cens = y == s
+    path = os.path.join(tmp, "y.tif")
+    tifffile.imwrite(path, y)
+    return psf, A, y.astype(np.float64), float(s), cens, path
+
+
 def gmrf1_q(H, W):
     """Eigenvalues of the periodic 5-point Laplacian on an H x W grid (the
     gmrf1 precision up to delta; Rue & Held 2005), full spectrum:

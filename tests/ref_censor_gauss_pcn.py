@@ -59,18 +59,8 @@ import pptest
 tmp = pptest.tmpdir()
 rng = np.random.default_rng(17)
 H, W = 12, 12
-yy, xx = np.mgrid[0:H, 0:W]
-truth = 10 + 4 * np.sin(xx / 2.0) + 3 * np.cos(yy / 3.0) + 8 * np.exp(-((yy - 6) ** 2 + (xx - 5) ** 2) / 4.0)
 SIGMA, DELTA, PSF = 1.0, 0.5, "gaussian:sigma=1.0"
-psf, A_f, y = pptest.blurred_frame(tmp, truth, PSF, SIGMA, rng)
-y = y.astype(np.float32)
-s = np.sort(y.ravel())[-8]
-y = np.minimum(y, s)
-cens = y == s
-frame = os.path.join(tmp, "y.tif")
-tifffile.imwrite(frame, y)
-y = y.astype(np.float64)
-s = float(s)
+psf, A_f, y, s, cens, frame = pptest.clipped_frame(tmp, rng, PSF, SIGMA)
 NC = int(cens.sum())
 
 
