@@ -65,8 +65,10 @@
  * first burn / ADAPT_HOLD iterations W stays at the start's delta (the
  * gmrf1 prior): W drawn from the over-smooth start field made the padding
  * blocks' precisions climb to ~1e9 and the step fall to 1e-4 on the demo
- * frame (a trap of slow mixing, not of the model). Per thread: wh, wv
- * (16 bytes per grid pixel) and the blocks' state.
+ * frame (a trap of slow mixing, not of the model). On a volume D holds the
+ * z increments too, weighted c_z (src/adaptive.h; the reference's q is
+ * weighted alike), and the start's W is c_a delta. Per thread: wh, wv (wz
+ * on a volume: 16 or 24 bytes per grid voxel) and the blocks' state.
  * beta (hmc: eps) and the steps of 2-3 adapt during burn-in only
  * (Robbins-Monro on their logarithms towards acceptance 0.25 for the pCN
  * field moves, 0.65 for hmc, 0.44 for the scalars), and the weights of move
