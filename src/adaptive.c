@@ -131,6 +131,14 @@ pp_status pp_adapt_create(const pp_shape *grid, const pp_shape *frame, size_t bl
     return PP_OK;
 }
 
+void pp_adapt_axis_weights(size_t depth, const double voxel[3], double ca[3])
+{
+    for (int a = 0; a < 3; a++) {
+        double sa = voxel[a], sx = voxel[2];
+        ca[a] = depth > 1 && sa > 0 && sx > 0 ? (sx / sa) * (sx / sa) : 1.0;
+    }
+}
+
 void pp_adapt_free(pp_adapt *a)
 {
     if (!a)

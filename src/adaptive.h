@@ -74,6 +74,12 @@ pp_status pp_adapt_create(const pp_shape *grid, const pp_shape *frame,
                           pp_adapt **out);
 void pp_adapt_free(pp_adapt *a); /* accepts NULL */
 
+/* The axes' weight factors ca = {c_z, c_y, c_x} of a grid of the given
+ * depth with voxel spacings voxel = {z, y, x} (µm; 0: unknown): (spacing_x
+ * / spacing_a)², 1 where a spacing is not known and on a frame (depth 1),
+ * as pp_prior_eigen_shape weights the stationary priors' increments. */
+void pp_adapt_axis_weights(size_t depth, const double voxel[3], double ca[3]);
+
 /* Starts at s = log(delta) everywhere, κ = 2 (the prior's mean), and the
  * acceptance counters at zero. delta > 0. */
 void pp_adapt_start(pp_adapt *a, double delta);

@@ -145,15 +145,7 @@ static pp_status check_width(const pp_sampler_config *cfg)
  * refused here, saying what to use instead. */
 static pp_status check_volume(const pp_sampler_config *cfg)
 {
-    /* the adaptive prior on a volume: gibbs with gaussian noise (src/sampler_adaptive.c);
-     * hmc's photon-count kernel is built for frames */
-    if (cfg->prior.kind == PP_PRIOR_ADAPTIVE &&
-        (cfg->noise.kind != PP_NOISE_GAUSSIAN ||
-         (cfg->kind != PP_SAMPLER_AUTO && cfg->kind != PP_SAMPLER_GIBBS)))
-        return pp_fail(PP_ERR_ARG, "%s adaptive: on volumes available with "
-                                   "gaussian noise and the gibbs sampler only; use %s gmrf1 (or "
-                                   "gmrf2, matern)",
-                       NAME(PP_SET_PRIOR), NAME(PP_SET_PRIOR));
+    /* (the adaptive prior runs on volumes as on frames: gibbs, hmc; check_config) */
     if (cfg->psf.width_auto)
         return pp_fail(PP_ERR_ARG, "%s ...=auto: sampling the PSF width is not available for "
                                    "volumes; give the width (sigma=S, na=NA)",

@@ -103,18 +103,6 @@ static void release(pp_sampler *s)
     pp_squant_release_chains(s->chain, s->cfg.chains);
 }
 
-/* The axes' weight factors {z, y, x}: (spacing_x / spacing_a)², 1 where a
- * spacing is not known and on a frame (as pp_prior_eigen_shape weights the
- * stationary priors' increments; the sampler gives it cfg.voxel for
- * volumes only). */
-static void axis_weights(const pp_sampler *s, double ca[3])
-{
-    for (int a = 0; a < 3; a++) {
-        double sa = s->cfg.voxel[a], sx = s->cfg.voxel[2];
-        ca[a] = s->depth > 1 && sa > 0 && sx > 0 ? (sx / sa) * (sx / sa) : 1.0;
-    }
-}
-
 static pp_status prepare(pp_sampler *s)
 {
     if (s->gh < 2 || s->gw < 2)
@@ -127,7 +115,7 @@ static pp_status prepare(pp_sampler *s)
     pp_squant_law_init(&sh->law, s->cfg.level);
     pp_status st = pp_squant_plan_chains(s->chain, s->cfg.chains, s->npix);
     double ca[3];
-    axis_weights(s, ca);
+    pp_adapt_axis_weights(s->depth, s->cfg.voxel, ca);
     if (st != PP_OK)
         return st;
     if (!s->augment) {

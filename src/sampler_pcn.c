@@ -65,8 +65,10 @@
  * first burn / ADAPT_HOLD iterations W stays at the start's delta (the
  * gmrf1 prior): W drawn from the over-smooth start field made the padding
  * blocks' precisions climb to ~1e9 and the step fall to 1e-4 on the demo
- * frame (a trap of slow mixing, not of the model). Per thread: wh, wv
- * (16 bytes per grid pixel) and the blocks' state.
+ * frame (a trap of slow mixing, not of the model). On a volume D holds the
+ * z increments too, weighted c_z (src/adaptive.h; the reference's q is
+ * weighted alike), and the start's W is c_a delta. Per thread: wh, wv (wz
+ * on a volume: 16 or 24 bytes per grid voxel) and the blocks' state.
  * beta (hmc: eps) and the steps of 2-3 adapt during burn-in only
  * (Robbins-Monro on their logarithms towards acceptance 0.25 for the pCN
  * field moves, 0.65 for hmc, 0.44 for the scalars), and the weights of move
@@ -146,6 +148,7 @@
 typedef struct pcn_shared {
     int gpcn, hmc, logx, gauss, free_dc;
     int adaptive;    /* hmc with --prior adaptive (see "adaptive prior" above) */
+    double ca[3];    /* adaptive prior: the axes' weight factors {z, y, x} (src/adaptive.h) */
     double *data;    /* grid: photons (+R^2, clamped at 0) or y (gaussian) */
     double shift;    /* b + R^2 added to A x (photon models) */
     double lgam;     /* -sum lgamma(n + 1) over observed pixels (photon) */
@@ -172,6 +175,7 @@ typedef struct pcn_chain {
     unsigned long acc;
     pp_adapt *ad;     /* adaptive prior: its local precisions (src/adaptive.h) */
     double *wh, *wv;  /* adaptive prior: the weights W on the grid's increments */
+    double *wz;       /* adaptive prior on a volume: the z increments' weights, else NULL */
     pp_hphot *hp;     /* photon models, stationary prior: src/hyper_photon.h, else NULL */
 } pcn_chain;
 
@@ -532,15 +536,15 @@ static double adapt_level_move(const pp_sampler *s, const pcn_shared *sh, pp_cha
     double ljac = scale_u(s, sh, k, fi, ls, NULL, NULL);
     field_of(s, sh, c, k->up, k->m, k->zp, k->xp, k->axp);
     double ssn = 0, phin = phi_of(s, sh, k->axp, 1.0, 0.0, c->lambda, &ssn);
-    double quad = pp_incr_quad(1, s->gh, s->gw, NULL, k->wh, k->wv, k->z);
-    double quadn = pp_incr_quad(1, s->gh, s->gw, NULL, k->wh, k->wv, k->zp);
+    double quad = pp_incr_quad(s->gd, s->gh, s->gw, k->wz, k->wh, k->wv, k->z);
+    double quadn = pp_incr_quad(s->gd, s->gh, s->gw, k->wz, k->wh, k->wv, k->zp);
     double loga = k->phi - phin + 0.5 * (double)s->gn * dl - 0.5 * (exp(dl) * quadn - quad) + ljac +
                   pp_adapt_level_dlogp(k->ad, dl);
     double alpha = loga >= 0 ? 1.0 : exp(loga);
     if (!isfinite(phin) || !(pp_rng_uniform(&c->rng) < alpha))
         return isfinite(phin) && isfinite(loga) ? alpha : 0.0;
     take_proposal(k, phin, ssn);
-    pp_adapt_shift(k->ad, dl, NULL, k->wh, k->wv);
+    pp_adapt_shift(k->ad, dl, k->wz, k->wh, k->wv);
     c->delta = ref_delta(k);
     return alpha;
 }
@@ -550,7 +554,7 @@ static double adapt_level_move(const pp_sampler *s, const pcn_shared *sh, pp_cha
 static void adapt_weights(const pp_sampler *s, pp_chain *c, pcn_chain *k)
 {
     (void)s;
-    pp_adapt_update(k->ad, k->z, NULL, k->wh, k->wv, &c->rng);
+    pp_adapt_update(k->ad, k->z, k->wz, k->wh, k->wv, &c->rng);
     c->delta = ref_delta(k);
 }
 
@@ -620,10 +624,10 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
         for (size_t i = 0; i < s->gn; i++)
             r[i] *= x[i];
         if (sh->adaptive)
-            pp_incr_apply_add(1, s->gh, s->gw, NULL, k->wh, k->wv, z, r);
+            pp_incr_apply_add(s->gd, s->gh, s->gw, k->wz, k->wh, k->wv, z, r);
         pp_fft_forward(s->fft, r, out);
     } else if (sh->adaptive) {
-        pp_incr_apply(1, s->gh, s->gw, NULL, k->wh, k->wv, z, r);
+        pp_incr_apply(s->gd, s->gh, s->gw, k->wz, k->wh, k->wv, z, r);
         pp_fft_forward(s->fft, r, c->cbuf);
         for (size_t i = 0; i < s->gm; i++)
             out[i] += c->cbuf[i];
@@ -683,7 +687,7 @@ static double hmc_quad(const pp_sampler *s, const pcn_shared *sh, const pp_chain
                        const pcn_chain *k, const pp_complex *u, const double *z,
                        const pp_complex *v)
 {
-    double prior = sh->adaptive ? pp_incr_quad(1, s->gh, s->gw, NULL, k->wh, k->wv, z)
+    double prior = sh->adaptive ? pp_incr_quad(s->gd, s->gh, s->gw, k->wz, k->wh, k->wv, z)
                                 : half_form(s, sh, u, c->delta, 0.0);
     return prior + half_form(s, sh, v, c->delta, fisher_of(sh, c));
 }
@@ -848,10 +852,14 @@ static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k
     memcpy(k->ctr, k->u, s->gm * sizeof(pp_complex));
     field_of(s, sh, c, k->u, k->m, k->z, k->x, k->ax);
     k->phi = phi_of(s, sh, k->ax, 1.0, 0.0, c->lambda, &k->ss);
-    if (sh->adaptive) { /* s = log delta and τ = 1: W = delta, the gmrf1 prior (see ADAPT_HOLD) */
+    if (sh->adaptive) { /* s = log delta and τ = 1: W = c_a delta, the gmrf1 prior (see ADAPT_HOLD) */
         pp_adapt_start(k->ad, c->delta);
-        for (size_t i = 0; i < s->gn; i++)
-            k->wh[i] = k->wv[i] = c->delta;
+        for (size_t i = 0; i < s->gn; i++) {
+            k->wh[i] = sh->ca[2] * c->delta;
+            k->wv[i] = sh->ca[1] * c->delta;
+            if (k->wz)
+                k->wz[i] = sh->ca[0] * c->delta;
+        }
     }
     if (sh->gpcn)
         newton_centre(s, sh, c, k, 1.0);
@@ -1073,6 +1081,7 @@ static void pcn_free_work(void *work)
     pp_hphot_free(k->hp);
     pp_fft_free_buffer(k->wh);
     pp_fft_free_buffer(k->wv);
+    pp_fft_free_buffer(k->wz);
     free(k);
 }
 
@@ -1101,13 +1110,14 @@ static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
         pp_hphot_create(s->gn, s->gm, &k->hp) != PP_OK)
         return fail_nomem();
     if (sh->adaptive) {
-        /* frames only (sampler.c refuses the adaptive prior with hmc on a volume) */
-        pp_status st = pp_adapt_create(&s->gshape, &s->fshape, s->cfg.prior.block, NULL,
+        pp_status st = pp_adapt_create(&s->gshape, &s->fshape, s->cfg.prior.block, sh->ca,
                                        s->cfg.prior.nu, s->cfg.hyper_delta, &k->ad);
         if (st != PP_OK)
             return st;
         k->wh = pp_fft_alloc_real(s->gn);
         k->wv = pp_fft_alloc_real(s->gn);
+        if (s->gd > 1 && !(k->wz = pp_fft_alloc_real(s->gn)))
+            return fail_nomem();
         if (!k->wh || !k->wv)
             return fail_nomem();
     }
@@ -1136,6 +1146,7 @@ static pp_status prepare_common(pp_sampler *s, int gpcn, int hmc)
     sh->free_dc = s->q[0] == 0.0;
     pp_squant_law_init(&sh->law, cfg->level);
     sh->adaptive = cfg->prior.kind == PP_PRIOR_ADAPTIVE; /* hmc only (sampler.c checks) */
+    pp_adapt_axis_weights(s->depth, cfg->voxel, sh->ca);
     if (sh->adaptive && (s->gh < 2 || s->gw < 2))
         return pp_fail(PP_ERR_ARG, "%s adaptive: the frame must be at least 2 x 2 pixels",
                        pp_setting_name(cfg->setting_names, PP_SET_PRIOR));
@@ -1236,6 +1247,8 @@ static size_t pcn_state(const pp_sampler *s, void *kwork, pp_region *out)
     if (sh->adaptive) {
         out[n++] = (pp_region){k->wh, g};
         out[n++] = (pp_region){k->wv, g};
+        if (k->wz)
+            out[n++] = (pp_region){k->wz, g};
         n += pp_adapt_state(k->ad, out + n);
     }
     if (k->hp)

@@ -182,14 +182,23 @@ pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "-o", path("expl")] + Q[:-
 pptest.check(np.array_equal(tifffile.imread(path("dflt", "mean.tif")),
                             tifffile.imread(path("expl", "mean.tif"))),
              "the volume's default equals --prior adaptive (same seed)")
-# with photon counts an explicit --prior adaptive is the library's refusal
-# (hmc's adaptive kernel is for frames), one line naming the file
+# with photon counts an explicit --prior adaptive runs hmc on the volume
+# (src/sampler_pcn.c on the rank-3 grid); pcn with it is the library's
+# refusal, one line naming the file
+pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "-o", path("phot")] + Q[:-4]
+           + ["--noise", "poisson:gain=1,offset=0", "--prior", "adaptive"])
+ph = summary("phot")
+pptest.check(ph["sampler"] == "hmc" and ph["prior"].startswith("adaptive") and
+             tifffile.imread(path("phot", "mean.tif")).shape == (4, 20, 22),
+             "a photon-count volume with --prior adaptive runs hmc (summary %s, %s)"
+             % (ph["sampler"], ph["prior"]))
 p = pptest.run(["sample", path("z.ome.tif"), "--psf", G3, "-o", path("lib")] + Q[:-4]
-               + ["--noise", "poisson:gain=1,offset=0", "--prior", "adaptive"], check=False)
+               + ["--noise", "poisson:gain=1,offset=0", "--prior", "adaptive", "--sampler", "pcn"],
+               check=False)
 err = p.stderr.strip()
 pptest.check(p.returncode == 1 and err.count("\n") == 0 and "z.ome.tif" in err and "adaptive" in err
-             and "volume" in err and not os.path.exists(path("lib")),
-             "the library's refusal of --prior adaptive for photon-count volumes: one line naming "
+             and "gmrf1" in err and not os.path.exists(path("lib")),
+             "the library's refusal of --prior adaptive with pcn on a volume: one line naming "
              "the file (%s)" % err)
 
 pptest.check(all(open(path(f), "rb").read() == b for f, b in inputs.items()), "inputs unchanged")

@@ -64,7 +64,7 @@ static void refusals(void)
     CHECK(v && f && k3 && k1, "images");
     pp_sampler_config cfg;
 
-    /* the default prior, adaptive, runs on volumes with gaussian noise */
+    /* the default prior under gaussian noise, adaptive, runs on volumes (gibbs) */
     pp_sampler_defaults(&cfg);
     cfg.iters_auto = 0, cfg.chains = 1, cfg.burn = 2, cfg.iters = 4;
     {
@@ -76,11 +76,30 @@ static void refusals(void)
         pp_sampler_free(s);
     }
 
-    pp_sampler_defaults(&cfg); /* not with hmc (photon counts: its kernel is for frames) */
-    cfg.kind = PP_SAMPLER_HMC;
-    refused("adaptive prior, hmc", &cfg, v, k3, PP_ERR_ARG,
-            (const char *[]){"adaptive", "gaussian noise and the gibbs sampler only", "gmrf1",
-                             NULL});
+    /* and with hmc, under photon counts (the default sampler there) and gaussian noise */
+    for (int i = 0; i < 2; i++) {
+        pp_sampler_defaults(&cfg);
+        cfg.iters_auto = 0, cfg.chains = 1, cfg.burn = 2, cfg.iters = 4;
+        if (i == 0) /* (the photon models' default prior is matern) */
+            CHECK(pp_noise_parse("poisson:gain=1,offset=0", NULL, &cfg.noise) == PP_OK &&
+                      pp_prior_parse("adaptive", NULL, &cfg.prior) == PP_OK,
+                  "parse poisson, adaptive");
+        else
+            cfg.kind = PP_SAMPLER_HMC;
+        pp_sampler *s = NULL;
+        CHECK(pp_sampler_create(&cfg, v, k3, &s) == PP_OK &&
+                  pp_sampler_config_used(s)->kind == PP_SAMPLER_HMC &&
+                  pp_sampler_config_used(s)->prior.kind == PP_PRIOR_ADAPTIVE &&
+                  pp_sampler_run(s) == PP_OK && pp_sampler_mean(s)->depth == 5,
+              "the adaptive prior (hmc, %s) on a volume: %s", i ? "gaussian" : "poisson",
+              pp_error_message());
+        pp_sampler_free(s);
+    }
+
+    pp_sampler_defaults(&cfg); /* not with pcn (as on a frame) */
+    cfg.kind = PP_SAMPLER_PCN;
+    refused("adaptive prior, pcn", &cfg, v, k3, PP_ERR_ARG,
+            (const char *[]){"adaptive", "gibbs", "hmc", "gmrf1", NULL});
 
     /* pcn, gpcn and hmc run on volumes */
     const pp_sampler_kind pcn[] = {PP_SAMPLER_PCN, PP_SAMPLER_GPCN, PP_SAMPLER_HMC};
@@ -108,10 +127,10 @@ static void refusals(void)
     const char *names[PP_SET_COUNT] = {0};
     names[PP_SET_PRIOR] = "PRIOR-SETTING";
     pp_sampler_defaults(&cfg);
-    cfg.kind = PP_SAMPLER_HMC;
+    cfg.kind = PP_SAMPLER_PCN;
     cfg.setting_names = names;
     refused("named settings", &cfg, v, k3, PP_ERR_ARG,
-            (const char *[]){"PRIOR-SETTING adaptive", "use PRIOR-SETTING gmrf1", NULL});
+            (const char *[]){"adaptive prior", "add PRIOR-SETTING gmrf1", NULL});
 
     /* PSF shapes */
     stationary(&cfg);
