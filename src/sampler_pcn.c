@@ -52,6 +52,12 @@
  * after move 3 its level move (z + dm h, h where the data do not reach; 2
  * transforms). Their references are set from the mean field of the second
  * quarter of burn-in, then frozen.
+ * With a padding (--boundary pad, frames), after those: src/padmove.c's
+ * refresh of the padding beyond PM_DMIN pixels from its exact prior
+ * conditional given the rest (Crank-Nicolson, step adapted to T_FIELD,
+ * accepted on the likelihood ratio; the level moves with it; about 30
+ * conjugate-gradient iterations of 4 transforms, 2x an hmc iteration's CPU
+ * on the demo frame).
  * Adaptive prior (--prior adaptive, hmc only; src/adaptive.h): the prior
  * part of the target is z'Dᵀ W D z / 2 (D ignores the level m) instead of
  * |u|^2_dQ / 2. hmc keeps its Fourier-diagonal reference with delta = the
@@ -124,6 +130,7 @@
 #include <string.h>
 #include "adaptive.h"
 #include "hyper_photon.h"
+#include "padmove.h"
 #include "incr.h"
 #include "internal.h"
 #include "observed.h"
@@ -142,6 +149,16 @@
 #define T_SCALAR 0.44 /* target of the 1-D random walks (Roberts & Rosenthal 2001) */
 #define GPCN_MIN_BURN 200 /* burn-in below which gpcn's adaptation is warned about */
 #define LOW_ACCEPT 0.05   /* field-move acceptance below which a chain is warned about */
+/* src/padmove.c's conditional refresh of the padding (photon frames with
+ * --boundary pad and a free level; 1, the default; 0 builds the sampler
+ * without it, for before/after measurements) */
+#ifndef PIXPOST_PADMOVE
+#define PIXPOST_PADMOVE 1
+#endif
+/* its block: the padding at least PM_DMIN pixels from the frame (the demo
+ * frame, Airy PSF of ~3.5 px to the first zero: level tau 26 at 3, 54 at
+ * 6; 1 or 2 not tried; bench/NOTES.md, 2026-12-05) */
+#define PM_DMIN 3
 #define ADAPT_HOLD 4      /* adaptive prior: W held at the start's delta for burn / ADAPT_HOLD */
 
 /* Shared, read-only during the run. */
@@ -177,6 +194,8 @@ typedef struct pcn_chain {
     double *wh, *wv;  /* adaptive prior: the weights W on the grid's increments */
     double *wz;       /* adaptive prior on a volume: the z increments' weights, else NULL */
     pp_hphot *hp;     /* photon models, stationary prior: src/hyper_photon.h, else NULL */
+    pp_padmove *pm;   /* frames with padding, same models: src/padmove.h, else NULL */
+    double pstep;     /* its step sqrt(1 - rho^2) */
 } pcn_chain;
 
 /* What outlives a chain's run (its c->kstate): the quantile estimates, a
@@ -871,6 +890,7 @@ static void start(pp_sampler *s, const pcn_shared *sh, pp_chain *c, pcn_chain *k
         k->hp->dstep = 0.02;
         k->hp->lstep = 0.01;
     }
+    k->pstep = 0.3;
     k->beta = sh->gpcn ? 0.5 : 0.1;
     k->gvalid = 0;
     k->dref = c->delta;
@@ -928,6 +948,14 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
             double al = pp_hphot_level_move(s, c, k->hp, &hv);
             if (burn)
                 k->hp->lstep = adapt(k->hp->lstep, al, T_SCALAR, t, 1e300);
+        }
+        if (k->pm && sh->free_dc) {
+            const double *z_was = k->z; /* swapped on acceptance */
+            double ap = pp_padmove_step(s, c, k->pm, &hv, sqrt(1.0 - k->pstep * k->pstep));
+            if (burn)
+                k->pstep = adapt(k->pstep, ap, T_FIELD, t, 1.0);
+            if (k->z != z_was)
+                k->gvalid = 0;
         }
         if (!fix_l && s->cens) {
             lambda_censored(s, c, k);
@@ -1079,6 +1107,7 @@ static void pcn_free_work(void *work)
     pp_moments_free(&k->zm);
     pp_adapt_free(k->ad);
     pp_hphot_free(k->hp);
+    pp_padmove_free(k->pm);
     pp_fft_free_buffer(k->wh);
     pp_fft_free_buffer(k->wv);
     pp_fft_free_buffer(k->wz);
@@ -1108,6 +1137,9 @@ static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
         return fail_nomem();
     if (!sh->gauss && sh->logx && !sh->adaptive &&
         pp_hphot_create(s->gn, s->gm, &k->hp) != PP_OK)
+        return fail_nomem();
+    if (PIXPOST_PADMOVE && k->hp && s->depth == 1 && s->gn > s->npix &&
+        pp_padmove_create(s, PM_DMIN, &k->pm) != PP_OK)
         return fail_nomem();
     if (sh->adaptive) {
         pp_status st = pp_adapt_create(&s->gshape, &s->fshape, s->cfg.prior.block, sh->ca,
@@ -1244,6 +1276,7 @@ static size_t pcn_state(const pp_sampler *s, void *kwork, pp_region *out)
     out[n++] = (pp_region){&k->ss, sizeof k->ss};
     out[n++] = (pp_region){&k->dref, sizeof k->dref};
     out[n++] = (pp_region){&k->acc, sizeof k->acc};
+    out[n++] = (pp_region){&k->pstep, sizeof k->pstep};
     if (sh->adaptive) {
         out[n++] = (pp_region){k->wh, g};
         out[n++] = (pp_region){k->wv, g};
