@@ -174,9 +174,13 @@ static int same_outputs(const char *dir, const char *ref)
             snprintf(pb, sizeof pb, "%s/%s", ref, a[i]) >= (int)sizeof pb)
             return 0;
         FILE *fa = fopen(pa, "rb"), *fb = fopen(pb, "rb");
-        int same = fa && fb, ca, cb;
-        while (same && ((ca = getc(fa)) != EOF) | ((cb = getc(fb)) != EOF))
+        int same = fa && fb;
+        while (same) { /* both files read to the end: equal bytes, equal lengths */
+            int ca = getc(fa), cb = getc(fb);
             same = ca == cb;
+            if (ca == EOF)
+                break;
+        }
         if (fa)
             fclose(fa);
         if (fb)
