@@ -235,6 +235,31 @@ def geyer_ess(x, monotone=True):
     return n / max(tau, 1e-9)
 
 
+def dense_blur3(psf, shape):
+    """Dense A of the periodic 3-D blur by psf on a grid of this shape
+    (numpy.fft.fftn of centred_kernel), voxels row-major."""
+    import numpy as np
+    n = int(np.prod(shape))
+    T = np.fft.fftn(centred_kernel(psf, shape))
+    eye = np.eye(n).reshape((n,) + tuple(shape))
+    A = np.real(np.fft.ifftn(T[None] * np.fft.fftn(eye, axes=(1, 2, 3)), axes=(1, 2, 3)))
+    return A.reshape(n, n).T
+
+
+def chain_summary(s1, s2, v1, m):
+    """Pixel mean, sd and the mean's standard error over independent chains
+    (the between-chain spread of the chain means), from per-chain sums s1,
+    s2 of x and x^2 over m kept draws; and the mean and standard error of a
+    scalar whose per-chain sums are v1."""
+    cm = s1 / m
+    mean = cm.mean(axis=0)
+    chains = s1.shape[0]
+    sd = (s2.sum(axis=0) / (m * chains) - mean ** 2) ** 0.5
+    se = cm.std(axis=0, ddof=1) / chains ** 0.5
+    vm = v1 / m
+    return mean, sd, se, vm.mean(), vm.std(ddof=1) / chains ** 0.5
+
+
 def dense_periodic(psf, gh, gw):
     """Dense operators on a gh x gw periodic grid (row-major index
     r * gw + c), built entry by entry (no FFT, so independent of pixpost's

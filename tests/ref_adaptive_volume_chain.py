@@ -72,16 +72,6 @@ truth[1:3, 1:4, 2:5] = 10.0
 truth[3, 4, 0] = 20.0
 
 
-def dense_blur3(shape):
-    """Dense A on a periodic grid of this shape (numpy.fft.fftn of the
-    centred kernel), voxels row-major."""
-    n = int(np.prod(shape))
-    T = np.fft.fftn(pptest.centred_kernel(psf, shape))
-    eye = np.eye(n).reshape((n,) + shape)
-    A = np.real(np.fft.ifftn(T[None] * np.fft.fftn(eye, axes=(1, 2, 3)), axes=(1, 2, 3)))
-    return A.reshape(n, n).T
-
-
 def pixpost_run(boundary, y):
     fp, pp = os.path.join(tmp, boundary + ".f64"), os.path.join(tmp, "psf.f64")
     y.astype("<f8").tofile(fp)
@@ -114,14 +104,14 @@ def compare(boundary, seed):
     else:  # pad: the frame blurred from a zero-filled surround, as pixpost models it
         big = np.zeros((D + 2, H + 2, W + 2))
         big[1:-1, 1:-1, 1:-1] = truth
-        Ab = dense_blur3(big.shape)
+        Ab = pptest.dense_blur3(psf, big.shape)
         y = (Ab @ big.ravel()).reshape(big.shape)[1:-1, 1:-1, 1:-1].ravel()
         y = y + rng.standard_normal(N)
     stdout, grid, pmean, psd, pmcse, head, tr = pixpost_run(boundary, y)
     pptest.check("kind gibbs" in stdout and (grid == (D, H, W)) == (boundary == "periodic"),
                  "%s: pixpost ran gibbs on the grid %s" % (boundary, "x".join(map(str, grid))))
     gd, gh, gw = grid
-    A = A0 if boundary == "periodic" else dense_blur3(grid)
+    A = A0 if boundary == "periodic" else pptest.dense_blur3(psf, grid)
     obs = np.array([(k * gh + i) * gw + j for k in range(D) for i in range(H) for j in range(W)])
     hyp, xs = adaptref.gibbs_chain(grid, BLOCK, (D, H, W), A[obs], y, obs, seed, NP_BURN,
                                    NP_ITERS, bz=BZ, ca=CA)
@@ -154,7 +144,7 @@ def compare(boundary, seed):
                  % (boundary, ess.min(), ess2.min(), ratio))
 
 
-A0 = dense_blur3((D, H, W))
+A0 = pptest.dense_blur3(psf, (D, H, W))
 compare("periodic", 77)
 compare("pad", 78)
 pptest.done()

@@ -174,13 +174,7 @@ def reference_delta(chains=2000, iters=600, burn=100):
             s1 += x
             s2 += x ** 2
             d1 += delta
-    m = iters - burn
-    cm = s1 / m
-    mean = cm.mean(axis=0)
-    sd = np.sqrt(s2.sum(axis=0) / (m * chains) - mean ** 2)
-    se = cm.std(axis=0, ddof=1) / np.sqrt(chains)
-    dm = d1 / m
-    return mean, sd, se, dm.mean(), dm.std(ddof=1) / np.sqrt(chains)
+    return pptest.chain_summary(s1, s2, d1, iters - burn)
 
 
 out = os.path.join(tmp, "delta")

@@ -93,13 +93,7 @@ def reference(lam_free, seed, chains=1000, iters=300, burn=60):
             s1 += x
             s2 += x ** 2
             l1 += lam
-    m = iters - burn
-    cm = s1 / m
-    mean = cm.mean(axis=0)
-    sdv = np.sqrt(s2.sum(axis=0) / (m * chains) - mean ** 2)
-    se = cm.std(axis=0, ddof=1) / np.sqrt(chains)
-    lm = l1 / m
-    return mean, sdv, se, lm.mean(), lm.std(ddof=1) / np.sqrt(chains)
+    return pptest.chain_summary(s1, s2, l1, iters - burn)
 
 
 def run(name, extra, noise):

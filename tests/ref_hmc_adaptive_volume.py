@@ -113,16 +113,6 @@ truth[1:3, 1:4, 2:5] = 500.0
 truth[3, 4, 0] = 1500.0
 
 
-def dense_blur3(shape):
-    """Dense A on a periodic grid of this shape (numpy.fft.fftn of the
-    centred kernel), voxels row-major."""
-    n = int(np.prod(shape))
-    T = np.fft.fftn(pptest.centred_kernel(psf, shape))
-    eye = np.eye(n).reshape((n,) + shape)
-    A = np.real(np.fft.ifftn(T[None] * np.fft.fftn(eye, axes=(1, 2, 3)), axes=(1, 2, 3)))
-    return A.reshape(n, n).T
-
-
 def pixpost_run(boundary, counts):
     fp, pp = os.path.join(tmp, boundary + ".f64"), os.path.join(tmp, "psf.f64")
     counts.astype("<f8").tofile(fp)
@@ -266,7 +256,7 @@ def check_boundary(boundary, seed):
     else:  # pad: the frame blurred from a surround at the background level
         big = np.full((D + 2, H + 2, W + 2), 100.0)
         big[1:-1, 1:-1, 1:-1] = truth
-        Ab = dense_blur3(big.shape)
+        Ab = pptest.dense_blur3(psf, big.shape)
         mu = (Ab @ big.ravel()).reshape(big.shape)[1:-1, 1:-1, 1:-1].ravel() + BG
         counts = rng.poisson(mu).astype(np.float64)
     pp = pixpost_run(boundary, counts)
@@ -276,7 +266,7 @@ def check_boundary(boundary, seed):
     pptest.check(len(pp[6]) == PP_CHAINS * PP_ITERS and "kappa" in pp[5],
                  "%s: trace of %d rows with kappa" % (boundary, len(pp[6])))
     gd, gh, gw = grid
-    A = A0 if boundary == "periodic" else dense_blur3(grid)
+    A = A0 if boundary == "periodic" else pptest.dense_blur3(psf, grid)
     obs = np.array([(k * gh + i) * gw + j for k in range(D) for i in range(H) for j in range(W)])
     hyp, xs = ref_chain(grid, A[obs], counts, obs, CA, seed, NP_BURN, NP_ITERS)
     worst, pz = compare(boundary, pp, hyp, xs)
@@ -300,7 +290,7 @@ def check_boundary(boundary, seed):
                      "pixpost by %.1f se (> %g): the check can fail" % (max(ww), 2 * ZMAX))
 
 
-A0 = dense_blur3((D, H, W))
+A0 = pptest.dense_blur3(psf, (D, H, W))
 check_boundary("periodic", 31)
 if PAD:
     check_boundary("pad", 32)
