@@ -493,11 +493,12 @@ pp_status pp_po_draw_rj(pp_po *po, const pp_complex *otf, const double *y, doubl
     /* the true residual r = z − P G (not CG's recursive one), then
      * log ratio = (x' − x)ᵀ r / α with x' = G − x */
     apply_p(po, delta, wz, wh, wv, po->g, po->q);
-    double lr = 0.0, rr = 0.0;
+    double lr = 0.0, rr = 0.0, dn = 0.0, gn2 = 0.0, zz = 0.0;
     for (size_t i = 0; i < n; i++) {
-        double r = po->b[i] - po->q[i];
-        lr += (po->g[i] - 2.0 * (x[i] - c)) * r;
+        double r = po->b[i] - po->q[i], dx = po->g[i] - 2.0 * (x[i] - c);
+        lr += dx * r;
         rr += r * r;
+        dn += dx * dx, gn2 += po->g[i] * po->g[i], zz += po->b[i] * po->b[i];
     }
     lr /= alpha;
     /* Rounding guard. r = z − PG carries rounding of about ε(‖z‖ + ‖P‖‖G‖)
@@ -510,11 +511,6 @@ pp_status pp_po_draw_rj(pp_po *po, const pp_complex *otf, const double *y, doubl
      * 2x̃)), so choosing between this move and staying put by it keeps the
      * target invariant. The caller is told (stats->unresolved) so that it
      * can make a converged draw instead (src/sampler_adaptive.c). */
-    double dn = 0.0, gn2 = 0.0, zz = 0.0;
-    for (size_t i = 0; i < n; i++) {
-        double dx = po->g[i] - 2.0 * (x[i] - c);
-        dn += dx * dx, gn2 += po->g[i] * po->g[i], zz += po->b[i] * po->b[i];
-    }
     double noise = sqrt(dn) * DBL_EPSILON * (sqrt(zz) + po->pnorm * sqrt(gn2)) / alpha;
     const int unresolved = !(noise <= RJ_NOISE);
     double u = pp_rng_uniform(rng);
