@@ -308,7 +308,14 @@ static void warn_map(pp_sampler *s, const char *adv)
 /* For the conjugate samplers, the share of a Gamma conditional's rate that
  * comes from the hyperprior rather than the data: b * E[theta] / shape. A
  * share above 1 % means the hyperprior, not the frame, sets the precision
- * (typically a frame on a tiny or huge numerical scale). */
+ * (typically a frame on a tiny or huge numerical scale). For lambda the
+ * same share is also read off the frame itself, b / (b + N s^2 / 2) with s
+ * the robust noise sd of the starts (lambda0 = 1/s^2), and the larger of
+ * the two is used: on a frame of values ~1e-27 the chains can run away
+ * from the data in a short run (the field drifts, the residual grows and
+ * lambda falls), so the chains' share alone can miss a hyperprior that
+ * the frame's scale makes dominant (seen as a machine-dependent outcome of
+ * tests/ref_hostile_context.py). Printed shares are capped at 100 %. */
 static void warn_hyperprior(pp_sampler *s)
 {
     const pp_sampler_config *c = &s->cfg;
@@ -316,6 +323,8 @@ static void warn_hyperprior(pp_sampler *s)
         return;
     double share_l = c->hyper_lambda[1] * s->diag[PP_COL_LAMBDA].mean /
                      (c->hyper_lambda[0] + 0.5 * (double)s->gn);
+    double share_f = c->hyper_lambda[1] / (c->hyper_lambda[1] + 0.5 * (double)s->gn / s->lambda0);
+    share_l = fmin(1.0, fmax(share_l, share_f));
     double share_d = c->hyper_delta[1] * s->diag[PP_COL_DELTA].mean /
                      (c->hyper_delta[0] + 0.5 * s->rank);
     if (!c->noise.sigma_set && share_l > 0.01)
@@ -330,7 +339,7 @@ static void warn_hyperprior(pp_sampler *s)
                         "the Gamma hyperprior of delta (rate %g) outweighs the data (%.0f%% of "
                         "its conditional rate): rescale the frame or set %s A,B for "
                         "its units",
-                        c->hyper_delta[1], 100 * share_d,
+                        c->hyper_delta[1], 100 * fmin(1.0, share_d),
                         pp_setting_name(c->setting_names, PP_SET_HYPER_DELTA));
 }
 
