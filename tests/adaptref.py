@@ -176,7 +176,8 @@ def draw_gaussian(P, b, rng):
     return mean + scipy.linalg.solve_triangular(L.T, rng.standard_normal(len(b)), lower=False)
 
 
-def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters, bz=1, ca=(1.0, 1.0, 1.0)):
+def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters, bz=1, ca=(1.0, 1.0, 1.0),
+                hyper=(1.0, 1.0), cens=None, level=None):
     """A numpy Gibbs chain for the adaptive prior with Gaussian noise, only
     the observed pixels SA = A[rows] (rows: the observed grid pixels, y their
     values) in the likelihood, so every other grid pixel (padding, masked)
@@ -185,10 +186,19 @@ def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters, bz=1, ca
     the blocks' z extent bz and the axes' weight factors ca = (c_z, c_y,
     c_x), Model's); frame_px: the grid indices of the frame pixels. Per sweep: s (Model.s_sweep), tau, kappa, x | rest by a dense
     Cholesky draw, lambda | rest. Returns (iters x 3 draws of lambda, delta,
-    kappa; iters x H*W draws of the frame pixels)."""
+    kappa; iters x H*W draws of the frame pixels). hyper: the level's
+    Gamma(shape, rate) (pixpost's --hyper-delta). cens (a boolean mask over
+    y) marks censored pixels, known only to be >= level: they are imputed
+    from N((SA x)_i, 1/lambda) truncated at level (scipy.stats.truncnorm)
+    each sweep, after lambda, and enter the x and lambda draws as data (data
+    augmentation, Tanner & Wong, JASA 82, 1987), starting at level."""
     depth = grid[0] if len(grid) == 3 else 1
-    m = Model(grid[-2], grid[-1], block, hyper=(1.0, 1.0), frame=frame, depth=depth, bz=bz, ca=ca)
+    m = Model(grid[-2], grid[-1], block, hyper=hyper, frame=frame, depth=depth, bz=bz, ca=ca)
     r = np.random.default_rng(seed)
+    y = np.array(y, dtype=np.float64)
+    if cens is not None:
+        import scipy.stats
+        y[cens] = level
     AtA, Aty = SA.T @ SA, SA.T @ y
     lam, kappa, s = 1.0, 2.0, np.full(m.nb, np.log(0.1))
     x = np.linalg.solve(AtA + 0.1 * m.laplacian(m.ce, np.zeros((m.N, m.N))), Aty)
@@ -201,6 +211,11 @@ def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters, bz=1, ca
         x = draw_gaussian(m.laplacian(m.ce * np.exp(s[m.be]) * tau, lam * AtA), lam * Aty, r)
         res = SA @ x - y
         lam = r.gamma(1.0 + 0.5 * len(y), 1.0 / (1e-4 + 0.5 * res @ res))
+        if cens is not None:
+            mu, sd = (SA @ x)[cens], 1.0 / np.sqrt(lam)
+            y[cens] = scipy.stats.truncnorm.rvs((level - mu) / sd, np.inf, loc=mu, scale=sd,
+                                                random_state=r)
+            Aty = SA.T @ y
         if t >= burn:
             hyp[t - burn] = lam, np.exp(m.level(s)), kappa
             xs[t - burn] = x[frame_px]

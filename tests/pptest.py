@@ -161,6 +161,49 @@ def clipped_frame(tmp, rng, psf_spec="gaussian:sigma=1.0", sigma=1.0, clip=8):
     return psf, A, y.astype(np.float64), float(s), cens, path
 
 
+def censored_reference(A, P, fr, cens, y, s, sigma, chains=2000, iters=300, burn=50, seed=2024):
+    """The posterior of x under y = A x + N(0, sigma^2) with prior precision
+    P (dense, fixed) when the frame pixels fr (grid indices; y, cens over
+    them) marked cens are only known to be >= s. Returns, on fr: the
+    missing-data posterior's mean and sd (cens dropped: exact, numpy.linalg)
+    and the censored one's mean, sd and the mean's standard error from a
+    numpy Gibbs sampler by data augmentation (Tanner & Wong, JASA 82,
+    1987): x | y_o, y_c ~ N(K lam B2'[y_o; y_c], K), K = (lam B2'B2 + P)^-1,
+    y_c | x from N((A x)_c, sigma^2) truncated at s (scipy.stats.truncnorm),
+    `chains` independent chains from y_c = s, the first `burn` of `iters`
+    dropped; the SE from the spread of the chains' means (independent
+    chains). Last: the number of kept draws."""
+    import numpy as np
+    import scipy.stats as st
+    obs, cidx = fr[~cens], fr[cens]
+    lam = 1.0 / sigma ** 2
+    B = A[obs]
+    cov = np.linalg.inv(lam * B.T @ B + P)
+    m = cov @ (lam * B.T @ y[~cens])
+    B2 = A[np.concatenate([obs, cidx])]
+    K = np.linalg.inv(lam * B2.T @ B2 + P)
+    L = np.linalg.cholesky(K)
+    G = K @ (lam * B2.T)
+    r = np.random.default_rng(seed)
+    yo = np.repeat(y[~cens][:, None], chains, axis=1)
+    yc = np.full((cidx.size, chains), s)
+    s1 = np.zeros((fr.size, chains))
+    s2 = np.zeros((fr.size, chains))
+    for t in range(iters):
+        x = G @ np.vstack([yo, yc]) + L @ r.standard_normal((A.shape[1], chains))
+        mu = A[cidx] @ x
+        yc = st.truncnorm.rvs((s - mu) / sigma, np.inf, loc=mu, scale=sigma, random_state=r)
+        if t >= burn:
+            s1 += x[fr]
+            s2 += x[fr] ** 2
+    n = iters - burn
+    cm = s1 / n
+    mean = cm.mean(axis=1)
+    sd = np.sqrt(s2.sum(axis=1) / (n * chains) - mean ** 2)
+    se = cm.std(axis=1, ddof=1) / np.sqrt(chains)  # chains independent: exact SE
+    return m[fr], np.sqrt(np.diag(cov)[fr]), mean, sd, se, n * chains
+
+
 def gmrf1_q(H, W):
     """Eigenvalues of the periodic 5-point Laplacian on an H x W grid (the
     gmrf1 precision up to delta; Rue & Held 2005), full spectrum:

@@ -59,38 +59,9 @@ def reference(gh, gw, chains=2000, iters=300, burn=50):
     Gibbs sampler (mean, sd, the mean's standard error, draws), on the frame."""
     A, Q = pptest.dense_periodic(psf, gh, gw)
     fr = np.array([r * gw + c for r in range(H) for c in range(W)])
-    obs = fr[~cens.ravel()]
-    cidx = fr[cens.ravel()]
-    lam = 1.0 / SIGMA ** 2
-    B = A[obs]
-    cov = np.linalg.inv(lam * B.T @ B + DELTA * Q)
-    m = cov @ (lam * B.T @ y.ravel()[~cens.ravel()])
-    # data augmentation with the censored data y_c as latent variables:
-    # x | y_o, y_c ~ N(K (lam B2' [y_o; y_c]), K), K = (lam B2'B2 + delta Q)^-1
-    B2 = A[np.concatenate([obs, cidx])]
-    K = np.linalg.inv(lam * B2.T @ B2 + DELTA * Q)
-    L = np.linalg.cholesky(K)
-    G = K @ (lam * B2.T)
-    r = np.random.default_rng(2024)
-    yo = np.repeat(y.ravel()[~cens.ravel()][:, None], chains, axis=1)
-    yc = np.full((cidx.size, chains), s)
-    s1 = np.zeros((fr.size, chains))
-    s2 = np.zeros((fr.size, chains))
-    for t in range(iters):
-        x = G @ np.vstack([yo, yc]) + L @ r.standard_normal((gh * gw, chains))
-        mu = A[cidx] @ x
-        yc = st.truncnorm.rvs((s - mu) / SIGMA, np.inf, loc=mu, scale=SIGMA, random_state=r)
-        if t >= burn:
-            s1 += x[fr]
-            s2 += x[fr] ** 2
-    n = iters - burn
-    cm = s1 / n
-    mean = cm.mean(axis=1)
-    sd = np.sqrt(s2.sum(axis=1) / (n * chains) - mean ** 2)
-    se = cm.std(axis=1, ddof=1) / np.sqrt(chains)  # chains independent: exact SE
-    shp = (H, W)
-    return (m[fr].reshape(shp), np.sqrt(np.diag(cov)[fr]).reshape(shp), mean.reshape(shp),
-            sd.reshape(shp), se.reshape(shp), n * chains)
+    got = pptest.censored_reference(A, DELTA * Q, fr, cens.ravel(), y.ravel(), s, SIGMA, chains,
+                                    iters, burn)
+    return tuple(v.reshape(H, W) for v in got[:5]) + (got[5],)
 
 
 common = ["--psf", PSF, "--noise", "gaussian:sigma=%g" % SIGMA, "--prior", "gmrf1:delta=%g" % DELTA,

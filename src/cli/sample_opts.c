@@ -48,7 +48,8 @@ static const cli_opt sample_table[] = {
      "Student-t increments with nu degrees of freedom times one log-precision per B x B "
      "block; gibbs, and hmc for photon counts), or the stationary gmrf1, gmrf2 or "
      "matern:range=R,nu=V, each of which also takes delta=D to fix the prior precision "
-     "(README, \"Which prior\"). A volume (--pages z) takes the stationary ones only."},
+     "(README, \"Which prior\"). A volume (--pages z) takes each of them (adaptive with "
+     "gibbs or hmc; its blocks span about as far along z as across)."},
     {"positivity", 0, 1, "log|none",
      "pcn/gpcn/hmc: log samples the log intensity z (x = exp(z) > 0; default for poisson/camera), "
      "none samples x itself (default for gaussian). With log, the prior and mean=M apply to z."},
