@@ -37,40 +37,44 @@ static void warn(pp_ppcheck *p, const char *text)
 
 static int whole_numbers(const pp_image *y)
 {
-    for (size_t i = 0; i < y->width * y->height; i++)
+    for (size_t i = 0; i < pp_image_count(y); i++)
         if (isfinite(y->data[i]) && y->data[i] != floor(y->data[i]))
             return 0;
     return 1;
 }
 
-/* -Laplacian of ax at (i, j) (5 points, wrapping around: only pixels
- * inside the pad border or of a periodic frame are asked for). */
-static double curvature(const pp_image *ax, size_t i, size_t j)
+/* -Laplacian of ax at (i, j) of slice z (5 points in the slice, wrapping
+ * around: only pixels inside the pad border or of a periodic frame are
+ * asked for). */
+static double curvature(const pp_image *ax, size_t z, size_t i, size_t j)
 {
     size_t h = ax->height, w = ax->width;
-    const double *a = ax->data;
+    const double *a = ax->data + z * h * w;
     return 4 * a[i * w + j] - a[((i + h - 1) % h) * w + j] - a[((i + 1) % h) * w + j] -
            a[i * w + (j + w - 1) % w] - a[i * w + (j + 1) % w];
 }
 
 /* Fills p->residual with r (NaN where left out: non-finite y, and the
- * border band of the kernel's radius with pad) from ax = A x-bar, and
- * p->curvature with the correlation of y - E[y] with the curvature
- * -Laplacian(A x-bar). */
+ * border band of the kernel's radius with pad, in z too for a 3-D kernel)
+ * from ax = A x-bar, and p->curvature with the correlation of y - E[y]
+ * with the curvature -Laplacian(A x-bar) (in each slice of a volume). */
 static void residuals(const pp_ppcheck_input *in, const pp_image *ax, pp_ppcheck *p)
 {
     double sc = 0, sr = 0, scc = 0, srr = 0, src = 0, cnt = 0;
     const pp_noise_spec *n = &in->noise;
-    size_t h = ax->height, w = ax->width, rad = in->psf->width / 2;
+    size_t d = ax->depth, h = ax->height, w = ax->width, rad = in->psf->width / 2;
     size_t edge = in->boundary == PP_BOUNDARY_PAD ? rad : 0;
+    size_t edz = in->boundary == PP_BOUNDARY_PAD ? in->psf->depth / 2 : 0;
     int photons = n->kind == PP_NOISE_POISSON || n->kind == PP_NOISE_CAMERA;
     double g = n->gain, read = n->kind == PP_NOISE_CAMERA ? n->read : 0.0;
     double q = p->quantised ? 1.0 / 12.0 : 0.0;
+    for (size_t z = 0; z < d; z++)
     for (size_t i = 0; i < h; i++)
         for (size_t j = 0; j < w; j++) {
-            size_t k = i * w + j;
+            size_t k = (z * h + i) * w + j;
             double y = in->frame->data[k], r = NAN;
-            int inside = i >= edge && j >= edge && i + edge < h && j + edge < w;
+            int inside = i >= edge && j >= edge && i + edge < h && j + edge < w && z >= edz &&
+                         z + edz < d;
             if (inside && isfinite(y)) {
                 double sd = 1 / sqrt(in->lambda);
                 if (photons) {
@@ -80,7 +84,7 @@ static void residuals(const pp_ppcheck_input *in, const pp_image *ax, pp_ppcheck
                 } else {
                     r = (y - ax->data[k]) / sd;
                 }
-                double c = curvature(ax, i, j), e = r * sd; /* e: y - E[y], unscaled */
+                double c = curvature(ax, z, i, j), e = r * sd; /* e: y - E[y], unscaled */
                 cnt++;
                 sr += e;
                 sc += c;
@@ -94,13 +98,14 @@ static void residuals(const pp_ppcheck_input *in, const pp_image *ax, pp_ppcheck
     p->curvature = cnt > 1 && vr > 0 && vc > 0 ? (src - sr * sc / cnt) / sqrt(vr * vc) : NAN;
 }
 
-/* Mean, variance, share beyond 3, lag-1 correlations of the finite r. */
+/* Mean, variance, share beyond 3, lag-1 correlations of the finite r
+ * (within each slice of a volume). */
 static void moments(pp_ppcheck *p)
 {
     const pp_image *r = p->residual;
-    size_t h = r->height, w = r->width, n = 0, far = 0;
+    size_t d = r->depth, h = r->height, w = r->width, n = 0, far = 0;
     double s = 0, ss = 0;
-    for (size_t k = 0; k < h * w; k++)
+    for (size_t k = 0; k < d * h * w; k++)
         if (isfinite(r->data[k])) {
             n++;
             s += r->data[k];
@@ -108,70 +113,98 @@ static void moments(pp_ppcheck *p)
         }
     p->used = n;
     p->mean = n ? s / (double)n : NAN;
-    for (size_t k = 0; k < h * w; k++)
+    for (size_t k = 0; k < d * h * w; k++)
         if (isfinite(r->data[k]))
             ss += (r->data[k] - p->mean) * (r->data[k] - p->mean);
     p->var = n ? ss / (double)n : NAN;
     p->beyond3 = n ? (double)far / (double)n : NAN;
-    double c[2] = {0, 0}, d[2] = {0, 0};
-    for (size_t i = 0; i < h; i++)
-        for (size_t j = 0; j < w; j++) {
-            double a = r->data[i * w + j];
-            if (!isfinite(a))
-                continue;
-            a -= p->mean;
-            for (int dir = 0; dir < 2; dir++) { /* 0: next column (along a row); 1: next row */
-                if ((dir == 0 && j + 1 >= w) || (dir == 1 && i + 1 >= h))
+    double c[2] = {0, 0}, e[2] = {0, 0};
+    for (size_t z = 0; z < d; z++) {
+        const double *rz = r->data + z * h * w;
+        for (size_t i = 0; i < h; i++)
+            for (size_t j = 0; j < w; j++) {
+                double a = rz[i * w + j];
+                if (!isfinite(a))
                     continue;
-                double b = r->data[dir == 0 ? i * w + j + 1 : (i + 1) * w + j];
-                if (!isfinite(b))
-                    continue;
-                b -= p->mean;
-                c[dir] += a * b;
-                d[dir] += 0.5 * (a * a + b * b);
+                a -= p->mean;
+                for (int dir = 0; dir < 2; dir++) { /* 0: next column (along a row); 1: next row */
+                    if ((dir == 0 && j + 1 >= w) || (dir == 1 && i + 1 >= h))
+                        continue;
+                    double b = rz[dir == 0 ? i * w + j + 1 : (i + 1) * w + j];
+                    if (!isfinite(b))
+                        continue;
+                    b -= p->mean;
+                    c[dir] += a * b;
+                    e[dir] += 0.5 * (a * a + b * b);
+                }
             }
-        }
-    p->lag1_row = d[0] > 0 ? c[0] / d[0] : NAN;
-    p->lag1_col = d[1] > 0 ? c[1] / d[1] : NAN;
+    }
+    p->lag1_row = e[0] > 0 ? c[0] / e[0] : NAN;
+    p->lag1_col = e[1] > 0 ? c[1] / e[1] : NAN;
 }
 
-/* The PSF-band power ratio (ppcheck.h): the residual with its mean taken
- * out and 0 where left out, one r2c; the band from the kernel's transfer
- * function on the same grid. */
+/* The kernel summed over z (the kernel itself for a frame): by the Fourier
+ * slice theorem its transfer function is the 3-D one's kz = 0 plane, the
+ * in-plane band of a volume's slices. */
+static pp_status in_plane_kernel(const pp_image *psf, pp_image **out)
+{
+    size_t n = psf->height * psf->width;
+    pp_status st = pp_image_create(psf->height, psf->width, out);
+    if (st != PP_OK)
+        return st;
+    memcpy((*out)->data, psf->data, n * sizeof(double));
+    for (size_t z = 1; z < psf->depth; z++)
+        for (size_t k = 0; k < n; k++)
+            (*out)->data[k] += psf->data[z * n + k];
+    return PP_OK;
+}
+
+/* The PSF-band power ratio (ppcheck.h): each slice's residual with the
+ * mean taken out and 0 where left out, one r2c per slice; the band from
+ * the in-plane kernel's transfer function on the slice's grid; powers and
+ * weights summed over the slices. */
 static pp_status band_power(const pp_ppcheck_input *in, pp_ppcheck *p)
 {
     const pp_image *r = p->residual;
-    size_t h = r->height, w = r->width, hw = w / 2 + 1;
+    size_t d = r->depth, h = r->height, w = r->width, hw = w / 2 + 1;
     p->band_ratio = p->band_white = NAN;
     pp_fft *f = NULL;
+    pp_image *k2 = NULL;
     pp_status st = pp_fft_create(h, w, PP_FFT_ESTIMATE, &f);
-    if (st != PP_OK)
+    if (st == PP_OK)
+        st = in_plane_kernel(in->psf, &k2);
+    if (st != PP_OK) {
+        pp_fft_free(f);
         return st;
+    }
     double *x = pp_fft_alloc_real(h * w);
     pp_complex *xs = pp_fft_alloc_complex(h * hw), *otf = pp_fft_alloc_complex(h * hw);
     if (!x || !xs || !otf) {
         st = pp_fail(PP_ERR_NOMEM, "out of memory for the predictive check");
         goto done;
     }
-    for (size_t k = 0; k < h * w; k++)
-        x[k] = isfinite(r->data[k]) ? r->data[k] - p->mean : 0.0;
-    if ((st = pp_psf_transfer(in->psf, f, otf)) != PP_OK)
+    if ((st = pp_psf_transfer(k2, f, otf)) != PP_OK)
         goto done;
-    pp_fft_forward(f, x, xs);
     double band = 0, all = 0, wband = 0, wall = 0;
-    for (size_t i = 0; i < h; i++)
-        for (size_t j = 0; j < hw; j++) {
-            if (i == 0 && j == 0)
-                continue;
-            size_t k = i * hw + j;
-            double wt = pp_half_weight(j, w), a = cabs(otf[k]);
-            double pw = wt * (creal(xs[k]) * creal(xs[k]) + cimag(xs[k]) * cimag(xs[k]));
-            int in_band = a >= PP_PPCHECK_OTF_LO && a <= PP_PPCHECK_OTF_HI;
-            all += pw;
-            wall += wt;
-            band += in_band ? pw : 0;
-            wband += in_band ? wt : 0;
-        }
+    for (size_t z = 0; z < d; z++) {
+        const double *rz = r->data + z * h * w;
+        for (size_t k = 0; k < h * w; k++)
+            x[k] = isfinite(rz[k]) ? rz[k] - p->mean : 0.0;
+        pp_fft_forward(f, x, xs);
+        for (size_t i = 0; i < h; i++)
+            for (size_t j = 0; j < hw; j++) {
+                if (i == 0 && j == 0)
+                    continue;
+                size_t k = i * hw + j;
+                double wt = pp_half_weight(j, w), a = cabs(otf[k]);
+                double pw = wt * (creal(xs[k]) * creal(xs[k]) + cimag(xs[k]) * cimag(xs[k]));
+                int in_band = a >= PP_PPCHECK_OTF_LO && a <= PP_PPCHECK_OTF_HI;
+                all += pw;
+                wall += wt;
+                band += in_band ? pw : 0;
+                wband += in_band ? wt : 0;
+            }
+    }
     if (wband > 0 && all > 0) {
         p->band_white = wband / wall;
         p->band_ratio = (band / all) / p->band_white;
@@ -180,6 +213,7 @@ done:
     pp_fft_free_buffer(x);
     pp_fft_free_buffer(xs);
     pp_fft_free_buffer(otf);
+    pp_image_free(k2);
     pp_fft_free(f);
     return st;
 }
@@ -298,21 +332,20 @@ pp_status pp_ppcheck_run(const pp_ppcheck_input *in, pp_ppcheck **out)
 {
     *out = NULL;
     const pp_image *y = in->frame, *m = in->mean;
-    if (y->depth > 1 || m->depth > 1 || in->psf->depth > 1) /* image.h: frames only say so */
-        return pp_fail(PP_ERR_UNSUPPORTED,
-                       "the predictive check is made for frames only, not yet for volumes");
-    if (y->width != m->width || y->height != m->height)
+    if (y->width != m->width || y->height != m->height || y->depth != m->depth)
         return pp_fail(PP_ERR_ARG,
-                       "predictive check: the frame (%zux%zu) and the mean "
-                       "(%zux%zu) differ in size",
-                       y->width, y->height, m->width, m->height);
+                       "predictive check: the frame (%zu x %zu x %zu, z y x) and the mean "
+                       "(%zu x %zu x %zu) differ in size",
+                       y->depth, y->height, y->width, m->depth, m->height, m->width);
+    if (in->psf->depth > 1 && y->depth == 1)
+        return pp_fail(PP_ERR_ARG, "predictive check: a 3-D PSF with a frame");
     if (in->psf->width > y->width || in->psf->height > y->height)
         return pp_fail(PP_ERR_ARG, "predictive check: the PSF does not fit in the frame");
     pp_ppcheck *p = calloc(1, sizeof *p);
     if (!p)
         return pp_fail(PP_ERR_NOMEM, "out of memory for the predictive check");
     pp_image *ax = NULL;
-    pp_status st = pp_image_create(y->height, y->width, &p->residual);
+    pp_status st = pp_image_create3(y->depth, y->height, y->width, &p->residual);
     if (st == PP_OK)
         st = pp_model_blur(m, in->psf, in->boundary, in->setting_names, &ax);
     if (st == PP_OK) {

@@ -29,22 +29,23 @@ MISFITS = {
 }
 
 
-def scene(seed, side=48):
+def scene(seed, side=48, beads=(300, 1500)):
+    """beads: the range of each bead's photons (uniform)."""
     rng = np.random.default_rng(seed)
     t = np.full((side, side), rng.uniform(1, 5))
     yy, xx = np.mgrid[:side, :side]
     for _ in range(int(rng.integers(6, 19))):
         cy, cx = rng.uniform(3, side - 3, 2)
-        a = rng.uniform(300, 1500) / (2 * np.pi * 0.7 ** 2)
+        a = rng.uniform(*beads) / (2 * np.pi * 0.7 ** 2)
         t += a * np.exp(-((yy - cy) ** 2 + (xx - cx) ** 2) / (2 * 0.7 ** 2))
     return t
 
 
-def frame(tmp, seed, side=48, noise=CAMERA):
+def frame(tmp, seed, side=48, noise=CAMERA, beads=(300, 1500)):
     """Writes scene(seed) and a frame drawn from it; returns the frame's path."""
     tp = os.path.join(tmp, "truth_%d.tif" % seed)
     yp = os.path.join(tmp, "frame_%d.tif" % seed)
-    tifffile.imwrite(tp, scene(seed, side).astype(np.float32))
+    tifffile.imwrite(tp, scene(seed, side, beads).astype(np.float32))
     pptest.run(["simulate", tp, "--psf", PSF, "--noise", noise, "--seed", seed,
                 "--overwrite", "--quiet", "-o", yp])
     return yp

@@ -24,7 +24,8 @@ static void join_args(int argc, char **argv, char *buf, size_t len)
 /* The summary lines: outputs, headline figures, the verdict sentence
  * (pp_convergence_verdict: which part failed, the --iters to ask for),
  * then each warning and note. */
-static void print_verdict(const pp_sampler *s, const char *outdir, int volume, double seconds)
+static void print_verdict(const pp_sampler *s, const char *outdir, int volume, int residual,
+                          double seconds)
 {
     size_t nw = pp_sampler_warning_count(s);
     const pp_trace *t = pp_sampler_trace(s);
@@ -40,7 +41,9 @@ static void print_verdict(const pp_sampler *s, const char *outdir, int volume, d
     fprintf(stderr,
             "pixpost: wrote %s/ (mean, sd, lo, hi, rhat, mcse%s .tif; %s .png; "
             "summary.json; trace.csv; report.html)\n",
-            outdir, volume ? ", multi-page" : ", residual",
+            outdir,
+            volume ? (residual ? ", residual, multi-page" : ", multi-page")
+                   : (residual ? ", residual" : ""),
             volume ? "mean_mip, sd_mip (maximum over z)" : "mean, sd");
     fprintf(stderr, "pixpost: %u chains x %zu kept draws in %.1f s; worst R-hat %.3f, lowest "
                     "bulk-ESS %.0f: %s\n",
@@ -129,7 +132,7 @@ static int run_unit(const cli_sample_opts *o, const cli_units *us, cli_unit *u,
     if (rc && r.interrupted && *r.stop)
         rc = 128 + (int)*r.stop; /* as a process killed by the signal (and as batch) */
     if (!rc && !o->quiet)
-        print_verdict(r.sampler, outdir, u->volume, cli_since(t0));
+        print_verdict(r.sampler, outdir, u->volume, r.predictive != NULL, cli_since(t0));
     if (!rc && !o->quiet)
         print_checks(&r);
     if (!rc) {
