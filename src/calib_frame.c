@@ -100,19 +100,32 @@ static int usable(double v, double saturation)
     return isfinite(v) && v < saturation;
 }
 
-/* A and D of every 2x2 block; valid[k] = all four pixels usable. */
+/* A and D of every 2x2 block of each slice; valid[k] = all four pixels
+ * usable. A volume's slices are stacked as bands of sh = bh / depth - gap
+ * block rows (sh = bh for a frame), each followed by gap = DETAIL_RADIUS
+ * rows of invalid blocks, so that no block's neighbourhood or detail test
+ * reaches into another slice. */
 static void haar_blocks(const pp_image *f, double saturation, size_t bh, size_t bw, block *blk,
                         unsigned char *valid)
 {
-    for (size_t i = 0; i < bh; i++)
+    size_t sh = f->depth > 1 ? (bh - (f->depth - 1) * DETAIL_RADIUS) / f->depth : bh;
+    for (size_t i = 0; i < bh; i++) {
+        size_t z = i / (sh + DETAIL_RADIUS), iz = i % (sh + DETAIL_RADIUS);
         for (size_t j = 0; j < bw; j++) {
-            const double *r0 = f->data + 2 * i * f->width + 2 * j, *r1 = r0 + f->width;
             size_t k = i * bw + j;
+            if (iz >= sh) { /* a gap between slices */
+                valid[k] = 0;
+                blk[k].a = blk[k].d = 0;
+                continue;
+            }
+            const double *r0 = f->data + (z * f->height + 2 * iz) * f->width + 2 * j;
+            const double *r1 = r0 + f->width;
             valid[k] = usable(r0[0], saturation) && usable(r0[1], saturation) &&
-                       usable(r1[0], saturation) && usable(r1[1], saturation);
+                      usable(r1[0], saturation) && usable(r1[1], saturation);
             blk[k].a = valid[k] ? (r0[0] + r0[1] + r1[0] + r1[1]) / 4 : 0;
             blk[k].d = valid[k] ? (r0[0] - r0[1] - r1[0] + r1[1]) / 2 : 0;
         }
+    }
 }
 
 /* Level sets of the n blocks in sel (sorted here by key): equal counts;
@@ -360,7 +373,9 @@ pp_status pp_noise_fit_frame(const pp_image *frame, const pp_frame_fit_config *c
         return pp_fail(PP_ERR_ARG,
                        "single-frame noise fit: the frame is %zux%zu; at least 16x16 is needed",
                        frame->width, frame->height);
-    size_t bh = frame->height / 2, bw = frame->width / 2, nb = bh * bw;
+    /* a volume: its slices' block bands with gaps between (haar_blocks) */
+    size_t bh = frame->depth * (frame->height / 2) + (frame->depth - 1) * DETAIL_RADIUS;
+    size_t bw = frame->width / 2, nb = bh * bw;
     block *blk = malloc(nb * sizeof *blk), *sel = malloc(nb * sizeof *sel);
     unsigned char *valid = malloc(nb);
     double *scratch = malloc(nb * sizeof *scratch);

@@ -113,8 +113,9 @@ static void gain_check(pp_datacheck *d, const pp_image *frame, const pp_noise_sp
                        const char *const *names)
 {
     pp_noise_fit fit;
-    if (frame->depth > 1 || pp_noise_fit_frame(frame, NULL, &fit) != PP_OK)
-        return; /* a volume, too small a frame or too few smooth patches: no word */
+    if (pp_noise_fit_frame(frame, NULL, &fit) != PP_OK)
+        return; /* too small a frame or too few smooth patches: no word (a volume: its
+                 * slices pooled, calib.h) */
     if (!fit.gain_determined || !(fit.a > 0) || !isfinite(fit.a_se))
         return;
     double g = n->gain, lo = fit.a - 2.576 * fit.a_se, hi = fit.a + 2.576 * fit.a_se;

@@ -77,7 +77,9 @@ def summary(*d):
 
 # ---- 1. refusals ------------------------------------------------------------------
 refused([path("z.ome.tif"), "--psf", G3, "--noise", "auto"], "r1",
-        ["z.ome.tif", "--noise auto", "volume", "--plane K"], "--noise auto on a volume")
+        ["z.ome.tif", "--noise auto", "usable 2x2 blocks", "450 needed"],
+        "--noise auto on a volume too small for the pooled fit (4 slices of 22 x 20; "
+        "tests/ref_noise_auto_volume.py runs it on a larger one)")
 refused([path("z.ome.tif"), "--psf", G3, "--max-pixels", "1000"], "r2",
         ["z.ome.tif", "4 z-slices", "--max-pixels 1000", "voxels"], "--max-pixels counts voxels (1760 > 1000)")
 refused([path("z.ome.tif"), "--psf", G3, "--mask", path("mask3.tif")], "r3",

@@ -3,7 +3,8 @@
  * et al. 2008) and turned into a spec by pp_noise_from_frame_fit (offset at
  * the darkest smooth level, read noise from the variance left there; plain
  * gaussian when the noise does not grow significantly with the signal).
- * Per frame, so batch estimates each frame on its own. The choice is
+ * Per frame, so batch estimates each frame on its own; a volume's slices
+ * are pooled (the same camera took them all). The choice is
  * printed as a note (not under --quiet) and recorded in summary.json
  * ("noise_estimate") and the report. Cost: the fit, a few passes over the
  * frame.
@@ -27,14 +28,6 @@ int cli_noise_auto_run(const cli_sample_opts *o, const char *path, const pp_imag
     memset(na, 0, sizeof *na);
     if (!o->noise_auto)
         return 0;
-    if (frame->depth > 1) {
-        snprintf(msg, len,
-                 "%s: --noise auto fits the noise of one frame, and this is a volume; fit one "
-                 "slice (pixpost sample %s --plane K --noise auto prints the model) and give "
-                 "that model here (--noise camera:...)",
-                 path, path);
-        return CLI_EXIT_USAGE;
-    }
     na->used = 1;
     pp_frame_fit_config cfg;
     pp_frame_fit_defaults(&cfg);
@@ -55,17 +48,18 @@ int cli_noise_auto_run(const cli_sample_opts *o, const char *path, const pp_imag
         pp_prior_format(&na->prior, na->prior_text, sizeof na->prior_text);
     }
     const pp_noise_fit *f = &na->fit;
+    const char *what = frame->depth > 1 ? "volume (its slices pooled)" : "frame";
     if (na->camera)
         snprintf(na->note, sizeof na->note,
-                 "--noise auto: %s from the frame (gain 95 %% interval %.4g to %.4g ADU per "
+                 "--noise auto: %s from the %s (gain 95 %% interval %.4g to %.4g ADU per "
                  "electron; offset at the darkest smooth level and read noise from the "
                  "variance there: one frame cannot separate them)",
-                 na->noise_text, f->a - 1.96 * f->a_se, f->a + 1.96 * f->a_se);
+                 na->noise_text, what, f->a - 1.96 * f->a_se, f->a + 1.96 * f->a_se);
     else
         snprintf(na->note, sizeof na->note,
-                 "--noise auto: the frame shows no significant signal-dependent noise (slope "
+                 "--noise auto: the %s shows no significant signal-dependent noise (slope "
                  "%.3g, se %.2g, below 3 standard errors); using gaussian",
-                 f->a, f->a_se);
+                 what, f->a, f->a_se);
     if (!o->quiet)
         fprintf(stderr, "pixpost: %s: %s\n", path, na->note);
     return 0;

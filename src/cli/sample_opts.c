@@ -41,7 +41,7 @@ static const cli_opt sample_table[] = {
      "G = 1/E), offset O the camera's dark level in ADU, read R the read noise in electrons. "
      "auto: estimated from the frame (camera:gain,offset,read by the single-frame fit of "
      "'pixpost calibrate --frame'; gaussian when the noise does not grow with the signal; "
-     "frames only, a volume is refused); "
+     "a volume's slices pooled); "
      "the estimate is printed and recorded in summary.json (\"noise_estimate\")."},
     {"prior", 0, 1, "SPEC",
      "Prior: adaptive[:nu=V,block=B] (a GMRF whose precision varies over the frame: "

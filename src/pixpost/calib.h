@@ -182,7 +182,9 @@ typedef struct pp_noise_fit {
  * kurtosis factor of D), standard errors scaled by sqrt(chi2_red) when
  * above 1. Cost: a few passes over the frame and one sort.
  * NaN (unobserved) and saturated pixels are skipped: a block with one takes
- * no part, nor do its neighbours' judgements. Fails (PP_ERR_ARG) for frames
+ * no part, nor do its neighbours' judgements. A volume (depth > 1): the
+ * blocks of all its slices are pooled, each judged within its own slice
+ * (one camera took them all). Fails (PP_ERR_ARG) for frames (slices)
  * under 16 x 16 pixels or with fewer than 3 * per_level smooth blocks. */
 pp_status pp_noise_fit_frame(const pp_image *frame, const pp_frame_fit_config *cfg,
                              pp_noise_fit *out);

@@ -42,8 +42,9 @@
  *                 the likely cause (an inverted gain: data sheets print
  *                 electrons per ADU) and the fixes (e_per_adu=, pixpost
  *                 calibrate) (our rule). No word when the fit fails (frame
- *                 under 16x16, too few smooth patches), cannot separate
- *                 gain and offset (a < 3 se), or on a volume. The fit
+ *                 under 16x16, too few smooth patches) or cannot separate
+ *                 gain and offset (a < 3 se); on a volume the fit pools
+ *                 the slices (pp_noise_fit_frame). The fit
  *                 overestimates the gain on sharp scenes (unblurred
  *                 photographs: median +12 %, worst about 2x; README,
  *                 "Calibrating the camera"): hence the 2x margin; false
