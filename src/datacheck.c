@@ -134,13 +134,15 @@ static void gain_check(pp_datacheck *d, const pp_image *frame, const pp_noise_sp
     else
         snprintf(cause, sizeof cause, "Likely cause: the gain entered upside down or wrong");
     add(d, PP_CHECK_WARNING, "gain",
-        "the stated gain %g ADU per electron of %s %s is %.3g times %s the frame's noise "
+        "the stated gain %g ADU per electron of %s %s is %.3g times %s the %s noise "
         "shows: it grows with the signal by %.3g ADU per electron (99 %% interval %.3g to "
         "%.3g; single-frame fit of Foi et al. 2008). %s. The gain is ADU per electron; if "
         "your data sheet gives electrons per ADU use e_per_adu=%g in %s instead of gain=%g, "
         "or measure the gain with pixpost calibrate; else the error bars are %s",
         g, noise, model_name(n), ratio > 1 ? ratio : 1.0 / ratio,
-        ratio > 1 ? "what" : "smaller than what", fit.a, lo, hi, cause, g, noise, g,
+        ratio > 1 ? "what" : "smaller than what",
+        frame->depth > 1 ? "stack's (its slices pooled)" : "frame's", fit.a, lo, hi, cause, g,
+        noise, g,
         ratio > 1 ? "too wide" : "too narrow");
 }
 
