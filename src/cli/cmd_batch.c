@@ -444,8 +444,15 @@ static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **ar
     return rc;
 }
 
+/* worker: an MPI worker rank (rank > 0), which leaves OUTDIR to rank 0:
+ * checking, creating and marking it from every rank at once raced (a rank
+ * could find the folder half-marked by another, refuse it and exit 1,
+ * and mpirun then killed the whole job before rank 0 wrote its manifest:
+ * the likely cause of an empty --strict folder seen once in four runs of
+ * tests/ref_batch_mpi.py; 0 in 6 runs since). Rank 0 hands out the
+ * first frame only after OUTDIR and its manifest exist. */
 static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const batch_run_opts *ro,
-                   int argc, char **argv)
+                   int argc, char **argv, int worker)
 {
     int rc = cli_positionals(a, 1, "INDIR");
     rc = rc ? rc : cli_sample_opts_from_args(a, o);
@@ -458,7 +465,7 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
                          "z: each file one volume)",
                          o->plane >= 0 ? "--plane" : "--channel all");
     char msg[BATCH_MSG];
-    if (cli_check_outdir(o->outdir, o->overwrite, msg, sizeof msg) != 0)
+    if (!worker && cli_check_outdir(o->outdir, o->overwrite, msg, sizeof msg) != 0)
         return cli_error("%s", msg);
     /* A frame's progress is shown unless asked not to (sample's default
      * shows it only on a terminal): a line per 10 % naming the frame. */
@@ -478,6 +485,8 @@ static int prepare(const cli_args *a, cli_sample_opts *o, batch_ctx *c, const ba
                          ro->pattern ? " matching " : "", ro->pattern ? ro->pattern : "",
                          ro->recursive ? "" : " (add --recursive for subfolders)",
                          c->skipped.count ? "; not frames: " : "", c->skipped.names);
+    if (worker)
+        return 0;
     if (cli_make_dirs(c->outdir, msg, sizeof msg) != 0)
         return cli_error("%s", msg);
     /* The folder is pixpost's from now on (cli_check_outdir): marked before
@@ -512,7 +521,8 @@ int cli_cmd_batch(int argc, char **argv)
     memset(&c, 0, sizeof c);
     if ((rc = parse_run_opts(&a, &ro)) != 0)
         return rc;
-    rc = prepare(&a, &o, &c, &ro, argc, argv);
+    int rank = 0, size = 1, mpi = batch_mpi_active(&rank, &size);
+    rc = prepare(&a, &o, &c, &ro, argc, argv, mpi && size > 1 && rank > 0);
     if (!rc)
         rc = run_batch(&c, &ro, argc, argv);
     free(c.frames);
