@@ -32,6 +32,7 @@ import os
 
 import numpy as np
 import scipy.linalg
+import scipy.stats
 import tifffile
 
 import pptest
@@ -197,7 +198,6 @@ def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters, bz=1, ca
     r = np.random.default_rng(seed)
     y = np.array(y, dtype=np.float64)
     if cens is not None:
-        import scipy.stats
         y[cens] = level
     AtA, Aty = SA.T @ SA, SA.T @ y
     lam, kappa, s = 1.0, 2.0, np.full(m.nb, np.log(0.1))
@@ -220,6 +220,27 @@ def gibbs_chain(grid, block, frame, SA, y, frame_px, seed, burn, iters, bz=1, ca
             hyp[t - burn] = lam, np.exp(m.level(s)), kappa
             xs[t - burn] = x[frame_px]
     return hyp, xs
+
+
+def volume_run(tmp, name, y, psf, shape, keys):
+    """pixpost's library on the volume y (shape (D, H, W)) blurred by the 3-D
+    kernel psf, through tests/probe_volume with the config keys given;
+    files under tmp named by name. Returns (stdout, grid (gd, gh, gw), mean,
+    sd and mcse as flat arrays, the trace's header and rows)."""
+    fp, pp = os.path.join(tmp, name + ".f64"), os.path.join(tmp, "psf.f64")
+    y.astype("<f8").tofile(fp)
+    psf.astype("<f8").tofile(pp)
+    out = os.path.join(tmp, name)
+    stdout = pptest.probe("volume", ["run", fp] + list(shape) + [pp] + list(psf.shape) + [out] +
+                          list(keys))
+    print(stdout.strip())
+    rd = lambda e: np.fromfile(out + "." + e, "<f8")
+    with open(out + ".trace") as f:
+        head = f.readline().split()
+        tr = np.loadtxt(f, ndmin=2)
+    grid = [tuple(int(v) for v in l.split()[1:]) for l in stdout.splitlines()
+            if l.startswith("grid ")][0]
+    return stdout, grid, rd("mean"), rd("sd"), rd("mcse"), head, tr
 
 
 def dense_blur(psf, H, W, transfer):

@@ -46,7 +46,6 @@ Runtime ~1 CPU minute per boundary on an idle machine.
 import os
 
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
-import subprocess
 
 import numpy as np
 
@@ -73,27 +72,10 @@ truth[3, 4, 0] = 20.0
 
 
 def pixpost_run(boundary, y):
-    fp, pp = os.path.join(tmp, boundary + ".f64"), os.path.join(tmp, "psf.f64")
-    y.astype("<f8").tofile(fp)
-    psf.astype("<f8").tofile(pp)
-    out = os.path.join(tmp, boundary)
-    keys = ["prior=adaptive:block=%d" % BLOCK, "boundary=" + boundary, "chains=%d" % PP_CHAINS,
-            "burn=%d" % PP_BURN, "iters=%d" % PP_ITERS, "seed=5", "threads=2",
-            "hyper_delta=1,1", "voxel=%g,%g,%g" % VOX]
-    args = ["run", fp, D, H, W, pp, 3, 3, 3, out] + keys
-    p = subprocess.run([os.path.join(pptest.PROBES, "probe_volume")] + [str(a) for a in args],
-                       capture_output=True, text=True)
-    if p.returncode != 0:
-        raise AssertionError("probe_volume failed: " + p.stderr)
-    print(p.stdout.strip())
-    rd = lambda e: np.fromfile(out + "." + e, "<f8")
-    with open(out + ".trace") as f:
-        head = f.readline().split()
-        tr = np.loadtxt(f, ndmin=2)
-    grid = [tuple(int(v) for v in l.split()[1:]) for l in p.stdout.splitlines()
-            if l.startswith("grid ")][0]
-    return p.stdout, grid, rd("mean"), rd("sd"), rd("mcse"), head, tr
-
+    return adaptref.volume_run(tmp, boundary, y, psf, (D, H, W), [
+        "prior=adaptive:block=%d" % BLOCK, "boundary=" + boundary, "chains=%d" % PP_CHAINS,
+        "burn=%d" % PP_BURN, "iters=%d" % PP_ITERS, "seed=5", "threads=2", "hyper_delta=1,1",
+        "voxel=%g,%g,%g" % VOX])
 
 def compare(boundary, seed):
     """pixpost on the volume with this boundary against the numpy chain

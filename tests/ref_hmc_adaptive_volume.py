@@ -79,7 +79,6 @@ next to nothing). PP_REF_SCALE=K scales every chain and that floor.
 import os
 
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
-import subprocess
 
 import numpy as np
 import scipy.linalg
@@ -114,28 +113,11 @@ truth[3, 4, 0] = 1500.0
 
 
 def pixpost_run(boundary, counts):
-    fp, pp = os.path.join(tmp, boundary + ".f64"), os.path.join(tmp, "psf.f64")
-    counts.astype("<f8").tofile(fp)
-    psf.astype("<f8").tofile(pp)
-    out = os.path.join(tmp, boundary)
-    keys = ["sampler=hmc", "prior=adaptive:block=%d,nu=%g" % (BLOCK, NU), "noise=poisson:gain=1,offset=0",
-            "background=%g" % BG, "boundary=" + boundary, "chains=%d" % PP_CHAINS,
-            "burn=%d" % PP_BURN, "iters=%d" % PP_ITERS, "seed=11", "threads=2",
-            "hyper_delta=1,1", "voxel=%g,%g,%g" % VOX]
-    args = ["run", fp, D, H, W, pp, 3, 3, 3, out] + keys
-    p = subprocess.run([os.path.join(pptest.PROBES, "probe_volume")] + [str(a) for a in args],
-                       capture_output=True, text=True)
-    if p.returncode != 0:
-        raise AssertionError("probe_volume failed: " + p.stderr)
-    print(p.stdout.strip())
-    rd = lambda e: np.fromfile(out + "." + e, "<f8")
-    with open(out + ".trace") as f:
-        head = f.readline().split()
-        tr = np.loadtxt(f, ndmin=2)
-    grid = [tuple(int(v) for v in l.split()[1:]) for l in p.stdout.splitlines()
-            if l.startswith("grid ")][0]
-    return p.stdout, grid, rd("mean"), rd("sd"), rd("mcse"), head, tr
-
+    return adaptref.volume_run(tmp, boundary, counts, psf, (D, H, W), [
+        "sampler=hmc", "prior=adaptive:block=%d,nu=%g" % (BLOCK, NU),
+        "noise=poisson:gain=1,offset=0", "background=%g" % BG, "boundary=" + boundary,
+        "chains=%d" % PP_CHAINS, "burn=%d" % PP_BURN, "iters=%d" % PP_ITERS, "seed=11",
+        "threads=2", "hyper_delta=1,1", "voxel=%g,%g,%g" % VOX])
 
 def ref_chain(grid, SA, counts, obs, ca, seed, burn, iters):
     """The numpy chain on the grid (gd, gh, gw); SA: the rows of the grid's
