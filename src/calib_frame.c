@@ -101,14 +101,14 @@ static int usable(double v, double saturation)
 }
 
 /* A and D of every 2x2 block of each slice; valid[k] = all four pixels
- * usable. A volume's slices are stacked as bands of sh = bh / depth - gap
- * block rows (sh = bh for a frame), each followed by gap = DETAIL_RADIUS
- * rows of invalid blocks, so that no block's neighbourhood or detail test
- * reaches into another slice. */
+ * usable. A volume's slices are stacked as bands of sh = height / 2 block
+ * rows, each but the last followed by DETAIL_RADIUS rows of invalid blocks
+ * (bh rows in all), so that no block's neighbourhood or detail test
+ * reaches into another slice; a frame is one band. */
 static void haar_blocks(const pp_image *f, double saturation, size_t bh, size_t bw, block *blk,
                         unsigned char *valid)
 {
-    size_t sh = f->depth > 1 ? (bh - (f->depth - 1) * DETAIL_RADIUS) / f->depth : bh;
+    size_t sh = f->height / 2;
     for (size_t i = 0; i < bh; i++) {
         size_t z = i / (sh + DETAIL_RADIUS), iz = i % (sh + DETAIL_RADIUS);
         for (size_t j = 0; j < bw; j++) {

@@ -68,32 +68,33 @@ static void residuals(const pp_ppcheck_input *in, const pp_image *ax, pp_ppcheck
     int photons = n->kind == PP_NOISE_POISSON || n->kind == PP_NOISE_CAMERA;
     double g = n->gain, read = n->kind == PP_NOISE_CAMERA ? n->read : 0.0;
     double q = p->quantised ? 1.0 / 12.0 : 0.0;
-    for (size_t z = 0; z < d; z++)
-    for (size_t i = 0; i < h; i++)
-        for (size_t j = 0; j < w; j++) {
-            size_t k = (z * h + i) * w + j;
-            double y = in->frame->data[k], r = NAN;
-            int inside = i >= edge && j >= edge && i + edge < h && j + edge < w && z >= edz &&
-                         z + edz < d;
-            if (inside && isfinite(y)) {
-                double sd = 1 / sqrt(in->lambda);
-                if (photons) {
-                    double mu = ax->data[k] + in->background;
-                    sd = sqrt(g * g * (fmax(mu, 0.0) + read * read) + q);
-                    r = (y - n->offset - g * mu) / sd;
-                } else {
-                    r = (y - ax->data[k]) / sd;
+    for (size_t z = 0; z < d; z++) {
+        for (size_t i = 0; i < h; i++)
+            for (size_t j = 0; j < w; j++) {
+                size_t k = (z * h + i) * w + j;
+                double y = in->frame->data[k], r = NAN;
+                int inside = i >= edge && j >= edge && i + edge < h && j + edge < w && z >= edz &&
+                             z + edz < d;
+                if (inside && isfinite(y)) {
+                    double sd = 1 / sqrt(in->lambda);
+                    if (photons) {
+                        double mu = ax->data[k] + in->background;
+                        sd = sqrt(g * g * (fmax(mu, 0.0) + read * read) + q);
+                        r = (y - n->offset - g * mu) / sd;
+                    } else {
+                        r = (y - ax->data[k]) / sd;
+                    }
+                    double c = curvature(ax, z, i, j), e = r * sd; /* e: y - E[y], unscaled */
+                    cnt++;
+                    sr += e;
+                    sc += c;
+                    srr += e * e;
+                    scc += c * c;
+                    src += e * c;
                 }
-                double c = curvature(ax, z, i, j), e = r * sd; /* e: y - E[y], unscaled */
-                cnt++;
-                sr += e;
-                sc += c;
-                srr += e * e;
-                scc += c * c;
-                src += e * c;
+                p->residual->data[k] = r;
             }
-            p->residual->data[k] = r;
-        }
+    }
     double vr = srr - sr * sr / cnt, vc = scc - sc * sc / cnt;
     p->curvature = cnt > 1 && vr > 0 && vc > 0 ? (src - sr * sc / cnt) / sqrt(vr * vc) : NAN;
 }

@@ -19,7 +19,9 @@ Checks:
    16-bit frame that stacks the six slices with 6 rows at 65535 between
    them (saturated pixels take no part, as unobserved ones would: the same
    blocks and the same gaps as the volume's internal layout) gives the
-   same gain and intercept to 1e-9 relative.
+   same gain and intercept to 1e-9 relative (the same sums in the same
+   order: equal in double; 1e-9 is the 10 significant digits the JSON
+   files print).
    A slice-crossing mistake (a neighbourhood or detail test reaching into
    the next slice) or a slice dropped would break the equality.
 3. The stated-gain data check pools the same way: 0.5 ADU/e- stated for 2

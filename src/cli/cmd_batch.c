@@ -390,10 +390,11 @@ static int announce(const batch_state *s)
     return 0;
 }
 
-static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **argv)
+/* mpi, rank, size: batch_mpi_active's answer (cli_cmd_batch). */
+static int run_batch(batch_ctx *c, const batch_run_opts *ro, int argc, char **argv, int mpi,
+                     int rank, int size)
 {
-    int rank = 0, size = 1, rc = 0, dispatched = 0;
-    int mpi = batch_mpi_active(&rank, &size);
+    int rc = 0, dispatched = 0;
     if (mpi && size > 1 && rank > 0) {
         c->threads_per_frame = mpi_threads(c->opts);
         batch_mpi_worker(c);
@@ -524,7 +525,7 @@ int cli_cmd_batch(int argc, char **argv)
     int rank = 0, size = 1, mpi = batch_mpi_active(&rank, &size);
     rc = prepare(&a, &o, &c, &ro, argc, argv, mpi && size > 1 && rank > 0);
     if (!rc)
-        rc = run_batch(&c, &ro, argc, argv);
+        rc = run_batch(&c, &ro, argc, argv, mpi, rank, size);
     free(c.frames);
     batch_mpi_finish();
     return rc;
