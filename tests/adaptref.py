@@ -262,6 +262,17 @@ def mean_sd_se(chains):
     return mu, sd, sd / np.sqrt(ess), ((d - mu) ** 2).std(ddof=1) / np.sqrt(ess2) / (2 * sd), ess
 
 
+def hyper_z(col, ch, draws):
+    """A hyperparameter's posterior mean and sd from pixpost's trace column
+    col (rows of chains ch) against the numpy draws: returns (pixpost mean,
+    sd, ESS; numpy mean, sd, ESS; z of the mean, z of the sd), each z the
+    difference over the hypot of the two standard errors (mean_sd_se)."""
+    pm, psd, pse_m, pse_s, pess = mean_sd_se([col[ch == c] for c in np.unique(ch)])
+    nm, nsd, nse_m, nse_s, ness = mean_sd_se([draws])
+    return (pm, psd, pess, nm, nsd, ness, (pm - nm) / np.hypot(pse_m, nse_m),
+            (psd - nsd) / np.hypot(pse_s, nse_s))
+
+
 def pixel_z(out, xs, tr, head, ch):
     """pixel_z_arrays of the output folder out's mean.tif, sd.tif and
     mcse.tif."""

@@ -74,9 +74,7 @@ pptest.check("censored" in json.dumps(js.get("missing_data", {})) or
              "summary.json says pixels were censored (%s)" % json.dumps(js.get("missing_data")))
 for k, name in enumerate(("lambda", "delta", "kappa")):
     col = tr[:, head.index(name)]
-    pm, psd, pse_m, pse_s, pess = adaptref.mean_sd_se([col[ch == i] for i in np.unique(ch)])
-    nm, nsd, nse_m, nse_s, ness = adaptref.mean_sd_se([hyp[:, k]])
-    zm, zsd = (pm - nm) / np.hypot(pse_m, nse_m), (psd - nsd) / np.hypot(pse_s, nse_s)
+    pm, psd, pess, nm, nsd, ness, zm, zsd = adaptref.hyper_z(col, ch, hyp[:, k])
     pptest.check(abs(zm) < ZMAX and abs(zsd) < ZMAX,
                  "%s: pixpost mean %.5g sd %.5g (ESS %.0f) vs numpy %.5g sd %.5g (ESS %.0f): "
                  "z mean %.2f, z sd %.2f (|z| < %g)" % (name, pm, psd, pess, nm, nsd, ness, zm, zsd,

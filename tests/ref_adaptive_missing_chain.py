@@ -91,10 +91,7 @@ pptest.check(summary["missing_data"]["masked"] == int(mask.sum()), "summary.json
 hyp, xs = adaptref.gibbs_chain((GH, GW), BLOCK, (H, W), SA, y, frame_px, 78, NP_BURN, NP_ITERS)
 for k, name in enumerate(("lambda", "delta", "kappa")):
     col = tr[:, head.index(name)]
-    pm, psd, pse_m, pse_s, pess = adaptref.mean_sd_se([col[ch == c] for c in np.unique(ch)])
-    nm, nsd, nse_m, nse_s, ness = adaptref.mean_sd_se([hyp[:, k]])
-    zm = (pm - nm) / np.hypot(pse_m, nse_m)
-    zsd = (psd - nsd) / np.hypot(pse_s, nse_s)
+    pm, psd, pess, nm, nsd, ness, zm, zsd = adaptref.hyper_z(col, ch, hyp[:, k])
     pptest.check(abs(zm) < ZMAX and abs(zsd) < ZMAX,
                  "mask %s: pixpost mean %.5g sd %.5g (ESS %.0f) vs numpy %.5g sd %.5g (ESS %.0f): "
                  "z mean %.2f, z sd %.2f (|z| < %g)" % (name, pm, psd, pess, nm, nsd, ness, zm, zsd,

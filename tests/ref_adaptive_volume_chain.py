@@ -101,10 +101,7 @@ def compare(boundary, seed):
     pptest.check(len(tr) == PP_CHAINS * PP_ITERS, "%s: trace of %d rows" % (boundary, len(tr)))
     for k, name in enumerate(("lambda", "delta", "kappa")):
         col = tr[:, head.index(name)]
-        pm, psd_, pse_m, pse_s, pess = adaptref.mean_sd_se([col[ch == c] for c in range(PP_CHAINS)])
-        nm, nsd, nse_m, nse_s, ness = adaptref.mean_sd_se([hyp[:, k]])
-        zm = (pm - nm) / np.hypot(pse_m, nse_m)
-        zsd = (psd_ - nsd) / np.hypot(pse_s, nse_s)
+        pm, psd_, pess, nm, nsd, ness, zm, zsd = adaptref.hyper_z(col, ch, hyp[:, k])
         pptest.check(abs(zm) < ZMAX and abs(zsd) < ZMAX,
                      "%s %s: pixpost mean %.5g sd %.5g (ESS %.0f) vs numpy %.5g sd %.5g (ESS "
                      "%.0f): z mean %.2f, z sd %.2f (|z| < %g)"

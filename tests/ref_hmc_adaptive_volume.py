@@ -216,10 +216,7 @@ def compare(label, pp, hyp, xs):
     worst = [0.0, 0.0, 0.0]
     for k, name in enumerate(("delta", "kappa", "level")):
         col = tr[:, head.index(name)]
-        pm, psd_, pse_m, pse_s, pess = adaptref.mean_sd_se([col[ch == c] for c in range(PP_CHAINS)])
-        nm, nsd, nse_m, nse_s, ness = adaptref.mean_sd_se([hyp[:, k]])
-        zm = (pm - nm) / np.hypot(pse_m, nse_m)
-        zsd = (psd_ - nsd) / np.hypot(pse_s, nse_s)
+        pm, psd_, pess, nm, nsd, ness, zm, zsd = adaptref.hyper_z(col, ch, hyp[:, k])
         worst[0] = max(worst[0], abs(zm), abs(zsd))
         print("%s %s: pixpost mean %.5g sd %.5g (ESS %.0f) vs numpy %.5g sd %.5g (ESS %.0f): "
               "z mean %.2f, z sd %.2f" % (label, name, pm, psd_, pess, nm, nsd, ness, zm, zsd))
