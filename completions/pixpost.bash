@@ -53,6 +53,7 @@ _pixpost()
         --progress) COMPREPLY=($(compgen -W "bar plain none" -- "$cur")); return 0 ;;
         --positivity) COMPREPLY=($(compgen -W "log none" -- "$cur")); return 0 ;;
         --iters) COMPREPLY=($(compgen -W "auto" -- "$cur")); return 0 ;;
+        --memory-limit) COMPREPLY=($(compgen -W "auto off" -- "$cur")); return 0 ;;
         --spots) COMPREPLY=($(compgen -W "auto" -- "$cur")); return 0 ;;
         --noise) COMPREPLY=($(compgen -W "gaussian gaussian:sigma= poisson:gain=,offset= camera:gain=,offset=,read= auto" -- "$cur")); return 0 ;;
         --prior) COMPREPLY=($(compgen -W "adaptive gmrf1 gmrf2 matern:range=6,nu=1" -- "$cur")); return 0 ;;

@@ -744,6 +744,22 @@ static pp_status plan_park(pp_sampler *s)
     return PP_OK;
 }
 
+void pp_sampler_memory_plan(const pp_sampler *s, size_t *run_bytes, unsigned *threads)
+{
+    size_t park = 0;
+    if (s->cfg.iters_auto && s->cfg.chains > s->nslots) { /* plan_park's stores */
+        pp_region r[PP_MAX_REGIONS + 1];
+        size_t n = slot_regions(s, &s->slot[0], r);
+        for (size_t j = 0; j < n; j++)
+            park += r[j].bytes;
+        park *= s->cfg.chains - s->nslots;
+    }
+    /* + the R-hat map of a round's check, + the six result maps (mean, sd,
+     * lo, hi, rhat, mcse) made at the end */
+    *run_bytes = park + ((s->cfg.iters_auto ? 1 : 0) + 6) * s->npix * sizeof(double);
+    *threads = s->nslots;
+}
+
 static void free_park(pp_sampler *s)
 {
     for (unsigned p = 0; s->park && p + s->nslots < s->cfg.chains; p++)

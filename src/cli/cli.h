@@ -179,6 +179,7 @@ typedef struct cli_sample_opts {
     pp_read_options read;   /* --channel, --max-pixels */
     const char *wisdom;     /* --wisdom FILE or NULL */
     int no_plan_cache;      /* --no-plan-cache */
+    size_t memory_limit;    /* --memory-limit: CLI_MEMORY_AUTO, CLI_MEMORY_OFF or bytes */
     int quiet;              /* --quiet */
     cli_progress progress;  /* --progress (AUTO: bar on a terminal, else none) */
     int strict;             /* --strict */
@@ -407,6 +408,14 @@ typedef struct cli_frame_run {
  * or CLI_EXIT_USAGE with r->message set (nothing printed). o is not
  * modified. */
 int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r);
+/* --memory-limit's two words (any other value is a number of bytes). */
+#define CLI_MEMORY_AUTO ((size_t)0)
+#define CLI_MEMORY_OFF SIZE_MAX
+/* The memory check of a sampler just made (memcheck.c): returns 0 when the
+ * run fits o->memory_limit (auto: the machine's available memory), else
+ * CLI_EXIT_USAGE with r->message naming the need, the room and the ways
+ * out. */
+int cli_memory_check(const cli_sample_opts *o, cli_frame_run *r);
 /* Marks the unobserved pixels of a frame just read (unobserved.c): NaN
  * where o->mask is nonzero, then at the saturated pixels
  * (pp_saturation_find) unless o->keep_saturated; counts in r->masked and

@@ -421,6 +421,8 @@ int cli_run_frame(const cli_sample_opts *o, cli_frame_run *r)
     if (!rc)
         rc = make_sampler(o, r, frame, psf, &ps, plans.effort, &na);
     if (!rc)
+        rc = cli_memory_check(o, r);
+    if (!rc)
         rc = cli_plans_save(o, &plans, r->sampler, r->message, sizeof r->message);
     if (!rc)
         rc = sample_and_write(o, r, frame, psf, &ps, &plans, &na);

@@ -6,7 +6,10 @@
  * text can never disagree with the library. Cost: negligible.
  */
 #include "cli.h"
+#include <errno.h>
 #include <limits.h>
+#include <math.h>
+#include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
 
@@ -160,6 +163,12 @@ static const cli_opt sample_table[] = {
     {"no-plan-cache", 0, 0, "",
      "Do not use the per-user FFT plan cache ($XDG_CACHE_HOME/pixpost, else ~/.cache/pixpost): "
      "plans are estimated, which involves no timing (slower at some sizes)."},
+    {"memory-limit", 0, 1, "auto|off|SIZE",
+     "Refuse, before sampling, a run whose memory would exceed the limit, naming what it "
+     "needs and the ways out (--threads 1, fewer --chains, a crop). auto: what this machine "
+     "has available (MemAvailable, or a batch job's cgroup limit when lower); SIZE: bytes, "
+     "or with a unit K, M, G or T (powers of 1024: 512M, 8G, 1.5T), e.g. a cluster job's "
+     "memory; off: no check."},
     {"quiet", 0, 0, "", "Print nothing but errors (no progress, no summary)."},
     {"progress", 0, 1, "bar|plain|none", "How progress is shown on stderr."},
     {"strict", 0, 0, "",
@@ -236,6 +245,8 @@ void cli_sample_default(const char *name, char *buf, size_t len, void *ctx)
         snprintf(buf, len, "none (the plan cache)");
     else if (strcmp(name, "progress") == 0)
         snprintf(buf, len, "bar on a terminal, none otherwise");
+    else if (strcmp(name, "memory-limit") == 0)
+        snprintf(buf, len, "auto");
     else if (strcmp(name, "quiet") == 0 || strcmp(name, "strict") == 0 ||
              strcmp(name, "overwrite") == 0)
         snprintf(buf, len, "off");
@@ -408,6 +419,35 @@ static int parse_reals(const cli_args *a, cli_sample_opts *o)
     return rc;
 }
 
+/* --memory-limit auto|off|SIZE (K, M, G, T: powers of 1024). */
+static int parse_memory_limit(const cli_args *a, cli_sample_opts *o)
+{
+    const char *v = cli_str(a, "memory-limit");
+    o->memory_limit = CLI_MEMORY_AUTO;
+    if (!v || strcmp(v, "auto") == 0)
+        return 0;
+    if (strcmp(v, "off") == 0) {
+        o->memory_limit = CLI_MEMORY_OFF;
+        return 0;
+    }
+    char *end;
+    errno = 0;
+    double x = strtod(v, &end);
+    const char *units = "KMGT", *u = *end ? strchr(units, *end) : NULL;
+    if (u && *end)
+        for (const char *k = units; k <= u; k++)
+            x *= 1024.0;
+    int ok = end != v && errno == 0 && isfinite(x) && x >= 1.0 && x < 1e18 &&
+             (*end == '\0' || (u && end[1] == '\0'));
+    if (!ok)
+        return cli_opt_error("memory-limit",
+                             "'%s' is not auto, off or a size (expected bytes, or a number "
+                             "with K, M, G or T: 512M, 8G)",
+                             v);
+    o->memory_limit = (size_t)x;
+    return 0;
+}
+
 static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
 {
     o->quiet = cli_given(a, "quiet");
@@ -474,7 +514,8 @@ int cli_sample_opts_from_args(const cli_args *a, cli_sample_opts *o)
     if (!o->outdir[0])
         return cli_opt_error("output", "empty folder name (expected -o OUTDIR)");
     if ((rc = parse_specs(a, o)) != 0 || (rc = parse_counts(a, o)) != 0 ||
-        (rc = parse_reals(a, o)) != 0 || (rc = parse_output_flags(a, o)) != 0)
+        (rc = parse_reals(a, o)) != 0 || (rc = parse_output_flags(a, o)) != 0 ||
+        (rc = parse_memory_limit(a, o)) != 0)
         return rc;
     if (o->progress == CLI_PROGRESS_AUTO)
         o->progress = isatty(STDERR_FILENO) ? CLI_PROGRESS_BAR : CLI_PROGRESS_NONE;
