@@ -4,7 +4,9 @@
    one line on stderr naming the file, what the run needs and the ways out
    (--threads 1 only when it runs on more than one thread), no output
    folder; a limit it fits runs. Malformed limits are refused naming the
-   option (the README's exit codes: 1 = input or usage error).
+   option (the README's exit codes: 1 = input or usage error). In batch
+   with --jobs 2 the limit holds both frames at once: a limit of 1.5x one
+   frame's need passes --jobs 1 and refuses --jobs 2.
 2. The estimate against the truth: the peak resident memory of the same
    run, measured by the kernel (tests/probe_peak_rss.c: getrusage's
    ru_maxrss of the child, KiB on Linux, getrusage(2)). For frames and a volume, gibbs (gmrf1 and the adaptive
@@ -12,11 +14,13 @@
    lengths: the estimate must be at least 0.97 of the peak (a run the
    check lets through must not need more; 3 % for the C library's arenas,
    which the estimate does not see) and at most 2 times it (a run the
-   machine could hold should not be refused). Skipped in the sanitizer
-   build only: AddressSanitizer replaces malloc (so glibc's counts see
-   none of the run) and its shadow memory multiplies the resident size;
-   the plain build, which users run, checks the band.
+   machine could hold should not be refused). This band is skipped in
+   the sanitizer build only: there the check reads AddressSanitizer's own
+   count of allocated bytes (it replaces malloc), so part 1 holds, but its
+   shadow memory and redzones multiply the resident size; the plain
+   build, which users run, checks the band.
 """
+import csv
 import os
 import re
 import subprocess
@@ -74,6 +78,36 @@ for bad in ("12Q", "-5", "0.5", "G", "1.5GB", ""):
                  len(p.stderr.strip().splitlines()) == 1,
                  "--memory-limit %r refused naming the option: %r" % (bad, p.stderr.strip()))
 
+# batch --jobs N: N frames at once, the room is theirs together
+bin_ = os.path.join(tmp, "bin")
+os.makedirs(bin_)
+for k in (1, 2):
+    os.link(f2, os.path.join(bin_, "f%d.tif" % k))
+p = pptest.run(["sample", f2, "--psf", "gaussian:sigma=1.5", "--noise", GAUSS, "--iters", 5,
+                "--burn", 5, "--threads", 1, "--memory-limit", "1K", "-o", out], check=False)
+m = re.search(r"needs about ([0-9.]+) MiB", p.stderr)
+pptest.check(m is not None, "the need is printed in MiB: %r" % p.stderr.strip())
+one = float(m.group(1))
+lim = "%dM" % int(one * 1.5)  # one frame fits, two at once do not
+for jobs, ok in ((1, True), (2, False)):
+    bo = os.path.join(tmp, "bout%d" % jobs)
+    p = pptest.run(["batch", bin_, "--psf", "gaussian:sigma=1.5", "--noise", GAUSS, "--iters", 5,
+                    "--burn", 5, "--threads", jobs, "--jobs", jobs, "--memory-limit", lim, "-o",
+                    bo], check=False)
+    with open(os.path.join(bo, "index.csv"), newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    status = [r["status"] for r in rows]
+    text = " ".join(r["message"] for r in rows)
+    if ok:
+        pptest.check(p.returncode == 0 and status == ["done", "done"],
+                     "batch --jobs 1 under --memory-limit %s (1.5x one frame's %.1f MiB): both "
+                     "frames done (exit %d)" % (lim, one, p.returncode))
+    else:
+        pptest.check(p.returncode == 2 and status == ["failed", "failed"] and
+                     text.count("for the 2 frames --jobs runs at once") == 2 and
+                     "fewer --jobs" in text,
+                     "batch --jobs 2 under the same limit: both frames refused, the message "
+                     "counting the 2 frames and offering fewer --jobs (exit %d)" % p.returncode)
 
 # 2. the estimate against the measured peak
 def sanitized():
@@ -101,7 +135,7 @@ def peak(args):
 
 if sanitized():
     print("NOTE sanitizer build: the estimate's band against the peak is checked in the plain "
-          "build only (ASan replaces malloc and adds shadow memory)")
+          "build only (ASan's shadow memory and redzones)")
 else:
     G2 = [f2, "--psf", "gaussian:sigma=1.5", "--noise", GAUSS]
     C2 = [fc, "--psf", "gaussian:sigma=1.5", "--noise", CAMERA]

@@ -180,6 +180,7 @@ typedef struct cli_sample_opts {
     const char *wisdom;     /* --wisdom FILE or NULL */
     int no_plan_cache;      /* --no-plan-cache */
     size_t memory_limit;    /* --memory-limit: CLI_MEMORY_AUTO, CLI_MEMORY_OFF or bytes */
+    unsigned memory_frames; /* frames sampled at once (batch --jobs); 0 or 1: one */
     int quiet;              /* --quiet */
     cli_progress progress;  /* --progress (AUTO: bar on a terminal, else none) */
     int strict;             /* --strict */

@@ -96,7 +96,8 @@ static void batch_help(FILE *fp)
  * recorded command line. */
 static int steering_option(const char *arg, int *with_value)
 {
-    static const char *const valued[] = {"--jobs", "--shard", "--threads", "--progress"};
+    static const char *const valued[] = {"--jobs", "--shard", "--threads", "--progress",
+                                         "--memory-limit"};
     *with_value = 0;
     if (strcmp(arg, "--resume") == 0 || strcmp(arg, "--quiet") == 0 ||
         strcmp(arg, "--overwrite") == 0 || strcmp(arg, "--strict") == 0)
@@ -129,8 +130,8 @@ static void recorded_command(int argc, char **argv, char *buf, size_t len)
  * (table order, so canonical) except those that only steer the run. */
 static void settings_text(const cli_args *a, const cli_sample_opts *o, char *buf, size_t len)
 {
-    static const char *const steering[] = {"output",  "quiet",  "progress",
-                                           "threads", "strict", "overwrite"};
+    static const char *const steering[] = {"output", "quiet",     "progress",    "threads",
+                                           "strict", "overwrite", "memory-limit"};
     const pp_sampler_config *c = &o->cfg;
     char noise[256], prior[256];
     pp_noise_format(&c->noise, noise, sizeof noise);
@@ -351,6 +352,8 @@ static int choose_jobs(const batch_run_opts *ro, cli_sample_opts *o, size_t ntod
     if (jobs < 1)
         jobs = 1;
     *threads_per_frame = cores / (int)jobs > 1 ? cores / (int)jobs : 1;
+    /* frames run at once: each one's memory check counts them all */
+    o->memory_frames = jobs < ntodo ? (unsigned)jobs : ntodo > 0 ? (unsigned)ntodo : 1;
     return (int)jobs;
 }
 

@@ -26,7 +26,18 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#ifdef __GLIBC__
+#if defined(__SANITIZE_ADDRESS__)
+#define MEMCHECK_ASAN 1
+#elif defined(__has_feature)
+#if __has_feature(address_sanitizer)
+#define MEMCHECK_ASAN 1
+#endif
+#endif
+#ifdef MEMCHECK_ASAN
+/* the sanitizer runtime's count (sanitizer/allocator_interface.h, which
+ * not every compiler installs) */
+size_t __sanitizer_get_current_allocated_bytes(void);
+#elif defined(__GLIBC__)
 #include <malloc.h>
 #endif
 
@@ -34,10 +45,14 @@
  * MiB of resident memory measured before and beside the allocations). */
 #define PROGRAM_BYTES ((size_t)8 << 20)
 
-/* Bytes this process has allocated and not freed; 0 when unknown. */
+/* Bytes this process has allocated and not freed; 0 when unknown. Under
+ * AddressSanitizer (the sanitizer build), which replaces malloc, its own
+ * count. */
 static size_t allocated_bytes(void)
 {
-#if defined(__GLIBC__) && (__GLIBC__ > 2 || (__GLIBC__ == 2 && __GLIBC_MINOR__ >= 33))
+#if defined(MEMCHECK_ASAN)
+    return __sanitizer_get_current_allocated_bytes();
+#elif defined(__GLIBC__) && (__GLIBC__ > 2 || (__GLIBC__ == 2 && __GLIBC_MINOR__ >= 33))
     struct mallinfo2 mi = mallinfo2();
     return mi.uordblks + mi.hblkhd;
 #else
@@ -131,18 +146,24 @@ int cli_memory_check(const cli_sample_opts *o, cli_frame_run *r)
     unsigned threads = 1;
     pp_sampler_memory_plan(r->sampler, &run, &threads);
     size_t need = alloc + run + PROGRAM_BYTES;
+    /* batch --jobs N: N frames (each in its own process) at once, each
+     * about this size; the room is theirs together */
+    unsigned frames = o->memory_frames > 1 ? o->memory_frames : 1;
     int automatic = o->memory_limit == CLI_MEMORY_AUTO;
     size_t room = automatic ? machine_room(resident_bytes()) : o->memory_limit;
-    if (room == 0 || need <= room)
+    if (room == 0 || need * frames <= room)
         return 0;
     unsigned chains = pp_sampler_config_used(r->sampler)->chains;
-    char a[32], b[32];
+    char a[32], b[32], c[32], many[96] = "";
+    if (frames > 1)
+        snprintf(many, sizeof many, "; %s for the %u frames --jobs runs at once",
+                 amount(need * frames, c, sizeof c), frames);
     snprintf(r->message, sizeof r->message,
-             "%s: this run needs about %s of memory (%u chains on %u thread%s), %s %s; use "
-             "%sfewer --chains or a crop of the frame, or %s",
-             r->frame, amount(need, a, sizeof a), chains, threads, threads == 1 ? "" : "s",
+             "%s: this run needs about %s of memory (%u chains on %u thread%s%s), %s %s; use "
+             "%s%sfewer --chains or a crop of the frame, or %s",
+             r->frame, amount(need, a, sizeof a), chains, threads, threads == 1 ? "" : "s", many,
              automatic ? "and this machine has room for" : "above --memory-limit",
-             amount(room, b, sizeof b),
+             amount(room, b, sizeof b), frames > 1 ? "fewer --jobs, " : "",
              threads > 1 ? "--threads 1 (each thread keeps its own working buffers), " : "",
              automatic ? "--memory-limit off to run it anyway" : "raise --memory-limit");
     return CLI_EXIT_USAGE;
