@@ -714,16 +714,23 @@ static void park_swap(pp_sampler *s, pp_slot *b, unsigned k)
         pp_fft_forward(s->fft, b->yaug, b->yhat);
 }
 
+/* Bytes of one park store: the state regions of a slot. */
+static size_t park_store_bytes(const pp_sampler *s)
+{
+    pp_region r[PP_MAX_REGIONS + 1];
+    size_t n = slot_regions(s, &s->slot[0], r), bytes = 0;
+    for (size_t j = 0; j < n; j++)
+        bytes += r[j].bytes;
+    return bytes;
+}
+
 /* Park stores for a run in rounds with more chains than slots: one per
  * chain beyond the slots (a slot holds one chain's state itself). */
 static pp_status plan_park(pp_sampler *s)
 {
     if (s->cfg.chains <= s->nslots)
         return PP_OK;
-    pp_region r[PP_MAX_REGIONS + 1];
-    size_t n = slot_regions(s, &s->slot[0], r), bytes = 0, nstore = s->cfg.chains - s->nslots;
-    for (size_t j = 0; j < n; j++)
-        bytes += r[j].bytes;
+    size_t bytes = park_store_bytes(s), nstore = s->cfg.chains - s->nslots;
     if (bytes == 0)
         return PP_OK;
     s->park = calloc(nstore, sizeof *s->park);
@@ -747,13 +754,8 @@ static pp_status plan_park(pp_sampler *s)
 void pp_sampler_memory_plan(const pp_sampler *s, size_t *run_bytes, unsigned *threads)
 {
     size_t park = 0;
-    if (s->cfg.iters_auto && s->cfg.chains > s->nslots) { /* plan_park's stores */
-        pp_region r[PP_MAX_REGIONS + 1];
-        size_t n = slot_regions(s, &s->slot[0], r);
-        for (size_t j = 0; j < n; j++)
-            park += r[j].bytes;
-        park *= s->cfg.chains - s->nslots;
-    }
+    if (s->cfg.iters_auto && s->cfg.chains > s->nslots) /* plan_park's stores */
+        park = park_store_bytes(s) * (s->cfg.chains - s->nslots);
     /* + the R-hat map of a round's check, + the six result maps (mean, sd,
      * lo, hi, rhat, mcse) made at the end */
     *run_bytes = park + ((s->cfg.iters_auto ? 1 : 0) + 6) * s->npix * sizeof(double);

@@ -18,8 +18,9 @@ const pp_run_length *pp_sampler_run_length(const pp_sampler *s);
 /* For a memory check before pp_sampler_run (src/cli/memcheck.c): *run_bytes
  * the bytes the run will still allocate beyond what pp_sampler_create did
  * (the park stores of a run in rounds with more chains than threads, the
- * R-hat map of each round's check, the result's six maps), *threads the threads that each
- * hold one set of working buffers (min(threads, chains)). */
+ * R-hat map of each round's check, the result's six maps), *threads the
+ * threads that each hold one set of working buffers (min(threads,
+ * chains)). */
 void pp_sampler_memory_plan(const pp_sampler *s, size_t *run_bytes, unsigned *threads);
 
 /* Frame pixels that were observed (finite) and unobserved (NaN). */
