@@ -419,6 +419,28 @@ int cli_get_seconds(const cli_args *a, const char *name, double *out)
     return 0;
 }
 
+int cli_get_bytes(const cli_args *a, const char *name, size_t *out)
+{
+    const char *v = cli_str(a, name);
+    if (!v)
+        return 0;
+    size_t n = strlen(v);
+    const char *units = "KMGT", *u = n > 0 ? strchr(units, v[n - 1]) : NULL;
+    double unit = 1, x;
+    if (u && *u) {
+        for (const char *k = units; k <= u; k++)
+            unit *= 1024.0;
+        n--;
+    }
+    /* below 2^60 bytes: fits size_t with room for a batch's multiples */
+    if (parse_double(v, v + n, &x) || !(x * unit >= 1.0) || !(x * unit < 0x1p60))
+        return bad_value(a, name, v, "is not accepted",
+                         "a size >= 1 byte: bytes, or a number with K, M, G or T (powers of "
+                         "1024: 512M, 8G)");
+    *out = (size_t)(x * unit);
+    return 0;
+}
+
 int cli_get_pair(const cli_args *a, const char *name, double min, double out[2])
 {
     const char *v = cli_str(a, name);

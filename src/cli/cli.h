@@ -100,6 +100,9 @@ int cli_get_double(const cli_args *a, const char *name, double lo, double hi, in
                    double *out);
 /* A time > 0 in seconds: a number, optionally followed by s, m or h. */
 int cli_get_seconds(const cli_args *a, const char *name, double *out);
+/* A size >= 1 byte: a number, optionally followed by K, M, G or T (powers
+ * of 1024), below 2^60. */
+int cli_get_bytes(const cli_args *a, const char *name, size_t *out);
 /* "A,B": two finite doubles, each >= min. */
 int cli_get_pair(const cli_args *a, const char *name, double min, double out[2]);
 /* "K/N" with 1 <= K <= N: shard K of N (1-based: 1/4 is the first of four). */

@@ -353,7 +353,7 @@ static int choose_jobs(const batch_run_opts *ro, cli_sample_opts *o, size_t ntod
         jobs = 1;
     *threads_per_frame = cores / (int)jobs > 1 ? cores / (int)jobs : 1;
     /* frames run at once: each one's memory check counts them all */
-    o->memory_frames = jobs < ntodo ? (unsigned)jobs : ntodo > 0 ? (unsigned)ntodo : 1;
+    o->memory_frames = (unsigned)(jobs < ntodo ? jobs : ntodo); /* 0 (nothing to do): one */
     return (int)jobs;
 }
 

@@ -6,10 +6,7 @@
  * text can never disagree with the library. Cost: negligible.
  */
 #include "cli.h"
-#include <errno.h>
 #include <limits.h>
-#include <math.h>
-#include <stdlib.h>
 #include <string.h>
 #include <unistd.h>
 
@@ -419,33 +416,14 @@ static int parse_reals(const cli_args *a, cli_sample_opts *o)
     return rc;
 }
 
-/* --memory-limit auto|off|SIZE (K, M, G, T: powers of 1024). */
+/* --memory-limit auto|off|SIZE (cli_get_bytes). */
 static int parse_memory_limit(const cli_args *a, cli_sample_opts *o)
 {
     const char *v = cli_str(a, "memory-limit");
-    o->memory_limit = CLI_MEMORY_AUTO;
-    if (!v || strcmp(v, "auto") == 0)
+    o->memory_limit = v && strcmp(v, "off") == 0 ? CLI_MEMORY_OFF : CLI_MEMORY_AUTO;
+    if (!v || strcmp(v, "auto") == 0 || strcmp(v, "off") == 0)
         return 0;
-    if (strcmp(v, "off") == 0) {
-        o->memory_limit = CLI_MEMORY_OFF;
-        return 0;
-    }
-    char *end;
-    errno = 0;
-    double x = strtod(v, &end);
-    const char *units = "KMGT", *u = *end ? strchr(units, *end) : NULL;
-    if (u && *end)
-        for (const char *k = units; k <= u; k++)
-            x *= 1024.0;
-    int ok = end != v && errno == 0 && isfinite(x) && x >= 1.0 && x < 1e18 &&
-             (*end == '\0' || (u && end[1] == '\0'));
-    if (!ok)
-        return cli_opt_error("memory-limit",
-                             "'%s' is not auto, off or a size (expected bytes, or a number "
-                             "with K, M, G or T: 512M, 8G)",
-                             v);
-    o->memory_limit = (size_t)x;
-    return 0;
+    return cli_get_bytes(a, "memory-limit", &o->memory_limit);
 }
 
 static int parse_output_flags(const cli_args *a, cli_sample_opts *o)
