@@ -42,6 +42,7 @@ struct pp_fft {
     size_t height, width, half; /* rows (all axes but the last), last axis, W/2+1 */
     fftw_plan r2c, c2r;
     pp_fft_plans source;
+    int batch; /* pp_fft_create_rows: height independent 1-D transforms */
 };
 
 /* "W x H" or "W x H x D": sizes in messages are spoken fastest axis first,
@@ -73,6 +74,24 @@ static void destroy_locked(pp_fft *f)
  * planner_lock. MEASURE first asks for plans from wisdom alone
  * (FFTW_WISDOM_ONLY, which fails at once when the wisdom has none), so that
  * f->source can tell loaded plans from newly measured ones. */
+static fftw_plan plan_r2c(const pp_fft *f, const int *n, double *r, fftw_complex *c,
+                          unsigned flags)
+{
+    if (f->batch)
+        return fftw_plan_many_dft_r2c(1, n + 1, n[0], r, NULL, 1, n[1], c, NULL, 1,
+                                      (int)f->half, flags);
+    return fftw_plan_dft_r2c(f->shape.rank, n, r, c, flags);
+}
+
+static fftw_plan plan_c2r(const pp_fft *f, const int *n, fftw_complex *c, double *r,
+                          unsigned flags)
+{
+    if (f->batch)
+        return fftw_plan_many_dft_c2r(1, n + 1, n[0], c, NULL, 1, (int)f->half, r, NULL, 1,
+                                      n[1], flags);
+    return fftw_plan_dft_c2r(f->shape.rank, n, c, r, flags);
+}
+
 static pp_status plan_locked(pp_fft *f, unsigned flags)
 {
     int rank = f->shape.rank, n[PP_MAX_RANK];
@@ -85,8 +104,8 @@ static pp_status plan_locked(pp_fft *f, unsigned flags)
      * planners call (FFTW manual §4.3.3), so rank-2 plans and their wisdom
      * are those of the earlier 2-D code. */
     if (r && c && flags == FFTW_MEASURE) {
-        f->r2c = fftw_plan_dft_r2c(rank, n, r, c, flags | FFTW_WISDOM_ONLY);
-        f->c2r = fftw_plan_dft_c2r(rank, n, c, r, flags | FFTW_WISDOM_ONLY);
+        f->r2c = plan_r2c(f, n, r, c, flags | FFTW_WISDOM_ONLY);
+        f->c2r = plan_c2r(f, n, c, r, flags | FFTW_WISDOM_ONLY);
         if (!f->r2c || !f->c2r) {
             if (f->r2c)
                 fftw_destroy_plan(f->r2c);
@@ -97,8 +116,8 @@ static pp_status plan_locked(pp_fft *f, unsigned flags)
         }
     }
     if (r && c && !f->r2c) {
-        f->r2c = fftw_plan_dft_r2c(rank, n, r, c, flags);
-        f->c2r = fftw_plan_dft_c2r(rank, n, c, r, flags);
+        f->r2c = plan_r2c(f, n, r, c, flags);
+        f->c2r = plan_c2r(f, n, c, r, flags);
     }
     fftw_free(r);
     fftw_free(c);
@@ -118,7 +137,20 @@ pp_status pp_fft_create(size_t height, size_t width, int effort, pp_fft **out)
     return pp_fft_create_shape(&s, effort, out);
 }
 
+static pp_status create(const pp_shape *shape, int batch, int effort, pp_fft **out);
+
 pp_status pp_fft_create_shape(const pp_shape *shape, int effort, pp_fft **out)
+{
+    return create(shape, 0, effort, out);
+}
+
+pp_status pp_fft_create_rows(size_t rows, size_t len, int effort, pp_fft **out)
+{
+    pp_shape s = pp_shape_2d(rows, len);
+    return create(&s, 1, effort, out);
+}
+
+static pp_status create(const pp_shape *shape, int batch, int effort, pp_fft **out)
 {
     *out = NULL;
     size_t n, half_n, bytes;
@@ -144,6 +176,7 @@ pp_status pp_fft_create_shape(const pp_shape *shape, int effort, pp_fft **out)
     if (!f)
         return pp_fail(PP_ERR_NOMEM, "out of memory for an FFT plan");
     f->shape = *shape;
+    f->batch = batch;
     f->width = shape->n[shape->rank - 1];
     f->height = n / f->width;
     f->half = f->width / 2 + 1;

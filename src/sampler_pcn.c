@@ -55,9 +55,8 @@
  * With a padding (--boundary pad, frames), after those: src/padmove.c's
  * refresh of the padding beyond PM_DMIN pixels from its exact prior
  * conditional given the rest (Crank-Nicolson, step adapted to T_FIELD,
- * accepted on the likelihood ratio; the level moves with it; about 30
- * conjugate-gradient iterations of 4 transforms, 2x an hmc iteration's CPU
- * on the demo frame).
+ * accepted on the likelihood ratio; the level moves with it; two strips in
+ * turn, each solved directly in its own Fourier basis: 10 transforms).
  * Adaptive prior (--prior adaptive, hmc only; src/adaptive.h): the prior
  * part of the target is z'Dᵀ W D z / 2 (D ignores the level m) instead of
  * |u|^2_dQ / 2. hmc keeps its Fourier-diagonal reference with delta = the
@@ -950,11 +949,11 @@ static pp_status pcn_run_chain(pp_sampler *s, pp_chain *c)
                 k->hp->lstep = adapt(k->hp->lstep, al, T_SCALAR, t, 1e300);
         }
         if (k->pm && sh->free_dc) {
-            const double *z_was = k->z; /* swapped on acceptance */
-            double ap = pp_padmove_step(s, c, k->pm, &hv, sqrt(1.0 - k->pstep * k->pstep));
+            int moved;
+            double ap = pp_padmove_step(s, c, k->pm, &hv, sqrt(1.0 - k->pstep * k->pstep), &moved);
             if (burn)
                 k->pstep = adapt(k->pstep, ap, T_FIELD, t, 1.0);
-            if (k->z != z_was)
+            if (moved)
                 k->gvalid = 0;
         }
         if (!fix_l && s->cens) {

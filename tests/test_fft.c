@@ -2,7 +2,8 @@
  * the round-trip scaling c2r(r2c(x)) = H*W*x, that forward leaves its input
  * alone, good sizes, the padded-grid rule, wisdom files (where plans come
  * from, merged saves), refusals, planning from several threads at once,
- * and rank-3 (and rank-1) plans against the DFT's definition. */
+ * rank-3 (and rank-1) plans against the DFT's definition, and batches of
+ * 1-D transforms (pp_fft_create_rows) against a direct 1-D DFT per row. */
 #include "pixpost/fft.h"
 #include "testutil.h"
 #include "pixpost/shape_extra.h"
@@ -271,6 +272,44 @@ static void check_rank3(size_t d, size_t h, size_t w)
     pp_fft_free(f);
 }
 
+/* pp_fft_create_rows: rows independent 1-D transforms, each against the
+ * direct 1-D DFT of its own row (a 2-D transform would mix the rows), and
+ * the round trip c2r(r2c(x)) = len x. Tolerance as check_rank3. */
+static void check_rows(size_t rows, size_t len, int effort)
+{
+    pp_fft *f = NULL;
+    CHECK(pp_fft_create_rows(rows, len, effort, &f) == PP_OK, "create %zu rows of %zu", rows, len);
+    if (!f)
+        return;
+    size_t hl = pp_fft_half_width(f);
+    CHECK(hl == len / 2 + 1 && pp_fft_height(f) == rows && pp_fft_width(f) == len, "row sizes");
+    double *x = pp_fft_alloc_real(rows * len), *y = pp_fft_alloc_real(rows * len);
+    pp_complex *c = pp_fft_alloc_complex(rows * hl);
+    unsigned long long seed = 7 + rows * 100 + len;
+    for (size_t i = 0; i < rows * len; i++)
+        x[i] = lcg(&seed);
+    pp_fft_forward(f, x, c);
+    double err = 0.0;
+    for (size_t r = 0; r < rows; r++)
+        for (size_t k = 0; k < hl; k++) {
+            pp_complex sum = 0;
+            for (size_t j = 0; j < len; j++)
+                sum += x[r * len + j] * cexp(-I * TWO_PI * (double)(k * j % len) / (double)len);
+            err = fmax(err, cabs(c[r * hl + k] - sum));
+        }
+    CHECK(err < 1e-10, "%zu rows of %zu: each row's r2c = its direct 1-D DFT (max error %.3g)",
+          rows, len, err);
+    pp_fft_inverse(f, c, y);
+    double rt = 0.0;
+    for (size_t i = 0; i < rows * len; i++)
+        rt = fmax(rt, fabs(y[i] / (double)len - x[i]));
+    CHECK(rt < 1e-12, "rows round trip (max error %.3g)", rt);
+    pp_fft_free_buffer(x);
+    pp_fft_free_buffer(y);
+    pp_fft_free_buffer(c);
+    pp_fft_free(f);
+}
+
 /* Rank 1 and the refusals of the shape form. */
 static void check_shape_forms(void)
 {
@@ -301,6 +340,8 @@ int main(void)
     check_rank3(3, 4, 6);
     check_rank3(4, 5, 7); /* odd last axis: no Nyquist plane */
     check_shape_forms();
+    check_rows(5, 12, PP_FFT_ESTIMATE);
+    check_rows(3, 9, PP_FFT_MEASURE); /* odd length: no Nyquist entry */
     check_good_size();
     check_good_grid();
     check_wisdom();

@@ -39,6 +39,10 @@ typedef struct pp_fft pp_fft;
 pp_status pp_fft_create_shape(const pp_shape *shape, int effort, pp_fft **out);
 /* The rank-2 case: pp_fft_create_shape of pp_shape_2d(height, width). */
 pp_status pp_fft_create(size_t height, size_t width, int effort, pp_fft **out);
+/* rows independent 1-D transforms of length len, stored one after another
+ * (rows x len reals, rows x (len/2 + 1) complex): the same layout as a
+ * rank-2 grid, transformed along its last axis only. */
+pp_status pp_fft_create_rows(size_t rows, size_t len, int effort, pp_fft **out);
 void pp_fft_free(pp_fft *f);
 
 pp_shape pp_fft_shape(const pp_fft *f);
