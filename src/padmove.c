@@ -76,11 +76,17 @@
 #define PM_EVEN_TOL 1e-9
 #define PM_TOL 1e-10  /* relative residual of the solve */
 #define PM_MAXIT 2000 /* solve iterations before a rejection */
+/* t_k(d) below this fraction of t_k(0) is left out of the preconditioner's
+ * T(k) (a banded prior, matern with integer alpha or gmrf1/2, has exact
+ * zeros there up to rounding; dropping more would only weaken the
+ * preconditioner, never the move's exactness, which the CG solve holds) */
+#define PM_BAND_TOL 1e-13
 
 static void strip_free(pp_padstrip *st)
 {
     free(st->pos);
     free(st->chol);
+    free(st->band);
     pp_fft_free(st->fft);
     pp_fft_free_buffer(st->w);
     pp_fft_free_buffer(st->rf);
@@ -106,13 +112,14 @@ static pp_status strip_make(const pp_sampler *s, const size_t *where, int axis, 
     st->n = n;
     st->len = len;
     st->pos = malloc(n * len * sizeof *st->pos);
-    st->chol = malloc(hl * n * n * sizeof *st->chol);
+    st->chol = calloc(hl * n * n, sizeof *st->chol);
+    st->band = malloc(hl * sizeof *st->band);
     double *cs = malloc(across * sizeof *cs), *sn = malloc(across * sizeof *sn);
     double *t = malloc(n * sizeof *t);
     st->w = pp_fft_alloc_real(n * len);
     st->rf = pp_fft_alloc_complex(n * hl);
     pp_status rc = PP_OK;
-    if (!st->pos || !st->chol || !cs || !sn || !t || !st->w || !st->rf)
+    if (!st->pos || !st->chol || !st->band || !cs || !sn || !t || !st->w || !st->rf)
         rc = PP_ERR_NOMEM;
     if (rc == PP_OK)
         rc = pp_fft_create_rows(n, len, s->cfg.fft_effort, &st->fft);
@@ -142,11 +149,16 @@ static pp_status strip_make(const pp_sampler *s, const size_t *where, int axis, 
             rc = pp_fail(PP_ERR_NUMERIC, "padding refresh: the prior is not even in each axis");
             break;
         }
+        size_t b = 0; /* T(k)'s band: its factor has the same (no fill in a band) */
+        for (size_t d = 1; d < n; d++)
+            if (fabs(t[d]) > PM_BAND_TOL * t[0])
+                b = d;
+        st->band[k] = b;
         double *c = st->chol + k * n * n; /* lower triangle, row-major */
         for (size_t i = 0; i < n && rc == PP_OK; i++)
-            for (size_t j = 0; j <= i; j++) {
+            for (size_t j = i > b ? i - b : 0; j <= i; j++) {
                 double v = t[i - j];
-                for (size_t l = 0; l < j; l++)
+                for (size_t l = i > b ? i - b : 0; l < j; l++)
                     v -= c[i * n + l] * c[j * n + l];
                 if (i == j) {
                     if (!(v > 0)) {
@@ -177,8 +189,8 @@ pp_status pp_padmove_create(const pp_sampler *s, size_t dmin, pp_padmove **out)
     int on[2];
     for (int a = 0; a < 2; a++) {
         first[a] = fr[a] + dmin - 1;
-        last[a] = ext[a] - dmin;
-        on[a] = ext[a] > fr[a] && last[a] >= first[a];
+        last[a] = ext[a] >= dmin ? ext[a] - dmin : 0;
+        on[a] = ext[a] > fr[a] && ext[a] >= dmin && last[a] >= first[a];
     }
     if (!on[0] && !on[1])
         return PP_OK;
@@ -260,15 +272,16 @@ static void strip_inverse(const pp_padstrip *st, const double *r, double *zz)
     pp_complex y[PM_MAX_ACROSS];
     for (size_t k = 0; k < hl; k++) {
         const double *ch = st->chol + k * n * n;
+        const size_t b = st->band[k];
         for (size_t i = 0; i < n; i++) { /* C^-1 */
             pp_complex v = st->rf[i * hl + k];
-            for (size_t j = 0; j < i; j++)
+            for (size_t j = i > b ? i - b : 0; j < i; j++)
                 v -= ch[i * n + j] * y[j];
             y[i] = v / ch[i * n + i];
         }
         for (size_t i = n; i-- > 0;) { /* C^-T */
             pp_complex v = y[i];
-            for (size_t j = i + 1; j < n; j++)
+            for (size_t j = i + 1; j < n && j <= i + b; j++)
                 v -= ch[j * n + i] * y[j];
             y[i] = v / ch[i * n + i];
         }

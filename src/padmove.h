@@ -19,6 +19,7 @@ typedef struct pp_padstrip {
     size_t n, len;
     size_t *pos;    /* position in B of the strip's pixel (i, j): pos[i * len + j] */
     double *chol;   /* per frequency k <= len/2, the n x n lower Cholesky factor of T(k) */
+    size_t *band;   /* per frequency, the factor's bandwidth (below the diagonal) */
     pp_fft *fft;    /* n transforms of length len */
     double *w;      /* n x len reals */
     pp_complex *rf; /* n x (len/2 + 1) */

@@ -1137,9 +1137,11 @@ static pp_status plan_work(pp_sampler *s, const pcn_shared *sh, pp_slot *b)
     if (!sh->gauss && sh->logx && !sh->adaptive &&
         pp_hphot_create(s->gn, s->gm, &k->hp) != PP_OK)
         return fail_nomem();
-    if (PIXPOST_PADMOVE && k->hp && s->depth == 1 && s->gn > s->npix &&
-        pp_padmove_create(s, PM_DMIN, &k->pm) != PP_OK)
-        return fail_nomem();
+    if (PIXPOST_PADMOVE && k->hp && s->depth == 1 && s->gn > s->npix) {
+        pp_status st = pp_padmove_create(s, PM_DMIN, &k->pm);
+        if (st != PP_OK)
+            return st == PP_ERR_NOMEM ? fail_nomem() : st;
+    }
     if (sh->adaptive) {
         pp_status st = pp_adapt_create(&s->gshape, &s->fshape, s->cfg.prior.block, sh->ca,
                                        s->cfg.prior.nu, s->cfg.hyper_delta, &k->ad);
