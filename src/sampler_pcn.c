@@ -598,6 +598,33 @@ static double level_move(const pp_sampler *s, const pcn_shared *sh, pp_chain *c,
     return alpha;
 }
 
+/* d Phi / d(A x) on the grid, 0 off the observed pixels: branch-free so
+ * that the loops vectorise (the ternaries give fmax's values, NaN
+ * included: mu NaN -> 1e-300). */
+PP_VECTOR_CLONES static void poisson_residual(const unsigned char *restrict obs,
+                                              const double *restrict ax,
+                                              const double *restrict d, double shift,
+                                              double *restrict r, size_t n)
+{
+    for (size_t i = 0; i < n; i++) {
+        double mu = ax[i] + shift;
+        mu = mu > 1e-300 ? mu : 1e-300;
+        double v = 1.0 - d[i] / mu;
+        r[i] = obs[i] ? v : 0.0;
+    }
+}
+
+PP_VECTOR_CLONES static void gauss_residual(const unsigned char *restrict obs,
+                                            const double *restrict ax,
+                                            const double *restrict d, double lambda,
+                                            double *restrict r, size_t n)
+{
+    for (size_t i = 0; i < n; i++) {
+        double v = lambda * (ax[i] - d[i]);
+        r[i] = obs[i] ? v : 0.0;
+    }
+}
+
 /* grad Phi in Fourier (the DFT of x * A'r, log; A'r, none) into out, from x
  * and A x on the grid; r is the likelihood residual on the observed pixels.
  * With the adaptive prior, out also holds the prior's gradient, the DFT of
@@ -609,17 +636,10 @@ static void grad_phi(const pp_sampler *s, const pcn_shared *sh, pp_chain *c, con
 {
     const double invn = 1.0 / (double)s->gn;
     double *r = c->rbuf;
-    memset(r, 0, s->gn * sizeof(double));
-    for (size_t i = 0; i < s->gn; i++) { /* observed pixels lie in the frame box */
-        if (!s->obs[i])
-            continue;
-        if (sh->gauss) {
-            r[i] = c->lambda * (ax[i] - sh->data[i]);
-            continue;
-        }
-        double mu = fmax(ax[i] + sh->shift, 1e-300);
-        r[i] = 1.0 - sh->data[i] / mu;
-    }
+    if (sh->gauss)
+        gauss_residual(s->obs, ax, sh->data, c->lambda, r, s->gn);
+    else
+        poisson_residual(s->obs, ax, sh->data, sh->shift, r, s->gn);
     const double sl = sqrt(c->lambda);
     for (size_t i = 0; s->cens && i < s->gn; i++) { /* censored: d/dmu of -log P(Y >= a) */
         if (!s->cens[i])
