@@ -11,8 +11,8 @@
  * periodic grid) from the frame are two strips: B0, the rows
  * h + dmin - 1 .. gh - dmin across the whole width, and B1, the columns
  * w + dmin - 1 .. gw - dmin across the whole height (h x w the frame at the
- * grid's origin, gh x gw the grid; they share the corner). Each strip is
- * refreshed in turn by its own Metropolis-Hastings step, the rest (A) held.
+ * grid's origin, gh x gw the grid; they share the corner). B = B0 u B1 is
+ * refreshed by one Metropolis-Hastings step, the rest (A) held.
  * Under the prior exp(-delta z'Qz / 2) (Q with its zero frequency 0: the
  * flat level), z_B given z_A is Gaussian (Rue & Held, Gaussian Markov
  * Random Fields, 2005, thm 2.5, which holds for an intrinsic prior as long
@@ -50,19 +50,23 @@
  * (L' the grid's side across the strip, k' its frequencies; real because
  * our priors' symbols are even in each axis, checked when made), and
  * Q_SS^-1 v = F^-1 (T(k)^-1 (F v)(k)) by a Cholesky factor of each T(k),
- * made once (T does not depend on delta). With it CG takes 5-8 iterations
- * on the demo frame instead of ~30 with the grid's own inverse (bench/
- * NOTES.md, 2026-12-05), and an iteration costs 2 grid transforms instead
- * of 4.
+ * made once (T does not depend on delta), within T(k)'s band (PM_BAND_TOL;
+ * a matern prior with integer alpha has band alpha except at k = 0, where
+ * the free level's q(0) = 0 makes T dense). With it CG takes ~10
+ * iterations on the demo frame instead of ~30 with the grid's own inverse
+ * (bench/NOTES.md, 2026-12-05, stop 32), and an iteration costs 2 grid
+ * transforms instead of 4. A band wider than PM_MAX_ACROSS is cut into
+ * several strips.
  * The level moves with z_B: m' = mean z', u' = DFT(z' - m').
  *
  * Cost: 6 grid transforms (3 for the right-hand side, 1 for u', 2 for
  * A x') and a normal per grid pixel, plus per CG iteration 2 grid
- * transforms and, per strip, 2 of its 1-D batches and (L/2 + 1) n^2 for
- * the triangular solves. Memory per chain slot: B's indices and 5 vectors
- * of |B| doubles; per strip its factors, (L/2 + 1) n^2 doubles (0.6 MB on
- * the demo frame's 224 x 192 grid; at most PM_MAX_ACROSS across, src/
- * padmove.h), its positions in B and 2 strip buffers.
+ * transforms and, per strip, 2 of its 1-D batches and about
+ * 2 (L/2 + 1) n (band + 1) for the triangular solves. Memory per chain
+ * slot: B's indices and 5 vectors of |B| doubles; per strip its factors,
+ * (L/2 + 1) n^2 doubles (0.6 MB on the demo frame's 224 x 192 grid; n at
+ * most PM_MAX_ACROSS, src/padmove.h), its positions in B and 2 strip
+ * buffers.
  */
 #include "padmove.h"
 #include "internal.h"
