@@ -70,10 +70,8 @@ static void destroy_locked(pp_fft *f)
     free(f);
 }
 
-/* Makes both plans on scratch arrays freed right after; caller holds
- * planner_lock. MEASURE first asks for plans from wisdom alone
- * (FFTW_WISDOM_ONLY, which fails at once when the wisdom has none), so that
- * f->source can tell loaded plans from newly measured ones. */
+/* A plan of f's kind: rank-n, or (f->batch) height 1-D transforms of the
+ * last axis one after another (fftw_plan_many_dft_*, FFTW manual §4.4.1). */
 static fftw_plan plan_r2c(const pp_fft *f, const int *n, double *r, fftw_complex *c,
                           unsigned flags)
 {
@@ -92,6 +90,10 @@ static fftw_plan plan_c2r(const pp_fft *f, const int *n, fftw_complex *c, double
     return fftw_plan_dft_c2r(f->shape.rank, n, c, r, flags);
 }
 
+/* Makes both plans on scratch arrays freed right after; caller holds
+ * planner_lock. MEASURE first asks for plans from wisdom alone
+ * (FFTW_WISDOM_ONLY, which fails at once when the wisdom has none), so that
+ * f->source can tell loaded plans from newly measured ones. */
 static pp_status plan_locked(pp_fft *f, unsigned flags)
 {
     int rank = f->shape.rank, n[PP_MAX_RANK];
@@ -137,19 +139,6 @@ pp_status pp_fft_create(size_t height, size_t width, int effort, pp_fft **out)
     return pp_fft_create_shape(&s, effort, out);
 }
 
-static pp_status create(const pp_shape *shape, int batch, int effort, pp_fft **out);
-
-pp_status pp_fft_create_shape(const pp_shape *shape, int effort, pp_fft **out)
-{
-    return create(shape, 0, effort, out);
-}
-
-pp_status pp_fft_create_rows(size_t rows, size_t len, int effort, pp_fft **out)
-{
-    pp_shape s = pp_shape_2d(rows, len);
-    return create(&s, 1, effort, out);
-}
-
 static pp_status create(const pp_shape *shape, int batch, int effort, pp_fft **out)
 {
     *out = NULL;
@@ -190,6 +179,17 @@ static pp_status create(const pp_shape *shape, int batch, int effort, pp_fft **o
     if (st == PP_OK)
         *out = f;
     return st;
+}
+
+pp_status pp_fft_create_shape(const pp_shape *shape, int effort, pp_fft **out)
+{
+    return create(shape, 0, effort, out);
+}
+
+pp_status pp_fft_create_rows(size_t rows, size_t len, int effort, pp_fft **out)
+{
+    pp_shape s = pp_shape_2d(rows, len);
+    return create(&s, 1, effort, out);
 }
 
 void pp_fft_free(pp_fft *f)

@@ -76,7 +76,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-/* |sine part| / largest |t_k(0)| beyond which Q is not even in each axis */
+/* |sine part| / t_k(0) beyond which Q is not even in each axis */
 #define PM_EVEN_TOL 1e-9
 #define PM_TOL 1e-10  /* relative residual of the solve */
 #define PM_MAXIT 2000 /* solve iterations before a rejection */
@@ -106,6 +106,54 @@ static double q_at(const pp_sampler *s, size_t kr, size_t kc)
     return s->q[((s->gh - kr) % s->gh) * hw + (s->gw - kc)];
 }
 
+/* t[d] = t_k(d), d < n, from the symbol qk[k'] across the strip (the
+ * opening comment's sum; cs, sn: cos and sin of 2 pi m / across). Returns
+ * the largest |sine part| (0 for a symbol even across the strip). */
+static double toeplitz_column(const double *qk, const double *cs, const double *sn,
+                              size_t across, size_t n, double *t)
+{
+    double odd = 0;
+    for (size_t d = 0; d < n; d++) {
+        double ac = 0, as = 0;
+        for (size_t kk = 0; kk < across; kk++) {
+            size_t m = kk * d % across;
+            ac += qk[kk] * cs[m];
+            as += qk[kk] * sn[m];
+        }
+        t[d] = ac / (double)across;
+        odd = fmax(odd, fabs(as) / (double)across);
+    }
+    return odd;
+}
+
+/* c (n x n, lower triangle, row-major, zero beyond the band) = the Cholesky
+ * factor of the symmetric Toeplitz matrix of t, within its band (entries
+ * below PM_BAND_TOL t[0] left out; a band has no fill). *band: the band.
+ * Returns -1 when the matrix is not positive definite. */
+static int band_cholesky(const double *t, size_t n, double *c, size_t *band)
+{
+    size_t b = 0;
+    for (size_t d = 1; d < n; d++)
+        if (fabs(t[d]) > PM_BAND_TOL * t[0])
+            b = d;
+    *band = b;
+    for (size_t i = 0; i < n; i++) {
+        size_t lo = i > b ? i - b : 0;
+        for (size_t j = lo; j <= i; j++) {
+            double v = t[i - j];
+            for (size_t l = lo; l < j; l++)
+                v -= c[i * n + l] * c[j * n + l];
+            if (i > j)
+                c[i * n + j] = v / c[j * n + j];
+            else if (v > 0)
+                c[i * n + i] = sqrt(v);
+            else
+                return -1;
+        }
+    }
+    return 0;
+}
+
 /* Strip `axis` (0: rows first..first+n-1 across the width; 1: those columns
  * across the height): indices, factors, plans and buffers. */
 static pp_status strip_make(const pp_sampler *s, const size_t *where, int axis, size_t first,
@@ -119,11 +167,11 @@ static pp_status strip_make(const pp_sampler *s, const size_t *where, int axis, 
     st->chol = calloc(hl * n * n, sizeof *st->chol);
     st->band = malloc(hl * sizeof *st->band);
     double *cs = malloc(across * sizeof *cs), *sn = malloc(across * sizeof *sn);
-    double *t = malloc(n * sizeof *t);
+    double *qk = malloc(across * sizeof *qk), *t = malloc(n * sizeof *t);
     st->w = pp_fft_alloc_real(n * len);
     st->rf = pp_fft_alloc_complex(n * hl);
     pp_status rc = PP_OK;
-    if (!st->pos || !st->chol || !st->band || !cs || !sn || !t || !st->w || !st->rf)
+    if (!st->pos || !st->chol || !st->band || !cs || !sn || !qk || !t || !st->w || !st->rf)
         rc = PP_ERR_NOMEM;
     if (rc == PP_OK)
         rc = pp_fft_create_rows(n, len, s->cfg.fft_effort, &st->fft);
@@ -136,49 +184,24 @@ static pp_status strip_make(const pp_sampler *s, const size_t *where, int axis, 
         cs[m] = cos(2 * PP_PI * (double)m / (double)across);
         sn[m] = sin(2 * PP_PI * (double)m / (double)across);
     }
-    for (size_t k = 0; k < hl && rc == PP_OK; k++) {
-        double odd = 0;
-        for (size_t d = 0; d < n; d++) {
-            double ac = 0, as = 0;
-            for (size_t kk = 0; kk < across; kk++) {
-                double q = axis == 0 ? q_at(s, kk, k) : q_at(s, k, kk);
-                size_t m = kk * d % across;
-                ac += q * cs[m];
-                as += q * sn[m];
-            }
-            t[d] = ac / (double)across;
-            odd = fmax(odd, fabs(as) / (double)across);
-        }
+    for (size_t k = 0; k < hl; k++) {
+        for (size_t kk = 0; kk < across; kk++) /* the symbol across, at frequency k along */
+            qk[kk] = axis == 0 ? q_at(s, kk, k) : q_at(s, k, kk);
+        double odd = toeplitz_column(qk, cs, sn, across, n, t);
         if (!(t[0] > 0) || odd > PM_EVEN_TOL * t[0]) {
             rc = pp_fail(PP_ERR_NUMERIC, "padding refresh: the prior is not even in each axis");
             break;
         }
-        size_t b = 0; /* T(k)'s band: its factor has the same (no fill in a band) */
-        for (size_t d = 1; d < n; d++)
-            if (fabs(t[d]) > PM_BAND_TOL * t[0])
-                b = d;
-        st->band[k] = b;
-        double *c = st->chol + k * n * n; /* lower triangle, row-major */
-        for (size_t i = 0; i < n && rc == PP_OK; i++)
-            for (size_t j = i > b ? i - b : 0; j <= i; j++) {
-                double v = t[i - j];
-                for (size_t l = i > b ? i - b : 0; l < j; l++)
-                    v -= c[i * n + l] * c[j * n + l];
-                if (i == j) {
-                    if (!(v > 0)) {
-                        rc = pp_fail(PP_ERR_NUMERIC,
-                                     "padding refresh: the prior's conditional on the padding "
-                                     "is not positive definite");
-                        break;
-                    }
-                    c[i * n + i] = sqrt(v);
-                } else
-                    c[i * n + j] = v / c[j * n + j];
-            }
+        if (band_cholesky(t, n, st->chol + k * n * n, &st->band[k])) {
+            rc = pp_fail(PP_ERR_NUMERIC, "padding refresh: the prior's conditional on the "
+                                         "padding is not positive definite");
+            break;
+        }
     }
 done:
     free(cs);
     free(sn);
+    free(qk);
     free(t);
     return rc;
 }

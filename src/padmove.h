@@ -41,7 +41,8 @@ typedef struct pp_padmove {
 
 /* For a frame (depth 1) of s->height x s->width at the origin of the
  * s->gh x s->gw grid. Returns PP_OK (*out NULL when B is empty),
- * PP_ERR_NOMEM, or PP_ERR_NUMERIC for a prior not even in each axis. Free with pp_padmove_free (NULL accepted). */
+ * PP_ERR_NOMEM, or PP_ERR_NUMERIC for a prior not even in each axis. Free
+ * with pp_padmove_free (NULL accepted). */
 pp_status pp_padmove_create(const pp_sampler *s, size_t dmin, pp_padmove **out);
 void pp_padmove_free(pp_padmove *pm);
 

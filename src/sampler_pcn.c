@@ -55,8 +55,9 @@
  * With a padding (--boundary pad, frames), after those: src/padmove.c's
  * refresh of the padding beyond PM_DMIN pixels from its exact prior
  * conditional given the rest (Crank-Nicolson, step adapted to T_FIELD,
- * accepted on the likelihood ratio; the level moves with it; two strips in
- * turn, each solved directly in its own Fourier basis: 10 transforms).
+ * accepted on the likelihood ratio; the level moves with it; its solve by
+ * conjugate gradients preconditioned by the padding bands' exact inverses,
+ * ~10 iterations of 2 transforms on the demo frame).
  * Adaptive prior (--prior adaptive, hmc only; src/adaptive.h): the prior
  * part of the target is z'Dᵀ W D z / 2 (D ignores the level m) instead of
  * |u|^2_dQ / 2. hmc keeps its Fourier-diagonal reference with delta = the

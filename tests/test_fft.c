@@ -273,8 +273,9 @@ static void check_rank3(size_t d, size_t h, size_t w)
 }
 
 /* pp_fft_create_rows: rows independent 1-D transforms, each against the
- * direct 1-D DFT of its own row (a 2-D transform would mix the rows), and
- * the round trip c2r(r2c(x)) = len x. Tolerance as check_rank3. */
+ * direct 1-D DFT of its own row (FFTW manual §4.8.1's definition; a 2-D
+ * transform would mix the rows and fail), and the round trip
+ * c2r(r2c(x)) = len x. Tolerance as check_rank3. */
 static void check_rows(size_t rows, size_t len, int effort)
 {
     pp_fft *f = NULL;
