@@ -315,6 +315,40 @@ static void block_move(pp_adapt *a, size_t b, pp_rng *rng)
     }
 }
 
+/* κ and the block field together, in the field's non-centred form (the
+ * ASIS idea of Yu & Meng, JCGS 2011, for a precision and the field it
+ * governs): log κ' = log κ + ε, ε ~ N(0, σ²), and every block's deviation
+ * from the frame's level L scaled by g = e^{−ε/2}, s'_B = L + g (s_B − L).
+ * L (the frame blocks' mean) is unchanged, so p(L) is; κ' Σ (s'_B −
+ * s'_B')² = κ Σ (s_B − s_B')², so the block field's GMRF density ratio,
+ * (κ'/κ)^{(nb − 1)/2}, cancels the map's Jacobian g^{nb − 1} (the map fixes
+ * the constant vector and scales the nb − 1 directions of zero frame mean).
+ * What is left is κ's hyperprior (with the Jacobian of log κ) and the
+ * factors of x | W that hold s: Σ_B n_B s_B / 2 − e^{s_B} R_B / 2, O(blocks)
+ * with R_B = Σ_{e in B} τ_e c_a d_e² (a->r). Without it κ | s is pinned by
+ * the blocks while the weakly informed blocks' s follow κ (a funnel:
+ * bench/NOTES.md, 2026-12-04). Steps on log κ of several sizes in turn
+ * (each a symmetric random walk). */
+static void kappa_scale(pp_adapt *a, pp_rng *rng)
+{
+    static const double steps[] = {0.1, 0.3, 1.0, 0.3};
+    const double L = frame_sum(a) / (double)a->nf;
+    for (size_t k = 0; k < sizeof steps / sizeof steps[0]; k++) {
+        double eps = steps[k] * pp_rng_normal(rng), g = exp(-0.5 * eps);
+        double la = KAPPA_SHAPE * eps - KAPPA_RATE * a->kappa * expm1(eps);
+        for (size_t b = 0; b < a->nb; b++) {
+            double t = L + g * (a->s[b] - L);
+            la += a->half[b] * (t - a->s[b]) - 0.5 * (exp(t) - exp(a->s[b])) * a->r[b];
+        }
+        if (isfinite(la) && log(pp_rng_uniform(rng)) < la) {
+            for (size_t b = 0; b < a->nb; b++)
+                a->s[b] = L + g * (a->s[b] - L);
+            a->kappa *= exp(eps);
+        }
+    }
+    a->ssum = frame_sum(a);
+}
+
 void pp_adapt_update(pp_adapt *a, const double *x, double *wz, double *wh, double *wv,
                      pp_rng *rng)
 {
@@ -375,6 +409,7 @@ void pp_adapt_update(pp_adapt *a, const double *x, double *wz, double *wh, doubl
             qs += (a->s[b + mp] - a->s[b]) * (a->s[b + mp] - a->s[b]);
     }
     a->kappa = pp_rng_gamma(rng, KAPPA_SHAPE + 0.5 * (double)(a->nb - 1), KAPPA_RATE + 0.5 * qs);
+    kappa_scale(a, rng);
     /* rescale the weights by e^{s_new - s_old} per block (moved blocks only) */
     for (size_t b = 0; b < a->nb; b++)
         a->es[b] = a->s[b] == a->es[b] ? 1.0 : exp(a->s[b] - a->es[b]);

@@ -93,6 +93,8 @@ struct pp_po {
 
 void pp_po_set_stop(pp_po *po, const volatile sig_atomic_t *stop) { po->stop = stop; }
 
+double *pp_po_scratch(pp_po *po, int k) { return k ? po->p : po->r; }
+
 void pp_po_free(pp_po *po)
 {
     if (!po)

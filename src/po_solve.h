@@ -36,6 +36,9 @@ pp_status pp_po_create(const pp_shape *shape, const double axis[3], int effort, 
 
 /* Accepts NULL. */
 void pp_po_free(pp_po *po);
+/* Grid k (0 or 1) of the solver's working buffers (N doubles each): free
+ * for the caller's use between draws (a draw overwrites them). */
+double *pp_po_scratch(pp_po *po, int k);
 
 /* While *stop (if stop is not NULL) is non-zero, pp_po_draw gives up at its
  * next CG iteration with PP_ERR_INTERRUPTED (a draw on a large grid can

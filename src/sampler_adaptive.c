@@ -21,15 +21,21 @@
  *      augmented frame redrawn from N(Ax, 1/λ) (data augmentation, as
  *      gibbs); then
  *      λ | x ~ Gamma(a + N/2, b + ‖Ax − y‖²/2) over the grid.
- *   3. W | x by src/adaptive.c (τ, block log-precisions, κ).
+ *   3. W | x by src/adaptive.c (τ, block log-precisions, κ, and κ with
+ *      the block field in non-centred form), then on frames the block
+ *      field-scale move (src/fieldscale.h).
+ * Between 1 and 2, two moves of the level with the field: the
+ * interweaving move (level_move) and the spectral level move
+ * (level_move_spectral), which scales only the detail the data do not see.
  * Start: x = the gmrf1 posterior mean at the chain's dispersed (λ, δ),
  * one Fourier solve; s = log δ everywhere.
  * Estimates: plain Monte Carlo moments of the draws x (no conditional
  * mean in closed form: the variance is the draws' variance alone).
  * Trace: lambda, delta (= exp(mean s), the global level), loglik, kappa,
  * probes.
- * Cost per iteration: the CG draw (2 FFT pairs per CG iteration + 6) and
- * one pair for A x, plus 2N Gamma and 3N normal draws.
+ * Cost per iteration: the CG draw (2 FFT pairs per CG iteration + 6), one
+ * pair for A x and 1.5 for the spectral level move, plus 2N Gamma and 3N
+ * normal draws.
  * Memory per thread: the solver (≈ 84 B/px, 92 B/voxel) + x, wh, wv (24
  * B/px; a volume adds wz, 8 B/voxel) on top of gibbs's buffers; shared:
  * the frame on the grid (periodic, 8 B/px).
@@ -43,11 +49,13 @@
 #include <string.h>
 #include "adaptive.h"
 #include "fieldscale.h"
+#include "incr.h"
 #include "internal.h"
 #include "observed.h"
 #include "po_solve.h"
 #include "quantiles.h"
 #include "sampler_internal.h"
+#include "spectral.h"
 #include "pixpost/setting_extra.h"
 
 #define PO_ALPHA 1.0 /* reversible-jump PO: no over-relaxation (x' independent of x) */
@@ -67,6 +75,9 @@
 typedef struct {
     pp_po *po;
     pp_adapt *ad;
+    /* the spectral level move: the frozen ratio λ/δ of its frequency
+     * weights and its step (set in burn-in, then fixed) */
+    double lv[2];
     pp_fieldscale *fs; /* the block field-scale move (NULL on tiny grids and volumes) */
     double *x, *wh, *wv;
     double *wz; /* volumes: the z increments' weights (NULL on a frame) */
@@ -226,6 +237,83 @@ static void level_move(const pp_sampler *s, pp_chain *c, adapt_work *k, const do
     c->delta = pp_adapt_level(k->ad);
 }
 
+/* Spectral level move (issue 16): the level L of the block precisions
+ * and the field's detail that the data do not see, moved together (the
+ * Fourier-weighted non-centring of src/hyper_photon.c's δ move, on the
+ * adaptive prior's level): ε ~ N(0, σ²), every s_B → s_B + ε (so W → e^ε
+ * W and L → L + ε), and x → x + dx, dx = F⁻¹ diag(e^{−ε f_k / 2} − 1) F x,
+ * f_k = q_k / (q_k + r |A_k|²) ∈ [0, 1] the stationary prior's share of
+ * frequency k at the frozen ratio r = λ/δ (f = 0 at the DC: the mean is
+ * held); the latent pixels of yaug (padding, missing) move with A dx, their
+ * noise held. The map for −ε undoes the one for ε (the multipliers
+ * invert), so Metropolis–Hastings accepts with π' / π times the Jacobian
+ * exp(−ε/2 Σ_k f_k) (full spectrum): the blocks' e^{n_B s_B / 2} give
+ * e^{N ε / 2}; the prior's form becomes e^ε Q_W(x + dx); the observed
+ * residual changes; the level's hyperprior moves by ε; τ, κ and p(s | κ)
+ * are unchanged. Where the prior dominates (f ≈ 1) the detail scales as
+ * e^{−ε/2}, exactly what the precision's change asks for, so the level
+ * is no longer held by the field's unobserved detail (the slowest
+ * direction of the block precisions on 128² photograph crops, τ ~130, was
+ * their common level: bench/NOTES.md, 2026-12-05 stop 33). Cost: one r2c
+ * and two c2r, two passes of the prior's form. r and σ follow λ/δ and the
+ * acceptance (towards 0.35) in burn-in only. */
+#define LV_TARGET 0.35
+static void level_move_spectral(const pp_sampler *s, pp_chain *c, adapt_work *k, double *y,
+                                 double *obs, unsigned long t)
+{
+    const size_t n = s->gn, wh2 = s->gw / 2 + 1;
+    const double invn = 1.0 / (double)n;
+    const int burn = t < s->cfg.burn;
+    if (burn || !(k->lv[0] > 0)) {
+        k->lv[0] = c->lambda / c->delta;
+        if (!(k->lv[1] > 0))
+            k->lv[1] = 0.1;
+    }
+    if (!(k->lv[0] > 0 && isfinite(k->lv[0])))
+        return;
+    double *dx = pp_po_scratch(k->po, 0), *adx = pp_po_scratch(k->po, 1);
+    const double r = k->lv[0], eps = k->lv[1] * pp_rng_normal(&c->rng);
+    pp_fft_forward(s->fft, k->x, c->cbuf);
+    double sumf = 0;
+    for (size_t i = 0; i < s->gm; i++) {
+        double q = s->q[i], f = q > 0 ? q / (q + r * c->otf2[i]) : 0.0;
+        sumf += pp_half_weight(i % wh2, s->gw) * f;
+        c->cbuf[i] *= expm1(-0.5 * eps * f) * invn;
+        c->cbuf2[i] = c->cbuf[i] * c->otf[i];
+    }
+    pp_fft_inverse(s->fft, c->cbuf, dx);
+    pp_fft_inverse(s->fft, c->cbuf2, adx);
+    double q0 = pp_incr_quad(s->gd, s->gh, s->gw, k->wz, k->wh, k->wv, k->x);
+    for (size_t i = 0; i < n; i++)
+        dx[i] += k->x[i]; /* dx now holds x' */
+    double q1 = pp_incr_quad(s->gd, s->gh, s->gw, k->wz, k->wh, k->wv, dx);
+    double so = 0;
+    int out = 0; /* a censored latent datum moved below its level: density 0 */
+    for (size_t i = 0; i < n; i++)
+        if (s->obs[i]) {
+            double d = c->rbuf[i] + adx[i] - y[i];
+            so += d * d;
+        } else if (s->cens && s->cens[i] && y[i] + adx[i] < s->censor_level && adx[i] < 0) {
+            out = 1;
+        }
+    double la = -0.5 * eps * sumf + 0.5 * (double)n * eps - 0.5 * (exp(eps) * q1 - q0) -
+                0.5 * c->lambda * (so - *obs) + pp_adapt_level_dlogp(k->ad, eps);
+    int acc = !out && isfinite(la) && log(pp_rng_uniform(&c->rng)) < la;
+    if (burn) /* Robbins–Monro on log σ */
+        k->lv[1] *= exp(((acc ? 1.0 : 0.0) - LV_TARGET) / sqrt((double)t + 10.0));
+    if (!acc)
+        return;
+    for (size_t i = 0; i < n; i++) {
+        k->x[i] = dx[i];
+        c->rbuf[i] += adx[i];
+        if (!s->obs[i])
+            y[i] += adx[i]; /* the latent pixels' noise held */
+    }
+    *obs = so;
+    pp_adapt_shift(k->ad, eps, k->wz, k->wh, k->wv);
+    c->delta = pp_adapt_level(k->ad);
+}
+
 /* The latent pixels of yaug (padding, missing pixels) redrawn from
  * N(Ax, 1/λ) (Ax in rbuf); returns their residual sum of squares
  * ‖yaug − Ax‖² over them. */
@@ -274,6 +362,7 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
     if (c->t == 0) {
         start_field(s, c, k->x);
         pp_adapt_start(k->ad, c->delta);
+        k->lv[0] = k->lv[1] = 0; /* the slot's previous chain left its own */
         pp_adapt_update(k->ad, k->x, k->wz, k->wh, k->wv, &c->rng);
         if (pad) {
             residual(s, c, k->x, y, &xmean);
@@ -312,12 +401,13 @@ static pp_status adaptive_run_chain(pp_sampler *s, pp_chain *c)
             c->solver_capped++;
         ss_obs = residual(s, c, k->x, y, &xmean);
         level_move(s, c, k, y, xmean, &ss_obs);
+        level_move_spectral(s, c, k, y, &ss_obs, t);
         ss = ss_obs + (pad ? augment(s, c) : 0.0); /* periodic: the frame is the grid */
         if (!fix_l)
             c->lambda = pp_rng_gamma(&c->rng, shape_l, cfg->hyper_lambda[1] + 0.5 * ss);
         pp_adapt_update(k->ad, k->x, k->wz, k->wh, k->wv, &c->rng);
         pp_fieldscale_sweep(k->fs, k->ad, k->x, c->rbuf, y, k->wh, k->wv, c->lambda,
-                            pad ? s->obs : NULL, &c->rng, &ss_obs);
+                            pad ? s->obs : NULL, s->cens, s->censor_level, &c->rng, &ss_obs);
         c->delta = pp_adapt_level(k->ad);
         if (keep) {
             pp_chain_add_draw(s, c, k->x);
@@ -355,6 +445,7 @@ static size_t state(const pp_sampler *s, void *kwork, pp_region *out)
     out[2] = (pp_region){k->wv, g};
     if (k->wz) /* a volume's (every slot's alike) */
         out[n++] = (pp_region){k->wz, g};
+    out[n++] = (pp_region){k->lv, sizeof k->lv};
     return n + pp_adapt_state(k->ad, out + n);
 }
 
