@@ -151,8 +151,9 @@ static double block_dquad(const pp_fieldscale *f, const double *x, const double 
         /* from the left neighbour outside: weight held */
         double xo = x[i * w + cl], xi = x[i * w + c0], xn = xi + em * vr[0];
         dq += wh[i * w + cl] * ((xn - xo) * (xn - xo) - (xi - xo) * (xi - xo));
+        const size_t id = (i + 1) % h;
         for (size_t j = c0; j < c1; j++) {
-            size_t p = i * w + j, jr = (j + 1) % w, id = (i + 1) % h;
+            size_t p = i * w + j, jr = (j + 1) % w;
             double xp = x[p], xpn = xp + em * vr[j - c0];
             double xq = x[i * w + jr], xqn = j + 1 < c1 ? xq + em * vr[j + 1 - c0] : xq;
             dq += wh[p] * (ws * (xqn - xpn) * (xqn - xpn) - (xq - xp) * (xq - xp));
@@ -227,8 +228,10 @@ static int block_move(pp_fieldscale *f, pp_adapt *a, size_t b, size_t mw, double
             double gv = f->g[u * ww + t];
             if (obs && !obs[gi * w + gj]) {
                 size_t i = gi * w + gj;
+                /* a censored latent datum below its level: the window's
+                 * part of pp_censored_range's test (observed.h) */
                 if (cens && cens[i] && em * gv < 0 && y[i] + em * gv < level)
-                    return 0; /* a censored latent datum below its level */
+                    return 0;
                 continue;
             }
             g1 += gv * (ax[gi * w + gj] - y[gi * w + gj]);

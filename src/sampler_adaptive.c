@@ -287,15 +287,15 @@ static void level_move_spectral(const pp_sampler *s, pp_chain *c, adapt_work *k,
     for (size_t i = 0; i < n; i++)
         dx[i] += k->x[i]; /* dx now holds x' */
     double q1 = pp_incr_quad(s->gd, s->gh, s->gw, k->wz, k->wh, k->wv, dx);
-    double so = 0;
-    int out = 0; /* a censored latent datum moved below its level: density 0 */
+    double so = 0, lo, hi;
     for (size_t i = 0; i < n; i++)
         if (s->obs[i]) {
             double d = c->rbuf[i] + adx[i] - y[i];
             so += d * d;
-        } else if (s->cens && s->cens[i] && y[i] + adx[i] < s->censor_level && adx[i] < 0) {
-            out = 1;
         }
+    /* the latent data move by adx: a censored one below its level has density 0 */
+    pp_censored_range(s, y, adx, 1.0, 0.0, &lo, &hi);
+    int out = !(hi >= 1.0);
     double la = -0.5 * eps * sumf + 0.5 * (double)n * eps - 0.5 * (exp(eps) * q1 - q0) -
                 0.5 * c->lambda * (so - *obs) + pp_adapt_level_dlogp(k->ad, eps);
     int acc = !out && isfinite(la) && log(pp_rng_uniform(&c->rng)) < la;
