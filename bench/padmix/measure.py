@@ -11,7 +11,9 @@ Usage: /usr/bin/python3 bench/padmix/measure.py PIXPOST FRAMES_TXT OUT_CSV
         PRIOR CHAINS BURN ITERS [name,name,...]
 Runs `pixpost sample FRAME --psf P --prior PRIOR --sampler gibbs --boundary
 pad --chains C --burn B --iters N --seed 1 --threads 1` for each frame and
-appends one row per hyperparameter to OUT_CSV.
+appends one row per hyperparameter to OUT_CSV. PADMIX_BOUNDARY=periodic in
+the environment runs the same with --boundary periodic (the comparison that
+tells the padding's share of the slowness).
 """
 import csv
 import json
@@ -36,7 +38,7 @@ def main():
                 continue
             d = tempfile.mkdtemp(prefix="padmix_")
             cmd = [pixpost, "sample", path, "--psf", psf, "--prior", prior, "--sampler", "gibbs",
-                   "--boundary", "pad", "--chains", chains, "--burn", burn, "--iters", iters,
+                   "--boundary", os.environ.get("PADMIX_BOUNDARY", "pad"), "--chains", chains, "--burn", burn, "--iters", iters,
                    "--seed", "1", "--threads", "1", "--quiet", "-o", d, "--overwrite"]
             r = subprocess.run(cmd, capture_output=True, text=True)
             if r.returncode not in (0, 3):
