@@ -106,6 +106,12 @@ Metrics per row:
                    the photon rows the counts (y - OFFSET)/GAIN, in photons
                    like the truth. rmse_ratio = rmse / min(rmse_rl,
                    rmse_wiener).
+    warnings, converged, pixels_converged, kept_per_chain   from the 95 %
+                   run's summary.json: its warning count,
+                   convergence.converged (every check passed),
+                   convergence.pixels.converged (the pixel estimates' checks
+                   passed) and run_length.kept_per_chain (what --iters, a
+                   number or auto, came to).
 Targets (issue 15): cov95 in [0.93, 0.97]; cov50 in [0.45, 0.55]; cov95 >=
 0.90 in each class; z_sd in [0.85, 1.2] (over the frame; per-class z_sd is
 reported, not judged); spearman >= 0.3; rmse_ratio <= 1.0.
@@ -394,6 +400,10 @@ def do_row(job):
     row["sd_median"] = float(np.median(sd))
     row["level_same_chain"] = bool(np.array_equal(res["p95"]["mean"], res["p50"]["mean"]))
     row["warnings"] = len(summ.get("warnings", []))
+    conv = summ.get("convergence", {})
+    row["converged"] = bool(conv.get("converged", False))
+    row["pixels_converged"] = bool(conv.get("pixels", {}).get("converged", False))
+    row["kept_per_chain"] = summ.get("run_length", {}).get("kept_per_chain", summ.get("iters"))
     row["seconds"] = round(secs, 2)
     row["misses"] = ";".join(k for k in TARGETS if miss(k, row[k]))
     return row
