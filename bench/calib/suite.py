@@ -513,7 +513,7 @@ def main():
     psf_arr = {}
     for p in psfs:
         f = os.path.join(a.out, "psf_%s.tif" % p)
-        subprocess.run([a.bin, "psf", PSFS[p], "--quiet", "-o", f], check=True)
+        subprocess.run([a.bin, "psf", PSFS[p], "--quiet", "--overwrite", "-o", f], check=True)
         psf_arr[p] = tifffile.imread(f).astype(np.float64)
     margin = max(k.shape[0] // 2 for k in psf_arr.values()) + 1
     jobs, skipped = [], []
