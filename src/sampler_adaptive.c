@@ -295,10 +295,9 @@ static void level_move_spectral(const pp_sampler *s, pp_chain *c, adapt_work *k,
         }
     /* the latent data move by adx: a censored one below its level has density 0 */
     pp_censored_range(s, y, adx, 1.0, 0.0, &lo, &hi);
-    int out = !(hi >= 1.0);
     double la = -0.5 * eps * sumf + 0.5 * (double)n * eps - 0.5 * (exp(eps) * q1 - q0) -
                 0.5 * c->lambda * (so - *obs) + pp_adapt_level_dlogp(k->ad, eps);
-    int acc = !out && isfinite(la) && log(pp_rng_uniform(&c->rng)) < la;
+    int acc = hi >= 1.0 && isfinite(la) && log(pp_rng_uniform(&c->rng)) < la;
     if (burn) /* Robbins–Monro on log σ */
         k->lv[1] *= exp(((acc ? 1.0 : 0.0) - LV_TARGET) / sqrt((double)t + 10.0));
     if (!acc)
